@@ -1,0 +1,34 @@
+"""The one exception type a user meets for bad input, with the fields every message carries."""
+
+
+class StackError(ValueError):
+    """Bad input: a stack file, a spectrum, an option.
+
+    Attributes
+    ----------
+    file : str or None
+        The file that holds the problem (None for an option or an API argument).
+    where : str or None
+        The place inside it: ``element 2 'top'``, ``key conditions.suns``, ``line 4``.
+    problem : str
+        What is wrong.
+    fix : str
+        How to fix it.
+    """
+
+    def __init__(self, problem, *, file=None, where=None, fix=""):
+        self.file = None if file is None else str(file)
+        self.where = where
+        self.problem = problem
+        self.fix = fix
+        super().__init__(self._text())
+
+    def _text(self):
+        head = ": ".join(part for part in (self.file, self.where) if part)
+        text = f"{head}: {self.problem}" if head else self.problem
+        if self.fix:
+            text += f"\n  fix: {self.fix}"
+        return text
+
+    def to_dict(self):
+        return {"file": self.file, "where": self.where, "problem": self.problem, "fix": self.fix}

@@ -1,0 +1,235 @@
+"""Subcell current-voltage law: two diodes, shunt, series resistance, reverse breakdown.
+
+Sign convention: generated current positive. For the junction voltage Vj = V + J Rs,
+
+    J = Jph - J01 (exp(Vj/Vt) - 1) - J02 (exp(Vj/(2 Vt)) - 1) - G Vj [1 + a (1 - Vj/Vbr)^(-m)]
+
+with Vt = kT/q, G the shunt conductance (G = 0 is an infinite shunt), and the last bracket the
+avalanche-breakdown multiplication of the shunt current for Vj > Vbr (Vbr < 0).
+
+The junction current decreases strictly with Vj, so every current has one junction voltage. The
+inverse uses the Wright omega function in log space for the single-diode case (no overflow, no
+cancellation for shunts up to 1e12 ohm cm^2) and a bracketed root find otherwise.
+
+References
+----------
+W. Shockley, Bell Syst. Tech. J. 28 (1949) 435 (ideal diode); C.-T. Sah, R. N. Noyce,
+W. Shockley, Proc. IRE 45 (1957) 1228 (depletion-region recombination, ideality 2).
+A. Jain, A. Kapoor, Sol. Energy Mater. Sol. Cells 81 (2004) 269 (Lambert W solution of the
+single-diode equation with series and shunt resistance).
+J. W. Bishop, Solar Cells 25 (1988) 73 (reverse-bias breakdown term).
+"""
+import numpy as np
+from scipy.optimize import elementwise
+from scipy.special import wrightomega
+
+from ..constants import thermal_voltage_V
+
+#: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
+BREAKDOWN_EXPONENT = 3.28
+
+
+def _breakdown_multiplier(v, breakdown_V, factor, exponent):
+    """1 + a (1 - Vj/Vbr)^(-m) and its derivative in Vj; 1 where there is no breakdown."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        base = 1.0 - v / breakdown_V  # > 0 for Vj > Vbr (Vbr < 0)
+        active = (factor > 0) & np.isfinite(breakdown_V)
+        base = np.where(active, np.maximum(base, 1e-300), 1.0)
+        power = base ** (-exponent)
+        multiplier = 1.0 + np.where(active, factor * power, 0.0)
+        slope = np.where(active, factor * exponent * power / base / breakdown_V, 0.0)
+    return multiplier, slope
+
+
+def junction_current(v_junction_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
+                     shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
+                     breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+    """Current density [A/m^2] of the junction at junction voltage ``v_junction_V`` [V].
+
+    Parameters
+    ----------
+    v_junction_V : array_like
+        Junction voltage Vj = V + J Rs [V]; must exceed ``breakdown_V`` where breakdown is on.
+    photocurrent_A_m2 : array_like
+        Photogenerated current density Jph [A/m^2], >= 0.
+    j01_A_m2, j02_A_m2 : array_like
+        Saturation current densities of the ideality-1 and ideality-2 diodes [A/m^2], >= 0.
+    shunt_S_m2 : array_like
+        Shunt conductance per area [S/m^2] (1/R_sh), >= 0; 0 is no shunt.
+    temperature_K : array_like
+        Temperature [K].
+    breakdown_V : array_like
+        Breakdown voltage Vbr [V], < 0; -inf for none.
+    breakdown_factor : array_like
+        Fraction a of the shunt current multiplied by avalanche [-], >= 0.
+    breakdown_exponent : array_like
+        Avalanche exponent m [-].
+
+    Returns
+    -------
+    current : ndarray
+        J [A/m^2].
+    slope : ndarray
+        dJ/dVj [A m^-2 V^-1], < 0.
+    """
+    v = np.asarray(v_junction_V, dtype=float)
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    with np.errstate(over="ignore"):
+        e1 = np.expm1(v / vt)
+        e2 = np.expm1(v / (2.0 * vt))
+    multiplier, multiplier_slope = _breakdown_multiplier(v, breakdown_V, breakdown_factor,
+                                                         breakdown_exponent)
+    current = (photocurrent_A_m2 - j01_A_m2 * e1 - j02_A_m2 * e2 - shunt_S_m2 * v * multiplier)
+    with np.errstate(over="ignore", invalid="ignore"):
+        slope = (-(j01_A_m2 / vt) * (e1 + 1.0) - (j02_A_m2 / (2.0 * vt)) * (e2 + 1.0)
+                 - shunt_S_m2 * (multiplier + v * multiplier_slope))
+    return current, slope
+
+
+def _single_diode_voltage(current, *, photocurrent_A_m2, j01_A_m2, shunt_S_m2, vt):
+    """Vj(J) of one ideal diode with shunt, closed form through the Wright omega function.
+
+    With G > 0: Vj = a - Vt w(x), a = (Jph + J0 - J)/G, x = ln(J0/(G Vt)) + a/Vt, w = omega(x).
+    Since w + ln w = x, for x > 0 the same is Vj = Vt ln(w G Vt / J0), free of the cancellation
+    of two large numbers; for x <= 0 (reverse branch) the first form is used. With G = 0:
+    Vj = Vt ln1p((Jph - J)/J0), -inf at and beyond the saturation limit Jph + J0.
+    """
+    drive = photocurrent_A_m2 + j01_A_m2 - current
+    shunted = shunt_S_m2 > 0
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        g = np.where(shunted, shunt_S_m2, 1.0)
+        a = drive / g
+        x = np.log(j01_A_m2 / (g * vt)) + a / vt
+        w = np.real(wrightomega(x))
+        forward = vt * np.log(w * g * vt / j01_A_m2)
+        reverse = a - vt * w
+        with_shunt = np.where(x > 0, forward, reverse)
+        ratio = (photocurrent_A_m2 - current) / j01_A_m2
+        without_shunt = np.where(ratio > -1.0, vt * np.log1p(np.maximum(ratio, -1.0)), -np.inf)
+    return np.where(shunted, with_shunt, without_shunt)
+
+
+def junction_voltage(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
+                     shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
+                     breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+    """Junction voltage Vj [V] that carries ``current_A_m2`` [A/m^2] (inverse of junction_current).
+
+    Parameters are those of :func:`junction_current`. Currents beyond what the junction can carry
+    (no shunt and J >= Jph + J01 + J02) give -inf.
+
+    Returns
+    -------
+    voltage : ndarray
+        Vj [V].
+    slope : ndarray
+        dVj/dJ [V m^2 A^-1] (= 1 / dJ/dVj), < 0.
+    """
+    params = dict(photocurrent_A_m2=photocurrent_A_m2, j01_A_m2=j01_A_m2, j02_A_m2=j02_A_m2,
+                  shunt_S_m2=shunt_S_m2, temperature_K=temperature_K, breakdown_V=breakdown_V,
+                  breakdown_factor=breakdown_factor, breakdown_exponent=breakdown_exponent)
+    arrays = np.broadcast_arrays(np.asarray(current_A_m2, dtype=float),
+                                 *[np.asarray(v, dtype=float) for v in params.values()])
+    current, (jph, j01, j02, g, temperature, vbr, factor, exponent) = arrays[0], arrays[1:]
+    vt = thermal_voltage_V(temperature)
+    simple = (j02 == 0) & ((factor == 0) | ~np.isfinite(vbr))
+    voltage = np.empty(current.shape)
+    voltage[simple] = _single_diode_voltage(current[simple], photocurrent_A_m2=jph[simple],
+                                            j01_A_m2=j01[simple], shunt_S_m2=g[simple],
+                                            vt=vt[simple])
+    hard = ~simple
+    if np.any(hard):
+        voltage[hard] = _bracketed_voltage(current[hard], jph[hard], j01[hard], j02[hard],
+                                           g[hard], temperature[hard], vbr[hard],
+                                           factor[hard], exponent[hard])
+    with np.errstate(invalid="ignore"):
+        _, slope_j = junction_current(voltage, photocurrent_A_m2=jph, j01_A_m2=j01, j02_A_m2=j02,
+                                      shunt_S_m2=g, temperature_K=temperature,
+                                      breakdown_V=vbr, breakdown_factor=factor,
+                                      breakdown_exponent=exponent)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(np.isfinite(voltage), 1.0 / slope_j, -np.inf)
+    return voltage, slope
+
+
+def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, exponent):
+    """Vj(J) by Chandrupatla's bracketed root find (scipy.optimize.elementwise.find_root)."""
+    vt = thermal_voltage_V(temperature)
+    surplus = jph - current
+    saturation = j01 + j02
+    # upper bound: where the ideal diodes alone already carry the surplus (f < 0 there)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        upper = np.where(surplus > 0, 2.0 * vt * np.log1p(np.maximum(surplus, 0.0) / saturation),
+                         0.0) + 1e-9
+        # lower bound: the shunt alone carries the deficit (f > 0 there); breakdown clips it
+        lower = np.where(surplus >= 0, -1e-9,
+                         np.where(g > 0, surplus / np.where(g > 0, g, 1.0) - 1e-9, -np.inf))
+    has_breakdown = (factor > 0) & np.isfinite(vbr) & (g > 0)
+    lower = np.where(has_breakdown, np.maximum(lower, vbr * (1.0 - 1e-12)), lower)
+    reachable = np.isfinite(lower) | (surplus + saturation > 0)
+    # without a shunt the deficit can reach at most -saturation: find a finite lower bound
+    no_shunt = ~np.isfinite(lower) & reachable
+    if np.any(no_shunt):
+        ratio = np.clip(-(surplus[no_shunt]) / saturation[no_shunt], 0.0, 1.0)
+        lower[no_shunt] = 2.0 * vt[no_shunt] * np.log(np.maximum(1.0 - ratio, 1e-300)) - 1.0
+    out = np.full(current.shape, -np.inf)
+    if np.any(reachable):
+        def residual(v, jph_, j01_, j02_, g_, t_, vbr_, a_, m_, j_):
+            value, _ = junction_current(v, photocurrent_A_m2=jph_, j01_A_m2=j01_, j02_A_m2=j02_,
+                                        shunt_S_m2=g_, temperature_K=t_, breakdown_V=vbr_,
+                                        breakdown_factor=a_, breakdown_exponent=m_)
+            return value - j_
+
+        r = reachable
+        result = elementwise.find_root(
+            residual, (lower[r], upper[r]),
+            args=(jph[r], j01[r], j02[r], g[r], temperature[r], vbr[r], factor[r],
+                  exponent[r], current[r]),
+            tolerances=dict(xatol=1e-13, xrtol=4 * np.finfo(float).eps))
+        out[r] = np.where(result.success, result.x, np.nan)
+    return out
+
+
+def subcell_voltage(current_A_m2, *, series_ohm_m2=0.0, **junction):
+    """Terminal voltage [V] of a subcell carrying ``current_A_m2``: Vj(J) - J Rs.
+
+    ``junction`` takes the keywords of :func:`junction_current`; ``series_ohm_m2`` is the series
+    resistance-area [ohm m^2]. Returns (voltage, dV/dJ).
+    """
+    vj, slope = junction_voltage(current_A_m2, **junction)
+    return vj - current_A_m2 * series_ohm_m2, slope - series_ohm_m2
+
+
+def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
+    """Current density [A/m^2] of a subcell at terminal voltage ``voltage_V`` [V].
+
+    Solves V = Vj - Rs J(Vj) for Vj (strictly increasing in Vj) by a bracketed root find, then
+    J = J(Vj). Returns (current, dJ/dV).
+    """
+    voltage = np.asarray(voltage_V, dtype=float)
+    rs = np.broadcast_to(np.asarray(series_ohm_m2, dtype=float), voltage.shape)
+    junction = {k: np.broadcast_to(np.asarray(v, dtype=float), voltage.shape)
+                for k, v in junction.items()}
+    if np.all(rs == 0):
+        current, slope = junction_current(voltage, **junction)
+        return current, slope
+
+    def residual(vj, v, r, *values):
+        kwargs = dict(zip(junction, values))
+        j, _ = junction_current(vj, **kwargs)
+        return vj - r * j - v
+
+    # exact bracket: the root Vj* = V + Rs J(Vj*) lies between V and V + Rs J(V), because J
+    # falls with Vj (if J(V) >= 0 then V <= Vj* <= V + Rs J(V), and the reverse if J(V) < 0)
+    j_at_v, _ = junction_current(voltage, **junction)
+    other = voltage + rs * j_at_v
+    lo = np.minimum(voltage, other) - 1e-12
+    hi = np.maximum(voltage, other) + 1e-12
+    vbr = junction.get("breakdown_V")
+    if vbr is not None:
+        lo = np.maximum(lo, np.where(np.isfinite(vbr), vbr * (1 - 1e-12), -np.inf))
+    result = elementwise.find_root(residual, (lo, hi), args=(voltage, rs, *junction.values()),
+                                   tolerances=dict(xatol=1e-13, xrtol=4 * np.finfo(float).eps))
+    vj = np.where(result.success, result.x, np.nan)
+    current, slope_j = junction_current(vj, **junction)
+    slope = slope_j / (1.0 - rs * slope_j)
+    return current, slope

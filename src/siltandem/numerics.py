@@ -1,0 +1,62 @@
+"""Small numerical tools shared by the solver: a whole-array bracketed root finder.
+
+``scipy.optimize.elementwise.find_root`` evaluates its function only on the elements still
+active, which needs every parameter passed through ``args``. The series solver evaluates whole
+element chains whose parameters live in dataclasses, so it uses this whole-array variant: the
+Illinois modification of regula falsi (M. Dowell, P. Jarratt, BIT 11 (1971) 168), guarded by
+bisection, always on the full array.
+"""
+import numpy as np
+
+
+def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200):
+    """Roots of an elementwise function inside brackets, on whole arrays.
+
+    Parameters
+    ----------
+    function : callable
+        ``function(x) -> ndarray`` of the shape of ``x``, elementwise.
+    lower, upper : ndarray
+        Brackets; ``function`` must change sign between them (else the result is NaN there).
+    xtol, rtol : float
+        Absolute and relative tolerance on the root.
+
+    Returns
+    -------
+    root : ndarray
+        NaN where the bracket held no sign change or the function was not finite.
+    """
+    a = np.array(lower, dtype=float, copy=True)
+    b = np.array(upper, dtype=float, copy=True)
+    a, b = np.broadcast_arrays(a, b)
+    a, b = a.copy(), b.copy()
+    fa = np.asarray(function(a), dtype=float)
+    fb = np.asarray(function(b), dtype=float)
+    valid = np.isfinite(fa) & np.isfinite(fb) & (np.sign(fa) * np.sign(fb) <= 0)
+    side = np.zeros(a.shape, dtype=int)
+    x = np.where(fa == 0, a, b)
+    for _ in range(max_iterations):
+        width = np.abs(b - a)
+        done = (width <= xtol + rtol * np.abs(x)) | (fa == 0) | (fb == 0) | ~valid
+        if np.all(done):
+            break
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x = b - fb * (b - a) / (fb - fa)
+        middle = 0.5 * (a + b)
+        bad = ~np.isfinite(x) | (x <= np.minimum(a, b)) | (x >= np.maximum(a, b))
+        x = np.where(bad, middle, x)
+        x = np.where(done, np.where(fa == 0, a, b), x)
+        fx = np.asarray(function(x), dtype=float)
+        fx = np.where(np.isfinite(fx), fx, np.sign(fx) * np.finfo(float).max)
+        same_as_b = np.sign(fx) == np.sign(fb)
+        active = ~done
+        # keep the bracket [a, b] with the sign change; Illinois: halve the stale end's value
+        new_a = np.where(active & same_as_b, a, np.where(active, b, a))
+        new_fa = np.where(active & same_as_b, np.where(side == -1, 0.5 * fa, fa),
+                          np.where(active, fb, fa))
+        side = np.where(active, np.where(same_as_b, -1, 1), side)
+        a, fa = new_a, new_fa
+        b = np.where(active, x, b)
+        fb = np.where(active, fx, fb)
+    root = np.where(np.abs(fa) < np.abs(fb), a, b)
+    return np.where(valid, root, np.nan)

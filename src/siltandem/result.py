@@ -1,0 +1,236 @@
+"""The main job end to end, and the answer for one stack.
+
+``run_stack(stack)`` = spectrum -> compile -> illuminate -> solve each string -> :class:`Result`.
+A Result is frozen: ``.summary`` (the JSON contract, trade units), ``.iv`` (the light I-V as a
+DataFrame), ``.losses`` (per-element table) and ``to_dataframe()`` (one row of headline numbers).
+"""
+from dataclasses import dataclass, replace
+import json
+import math
+
+import numpy as np
+
+from . import units
+from .compile import compile_stack
+from .illuminate import illuminate
+from .solve import solve_string
+from .spectra import get_spectrum
+
+SIGN_CONVENTION = ("generated current positive: the power quadrant is current > 0 and "
+                   "voltage > 0; an element's voltage is taken in the stack current's direction")
+CAUTION = ("Results are models, not measurements. Concentrated light, high currents and module "
+           "voltages are electrical and optical hazards: follow local codes and licensed practice.")
+#: relative power-balance error above which a result carries a warning
+POWER_BALANCE_TOLERANCE = 1e-9
+
+
+@dataclass(frozen=True)
+class Result:
+    """The answer for one stack under one set of conditions.
+
+    Attributes
+    ----------
+    summary : dict
+        The JSON contract (see README, "Outputs"); trade units, names carry them.
+    iv : pandas.DataFrame
+        Light I-V: ``voltage_V``, ``current_mA_cm2``, one ``<element>_V`` column per element
+        (and ``string`` for stacks of several strings).
+    circuit : Circuit
+        The illuminated circuit that was solved (for plots and further study).
+    solutions : list of StringSolution
+    """
+
+    summary: dict
+    iv: object
+    circuit: object
+    solutions: list
+
+    @property
+    def losses(self):
+        """Per-element voltage, power and loss at the MPP (DataFrame)."""
+        import pandas as pd
+
+        return pd.DataFrame(self.summary["elements"])
+
+    def to_dataframe(self):
+        """One row: the headline numbers with their units in the column names."""
+        import pandas as pd
+
+        keys = ["stack", "efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V",
+                "mpp_mA_cm2", "power_balance_error_W_m2"]
+        row = {k: self.summary[k] for k in keys}
+        row.update({f"conditions.{k}": v for k, v in self.summary["conditions"].items()})
+        for cell in self.summary["subcells"]:
+            row[f"{cell['name']}.photocurrent_mA_cm2"] = cell["photocurrent_mA_cm2"]
+        return pd.DataFrame([row])
+
+    def to_json(self, indent=2):
+        return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
+
+    def with_summary(self, **changes):
+        return replace(self, summary={**self.summary, **changes})
+
+
+def _clean(value):
+    """JSON-safe copy: numpy scalars to float, non-finite floats to None."""
+    if isinstance(value, dict):
+        return {k: _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    if isinstance(value, (np.floating, float)):
+        value = float(value)
+        return value if math.isfinite(value) else None
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.bool_):
+        return bool(value)
+    return value
+
+
+def _first(array):
+    return float(np.asarray(array, dtype=float).reshape(-1)[0])
+
+
+def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
+    """Solve one stack: the main job.
+
+    Parameters
+    ----------
+    stack : Stack
+        From :func:`siltandem.stack.load_stack`.
+    spectrum : str, optional
+        Override of ``[conditions] spectrum`` (a name or a CSV path, relative to the working
+        folder when given here).
+    suns : float, optional
+        Override of ``[conditions] suns``.
+    temperature_K : float, optional
+        Override of ``[conditions] temperature_K``.
+    curve_points : int
+        Points of the traced light I-V per string.
+    """
+    conditions = stack.conditions
+    changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
+                                 ("temperature_K", temperature_K)) if v is not None}
+    conditions = replace(conditions, **changes)
+    relative_to = None if spectrum is not None else stack.folder
+    light = get_spectrum(conditions.spectrum, suns=conditions.suns, relative_to=relative_to,
+                         where="spectrum" if spectrum is not None else "key conditions.spectrum")
+    circuit = compile_stack(replace(stack, conditions=conditions))
+    circuit = illuminate(circuit, light)
+    temperature = conditions.temperature_K
+    solutions = [solve_string(string, temperature, curve_points=curve_points)
+                 for string in circuit.strings]
+    alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}
+    summary = _summarise(stack, conditions, light, circuit, solutions, alone)
+    return Result(summary, _curve_table(circuit, solutions), circuit, solutions)
+
+
+def _summarise(stack, conditions, light, circuit, solutions, alone):
+    irradiance = light.irradiance_W_m2
+    warnings_ = []
+    string_rows, element_rows = [], []
+    limiting = set()
+    total_power = 0.0
+    balance = 0.0
+    for number, (string, solution) in enumerate(zip(circuit.strings, solutions), start=1):
+        subcells = [e for e in string if e.kind == "subcell"]
+        pilot = subcells[int(solution.pilot_index[0])]
+        limiting.add(pilot.name)
+        power = _first(solution.mpp_W_m2)
+        total_power += power
+        balance += _first(solution.power_balance_error_W_m2)
+        if solution.failed[0]:
+            warnings_.append(f"string {number}: no operating point found; its numbers are "
+                             "missing (null)")
+        j_mpp = _first(solution.mpp_A_m2)
+        string_rows.append({
+            "string": number, "elements": [e.name for e in string],
+            "efficiency_pct": 100 * power / irradiance, "voc_V": _first(solution.voc_V),
+            "jsc_mA_cm2": units.ma_cm2(_first(solution.jsc_A_m2)),
+            "fill_factor": _first(solution.fill_factor), "mpp_V": _first(solution.mpp_V),
+            "mpp_mA_cm2": units.ma_cm2(j_mpp), "mpp_W_m2": power,
+            "limiting_subcell": pilot.name})
+        for element in string:
+            v = _first(solution.voltage_at_mpp_V[element.name])
+            delivered = v * j_mpp
+            if element.kind == "subcell":
+                loss = _first(alone[element.name].mpp_W_m2) - delivered
+                if v < 0:
+                    warnings_.append(f"subcell {element.name!r} is reverse biased at the MPP "
+                                     f"({v:.3f} V): it dissipates power")
+            else:
+                loss = -delivered
+            element_rows.append({
+                "name": element.name, "kind": element.kind, "string": number,
+                "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
+                    _first(solution.voltage_at_zero_current_V[element.name]),
+                "power_W_m2": delivered, "loss_W_m2": loss,
+                "loss_pct_abs": 100 * loss / irradiance})
+    if total_power > 0 and balance > POWER_BALANCE_TOLERANCE * total_power:
+        warnings_.append(f"power balance error {balance:.3g} W/m2 exceeds "
+                         f"{POWER_BALANCE_TOLERANCE:g} of the output power")
+    subcell_rows = []
+    for cell in circuit.subcells:
+        jph = _first(cell.photocurrent_A_m2)
+        own = alone[cell.name]
+        subcell_rows.append({
+            "name": cell.name, "string": cell.string, "gap_eV": _first(cell.gap_eV),
+            "photocurrent_mA_cm2": units.ma_cm2(jph),
+            "absorbed_mA_cm2": units.ma_cm2(_first(circuit.optics["absorbed_A_m2"][cell.name])),
+            "j01_mA_cm2": units.ma_cm2(_first(cell.j01_A_m2(conditions.temperature_K))),
+            "voc_alone_V": _first(own.voc_V),
+            "efficiency_alone_pct": 100 * _first(own.mpp_W_m2) / irradiance,
+            "limiting": cell.name in limiting})
+    one = len(solutions) == 1
+    head = string_rows[0] if one else {}
+    cautions = [CAUTION]
+    if conditions.suns > 1:
+        cautions.append(f"{conditions.suns:g} suns: concentrated light can burn skin and eyes and "
+                        "ignite material; never look into the beam, and cool the cell.")
+    if conditions.temperature_K != 298.15:
+        warnings_.append("circuit level: gaps are taken as given at "
+                         f"{conditions.temperature_K:g} K (no temperature shift of the gap); "
+                         "only the dark currents follow the temperature")
+    return {
+        "stack": stack.name,
+        "notes": stack.notes,
+        "source_file": stack.source,
+        "conditions": {"spectrum": conditions.spectrum, "spectrum_description": light.description,
+                       "suns": conditions.suns, "temperature_K": conditions.temperature_K,
+                       "irradiance_W_m2": irradiance,
+                       "spectrum_integral_W_m2": light.integral_W_m2,
+                       "terminals": conditions.terminals},
+        "efficiency_pct": 100 * total_power / irradiance,
+        "voc_V": head.get("voc_V"), "jsc_mA_cm2": head.get("jsc_mA_cm2"),
+        "fill_factor": head.get("fill_factor"), "mpp_V": head.get("mpp_V"),
+        "mpp_mA_cm2": head.get("mpp_mA_cm2"), "mpp_W_m2": total_power,
+        "strings": string_rows,
+        "subcells": subcell_rows,
+        "elements": element_rows,
+        "parasitic": [],
+        "photons": {"incident_mA_cm2": units.ma_cm2(circuit.optics["incident_A_m2"]),
+                    "transmitted_mA_cm2":
+                        units.ma_cm2(_first(circuit.optics["transmitted_A_m2"]))},
+        "power_balance_error_W_m2": balance,
+        "warnings": warnings_,
+        "cautions": cautions,
+        "sign_convention": SIGN_CONVENTION,
+        "model": "circuit level: detailed-balance subcells (generalized Planck law), lumped resistors",
+    }
+
+
+def _curve_table(circuit, solutions):
+    import pandas as pd
+
+    frames = []
+    names = list(circuit.optical_order)
+    for number, solution in enumerate(solutions, start=1):
+        curve = solution.curve
+        data = {"voltage_V": curve["voltage_V"][0],
+                "current_mA_cm2": units.ma_cm2(curve["current_A_m2"][0])}
+        for name in names:
+            data[f"{name}_V"] = curve[name][0] if name in curve else np.nan
+        if len(solutions) > 1:
+            data["string"] = number
+        frames.append(pd.DataFrame(data))
+    return pd.concat(frames, ignore_index=True)

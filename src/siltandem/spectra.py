@@ -1,0 +1,191 @@
+"""Spectra a stack is solved under: the ASTM G173-03 tables through pvlib, or a user CSV.
+
+A spectrum is spectral irradiance [W m^-2 nm^-1] on an increasing wavelength grid [nm]. The named
+spectra are listed in ``data/spectra.toml``; the tables themselves come from
+``pvlib.spectrum.get_reference_spectra`` and are never copied into this project.
+"""
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib import resources
+from pathlib import Path
+import difflib
+import tomllib
+
+import numpy as np
+
+from .errors import StackError
+from .laws.optics import photon_flux
+
+
+@dataclass(frozen=True)
+class Spectrum:
+    """Spectral irradiance on a wavelength grid.
+
+    Attributes
+    ----------
+    name : str
+        What the user called it (a table name or a file path).
+    description : str
+        One line for reports.
+    wavelength_nm : ndarray
+        Increasing wavelengths [nm].
+    irradiance_W_m2_nm : ndarray
+        Spectral irradiance [W m^-2 nm^-1], already multiplied by ``suns``.
+    suns : float
+        Concentration factor applied to the table.
+    """
+
+    name: str
+    description: str
+    wavelength_nm: np.ndarray
+    irradiance_W_m2_nm: np.ndarray
+    suns: float = 1.0
+    nominal_W_m2: float | None = None
+
+    @property
+    def integral_W_m2(self):
+        """Total irradiance [W/m^2] by the trapezoid rule over the table (times suns)."""
+        return float(np.trapezoid(self.irradiance_W_m2_nm, self.wavelength_nm))
+
+    @property
+    def irradiance_W_m2(self):
+        """Reference irradiance for efficiencies [W/m^2]: the standard's nominal value times suns
+        where the standard gives one (AM1.5G: 1000 W/m^2, IEC 60904-3), else the integral."""
+        if self.nominal_W_m2 is not None:
+            return self.nominal_W_m2 * self.suns
+        return self.integral_W_m2
+
+    @property
+    def photon_flux(self):
+        """Spectral photon flux [m^-2 s^-1 nm^-1]."""
+        return photon_flux(self.wavelength_nm, self.irradiance_W_m2_nm)
+
+    def concentrated(self, suns):
+        """The same spectrum times ``suns`` (relative to the table as given)."""
+        return Spectrum(self.name, self.description, self.wavelength_nm,
+                        self.irradiance_W_m2_nm * (suns / self.suns), float(suns),
+                        self.nominal_W_m2)
+
+
+@lru_cache(maxsize=1)
+def _catalogue():
+    text = resources.files("siltandem").joinpath("data/spectra.toml").read_text()
+    table = tomllib.loads(text)
+    names = {}
+    for name, entry in table.items():
+        names[name] = name
+        for alias in entry.get("aliases", []):
+            names[alias] = name
+    return table, names
+
+
+def spectrum_names():
+    """Names a user can give for the standard spectra (without aliases)."""
+    return list(_catalogue()[0])
+
+
+@lru_cache(maxsize=4)
+def _reference_table(standard):
+    from pvlib.spectrum import get_reference_spectra
+
+    return get_reference_spectra(standard=standard)
+
+
+def _named(name):
+    table, names = _catalogue()
+    entry = table[names[name]]
+    frame = _reference_table(entry["standard"])
+    return Spectrum(names[name], entry["description"], frame.index.to_numpy(dtype=float),
+                    frame[entry["column"]].to_numpy(dtype=float),
+                    nominal_W_m2=entry.get("nominal_W_m2"))
+
+
+def read_spectrum_csv(path, *, where=None):
+    """Read a user spectrum CSV: a header line, then wavelength_nm and irradiance (W m^-2 nm^-1).
+
+    The first column must be named ``wavelength_nm``; the irradiance column is the one named
+    ``irradiance_W_m2_nm``, or the second column when there are exactly two.
+    """
+    import pandas as pd
+
+    path = Path(path)
+    fix_format = ("give a CSV with a header line 'wavelength_nm,irradiance_W_m2_nm' and one "
+                  "row per wavelength (nm, increasing) with its spectral irradiance (W/m2/nm)")
+    if not path.is_file():
+        raise StackError(f"spectrum file not found: {path}", file=path, where=where,
+                         fix="give an existing CSV path (relative to the stack file) or one of "
+                             + ", ".join(spectrum_names()))
+    try:
+        frame = pd.read_csv(path, comment="#")
+    except Exception as exc:  # pandas raises several types for unreadable files
+        raise StackError(f"cannot read spectrum CSV ({exc.__class__.__name__}: {exc})",
+                         file=path, fix=fix_format) from None
+    columns = [str(c).strip() for c in frame.columns]
+    frame.columns = columns
+    if not columns or columns[0] != "wavelength_nm":
+        raise StackError(f"first column is {columns[0] if columns else 'missing'!r}, expected "
+                         "'wavelength_nm'", file=path, where="header", fix=fix_format)
+    if "irradiance_W_m2_nm" in columns:
+        value_column = "irradiance_W_m2_nm"
+    elif len(columns) == 2:
+        value_column = columns[1]
+    else:
+        raise StackError(f"cannot tell the irradiance column among {columns}", file=path,
+                         where="header", fix=fix_format)
+    wavelength = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
+    irradiance = pd.to_numeric(frame[value_column], errors="coerce").to_numpy(dtype=float)
+    for label, values in (("wavelength_nm", wavelength), (value_column, irradiance)):
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            raise StackError(f"column {label}: {bad.size} value(s) not numbers, first on data "
+                             f"line {bad[0] + 1}", file=path, where=f"line {bad[0] + 2}",
+                             fix=fix_format)
+    if wavelength.size < 2:
+        raise StackError(f"only {wavelength.size} data row(s)", file=path, fix=fix_format)
+    if np.any(wavelength <= 0):
+        row = int(np.flatnonzero(wavelength <= 0)[0])
+        raise StackError(f"wavelength {wavelength[row]} nm is not positive", file=path,
+                         where=f"line {row + 2}", fix="wavelengths are in nm and positive")
+    steps = np.diff(wavelength)
+    if np.any(steps <= 0):
+        row = int(np.flatnonzero(steps <= 0)[0]) + 1
+        raise StackError(f"wavelengths not increasing at {wavelength[row]} nm (after "
+                         f"{wavelength[row - 1]} nm)", file=path, where=f"line {row + 2}",
+                         fix="sort the rows by wavelength and remove repeated wavelengths")
+    if np.any(irradiance < 0):
+        row = int(np.flatnonzero(irradiance < 0)[0])
+        raise StackError(f"negative irradiance {irradiance[row]} W/m2/nm", file=path,
+                         where=f"line {row + 2}", fix="spectral irradiance cannot be negative")
+    return Spectrum(str(path), f"user spectrum {path.name}", wavelength, irradiance)
+
+
+def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None):
+    """A spectrum by name (``am1.5g``, ``am1.5d``, ``am0``) or CSV path, times ``suns``.
+
+    Parameters
+    ----------
+    name_or_path : str or Path
+        A name from ``data/spectra.toml`` (case-insensitive) or a CSV path.
+    suns : float
+        Concentration [-], > 0.
+    relative_to : Path, optional
+        Folder a relative CSV path is resolved against (the stack file's folder).
+    where : str, optional
+        Where the name came from, for error messages.
+    """
+    key = str(name_or_path).strip()
+    _, names = _catalogue()
+    if key.lower() in names:
+        spectrum = _named(key.lower())
+    elif key.lower().endswith(".csv") or "/" in key or "\\" in key:
+        path = Path(key)
+        if relative_to is not None and not path.is_absolute():
+            path = Path(relative_to) / path
+        spectrum = read_spectrum_csv(path, where=where)
+    else:
+        close = difflib.get_close_matches(key.lower(), list(names), n=3, cutoff=0.5)
+        hint = f"did you mean {', '.join(close)}? " if close else ""
+        raise StackError(f"unknown spectrum {key!r}", where=where,
+                         fix=f"{hint}use one of {', '.join(spectrum_names())} or a CSV path "
+                             "ending in .csv")
+    return spectrum.concentrated(suns) if suns != 1.0 else spectrum

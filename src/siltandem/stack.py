@@ -1,0 +1,319 @@
+"""Stack files: TOML loading and validation into typed objects, with clear errors.
+
+A stack file has a ``[stack]`` table (name, notes), a ``[conditions]`` table (spectrum, suns,
+temperature_K, terminals) and either ``[[element]]`` tables (circuit level) or ``[[layer]]``
+tables (layer level, compiled by a later stage). Every problem raises :class:`StackError` naming
+the file, the element (index and name) or key, what is wrong and how to fix it.
+"""
+from dataclasses import dataclass, field
+from pathlib import Path
+import difflib
+import math
+import tomllib
+
+from .constants import STANDARD_TEMPERATURE_K
+from .errors import StackError
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One key of an element table: its unit, range and default."""
+
+    key: str
+    unit: str
+    low: float
+    high: float
+    default: float | None = None        # None: required
+    low_open: bool = False              # strict lower bound
+    high_open: bool = False
+    help: str = ""
+
+    def describe_range(self):
+        left = "(" if self.low_open else "["
+        right = ")" if self.high_open else "]"
+        return f"{left}{self.low:g}, {self.high:g}{right} {self.unit}".strip()
+
+
+INF = math.inf
+
+#: keys of each element kind: the stack-file schema (units as written in files)
+ELEMENT_SCHEMA = {
+    "subcell": [
+        Parameter("gap_eV", "eV", 0.3, 4.0, help="band gap"),
+        Parameter("absorptance", "", 0.0, 1.0, 1.0, low_open=True,
+                  help="step absorptance above the gap"),
+        Parameter("ere", "", 0.0, 1.0, 1.0, low_open=True,
+                  help="external radiative efficiency (1 = radiative limit)"),
+        Parameter("j02_mA_cm2", "mA/cm2", 0.0, 1e3, 0.0,
+                  help="saturation current of the ideality-2 diode"),
+        Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e3, 0.0, help="series resistance"),
+        Parameter("shunt_ohm_cm2", "ohm cm2", 0.0, INF, INF, low_open=True,
+                  help="shunt resistance (omit for none)"),
+        Parameter("breakdown_V", "V", 0.0, 1e4, INF, low_open=True,
+                  help="reverse breakdown voltage, as a positive magnitude (needs a shunt)"),
+        Parameter("breakdown_factor", "", 0.0, 1e3, 1e-3,
+                  help="fraction of the shunt current multiplied by avalanche"),
+        Parameter("breakdown_exponent", "", 0.5, 20.0, 3.28, help="avalanche exponent"),
+    ],
+    "resistor": [
+        Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e4, help="series resistance"),
+    ],
+}
+#: kinds whose laws come with later stages of the project: recognised, not yet solvable
+PLANNED_KINDS = {"tunnel": "tunnel junction", "isotype": "isotype heterointerface"}
+COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
+STACK_KEYS = {"name", "notes"}
+CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
+                  "terminals": 2}
+TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer"}
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Illumination, temperature and wiring.
+
+    Attributes
+    ----------
+    spectrum : str
+        A spectrum name or a CSV path (already resolved relative to the stack file).
+    suns : float
+        Concentration [-].
+    temperature_K : float
+    terminals : int
+        2 for one series string; 4 (6, ...) for independent strings, two terminals each.
+    """
+
+    spectrum: str = "am1.5g"
+    suns: float = 1.0
+    temperature_K: float = STANDARD_TEMPERATURE_K
+    terminals: int = 2
+
+    @property
+    def strings(self):
+        return self.terminals // 2
+
+
+@dataclass(frozen=True)
+class ElementSpec:
+    """A validated ``[[element]]`` table: kind, name, string and its parameters in file units."""
+
+    index: int          # 1-based position in the file (sun side first)
+    kind: str
+    name: str
+    string: int
+    values: dict        # key (file units) -> float
+
+    @property
+    def label(self):
+        return f"element {self.index} {self.name!r}"
+
+
+@dataclass(frozen=True)
+class Stack:
+    """A validated stack: what the file says, nothing computed yet."""
+
+    name: str
+    notes: str
+    conditions: Conditions
+    elements: tuple = ()
+    layers: tuple = ()
+    source: str | None = None       # the file it came from
+    folder: str | None = None       # for resolving relative paths
+    extra: dict = field(default_factory=dict)
+
+
+def _suggest(word, options):
+    close = difflib.get_close_matches(word, sorted(options), n=3, cutoff=0.6)
+    return f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
+
+
+def _number(value, *, file, where, key, unit):
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise StackError(f"key {key!r} must be a number ({unit or 'no unit'}), got "
+                         f"{type(value).__name__} {value!r}", file=file, where=where,
+                         fix=f"write {key} = <number> without quotes")
+    value = float(value)
+    if math.isnan(value):
+        raise StackError(f"key {key!r} is nan", file=file, where=where, fix="give a number")
+    return value
+
+
+def _check_range(spec, value, *, file, where):
+    low_bad = value <= spec.low if spec.low_open else value < spec.low
+    high_bad = value >= spec.high if spec.high_open else value > spec.high
+    if low_bad or high_bad:
+        raise StackError(f"{spec.key} = {value:g} is outside its physical range "
+                         f"{spec.describe_range()} ({spec.help})", file=file, where=where,
+                         fix=f"give {spec.key} within {spec.describe_range()}")
+
+
+def _parse_element(index, table, *, file, terminals):
+    where = f"element {index}"
+    if not isinstance(table, dict):
+        raise StackError("each [[element]] must be a table", file=file, where=where,
+                         fix="write [[element]] followed by key = value lines")
+    name = table.get("name", f"element{index}")
+    if not isinstance(name, str) or not name.strip():
+        raise StackError(f"name must be a non-empty text, got {name!r}", file=file, where=where,
+                         fix='write name = "top" (any unique name)')
+    where = f"element {index} {name!r}"
+    if "kind" not in table:
+        raise StackError("missing key 'kind'", file=file, where=where,
+                         fix='add kind = "subcell" or kind = "resistor"')
+    kind = table["kind"]
+    if not isinstance(kind, str):
+        raise StackError(f"kind must be text, got {kind!r}", file=file, where=where,
+                         fix='write kind = "subcell"')
+    if kind in PLANNED_KINDS:
+        raise StackError(f"kind {kind!r} ({PLANNED_KINDS[kind]}) is not solvable in this "
+                         "version", file=file, where=where,
+                         fix="use subcell and resistor elements for now")
+    if kind not in ELEMENT_SCHEMA:
+        raise StackError(f"unknown element kind {kind!r}", file=file, where=where,
+                         fix=_suggest(kind, list(ELEMENT_SCHEMA) + list(PLANNED_KINDS))
+                         + "kind is one of " + ", ".join(repr(k) for k in ELEMENT_SCHEMA))
+    schema = {p.key: p for p in ELEMENT_SCHEMA[kind]}
+    for key in table:
+        if key not in schema and key not in COMMON_ELEMENT_KEYS:
+            raise StackError(f"unknown key {key!r} for a {kind}", file=file, where=where,
+                             fix=_suggest(key, list(schema) + list(COMMON_ELEMENT_KEYS))
+                             + "allowed keys: " + ", ".join(sorted(set(schema) | COMMON_ELEMENT_KEYS)))
+    string = table.get("string", 1)
+    if isinstance(string, bool) or not isinstance(string, int) or not 1 <= string <= terminals // 2:
+        raise StackError(f"string = {string!r} is not a string of this stack (terminals = "
+                         f"{terminals} gives strings 1..{terminals // 2})", file=file, where=where,
+                         fix="give string = 1 for the sun-side pair of terminals, 2 for the next")
+    values = {}
+    for key, spec in schema.items():
+        if key in table:
+            value = _number(table[key], file=file, where=where, key=key, unit=spec.unit)
+            _check_range(spec, value, file=file, where=where)
+        elif spec.default is None:
+            raise StackError(f"missing required key {key!r} ({spec.help}, {spec.unit})",
+                             file=file, where=where, fix=f"add {key} = <number in {spec.unit}>")
+        else:
+            value = spec.default
+        values[key] = value
+    if kind == "subcell" and "breakdown_V" in table and "shunt_ohm_cm2" not in table:
+        raise StackError("breakdown_V needs shunt_ohm_cm2: the avalanche current multiplies the "
+                         "shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)", file=file,
+                         where=where, fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
+    return ElementSpec(index, kind, name, string, values)
+
+
+def _parse_conditions(table, *, file):
+    if not isinstance(table, dict):
+        raise StackError("[conditions] must be a table", file=file, where="key conditions",
+                         fix="write [conditions] followed by key = value lines")
+    for key in table:
+        if key not in CONDITION_KEYS:
+            raise StackError(f"unknown key {key!r} in [conditions]", file=file,
+                             where=f"key conditions.{key}",
+                             fix=_suggest(key, CONDITION_KEYS) + "allowed: "
+                             + ", ".join(CONDITION_KEYS))
+    spectrum = table.get("spectrum", CONDITION_KEYS["spectrum"])
+    if not isinstance(spectrum, str):
+        raise StackError(f"spectrum must be text, got {spectrum!r}", file=file,
+                         where="key conditions.spectrum",
+                         fix='write spectrum = "am1.5g" (or am1.5d, am0, a CSV path)')
+    suns = _number(table.get("suns", 1.0), file=file, where="key conditions.suns",
+                   key="suns", unit="suns")
+    if not 0 < suns <= 1e5:
+        raise StackError(f"suns = {suns:g} must be in (0, 1e5]", file=file,
+                         where="key conditions.suns", fix="give the concentration, e.g. suns = 1")
+    temperature = _number(table.get("temperature_K", STANDARD_TEMPERATURE_K), file=file,
+                          where="key conditions.temperature_K", key="temperature_K", unit="K")
+    if not 150 <= temperature <= 1000:
+        raise StackError(f"temperature_K = {temperature:g} is outside [150, 1000] K", file=file,
+                         where="key conditions.temperature_K",
+                         fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
+    terminals = table.get("terminals", 2)
+    if isinstance(terminals, bool) or not isinstance(terminals, int) or terminals < 2 \
+            or terminals % 2:
+        raise StackError(f"terminals = {terminals!r} must be an even whole number >= 2",
+                         file=file, where="key conditions.terminals",
+                         fix="2 for one series string, 4 for two independent strings")
+    return Conditions(spectrum, suns, temperature, terminals)
+
+
+def parse_stack(document, *, file=None, folder=None):
+    """Validate a parsed TOML document (a dict) into a :class:`Stack`."""
+    for key in document:
+        if key not in TOP_LEVEL_KEYS:
+            raise StackError(f"unknown table or key {key!r} at the top level", file=file,
+                             where=f"key {key}", fix=_suggest(key, TOP_LEVEL_KEYS)
+                             + "a stack file has [stack], [conditions] and [[element]] tables")
+    head = document.get("stack", {})
+    if not isinstance(head, dict):
+        raise StackError("[stack] must be a table", file=file, where="key stack",
+                         fix='write [stack] then name = "..."')
+    for key in head:
+        if key not in STACK_KEYS:
+            raise StackError(f"unknown key {key!r} in [stack]", file=file,
+                             where=f"key stack.{key}",
+                             fix=_suggest(key, STACK_KEYS) + "allowed: name, notes")
+    name = head.get("name", Path(file).stem if file else "stack")
+    notes = head.get("notes", "")
+    for key, value in (("name", name), ("notes", notes)):
+        if not isinstance(value, str):
+            raise StackError(f"{key} must be text, got {value!r}", file=file,
+                             where=f"key stack.{key}", fix=f'write {key} = "..."')
+    conditions = _parse_conditions(document.get("conditions", {}), file=file)
+    if "layer" in document:
+        raise StackError("[[layer]] stacks are not supported in this version", file=file,
+                         where="key layer", fix="describe the stack with [[element]] tables")
+    tables = document.get("element")
+    if tables is None:
+        raise StackError("no [[element]] tables: a stack needs at least one subcell", file=file,
+                         fix='add [[element]] with kind = "subcell" and gap_eV = <eV>')
+    if not isinstance(tables, list):
+        raise StackError("element must be an array of tables", file=file, where="key element",
+                         fix="write each element as [[element]] (double brackets)")
+    elements = tuple(_parse_element(i + 1, t, file=file, terminals=conditions.terminals)
+                     for i, t in enumerate(tables))
+    seen = {}
+    for element in elements:
+        if element.name in seen:
+            raise StackError(f"name {element.name!r} is used twice (elements {seen[element.name]}"
+                             f" and {element.index})", file=file, where=element.label,
+                             fix="give every element its own name")
+        seen[element.name] = element.index
+    for number in range(1, conditions.strings + 1):
+        members = [e for e in elements if e.string == number]
+        if not any(e.kind == "subcell" for e in members):
+            raise StackError(f"string {number} has no subcell" if conditions.strings > 1
+                             else "the stack has no subcell", file=file,
+                             fix='add an [[element]] with kind = "subcell"'
+                             + (f" and string = {number}" if conditions.strings > 1 else ""))
+    return Stack(name, notes, conditions, elements, (), None if file is None else str(file),
+                 None if folder is None else str(folder))
+
+
+def load_stack(path):
+    """Read and validate a stack file.
+
+    Raises
+    ------
+    StackError
+        For a missing or unreadable file, a TOML syntax error or any schema problem.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise StackError("stack file not found", file=path,
+                         fix="give the path of an existing .toml stack file")
+    try:
+        raw = path.read_bytes()
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise StackError(f"not UTF-8 text (byte {exc.start})", file=path,
+                         fix="save the stack file as UTF-8 TOML") from None
+    except OSError as exc:
+        raise StackError(f"cannot read the file ({exc.strerror})", file=path,
+                         fix="check the path and its permissions") from None
+    try:
+        document = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise StackError(f"TOML syntax error: {exc}", file=path,
+                         fix="correct the line named (strings need quotes, keys are "
+                             "key = value, tables are [name] or [[element]])") from None
+    return parse_stack(document, file=path, folder=path.parent)

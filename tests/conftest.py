@@ -1,0 +1,22 @@
+"""Shared helpers for the tests: build detailed-balance strings the way the pipeline does."""
+import numpy as np
+import pytest
+
+from siltandem.elements import Subcell, batch
+from siltandem.laws.optics import step_absorber_photocurrents
+from siltandem.spectra import get_spectrum
+
+
+@pytest.fixture(scope="session")
+def am15g():
+    return get_spectrum("am1.5g")
+
+
+def radiative_cells(gaps, spectrum, absorptances=None):
+    """Detailed-balance subcells (ERE 1, step absorptance) lit in optical order."""
+    gaps = [np.asarray(g, dtype=float) for g in gaps]
+    absorptances = absorptances or [1.0] * len(gaps)
+    currents = step_absorber_photocurrents(gaps, absorptances, spectrum.wavelength_nm,
+                                           spectrum.photon_flux)
+    return [Subcell(f"cell{i}", batch(g), absorptance=batch(a)).with_photocurrent(j)
+            for i, (g, a, j) in enumerate(zip(gaps, absorptances, currents))]
