@@ -8,6 +8,8 @@ from siltandem.stack import load_stack
 
 GOOD_HEAD = '[stack]\nname = "t"\n[conditions]\nspectrum = "am1.5g"\n'
 CELL = '[[element]]\nkind = "subcell"\nname = "top"\ngap_eV = 1.7\n'
+TUNNEL = ('[[element]]\nkind = "tunnel"\nname = "junction"\npeak_mA_cm2 = 2000\npeak_V = 0.1\n'
+          'valley_mA_cm2 = 100\nvalley_V = 0.5\n')
 
 
 def write(tmp_path, text, name="s.toml"):
@@ -55,8 +57,16 @@ BAD = [
      None),
     (GOOD_HEAD + CELL + "string = 2\n", "string = 2 is not a string of this stack", "element 1"),
     ("[stak]\n" + CELL, "unknown table or key 'stak'", "key stak"),
-    (GOOD_HEAD + CELL.replace('"subcell"', '"tunnel"'), "not solvable in this version",
+    (GOOD_HEAD + CELL.replace('"subcell"', '"isotype"'), "not solvable in this version",
      "element 1"),
+    (GOOD_HEAD + CELL + TUNNEL.replace("peak_V = 0.1", "peak_V = 0.6"),
+     "peak_V = 0.6 V is not below valley_V", "element 2 'junction'"),
+    (GOOD_HEAD + CELL + TUNNEL.replace("valley_mA_cm2 = 100", "valley_mA_cm2 = 5000"),
+     "valley_mA_cm2 = 5000 is not below peak_mA_cm2", "element 2 'junction'"),
+    (GOOD_HEAD + CELL + TUNNEL.replace("peak_mA_cm2 = 2000", "peak_mA_cm2 = -1"),
+     "peak_mA_cm2 = -1 is outside", "element 2 'junction'"),
+    (GOOD_HEAD + CELL + TUNNEL + "saturation_mA_cm2 = 500\n",
+     "excess and thermal currents alone reach", "element 2 'junction'"),
     (GOOD_HEAD + '[[layer]]\nmaterial = "Si"\n', "[[layer]] stacks are not supported", None),
     ("element = 3\n" + GOOD_HEAD, "must be an array of tables", None),
     (GOOD_HEAD.replace('spectrum = "am1.5g"', "spectrum = 5") + CELL, "spectrum must be text",

@@ -46,12 +46,15 @@ def _parser():
     run.add_argument("--curve", metavar="PATH.csv", help="write the light I-V as CSV")
     run.add_argument("--plot", metavar="PATH.png|svg", help="draw the light I-V")
     run.add_argument("--points", type=int, default=401, help="points on the traced curve")
+    run.add_argument("--sweep", choices=["up", "down"],
+                     help="report what a terminal-voltage sweep measures (with hysteresis where a "
+                          "tunnel junction is driven past its peak): --curve and --plot show it")
     return parser
 
 
 def _run(args):
     from .files import save_figure_atomic, write_atomic
-    from .report import text_summary
+    from .report import sweep_summary, text_summary
     from .result import run_stack
     from .stack import load_stack
 
@@ -82,13 +85,18 @@ def _run(args):
         else:
             write_atomic(args.json, result.to_json())
             print(f"  wrote {args.json}")
+    if args.sweep:
+        swept = result.sweep(args.sweep, points=args.points)
+        if not to_stdout_json:
+            sys.stdout.write(sweep_summary(swept, args.sweep, result))
     if args.curve:
-        write_atomic(args.curve, result.iv.to_csv(index=False, float_format="%.10g"))
+        table = swept if args.sweep else result.iv
+        write_atomic(args.curve, table.to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.curve}", file=sys.stderr if to_stdout_json else sys.stdout)
     if args.plot:
         from .plots import plot_iv
 
-        ax = plot_iv(result)
+        ax = plot_iv(result, sweeps=(args.sweep,) if args.sweep else ())
         save_figure_atomic(ax.figure, args.plot)
         print(f"  wrote {args.plot}", file=sys.stderr if to_stdout_json else sys.stdout)
     return 0

@@ -8,7 +8,7 @@ import numpy as np
 
 from . import units
 from .circuit import build_circuit
-from .elements import Resistor, Subcell, batch
+from .elements import Resistor, Subcell, TunnelJunction, batch
 
 
 def _subcell(spec):
@@ -31,7 +31,18 @@ def _resistor(spec):
                     string=spec.string)
 
 
-BUILDERS = {"subcell": _subcell, "resistor": _resistor}
+def _tunnel(spec):
+    v = spec.values
+    slope = v["excess_slope_per_V"]
+    return TunnelJunction(
+        spec.name, peak_A_m2=batch(units.a_m2(v["peak_mA_cm2"])), peak_V=batch(v["peak_V"]),
+        valley_A_m2=batch(units.a_m2(v["valley_mA_cm2"])), valley_V=batch(v["valley_V"]),
+        saturation_A_m2=batch(units.a_m2(v["saturation_mA_cm2"])),
+        ideality=batch(v["ideality"]), excess_slope_per_V=batch(slope) if slope > 0 else None,
+        string=spec.string)
+
+
+BUILDERS = {"subcell": _subcell, "resistor": _resistor, "tunnel": _tunnel}
 
 
 def compile_stack(stack):

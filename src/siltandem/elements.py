@@ -20,8 +20,9 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .laws import diode
+from .laws import diode, esaki
 from .laws.radiative import radiative_saturation_current
+from .numerics import bracketed_root, safeguarded_newton
 
 
 def batch(value):
@@ -145,12 +146,153 @@ class Resistor:
 
     def current(self, voltage_V, temperature_K):
         voltage = np.asarray(voltage_V, dtype=float)
+        # with R = 0 any current flows at zero voltage: report 0 (its power V*J is 0 either way)
         with np.errstate(divide="ignore", invalid="ignore"):
-            current = np.where(self.series_ohm_m2 > 0, -voltage / self.series_ohm_m2, np.nan)
-        return current, np.broadcast_to(-1.0 / self.series_ohm_m2, voltage.shape)
+            current = np.where(self.series_ohm_m2 > 0, -voltage / self.series_ohm_m2, 0.0)
+            slope = np.where(self.series_ohm_m2 > 0, -1.0 / self.series_ohm_m2, -np.inf)
+        return current, np.broadcast_to(slope, voltage.shape)
 
     def current_limit(self, temperature_K):
         return np.full_like(self.series_ohm_m2, np.inf)
 
 
-ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor}
+#: branches of a tunnel junction's characteristic, in order of increasing junction voltage
+TUNNEL_BRANCHES = ("tunnel", "negative", "thermal")
+
+
+@dataclass(frozen=True)
+class TunnelJunction:
+    """An Esaki tunnel junction joining two subcells (three-term law, laws/esaki.py).
+
+    The stack current drives the junction in its own forward direction (p++ side positive), so its
+    voltage in the stack current's direction is -u, with u the junction's forward voltage and
+    J = J_tunnel(u). J_tunnel rises to the peak, falls through negative differential resistance to
+    the valley, and rises again on the thermal (diffusion) branch: V(J) has three branches.
+
+    Attributes
+    ----------
+    name : str
+    peak_A_m2, peak_V, valley_A_m2, valley_V : (B, 1) ndarray
+        Requested peak and valley [A/m^2, V]; the combined curve peaks exactly at (peak_V, peak_A_m2).
+    saturation_A_m2, ideality : (B, 1) ndarray
+        Thermal diode current beyond the valley.
+    excess_slope_per_V : (B, 1) ndarray or None
+        Exponent of the excess current; None takes the law's default.
+    string : int
+    """
+
+    name: str
+    peak_A_m2: np.ndarray
+    peak_V: np.ndarray
+    valley_A_m2: np.ndarray
+    valley_V: np.ndarray
+    saturation_A_m2: np.ndarray = field(default_factory=lambda: batch(1e-13))
+    ideality: np.ndarray = field(default_factory=lambda: batch(1.0))
+    excess_slope_per_V: np.ndarray | None = None
+    string: int = 1
+    kind: str = "tunnel"
+    _cache: dict = field(default_factory=dict, compare=False, repr=False)
+
+    def _law(self, temperature_K):
+        return dict(peak_A_m2=self.peak_A_m2, peak_V=self.peak_V, valley_A_m2=self.valley_A_m2,
+                    valley_V=self.valley_V, excess_slope_per_V=self.excess_slope_per_V,
+                    saturation_A_m2=self.saturation_A_m2, ideality=self.ideality,
+                    temperature_K=temperature_K, exact_peak=True)
+
+    def _prepared(self, temperature_K):
+        key = ("law", np.asarray(temperature_K, dtype=float).tobytes())
+        if key not in self._cache:
+            self._cache[key] = esaki.prepare_tunnel_law(**self._law(temperature_K))
+        return self._cache[key]
+
+    def junction_current(self, u, temperature_K):
+        """J [A/m^2] and dJ/du at forward junction voltage u [V]."""
+        j, slope, _ = esaki.evaluate_prepared(u, self._prepared(temperature_K))
+        return j, slope
+
+    def extrema(self, temperature_K):
+        """Attained (peak_V, peak_A_m2, valley_V, valley_A_m2) of the combined curve, (B, 1) each."""
+        key = ("extrema", np.asarray(temperature_K, dtype=float).tobytes())
+        if key not in self._cache:
+            self._cache[key] = esaki.attained_peak_and_valley(**self._law(temperature_K))
+        return self._cache[key]
+
+    def junction_voltage(self, current_A_m2, temperature_K, branch="tunnel", extrema=None):
+        """Forward junction voltage u [V] carrying ``current_A_m2`` on one branch; NaN off its range.
+
+        ``extrema`` may pass in :meth:`extrema` computed once (it costs three root finds).
+        """
+        peak_v, peak_j, valley_v, valley_j = extrema or self.extrema(temperature_K)
+        current = np.asarray(current_A_m2, dtype=float)
+        shape = np.broadcast(current, peak_v).shape
+        current = np.broadcast_to(current, shape)
+
+        def residual(u):
+            return self.junction_current(u, temperature_K)[0] - current
+
+        if branch == "tunnel":
+            hi = np.broadcast_to(peak_v, shape)
+            lo = np.broadcast_to(-1.0 * peak_v, shape).copy()
+            for _ in range(60):  # widen into reverse bias until the current is below the target
+                short = residual(lo) > 0
+                if not np.any(short):
+                    break
+                lo = np.where(short, 2.0 * lo - 0.1, lo)
+            inside = current <= peak_j * (1 + 1e-9)
+        elif branch == "negative":
+            lo, hi = np.broadcast_to(peak_v, shape), np.broadcast_to(valley_v, shape)
+            inside = (current >= valley_j * (1 - 1e-9)) & (current <= peak_j * (1 + 1e-9))
+        elif branch == "thermal":
+            lo = np.broadcast_to(valley_v, shape)
+            hi = lo + 0.5
+            for _ in range(60):
+                low = residual(hi) < 0
+                if not np.any(low):
+                    break
+                hi = np.where(low, hi + 2.0 * (hi - lo), hi)
+            inside = current >= valley_j * (1 - 1e-9)
+        else:
+            raise ValueError(f"unknown branch {branch!r}; one of {TUNNEL_BRANCHES}")
+        # at the ends of a branch (a fold) rounding can leave no sign change: clamp to the end
+        target = np.clip(current, np.where(branch == "thermal", valley_j, -np.inf),
+                         np.where(branch == "tunnel", peak_j, np.inf))
+        if branch == "negative":
+            target = np.clip(current, valley_j, peak_j)
+
+        def clamped(u):
+            j, slope = self.junction_current(u, temperature_K)
+            return j - target, slope
+
+        u = safeguarded_newton(clamped, lo, hi)
+        ends = np.where(np.abs(clamped(lo)[0]) <= np.abs(clamped(hi)[0]), lo, hi)
+        u = np.where(np.isfinite(u), u, ends)
+        return np.where(inside, u, np.nan)
+
+    def voltage(self, current_A_m2, temperature_K, branch="tunnel", extrema=None):
+        u = self.junction_voltage(current_A_m2, temperature_K, branch, extrema)
+        _, slope = self.junction_current(np.nan_to_num(u), temperature_K)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return -u, np.where(np.isfinite(u), -1.0 / slope, np.nan)
+
+    def current(self, voltage_V, temperature_K):
+        j, slope = self.junction_current(-np.asarray(voltage_V, dtype=float), temperature_K)
+        return j, -slope
+
+    def current_limit(self, temperature_K):
+        return np.full_like(self.peak_A_m2, np.inf)
+
+
+ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction}
+
+
+def take_rows(element, rows):
+    """The same element restricted to some designs of a batch (rows of every (B, 1) field)."""
+    changes = {}
+    for name, value in vars(element).items():
+        if isinstance(value, np.ndarray) and value.ndim == 2 and value.shape[0] > 1:
+            changes[name] = value[rows]
+    if not changes:
+        return element
+    if "_cache" in vars(element):
+        changes["_cache"] = {}
+    return replace(element, **changes)

@@ -60,3 +60,41 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
         fb = np.where(active, fx, fb)
     root = np.where(np.abs(fa) < np.abs(fb), a, b)
     return np.where(valid, root, np.nan)
+
+
+def safeguarded_newton(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=100):
+    """Roots of an elementwise function with known derivative, inside brackets, on whole arrays.
+
+    ``function(x) -> (f, df/dx)``. Newton steps, replaced by bisection whenever a step leaves the
+    current bracket; the bracket shrinks around the sign change at every iteration, so the method
+    cannot diverge (as in W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4, 'rtsafe').
+    NaN where the bracket held no sign change.
+    """
+    a, b = np.broadcast_arrays(np.array(lower, dtype=float), np.array(upper, dtype=float))
+    a, b = a.copy(), b.copy()
+    fa, _ = function(a)
+    fb, _ = function(b)
+    valid = np.isfinite(fa) & np.isfinite(fb) & (np.sign(fa) * np.sign(fb) <= 0)
+    # orient so that f(a) <= 0 <= f(b)
+    swap = fa > 0
+    a, b = np.where(swap, b, a), np.where(swap, a, b)
+    x = 0.5 * (a + b)
+    x = np.where(fa == 0, np.where(swap, b, a), x)
+    for _ in range(max_iterations):
+        f, df = function(x)
+        f = np.where(np.isfinite(f), f, np.nan)
+        negative = f < 0
+        a = np.where(negative, x, a)
+        b = np.where(f > 0, x, b)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = f / df
+        newton = x - step
+        low, high = np.minimum(a, b), np.maximum(a, b)
+        bad = ~np.isfinite(newton) | (newton <= low) | (newton >= high)
+        new_x = np.where(bad, 0.5 * (a + b), newton)
+        converged = ((np.abs(new_x - x) <= xtol + rtol * np.abs(x)) | (f == 0) | ~valid
+                     | ~np.isfinite(f))
+        x = np.where(f == 0, x, new_x)
+        if np.all(converged):
+            break
+    return np.where(valid, x, np.nan)

@@ -17,8 +17,11 @@ def _axes(ax, figsize=(7, 4.8)):
     return ax
 
 
-def plot_iv(result, ax=None, *, curve_points=301):
-    """Stack light I-V (each string), each subcell's own light I-V, the MPP marked."""
+def plot_iv(result, ax=None, *, curve_points=301, sweeps=()):
+    """Stack light I-V (each string), each subcell's own light I-V, the MPP marked.
+
+    ``sweeps`` may name "up" and/or "down": what a terminal-voltage sweep measures is drawn on top.
+    """
     ax = _axes(ax)
     summary = result.summary
     temperature = summary["conditions"]["temperature_K"]
@@ -42,6 +45,12 @@ def plot_iv(result, ax=None, *, curve_points=301):
         ax.plot(own["voltage_V"][0], units.ma_cm2(own["current_A_m2"][0]), "--", lw=1.2,
                 color=f"C{k}", label=f"{cell.name} alone ({float(cell.gap_eV[0, 0]):.2f} eV)")
         voc_max = max(voc_max, float(np.max(own["voltage_V"][0])))
+    styles = {"up": ("tab:red", "--"), "down": ("tab:green", ":")}
+    for direction in sweeps:
+        frame = result.sweep(direction)
+        colour, style = styles[direction]
+        ax.plot(frame["voltage_V"], frame["current_mA_cm2"], style, color=colour, lw=1.6,
+                label=f"voltage sweep {direction}")
     jmax = max(r["photocurrent_mA_cm2"] for r in summary["subcells"])
     ax.set_xlim(-0.1 * voc_max, 1.08 * voc_max)
     ax.set_ylim(0, 1.12 * jmax)

@@ -48,6 +48,10 @@ def text_summary(result):
         lines += ["    " + x for x in _table(
             ["string", "efficiency %", "Voc V", "Jsc mA/cm2", "FF %", "MPP V", "MPP mA/cm2"],
             rows, "<>>>>>>")]
+    regime = s.get("regime")
+    if regime and regime != "no tunnel junction":
+        regimes = regime if isinstance(regime, list) else [regime]
+        lines.append(f"  tunnel junctions  {', '.join(regimes)}")
     lines.append("")
     lines.append("  subcells (optical order, sun side first; * limits its string's current)")
     rows = [[("* " if r["limiting"] else "  ") + r["name"], str(r["string"]),
@@ -66,6 +70,16 @@ def text_summary(result):
     lines += ["    " + x for x in _table(
         ["element", "kind", "string", "voltage V", "power W/m2", "loss W/m2", "loss % abs"],
         rows, "<<>>>>>")]
+    if s.get("tunnel_junctions"):
+        lines.append("")
+        lines.append("  tunnel junctions (attained peak and valley of the combined law)")
+        rows = [[r["name"], str(r["string"]), f"{r['peak_mA_cm2']:.4g}", f"{r['peak_V']:.3f}",
+                 f"{r['valley_mA_cm2']:.4g}", f"{r['valley_V']:.3f}",
+                 f"{r['peak_over_largest_photocurrent']:.3g}", r["branch_at_mpp"]]
+                for r in s["tunnel_junctions"]]
+        lines += ["    " + x for x in _table(
+            ["junction", "string", "peak mA/cm2", "peak V", "valley mA/cm2", "valley V",
+             "peak / Jph", "branch at MPP"], rows, "<>>>>>><")]
     lines.append("")
     lines.append(f"  power balance error {s['power_balance_error_W_m2']:.2e} W/m2 "
                  "(sum of element powers, each from its own law, against V*J)")
@@ -73,4 +87,23 @@ def text_summary(result):
         lines.append(f"  warning: {w}")
     for caution in s["cautions"]:
         lines.append(f"  caution: {caution}")
+    return "\n".join(lines) + "\n"
+
+
+def sweep_summary(frame, direction, result):
+    """What a voltage sweep shows: its best point on the sweep grid, against the true MPP."""
+    import numpy as np
+
+    power = frame["voltage_V"] * frame["current_mA_cm2"] * 10
+    best = int(np.nanargmax(power.to_numpy())) if np.any(np.isfinite(power)) else None
+    lines = [f"  voltage sweep {direction} ({len(frame)} points from "
+             f"{frame['voltage_V'].min():.3f} to {frame['voltage_V'].max():.3f} V):"]
+    if best is None:
+        lines.append("    no point found")
+    else:
+        irradiance = result.summary["conditions"]["irradiance_W_m2"]
+        lines.append(f"    best sweep point {frame['voltage_V'].iloc[best]:.4f} V, "
+                     f"{frame['current_mA_cm2'].iloc[best]:.3f} mA/cm2, "
+                     f"{100 * power.iloc[best] / irradiance:.3f} % (read on the sweep grid; the "
+                     f"curve's true MPP above is {result.summary['efficiency_pct']:.3f} %)")
     return "\n".join(lines) + "\n"

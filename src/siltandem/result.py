@@ -64,6 +64,37 @@ class Result:
             row[f"{cell['name']}.photocurrent_mA_cm2"] = cell["photocurrent_mA_cm2"]
         return pd.DataFrame([row])
 
+    def sweep(self, direction, points=400):
+        """What a terminal-voltage sweep measures (``direction`` "up" or "down"), as a DataFrame.
+
+        Columns as :attr:`iv`; element voltages are interpolated between traced points. Where a
+        tunnel junction makes the curve S-shaped the sweep jumps, differently up and down.
+        """
+        import pandas as pd
+
+        from .trace import voltage_sweep
+
+        frames = []
+        for number, solution in enumerate(self.solutions, start=1):
+            curve = solution.curve
+            v, j = curve["voltage_V"][0], curve["current_A_m2"][0]
+            keep = np.isfinite(v) & np.isfinite(j)
+            target, current, segment, weight = voltage_sweep(v, j, direction=direction,
+                                                             points=points)
+            data = {"voltage_V": target, "current_mA_cm2": units.ma_cm2(current)}
+            ok = segment >= 0
+            for name in self.circuit.optical_order:
+                column = np.full(points, np.nan)
+                if name in curve:
+                    values = curve[name][0][keep]
+                    column[ok] = (values[segment[ok]] * (1 - weight[ok])
+                                  + values[segment[ok] + 1] * weight[ok])
+                data[f"{name}_V"] = column
+            if len(self.solutions) > 1:
+                data["string"] = number
+            frames.append(pd.DataFrame(data))
+        return pd.concat(frames, ignore_index=True)
+
     def to_json(self, indent=2):
         return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
 
@@ -128,7 +159,7 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
 def _summarise(stack, conditions, light, circuit, solutions, alone):
     irradiance = light.irradiance_W_m2
     warnings_ = []
-    string_rows, element_rows = [], []
+    string_rows, element_rows, tunnel_rows = [], [], []
     limiting = set()
     total_power = 0.0
     balance = 0.0
@@ -149,10 +180,40 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
             "jsc_mA_cm2": units.ma_cm2(_first(solution.jsc_A_m2)),
             "fill_factor": _first(solution.fill_factor), "mpp_V": _first(solution.mpp_V),
             "mpp_mA_cm2": units.ma_cm2(j_mpp), "mpp_W_m2": power,
-            "limiting_subcell": pilot.name})
+            "limiting_subcell": pilot.name, "regime": str(solution.regime[0])})
+        if str(solution.regime[0]).startswith("past peak"):
+            warnings_.append(f"string {number}: a tunnel junction is driven past its peak on the "
+                             f"traced curve ({solution.regime[0]}); see `--sweep up|down` for "
+                             "what a voltage sweep measures")
+        jph_max = max(_first(c.photocurrent_A_m2) for c in subcells)
+        for element in string:
+            if element.kind != "tunnel":
+                continue
+            ext = element.extrema(conditions.temperature_K)
+            peak = _first(ext.peak_A_m2)
+            tunnel_rows.append({
+                "name": element.name, "string": number,
+                "peak_mA_cm2": units.ma_cm2(peak), "peak_V": _first(ext.peak_V),
+                "valley_mA_cm2": units.ma_cm2(_first(ext.valley_A_m2)),
+                "valley_V": _first(ext.valley_V),
+                "peak_over_largest_photocurrent": peak / jph_max,
+                "branch_at_mpp": solution.tunnel_branch_at_mpp[element.name][0]})
+            if peak < jph_max:
+                warnings_.append(f"tunnel junction {element.name!r}: peak current "
+                                 f"{units.ma_cm2(peak):.3g} mA/cm2 is below the string's largest "
+                                 f"photocurrent {units.ma_cm2(jph_max):.3g} mA/cm2 (design rule, "
+                                 "common practice: the peak must exceed Jsc times the "
+                                 "concentration)")
         for element in string:
             v = _first(solution.voltage_at_mpp_V[element.name])
             delivered = v * j_mpp
+            extra = {}
+            if element.kind == "tunnel":
+                branch = solution.tunnel_branch_at_mpp[element.name][0]
+                extra["branch_at_mpp"] = branch
+                if branch != "tunnel":
+                    warnings_.append(f"tunnel junction {element.name!r} operates past its peak at "
+                                     f"the MPP ({branch} branch of its characteristic)")
             if element.kind == "subcell":
                 loss = _first(alone[element.name].mpp_W_m2) - delivered
                 if v < 0:
@@ -165,7 +226,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
                 "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
                     _first(solution.voltage_at_zero_current_V[element.name]),
                 "power_W_m2": delivered, "loss_W_m2": loss,
-                "loss_pct_abs": 100 * loss / irradiance})
+                "loss_pct_abs": 100 * loss / irradiance, **extra})
     if total_power > 0 and balance > POWER_BALANCE_TOLERANCE * total_power:
         warnings_.append(f"power balance error {balance:.3g} W/m2 exceeds "
                          f"{POWER_BALANCE_TOLERANCE:g} of the output power")
@@ -191,6 +252,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
         warnings_.append("circuit level: gaps are taken as given at "
                          f"{conditions.temperature_K:g} K (no temperature shift of the gap); "
                          "only the dark currents follow the temperature")
+    regimes = [r["regime"] for r in string_rows]
     return {
         "stack": stack.name,
         "notes": stack.notes,
@@ -204,9 +266,11 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
         "voc_V": head.get("voc_V"), "jsc_mA_cm2": head.get("jsc_mA_cm2"),
         "fill_factor": head.get("fill_factor"), "mpp_V": head.get("mpp_V"),
         "mpp_mA_cm2": head.get("mpp_mA_cm2"), "mpp_W_m2": total_power,
+        "regime": regimes[0] if one else regimes,
         "strings": string_rows,
         "subcells": subcell_rows,
         "elements": element_rows,
+        "tunnel_junctions": tunnel_rows,
         "parasitic": [],
         "photons": {"incident_mA_cm2": units.ma_cm2(circuit.optics["incident_A_m2"]),
                     "transmitted_mA_cm2":
@@ -215,7 +279,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
         "warnings": warnings_,
         "cautions": cautions,
         "sign_convention": SIGN_CONVENTION,
-        "model": "circuit level: detailed-balance subcells (generalized Planck law), lumped resistors",
+        "model": "circuit level: detailed-balance subcells (generalized Planck law), lumped "
+                 "resistors, Esaki tunnel junctions (three-term law)",
     }
 
 

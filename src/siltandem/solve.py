@@ -23,6 +23,7 @@ import warnings
 
 import numpy as np
 
+from .elements import take_rows
 from .numerics import bracketed_root
 
 #: forward end of a traced curve: the pilot carries this fraction of its photocurrent backwards
@@ -51,7 +52,14 @@ class StringSolution:
     failed : ndarray of bool
         Designs for which no answer was found (their numbers are NaN).
     curve : dict or None
-        ``{"current_A_m2": (B, N), "voltage_V": (B, N), element name: (B, N)}`` when asked for.
+        ``{"current_A_m2": (B, N), "voltage_V": (B, N), element name: (B, N)}`` when asked for,
+        ordered from reverse bias to forward bias along the traced path.
+    regime : ndarray of str
+        "no tunnel junction", "below peak" (every junction on its tunnel branch), "past peak, no
+        hysteresis" (the terminal curve is N-shaped: single-valued in V) or "past peak, hysteresis"
+        (S-shaped: a voltage sweep jumps, differently up and down).
+    tunnel_branch_at_mpp : dict
+        Tunnel junction name -> branch ("tunnel", "negative", "thermal") it sits on at the MPP.
     """
 
     element_names: list
@@ -67,6 +75,8 @@ class StringSolution:
     failed: np.ndarray
     pilot_index: np.ndarray
     curve: dict | None = field(default=None)
+    regime: np.ndarray | None = None
+    tunnel_branch_at_mpp: dict = field(default_factory=dict)
 
 
 class _String:
@@ -78,9 +88,18 @@ class _String:
         self.subcells = [e for e in self.elements if e.kind == "subcell"]
         if not self.subcells:
             raise ValueError("a string needs at least one subcell")
+        self.tunnels = [e for e in self.elements if e.kind == "tunnel"]
+        self.tunnel_extrema = {t.name: t.extrema(temperature_K) for t in self.tunnels}
         photocurrents = np.concatenate([s.photocurrent_A_m2 for s in self.subcells], axis=1)
         self.pilot_index = np.argmin(photocurrents, axis=1)[:, None]  # (B, 1)
         self.pilot_photocurrent = np.take_along_axis(photocurrents, self.pilot_index, axis=1)
+
+    def rows(self, rows):
+        """The same string restricted to some designs of the batch."""
+        temperature = self.temperature_K
+        if np.ndim(temperature) == 2 and np.shape(temperature)[0] > 1:
+            temperature = temperature[rows]
+        return _String([take_rows(e, rows) for e in self.elements], temperature)
 
     def _select(self, per_subcell):
         *values, index = np.broadcast_arrays(*per_subcell, self.pilot_index)
@@ -97,12 +116,14 @@ class _String:
         return self._select([np.maximum(s.lowest_junction_voltage() * (1 - 1e-9),
                                         LOWEST_PILOT_VOLTAGE_V) for s in self.subcells])
 
-    def evaluate(self, t, *, slopes=False):
+    def evaluate(self, t, *, slopes=False, branches=None):
         """String current, voltage (and d/dt of both) at pilot junction voltage ``t``.
 
-        Returns dict with ``current``, ``voltage``, ``voltages`` (one per element) and, with
-        ``slopes``, ``dcurrent`` and ``dvoltage``.
+        ``branches`` maps tunnel-junction names to the branch of their characteristic the string
+        sits on (default "tunnel" for all). Returns dict with ``current``, ``voltage``,
+        ``voltages`` (one per element) and, with ``slopes``, ``dcurrent`` and ``dvoltage``.
         """
+        branches = branches or {}
         forward = [s.pilot_current(t, self.temperature_K) for s in self.subcells]
         current = self._select([f[0] for f in forward])
         dcurrent = self._select([f[1] for f in forward])
@@ -121,6 +142,11 @@ class _String:
                         v_other, slope = element.voltage(current, self.temperature_K)
                         v = np.where(is_pilot, pilot_v, v_other)
                         dv_dt = np.where(is_pilot, pilot_dv, slope * dcurrent)
+            elif element.kind == "tunnel":
+                v, slope = element.voltage(current, self.temperature_K,
+                                           branches.get(element.name, "tunnel"),
+                                           self.tunnel_extrema[element.name])
+                dv_dt = slope * dcurrent
             else:
                 v_other, slope = element.voltage(current, self.temperature_K)
                 v, dv_dt = v_other, slope * dcurrent
@@ -131,6 +157,30 @@ class _String:
         if slopes:
             out.update(dcurrent=dcurrent, dvoltage=dvoltage)
         return out
+
+
+def spread_parameter(string, t_start, t_end, points):
+    """Pilot voltages from t_start to t_end (each (B, 1)) spread evenly in t AND in current.
+
+    Half the points are uniform in the pilot voltage, half uniform in the string current (the
+    pilot is inverted at those currents); merged in path order. Uniform t alone leaves the
+    knee of a non-limiting cell nearly empty when the pilot spans a long reverse branch.
+    """
+    n_t = points - points // 2
+    n_j = points - n_t
+    s = np.linspace(0.0, 1.0, n_t)[None, :]
+    by_t = t_start + (t_end - t_start) * s
+    if n_j == 0:
+        return by_t
+    j_start = string.evaluate(t_start)["current"]
+    j_end = string.evaluate(t_end)["current"]
+    inner = np.linspace(0.0, 1.0, n_j + 2)[None, 1:-1]
+    with np.errstate(invalid="ignore"):
+        by_j = string.pilot_voltage_at(j_start + (j_end - j_start) * inner)
+    low, high = np.minimum(t_start, t_end), np.maximum(t_start, t_end)
+    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
+    merged = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    return np.where(t_end < t_start, merged[:, ::-1], merged)
 
 
 def _finite_or(value, fallback):
@@ -153,8 +203,75 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     Returns
     -------
     StringSolution
+
+    Notes
+    -----
+    Designs whose tunnel junctions all stay below their peak current over the traced range are
+    solved together, vectorized (the common case). A design whose trace reaches a junction's peak
+    is traced piece by piece through the junction's negative-differential-resistance and thermal
+    branches (trace.py), one design at a time.
     """
     string = _String(elements, temperature_K)
+    simple = _solve_simple(string, temperature_K, curve_points, reverse_fraction)
+    past_peak = simple["reaches_peak"]
+    regime = np.array(["below peak" if string.tunnels else "no tunnel junction"] * past_peak.size,
+                      dtype=object)
+    branches = {t.name: np.full(past_peak.shape, "tunnel", dtype=object) for t in string.tunnels}
+    if np.any(past_peak):
+        from .trace import solve_path
+
+        for row in np.flatnonzero(past_peak):
+            one = string.rows(np.array([row]))
+            answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction)
+            for key in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"):
+                simple[key][row] = answer[key]
+            for k, v in enumerate(answer["voltages_mpp"]):
+                simple["voltages_mpp"][k][row] = v
+            for k, v in enumerate(answer["voltages_voc"]):
+                simple["voltages_voc"][k][row] = v
+            for name, branch in answer["branches_mpp"].items():
+                branches[name][row] = branch
+            regime[row] = answer["regime"]
+            if curve_points:
+                simple["curve"]["current_A_m2"][row] = answer["curve"]["current_A_m2"]
+                simple["curve"]["voltage_V"][row] = answer["curve"]["voltage_V"]
+                for element in string.elements:
+                    simple["curve"][element.name][row] = answer["curve"][element.name]
+    voc, jsc, v_mpp, j_mpp, p_mpp = (simple[k] for k in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"))
+
+    # power balance: each element's own forward law at its voltage
+    balance = np.zeros_like(p_mpp)
+    for element, v_i in zip(string.elements, simple["voltages_mpp"]):
+        j_i, _ = element.current(v_i, temperature_K)
+        balance = balance + v_i * j_i
+    balance_error = np.abs(balance - p_mpp)
+
+    with np.errstate(invalid="ignore", divide="ignore"):
+        fill_factor = p_mpp / (voc * jsc)
+    results = [voc, jsc, v_mpp, j_mpp, p_mpp, fill_factor]
+    failed = ~np.all([np.isfinite(r) for r in results], axis=0)[:, 0]
+    if np.any(failed):
+        warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point; "
+                      "their results are NaN", RuntimeWarning, stacklevel=2)
+
+    names = [e.name for e in string.elements]
+    flat = lambda a: np.asarray(a, dtype=float)[:, 0]  # noqa: E731
+    return StringSolution(
+        element_names=names, voc_V=flat(voc), jsc_A_m2=flat(jsc), mpp_V=flat(v_mpp),
+        mpp_A_m2=flat(j_mpp), mpp_W_m2=flat(p_mpp), fill_factor=flat(fill_factor),
+        voltage_at_mpp_V={n: flat(v) for n, v in zip(names, simple["voltages_mpp"])},
+        voltage_at_zero_current_V={n: flat(v) for n, v in zip(names, simple["voltages_voc"])},
+        power_balance_error_W_m2=flat(balance_error), failed=failed,
+        pilot_index=string.pilot_index[:, 0], curve=simple["curve"], regime=regime,
+        tunnel_branch_at_mpp=branches)
+
+
+def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
+    """Vectorized solve along the pilot voltage with every tunnel junction on its tunnel branch.
+
+    Also tells, per design, whether the trace reaches a junction's peak current (then the design
+    is traced again piece by piece).
+    """
     jph = string.pilot_photocurrent
     t_voc = string.pilot_voltage_at(np.zeros_like(jph))
     t_forward = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph)
@@ -162,14 +279,30 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
 
     at_voc = string.evaluate(t_voc)
     voc = at_voc["voltage"]
+    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
 
-    # Jsc: root of V(t) = 0 between the lowest pilot voltage and open circuit
+    # every tunnel junction on its tunnel branch: the trace must stay below the smallest peak
+    # current, i.e. above the pilot voltage t_peak that carries it
+    t_low = t_lowest
+    if string.tunnels:
+        smallest_peak = np.min(np.concatenate(
+            [string.tunnel_extrema[t.name].peak_A_m2 for t in string.tunnels], axis=1),
+            axis=1, keepdims=True)
+        with np.errstate(invalid="ignore"):
+            t_peak = string.pilot_voltage_at(smallest_peak * (1 - 1e-9))
+        t_low = np.where(np.isfinite(t_peak) & (t_peak > t_lowest), t_peak, t_lowest)
+
     def terminal(t):
         return _finite_or(string.evaluate(t)["voltage"], -1e3)
 
-    t_sc = bracketed_root(terminal, t_lowest, t_voc)
+    reaches_peak = np.zeros(jph.shape[0], dtype=bool)
+    if string.tunnels:
+        reaches_peak = (terminal(t_low) > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+    t_sc = bracketed_root(terminal, t_low, t_voc)
     at_sc = string.evaluate(t_sc)
     jsc = at_sc["current"]
+    t_floor = bracketed_root(lambda t: terminal(t) - v_floor, t_low, t_voc)
+    t_floor = np.where(np.isfinite(t_floor), t_floor, np.where(np.isfinite(t_sc), t_sc, t_low))
 
     # MPP: best of a coarse grid in t between short and open circuit, then dP/dt = 0
     s = np.linspace(0.0, 1.0, MPP_GRID_POINTS)[None, :]
@@ -189,40 +322,18 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
     at_mpp = string.evaluate(t_mpp)
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
-    p_mpp = j_mpp * v_mpp
-
-    # power balance: each element's own forward law at its voltage
-    balance = np.zeros_like(p_mpp)
-    for element, v_i in zip(string.elements, at_mpp["voltages"]):
-        j_i, _ = element.current(v_i, temperature_K)
-        balance = balance + v_i * j_i
-    balance_error = np.abs(balance - p_mpp)
-
-    with np.errstate(invalid="ignore", divide="ignore"):
-        fill_factor = p_mpp / (voc * jsc)
-    results = [voc, jsc, v_mpp, j_mpp, p_mpp, fill_factor]
-    failed = ~np.all([np.isfinite(r) for r in results], axis=0)[:, 0]
-    if np.any(failed):
-        warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point; "
-                      "their results are NaN", RuntimeWarning, stacklevel=2)
 
     curve = None
     if curve_points:
-        v_floor = -np.maximum(reverse_fraction * voc, 0.3)
-        t_floor = bracketed_root(lambda t: terminal(t) - v_floor, t_lowest, t_voc)
-        t_floor = np.where(np.isfinite(t_floor), t_floor, t_sc)
-        curve_t = t_floor + (t_forward - t_floor) * np.linspace(0.0, 1.0, curve_points)[None, :]
+        curve_t = spread_parameter(string, t_floor, t_forward, curve_points)
         traced = string.evaluate(curve_t)
-        curve = {"current_A_m2": traced["current"], "voltage_V": traced["voltage"]}
+        curve = {"current_A_m2": traced["current"].copy(), "voltage_V": traced["voltage"].copy()}
         for element, v_i in zip(string.elements, traced["voltages"]):
-            curve[element.name] = v_i
-
-    names = [e.name for e in string.elements]
-    flat = lambda a: np.asarray(a, dtype=float)[:, 0]  # noqa: E731
-    return StringSolution(
-        element_names=names, voc_V=flat(voc), jsc_A_m2=flat(jsc), mpp_V=flat(v_mpp),
-        mpp_A_m2=flat(j_mpp), mpp_W_m2=flat(p_mpp), fill_factor=flat(fill_factor),
-        voltage_at_mpp_V={n: flat(v) for n, v in zip(names, at_mpp["voltages"])},
-        voltage_at_zero_current_V={n: flat(v) for n, v in zip(names, at_voc["voltages"])},
-        power_balance_error_W_m2=flat(balance_error), failed=failed,
-        pilot_index=string.pilot_index[:, 0], curve=curve)
+            curve[element.name] = np.array(v_i, dtype=float)
+    return dict(voc=voc.copy(), jsc=jsc.copy(), v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
+                p_mpp=(j_mpp * v_mpp).copy(),
+                voltages_mpp=[np.array(np.broadcast_to(v, j_mpp.shape), dtype=float)
+                              for v in at_mpp["voltages"]],
+                voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
+                              for v in at_voc["voltages"]],
+                curve=curve, reaches_peak=reaches_peak)

@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 import difflib
 import math
+import re
 import tomllib
 
 from .constants import STANDARD_TEMPERATURE_K
@@ -58,9 +59,22 @@ ELEMENT_SCHEMA = {
     "resistor": [
         Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e4, help="series resistance"),
     ],
+    "tunnel": [
+        Parameter("peak_mA_cm2", "mA/cm2", 0.0, 1e9, low_open=True,
+                  help="peak tunnelling current density"),
+        Parameter("peak_V", "V", 0.0, 5.0, low_open=True, help="voltage of the current peak"),
+        Parameter("valley_mA_cm2", "mA/cm2", 0.0, 1e9, low_open=True,
+                  help="excess (valley) current density"),
+        Parameter("valley_V", "V", 0.0, 10.0, low_open=True, help="voltage of the valley"),
+        Parameter("excess_slope_per_V", "1/V", 0.0, 1e4, 0.0,
+                  help="exponent of the excess current (0: the law's default)"),
+        Parameter("saturation_mA_cm2", "mA/cm2", 0.0, 1e3, 1e-14,
+                  help="saturation current of the thermal diode beyond the valley"),
+        Parameter("ideality", "", 0.5, 5.0, 1.0, help="ideality of the thermal diode"),
+    ],
 }
 #: kinds whose laws come with later stages of the project: recognised, not yet solvable
-PLANNED_KINDS = {"tunnel": "tunnel junction", "isotype": "isotype heterointerface"}
+PLANNED_KINDS = {"isotype": "isotype heterointerface"}
 COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
@@ -159,7 +173,7 @@ def _parse_element(index, table, *, file, terminals):
     where = f"element {index} {name!r}"
     if "kind" not in table:
         raise StackError("missing key 'kind'", file=file, where=where,
-                         fix='add kind = "subcell" or kind = "resistor"')
+                         fix='add kind = "subcell", "resistor" or "tunnel"')
     kind = table["kind"]
     if not isinstance(kind, str):
         raise StackError(f"kind must be text, got {kind!r}", file=file, where=where,
@@ -167,7 +181,7 @@ def _parse_element(index, table, *, file, terminals):
     if kind in PLANNED_KINDS:
         raise StackError(f"kind {kind!r} ({PLANNED_KINDS[kind]}) is not solvable in this "
                          "version", file=file, where=where,
-                         fix="use subcell and resistor elements for now")
+                         fix="use subcell, resistor and tunnel elements for now")
     if kind not in ELEMENT_SCHEMA:
         raise StackError(f"unknown element kind {kind!r}", file=file, where=where,
                          fix=_suggest(kind, list(ELEMENT_SCHEMA) + list(PLANNED_KINDS))
@@ -194,11 +208,46 @@ def _parse_element(index, table, *, file, terminals):
         else:
             value = spec.default
         values[key] = value
+    if kind == "tunnel":
+        _check_tunnel(values, file=file, where=where)
     if kind == "subcell" and "breakdown_V" in table and "shunt_ohm_cm2" not in table:
         raise StackError("breakdown_V needs shunt_ohm_cm2: the avalanche current multiplies the "
                          "shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)", file=file,
                          where=where, fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
     return ElementSpec(index, kind, name, string, values)
+
+
+def _check_tunnel(values, *, file, where):
+    """Peak before valley, valley below peak, and a law that can put its maximum at the peak."""
+    from .laws import esaki
+
+    if values["peak_V"] >= values["valley_V"]:
+        raise StackError(f"peak_V = {values['peak_V']:g} V is not below valley_V = "
+                         f"{values['valley_V']:g} V", file=file, where=where,
+                         fix="the current peak comes before the valley: lower peak_V or raise "
+                             "valley_V")
+    if values["valley_mA_cm2"] >= values["peak_mA_cm2"]:
+        raise StackError(f"valley_mA_cm2 = {values['valley_mA_cm2']:g} is not below peak_mA_cm2 "
+                         f"= {values['peak_mA_cm2']:g}", file=file, where=where,
+                         fix="a tunnel junction's valley current is below its peak current: "
+                             "lower valley_mA_cm2 or raise peak_mA_cm2")
+    slope = values["excess_slope_per_V"] or None
+    try:
+        esaki.tunnel_term_for_exact_peak(
+            peak_A_m2=values["peak_mA_cm2"] * 10, peak_V=values["peak_V"],
+            valley_A_m2=values["valley_mA_cm2"] * 10, valley_V=values["valley_V"],
+            excess_slope_per_V=slope, saturation_A_m2=values["saturation_mA_cm2"] * 10,
+            ideality=values["ideality"], temperature_K=STANDARD_TEMPERATURE_K)
+    except esaki.TunnelParameterError as exc:
+        message = str(exc).removeprefix("tunnel junction: ")
+        message = re.sub(r"(-?[\d.]+(?:e[-+]?\d+)?) A/m\^2",
+                         lambda m: f"{float(m.group(1)) / 10:g} mA/cm2", message)
+        for law_key, file_key in (("peak_A_m2", "peak_mA_cm2"), ("valley_A_m2", "valley_mA_cm2"),
+                                  ("saturation_A_m2", "saturation_mA_cm2")):
+            message = message.replace(law_key, file_key)
+        problem, _, fix = message.partition(": ")
+        raise StackError(problem, file=file, where=where,
+                         fix=fix or "check peak, valley and saturation values") from None
 
 
 def _parse_conditions(table, *, file):

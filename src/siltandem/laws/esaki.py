@@ -310,6 +310,22 @@ def tunnel_current_density(voltage_V, *, peak_A_m2, peak_V, valley_A_m2, valley_
     return (j, dj) if return_slope else j
 
 
+def prepare_tunnel_law(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V=None,
+                       saturation_A_m2, ideality=1.0, temperature_K, exact_peak=False):
+    """Validate once and return the law's internal parameters, for fast repeated evaluation.
+
+    The tuple goes to :func:`evaluate_prepared`; a solver that evaluates one junction thousands of
+    times avoids re-validating and re-solving the exact-peak shape on every call.
+    """
+    return _prepare(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V, saturation_A_m2,
+                    ideality, temperature_K, exact_peak)
+
+
+def evaluate_prepared(voltage_V, prepared):
+    """J [A/m^2], dJ/dV and d2J/dV2 of the law at ``voltage_V`` from :func:`prepare_tunnel_law`."""
+    return _total(np.asarray(voltage_V, dtype=float), *prepared)
+
+
 def _exact_peak_shape(jp, vp, jv, vv, c2, j0, n, t):
     rest, rest1, rest2 = (x + y for x, y in zip(_excess_term(vp, jv, vv, c2), _thermal_term(vp, j0, n, t)))
     margin = jp - rest
