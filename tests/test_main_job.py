@@ -131,3 +131,56 @@ def test_malformed_spectrum_from_stack_file_exit_2(tmp_path):
     done = cli("run", tmp_path / "s.toml")
     assert done.returncode == 2 and "not increasing" in done.stderr
     assert "Traceback" not in done.stderr
+
+
+TUNNEL_DEMO = ROOT / "stacks" / "demo_tunnel_limit.toml"
+
+
+def test_tunnel_junction_past_peak_is_reported():
+    data = json.loads(cli("run", TUNNEL_DEMO, "--json", "-").stdout)
+    assert data["regime"] == "past peak, hysteresis"
+    (junction,) = data["tunnel_junctions"]
+    assert junction["peak_mA_cm2"] == pytest.approx(15.0, rel=1e-9)   # the exact requested peak
+    assert junction["peak_over_largest_photocurrent"] < 1
+    assert any("below the string's largest photocurrent" in w for w in data["warnings"])
+    assert data["mpp_mA_cm2"] <= 15.0 * (1 + 1e-9)
+
+
+def test_sweeps_up_and_down_differ_with_hysteresis(tmp_path):
+    up, down = tmp_path / "up.csv", tmp_path / "down.csv"
+    assert cli("run", TUNNEL_DEMO, "--sweep", "up", "--curve", up).returncode == 0
+    done = cli("run", TUNNEL_DEMO, "--sweep", "down", "--curve", down, "--plot",
+               tmp_path / "s.png")
+    assert done.returncode == 0 and "voltage sweep down" in done.stdout
+    a = pd.read_csv(up).sort_values("voltage_V")
+    b = pd.read_csv(down).sort_values("voltage_V")
+    np.testing.assert_allclose(a["voltage_V"], b["voltage_V"], atol=1e-12)
+    gap = np.nanmax(np.abs(a["current_mA_cm2"].to_numpy() - b["current_mA_cm2"].to_numpy()))
+    assert gap > 1.0   # mA/cm2: the two sweeps sit on different branches somewhere
+
+
+def test_concentration_series(tmp_path):
+    table = tmp_path / "series.csv"
+    done = cli("run", ROOT / "stacks" / "demo_concentrator.toml", "--suns-range", "1:2000:12",
+               "--table", table, "--plot", tmp_path / "c.png")
+    assert done.returncode == 0, done.stderr
+    frame = pd.read_csv(table)
+    assert len(frame) == 12 and frame["suns"].iloc[-1] == pytest.approx(2000)
+    # Jsc rises in proportion to the light while every junction is below its peak; at 1 sun the
+    # reverse-biased limiting cell's shunt adds about 0.2 % (2.5 V across 1e5 ohm cm2)
+    below = frame["regime"] == "below peak"
+    ratio = frame["jsc_mA_cm2"][below] / frame["suns"][below]
+    assert ratio.max() / ratio.min() == pytest.approx(1.0, abs=5e-3)
+    assert frame["lower junction.peak_exceeded"].iloc[-1]
+    assert not frame["lower junction.peak_exceeded"].iloc[0]
+    assert "concentrated light" in done.stdout
+
+
+@pytest.mark.parametrize("args, message", [
+    (["--suns-range", "5:1:3"], "need 0 < START < STOP"),
+    (["--suns-range", "abc"], "is not START:STOP:N"),
+    (["--table", "t.csv"], "--table goes with --suns-range"),
+])
+def test_bad_range_options(tmp_path, args, message):
+    done = cli("run", DEMO, *args, cwd=tmp_path)
+    assert done.returncode == 2 and message in done.stderr

@@ -7,6 +7,8 @@ from importlib import resources
 from pathlib import Path
 import sys
 
+import numpy as np
+
 from .errors import StackError
 
 DEMO = "demo_dual.toml"
@@ -49,7 +51,58 @@ def _parser():
     run.add_argument("--sweep", choices=["up", "down"],
                      help="report what a terminal-voltage sweep measures (with hysteresis where a "
                           "tunnel junction is driven past its peak): --curve and --plot show it")
+    run.add_argument("--suns-range", metavar="START:STOP:N",
+                     help="solve at N concentrations from START to STOP suns (log-spaced) and "
+                          "report efficiency against concentration; --plot draws it, --table "
+                          "writes it")
+    run.add_argument("--table", metavar="PATH.csv", help="with --suns-range: write the series")
     return parser
+
+
+def _parse_range(text):
+    parts = text.split(":")
+    try:
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+        if len(parts) != 3:
+            raise ValueError
+    except (ValueError, IndexError):
+        raise StackError(f"--suns-range {text!r} is not START:STOP:N", where="--suns-range",
+                         fix="write for example --suns-range 1:2000:40") from None
+    if not (0 < start < stop <= 1e5) or not 2 <= count <= 2000:
+        raise StackError(f"--suns-range {text!r}: need 0 < START < STOP <= 1e5 and 2 <= N <= 2000",
+                         where="--suns-range", fix="write for example --suns-range 1:2000:40")
+    return np.geomspace(start, stop, count)
+
+
+def _concentration(args, stack):
+    from .files import save_figure_atomic, write_atomic
+    from .report import concentration_summary
+    from .result import concentration_series
+
+    suns = _parse_range(args.suns_range)
+    series = concentration_series(stack, suns, spectrum=args.spectrum,
+                                  temperature_K=args.temperature)
+    sys.stdout.write(concentration_summary(series, stack))
+    if args.table:
+        write_atomic(args.table, series.to_csv(index=False, float_format="%.10g"))
+        print(f"  wrote {args.table}")
+    if args.json:
+        import json
+
+        text = json.dumps({"stack": stack.name, "series": json.loads(
+            series.to_json(orient="records"))}, indent=2) + "\n"
+        if args.json == "-":
+            sys.stdout.write(text)
+        else:
+            write_atomic(args.json, text)
+            print(f"  wrote {args.json}")
+    if args.plot:
+        from .plots import plot_concentration
+
+        ax = plot_concentration(series, title=f"{stack.name}: efficiency against concentration")
+        save_figure_atomic(ax.figure, args.plot)
+        print(f"  wrote {args.plot}")
+    return 0
 
 
 def _run(args):
@@ -58,10 +111,11 @@ def _run(args):
     from .result import run_stack
     from .stack import load_stack
 
-    for option, path in (("--curve", args.curve), ("--plot", args.plot)):
+    for option, path in (("--curve", args.curve), ("--plot", args.plot),
+                         ("--table", args.table)):
         if path is None:
             continue
-        allowed = {".csv"} if option == "--curve" else {".png", ".svg", ".pdf"}
+        allowed = {".png", ".svg", ".pdf"} if option == "--plot" else {".csv"}
         if Path(path).suffix.lower() not in allowed:
             raise StackError(f"{option} {path}: unsupported file type", where=option,
                              fix=f"give a path ending in {' or '.join(sorted(allowed))}")
@@ -74,6 +128,14 @@ def _run(args):
             stack = load_stack(demo)
     else:
         stack = load_stack(path)
+    if args.suns_range:
+        if args.suns is not None or args.sweep or args.curve:
+            raise StackError("--suns-range goes without --suns, --sweep and --curve",
+                             where="--suns-range", fix="use --table for the series' CSV")
+        return _concentration(args, stack)
+    if args.table:
+        raise StackError("--table goes with --suns-range", where="--table",
+                         fix="add --suns-range START:STOP:N, or use --curve for the light I-V")
     result = run_stack(stack, spectrum=args.spectrum, suns=args.suns,
                        temperature_K=args.temperature, curve_points=args.points)
     to_stdout_json = args.json == "-"

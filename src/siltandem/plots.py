@@ -64,3 +64,24 @@ def plot_iv(result, ax=None, *, curve_points=301, sweeps=()):
     ax.legend(fontsize=8, loc="lower left")
     ax.grid(alpha=0.3)
     return ax
+
+
+def plot_concentration(series, ax=None, *, title=""):
+    """Efficiency against concentration (log axis); where each junction's peak is exceeded, shaded."""
+    ax = _axes(ax)
+    suns = series["suns"].to_numpy()
+    ax.semilogx(suns, series["efficiency_pct"], "o-", color="black", ms=3, label="efficiency")
+    flags = [c for c in series.columns if c.endswith(".peak_exceeded")]
+    for k, column in enumerate(flags):
+        exceeded = series[column].to_numpy(dtype=bool)
+        if exceeded.any():
+            first = suns[np.argmax(exceeded)]
+            ax.axvspan(first, suns.max(), color=f"C{k + 1}", alpha=0.15,
+                       label=f"{column.removesuffix('.peak_exceeded')}: peak below photocurrent")
+            ax.axvline(first, color=f"C{k + 1}", lw=1)
+    ax.set_xlabel("concentration (suns)")
+    ax.set_ylabel("efficiency (%)")
+    ax.set_title(title, fontsize=10)
+    ax.grid(alpha=0.3, which="both")
+    ax.legend(fontsize=8, loc="lower left")
+    return ax

@@ -107,3 +107,28 @@ def sweep_summary(frame, direction, result):
                      f"{100 * power.iloc[best] / irradiance:.3f} % (read on the sweep grid; the "
                      f"curve's true MPP above is {result.summary['efficiency_pct']:.3f} %)")
     return "\n".join(lines) + "\n"
+
+
+def concentration_summary(series, stack):
+    """Table of efficiency against concentration, with where each junction's peak is exceeded."""
+    flags = [c for c in series.columns if c.endswith(".peak_exceeded")]
+    lines = [f"siltandem — {stack.name}: efficiency against concentration", ""]
+    headers = ["suns", "efficiency %", "Voc V", "Jsc mA/cm2", "FF %", "regime"] + [
+        f"{c.removesuffix('.peak_exceeded')} past peak" for c in flags]
+    rows = []
+    for _, r in series.iterrows():
+        rows.append([f"{r['suns']:.4g}", _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
+                     _fmt(r["jsc_mA_cm2"], ".4g"), _fmt(100 * r["fill_factor"], ".2f"),
+                     str(r["regime"])] + ["yes" if r[c] else "no" for c in flags])
+    lines += ["  " + x for x in _table(headers, rows, ">>>>><" + "<" * len(flags))]
+    best = series["efficiency_pct"].idxmax()
+    lines.append("")
+    lines.append(f"  best: {series['efficiency_pct'][best]:.3f} % at {series['suns'][best]:.4g} suns")
+    for c in flags:
+        exceeded = series[c].to_numpy(dtype=bool)
+        if exceeded.any():
+            lines.append(f"  {c.removesuffix('.peak_exceeded')}: peak current below the "
+                         f"photocurrent from {series['suns'][exceeded.argmax()]:.4g} suns on")
+    lines.append("  caution: concentrated light burns skin and eyes and ignites material; results "
+                 "are models; follow local codes and licensed practice.")
+    return "\n".join(lines) + "\n"

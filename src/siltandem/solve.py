@@ -19,6 +19,7 @@ the MPP as the root of dP/dt = 0 bracketed by the best point of a coarse grid.
 Everything is batched: element parameters are (B, 1) arrays and the solve works on (B, N) grids.
 """
 from dataclasses import dataclass, field
+import functools
 import warnings
 
 import numpy as np
@@ -90,7 +91,11 @@ class _String:
             raise ValueError("a string needs at least one subcell")
         self.tunnels = [e for e in self.elements if e.kind == "tunnel"]
         self.tunnel_extrema = {t.name: t.extrema(temperature_K) for t in self.tunnels}
-        photocurrents = np.concatenate([s.photocurrent_A_m2 for s in self.subcells], axis=1)
+        size = max([1] + [v.shape[0] for e in self.elements for v in vars(e).values()
+                          if isinstance(v, np.ndarray) and v.ndim == 2])
+        self.size = size
+        photocurrents = np.concatenate(
+            [np.broadcast_to(s.photocurrent_A_m2, (size, 1)) for s in self.subcells], axis=1)
         self.pilot_index = np.argmin(photocurrents, axis=1)[:, None]  # (B, 1)
         self.pilot_photocurrent = np.take_along_axis(photocurrents, self.pilot_index, axis=1)
 
@@ -152,7 +157,7 @@ class _String:
                 v, dv_dt = v_other, slope * dcurrent
             voltages.append(v)
             dvoltage = dvoltage + dv_dt
-        voltage = np.sum(voltages, axis=0)
+        voltage = functools.reduce(np.add, voltages)
         out = dict(current=current, voltage=voltage, voltages=voltages)
         if slopes:
             out.update(dcurrent=dcurrent, dvoltage=dvoltage)

@@ -1,0 +1,508 @@
+"""Isotype heterointerface (n-N or p-P): thermionic emission over the band-offset barrier.
+
+Side 1 is the accumulation side (Boltzmann carriers, full Poisson solution), side 2 the depletion
+side (depletion approximation, optionally with the kT/q tail term). The barrier voltage
+``Vbi - V`` splits between the two sides so that the displacement field is continuous at the
+interface; the split is found in closed form with the Lambert W function for any ratio
+``alpha = eps1 N1 / (eps2 N2)``, then polished by one Halley step on the charge balance.
+
+Conventions (both carrier types): energies are "carrier energies" (electron energy for n-N,
+minus the electron energy for p-P), so the barrier is a spike in the relevant band either way.
+``voltage_V > 0`` lowers the barrier voltage and gives ``J > 0``: majority carriers then flow from
+the depletion side (2) over the spike into the accumulation side (1). For electrons the
+conventional current runs from side 1 to side 2, for holes from side 2 to side 1; orienting that
+against the stack current is the compiler's job.
+
+The derivation is in ``notes/thermionic.md``.
+"""
+from __future__ import annotations
+
+import warnings
+from typing import NamedTuple
+
+import numpy as np
+from scipy.optimize import elementwise
+from scipy.special import lambertw, wrightomega
+
+from siltandem.constants import BOLTZMANN_EV_K, RICHARDSON_FREE_A_M2_K2, thermal_voltage_V
+
+__all__ = [
+    "IsotypeParameterError",
+    "IsotypeDomainWarning",
+    "VoltageSplit",
+    "IsotypeAlignment",
+    "voltage_split",
+    "isotype_current_density",
+    "isotype_voltage",
+    "richardson_constant_A_m2_K2",
+    "isotype_band_alignment",
+]
+
+
+class IsotypeParameterError(ValueError):
+    """A parameter of an isotype-interface law is outside its physical range."""
+
+
+class IsotypeDomainWarning(RuntimeWarning):
+    """Some points lie outside the law's domain (or did not converge) and were set to NaN."""
+
+
+class VoltageSplit(NamedTuple):
+    """Band bending on each side of the interface [V]; they add up to the barrier voltage."""
+
+    accumulation_V: np.ndarray
+    depletion_V: np.ndarray
+
+
+class IsotypeAlignment(NamedTuple):
+    """Oriented parameters of an isotype interface (see `isotype_band_alignment`)."""
+
+    built_in_V: np.ndarray
+    barrier_eV: np.ndarray
+    offset_eV: np.ndarray
+    alpha: np.ndarray
+    a_accumulates: np.ndarray
+
+
+# ---------------------------------------------------------------------------------------------
+# small accurate helpers
+
+# 1/(k+2)! for k = 0..14: exp(x) - 1 - x = x^2 * sum_k x^k/(k+2)!
+_EXP_TAIL = np.array([1.0 / np.prod(np.arange(1.0, k + 3.0)) for k in range(15)])
+
+# W_{-1}(z) = -1 - sum_k c_k rho^k, rho = sqrt(2 (1 + e z)), about the branch point z = -1/e
+# (Corless et al. 1996, eq. 4.22, with p = -rho for the lower branch).
+_BRANCH_SERIES = np.array([
+    1.0, 1.0 / 3.0, 11.0 / 72.0, 43.0 / 540.0, 769.0 / 17280.0, 221.0 / 8505.0,
+    680863.0 / 43545600.0, 1963.0 / 204120.0, 226287557.0 / 37623398400.0,
+])
+_EPS = np.finfo(float).eps
+_EDGE_SLACK = 1e-12   # [kT/q] a barrier voltage this far below the domain edge counts as on it
+_BRANCH_SERIES_RHO_MAX = 0.25     # truncation there ~4e-9 relative; the Halley step removes it
+
+
+def _horner(coefficients, x):
+    out = np.full_like(x, coefficients[-1])
+    for c in coefficients[-2::-1]:
+        out = out * x + c
+    return out
+
+
+def _alpha_terms(alpha, x):
+    """alpha e^x, alpha (e^x - 1) and alpha (e^x - 1 - x) on flat arrays, without overflow of
+    e^x alone and without cancellation for small |x| (series below 0.5)."""
+    alpha, x = np.broadcast_arrays(np.asarray(alpha, float), np.asarray(x, float))
+    with np.errstate(over="ignore", invalid="ignore"):
+        a_exp = alpha * np.exp(x)
+        huge = x >= 700.0
+        if np.any(huge):
+            a_exp[huge] = np.exp(np.log(alpha[huge]) + x[huge])
+        a_em1 = a_exp - alpha
+        a_g = a_em1 - alpha * x
+    small = np.abs(x) < 0.5
+    if np.any(small):
+        xs, a_s = x[small], alpha[small]
+        a_em1[small] = a_s * np.expm1(xs)
+        a_g[small] = a_s * xs * xs * _horner(_EXP_TAIL, xs)
+    return a_exp, a_em1, a_g
+
+
+def _x_minus_log1p(q):
+    """q - log(1 + q) for q >= 0, accurate for small q (log1p(q) = 2 atanh(q/(2+q)))."""
+    u = q / (2.0 + q)
+    u2 = u * u
+    odd = _horner(1.0 / np.arange(3.0, 26.0, 2.0), u2)     # 1/3 + u^2/5 + ...
+    series = q * q / (2.0 + q) - 2.0 * u * u2 * odd
+    return np.where(q < 0.5, series, q - np.log1p(q))
+
+
+def _branch_minus_one_excess(mu):
+    """p = -W_{-1}(-exp(-1 - mu)) - 1 >= 0 for mu >= 0, never forming exp(-1 - mu) near -1/e.
+
+    Three regions: series about the branch point (lambertw k=-1 loses digits there), lambertw
+    k=-1 for mu <= 1, and Wright omega omega(-1 - mu - i pi) = W_{-1}(-exp(-1 - mu)) for mu > 1
+    (on scipy 1.17 that identity fails between -2 and -1, where it returns the W_0 value).
+    """
+    p = np.empty_like(mu)
+    rho = np.sqrt(-2.0 * np.expm1(-mu))
+    near = rho < _BRANCH_SERIES_RHO_MAX
+    mid = ~near & (mu <= 1.0)
+    far = mu > 1.0
+    p[near] = rho[near] * _horner(_BRANCH_SERIES, rho[near])
+    p[mid] = -lambertw(-np.exp(-1.0 - mu[mid]), -1).real - 1.0
+    p[far] = -wrightomega(-1.0 - mu[far] - 1j * np.pi).real - 1.0
+    return p
+
+
+def _warn_nan(count, what):
+    if count:
+        warnings.warn(f"isotype interface: {count} point(s) {what}; set to NaN",
+                      IsotypeDomainWarning, stacklevel=3)
+
+
+def _check_positive(name, value):
+    value = np.asarray(value, dtype=float)
+    bad = ~(np.isfinite(value) & (value > 0))
+    if np.any(bad):
+        raise IsotypeParameterError(
+            f"isotype interface: '{name}' must be finite and > 0, got {value[bad].ravel()[0]!r}; "
+            f"give a positive value in the unit its name states (SI, eV for energies)")
+    return value
+
+
+# ---------------------------------------------------------------------------------------------
+# the split of the barrier voltage (reduced units: v = V / (kT/q))
+
+def _reduced_split(vb, alpha, tail):
+    """Accumulation-side bending v1 (units of kT/q) for flat float arrays; tail is 0 or 1.
+
+    Solves alpha*(exp(v1) - 1 - v1) = vb - v1 - tail for the root with v1 >= 0. Valid for
+    vb >= tail; callers mask other points.
+    """
+    vb, alpha = np.asarray(vb, dtype=float), np.asarray(alpha, dtype=float)
+    v1 = np.empty_like(vb)
+    beta = 1.0 - alpha                      # exact for alpha in [0.5, 2] (Sterbenz)
+    c = vb - tail + alpha
+    lo, hi, one = beta > 0, beta < 0, beta == 0
+    # alpha < 1: v1 = c/beta - W0(alpha/beta exp(c/beta)) = log(beta omega(x) / alpha)
+    x = np.log(alpha[lo] / beta[lo]) + c[lo] / beta[lo]
+    v1[lo] = np.log(beta[lo] * wrightomega(x) / alpha[lo])
+    # alpha > 1: v1 = -c/g - W_{-1}(-(alpha/g) exp(-c/g)) = log1p(p) - log1p(q), g = alpha - 1
+    q = 1.0 / (alpha[hi] - 1.0)
+    mu = (vb[hi] - tail) * q + _x_minus_log1p(q)
+    v1[hi] = np.log1p(_branch_minus_one_excess(mu)) - np.log1p(q)
+    # alpha == 1: exp(v1) = 1 + vb - tail
+    v1[one] = np.log1p(vb[one] - tail)
+    # one Halley step on F(v1) = alpha*(exp(v1) - 1 - v1) + v1 - (vb - tail)
+    a_exp, a_em1, a_g = _alpha_terms(alpha, v1)
+    with np.errstate(over="ignore", invalid="ignore"):
+        f = a_g + v1 - (vb - tail)
+        f1 = 1.0 + a_em1
+        return v1 - 2.0 * f * f1 / (2.0 * f1 * f1 - f * a_exp)
+
+
+def _accumulation_bending(vb, alpha, tail):
+    """v1 on flat arrays, NaN where vb < tail or vb non-finite; also the count of such points."""
+    ok = np.isfinite(vb) & (vb >= tail - _EDGE_SLACK)      # the domain edge itself, to rounding
+    v1 = np.full_like(vb, np.nan)
+    v1[ok] = np.maximum(_reduced_split(np.maximum(vb[ok], tail), alpha[ok], tail), 0.0)
+    return v1, int(np.count_nonzero(~ok & np.isfinite(vb)))
+
+
+def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False):
+    """Split of the barrier voltage between the accumulation and the depletion side.
+
+    Parameters
+    ----------
+    barrier_voltage_V : array_like
+        Total band bending ``Vbi - V`` [V]; must be >= 0 (>= kT/q with ``include_tail``).
+    alpha : array_like
+        ``eps1 N1 / (eps2 N2)``, accumulation side over depletion side, > 0.
+    temperature_K : array_like
+        Temperature [K], > 0.
+    include_tail : bool, default False
+        Add the kT/q majority-carrier tail to the depletion side (closer to a full Boltzmann
+        solution when the depletion-side bending is many kT/q; undefined below kT/q).
+
+    Returns
+    -------
+    VoltageSplit
+        ``accumulation_V`` (side 1) and ``depletion_V`` (side 2) [V], broadcast shape.
+        Points outside the domain are NaN (one `IsotypeDomainWarning`).
+
+    Notes
+    -----
+    With v = V q/kT, continuity of eps*E at the interface gives the charge balance
+
+        alpha (exp(v1) - 1 - v1) = v2 - t,   v1 + v2 = vb,   t = 0 (or 1 with the tail),
+
+    whose physical root is ``v1 = log(beta omega(x)/alpha)``, ``x = ln(alpha/beta) + c/beta``
+    for alpha < 1 (beta = 1 - alpha, c = vb - t + alpha, omega the Wright omega function), and
+    ``v1 = -c/g - W_{-1}(-(alpha/g) exp(-c/g))`` (g = alpha - 1, log-space, branch-point
+    series) for alpha > 1; ``exp(v1) = 1 + vb - t`` at alpha = 1. One Halley step on the balance
+    follows.
+
+    References
+    ----------
+    .. [1] S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., Wiley (2007): field of a
+       Boltzmann space-charge layer; depletion width with the kT/q term.
+    .. [2] R. M. Corless et al., "On the Lambert W function", Adv. Comput. Math. 5 (1996) 329.
+    """
+    tail = 1.0 if include_tail else 0.0
+    alpha = _check_positive("alpha", alpha)
+    temperature_K = _check_positive("temperature_K", temperature_K)
+    vt = thermal_voltage_V(temperature_K)
+    vb, alpha_b, vt_b = np.broadcast_arrays(np.asarray(barrier_voltage_V, dtype=float) / vt, alpha, vt)
+    shape = vb.shape
+    vb, alpha_b, vt_b = (a.ravel().copy() for a in (vb, alpha_b, vt_b))
+    v1, bad = _accumulation_bending(vb, alpha_b, tail)
+    _warn_nan(bad, "below the barrier-voltage domain (Vbi - V >= 0, or >= kT/q with the tail)")
+    # side 2 from whichever form does not cancel: vb - v1, or the charge balance itself
+    v2 = vb - v1
+    from_balance = v1 > 0.5 * vb
+    v2[from_balance] = _alpha_terms(alpha_b[from_balance], v1[from_balance])[2] + tail
+    return VoltageSplit((v1 * vt_b).reshape(shape), (v2 * vt_b).reshape(shape))
+
+
+# ---------------------------------------------------------------------------------------------
+# current
+
+def _prepare(first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K):
+    alpha = _check_positive("alpha", alpha)
+    richardson_A_m2_K2 = _check_positive("richardson_A_m2_K2", richardson_A_m2_K2)
+    temperature_K = _check_positive("temperature_K", temperature_K)
+    built_in_V = _check_positive("built_in_V", built_in_V)
+    barrier_eV = np.asarray(barrier_eV, dtype=float)
+    if not np.all(np.isfinite(barrier_eV)):
+        raise IsotypeParameterError(
+            "isotype interface: 'barrier_eV' must be finite; give the barrier top above the "
+            "accumulation side's Fermi level in eV")
+    arrays = np.broadcast_arrays(np.asarray(first, dtype=float), barrier_eV, built_in_V, alpha,
+                                 richardson_A_m2_K2, temperature_K)
+    shape = arrays[0].shape
+    first, barrier, vbi, alpha, rich, temp = (a.ravel().copy() for a in arrays)
+    vt = thermal_voltage_V(temp)
+    # log of the flat-band emission prefactor A T^2 exp(-q phi / kT)
+    log_prefactor = np.log(rich) + 2.0 * np.log(temp) - barrier / vt
+    return shape, first, vbi / vt, alpha, vt, log_prefactor
+
+
+def _current_from_split(v, v1, a_em1, vt, log_prefactor, with_derivative):
+    """J = P e^v1 (e^v - 1) and dJ/dV = (P e^v1 / Vt) (1 + alpha (e^v1 - 1) e^v) / (1 + alpha (e^v1 - 1)).
+
+    ``a_em1`` is alpha (e^v1 - 1) >= 0; the derivative is a sum of positive terms (no cancellation).
+    """
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        j = np.sign(v) * np.exp(log_prefactor + v1 + np.log(np.abs(np.expm1(v))))
+        if not with_derivative:
+            return j, None
+        base = log_prefactor + v1 - np.log(vt) - np.log1p(a_em1)
+        djdv = np.exp(base) + a_em1 * np.exp(base + v)
+    return j, djdv
+
+
+def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                            temperature_K, include_tail=False, with_derivative=False):
+    """Thermionic-emission current density across an isotype heterointerface.
+
+    Parameters
+    ----------
+    voltage_V : array_like
+        Voltage across the interface [V]; > 0 lowers the barrier. Domain ``V <= Vbi``
+        (``V <= Vbi - kT/q`` with ``include_tail``); outside it the result is NaN.
+    barrier_eV : array_like
+        Height of the interface barrier top above the Fermi level of the accumulation side's
+        bulk, with that side's bending removed: ``max(dE, 0) + (E_edge1 - E_F1)`` [eV]
+        (= ``Vbi + (E_edge2 - E_F2)`` when there is a spike). See `isotype_band_alignment`.
+    built_in_V : array_like
+        Built-in potential [V], > 0 (side 1 accumulates).
+    alpha : array_like
+        ``eps1 N1 / (eps2 N2)`` [-], > 0.
+    richardson_A_m2_K2 : array_like
+        Effective Richardson constant [A m^-2 K^-2] (of the side with the smaller effective mass,
+        see `richardson_constant_A_m2_K2`).
+    temperature_K : array_like
+        Temperature [K]; ``barrier_eV`` and ``built_in_V`` must be the values at it.
+    include_tail : bool, default False
+        kT/q tail on the depletion side (see `voltage_split`). The default is the plain
+        depletion approximation, defined up to flat band.
+    with_derivative : bool, default False
+        Also return dJ/dV [A m^-2 V^-1].
+
+    Returns
+    -------
+    ndarray or (ndarray, ndarray)
+        J [A m^-2] (and dJ/dV), broadcast shape.
+
+    Notes
+    -----
+    With P = A T^2 exp(-q phi / kT), v = qV/kT and v1 the accumulation-side bending,
+
+        J = P exp(v1) (exp(v) - 1),
+
+    the net thermionic flux over the barrier from the carriers left at the interface on both
+    sides (detailed balance fixes one Richardson constant for both directions). At alpha = 1,
+    with the tail and phi = Vbi, this is exactly J0 (1 - V/Vbi)(exp(qV/kT) - 1),
+    J0 = q A T Vbi / k exp(-q Vbi / kT); as alpha -> inf, v1 -> 0 and it becomes the Schottky law
+    A T^2 exp(-q phi / kT)(exp(qV/kT) - 1). dv1/dV = -1/(1 + alpha (exp(v1) - 1)).
+
+    References
+    ----------
+    .. [1] A. Chandra, L. F. Eastman, Solid-State Electron. 23 (1980) 599.
+    .. [2] B. Van Zeghbroeck, Principles of Semiconductor Devices (n-n+ heterojunction).
+    .. [3] E. H. Rhoderick, R. H. Williams, Metal-Semiconductor Contacts, 2nd ed., Oxford (1988).
+    .. [4] R. L. Anderson, Solid-State Electron. 5 (1962) 341.
+    """
+    tail = 1.0 if include_tail else 0.0
+    shape, volt, vbi, alpha, vt, log_p = _prepare(voltage_V, barrier_eV, built_in_V, alpha,
+                                                  richardson_A_m2_K2, temperature_K)
+    v = volt / vt
+    v1, bad = _accumulation_bending(vbi - v, alpha, tail)
+    _warn_nan(bad, "beyond flat band (V > Vbi, or V > Vbi - kT/q with the tail)")
+    a_em1 = _alpha_terms(alpha, v1)[1] if with_derivative else None
+    j, djdv = _current_from_split(v, v1, a_em1, vt, log_p, with_derivative)
+    if with_derivative:
+        return j.reshape(shape), djdv.reshape(shape)
+    return j.reshape(shape)
+
+
+def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                    temperature_K, include_tail=False, with_derivative=False):
+    """Voltage across an isotype interface that carries a given current density (inverse law).
+
+    Parameters are those of `isotype_current_density`, with ``current_A_m2`` [A m^-2] first.
+    J(V) is strictly increasing, so V(J) is single-valued for ``J <= J(Vbi)`` (the flat-band
+    current; beyond it the law has no solution and the result is NaN, warned once).
+
+    Returns
+    -------
+    ndarray or (ndarray, ndarray)
+        V [V] (and dV/dJ [V m^2 A^-1]), broadcast shape.
+
+    Notes
+    -----
+    Solved for the accumulation-side bending x = v1, for which everything is explicit:
+    vb(x) = alpha (exp(x) - 1 - x) + x + t and J(x) = P exp(x) expm1(vbi - vb(x)).
+    ``asinh(J(x)/P) = asinh(J/P)`` is bracketed by x = 0 (flat band) and
+    x = max(ln(2|J|/P), vbi + ln 2), and solved with Chandrupatla's method
+    (scipy.optimize.elementwise.find_root).
+
+    References
+    ----------
+    .. [1] T. R. Chandrupatla, Adv. Eng. Softw. 28 (1997) 145.
+    """
+    tail = 1.0 if include_tail else 0.0
+    shape, jt, vbi, alpha, vt, log_p = _prepare(current_A_m2, barrier_eV, built_in_V, alpha,
+                                                richardson_A_m2_K2, temperature_K)
+    with np.errstate(over="ignore", under="ignore"):
+        ratio = jt * np.exp(-log_p)                          # J/P, may be large
+        j_max = np.expm1(vbi - tail)                         # J(flat band)/P
+
+    def barrier_reduced(x, alpha):                           # vb as a function of v1 = x
+        return _alpha_terms(alpha, x)[2] + x + tail
+
+    def residual(x, vbi, alpha, target):                     # decreasing in x; asinh keeps scale
+        with np.errstate(over="ignore", invalid="ignore"):
+            return np.arcsinh(np.exp(x) * np.expm1(vbi - barrier_reduced(x, alpha))) - target
+
+    finite = np.isfinite(jt)
+    flat = finite & (np.abs(ratio - j_max) <= 64 * _EPS * j_max)   # at flat band, to rounding
+    solve = finite & ~flat & (ratio < j_max)
+    x_root = np.full_like(jt, np.nan)
+    x_root[flat] = 0.0
+    if np.any(solve):
+        with np.errstate(divide="ignore", over="ignore"):
+            x_hi = np.maximum(np.log(2.0 * np.abs(jt[solve])) - log_p[solve],
+                              vbi[solve] + np.log(2.0))
+        res = elementwise.find_root(residual, (np.zeros_like(x_hi), x_hi),
+                                    args=(vbi[solve], alpha[solve], np.arcsinh(ratio[solve])))
+        x_root[solve] = np.where(res.success, res.x, np.nan)
+    with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
+        y = jt * np.exp(-log_p - x_root)                     # = expm1(v) at the root
+        v = np.where(np.abs(y) < 0.5, np.log1p(np.where(np.abs(y) < 0.5, y, 0.0)),
+                     vbi - barrier_reduced(x_root, alpha))
+    _warn_nan(int(np.count_nonzero(finite & ~flat & ~solve)), "above the flat-band current")
+    _warn_nan(int(np.count_nonzero(solve & np.isnan(v))), "did not converge")
+    volt = (v * vt).reshape(shape)
+    if not with_derivative:
+        return volt
+    _, djdv = _current_from_split(v, x_root, _alpha_terms(alpha, x_root)[1], vt, log_p, True)
+    return volt, (1.0 / djdv).reshape(shape)
+
+
+# ---------------------------------------------------------------------------------------------
+# material numbers -> law parameters
+
+def richardson_constant_A_m2_K2(*, mass_ratio_1, mass_ratio_2):
+    """Effective Richardson constant for an interface: that of the smaller effective mass.
+
+    Parameters
+    ----------
+    mass_ratio_1, mass_ratio_2 : array_like
+        Density-of-states effective masses m*/m0 of the carriers on the two sides [-].
+
+    Returns
+    -------
+    ndarray
+        ``A = 4 pi q m0 k^2 / h^3 * min(m1, m2)`` [A m^-2 K^-2] (120.17 A cm^-2 K^-2 per m0).
+
+    References
+    ----------
+    .. [1] C. R. Crowell, Solid-State Electron. 8 (1965) 395.
+    .. [2] B. Van Zeghbroeck, Principles of Semiconductor Devices (Richardson constant of the
+       smaller of the two effective masses for an n-n+ heterojunction).
+    """
+    m1 = _check_positive("mass_ratio_1", mass_ratio_1)
+    m2 = _check_positive("mass_ratio_2", mass_ratio_2)
+    return RICHARDSON_FREE_A_M2_K2 * np.minimum(m1, m2)
+
+
+def isotype_band_alignment(*, carrier, affinity_a_eV, gap_a_eV, band_dos_a_m3, doping_a_m3,
+                           relative_permittivity_a, affinity_b_eV, gap_b_eV, band_dos_b_m3,
+                           doping_b_m3, relative_permittivity_b, temperature_K, offset_eV=None):
+    """Built-in potential, barrier, offset and alpha of an isotype interface between layers a, b.
+
+    Parameters
+    ----------
+    carrier : {"electron", "hole"}
+        Majority carrier (n-N: electrons over a conduction-band spike; p-P: holes over a
+        valence-band spike).
+    affinity_a_eV, gap_a_eV, affinity_b_eV, gap_b_eV : array_like
+        Electron affinity and band gap of each layer [eV].
+    band_dos_a_m3, band_dos_b_m3 : array_like
+        Effective density of states of the majority band (Nc or Nv) at ``temperature_K`` [m^-3].
+    doping_a_m3, doping_b_m3 : array_like
+        Net majority doping, taken as the carrier density (Boltzmann, full ionisation) [m^-3].
+    relative_permittivity_a, relative_permittivity_b : array_like
+        Static relative permittivities [-].
+    temperature_K : array_like
+        Temperature [K].
+    offset_eV : array_like, optional
+        Override of the band offset: step of the carrier's band edge from a to b in carrier
+        energy (electrons: Ec_b - Ec_a; holes: Ev_a - Ev_b). Default: electron-affinity rule.
+
+    Returns
+    -------
+    IsotypeAlignment
+        ``built_in_V`` (>= 0), ``barrier_eV`` (for `isotype_current_density`), ``offset_eV``
+        (band step seen from the accumulation side, > 0 is a spike), ``alpha`` (accumulation over
+        depletion side) and ``a_accumulates`` (True where layer a is side 1).
+
+    Notes
+    -----
+    Carrier-energy band edge: electrons -chi, holes chi + Eg (Anderson rule). Fermi level depth
+    delta = kT ln(N_band/N). With F = edge - delta on each side, the side with the larger F
+    depletes (side 2) and qVbi = F2 - F1; the barrier is max(dE, 0) + delta1.
+
+    References
+    ----------
+    .. [1] R. L. Anderson, Solid-State Electron. 5 (1962) 341.
+    """
+    if carrier not in ("electron", "hole"):
+        raise IsotypeParameterError(
+            f"isotype interface: 'carrier' must be \"electron\" or \"hole\" (got {carrier!r}); "
+            "use \"electron\" for n-N and \"hole\" for p-P")
+    temperature_K = _check_positive("temperature_K", temperature_K)
+    kt = BOLTZMANN_EV_K * temperature_K
+    chi_a, chi_b = np.asarray(affinity_a_eV, float), np.asarray(affinity_b_eV, float)
+    if carrier == "electron":
+        edge_a, edge_b = -chi_a, -chi_b
+    else:
+        edge_a = chi_a + np.asarray(gap_a_eV, float)
+        edge_b = chi_b + np.asarray(gap_b_eV, float)
+    step_ab = edge_b - edge_a if offset_eV is None else np.asarray(offset_eV, float)
+    doping_a = _check_positive("doping_a_m3", doping_a_m3)
+    doping_b = _check_positive("doping_b_m3", doping_b_m3)
+    delta_a = kt * np.log(_check_positive("band_dos_a_m3", band_dos_a_m3) / doping_a)
+    delta_b = kt * np.log(_check_positive("band_dos_b_m3", band_dos_b_m3) / doping_b)
+    # Fermi levels in carrier energy, relative to layer a's band edge
+    fermi_a = -delta_a
+    fermi_b = step_ab - delta_b
+    a_acc = fermi_b >= fermi_a
+    built_in = np.abs(fermi_b - fermi_a)
+    offset = np.where(a_acc, step_ab, -step_ab)
+    delta_1 = np.where(a_acc, delta_a, delta_b)
+    eps_n_a = _check_positive("relative_permittivity_a", relative_permittivity_a) * doping_a
+    eps_n_b = _check_positive("relative_permittivity_b", relative_permittivity_b) * doping_b
+    alpha = np.where(a_acc, eps_n_a / eps_n_b, eps_n_b / eps_n_a)
+    return IsotypeAlignment(built_in, np.maximum(offset, 0.0) + delta_1, offset, alpha, a_acc)
