@@ -57,7 +57,7 @@ BAD = [
      None),
     (GOOD_HEAD + CELL + "string = 2\n", "string = 2 is not a string of this stack", "element 1"),
     ("[stak]\n" + CELL, "unknown table or key 'stak'", "key stak"),
-    (GOOD_HEAD + CELL.replace('"subcell"', '"isotype"'), "not solvable in this version",
+    (GOOD_HEAD + CELL.replace('"subcell"', '"isotype"'), "unknown key 'gap_eV' for an isotype",
      "element 1"),
     (GOOD_HEAD + CELL + TUNNEL.replace("peak_V = 0.1", "peak_V = 0.6"),
      "peak_V = 0.6 V is not below valley_V", "element 2 'junction'"),

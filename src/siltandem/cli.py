@@ -56,7 +56,63 @@ def _parser():
                           "report efficiency against concentration; --plot draws it, --table "
                           "writes it")
     run.add_argument("--table", metavar="PATH.csv", help="with --suns-range: write the series")
+    face = commands.add_parser(
+        "interface", help="one isotype interface on its own: J-V and band diagram",
+        description="Print an isotype interface's J-V (law convention: V > 0 lowers the "
+                    "barrier) and where the stack operates it; --plot draws (a) its J-V and (b) "
+                    "its band-edge diagram at equilibrium and at the MPP bias.")
+    face.add_argument("stack", help="stack file (.toml)")
+    face.add_argument("--layer", metavar="NAME",
+                      help="the interface element's name (default: the first isotype interface)")
+    face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
+    face.add_argument("--temperature", type=_positive, metavar="K", help="cell temperature")
+    face.add_argument("--points", type=int, default=21, help="rows of the printed J-V")
     return parser
+
+
+def _interface(args):
+    from .files import save_figure_atomic
+    from .interfaces import interface_iv, plot_interface
+    from .result import run_stack
+    from .stack import load_stack
+
+    if args.plot and Path(args.plot).suffix.lower() not in {".png", ".svg", ".pdf"}:
+        raise StackError(f"--plot {args.plot}: unsupported file type", where="--plot",
+                         fix="give a path ending in .pdf or .png or .svg")
+    stack = load_stack(args.stack)
+    interfaces = [e for e in stack.elements if e.kind == "isotype"]
+    if not interfaces:
+        raise StackError("the stack has no isotype interface", file=stack.source,
+                         fix='add an [[element]] with kind = "isotype"')
+    names = [e.name for e in interfaces]
+    name = args.layer or names[0]
+    if name not in names:
+        raise StackError(f"no isotype interface named {name!r}", file=stack.source,
+                         where="--layer", fix="choose one of " + ", ".join(repr(n) for n in names))
+    result = run_stack(stack, temperature_K=args.temperature, curve_points=60)
+    element = result.circuit.element(name)
+    temperature = result.summary["conditions"]["temperature_K"]
+    row = next(r for r in result.summary["interfaces"] if r["name"] == name)
+    bias = row["drop_at_mpp_V"] * (1 if row["bias"] == "forward" else -1)
+    print(f"siltandem — isotype interface {name!r} of {stack.name}")
+    print(f"  carrier {row['carrier']}, barrier {row['barrier_eV']:.4f} eV above the accumulation "
+          f"side's Fermi level, built-in {row['built_in_V']:.4f} V, alpha {row['alpha']:.4g}")
+    if np.isfinite(row["offset_eV"]):
+        print(f"  band offset seen from the accumulation side {row['offset_eV']:+.4f} eV")
+    print(f"  in the stack: {row['bias']} biased; {1000 * row['drop_at_mpp_V']:.2f} mV at the MPP,"
+          f" {row['loss_W_m2']:.3f} W/m2, efficiency penalty "
+          f"{row['efficiency_penalty_pct_abs']:.3f} % absolute"
+          + ("  -- BLOCKS" if row["blocking"] else ""))
+    v, j = interface_iv(element, temperature, points=max(args.points, 3))
+    print("")
+    print("  interface voltage V   current mA/cm2   (V > 0 lowers the barrier)")
+    for vi, ji in zip(v, j):
+        print(f"  {vi:+17.4f}   {ji / 10:+14.6g}")
+    if args.plot:
+        axes = plot_interface(element, temperature, bias)
+        save_figure_atomic(axes[0].figure, args.plot)
+        print(f"  wrote {args.plot}")
+    return 0
 
 
 def _parse_range(text):
@@ -169,6 +225,8 @@ def main(argv=None):
     try:
         if args.command == "run":
             return _run(args)
+        if args.command == "interface":
+            return _interface(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)
         return 2

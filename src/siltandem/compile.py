@@ -8,7 +8,9 @@ import numpy as np
 
 from . import units
 from .circuit import build_circuit
-from .elements import Resistor, Subcell, TunnelJunction, batch
+from .constants import RICHARDSON_FREE_A_M2_K2
+from .elements import IsotypeInterface, Resistor, Subcell, TunnelJunction, batch
+from .errors import StackError
 
 
 def _subcell(spec):
@@ -42,10 +44,88 @@ def _tunnel(spec):
         string=spec.string)
 
 
+def _isotype(spec, temperature_K, file=None):
+    v = spec.values
+    if "upper_material" in v:
+        return _isotype_from_materials(spec, temperature_K, file)
+    if "alpha" in v:
+        alpha = v["alpha"]
+    else:
+        alpha = (v["accumulation_permittivity"] * v["accumulation_doping_cm3"]
+                 / (v["depletion_permittivity"] * v["depletion_doping_cm3"]))
+    richardson = v.get("richardson_A_cm2_K2", RICHARDSON_FREE_A_M2_K2 * 1e-4) * 1e4
+    return IsotypeInterface(
+        spec.name, barrier_eV=batch(v["barrier_eV"]), built_in_V=batch(v["built_in_V"]),
+        alpha=batch(alpha), richardson_A_m2_K2=batch(richardson),
+        direction=batch(1.0 if v["orientation"] == "forward" else -1.0), carrier=v["carrier"],
+        string=spec.string)
+
+
+def _isotype_from_materials(spec, temperature_K, file):
+    from .laws.thermionic import isotype_band_alignment
+    from .materials import MaterialError, load_material
+
+    v = spec.values
+    layers = []
+    for side in ("upper", "lower"):
+        try:
+            layers.append(load_material(v[f"{side}_material"], v.get(f"{side}_composition")))
+        except MaterialError as exc:
+            raise StackError(str(exc), file=file, where=f"{spec.label}, key {side}_material",
+                             fix="see `siltandem materials` for the library") from None
+    upper, lower = layers
+    electron = v["carrier"] == "electron"
+    dos = [(m.conduction_dos_per_m3 if electron else m.valence_dos_per_m3)(temperature_K)
+           for m in layers]
+    alignment = isotype_band_alignment(
+        carrier=v["carrier"], affinity_a_eV=upper.electron_affinity_eV,
+        gap_a_eV=upper.gap_eV(temperature_K), band_dos_a_m3=dos[0],
+        doping_a_m3=v["upper_doping_cm3"] * units.PER_CM3_TO_PER_M3,
+        relative_permittivity_a=upper.relative_permittivity,
+        affinity_b_eV=lower.electron_affinity_eV, gap_b_eV=lower.gap_eV(temperature_K),
+        band_dos_b_m3=dos[1], doping_b_m3=v["lower_doping_cm3"] * units.PER_CM3_TO_PER_M3,
+        relative_permittivity_b=lower.relative_permittivity, temperature_K=temperature_K,
+        offset_eV=v.get("offset_eV"))
+    if float(alignment.built_in_V) <= 0:
+        raise StackError("the two layers' Fermi levels line up: no built-in potential, no "
+                         "barrier to model", file=file, where=spec.label,
+                         fix="change a doping slightly, or use a resistor for this interface")
+    upper_accumulates = bool(alignment.a_accumulates)
+    down = v["carriers_flow"] == "down"
+    # forward: majority carriers cross from the depletion side into the accumulation side
+    forward = (down and not upper_accumulates) or (not down and upper_accumulates)
+    from .constants import BOLTZMANN_EV_K
+
+    info = []
+    for m, doping_key, band_dos in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos):
+        doping = v[doping_key] * units.PER_CM3_TO_PER_M3
+        info.append(dict(material=m.name, doping_m3=doping, permittivity=m.relative_permittivity,
+                         gap_eV=float(m.gap_eV(temperature_K)),
+                         fermi_depth_eV=float(BOLTZMANN_EV_K * temperature_K
+                                              * np.log(band_dos / doping))))
+    sides = {"accumulation": info[0 if upper_accumulates else 1],
+             "depletion": info[1 if upper_accumulates else 0]}
+    if "richardson_A_cm2_K2" in v:
+        richardson = v["richardson_A_cm2_K2"] * 1e4
+    else:
+        attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
+        richardson = min(getattr(m, attribute) for m in layers)
+    return IsotypeInterface(
+        spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
+        alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
+        direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
+        offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides)
+
+
 BUILDERS = {"subcell": _subcell, "resistor": _resistor, "tunnel": _tunnel}
 
 
 def compile_stack(stack):
     """Stack -> Circuit (no light yet)."""
-    elements = [BUILDERS[spec.kind](spec) for spec in stack.elements]
+    elements = []
+    for spec in stack.elements:
+        if spec.kind == "isotype":
+            elements.append(_isotype(spec, stack.conditions.temperature_K, stack.source))
+        else:
+            elements.append(BUILDERS[spec.kind](spec))
     return build_circuit(elements, stack.conditions, name=stack.name)

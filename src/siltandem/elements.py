@@ -17,10 +17,11 @@ gives (J, dJ/dVj, V, dV/dVj) from the junction voltage, so that every branch of 
 including the reverse-biased one, is reached without inverting near Jph (see solve.py).
 """
 from dataclasses import dataclass, field, replace
+import warnings
 
 import numpy as np
 
-from .laws import diode, esaki
+from .laws import diode, esaki, thermionic
 from .laws.radiative import radiative_saturation_current
 from .numerics import bracketed_root, safeguarded_newton
 
@@ -282,7 +283,86 @@ class TunnelJunction:
         return np.full_like(self.peak_A_m2, np.inf)
 
 
-ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction}
+@dataclass(frozen=True)
+class IsotypeInterface:
+    """An isotype heterointerface (n-N or p-P): thermionic emission over the band-offset barrier.
+
+    The law (laws/thermionic.py) gives J_law(V) for any alpha = eps1 N1 / (eps2 N2), side 1 being
+    the accumulation side; V > 0 lowers the barrier, and J_law > 0 carries majority carriers from
+    the depletion side into the accumulation side. ``direction`` = +1 when the stack current
+    flows that way (the interface is forward biased by it), -1 when against it (reverse
+    biased: the blocking case). The element's voltage in the stack current's direction is
+    -s V_law(s J), s = direction: a drop either way.
+
+    Attributes
+    ----------
+    name : str
+    barrier_eV : (B, 1) ndarray
+        Barrier top above the accumulation side's bulk Fermi level [eV].
+    built_in_V : (B, 1) ndarray
+        Built-in potential [V], > 0.
+    alpha : (B, 1) ndarray
+        eps1 N1 / (eps2 N2) [-].
+    richardson_A_m2_K2 : (B, 1) ndarray
+    direction : (B, 1) ndarray
+        +1 or -1 (see above).
+    carrier : str
+        "electron" (n-N) or "hole" (p-P), for reports.
+    offset_eV : (B, 1) ndarray
+        Band step seen from the accumulation side [eV] (> 0 a spike), for reports; NaN unknown.
+    string : int
+    """
+
+    name: str
+    barrier_eV: np.ndarray
+    built_in_V: np.ndarray
+    alpha: np.ndarray
+    richardson_A_m2_K2: np.ndarray
+    direction: np.ndarray = field(default_factory=lambda: batch(1.0))
+    carrier: str = "electron"
+    offset_eV: np.ndarray = field(default_factory=lambda: batch(np.nan))
+    string: int = 1
+    kind: str = "isotype"
+    #: for the band diagram (known when the interface is given by its materials): per side,
+    #: ("accumulation", "depletion") -> dict(doping_m3, permittivity, gap_eV, fermi_depth_eV,
+    #: material)
+    sides: dict | None = field(default=None, compare=False, repr=False)
+    #: the kT/q tail term on the depletion side: within 1e-6 of a full Poisson-Boltzmann solution
+    #: in realistic cases, against a few percent without it (tests/test_thermionic.py)
+    include_tail: bool = True
+
+    def _law(self, temperature_K):
+        return dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
+                    richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K,
+                    include_tail=self.include_tail)
+
+    def law_current(self, voltage_V, temperature_K):
+        """J_law [A/m^2] and dJ/dV at the interface voltage V (V > 0 lowers the barrier)."""
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
+            return thermionic.isotype_current_density(voltage_V, with_derivative=True,
+                                                      **self._law(temperature_K))
+
+    def voltage(self, current_A_m2, temperature_K):
+        s = self.direction
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
+            v_law, slope = thermionic.isotype_voltage(s * np.asarray(current_A_m2, dtype=float),
+                                                      with_derivative=True,
+                                                      **self._law(temperature_K))
+        return -s * v_law, -slope
+
+    def current(self, voltage_V, temperature_K):
+        s = self.direction
+        j_law, slope = self.law_current(-s * np.asarray(voltage_V, dtype=float), temperature_K)
+        return s * j_law, -slope
+
+    def current_limit(self, temperature_K):
+        return np.full_like(self.barrier_eV, np.inf)
+
+
+ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction,
+                 "isotype": IsotypeInterface}
 
 
 def take_rows(element, rows):

@@ -65,11 +65,24 @@ def text_summary(result):
     lines.append("  elements at the MPP (current order; loss = power given up, "
                  "for a subcell against its own MPP)")
     rows = [[r["name"], r["kind"], str(r["string"]), f"{r['voltage_at_mpp_V']:+.4f}",
-             f"{r['power_W_m2']:+.3f}", f"{r['loss_W_m2']:.3f}", f"{r['loss_pct_abs']:.3f}"]
+             f"{r['power_W_m2']:+.3f}", f"{r['loss_W_m2']:.3f}", f"{r['loss_pct_abs']:.3f}",
+             _fmt(r.get("efficiency_penalty_pct_abs"), ".3f")]
             for r in s["elements"]]
     lines += ["    " + x for x in _table(
-        ["element", "kind", "string", "voltage V", "power W/m2", "loss W/m2", "loss % abs"],
-        rows, "<<>>>>>")]
+        ["element", "kind", "string", "voltage V", "power W/m2", "loss W/m2", "loss % abs",
+         "penalty % abs"], rows, "<<>>>>>>")]
+    lines.append("    (penalty: efficiency gained if the element were removed and the string "
+                 "solved again)")
+    if s.get("interfaces"):
+        lines.append("")
+        lines.append("  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV)")
+        rows = [[("! " if r["blocking"] else "  ") + r["name"], r["carrier"],
+                 f"{r['barrier_eV']:.3f}", f"{r['offset_eV']:.3f}", f"{r['alpha']:.3g}",
+                 r["bias"], f"{1000 * r['drop_at_mpp_V']:.1f}", f"{r['loss_W_m2']:.3f}",
+                 f"{r['efficiency_penalty_pct_abs']:.3f}"] for r in s["interfaces"]]
+        lines += ["    " + x for x in _table(
+            ["interface", "carrier", "barrier eV", "offset eV", "alpha", "bias",
+             "drop at MPP mV", "loss W/m2", "penalty % abs"], rows, "<<>>><>>>")]
     if s.get("tunnel_junctions"):
         lines.append("")
         lines.append("  tunnel junctions (attained peak and valley of the combined law)")

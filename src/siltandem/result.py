@@ -152,14 +152,26 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     solutions = [solve_string(string, temperature, curve_points=curve_points)
                  for string in circuit.strings]
     alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}
-    summary = _summarise(stack, conditions, light, circuit, solutions, alone)
+    # the efficiency penalty of each passive element: the string solved again without it
+    without = {}
+    for string, solution in zip(circuit.strings, solutions):
+        for element in string:
+            if element.kind != "subcell":
+                rest = [e for e in string if e is not element]
+                without[element.name] = _first(solve_string(rest, temperature).mpp_W_m2) \
+                    - _first(solution.mpp_W_m2)
+    summary = _summarise(stack, conditions, light, circuit, solutions, alone, without)
     return Result(summary, _curve_table(circuit, solutions), circuit, solutions)
 
 
-def _summarise(stack, conditions, light, circuit, solutions, alone):
+#: an isotype interface dropping more than this at the MPP is flagged as blocking [V]
+BLOCKING_DROP_V = 0.1
+
+
+def _summarise(stack, conditions, light, circuit, solutions, alone, without):
     irradiance = light.irradiance_W_m2
     warnings_ = []
-    string_rows, element_rows, tunnel_rows = [], [], []
+    string_rows, element_rows, tunnel_rows, interface_rows = [], [], [], []
     limiting = set()
     total_power = 0.0
     balance = 0.0
@@ -221,13 +233,28 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
                                      f"({v:.3f} V): it dissipates power")
             else:
                 loss = -delivered
+                extra["efficiency_penalty_pct_abs"] = 100 * without[element.name] / irradiance
+            if element.kind == "isotype":
+                interface_rows.append({
+                    "name": element.name, "string": number, "carrier": element.carrier,
+                    "barrier_eV": _first(element.barrier_eV),
+                    "built_in_V": _first(element.built_in_V), "alpha": _first(element.alpha),
+                    "offset_eV": _first(element.offset_eV),
+                    "bias": "forward" if _first(element.direction) > 0 else "reverse",
+                    "drop_at_mpp_V": -v, "loss_W_m2": loss,
+                    "efficiency_penalty_pct_abs": extra["efficiency_penalty_pct_abs"],
+                    "blocking": bool(-v > BLOCKING_DROP_V)})
+                if -v > BLOCKING_DROP_V or not np.isfinite(v):
+                    warnings_.append(f"isotype interface {element.name!r} blocks: it drops "
+                                     f"{-v * 1000:.0f} mV at the MPP and costs "
+                                     f"{extra['efficiency_penalty_pct_abs']:.2f} % absolute")
             element_rows.append({
                 "name": element.name, "kind": element.kind, "string": number,
                 "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
                     _first(solution.voltage_at_zero_current_V[element.name]),
                 "power_W_m2": delivered, "loss_W_m2": loss,
                 "loss_pct_abs": 100 * loss / irradiance, **extra})
-    if total_power > 0 and balance > POWER_BALANCE_TOLERANCE * total_power:
+    if balance > POWER_BALANCE_TOLERANCE * max(total_power, 1e-3 * irradiance):
         warnings_.append(f"power balance error {balance:.3g} W/m2 exceeds "
                          f"{POWER_BALANCE_TOLERANCE:g} of the output power")
     subcell_rows = []
@@ -271,6 +298,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
         "subcells": subcell_rows,
         "elements": element_rows,
         "tunnel_junctions": tunnel_rows,
+        "interfaces": interface_rows,
         "parasitic": [],
         "photons": {"incident_mA_cm2": units.ma_cm2(circuit.optics["incident_A_m2"]),
                     "transmitted_mA_cm2":
@@ -280,7 +308,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone):
         "cautions": cautions,
         "sign_convention": SIGN_CONVENTION,
         "model": "circuit level: detailed-balance subcells (generalized Planck law), lumped "
-                 "resistors, Esaki tunnel junctions (three-term law)",
+                 "resistors, Esaki tunnel junctions (three-term law), isotype interfaces "
+                 "(thermionic emission, any alpha)",
     }
 
 

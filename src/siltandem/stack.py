@@ -73,8 +73,42 @@ ELEMENT_SCHEMA = {
         Parameter("ideality", "", 0.5, 5.0, 1.0, help="ideality of the thermal diode"),
     ],
 }
+#: numeric keys of an isotype interface (each optional; which ones are needed depends on the form)
+ISOTYPE_NUMBERS = {
+    "barrier_eV": Parameter("barrier_eV", "eV", -1.0, 5.0,
+                            help="barrier top above the accumulation side's Fermi level"),
+    "built_in_V": Parameter("built_in_V", "V", 0.0, 5.0, low_open=True,
+                            help="built-in potential"),
+    "alpha": Parameter("alpha", "", 0.0, INF, low_open=True, high_open=True,
+                       help="eps1 N1 / (eps2 N2), accumulation over depletion side"),
+    "accumulation_doping_cm3": Parameter("accumulation_doping_cm3", "cm-3", 1e10, 1e22,
+                                         help="doping of the accumulation side"),
+    "depletion_doping_cm3": Parameter("depletion_doping_cm3", "cm-3", 1e10, 1e22,
+                                      help="doping of the depletion side"),
+    "accumulation_permittivity": Parameter("accumulation_permittivity", "", 1.0, 100.0,
+                                           help="relative permittivity, accumulation side"),
+    "depletion_permittivity": Parameter("depletion_permittivity", "", 1.0, 100.0,
+                                        help="relative permittivity, depletion side"),
+    "richardson_A_cm2_K2": Parameter("richardson_A_cm2_K2", "A cm-2 K-2", 0.0, 1e4,
+                                     low_open=True, help="effective Richardson constant"),
+    "upper_doping_cm3": Parameter("upper_doping_cm3", "cm-3", 1e10, 1e22,
+                                  help="doping of the sun-side layer"),
+    "lower_doping_cm3": Parameter("lower_doping_cm3", "cm-3", 1e10, 1e22,
+                                  help="doping of the layer below"),
+    "upper_composition": Parameter("upper_composition", "", 0.0, 1.0,
+                                   help="alloy composition of the sun-side layer"),
+    "lower_composition": Parameter("lower_composition", "", 0.0, 1.0,
+                                   help="alloy composition of the layer below"),
+    "offset_eV": Parameter("offset_eV", "eV", -3.0, 3.0,
+                           help="band offset override (step of the carrier's band edge from "
+                                "the upper to the lower layer)"),
+}
+#: text keys of an isotype interface and their allowed values (None: any text)
+ISOTYPE_TEXTS = {"carrier": ("electron", "hole"), "orientation": ("forward", "reverse"),
+                 "carriers_flow": ("down", "up"), "upper_material": None,
+                 "lower_material": None}
 #: kinds whose laws come with later stages of the project: recognised, not yet solvable
-PLANNED_KINDS = {"isotype": "isotype heterointerface"}
+PLANNED_KINDS = {}
 COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
@@ -182,21 +216,22 @@ def _parse_element(index, table, *, file, terminals):
         raise StackError(f"kind {kind!r} ({PLANNED_KINDS[kind]}) is not solvable in this "
                          "version", file=file, where=where,
                          fix="use subcell, resistor and tunnel elements for now")
+    if kind == "isotype":
+        string = _parse_string(table, file=file, where=where, terminals=terminals)
+        return ElementSpec(index, kind, name, string, _parse_isotype(table, file=file,
+                                                                     where=where))
     if kind not in ELEMENT_SCHEMA:
         raise StackError(f"unknown element kind {kind!r}", file=file, where=where,
-                         fix=_suggest(kind, list(ELEMENT_SCHEMA) + list(PLANNED_KINDS))
-                         + "kind is one of " + ", ".join(repr(k) for k in ELEMENT_SCHEMA))
+                         fix=_suggest(kind, list(ELEMENT_SCHEMA) + ["isotype"])
+                         + "kind is one of " + ", ".join(repr(k) for k in
+                                                        list(ELEMENT_SCHEMA) + ["isotype"]))
     schema = {p.key: p for p in ELEMENT_SCHEMA[kind]}
     for key in table:
         if key not in schema and key not in COMMON_ELEMENT_KEYS:
             raise StackError(f"unknown key {key!r} for a {kind}", file=file, where=where,
                              fix=_suggest(key, list(schema) + list(COMMON_ELEMENT_KEYS))
                              + "allowed keys: " + ", ".join(sorted(set(schema) | COMMON_ELEMENT_KEYS)))
-    string = table.get("string", 1)
-    if isinstance(string, bool) or not isinstance(string, int) or not 1 <= string <= terminals // 2:
-        raise StackError(f"string = {string!r} is not a string of this stack (terminals = "
-                         f"{terminals} gives strings 1..{terminals // 2})", file=file, where=where,
-                         fix="give string = 1 for the sun-side pair of terminals, 2 for the next")
+    string = _parse_string(table, file=file, where=where, terminals=terminals)
     values = {}
     for key, spec in schema.items():
         if key in table:
@@ -215,6 +250,84 @@ def _parse_element(index, table, *, file, terminals):
                          "shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)", file=file,
                          where=where, fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
     return ElementSpec(index, kind, name, string, values)
+
+
+def _parse_string(table, *, file, where, terminals):
+    string = table.get("string", 1)
+    if isinstance(string, bool) or not isinstance(string, int) or not 1 <= string <= terminals // 2:
+        raise StackError(f"string = {string!r} is not a string of this stack (terminals = "
+                         f"{terminals} gives strings 1..{terminals // 2})", file=file, where=where,
+                         fix="give string = 1 for the sun-side pair of terminals, 2 for the next")
+    return string
+
+
+def _parse_isotype(table, *, file, where):
+    """An isotype interface, in one of two forms.
+
+    Explicit: ``barrier_eV``, ``built_in_V`` and ``alpha`` (or the two sides' dopings and
+    permittivities), ``orientation`` forward/reverse. From materials: ``upper_material``,
+    ``lower_material`` (library names), ``upper_doping_cm3``, ``lower_doping_cm3``, ``carrier``,
+    ``carriers_flow`` down/up; the alignment comes from the electron-affinity rule unless
+    ``offset_eV`` is given.
+    """
+    allowed = set(ISOTYPE_NUMBERS) | set(ISOTYPE_TEXTS) | COMMON_ELEMENT_KEYS
+    for key in table:
+        if key not in allowed:
+            raise StackError(f"unknown key {key!r} for an isotype interface", file=file,
+                             where=where, fix=_suggest(key, allowed) + "allowed keys: "
+                             + ", ".join(sorted(allowed)))
+    values = {}
+    for key, spec in ISOTYPE_NUMBERS.items():
+        if key in table:
+            value = _number(table[key], file=file, where=where, key=key, unit=spec.unit)
+            _check_range(spec, value, file=file, where=where)
+            values[key] = value
+    for key, options in ISOTYPE_TEXTS.items():
+        if key in table:
+            value = table[key]
+            if not isinstance(value, str) or (options and value not in options):
+                raise StackError(f"{key} = {value!r} is not allowed", file=file, where=where,
+                                 fix=f"{key} is one of " + ", ".join(repr(o) for o in options)
+                                 if options else f'write {key} = "<name>"')
+            values[key] = value
+    from_materials = "upper_material" in values or "lower_material" in values
+    if from_materials:
+        needed = ["upper_material", "lower_material", "upper_doping_cm3", "lower_doping_cm3"]
+        wrong = [k for k in ("barrier_eV", "built_in_V", "alpha", "orientation") if k in values]
+        if wrong:
+            raise StackError(f"{', '.join(wrong)} cannot go with upper_material/lower_material",
+                             file=file, where=where,
+                             fix="give either the law's numbers (barrier_eV, built_in_V, alpha) "
+                                 "or the two materials and their dopings")
+        values.setdefault("carrier", "electron")
+        values.setdefault("carriers_flow", "down")
+    else:
+        needed = ["barrier_eV", "built_in_V"]
+        sides = ["accumulation_doping_cm3", "depletion_doping_cm3",
+                 "accumulation_permittivity", "depletion_permittivity"]
+        if "alpha" not in values:
+            missing_sides = [k for k in sides if k not in values]
+            if missing_sides:
+                raise StackError("alpha is missing and cannot be computed: no "
+                                 + ", ".join(missing_sides), file=file, where=where,
+                                 fix="give alpha = eps1*N1/(eps2*N2), or the two dopings and "
+                                     "permittivities")
+        elif any(k in values for k in sides):
+            raise StackError("give alpha or the dopings and permittivities, not both",
+                             file=file, where=where, fix="remove one of the two")
+        values.setdefault("carrier", "electron")
+        values.setdefault("orientation", "forward")
+        for key in ("carriers_flow", "offset_eV", "upper_composition", "lower_composition"):
+            if key in values:
+                raise StackError(f"{key} goes with upper_material/lower_material", file=file,
+                                 where=where, fix=f"remove {key}, or describe the interface "
+                                                  "by its two materials")
+    missing = [k for k in needed if k not in values]
+    if missing:
+        raise StackError("missing required key" + ("s " if len(missing) > 1 else " ")
+                         + ", ".join(repr(k) for k in missing), file=file, where=where,
+                         fix="an isotype interface needs " + ", ".join(needed))
+    return values
 
 
 def _check_tunnel(values, *, file, where):
