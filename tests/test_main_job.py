@@ -184,3 +184,14 @@ def test_concentration_series(tmp_path):
 def test_bad_range_options(tmp_path, args, message):
     done = cli("run", DEMO, *args, cwd=tmp_path)
     assert done.returncode == 2 and message in done.stderr
+
+
+def test_materials_command():
+    listing = cli("materials")
+    assert listing.returncode == 0
+    for name in ("Si", "GaAs", "GaP", "GaInP", "AlGaAs", "AlInP", "GaAsP"):
+        assert f"  {name} " in listing.stdout
+    one = cli("materials", "GaInP", "--composition", "0.51")
+    assert one.returncode == 0 and "lowest gap" in one.stdout and "VMR" in one.stdout
+    bad = cli("materials", "Silicn")
+    assert bad.returncode == 2 and "Si" in bad.stderr and "Traceback" not in bad.stderr

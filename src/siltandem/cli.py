@@ -67,7 +67,41 @@ def _parser():
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
     face.add_argument("--temperature", type=_positive, metavar="K", help="cell temperature")
     face.add_argument("--points", type=int, default=21, help="rows of the printed J-V")
+    library = commands.add_parser(
+        "materials", help="list the materials library, or one material's properties",
+        description="Without NAME: the materials in the library. With NAME (and --composition "
+                    "for an alloy, or a name like Ga0.51In0.49P): its properties at 300 K with "
+                    "the source of each value.")
+    library.add_argument("name", nargs="?", help="a material name")
+    library.add_argument("--composition", type=float, help="alloy composition x")
     return parser
+
+
+def _materials(args):
+    from .materials import MaterialError, describe_library, load_material
+
+    if args.name is None:
+        rows = describe_library()
+        print("siltandem materials library (data files in src/siltandem/materials/)")
+        width = max(len(r["name"]) for r in rows)
+        for r in rows:
+            x = f"  x = {r['composition_element']} fraction" if r["composition_element"] else ""
+            print(f"  {r['name']:<{width}}  {r['formula']:<14} {r['description']}{x}")
+        print("  show one: siltandem materials NAME [--composition X]")
+        return 0
+    try:
+        material = load_material(args.name, args.composition)
+    except MaterialError as exc:
+        raise StackError(str(exc), where=f"material {args.name!r}",
+                         fix="run `siltandem materials` for the list") from None
+    print(f"{material.formula}: {material.note}" if getattr(material, "note", "") else
+          material.formula)
+    for label, value, unit, source_key in material.summary_rows():
+        text = f"{value:.5g}" if isinstance(value, float) else str(value)
+        source = material.source(source_key) if callable(getattr(material, "source", None)) \
+            else ""
+        print(f"  {label:<28} {text:>14} {unit:<10} {source}")
+    return 0
 
 
 def _interface(args):
@@ -227,12 +261,19 @@ def main(argv=None):
             return _run(args)
         if args.command == "interface":
             return _interface(args)
+        if args.command == "materials":
+            return _materials(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("siltandem: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:   # output piped into a program that stopped reading (head, less)
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
     return 1
 
 
