@@ -67,6 +67,22 @@ def _parser():
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
     face.add_argument("--temperature", type=_positive, metavar="K", help="cell temperature")
     face.add_argument("--points", type=int, default=21, help="rows of the printed J-V")
+    from .cli_studies import add_study_options
+
+    match = commands.add_parser(
+        "match", help="photocurrents and efficiency against one key; the current-matched value",
+        description="Sweep one numeric key (--vary NAME.KEY=START:STOP:N); print each subcell's "
+                    "photocurrent and the efficiency, and the value where two subcells' "
+                    "photocurrents cross (root finding).")
+    add_study_options(match)
+    design = commands.add_parser(
+        "map", help="a 2-D design map over two keys, the optimum marked",
+        description="Solve every design of a grid over two keys (--vary A --vary B); write the "
+                    "grid (CSV/Parquet, one column per varied key named as given, then the "
+                    "result columns) and draw a map of --column with iso-lines.")
+    add_study_options(design)
+    design.add_argument("--column", default="efficiency_pct",
+                        help="the output column to map (default efficiency_pct)")
     library = commands.add_parser(
         "materials", help="list the materials library, or one material's properties",
         description="Without NAME: the materials in the library. With NAME (and --composition "
@@ -263,6 +279,10 @@ def main(argv=None):
             return _interface(args)
         if args.command == "materials":
             return _materials(args)
+        if args.command in ("match", "map"):
+            from .cli_studies import run_map, run_match
+
+            return (run_match if args.command == "match" else run_map)(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)
         return 2

@@ -15,10 +15,13 @@ from .errors import StackError
 
 def _subcell(spec):
     v = spec.values
-    shunt = v["shunt_ohm_cm2"]
-    conductance = 0.0 if np.isinf(shunt) else 1.0 / (shunt * units.OHM_CM2_TO_OHM_M2)
-    breakdown = -v["breakdown_V"] if np.isfinite(v["breakdown_V"]) else -np.inf
-    factor = v["breakdown_factor"] if np.isfinite(v["breakdown_V"]) else 0.0
+    # values may be arrays (a study varies them): every expression works elementwise
+    shunt = np.asarray(v["shunt_ohm_cm2"], dtype=float)
+    with np.errstate(divide="ignore"):
+        conductance = np.where(np.isinf(shunt), 0.0, 1.0 / (shunt * units.OHM_CM2_TO_OHM_M2))
+    has_breakdown = np.isfinite(np.asarray(v["breakdown_V"], dtype=float))
+    breakdown = np.where(has_breakdown, -np.asarray(v["breakdown_V"], dtype=float), -np.inf)
+    factor = np.where(has_breakdown, v["breakdown_factor"], 0.0)
     return Subcell(
         name=spec.name, gap_eV=batch(v["gap_eV"]), absorptance=batch(v["absorptance"]),
         ere=batch(v["ere"]), j02_A_m2=batch(units.a_m2(v["j02_mA_cm2"])),
@@ -35,12 +38,13 @@ def _resistor(spec):
 
 def _tunnel(spec):
     v = spec.values
-    slope = v["excess_slope_per_V"]
+    slope = np.asarray(v["excess_slope_per_V"], dtype=float)
     return TunnelJunction(
         spec.name, peak_A_m2=batch(units.a_m2(v["peak_mA_cm2"])), peak_V=batch(v["peak_V"]),
         valley_A_m2=batch(units.a_m2(v["valley_mA_cm2"])), valley_V=batch(v["valley_V"]),
         saturation_A_m2=batch(units.a_m2(v["saturation_mA_cm2"])),
-        ideality=batch(v["ideality"]), excess_slope_per_V=batch(slope) if slope > 0 else None,
+        ideality=batch(v["ideality"]),
+        excess_slope_per_V=batch(slope) if np.all(slope > 0) else None,
         string=spec.string)
 
 
@@ -122,6 +126,10 @@ BUILDERS = {"subcell": _subcell, "resistor": _resistor, "tunnel": _tunnel}
 
 def compile_stack(stack):
     """Stack -> Circuit (no light yet)."""
+    if stack.layers:
+        from .compile_layers import compile_layer_stack
+
+        return compile_layer_stack(stack)
     elements = []
     for spec in stack.elements:
         if spec.kind == "isotype":

@@ -113,7 +113,7 @@ COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
                   "terminals": 2}
-TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer"}
+TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules"}
 
 
 @dataclass(frozen=True)
@@ -168,6 +168,8 @@ class Stack:
     source: str | None = None       # the file it came from
     folder: str | None = None       # for resolving relative paths
     extra: dict = field(default_factory=dict)
+    coatings: tuple = ()
+    rules: dict = field(default_factory=dict)
 
 
 def _suggest(word, options):
@@ -422,8 +424,24 @@ def parse_stack(document, *, file=None, folder=None):
                              where=f"key stack.{key}", fix=f'write {key} = "..."')
     conditions = _parse_conditions(document.get("conditions", {}), file=file)
     if "layer" in document:
-        raise StackError("[[layer]] stacks are not supported in this version", file=file,
-                         where="key layer", fix="describe the stack with [[element]] tables")
+        from .layers import parse_coatings, parse_layers, parse_rules
+
+        if "element" in document:
+            raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
+                             file=file, where="key element",
+                             fix="describe the stack by its layers or by its circuit elements")
+        layers = parse_layers(document["layer"], file=file)
+        coatings = parse_coatings(document.get("coating", []), file=file)
+        rules = parse_rules(document.get("rules", {}), file=file)
+        if conditions.terminals != 2:
+            raise StackError("layer stacks are two-terminal in this version", file=file,
+                             where="key conditions.terminals", fix="set terminals = 2")
+        return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
+                     None if folder is None else str(folder), coatings=coatings, rules=rules)
+    for key in ("coating", "rules"):
+        if key in document:
+            raise StackError(f"[{key}] goes with [[layer]] stacks", file=file, where=f"key {key}",
+                             fix=f"remove [{key}] or describe the stack by its layers")
     tables = document.get("element")
     if tables is None:
         raise StackError("no [[element]] tables: a stack needs at least one subcell", file=file,

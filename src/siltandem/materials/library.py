@@ -112,6 +112,9 @@ class Material:
     _hole_dos_mass: float = field(default=math.nan, compare=False, repr=False)
     _conduction_300K_override_per_m3: float | None = field(default=None, compare=False, repr=False)
     _optics: _Optics = field(default=None, compare=False, repr=False)
+    #: light-hole mass along [001] [m0] (Luttinger parameters where the data give them); the
+    #: tunnelling mass of a p++ layer
+    light_hole_mass_ratio: float = field(default=math.nan, compare=False)
 
     # --- band edges -----------------------------------------------------------------------------------
     def valley_gaps_eV(self, temperature_K=REFERENCE_TEMPERATURE_K):
@@ -552,7 +555,8 @@ def _finish(*, name, family, composition, formula, valleys, hole_masses, affinit
         conduction_dos_300K_per_m3=nc, valence_dos_300K_per_m3=float(skeleton.valence_dos_per_m3(t)),
         intrinsic_density_300K_per_m3=float(skeleton.intrinsic_density_per_m3(t)),
         electron_richardson_A_m2_K2=electron_ratio * RICHARDSON_FREE_A_M2_K2,
-        hole_richardson_A_m2_K2=hole_ratio * RICHARDSON_FREE_A_M2_K2)
+        hole_richardson_A_m2_K2=hole_ratio * RICHARDSON_FREE_A_M2_K2,
+        light_hole_mass_ratio=lh)
     if affinity is None:
         fields["electron_affinity_eV"] = ionisation_eV - gaps[lowest]
     if richardson[0] is None or richardson[1] is None:

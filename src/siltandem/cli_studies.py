@@ -1,0 +1,160 @@
+"""Command-line studies: ``siltandem match`` and ``siltandem map``."""
+import json
+from pathlib import Path
+import sys
+
+import numpy as np
+
+from .errors import StackError
+
+
+def add_study_options(parser):
+    parser.add_argument("stack", help="stack file (.toml)")
+    parser.add_argument("--vary", action="append", required=True, metavar="NAME.KEY=START:STOP:N",
+                        help="a numeric key of a named element, over N values")
+    parser.add_argument("--workers", type=int, help="local worker processes")
+    parser.add_argument("--cluster", metavar="ADDRESS",
+                        help="address of a running dask.distributed scheduler (tcp://host:port)")
+    parser.add_argument("--out", metavar="FOLDER",
+                        help="write results chunk by chunk (Parquet) into FOLDER; a rerun of the "
+                             "same command resumes from what is there")
+    parser.add_argument("--csv", metavar="PATH.csv", help="write the table as CSV")
+    parser.add_argument("--parquet", metavar="PATH.parquet", help="write the table as Parquet")
+    parser.add_argument("--plot", metavar="PATH.png|svg", help="draw the study")
+    parser.add_argument("--json", metavar="PATH", help="write the summary as JSON ('-' stdout)")
+    parser.add_argument("--spectrum", help="override the stack's spectrum")
+    parser.add_argument("--suns", type=float, help="override the concentration")
+    parser.add_argument("--temperature", type=float, metavar="K", help="override the temperature")
+    parser.add_argument("--quiet", action="store_true", help="no progress line")
+
+
+def _check_paths(args):
+    for option, path, allowed in (("--csv", args.csv, {".csv"}),
+                                  ("--parquet", args.parquet, {".parquet"}),
+                                  ("--plot", args.plot, {".png", ".svg", ".pdf"})):
+        if path is not None and Path(path).suffix.lower() not in allowed:
+            raise StackError(f"{option} {path}: unsupported file type", where=option,
+                             fix=f"give a path ending in {' or '.join(sorted(allowed))}")
+    if args.workers is not None and args.cluster:
+        raise StackError("--workers and --cluster exclude each other", where="--workers",
+                         fix="give one of them")
+    if args.workers is not None and not 1 <= args.workers <= 256:
+        raise StackError(f"--workers {args.workers} must be 1..256", where="--workers",
+                         fix="give the number of local processes")
+
+
+def _write_outputs(args, table, summary, figure=None):
+    from .files import save_figure_atomic, write_atomic
+
+    if args.csv:
+        write_atomic(args.csv, table.to_csv(index=False, float_format="%.10g"))
+        print(f"  wrote {args.csv}")
+    if args.parquet:
+        import io
+
+        buffer = io.BytesIO()
+        table.to_parquet(buffer, index=False)
+        write_atomic(args.parquet, buffer.getvalue())
+        print(f"  wrote {args.parquet}")
+    if args.json:
+        text = json.dumps(summary, indent=2, default=float) + "\n"
+        if args.json == "-":
+            sys.stdout.write(text)
+        else:
+            write_atomic(args.json, text)
+            print(f"  wrote {args.json}")
+    if figure is not None and args.plot:
+        save_figure_atomic(figure, args.plot)
+        print(f"  wrote {args.plot}")
+
+
+def _options(args):
+    return dict(workers=args.workers, cluster=args.cluster, output=args.out,
+                progress=not args.quiet, spectrum=args.spectrum, suns=args.suns,
+                temperature_K=args.temperature)
+
+
+def run_match(args):
+    from .stack import load_stack
+    from .studies.matching import match_currents, plot_matching
+    from .studies.sweep import parse_vary
+
+    _check_paths(args)
+    stack = load_stack(args.stack)
+    if len(args.vary) != 1:
+        raise StackError(f"match takes one --vary, got {len(args.vary)}", where="--vary",
+                         fix="use `siltandem map` for two keys")
+    variation = parse_vary(args.vary[0], stack)
+    table, matches = match_currents(stack, variation, **_options(args))
+    photocurrent_columns = [c for c in table.columns if c.endswith(".photocurrent_mA_cm2")]
+    print(f"siltandem — current matching of {stack.name} over {variation.column}")
+    print("")
+    header = [variation.column] + [c.removesuffix(".photocurrent_mA_cm2") + " mA/cm2"
+                                   for c in photocurrent_columns] + ["efficiency %", "limiting"]
+    print("  " + "  ".join(f"{h:>14}" for h in header))
+    step = max(1, len(table) // 15)
+    for _, row in table.iloc[::step].iterrows():
+        cells = [f"{row[variation.column]:.5g}"] + [f"{row[c]:.4f}" for c in photocurrent_columns]
+        cells += [f"{row['efficiency_pct']:.3f}", str(row["limiting_subcell"])]
+        print("  " + "  ".join(f"{c:>14}" for c in cells))
+    print("")
+    if matches:
+        for m in matches:
+            print(f"  matched: {m['subcells'][0]} = {m['subcells'][1]} at {variation.column} = "
+                  f"{m['value']:.8g} ({m['photocurrent_mA_cm2']:.4f} mA/cm2), efficiency "
+                  f"{m['efficiency_pct']:.3f} %")
+    else:
+        print("  no two subcells' photocurrents cross in this range: widen it")
+    best = table["efficiency_pct"].idxmax()
+    print(f"  best efficiency on the grid: {table['efficiency_pct'][best]:.3f} % at "
+          f"{variation.column} = {table[variation.column][best]:.6g}")
+    figure = None
+    if args.plot:
+        axes = plot_matching(table, variation, matches,
+                             title=f"{stack.name}: current matching over {variation.column}")
+        figure = axes[0].figure
+    summary = {"stack": stack.name, "varied": variation.column, "matches": matches,
+               "best": {"value": float(table[variation.column][best]),
+                        "efficiency_pct": float(table["efficiency_pct"][best])}}
+    _write_outputs(args, table, summary, figure)
+    return 0
+
+
+def run_map(args):
+    from .stack import load_stack
+    from .studies.maps import design_map, optimum, plot_map
+    from .studies.sweep import parse_vary
+
+    _check_paths(args)
+    stack = load_stack(args.stack)
+    if len(args.vary) != 2:
+        raise StackError(f"map takes two --vary, got {len(args.vary)}", where="--vary",
+                         fix="give --vary A=... --vary B=...; use `siltandem match` for one key")
+    first, second = (parse_vary(v, stack) for v in args.vary)
+    if first.column == second.column:
+        raise StackError(f"both --vary name {first.column}", where="--vary",
+                         fix="vary two different keys")
+    table = design_map(stack, first, second, **_options(args))
+    column = args.column
+    if column not in table.columns:
+        raise StackError(f"--column {column!r} is not a result column", where="--column",
+                         fix="one of " + ", ".join(c for c in table.columns if c != "design"))
+    best = optimum(table, column)
+    print(f"siltandem — design map of {stack.name}: {first.column} x {second.column} "
+          f"({len(table)} designs)")
+    print(f"  optimum {column} = {best[column]:.6g} at {first.column} = {best[first.column]:.6g},"
+          f" {second.column} = {best[second.column]:.6g}")
+    failed = int(np.count_nonzero(~np.isfinite(table["efficiency_pct"].to_numpy(dtype=float))))
+    if failed:
+        print(f"  warning: {failed} designs found no operating point (NaN in the table)")
+    figure = None
+    if args.plot:
+        ax = plot_map(table, first, second, column,
+                      title=f"{stack.name}: {column} over {first.column} x {second.column}")
+        figure = ax.figure
+    summary = {"stack": stack.name, "varied": [first.column, second.column], "column": column,
+               "designs": len(table), "failed": failed,
+               "optimum": {k: (float(best[k]) if isinstance(best[k], (int, float, np.floating))
+                               else str(best[k])) for k in table.columns if k != "design"}}
+    _write_outputs(args, table, summary, figure)
+    return 0

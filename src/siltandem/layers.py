@@ -1,0 +1,243 @@
+"""Layer stacks: ``[[layer]]`` and ``[[coating]]`` tables, validated into typed objects.
+
+A layer stack lists what a grower would list, sun side first:
+
+    [[coating]]                  # optional antireflection coating, outermost first
+    name = "MgF2"
+    refractive_index = 1.38
+    thickness_nm = 100
+
+    [[layer]]
+    name = "top emitter"
+    material = "GaInP"           # a library name; alloys take composition (or "Ga0.51In0.49P")
+    composition = 0.51
+    thickness_nm = 100
+    doping = "n:2e18"            # type and net doping in cm^-3
+    diffusion_length_um = 0.5    # or lifetime_ns (minority carriers)
+    srv_cm_s = 1e4               # recombination velocity at the layer's outer surface
+
+The compiler (compile_layers.py) finds the subcells, tunnel junctions and isotype interfaces.
+"""
+from dataclasses import dataclass
+import math
+import re
+
+from .errors import StackError
+
+LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
+              "diffusion_length_um", "lifetime_ns", "srv_cm_s"}
+COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
+RULE_KEYS = {"tunnel_doping_cm3": 5e18}
+_DOPING = re.compile(r"^\s*([np])\s*:\s*([0-9.eE+-]+)\s*$")
+
+
+@dataclass(frozen=True)
+class Layer:
+    """One grown layer, validated.
+
+    Attributes
+    ----------
+    index : int
+        1-based position in the file (sun side first).
+    name, material : str
+    composition : float or None
+    thickness_nm : float
+    polarity : str
+        "n" or "p".
+    doping_cm3 : float
+        Net doping [cm^-3].
+    diffusion_length_um, lifetime_ns : float or None
+        Minority-carrier diffusion length or lifetime (one of them, or neither: then the library's
+        mobility and a default lifetime are used by the compiler).
+    srv_cm_s : float or None
+        Recombination velocity at the layer's outer surface [cm/s].
+    """
+
+    index: int
+    name: str
+    material: str
+    composition: float | None
+    thickness_nm: float
+    polarity: str
+    doping_cm3: float
+    diffusion_length_um: float | None = None
+    lifetime_ns: float | None = None
+    srv_cm_s: float | None = None
+
+    @property
+    def label(self):
+        return f"layer {self.index} {self.name!r}"
+
+
+@dataclass(frozen=True)
+class Coating:
+    """One antireflection-coating layer (non-absorbing unless ``extinction`` > 0)."""
+
+    index: int
+    name: str
+    refractive_index: float
+    extinction: float
+    thickness_nm: float
+
+
+def _suggest(word, options):
+    import difflib
+
+    close = difflib.get_close_matches(word, sorted(options), n=3, cutoff=0.6)
+    return f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
+
+
+def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, required=True,
+                     low_open=True):
+    if key not in table:
+        if required:
+            raise StackError(f"missing required key {key!r} ({unit})", file=file, where=where,
+                             fix=f"add {key} = <number in {unit}>")
+        return None
+    value = table[key]
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
+        raise StackError(f"key {key!r} must be a number ({unit}), got {value!r}", file=file,
+                         where=where, fix=f"write {key} = <number> without quotes")
+    value = float(value)
+    bad_low = value <= low if low_open else value < low
+    if bad_low or value > high:
+        bound = "(" if low_open else "["
+        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}",
+                         file=file, where=where,
+                         fix=f"give a {key} within {bound}{low:g}, {high:g}] {unit}")
+    return value
+
+
+def parse_doping(text, *, file, where):
+    """``"n:2e18"`` -> ("n", 2e18); clear errors for anything else."""
+    fix = 'write doping = "n:2e18" or "p:1e17" (type, colon, net doping in cm^-3)'
+    if not isinstance(text, str):
+        raise StackError(f"doping must be text like \"n:2e18\", got {text!r}", file=file,
+                         where=where, fix=fix)
+    match = _DOPING.match(text)
+    if not match:
+        raise StackError(f"doping {text!r} is not understood", file=file, where=where, fix=fix)
+    try:
+        value = float(match.group(2))
+    except ValueError:
+        raise StackError(f"doping {text!r}: {match.group(2)!r} is not a number", file=file,
+                         where=where, fix=fix) from None
+    if not 1e10 <= value <= 1e21:
+        raise StackError(f"doping {value:g} cm^-3 is outside 1e10..1e21 cm^-3", file=file,
+                         where=where, fix="give a net doping between 1e10 and 1e21 cm^-3")
+    return match.group(1), value
+
+
+def parse_layers(tables, *, file):
+    """Validate the ``[[layer]]`` tables into Layer objects (materials are checked here too)."""
+    from .materials import MaterialError, load_material
+
+    if not isinstance(tables, list) or not tables:
+        raise StackError("layer must be a non-empty array of tables", file=file,
+                         where="key layer", fix="write each layer as [[layer]] (double brackets)")
+    layers, names = [], {}
+    for i, table in enumerate(tables, start=1):
+        where = f"layer {i}"
+        if not isinstance(table, dict):
+            raise StackError("each [[layer]] must be a table", file=file, where=where,
+                             fix="write [[layer]] followed by key = value lines")
+        name = table.get("name", f"layer{i}")
+        if not isinstance(name, str) or not name.strip():
+            raise StackError(f"name must be a non-empty text, got {name!r}", file=file,
+                             where=where, fix='write name = "top emitter" (any unique name)')
+        where = f"layer {i} {name!r}"
+        if name in names:
+            raise StackError(f"name {name!r} is used twice (layers {names[name]} and {i})",
+                             file=file, where=where, fix="give every layer its own name")
+        names[name] = i
+        for key in table:
+            if key not in LAYER_KEYS:
+                raise StackError(f"unknown key {key!r} for a layer", file=file, where=where,
+                                 fix=_suggest(key, LAYER_KEYS) + "allowed keys: "
+                                 + ", ".join(sorted(LAYER_KEYS)))
+        material = table.get("material")
+        if material is None:
+            raise StackError("missing required key 'material'", file=file, where=where,
+                             fix='add material = "GaAs" (see `siltandem materials`)')
+        if not isinstance(material, str):
+            raise StackError(f"material must be text, got {material!r}", file=file, where=where,
+                             fix='write material = "GaAs"')
+        composition = table.get("composition")
+        if composition is not None and (isinstance(composition, bool)
+                                        or not isinstance(composition, (int, float))):
+            raise StackError(f"composition must be a number in [0, 1], got {composition!r}",
+                             file=file, where=where, fix="write composition = 0.51")
+        try:
+            load_material(material, None if composition is None else float(composition))
+        except MaterialError as exc:
+            raise StackError(str(exc), file=file, where=f"{where}, key material",
+                             fix="see `siltandem materials` for the library and how each alloy "
+                                 "takes its composition") from None
+        thickness = _positive_number(table, "thickness_nm", file=file, where=where, unit="nm",
+                                     high=2e6)
+        if "doping" not in table:
+            raise StackError("missing required key 'doping'", file=file, where=where,
+                             fix='add doping = "n:2e18" (type and net doping in cm^-3)')
+        polarity, doping = parse_doping(table["doping"], file=file, where=where)
+        length = _positive_number(table, "diffusion_length_um", file=file, where=where,
+                                  unit="um", high=1e5, required=False)
+        lifetime = _positive_number(table, "lifetime_ns", file=file, where=where, unit="ns",
+                                    high=1e9, required=False)
+        if length is not None and lifetime is not None:
+            raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
+                             where=where, fix="remove one of the two")
+        srv = _positive_number(table, "srv_cm_s", file=file, where=where, unit="cm/s",
+                               high=1e8, required=False, low_open=False)
+        layers.append(Layer(i, name, material, None if composition is None
+                            else float(composition), thickness, polarity, doping, length,
+                            lifetime, srv))
+    return tuple(layers)
+
+
+def parse_coatings(tables, *, file):
+    """Validate the ``[[coating]]`` tables (outermost first)."""
+    if not isinstance(tables, list):
+        raise StackError("coating must be an array of tables", file=file, where="key coating",
+                         fix="write each coating layer as [[coating]]")
+    if len(tables) > 4:
+        raise StackError(f"{len(tables)} coating layers; at most 4", file=file,
+                         where="key coating", fix="merge or remove coating layers")
+    coatings = []
+    for i, table in enumerate(tables, start=1):
+        where = f"coating {i}"
+        if not isinstance(table, dict):
+            raise StackError("each [[coating]] must be a table", file=file, where=where,
+                             fix="write [[coating]] followed by key = value lines")
+        name = str(table.get("name", f"coating{i}"))
+        where = f"coating {i} {name!r}"
+        for key in table:
+            if key not in COATING_KEYS:
+                raise StackError(f"unknown key {key!r} for a coating", file=file, where=where,
+                                 fix=_suggest(key, COATING_KEYS) + "allowed keys: "
+                                 + ", ".join(sorted(COATING_KEYS)))
+        index = _positive_number(table, "refractive_index", file=file, where=where, unit="",
+                                 low=1.0, high=5.0, low_open=False)
+        extinction = _positive_number(table, "extinction", file=file, where=where, unit="",
+                                      high=5.0, required=False, low_open=False) or 0.0
+        thickness = _positive_number(table, "thickness_nm", file=file, where=where, unit="nm",
+                                     high=1e4)
+        coatings.append(Coating(i, name, index, extinction, thickness))
+    return tuple(coatings)
+
+
+def parse_rules(table, *, file):
+    """``[rules]``: settings of the layer compiler (thresholds), with their defaults."""
+    if not isinstance(table, dict):
+        raise StackError("[rules] must be a table", file=file, where="key rules",
+                         fix="write [rules] followed by key = value lines")
+    for key in table:
+        if key not in RULE_KEYS:
+            raise StackError(f"unknown key {key!r} in [rules]", file=file,
+                             where=f"key rules.{key}", fix=_suggest(key, RULE_KEYS)
+                             + "allowed: " + ", ".join(RULE_KEYS))
+    rules = dict(RULE_KEYS)
+    if "tunnel_doping_cm3" in table:
+        rules["tunnel_doping_cm3"] = _positive_number(
+            table, "tunnel_doping_cm3", file=file, where="key rules.tunnel_doping_cm3",
+            unit="cm-3", low=1e16, high=1e21)
+    return rules

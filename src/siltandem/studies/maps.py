@@ -1,0 +1,54 @@
+"""Design maps: a grid over two varied keys, any output column, the optimum marked."""
+import functools
+
+import numpy as np
+
+from ..parallel import run_chunks
+from .sweep import design_table, evaluate_chunk
+
+
+def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=True,
+               chunk_rows=None, spectrum=None, suns=None, temperature_K=None):
+    """Solve every design of the grid first x second; long-form DataFrame, one row per design.
+
+    Columns: ``design``, the two varied columns (named as given, e.g. ``top.gap_eV``), then the
+    result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...).
+    """
+    table = design_table([first, second])
+    function = functools.partial(evaluate_chunk, stack=stack, spectrum=spectrum, suns=suns,
+                                 temperature_K=temperature_K)
+    return run_chunks(function, table, workers=workers, cluster=cluster, output=output,
+                      progress=progress, chunk_rows=chunk_rows)
+
+
+def optimum(table, column="efficiency_pct"):
+    """The row of the grid with the largest ``column`` (NaN rows ignored)."""
+    return table.loc[table[column].idxmax()]
+
+
+def plot_map(table, first, second, column="efficiency_pct", ax=None, *, title=""):
+    """Filled map of ``column`` over the two varied keys, iso-lines, the optimum marked."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    import matplotlib.pyplot as plt
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(7, 5.5))
+    x, y = first.values, second.values
+    z = (table.sort_values("design")[column].to_numpy(dtype=float)
+         .reshape(len(x), len(y)).T)
+    filled = ax.contourf(x, y, z, levels=24, cmap="viridis")
+    plt.colorbar(filled, ax=ax, label=column)
+    lines = ax.contour(x, y, z, levels=10, colors="white", linewidths=0.6)
+    ax.clabel(lines, fontsize=7, fmt="%.3g")
+    best = optimum(table, column)
+    ax.plot([best[first.column]], [best[second.column]], "*", ms=16, color="gold", mec="black")
+    ax.annotate(f"optimum {best[column]:.4g}\n{first.column} = {best[first.column]:.4g}\n"
+                f"{second.column} = {best[second.column]:.4g}",
+                (best[first.column], best[second.column]), textcoords="offset points",
+                xytext=(8, 8), fontsize=8, color="white")
+    ax.set_xlabel(first.column)
+    ax.set_ylabel(second.column)
+    ax.set_title(title, fontsize=10)
+    return ax

@@ -1,0 +1,90 @@
+"""Current matching: every subcell's photocurrent and the efficiency against one varied key.
+
+The matched value is where two subcells' photocurrents cross, found by root finding
+(scipy.optimize.brentq) on the optics alone, then solved for its efficiency.
+"""
+import itertools
+
+import numpy as np
+from scipy import optimize
+
+from ..parallel import run_chunks
+from .sweep import design_table, evaluate_chunk, photocurrents_at, solve_designs
+
+
+def match_currents(stack, variation, *, workers=None, cluster=None, output=None, progress=True,
+                   spectrum=None, suns=None, temperature_K=None):
+    """Sweep one key; find where subcell photocurrents cross.
+
+    Returns
+    -------
+    table : pandas.DataFrame
+        One row per value: the varied column, the result columns, each subcell's photocurrent.
+    matches : list of dict
+        Per crossing: ``subcells`` (the pair), ``value`` (of the varied key), ``photocurrent_mA_cm2``
+        and the solved ``efficiency_pct`` there.
+    """
+    import functools
+
+    options = dict(spectrum=spectrum, suns=suns, temperature_K=temperature_K)
+    table = design_table([variation])
+    function = functools.partial(evaluate_chunk, stack=stack, **options)
+    table = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
+                       progress=progress)
+    names = [c[: -len(".photocurrent_mA_cm2")] for c in table.columns
+             if c.endswith(".photocurrent_mA_cm2")]
+    x = table[variation.column].to_numpy()
+    matches = []
+    for a, b in itertools.combinations(names, 2):
+        difference = (table[f"{a}.photocurrent_mA_cm2"] - table[f"{b}.photocurrent_mA_cm2"])
+        d = difference.to_numpy()
+        for k in np.flatnonzero(np.sign(d[:-1]) * np.sign(d[1:]) < 0):
+            def gap(value, a=a, b=b):
+                currents = photocurrents_at(stack, variation.column, value, **options)
+                return currents[a] - currents[b]
+            value = optimize.brentq(gap, x[k], x[k + 1], xtol=1e-14, rtol=1e-15)
+            currents = photocurrents_at(stack, variation.column, value, **options)
+            solved = solve_designs(stack, {variation.column: np.array([value])}, **options)
+            matches.append({"subcells": [a, b], "value": value,
+                            "photocurrent_mA_cm2": currents[a],
+                            "efficiency_pct": float(solved["efficiency_pct"][0])})
+        exact = np.flatnonzero(d == 0)
+        for k in exact:
+            solved = table.iloc[k]
+            matches.append({"subcells": [a, b], "value": float(x[k]),
+                            "photocurrent_mA_cm2": float(solved[f"{a}.photocurrent_mA_cm2"]),
+                            "efficiency_pct": float(solved["efficiency_pct"])})
+    return table, matches
+
+
+def plot_matching(table, variation, matches, axes=None, *, title=""):
+    """Two panels sharing the varied axis: photocurrents (matched points marked), efficiency."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    import matplotlib.pyplot as plt
+
+    if axes is None:
+        _, axes = plt.subplots(2, 1, figsize=(7, 6.5), sharex=True)
+    top, bottom = axes
+    x = table[variation.column]
+    for k, column in enumerate(c for c in table.columns if c.endswith(".photocurrent_mA_cm2")):
+        top.plot(x, table[column], color=f"C{k}", label=column.removesuffix(".photocurrent_mA_cm2"))
+    for m in matches:
+        top.plot([m["value"]], [m["photocurrent_mA_cm2"]], "o", mfc="white", mec="red", mew=2)
+        top.annotate(f"matched at {m['value']:.5g}", (m["value"], m["photocurrent_mA_cm2"]),
+                     textcoords="offset points", xytext=(6, 8), fontsize=8, color="red")
+        bottom.axvline(m["value"], color="red", lw=0.8, ls="--")
+    top.set_ylabel("photocurrent (mA/cm²)")
+    top.legend(fontsize=8)
+    top.grid(alpha=0.3)
+    top.set_title(title, fontsize=10)
+    bottom.plot(x, table["efficiency_pct"], color="black")
+    best = table["efficiency_pct"].idxmax()
+    bottom.plot([x[best]], [table["efficiency_pct"][best]], "*", ms=12, color="gold", mec="black",
+                label=f"best {table['efficiency_pct'][best]:.2f} % at {x[best]:.5g}")
+    bottom.set_xlabel(variation.column)
+    bottom.set_ylabel("efficiency (%)")
+    bottom.legend(fontsize=8)
+    bottom.grid(alpha=0.3)
+    return axes

@@ -1,0 +1,177 @@
+"""Many designs of one stack: varied keys, a batched solve per chunk, tables out.
+
+A study varies numeric keys of named elements (``--vary top.gap_eV=1.6:1.9:31``). Every design
+of the study has the stack's topology, so a chunk of designs is one batched solve: the varied
+values become (B, 1) arrays in the compiled elements. The chunk function is pure and picklable,
+so the same chunks run in this process, on a local pool or on a Dask cluster (parallel.py).
+"""
+from dataclasses import dataclass, replace
+import functools
+import warnings
+
+import numpy as np
+
+from .. import units
+from ..compile import compile_stack
+from ..errors import StackError
+from ..illuminate import illuminate
+from ..solve import solve_string
+from ..spectra import get_spectrum
+from ..stack import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, _check_range
+
+#: result columns every study row carries, named as in the JSON of `siltandem run`
+RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
+#: isotype keys a study may vary (the explicit form of the law)
+ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
+
+
+@dataclass(frozen=True)
+class Variation:
+    """One varied key: ``element.key`` over ``values`` (as written: the column name)."""
+
+    element: str
+    key: str
+    values: np.ndarray
+
+    @property
+    def column(self):
+        return f"{self.element}.{self.key}"
+
+
+def parse_vary(text, stack):
+    """``NAME.KEY=START:STOP:N`` -> Variation, checked against the stack and the key's range."""
+    fix = "write --vary NAME.KEY=START:STOP:N, e.g. --vary top.gap_eV=1.6:1.9:31"
+    name_key, sep, span = text.partition("=")
+    element, dot, key = name_key.rpartition(".")
+    if not sep or not dot:
+        raise StackError(f"--vary {text!r} is not NAME.KEY=START:STOP:N", where="--vary", fix=fix)
+    parts = span.split(":")
+    try:
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+        if len(parts) != 3:
+            raise ValueError
+    except (ValueError, IndexError):
+        raise StackError(f"--vary {text!r}: {span!r} is not START:STOP:N", where="--vary",
+                         fix=fix) from None
+    if not 2 <= count <= 1_000_000:
+        raise StackError(f"--vary {text!r}: N = {count} must be 2..1000000", where="--vary",
+                         fix=fix)
+    specs = {e.name: e for e in stack.elements}
+    if element not in specs:
+        names = ", ".join(repr(n) for n in specs) or "none (a layer stack: not yet)"
+        raise StackError(f"--vary {text!r}: no element named {element!r}", where="--vary",
+                         fix=f"the stack's elements are {names}")
+    spec = specs[element]
+    if spec.kind == "isotype":
+        allowed = {k: ISOTYPE_NUMBERS[k] for k in ISOTYPE_VARIABLE if k in spec.values}
+    else:
+        allowed = {p.key: p for p in ELEMENT_SCHEMA[spec.kind]}
+    if key not in allowed:
+        raise StackError(f"--vary {text!r}: {spec.kind} {element!r} has no numeric key {key!r}",
+                         where="--vary", fix="vary one of " + ", ".join(sorted(allowed)))
+    values = np.linspace(start, stop, count)
+    for value in (start, stop):
+        _check_range(allowed[key], value, file=None, where=f"--vary {text}")
+    return Variation(element, key, values)
+
+
+def design_table(variations, *, grid=True):
+    """One row per design: a ``design`` id and one column per variation (its full grid)."""
+    import pandas as pd
+
+    if grid:
+        mesh = np.meshgrid(*[v.values for v in variations], indexing="ij")
+        columns = {v.column: m.reshape(-1) for v, m in zip(variations, mesh)}
+    else:
+        columns = {v.column: v.values for v in variations}
+    frame = pd.DataFrame(columns)
+    frame.insert(0, "design", np.arange(len(frame), dtype=np.int64))
+    return frame
+
+
+def _with_values(stack, columns):
+    """The stack with some element keys replaced by arrays (one value per design)."""
+    changed = []
+    for spec in stack.elements:
+        values = dict(spec.values)
+        for column, array in columns.items():
+            element, _, key = column.rpartition(".")
+            if element == spec.name:
+                values[key] = np.asarray(array, dtype=float)
+        changed.append(replace(spec, values=values))
+    return replace(stack, elements=tuple(changed))
+
+
+def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None):
+    """Solve B designs at once: ``columns`` maps ``element.key`` -> (B,) values.
+
+    Returns a dict of (B,) arrays: the RESULT_COLUMNS, ``<subcell>.photocurrent_mA_cm2`` for
+    every subcell, ``limiting_subcell`` and ``regime``.
+    """
+    conditions = stack.conditions
+    changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
+                                 ("temperature_K", temperature_K)) if v is not None}
+    conditions = replace(conditions, **changes)
+    light = _spectrum(conditions.spectrum, conditions.suns, stack.folder)
+    circuit = illuminate(compile_stack(replace(_with_values(stack, columns),
+                                               conditions=conditions)), light)
+    size = max([1] + [np.size(v) for v in columns.values()])
+    out = {}
+    total = np.zeros(size)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        solutions = [solve_string(s, conditions.temperature_K) for s in circuit.strings]
+    for solution in solutions:
+        total = total + np.broadcast_to(solution.mpp_W_m2, (size,))
+    out["efficiency_pct"] = 100 * total / light.irradiance_W_m2
+    first = solutions[0]
+    if len(solutions) == 1:
+        out["voc_V"] = np.broadcast_to(first.voc_V, (size,)).copy()
+        out["jsc_mA_cm2"] = units.ma_cm2(np.broadcast_to(first.jsc_A_m2, (size,)))
+        out["fill_factor"] = np.broadcast_to(first.fill_factor, (size,)).copy()
+        out["mpp_V"] = np.broadcast_to(first.mpp_V, (size,)).copy()
+        out["mpp_mA_cm2"] = units.ma_cm2(np.broadcast_to(first.mpp_A_m2, (size,)))
+    else:
+        for key in RESULT_COLUMNS[1:]:
+            out[key] = np.full(size, np.nan)
+    for cell in circuit.subcells:
+        out[f"{cell.name}.photocurrent_mA_cm2"] = units.ma_cm2(
+            np.broadcast_to(cell.photocurrent_A_m2[:, 0], (size,)))
+    pilot = [s for s in circuit.strings[0] if s.kind == "subcell"]
+    out["limiting_subcell"] = np.array([pilot[i].name for i in
+                                        np.broadcast_to(first.pilot_index, (size,))],
+                                       dtype=object)
+    out["regime"] = np.broadcast_to(np.asarray(first.regime, dtype=object), (size,)).copy()
+    return out
+
+
+@functools.lru_cache(maxsize=8)
+def _spectrum_cached(name, suns, folder):
+    return get_spectrum(name, suns=suns, relative_to=folder)
+
+
+def _spectrum(name, suns, folder):
+    return _spectrum_cached(name, float(suns), folder)
+
+
+def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None):
+    """Study function for parallel.run_chunks: the chunk's designs solved in one batch."""
+    columns = {c: chunk[c].to_numpy(dtype=float) for c in chunk.columns if c != "design"}
+    result = solve_designs(stack, columns, spectrum=spectrum, suns=suns,
+                           temperature_K=temperature_K)
+    out = chunk.copy()
+    for key, values in result.items():
+        out[key] = values
+    return out
+
+
+def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperature_K=None):
+    """Every subcell's photocurrent [mA/cm2] at one value of one varied key (optics only)."""
+    conditions = stack.conditions
+    changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
+                                 ("temperature_K", temperature_K)) if v is not None}
+    conditions = replace(conditions, **changes)
+    light = _spectrum(conditions.spectrum, conditions.suns, stack.folder)
+    varied = replace(_with_values(stack, {column: np.array([value])}), conditions=conditions)
+    circuit = illuminate(compile_stack(varied), light)
+    return {c.name: float(units.ma_cm2(c.photocurrent_A_m2[0, 0])) for c in circuit.subcells}
