@@ -177,3 +177,23 @@ def test_curve_is_monotone_and_contains_mpp(am15g):
     assert v[0] < 0 < s.voc_V[0] < v[-1]
     assert np.max(v * j) <= s.mpp_W_m2[0] * (1 + 1e-12)
     np.testing.assert_allclose(s.curve["cell0"][0] + s.curve["cell1"][0], v, atol=1e-12)
+
+
+def test_explicit_fast_path_agrees_with_the_traced_solve(am15g):
+    # the summary-only fast path (V explicit in J) against the pilot-voltage trace (forced by
+    # asking for a curve): two independent parameterisations of the same string
+    rng = np.random.default_rng(7)
+    gaps = rng.uniform(1.5, 2.1, 50)
+    absorptance = rng.uniform(0.5, 1.0, 50)
+    cells = radiative_cells([gaps, np.full(50, 1.12)], am15g, [absorptance, 1.0])
+    cells = [Subcell(c.name, c.gap_eV, absorptance=c.absorptance, ere=batch(0.01),
+                     series_ohm_m2=batch(1e-5)).with_photocurrent(c.photocurrent_A_m2)
+             for c in cells]
+    elements = [cells[0], Resistor("grid", batch(3e-5)), cells[1]]
+    fast = solve_string(elements, 300.0)
+    traced = solve_string(elements, 300.0, curve_points=20)
+    np.testing.assert_allclose(fast.mpp_W_m2, traced.mpp_W_m2, rtol=1e-12)
+    np.testing.assert_allclose(fast.voc_V, traced.voc_V, rtol=1e-12)
+    np.testing.assert_allclose(fast.jsc_A_m2, traced.jsc_A_m2, rtol=1e-9)
+    np.testing.assert_allclose(fast.mpp_V, traced.mpp_V, rtol=1e-7)
+    assert np.all(fast.power_balance_error_W_m2 < 1e-9 * fast.mpp_W_m2)

@@ -73,11 +73,20 @@ class Subcell:
     photocurrent_A_m2: np.ndarray | None = None
     string: int = 1
     kind: str = "subcell"
+    _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):
         """Ideality-1 saturation current density J0,rad/ERE [A/m^2] (generalized Planck law)."""
-        return radiative_saturation_current(self.gap_eV, temperature_K=temperature_K,
-                                            absorptance=self.absorptance) / self.ere
+        key = np.asarray(temperature_K, dtype=float).tobytes()
+        if key not in self._cache:
+            self._cache[key] = radiative_saturation_current(
+                self.gap_eV, temperature_K=temperature_K, absorptance=self.absorptance) / self.ere
+        return self._cache[key]
+
+    def is_explicit(self):
+        """True when V(J) is explicit: one ideal diode, no shunt, no J02, no breakdown."""
+        return bool(np.all(self.shunt_S_m2 == 0) and np.all(self.j02_A_m2 == 0)
+                    and np.all(self.breakdown_factor == 0))
 
     def _junction(self, temperature_K):
         if self.photocurrent_A_m2 is None:
@@ -192,7 +201,7 @@ class TunnelJunction:
     excess_slope_per_V: np.ndarray | None = None
     string: int = 1
     kind: str = "tunnel"
-    _cache: dict = field(default_factory=dict, compare=False, repr=False)
+    _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def _law(self, temperature_K):
         return dict(peak_A_m2=self.peak_A_m2, peak_V=self.peak_V, valley_A_m2=self.valley_A_m2,
@@ -369,10 +378,10 @@ def take_rows(element, rows):
     """The same element restricted to some designs of a batch (rows of every (B, 1) field)."""
     changes = {}
     for name, value in vars(element).items():
+        if name.startswith("_"):
+            continue
         if isinstance(value, np.ndarray) and value.ndim == 2 and value.shape[0] > 1:
             changes[name] = value[rows]
     if not changes:
         return element
-    if "_cache" in vars(element):
-        changes["_cache"] = {}
     return replace(element, **changes)

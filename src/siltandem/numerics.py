@@ -80,21 +80,25 @@ def safeguarded_newton(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_it
     a, b = np.where(swap, b, a), np.where(swap, a, b)
     x = 0.5 * (a + b)
     x = np.where(fa == 0, np.where(swap, b, a), x)
+    done = ~valid
     for _ in range(max_iterations):
         f, df = function(x)
         f = np.where(np.isfinite(f), f, np.nan)
         negative = f < 0
-        a = np.where(negative, x, a)
-        b = np.where(f > 0, x, b)
+        a = np.where(negative & ~done, x, a)
+        b = np.where((f > 0) & ~done, x, b)
         with np.errstate(divide="ignore", invalid="ignore"):
             step = f / df
         newton = x - step
         low, high = np.minimum(a, b), np.maximum(a, b)
         bad = ~np.isfinite(newton) | (newton <= low) | (newton >= high)
         new_x = np.where(bad, 0.5 * (a + b), newton)
-        converged = ((np.abs(new_x - x) <= xtol + rtol * np.abs(x)) | (f == 0) | ~valid
+        # every design stops on its own: a converged entry is frozen, so a result never
+        # depends on which other designs share its batch
+        converged = ((np.abs(new_x - x) <= xtol + rtol * np.abs(x)) | (f == 0)
                      | ~np.isfinite(f))
-        x = np.where(f == 0, x, new_x)
-        if np.all(converged):
+        x = np.where(done | (f == 0), x, new_x)
+        done = done | converged
+        if np.all(done):
             break
     return np.where(valid, x, np.nan)

@@ -25,6 +25,7 @@ import warnings
 import numpy as np
 
 from .elements import take_rows
+from .constants import thermal_voltage_V
 from .numerics import bracketed_root
 
 #: forward end of a traced curve: the pilot carries this fraction of its photocurrent backwards
@@ -217,7 +218,11 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     branches (trace.py), one design at a time.
     """
     string = _String(elements, temperature_K)
-    simple = _solve_simple(string, temperature_K, curve_points, reverse_fraction)
+    if not curve_points and all(e.kind == "resistor" or (e.kind == "subcell" and e.is_explicit())
+                                for e in string.elements):
+        simple = _solve_explicit(string, temperature_K)
+    else:
+        simple = _solve_simple(string, temperature_K, curve_points, reverse_fraction)
     past_peak = simple["reaches_peak"]
     regime = np.array(["below peak" if string.tunnels else "no tunnel junction"] * past_peak.size,
                       dtype=object)
@@ -271,6 +276,74 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         tunnel_branch_at_mpp=branches)
 
 
+def _solve_explicit(string, temperature_K):
+    """Summary of strings whose V(J) is explicit: ideal single-diode subcells without shunt, and
+    resistors. Parameterised by J directly (no inverse laws, no pilot): the fast path of studies.
+
+    V(J) = sum_i Vt ln1p((Jph_i - J)/J0_i) - J (sum of series resistances). P = J V is concave in
+    J here (each term of V is concave), so the MPP is the one root of g = V + J V' in
+    (0, min Jph + J0), found by safeguarded Newton with g' = 2 V' + J V''; Jsc is the root of V.
+    """
+    from .numerics import safeguarded_newton
+
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    size = string.size
+    cells = [(np.broadcast_to(e.photocurrent_A_m2, (size, 1)),
+              np.broadcast_to(e.j01_A_m2(temperature_K), (size, 1)),
+              np.broadcast_to(e.series_ohm_m2, (size, 1))) for e in string.subcells]
+    resistance = sum(c[2] for c in cells) + sum(
+        np.broadcast_to(e.series_ohm_m2, (size, 1)) for e in string.elements
+        if e.kind == "resistor")
+    limit = np.min(np.concatenate([jph + j0 for jph, j0, _ in cells], axis=1), axis=1,
+                   keepdims=True)
+
+    def voltage(j, order=0):
+        v = -resistance * j
+        dv = -resistance + 0.0 * j
+        d2v = 0.0 * j
+        for jph, j0, _ in cells:
+            room = jph - j + j0
+            with np.errstate(divide="ignore", invalid="ignore"):
+                v = v + vt * np.log(room / j0)
+                dv = dv - vt / room
+                d2v = d2v - vt / room**2
+        return v, dv, d2v
+
+    upper = limit * (1 - 1e-15)
+
+    def mpp_equation(j):
+        v, dv, d2v = voltage(j)
+        return v + j * dv, 2 * dv + j * d2v
+
+    def terminal(j):
+        v, dv, _ = voltage(j)
+        return v, dv
+
+    zero = np.zeros((size, 1))
+    j_mpp = safeguarded_newton(mpp_equation, zero, upper)
+    jsc = safeguarded_newton(terminal, zero, upper)
+    # no sign change at the upper end (V still > 0 at the saturation limit, in float64): Jsc
+    # is the limit itself to rounding
+    jsc = np.where(np.isfinite(jsc), jsc, limit)
+    v_mpp = voltage(j_mpp)[0]
+    voc = voltage(zero)[0]
+    voltages_mpp, voltages_voc = [], []
+    for element in string.elements:
+        if element.kind == "resistor":
+            r = np.broadcast_to(element.series_ohm_m2, (size, 1))
+            voltages_mpp.append(-r * j_mpp)
+            voltages_voc.append(np.zeros((size, 1)))
+        else:
+            jph = np.broadcast_to(element.photocurrent_A_m2, (size, 1))
+            j0 = np.broadcast_to(element.j01_A_m2(temperature_K), (size, 1))
+            r = np.broadcast_to(element.series_ohm_m2, (size, 1))
+            voltages_mpp.append(vt * np.log1p((jph - j_mpp) / j0) - r * j_mpp)
+            voltages_voc.append(vt * np.log1p(jph / j0))
+    return dict(voc=voc, jsc=jsc, v_mpp=v_mpp, j_mpp=j_mpp, p_mpp=j_mpp * v_mpp,
+                voltages_mpp=voltages_mpp, voltages_voc=voltages_voc, curve=None,
+                reaches_peak=np.zeros(size, dtype=bool))
+
+
 def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     """Vectorized solve along the pilot voltage with every tunnel junction on its tunnel branch.
 
@@ -306,8 +379,10 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     t_sc = bracketed_root(terminal, t_low, t_voc)
     at_sc = string.evaluate(t_sc)
     jsc = at_sc["current"]
-    t_floor = bracketed_root(lambda t: terminal(t) - v_floor, t_low, t_voc)
-    t_floor = np.where(np.isfinite(t_floor), t_floor, np.where(np.isfinite(t_sc), t_sc, t_low))
+    if curve_points:
+        t_floor = bracketed_root(lambda t: terminal(t) - v_floor, t_low, t_voc)
+        t_floor = np.where(np.isfinite(t_floor), t_floor,
+                           np.where(np.isfinite(t_sc), t_sc, t_low))
 
     # MPP: best of a coarse grid in t between short and open circuit, then dP/dt = 0
     s = np.linspace(0.0, 1.0, MPP_GRID_POINTS)[None, :]
