@@ -3,6 +3,7 @@
 - per-chunk overhead for a trivial function: in-process, local pool (2 processes), and a dask
   LocalCluster (2 processes, 1 thread each, loopback); from the difference between runs of
   SMALL and LARGE chunk counts, so pool and cluster start-up cancel out;
+- for comparison, the same one-design tasks through one client.map and one gather;
 - on dask: one task per design against a few large chunks, for the same designs;
 - in-process run_chunks against calling the function once on the whole table, with and without
   Parquet chunk files.
@@ -67,6 +68,18 @@ def main():
         for name, (small, large, slope) in rows.items():
             print(f"  {name:26s} {slope * 1e3:8.3f} ms per chunk   "
                   f"({SMALL} chunks {small:6.2f} s, {LARGE} chunks {large:6.2f} s)")
+
+        # for comparison, without this layer: the same chunks in one client.map + one gather
+        from distributed import Client
+        with Client(address, set_as_default=False) as client:
+            def raw(count):
+                data = table(count)
+                pieces = [data.iloc[i:i + 1] for i in range(count)]
+                client.gather(client.map(trivial, pieces, pure=False))
+            raw_small, raw_large = median_time(lambda: raw(SMALL)), median_time(lambda: raw(LARGE))
+        print(f"  {'dask, map + gather alone':26s} "
+              f"{(raw_large - raw_small) / (LARGE - SMALL) * 1e3:8.3f} ms per task    "
+              "(same chunks, one client.map and one gather, no run_chunks)")
 
         few = default_chunk_rows(LARGE, slots=2, local=False)
         chunked = median_time(lambda: run_chunks(trivial, table(LARGE), cluster=address,

@@ -541,6 +541,16 @@ def test_unfingerprintable_function_with_output(tmp_path):
                    output=tmp_path, progress=False)
 
 
+@pytest.mark.parametrize("missing, options", [("pyarrow", {"output": "folder"}),
+                                              ("distributed", {"cluster": "tcp://127.0.0.1:9"})])
+def test_missing_optional_extra(tmp_path, monkeypatch, missing, options):
+    monkeypatch.setitem(sys.modules, missing, None)          # makes `import missing` fail
+    options = {k: tmp_path / v if k == "output" else v for k, v in options.items()}
+    with pytest.raises(StackError, match=rf"{missing}.* is not installed") as error:
+        run_chunks(formula, design_table(), progress=False, **options)
+    assert error.value.fix == 'pip install -e ".[parallel]"'
+
+
 def test_unreachable_scheduler():
     dask = pytest.importorskip("dask")
     with dask.config.set({"distributed.comm.timeouts.connect": "1s"}):

@@ -40,6 +40,8 @@ class Circuit:
     conditions: Conditions
     name: str = "stack"
     optics: dict = field(default_factory=dict)
+    #: for layer stacks: the layer model the optics stage needs (layer_stage.LayerModel)
+    model: object = None
 
     def element(self, name):
         return self.graph.nodes[name]["element"]
@@ -70,7 +72,7 @@ class Circuit:
         return replace(self, graph=graph, **changes)
 
 
-def build_circuit(elements, conditions: Conditions, *, name="stack"):
+def build_circuit(elements, conditions: Conditions, *, name="stack", model=None):
     """Wire elements (in optical order, each with its ``string`` number) into a checked Circuit."""
     graph = nx.DiGraph()
     for number in range(1, conditions.strings + 1):
@@ -81,7 +83,7 @@ def build_circuit(elements, conditions: Conditions, *, name="stack"):
         for element in members:
             graph.add_node(element.name, element=element, terminal=False)
         nx.add_path(graph, chain)
-    circuit = Circuit(graph, tuple(e.name for e in elements), conditions, name)
+    circuit = Circuit(graph, tuple(e.name for e in elements), conditions, name, model=model)
     check_circuit(circuit)
     return circuit
 

@@ -114,8 +114,12 @@ def _isotype_from_materials(spec, temperature_K, file):
     else:
         attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
         richardson = min(getattr(m, attribute) for m in layers)
+    # the kT/q tail form holds only a few kT/q away from flat band: a nearly flat interface
+    # (built-in below 3 kT/q) takes the plain depletion form, defined up to flat band
+    tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
+        include_tail=tail,
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides)
@@ -127,7 +131,7 @@ BUILDERS = {"subcell": _subcell, "resistor": _resistor, "tunnel": _tunnel}
 def compile_stack(stack):
     """Stack -> Circuit (no light yet)."""
     if stack.layers:
-        from .compile_layers import compile_layer_stack
+        from .layer_stage import compile_layer_stack
 
         return compile_layer_stack(stack)
     elements = []

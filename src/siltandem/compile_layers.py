@@ -155,13 +155,3 @@ def carriers_flow(layer_polarity, stack_polarity):
     towards_sun = "n" if stack_polarity == "n-on-p" else "p"
     return "up" if layer_polarity == towards_sun else "down"
 
-
-def compile_layer_stack(stack):
-    """Layer stack -> Circuit. Recognition is complete; the layer-physics optics are not yet."""
-    structure = recognise(stack.layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"],
-                          file=stack.source)
-    found = ", ".join(f"{kind} at {stack.layers[info['upper']].label}" for kind, info in
-                      structure.parts)
-    raise StackError("layer stacks are recognised (" + found + ") but not yet solvable in this "
-                     "version", file=stack.source,
-                     fix="describe the stack with [[element]] tables for now")

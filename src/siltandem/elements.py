@@ -73,10 +73,15 @@ class Subcell:
     photocurrent_A_m2: np.ndarray | None = None
     string: int = 1
     kind: str = "subcell"
+    #: J01 fixed by a layer-physics model (at the stack's temperature); None: J0,rad / ERE
+    j01_fixed_A_m2: np.ndarray | None = None
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):
-        """Ideality-1 saturation current density J0,rad/ERE [A/m^2] (generalized Planck law)."""
+        """Ideality-1 saturation current density J0,rad/ERE [A/m^2] (generalized Planck law),
+        or the layer-physics value when the compiler fixed one."""
+        if self.j01_fixed_A_m2 is not None:
+            return self.j01_fixed_A_m2
         key = np.asarray(temperature_K, dtype=float).tobytes()
         if key not in self._cache:
             self._cache[key] = radiative_saturation_current(

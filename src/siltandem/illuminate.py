@@ -20,6 +20,10 @@ def illuminate(circuit, spectrum):
     spectrum : Spectrum
         Already scaled to the concentration of the run.
     """
+    if circuit.model is not None:
+        from .layer_stage import illuminate_layers
+
+        return illuminate_layers(circuit, spectrum)
     subcells = circuit.subcells
     wavelength, flux = spectrum.wavelength_nm, spectrum.photon_flux
     currents = step_absorber_photocurrents([s.gap_eV for s in subcells],

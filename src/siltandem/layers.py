@@ -25,9 +25,11 @@ import re
 from .errors import StackError
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
-              "diffusion_length_um", "lifetime_ns", "srv_cm_s"}
+              "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
+              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
+OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0}
 _DOPING = re.compile(r"^\s*([np])\s*:\s*([0-9.eE+-]+)\s*$")
 
 
@@ -63,6 +65,10 @@ class Layer:
     diffusion_length_um: float | None = None
     lifetime_ns: float | None = None
     srv_cm_s: float | None = None
+    #: per-junction overrides on the upper layer of a tunnel junction (None: estimated)
+    tunnel: dict | None = None
+    #: band-offset override at this layer's interface with the layer below [eV]
+    offset_eV: float | None = None
 
     @property
     def label(self):
@@ -188,9 +194,21 @@ def parse_layers(tables, *, file):
                              where=where, fix="remove one of the two")
         srv = _positive_number(table, "srv_cm_s", file=file, where=where, unit="cm/s",
                                high=1e8, required=False, low_open=False)
+        tunnel = {}
+        for key, unit, high in (("tunnel_peak_mA_cm2", "mA/cm2", 1e9), ("tunnel_peak_V", "V", 5),
+                                ("tunnel_valley_mA_cm2", "mA/cm2", 1e9),
+                                ("tunnel_valley_V", "V", 10)):
+            value = _positive_number(table, key, file=file, where=where, unit=unit, high=high,
+                                     required=False)
+            if value is not None:
+                tunnel[key.removeprefix("tunnel_")] = value
+        offset = None
+        if "offset_eV" in table:
+            offset = _positive_number(table, "offset_eV", file=file, where=where, unit="eV",
+                                      low=-3.0, high=3.0, low_open=False)
         layers.append(Layer(i, name, material, None if composition is None
                             else float(composition), thickness, polarity, doping, length,
-                            lifetime, srv))
+                            lifetime, srv, tunnel or None, offset))
     return tuple(layers)
 
 
@@ -241,3 +259,26 @@ def parse_rules(table, *, file):
             table, "tunnel_doping_cm3", file=file, where="key rules.tunnel_doping_cm3",
             unit="cm-3", low=1e16, high=1e21)
     return rules
+
+
+def parse_optics(table, *, file):
+    """``[optics]``: ``back_reflectance`` (a mirror behind the last layer, 0..1, default 0) and
+    ``ambient_index`` (the medium in front: 1 for air, about 1.5 under glass or encapsulant)."""
+    if not isinstance(table, dict):
+        raise StackError("[optics] must be a table", file=file, where="key optics",
+                         fix="write [optics] followed by key = value lines")
+    for key in table:
+        if key not in OPTICS_KEYS:
+            raise StackError(f"unknown key {key!r} in [optics]", file=file,
+                             where=f"key optics.{key}", fix=_suggest(key, OPTICS_KEYS)
+                             + "allowed: " + ", ".join(OPTICS_KEYS))
+    optics = dict(OPTICS_KEYS)
+    if "back_reflectance" in table:
+        optics["back_reflectance"] = _positive_number(
+            table, "back_reflectance", file=file, where="key optics.back_reflectance", unit="",
+            low=0.0, high=1.0, low_open=False)
+    if "ambient_index" in table:
+        optics["ambient_index"] = _positive_number(
+            table, "ambient_index", file=file, where="key optics.ambient_index", unit="",
+            low=1.0, high=5.0, low_open=False)
+    return optics

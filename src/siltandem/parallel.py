@@ -6,19 +6,21 @@ Nothing here knows any physics. A study is a picklable pure function ``function(
 over a pandas table with one row per design; :func:`run_chunks` splits the table into a few large
 chunks, runs them, and returns every design's row exactly once, sorted by design id.
 
-Why chunks and not one task per design: a dask task costs about 1.7 ms of overhead here, and a
-batched (vectorized) solve of a chunk costs little more than the solve of one design. Workers
-return DataFrames (arrays), never Python lists of values.
+Why chunks and not one task per design: every dask task costs milliseconds of overhead
+(``benchmarks/bench_parallel.py`` measures it), while a batched (vectorized) solve of a chunk costs
+little more than the solve of one design. Workers return DataFrames (arrays), never Python lists.
 
 Output folder layout (``output=``)::
 
     chunk-<key>-<rows>rows-<id>.parquet   one per finished chunk, written atomically
     results.parquet                       all rows, written atomically at the end
 
-``<key>`` is a fingerprint of the table (values, column names, dtypes) and of the function
-(module, qualified name, compiled code, and the arguments bound by ``functools.partial``), so a
-different sweep never picks up stale chunks. ``<rows>`` is the chunk size, so chunk ids always mean
-the same rows. A temporary file (``.<name>.<pid>.<random>.tmp``) is renamed into place only when
+``<key>`` is a fingerprint of the table (values, column names, dtypes), of the function (module,
+qualified name, its own compiled code, default values, the arguments bound by
+``functools.partial``) and of the siltandem version, so a different sweep never picks up stale
+chunks. It does not cover the code the function calls: after changing that, pass
+``resume=False`` or use a fresh folder. ``<rows>`` is the chunk size, so chunk ids always mean the
+same rows. A temporary file (``.<name>.<pid>.<random>.tmp``) is renamed into place only when
 complete; the temporary files of a process that no longer exists are removed at the next start.
 
 dask[distributed] is needed only for ``cluster=``, pyarrow only for ``output=``; both are the
@@ -204,7 +206,7 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
 
 
 def default_chunk_rows(n_rows, *, slots=1, local=True):
-    """The default chunk size for ``n_rows`` designs on ``slots`` workers (see :func:`run_chunks`)."""
+    """Default chunk size for ``n_rows`` designs on ``slots`` workers (see :func:`run_chunks`)."""
     if local:
         return max(1, min(MAX_CHUNK_ROWS, n_rows))
     return max(1, min(MAX_CHUNK_ROWS, math.ceil(n_rows / (CHUNKS_PER_WORKER * slots))))
@@ -250,8 +252,8 @@ def _canonical_table(table):
 
 def _check_options(chunk_rows, workers, cluster):
     for name, value in (("chunk_rows", chunk_rows), ("workers", workers)):
-        if value is not None and (isinstance(value, bool) or not isinstance(value, (int, np.integer))
-                                  or value < 1):
+        integer = isinstance(value, (int, np.integer)) and not isinstance(value, bool)
+        if value is not None and (not integer or value < 1):
             raise StackError(f"{name} = {value!r} is not a positive integer",
                              where=f"argument {name}", fix=f"give {name} >= 1, or leave it None")
     if workers is not None and cluster is not None:
@@ -294,7 +296,9 @@ def _require(module):
 
 def sweep_key(table, function):
     """16-hex fingerprint of a canonical table and a study function (see the module notes)."""
-    digest = hashlib.sha256(_FORMAT)
+    from . import __version__
+
+    digest = hashlib.sha256(_FORMAT + __version__.encode())
     digest.update(json.dumps([[str(c) for c in table.columns],
                               [str(t) for t in table.dtypes], len(table)]).encode())
     digest.update(pd.util.hash_pandas_object(table, index=False).to_numpy().tobytes())
@@ -363,6 +367,7 @@ def _run_token():
 # the output folder
 
 def _prepare_folder(output):
+    _require("pyarrow.parquet")  # before any work, not at the first write
     folder = Path(output)
     if folder.exists() and not folder.is_dir():
         raise StackError("the output path exists and is not a folder", file=folder,
@@ -414,7 +419,7 @@ def _load_chunks(folder, key, chunk_rows, bounds, designs):
 
 
 def _write_parquet_atomic(path, frame, metadata=None):
-    """Write ``frame`` to ``path`` as Parquet: a temporary file in the same folder, then a rename."""
+    """Write ``frame`` to ``path`` as Parquet: a temporary file in its folder, then a rename."""
     arrow = _require("pyarrow")
     parquet = _require("pyarrow.parquet")
     data = arrow.Table.from_pandas(frame, preserve_index=False)

@@ -269,13 +269,21 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
             "voc_alone_V": _first(own.voc_V),
             "efficiency_alone_pct": 100 * _first(own.mpp_W_m2) / irradiance,
             "limiting": cell.name in limiting})
+        collected = circuit.optics.get("collected_A_m2", {}).get(cell.name)
+        if collected:
+            subcell_rows[-1]["collected_mA_cm2"] = collected
+            subcell_rows[-1]["collection_loss_mA_cm2"] = (subcell_rows[-1]["absorbed_mA_cm2"]
+                                                          - subcell_rows[-1][
+                                                              "photocurrent_mA_cm2"])
     one = len(solutions) == 1
     head = string_rows[0] if one else {}
     cautions = [CAUTION]
     if conditions.suns > 1:
         cautions.append(f"{conditions.suns:g} suns: concentrated light can burn skin and eyes and "
                         "ignite material; never look into the beam, and cool the cell.")
-    if conditions.temperature_K != 298.15:
+    if circuit.model is not None:
+        warnings_.extend(circuit.model.notes)
+    if conditions.temperature_K != 298.15 and circuit.model is None:
         warnings_.append("circuit level: gaps are taken as given at "
                          f"{conditions.temperature_K:g} K (no temperature shift of the gap); "
                          "only the dark currents follow the temperature")
@@ -299,18 +307,30 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         "elements": element_rows,
         "tunnel_junctions": tunnel_rows,
         "interfaces": interface_rows,
-        "parasitic": [],
-        "photons": {"incident_mA_cm2": units.ma_cm2(circuit.optics["incident_A_m2"]),
-                    "transmitted_mA_cm2":
-                        units.ma_cm2(_first(circuit.optics["transmitted_A_m2"]))},
+        "parasitic": [{"layer": name, "absorbed_mA_cm2": units.ma_cm2(value)}
+                      for name, value in circuit.optics.get("parasitic_A_m2", {}).items()],
+        "photons": _photons(circuit),
         "power_balance_error_W_m2": balance,
         "warnings": warnings_,
         "cautions": cautions,
         "sign_convention": SIGN_CONVENTION,
-        "model": "circuit level: detailed-balance subcells (generalized Planck law), lumped "
-                 "resistors, Esaki tunnel junctions (three-term law), isotype interfaces "
-                 "(thermionic emission, any alpha)",
+        "model": ("layer level: " if circuit.model is not None else "circuit level: ")
+        + ("subcells from the minority-carrier diffusion solution (J01, collection) and "
+           "depletion recombination (J02), Beer-Lambert optics" if circuit.model is not None
+           else "detailed-balance subcells (generalized Planck law), lumped resistors")
+        + ", Esaki tunnel junctions (three-term law), isotype interfaces (thermionic emission, "
+          "any alpha)",
     }
+
+
+def _photons(circuit):
+    optics = circuit.optics
+    photons = {"incident_mA_cm2": units.ma_cm2(optics["incident_A_m2"]),
+               "transmitted_mA_cm2": units.ma_cm2(_first(optics["transmitted_A_m2"]))}
+    if "reflected_A_m2" in optics:
+        photons["reflected_mA_cm2"] = units.ma_cm2(optics["reflected_A_m2"])
+        photons["budget_error_relative"] = optics["budget_error_relative"]
+    return photons
 
 
 def _curve_table(circuit, solutions):

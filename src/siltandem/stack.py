@@ -113,7 +113,7 @@ COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
                   "terminals": 2}
-TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules"}
+TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules", "optics"}
 
 
 @dataclass(frozen=True)
@@ -424,7 +424,7 @@ def parse_stack(document, *, file=None, folder=None):
                              where=f"key stack.{key}", fix=f'write {key} = "..."')
     conditions = _parse_conditions(document.get("conditions", {}), file=file)
     if "layer" in document:
-        from .layers import parse_coatings, parse_layers, parse_rules
+        from .layers import parse_coatings, parse_layers, parse_optics, parse_rules
 
         if "element" in document:
             raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
@@ -433,12 +433,13 @@ def parse_stack(document, *, file=None, folder=None):
         layers = parse_layers(document["layer"], file=file)
         coatings = parse_coatings(document.get("coating", []), file=file)
         rules = parse_rules(document.get("rules", {}), file=file)
+        rules.update(parse_optics(document.get("optics", {}), file=file))
         if conditions.terminals != 2:
             raise StackError("layer stacks are two-terminal in this version", file=file,
                              where="key conditions.terminals", fix="set terminals = 2")
         return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
                      None if folder is None else str(folder), coatings=coatings, rules=rules)
-    for key in ("coating", "rules"):
+    for key in ("coating", "rules", "optics"):
         if key in document:
             raise StackError(f"[{key}] goes with [[layer]] stacks", file=file, where=f"key {key}",
                              fix=f"remove [{key}] or describe the stack by its layers")

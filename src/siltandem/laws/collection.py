@@ -1,0 +1,756 @@
+"""Layer-physics subcell law: carrier collection, diffusion dark current, depletion-region recombination.
+
+One subcell is an emitter (quasi-neutral, thickness We), a depletion region (width Wd, taken as fully
+collecting) and a base (quasi-neutral, thickness Wb), in that order from the sun side. In each
+quasi-neutral region the excess minority-carrier density n obeys the steady diffusion equation
+
+    D n'' - n / tau + g(x) = 0,        L = sqrt(D tau),
+
+with n = 0 at the depletion edge (short circuit) and a recombining outer surface,
+-D n' = S n (flux into the surface at velocity S). Light enters the emitter front with photon flux Phi
+and is absorbed by Beer-Lambert's law, g(x) = Phi alpha exp(-alpha x). A second flux may enter the base
+from the back (light returned by a back reflector; the caller computes it).
+
+How the closed forms are evaluated
+----------------------------------
+The textbook solutions (Hovel 1975, eqs. for the front and back regions; the same in Sze & Ng ch. 13)
+contain cosh(W/L) and sinh(W/L), which overflow for W >> L, a factor 1/(alpha^2 L^2 - 1) that is
+singular at alpha L = 1, and S L / D, which is infinite for S = inf or L = inf. We use instead the
+collection probability of a carrier generated at distance u from the depletion edge (reciprocity,
+Donolato 1985)
+
+    f(u) = N(W - u) / N(W),    N(z) = cosh(z/L) + (S/D) L sinh(z/L),
+
+so that the collected fraction of the photons entering a region is eta = integral alpha g~(u) f(u) du.
+Written out, every term is an integral of a product of exponentials, i.e. a first or second divided
+difference of exp; all terms are positive and all exponents are scaled by exp(-W/L), so nothing
+overflows and nothing cancels. The divided differences are evaluated with scipy.special.exprel (first
+order) and, for close nodes, a Taylor series (second order). This form equals the textbook one
+identically (the tests check it against the textbook form in 80-digit arithmetic and against a
+numerical solution of the boundary-value problem).
+
+Approximations the caller must know
+-----------------------------------
+- The depletion region collects every carrier generated in it (no recombination loss there under
+  illumination) and its width is the one the caller passes (usually the zero-bias width).
+- Superposition: collection does not depend on the operating voltage.
+- One absorption coefficient for the whole subcell (a homojunction); no free-carrier or parasitic
+  absorption inside it; no photon recycling or luminescent coupling; normal incidence.
+- Low injection, uniform doping, no drift fields in the quasi-neutral regions, no bandgap narrowing
+  (pass an effective intrinsic density if the emitter has it).
+- Back-entering light is a single pass given by the caller; multiple reflections are the optics' job.
+
+References
+----------
+H. J. Hovel, *Solar Cells*, Semiconductors and Semimetals vol. 11 (Academic Press, 1975), ch. 2
+(collection in the front, depletion and base regions; from memory).
+S. M. Sze, K. K. Ng, *Physics of Semiconductor Devices*, 3rd ed. (Wiley, 2007), ch. 2 (diode
+saturation current, generation-recombination current) and ch. 13 (spectral response; from memory).
+W. W. Gaertner, Phys. Rev. 116 (1959) 84 (depletion-region plus long-base collection).
+C. Donolato, Appl. Phys. Lett. 46 (1985) 270 (reciprocity: collection probability).
+C.-T. Sah, R. N. Noyce, W. Shockley, Proc. IRE 45 (1957) 1228 (depletion-region recombination).
+A. Luque, S. Hegedus (eds.), *Handbook of Photovoltaic Science and Engineering* (Wiley, 2003/2011),
+ch. 3 (the same closed forms; from memory).
+"""
+import warnings
+from typing import NamedTuple
+
+import numpy as np
+from scipy.special import exprel
+
+from ..constants import ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M, thermal_voltage_V
+
+__all__ = [
+    "CollectionParameterError", "CollectionDomainWarning", "CollectedPhotocurrent",
+    "DiffusionSaturationCurrent", "DepletionRecombination", "AbruptJunction", "RadiativeFloor",
+    "einstein_diffusivity", "diffusion_length", "layer_collection_fraction",
+    "collected_photocurrent", "region_saturation_current", "diffusion_saturation_current",
+    "abrupt_junction", "depletion_recombination_current", "apply_radiative_floor",
+]
+
+_SERIES_TERMS = 20  # second divided difference, nodes within 1 of each other: 21/22! < 1e-19
+_LARGEST_RATIO = 1e250  # W/L is capped here: exp(-W/L) is 0 long before, and nothing overflows
+
+
+class CollectionParameterError(ValueError):
+    """A subcell layer parameter that the law cannot represent; the message names the fix."""
+
+
+class CollectionDomainWarning(RuntimeWarning):
+    """Some points lie outside a law's domain and were set to NaN."""
+
+
+class CollectedPhotocurrent(NamedTuple):
+    """Photon and collected currents of one subcell [A/m^2, or A/m^2 per unit of the flux's spectral axis].
+
+    ``absorbed_A_m2 - collected_A_m2`` is the collection loss; the depletion region collects all it absorbs.
+    """
+
+    emitter_A_m2: np.ndarray             # collected from the emitter
+    depletion_A_m2: np.ndarray           # collected from (= absorbed in) the depletion region
+    base_A_m2: np.ndarray                # collected from the base
+    emitter_absorbed_A_m2: np.ndarray    # q x photons absorbed in the emitter
+    base_absorbed_A_m2: np.ndarray       # q x photons absorbed in the base
+    absorbed_A_m2: np.ndarray            # q x photons absorbed in the whole subcell
+
+    @property
+    def collected_A_m2(self):
+        """Total collected current density (emitter + depletion + base)."""
+        return self.emitter_A_m2 + self.depletion_A_m2 + self.base_A_m2
+
+    @property
+    def collection_loss_A_m2(self):
+        """Absorbed but not collected (recombined in the bulk or at a surface)."""
+        return self.absorbed_A_m2 - self.collected_A_m2
+
+
+class DiffusionSaturationCurrent(NamedTuple):
+    """Ideality-1 saturation current densities of the two quasi-neutral regions [A/m^2]."""
+
+    emitter_A_m2: np.ndarray
+    base_A_m2: np.ndarray
+
+    @property
+    def total_A_m2(self):
+        """J01 of the subcell = emitter + base."""
+        return self.emitter_A_m2 + self.base_A_m2
+
+
+class AbruptJunction(NamedTuple):
+    """Depletion approximation of an abrupt p-n junction at one voltage (SI)."""
+
+    built_in_V: np.ndarray
+    width_m: np.ndarray          # total depletion width
+    n_side_width_m: np.ndarray   # part in the n layer
+    p_side_width_m: np.ndarray   # part in the p layer
+    peak_field_V_m: np.ndarray   # at the metallurgical junction
+
+
+class DepletionRecombination(NamedTuple):
+    """Result of :func:`depletion_recombination_current` (arrays of the broadcast shape)."""
+
+    j02_A_m2: np.ndarray             # J02 with the effective width (Sah-Noyce-Shockley)
+    current_A_m2: np.ndarray         # recombination current at the given voltage
+    effective_width_m: np.ndarray    # pi kT / (q E*), capped at the depletion width
+    depletion_width_m: np.ndarray
+    full_width_j02_A_m2: np.ndarray  # upper bound q ni W / (2 sqrt(tau_n tau_p))
+
+
+class RadiativeFloor(NamedTuple):
+    """J01 raised to the radiative limit where the diffusion model fell below it."""
+
+    j01_A_m2: np.ndarray
+    floored: np.ndarray  # bool: True where the radiative value was used
+
+
+# --------------------------------------------------------------------------------------------
+# validation
+
+
+def _first_bad(mask, values):
+    mask = np.asarray(mask)
+    if not mask.any():
+        return None
+    idx = np.unravel_index(np.argmax(mask), mask.shape)
+    vals = [np.broadcast_to(np.asarray(v, dtype=float), mask.shape)[idx] for v in values]
+    at = "" if mask.ndim == 0 else (f" (at index {tuple(int(i) for i in idx)}, {int(mask.sum())} "
+                                    f"of {mask.size} entries)")
+    return at, vals
+
+
+def _checked(name, value, unit, *, where, zero_ok=False, inf_ok=False):
+    """``value`` as a float array; CollectionParameterError unless it is positive (and finite)."""
+    v = np.asarray(value, dtype=float)
+    bad = np.isnan(v) | (v < 0) | ((v == 0) & (not zero_ok)) | (np.isinf(v) & (not inf_ok))
+    found = _first_bad(bad, [v])
+    if found:
+        at, (val,) = found
+        need = "zero or positive" if zero_ok else "positive"
+        need += "" if inf_ok else " and finite"
+        extra = " (inf is allowed)" if inf_ok else ""
+        raise CollectionParameterError(
+            f"{where}: {name} = {val:g} {unit}{at} must be {need}{extra}; give a {need} {name}.")
+    return v
+
+
+def _finite(name, value, unit, *, where):
+    v = np.asarray(value, dtype=float)
+    found = _first_bad(~np.isfinite(v), [v])
+    if found:
+        at, (val,) = found
+        raise CollectionParameterError(f"{where}: {name} = {val:g} {unit}{at} must be finite; "
+                                       f"give a finite {name}.")
+    return v
+
+
+# --------------------------------------------------------------------------------------------
+# divided differences of exp (all nodes finite; results positive)
+
+
+def _dd1(x, y):
+    """First divided difference (e^x - e^y) / (x - y), exact at x = y, for finite x, y."""
+    return np.exp(np.maximum(x, y)) * exprel(-np.abs(x - y))
+
+
+def _dd2(x, y, z):
+    """Second divided difference exp[x, y, z] (symmetric in its nodes), for finite nodes.
+
+    With the nodes sorted a >= b >= c and beta = b - a, gamma = c - a (<= 0),
+    exp[a, b, c] = e^a (exp[0, beta] - exp[beta, gamma]) / (-gamma) when gamma < -1 (at most a
+    factor ~3 of cancellation), else e^a sum_k h_k(beta, gamma) / (k + 2)!, h_k the complete
+    homogeneous symmetric polynomial (h_k = beta h_(k-1) + gamma^k).
+    """
+    low, mid, high = np.sort(np.stack(np.broadcast_arrays(x, y, z)), axis=0)
+    beta, gamma = mid - high, low - high
+    far = gamma < -1.0
+    value = np.empty_like(gamma)
+    value[far] = (exprel(beta[far]) - np.exp(beta[far]) * exprel(gamma[far] - beta[far])) / -gamma[far]
+    g, b = gamma[~far], beta[~far]
+    h = np.ones_like(g)
+    power = np.ones_like(g)
+    series = np.full_like(g, 0.5)
+    factorial = 2.0
+    for k in range(1, _SERIES_TERMS + 1):
+        power = power * g
+        h = b * h + power
+        factorial *= k + 2
+        series = series + h / factorial
+    value[~far] = series
+    return np.exp(high) * value
+
+
+# --------------------------------------------------------------------------------------------
+# transport helpers
+
+
+def einstein_diffusivity(mobility_m2_V_s, *, temperature_K):
+    """Minority-carrier diffusion coefficient D = mu kT / q [m^2/s] (Einstein relation, non-degenerate).
+
+    Parameters
+    ----------
+    mobility_m2_V_s : array_like
+        Minority-carrier mobility [m^2 V^-1 s^-1] (1 cm^2/Vs = 1e-4 m^2/Vs), > 0.
+    temperature_K : array_like
+        Temperature [K], > 0.
+
+    References
+    ----------
+    A. Einstein, Ann. Phys. 17 (1905) 549; Sze & Ng (2007), ch. 1.
+    """
+    mobility = _checked("mobility_m2_V_s", mobility_m2_V_s, "m^2/(V s)", where="einstein_diffusivity")
+    temperature = _checked("temperature_K", temperature_K, "K", where="einstein_diffusivity")
+    return mobility * thermal_voltage_V(temperature)
+
+
+def diffusion_length(lifetime_s, *, diffusivity_m2_s):
+    """Minority-carrier diffusion length L = sqrt(D tau) [m].
+
+    Parameters
+    ----------
+    lifetime_s : array_like
+        Minority-carrier lifetime [s], > 0 (inf allowed: no bulk recombination).
+    diffusivity_m2_s : array_like
+        Diffusion coefficient [m^2/s], > 0.
+    """
+    tau = _checked("lifetime_s", lifetime_s, "s", where="diffusion_length", inf_ok=True)
+    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where="diffusion_length")
+    return np.sqrt(d * tau)
+
+
+# --------------------------------------------------------------------------------------------
+# collection
+
+
+def _surface_weights(srv_m_s, thickness_m, diffusivity_m2_s):
+    """t = sigma / (1 + sigma) and 1 - t for sigma = S W / D in [0, inf]."""
+    with np.errstate(invalid="ignore"):
+        sigma = srv_m_s * thickness_m / diffusivity_m2_s
+    sigma = np.where(thickness_m == 0, 0.0, sigma)
+    with np.errstate(invalid="ignore"):
+        t = np.where(np.isinf(sigma), 1.0, sigma / (1.0 + sigma))
+    return t, 1.0 / (1.0 + sigma)
+
+
+def _collection(alpha, thickness, length, srv, diffusivity, lit_at_junction):
+    """Collected fraction of the photons entering one quasi-neutral region (validated inputs)."""
+    a = alpha * thickness
+    k = np.minimum(thickness / length, _LARGEST_RATIO)
+    t, one_minus_t = _surface_weights(srv, thickness, diffusivity)
+    e2 = np.exp(-2.0 * k)
+    if lit_at_junction:
+        m = -(a + k)
+        inner = 0.5 * (_dd1(m, 0.0) + _dd1(m, -2.0 * k))
+        surface = _dd2(m, 0.0, -2.0 * k)
+    else:
+        inner = 0.5 * (_dd1(-k, -a) + _dd1(-k, -(a + 2.0 * k)))
+        surface = _dd2(-k, -a, -(a + 2.0 * k))
+    numerator = a * (one_minus_t * inner + t * surface)
+    denominator = one_minus_t * 0.5 * (1.0 + e2) + t * exprel(-2.0 * k)
+    return numerator / denominator
+
+
+def layer_collection_fraction(absorption_per_m, *, thickness_m, diffusion_length_m, diffusivity_m2_s,
+                              surface_srv_m_s, lit_side, where="layer"):
+    """Fraction of the photons entering one quasi-neutral region that is collected at its depletion edge.
+
+    Parameters
+    ----------
+    absorption_per_m : array_like
+        Absorption coefficient alpha [1/m], >= 0 (1/cm = 100/m).
+    thickness_m : array_like
+        Quasi-neutral thickness W [m], >= 0.
+    diffusion_length_m : array_like
+        Minority-carrier diffusion length L [m], > 0 (inf allowed).
+    diffusivity_m2_s : array_like
+        Minority-carrier diffusion coefficient D [m^2/s], > 0 (enters only through S/D).
+    surface_srv_m_s : array_like
+        Recombination velocity S [m/s] of the surface opposite the depletion edge, >= 0 (inf allowed;
+        1 cm/s = 0.01 m/s).
+    lit_side : {"surface", "junction"}
+        Which face the light enters through: "surface" (the emitter under front light, the base under
+        back light) or "junction" (the base under front light, the emitter under back light).
+    where : str
+        Name for error messages.
+
+    Returns
+    -------
+    ndarray
+        eta in [0, 1 - exp(-alpha W)], broadcast shape of the inputs.
+
+    Notes
+    -----
+    With u the distance from the depletion edge, k = W/L, a = alpha W, sigma = S W / D,
+    t = sigma/(1 + sigma) and exp[...] the divided differences of the exponential,
+    exp[x, y] = (e^x - e^y)/(x - y) and exp[x, y, z] = (exp[x, y] - exp[y, z])/(x - z):
+
+    lit at the surface (Hovel's front region): g ~ exp(-alpha (W - u)),
+        eta = a [(1-t)/2 (exp[-k, -a] + exp[-k, -a-2k]) + t exp[-k, -a, -a-2k]] / den
+    lit at the junction (Hovel's base region): g ~ exp(-alpha u),
+        eta = a [(1-t)/2 (exp[-a-k, 0] + exp[-a-k, -2k]) + t exp[-a-k, 0, -2k]] / den
+    den = (1-t)(1 + exp(-2k))/2 + t (1 - exp(-2k))/(2k).
+
+    These equal the textbook forms identically, e.g. for the base (Hovel ch. 2)
+    eta = alpha L/(alpha^2 L^2 - 1) [alpha L - (s (cosh k - e^-a) + sinh k + alpha L e^-a)
+    / (s sinh k + cosh k)] with s = S L / D: both are integral alpha g~(u) f(u) du with the collection
+    probability f(u) = N(W - u)/N(W), N(z) = cosh(z/L) + (S/D) L sinh(z/L), here multiplied through
+    by exp(-k)/(1 + sigma). Every term is positive, no exponent is positive (no overflow for W >> L),
+    alpha L = 1 needs no special case, and S = inf or L = inf are ordinary values.
+
+    References
+    ----------
+    H. J. Hovel (1975), ch. 2; C. Donolato, Appl. Phys. Lett. 46 (1985) 270 (collection probability).
+    """
+    if lit_side not in ("surface", "junction"):
+        raise CollectionParameterError(
+            f"{where}: lit_side = {lit_side!r} is not known; give 'surface' or 'junction'.")
+    alpha = _checked("absorption_per_m", absorption_per_m, "1/m", where=where, zero_ok=True)
+    w = _checked("thickness_m", thickness_m, "m", where=where, zero_ok=True)
+    length = _checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
+    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
+    s = _checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    return _collection(alpha, w, length, s, d, lit_side == "junction")
+
+
+def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickness_m,
+                           emitter_diffusion_length_m, emitter_diffusivity_m2_s, front_srv_m_s,
+                           depletion_width_m, base_thickness_m, base_diffusion_length_m,
+                           base_diffusivity_m2_s, back_srv_m_s, back_photon_flux_m2_s=0.0,
+                           where="subcell"):
+    """Collected photocurrent of each region of a subcell, and the absorbed photon current.
+
+    Parameters
+    ----------
+    absorption_per_m : array_like
+        Absorption coefficient alpha(lambda) of the absorber [1/m], >= 0; usually the wavelength axis.
+    photon_flux_m2_s : array_like
+        Photon flux entering the emitter front [m^-2 s^-1], after reflection and the layers above;
+        per wavelength sample or per nm (the results then carry the same "per"), finite.
+    emitter_thickness_m : array_like
+        Quasi-neutral emitter thickness [m], >= 0 (emitter layer minus its share of the depletion region).
+    emitter_diffusion_length_m, base_diffusion_length_m : array_like
+        Minority-carrier diffusion lengths [m], > 0 (inf allowed); see :func:`diffusion_length`.
+    emitter_diffusivity_m2_s, base_diffusivity_m2_s : array_like
+        Minority-carrier diffusion coefficients [m^2/s], > 0; see :func:`einstein_diffusivity`.
+    front_srv_m_s, back_srv_m_s : array_like
+        Recombination velocities of the emitter front and base back surfaces [m/s], >= 0, inf allowed
+        (a window or back-surface-field layer is represented by its effective velocity).
+    depletion_width_m : array_like
+        Depletion width [m], >= 0 (see :func:`abrupt_junction`); every carrier generated in it is collected.
+    base_thickness_m : array_like
+        Quasi-neutral base thickness [m], >= 0.
+    back_photon_flux_m2_s : array_like, optional
+        Photon flux entering the base from the back [m^-2 s^-1] (e.g. returned by a back reflector),
+        single pass, same spectral "per" as ``photon_flux_m2_s``. Default 0.
+    where : str
+        Name of the subcell for error messages.
+
+    Returns
+    -------
+    CollectedPhotocurrent
+        Per-region collected current densities, the absorbed photon currents (q times photons per
+        area and time) [A/m^2 per the flux's spectral unit], of the broadcast shape of all inputs.
+        Integrate over wavelength with the caller's rule.
+
+    Notes
+    -----
+    With Phi the front flux, X = exp(-alpha We), Y = exp(-alpha Wd), Z = exp(-alpha Wb) and
+    eta_s, eta_j the collected fractions of :func:`layer_collection_fraction` (lit at the surface,
+    lit at the junction):
+
+        J_emitter   = q Phi eta_s(emitter)                 + q Phi_b Z Y eta_j(emitter)
+        J_depletion = q Phi X (1 - Y)                      + q Phi_b Z (1 - Y)
+        J_base      = q Phi X Y eta_j(base)                + q Phi_b eta_s(base)
+        absorbed    = q (Phi + Phi_b) (1 - X Y Z)
+
+    The depletion term with a long base (Wb >> L, S irrelevant) gives Gaertner's
+    J = q Phi X [1 - Y / (1 + alpha L)].
+
+    References
+    ----------
+    H. J. Hovel (1975), ch. 2; S. M. Sze, K. K. Ng (2007), ch. 13; W. W. Gaertner, Phys. Rev. 116
+    (1959) 84; C. Donolato, Appl. Phys. Lett. 46 (1985) 270.
+    """
+    alpha = _checked("absorption_per_m", absorption_per_m, "1/m", where=where, zero_ok=True)
+    flux = _finite("photon_flux_m2_s", photon_flux_m2_s, "1/(m^2 s)", where=where)
+    back_flux = _finite("back_photon_flux_m2_s", back_photon_flux_m2_s, "1/(m^2 s)", where=where)
+    we = _checked("emitter_thickness_m", emitter_thickness_m, "m", where=where, zero_ok=True)
+    le = _checked("emitter_diffusion_length_m", emitter_diffusion_length_m, "m", where=where,
+                  inf_ok=True)
+    de = _checked("emitter_diffusivity_m2_s", emitter_diffusivity_m2_s, "m^2/s", where=where)
+    sf = _checked("front_srv_m_s", front_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    wd = _checked("depletion_width_m", depletion_width_m, "m", where=where, zero_ok=True)
+    wb = _checked("base_thickness_m", base_thickness_m, "m", where=where, zero_ok=True)
+    lb = _checked("base_diffusion_length_m", base_diffusion_length_m, "m", where=where, inf_ok=True)
+    db = _checked("base_diffusivity_m2_s", base_diffusivity_m2_s, "m^2/s", where=where)
+    sb = _checked("back_srv_m_s", back_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+
+    q = ELEMENTARY_CHARGE_C
+    x, y, z = np.exp(-alpha * we), np.exp(-alpha * wd), np.exp(-alpha * wb)
+    absorbed_e, absorbed_d, absorbed_b = -np.expm1(-alpha * we), -np.expm1(-alpha * wd), \
+        -np.expm1(-alpha * wb)
+    emitter_front = _collection(alpha, we, le, sf, de, lit_at_junction=False)
+    base_front = _collection(alpha, wb, lb, sb, db, lit_at_junction=True)
+    emitter = q * flux * emitter_front
+    depletion = q * flux * x * absorbed_d
+    base = q * flux * x * y * base_front
+    emitter_absorbed = q * flux * absorbed_e
+    base_absorbed = q * flux * x * y * absorbed_b
+    absorbed = q * flux * -np.expm1(-alpha * (we + wd + wb))
+    if np.any(back_flux != 0):
+        emitter_back = _collection(alpha, we, le, sf, de, lit_at_junction=True)
+        base_back = _collection(alpha, wb, lb, sb, db, lit_at_junction=False)
+        emitter = emitter + q * back_flux * z * y * emitter_back
+        depletion = depletion + q * back_flux * z * absorbed_d
+        base = base + q * back_flux * base_back
+        emitter_absorbed = emitter_absorbed + q * back_flux * z * y * absorbed_e
+        base_absorbed = base_absorbed + q * back_flux * absorbed_b
+        absorbed = absorbed + q * back_flux * -np.expm1(-alpha * (we + wd + wb))
+    arrays = np.broadcast_arrays(emitter, depletion, base, emitter_absorbed, base_absorbed, absorbed)
+    return CollectedPhotocurrent(*(np.array(a, dtype=float) for a in arrays))
+
+
+# --------------------------------------------------------------------------------------------
+# dark currents
+
+
+def region_saturation_current(thickness_m, *, doping_m3, intrinsic_density_m3, diffusion_length_m,
+                              diffusivity_m2_s, surface_srv_m_s, where="region"):
+    """Ideality-1 saturation current density [A/m^2] of one quasi-neutral region.
+
+    Parameters
+    ----------
+    thickness_m : array_like
+        Quasi-neutral thickness W [m], > 0.
+    doping_m3 : array_like
+        Net majority doping N of the region [m^-3] (1 cm^-3 = 1e6 m^-3), > 0.
+    intrinsic_density_m3 : array_like
+        Intrinsic carrier density ni [m^-3] at the cell temperature (effective, with any bandgap
+        narrowing), > 0.
+    diffusion_length_m : array_like
+        Minority-carrier diffusion length L [m], > 0 (inf allowed).
+    diffusivity_m2_s : array_like
+        Minority-carrier diffusion coefficient D [m^2/s], > 0.
+    surface_srv_m_s : array_like
+        Recombination velocity S of the outer surface [m/s], >= 0 (inf allowed).
+    where : str
+        Name for error messages.
+
+    Returns
+    -------
+    ndarray
+        J0 [A/m^2] (1 A/m^2 = 1e-4 A/cm^2), broadcast shape of the inputs.
+
+    Notes
+    -----
+    The textbook form (Sze & Ng ch. 2 and 13; Hovel ch. 2), with s = S L / D:
+
+        J0 = q ni^2 D / (N L) * (s cosh(W/L) + sinh(W/L)) / (s sinh(W/L) + cosh(W/L))
+
+    limits: W >> L: q ni^2 D / (N L); W << L and S = 0: q ni^2 D W / (N L^2); W << L and S = inf:
+    q ni^2 D / (N W); L = inf: q ni^2 S / (N (1 + S W / D)). Evaluated as
+
+        J0 = q ni^2 D / (N W) * (t C + (1-t) k^2 H) / ((1-t) C + t H)
+
+    with k = W/L, sigma = S W / D, t = sigma / (1 + sigma), C = (1 + exp(-2k))/2 and
+    H = (1 - exp(-2k)) / (2k) (scipy.special.exprel), which is finite for every S in [0, inf] and
+    every L in (0, inf].
+
+    References
+    ----------
+    W. Shockley, Bell Syst. Tech. J. 28 (1949) 435; S. M. Sze, K. K. Ng (2007), ch. 2; H. J. Hovel
+    (1975), ch. 2 (finite region with a recombining surface; from memory).
+    """
+    w = _checked("thickness_m", thickness_m, "m", where=where)
+    n_dop = _checked("doping_m3", doping_m3, "m^-3", where=where)
+    ni = _checked("intrinsic_density_m3", intrinsic_density_m3, "m^-3", where=where)
+    length = _checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
+    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
+    s = _checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    k = np.minimum(w / length, _LARGEST_RATIO)
+    t, one_minus_t = _surface_weights(s, w, d)
+    c = 0.5 * (1.0 + np.exp(-2.0 * k))
+    h = exprel(-2.0 * k)
+    ratio = (t * c + one_minus_t * k * (k * h)) / (one_minus_t * c + t * h)
+    return ELEMENTARY_CHARGE_C * ni * ni * d / (n_dop * w) * ratio
+
+
+def diffusion_saturation_current(*, intrinsic_density_m3, emitter_doping_m3, emitter_thickness_m,
+                                 emitter_diffusion_length_m, emitter_diffusivity_m2_s, front_srv_m_s,
+                                 base_doping_m3, base_thickness_m, base_diffusion_length_m,
+                                 base_diffusivity_m2_s, back_srv_m_s, where="subcell"):
+    """J01 of the emitter and the base from the diffusion solution [A/m^2].
+
+    Same layer parameters as :func:`collected_photocurrent` plus the two dopings [m^-3] and ni [m^-3]
+    (from the materials library at the cell temperature). See :func:`region_saturation_current` for
+    the equation; call it directly when the emitter and base have different ni (bandgap narrowing,
+    heterojunction).
+
+    Returns
+    -------
+    DiffusionSaturationCurrent
+        ``emitter_A_m2``, ``base_A_m2`` and the property ``total_A_m2``.
+
+    References
+    ----------
+    S. M. Sze, K. K. Ng (2007), ch. 2 and 13; H. J. Hovel (1975), ch. 2.
+    """
+    emitter = region_saturation_current(
+        emitter_thickness_m, doping_m3=emitter_doping_m3, intrinsic_density_m3=intrinsic_density_m3,
+        diffusion_length_m=emitter_diffusion_length_m, diffusivity_m2_s=emitter_diffusivity_m2_s,
+        surface_srv_m_s=front_srv_m_s, where=f"{where} emitter")
+    base = region_saturation_current(
+        base_thickness_m, doping_m3=base_doping_m3, intrinsic_density_m3=intrinsic_density_m3,
+        diffusion_length_m=base_diffusion_length_m, diffusivity_m2_s=base_diffusivity_m2_s,
+        surface_srv_m_s=back_srv_m_s, where=f"{where} base")
+    emitter, base = np.broadcast_arrays(emitter, base)
+    return DiffusionSaturationCurrent(np.array(emitter), np.array(base))
+
+
+def _abrupt(voltage_V, acceptor_density_m3, donor_density_m3, relative_permittivity,
+            intrinsic_density_m3, temperature_K, where):
+    """Validated abrupt-junction arrays and the count of points at or beyond the built-in voltage."""
+    v = _finite("voltage_V", voltage_V, "V", where=where)
+    na = _checked("acceptor_density_m3", acceptor_density_m3, "m^-3", where=where)
+    nd = _checked("donor_density_m3", donor_density_m3, "m^-3", where=where)
+    eps = _checked("relative_permittivity", relative_permittivity, "", where=where) \
+        * VACUUM_PERMITTIVITY_F_M
+    ni = _checked("intrinsic_density_m3", intrinsic_density_m3, "m^-3", where=where)
+    vt = thermal_voltage_V(_checked("temperature_K", temperature_K, "K", where=where))
+    built_in = vt * np.log(na * nd / (ni * ni))
+    drop = built_in - v
+    outside = ~(drop > 0)
+    drop = np.where(outside, np.nan, drop)
+    q = ELEMENTARY_CHARGE_C
+    width = np.sqrt(2.0 * eps * drop * (na + nd) / (q * na * nd))
+    xn = width * na / (na + nd)
+    xp = width * nd / (na + nd)
+    field = q * nd * xn / eps
+    arrays = np.broadcast_arrays(built_in, width, xn, xp, field)
+    junction = AbruptJunction(*(np.array(a, dtype=float) for a in arrays))
+    return junction, int(np.count_nonzero(outside)), (v, na, nd, eps, ni, vt)
+
+
+def _warn_nan(where, count, what):
+    if count:
+        warnings.warn(f"{where}: {count} point(s) {what}; set to NaN", CollectionDomainWarning,
+                      stacklevel=3)
+
+
+def abrupt_junction(voltage_V, *, acceptor_density_m3, donor_density_m3, relative_permittivity,
+                    intrinsic_density_m3, temperature_K, where="junction"):
+    """Depletion approximation of an abrupt p-n homojunction.
+
+    Parameters
+    ----------
+    voltage_V : array_like
+        Junction voltage V [V] (forward positive), < Vbi; points at or above Vbi are NaN (warned once).
+    acceptor_density_m3, donor_density_m3 : array_like
+        Dopings NA of the p side and ND of the n side [m^-3], > 0.
+    relative_permittivity : array_like
+        Static relative permittivity [-], > 0.
+    intrinsic_density_m3 : array_like
+        ni [m^-3], > 0.
+    temperature_K : array_like
+        Temperature [K], > 0.
+    where : str
+        Name for messages.
+
+    Returns
+    -------
+    AbruptJunction
+        Built-in voltage, total width and its n-side and p-side parts, peak field.
+
+    Notes
+    -----
+    Vbi = (kT/q) ln(NA ND / ni^2); W = sqrt(2 eps (Vbi - V) (NA + ND) / (q NA ND));
+    xn = W NA / (NA + ND), xp = W ND / (NA + ND); E_max = q ND xn / eps. Majority-carrier tails
+    (the -2kT/q correction) are neglected.
+
+    References
+    ----------
+    S. M. Sze, K. K. Ng (2007), ch. 2 (abrupt junction, depletion approximation).
+    """
+    junction, outside, _ = _abrupt(voltage_V, acceptor_density_m3, donor_density_m3,
+                                   relative_permittivity, intrinsic_density_m3, temperature_K, where)
+    _warn_nan(where, outside, "at or beyond the built-in voltage (no depletion region)")
+    return junction
+
+
+def _sech_integral(ratio):
+    """G(r) = integral over the real line of dy / (cosh y + r), r >= 0 (pi at r = 0, 2 at r = 1).
+
+    G = 4/(1 + r) * arctan(s)/s with s = sqrt((1 - r)/(1 + r)) for r < 1, and artanh(s)/s with
+    s = sqrt((r - 1)/(r + 1)) for r > 1 (integral tables, e.g. Gradshteyn-Ryzhik 2.451; from memory;
+    the tests check it with quad).
+    """
+    r = np.asarray(ratio, dtype=float)
+    s = np.sqrt(np.abs(1.0 - r) / (1.0 + r))
+    small = s < 1e-4
+    with np.errstate(divide="ignore", invalid="ignore"):
+        below = np.arctan(s) / s
+        above = np.arctanh(np.minimum(s, 1.0 - 1e-16)) / s
+    series_below = 1.0 - s * s / 3.0
+    series_above = 1.0 + s * s / 3.0
+    value = np.where(r < 1.0, np.where(small, series_below, below),
+                     np.where(small, series_above, above))
+    return 4.0 / (1.0 + r) * value
+
+
+def depletion_recombination_current(voltage_V, *, intrinsic_density_m3, electron_lifetime_s,
+                                    hole_lifetime_s, acceptor_density_m3, donor_density_m3,
+                                    relative_permittivity, temperature_K, where="subcell"):
+    """J02 and the depletion-region recombination current of an abrupt junction (ideality 2).
+
+    Parameters
+    ----------
+    voltage_V : array_like
+        Junction voltage [V], 0 <= V < Vbi (NaN outside, warned once). The effective width depends
+        on the field, hence on V: give the operating voltage that matters (near the maximum power
+        point). The full-width bound does not depend on the field.
+    intrinsic_density_m3 : array_like
+        ni [m^-3], > 0.
+    electron_lifetime_s, hole_lifetime_s : array_like
+        SRH lifetimes tau_n, tau_p of the midgap centres in the depletion region [s], > 0.
+    acceptor_density_m3, donor_density_m3 : array_like
+        NA of the p side, ND of the n side [m^-3], > 0.
+    relative_permittivity : array_like
+        Static relative permittivity [-], > 0.
+    temperature_K : array_like
+        Temperature [K], > 0.
+    where : str
+        Name for messages.
+
+    Returns
+    -------
+    DepletionRecombination
+        ``j02_A_m2`` (to use with exp(qV/2kT) - 1), ``current_A_m2`` at ``voltage_V``,
+        ``effective_width_m`` (pi kT/(q E*), capped at W), ``depletion_width_m``,
+        ``full_width_j02_A_m2``.
+
+    Notes
+    -----
+    Shockley-Read-Hall rate with a midgap centre and flat quasi-Fermi levels (n p = ni^2 e^v,
+    v = qV/kT): U = (n p - ni^2) / (tau_p (n + ni) + tau_n (p + ni)). It is largest where
+    tau_p n = tau_n p, where U_max ~ ni e^(v/2) / (2 sqrt(tau_n tau_p)); hence the full-width bound
+    J02 <= q ni W / (2 sqrt(tau_n tau_p)). Around the maximum the potential is nearly linear with
+    the local field E*; with y = (psi - psi*)/(kT/q) the rate is
+    U = ni (e^v - 1) / (A cosh y + B), A = 2 sqrt(tau_n tau_p) e^(v/2), B = tau_n + tau_p, and
+
+        J_rec = q (kT/q) / E* * ni (e^v - 1) G(B/A) / A,    G(r) = int dy / (cosh y + r)
+
+    which for qV >> kT (G -> pi) is J02 (e^(v/2) - e^(-v/2)) with
+
+        J02 = q ni W_eff / (2 sqrt(tau_n tau_p)),   W_eff = pi kT / (q E*)
+
+    (Sah, Noyce, Shockley 1957; Sze & Ng ch. 2). E* is the depletion-approximation field at the
+    potential psi* = [Vbi - V + (kT/q) ln(tau_n NA / (tau_p ND))] / 2 above the p edge (clipped to
+    the region). W_eff (and G kT/(q E*) in the current) is capped at W. The linear-field step is
+    the only approximation beyond the depletion approximation: its relative error is of order
+    (kT/q) / psi_min, psi_min the smaller of psi* and Vbi - V - psi* (about 5 % at
+    Vbi - V = 0.5 V for a symmetric junction; measured against the full SRH integral in the tests).
+
+    References
+    ----------
+    C.-T. Sah, R. N. Noyce, W. Shockley, Proc. IRE 45 (1957) 1228; S. M. Sze, K. K. Ng (2007),
+    ch. 2 (generation-recombination current; from memory).
+    """
+    junction, outside, (v, na, nd, eps, ni, vt) = _abrupt(
+        voltage_V, acceptor_density_m3, donor_density_m3, relative_permittivity,
+        intrinsic_density_m3, temperature_K, where)
+    tau_n = _checked("electron_lifetime_s", electron_lifetime_s, "s", where=where)
+    tau_p = _checked("hole_lifetime_s", hole_lifetime_s, "s", where=where)
+    _warn_nan(where, outside, "at or beyond the built-in voltage (no depletion region)")
+    q = ELEMENTARY_CHARGE_C
+    drop = junction.built_in_V - v
+    with np.errstate(invalid="ignore"):  # NaN where drop is NaN, already counted and warned
+        psi = np.clip(0.5 * (drop + vt * np.log(tau_n * na / (tau_p * nd))), 0.0, drop)
+        p_drop = drop * nd / (na + nd)
+        field = np.where(psi <= p_drop, np.sqrt(2.0 * q * na * psi / eps),
+                         np.sqrt(2.0 * q * nd * np.maximum(drop - psi, 0.0) / eps))
+    tau = np.sqrt(tau_n * tau_p)
+    with np.errstate(divide="ignore", over="ignore"):
+        scale = vt / field                           # kT/(q E*) [m]; inf where E* = 0
+        w_eff = np.minimum(np.pi * scale, junction.width_m)
+        half = np.exp(-0.5 * v / vt)                 # e^(-v/2): B/A = (tau_n + tau_p) e^(-v/2) / (2 tau)
+        g = _sech_integral((tau_n + tau_p) / (2.0 * tau) * half)
+        width_now = np.minimum(g * scale, junction.width_m)
+        current = q * ni * width_now / (2.0 * tau) * (np.exp(0.5 * v / vt) - half)
+    reverse = v < 0
+    _warn_nan(where, int(np.count_nonzero(reverse & ~np.isnan(drop))),
+              "in reverse bias (the recombination estimate is for V >= 0)")
+    current = np.where(reverse, np.nan, current)
+    j02 = q * ni * w_eff / (2.0 * tau)
+    bound = q * ni * junction.width_m / (2.0 * tau)
+    arrays = np.broadcast_arrays(j02, current, w_eff, junction.width_m, bound)
+    return DepletionRecombination(*(np.array(a, dtype=float) for a in arrays))
+
+
+def apply_radiative_floor(j01_A_m2, *, radiative_j0_A_m2):
+    """Raise J01 to the radiative limit where it falls below it.
+
+    Parameters
+    ----------
+    j01_A_m2 : array_like
+        J01 from the diffusion model [A/m^2], >= 0.
+    radiative_j0_A_m2 : array_like
+        Radiative saturation current J0,rad [A/m^2] of the same subcell (e.g.
+        :func:`siltandem.laws.radiative.radiative_saturation_current`), >= 0.
+
+    Returns
+    -------
+    RadiativeFloor
+        ``j01_A_m2`` = max(J01, J0,rad) and ``floored`` (bool) where J0,rad was used.
+
+    Notes
+    -----
+    A cell cannot recombine less than it must radiate (detailed balance: W. Shockley,
+    H. J. Queisser, J. Appl. Phys. 32 (1961) 510), so J01 >= J0,rad. The floor is a maximum, not a
+    sum: a lifetime from the materials library is taken to include radiative recombination.
+    """
+    j01 = _checked("j01_A_m2", j01_A_m2, "A/m^2", where="radiative floor", zero_ok=True)
+    rad = _checked("radiative_j0_A_m2", radiative_j0_A_m2, "A/m^2", where="radiative floor",
+                   zero_ok=True)
+    floored = rad > j01
+    value = np.where(floored, rad, j01)
+    value, floored = np.broadcast_arrays(value, floored)
+    return RadiativeFloor(np.array(value, dtype=float), np.array(floored, dtype=bool))

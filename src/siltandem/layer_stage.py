@@ -1,0 +1,343 @@
+"""Layer stacks into circuits, and light through their layers.
+
+``compile_layer_stack(stack)`` builds, from the recognised structure (compile_layers.py), one
+element per subcell, tunnel junction and isotype interface, in the order of the layer boundaries:
+
+* a **subcell** at layer-physics level: J01 from the minority-carrier diffusion solution of its
+  emitter and base (laws/collection.py), never below the radiative floor J0,rad(Eg); J02 from
+  depletion-region recombination (Sah-Noyce-Shockley); its photocurrent comes later, from the
+  optics stage;
+* a **tunnel junction** whose peak current is estimated from its two layers (Kane's band-to-band
+  tunnelling through the junction field, laws/esaki.py), unless its upper layer overrides it;
+* an **isotype interface** from its two materials (electron-affinity rule, laws/thermionic.py),
+  oriented by the stack's polarity.
+
+``illuminate_layers(circuit, spectrum)``: front reflectance (bare surface or the coating, by
+characteristic matrices), Beer-Lambert absorption in every layer (laws/thinfilm.py), each
+subcell's collected photocurrent from the light entering its emitter, and the photon budget.
+"""
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import units
+from .circuit import build_circuit
+from .compile_layers import carriers_flow, recognise
+from .elements import Subcell, TunnelJunction, batch
+from .errors import StackError
+from .laws import collection, esaki, thinfilm
+from .laws.radiative import radiative_saturation_current
+
+#: defaults of the layer compiler (common practice, no source; each can be given per layer)
+DEFAULT_SRV_CM_S = 1e4
+#: a tunnel junction's valley, when not given: peak-to-valley ratio and valley voltage offset
+DEFAULT_PEAK_TO_VALLEY = 10.0
+DEFAULT_VALLEY_OFFSET_V = 0.3
+
+
+@dataclass(frozen=True)
+class SubcellModel:
+    """What the optics stage needs of one subcell (SI)."""
+
+    name: str
+    emitter: int
+    base: int
+    emitter_thickness_m: float
+    base_thickness_m: float
+    depletion_width_m: float
+    emitter_length_m: float
+    emitter_diffusivity_m2_s: float
+    base_length_m: float
+    base_diffusivity_m2_s: float
+    front_srv_m_s: float
+    back_srv_m_s: float
+
+
+@dataclass(frozen=True)
+class LayerModel:
+    layers: tuple
+    materials: tuple
+    coatings: tuple
+    subcells: tuple
+    temperature_K: float
+    notes: list = field(default_factory=list)
+    back_reflectance: float = 0.0
+    ambient_index: float = 1.0
+
+
+def _material(layer):
+    from .materials import load_material
+
+    return load_material(layer.material, layer.composition)
+
+
+def _minority(layer, material, temperature_K, *, file, role):
+    """Minority-carrier diffusion length [m] and diffusivity [m^2/s] of an active layer."""
+    mobility = (material.hole_mobility_m2_V_s if layer.polarity == "n"
+                else material.electron_mobility_m2_V_s)
+    if not np.isfinite(mobility) or mobility <= 0:
+        raise StackError(f"the library has no minority-carrier mobility for {material.name}",
+                         file=file, where=layer.label,
+                         fix="give diffusion_length_um for this layer")
+    diffusivity = collection.einstein_diffusivity(mobility, temperature_K=temperature_K)
+    if layer.diffusion_length_um is not None:
+        return layer.diffusion_length_um * units.UM_TO_M, float(diffusivity)
+    if layer.lifetime_ns is not None:
+        length = collection.diffusion_length(layer.lifetime_ns * 1e-9, diffusivity_m2_s=diffusivity)
+        return float(length), float(diffusivity)
+    raise StackError(f"the {role} of a subcell needs its minority-carrier diffusion length or "
+                     "lifetime", file=file, where=layer.label,
+                     fix="add diffusion_length_um = <um> or lifetime_ns = <ns>")
+
+
+def _subcell(cell, layers, materials, temperature_K, file, name):
+    emitter, base = layers[cell.emitter], layers[cell.base]
+    material = materials[cell.emitter]
+    ni = float(material.intrinsic_density_per_m3(temperature_K))
+    n_side, p_side = (emitter, base) if emitter.polarity == "n" else (base, emitter)
+    donor = n_side.doping_cm3 * units.PER_CM3_TO_PER_M3
+    acceptor = p_side.doping_cm3 * units.PER_CM3_TO_PER_M3
+    junction = collection.abrupt_junction(0.0, acceptor_density_m3=acceptor,
+                                          donor_density_m3=donor,
+                                          relative_permittivity=material.relative_permittivity,
+                                          intrinsic_density_m3=ni, temperature_K=temperature_K,
+                                          where=name)
+    x_emitter = float(junction.n_side_width_m if emitter.polarity == "n" else junction.p_side_width_m)
+    x_base = float(junction.p_side_width_m if emitter.polarity == "n" else junction.n_side_width_m)
+    emitter_qn = emitter.thickness_nm * 1e-9 - x_emitter
+    base_qn = base.thickness_nm * 1e-9 - x_base
+    for layer, left in ((emitter, emitter_qn), (base, base_qn)):
+        if left <= 0:
+            raise StackError(f"{layer.label} is thinner than its share of the junction's "
+                             f"depletion region ({(layer.thickness_nm * 1e-9 - left) * 1e9:.0f} "
+                             "nm)", file=file, where=layer.label,
+                             fix="make the layer thicker or dope the other side of the junction "
+                                 "less")
+    l_e, d_e = _minority(emitter, material, temperature_K, file=file, role="emitter")
+    l_b, d_b = _minority(base, material, temperature_K, file=file, role="base")
+    srv_e = (emitter.srv_cm_s if emitter.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
+    srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
+    emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
+    base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
+    dark = collection.diffusion_saturation_current(
+        intrinsic_density_m3=ni, emitter_doping_m3=emitter_doping, emitter_thickness_m=emitter_qn,
+        emitter_diffusion_length_m=l_e, emitter_diffusivity_m2_s=d_e, front_srv_m_s=srv_e,
+        base_doping_m3=base_doping, base_thickness_m=base_qn, base_diffusion_length_m=l_b,
+        base_diffusivity_m2_s=d_b, back_srv_m_s=srv_b, where=name)
+    gap = float(material.gap_eV(temperature_K))
+    floor = float(radiative_saturation_current(gap, temperature_K=temperature_K))
+    j01 = max(float(dark.total_A_m2), floor)
+    tau_e, tau_b = l_e**2 / d_e, l_b**2 / d_b
+    tau_n, tau_p = (tau_b, tau_e) if emitter.polarity == "n" else (tau_e, tau_b)
+    # J02 at a junction voltage near the operating point (about Eg - 0.4 V, common practice)
+    vbi = float(junction.built_in_V)
+    operating = float(np.clip(gap - 0.4, 0.0, 0.9 * vbi))
+    recombination = collection.depletion_recombination_current(
+        operating, intrinsic_density_m3=ni, electron_lifetime_s=tau_n, hole_lifetime_s=tau_p,
+        acceptor_density_m3=acceptor, donor_density_m3=donor,
+        relative_permittivity=material.relative_permittivity, temperature_K=temperature_K,
+        where=name)
+    element = Subcell(name, batch(gap), j02_A_m2=batch(float(recombination.j02_A_m2)),
+                      j01_fixed_A_m2=batch(j01))
+    model = SubcellModel(name, cell.emitter, cell.base, emitter_qn, base_qn,
+                         float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b)
+    return element, model, {"j01_diffusion_A_m2": float(dark.total_A_m2),
+                            "j01_radiative_floor_A_m2": floor, "floor_applied": j01 == floor}
+
+
+def _tunnel_mass(material):
+    """Conduction-band tunnelling mass [m0]: the density-of-states mass per valley."""
+    valleys = {"Gamma": 1, "X": 6, "L": 4}.get(material.lowest_valley_300K, 1)
+    return material.electron_dos_mass_ratio / valleys ** (2.0 / 3.0)
+
+
+def _tunnel(index, layers, materials, temperature_K, file):
+    upper, lower = layers[index], layers[index + 1]
+    n_i, p_i = (index, index + 1) if upper.polarity == "n" else (index + 1, index)
+    n_layer, p_layer = layers[n_i], layers[p_i]
+    n_mat, p_mat = materials[n_i], materials[p_i]
+    name = f"tunnel junction {upper.name} / {lower.name}"
+    given = upper.tunnel or {}
+    hetero = not (n_mat.name == p_mat.name and n_layer.composition == p_layer.composition)
+    if "peak_mA_cm2" in given:
+        peak_a_m2 = units.a_m2(given["peak_mA_cm2"])
+        peak_v = given.get("peak_V", 0.1)
+        source = "given"
+    else:
+        try:
+            estimate = esaki.estimate_peak_current(
+                n_gap_eV=n_mat.gap_eV(temperature_K), p_gap_eV=p_mat.gap_eV(temperature_K),
+                n_doping_m3=n_layer.doping_cm3 * units.PER_CM3_TO_PER_M3,
+                p_doping_m3=p_layer.doping_cm3 * units.PER_CM3_TO_PER_M3,
+                n_electron_mass=_tunnel_mass(n_mat), p_light_hole_mass=p_mat.light_hole_mass_ratio,
+                n_relative_permittivity=n_mat.relative_permittivity,
+                p_relative_permittivity=p_mat.relative_permittivity,
+                n_conduction_states_m3=n_mat.conduction_dos_per_m3(temperature_K),
+                p_valence_states_m3=p_mat.valence_dos_per_m3(temperature_K),
+                temperature_K=temperature_K,
+                n_affinity_eV=n_mat.electron_affinity_eV if hetero else None,
+                p_affinity_eV=p_mat.electron_affinity_eV if hetero else None)
+        except ValueError as exc:
+            raise StackError(f"cannot estimate the tunnel junction's peak current: {exc}",
+                             file=file, where=f"{upper.label} / {lower.label}",
+                             fix="dope both layers more heavily, or give tunnel_peak_mA_cm2 and "
+                                 "tunnel_peak_V on the upper layer") from None
+        peak_a_m2 = float(estimate.peak_A_m2)
+        peak_v = float(given.get("peak_V", estimate.peak_V))
+        source = "estimated (Kane band-to-band tunnelling)"
+    valley_a_m2 = units.a_m2(given["valley_mA_cm2"]) if "valley_mA_cm2" in given \
+        else peak_a_m2 / DEFAULT_PEAK_TO_VALLEY
+    valley_v = given.get("valley_V", peak_v + DEFAULT_VALLEY_OFFSET_V)
+    if not valley_v > peak_v or not valley_a_m2 < peak_a_m2:
+        raise StackError("tunnel junction: the valley must come after the peak and below it",
+                         file=file, where=upper.label,
+                         fix="set tunnel_valley_V above tunnel_peak_V and tunnel_valley_mA_cm2 "
+                             "below tunnel_peak_mA_cm2")
+    element = TunnelJunction(name, batch(peak_a_m2), batch(peak_v), batch(valley_a_m2),
+                             batch(valley_v))
+    return element, {"name": name, "peak_source": source, "hetero": hetero,
+                     "layers": [upper.name, lower.name]}
+
+
+def _isotype(index, layers, materials, polarity, temperature_K, file):
+    from .compile import _isotype_from_materials
+    from .stack import ElementSpec
+
+    upper, lower = layers[index], layers[index + 1]
+    values = {"upper_material": upper.material, "lower_material": lower.material,
+              "upper_doping_cm3": upper.doping_cm3, "lower_doping_cm3": lower.doping_cm3,
+              "carrier": "electron" if upper.polarity == "n" else "hole",
+              "carriers_flow": carriers_flow(upper.polarity, polarity)}
+    if upper.composition is not None:
+        values["upper_composition"] = upper.composition
+    if lower.composition is not None:
+        values["lower_composition"] = lower.composition
+    if upper.offset_eV is not None:
+        values["offset_eV"] = upper.offset_eV
+    spec = ElementSpec(upper.index, "isotype", f"interface {upper.name} / {lower.name}", 1, values)
+    return _isotype_from_materials(spec, temperature_K, file)
+
+
+def _cell_name(cell, layers, used):
+    emitter, base = layers[cell.emitter].name, layers[cell.base].name
+    if emitter.endswith(" emitter") and base.endswith(" base") and \
+            emitter[:-8] == base[:-5] and emitter[:-8] not in used:
+        return emitter[:-8]
+    name = f"{layers[cell.emitter].material} cell"
+    k = 2
+    while name in used:
+        name = f"{layers[cell.emitter].material} cell {k}"
+        k += 1
+    return name
+
+
+def compile_layer_stack(stack):
+    """Layer stack -> Circuit with a LayerModel for the optics stage."""
+    file = stack.source
+    temperature = stack.conditions.temperature_K
+    layers = stack.layers
+    structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
+    materials = tuple(_material(layer) for layer in layers)
+    elements, cell_models, notes, used = [], [], list(structure.notes), set()
+    details = {"subcells": {}, "tunnels": []}
+    for kind, info in structure.parts:
+        if kind == "subcell":
+            name = _cell_name(info["cell"], layers, used)
+            used.add(name)
+            element, model, extra = _subcell(info["cell"], layers, materials, temperature, file,
+                                             name)
+            elements.append(element)
+            cell_models.append(model)
+            details["subcells"][name] = extra
+        elif kind == "tunnel":
+            element, extra = _tunnel(info["upper"], layers, materials, temperature, file)
+            elements.append(element)
+            details["tunnels"].append(extra)
+        else:
+            elements.append(_isotype(info["upper"], layers, materials, structure.polarity,
+                                     temperature, file))
+    model = LayerModel(layers, materials, stack.coatings, tuple(cell_models), temperature, notes,
+                       stack.rules.get("back_reflectance", 0.0),
+                       stack.rules.get("ambient_index", 1.0))
+    circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
+    return circuit.with_elements([], optics={"layer_details": details,
+                                             "polarity": structure.polarity})
+
+
+def illuminate_layers(circuit, spectrum):
+    """Light through the layers; photocurrents set, the photon budget in ``circuit.optics``."""
+    model = circuit.model
+    wavelength = spectrum.wavelength_nm
+    flux = spectrum.photon_flux
+    temperature = model.temperature_K
+    alphas = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
+              for m in model.materials]
+    thicknesses = [layer.thickness_nm * 1e-9 for layer in model.layers]
+    top = model.materials[0]
+    substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(wavelength),
+                                       alpha_per_m=alphas[0])
+    coatings = model.coatings
+    response = thinfilm.coating_response(
+        wavelength, substrate_index=substrate,
+        coating_indices=[c.refractive_index + 1j * c.extinction for c in coatings],
+        coating_thicknesses_nm=[c.thickness_nm for c in coatings],
+        ambient_index=model.ambient_index)
+    reflectance = np.asarray(response.reflectance, dtype=float)
+    transmittance = np.asarray(response.transmittance, dtype=float)
+    coating_absorbed = np.asarray(response.absorptance, dtype=float).reshape(len(coatings), -1) \
+        if coatings else np.zeros((0, wavelength.size))
+    # light returning from inside sees the front surface as reflecting as much as from outside
+    # (a lossless coating reflects alike from both sides: H. A. Macleod, Thin-Film Optical
+    # Filters, ch. 2)
+    budget = thinfilm.layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
+                                       front_reflectance=1.0 - transmittance,
+                                       back_reflectance=model.back_reflectance,
+                                       front_internal_reflectance=reflectance
+                                       if model.back_reflectance > 0 else 0.0)
+
+    def current(per_nm):
+        """q * integral of a photon flux per nm over the table [A/m^2]."""
+        return float(thinfilm.photon_current_A_m2(wavelength, per_nm))
+
+    lit, absorbed, collected_by = [], {}, {}
+    active = set()
+    for cell in model.subcells:
+        active.update({cell.emitter, cell.base})
+        alpha = alphas[cell.emitter]
+        result = collection.collected_photocurrent(
+            alpha, photon_flux_m2_s=budget.downward_at_top[cell.emitter],
+            emitter_thickness_m=cell.emitter_thickness_m,
+            emitter_diffusion_length_m=cell.emitter_length_m,
+            emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
+            front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
+            base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
+            base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
+            back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], where=cell.name)
+        total = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
+        photocurrent = float(np.trapezoid(total, wavelength))
+        absorbed[cell.name] = current(budget.absorbed[cell.emitter]
+                                                            + budget.absorbed[cell.base])
+        collected_by[cell.name] = {
+            "emitter_mA_cm2": units.ma_cm2(float(np.trapezoid(result.emitter_A_m2, wavelength))),
+            "depletion_mA_cm2": units.ma_cm2(float(np.trapezoid(result.depletion_A_m2,
+                                                                wavelength))),
+            "base_mA_cm2": units.ma_cm2(float(np.trapezoid(result.base_A_m2, wavelength)))}
+        lit.append(circuit.element(cell.name).with_photocurrent(photocurrent))
+    incident = current(flux)
+    reflected = current(reflectance * flux + budget.escaped)
+    transmitted = current(budget.transmitted)
+    parasitic = {}
+    for k, coating in enumerate(coatings):
+        parasitic[f"coating {coating.name}"] = current(
+            coating_absorbed[k] * flux)
+    for j, layer in enumerate(model.layers):
+        if j not in active:
+            parasitic[layer.name] = current(budget.absorbed[j])
+    closure = incident - reflected - transmitted - sum(parasitic.values()) - sum(absorbed.values())
+    optics = dict(circuit.optics)
+    optics.update({
+        "incident_A_m2": incident, "reflected_A_m2": reflected,
+        "transmitted_A_m2": transmitted, "parasitic_A_m2": parasitic,
+        "absorbed_A_m2": absorbed, "collected_A_m2": collected_by,
+        "budget_error_relative": abs(closure) / incident, "spectrum": spectrum})
+    return circuit.with_elements(lit, optics=optics)
