@@ -66,7 +66,13 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
         if upper.polarity != lower.polarity:
             degenerate = (upper.doping_cm3 >= tunnel_doping_cm3
                           and lower.doping_cm3 >= tunnel_doping_cm3)
-            if degenerate and i not in used_by_tunnel:
+            if degenerate and i in used_by_tunnel:
+                raise StackError(f"{layers[i - 1].label}, {upper.label} and {lower.label} are "
+                                 "three degenerate layers of alternating type: two tunnel "
+                                 "junctions share a layer", file=file, where=upper.label,
+                                 fix="a tunnel junction is one n++/p++ pair: remove a layer or "
+                                     "lower its doping")
+            if degenerate:
                 boundary_kind[i] = "tunnel"
                 used_by_tunnel.update({i, i + 1})
             else:
@@ -104,9 +110,29 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
                                         "and one material, e.g. n-GaAs on p-GaAs")
     polarities = {c.polarity for c in subcells}
     if len(polarities) > 1:
+        # a junction of the other polarity next to a tunnel junction: the tunnel junction is in
+        # the wrong order for its neighbours
+        for cell in subcells:
+            for neighbour in (cell.emitter - 1, cell.base):
+                if boundary_kind.get(neighbour) == "tunnel" and min(
+                        layers[cell.emitter].doping_cm3, layers[cell.base].doping_cm3) < \
+                        tunnel_doping_cm3 <= max(layers[cell.emitter].doping_cm3,
+                                                 layers[cell.base].doping_cm3):
+                    upper, lower = layers[neighbour], layers[neighbour + 1]
+                    raise StackError(
+                        f"tunnel junction {upper.label} / {lower.label} "
+                        f"({upper.polarity}++/{lower.polarity}++ from the sun side) is in the "
+                        "wrong order for its neighbours: with them it forms a junction that "
+                        "blocks the stack's current", file=file,
+                        where=f"{upper.label} / {lower.label}",
+                        fix="swap the two layers of the tunnel junction")
         names = ", ".join(f"{c.name}: {c.polarity}" for c in subcells)
-        raise StackError(f"subcells of opposite polarity ({names}): their currents oppose",
-                         file=file, fix="make every subcell n-on-p, or every subcell p-on-n")
+        raise StackError(f"subcells of opposite polarity ({names}): their currents oppose; "
+                         "where no tunnel junction joins two cells, the layers between them form "
+                         "a junction of the other polarity", file=file,
+                         fix="make every subcell n-on-p (or every one p-on-n) and join them with "
+                             "a tunnel junction: two layers doped at or above "
+                             f"{tunnel_doping_cm3:g} cm^-3")
     polarity = polarities.pop()
     # between consecutive subcells: exactly one tunnel junction of the right order
     order = [(kind, info) for kind, info in parts if kind in ("subcell", "tunnel")]

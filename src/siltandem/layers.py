@@ -30,7 +30,7 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0}
-_DOPING = re.compile(r"^\s*([np])\s*:\s*([0-9.eE+-]+)\s*$")
+_DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
 
 
 @dataclass(frozen=True)
@@ -121,8 +121,9 @@ def parse_doping(text, *, file, where):
         raise StackError(f"doping must be text like \"n:2e18\", got {text!r}", file=file,
                          where=where, fix=fix)
     match = _DOPING.match(text)
-    if not match:
-        raise StackError(f"doping {text!r} is not understood", file=file, where=where, fix=fix)
+    if not match or match.group(1) not in ("n", "p"):
+        raise StackError(f"doping {text!r} is not understood (the type before the colon must be "
+                         "n or p)", file=file, where=where, fix=fix)
     try:
         value = float(match.group(2))
     except ValueError:

@@ -310,6 +310,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         "parasitic": [{"layer": name, "absorbed_mA_cm2": units.ma_cm2(value)}
                       for name, value in circuit.optics.get("parasitic_A_m2", {}).items()],
         "photons": _photons(circuit),
+        **{key: value for key, value in _photons(circuit).items()
+           if key in ("incident_mA_cm2", "reflected_mA_cm2", "transmitted_mA_cm2")},
         "power_balance_error_W_m2": balance,
         "warnings": warnings_,
         "cautions": cautions,
