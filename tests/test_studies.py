@@ -161,3 +161,43 @@ def test_match_and_map_commands(tmp_path):
     assert pd.read_parquet(tmp_path / "g.parquet").shape == frame.shape
     bad = cli("map", stack, "--vary", "top.gap_eV=1.6:1.9:7")
     assert bad.returncode == 2 and "map takes two --vary" in bad.stderr
+
+
+def test_layer_thickness_matching(tmp_path):
+    # current matching over a layer key: the matched thickness balances the two photocurrents
+    # (each design is compiled on its own: its optics and layer physics change)
+    from siltandem.studies.sweep import photocurrents_at
+    from test_layer_stacks import HEAD, layer
+
+    text = HEAD + (layer("top emitter", "GaAsP", 80, "n:2e18", composition=0.23,
+                         diffusion_length_um=0.4)
+                   + layer("top base", "GaAsP", 1000, "p:1e17", composition=0.23,
+                           diffusion_length_um=3.0)
+                   + layer("tp", "GaAsP", 25, "p:8e19", composition=0.23)
+                   + layer("tn", "GaAsP", 25, "n:2e19", composition=0.23)
+                   + layer("buffer", "GaP", 100, "n:1e18")
+                   + layer("bottom emitter", "Si", 400, "n:5e18", diffusion_length_um=3.0)
+                   + layer("bottom base", "Si", 180000, "p:1e16", diffusion_length_um=600))
+    path = tmp_path / "dual.toml"
+    path.write_text(text + "\n[optics]\nback_reflectance = 0.9\n")
+    stack = load_stack(path)
+    variation = parse_vary("top base.thickness_nm=400:2000:3", stack)
+    table, matches = match_currents(stack, variation, progress=False)
+    (match,) = matches
+    currents = photocurrents_at(stack, variation.column, match["value"])
+    assert currents["top"] == pytest.approx(currents["bottom"], rel=1e-9)
+    assert 400 < match["value"] < 2000
+    assert table["top.photocurrent_mA_cm2"].is_monotonic_increasing
+
+
+@pytest.mark.parametrize("text, message", [
+    ("nope.thickness_nm=1:2:3", "no layer named 'nope'"),
+    ("top base.colour=1:2:3", "has no numeric key 'colour'"),
+    ("top base.thickness_nm=-5:2:3", "is outside"),
+])
+def test_bad_layer_vary(text, message):
+    from pathlib import Path
+
+    stack = load_stack(Path(__file__).resolve().parents[1] / "stacks" / "demo_dual_layers.toml")
+    with pytest.raises(StackError, match=message):
+        parse_vary(text, stack)

@@ -23,6 +23,11 @@ from ..stack import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, _check_range
 RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
 #: isotype keys a study may vary (the explicit form of the law)
 ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
+#: layer keys a study may vary, with their units and ranges (a layer stack's designs are solved
+#: one by one: each changes the optics and the layer physics)
+LAYER_VARIABLE = {"thickness_nm": ("nm", 0.0, 2e6), "doping_cm3": ("cm-3", 1e10, 1e21),
+                  "composition": ("", 0.0, 1.0), "diffusion_length_um": ("um", 0.0, 1e5),
+                  "lifetime_ns": ("ns", 0.0, 1e9), "srv_cm_s": ("cm/s", 0.0, 1e8)}
 
 
 @dataclass(frozen=True)
@@ -56,6 +61,8 @@ def parse_vary(text, stack):
     if not 2 <= count <= 1_000_000:
         raise StackError(f"--vary {text!r}: N = {count} must be 2..1000000", where="--vary",
                          fix=fix)
+    if stack.layers:
+        return _parse_layer_vary(text, stack, element, key, start, stop, count)
     specs = {e.name: e for e in stack.elements}
     if element not in specs:
         names = ", ".join(repr(n) for n in specs) or "none (a layer stack: not yet)"
@@ -73,6 +80,52 @@ def parse_vary(text, stack):
     for value in (start, stop):
         _check_range(allowed[key], value, file=None, where=f"--vary {text}")
     return Variation(element, key, values)
+
+
+def _parse_layer_vary(text, stack, name, key, start, stop, count):
+    layers = {layer.name: layer for layer in stack.layers}
+    if name not in layers:
+        raise StackError(f"--vary {text!r}: no layer named {name!r}", where="--vary",
+                         fix="the stack's layers are " + ", ".join(repr(n) for n in layers))
+    if key not in LAYER_VARIABLE:
+        raise StackError(f"--vary {text!r}: layer {name!r} has no numeric key {key!r}",
+                         where="--vary", fix="vary one of " + ", ".join(LAYER_VARIABLE))
+    unit, low, high = LAYER_VARIABLE[key]
+    for value in (start, stop):
+        if not low < value <= high and not (key in ("composition", "srv_cm_s") and value == low):
+            raise StackError(f"--vary {text!r}: {key} = {value:g} is outside ({low:g}, {high:g}] "
+                             f"{unit}", where="--vary", fix=f"give {key} within its range")
+    return Variation(name, key, np.linspace(start, stop, count))
+
+
+def _layer_design(stack, values):
+    """The layer stack with some layer keys replaced (one design)."""
+    changed = []
+    for layer in stack.layers:
+        updates = {}
+        for column, value in values.items():
+            name, _, key = column.rpartition(".")
+            if name == layer.name:
+                key = "doping_cm3" if key == "doping_cm3" else key
+                updates[key] = float(value)
+                if key == "diffusion_length_um":
+                    updates["lifetime_ns"] = None
+                if key == "lifetime_ns":
+                    updates["diffusion_length_um"] = None
+        changed.append(replace(layer, **updates) if updates else layer)
+    return replace(stack, layers=tuple(changed))
+
+
+def _solve_layer_designs(stack, columns, **options):
+    """Layer stacks: every design compiled and solved on its own (its optics differ)."""
+    size = max(np.size(v) for v in columns.values())
+    rows = []
+    for k in range(size):
+        design = _layer_design(stack, {c: np.asarray(v).reshape(-1)[k] for c, v in
+                                       columns.items()})
+        rows.append(solve_designs(design, {}, **options))
+    keys = rows[0].keys()
+    return {key: np.concatenate([np.asarray(r[key]).reshape(-1) for r in rows]) for key in keys}
 
 
 def design_table(variations, *, grid=True):
@@ -108,6 +161,9 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     Returns a dict of (B,) arrays: the RESULT_COLUMNS, ``<subcell>.photocurrent_mA_cm2`` for
     every subcell, ``limiting_subcell`` and ``regime``.
     """
+    if stack.layers and columns:
+        return _solve_layer_designs(stack, columns, spectrum=spectrum, suns=suns,
+                                    temperature_K=temperature_K)
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
@@ -172,6 +228,9 @@ def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperat
                                  ("temperature_K", temperature_K)) if v is not None}
     conditions = replace(conditions, **changes)
     light = _spectrum(conditions.spectrum, conditions.suns, stack.folder)
-    varied = replace(_with_values(stack, {column: np.array([value])}), conditions=conditions)
+    if stack.layers:
+        varied = replace(_layer_design(stack, {column: value}), conditions=conditions)
+    else:
+        varied = replace(_with_values(stack, {column: np.array([value])}), conditions=conditions)
     circuit = illuminate(compile_stack(varied), light)
     return {c.name: float(units.ma_cm2(c.photocurrent_A_m2[0, 0])) for c in circuit.subcells}
