@@ -158,3 +158,55 @@ def run_map(args):
                                else str(best[k])) for k in table.columns if k != "design"}}
     _write_outputs(args, table, summary, figure)
     return 0
+
+
+def add_losses_command(commands):
+    losses = commands.add_parser(
+        "losses", help="loss waterfall from the detailed-balance limit down to the stack",
+        description="From the detailed-balance limit of the same gaps (each subcell at its own "
+                    "MPP) down to the stack's efficiency, one step per loss, each computed by "
+                    "removing that loss and solving again; the steps add up to the total.")
+    losses.add_argument("stack", help="stack file (.toml)")
+    losses.add_argument("--plot", metavar="PATH.png|svg", help="draw the waterfall")
+    losses.add_argument("--json", metavar="PATH", help="write the waterfall as JSON ('-' stdout)")
+    losses.add_argument("--csv", metavar="PATH.csv", help="write the steps as CSV")
+    losses.add_argument("--spectrum", help="override the stack's spectrum")
+    losses.add_argument("--suns", type=float, help="override the concentration")
+    losses.add_argument("--temperature", type=float, metavar="K", help="override the temperature")
+
+
+def run_losses(args):
+    import pandas as pd
+
+    from .stack import load_stack
+    from .studies.losses import loss_waterfall, plot_waterfall
+
+    args.parquet = None
+    _check_paths_simple(args)
+    stack = load_stack(args.stack)
+    if stack.conditions.terminals != 2:
+        raise StackError("the loss waterfall is for two-terminal stacks", file=stack.source,
+                         where="key conditions.terminals", fix="set terminals = 2")
+    waterfall = loss_waterfall(stack, spectrum=args.spectrum, suns=args.suns,
+                               temperature_K=args.temperature)
+    print(f"siltandem — loss waterfall of {stack.name}")
+    print(f"  limit {waterfall['limit_pct']:8.3f} %   ({waterfall['limit_definition']})")
+    for step in waterfall["steps"]:
+        print(f"  - {step['loss_pct_abs']:7.3f} %   {step['loss']:<40} -> "
+              f"{step['efficiency_after_pct']:.3f} %")
+    print(f"  stack {waterfall['efficiency_pct']:8.3f} %   (the steps add up to "
+          f"{waterfall['limit_pct'] - waterfall['efficiency_pct']:.3f} %, rounding "
+          f"{waterfall['check_pct']:.1e})")
+    figure = None
+    if args.plot:
+        figure = plot_waterfall(waterfall).figure
+    _write_outputs(args, pd.DataFrame(waterfall["steps"]), waterfall, figure)
+    return 0
+
+
+def _check_paths_simple(args):
+    for option, path, allowed in (("--csv", args.csv, {".csv"}),
+                                  ("--plot", args.plot, {".png", ".svg", ".pdf"})):
+        if path is not None and Path(path).suffix.lower() not in allowed:
+            raise StackError(f"{option} {path}: unsupported file type", where=option,
+                             fix=f"give a path ending in {' or '.join(sorted(allowed))}")

@@ -1,0 +1,186 @@
+"""Loss waterfall: from the detailed-balance limit of the same gaps down to the stack's efficiency.
+
+Each step is computed by removing that one loss and solving again, cumulatively, so the steps add
+up exactly to the total. Starting from the stack as it is, the losses are removed in this order
+(the reverse of the waterfall read from the top):
+
+1. series resistance (resistor elements, subcells' own series resistance);
+2. each tunnel junction;
+3. each isotype interface;
+4. non-radiative recombination: every subcell radiative (J01 = J0,rad of a full absorber, no
+   J02, no shunt, no breakdown);
+5. current mismatch: each subcell at its own maximum power point (independent wiring) instead of
+   one series current;
+6. incomplete absorption (and, in a layer stack, incomplete collection): each subcell absorbs
+   every photon above its gap that reaches it (a full step absorber in its place);
+7. parasitic absorption: the layers that are not a subcell's emitter or base, and the coating,
+   become transparent (layer stacks);
+8. front reflection removed (layer stacks).
+
+What is left is the detailed-balance limit of the same gaps with each subcell at its own MPP
+(A. De Vos, J. Phys. D 13 (1980) 839; W. Shockley, H. J. Queisser, J. Appl. Phys. 32 (1961) 510).
+Element stacks have no optics layers: their steps 7 and 8 are zero.
+"""
+from dataclasses import replace
+
+import numpy as np
+
+from ..constants import HC_EV_NM
+from ..elements import Subcell, batch
+from ..laws.optics import step_absorber_photocurrents
+from ..result import run_stack
+from ..solve import solve_string
+
+
+def _power(string, temperature_K):
+    return float(solve_string(string, temperature_K).mpp_W_m2[0])
+
+
+def _independent(subcells, temperature_K):
+    return sum(float(solve_string([c], temperature_K).mpp_W_m2[0]) for c in subcells)
+
+
+def _radiative(cell, photocurrent):
+    return Subcell(cell.name, cell.gap_eV, string=cell.string).with_photocurrent(photocurrent)
+
+
+def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True):
+    """Full step absorbers in the layers' optical environment, walked from the sun side down.
+
+    The flux enters after front reflection (unless ``reflection`` is False), is attenuated by every
+    passive layer (unless ``passive`` is False), and each subcell absorbs every photon above its
+    gap that reaches its emitter.
+    """
+    from ..laws import thinfilm
+
+    model = circuit.model
+    wavelength, flux = spectrum.wavelength_nm, spectrum.photon_flux.copy()
+    temperature = model.temperature_K
+    if reflection:
+        top = model.materials[0]
+        alpha0 = top.absorption_per_m(wavelength, temperature_K=temperature)
+        substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(
+            wavelength), alpha_per_m=alpha0)
+        response = thinfilm.coating_response(
+            wavelength, substrate_index=substrate,
+            coating_indices=[c.refractive_index + 1j * c.extinction for c in model.coatings],
+            coating_thicknesses_nm=[c.thickness_nm for c in model.coatings],
+            ambient_index=model.ambient_index)
+        flux = flux * (response.transmittance if passive else 1.0 - response.reflectance)
+    emitters = {cell.emitter: cell for cell in model.subcells}
+    active = {i for cell in model.subcells for i in (cell.emitter, cell.base)}
+    currents = {}
+    energy = HC_EV_NM / wavelength
+    for j, (layer, material) in enumerate(zip(model.layers, model.materials)):
+        if j in emitters:
+            cell = emitters[j]
+            gap = float(circuit.element(cell.name).gap_eV[0, 0])
+            above = energy >= gap
+            currents[cell.name] = float(thinfilm.photon_current_A_m2(wavelength, flux * above))
+            flux = flux * ~above
+        elif j not in active and passive:
+            alpha = material.absorption_per_m(wavelength, temperature_K=temperature)
+            flux = flux * np.exp(-alpha * layer.thickness_nm * 1e-9)
+    return currents
+
+
+def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
+    """The waterfall as a list of steps, top (the limit) to bottom (the stack).
+
+    Returns
+    -------
+    dict
+        ``limit_pct`` (detailed balance of the same gaps, each subcell at its own MPP),
+        ``efficiency_pct`` (the stack), ``steps``: [{``loss``, ``loss_pct_abs``,
+        ``efficiency_after_pct``}] in waterfall order, and ``check_pct`` (limit minus the sum of
+        the steps minus the stack: zero to rounding).
+    """
+    result = run_stack(stack, spectrum=spectrum, suns=suns, temperature_K=temperature_K,
+                       curve_points=60)
+    circuit = result.circuit
+    conditions = result.summary["conditions"]
+    temperature = conditions["temperature_K"]
+    irradiance = conditions["irradiance_W_m2"]
+    light = circuit.optics["spectrum"]
+    if len(circuit.strings) != 1:
+        raise ValueError("the loss waterfall is for two-terminal stacks")
+    string = list(circuit.strings[0])
+    efficiency = [100 * _power(string, temperature) / irradiance]
+    names = []
+
+    def record(label, value):
+        names.append(label)
+        efficiency.append(100 * value / irradiance)
+
+    # 1. series resistance
+    string = [e for e in string if e.kind != "resistor"]
+    string = [replace(e, series_ohm_m2=batch(0.0)) if e.kind == "subcell" else e for e in string]
+    record("series resistance", _power(string, temperature))
+    # 2, 3. each tunnel junction, then each isotype interface
+    for kind, label in (("tunnel", "tunnel junction"), ("isotype", "isotype interface")):
+        for element in [e for e in string if e.kind == kind]:
+            string = [e for e in string if e is not element]
+            text = element.name if label.split()[-1] in element.name else \
+                f"{label} {element.name}"
+            record(text, _power(string, temperature))
+    # 4. non-radiative recombination
+    subcells = [_radiative(c, c.photocurrent_A_m2) for c in string]
+    string = subcells
+    record("non-radiative recombination", _power(string, temperature))
+    # 5. current mismatch
+    record("current mismatch", _independent(subcells, temperature))
+    # 6-8. optics
+    if circuit.model is not None:
+        steps = (("incomplete absorption and collection", dict(passive=True, reflection=True)),
+                 ("parasitic absorption", dict(passive=False, reflection=True)),
+                 ("front reflection", dict(passive=False, reflection=False)))
+        for label, options in steps:
+            currents = _walk_photocurrents(circuit, light, **options)
+            subcells = [_radiative(c, currents[c.name]) for c in subcells]
+            record(label, _independent(subcells, temperature))
+    else:
+        gaps = [c.gap_eV for c in subcells]
+        full = step_absorber_photocurrents(gaps, [1.0] * len(gaps), light.wavelength_nm,
+                                           light.photon_flux)
+        subcells = [_radiative(c, j) for c, j in zip(subcells, full)]
+        record("incomplete absorption", _independent(subcells, temperature))
+        record("parasitic absorption", efficiency[-1] * irradiance / 100)
+        record("front reflection", efficiency[-1] * irradiance / 100)
+    limit = efficiency[-1]
+    steps = []
+    for k in range(len(names) - 1, -1, -1):
+        steps.append({"loss": names[k], "loss_pct_abs": efficiency[k + 1] - efficiency[k],
+                      "efficiency_after_pct": efficiency[k]})
+    check = limit - sum(s["loss_pct_abs"] for s in steps) - efficiency[0]
+    return {"stack": stack.name, "limit_pct": limit, "efficiency_pct": efficiency[0],
+            "steps": steps, "check_pct": check,
+            "limit_definition": "detailed-balance limit of the same gaps, each subcell at its own "
+                                "maximum power point, under the same spectrum"}
+
+
+def plot_waterfall(waterfall, ax=None):
+    """Bars falling from the limit to the stack's efficiency, one per loss."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    import matplotlib.pyplot as plt
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(9, 4.8))
+    labels = ["limit"] + [s["loss"] for s in waterfall["steps"]] + ["stack"]
+    level = waterfall["limit_pct"]
+    ax.bar(0, level, color="0.35")
+    for k, step in enumerate(waterfall["steps"], start=1):
+        loss = step["loss_pct_abs"]
+        ax.bar(k, -loss, bottom=level, color="tab:red" if loss > 0 else "tab:green")
+        if abs(loss) > 0.005:
+            ax.text(k, level + 0.2, f"{loss:.2f}", ha="center", fontsize=7)
+        level -= loss
+    ax.bar(len(labels) - 1, waterfall["efficiency_pct"], color="tab:blue")
+    ax.set_xticks(range(len(labels)))
+    ax.set_xticklabels(labels, rotation=35, ha="right", fontsize=8)
+    ax.set_ylabel("efficiency (%)")
+    ax.set_title(f"{waterfall['stack']}: {waterfall['limit_pct']:.2f} % limit to "
+                 f"{waterfall['efficiency_pct']:.2f} %", fontsize=10)
+    ax.grid(alpha=0.3, axis="y")
+    return ax
