@@ -67,7 +67,7 @@ def _parser():
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
     face.add_argument("--temperature", type=_positive, metavar="K", help="cell temperature")
     face.add_argument("--points", type=int, default=21, help="rows of the printed J-V")
-    from .cli_studies import add_losses_command, add_study_options
+    from .cli_studies import add_losses_command, add_placements_command, add_study_options
 
     match = commands.add_parser(
         "match", help="photocurrents and efficiency against one key; the current-matched value",
@@ -84,6 +84,7 @@ def _parser():
     design.add_argument("--column", default="efficiency_pct",
                         help="the output column to map (default efficiency_pct)")
     add_losses_command(commands)
+    add_placements_command(commands)
     library = commands.add_parser(
         "materials", help="list the materials library, or one material's properties",
         description="Without NAME: the materials in the library. With NAME (and --composition "
@@ -280,6 +281,10 @@ def main(argv=None):
             return _interface(args)
         if args.command == "materials":
             return _materials(args)
+        if args.command == "placements":
+            from .cli_studies import run_placements
+
+            return run_placements(args)
         if args.command == "losses":
             from .cli_studies import run_losses
 

@@ -210,3 +210,58 @@ def _check_paths_simple(args):
         if path is not None and Path(path).suffix.lower() not in allowed:
             raise StackError(f"{option} {path}: unsupported file type", where=option,
                              fix=f"give a path ending in {' or '.join(sorted(allowed))}")
+
+
+def add_placements_command(commands):
+    placements = commands.add_parser(
+        "placements", help="rank tunnel-junction placements declared in a layer stack",
+        description="Compile and solve each [[placement]] candidate (a named set of layers "
+                    "inserted at a named position); rank them by efficiency with every "
+                    "interface's and junction's penalty. --auto tries the first candidate's "
+                    "layer pair at every boundary where it fits.")
+    placements.add_argument("stack", help="layer stack file (.toml) with [[placement]] tables")
+    placements.add_argument("--auto", action="store_true",
+                            help="try the first candidate's pair at every sensible position")
+    for option, meta, text in (("--csv", "PATH.csv", "write the ranked table as CSV"),
+                               ("--parquet", "PATH.parquet", "write it as Parquet"),
+                               ("--plot", "PATH.png|svg", "draw the comparison"),
+                               ("--json", "PATH", "write the ranking as JSON ('-' stdout)"),
+                               ("--out", "FOLDER", "chunk files, resumable"),
+                               ("--cluster", "ADDRESS", "a dask.distributed scheduler"),
+                               ("--spectrum", None, "override the spectrum")):
+        placements.add_argument(option, metavar=meta, help=text)
+    placements.add_argument("--workers", type=int, help="local worker processes")
+    placements.add_argument("--suns", type=float, help="override the concentration")
+    placements.add_argument("--temperature", type=float, metavar="K", help="cell temperature")
+    placements.add_argument("--quiet", action="store_true", help="no progress line")
+
+
+def run_placements(args):
+    from .stack import load_stack
+    from .studies.placements import plot_placements, rank_placements
+
+    _check_paths(args)
+    stack = load_stack(args.stack)
+    if not stack.layers:
+        raise StackError("placements are declared in layer stacks", file=stack.source,
+                         fix="write the stack as [[layer]] tables with [[placement]] candidates")
+    table = rank_placements(stack, auto=args.auto, **_options(args))
+    print(f"siltandem — tunnel-junction placements of {stack.name}")
+    print("")
+    print(f"  {'rank':>4}  {'placement':<40} {'efficiency %':>12} {'Voc V':>8} {'FF %':>6} "
+          f"{'junctions %':>11} {'interfaces %':>12}  limiting")
+    for _, row in table.iterrows():
+        if not np.isfinite(row["efficiency_pct"]):
+            print(f"  {row['rank']:>4}  {row['placement']:<40} {'-':>12}  {row['problem']}")
+            continue
+        print(f"  {row['rank']:>4}  {row['placement']:<40} {row['efficiency_pct']:12.3f} "
+              f"{row['voc_V']:8.4f} {100 * row['fill_factor']:6.2f} "
+              f"{row['tunnel_penalty_pct_abs']:11.3f} {row['interface_penalty_pct_abs']:12.3f}  "
+              f"{row['limiting_subcell']}")
+    print("  (junctions / interfaces: efficiency regained by removing them, % absolute)")
+    figure = None
+    if args.plot:
+        figure = plot_placements(table, title=f"{stack.name}: placements")[0].figure
+    summary = {"stack": stack.name, "ranking": json.loads(table.to_json(orient="records"))}
+    _write_outputs(args, table, summary, figure)
+    return 0

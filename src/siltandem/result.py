@@ -139,6 +139,14 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     curve_points : int
         Points of the traced light I-V per string.
     """
+    placement_note = None
+    if stack.extra.get("placements"):
+        from .placements_spec import with_placement
+
+        first = stack.extra["placements"][0]
+        stack = with_placement(stack, first)
+        placement_note = (f"solved with the first declared placement, {first.name!r}; "
+                          "`siltandem placements` ranks them all")
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
@@ -161,6 +169,8 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
                 without[element.name] = _first(solve_string(rest, temperature).mpp_W_m2) \
                     - _first(solution.mpp_W_m2)
     summary = _summarise(stack, conditions, light, circuit, solutions, alone, without)
+    if placement_note:
+        summary["warnings"].insert(0, placement_note)
     return Result(summary, _curve_table(circuit, solutions), circuit, solutions)
 
 

@@ -113,7 +113,8 @@ COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
                   "terminals": 2}
-TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules", "optics"}
+TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules", "optics",
+                  "placement"}
 
 
 @dataclass(frozen=True)
@@ -437,9 +438,13 @@ def parse_stack(document, *, file=None, folder=None):
         if conditions.terminals != 2:
             raise StackError("layer stacks are two-terminal in this version", file=file,
                              where="key conditions.terminals", fix="set terminals = 2")
+        from .placements_spec import parse_placements
+
+        placements = parse_placements(document.get("placement", []), layers, file=file)
         return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
-                     None if folder is None else str(folder), coatings=coatings, rules=rules)
-    for key in ("coating", "rules", "optics"):
+                     None if folder is None else str(folder), coatings=coatings, rules=rules,
+                     extra={"placements": placements} if placements else {})
+    for key in ("coating", "rules", "optics", "placement"):
         if key in document:
             raise StackError(f"[{key}] goes with [[layer]] stacks", file=file, where=f"key {key}",
                              fix=f"remove [{key}] or describe the stack by its layers")

@@ -1,0 +1,151 @@
+"""Ranking tunnel-junction placements: each candidate compiled, solved and compared.
+
+A layer stack declares its candidates as ``[[placement]]`` tables (placements_spec.py): a named set
+of layers inserted at a named position. ``auto=True`` instead takes the first candidate's junction
+layer pair and tries it at every boundary where the pair's order fits its neighbours (the upper
+neighbour of the pair's type, the lower of the other), made of the material as given, of the upper
+neighbour's material, of the lower neighbour's material, and as a hetero pair of the two.
+"""
+from dataclasses import replace
+import functools
+
+import numpy as np
+
+from ..errors import StackError
+from ..parallel import run_chunks
+from ..placements_spec import Placement, with_placement
+
+
+def auto_candidates(stack):
+    """The first placement's pair at every sensible position, in four material versions."""
+    placements = stack.extra.get("placements", ())
+    if not placements:
+        raise StackError("--auto needs one [[placement]] giving the junction's layer pair",
+                         file=stack.source, fix="add a [[placement]] with two [[placement.layer]]")
+    pair = placements[0].layers
+    if len(pair) != 2 or pair[0].polarity == pair[1].polarity:
+        raise StackError("--auto takes the first placement's two layers as the junction pair "
+                         "(opposite types)", file=stack.source, where="placement 1",
+                         fix="give exactly two layers, p++ and n++, in their order from the sun")
+    candidates = []
+    layers = stack.layers
+    for i in range(len(layers) - 1):
+        upper, lower = layers[i], layers[i + 1]
+        if upper.polarity != pair[0].polarity or lower.polarity != pair[1].polarity:
+            continue
+        versions = {
+            "as given": (pair[0], pair[1]),
+            f"in {upper.material}": (replace(pair[0], material=upper.material,
+                                             composition=upper.composition),
+                                     replace(pair[1], material=upper.material,
+                                             composition=upper.composition)),
+            f"in {lower.material}": (replace(pair[0], material=lower.material,
+                                             composition=lower.composition),
+                                     replace(pair[1], material=lower.material,
+                                             composition=lower.composition)),
+            f"hetero {upper.material}/{lower.material}": (
+                replace(pair[0], material=upper.material, composition=upper.composition),
+                replace(pair[1], material=lower.material, composition=lower.composition)),
+        }
+        seen = set()
+        for label, (a, b) in versions.items():
+            key = (a.material, a.composition, b.material, b.composition)
+            if key in seen:
+                continue
+            seen.add(key)
+            candidates.append(Placement(f"after {upper.name}, {label}", i, (a, b)))
+    if not candidates:
+        raise StackError(f"no boundary where a {pair[0].polarity}++/{pair[1].polarity}++ pair "
+                         "fits its neighbours", file=stack.source,
+                         fix="check the pair's order against the stack's polarity")
+    return tuple(candidates)
+
+
+def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
+                        temperature_K=None):
+    """Chunk function: solve each candidate (one row per candidate index in ``design``)."""
+    from ..result import run_stack
+
+    rows = []
+    for design in chunk["design"].to_numpy():
+        placement = candidates[int(design)]
+        row = {"design": int(design), "placement": placement.name}
+        try:
+            result = run_stack(with_placement(stack, placement), spectrum=spectrum, suns=suns,
+                               temperature_K=temperature_K, curve_points=60)
+        except StackError as exc:
+            row.update({"efficiency_pct": np.nan, "problem": exc.problem})
+            rows.append(row)
+            continue
+        s = result.summary
+        row.update({"efficiency_pct": s["efficiency_pct"], "voc_V": s["voc_V"],
+                    "jsc_mA_cm2": s["jsc_mA_cm2"], "fill_factor": s["fill_factor"],
+                    "limiting_subcell": next(c["name"] for c in s["subcells"] if c["limiting"]),
+                    "regime": s["regime"], "problem": ""})
+        inserted = {layer.name for layer in placement.layers}
+        row["inserted_parasitic_mA_cm2"] = sum(p["absorbed_mA_cm2"] for p in s["parasitic"]
+                                               if p["layer"] in inserted)
+        for element in s["elements"]:
+            if element["kind"] in ("tunnel", "isotype"):
+                row[f"penalty:{element['name']}"] = element["efficiency_penalty_pct_abs"]
+        row["tunnel_penalty_pct_abs"] = sum(e["efficiency_penalty_pct_abs"] for e in s["elements"]
+                                            if e["kind"] == "tunnel")
+        row["interface_penalty_pct_abs"] = sum(e["efficiency_penalty_pct_abs"]
+                                               for e in s["elements"] if e["kind"] == "isotype")
+        rows.append(row)
+    import pandas as pd
+
+    return pd.DataFrame(rows)
+
+
+def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=None,
+                    progress=True, spectrum=None, suns=None, temperature_K=None):
+    """Every candidate solved; a DataFrame ranked by efficiency (best first, rank column)."""
+    import pandas as pd
+
+    candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
+    if not candidates:
+        raise StackError("the stack declares no [[placement]] candidates", file=stack.source,
+                         fix="add [[placement]] tables, or use --auto with one of them")
+    table = pd.DataFrame({"design": np.arange(len(candidates), dtype=np.int64)})
+    function = functools.partial(evaluate_candidates, stack=stack, candidates=candidates,
+                                 spectrum=spectrum, suns=suns, temperature_K=temperature_K)
+    result = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
+                        progress=progress, chunk_rows=1 if (workers or cluster) else None)
+    result = result.sort_values("efficiency_pct", ascending=False, na_position="last")
+    result.insert(0, "rank", np.arange(1, len(result) + 1))
+    return result.reset_index(drop=True)
+
+
+def plot_placements(table, axes=None, *, title=""):
+    """Side by side: each candidate's efficiency, and its junction and interface penalties."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    import matplotlib.pyplot as plt
+
+    if axes is None:
+        _, axes = plt.subplots(1, 2, figsize=(12, 0.6 * len(table) + 2.5))
+    left, right = axes
+    names = table["placement"].tolist()[::-1]
+    y = np.arange(len(names))
+    left.barh(y, table["efficiency_pct"].to_numpy()[::-1], color="tab:blue")
+    left.set_yticks(y)
+    left.set_yticklabels(names, fontsize=8)
+    left.set_xlabel("efficiency (%)")
+    left.set_title(title or "placements, best on top", fontsize=10)
+    finite = table["efficiency_pct"].dropna()
+    if len(finite):
+        left.set_xlim(max(0, finite.min() - 2), finite.max() + 1)
+    tunnel = table.get("tunnel_penalty_pct_abs", 0 * y).to_numpy()[::-1]
+    interface = table.get("interface_penalty_pct_abs", 0 * y).to_numpy()[::-1]
+    right.barh(y, tunnel, color="tab:orange", label="tunnel junctions")
+    right.barh(y, interface, left=np.nan_to_num(tunnel), color="tab:red",
+               label="isotype interfaces")
+    right.set_yticks(y)
+    right.set_yticklabels([])
+    right.set_xlabel("efficiency penalty (% absolute)")
+    right.legend(fontsize=8)
+    for ax in axes:
+        ax.grid(alpha=0.3, axis="x")
+    return axes
