@@ -201,3 +201,18 @@ def test_bad_layer_vary(text, message):
     stack = load_stack(Path(__file__).resolve().parents[1] / "stacks" / "demo_dual_layers.toml")
     with pytest.raises(StackError, match=message):
         parse_vary(text, stack)
+
+
+def test_map_on_a_dask_cluster_equals_the_local_run(dual):
+    # issue 6: a real dask.distributed LocalCluster on loopback gives the local run's table
+    distributed = pytest.importorskip("distributed")
+    gap = parse_vary("top.gap_eV=1.6:1.9:6", dual)
+    absorptance = parse_vary("top.absorptance=0.8:1.0:4", dual)
+    local = design_map(dual, gap, absorptance, progress=False, chunk_rows=6)
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  host="127.0.0.1", dashboard_address=None) as cluster:
+        remote = design_map(dual, gap, absorptance, progress=False, chunk_rows=6,
+                            cluster=cluster.scheduler_address)
+    pd.testing.assert_frame_equal(local[["design", "efficiency_pct", "voc_V", "jsc_mA_cm2"]],
+                                  remote[["design", "efficiency_pct", "voc_V", "jsc_mA_cm2"]],
+                                  check_exact=True)
