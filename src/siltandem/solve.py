@@ -26,7 +26,7 @@ import numpy as np
 
 from .elements import take_rows
 from .constants import thermal_voltage_V
-from .numerics import bracketed_root
+from .numerics import bracketed_root, safeguarded_newton
 
 #: forward end of a traced curve: the pilot carries this fraction of its photocurrent backwards
 FORWARD_CURRENT_FRACTION = -0.3
@@ -373,14 +373,21 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     def terminal(t):
         return _finite_or(string.evaluate(t)["voltage"], -1e3)
 
+    def terminal_and_slope(t, level=0.0):
+        e = string.evaluate(t, slopes=True)
+        finite = np.isfinite(e["voltage"]) & np.isfinite(e["dvoltage"])
+        return (np.where(finite, e["voltage"] - level, -1e3),
+                np.where(finite, e["dvoltage"], 1.0))
+
     reaches_peak = np.zeros(jph.shape[0], dtype=bool)
     if string.tunnels:
         reaches_peak = (terminal(t_low) > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
-    t_sc = bracketed_root(terminal, t_low, t_voc)
+    # V rises strictly with t and its slope is analytic: safeguarded Newton, a few evaluations
+    t_sc = safeguarded_newton(terminal_and_slope, t_low, t_voc)
     at_sc = string.evaluate(t_sc)
     jsc = at_sc["current"]
     if curve_points:
-        t_floor = bracketed_root(lambda t: terminal(t) - v_floor, t_low, t_voc)
+        t_floor = safeguarded_newton(lambda t: terminal_and_slope(t, v_floor), t_low, t_voc)
         t_floor = np.where(np.isfinite(t_floor), t_floor,
                            np.where(np.isfinite(t_sc), t_sc, t_low))
 

@@ -20,10 +20,10 @@ single-diode equation with series and shunt resistance).
 J. W. Bishop, Solar Cells 25 (1988) 73 (reverse-bias breakdown term).
 """
 import numpy as np
-from scipy.optimize import elementwise
 from scipy.special import wrightomega
 
 from ..constants import thermal_voltage_V
+from ..numerics import safeguarded_newton
 
 #: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
 BREAKDOWN_EXPONENT = 3.28
@@ -152,7 +152,7 @@ def junction_voltage(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
 
 
 def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, exponent):
-    """Vj(J) by Chandrupatla's bracketed root find (scipy.optimize.elementwise.find_root)."""
+    """Vj(J) by a safeguarded Newton root find on the bracket (the law's own derivative)."""
     vt = thermal_voltage_V(temperature)
     surplus = jph - current
     saturation = j01 + j02
@@ -173,19 +173,17 @@ def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, expo
         lower[no_shunt] = 2.0 * vt[no_shunt] * np.log(np.maximum(1.0 - ratio, 1e-300)) - 1.0
     out = np.full(current.shape, -np.inf)
     if np.any(reachable):
-        def residual(v, jph_, j01_, j02_, g_, t_, vbr_, a_, m_, j_):
-            value, _ = junction_current(v, photocurrent_A_m2=jph_, j01_A_m2=j01_, j02_A_m2=j02_,
-                                        shunt_S_m2=g_, temperature_K=t_, breakdown_V=vbr_,
-                                        breakdown_factor=a_, breakdown_exponent=m_)
-            return value - j_
-
         r = reachable
-        result = elementwise.find_root(
-            residual, (lower[r], upper[r]),
-            args=(jph[r], j01[r], j02[r], g[r], temperature[r], vbr[r], factor[r],
-                  exponent[r], current[r]),
-            tolerances=dict(xatol=1e-13, xrtol=4 * np.finfo(float).eps))
-        out[r] = np.where(result.success, result.x, np.nan)
+        params = dict(photocurrent_A_m2=jph[r], j01_A_m2=j01[r], j02_A_m2=j02[r],
+                      shunt_S_m2=g[r], temperature_K=temperature[r], breakdown_V=vbr[r],
+                      breakdown_factor=factor[r], breakdown_exponent=exponent[r])
+        target = current[r]
+
+        def residual(v):
+            value, slope = junction_current(v, **params)
+            return value - target, slope
+
+        out[r] = safeguarded_newton(residual, lower[r], upper[r])
     return out
 
 
@@ -213,10 +211,9 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
         current, slope = junction_current(voltage, **junction)
         return current, slope
 
-    def residual(vj, v, r, *values):
-        kwargs = dict(zip(junction, values))
-        j, _ = junction_current(vj, **kwargs)
-        return vj - r * j - v
+    def residual(vj):
+        j, slope = junction_current(vj, **junction)
+        return vj - rs * j - voltage, 1.0 - rs * slope
 
     # exact bracket: the root Vj* = V + Rs J(Vj*) lies between V and V + Rs J(V), because J
     # falls with Vj (if J(V) >= 0 then V <= Vj* <= V + Rs J(V), and the reverse if J(V) < 0)
@@ -227,9 +224,7 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
     vbr = junction.get("breakdown_V")
     if vbr is not None:
         lo = np.maximum(lo, np.where(np.isfinite(vbr), vbr * (1 - 1e-12), -np.inf))
-    result = elementwise.find_root(residual, (lo, hi), args=(voltage, rs, *junction.values()),
-                                   tolerances=dict(xatol=1e-13, xrtol=4 * np.finfo(float).eps))
-    vj = np.where(result.success, result.x, np.nan)
+    vj = safeguarded_newton(residual, lo, hi)
     current, slope_j = junction_current(vj, **junction)
     slope = slope_j / (1.0 - rs * slope_j)
     return current, slope
