@@ -74,31 +74,44 @@ def safeguarded_newton(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_it
     a, b = a.copy(), b.copy()
     fa, _ = function(a)
     fb, _ = function(b)
-    valid = np.isfinite(fa) & np.isfinite(fb) & (np.sign(fa) * np.sign(fb) <= 0)
+    fa, fb = np.asarray(fa, dtype=float), np.asarray(fb, dtype=float)
+    # an end where the function overflows (+-inf) still brackets by its sign
+    valid = ~np.isnan(fa) & ~np.isnan(fb) & (np.sign(fa) * np.sign(fb) <= 0)
     # orient so that f(a) <= 0 <= f(b)
     swap = fa > 0
     a, b = np.where(swap, b, a), np.where(swap, a, b)
     x = 0.5 * (a + b)
     x = np.where(fa == 0, np.where(swap, b, a), x)
     done = ~valid
+    previous_step = np.abs(b - a)
     for _ in range(max_iterations):
         f, df = function(x)
-        f = np.where(np.isfinite(f), f, np.nan)
+        f = np.asarray(f, dtype=float)
+        # an overflowed value still has a sign (+-inf): it moves the bracket like any other;
+        # only NaN says nothing
         negative = f < 0
         a = np.where(negative & ~done, x, a)
         b = np.where((f > 0) & ~done, x, b)
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             step = f / df
         newton = x - step
         low, high = np.minimum(a, b), np.maximum(a, b)
-        bad = ~np.isfinite(newton) | (newton <= low) | (newton >= high)
+        # bisect when Newton leaves the bracket or does not at least halve the step before last
+        # (W. H. Press et al., Numerical Recipes, 3rd ed., 'rtsafe'): creeping steps far from
+        # the root (a huge exponential) cannot stall the search
+        slow = np.abs(step) > 0.5 * previous_step
+        bad = ~np.isfinite(newton) | (newton <= low) | (newton >= high) | slow
         new_x = np.where(bad, 0.5 * (a + b), newton)
+        previous_step = np.where(done, previous_step, np.abs(new_x - x))
         # every design stops on its own: a converged entry is frozen, so a result never
         # depends on which other designs share its batch
-        converged = ((np.abs(new_x - x) <= xtol + rtol * np.abs(x)) | (f == 0)
-                     | ~np.isfinite(f))
+        lost = np.isnan(f)
+        converged = ((np.isfinite(f) & (np.abs(new_x - x) <= xtol + rtol * np.abs(x)))
+                     | (f == 0) | (np.abs(high - low) <= xtol + rtol * np.abs(x)))
         x = np.where(done | (f == 0), x, new_x)
-        done = done | converged
+        valid = valid & ~(lost & ~done)
+        done = done | converged | lost
         if np.all(done):
             break
-    return np.where(valid, x, np.nan)
+    # an entry still moving after max_iterations is not an answer: NaN, never a made-up number
+    return np.where(valid & done, x, np.nan)
