@@ -278,7 +278,11 @@ class TunnelJunction:
             j, slope = self.junction_current(u, temperature_K)
             return j - target, slope
 
-        u = safeguarded_newton(clamped, lo, hi)
+        # first guess on the tunnel branch: the zero-bias resistance Vp/(e Jp) of the law
+        start = None
+        if branch == "tunnel":
+            start = target * np.broadcast_to(self.peak_V / (np.e * self.peak_A_m2), shape)
+        u = safeguarded_newton(clamped, lo, hi, start=start)
         ends = np.where(np.abs(clamped(lo)[0]) <= np.abs(clamped(hi)[0]), lo, hi)
         u = np.where(np.isfinite(u), u, ends)
         return np.where(inside, u, np.nan)

@@ -62,10 +62,12 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
     return np.where(valid, root, np.nan)
 
 
-def safeguarded_newton(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=100):
+def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4e-16,
+                       max_iterations=100):
     """Roots of an elementwise function with known derivative, inside brackets, on whole arrays.
 
-    ``function(x) -> (f, df/dx)``. Newton steps, replaced by bisection whenever a step leaves the
+    ``function(x) -> (f, df/dx)``. ``start`` (optional) is a first guess inside the bracket (a
+    close one saves most iterations). Newton steps, replaced by bisection whenever a step leaves the
     current bracket; the bracket shrinks around the sign change at every iteration, so the method
     cannot diverge (as in W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4, 'rtsafe').
     NaN where the bracket held no sign change.
@@ -81,6 +83,10 @@ def safeguarded_newton(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_it
     swap = fa > 0
     a, b = np.where(swap, b, a), np.where(swap, a, b)
     x = 0.5 * (a + b)
+    if start is not None:
+        guess = np.broadcast_to(np.asarray(start, dtype=float), x.shape)
+        inside = np.isfinite(guess) & (guess > np.minimum(a, b)) & (guess < np.maximum(a, b))
+        x = np.where(inside, guess, x)
     x = np.where(fa == 0, np.where(swap, b, a), x)
     done = ~valid
     previous_step = np.abs(b - a)

@@ -186,7 +186,11 @@ def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, expo
             value, slope = junction_current(v, **params)
             return value - target, slope
 
-        out[r] = safeguarded_newton(residual, lower[r], upper[r])
+        # first guess: the one-diode closed form (J02 and breakdown left out), usually within a
+        # few kT/q of the root
+        guess = _single_diode_voltage(target, photocurrent_A_m2=jph[r], j01_A_m2=j01[r] + j02[r],
+                                      shunt_S_m2=g[r], vt=vt[r])
+        out[r] = safeguarded_newton(residual, lower[r], upper[r], start=guess)
     return out
 
 
