@@ -375,8 +375,18 @@ class IsotypeInterface:
         j_law, slope = self.law_current(-s * np.asarray(voltage_V, dtype=float), temperature_K)
         return s * j_law, -slope
 
+    def current_cap(self, temperature_K):
+        """Largest stack current the law can carry [A/m^2]: the flat-band current when driven
+        forward (just inside the law's domain), unbounded when driven in reverse."""
+        from .constants import thermal_voltage_V
+
+        edge = self.built_in_V - (1.0 + 1e-6 if self.include_tail else 1e-6) * \
+            thermal_voltage_V(temperature_K)
+        j, _ = self.law_current(edge, temperature_K)
+        return np.where(self.direction > 0, j, np.inf)
+
     def current_limit(self, temperature_K):
-        return np.full_like(self.barrier_eV, np.inf)
+        return self.current_cap(temperature_K)
 
 
 ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction,

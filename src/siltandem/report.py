@@ -75,7 +75,8 @@ def text_summary(result):
                  "solved again)")
     if s.get("interfaces"):
         lines.append("")
-        lines.append("  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV)")
+        lines.append("  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV or "
+                     "penalty above 1 %)")
         rows = [[("! " if r["blocking"] else "  ") + r["name"], r["carrier"],
                  f"{r['barrier_eV']:.3f}", f"{r['offset_eV']:.3f}", f"{r['alpha']:.3g}",
                  r["bias"], f"{1000 * r['drop_at_mpp_V']:.1f}", f"{r['loss_W_m2']:.3f}",

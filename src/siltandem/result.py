@@ -153,7 +153,8 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     conditions = replace(conditions, **changes)
     relative_to = None if spectrum is not None else stack.folder
     light = get_spectrum(conditions.spectrum, suns=conditions.suns, relative_to=relative_to,
-                         where="spectrum" if spectrum is not None else "key conditions.spectrum")
+                         where="spectrum" if spectrum is not None else "key conditions.spectrum",
+                         origin=None if spectrum is not None else stack.source)
     circuit = compile_stack(replace(stack, conditions=conditions))
     circuit = illuminate(circuit, light)
     temperature = conditions.temperature_K
@@ -176,6 +177,8 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
 
 #: an isotype interface dropping more than this at the MPP is flagged as blocking [V]
 BLOCKING_DROP_V = 0.1
+#: ... and so is one whose removal would regain more than this [% absolute]
+BLOCKING_PENALTY_PCT = 1.0
 
 
 def _summarise(stack, conditions, light, circuit, solutions, alone, without):
@@ -195,6 +198,12 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         if solution.failed[0]:
             warnings_.append(f"string {number}: no operating point found; its numbers are "
                              "missing (null)")
+        if solution.capped is not None and solution.capped[0]:
+            names = ", ".join(repr(e.name) for e in string if e.kind == "isotype")
+            warnings_.append(f"string {number}: the current is capped at an isotype interface's "
+                             f"flat-band current ({names}): the law has no voltage beyond it, so "
+                             "the curve stops above zero volts and there is no Jsc (null); the "
+                             "MPP sits at the cap and is an upper bound of this model")
         j_mpp = _first(solution.mpp_A_m2)
         string_rows.append({
             "string": number, "elements": [e.name for e in string],
@@ -253,18 +262,29 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                     "bias": "forward" if _first(element.direction) > 0 else "reverse",
                     "drop_at_mpp_V": -v, "loss_W_m2": loss,
                     "efficiency_penalty_pct_abs": extra["efficiency_penalty_pct_abs"],
-                    "blocking": bool(-v > BLOCKING_DROP_V)})
-                if -v > BLOCKING_DROP_V or not np.isfinite(v):
+                    "blocking": bool(-v > BLOCKING_DROP_V or extra["efficiency_penalty_pct_abs"]
+                                     > BLOCKING_PENALTY_PCT)})
+                if not np.isfinite(v):
+                    warnings_.append(f"isotype interface {element.name!r} blocks: no operating "
+                                     "point through it (its barrier stops the current, or the "
+                                     "current asked of it is beyond its flat-band current)")
+                elif -v > BLOCKING_DROP_V or extra["efficiency_penalty_pct_abs"] > \
+                        BLOCKING_PENALTY_PCT:
+                    penalty = extra["efficiency_penalty_pct_abs"]
+                    cost = (f"costs {penalty:.2f} % absolute" if np.isfinite(penalty)
+                            else "the stack without it found no operating point either")
                     warnings_.append(f"isotype interface {element.name!r} blocks: it drops "
-                                     f"{-v * 1000:.0f} mV at the MPP and costs "
-                                     f"{extra['efficiency_penalty_pct_abs']:.2f} % absolute")
+                                     f"{-v * 1000:.0f} mV at the MPP; {cost}")
             element_rows.append({
                 "name": element.name, "kind": element.kind, "string": number,
                 "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
                     _first(solution.voltage_at_zero_current_V[element.name]),
                 "power_W_m2": delivered, "loss_W_m2": loss,
                 "loss_pct_abs": 100 * loss / irradiance, **extra})
-    if balance > POWER_BALANCE_TOLERANCE * max(total_power, 1e-3 * irradiance):
+    if not np.isfinite(balance):
+        warnings_.append("power balance could not be checked (an element's forward law has no "
+                         "value at its operating voltage)")
+    elif balance > POWER_BALANCE_TOLERANCE * max(total_power, 1e-3 * irradiance):
         warnings_.append(f"power balance error {balance:.3g} W/m2 exceeds "
                          f"{POWER_BALANCE_TOLERANCE:g} of the output power")
     subcell_rows = []

@@ -79,6 +79,7 @@ class StringSolution:
     curve: dict | None = field(default=None)
     regime: np.ndarray | None = None
     tunnel_branch_at_mpp: dict = field(default_factory=dict)
+    capped: np.ndarray | None = None
 
 
 class _String:
@@ -248,6 +249,14 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
                 for element in string.elements:
                     simple["curve"][element.name][row] = answer["curve"][element.name]
     voc, jsc, v_mpp, j_mpp, p_mpp = (simple[k] for k in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"))
+    # a string that gives no power (blocked) has its best point at open circuit: P = 0 there,
+    # never a rounding-level negative power
+    dead = np.isfinite(p_mpp) & (p_mpp <= 0)
+    if np.any(dead):
+        j_mpp, v_mpp, p_mpp = (np.where(dead, 0.0, j_mpp), np.where(dead, voc, v_mpp),
+                               np.where(dead, 0.0, p_mpp))
+        simple["voltages_mpp"] = [np.where(dead, vo, vm) for vm, vo in
+                                  zip(simple["voltages_mpp"], simple["voltages_voc"])]
 
     # power balance: each element's own forward law at its voltage
     balance = np.zeros_like(p_mpp)
@@ -258,8 +267,10 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
 
     with np.errstate(invalid="ignore", divide="ignore"):
         fill_factor = p_mpp / (voc * jsc)
-    results = [voc, jsc, v_mpp, j_mpp, p_mpp, fill_factor]
+    results = [voc, v_mpp, j_mpp, p_mpp]
     failed = ~np.all([np.isfinite(r) for r in results], axis=0)[:, 0]
+    capped = simple.get("capped", np.zeros(failed.shape, dtype=bool))
+    failed = failed | (~np.isfinite(jsc[:, 0]) & ~capped)
     if np.any(failed):
         warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point; "
                       "their results are NaN", RuntimeWarning, stacklevel=2)
@@ -273,7 +284,7 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         voltage_at_zero_current_V={n: flat(v) for n, v in zip(names, simple["voltages_voc"])},
         power_balance_error_W_m2=flat(balance_error), failed=failed,
         pilot_index=string.pilot_index[:, 0], curve=simple["curve"], regime=regime,
-        tunnel_branch_at_mpp=branches)
+        tunnel_branch_at_mpp=branches, capped=capped)
 
 
 def _solve_explicit(string, temperature_K):
@@ -341,7 +352,7 @@ def _solve_explicit(string, temperature_K):
             voltages_voc.append(vt * np.log1p(jph / j0))
     return dict(voc=voc, jsc=jsc, v_mpp=v_mpp, j_mpp=j_mpp, p_mpp=j_mpp * v_mpp,
                 voltages_mpp=voltages_mpp, voltages_voc=voltages_voc, curve=None,
-                reaches_peak=np.zeros(size, dtype=bool))
+                reaches_peak=np.zeros(size, dtype=bool), capped=np.zeros(size, dtype=bool))
 
 
 def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
@@ -369,6 +380,17 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
         with np.errstate(invalid="ignore"):
             t_peak = string.pilot_voltage_at(smallest_peak * (1 - 1e-9))
         t_low = np.where(np.isfinite(t_peak) & (t_peak > t_lowest), t_peak, t_lowest)
+    # an isotype interface driven forward carries at most its flat-band current: the law has no
+    # voltage beyond it, so the trace stops there (reported, never invented)
+    capped = np.zeros(jph.shape[0], dtype=bool)
+    caps = [np.broadcast_to(e.current_cap(temperature_K), jph.shape) for e in string.elements
+            if e.kind == "isotype"]
+    if caps:
+        cap = np.min(np.concatenate(caps, axis=1), axis=1, keepdims=True)
+        with np.errstate(invalid="ignore"):
+            t_cap = string.pilot_voltage_at(cap * (1 - 1e-9))
+        limited = np.isfinite(t_cap) & (t_cap > t_low)
+        t_low = np.where(limited, t_cap, t_low)
 
     def terminal(t):
         return _finite_or(string.evaluate(t)["voltage"], -1e3)
@@ -386,6 +408,11 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     t_sc = safeguarded_newton(terminal_and_slope, t_low, t_voc)
     at_sc = string.evaluate(t_sc)
     jsc = at_sc["current"]
+    if caps:
+        # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
+        capped = (limited & (terminal(t_low) > 0))[:, 0]
+        t_sc = np.where(capped[:, None], t_low, t_sc)
+        jsc = np.where(capped[:, None], np.nan, jsc)
     if curve_points:
         t_floor = safeguarded_newton(lambda t: terminal_and_slope(t, v_floor), t_low, t_voc)
         t_floor = np.where(np.isfinite(t_floor), t_floor,
@@ -423,4 +450,4 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
                               for v in at_mpp["voltages"]],
                 voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
                               for v in at_voc["voltages"]],
-                curve=curve, reaches_peak=reaches_peak)
+                curve=curve, reaches_peak=reaches_peak, capped=capped)

@@ -156,10 +156,18 @@ def read_spectrum_csv(path, *, where=None):
         row = int(np.flatnonzero(irradiance < 0)[0])
         raise StackError(f"negative irradiance {irradiance[row]} W/m2/nm", file=path,
                          where=f"line {row + 2}", fix="spectral irradiance cannot be negative")
+    total = float(np.trapezoid(irradiance, wavelength))
+    if not np.isfinite(total) or total <= 0:
+        raise StackError(f"the spectrum carries no light (total {total:g} W/m2)", file=path,
+                         fix="give spectral irradiance in W/m2/nm, not all zero")
+    if total > 1e8:
+        raise StackError(f"the spectrum totals {total:g} W/m2, beyond any sun or lamp "
+                         "(1e8 W/m2 is 100 000 suns)", file=path,
+                         fix="give spectral irradiance in W/m2/nm (and concentration with suns)")
     return Spectrum(str(path), f"user spectrum {path.name}", wavelength, irradiance)
 
 
-def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None):
+def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None, origin=None):
     """A spectrum by name (``am1.5g``, ``am1.5d``, ``am0``) or CSV path, times ``suns``.
 
     Parameters
@@ -172,6 +180,8 @@ def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None):
         Folder a relative CSV path is resolved against (the stack file's folder).
     where : str, optional
         Where the name came from, for error messages.
+    origin : str, optional
+        The stack file that named the spectrum: errors about the name itself name that file.
     """
     key = str(name_or_path).strip()
     _, names = _catalogue()
@@ -181,11 +191,15 @@ def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None):
         path = Path(key)
         if relative_to is not None and not path.is_absolute():
             path = Path(relative_to) / path
+        if origin is not None and not path.is_file():
+            raise StackError(f"spectrum file not found: {path}", file=origin, where=where,
+                             fix="give an existing CSV path (relative to the stack file) or one "
+                                 "of " + ", ".join(spectrum_names()))
         spectrum = read_spectrum_csv(path, where=where)
     else:
         close = difflib.get_close_matches(key.lower(), list(names), n=3, cutoff=0.5)
         hint = f"did you mean {', '.join(close)}? " if close else ""
-        raise StackError(f"unknown spectrum {key!r}", where=where,
+        raise StackError(f"unknown spectrum {key!r}", file=origin, where=where,
                          fix=f"{hint}use one of {', '.join(spectrum_names())} or a CSV path "
                              "ending in .csv")
     return spectrum.concentrated(suns) if suns != 1.0 else spectrum

@@ -502,4 +502,8 @@ def load_stack(path):
         raise StackError(f"TOML syntax error: {exc}", file=path,
                          fix="correct the line named (strings need quotes, keys are "
                              "key = value, tables are [name] or [[element]])") from None
+    except RecursionError:
+        raise StackError("arrays or tables nested too deeply to read", file=path,
+                         fix="a stack file needs no nesting beyond [[element]] or [[layer]] "
+                             "tables and short arrays") from None
     return parse_stack(document, file=path, folder=path.parent)

@@ -80,8 +80,10 @@ def junction_current(v_junction_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
     multiplier, multiplier_slope = _breakdown_multiplier(v, breakdown_V, breakdown_factor,
                                                          breakdown_exponent)
     # a zero J02 times an overflowed exponential is 0, not NaN
-    second = np.where(np.asarray(j02_A_m2) > 0, j02_A_m2 * e2, 0.0)
-    second_slope = np.where(np.asarray(j02_A_m2) > 0, (j02_A_m2 / (2.0 * vt)) * (e2 + 1.0), 0.0)
+    with np.errstate(invalid="ignore", over="ignore"):
+        second = np.where(np.asarray(j02_A_m2) > 0, j02_A_m2 * e2, 0.0)
+        second_slope = np.where(np.asarray(j02_A_m2) > 0,
+                                (j02_A_m2 / (2.0 * vt)) * (e2 + 1.0), 0.0)
     current = (photocurrent_A_m2 - j01_A_m2 * e1 - second - shunt_S_m2 * v * multiplier)
     with np.errstate(over="ignore", invalid="ignore"):
         slope = (-(j01_A_m2 / vt) * (e1 + 1.0) - second_slope

@@ -1,0 +1,131 @@
+"""Command line: ``siltandem yield STACK.toml --weather FILE`` (energy over a typical year).
+
+``add_yield_command(commands)`` adds the subcommand to the main parser's subparsers;
+``run_yield(args)`` runs it. ``python -m siltandem.cli_yield ...`` runs the command on its own with
+the same exit status as ``siltandem`` (0 done, 2 bad input, 1 an internal fault).
+"""
+import argparse
+from pathlib import Path
+import sys
+
+from .errors import StackError
+
+PLOT_SUFFIXES = {".png", ".svg", ".pdf"}
+
+
+def _pairs(values, option, what):
+    """``["top=GaAs", ...]`` -> {"top": "GaAs"}; StackError naming the option otherwise."""
+    out = {}
+    for text in values or []:
+        name, sep, value = text.partition("=")
+        if not sep or not name.strip() or not value.strip():
+            raise StackError(f"{option} {text!r} is not NAME={what}", where=option,
+                             fix=f"write {option} <subcell name>={what}, e.g. {option} "
+                                 + ("top=Ga0.51In0.49P" if what == "MATERIAL" else
+                                    "top=top_eqe.csv"))
+        if name.strip() in out:
+            raise StackError(f"{option} names subcell {name.strip()!r} twice", where=option,
+                             fix="give each subcell once")
+        out[name.strip()] = value.strip()
+    return out
+
+
+def add_yield_command(commands):
+    """Add ``yield`` to the subparsers of the main parser; returns its parser."""
+    from .studies.yield_ import MOUNTING, SCALINGS, SKY_MODELS
+
+    parser = commands.add_parser(
+        "yield", help="energy over a typical year from an hourly weather file",
+        description="Solve an element stack for every hour with sun of a TMY3 weather file: sun "
+                    "position, plane-of-array irradiance, a SPECTRL2 spectrum scaled to it and "
+                    "the cell temperature, all hours in one batched solve. Prints the annual "
+                    "energy, the energy-weighted efficiency, which subcell limits the current "
+                    "for how long, two- against four-terminal wiring and a monthly table.")
+    parser.add_argument("stack", help="stack file (.toml) with [[element]] tables")
+    parser.add_argument("--weather", required=True, metavar="FILE.csv|demo",
+                        help="TMY3 weather file (read with pvlib.iotools.read_tmy3); 'demo' is "
+                             "the Greensboro, NC file pvlib ships")
+    parser.add_argument("--tilt", type=float, metavar="DEG",
+                        help="plane tilt from horizontal (default: the latitude)")
+    parser.add_argument("--azimuth", type=float, metavar="DEG",
+                        help="plane azimuth clockwise from north (default: facing the equator)")
+    parser.add_argument("--sky-model", default="perez", choices=SKY_MODELS,
+                        help="sky-diffuse transposition model (default perez)")
+    parser.add_argument("--mounting", default=MOUNTING,
+                        help="SAPM cell-temperature parameter set: open_rack_glass_glass "
+                             "(default), close_mount_glass_glass, open_rack_glass_polymer, "
+                             "insulated_back_glass_polymer")
+    parser.add_argument("--albedo", type=float,
+                        help="ground albedo 0..1 (default: the file's, 0.2 where missing)")
+    parser.add_argument("--scaling", default="total", choices=SCALINGS,
+                        help="scale the SPECTRL2 spectrum to the measured total (default) or "
+                             "each component to its measured part")
+    parser.add_argument("--gap-material", action="append", metavar="SUBCELL=MATERIAL",
+                        help="the subcell's gap follows the cell temperature like this library "
+                             "material's (Varshni); repeat for several subcells")
+    parser.add_argument("--eqe", action="append", metavar="SUBCELL=FILE.csv",
+                        help="the subcell's photocurrent from its measured external quantum "
+                             "efficiency (columns wavelength_nm, eqe); repeat for several")
+    parser.add_argument("--json", metavar="PATH", help="write the summary as JSON ('-' stdout)")
+    parser.add_argument("--csv", metavar="PATH.csv", help="write the hourly table")
+    parser.add_argument("--plot", metavar="PATH.png|svg",
+                        help="draw energy by month and the limiting subcell through a summer "
+                             "and a winter day")
+    return parser
+
+
+def run_yield(args):
+    """Run ``siltandem yield``; returns the exit status (StackError propagates to the caller)."""
+    from .files import save_figure_atomic, write_atomic
+    from .stack import load_stack
+    from .studies.yield_ import annual_yield, hourly_table, plot_yield, text_summary
+
+    for option, path, allowed in (("--csv", args.csv, {".csv"}),
+                                  ("--plot", args.plot, PLOT_SUFFIXES)):
+        if path is not None and Path(path).suffix.lower() not in allowed:
+            raise StackError(f"{option} {path}: unsupported file type", where=option,
+                             fix=f"give a path ending in {' or '.join(sorted(allowed))}")
+    gap_materials = _pairs(args.gap_material, "--gap-material", "MATERIAL")
+    eqe = _pairs(args.eqe, "--eqe", "FILE.csv")
+    stack = load_stack(args.stack)
+    result = annual_yield(stack, args.weather, tilt_deg=args.tilt, azimuth_deg=args.azimuth,
+                          sky_model=args.sky_model, mounting=args.mounting, albedo=args.albedo,
+                          scaling=args.scaling, gap_materials=gap_materials, eqe=eqe)
+    to_stdout_json = args.json == "-"
+    notices = sys.stderr if to_stdout_json else sys.stdout
+    if not to_stdout_json:
+        sys.stdout.write(text_summary(result))
+    if args.json:
+        if to_stdout_json:
+            sys.stdout.write(result.to_json())
+        else:
+            write_atomic(args.json, result.to_json())
+            print(f"  wrote {args.json}", file=notices)
+    if args.csv:
+        write_atomic(args.csv, hourly_table(result).to_csv(index=False, float_format="%.10g"))
+        print(f"  wrote {args.csv}", file=notices)
+    if args.plot:
+        axes = plot_yield(result)
+        save_figure_atomic(axes[0].figure, args.plot)
+        print(f"  wrote {args.plot}", file=notices)
+    return 0
+
+
+def main(argv=None):
+    """The yield command on its own (same exit status as ``siltandem``)."""
+    parser = argparse.ArgumentParser(prog="siltandem")
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    add_yield_command(commands)
+    args = parser.parse_args(argv)
+    try:
+        return run_yield(args)
+    except StackError as exc:
+        print(f"siltandem: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("siltandem: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,942 @@
+"""Energy yield over a typical year: hourly sun, spectra, cell temperatures, one batched solve.
+
+For a TMY3-style weather file (read with ``pvlib.iotools.read_tmy3``) and a plane of array (tilt,
+azimuth), every hour with light gets:
+
+1. **The sun.** Its position at the middle of the hour (``pvlib.solarposition.get_solarposition``,
+   NREL SPA with refraction from the hour's pressure and air temperature). TMY3 irradiances are
+   totals over the hour *ending* at the time stamp, so the middle of that hour is the stamp minus
+   30 minutes.
+2. **The broadband plane-of-array irradiance** from the file's GHI, DNI and DHI
+   (``pvlib.irradiance.get_total_irradiance``, Perez sky by default): direct, sky-diffuse and
+   ground-reflected parts.
+3. **The spectrum.** SPECTRL2 (``pvlib.spectrum.spectrl2``; Bird & Riordan) gives the clear-sky
+   direct, sky-diffuse and ground-reflected spectra on the plane for the hour's geometry,
+   pressure and precipitable water. *The shape comes from SPECTRL2, the magnitude from the
+   measured plane-of-array irradiance*: by default (``scaling="total"``) the summed clear-sky
+   plane-of-array spectrum is multiplied by G_poa,measured / integral of it, so the integral of
+   the hour's spectrum over SPECTRL2's 300-4000 nm is the measured plane-of-array irradiance.
+   ``scaling="components"`` scales each component's spectrum to its own measured part instead.
+   That gives a cloudy hour, whose light is mostly diffuse, the very blue shape of a clear sky's
+   diffuse light; light scattered by clouds is much less blue, so "components" overstates the
+   blue shift of cloudy hours (on the demo weather it moves a silicon bottom cell's
+   energy-weighted mismatch factor from about 0.97 to about 0.85). It is kept as the bound.
+4. **The cell temperature** from ``pvlib.temperature.sapm_cell`` with a named parameter set of
+   ``pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]`` (``open_rack_glass_glass`` by
+   default): King et al., Sandia report SAND2004-3535 (2004).
+
+Then the stack is solved for all hours at once: hours are the batch axis, each with its own
+photocurrents and temperature (J01 = J0,rad(Eg, T)/ERE follows the temperature). A subcell's gap
+stays as the file gives it unless the subcell is named in ``gap_materials``: its gap then shifts
+with the cell temperature as the library material's gap does (Varshni), by
+Eg(T) = gap_eV + Eg_material(T) - Eg_material(T_file), T_file the stack's ``temperature_K``.
+
+The same subcells are also solved all in one series string (two-terminal) and each on its own at
+its own maximum power point (four-terminal, no other element); the annual loss to current
+mismatch is the four-terminal energy minus the two-terminal energy.
+"""
+from dataclasses import dataclass, replace
+import json
+from pathlib import Path
+import warnings
+
+import numpy as np
+
+from .. import units
+from ..compile import compile_stack
+from ..errors import StackError
+from ..illuminate import illuminate
+from ..laws.optics import photon_flux, step_absorber_photocurrents
+from ..laws.spectral import (
+    quantum_efficiency_photocurrent,
+    scaled_spectra,
+    spectral_mismatch_factor,
+    step_absorber_photocurrents_rows,
+)
+from ..solve import solve_string
+from ..spectra import get_spectrum
+
+#: SPECTRL2's atmosphere where the weather file gives nothing: the ASTM G173-03 atmosphere
+#: (C. A. Gueymard, D. Myers, K. Emery, Solar Energy 73 (2002) 443; values from memory):
+#: ozone 0.3438 atm-cm, aerosol optical depth 0.084 at 500 nm, precipitable water 1.42 cm
+OZONE_ATM_CM = 0.3438
+AEROSOL_TURBIDITY_500NM = 0.084
+PRECIPITABLE_WATER_CM = 1.42
+#: ground albedo where the file gives none (common practice, no source)
+ALBEDO = 0.2
+#: the cell-temperature parameter set used unless another is named
+MOUNTING = "open_rack_glass_glass"
+SKY_MODELS = ("perez", "haydavies", "isotropic", "klucher", "reindl", "king")
+SCALINGS = ("components", "total")
+#: TMY3 years are stitched from different years; the dates are placed in this non-leap year
+TYPICAL_YEAR = 1990
+#: reference conditions of the efficiency at standard test conditions (IEC 60904-3)
+STANDARD_SPECTRUM = "am1.5g"
+STANDARD_TEMPERATURE_K = 298.15
+HOURS_PER_STEP = 1.0
+
+CAUTION = ("Results are models, not measurements: the hourly spectra are clear-sky shapes scaled "
+           "to measured irradiance. Electrical and optical work on cells and modules is "
+           "hazardous: follow local codes and licensed practice.")
+
+
+# ------------------------------------------------------------------------------------ weather
+@dataclass(frozen=True)
+class Weather:
+    """A typical year of hourly weather.
+
+    Attributes
+    ----------
+    data : pandas.DataFrame
+        One row per hour, indexed by the file's time stamps (end of each hour, local standard
+        time), with ``ghi``, ``dni``, ``dhi`` [W/m2], ``temp_air`` [degC], ``wind_speed`` [m/s],
+        ``pressure`` [mbar], ``precipitable_water`` [cm] and ``albedo`` [-] (pvlib names).
+    latitude, longitude, altitude_m, timezone_h : float
+    station : str
+    source : str
+        The file it came from.
+    """
+
+    data: object
+    latitude: float
+    longitude: float
+    altitude_m: float
+    timezone_h: float
+    station: str
+    source: str
+
+
+def demo_weather_path():
+    """The TMY3 file pvlib ships (Greensboro, North Carolina, USAF 723170)."""
+    import pvlib
+
+    return Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
+
+
+def read_weather(path):
+    """Read a TMY3-style weather file with ``pvlib.iotools.read_tmy3`` (map_variables=True).
+
+    ``path`` may be ``"demo"`` for the file pvlib ships (Greensboro, NC). Raises StackError for a
+    missing or unreadable file or one without the columns the yield needs.
+    """
+    import pvlib
+
+    if str(path).strip().lower() == "demo":
+        path = demo_weather_path()
+    path = Path(path)
+    fix = ("give a TMY3 CSV file (two header lines: station metadata, then the column names; "
+           "8760 hourly rows), e.g. pvlib's data/723170TYA.CSV, or --weather demo")
+    if not path.is_file():
+        raise StackError("weather file not found", file=path, where="--weather", fix=fix)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            data, meta = pvlib.iotools.read_tmy3(str(path), coerce_year=TYPICAL_YEAR,
+                                                 map_variables=True)
+    except Exception as exc:  # pvlib/pandas raise several types for files that are not TMY3
+        raise StackError(f"cannot read it as a TMY3 file ({exc.__class__.__name__}: {exc})",
+                         file=path, where="--weather", fix=fix) from None
+    needed = ["ghi", "dni", "dhi", "temp_air", "wind_speed", "pressure"]
+    missing = [c for c in needed if c not in data.columns]
+    if missing:
+        raise StackError(f"no column(s) {', '.join(missing)} after pvlib's variable mapping",
+                         file=path, where="header", fix=fix)
+    for key in ("latitude", "longitude"):
+        if not np.isfinite(float(meta.get(key, np.nan))):
+            raise StackError(f"the station's {key} is missing", file=path, where="line 1",
+                             fix=fix)
+    frame = data[needed].astype(float).copy()
+    for column, fill in (("precipitable_water", PRECIPITABLE_WATER_CM), ("albedo", ALBEDO)):
+        values = data[column].astype(float) if column in data.columns else np.nan
+        frame[column] = values
+        # TMY3 writes 0 where it has no value; SPECTRL2 needs positive ones
+        frame.loc[~(frame[column] > 0), column] = fill
+    bad = ~np.isfinite(frame[["ghi", "dni", "dhi"]].to_numpy()).all(axis=1)
+    if bad.any():
+        first = frame.index[np.flatnonzero(bad)[0]]
+        raise StackError(f"{int(bad.sum())} hour(s) without GHI, DNI or DHI (first {first})",
+                         file=path, fix="fill the gaps in the weather file")
+    frame[["ghi", "dni", "dhi"]] = frame[["ghi", "dni", "dhi"]].clip(lower=0.0)
+    frame["temp_air"] = frame["temp_air"].fillna(frame["temp_air"].mean())
+    frame["wind_speed"] = frame["wind_speed"].fillna(0.0)
+    altitude = float(meta.get("altitude", 0.0))
+    standard_mbar = pvlib.atmosphere.alt2pres(altitude) / 100
+    frame["pressure"] = frame["pressure"].where(frame["pressure"] > 100, standard_mbar)
+    return Weather(frame, float(meta["latitude"]), float(meta["longitude"]), altitude,
+                   float(meta.get("TZ", 0.0)), str(meta.get("Name", "")).strip('" '), str(path))
+
+
+# ------------------------------------------------------------------------------- hourly light
+@dataclass(frozen=True)
+class HourlyLight:
+    """Light on the plane of array for the hours with sun.
+
+    Attributes
+    ----------
+    frame : pandas.DataFrame
+        One row per hour with light, indexed by the file's time stamps: ``sun_time`` (middle of
+        the hour), ``solar_zenith_deg`` (apparent), ``solar_azimuth_deg``, ``aoi_deg``,
+        ``poa_W_m2``, ``poa_direct_W_m2``, ``poa_sky_diffuse_W_m2``, ``poa_ground_W_m2``,
+        ``air_temperature_C``, ``wind_speed_m_s``, ``cell_temperature_C``, ``shape_fallback``.
+    wavelength_nm : (M,) ndarray
+        SPECTRL2's wavelengths, 300-4000 nm.
+    irradiance_W_m2_nm : (H, M) ndarray
+        The scaled spectrum of each hour.
+    clear_sky_W_m2_nm : (H, M) ndarray
+        SPECTRL2's unscaled plane-of-array global spectrum of each hour.
+    all_hours : pandas.DataFrame
+        ``poa_W_m2`` and ``sun_up`` for every hour of the file.
+    settings : dict
+        What was assumed (for the JSON).
+    """
+
+    frame: object
+    wavelength_nm: np.ndarray
+    irradiance_W_m2_nm: np.ndarray
+    clear_sky_W_m2_nm: np.ndarray
+    all_hours: object
+    settings: dict
+
+    @property
+    def photon_flux(self):
+        """(H, M) spectral photon flux [m^-2 s^-1 nm^-1]."""
+        return photon_flux(self.wavelength_nm[None, :], self.irradiance_W_m2_nm)
+
+
+def _check_choice(value, options, option):
+    if value not in options:
+        raise StackError(f"{option} {value!r} is not known", where=option,
+                         fix="one of " + ", ".join(options))
+
+
+def temperature_parameters(mounting):
+    """SAPM cell-temperature parameters (a, b, deltaT) of a named mounting (pvlib's table)."""
+    from pvlib.temperature import TEMPERATURE_MODEL_PARAMETERS
+
+    table = TEMPERATURE_MODEL_PARAMETERS["sapm"]
+    _check_choice(mounting, list(table), "--mounting")
+    return dict(table[mounting])
+
+
+def sun_geometry(times, *, latitude, longitude, altitude_m, pressure_Pa, air_temperature_C,
+                 tilt_deg, azimuth_deg):
+    """Sun position, relative airmass and angle of incidence on a plane at some times.
+
+    Parameters
+    ----------
+    times : pandas.DatetimeIndex
+        Time zone aware (the instants the sun is wanted: the middle of each hour).
+    latitude, longitude : float
+        [deg], north and east positive.
+    altitude_m : float
+    pressure_Pa, air_temperature_C : array_like
+        For the refraction correction.
+    tilt_deg, azimuth_deg : float
+        The plane (azimuth clockwise from north).
+
+    Returns
+    -------
+    dict of ndarray
+        ``zenith_deg`` (apparent, refraction included), ``azimuth_deg``, ``airmass`` (relative,
+        Kasten & Young 1989, as SPECTRL2's reference code uses) and ``aoi_deg``.
+    """
+    import pvlib
+
+    sun = pvlib.solarposition.get_solarposition(times, latitude, longitude, altitude=altitude_m,
+                                                pressure=pressure_Pa,
+                                                temperature=air_temperature_C)
+    zenith = sun["apparent_zenith"].to_numpy(dtype=float)
+    azimuth = sun["azimuth"].to_numpy(dtype=float)
+    with np.errstate(invalid="ignore"):
+        airmass = np.asarray(pvlib.atmosphere.get_relative_airmass(
+            zenith, model="kastenyoung1989"), dtype=float)
+    aoi = np.asarray(pvlib.irradiance.aoi(tilt_deg, azimuth_deg, zenith, azimuth), dtype=float)
+    return {"zenith_deg": zenith, "azimuth_deg": azimuth, "airmass": airmass, "aoi_deg": aoi}
+
+
+def clear_sky_plane_spectra(geometry, *, tilt_deg, albedo, pressure_Pa, precipitable_water_cm,
+                            day_of_year, ozone_atm_cm=OZONE_ATM_CM,
+                            aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM):
+    """SPECTRL2's clear-sky spectra on a plane (``pvlib.spectrum.spectrl2``), one row per case.
+
+    Parameters
+    ----------
+    geometry : dict
+        From :func:`sun_geometry` (rows with the sun up).
+    tilt_deg : float
+    albedo, pressure_Pa, precipitable_water_cm, day_of_year : array_like
+        Per case: ground albedo [-], surface pressure [Pa], precipitable water [cm], day of year.
+    ozone_atm_cm, aerosol_turbidity_500nm : float
+
+    Returns
+    -------
+    wavelength_nm : (122,) ndarray
+    components : dict of (H, 122) ndarray
+        ``poa_direct``, ``poa_sky_diffuse``, ``poa_ground_diffuse``, ``poa_global``, ``dni``,
+        ``dhi``, ``dni_extra`` [W m^-2 nm^-1], NaN replaced by 0 and negatives clipped.
+    """
+    import pvlib
+
+    spectra = pvlib.spectrum.spectrl2(
+        apparent_zenith=geometry["zenith_deg"], aoi=geometry["aoi_deg"], surface_tilt=tilt_deg,
+        ground_albedo=albedo, surface_pressure=pressure_Pa,
+        relative_airmass=geometry["airmass"], precipitable_water=precipitable_water_cm,
+        ozone=ozone_atm_cm, aerosol_turbidity_500nm=aerosol_turbidity_500nm,
+        dayofyear=day_of_year)
+    wavelength = np.asarray(spectra["wavelength"], dtype=float)
+    keys = ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse", "poa_global", "dni", "dhi",
+            "dni_extra")
+    rows = np.size(geometry["zenith_deg"])
+    components = {k: np.nan_to_num(np.asarray(spectra[k], dtype=float).reshape(-1, rows).T,
+                                   nan=0.0).clip(min=0.0) for k in keys}
+    return wavelength, components
+
+
+def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=MOUNTING,
+                 albedo=None, scaling="total", ozone_atm_cm=OZONE_ATM_CM,
+                 aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM):
+    """Sun, plane-of-array irradiance, spectra and cell temperature of every hour with light.
+
+    Parameters
+    ----------
+    weather : Weather
+    tilt_deg : float
+        Plane tilt from horizontal [deg], 0-90.
+    azimuth_deg : float
+        Plane azimuth [deg], clockwise from north (180 faces south).
+    sky_model : str
+        Sky-diffuse model of ``pvlib.irradiance.get_total_irradiance``.
+    mounting : str
+        SAPM cell-temperature parameter set (``pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS``).
+    albedo : float, optional
+        Ground albedo; default the file's hourly values where it has them, else 0.2.
+    scaling : {"components", "total"}
+        Scale each SPECTRL2 component to its measured broadband part, or the summed spectrum to
+        the measured total.
+    ozone_atm_cm, aerosol_turbidity_500nm : float
+        SPECTRL2's ozone column and aerosol turbidity (the file's TMY3 AOD is broadband and mostly
+        missing; defaults: the ASTM G173-03 atmosphere).
+    """
+    import pandas as pd
+    import pvlib
+
+    if not 0 <= tilt_deg <= 90:
+        raise StackError(f"--tilt {tilt_deg:g} is outside [0, 90] degrees", where="--tilt",
+                         fix="give the plane's tilt from horizontal in degrees")
+    if not 0 <= azimuth_deg <= 360:
+        raise StackError(f"--azimuth {azimuth_deg:g} is outside [0, 360] degrees",
+                         where="--azimuth",
+                         fix="give the plane's azimuth clockwise from north (180: south)")
+    if albedo is not None and not 0 <= albedo <= 1:
+        raise StackError(f"albedo {albedo:g} is outside [0, 1]", where="--albedo",
+                         fix="give the ground's broadband reflectance, 0..1")
+    _check_choice(sky_model, SKY_MODELS, "--sky-model")
+    _check_choice(scaling, SCALINGS, "--scaling")
+    parameters = temperature_parameters(mounting)
+    data = weather.data
+    stamps = data.index
+    middle = stamps - pd.Timedelta(minutes=30)
+    pressure_Pa = data["pressure"].to_numpy() * 100.0
+    air_C = data["temp_air"].to_numpy()
+    sun = sun_geometry(middle, latitude=weather.latitude, longitude=weather.longitude,
+                       altitude_m=weather.altitude_m, pressure_Pa=pressure_Pa,
+                       air_temperature_C=air_C, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
+    zenith, solar_azimuth, aoi = sun["zenith_deg"], sun["azimuth_deg"], sun["aoi_deg"]
+    extra = np.asarray(pvlib.irradiance.get_extra_radiation(middle), dtype=float)
+    ground_albedo = (data["albedo"].to_numpy() if albedo is None
+                     else np.full(len(data), float(albedo)))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        poa = pvlib.irradiance.get_total_irradiance(
+            tilt_deg, azimuth_deg, zenith, solar_azimuth, data["dni"].to_numpy(),
+            data["ghi"].to_numpy(), data["dhi"].to_numpy(), dni_extra=extra,
+            airmass=sun["airmass"], albedo=ground_albedo, model=sky_model)
+    parts = {k: np.nan_to_num(np.asarray(poa[k], dtype=float), nan=0.0).clip(min=0.0)
+             for k in ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")}
+    total = parts["poa_direct"] + parts["poa_sky_diffuse"] + parts["poa_ground_diffuse"]
+    sun_up = zenith < 90.0
+    lit = sun_up & (total > 0)
+    rows = np.flatnonzero(lit)
+    wavelength, shape = clear_sky_plane_spectra(
+        {k: v[rows] for k, v in sun.items()}, tilt_deg=tilt_deg,
+        albedo=ground_albedo[rows], pressure_Pa=pressure_Pa[rows],
+        precipitable_water_cm=data["precipitable_water"].to_numpy()[rows],
+        day_of_year=np.asarray(middle.day_of_year)[rows], ozone_atm_cm=ozone_atm_cm,
+        aerosol_turbidity_500nm=aerosol_turbidity_500nm)
+    clear = shape["poa_direct"] + shape["poa_sky_diffuse"] + shape["poa_ground_diffuse"]
+    if scaling == "components":
+        keys = ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")
+        irradiance, fallback = scaled_spectra(wavelength, shapes=[shape[k] for k in keys],
+                                              broadband_W_m2=[parts[k][rows] for k in keys])
+    else:
+        irradiance, fallback = scaled_spectra(wavelength, shapes=[clear],
+                                              broadband_W_m2=[total[rows]])
+    cell_C = pvlib.temperature.sapm_cell(total[rows], air_C[rows],
+                                         data["wind_speed"].to_numpy()[rows], **parameters)
+    frame = pd.DataFrame({
+        "sun_time": middle[rows],
+        "solar_zenith_deg": zenith[rows], "solar_azimuth_deg": solar_azimuth[rows],
+        "aoi_deg": aoi[rows], "poa_W_m2": total[rows],
+        "poa_direct_W_m2": parts["poa_direct"][rows],
+        "poa_sky_diffuse_W_m2": parts["poa_sky_diffuse"][rows],
+        "poa_ground_W_m2": parts["poa_ground_diffuse"][rows],
+        "air_temperature_C": air_C[rows], "wind_speed_m_s": data["wind_speed"].to_numpy()[rows],
+        "cell_temperature_C": np.asarray(cell_C, dtype=float), "shape_fallback": fallback,
+    }, index=stamps[rows])
+    all_hours = pd.DataFrame({"poa_W_m2": total, "sun_up": sun_up}, index=stamps)
+    settings = {
+        "tilt_deg": float(tilt_deg), "azimuth_deg": float(azimuth_deg), "sky_model": sky_model,
+        "albedo": "from the weather file (0.2 where missing)" if albedo is None else float(albedo),
+        "sun_position": "pvlib.solarposition.get_solarposition (NREL SPA) at the middle of each "
+                        "hour (time stamp - 30 min: TMY3 values are totals of the hour ending at "
+                        "the stamp), refraction from the hour's pressure and air temperature",
+        "plane_of_array": f"pvlib.irradiance.get_total_irradiance, model {sky_model!r}, "
+                          "airmass kastenyoung1989",
+        "spectrum": "pvlib.spectrum.spectrl2 (Bird & Riordan) on the plane, 300-4000 nm; shape "
+                    "from SPECTRL2, magnitude from the measured plane-of-array irradiance ("
+                    + ("each of direct, sky-diffuse and ground-reflected scaled to its own "
+                       "broadband part" if scaling == "components" else
+                       "the summed spectrum scaled to the total") + ")",
+        "scaling": scaling, "ozone_atm_cm": ozone_atm_cm,
+        "aerosol_turbidity_500nm": aerosol_turbidity_500nm,
+        "precipitable_water": "from the weather file (1.42 cm where missing)",
+        "temperature_model": {"function": "pvlib.temperature.sapm_cell", "parameters": mounting,
+                              **parameters},
+    }
+    return HourlyLight(frame, wavelength, irradiance, clear, all_hours, settings)
+
+
+# ------------------------------------------------------------------------- measured subcells
+def read_eqe_csv(path, *, where=None):
+    """Read a measured external quantum efficiency: columns ``wavelength_nm`` and ``eqe`` (0..1).
+
+    Returns (wavelength_nm, eqe) as float arrays; StackError for anything it cannot use.
+    """
+    import pandas as pd
+
+    path = Path(path)
+    fix = ("give a CSV with a header line 'wavelength_nm,eqe' and one row per wavelength (nm, "
+           "increasing) with the external quantum efficiency as a fraction 0..1")
+    if not path.is_file():
+        raise StackError("quantum-efficiency file not found", file=path, where=where, fix=fix)
+    try:
+        frame = pd.read_csv(path, comment="#")
+    except Exception as exc:  # pandas raises several types for unreadable files
+        raise StackError(f"cannot read it as CSV ({exc.__class__.__name__}: {exc})", file=path,
+                         where=where, fix=fix) from None
+    frame.columns = [str(c).strip() for c in frame.columns]
+    if "wavelength_nm" not in frame.columns or "eqe" not in frame.columns:
+        raise StackError(f"columns {list(frame.columns)}: need 'wavelength_nm' and 'eqe'",
+                         file=path, where="header", fix=fix)
+    lam = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
+    eqe = pd.to_numeric(frame["eqe"], errors="coerce").to_numpy(dtype=float)
+    if lam.size < 2 or not (np.isfinite(lam).all() and np.isfinite(eqe).all()):
+        raise StackError("fewer than two rows, or values that are not numbers", file=path,
+                         where=where, fix=fix)
+    if np.any(np.diff(lam) <= 0) or lam[0] <= 0:
+        raise StackError("wavelengths are not positive and increasing", file=path, where=where,
+                         fix="sort the rows by wavelength and remove repeated wavelengths")
+    if np.any(eqe < 0) or np.any(eqe > 1):
+        hint = " (it looks like percent: divide by 100)" if eqe.max() > 1.5 else ""
+        raise StackError(f"eqe values outside [0, 1]{hint}", file=path, where=where,
+                         fix="give the quantum efficiency as a fraction 0..1")
+    return lam, eqe
+
+
+def _eqe_tables(eqe, subcell_names):
+    tables = {}
+    for name, value in (eqe or {}).items():
+        if name not in subcell_names:
+            raise StackError(f"no subcell named {name!r} for a measured quantum efficiency",
+                             where="--eqe", fix="the stack's subcells are "
+                             + ", ".join(repr(n) for n in subcell_names))
+        if isinstance(value, (str, Path)):
+            tables[name] = read_eqe_csv(value, where=f"--eqe {name}")
+        else:
+            lam, values = (np.asarray(v, dtype=float) for v in value)
+            tables[name] = (lam, values)
+    return tables
+
+
+def _gap_laws(gap_materials, subcell_names):
+    from ..materials import MaterialError, load_material
+
+    laws = {}
+    for name, material in (gap_materials or {}).items():
+        if name not in subcell_names:
+            raise StackError(f"no subcell named {name!r} to take a gap law from a material",
+                             where="--gap-material", fix="the stack's subcells are "
+                             + ", ".join(repr(n) for n in subcell_names))
+        try:
+            laws[name] = load_material(material)
+        except MaterialError as exc:
+            raise StackError(str(exc), where=f"--gap-material {name}={material}",
+                             fix="see `siltandem materials`; an alloy takes its fractions in "
+                                 "the name, e.g. Ga0.51In0.49P") from None
+    return laws
+
+
+# ------------------------------------------------------------------------------------- result
+@dataclass(frozen=True)
+class YieldResult:
+    """The energy yield of one stack over a year.
+
+    Attributes
+    ----------
+    summary : dict
+        The JSON contract (trade units; names carry them).
+    hourly : pandas.DataFrame
+        One row per hour with light (see README).
+    monthly : pandas.DataFrame
+        One row per month.
+    light : HourlyLight
+    """
+
+    summary: dict
+    hourly: object
+    monthly: object
+    light: HourlyLight
+
+    def to_json(self, indent=2):
+        from ..result import _clean
+
+        return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
+
+
+def _power(solution):
+    """MPP power of each hour [W/m2]; an hour without an operating point counts as zero (the
+    solution marks it failed)."""
+    power = np.asarray(solution.mpp_W_m2, dtype=float)
+    return np.where(np.isfinite(power), power, 0.0)
+
+
+def _solve(elements, temperature_K):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        solution = solve_string(elements, temperature_K)
+    return solution
+
+
+def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="perez",
+                 mounting=MOUNTING, albedo=None, scaling="total", gap_materials=None,
+                 eqe=None, split_losses=True, ozone_atm_cm=OZONE_ATM_CM,
+                 aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM):
+    """Energy of an element stack over the weather file's year: one batched solve of all hours.
+
+    Parameters
+    ----------
+    stack : Stack
+        An element stack (``[[element]]``); layer stacks are not yet supported.
+    weather : Weather or str or Path
+        A :class:`Weather` or the path of a TMY3 file (``"demo"``: the one pvlib ships).
+    tilt_deg : float, optional
+        Plane tilt [deg]; default the latitude's magnitude (common practice, no source).
+    azimuth_deg : float, optional
+        Plane azimuth clockwise from north [deg]; default facing the equator (180 north of it,
+        0 south of it).
+    sky_model, mounting, albedo, scaling, ozone_atm_cm, aerosol_turbidity_500nm
+        See :func:`hourly_light`.
+    gap_materials : dict, optional
+        Subcell name -> library material (``"GaAs"``, ``"Ga0.51In0.49P"``, ``"Si"``): that
+        subcell's gap follows the cell temperature like the material's (Varshni law), anchored to
+        the file's gap at the stack's ``temperature_K``. Other gaps stay fixed.
+    eqe : dict, optional
+        Subcell name -> measured external quantum efficiency in the stack, as a CSV path
+        (``wavelength_nm``, ``eqe``) or a (wavelength_nm, eqe) pair: that subcell's photocurrent
+        is q integral Phi EQE (Phi the light on the stack); the light reaching the subcells below
+        is still filtered by its step absorptance.
+    split_losses : bool
+        Also solve the subcells alone in series (without the stack's other elements), to tell how
+        much of the four- minus two-terminal difference those elements cost. One more batched
+        solve (about half the time of a triple with a traced solve); False skips it (the
+        summary's ``of_which_other_elements_kWh_m2`` is then null).
+
+    Returns
+    -------
+    YieldResult
+    """
+    import pandas as pd
+
+    if stack.layers:
+        raise StackError("energy yield of layer stacks ([[layer]]) is not yet supported",
+                         file=stack.source, where="key layer",
+                         fix="describe the stack by its circuit elements ([[element]]) for "
+                             "`siltandem yield`, or use `siltandem run` for the layer stack")
+    if not isinstance(weather, Weather):
+        weather = read_weather(weather)
+    if tilt_deg is None:
+        tilt_deg = abs(weather.latitude)
+    if azimuth_deg is None:
+        azimuth_deg = 180.0 if weather.latitude >= 0 else 0.0
+    light = hourly_light(weather, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg,
+                         sky_model=sky_model, mounting=mounting, albedo=albedo, scaling=scaling,
+                         ozone_atm_cm=ozone_atm_cm,
+                         aerosol_turbidity_500nm=aerosol_turbidity_500nm)
+    circuit = compile_stack(stack)
+    subcells = circuit.subcells
+    names = [s.name for s in subcells]
+    laws = _gap_laws(gap_materials, names)
+    tables = _eqe_tables(eqe, names)
+    frame = light.frame
+    hours = len(frame)
+    if hours == 0:
+        raise StackError("no hour of the year puts light on this plane", where="--tilt",
+                         fix="check the weather file and the plane's tilt and azimuth")
+    temperature = (frame["cell_temperature_C"].to_numpy() + 273.15).reshape(-1, 1)
+    reference_K = stack.conditions.temperature_K
+
+    # gaps of each hour, and the photocurrents they give
+    file_gaps = [s.gap_eV for s in subcells]
+    gaps = []
+    for cell in subcells:
+        if cell.name in laws:
+            material = laws[cell.name]
+            shift = (np.asarray(material.gap_eV(temperature), dtype=float)
+                     - float(material.gap_eV(reference_K)))
+            gaps.append(cell.gap_eV + shift)
+        else:
+            gaps.append(cell.gap_eV)
+    flux = light.photon_flux
+    absorptances = [s.absorptance for s in subcells]
+    photocurrents = step_absorber_photocurrents_rows(gaps, absorptances, light.wavelength_nm,
+                                                     flux)
+    spectral_only = (photocurrents if not laws else
+                     step_absorber_photocurrents_rows(file_gaps, absorptances,
+                                                      light.wavelength_nm, flux))
+    reference = get_spectrum(STANDARD_SPECTRUM)
+    reference_currents = step_absorber_photocurrents(file_gaps, absorptances,
+                                                     reference.wavelength_nm,
+                                                     reference.photon_flux)
+    for k, name in enumerate(names):
+        if name in tables:
+            lam_q, q = tables[name]
+            photocurrents[k] = quantum_efficiency_photocurrent(
+                flux, wavelength_nm=light.wavelength_nm, eqe_wavelength_nm=lam_q,
+                eqe=q).reshape(-1, 1)
+            spectral_only[k] = photocurrents[k]
+            reference_currents[k] = quantum_efficiency_photocurrent(
+                reference.photon_flux, wavelength_nm=reference.wavelength_nm,
+                eqe_wavelength_nm=lam_q, eqe=q)
+    poa = frame["poa_W_m2"].to_numpy()
+    field_irradiance = np.trapezoid(light.irradiance_W_m2_nm, light.wavelength_nm, axis=1)
+    mismatch = {name: spectral_mismatch_factor(
+        spectral_only[k][:, 0], irradiance_W_m2=field_irradiance,
+        reference_photocurrent_A_m2=float(np.asarray(reference_currents[k]).reshape(-1)[0]),
+        reference_irradiance_W_m2=reference.integral_W_m2) for k, name in enumerate(names)}
+    hourly_cells = {cell.name: replace(cell, gap_eV=np.asarray(gap, dtype=float),
+                                       photocurrent_A_m2=np.asarray(jph, dtype=float))
+                    for cell, gap, jph in zip(subcells, gaps, photocurrents)}
+
+    def lit(element):
+        return hourly_cells.get(element.name, element)
+
+    # the stack as wired, string by string
+    wired = np.zeros(hours)
+    failed = np.zeros(hours, dtype=bool)
+    for string in circuit.strings:
+        solution = _solve([lit(e) for e in string], temperature)
+        wired += _power(solution)
+        failed |= solution.failed
+    # the same elements all in one series string (two-terminal) and each subcell on its own
+    if circuit.conditions.strings == 1:
+        series_power = wired
+    else:
+        series = _solve([lit(e) for e in circuit.elements], temperature)
+        series_power = _power(series)
+        failed |= series.failed
+    passive = any(e.kind != "subcell" for e in circuit.elements)
+    if passive and split_losses:
+        bare = _solve([hourly_cells[n] for n in names], temperature)
+        bare_power = _power(bare)
+        failed |= bare.failed
+    elif passive:
+        bare_power = None
+    else:
+        bare_power = series_power
+    alone = {}
+    for name in names:
+        solution = _solve([hourly_cells[name]], temperature)
+        alone[name] = _power(solution)
+        failed |= solution.failed
+    independent = np.sum([alone[n] for n in names], axis=0)
+    stacked = np.concatenate([np.broadcast_to(j, (hours, 1)) for j in photocurrents], axis=1)
+    limiting_index = np.argmin(stacked, axis=1)
+    limiting = np.array(names, dtype=object)[limiting_index]
+
+    # standard test conditions: the file's stack under AM1.5G at 25 degC
+    standard = illuminate(compile_stack(stack), reference)
+    standard_power = sum(float(_power(_solve(s, STANDARD_TEMPERATURE_K))[0])
+                         for s in standard.strings)
+    standard_efficiency = 100 * standard_power / reference.irradiance_W_m2
+
+    with np.errstate(divide="ignore", invalid="ignore"):
+        efficiency = np.where(poa > 0, 100 * wired / poa, np.nan)
+    hourly = frame.copy()
+    for k, name in enumerate(names):
+        if name in laws:
+            hourly[f"{name}.gap_eV"] = np.asarray(gaps[k], dtype=float)[:, 0]
+        hourly[f"{name}.photocurrent_mA_cm2"] = units.ma_cm2(
+            np.broadcast_to(photocurrents[k], (hours, 1))[:, 0])
+        hourly[f"{name}.mismatch_factor"] = mismatch[name]
+        hourly[f"{name}.alone_W_m2"] = alone[name]
+    hourly["power_W_m2"] = wired
+    hourly["efficiency_pct"] = efficiency
+    hourly["two_terminal_W_m2"] = series_power
+    hourly["four_terminal_W_m2"] = independent
+    hourly["limiting_subcell"] = limiting
+    hourly["failed"] = failed
+
+    summary, monthly = _summarise(stack, weather, light, hourly, names, laws, tables,
+                                  standard_efficiency, bare_power, passive)
+    return YieldResult(summary, hourly, monthly, light)
+
+
+def _kwh(power_W_m2):
+    return float(np.nansum(power_W_m2) * HOURS_PER_STEP / 1000.0)
+
+
+def plot_days(hourly, latitude):
+    """The summer and winter days to draw: the sunniest day of June and of December (swapped
+    south of the equator). Returns {"summer": date, "winter": date} (datetime.date)."""
+    months = {"summer": 6, "winter": 12} if latitude >= 0 else {"summer": 12, "winter": 6}
+    sun_time = hourly["sun_time"]
+    daily = hourly["poa_W_m2"].groupby(sun_time.dt.date.to_numpy()).sum()
+    days = {}
+    for season, month in months.items():
+        candidates = daily[[d.month == month for d in daily.index]]
+        if len(candidates) == 0:
+            candidates = daily
+        days[season] = candidates.idxmax()
+    return days
+
+
+def _summarise(stack, weather, light, hourly, names, laws, tables, standard_efficiency,
+               bare_power, passive):
+    import pandas as pd
+
+    poa = hourly["poa_W_m2"].to_numpy()
+    insolation = _kwh(poa)
+    all_insolation = _kwh(light.all_hours["poa_W_m2"].to_numpy())
+    energy = _kwh(hourly["power_W_m2"])
+    two = _kwh(hourly["two_terminal_W_m2"])
+    four = _kwh(hourly["four_terminal_W_m2"])
+    bare = None if bare_power is None else _kwh(bare_power)
+    failed = int(hourly["failed"].sum())
+    warnings_ = []
+    if failed:
+        warnings_.append(f"{failed} hour(s) found no operating point: they count as zero energy")
+    fallback = int(hourly["shape_fallback"].sum())
+    if fallback:
+        warnings_.append(f"{fallback} hour(s): a SPECTRL2 component was empty where the measured "
+                         "one was not; the summed clear-sky shape was used for it")
+    lost = all_insolation - insolation
+    if lost > 1e-3 * max(all_insolation, 1e-9):
+        warnings_.append(f"{lost:.2f} kWh/m2 of plane-of-array insolation falls in hours whose "
+                         "middle has the sun below the horizon; those hours are not solved")
+    limiting_hours = {n: int(np.sum(hourly["limiting_subcell"] == n)) for n in names}
+    two_terminal = hourly["two_terminal_W_m2"].to_numpy()
+    limiting_share = {n: (float(two_terminal[hourly["limiting_subcell"].to_numpy() == n].sum()
+                                / two_terminal.sum()) if two_terminal.sum() > 0 else None)
+                      for n in names}
+    month = hourly["sun_time"].dt.month.to_numpy()
+    rows = []
+    for m in range(1, 13):
+        pick = month == m
+        sub = hourly[pick]
+        h = _kwh(sub["poa_W_m2"])
+        e = _kwh(sub["power_W_m2"])
+        weights = sub["poa_W_m2"].to_numpy()
+        mean_cell = (float(np.average(sub["cell_temperature_C"], weights=weights))
+                     if weights.sum() > 0 else None)
+        row = {"month": m, "sun_hours": int(pick.sum()), "insolation_kWh_m2": h,
+               "energy_kWh_m2": e, "two_terminal_kWh_m2": _kwh(sub["two_terminal_W_m2"]),
+               "four_terminal_kWh_m2": _kwh(sub["four_terminal_W_m2"]),
+               "efficiency_pct": 100 * e / h if h > 0 else None,
+               "cell_temperature_C": mean_cell}
+        for n in names:
+            row[f"{n}.limiting_hours"] = int(np.sum(sub["limiting_subcell"] == n))
+        rows.append(row)
+    monthly = pd.DataFrame(rows)
+    subcell_rows = []
+    for n in names:
+        factor = hourly[f"{n}.mismatch_factor"].to_numpy()
+        ok = np.isfinite(factor) & (poa > 0)
+        subcell_rows.append({
+            "name": n,
+            "photocurrent_from": "measured quantum efficiency" if n in tables
+            else "step absorptance above the gap",
+            "gap_follows": laws[n].name if n in laws else None,
+            "annual_charge_kAh_m2": float(np.sum(units.a_m2(
+                hourly[f"{n}.photocurrent_mA_cm2"].to_numpy())) * HOURS_PER_STEP / 1000.0),
+            "alone_kWh_m2": _kwh(hourly[f"{n}.alone_W_m2"]),
+            "limiting_hours": limiting_hours[n],
+            "limiting_energy_share": limiting_share[n],
+            "mismatch_factor_weighted": (float(np.average(factor[ok], weights=poa[ok]))
+                                         if ok.any() else None),
+            "mismatch_factor_min": float(np.min(factor[ok])) if ok.any() else None,
+            "mismatch_factor_max": float(np.max(factor[ok])) if ok.any() else None,
+        })
+    if not laws:
+        warnings_.append("gaps are fixed at the file's values for every hour (no --gap-material):"
+                         " only the dark currents follow the cell temperature")
+    days = plot_days(hourly, weather.latitude)
+    efficiency = 100 * energy / insolation if insolation > 0 else None
+    summary = {
+        "stack": stack.name, "source_file": stack.source,
+        "weather": {"file": weather.source, "station": weather.station,
+                    "latitude_deg": weather.latitude, "longitude_deg": weather.longitude,
+                    "altitude_m": weather.altitude_m, "timezone_h": weather.timezone_h,
+                    "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly))},
+        "plane": {k: light.settings[k] for k in ("tilt_deg", "azimuth_deg", "sky_model",
+                                                 "albedo")},
+        "method": {k: v for k, v in light.settings.items()
+                   if k not in ("tilt_deg", "azimuth_deg", "sky_model", "albedo")},
+        "annual_insolation_kWh_m2": insolation,
+        "annual_energy_kWh_m2": energy,
+        "energy_weighted_efficiency_pct": efficiency,
+        "efficiency_at_standard_conditions_pct": standard_efficiency,
+        "performance_ratio": (efficiency / standard_efficiency
+                              if efficiency is not None and standard_efficiency > 0 else None),
+        "wiring": {
+            "terminals_in_file": stack.conditions.terminals,
+            "two_terminal_kWh_m2": two,
+            "four_terminal_kWh_m2": four,
+            "four_terminal_gain_pct": 100 * (four - two) / two if two > 0 else None,
+            "two_terminal_means": "every element of the stack in one series string, in optical "
+                                  "order",
+            "four_terminal_means": "each subcell on its own at its own maximum power point; the "
+                                   "stack's other elements (resistors, tunnel junctions, "
+                                   "interfaces) left out",
+        },
+        "current_mismatch_loss_kWh_m2": four - two,
+        "current_mismatch_loss_pct": 100 * (four - two) / four if four > 0 else None,
+        "of_which_other_elements_kWh_m2": (None if bare is None else
+                                           bare - two if passive else 0.0),
+        "limiting_hours": limiting_hours,
+        "subcells": subcell_rows,
+        "monthly": json.loads(monthly.to_json(orient="records")),
+        "plot_days": {k: str(v) for k, v in days.items()},
+        "failed_hours": failed,
+        "warnings": warnings_,
+        "cautions": [CAUTION],
+        "model": "circuit level: detailed-balance subcells (generalized Planck law, J01 at each "
+                 "hour's cell temperature), lumped resistors, Esaki tunnel junctions, isotype "
+                 "interfaces; hours solved together in one batch",
+    }
+    return summary, monthly
+
+
+# ---------------------------------------------------------------------------------- reporting
+def text_summary(result):
+    """Plain-text summary of a YieldResult for the terminal."""
+    s = result.summary
+    w = s["weather"]
+    p = s["plane"]
+    lines = [f"siltandem — energy yield of {s['stack']}"]
+    if s.get("source_file"):
+        lines.append(f"  file: {s['source_file']}")
+    lines.append(f"  weather: {w['station']} ({w['latitude_deg']:.2f}, {w['longitude_deg']:.2f}),"
+                 f" {w['hours_with_light']} of {w['hours']} hours with light")
+    lines.append(f"  plane: tilt {p['tilt_deg']:g} deg, azimuth {p['azimuth_deg']:g} deg, "
+                 f"{p['sky_model']} sky; cell temperature "
+                 f"{s['method']['temperature_model']['parameters']} (SAPM)")
+    lines.append("")
+    wiring = s["wiring"]
+    eff = s["energy_weighted_efficiency_pct"]
+    lines += [
+        f"  plane-of-array insolation     {s['annual_insolation_kWh_m2']:9.1f} kWh/m2",
+        f"  annual energy                 {s['annual_energy_kWh_m2']:9.2f} kWh/m2",
+        f"  energy-weighted efficiency    {eff:9.3f} %" if eff is not None else
+        "  energy-weighted efficiency        -",
+        f"  efficiency at AM1.5G, 25 degC {s['efficiency_at_standard_conditions_pct']:9.3f} %",
+        f"  two-terminal (all in series)  {wiring['two_terminal_kWh_m2']:9.2f} kWh/m2",
+        f"  four-terminal (each at MPP)   {wiring['four_terminal_kWh_m2']:9.2f} kWh/m2",
+        f"  loss to current mismatch      {s['current_mismatch_loss_kWh_m2']:9.2f} kWh/m2"
+        + (f" ({s['current_mismatch_loss_pct']:.2f} % of four-terminal"
+           + (f"; {s['of_which_other_elements_kWh_m2']:.2f} of it from the other elements)"
+              if s["of_which_other_elements_kWh_m2"] else ")")
+           if s["current_mismatch_loss_pct"] is not None else ""),
+        "",
+        "  subcells: hours limiting the series current, spectral mismatch against AM1.5G",
+    ]
+    width = max(len(c["name"]) for c in s["subcells"])
+    for c in s["subcells"]:
+        share = c["limiting_energy_share"]
+        lines.append(f"    {c['name']:<{width}}  limits {c['limiting_hours']:5d} h"
+                     + (f" ({100 * share:5.1f} % of the energy)" if share is not None else "")
+                     + (f"  mismatch {c['mismatch_factor_weighted']:.4f} "
+                        f"[{c['mismatch_factor_min']:.3f}, {c['mismatch_factor_max']:.3f}]"
+                        if c["mismatch_factor_weighted"] is not None else "")
+                     + (f"  gap follows {c['gap_follows']}" if c["gap_follows"] else ""))
+    lines += ["", "  month  insolation  energy  2T      4T      efficiency  cell degC"]
+    for row in s["monthly"]:
+        eff_m = "-" if row["efficiency_pct"] is None else f"{row['efficiency_pct']:.2f}"
+        cell = "-" if row["cell_temperature_C"] is None else f"{row['cell_temperature_C']:.1f}"
+        lines.append(f"  {row['month']:5d}  {row['insolation_kWh_m2']:10.1f}  "
+                     f"{row['energy_kWh_m2']:6.2f}  {row['two_terminal_kWh_m2']:6.2f}  "
+                     f"{row['four_terminal_kWh_m2']:6.2f}  {eff_m:>10}  {cell:>9}")
+    lines.append("")
+    for text in s["warnings"]:
+        lines.append(f"  warning: {text}")
+    for text in s["cautions"]:
+        lines.append(f"  caution: {text}")
+    return "\n".join(lines) + "\n"
+
+
+def hourly_table(result):
+    """The hourly table for CSV: the file's time stamp and the sun time as ISO text first."""
+    table = result.hourly.copy()
+    table.insert(0, "time", [t.isoformat() for t in table.index])
+    table["sun_time"] = [t.isoformat() for t in table["sun_time"]]
+    return table.reset_index(drop=True)
+
+
+def plot_yield(result, axes=None):
+    """(a) energy by month, two- and four-terminal; (b, c) each subcell's photocurrent through a
+    summer and a winter day, the limiting one marked. Returns the three axes."""
+    import datetime
+
+    if axes is None:
+        import matplotlib
+
+        matplotlib.use("Agg", force=False)
+        import matplotlib.pyplot as plt
+
+        _, axes = plt.subplots(1, 3, figsize=(15, 4.6), gridspec_kw={"width_ratios": [1.3, 1, 1]})
+    s = result.summary
+    monthly = result.monthly
+    ax = axes[0]
+    x = monthly["month"].to_numpy()
+    ax.bar(x, monthly["energy_kWh_m2"], color="#4a7ab0", label="stack as wired")
+    ax.plot(x, monthly["four_terminal_kWh_m2"], "o", mfc="white", mec="#c0392b",
+            label="four-terminal (each subcell at its MPP)")
+    if s["wiring"]["terminals_in_file"] != 2:
+        ax.plot(x, monthly["two_terminal_kWh_m2"], "s", mfc="white", mec="black",
+                label="two-terminal")
+    ax.set_xticks(range(1, 13))
+    ax.set_xticklabels("JFMAMJJASOND")
+    ax.set_xlabel("month")
+    ax.set_ylabel("energy (kWh/m²)")
+    ax.set_title(f"(a) {s['annual_energy_kWh_m2']:.1f} kWh/m² a year, "
+                 f"{s['energy_weighted_efficiency_pct']:.2f} % energy-weighted", fontsize=10)
+    top = np.nanmax(np.r_[monthly["four_terminal_kWh_m2"], monthly["energy_kWh_m2"], 1e-9])
+    ax.set_ylim(0, 1.3 * top)
+    ax.legend(fontsize=8, loc="upper center", ncol=2)
+    hourly = result.hourly
+    names = [c["name"] for c in s["subcells"]]
+    for ax, (season, day), letter in zip(axes[1:], s["plot_days"].items(), "bc"):
+        date = datetime.date.fromisoformat(day)
+        pick = hourly["sun_time"].dt.date.to_numpy() == date
+        sub = hourly[pick]
+        clock = (sub["sun_time"].dt.hour + sub["sun_time"].dt.minute / 60).to_numpy()
+        for k, name in enumerate(names):
+            current = sub[f"{name}.photocurrent_mA_cm2"].to_numpy()
+            ax.plot(clock, current, "-", color=f"C{k}", label=name)
+            marked = sub["limiting_subcell"].to_numpy() == name
+            ax.plot(clock[marked], current[marked], "o", color=f"C{k}", ms=7)
+        ax.set_xlabel("hour (local standard time, middle of the hour)")
+        ax.set_ylabel("photocurrent (mA/cm²)")
+        ax.set_title(f"({letter}) {season} day {day}\n● marks the subcell limiting the series "
+                     "current", fontsize=10)
+        ax.legend(fontsize=8)
+    return axes
