@@ -3,10 +3,10 @@
 Prints medians of repeated runs and their ratios; asserts nothing (these machines are shared and
 noisy: compare ratios, not seconds). Run: python benchmarks/bench_solve.py
 """
-import statistics
-import time
 
 import numpy as np
+
+from timing import median_time
 
 from siltandem.elements import Subcell, batch
 from siltandem.laws.optics import step_absorber_photocurrents
@@ -16,13 +16,6 @@ from siltandem.spectra import get_spectrum
 from siltandem.stack import load_stack
 
 
-def median_time(function, repeats=5):
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
 
 
 def dual_cells(gaps, spectrum):

@@ -12,7 +12,6 @@
 Asserts nothing: prints numbers and ratios. Run: python benchmarks/bench_studies.py [--million]
 """
 import resource
-import statistics
 import subprocess
 import sys
 import tempfile
@@ -21,6 +20,8 @@ import time
 from pathlib import Path
 
 import numpy as np
+
+from timing import median_time
 
 from siltandem.constants import thermal_voltage_V
 from siltandem.laws.optics import step_absorber_photocurrents
@@ -44,13 +45,6 @@ gap_eV = 1.12
 """
 
 
-def median_time(function, repeats=5):
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
 
 
 def bare_numpy_map(gaps, absorptances, spectrum, points=400):

@@ -30,16 +30,17 @@ def add_study_options(parser):
 
 def _check_paths(args):
     for option, path, allowed in (("--csv", args.csv, {".csv"}),
-                                  ("--parquet", args.parquet, {".parquet"}),
+                                  ("--parquet", getattr(args, "parquet", None), {".parquet"}),
                                   ("--plot", args.plot, {".png", ".svg", ".pdf"})):
         if path is not None and Path(path).suffix.lower() not in allowed:
             raise StackError(f"{option} {path}: unsupported file type", where=option,
                              fix=f"give a path ending in {' or '.join(sorted(allowed))}")
-    if args.workers is not None and args.cluster:
+    workers, cluster = getattr(args, "workers", None), getattr(args, "cluster", None)
+    if workers is not None and cluster:
         raise StackError("--workers and --cluster exclude each other", where="--workers",
                          fix="give one of them")
-    if args.workers is not None and not 1 <= args.workers <= 256:
-        raise StackError(f"--workers {args.workers} must be 1..256", where="--workers",
+    if workers is not None and not 1 <= workers <= 256:
+        raise StackError(f"--workers {workers} must be 1..256", where="--workers",
                          fix="give the number of local processes")
 
 
@@ -182,7 +183,7 @@ def run_losses(args):
     from .studies.losses import loss_waterfall, plot_waterfall
 
     args.parquet = None
-    _check_paths_simple(args)
+    _check_paths(args)
     stack = load_stack(args.stack)
     if stack.conditions.terminals != 2:
         raise StackError("the loss waterfall is for two-terminal stacks", file=stack.source,
@@ -202,14 +203,6 @@ def run_losses(args):
         figure = plot_waterfall(waterfall).figure
     _write_outputs(args, pd.DataFrame(waterfall["steps"]), waterfall, figure)
     return 0
-
-
-def _check_paths_simple(args):
-    for option, path, allowed in (("--csv", args.csv, {".csv"}),
-                                  ("--plot", args.plot, {".png", ".svg", ".pdf"})):
-        if path is not None and Path(path).suffix.lower() not in allowed:
-            raise StackError(f"{option} {path}: unsupported file type", where=option,
-                             fix=f"give a path ending in {' or '.join(sorted(allowed))}")
 
 
 def add_placements_command(commands):
