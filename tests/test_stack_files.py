@@ -123,3 +123,10 @@ def test_every_demo_stack_loads_and_is_marked_invented(name):
     path = Path(__file__).resolve().parents[1] / "stacks" / name
     load_stack(path)
     assert "INVENTED" in path.read_text()
+
+
+def test_byte_order_mark_is_accepted(tmp_path):
+    # some editors start UTF-8 files with a byte-order mark (common practice, no source)
+    path = tmp_path / "bom.toml"
+    path.write_bytes(b"\xef\xbb\xbf" + CELL.encode())
+    assert load_stack(path).elements[0].name == "top"

@@ -166,28 +166,42 @@ class _String:
         return out
 
 
-def spread_parameter(string, t_start, t_end, points):
-    """Pilot voltages from t_start to t_end (each (B, 1)) spread evenly in t AND in current.
+def spread_parameter(string, t_start, t_end, points, branches=None):
+    """Pilot voltages from t_start to t_end (each (B, 1)) spaced evenly along the curve.
 
-    Half the points are uniform in the pilot voltage, half uniform in the string current (the
-    pilot is inverted at those currents); merged in path order. Uniform t alone leaves the
-    knee of a non-limiting cell nearly empty when the pilot spans a long reverse branch.
+    The spacing is uniform in arc length of the terminal curve in (V / V-span, J / J-span): a
+    dense pre-sample (uniform in t and in current) gives the arc length as a function of t, and
+    the returned t are where it takes evenly spaced values. Every returned point is then
+    evaluated exactly by the caller; only their placement comes from the pre-sample. Uniform t
+    alone leaves the knee of a non-limiting cell, or a junction's valley, nearly empty.
     """
-    n_t = points - points // 2
-    n_j = points - n_t
-    s = np.linspace(0.0, 1.0, n_t)[None, :]
+    dense = 4 * points
+    s = np.linspace(0.0, 1.0, dense // 2)[None, :]
     by_t = t_start + (t_end - t_start) * s
-    if n_j == 0:
-        return by_t
-    j_start = string.evaluate(t_start)["current"]
-    j_end = string.evaluate(t_end)["current"]
-    inner = np.linspace(0.0, 1.0, n_j + 2)[None, 1:-1]
+    j_start = string.evaluate(t_start, branches=branches)["current"]
+    j_end = string.evaluate(t_end, branches=branches)["current"]
+    inner = np.linspace(0.0, 1.0, dense - dense // 2 + 2)[None, 1:-1]
     with np.errstate(invalid="ignore"):
         by_j = string.pilot_voltage_at(j_start + (j_end - j_start) * inner)
     low, high = np.minimum(t_start, t_end), np.maximum(t_start, t_end)
     by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
     merged = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
-    return np.where(t_end < t_start, merged[:, ::-1], merged)
+    merged = np.where(t_end < t_start, merged[:, ::-1], merged)
+    sample = string.evaluate(merged, branches=branches)
+    v = np.nan_to_num(sample["voltage"], nan=0.0, posinf=0.0, neginf=0.0)
+    j = np.nan_to_num(sample["current"], nan=0.0, posinf=0.0, neginf=0.0)
+    v_span = np.maximum(np.ptp(v, axis=1, keepdims=True), 1e-12)
+    j_span = np.maximum(np.ptp(j, axis=1, keepdims=True), 1e-12)
+    step = np.hypot(np.diff(v, axis=1) / v_span, np.diff(j, axis=1) / j_span)
+    # a little weight on t itself keeps points on stretches where the curve barely moves
+    t_span = np.maximum(np.abs(t_end - t_start), 1e-12)
+    step = step + 0.05 * np.abs(np.diff(merged, axis=1)) / t_span
+    arc = np.concatenate([np.zeros((merged.shape[0], 1)), np.cumsum(step, axis=1)], axis=1)
+    targets = np.linspace(0.0, 1.0, points)[None, :] * arc[:, -1:]
+    out = np.empty((merged.shape[0], points))
+    for row in range(merged.shape[0]):
+        out[row] = np.interp(targets[row], arc[row], merged[row])
+    return out
 
 
 def _finite_or(value, fallback):

@@ -210,7 +210,7 @@ def _parse_element(index, table, *, file, terminals):
     where = f"element {index} {name!r}"
     if "kind" not in table:
         raise StackError("missing key 'kind'", file=file, where=where,
-                         fix='add kind = "subcell", "resistor" or "tunnel"')
+                         fix='add kind = "subcell", "resistor", "tunnel" or "isotype"')
     kind = table["kind"]
     if not isinstance(kind, str):
         raise StackError(f"kind must be text, got {kind!r}", file=file, where=where,
@@ -489,7 +489,7 @@ def load_stack(path):
                          fix="give the path of an existing .toml stack file")
     try:
         raw = path.read_bytes()
-        text = raw.decode("utf-8")
+        text = raw.decode("utf-8-sig")   # a byte-order mark, as some editors write, is fine
     except UnicodeDecodeError as exc:
         raise StackError(f"not UTF-8 text (byte {exc.start})", file=path,
                          fix="save the stack file as UTF-8 TOML") from None

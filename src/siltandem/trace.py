@@ -100,7 +100,7 @@ def _sample(string, pieces, counts):
 
     parts = []
     for (state, t_a, t_b), n in zip(pieces, counts):
-        ts = spread_parameter(string, t_a, t_b, n)
+        ts = spread_parameter(string, t_a, t_b, n, branches=state)
         e = string.evaluate(ts, branches=state, slopes=True)
         parts.append((state, ts, e))
     return parts
