@@ -44,10 +44,18 @@ def plot_map(table, first, second, column="efficiency_pct", ax=None, *, title=""
     ax.clabel(lines, fontsize=7, fmt="%.3g")
     best = optimum(table, column)
     ax.plot([best[first.column]], [best[second.column]], "*", ms=16, color="gold", mec="black")
+    # the label points inwards from the optimum, on a white box, wherever the optimum lies
+    x_mid = 0.5 * (x.min() + x.max())
+    y_mid = 0.5 * (y.min() + y.max())
     ax.annotate(f"optimum {best[column]:.4g}\n{first.column} = {best[first.column]:.4g}\n"
                 f"{second.column} = {best[second.column]:.4g}",
                 (best[first.column], best[second.column]), textcoords="offset points",
-                xytext=(8, 8), fontsize=8, color="white")
+                xytext=(12 if best[first.column] <= x_mid else -12,
+                        -12 if best[second.column] >= y_mid else 12),
+                ha="left" if best[first.column] <= x_mid else "right",
+                va="top" if best[second.column] >= y_mid else "bottom", fontsize=8,
+                color="black", bbox=dict(boxstyle="round", fc="white", alpha=0.85),
+                arrowprops=dict(arrowstyle="-", color="white"))
     ax.set_xlabel(first.column)
     ax.set_ylabel(second.column)
     ax.set_title(title, fontsize=10)
