@@ -197,3 +197,23 @@ def test_explicit_fast_path_agrees_with_the_traced_solve(am15g):
     np.testing.assert_allclose(fast.jsc_A_m2, traced.jsc_A_m2, rtol=1e-9)
     np.testing.assert_allclose(fast.mpp_V, traced.mpp_V, rtol=1e-7)
     assert np.all(fast.power_balance_error_W_m2 < 1e-9 * fast.mpp_W_m2)
+
+
+def test_dim_light_unshunted_middle_cell_still_has_an_mpp():
+    # found by the energy-yield study at sunset: the shunted limiting cell lets the current rise
+    # to an unshunted cell's photocurrent, where that cell's voltage has no float64 value; the
+    # MPP search must not take that end for a root (demo triple, invented values, 1 W/m2 light)
+    from pathlib import Path
+
+    from siltandem.compile import compile_stack
+    from siltandem.stack import load_stack
+
+    circuit = compile_stack(load_stack(Path(__file__).resolve().parents[1] / "stacks"
+                                       / "demo_triple.toml"))
+    currents = {"top": 0.222261, "middle": 0.144605, "silicon": 0.069241}
+    elements = [e.with_photocurrent(currents[e.name]) if e.kind == "subcell" else e
+                for e in circuit.strings[0]]
+    s = solve_string(elements, 292.578)
+    assert not s.failed[0]
+    assert 0 < s.mpp_W_m2[0] < s.voc_V[0] * s.jsc_A_m2[0]
+    assert s.power_balance_error_W_m2[0] < 1e-9 * s.mpp_W_m2[0]

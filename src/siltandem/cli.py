@@ -85,6 +85,9 @@ def _parser():
                         help="the output column to map (default efficiency_pct)")
     add_losses_command(commands)
     add_placements_command(commands)
+    from .cli_yield import add_yield_command
+
+    add_yield_command(commands)
     library = commands.add_parser(
         "materials", help="list the materials library, or one material's properties",
         description="Without NAME: the materials in the library. With NAME (and --composition "
@@ -281,6 +284,10 @@ def main(argv=None):
             return _interface(args)
         if args.command == "materials":
             return _materials(args)
+        if args.command == "yield":
+            from .cli_yield import run_yield
+
+            return run_yield(args)
         if args.command == "placements":
             from .cli_studies import run_placements
 

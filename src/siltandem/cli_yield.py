@@ -66,6 +66,10 @@ def add_yield_command(commands):
     parser.add_argument("--eqe", action="append", metavar="SUBCELL=FILE.csv",
                         help="the subcell's photocurrent from its measured external quantum "
                              "efficiency (columns wavelength_nm, eqe); repeat for several")
+    parser.add_argument("--split-losses", action="store_true",
+                        help="also solve the subcells in series without the other elements, to "
+                             "tell how much of the mismatch loss those elements cost (one more "
+                             "batched solve)")
     parser.add_argument("--json", metavar="PATH", help="write the summary as JSON ('-' stdout)")
     parser.add_argument("--csv", metavar="PATH.csv", help="write the hourly table")
     parser.add_argument("--plot", metavar="PATH.png|svg",
@@ -90,7 +94,8 @@ def run_yield(args):
     stack = load_stack(args.stack)
     result = annual_yield(stack, args.weather, tilt_deg=args.tilt, azimuth_deg=args.azimuth,
                           sky_model=args.sky_model, mounting=args.mounting, albedo=args.albedo,
-                          scaling=args.scaling, gap_materials=gap_materials, eqe=eqe)
+                          scaling=args.scaling, gap_materials=gap_materials, eqe=eqe,
+                          split_losses=args.split_losses)
     to_stdout_json = args.json == "-"
     notices = sys.stderr if to_stdout_json else sys.stdout
     if not to_stdout_json:

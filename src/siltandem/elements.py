@@ -23,7 +23,7 @@ import numpy as np
 
 from .laws import diode, esaki, thermionic
 from .laws.radiative import radiative_saturation_current
-from .numerics import bracketed_root, safeguarded_newton
+from .numerics import safeguarded_newton
 
 
 def batch(value):

@@ -443,12 +443,19 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
 
     def power_slope(t):
         e = string.evaluate(t, slopes=True)
-        return _finite_or(e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"], 0.0)
+        # no value only where the current is beyond what an element can carry, at the reverse
+        # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
+        # there would be a false root)
+        return _finite_or(e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"], 1e300)
 
     t_mpp = bracketed_root(power_slope, lo, hi)
     interior = np.isfinite(t_mpp)
     t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
     at_mpp = string.evaluate(t_mpp)
+    lost = ~np.isfinite(at_mpp["current"] * at_mpp["voltage"])
+    if np.any(lost):
+        t_mpp = np.where(lost, np.take_along_axis(grid_t, best, axis=1), t_mpp)
+        at_mpp = string.evaluate(t_mpp)
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
 
     curve = None

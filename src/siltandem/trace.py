@@ -49,7 +49,6 @@ def _next_fold(branches, direction, peaks, valleys):
 
 
 def _build_pieces(string, t_forward, t_lowest, v_floor):
-    temperature = string.temperature_K
     tunnels = string.tunnels
     extrema = [string.tunnel_extrema[t.name] for t in tunnels]
     peaks = [_scalar(e.peak_A_m2) for e in extrema]
@@ -109,7 +108,7 @@ def _sample(string, pieces, counts):
 def _regime(voltage, current):
     """Shape of the terminal curve along the path (ordered forward to reverse)."""
     finite = np.isfinite(voltage) & np.isfinite(current)
-    v, j = voltage[finite], current[finite]
+    v = voltage[finite]
     scale = max(np.ptp(v), 1e-3)
     rises = np.diff(v) > 1e-9 * scale      # V should fall from forward to reverse bias
     if np.any(rises):

@@ -1,7 +1,6 @@
 """Design maps: a grid over two varied keys, any output column, the optimum marked."""
 import functools
 
-import numpy as np
 
 from ..parallel import run_chunks
 from .sweep import design_table, evaluate_chunk
