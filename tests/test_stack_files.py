@@ -130,3 +130,17 @@ def test_byte_order_mark_is_accepted(tmp_path):
     path = tmp_path / "bom.toml"
     path.write_bytes(b"\xef\xbb\xbf" + CELL.encode())
     assert load_stack(path).elements[0].name == "top"
+
+
+def test_subcell_material_key(tmp_path):
+    stack = load_stack(write(tmp_path, GOOD_HEAD + CELL + 'material = "GaAs"\n'))
+    assert stack.elements[0].values["material"] == "GaAs"
+    no_gap = load_stack(write(tmp_path, GOOD_HEAD + CELL.replace("gap_eV = 1.7\n", "")
+                              + 'material = "GaAs"\n', "b.toml"))
+    # the gap at 298.15 K from the library (VMR 2001 Varshni law for GaAs)
+    assert no_gap.elements[0].values["gap_eV"] == pytest.approx(1.4240, abs=2e-3)
+    with pytest.raises(StackError, match="not in the library") as info:
+        load_stack(write(tmp_path, GOOD_HEAD + CELL + 'material = "GaAz"\n', "c.toml"))
+    assert "key material" in info.value.where
+    with pytest.raises(StackError, match="material must be text"):
+        load_stack(write(tmp_path, GOOD_HEAD + CELL + "material = 3\n", "d.toml"))

@@ -13,7 +13,21 @@ from .elements import IsotypeInterface, Resistor, Subcell, TunnelJunction, batch
 from .errors import StackError
 
 
-def _subcell(spec):
+def _gap_at(spec, temperature_K):
+    """The subcell's gap at the run's temperature: as written, or, with ``material``, shifted by
+    the library's Varshni law from the standard temperature (``gap_eV`` is the 298.15 K gap)."""
+    v = spec.values
+    if "material" not in v:
+        return v["gap_eV"]
+    from .constants import STANDARD_TEMPERATURE_K
+    from .materials import load_material
+
+    law = load_material(v["material"])
+    return v["gap_eV"] + float(law.gap_eV(temperature_K)) - float(
+        law.gap_eV(STANDARD_TEMPERATURE_K))
+
+
+def _subcell(spec, temperature_K=None):
     v = spec.values
     # values may be arrays (a study varies them): every expression works elementwise
     shunt = np.asarray(v["shunt_ohm_cm2"], dtype=float)
@@ -22,13 +36,14 @@ def _subcell(spec):
     has_breakdown = np.isfinite(np.asarray(v["breakdown_V"], dtype=float))
     breakdown = np.where(has_breakdown, -np.asarray(v["breakdown_V"], dtype=float), -np.inf)
     factor = np.where(has_breakdown, v["breakdown_factor"], 0.0)
+    gap = v["gap_eV"] if temperature_K is None else _gap_at(spec, temperature_K)
     return Subcell(
-        name=spec.name, gap_eV=batch(v["gap_eV"]), absorptance=batch(v["absorptance"]),
+        name=spec.name, gap_eV=batch(gap), absorptance=batch(v["absorptance"]),
         ere=batch(v["ere"]), j02_A_m2=batch(units.a_m2(v["j02_mA_cm2"])),
         series_ohm_m2=batch(v["series_ohm_cm2"] * units.OHM_CM2_TO_OHM_M2),
         shunt_S_m2=batch(conductance), breakdown_V=batch(breakdown),
         breakdown_factor=batch(factor), breakdown_exponent=batch(v["breakdown_exponent"]),
-        string=spec.string)
+        string=spec.string, gap_material=v.get("material"))
 
 
 def _resistor(spec):
@@ -138,6 +153,8 @@ def compile_stack(stack):
     for spec in stack.elements:
         if spec.kind == "isotype":
             elements.append(_isotype(spec, stack.conditions.temperature_K, stack.source))
+        elif spec.kind == "subcell":
+            elements.append(_subcell(spec, stack.conditions.temperature_K))
         else:
             elements.append(BUILDERS[spec.kind](spec))
     return build_circuit(elements, stack.conditions, name=stack.name)

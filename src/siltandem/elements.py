@@ -75,6 +75,8 @@ class Subcell:
     kind: str = "subcell"
     #: J01 fixed by a layer-physics model (at the stack's temperature); None: J0,rad / ERE
     j01_fixed_A_m2: np.ndarray | None = None
+    #: library material whose Varshni law the gap follows with temperature (None: fixed gap)
+    gap_material: str | None = None
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):

@@ -313,10 +313,12 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                         "ignite material; never look into the beam, and cool the cell.")
     if circuit.model is not None:
         warnings_.extend(circuit.model.notes)
-    if conditions.temperature_K != 298.15 and circuit.model is None:
-        warnings_.append("circuit level: gaps are taken as given at "
-                         f"{conditions.temperature_K:g} K (no temperature shift of the gap); "
-                         "only the dark currents follow the temperature")
+    fixed = [c.name for c in circuit.subcells if c.gap_material is None]
+    if conditions.temperature_K != 298.15 and circuit.model is None and fixed:
+        warnings_.append("circuit level: the gaps of " + ", ".join(repr(n) for n in fixed)
+                         + f" are taken as given at {conditions.temperature_K:g} K (give a "
+                         "subcell material = \"...\" for its gap to follow the temperature); "
+                         "the dark currents follow the temperature")
     regimes = [r["regime"] for r in string_rows]
     return {
         "stack": stack.name,

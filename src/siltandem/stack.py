@@ -229,12 +229,19 @@ def _parse_element(index, table, *, file, terminals):
                          + "kind is one of " + ", ".join(repr(k) for k in
                                                         list(ELEMENT_SCHEMA) + ["isotype"]))
     schema = {p.key: p for p in ELEMENT_SCHEMA[kind]}
+    extra_keys = {"material"} if kind == "subcell" else set()
     for key in table:
-        if key not in schema and key not in COMMON_ELEMENT_KEYS:
+        if key not in schema and key not in COMMON_ELEMENT_KEYS and key not in extra_keys:
             raise StackError(f"unknown key {key!r} for a {kind}", file=file, where=where,
-                             fix=_suggest(key, list(schema) + list(COMMON_ELEMENT_KEYS))
-                             + "allowed keys: " + ", ".join(sorted(set(schema) | COMMON_ELEMENT_KEYS)))
+                             fix=_suggest(key, list(schema) + list(COMMON_ELEMENT_KEYS)
+                                          + list(extra_keys)) + "allowed keys: "
+                             + ", ".join(sorted(set(schema) | COMMON_ELEMENT_KEYS | extra_keys)))
     string = _parse_string(table, file=file, where=where, terminals=terminals)
+    material = None
+    if "material" in table:
+        material = _subcell_material(table["material"], file=file, where=where)
+        if "gap_eV" not in table:
+            table = {**table, "gap_eV": round(float(material.gap_eV(STANDARD_TEMPERATURE_K)), 6)}
     values = {}
     for key, spec in schema.items():
         if key in table:
@@ -246,6 +253,8 @@ def _parse_element(index, table, *, file, terminals):
         else:
             value = spec.default
         values[key] = value
+    if material is not None:
+        values["material"] = material.name
     if kind == "tunnel":
         _check_tunnel(values, file=file, where=where)
     if kind == "subcell" and "breakdown_V" in table and "shunt_ohm_cm2" not in table:
@@ -253,6 +262,22 @@ def _parse_element(index, table, *, file, terminals):
                          "shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)", file=file,
                          where=where, fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
     return ElementSpec(index, kind, name, string, values)
+
+
+def _subcell_material(name, *, file, where):
+    """A subcell's ``material``: its gap then follows the library's Varshni law with temperature."""
+    from .materials import MaterialError, load_material
+
+    if not isinstance(name, str):
+        raise StackError(f"material must be text, got {name!r}", file=file, where=where,
+                         fix='write material = "GaAs" (alloys with their fractions, e.g. '
+                             '"Ga0.51In0.49P")')
+    try:
+        return load_material(name)
+    except MaterialError as exc:
+        raise StackError(str(exc), file=file, where=f"{where}, key material",
+                         fix="see `siltandem materials`; an alloy takes its fractions in the "
+                             "name, e.g. Ga0.51In0.49P") from None
 
 
 def _parse_string(table, *, file, where, terminals):

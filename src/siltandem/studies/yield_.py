@@ -575,6 +575,11 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     subcells = circuit.subcells
     names = [s.name for s in subcells]
     laws = _gap_laws(gap_materials, names)
+    # a subcell that names its material in the stack file follows that material's gap law
+    # unless --gap-material says otherwise
+    for cell in subcells:
+        if cell.gap_material is not None and cell.name not in laws:
+            laws[cell.name] = _gap_laws({cell.name: cell.gap_material}, names)[cell.name]
     tables = _eqe_tables(eqe, names)
     frame = light.frame
     hours = len(frame)

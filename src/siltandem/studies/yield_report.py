@@ -96,9 +96,11 @@ def _summarise(stack, weather, light, hourly, names, laws, tables, standard_effi
             "mismatch_factor_min": float(np.min(factor[ok])) if ok.any() else None,
             "mismatch_factor_max": float(np.max(factor[ok])) if ok.any() else None,
         })
-    if not laws:
-        warnings_.append("gaps are fixed at the file's values for every hour (no --gap-material):"
-                         " only the dark currents follow the cell temperature")
+    fixed = [n for n in names if n not in laws]
+    if fixed:
+        warnings_.append("the gaps of " + ", ".join(repr(n) for n in fixed) + " are fixed at the "
+                         "file's values for every hour (give the subcell material = \"...\" or "
+                         "--gap-material): only their dark currents follow the cell temperature")
     days = plot_days(hourly, weather.latitude)
     efficiency = 100 * energy / insolation if insolation > 0 else None
     summary = {
