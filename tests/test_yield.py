@@ -483,3 +483,35 @@ def test_command_json_to_stdout_and_bad_input(tmp_path, capsys):
     assert "weather file not found" in error and "fix:" in error
     assert main(["yield", str(stack), "--weather", "demo", "--gap-material", "cell"]) == 2
     assert "is not NAME=MATERIAL" in capsys.readouterr().err
+
+
+def test_match_by_energy_ranks_by_the_year(tmp_path):
+    # the energy of each swept design equals a yield year of that design run on its own
+    import numpy as np
+
+    from siltandem.stack import load_stack
+    from siltandem.studies.matching import energy_by_value, match_currents
+    from siltandem.studies.sweep import _with_values, parse_vary
+    from siltandem.studies.yield_ import annual_yield, read_weather
+
+    path = tmp_path / "dual.toml"
+    path.write_text('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\n'
+                    'name = "top"\ngap_eV = 1.75\n[[element]]\nkind = "subcell"\n'
+                    'name = "bottom"\ngap_eV = 1.12\n')
+    stack = load_stack(path)
+    variation = parse_vary("top.absorptance=0.9:1.0:2", stack)
+    table, _ = match_currents(stack, variation, progress=False)
+    weather = read_weather("demo")
+    energies = energy_by_value(stack, variation, table, weather=weather, progress=False)
+    alone = annual_yield(_with_values(stack, {"top.absorptance": np.array([1.0])}), weather)
+    assert energies[-1] == pytest.approx(alone.summary["annual_energy_kWh_m2"], rel=1e-12)
+
+
+def test_by_energy_options_are_checked(tmp_path):
+    from test_main_job import DEMO, ROOT, cli
+
+    done = cli("match", DEMO, "--vary", "top.absorptance=0.8:1:3", "--by", "energy")
+    assert done.returncode == 2 and "--by energy needs --weather" in done.stderr
+    done = cli("placements", ROOT / "stacks" / "demo_placements.toml", "--by", "energy",
+               "--weather", "demo")
+    assert done.returncode == 2 and "not yet supported" in done.stderr

@@ -67,7 +67,8 @@ def _parser():
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
     face.add_argument("--temperature", type=_positive, metavar="K", help="cell temperature")
     face.add_argument("--points", type=int, default=21, help="rows of the printed J-V")
-    from .cli_studies import add_losses_command, add_placements_command, add_study_options
+    from .cli_studies import (add_energy_options, add_losses_command, add_placements_command,
+                              add_study_options)
 
     match = commands.add_parser(
         "match", help="photocurrents and efficiency against one key; the current-matched value",
@@ -75,6 +76,7 @@ def _parser():
                     "photocurrent and the efficiency, and the value where two subcells' "
                     "photocurrents cross (root finding).")
     add_study_options(match)
+    add_energy_options(match)
     design = commands.add_parser(
         "map", help="a 2-D design map over two keys, the optimum marked",
         description="Solve every design of a grid over two keys (--vary A --vary B); write the "

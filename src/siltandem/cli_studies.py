@@ -8,6 +8,26 @@ import numpy as np
 from .errors import StackError
 
 
+def add_energy_options(parser):
+    parser.add_argument("--by", choices=["efficiency", "energy"], default="efficiency",
+                        help="rank by efficiency at the stack's conditions (default) or by "
+                             "annual energy over a weather file's year")
+    parser.add_argument("--weather", metavar="FILE.csv|demo",
+                        help="with --by energy: a TMY3 weather file (demo: the one pvlib ships)")
+    parser.add_argument("--tilt", type=float, metavar="DEG", help="with --by energy: plane tilt")
+    parser.add_argument("--azimuth", type=float, metavar="DEG",
+                        help="with --by energy: plane azimuth (clockwise from north)")
+
+
+def _check_energy(args):
+    if args.by == "energy" and not args.weather:
+        raise StackError("--by energy needs --weather FILE (or --weather demo)", where="--by",
+                         fix="add --weather demo for the TMY3 file pvlib ships")
+    if args.by != "energy" and args.weather:
+        raise StackError("--weather goes with --by energy", where="--weather",
+                         fix="add --by energy, or leave out --weather")
+
+
 def add_study_options(parser):
     parser.add_argument("stack", help="stack file (.toml)")
     parser.add_argument("--vary", action="append", required=True, metavar="NAME.KEY=START:STOP:N",
@@ -81,6 +101,7 @@ def run_match(args):
     from .studies.sweep import parse_vary
 
     _check_paths(args)
+    _check_energy(args)
     stack = load_stack(args.stack)
     if len(args.vary) != 1:
         raise StackError(f"match takes one --vary, got {len(args.vary)}", where="--vary",
@@ -109,14 +130,32 @@ def run_match(args):
     best = table["efficiency_pct"].idxmax()
     print(f"  best efficiency on the grid: {table['efficiency_pct'][best]:.3f} % at "
           f"{variation.column} = {table[variation.column][best]:.6g}")
+    by_energy = None
+    if args.by == "energy":
+        from .studies.matching import energy_by_value
+
+        table["annual_energy_kWh_m2"] = energy_by_value(
+            stack, variation, table, weather=args.weather, tilt_deg=args.tilt,
+            azimuth_deg=args.azimuth, progress=not args.quiet)
+        top = table["annual_energy_kWh_m2"].idxmax()
+        by_energy = {"value": float(table[variation.column][top]),
+                     "annual_energy_kWh_m2": float(table["annual_energy_kWh_m2"][top])}
+        print(f"  best annual energy on the grid: {by_energy['annual_energy_kWh_m2']:.2f} kWh/m2"
+              f" at {variation.column} = {by_energy['value']:.6g} (weather {args.weather})")
     figure = None
     if args.plot:
         axes = plot_matching(table, variation, matches,
                              title=f"{stack.name}: current matching over {variation.column}")
         figure = axes[0].figure
+        if by_energy is not None:
+            twin = axes[1].twinx()
+            twin.plot(table[variation.column], table["annual_energy_kWh_m2"], color="tab:green",
+                      label="annual energy")
+            twin.set_ylabel("annual energy (kWh/m²)", color="tab:green")
     summary = {"stack": stack.name, "varied": variation.column, "matches": matches,
                "best": {"value": float(table[variation.column][best]),
-                        "efficiency_pct": float(table["efficiency_pct"][best])}}
+                        "efficiency_pct": float(table["efficiency_pct"][best])},
+               "best_by_energy": by_energy}
     _write_outputs(args, table, summary, figure)
     return 0
 
@@ -227,6 +266,7 @@ def add_placements_command(commands):
     placements.add_argument("--suns", type=float, help="override the concentration")
     placements.add_argument("--temperature", type=float, metavar="K", help="cell temperature")
     placements.add_argument("--quiet", action="store_true", help="no progress line")
+    add_energy_options(placements)
 
 
 def run_placements(args):
@@ -234,10 +274,15 @@ def run_placements(args):
     from .studies.placements import plot_placements, rank_placements
 
     _check_paths(args)
+    _check_energy(args)
     stack = load_stack(args.stack)
     if not stack.layers:
         raise StackError("placements are declared in layer stacks", file=stack.source,
                          fix="write the stack as [[layer]] tables with [[placement]] candidates")
+    if args.by == "energy":
+        raise StackError("ranking placements by energy needs the yield year of a layer stack, "
+                         "which is not yet supported", file=stack.source, where="--by",
+                         fix="rank by efficiency (the default) for now")
     table = rank_placements(stack, auto=args.auto, **_options(args))
     print(f"siltandem — tunnel-junction placements of {stack.name}")
     print("")

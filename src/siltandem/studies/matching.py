@@ -88,3 +88,35 @@ def plot_matching(table, variation, matches, axes=None, *, title=""):
     bottom.legend(fontsize=8)
     bottom.grid(alpha=0.3)
     return axes
+
+
+def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_deg=None,
+                    progress=True):
+    """Annual energy [kWh/m2] for every value of the sweep (one yield year per value).
+
+    ``weather`` is a path (``"demo"``: pvlib's TMY3 file) or a loaded Weather. Element stacks
+    only (the yield year of a layer stack is not yet supported).
+    """
+    import sys
+
+    from ..studies.sweep import _with_values
+    from .yield_ import annual_yield, read_weather
+
+    if stack.layers:
+        from ..errors import StackError
+
+        raise StackError("ranking by energy needs an element stack (the yield year of a layer "
+                         "stack is not yet supported)", file=stack.source,
+                         fix="rank by efficiency, or describe the stack with [[element]] tables")
+    year = read_weather(weather) if isinstance(weather, str) else weather
+    energies = []
+    values = table[variation.column].to_numpy()
+    for k, value in enumerate(values):
+        varied = _with_values(stack, {variation.column: np.array([value])})
+        result = annual_yield(varied, year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
+        energies.append(result.summary["annual_energy_kWh_m2"])
+        if progress:
+            print(f"\r  energy year {k + 1} / {len(values)}", end="", file=sys.stderr)
+    if progress:
+        print("", file=sys.stderr)
+    return np.asarray(energies, dtype=float)
