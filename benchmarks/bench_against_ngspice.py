@@ -22,9 +22,9 @@ What is timed
 
 Run: python benchmarks/bench_against_ngspice.py
 """
+import timing  # noqa: E402  (benchmarks/timing.py, beside this script)
 import statistics
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
@@ -45,12 +45,7 @@ DEFAULT_OPTIONS = "gmin=1e-18"
 
 
 def median_time(function, repeats=REPEATS):
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
+    return timing.median_time(function, repeats)
 
 
 def triple_builder(spectrum, *, lower_peak_A_m2, series_ohm_m2, j02=True):

@@ -11,9 +11,8 @@
 Prints medians and ratios; asserts nothing (the machine is shared and noisy).
 Run: python benchmarks/bench_parallel.py
 """
-import statistics
+import timing  # noqa: E402  (benchmarks/timing.py, beside this script)
 import tempfile
-import time
 
 import numpy as np
 import pandas as pd
@@ -36,12 +35,7 @@ def table(rows):
 
 
 def median_time(function, repeats=REPEATS):
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        function()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
+    return timing.median_time(function, repeats)
 
 
 def per_chunk(**options):

@@ -11,12 +11,10 @@
 
 Asserts nothing: prints numbers and ratios. Run: python benchmarks/bench_studies.py [--million]
 """
-import resource
 import subprocess
 import sys
 import tempfile
 import textwrap
-import time
 from pathlib import Path
 
 import numpy as np
