@@ -77,6 +77,9 @@ class Subcell:
     j01_fixed_A_m2: np.ndarray | None = None
     #: library material whose Varshni law the gap follows with temperature (None: fixed gap)
     gap_material: str | None = None
+    #: measured external quantum efficiency (wavelength_nm, eqe) within the stack: the
+    #: photocurrent is then q integral Phi EQE over the light on the stack (None: step absorber)
+    eqe_table: tuple | None = field(default=None, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):

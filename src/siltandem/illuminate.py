@@ -37,5 +37,13 @@ def illuminate(circuit, spectrum):
         "parasitic_A_m2": {},
         "spectrum": spectrum,
     }
+    # a subcell with a measured EQE (in the stack) collects q integral Phi EQE of the light on
+    # the stack; its step absorptance still filters the light for the subcells below
+    from .laws.spectral import quantum_efficiency_photocurrent
+
+    currents = [quantum_efficiency_photocurrent(flux, wavelength_nm=wavelength,
+                                                eqe_wavelength_nm=s.eqe_table[0],
+                                                eqe=s.eqe_table[1]) * np.ones_like(j)
+                if s.eqe_table is not None else j for s, j in zip(subcells, currents)]
     lit = [s.with_photocurrent(j) for s, j in zip(subcells, currents)]
     return circuit.with_elements(lit, optics=optics)

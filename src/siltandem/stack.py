@@ -229,7 +229,7 @@ def _parse_element(index, table, *, file, terminals):
                          + "kind is one of " + ", ".join(repr(k) for k in
                                                         list(ELEMENT_SCHEMA) + ["isotype"]))
     schema = {p.key: p for p in ELEMENT_SCHEMA[kind]}
-    extra_keys = {"material"} if kind == "subcell" else set()
+    extra_keys = {"material", "eqe"} if kind == "subcell" else set()
     for key in table:
         if key not in schema and key not in COMMON_ELEMENT_KEYS and key not in extra_keys:
             raise StackError(f"unknown key {key!r} for a {kind}", file=file, where=where,
@@ -255,6 +255,8 @@ def _parse_element(index, table, *, file, terminals):
         values[key] = value
     if material is not None:
         values["material"] = material.name
+    if "eqe" in table:
+        values["eqe"] = _subcell_eqe(table["eqe"], file=file, where=where)
     if kind == "tunnel":
         _check_tunnel(values, file=file, where=where)
     if kind == "subcell" and "breakdown_V" in table and "shunt_ohm_cm2" not in table:
@@ -278,6 +280,24 @@ def _subcell_material(name, *, file, where):
         raise StackError(str(exc), file=file, where=f"{where}, key material",
                          fix="see `siltandem materials`; an alloy takes its fractions in the "
                              "name, e.g. Ga0.51In0.49P") from None
+
+
+def _subcell_eqe(name, *, file, where):
+    """A subcell's measured ``eqe`` CSV (wavelength_nm, eqe), resolved next to the stack file."""
+    from .studies.yield_ import read_eqe_csv
+
+    if not isinstance(name, str):
+        raise StackError(f"eqe must be a file path (text), got {name!r}", file=file, where=where,
+                         fix='write eqe = "top_eqe.csv" (columns wavelength_nm, eqe)')
+    path = Path(name)
+    if file is not None and not path.is_absolute():
+        path = Path(file).parent / path
+    if not path.is_file():
+        raise StackError(f"quantum-efficiency file not found: {path}", file=file,
+                         where=f"{where}, key eqe",
+                         fix="give the CSV's path relative to the stack file")
+    read_eqe_csv(path, where=f"{where}, key eqe")
+    return str(path)
 
 
 def _parse_string(table, *, file, where, terminals):

@@ -581,6 +581,10 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
         if cell.gap_material is not None and cell.name not in laws:
             laws[cell.name] = _gap_laws({cell.name: cell.gap_material}, names)[cell.name]
     tables = _eqe_tables(eqe, names)
+    # a subcell whose stack file gives its measured EQE uses it unless --eqe says otherwise
+    for cell in subcells:
+        if cell.eqe_table is not None and cell.name not in tables:
+            tables[cell.name] = cell.eqe_table
     frame = light.frame
     hours = len(frame)
     if hours == 0:
