@@ -76,3 +76,19 @@ def test_placements_command(tmp_path):
     assert (tmp_path / "r.png").stat().st_size > 1000
     bad = cli("placements", ROOT / "stacks" / "demo_dual.toml")
     assert bad.returncode == 2 and "layer stacks" in bad.stderr
+
+
+def test_placements_by_energy_rank_by_the_year():
+    from siltandem.placements_spec import with_placement
+    from siltandem.studies.placements import energy_of_candidates
+    from siltandem.studies.yield_ import annual_yield, read_weather
+
+    stack = load_stack(DEMO)
+    weather = read_weather("demo")
+    table = energy_of_candidates(stack, rank_placements(stack, progress=False),
+                                 weather=weather, progress=False)
+    assert np.all(np.diff(table["annual_energy_kWh_m2"].to_numpy()) <= 0)
+    assert table["placement"].iloc[-1] == "in silicon"
+    best = next(p for p in stack.extra["placements"] if p.name == table["placement"].iloc[0])
+    alone = annual_yield(with_placement(stack, best), weather).summary["annual_energy_kWh_m2"]
+    assert table["annual_energy_kWh_m2"].iloc[0] == pytest.approx(alone, rel=1e-12)

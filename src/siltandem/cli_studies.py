@@ -279,15 +279,22 @@ def run_placements(args):
     if not stack.layers:
         raise StackError("placements are declared in layer stacks", file=stack.source,
                          fix="write the stack as [[layer]] tables with [[placement]] candidates")
-    if args.by == "energy":
-        raise StackError("ranking placements by energy needs the yield year of a layer stack, "
-                         "which is not yet supported", file=stack.source, where="--by",
-                         fix="rank by efficiency (the default) for now")
+
     table = rank_placements(stack, auto=args.auto, **_options(args))
-    print(f"siltandem — tunnel-junction placements of {stack.name}")
+    if args.by == "energy":
+        from .studies.placements import energy_of_candidates
+
+        table = energy_of_candidates(stack, table, auto=args.auto, weather=args.weather,
+                                     tilt_deg=args.tilt, azimuth_deg=args.azimuth,
+                                     progress=not args.quiet)
+    print(f"siltandem — tunnel-junction placements of {stack.name}"
+          + (f", ranked by annual energy (weather {args.weather})" if args.by == "energy"
+             else ""))
     print("")
+    energy = "annual_energy_kWh_m2" in table.columns
     print(f"  {'rank':>4}  {'placement':<40} {'efficiency %':>12} {'Voc V':>8} {'FF %':>6} "
-          f"{'junctions %':>11} {'interfaces %':>12}  limiting")
+          f"{'junctions %':>11} {'interfaces %':>12}  limiting"
+          + ("   energy kWh/m2" if energy else ""))
     for _, row in table.iterrows():
         if not np.isfinite(row["efficiency_pct"]):
             print(f"  {row['rank']:>4}  {row['placement']:<40} {'-':>12}  {row['problem']}")
@@ -295,7 +302,8 @@ def run_placements(args):
         print(f"  {row['rank']:>4}  {row['placement']:<40} {row['efficiency_pct']:12.3f} "
               f"{row['voc_V']:8.4f} {100 * row['fill_factor']:6.2f} "
               f"{row['tunnel_penalty_pct_abs']:11.3f} {row['interface_penalty_pct_abs']:12.3f}  "
-              f"{row['limiting_subcell']}")
+              f"{row['limiting_subcell']}"
+              + (f"   {row['annual_energy_kWh_m2']:.2f}" if energy else ""))
     print("  (junctions / interfaces: efficiency regained by removing them, % absolute)")
     figure = None
     if args.plot:

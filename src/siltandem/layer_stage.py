@@ -341,3 +341,70 @@ def illuminate_layers(circuit, spectrum):
         "absorbed_A_m2": absorbed, "collected_A_m2": collected_by,
         "budget_error_relative": abs(closure) / incident, "spectrum": spectrum})
     return circuit.with_elements(lit, optics=optics)
+
+
+def layer_photocurrents(model, wavelength_nm, flux):
+    """Collected photocurrent [A/m^2] of every subcell of a layer model, for many spectra.
+
+    ``flux`` is (..., M) on ``wavelength_nm`` (M,); returns a list (subcell order of the model)
+    of arrays of shape ``flux.shape[:-1]``. Same optics as :func:`illuminate_layers`, with the
+    layers' absorption at the model's temperature.
+    """
+    wavelength = np.asarray(wavelength_nm, dtype=float)
+    flux = np.asarray(flux, dtype=float)
+    temperature = model.temperature_K
+    alphas = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
+              for m in model.materials]
+    thicknesses = [layer.thickness_nm * 1e-9 for layer in model.layers]
+    top = model.materials[0]
+    substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(wavelength),
+                                       alpha_per_m=alphas[0])
+    response = thinfilm.coating_response(
+        wavelength, substrate_index=substrate,
+        coating_indices=[c.refractive_index + 1j * c.extinction for c in model.coatings],
+        coating_thicknesses_nm=[c.thickness_nm for c in model.coatings],
+        ambient_index=model.ambient_index)
+    reflectance = np.asarray(response.reflectance, dtype=float)
+    transmittance = np.asarray(response.transmittance, dtype=float)
+    budget = thinfilm.layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
+                                       front_reflectance=1.0 - transmittance,
+                                       back_reflectance=model.back_reflectance,
+                                       front_internal_reflectance=reflectance
+                                       if model.back_reflectance > 0 else 0.0)
+    currents = []
+    for cell in model.subcells:
+        result = collection.collected_photocurrent(
+            alphas[cell.emitter], photon_flux_m2_s=budget.downward_at_top[cell.emitter],
+            emitter_thickness_m=cell.emitter_thickness_m,
+            emitter_diffusion_length_m=cell.emitter_length_m,
+            emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
+            front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
+            base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
+            base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
+            back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], where=cell.name)
+        total = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
+        currents.append(np.trapezoid(total, wavelength, axis=-1))
+    return currents
+
+
+def dark_currents_at(model, circuit, temperature_K):
+    """J01 and J02 of each layer subcell at other temperatures (arrays of temperature's shape).
+
+    The diffusion J01 scales with ni^2 and J02 with ni (the intrinsic density of the absorber,
+    the library's Nc Nv T^1.5 law and Varshni gap); the radiative floor is applied again at
+    each temperature. Diffusion lengths, lifetimes and mobilities stay at the stack's values.
+    """
+    out = {}
+    t0 = model.temperature_K
+    for cell_model, cell in zip(model.subcells, [circuit.element(c.name) for c in model.subcells]):
+        material = model.materials[cell_model.emitter]
+        ratio = (np.asarray(material.intrinsic_density_per_m3(temperature_K), dtype=float)
+                 / float(material.intrinsic_density_per_m3(t0)))
+        details = circuit.optics["layer_details"]["subcells"][cell.name]
+        diffusion = details["j01_diffusion_A_m2"] * ratio**2
+        gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
+        floor = radiative_saturation_current(gap, temperature_K=temperature_K)
+        j01 = np.maximum(diffusion, floor)
+        j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
+        out[cell.name] = (j01, j02, gap)
+    return out

@@ -149,3 +149,31 @@ def plot_placements(table, axes=None, *, title=""):
     for ax in axes:
         ax.grid(alpha=0.3, axis="x")
     return axes
+
+
+def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, azimuth_deg=None,
+                         progress=True):
+    """Add each candidate's annual energy (a yield year each) and rank by it (best first)."""
+    import sys
+
+    from .yield_ import annual_yield, read_weather
+
+    candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
+    by_name = {c.name: c for c in candidates}
+    year = read_weather(weather) if isinstance(weather, str) else weather
+    energies = []
+    for k, name in enumerate(table["placement"]):
+        if not np.isfinite(table["efficiency_pct"].iloc[k]):
+            energies.append(np.nan)
+            continue
+        result = annual_yield(with_placement(stack, by_name[name]), year, tilt_deg=tilt_deg,
+                              azimuth_deg=azimuth_deg)
+        energies.append(result.summary["annual_energy_kWh_m2"])
+        if progress:
+            print(f"\r  energy year {k + 1} / {len(table)}", end="", file=sys.stderr)
+    if progress:
+        print("", file=sys.stderr)
+    out = table.assign(annual_energy_kWh_m2=energies)
+    out = out.sort_values("annual_energy_kWh_m2", ascending=False, na_position="last")
+    out["rank"] = np.arange(1, len(out) + 1)
+    return out.reset_index(drop=True)

@@ -556,11 +556,6 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     -------
     YieldResult
     """
-    if stack.layers:
-        raise StackError("energy yield of layer stacks ([[layer]]) is not yet supported",
-                         file=stack.source, where="key layer",
-                         fix="describe the stack by its circuit elements ([[element]]) for "
-                             "`siltandem yield`, or use `siltandem run` for the layer stack")
     if not isinstance(weather, Weather):
         weather = read_weather(weather)
     if tilt_deg is None:
@@ -606,15 +601,33 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
             gaps.append(cell.gap_eV)
     flux = light.photon_flux
     absorptances = [s.absorptance for s in subcells]
-    photocurrents = step_absorber_photocurrents_rows(gaps, absorptances, light.wavelength_nm,
-                                                     flux)
-    spectral_only = (photocurrents if not laws else
-                     step_absorber_photocurrents_rows(file_gaps, absorptances,
-                                                      light.wavelength_nm, flux))
     reference = get_spectrum(STANDARD_SPECTRUM)
-    reference_currents = step_absorber_photocurrents(file_gaps, absorptances,
-                                                     reference.wavelength_nm,
-                                                     reference.photon_flux)
+    layered = circuit.model is not None
+    if layered:
+        # layer stacks: the layers' optics and collection for every hour's spectrum; the dark
+        # currents follow each hour's temperature (layer_stage.dark_currents_at)
+        from ..layer_stage import dark_currents_at, layer_photocurrents
+
+        photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
+                         layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
+        spectral_only = photocurrents
+        on_grid = np.interp(light.wavelength_nm, reference.wavelength_nm, reference.photon_flux)
+        reference_currents = [np.asarray(j, dtype=float) for j in layer_photocurrents(
+            circuit.model, light.wavelength_nm, on_grid)]
+        dark = dark_currents_at(circuit.model, circuit, temperature)
+        gaps = [dark[c.name][2] for c in subcells]
+        # layer subcells follow their absorber's Varshni law and intrinsic density
+        laws = {c.name: circuit.model.materials[m.emitter]
+                for c, m in zip(subcells, circuit.model.subcells)}
+    else:
+        photocurrents = step_absorber_photocurrents_rows(gaps, absorptances,
+                                                         light.wavelength_nm, flux)
+        spectral_only = (photocurrents if not laws else
+                         step_absorber_photocurrents_rows(file_gaps, absorptances,
+                                                          light.wavelength_nm, flux))
+        reference_currents = step_absorber_photocurrents(file_gaps, absorptances,
+                                                         reference.wavelength_nm,
+                                                         reference.photon_flux)
     for k, name in enumerate(names):
         if name in tables:
             lam_q, q = tables[name]
@@ -634,6 +647,10 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     hourly_cells = {cell.name: replace(cell, gap_eV=np.asarray(gap, dtype=float),
                                        photocurrent_A_m2=np.asarray(jph, dtype=float))
                     for cell, gap, jph in zip(subcells, gaps, photocurrents)}
+    if layered:
+        hourly_cells = {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
+                                      j02_A_m2=np.asarray(dark[name][1], dtype=float))
+                        for name, cell in hourly_cells.items()}
 
     def lit(element):
         return hourly_cells.get(element.name, element)
