@@ -188,10 +188,15 @@ def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, expo
             value, slope = junction_current(v, **params)
             return value - target, slope
 
-        # first guess: the one-diode closed form (J02 and breakdown left out), usually within a
-        # few kT/q of the root
-        guess = _single_diode_voltage(target, photocurrent_A_m2=jph[r], j01_A_m2=j01[r] + j02[r],
-                                      shunt_S_m2=g[r], vt=vt[r])
+        # first guess: each diode alone in closed form (ideality 1 with J01, ideality 2 with
+        # J02); the root lies just below the smaller of the two, within about kT/q ln 2
+        alone_1 = _single_diode_voltage(target, photocurrent_A_m2=jph[r], j01_A_m2=j01[r],
+                                        shunt_S_m2=g[r], vt=vt[r])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            alone_2 = np.where(j02[r] > 0, _single_diode_voltage(
+                target, photocurrent_A_m2=jph[r], j01_A_m2=np.where(j02[r] > 0, j02[r], 1.0),
+                shunt_S_m2=g[r], vt=2.0 * vt[r]), np.inf)
+        guess = np.fmin(alone_1, alone_2)
         out[r] = safeguarded_newton(residual, lower[r], upper[r], start=guess)
     return out
 
