@@ -264,11 +264,19 @@ def compile_layer_stack(stack):
                                              "polarity": structure.polarity})
 
 
-def illuminate_layers(circuit, spectrum):
-    """Light through the layers; photocurrents set, the photon budget in ``circuit.optics``."""
-    model = circuit.model
-    wavelength = spectrum.wavelength_nm
-    flux = spectrum.photon_flux
+@dataclass(frozen=True)
+class _LayerLight:
+    """One pass of light through a layer model (shared by the stage and the yield year)."""
+
+    alphas: list
+    reflectance: np.ndarray
+    coating_absorbed: np.ndarray
+    budget: object
+    collected: list          # per subcell: CollectedPhotocurrent, per nm
+
+
+def _layer_light(model, wavelength, flux):
+    """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M)."""
     temperature = model.temperature_K
     alphas = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
               for m in model.materials]
@@ -294,6 +302,28 @@ def illuminate_layers(circuit, spectrum):
                                        back_reflectance=model.back_reflectance,
                                        front_internal_reflectance=reflectance
                                        if model.back_reflectance > 0 else 0.0)
+    collected = [collection.collected_photocurrent(
+        alphas[cell.emitter], photon_flux_m2_s=budget.downward_at_top[cell.emitter],
+        emitter_thickness_m=cell.emitter_thickness_m,
+        emitter_diffusion_length_m=cell.emitter_length_m,
+        emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
+        front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
+        base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
+        base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
+        back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], where=cell.name)
+        for cell in model.subcells]
+    return _LayerLight(alphas, reflectance, coating_absorbed, budget, collected)
+
+
+def illuminate_layers(circuit, spectrum):
+    """Light through the layers; photocurrents set, the photon budget in ``circuit.optics``."""
+    model = circuit.model
+    wavelength = spectrum.wavelength_nm
+    flux = spectrum.photon_flux
+    coatings = model.coatings
+    light = _layer_light(model, wavelength, flux)
+    reflectance, coating_absorbed, budget = (light.reflectance, light.coating_absorbed,
+                                             light.budget)
 
     def current(per_nm):
         """q * integral of a photon flux per nm over the table [A/m^2]."""
@@ -301,18 +331,8 @@ def illuminate_layers(circuit, spectrum):
 
     lit, absorbed, collected_by = [], {}, {}
     active = set()
-    for cell in model.subcells:
+    for cell, result in zip(model.subcells, light.collected):
         active.update({cell.emitter, cell.base})
-        alpha = alphas[cell.emitter]
-        result = collection.collected_photocurrent(
-            alpha, photon_flux_m2_s=budget.downward_at_top[cell.emitter],
-            emitter_thickness_m=cell.emitter_thickness_m,
-            emitter_diffusion_length_m=cell.emitter_length_m,
-            emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
-            front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
-            base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
-            base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
-            back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], where=cell.name)
         total = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
         photocurrent = float(np.trapezoid(total, wavelength))
         absorbed[cell.name] = current(budget.absorbed[cell.emitter]
@@ -351,40 +371,9 @@ def layer_photocurrents(model, wavelength_nm, flux):
     layers' absorption at the model's temperature.
     """
     wavelength = np.asarray(wavelength_nm, dtype=float)
-    flux = np.asarray(flux, dtype=float)
-    temperature = model.temperature_K
-    alphas = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
-              for m in model.materials]
-    thicknesses = [layer.thickness_nm * 1e-9 for layer in model.layers]
-    top = model.materials[0]
-    substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(wavelength),
-                                       alpha_per_m=alphas[0])
-    response = thinfilm.coating_response(
-        wavelength, substrate_index=substrate,
-        coating_indices=[c.refractive_index + 1j * c.extinction for c in model.coatings],
-        coating_thicknesses_nm=[c.thickness_nm for c in model.coatings],
-        ambient_index=model.ambient_index)
-    reflectance = np.asarray(response.reflectance, dtype=float)
-    transmittance = np.asarray(response.transmittance, dtype=float)
-    budget = thinfilm.layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
-                                       front_reflectance=1.0 - transmittance,
-                                       back_reflectance=model.back_reflectance,
-                                       front_internal_reflectance=reflectance
-                                       if model.back_reflectance > 0 else 0.0)
-    currents = []
-    for cell in model.subcells:
-        result = collection.collected_photocurrent(
-            alphas[cell.emitter], photon_flux_m2_s=budget.downward_at_top[cell.emitter],
-            emitter_thickness_m=cell.emitter_thickness_m,
-            emitter_diffusion_length_m=cell.emitter_length_m,
-            emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
-            front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
-            base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
-            base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
-            back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], where=cell.name)
-        total = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
-        currents.append(np.trapezoid(total, wavelength, axis=-1))
-    return currents
+    light = _layer_light(model, wavelength, np.asarray(flux, dtype=float))
+    return [np.trapezoid(r.emitter_A_m2 + r.depletion_A_m2 + r.base_A_m2, wavelength, axis=-1)
+            for r in light.collected]
 
 
 def dark_currents_at(model, circuit, temperature_K):
