@@ -12,7 +12,7 @@ import pvlib
 import pytest
 from scipy import constants, integrate
 
-from siltandem.cli_yield import main
+from siltandem.cli import main
 from siltandem.errors import StackError
 from siltandem.laws.optics import step_absorber_photocurrents
 from siltandem.laws.spectral import (

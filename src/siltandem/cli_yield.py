@@ -1,10 +1,8 @@
 """Command line: ``siltandem yield STACK.toml --weather FILE`` (energy over a typical year).
 
 ``add_yield_command(commands)`` adds the subcommand to the main parser's subparsers;
-``run_yield(args)`` runs it. ``python -m siltandem.cli_yield ...`` runs the command on its own with
-the same exit status as ``siltandem`` (0 done, 2 bad input, 1 an internal fault).
+``run_yield(args)`` runs it; ``siltandem.cli.main`` handles errors and exit status for every command.
 """
-import argparse
 from pathlib import Path
 import sys
 
@@ -115,22 +113,3 @@ def run_yield(args):
         print(f"  wrote {args.plot}", file=notices)
     return 0
 
-
-def main(argv=None):
-    """The yield command on its own (same exit status as ``siltandem``)."""
-    parser = argparse.ArgumentParser(prog="siltandem")
-    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
-    add_yield_command(commands)
-    args = parser.parse_args(argv)
-    try:
-        return run_yield(args)
-    except StackError as exc:
-        print(f"siltandem: error: {exc}", file=sys.stderr)
-        return 2
-    except KeyboardInterrupt:
-        print("siltandem: interrupted", file=sys.stderr)
-        return 130
-
-
-if __name__ == "__main__":
-    sys.exit(main())
