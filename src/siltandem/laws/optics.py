@@ -87,16 +87,27 @@ def step_absorber_photocurrents(gaps_eV, absorptances, wavelength_nm, flux):
     """
     limits = [HC_EV_NM / np.asarray(g, dtype=float) for g in gaps_eV]
     absorptances = [np.asarray(a, dtype=float) for a in absorptances]
+    return filtered_photocurrents(limits, absorptances,
+                                  lambda edge: cumulative_below(edge, wavelength_nm, flux))
+
+
+def filtered_photocurrents(limits_nm, absorptances, photons_below):
+    """The subset expansion of :func:`step_absorber_photocurrents`, for any photon integral.
+
+    ``photons_below(edge_nm)`` is the integral of the incident photon flux up to a wavelength
+    (one spectrum, or one row per spectrum); each absorber i gets
+    q a_i sum_S (prod_{j in S} (-a_j)) photons_below(min(lambda_i, min_S lambda_j)).
+    """
     currents = []
-    for i, (limit_i, a_i) in enumerate(zip(limits, absorptances)):
-        total = np.zeros(np.broadcast(limit_i, a_i).shape)
+    for i, (limit_i, a_i) in enumerate(zip(limits_nm, absorptances)):
+        total = 0.0
         for size in range(i + 1):
             for subset in itertools.combinations(range(i), size):
-                weight = np.ones_like(total)
+                weight = 1.0
                 edge = limit_i
                 for j in subset:
                     weight = weight * (-absorptances[j])
-                    edge = np.minimum(edge, limits[j])
-                total = total + weight * cumulative_below(edge, wavelength_nm, flux)
-        currents.append(ELEMENTARY_CHARGE_C * a_i * total)
+                    edge = np.minimum(edge, limits_nm[j])
+                total = total + weight * photons_below(edge)
+        currents.append(ELEMENTARY_CHARGE_C * a_i * np.asarray(total, dtype=float))
     return currents

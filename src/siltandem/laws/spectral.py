@@ -16,11 +16,11 @@ devices (the mismatch factor with a broadband reference device).
 R. E. Bird, C. Riordan, J. Climate Appl. Meteorol. 25 (1986) 87 (SPECTRL2: the shapes of the
 direct, sky-diffuse and ground-reflected spectra).
 """
-import itertools
 
 import numpy as np
 
 from ..constants import ELEMENTARY_CHARGE_C, HC_EV_NM
+from .optics import filtered_photocurrents
 
 
 def cumulative_below_rows(wavelength_limit_nm, wavelength_nm, values):
@@ -97,19 +97,9 @@ def step_absorber_photocurrents_rows(gaps_eV, absorptances, wavelength_nm, flux)
     rows = (flux.shape[0], 1)
     limits = [np.broadcast_to(HC_EV_NM / np.asarray(g, dtype=float), rows) for g in gaps_eV]
     absorptances = [np.broadcast_to(np.asarray(a, dtype=float), rows) for a in absorptances]
-    currents = []
-    for i, (limit_i, a_i) in enumerate(zip(limits, absorptances)):
-        total = np.zeros(rows)
-        for size in range(i + 1):
-            for subset in itertools.combinations(range(i), size):
-                weight = np.ones(rows)
-                edge = limit_i
-                for j in subset:
-                    weight = weight * (-absorptances[j])
-                    edge = np.minimum(edge, limits[j])
-                total = total + weight * cumulative_below_rows(edge, wavelength_nm, flux)
-        currents.append(ELEMENTARY_CHARGE_C * a_i * total)
-    return currents
+    currents = filtered_photocurrents(
+        limits, absorptances, lambda edge: cumulative_below_rows(edge, wavelength_nm, flux))
+    return [np.broadcast_to(j, rows).copy() for j in currents]
 
 
 def quantum_efficiency_photocurrent(flux, *, wavelength_nm, eqe_wavelength_nm, eqe):
