@@ -23,6 +23,7 @@ import math
 import re
 
 from .errors import StackError
+from .stack import _suggest
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
@@ -84,13 +85,6 @@ class Coating:
     refractive_index: float
     extinction: float
     thickness_nm: float
-
-
-def _suggest(word, options):
-    import difflib
-
-    close = difflib.get_close_matches(word, sorted(options), n=3, cutoff=0.6)
-    return f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
 
 
 def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, required=True,
@@ -244,42 +238,36 @@ def parse_coatings(tables, *, file):
     return tuple(coatings)
 
 
+def _settings(table, *, file, section, defaults, ranges):
+    """A small table of numeric settings (``[rules]``, ``[optics]``): known keys, each in range.
+
+    ``ranges`` maps key -> (unit, low, high, low_open).
+    """
+    if not isinstance(table, dict):
+        raise StackError(f"[{section}] must be a table", file=file, where=f"key {section}",
+                         fix=f"write [{section}] followed by key = value lines")
+    for key in table:
+        if key not in defaults:
+            raise StackError(f"unknown key {key!r} in [{section}]", file=file,
+                             where=f"key {section}.{key}", fix=_suggest(key, defaults)
+                             + "allowed: " + ", ".join(defaults))
+    values = dict(defaults)
+    for key, (unit, low, high, low_open) in ranges.items():
+        if key in table:
+            values[key] = _positive_number(table, key, file=file, where=f"key {section}.{key}",
+                                           unit=unit, low=low, high=high, low_open=low_open)
+    return values
+
+
 def parse_rules(table, *, file):
     """``[rules]``: settings of the layer compiler (thresholds), with their defaults."""
-    if not isinstance(table, dict):
-        raise StackError("[rules] must be a table", file=file, where="key rules",
-                         fix="write [rules] followed by key = value lines")
-    for key in table:
-        if key not in RULE_KEYS:
-            raise StackError(f"unknown key {key!r} in [rules]", file=file,
-                             where=f"key rules.{key}", fix=_suggest(key, RULE_KEYS)
-                             + "allowed: " + ", ".join(RULE_KEYS))
-    rules = dict(RULE_KEYS)
-    if "tunnel_doping_cm3" in table:
-        rules["tunnel_doping_cm3"] = _positive_number(
-            table, "tunnel_doping_cm3", file=file, where="key rules.tunnel_doping_cm3",
-            unit="cm-3", low=1e16, high=1e21)
-    return rules
+    return _settings(table, file=file, section="rules", defaults=RULE_KEYS,
+                     ranges={"tunnel_doping_cm3": ("cm-3", 1e16, 1e21, True)})
 
 
 def parse_optics(table, *, file):
     """``[optics]``: ``back_reflectance`` (a mirror behind the last layer, 0..1, default 0) and
     ``ambient_index`` (the medium in front: 1 for air, about 1.5 under glass or encapsulant)."""
-    if not isinstance(table, dict):
-        raise StackError("[optics] must be a table", file=file, where="key optics",
-                         fix="write [optics] followed by key = value lines")
-    for key in table:
-        if key not in OPTICS_KEYS:
-            raise StackError(f"unknown key {key!r} in [optics]", file=file,
-                             where=f"key optics.{key}", fix=_suggest(key, OPTICS_KEYS)
-                             + "allowed: " + ", ".join(OPTICS_KEYS))
-    optics = dict(OPTICS_KEYS)
-    if "back_reflectance" in table:
-        optics["back_reflectance"] = _positive_number(
-            table, "back_reflectance", file=file, where="key optics.back_reflectance", unit="",
-            low=0.0, high=1.0, low_open=False)
-    if "ambient_index" in table:
-        optics["ambient_index"] = _positive_number(
-            table, "ambient_index", file=file, where="key optics.ambient_index", unit="",
-            low=1.0, high=5.0, low_open=False)
-    return optics
+    return _settings(table, file=file, section="optics", defaults=OPTICS_KEYS,
+                     ranges={"back_reflectance": ("", 0.0, 1.0, False),
+                             "ambient_index": ("", 1.0, 5.0, False)})
