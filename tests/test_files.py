@@ -1,4 +1,7 @@
-"""Output files are written atomically: an interrupted write leaves the old file or none."""
+"""Output files are written atomically: an interrupted write leaves the old file or none.
+
+Pure unit tests of our own file handling: no outside source is needed.
+"""
 import os
 
 import pytest

@@ -1,4 +1,9 @@
-"""Isotype interfaces in stack files: both ways of writing them, the report, the interface command."""
+"""Isotype interfaces in stack files: both ways of writing them, the report, the interface command.
+
+Sources: A. Chandra, L. F. Eastman, Solid-State Electron. 23 (1980) 599 and B. Van Zeghbroeck,
+Principles of Semiconductor Devices (the alpha = 1 law); R. L. Anderson, Solid-State Electron. 5
+(1962) 341 (electron-affinity rule) with the values of ../shared/REFERENCES.md.
+"""
 import json
 import math
 from pathlib import Path

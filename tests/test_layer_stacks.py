@@ -1,4 +1,10 @@
-"""Layer stacks: recognition of the device, the photon budget, layer-physics limits, bad input."""
+"""Layer stacks: recognition of the device, the photon budget, layer-physics limits, bad input.
+
+Sources: M. Born, E. Wolf, Principles of Optics (Fresnel reflectance); A. Beer, Ann. Phys. Chem.
+86 (1852) 78 (attenuation); the generalized Planck law and S. Ruehle, Solar Energy 130 (2016) 139
+(radiative floor); published tunnel-junction peak currents of ../shared/REFERENCES.md
+(I. Garcia et al., J. Phys. D 45 (2012) 045101).
+"""
 import json
 from pathlib import Path
 

@@ -1,4 +1,9 @@
-"""The main job end to end: the command line, the JSON contract, the curve CSV and the plot."""
+"""The main job end to end: the command line, the JSON contract, the curve CSV and the plot.
+
+Contract tests of our command line and JSON (our own schema; no outside check values here:
+the physics is checked against published values in test_solve.py and test_spectra.py). The
+efficiency reference is the AM1.5G nominal 1000 W/m2 of IEC 60904-3.
+"""
 import json
 import os
 import subprocess

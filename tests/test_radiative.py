@@ -1,4 +1,9 @@
-"""Radiative saturation current (generalized Planck law) against quadrature and published rows."""
+"""Radiative saturation current (generalized Planck law) against quadrature and published rows.
+
+Sources: S. Ruehle, Solar Energy 130 (2016) 139 (J0,rad rows, through the R values of
+../shared/REFERENCES.md); W. Shockley, H. J. Queisser, J. Appl. Phys. 32 (1961) 510 (the
+integral); scipy.integrate.quad as the independent method.
+"""
 import numpy as np
 import pytest
 from scipy import constants, integrate
