@@ -23,7 +23,13 @@ import numpy as np
 
 from .laws import diode, esaki, thermionic
 from .laws.radiative import radiative_saturation_current
+from .constants import thermal_voltage_V
+from .inverse import LawTable, polish_root
 from .numerics import safeguarded_newton
+
+#: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
+TABLE_REVERSE_POINTS = 256
+TABLE_FORWARD_POINTS = 1536
 
 
 def batch(value):
@@ -110,9 +116,81 @@ class Subcell:
     def with_photocurrent(self, photocurrent_A_m2):
         return replace(self, photocurrent_A_m2=batch(photocurrent_A_m2))
 
+    def _needs_table(self):
+        """True when Vj(J) has no closed form here (J02 or breakdown): then a table serves it."""
+        return bool(np.any(self.j02_A_m2 > 0) or np.any(
+            (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)))
+
+    def _fast_law(self, temperature_K):
+        """(forward, table) at one temperature, built once: forward(vj) -> (J, dJ/dVj), and a
+        :class:`~siltandem.inverse.LawTable` of J over junction voltages from reverse bias
+        (-3 V, or just above the breakdown voltage) to where the J01 diode alone would carry
+        three times the photocurrent forward."""
+        key = ("fast", np.asarray(temperature_K, dtype=float).tobytes())
+        if key not in self._cache:
+            junction = self._junction(temperature_K)
+            vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+            jph, j01, j02, g, vt = np.broadcast_arrays(
+                junction["photocurrent_A_m2"], junction["j01_A_m2"], self.j02_A_m2,
+                self.shunt_S_m2, vt * np.ones((1, 1)))
+            if np.any((self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)):
+                def forward(v):
+                    return diode.junction_current(v, **junction)
+            else:
+                half = 2.0 * vt
+                c1, c2 = j01 / vt, j02 / half
+
+                def forward(v):
+                    # inside the table's range: no exponential overflows
+                    e1, e2 = np.expm1(v / vt), np.expm1(v / half)
+                    return jph - j01 * e1 - j02 * e2 - g * v, -c1 * (e1 + 1.0) - c2 * (e2 + 1.0) - g
+            active = (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)
+            lowest = np.maximum(np.where(active, self.breakdown_V * (1.0 - 1e-9), -3.0), -3.0)
+            lowest = np.broadcast_to(lowest, jph.shape)
+            highest = vt * np.log1p(3.0 * np.maximum(jph, 1e-3) / j01) + 4.0 * vt
+            reverse = np.linspace(0.0, 1.0, TABLE_REVERSE_POINTS + 1)[None, :-1]
+            forward_part = np.linspace(0.0, 1.0, TABLE_FORWARD_POINTS)[None, :]
+            grid = np.concatenate([lowest * (1.0 - reverse), highest * forward_part], axis=1)
+            with np.errstate(over="ignore", invalid="ignore"):
+                values, _ = forward(grid)
+            self._cache[key] = (forward, LawTable(grid, values))
+        return self._cache[key]
+
+    def _junction_voltage_fast(self, current_A_m2, temperature_K):
+        """Vj carrying the current and dJ/dVj there, through the table (module inverse.py);
+        currents beyond the table's range by the general root find of laws/diode.py."""
+        forward, table = self._fast_law(temperature_K)
+        current = np.asarray(current_A_m2, dtype=float)
+        guess, lower, upper, inside = table.start(current)
+        target = np.broadcast_to(current, guess.shape)
+
+        def residual(v):
+            j, slope = forward(v)
+            return j - target, slope
+
+        with np.errstate(over="ignore", invalid="ignore"):
+            vj, slope = polish_root(residual, guess, lower, upper, increasing=False, active=inside)
+        if not inside.all():
+            out = ~inside
+            junction = {k: np.broadcast_to(v, vj.shape)[out]
+                        for k, v in self._junction(temperature_K).items()}
+            v_out, s_out = diode.junction_voltage(target[out], **junction)
+            vj = np.array(vj)
+            slope = np.array(np.broadcast_to(slope, vj.shape))
+            vj[out] = v_out
+            with np.errstate(divide="ignore"):
+                slope[out] = 1.0 / s_out
+        return vj, slope
+
     def voltage(self, current_A_m2, temperature_K):
-        return diode.subcell_voltage(current_A_m2, series_ohm_m2=self.series_ohm_m2,
-                                     **self._junction(temperature_K))
+        if not self._needs_table():
+            return diode.subcell_voltage(current_A_m2, series_ohm_m2=self.series_ohm_m2,
+                                         **self._junction(temperature_K))
+        vj, slope_j = self._junction_voltage_fast(current_A_m2, temperature_K)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            slope = np.where(np.isfinite(vj), 1.0 / slope_j, -np.inf)
+        return vj - np.asarray(current_A_m2, dtype=float) * self.series_ohm_m2, \
+            slope - self.series_ohm_m2
 
     def current(self, voltage_V, temperature_K):
         return diode.subcell_current(voltage_V, series_ohm_m2=self.series_ohm_m2,
@@ -134,6 +212,8 @@ class Subcell:
 
     def junction_voltage_at(self, current_A_m2, temperature_K):
         """Junction voltage Vj [V] carrying ``current_A_m2``."""
+        if self._needs_table():
+            return self._junction_voltage_fast(current_A_m2, temperature_K)[0]
         vj, _ = diode.junction_voltage(current_A_m2, **self._junction(temperature_K))
         return vj
 
@@ -178,6 +258,10 @@ class Resistor:
 
 #: branches of a tunnel junction's characteristic, in order of increasing junction voltage
 TUNNEL_BRANCHES = ("tunnel", "negative", "thermal")
+#: points of each branch's table of a tunnel junction (inverse.py)
+TUNNEL_TABLE_POINTS = 512
+#: the thermal branch's table runs from the valley this far forward [V] (beyond: root find)
+THERMAL_TABLE_SPAN_V = 1.0
 
 
 @dataclass(frozen=True)
@@ -237,12 +321,82 @@ class TunnelJunction:
             self._cache[key] = esaki.attained_peak_and_valley(**self._law(temperature_K))
         return self._cache[key]
 
-    def junction_voltage(self, current_A_m2, temperature_K, branch="tunnel", extrema=None):
+    def _branch_table(self, temperature_K, branch):
+        """:class:`~siltandem.inverse.LawTable` of J(u) on one branch, built once; None where
+        the curve has no peak and valley to bound the branches."""
+        key = ("table", branch, np.asarray(temperature_K, dtype=float).tobytes())
+        if key not in self._cache:
+            peak_v, peak_j, valley_v, valley_j = self.extrema(temperature_K)
+            table = None
+            if np.all(np.isfinite(peak_v)) and np.all(np.isfinite(valley_v)):
+                if branch == "tunnel":
+                    # reverse to -4 Vp: the law carries about -600 Jp there
+                    s_rev = np.linspace(-4.0, 0.0, TUNNEL_TABLE_POINTS // 2 + 1)[None, :-1]
+                    s_fwd = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
+                    grid = np.concatenate([peak_v * s_rev, peak_v * s_fwd], axis=1)
+                elif branch == "negative":
+                    s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
+                    grid = peak_v + (valley_v - peak_v) * s
+                else:
+                    s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
+                    grid = valley_v + THERMAL_TABLE_SPAN_V * s
+                values, _ = self.junction_current(grid, temperature_K)
+                table = LawTable(grid, values)
+            self._cache[key] = table
+        return self._cache[key]
+
+    def junction_voltage(self, current_A_m2, temperature_K, branch="tunnel", extrema=None,
+                         with_slope=False):
         """Forward junction voltage u [V] carrying ``current_A_m2`` on one branch; NaN off its range.
 
-        ``extrema`` may pass in :meth:`extrema` computed once (it costs three root finds).
+        ``extrema`` may pass in :meth:`extrema` computed once. With ``with_slope``, also dJ/du
+        there. Through the branch's table (inverse.py) where it covers the current, else by a
+        root find from a widened bracket.
         """
         peak_v, peak_j, valley_v, valley_j = extrema or self.extrema(temperature_K)
+        if branch not in TUNNEL_BRANCHES:
+            raise ValueError(f"unknown branch {branch!r}; one of {TUNNEL_BRANCHES}")
+        table = self._branch_table(temperature_K, branch)
+        if table is not None:
+            current = np.asarray(current_A_m2, dtype=float)
+            if branch == "tunnel":
+                inside = current <= peak_j * (1 + 1e-9)
+                target = np.minimum(current, peak_j)
+            elif branch == "negative":
+                inside = (current >= valley_j * (1 - 1e-9)) & (current <= peak_j * (1 + 1e-9))
+                target = np.clip(current, valley_j, peak_j)
+            else:
+                inside = current >= valley_j * (1 - 1e-9)
+                target = np.maximum(current, valley_j)
+            guess, lower, upper, covered = table.start(target)
+            target = np.broadcast_to(target, guess.shape)
+            prepared = self._prepared(temperature_K)
+
+            def residual(u):
+                j, slope, _ = esaki.evaluate_prepared(u, prepared)
+                return j - target, slope
+
+            u, slope = polish_root(residual, guess, lower, upper, increasing=branch != "negative",
+                                   active=covered)
+            if not covered.all():
+                # beyond the table (rare): the general search on the whole array
+                searched = self._junction_voltage_search(current, temperature_K, branch,
+                                                         (peak_v, peak_j, valley_v, valley_j))
+                u = np.where(covered, u, searched)
+                slope = np.where(covered, slope,
+                                 self.junction_current(np.nan_to_num(u), temperature_K)[1])
+            u = np.where(np.broadcast_to(inside, u.shape), u, np.nan)
+            return (u, slope) if with_slope else u
+        u = self._junction_voltage_search(current_A_m2, temperature_K, branch,
+                                          (peak_v, peak_j, valley_v, valley_j))
+        if with_slope:
+            return u, self.junction_current(np.nan_to_num(u), temperature_K)[1]
+        return u
+
+    def _junction_voltage_search(self, current_A_m2, temperature_K, branch, extrema):
+        """The general inverse on one branch: a bracket widened until it holds the root, then a
+        safeguarded Newton search; NaN off the branch's range."""
+        peak_v, peak_j, valley_v, valley_j = extrema
         current = np.asarray(current_A_m2, dtype=float)
         shape = np.broadcast(current, peak_v).shape
         current = np.broadcast_to(current, shape)
@@ -293,8 +447,8 @@ class TunnelJunction:
         return np.where(inside, u, np.nan)
 
     def voltage(self, current_A_m2, temperature_K, branch="tunnel", extrema=None):
-        u = self.junction_voltage(current_A_m2, temperature_K, branch, extrema)
-        _, slope = self.junction_current(np.nan_to_num(u), temperature_K)
+        u, slope = self.junction_voltage(current_A_m2, temperature_K, branch, extrema,
+                                         with_slope=True)
         with np.errstate(divide="ignore", invalid="ignore"):
             return -u, np.where(np.isfinite(u), -1.0 / slope, np.nan)
 

@@ -9,7 +9,8 @@ bisection, always on the full array.
 import numpy as np
 
 
-def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200):
+def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200,
+                   end_values=None):
     """Roots of an elementwise function inside brackets, on whole arrays.
 
     Parameters
@@ -20,6 +21,8 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
         Brackets; ``function`` must change sign between them (else the result is NaN there).
     xtol, rtol : float
         Absolute and relative tolerance on the root.
+    end_values : (ndarray, ndarray), optional
+        ``function(lower), function(upper)`` when the caller has them already.
 
     Returns
     -------
@@ -30,8 +33,11 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
     b = np.array(upper, dtype=float, copy=True)
     a, b = np.broadcast_arrays(a, b)
     a, b = a.copy(), b.copy()
-    fa = np.asarray(function(a), dtype=float)
-    fb = np.asarray(function(b), dtype=float)
+    if end_values is None:
+        fa = np.asarray(function(a), dtype=float)
+        fb = np.asarray(function(b), dtype=float)
+    else:
+        fa, fb = (np.array(np.broadcast_to(v, a.shape), dtype=float) for v in end_values)
     valid = np.isfinite(fa) & np.isfinite(fb) & (np.sign(fa) * np.sign(fb) <= 0)
     side = np.zeros(a.shape, dtype=int)
     x = np.where(fa == 0, a, b)
@@ -63,20 +69,24 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
 
 
 def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4e-16,
-                       max_iterations=100):
+                       max_iterations=100, end_values=None):
     """Roots of an elementwise function with known derivative, inside brackets, on whole arrays.
 
     ``function(x) -> (f, df/dx)``. ``start`` (optional) is a first guess inside the bracket (a
-    close one saves most iterations). Newton steps, replaced by bisection whenever a step leaves the
+    close one saves most iterations); ``end_values`` (optional) the function's values at the
+    two ends when the caller has them. Newton steps, replaced by bisection whenever a step leaves the
     current bracket; the bracket shrinks around the sign change at every iteration, so the method
     cannot diverge (as in W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4, 'rtsafe').
     NaN where the bracket held no sign change.
     """
     a, b = np.broadcast_arrays(np.array(lower, dtype=float), np.array(upper, dtype=float))
     a, b = a.copy(), b.copy()
-    fa, _ = function(a)
-    fb, _ = function(b)
-    fa, fb = np.asarray(fa, dtype=float), np.asarray(fb, dtype=float)
+    if end_values is None:
+        fa, _ = function(a)
+        fb, _ = function(b)
+    else:
+        fa, fb = end_values
+    fa, fb = (np.broadcast_to(np.asarray(v, dtype=float), a.shape) for v in (fa, fb))
     # an end where the function overflows (+-inf) still brackets by its sign
     valid = ~np.isnan(fa) & ~np.isnan(fb) & (np.sign(fa) * np.sign(fb) <= 0)
     # orient so that f(a) <= 0 <= f(b)
@@ -106,7 +116,10 @@ def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4
         # (W. H. Press et al., Numerical Recipes, 3rd ed., 'rtsafe'): creeping steps far from
         # the root (a huge exponential) cannot stall the search
         slow = np.abs(step) > 0.5 * previous_step
-        bad = ~np.isfinite(newton) | (newton <= low) | (newton >= high) | slow
+        # a step below the tolerance has converged, even where rounding puts it on the bracket's
+        # end (bisecting there would throw the root away)
+        tiny = np.abs(step) <= xtol + rtol * np.abs(x)
+        bad = (~np.isfinite(newton) | (newton <= low) | (newton >= high) | slow) & ~tiny
         new_x = np.where(bad, 0.5 * (a + b), newton)
         previous_step = np.where(done, previous_step, np.abs(new_x - x))
         # every design stops on its own: a converged entry is frozen, so a result never

@@ -34,6 +34,8 @@ FORWARD_CURRENT_FRACTION = -0.3
 MPP_GRID_POINTS = 48
 #: a junction voltage the trace never goes below [V] (the reverse end is set by the terminal voltage)
 LOWEST_PILOT_VOLTAGE_V = -100.0
+#: pre-sample points per returned point when spacing a curve by arc length
+SPREAD_SAMPLES_PER_POINT = 2
 
 
 @dataclass(frozen=True)
@@ -100,6 +102,9 @@ class _String:
             [np.broadcast_to(s.photocurrent_A_m2, (size, 1)) for s in self.subcells], axis=1)
         self.pilot_index = np.argmin(photocurrents, axis=1)[:, None]  # (B, 1)
         self.pilot_photocurrent = np.take_along_axis(photocurrents, self.pilot_index, axis=1)
+        # one pilot for every design (the common case): only its forward law is needed
+        first = int(self.pilot_index[0, 0])
+        self.single_pilot = first if np.all(self.pilot_index == first) else None
 
     def rows(self, rows):
         """The same string restricted to some designs of the batch."""
@@ -116,6 +121,9 @@ class _String:
 
     def pilot_voltage_at(self, current_A_m2):
         """Pilot junction voltage t carrying ``current_A_m2`` (safe away from Jph)."""
+        if self.single_pilot is not None:
+            pilot = self.subcells[self.single_pilot]
+            return pilot.junction_voltage_at(current_A_m2, self.temperature_K)
         return self._select([s.junction_voltage_at(current_A_m2, self.temperature_K)
                              for s in self.subcells])
 
@@ -131,18 +139,26 @@ class _String:
         ``voltages`` (one per element) and, with ``slopes``, ``dcurrent`` and ``dvoltage``.
         """
         branches = branches or {}
-        forward = [s.pilot_current(t, self.temperature_K) for s in self.subcells]
-        current = self._select([f[0] for f in forward])
-        dcurrent = self._select([f[1] for f in forward])
-        pilot_v = self._select([f[2] for f in forward])
-        pilot_dv = self._select([f[3] for f in forward])
+        if self.single_pilot is not None:
+            current, dcurrent, pilot_v, pilot_dv = self.subcells[self.single_pilot].pilot_current(
+                t, self.temperature_K)
+        else:
+            forward = [s.pilot_current(t, self.temperature_K) for s in self.subcells]
+            current = self._select([f[0] for f in forward])
+            dcurrent = self._select([f[1] for f in forward])
+            pilot_v = self._select([f[2] for f in forward])
+            pilot_dv = self._select([f[3] for f in forward])
         voltages, dvoltage = [], np.zeros(np.shape(t))
         subcell_number = 0
         for element in self.elements:
             if element.kind == "subcell":
                 is_pilot = self.pilot_index == subcell_number
                 subcell_number += 1
-                if np.all(is_pilot):
+                if self.single_pilot is not None and self.single_pilot != subcell_number - 1:
+                    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                        v, slope = element.voltage(current, self.temperature_K)
+                    dv_dt = slope * dcurrent
+                elif np.all(is_pilot):
                     v, dv_dt = pilot_v, pilot_dv
                 else:
                     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -166,7 +182,7 @@ class _String:
         return out
 
 
-def spread_parameter(string, t_start, t_end, points, branches=None):
+def spread_parameter(string, t_start, t_end, points, branches=None, end_currents=None):
     """Pilot voltages from t_start to t_end (each (B, 1)) spaced evenly along the curve.
 
     The spacing is uniform in arc length of the terminal curve in (V / V-span, J / J-span): a
@@ -174,12 +190,16 @@ def spread_parameter(string, t_start, t_end, points, branches=None):
     the returned t are where it takes evenly spaced values. Every returned point is then
     evaluated exactly by the caller; only their placement comes from the pre-sample. Uniform t
     alone leaves the knee of a non-limiting cell, or a junction's valley, nearly empty.
+    ``end_currents`` (optional) are the currents at t_start and t_end when the caller has them.
     """
-    dense = 4 * points
+    dense = SPREAD_SAMPLES_PER_POINT * points
     s = np.linspace(0.0, 1.0, dense // 2)[None, :]
     by_t = t_start + (t_end - t_start) * s
-    j_start = string.evaluate(t_start, branches=branches)["current"]
-    j_end = string.evaluate(t_end, branches=branches)["current"]
+    if end_currents is None:
+        j_start = string.evaluate(t_start, branches=branches)["current"]
+        j_end = string.evaluate(t_end, branches=branches)["current"]
+    else:
+        j_start, j_end = end_currents
     inner = np.linspace(0.0, 1.0, dense - dense // 2 + 2)[None, 1:-1]
     with np.errstate(invalid="ignore"):
         by_j = string.pilot_voltage_at(j_start + (j_end - j_start) * inner)
@@ -406,49 +426,64 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
         limited = np.isfinite(t_cap) & (t_cap > t_low)
         t_low = np.where(limited, t_cap, t_low)
 
-    def terminal(t):
-        return _finite_or(string.evaluate(t)["voltage"], -1e3)
-
-    def terminal_and_slope(t, level=0.0):
-        e = string.evaluate(t, slopes=True)
-        finite = np.isfinite(e["voltage"]) & np.isfinite(e["dvoltage"])
-        return (np.where(finite, e["voltage"] - level, -1e3),
-                np.where(finite, e["dvoltage"], 1.0))
-
+    low = string.evaluate(t_low)
+    v_low = _finite_or(low["voltage"], -1e3)
     reaches_peak = np.zeros(jph.shape[0], dtype=bool)
     if string.tunnels:
-        reaches_peak = (terminal(t_low) > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
-    # V rises strictly with t and its slope is analytic: safeguarded Newton, a few evaluations
-    t_sc = safeguarded_newton(terminal_and_slope, t_low, t_voc)
-    at_sc = string.evaluate(t_sc)
-    jsc = at_sc["current"]
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+
+    # Jsc (V = 0) and, for a curve, its reverse end (V = v_floor) together: V rises strictly
+    # with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
+    # guess: the terminal voltage follows t one to one (the pilot takes up the change).
+    levels = np.concatenate([np.zeros_like(voc), v_floor], axis=1) if curve_points else \
+        np.zeros_like(voc)
+
+    def shifted(t):
+        e = string.evaluate(t, slopes=True)
+        finite = np.isfinite(e["voltage"]) & np.isfinite(e["dvoltage"])
+        return (np.where(finite, e["voltage"] - levels, -1e3),
+                np.where(finite, e["dvoltage"], 1.0))
+
+    roots = safeguarded_newton(shifted, np.broadcast_to(t_low, levels.shape),
+                               np.broadcast_to(t_voc, levels.shape), start=t_voc - (voc - levels),
+                               end_values=(v_low - levels, _finite_or(voc, -1e3) - levels))
+    t_sc = roots[:, :1]
     if caps:
         # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
-        capped = (limited & (terminal(t_low) > 0))[:, 0]
+        capped = (limited & (v_low > 0))[:, 0]
         t_sc = np.where(capped[:, None], t_low, t_sc)
-        jsc = np.where(capped[:, None], np.nan, jsc)
     if curve_points:
-        t_floor = safeguarded_newton(lambda t: terminal_and_slope(t, v_floor), t_low, t_voc)
+        t_floor = roots[:, 1:2]
         t_floor = np.where(np.isfinite(t_floor), t_floor,
                            np.where(np.isfinite(t_sc), t_sc, t_low))
 
-    # MPP: best of a coarse grid in t between short and open circuit, then dP/dt = 0
+    # MPP: best of a coarse grid in t from short to open circuit, then dP/dt = 0 inside the
+    # grid cells around it (the grid's exact slopes are the bracket's end values)
     s = np.linspace(0.0, 1.0, MPP_GRID_POINTS)[None, :]
     grid_t = t_sc + (t_voc - t_sc) * s
-    grid = string.evaluate(grid_t)
+    grid = string.evaluate(grid_t, slopes=True)
+    jsc = grid["current"][:, :1]
+    if caps:
+        jsc = np.where(capped[:, None], np.nan, jsc)
     power = _finite_or(grid["current"] * grid["voltage"], -np.inf)
+    # no value only where the current is beyond what an element can carry, at the reverse
+    # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
+    # there would be a false root)
+    grid_slope = _finite_or(grid["dcurrent"] * grid["voltage"]
+                            + grid["current"] * grid["dvoltage"], 1e300)
     best = np.argmax(power, axis=1)[:, None]
-    lo = np.take_along_axis(grid_t, np.clip(best - 1, 0, MPP_GRID_POINTS - 1), axis=1)
-    hi = np.take_along_axis(grid_t, np.clip(best + 1, 0, MPP_GRID_POINTS - 1), axis=1)
+    low_index = np.clip(best - 1, 0, MPP_GRID_POINTS - 1)
+    high_index = np.clip(best + 1, 0, MPP_GRID_POINTS - 1)
+    lo = np.take_along_axis(grid_t, low_index, axis=1)
+    hi = np.take_along_axis(grid_t, high_index, axis=1)
 
     def power_slope(t):
         e = string.evaluate(t, slopes=True)
-        # no value only where the current is beyond what an element can carry, at the reverse
-        # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
-        # there would be a false root)
         return _finite_or(e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"], 1e300)
 
-    t_mpp = bracketed_root(power_slope, lo, hi)
+    t_mpp = bracketed_root(power_slope, lo, hi,
+                           end_values=(np.take_along_axis(grid_slope, low_index, axis=1),
+                                       np.take_along_axis(grid_slope, high_index, axis=1)))
     interior = np.isfinite(t_mpp)
     t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
     at_mpp = string.evaluate(t_mpp)

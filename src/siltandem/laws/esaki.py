@@ -237,6 +237,20 @@ def _prepare(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V, satur
 
 
 def _total(v, a, v1, jv, vv, c2, j0, n, t):
+    x = v / v1
+    z1, za, zb = 1.0 - x, c2 * (v - vv), -c2 * (v + vv)
+    nvt = n * thermal_voltage_V(t)
+    z3 = v / nvt
+    # common case, every exponent below the limit: the same terms without the tangent continuation
+    # (NaN fails the comparisons and takes the general route)
+    if z1.max() <= _EXP_LIMIT and za.max() <= _EXP_LIMIT and zb.max() <= _EXP_LIMIT \
+            and z3.max() <= _EXP_LIMIT:
+        e1, ea, eb, e3 = np.exp(z1), np.exp(za), np.exp(zb), np.exp(z3)
+        k = jv / -np.expm1(-2.0 * c2 * vv)
+        j = a * x * e1 + k * (ea - eb) + j0 * np.expm1(z3)
+        dj = (a / v1) * (e1 - x * e1) + k * c2 * (ea + eb) + j0 * e3 / nvt
+        d2j = (a / v1**2) * (-2.0 * e1 + x * e1) + k * c2**2 * (ea - eb) + j0 * e3 / nvt**2
+        return j, dj, d2j
     parts = (_tunnel_term(v, a, v1), _excess_term(v, jv, vv, c2), _thermal_term(v, j0, n, t))
     return tuple(sum(p[i] for p in parts) for i in range(3))
 
@@ -394,15 +408,80 @@ def attained_peak_and_valley(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess
     terms are convex with increasing second derivatives, so dJ/dV falls to a single minimum (the steepest
     point of the negative-resistance region, root of d2J/dV2 in (0, 2 V1)) and rises after it. The curve
     has negative differential resistance if dJ/dV < 0 there; the peak is then the unique root of dJ/dV
-    below the steepest point and the valley the unique root above it. All three roots use
-    ``scipy.optimize.elementwise.find_root`` (Chandrupatla's bracketing method), vectorized; the valley
-    bracket comes from ``scipy.optimize.elementwise.bracket_root``.
+    below the steepest point and the valley the unique root above it. Both are found in the cells of a
+    sampled dJ/dV where it changes sign, polished by Newton steps with the analytic d2J/dV2 kept inside the
+    cell (:func:`_extrema_by_table`); where the samples miss the negative-resistance region, by
+    ``scipy.optimize.elementwise.find_root`` (Chandrupatla's bracketing method) from the steepest point,
+    with the valley bracket from ``scipy.optimize.elementwise.bracket_root`` (:func:`_extrema_by_bracketing`).
+    The two routes agree to rounding (tests/test_esaki.py).
     """
     a, v1, jv, vv, c2, j0, n, t = _prepare(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V,
                                            saturation_A_m2, ideality, temperature_K, exact_peak)
     args = np.broadcast_arrays(a, v1, jv, vv, c2, j0, n, t)
     shape = args[0].shape
     args = tuple(np.ravel(x) for x in args)
+    peak_v, valley_v = _extrema_by_table(args)
+    retry = ~np.isfinite(peak_v) | ~np.isfinite(valley_v)
+    if retry.any():
+        p_v, v_v = _extrema_by_bracketing(tuple(x[retry] for x in args))
+        peak_v[retry], valley_v[retry] = p_v, v_v
+    peak_j = np.where(np.isfinite(peak_v), _total(np.nan_to_num(peak_v), *args)[0], np.nan)
+    valley_j = np.where(np.isfinite(valley_v), _total(np.nan_to_num(valley_v), *args)[0], np.nan)
+    missing = int(np.count_nonzero(~np.isfinite(peak_v) | ~np.isfinite(valley_v)))
+    if missing:
+        warnings.warn(f"attained_peak_and_valley: {missing} of {peak_v.size} parameter sets give a curve "
+                      f"without negative differential resistance (or did not converge); their peak and "
+                      f"valley are NaN", RuntimeWarning, stacklevel=2)
+    return Extrema(*(x.reshape(shape) for x in (peak_v, peak_j, valley_v, valley_j)))
+
+
+#: samples of dJ/dV on (0, 3 max(Vv, 2 V1)] that locate the peak's and the valley's cells
+_EXTREMA_SAMPLES = 384
+
+
+def _extrema_by_table(args):
+    """Peak and valley voltages (flat arrays; NaN where not found) from sampled slopes.
+
+    dJ/dV is sampled on a grid over (0, 3 max(Vv, 2 V1)]; the peak lies in the first cell where
+    it turns negative and the valley in the next cell where it turns positive again. Inside each
+    cell, Newton steps on dJ/dV with the analytic d2J/dV2 (safeguarded by the cell,
+    siltandem.inverse.polish_root) give the root to rounding. NaN where the grid sees no such
+    pair (the caller then brackets from the steepest point, :func:`_extrema_by_bracketing`).
+    """
+    from siltandem.inverse import polish_root
+
+    v1, vv = args[1][:, None], args[3][:, None]
+    params = tuple(x[:, None] for x in args)
+    top = 3.0 * np.maximum(vv, 2.0 * v1)
+    grid = top * np.linspace(0.0, 1.0, _EXTREMA_SAMPLES + 1)[None, 1:]
+    slope = _total(grid, *params)[1]
+    falling = slope < 0
+    first = np.argmax(falling, axis=1)[:, None]                      # first negative slope
+    after = falling | (np.arange(grid.shape[1])[None, :] <= first)
+    rising = np.argmax(~after, axis=1)[:, None]                      # first positive after it
+    found = (np.take_along_axis(falling, first, axis=1) & (first > 0)
+             & ~np.take_along_axis(after, rising, axis=1))
+
+    def residual(v):
+        _, dj, d2j = _total(v, *params)
+        return dj, d2j
+
+    def root(index, increasing):
+        lo = np.take_along_axis(grid, np.maximum(index - 1, 0), axis=1)
+        hi = np.take_along_axis(grid, index, axis=1)
+        x, _ = polish_root(residual, 0.5 * (lo + hi), lo, hi, increasing=increasing)
+        return np.where(found, x, np.nan)[:, 0]
+
+    return root(first, False), root(rising, True)
+
+
+def _extrema_by_bracketing(args):
+    """Peak and valley voltages (flat arrays; NaN where absent) by bracketing root finds.
+
+    The steepest point of the negative-resistance region is the root of d2J/dV2 in (0, 2 V1); the
+    peak is the root of dJ/dV below it and the valley the root above it
+    (``scipy.optimize.elementwise``: Chandrupatla's method, and bracket_root for the valley).
+    """
     v1f = args[1]
 
     def slope(v, *p):
@@ -431,14 +510,7 @@ def attained_peak_and_valley(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess
         lo, hi = br.bracket
         res = elementwise.find_root(slope, (lo, hi), args=sub)
         valley_v[ndr] = np.where(br.success & res.success, res.x, np.nan)
-    peak_j = np.where(np.isfinite(peak_v), _total(np.nan_to_num(peak_v), *args)[0], np.nan)
-    valley_j = np.where(np.isfinite(valley_v), _total(np.nan_to_num(valley_v), *args)[0], np.nan)
-    missing = int(np.count_nonzero(~np.isfinite(peak_v) | ~np.isfinite(valley_v)))
-    if missing:
-        warnings.warn(f"attained_peak_and_valley: {missing} of {peak_v.size} parameter sets give a curve "
-                      f"without negative differential resistance (or did not converge); their peak and "
-                      f"valley are NaN", RuntimeWarning, stacklevel=2)
-    return Extrema(*(x.reshape(shape) for x in (peak_v, peak_j, valley_v, valley_j)))
+    return peak_v, valley_v
 
 
 # --------------------------------------------------------------------------------------------------

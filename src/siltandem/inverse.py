@@ -1,0 +1,172 @@
+"""Fast inverses of strictly monotone element laws: a table finds the cell, Newton polishes inside it.
+
+An element law J = f(u) (a subcell's junction current against its junction voltage, a tunnel
+junction's current on one branch) is cheap to evaluate forward and costly to invert by a root
+find from a wide bracket. The series solver inverts every non-pilot element at every point of
+the curve, so each element keeps a :class:`LawTable`: f sampled once on a grid of u. A target
+current then finds its cell (two neighbouring samples that bracket it) by a binary search, a
+linear interpolation inside the cell gives the first guess, and :func:`polish_root` refines it
+by Newton steps kept inside the cell (bisection whenever a step would leave it). The cell is an
+exact bracket, so the result is the law's own root to rounding, never an interpolated value.
+
+Targets outside the table's range are flagged (``inside`` False); the caller solves those few
+entries with its general method. Everything works on whole arrays: a table has rows (R, M), one
+per design of a batch (R = 1 when the element's parameters are shared by every design).
+
+References
+----------
+W. H. Press et al., Numerical Recipes, 3rd ed., Cambridge 2007, sec. 3.1 (locating a value in a
+table by bisection) and sec. 9.4 ('rtsafe': Newton's method safeguarded by a bracket).
+"""
+import numpy as np
+
+__all__ = ["LawTable", "polish_root"]
+
+
+class LawTable:
+    """A strictly monotone law J(u) sampled on increasing grids of u, one row per design.
+
+    Parameters
+    ----------
+    u : (R, M) ndarray
+        Grid of the law's variable, increasing along each row.
+    j : (R, M) ndarray
+        The law's values there, strictly monotone along each row and in the same direction in
+        every row (rounding may leave equal neighbours where the law is flat). Finite.
+    """
+
+    __slots__ = ("u", "j", "increasing", "_keys", "_low", "_span")
+
+    def __init__(self, u, j):
+        self.u = np.ascontiguousarray(u, dtype=float)
+        self.j = np.ascontiguousarray(j, dtype=float)
+        rows, m = self.j.shape
+        self.increasing = bool(self.j[0, -1] >= self.j[0, 0])
+        ascending = self.j if self.increasing else -self.j
+        if rows == 1:
+            self._keys = ascending[0]
+            self._low = self._span = None
+        else:
+            # rows side by side in one sorted array: row r normalised into [2r, 2r + 1]
+            self._low = ascending[:, :1]
+            self._span = np.maximum(ascending[:, -1:] - self._low, np.finfo(float).tiny)
+            self._keys = ((ascending - self._low) / self._span
+                          + 2.0 * np.arange(rows)[:, None]).ravel()
+
+    @property
+    def rows(self):
+        return self.j.shape[0]
+
+    def start(self, target):
+        """First guesses and exact brackets for u with J(u) = ``target``.
+
+        Parameters
+        ----------
+        target : ndarray
+            Of shape (R, N), or anything that broadcasts to (R', N) when R = 1.
+
+        Returns
+        -------
+        guess, lower, upper : ndarray
+            Linear interpolation inside the bracketing cell and the cell's ends (grid values).
+        inside : ndarray of bool
+            Where the target lies inside the table's range (elsewhere the three are meaningless).
+        """
+        target = np.asarray(target, dtype=float)
+        rows, m = self.j.shape
+        signed = target if self.increasing else -target
+        if rows == 1:
+            k = np.searchsorted(self._keys, signed.ravel()).reshape(signed.shape) - 1
+            np.clip(k, 0, m - 2, out=k)
+            u, j = self.u[0], self.j[0]
+            u_a, u_b, j_a, j_b = u[k], u[k + 1], j[k], j[k + 1]
+        else:
+            signed = np.broadcast_to(signed, (rows,) + signed.shape[1:])
+            target = np.broadcast_to(target, signed.shape)
+            offset = 2.0 * np.arange(rows)[:, None]
+            query = np.clip((signed - self._low) / self._span, 0.0, 1.0) + offset
+            k = (np.searchsorted(self._keys, query.ravel()).reshape(query.shape) - 1
+                 - m * np.arange(rows)[:, None])
+            np.clip(k, 0, m - 2, out=k)
+            u_a = np.take_along_axis(self.u, k, axis=1)
+            u_b = np.take_along_axis(self.u, k + 1, axis=1)
+            j_a = np.take_along_axis(self.j, k, axis=1)
+            j_b = np.take_along_axis(self.j, k + 1, axis=1)
+        if self.increasing:
+            inside = (target >= j_a) & (target <= j_b)
+        else:
+            inside = (target <= j_a) & (target >= j_b)
+        width = j_b - j_a
+        with np.errstate(divide="ignore", invalid="ignore"):
+            w = np.where(width != 0, (target - j_a) / width, 0.5)
+        return u_a + w * (u_b - u_a), u_a, u_b, inside
+
+
+def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=1e-13,
+                rtol=4e-16, max_iterations=60):
+    """Root of ``residual`` inside exact brackets, by Newton steps that never leave the bracket.
+
+    Parameters
+    ----------
+    residual : callable
+        ``residual(x) -> (f, df/dx)`` elementwise, f monotone in x on each bracket.
+    guess, lower, upper : ndarray
+        First guess and bracket ends (lower < upper); f changes sign on every bracket.
+    increasing : bool
+        Whether f increases with x (then f(lower) <= 0 <= f(upper)).
+    active : ndarray of bool, optional
+        Entries to solve (the others keep their guess); all by default.
+    xtol, rtol : float
+        Absolute and relative tolerance on the root.
+
+    Returns
+    -------
+    root : ndarray
+    slope : ndarray
+        df/dx at the last point evaluated before the final step (relative error of the order
+        of the last step times the curvature; for Newton updates, not for reporting).
+
+    Notes
+    -----
+    Each iteration evaluates ``residual`` once. An entry stops when its Newton step is below the
+    tolerance, or when two successive Newton steps show quadratic convergence with a predicted
+    next step below it (e_{k+1} ~ K e_k^2, K estimated from the last two steps): a good first
+    guess then needs two evaluations. Bisection takes over where Newton leaves the bracket, so
+    the iteration cannot diverge (W. H. Press et al., Numerical Recipes, 3rd ed., sec. 9.4).
+    Converged entries are frozen: a result never depends on the other entries of the array.
+    """
+    x = np.array(guess, dtype=float)
+    lower = np.array(np.broadcast_to(lower, x.shape), dtype=float)
+    upper = np.array(np.broadcast_to(upper, x.shape), dtype=float)
+    done = np.zeros(x.shape, dtype=bool) if active is None else ~np.broadcast_to(active, x.shape)
+    previous = np.full(x.shape, np.nan)   # last Newton step; NaN: none (start or bisection)
+    slope = None
+    for _ in range(max_iterations):
+        f, df = residual(x)
+        slope = df if slope is None else np.where(done, slope, df)
+        lost = np.isnan(f) & ~done
+        if lost.any():
+            x[lost] = np.nan
+        if increasing:
+            above, below = f < 0, f > 0
+        else:
+            above, below = f > 0, f < 0
+        np.copyto(lower, x, where=above & ~done)
+        np.copyto(upper, x, where=below & ~done)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            new = x - f / df
+        bisect = ~((new >= lower) & (new <= upper))
+        new = np.where(bisect, 0.5 * (lower + upper), new)
+        step = np.abs(new - x)
+        tolerance = xtol + rtol * np.abs(x)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            predicted = step * step * (step / (previous * previous))
+        converged = ((step <= tolerance) | (f == 0) | (upper - lower <= tolerance)
+                     | (~bisect & (predicted <= tolerance)))
+        converged |= np.isnan(f)
+        np.copyto(x, new, where=~done & (f != 0) & ~np.isnan(f))
+        previous = np.where(bisect, np.nan, step)
+        done |= converged
+        if done.all():
+            break
+    return x, slope
