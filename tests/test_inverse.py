@@ -51,14 +51,22 @@ def test_subcell_inverse_matches_brentq(current):
     assert_same_root(vj, brentq_junction_voltage(cell, current), cell, current)
 
 
-def test_subcell_inverse_beyond_table_falls_back_to_root_find():
-    # -3 V is the table's reverse end: 305 A/m^2 needs about -500 V across a 0.01 S/m^2 shunt
+@pytest.mark.parametrize("current", [305.0, 390.0, 1e4])
+def test_subcell_inverse_deep_in_reverse_bias(current):
+    # 305 A/m^2 needs about -500 V across a 0.01 S/m^2 shunt: the table's geometric reverse part
     cell = two_diode_cell()
-    current = 305.0
+    vj = cell.junction_voltage_at(np.array([[current]]), T)[0, 0]
+    assert_same_root(vj, brentq_junction_voltage(cell, current, lowest=-1e7), cell, current)
+
+
+def test_subcell_inverse_beyond_table_falls_back_to_root_find():
+    # -1e7 V is the table's reverse end: 2e5 A/m^2 needs -2e7 V across a 0.01 S/m^2 shunt
+    cell = two_diode_cell()
+    current = 2e5
     _, table = cell._fast_law(T)
     assert current > table.j[0].max()
     vj = cell.junction_voltage_at(np.array([[current]]), T)[0, 0]
-    assert_same_root(vj, brentq_junction_voltage(cell, current, lowest=-1e4), cell, current)
+    assert_same_root(vj, brentq_junction_voltage(cell, current, lowest=-1e8), cell, current)
 
 
 def test_subcell_inverse_with_breakdown_matches_brentq():

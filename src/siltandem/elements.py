@@ -28,8 +28,10 @@ from .inverse import LawTable, polish_root
 from .numerics import safeguarded_newton
 
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
-TABLE_REVERSE_POINTS = 256
+TABLE_REVERSE_POINTS = 320
 TABLE_FORWARD_POINTS = 1536
+#: an inverse is done when its residual is within this many rounding units of the current
+ROUNDING_UNITS = 2
 
 
 def batch(value):
@@ -124,8 +126,8 @@ class Subcell:
     def _fast_law(self, temperature_K):
         """(forward, table) at one temperature, built once: forward(vj) -> (J, dJ/dVj), and a
         :class:`~siltandem.inverse.LawTable` of J over junction voltages from reverse bias
-        (-3 V, or just above the breakdown voltage) to where the J01 diode alone would carry
-        three times the photocurrent forward."""
+        (-1e7 V; with breakdown, just above the breakdown voltage or -3 V) to where the J01
+        diode alone would carry three times the photocurrent forward."""
         key = ("fast", np.asarray(temperature_K, dtype=float).tobytes())
         if key not in self._cache:
             junction = self._junction(temperature_K)
@@ -145,12 +147,18 @@ class Subcell:
                     e1, e2 = np.expm1(v / vt), np.expm1(v / half)
                     return jph - j01 * e1 - j02 * e2 - g * v, -c1 * (e1 + 1.0) - c2 * (e2 + 1.0) - g
             active = (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)
-            lowest = np.maximum(np.where(active, self.breakdown_V * (1.0 - 1e-9), -3.0), -3.0)
-            lowest = np.broadcast_to(lowest, jph.shape)
             highest = vt * np.log1p(3.0 * np.maximum(jph, 1e-3) / j01) + 4.0 * vt
-            reverse = np.linspace(0.0, 1.0, TABLE_REVERSE_POINTS + 1)[None, :-1]
-            forward_part = np.linspace(0.0, 1.0, TABLE_FORWARD_POINTS)[None, :]
-            grid = np.concatenate([lowest * (1.0 - reverse), highest * forward_part], axis=1)
+            forward_part = highest * np.linspace(0.0, 1.0, TABLE_FORWARD_POINTS)[None, :]
+            if np.any(active):
+                # uniform down to just above the breakdown voltage (or -3 V)
+                lowest = np.maximum(np.where(active, self.breakdown_V * (1.0 - 1e-9), -3.0), -3.0)
+                reverse = np.broadcast_to(lowest, jph.shape) * (
+                    1.0 - np.linspace(0.0, 1.0, TABLE_REVERSE_POINTS + 1)[None, :-1])
+            else:
+                # geometric from -1e7 V to -1 mV: the shunt's reverse branch is nearly straight
+                reverse = np.broadcast_to(-np.geomspace(1e7, 1e-3, TABLE_REVERSE_POINTS)[None, :],
+                                          (jph.shape[0], TABLE_REVERSE_POINTS))
+            grid = np.concatenate([reverse, forward_part], axis=1)
             with np.errstate(over="ignore", invalid="ignore"):
                 values, _ = forward(grid)
             self._cache[key] = (forward, LawTable(grid, values))
@@ -169,7 +177,8 @@ class Subcell:
             return j - target, slope
 
         with np.errstate(over="ignore", invalid="ignore"):
-            vj, slope = polish_root(residual, guess, lower, upper, increasing=False, active=inside)
+            vj, slope = polish_root(residual, guess, lower, upper, increasing=False, active=inside,
+                                    ftol=ROUNDING_UNITS * np.finfo(float).eps * np.abs(target))
         if not inside.all():
             out = ~inside
             junction = {k: np.broadcast_to(v, vj.shape)[out]
@@ -246,8 +255,9 @@ class Resistor:
 
     def current(self, voltage_V, temperature_K):
         voltage = np.asarray(voltage_V, dtype=float)
-        # with R = 0 any current flows at zero voltage: report 0 (its power V*J is 0 either way)
-        with np.errstate(divide="ignore", invalid="ignore"):
+        # with R = 0 any current flows at zero voltage: report 0 (its power V*J is 0 either way);
+        # a subnormal R gives an infinite slope, as it should
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             current = np.where(self.series_ohm_m2 > 0, -voltage / self.series_ohm_m2, 0.0)
             slope = np.where(self.series_ohm_m2 > 0, -1.0 / self.series_ohm_m2, -np.inf)
         return current, np.broadcast_to(slope, voltage.shape)
@@ -341,7 +351,10 @@ class TunnelJunction:
                     s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
                     grid = valley_v + THERMAL_TABLE_SPAN_V * s
                 values, _ = self.junction_current(grid, temperature_K)
-                table = LawTable(grid, values)
+                # curvature d2J/du2 at the peak and at the valley: the folds' quadratic models
+                folds = esaki.evaluate_prepared(np.concatenate([peak_v, valley_v], axis=1),
+                                                self._prepared(temperature_K))[2]
+                table = (LawTable(grid, values), np.abs(folds[:, :1]), np.abs(folds[:, 1:]))
             self._cache[key] = table
         return self._cache[key]
 
@@ -368,16 +381,32 @@ class TunnelJunction:
             else:
                 inside = current >= valley_j * (1 - 1e-9)
                 target = np.maximum(current, valley_j)
+            table, peak_curvature, valley_curvature = table
             guess, lower, upper, covered = table.start(target)
             target = np.broadcast_to(target, guess.shape)
             prepared = self._prepared(temperature_K)
+            # in a cell ending at a fold (J' = 0) linear interpolation is a poor guess: take
+            # J ~ J_fold - |J''| (u - u_fold)^2 / 2 there instead
+            with np.errstate(invalid="ignore", divide="ignore"):
+                to_peak = np.sqrt(2.0 * np.maximum(peak_j - target, 0.0) / peak_curvature)
+                to_valley = np.sqrt(2.0 * np.maximum(target - valley_j, 0.0) / valley_curvature)
+            if branch == "tunnel":
+                folds = [(upper >= table.u[:, -1:], peak_v - to_peak)]
+            elif branch == "negative":
+                folds = [(lower <= table.u[:, :1], peak_v + to_peak),
+                         (upper >= table.u[:, -1:], valley_v - to_valley)]
+            else:
+                folds = [(lower <= table.u[:, :1], valley_v + to_valley)]
+            for at_fold, model in folds:
+                guess = np.where(at_fold & np.isfinite(model), np.clip(model, lower, upper), guess)
 
             def residual(u):
                 j, slope, _ = esaki.evaluate_prepared(u, prepared)
                 return j - target, slope
 
             u, slope = polish_root(residual, guess, lower, upper, increasing=branch != "negative",
-                                   active=covered)
+                                   active=covered,
+                                   ftol=ROUNDING_UNITS * np.finfo(float).eps * np.abs(target))
             if not covered.all():
                 # beyond the table (rare): the general search on the whole array
                 searched = self._junction_voltage_search(current, temperature_K, branch,

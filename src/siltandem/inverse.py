@@ -103,7 +103,7 @@ class LawTable:
 
 
 def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=1e-13,
-                rtol=4e-16, max_iterations=60):
+                rtol=4e-16, ftol=0.0, max_iterations=60):
     """Root of ``residual`` inside exact brackets, by Newton steps that never leave the bracket.
 
     Parameters
@@ -118,6 +118,9 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         Entries to solve (the others keep their guess); all by default.
     xtol, rtol : float
         Absolute and relative tolerance on the root.
+    ftol : float or ndarray
+        A residual this small also ends the search: the root is then fixed only to rounding
+        (pass a few rounding units of the target, as the element inverses do).
 
     Returns
     -------
@@ -128,7 +131,9 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
 
     Notes
     -----
-    Each iteration evaluates ``residual`` once. An entry stops when its Newton step is below the
+    First two plain Newton steps on every entry; where they all stay inside their brackets and
+    converge quadratically, that is the answer. Otherwise the safeguarded iteration runs from the
+    guess: each iteration evaluates ``residual`` once, and an entry stops when its Newton step is below the
     tolerance, or when two successive Newton steps show quadratic convergence with a predicted
     next step below it (e_{k+1} ~ K e_k^2, K estimated from the last two steps): a good first
     guess then needs two evaluations. Bisection takes over where Newton leaves the bracket, so
@@ -136,6 +141,21 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     Converged entries are frozen: a result never depends on the other entries of the array.
     """
     x = np.array(guess, dtype=float)
+    if active is None or np.all(active):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            # common case first: two plain Newton steps, kept where they stay in the bracket and
+            # show quadratic convergence (predicted next step below the tolerance)
+            f, df = residual(x)
+            x1 = x - f / df
+            f1, df1 = residual(x1)
+            x2 = x1 - f1 / df1
+            s1, s2 = np.abs(x1 - x), np.abs(x2 - x1)
+            tolerance = xtol + rtol * np.abs(x2)
+            fine = ((x2 >= lower) & (x2 <= upper)
+                    & ((s2 <= tolerance) | (s2 * s2 * s2 <= tolerance * s1 * s1)
+                       | (np.abs(f1) <= ftol)))
+        if fine.all():
+            return x2, df1
     lower = np.array(np.broadcast_to(lower, x.shape), dtype=float)
     upper = np.array(np.broadcast_to(upper, x.shape), dtype=float)
     done = np.zeros(x.shape, dtype=bool) if active is None else ~np.broadcast_to(active, x.shape)
@@ -162,7 +182,7 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             predicted = step * step * (step / (previous * previous))
         converged = ((step <= tolerance) | (f == 0) | (upper - lower <= tolerance)
-                     | (~bisect & (predicted <= tolerance)))
+                     | (~bisect & (predicted <= tolerance)) | (np.abs(f) <= ftol))
         converged |= np.isnan(f)
         np.copyto(x, new, where=~done & (f != 0) & ~np.isnan(f))
         previous = np.where(bisect, np.nan, step)

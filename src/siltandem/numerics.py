@@ -4,9 +4,11 @@
 active, which needs every parameter passed through ``args``. The series solver evaluates whole
 element chains whose parameters live in dataclasses, so it uses this whole-array variant: the
 Illinois modification of regula falsi (M. Dowell, P. Jarratt, BIT 11 (1971) 168), guarded by
-bisection, always on the full array.
+bisection, always on the full array; a stale end's value is halved once more each further time
+in a row it is kept. A single root (arrays of one entry) goes to ``scipy.optimize.brentq``.
 """
 import numpy as np
+from scipy.optimize import brentq
 
 
 def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200,
@@ -33,6 +35,8 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
     b = np.array(upper, dtype=float, copy=True)
     a, b = np.broadcast_arrays(a, b)
     a, b = a.copy(), b.copy()
+    if a.size == 1:
+        return _one_root(function, a, b, xtol, rtol, max_iterations, end_values)
     if end_values is None:
         fa = np.asarray(function(a), dtype=float)
         fb = np.asarray(function(b), dtype=float)
@@ -41,6 +45,7 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
     valid = np.isfinite(fa) & np.isfinite(fb) & (np.sign(fa) * np.sign(fb) <= 0)
     side = np.zeros(a.shape, dtype=int)
     x = np.where(fa == 0, a, b)
+    stale = np.zeros(a.shape)                    # how many times in a row end a was kept
     for _ in range(max_iterations):
         width = np.abs(b - a)
         done = (width <= xtol + rtol * np.abs(x)) | (fa == 0) | (fb == 0) | ~valid
@@ -56,9 +61,13 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
         fx = np.where(np.isfinite(fx), fx, np.sign(fx) * np.finfo(float).max)
         same_as_b = np.sign(fx) == np.sign(fb)
         active = ~done
-        # keep the bracket [a, b] with the sign change; Illinois: halve the stale end's value
+        # keep the bracket [a, b] with the sign change; Illinois: halve the stale end's value,
+        # and halve it again more each further time in a row (2, 4, 8, ...): an end whose value
+        # dwarfs the other's would otherwise take one halving per factor of two
+        kept = active & same_as_b & (side == -1)
+        stale = np.where(kept, stale + 1, 0.0)
         new_a = np.where(active & same_as_b, a, np.where(active, b, a))
-        new_fa = np.where(active & same_as_b, np.where(side == -1, 0.5 * fa, fa),
+        new_fa = np.where(active & same_as_b, np.where(kept, fa * 0.5**stale, fa),
                           np.where(active, fb, fa))
         side = np.where(active, np.where(same_as_b, -1, 1), side)
         a, fa = new_a, new_fa
@@ -66,6 +75,38 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
         fb = np.where(active, fx, fb)
     root = np.where(np.abs(fa) < np.abs(fb), a, b)
     return np.where(valid, root, np.nan)
+
+
+def _one_root(function, a, b, xtol, rtol, max_iterations, end_values):
+    """A single root by Brent's method (``scipy.optimize.brentq``): the function is evaluated
+    on arrays of the input's shape, one point at a time. Brent's inverse quadratic
+    interpolation with bisection copes with an end value that dwarfs the other (a fold's
+    slope), where regula falsi creeps."""
+    shape = a.shape
+    if end_values is None:
+        fa = float(np.asarray(function(a), dtype=float).reshape(-1)[0])
+        fb = float(np.asarray(function(b), dtype=float).reshape(-1)[0])
+    else:
+        fa, fb = (float(np.asarray(v, dtype=float).reshape(-1)[0]) for v in end_values)
+    lo, hi = float(a.reshape(-1)[0]), float(b.reshape(-1)[0])
+    if not (np.isfinite(fa) and np.isfinite(fb)) or np.sign(fa) * np.sign(fb) > 0:
+        return np.full(shape, np.nan)
+    if fa == 0 or fb == 0:
+        return np.full(shape, lo if fa == 0 else hi)
+    known = {lo: fa, hi: fb}
+
+    def scalar(x):
+        if x in known:
+            return known[x]
+        value = float(np.asarray(function(np.full(shape, x)), dtype=float).reshape(-1)[0])
+        return value if np.isfinite(value) else np.sign(value) * np.finfo(float).max
+
+    try:
+        root = brentq(scalar, lo, hi, xtol=xtol, rtol=max(rtol, 4 * np.finfo(float).eps),
+                      maxiter=max_iterations)
+    except (RuntimeError, ValueError):
+        return np.full(shape, np.nan)
+    return np.full(shape, root)
 
 
 def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4e-16,

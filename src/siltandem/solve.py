@@ -26,6 +26,7 @@ import numpy as np
 
 from .elements import take_rows
 from .constants import thermal_voltage_V
+from .inverse import polish_root
 from .numerics import bracketed_root, safeguarded_newton
 
 #: forward end of a traced curve: the pilot carries this fraction of its photocurrent backwards
@@ -118,6 +119,12 @@ class _String:
         stacked = np.stack(values, axis=0)
         index = index[None]
         return np.take_along_axis(stacked, index, axis=0)[0]
+
+    def pilot_current_at(self, t):
+        """The string's current at pilot junction voltage ``t`` (the pilot's forward law)."""
+        if self.single_pilot is not None:
+            return self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)[0]
+        return self._select([s.pilot_current(t, self.temperature_K)[0] for s in self.subcells])
 
     def pilot_voltage_at(self, current_A_m2):
         """Pilot junction voltage t carrying ``current_A_m2`` (safe away from Jph)."""
@@ -400,10 +407,6 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     t_forward = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph)
     t_lowest = string.lowest_pilot_voltage()
 
-    at_voc = string.evaluate(t_voc)
-    voc = at_voc["voltage"]
-    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
-
     # every tunnel junction on its tunnel branch: the trace must stay below the smallest peak
     # current, i.e. above the pilot voltage t_peak that carries it
     t_low = t_lowest
@@ -426,6 +429,14 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
         limited = np.isfinite(t_cap) & (t_cap > t_low)
         t_low = np.where(limited, t_cap, t_low)
 
+    if curve_points:
+        return _solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
+                            t_forward=t_forward, t_lowest=t_lowest, t_low=t_low,
+                            limited=limited if caps else None)
+
+    at_voc = string.evaluate(t_voc)
+    voc = at_voc["voltage"]
+    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
     low = string.evaluate(t_low)
     v_low = _finite_or(low["voltage"], -1e3)
     reaches_peak = np.zeros(jph.shape[0], dtype=bool)
@@ -507,3 +518,191 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
                 voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
                               for v in at_voc["voltages"]],
                 curve=curve, reaches_peak=reaches_peak, capped=capped)
+
+
+#: exact samples of the dense pass of a traced curve: uniform in t, and uniform in current
+DENSE_T_SAMPLES = 384
+DENSE_J_SAMPLES = 128
+
+
+def _take(a, index):
+    return np.take_along_axis(a, index, axis=1)
+
+
+def _hermite_crossing(t, v, dv, level):
+    """Where the sampled, strictly rising V(t) crosses ``level`` (B, 1): the cubic Hermite
+    interpolant of the exact values and slopes in the crossing cell, solved by Newton steps.
+    NaN where the samples do not cross the level."""
+    points = t.shape[1]
+    k = np.sum(v < level, axis=1, keepdims=True)
+    crossed = (k > 0) & (k < points)
+    k = np.clip(k, 1, points - 1)
+    t0, t1 = _take(t, k - 1), _take(t, k)
+    v0, v1 = _take(v, k - 1), _take(v, k)
+    h = t1 - t0
+    m0, m1 = h * _take(dv, k - 1), h * _take(dv, k)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x = np.clip(np.where(v1 != v0, (level - v0) / (v1 - v0), 0.5), 0.0, 1.0)
+        smooth = np.isfinite(m0) & np.isfinite(m1)
+        m0, m1 = np.where(smooth, m0, v1 - v0), np.where(smooth, m1, v1 - v0)
+        for _ in range(4):
+            x2, x3 = x * x, x * x * x
+            p = ((2 * x3 - 3 * x2 + 1) * v0 + (x3 - 2 * x2 + x) * m0 + (3 * x2 - 2 * x3) * v1
+                 + (x3 - x2) * m1)
+            dp = (6 * x2 - 6 * x) * (v0 - v1) + (3 * x2 - 4 * x + 1) * m0 + (3 * x2 - 2 * x) * m1
+            x = np.clip(x - np.where(dp > 0, (p - level) / dp, 0.0), 0.0, 1.0)
+    return np.where(crossed, t0 + x * h, np.nan), t0, t1
+
+
+def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_lowest, t_low,
+                 limited):
+    """The traced curve and its summary from one dense exact pass (every tunnel junction on its
+    tunnel branch).
+
+    1. Open circuit and the trace's lower end, exactly.
+    2. Exact samples (values and slopes) from below the reverse end of the curve to its forward
+       end. Along the tunnel branches dV/dt >= 1 (the pilot's own voltage rises with t, and
+       every other element's voltage falls with the current, which falls with t), so
+       V(t_voc) - V(t) >= t_voc - t: the curve's reverse end (V = v_floor) lies above
+       t_voc - (Voc - v_floor), where the samples start.
+    3. Jsc and the reverse end where the cubic Hermite interpolant of the samples crosses 0 and
+       v_floor; the MPP where the exact dP/dt of the samples changes sign. Then one exact
+       evaluation there: a Newton step for the two crossings, a secant step on dP/dt for the
+       MPP (errors of the order of 1e-12 V after the step).
+    4. The curve's points spaced evenly in arc length along the samples, evaluated exactly
+       together with the corrected Jsc and MPP points.
+    """
+    jph = string.pilot_photocurrent
+    size = jph.shape[0]
+    ends = string.evaluate(np.concatenate([t_voc, t_low], axis=1))
+    voc = ends["voltage"][:, :1]
+    v_low = _finite_or(ends["voltage"][:, 1:], -1e3)
+    voltages_voc = [np.array(np.broadcast_to(v, ends["voltage"].shape)[:, :1], dtype=float)
+                    for v in ends["voltages"]]
+    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
+    reaches_peak = np.zeros(size, dtype=bool)
+    if string.tunnels:
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+    capped = np.zeros(size, dtype=bool)
+    if limited is not None:
+        # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
+        capped = (limited & (v_low > 0))[:, 0]
+    if np.all(reaches_peak):
+        # every design is traced again through its junctions' branches (trace.py)
+        nan = np.full((size, 1), np.nan)
+        return dict(voc=voc.copy(), jsc=nan.copy(), v_mpp=nan.copy(), j_mpp=nan.copy(),
+                    p_mpp=nan.copy(), voltages_mpp=[nan.copy() for _ in string.elements],
+                    voltages_voc=voltages_voc, reaches_peak=reaches_peak, capped=capped,
+                    curve={name: np.full((size, curve_points), np.nan) for name in
+                           ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]})
+
+    # (with a margin: where dV/dt = 1 exactly the bound is the reverse end itself)
+    t_start = np.maximum(t_low, _finite_or(t_voc - 1.05 * (voc - v_floor) - 0.01, t_low))
+    by_t = t_start + (t_forward - t_start) * np.linspace(0.0, 1.0, DENSE_T_SAMPLES)[None, :]
+    # the current at the samples' reverse end, from the pilot's forward law alone
+    j_top = _finite_or(np.concatenate([string.pilot_current_at(t_start)], axis=1), jph)
+    fractions = np.linspace(0.0, 1.0, DENSE_J_SAMPLES + 2)[None, 1:-1]
+    with np.errstate(invalid="ignore"):
+        by_j = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph
+                                       + (j_top - FORWARD_CURRENT_FRACTION * jph) * fractions)
+    by_j = np.where(np.isfinite(by_j), np.clip(by_j, t_start, t_forward), t_start)
+    t = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    dense = string.evaluate(t, slopes=True)
+    v = _finite_or(dense["voltage"], -1e3)
+    j = _finite_or(dense["current"], np.nan)
+    dv = _finite_or(dense["dvoltage"], np.nan)
+    dj = _finite_or(dense["dcurrent"], np.nan)
+
+    t_sc, sc_lo, sc_hi = _hermite_crossing(t, v, dv, np.zeros_like(voc))
+    t_floor, floor_lo, floor_hi = _hermite_crossing(t, v, dv, v_floor)
+    power = np.where(np.isfinite(j), j * v, -np.inf)
+    slope = dj * v + j * dv
+    best = np.argmax(power, axis=1)[:, None]
+    rising = _take(slope, best) > 0
+    other = np.clip(np.where(rising, best + 1, best - 1), 0, t.shape[1] - 1)
+    t_best, g_best = _take(t, best), _take(slope, best)
+    t_other, g_other = _take(t, other), _take(slope, other)
+    turns = np.isfinite(g_best) & np.isfinite(g_other) & (np.sign(g_best) * np.sign(g_other) < 0)
+    # inside the cell, the maximum of the cubic Hermite interpolant of P (exact P and dP/dt at
+    # both ends): dP/ds is a quadratic in s, solved by Newton steps from the linear estimate
+    p_best, p_other = _take(power, best), _take(power, other)
+    h = t_other - t_best
+    m0, m1 = h * g_best, h * g_other
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        x = np.clip(np.where(turns, g_best / (g_best - g_other), 0.0), 0.0, 1.0)
+        qa = 6.0 * (p_best - p_other) + 3.0 * (m0 + m1)
+        qb = -6.0 * (p_best - p_other) - 4.0 * m0 - 2.0 * m1
+        for _ in range(3):
+            dq = 2.0 * qa * x + qb
+            x = np.clip(x - np.where(dq != 0, (qa * x * x + qb * x + m0) / dq, 0.0), 0.0, 1.0)
+        t_mpp = np.where(turns & np.isfinite(x), t_best + x * h, t_best)
+        curvature = (2.0 * qa * x + qb) / (h * h)        # the interpolant's d2P/dt2 there
+
+    # polish the three estimates together inside their sample cells (exact brackets): Newton
+    # on V - level for the two crossings, and on -dP/dt for the MPP with d2P/dt2 from the
+    # interpolant, then from the secant of the last two evaluations (inverse.polish_root: two
+    # evaluations when the steps converge fast, a safeguarded search otherwise)
+    levels = np.concatenate([np.zeros_like(voc), v_floor], axis=1)
+    lower = np.concatenate([sc_lo, floor_lo, np.minimum(t_best, t_other)], axis=1)
+    upper = np.concatenate([sc_hi, floor_hi, np.maximum(t_best, t_other)], axis=1)
+    guess = np.concatenate([t_sc, t_floor, t_mpp], axis=1)
+    active = np.isfinite(guess) & np.concatenate([np.ones((size, 2), dtype=bool), turns], axis=1)
+    guess = np.where(active, guess, 0.5 * (lower + upper))
+    memory = {}
+
+    def residual(x):
+        e = string.evaluate(x, slopes=True)
+        g = e["dcurrent"][:, 2:] * e["voltage"][:, 2:] + e["current"][:, 2:] * e["dvoltage"][:, 2:]
+        bend = curvature
+        if memory:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                secant = (g - memory["g"]) / (x[:, 2:] - memory["t"])
+            bend = np.where(np.isfinite(secant) & (secant != 0), secant, memory["bend"])
+        memory.update(g=g, t=x[:, 2:], bend=bend)
+        f = np.concatenate([e["voltage"][:, :2] - levels, -g], axis=1)
+        df = np.concatenate([e["dvoltage"][:, :2], -bend], axis=1)
+        finite = np.isfinite(f) & np.isfinite(df)
+        return np.where(finite, f, np.nan), df
+
+    with np.errstate(invalid="ignore"):
+        polished, _ = polish_root(residual, guess, lower, upper, increasing=True, active=active,
+                                  xtol=1e-13, rtol=4e-16)
+    polished = np.where(active, polished, np.nan)
+    t_sc, t_floor = polished[:, :1], polished[:, 1:2]
+    t_mpp = np.where(turns, polished[:, 2:], t_best)
+    t_sc = np.where(capped[:, None], t_low, t_sc)
+    t_floor = np.where(np.isfinite(t_floor), t_floor, np.where(np.isfinite(t_sc), t_sc, t_low))
+
+    # the curve: points evenly spaced in arc length of (V / V-span, J / J-span) along the samples
+    # (with a little weight on t), from the reverse end to the forward end
+    vn = np.nan_to_num(v, nan=0.0, posinf=0.0, neginf=0.0)
+    jn = np.nan_to_num(j, nan=0.0, posinf=0.0, neginf=0.0)
+    v_span = np.maximum(np.ptp(vn, axis=1, keepdims=True), 1e-12)
+    j_span = np.maximum(np.ptp(jn, axis=1, keepdims=True), 1e-12)
+    t_span = np.maximum(t_forward - t_start, 1e-12)
+    arc_step = (np.hypot(np.diff(vn, axis=1) / v_span, np.diff(jn, axis=1) / j_span)
+                + 0.05 * np.diff(t, axis=1) / t_span)
+    arc = np.concatenate([np.zeros((size, 1)), np.cumsum(arc_step, axis=1)], axis=1)
+    curve_t = np.empty((size, curve_points))
+    fractions = np.linspace(0.0, 1.0, curve_points)
+    for row in range(size):
+        a_floor = np.interp(t_floor[row, 0], t[row], arc[row])
+        targets = a_floor + (arc[row, -1] - a_floor) * fractions
+        curve_t[row] = np.interp(targets, arc[row], t[row])
+    curve_t[:, :1] = t_floor
+    curve_t[:, -1:] = t_forward
+    final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1))
+    n = curve_points
+    current = final["current"]
+    voltage = final["voltage"]
+    jsc = np.where(capped[:, None], np.nan, current[:, n:n + 1])
+    j_mpp, v_mpp = current[:, n + 1:], voltage[:, n + 1:]
+    element_voltages = [np.broadcast_to(x, current.shape) for x in final["voltages"]]
+    curve = {"current_A_m2": current[:, :n].copy(), "voltage_V": voltage[:, :n].copy()}
+    for element, v_i in zip(string.elements, element_voltages):
+        curve[element.name] = np.array(v_i[:, :n], dtype=float)
+    return dict(voc=voc.copy(), jsc=jsc, v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
+                p_mpp=j_mpp * v_mpp, voltages_mpp=[np.array(x[:, n + 1:], dtype=float)
+                                                   for x in element_voltages],
+                voltages_voc=voltages_voc, curve=curve, reaches_peak=reaches_peak,
+                capped=capped)

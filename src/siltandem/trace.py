@@ -22,9 +22,7 @@ vectorized.
 """
 import numpy as np
 
-from .numerics import bracketed_root
-
-SAMPLES_PER_PIECE = 96
+SAMPLES_PER_PIECE = 160
 #: at most this many pieces per junction (each junction turns at most a few times)
 MAX_PIECES_PER_JUNCTION = 6
 
@@ -48,7 +46,66 @@ def _next_fold(branches, direction, peaks, valleys):
     return best_j, best_k, new
 
 
+def _samples(string, state, t_a, t_b, points):
+    """Exact samples (values and slopes) of one piece from t_a to t_b, in path order: half
+    uniform in t, half uniform in current (the pilot's forward law gives the current at the
+    ends without inverting anything)."""
+    pilot = string.subcells[string.single_pilot] if string.single_pilot is not None else None
+    half = points // 2
+    by_t = t_a + (t_b - t_a) * np.linspace(0.0, 1.0, points - half)[None, :]
+    ends = np.concatenate([t_a, t_b], axis=1)
+    if pilot is not None:
+        j_ends = pilot.pilot_current(ends, string.temperature_K)[0]
+    else:
+        j_ends = string.evaluate(ends, branches=state)["current"]
+    inner = np.linspace(0.0, 1.0, half + 2)[None, 1:-1]
+    with np.errstate(invalid="ignore"):
+        by_j = string.pilot_voltage_at(j_ends[:, :1] + (j_ends[:, 1:] - j_ends[:, :1]) * inner)
+    low, high = np.minimum(t_a, t_b), np.maximum(t_a, t_b)
+    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
+    ts = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    if _scalar(t_b) < _scalar(t_a):
+        ts = ts[:, ::-1]
+    return ts, string.evaluate(ts, branches=state, slopes=True)
+
+
+def _polish_level(string, state, t, level, lo, hi):
+    """Newton steps on V(t) = level from ``t`` inside [lo, hi] (exact evaluations, usually one
+    or two); returns t."""
+    for _ in range(6):
+        e = string.evaluate(t, branches=state, slopes=True)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = (e["voltage"] - level) / e["dvoltage"]
+        new = t - step
+        if not np.all(np.isfinite(new)) or not (lo <= _scalar(new) <= hi):
+            break
+        t = new
+        if abs(_scalar(step)) <= 3e-8:
+            break
+    return t
+
+
+def _hermite_level(ts, v, dv, i, level):
+    """Cubic Hermite crossing of ``level`` between samples i and i + 1 (exact values, slopes)."""
+    t0, t1, v0, v1 = ts[i], ts[i + 1], v[i], v[i + 1]
+    h = t1 - t0
+    m0, m1 = h * dv[i], h * dv[i + 1]
+    if not (np.isfinite(m0) and np.isfinite(m1)):
+        m0 = m1 = v1 - v0
+    x = min(max((level - v0) / (v1 - v0), 0.0), 1.0) if v1 != v0 else 0.5
+    for _ in range(5):
+        x2, x3 = x * x, x * x * x
+        p = ((2 * x3 - 3 * x2 + 1) * v0 + (x3 - 2 * x2 + x) * m0 + (3 * x2 - 2 * x3) * v1
+             + (x3 - x2) * m1)
+        dp = (6 * x2 - 6 * x) * (v0 - v1) + (3 * x2 - 4 * x + 1) * m0 + (3 * x2 - 2 * x) * m1
+        if dp == 0 or not np.isfinite(dp):
+            break
+        x = min(max(x - (p - level) / dp, 0.0), 1.0)
+    return t0 + x * h
+
+
 def _build_pieces(string, t_forward, t_lowest, v_floor):
+    """The path's pieces (branch state, t_start, t_end) with their exact samples."""
     tunnels = string.tunnels
     extrema = [string.tunnel_extrema[t.name] for t in tunnels]
     peaks = [_scalar(e.peak_A_m2) for e in extrema]
@@ -56,7 +113,11 @@ def _build_pieces(string, t_forward, t_lowest, v_floor):
     branches = ["tunnel"] * len(tunnels)
     direction = +1
     t_start = t_forward
-    top_current = _scalar(string.evaluate(t_lowest)["current"])
+    pilot = string.subcells[string.single_pilot] if string.single_pilot is not None else None
+    if pilot is not None:
+        top_current = _scalar(pilot.pilot_current(t_lowest, string.temperature_K)[0])
+    else:
+        top_current = _scalar(string.evaluate(t_lowest)["current"])
     pieces = []
     for _ in range(MAX_PIECES_PER_JUNCTION * len(tunnels) + 2):
         fold_j, k, new = _next_fold(branches, direction, peaks, valleys)
@@ -66,43 +127,30 @@ def _build_pieces(string, t_forward, t_lowest, v_floor):
         else:
             t_end = string.pilot_voltage_at(np.full((1, 1), fold_j))
         state = {t.name: b for t, b in zip(tunnels, branches)}
+        ts, e = _samples(string, state, t_start, t_end, SAMPLES_PER_PIECE)
         if direction > 0:
             # the path ends where the terminal voltage first falls through the floor
-            s = np.linspace(0.0, 1.0, SAMPLES_PER_PIECE)[None, :]
-            ts = t_start + (t_end - t_start) * s
-            v = string.evaluate(ts, branches=state)["voltage"][0]
+            v = e["voltage"][0]
             below = np.flatnonzero(np.isfinite(v) & (v <= v_floor))
             if below.size:
                 i = below[0]
                 if i == 0:
                     t_cut = t_start
                 else:
-                    def shifted(t):
-                        return string.evaluate(t, branches=state)["voltage"] - v_floor
-                    t_cut = bracketed_root(shifted, ts[:, i - 1:i], ts[:, i:i + 1])
-                    if not np.all(np.isfinite(t_cut)):
-                        t_cut = ts[:, i:i + 1]
-                pieces.append((dict(state), t_start, t_cut))
+                    t_cut = np.full((1, 1), _hermite_level(ts[0], v, e["dvoltage"][0], i - 1,
+                                                           v_floor))
+                    lo, hi = sorted((ts[0, i - 1], ts[0, i]))
+                    t_cut = _polish_level(string, state, t_cut, v_floor, lo, hi)
+                ts, e = _samples(string, state, t_start, t_cut, SAMPLES_PER_PIECE)
+                pieces.append((dict(state), t_start, t_cut, ts, e))
                 break
-        pieces.append((dict(state), t_start, t_end))
+        pieces.append((dict(state), t_start, t_end, ts, e))
         if ends_path:
             break
         branches[k] = new
         direction = -direction
         t_start = t_end
     return pieces
-
-
-def _sample(string, pieces, counts):
-    """Exact points along the pieces: ``counts[i]`` points uniform in t on piece i, in path order."""
-    from .solve import spread_parameter
-
-    parts = []
-    for (state, t_a, t_b), n in zip(pieces, counts):
-        ts = spread_parameter(string, t_a, t_b, n, branches=state)
-        e = string.evaluate(ts, branches=state, slopes=True)
-        parts.append((state, ts, e))
-    return parts
 
 
 def _regime(voltage, current):
@@ -114,6 +162,49 @@ def _regime(voltage, current):
     if np.any(rises):
         return "past peak, hysteresis"
     return "past peak, no hysteresis"
+
+
+def _mpp_on_piece(string, state, ts, e, i):
+    """The MPP near sample i of a piece: where the exact dP/dt of the samples changes sign, the
+    maximum of the cubic Hermite interpolant of P, then secant steps on dP/dt (exact
+    evaluations) until the step is below 1e-10 V."""
+    t, j, v = ts[0], e["current"][0], e["voltage"][0]
+    g = e["dcurrent"][0] * v + j * e["dvoltage"][0]
+    n = t.size
+    candidates = [m for m in (i, i - 1) if 0 <= m < n - 1 and np.isfinite(g[m]) and
+                  np.isfinite(g[m + 1]) and g[m] * g[m + 1] <= 0]
+    if not candidates:
+        return np.full((1, 1), t[i])
+    m = candidates[0]
+    h = t[m + 1] - t[m]
+    p0, p1, m0, m1 = j[m] * v[m], j[m + 1] * v[m + 1], h * g[m], h * g[m + 1]
+    qa = 6.0 * (p0 - p1) + 3.0 * (m0 + m1)
+    qb = -6.0 * (p0 - p1) - 4.0 * m0 - 2.0 * m1
+    x = g[m] / (g[m] - g[m + 1]) if g[m] != g[m + 1] else 0.5
+    for _ in range(3):
+        dq = 2.0 * qa * x + qb
+        if dq == 0:
+            break
+        x = min(max(x - (qa * x * x + qb * x + m0) / dq, 0.0), 1.0)
+    lo, hi = sorted((t[m], t[m + 1]))
+    t_mpp = t[m] + x * h
+    curvature = (2.0 * qa * x + qb) / (h * h)
+    previous = None
+    for _ in range(6):
+        ev = string.evaluate(np.full((1, 1), t_mpp), branches=state, slopes=True)
+        gm = _scalar(ev["dcurrent"] * ev["voltage"] + ev["current"] * ev["dvoltage"])
+        if previous is not None and t_mpp != previous[0] and gm != previous[1]:
+            curvature = (gm - previous[1]) / (t_mpp - previous[0])
+        previous = (t_mpp, gm)
+        if not (np.isfinite(gm) and np.isfinite(curvature)) or curvature == 0:
+            break
+        new = t_mpp - gm / curvature
+        if not lo < new < hi:
+            break
+        step, t_mpp = new - t_mpp, new
+        if abs(step) <= 1e-10:
+            break
+    return np.full((1, 1), t_mpp)
 
 
 def solve_path(string, *, curve_points, reverse_fraction):
@@ -131,78 +222,78 @@ def solve_path(string, *, curve_points, reverse_fraction):
         for t in string.tunnels)
     v_floor = -max(reverse_fraction * _scalar(voc), 0.3) - thermal_drop
     pieces = _build_pieces(string, t_forward, t_lowest, v_floor)
-    dense = _sample(string, pieces, [SAMPLES_PER_PIECE] * len(pieces))
 
-    # MPP: global maximum of P over every piece, refined inside its piece
+    # MPP: global maximum of P over every piece's samples, refined inside its piece
     best = (-np.inf, None, None)
-    for index, (state, ts, e) in enumerate(dense):
+    for index, (_, _, _, ts, e) in enumerate(pieces):
         p = np.where(np.isfinite(e["voltage"]), e["current"] * e["voltage"], -np.inf)[0]
         i = int(np.argmax(p))
         if p[i] > best[0]:
             best = (p[i], index, i)
     _, index, i = best
-    state, ts, _ = dense[index]
-    lo, hi = ts[:, max(i - 1, 0):max(i - 1, 0) + 1], ts[:, min(i + 1, ts.shape[1] - 1):][:, :1]
-
-    def power_slope(t):
-        e = string.evaluate(t, branches=state, slopes=True)
-        value = e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"]
-        return np.where(np.isfinite(value), value, 0.0)
-
-    t_mpp = bracketed_root(power_slope, lo, hi)
-    if not np.all(np.isfinite(t_mpp)):
-        t_mpp = ts[:, i:i + 1]
+    state, _, _, ts, e = pieces[index]
+    t_mpp = _mpp_on_piece(string, state, ts, e, i)
     at_mpp = string.evaluate(t_mpp, branches=state)
+    branches_mpp = dict(state)
 
     # Jsc: the first zero of V met along the path after open circuit
     jsc = np.full((1, 1), np.nan)
     passed_open_circuit = False
-    for state_k, ts_k, e in dense:
+    for state_k, _, _, ts_k, e in pieces:
         v, j = e["voltage"][0], e["current"][0]
-        for m in range(len(v) - 1):
-            if not passed_open_circuit:
-                if j[m] <= 0 <= j[m + 1] or j[m] >= 0 >= j[m + 1]:
-                    passed_open_circuit = True
-                else:
-                    continue
-            if np.isfinite(v[m]) and np.isfinite(v[m + 1]) and v[m] >= 0 >= v[m + 1] and v[m] != v[m + 1]:
-                def terminal(t, state_k=state_k):
-                    return string.evaluate(t, branches=state_k)["voltage"]
-                t0 = bracketed_root(terminal, ts_k[:, m + 1:m + 2], ts_k[:, m:m + 1])
-                jsc = string.evaluate(t0, branches=state_k)["current"]
-                break
-        if np.isfinite(jsc[0, 0]):
+        start = 0
+        if not passed_open_circuit:
+            crossing = np.flatnonzero((j[:-1] <= 0) & (0 <= j[1:]) | (j[:-1] >= 0) & (0 >= j[1:]))
+            if crossing.size == 0:
+                continue
+            passed_open_circuit, start = True, int(crossing[0])
+        finite = np.isfinite(v[:-1]) & np.isfinite(v[1:])
+        zero = np.flatnonzero(finite & (v[:-1] >= 0) & (0 >= v[1:]) & (v[:-1] != v[1:]))
+        zero = zero[zero >= start]
+        if zero.size:
+            m = int(zero[0])
+            t0 = np.full((1, 1), _hermite_level(ts_k[0], v, e["dvoltage"][0], m, 0.0))
+            lo, hi = sorted((ts_k[0, m], ts_k[0, m + 1]))
+            t0 = _polish_level(string, state_k, t0, 0.0, lo, hi)
+            jsc = string.evaluate(t0, branches=state_k)["current"]
             break
 
-    forward_to_reverse_v = np.concatenate([e["voltage"][0] for _, _, e in dense])
-    forward_to_reverse_j = np.concatenate([e["current"][0] for _, _, e in dense])
+    forward_to_reverse_v = np.concatenate([e["voltage"][0] for *_, e in pieces])
+    forward_to_reverse_j = np.concatenate([e["current"][0] for *_, e in pieces])
     regime = _regime(forward_to_reverse_v, forward_to_reverse_j)
 
     curve = None
     if curve_points:
-        # share the points among the pieces by their arc length in (V/Voc, J/Jph)
-        lengths = []
-        for _, _, e in dense:
-            dv = np.diff(np.nan_to_num(e["voltage"][0])) / max(abs(_scalar(voc)), 1e-3)
-            dj = np.diff(e["current"][0]) / _scalar(jph)
-            lengths.append(np.sum(np.hypot(dv, dj)) + 1e-12)
-        lengths = np.array(lengths)
+        # share the points among the pieces by their arc length in (V/Voc, J/Jph), and space
+        # them evenly in arc length along each piece's samples
+        scale_v, scale_j = max(abs(_scalar(voc)), 1e-3), _scalar(jph)
+        arcs = []
+        for *_, ts, e in pieces:
+            dv = np.diff(np.nan_to_num(e["voltage"][0])) / scale_v
+            dj = np.diff(np.nan_to_num(e["current"][0])) / scale_j
+            dt = np.abs(np.diff(ts[0])) / max(abs(_scalar(t_forward) - _scalar(t_lowest)), 1e-3)
+            arcs.append(np.concatenate([[0.0], np.cumsum(np.hypot(dv, dj) + 1e-3 * dt)]))
+        lengths = np.array([a[-1] + 1e-12 for a in arcs])
         counts = np.maximum(2, np.floor(curve_points * lengths / lengths.sum()).astype(int))
         while counts.sum() > curve_points:
             counts[np.argmax(counts)] -= 1
         counts[np.argmax(lengths)] += curve_points - counts.sum()
-        exact = _sample(string, pieces, counts)
-        curve = {"current_A_m2": np.concatenate([e["current"][0] for _, _, e in exact])[::-1],
-                 "voltage_V": np.concatenate([e["voltage"][0] for _, _, e in exact])[::-1]}
+        parts = []
+        for (state, t_a, t_b, ts, _), arc, n in zip(pieces, arcs, counts):
+            placed = np.interp(np.linspace(0.0, arc[-1], n), arc, ts[0])
+            placed[0], placed[-1] = _scalar(t_a), _scalar(t_b)
+            parts.append(string.evaluate(placed[None, :], branches=state))
+        curve = {"current_A_m2": np.concatenate([e["current"][0] for e in parts])[::-1],
+                 "voltage_V": np.concatenate([e["voltage"][0] for e in parts])[::-1]}
         for k, element in enumerate(string.elements):
             curve[element.name] = np.concatenate(
-                [np.broadcast_to(e["voltages"][k], e["current"].shape)[0] for _, _, e in exact])[::-1]
+                [np.broadcast_to(e["voltages"][k], e["current"].shape)[0] for e in parts])[::-1]
     return dict(voc=_scalar(voc), jsc=_scalar(jsc), v_mpp=_scalar(at_mpp["voltage"]),
                 j_mpp=_scalar(at_mpp["current"]),
                 p_mpp=_scalar(at_mpp["current"] * at_mpp["voltage"]),
                 voltages_mpp=[_scalar(v) for v in at_mpp["voltages"]],
                 voltages_voc=[_scalar(v) for v in at_voc["voltages"]],
-                branches_mpp=dict(state), regime=regime, curve=curve)
+                branches_mpp=branches_mpp, regime=regime, curve=curve)
 
 
 def voltage_sweep(voltage_V, current, *, direction, points=400):

@@ -214,8 +214,8 @@ def subcell_voltage(current_A_m2, *, series_ohm_m2=0.0, **junction):
 def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
     """Current density [A/m^2] of a subcell at terminal voltage ``voltage_V`` [V].
 
-    Solves V = Vj - Rs J(Vj) for Vj (strictly increasing in Vj) by a bracketed root find, then
-    J = J(Vj). Returns (current, dJ/dV).
+    Solves V = Vj - Rs J(Vj) for Vj (strictly increasing in Vj) by a safeguarded Newton search
+    inside an exact bracket, from its end V + Rs J(V), then J = J(Vj). Returns (current, dJ/dV).
     """
     voltage = np.asarray(voltage_V, dtype=float)
     rs = np.broadcast_to(np.asarray(series_ohm_m2, dtype=float), voltage.shape)
@@ -238,7 +238,11 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
     vbr = junction.get("breakdown_V")
     if vbr is not None:
         lo = np.maximum(lo, np.where(np.isfinite(vbr), vbr * (1 - 1e-12), -np.inf))
-    vj = safeguarded_newton(residual, lo, hi)
+    # first guess V + Rs J(V), the bracket's own end: Newton from there converges at once when
+    # Rs dJ/dVj is small, and the bracket keeps it safe when it is not
+    with np.errstate(invalid="ignore"):
+        start = np.clip(other, lo, hi)
+    vj = safeguarded_newton(residual, lo, hi, start=start)
     current, slope_j = junction_current(vj, **junction)
     slope = slope_j / (1.0 - rs * slope_j)
     return current, slope

@@ -420,7 +420,8 @@ def attained_peak_and_valley(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess
     args = np.broadcast_arrays(a, v1, jv, vv, c2, j0, n, t)
     shape = args[0].shape
     args = tuple(np.ravel(x) for x in args)
-    peak_v, valley_v = _extrema_by_table(args)
+    peak_v, valley_v = _extrema_by_table(args, np.ravel(np.broadcast_to(peak_V, shape))
+                                         if exact_peak else None)
     retry = ~np.isfinite(peak_v) | ~np.isfinite(valley_v)
     if retry.any():
         p_v, v_v = _extrema_by_bracketing(tuple(x[retry] for x in args))
@@ -439,8 +440,12 @@ def attained_peak_and_valley(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess
 _EXTREMA_SAMPLES = 384
 
 
-def _extrema_by_table(args):
+def _extrema_by_table(args, exact_peak_V=None):
     """Peak and valley voltages (flat arrays; NaN where not found) from sampled slopes.
+
+    ``exact_peak_V``: the requested peak voltages when the tunnelling term was solved to put the
+    maximum there (then J'(Vp) = 0 holds in closed form and Vp is taken as it is, wherever the
+    samples confirm the peak's cell).
 
     dJ/dV is sampled on a grid over (0, 3 max(Vv, 2 V1)]; the peak lies in the first cell where
     it turns negative and the valley in the next cell where it turns positive again. Inside each
@@ -466,12 +471,25 @@ def _extrema_by_table(args):
         _, dj, d2j = _total(v, *params)
         return dj, d2j
 
+    def cell(index):
+        below = np.maximum(index - 1, 0)
+        return (np.take_along_axis(grid, below, axis=1), np.take_along_axis(grid, index, axis=1),
+                np.take_along_axis(slope, below, axis=1), np.take_along_axis(slope, index, axis=1))
+
     def root(index, increasing):
-        lo = np.take_along_axis(grid, np.maximum(index - 1, 0), axis=1)
-        hi = np.take_along_axis(grid, index, axis=1)
-        x, _ = polish_root(residual, 0.5 * (lo + hi), lo, hi, increasing=increasing)
+        lo, hi, s_lo, s_hi = cell(index)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            guess = np.clip(lo + s_lo * (hi - lo) / (s_lo - s_hi), lo, hi)
+        x, _ = polish_root(residual, np.where(np.isfinite(guess), guess, 0.5 * (lo + hi)), lo, hi,
+                           increasing=increasing)
         return np.where(found, x, np.nan)[:, 0]
 
+    if exact_peak_V is not None:
+        lo, hi, _, _ = cell(first)
+        vp = exact_peak_V[:, None]
+        confirmed = found & (lo <= vp) & (vp <= hi)
+        if np.all(confirmed):
+            return np.array(exact_peak_V, dtype=float), root(rising, True)
     return root(first, False), root(rising, True)
 
 
