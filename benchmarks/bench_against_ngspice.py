@@ -25,6 +25,7 @@ Run: python benchmarks/bench_against_ngspice.py
 import timing  # noqa: E402  (benchmarks/timing.py, beside this script)
 import statistics
 import sys
+import time
 from pathlib import Path
 
 import numpy as np
@@ -69,6 +70,36 @@ def triple_builder(spectrum, *, lower_peak_A_m2, series_ohm_m2, j02=True):
                 Resistor("contacts", batch(series_ohm_m2))]
 
     return build
+
+
+def where_time_goes(build):
+    """Our solve split into its string evaluations (each inverts every element once at a batch
+    of points) and the rest (element set-up: tables, junction extrema; pilot inverses; power
+    balance): medians over REPEATS runs."""
+    from siltandem import solve as solve_module
+
+    original = solve_module._String.evaluate
+    record = []
+
+    def timed(self, t, **keywords):
+        start = time.perf_counter()
+        out = original(self, t, **keywords)
+        record.append(time.perf_counter() - start)
+        return out
+
+    solve_module._String.evaluate = timed
+    try:
+        totals, inside, counts = [], [], []
+        for _ in range(REPEATS):
+            record.clear()
+            start = time.perf_counter()
+            solve_string(build(), TEMPERATURE_K, curve_points=CURVE_POINTS)
+            totals.append(time.perf_counter() - start)
+            inside.append(sum(record))
+            counts.append(len(record))
+    finally:
+        solve_module._String.evaluate = original
+    return statistics.median(totals), statistics.median(inside), int(statistics.median(counts))
 
 
 def ngspice_median(elements, solution, *, options, past_peak):
@@ -132,6 +163,9 @@ def main():
               f"{tight / ours:6.2f} x")
         print(f"  ngspice, default tolerances: {loose * 1e3:6.1f} ms   ratio ngspice / ours: "
               f"{loose / ours:6.2f} x   (target: >= 10 x)")
+        total, evaluations, count = where_time_goes(build)
+        print(f"  where ours goes: {count} string evaluations {evaluations * 1e3:.1f} ms, "
+              f"the rest {(total - evaluations) * 1e3:.1f} ms (of {total * 1e3:.1f} ms)")
 
 
 if __name__ == "__main__":

@@ -28,8 +28,8 @@ from .inverse import LawTable, polish_root
 from .numerics import safeguarded_newton
 
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
-TABLE_REVERSE_POINTS = 320
-TABLE_FORWARD_POINTS = 1536
+TABLE_REVERSE_POINTS = 160
+TABLE_FORWARD_POINTS = 512
 #: an inverse is done when its residual is within this many rounding units of the current
 ROUNDING_UNITS = 2
 
@@ -269,7 +269,7 @@ class Resistor:
 #: branches of a tunnel junction's characteristic, in order of increasing junction voltage
 TUNNEL_BRANCHES = ("tunnel", "negative", "thermal")
 #: points of each branch's table of a tunnel junction (inverse.py)
-TUNNEL_TABLE_POINTS = 512
+TUNNEL_TABLE_POINTS = 256
 #: the thermal branch's table runs from the valley this far forward [V] (beyond: root find)
 THERMAL_TABLE_SPAN_V = 1.0
 

@@ -92,6 +92,19 @@ class LawTable:
             u_b = np.take_along_axis(self.u, k + 1, axis=1)
             j_a = np.take_along_axis(self.j, k, axis=1)
             j_b = np.take_along_axis(self.j, k + 1, axis=1)
+        if rows > 1:
+            # the search ran on normalised keys (rounded): one step to the neighbouring cell
+            # where the real values say so, so that the cell depends on the design alone
+            if self.increasing:
+                step = np.where(target < j_a, -1, np.where(target > j_b, 1, 0))
+            else:
+                step = np.where(target > j_a, -1, np.where(target < j_b, 1, 0))
+            if np.any(step):
+                k = np.clip(k + step, 0, m - 2)
+                u_a = np.take_along_axis(self.u, k, axis=1)
+                u_b = np.take_along_axis(self.u, k + 1, axis=1)
+                j_a = np.take_along_axis(self.j, k, axis=1)
+                j_b = np.take_along_axis(self.j, k + 1, axis=1)
         if self.increasing:
             inside = (target >= j_a) & (target <= j_b)
         else:
@@ -131,9 +144,10 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
 
     Notes
     -----
-    First two plain Newton steps on every entry; where they all stay inside their brackets and
-    converge quadratically, that is the answer. Otherwise the safeguarded iteration runs from the
-    guess: each iteration evaluates ``residual`` once, and an entry stops when its Newton step is below the
+    First two plain Newton steps on every entry; where they stay inside the entry's bracket and
+    converge quadratically, that is the entry's answer. The other entries go through the
+    safeguarded iteration from their guess: each iteration evaluates ``residual`` once, and an
+    entry stops when its Newton step is below the
     tolerance, or when two successive Newton steps show quadratic convergence with a predicted
     next step below it (e_{k+1} ~ K e_k^2, K estimated from the last two steps): a good first
     guess then needs two evaluations. Bisection takes over where Newton leaves the bracket, so
@@ -141,29 +155,33 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     Converged entries are frozen: a result never depends on the other entries of the array.
     """
     x = np.array(guess, dtype=float)
-    if active is None or np.all(active):
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            # common case first: two plain Newton steps, kept where they stay in the bracket and
-            # show quadratic convergence (predicted next step below the tolerance)
-            f, df = residual(x)
-            x1 = x - f / df
-            f1, df1 = residual(x1)
-            x2 = x1 - f1 / df1
-            s1, s2 = np.abs(x1 - x), np.abs(x2 - x1)
-            tolerance = xtol + rtol * np.abs(x2)
-            fine = ((x2 >= lower) & (x2 <= upper)
-                    & ((s2 <= tolerance) | (s2 * s2 * s2 <= tolerance * s1 * s1)
-                       | (np.abs(f1) <= ftol)))
-        if fine.all():
-            return x2, df1
     lower = np.array(np.broadcast_to(lower, x.shape), dtype=float)
     upper = np.array(np.broadcast_to(upper, x.shape), dtype=float)
     done = np.zeros(x.shape, dtype=bool) if active is None else ~np.broadcast_to(active, x.shape)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # common case first: two plain Newton steps, kept for each entry where they stay in
+        # the bracket and show quadratic convergence (predicted next step below the tolerance)
+        f, df = residual(x)
+        x1 = x - f / df
+        f1, df1 = residual(x1)
+        x2 = x1 - f1 / df1
+        s1, s2 = np.abs(x1 - x), np.abs(x2 - x1)
+        tolerance = xtol + rtol * np.abs(x2)
+        fine = ~done & ((x2 >= lower) & (x2 <= upper)
+                        & ((s2 <= tolerance) | (s2 * s2 * s2 <= tolerance * s1 * s1)
+                           | (np.abs(f1) <= ftol)))
+    if np.all(fine | done):
+        return np.where(fine, x2, x), np.where(fine, df1, df)
+    # the others: the safeguarded iteration from their first guess (each entry on its own)
+    x = np.where(fine, x2, x)
+    first_slope = np.where(fine, df1, df)
+    done = done | fine
     previous = np.full(x.shape, np.nan)   # last Newton step; NaN: none (start or bisection)
-    slope = None
+    last_move = np.abs(upper - lower)     # the last move of x (bisection or Newton)
+    slope = first_slope
     for _ in range(max_iterations):
         f, df = residual(x)
-        slope = df if slope is None else np.where(done, slope, df)
+        slope = np.where(done, slope, df)
         lost = np.isnan(f) & ~done
         if lost.any():
             x[lost] = np.nan
@@ -175,7 +193,9 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         np.copyto(upper, x, where=below & ~done)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             new = x - f / df
-        bisect = ~((new >= lower) & (new <= upper))
+        # bisect where Newton leaves the bracket, or does not at least halve the move before
+        # last ('rtsafe'): a step creeping down a huge exponential cannot stall the search
+        bisect = ~((new >= lower) & (new <= upper)) | (np.abs(new - x) > 0.5 * last_move)
         new = np.where(bisect, 0.5 * (lower + upper), new)
         step = np.abs(new - x)
         tolerance = xtol + rtol * np.abs(x)
@@ -184,6 +204,7 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         converged = ((step <= tolerance) | (f == 0) | (upper - lower <= tolerance)
                      | (~bisect & (predicted <= tolerance)) | (np.abs(f) <= ftol))
         converged |= np.isnan(f)
+        last_move = np.where(done, last_move, np.abs(new - x))
         np.copyto(x, new, where=~done & (f != 0) & ~np.isnan(f))
         previous = np.where(bisect, np.nan, step)
         done |= converged

@@ -523,20 +523,24 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
 #: exact samples of the dense pass of a traced curve: uniform in t, and uniform in current
 DENSE_T_SAMPLES = 384
 DENSE_J_SAMPLES = 128
+#: the terminal voltage at a reported Jsc is within this of zero [V]
+SHORT_CIRCUIT_TOLERANCE_V = 1e-6
 
 
 def _take(a, index):
     return np.take_along_axis(a, index, axis=1)
 
 
-def _hermite_crossing(t, v, dv, level):
+def _hermite_crossing(t, v, dv, level, finite):
     """Where the sampled, strictly rising V(t) crosses ``level`` (B, 1): the cubic Hermite
     interpolant of the exact values and slopes in the crossing cell, solved by Newton steps.
-    NaN where the samples do not cross the level."""
+    NaN where the samples do not cross the level between two samples with a value (``finite``:
+    where an element cannot carry the current there is no voltage, and no crossing)."""
     points = t.shape[1]
     k = np.sum(v < level, axis=1, keepdims=True)
     crossed = (k > 0) & (k < points)
     k = np.clip(k, 1, points - 1)
+    crossed &= _take(finite, k - 1) & _take(finite, k)
     t0, t1 = _take(t, k - 1), _take(t, k)
     v0, v1 = _take(v, k - 1), _take(v, k)
     h = t1 - t0
@@ -559,9 +563,9 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     """The traced curve and its summary from one dense exact pass (every tunnel junction on its
     tunnel branch).
 
-    1. Open circuit and the trace's lower end, exactly.
+    1. Open circuit from the subcells alone (at zero current nothing else has a voltage).
     2. Exact samples (values and slopes) from below the reverse end of the curve to its forward
-       end. Along the tunnel branches dV/dt >= 1 (the pilot's own voltage rises with t, and
+       end, with open circuit itself. Along the tunnel branches dV/dt >= 1 (the pilot's own voltage rises with t, and
        every other element's voltage falls with the current, which falls with t), so
        V(t_voc) - V(t) >= t_voc - t: the curve's reverse end (V = v_floor) lies above
        t_voc - (Voc - v_floor), where the samples start.
@@ -574,12 +578,41 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     """
     jph = string.pilot_photocurrent
     size = jph.shape[0]
-    ends = string.evaluate(np.concatenate([t_voc, t_low], axis=1))
-    voc = ends["voltage"][:, :1]
-    v_low = _finite_or(ends["voltage"][:, 1:], -1e3)
-    voltages_voc = [np.array(np.broadcast_to(v, ends["voltage"].shape)[:, :1], dtype=float)
-                    for v in ends["voltages"]]
+    # open circuit before any evaluation: at zero current every element but the subcells has
+    # zero voltage (a resistor, a tunnel junction, an isotype interface), and each subcell its
+    # own open-circuit voltage; this fixes where the samples start
+    voc_guess = functools.reduce(np.add, [s.junction_voltage_at(np.zeros_like(jph),
+                                                                string.temperature_K)
+                                          for s in string.subcells])
+    floor_guess = -np.maximum(reverse_fraction * voc_guess, 0.3)
+    # (with a margin: where dV/dt = 1 exactly the bound is the reverse end itself)
+    t_start = np.maximum(t_low, _finite_or(t_voc - 1.05 * (voc_guess - floor_guess) - 0.01,
+                                           t_low))
+    by_t = t_start + (t_forward - t_start) * np.linspace(0.0, 1.0, DENSE_T_SAMPLES)[None, :]
+    # the current at the samples' reverse end, from the pilot's forward law alone
+    j_top = _finite_or(string.pilot_current_at(t_start), jph)
+    fractions = np.linspace(0.0, 1.0, DENSE_J_SAMPLES + 2)[None, 1:-1]
+    with np.errstate(invalid="ignore"):
+        by_j = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph
+                                       + (j_top - FORWARD_CURRENT_FRACTION * jph) * fractions)
+    by_j = np.where(np.isfinite(by_j), np.clip(by_j, t_start, t_forward), t_start)
+    t = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    points = t.shape[1]
+    dense = string.evaluate(np.concatenate([t, t_voc], axis=1), slopes=True)
+    voc = dense["voltage"][:, points:]
+    voltages_voc = [np.array(np.broadcast_to(x, dense["voltage"].shape)[:, points:], dtype=float)
+                    for x in dense["voltages"]]
+    dense = {k: (x[:, :points] if k != "voltages" else x) for k, x in dense.items()}
+    v = _finite_or(dense["voltage"], -1e3)
+    j = _finite_or(dense["current"], np.nan)
+    dv = _finite_or(dense["dvoltage"], np.nan)
+    dj = _finite_or(dense["dcurrent"], np.nan)
     v_floor = -np.maximum(reverse_fraction * voc, 0.3)
+
+    # the trace's lower end: where the samples start there, they give its voltage; elsewhere
+    # it lies below the floor (dV/dt >= 1), so no peak and no cap is reached
+    at_low = t_start <= t_low
+    v_low = np.where(at_low, v[:, :1], -np.inf)
     reaches_peak = np.zeros(size, dtype=bool)
     if string.tunnels:
         reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
@@ -596,25 +629,9 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
                     curve={name: np.full((size, curve_points), np.nan) for name in
                            ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]})
 
-    # (with a margin: where dV/dt = 1 exactly the bound is the reverse end itself)
-    t_start = np.maximum(t_low, _finite_or(t_voc - 1.05 * (voc - v_floor) - 0.01, t_low))
-    by_t = t_start + (t_forward - t_start) * np.linspace(0.0, 1.0, DENSE_T_SAMPLES)[None, :]
-    # the current at the samples' reverse end, from the pilot's forward law alone
-    j_top = _finite_or(np.concatenate([string.pilot_current_at(t_start)], axis=1), jph)
-    fractions = np.linspace(0.0, 1.0, DENSE_J_SAMPLES + 2)[None, 1:-1]
-    with np.errstate(invalid="ignore"):
-        by_j = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph
-                                       + (j_top - FORWARD_CURRENT_FRACTION * jph) * fractions)
-    by_j = np.where(np.isfinite(by_j), np.clip(by_j, t_start, t_forward), t_start)
-    t = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
-    dense = string.evaluate(t, slopes=True)
-    v = _finite_or(dense["voltage"], -1e3)
-    j = _finite_or(dense["current"], np.nan)
-    dv = _finite_or(dense["dvoltage"], np.nan)
-    dj = _finite_or(dense["dcurrent"], np.nan)
-
-    t_sc, sc_lo, sc_hi = _hermite_crossing(t, v, dv, np.zeros_like(voc))
-    t_floor, floor_lo, floor_hi = _hermite_crossing(t, v, dv, v_floor)
+    finite = np.isfinite(dense["voltage"]) & np.isfinite(dense["dvoltage"])
+    t_sc, sc_lo, sc_hi = _hermite_crossing(t, v, dv, np.zeros_like(voc), finite)
+    t_floor, floor_lo, floor_hi = _hermite_crossing(t, v, dv, v_floor, finite)
     power = np.where(np.isfinite(j), j * v, -np.inf)
     slope = dj * v + j * dv
     best = np.argmax(power, axis=1)[:, None]
@@ -695,7 +712,10 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     n = curve_points
     current = final["current"]
     voltage = final["voltage"]
-    jsc = np.where(capped[:, None], np.nan, current[:, n:n + 1])
+    # a crossing the polish could not resolve (V jumps across zero between neighbouring floats
+    # of t: an element blocks) is no short circuit
+    reached = np.abs(voltage[:, n:n + 1]) <= SHORT_CIRCUIT_TOLERANCE_V
+    jsc = np.where(capped[:, None] | ~reached, np.nan, current[:, n:n + 1])
     j_mpp, v_mpp = current[:, n + 1:], voltage[:, n + 1:]
     element_voltages = [np.broadcast_to(x, current.shape) for x in final["voltages"]]
     curve = {"current_A_m2": current[:, :n].copy(), "voltage_V": voltage[:, :n].copy()}

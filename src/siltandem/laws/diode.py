@@ -23,6 +23,7 @@ import numpy as np
 from scipy.special import wrightomega
 
 from ..constants import thermal_voltage_V
+from ..inverse import polish_root
 from ..numerics import safeguarded_newton
 
 #: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
@@ -214,8 +215,9 @@ def subcell_voltage(current_A_m2, *, series_ohm_m2=0.0, **junction):
 def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
     """Current density [A/m^2] of a subcell at terminal voltage ``voltage_V`` [V].
 
-    Solves V = Vj - Rs J(Vj) for Vj (strictly increasing in Vj) by a safeguarded Newton search
-    inside an exact bracket, from its end V + Rs J(V), then J = J(Vj). Returns (current, dJ/dV).
+    Solves V = Vj - Rs J(Vj) for Vj (strictly increasing in Vj) by Newton steps inside an exact
+    bracket from its end V + Rs J(V) (siltandem.inverse.polish_root, safeguarded by bisection),
+    then J = J(Vj). Returns (current, dJ/dV).
     """
     voltage = np.asarray(voltage_V, dtype=float)
     rs = np.broadcast_to(np.asarray(series_ohm_m2, dtype=float), voltage.shape)
@@ -242,7 +244,8 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
     # Rs dJ/dVj is small, and the bracket keeps it safe when it is not
     with np.errstate(invalid="ignore"):
         start = np.clip(other, lo, hi)
-    vj = safeguarded_newton(residual, lo, hi, start=start)
+    vj, _ = polish_root(residual, np.where(np.isfinite(start), start, 0.5 * (lo + hi)), lo, hi,
+                        increasing=True)
     current, slope_j = junction_current(vj, **junction)
     slope = slope_j / (1.0 - rs * slope_j)
     return current, slope

@@ -437,7 +437,7 @@ def attained_peak_and_valley(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess
 
 
 #: samples of dJ/dV on (0, 3 max(Vv, 2 V1)] that locate the peak's and the valley's cells
-_EXTREMA_SAMPLES = 384
+_EXTREMA_SAMPLES = 192
 
 
 def _extrema_by_table(args, exact_peak_V=None):
