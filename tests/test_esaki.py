@@ -330,3 +330,26 @@ def test_estimate_refuses_bad_layers():
         estimate(GAAS, GAAS, 1e19, 1e19, hetero=True, n_affinity_eV=6.0)
     with pytest.raises(ValueError, match="give both n_affinity_eV and p_affinity_eV"):
         estimate(GAAS, GAAS, 1e19, 1e19, n_affinity_eV=4.07)
+
+
+@pytest.mark.parametrize("exact", [False, True])
+def test_sampled_extrema_route_agrees_with_the_bracketing_route(exact):
+    # the fast route (sampled slopes, Newton inside the cell) against scipy's Chandrupatla
+    # bracketing from the steepest point, on 200 parameter sets spanning the junctions of
+    # multi-junction cells (peaks 1e2-1e7 A/m^2, peak-to-valley 3-30, Vv/Vp 3-10)
+    rng = np.random.default_rng(11)
+    n = 200
+    jp = 10 ** rng.uniform(2, 7, n)
+    vp = rng.uniform(0.03, 0.2, n)
+    p = dict(LAW, peak_A_m2=jp, peak_V=vp, valley_A_m2=jp / rng.uniform(3, 30, n),
+             valley_V=vp * rng.uniform(3, 10, n))
+    prepared = esaki.prepare_tunnel_law(exact_peak=exact, **p)
+    args = tuple(np.ravel(x) for x in np.broadcast_arrays(*prepared))
+    fast = esaki._extrema_by_table(args, vp if exact else None)
+    slow = esaki._extrema_by_bracketing(args)
+    both = np.isfinite(slow[0]) & np.isfinite(slow[1])
+    assert both.sum() > 150
+    np.testing.assert_array_equal(np.isfinite(fast[1]), both)
+    # both roots to about 1e-13 V (our polish's xtol; scipy's 4 eps relative)
+    np.testing.assert_allclose(fast[0][both], slow[0][both], rtol=0, atol=2e-13)
+    np.testing.assert_allclose(fast[1][both], slow[1][both], rtol=0, atol=2e-13)
