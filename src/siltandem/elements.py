@@ -119,8 +119,10 @@ class Subcell:
         return replace(self, photocurrent_A_m2=batch(photocurrent_A_m2))
 
     def _needs_table(self):
-        """True when Vj(J) has no closed form here (J02 or breakdown): then a table serves it."""
-        return bool(np.any(self.j02_A_m2 > 0) or np.any(
+        """True when a table serves Vj(J): with J02 or breakdown (no closed form), and with a
+        shunt (the Wright-omega closed form costs more than a table lookup and two Newton
+        steps). An ideal diode alone keeps its logarithm."""
+        return bool(np.any(self.j02_A_m2 > 0) or np.any(self.shunt_S_m2 > 0) or np.any(
             (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)))
 
     def _fast_law(self, temperature_K):
@@ -328,7 +330,8 @@ class TunnelJunction:
         """Attained (peak_V, peak_A_m2, valley_V, valley_A_m2) of the combined curve, (B, 1) each."""
         key = ("extrema", np.asarray(temperature_K, dtype=float).tobytes())
         if key not in self._cache:
-            self._cache[key] = esaki.attained_peak_and_valley(**self._law(temperature_K))
+            self._cache[key] = esaki.extrema_of_prepared(self._prepared(temperature_K),
+                                                         exact_peak_V=self.peak_V)
         return self._cache[key]
 
     def _branch_table(self, temperature_K, branch):

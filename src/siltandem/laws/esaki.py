@@ -43,6 +43,7 @@ __all__ = [
     "tunnel_current_density",
     "tunnel_term_for_exact_peak",
     "attained_peak_and_valley",
+    "extrema_of_prepared",
     "validate_tunnel_parameters",
     "default_excess_slope_per_V",
     "fermi_degeneracy_eV",
@@ -415,24 +416,37 @@ def attained_peak_and_valley(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess
     with the valley bracket from ``scipy.optimize.elementwise.bracket_root`` (:func:`_extrema_by_bracketing`).
     The two routes agree to rounding (tests/test_esaki.py).
     """
-    a, v1, jv, vv, c2, j0, n, t = _prepare(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V,
-                                           saturation_A_m2, ideality, temperature_K, exact_peak)
-    args = np.broadcast_arrays(a, v1, jv, vv, c2, j0, n, t)
+    prepared = _prepare(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V,
+                        saturation_A_m2, ideality, temperature_K, exact_peak)
+    return extrema_of_prepared(prepared, exact_peak_V=peak_V if exact_peak else None,
+                               stacklevel=3)
+
+
+def extrema_of_prepared(prepared, *, exact_peak_V=None, stacklevel=2):
+    """:func:`attained_peak_and_valley` for parameters from :func:`prepare_tunnel_law`.
+
+    ``exact_peak_V`` is the requested peak voltage when the law was prepared with ``exact_peak``
+    (its maximum sits there in closed form). Returns :class:`Extrema` of the broadcast shape.
+    """
+    args = np.broadcast_arrays(*prepared)
     shape = args[0].shape
     args = tuple(np.ravel(x) for x in args)
-    peak_v, valley_v = _extrema_by_table(args, np.ravel(np.broadcast_to(peak_V, shape))
-                                         if exact_peak else None)
+    peak_v, valley_v = _extrema_by_table(
+        args, None if exact_peak_V is None else np.ravel(np.broadcast_to(exact_peak_V, shape)))
     retry = ~np.isfinite(peak_v) | ~np.isfinite(valley_v)
     if retry.any():
         p_v, v_v = _extrema_by_bracketing(tuple(x[retry] for x in args))
         peak_v[retry], valley_v[retry] = p_v, v_v
-    peak_j = np.where(np.isfinite(peak_v), _total(np.nan_to_num(peak_v), *args)[0], np.nan)
-    valley_j = np.where(np.isfinite(valley_v), _total(np.nan_to_num(valley_v), *args)[0], np.nan)
+    both = np.concatenate([peak_v, valley_v])
+    found = np.isfinite(both)
+    values = np.where(found, _total(np.where(found, both, 0.0),
+                                    *(np.concatenate([x, x]) for x in args))[0], np.nan)
+    peak_j, valley_j = values[:peak_v.size], values[peak_v.size:]
     missing = int(np.count_nonzero(~np.isfinite(peak_v) | ~np.isfinite(valley_v)))
     if missing:
         warnings.warn(f"attained_peak_and_valley: {missing} of {peak_v.size} parameter sets give a curve "
                       f"without negative differential resistance (or did not converge); their peak and "
-                      f"valley are NaN", RuntimeWarning, stacklevel=2)
+                      f"valley are NaN", RuntimeWarning, stacklevel=stacklevel)
     return Extrema(*(x.reshape(shape) for x in (peak_v, peak_j, valley_v, valley_j)))
 
 
