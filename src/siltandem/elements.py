@@ -204,8 +204,33 @@ class Subcell:
             slope - self.series_ohm_m2
 
     def current(self, voltage_V, temperature_K):
-        return diode.subcell_current(voltage_V, series_ohm_m2=self.series_ohm_m2,
-                                     **self._junction(temperature_K))
+        general = diode.subcell_current
+        if not self._needs_table() or np.any((self.breakdown_factor > 0)
+                                             & np.isfinite(self.breakdown_V)):
+            return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
+                           **self._junction(temperature_K))
+        # the same law through the table's lean forward: Vj - Rs J(Vj) = V inside the exact
+        # bracket between V and V + Rs J(V) (laws/diode.py, subcell_current)
+        forward, _ = self._fast_law(temperature_K)
+        voltage = np.asarray(voltage_V, dtype=float)
+        rs = self.series_ohm_m2
+        with np.errstate(over="ignore", invalid="ignore"):
+            j_at_v, _ = forward(voltage)
+            other = voltage + rs * j_at_v
+            lo = np.minimum(voltage, other) - 1e-12
+            hi = np.maximum(voltage, other) + 1e-12
+
+            def residual(vj):
+                j, slope = forward(vj)
+                return vj - rs * j - voltage, 1.0 - rs * slope
+
+            vj, _ = polish_root(residual, np.clip(other, lo, hi), lo, hi, increasing=True)
+            current, slope_j = forward(vj)
+            slope = slope_j / (1.0 - rs * slope_j)
+        if not (np.all(np.isfinite(current)) and np.all(np.isfinite(slope))):
+            return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
+                           **self._junction(temperature_K))
+        return current, slope
 
     def current_limit(self, temperature_K):
         """Largest current the subcell can carry [A/m^2]: unbounded with a shunt, else Jph + J0."""

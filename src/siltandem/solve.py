@@ -274,7 +274,17 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
 
         for row in np.flatnonzero(past_peak):
             one = string.rows(np.array([row]))
-            answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction)
+            start = None
+            if "samples" in simple:
+                # the vectorized pass sampled this design's first piece already
+                ts, e = simple["samples"]
+                pick = slice(row, row + 1)
+                start = dict(voc=simple["voc"][pick], voltages_voc=[
+                    v[pick] for v in simple["voltages_voc"]], samples=(ts[pick], {
+                        k: (x[pick] if k != "voltages" else [v[pick] for v in x])
+                        for k, x in e.items()}))
+            answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction,
+                                start=start)
             for key in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"):
                 simple[key][row] = answer[key]
             for k, v in enumerate(answer["voltages_mpp"]):
@@ -602,7 +612,9 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     voc = dense["voltage"][:, points:]
     voltages_voc = [np.array(np.broadcast_to(x, dense["voltage"].shape)[:, points:], dtype=float)
                     for x in dense["voltages"]]
-    dense = {k: (x[:, :points] if k != "voltages" else x) for k, x in dense.items()}
+    dense = {k: (x[:, :points] if k != "voltages" else
+                 [np.broadcast_to(y, x_shape)[:, :points] for y in x])
+             for k, x in dense.items() for x_shape in [dense["voltage"].shape]}
     v = _finite_or(dense["voltage"], -1e3)
     j = _finite_or(dense["current"], np.nan)
     dv = _finite_or(dense["dvoltage"], np.nan)
@@ -627,11 +639,16 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
                     p_mpp=nan.copy(), voltages_mpp=[nan.copy() for _ in string.elements],
                     voltages_voc=voltages_voc, reaches_peak=reaches_peak, capped=capped,
                     curve={name: np.full((size, curve_points), np.nan) for name in
-                           ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]})
+                           ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]},
+                    samples=(t, dense))
 
     finite = np.isfinite(dense["voltage"]) & np.isfinite(dense["dvoltage"])
-    t_sc, sc_lo, sc_hi = _hermite_crossing(t, v, dv, np.zeros_like(voc), finite)
-    t_floor, floor_lo, floor_hi = _hermite_crossing(t, v, dv, v_floor, finite)
+    # both crossings at once: the rows twice, once per level
+    twice = [np.concatenate([x, x], axis=0) for x in (t, v, dv, finite)]
+    crossing, cell_lo, cell_hi = _hermite_crossing(*twice[:3], np.concatenate(
+        [np.zeros_like(voc), v_floor], axis=0), twice[3])
+    t_sc, t_floor = crossing[:size], crossing[size:]
+    sc_lo, floor_lo, sc_hi, floor_hi = cell_lo[:size], cell_lo[size:], cell_hi[:size], cell_hi[size:]
     power = np.where(np.isfinite(j), j * v, -np.inf)
     slope = dj * v + j * dv
     best = np.argmax(power, axis=1)[:, None]
@@ -725,4 +742,4 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
                 p_mpp=j_mpp * v_mpp, voltages_mpp=[np.array(x[:, n + 1:], dtype=float)
                                                    for x in element_voltages],
                 voltages_voc=voltages_voc, curve=curve, reaches_peak=reaches_peak,
-                capped=capped)
+                capped=capped, samples=(t, dense))

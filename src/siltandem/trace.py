@@ -71,9 +71,12 @@ def _samples(string, state, t_a, t_b, points):
 
 def _polish_level(string, state, t, level, lo, hi):
     """Newton steps on V(t) = level from ``t`` inside [lo, hi] (exact evaluations, usually one
-    or two); returns t."""
+    or two). Returns (t, last evaluated t, its evaluation): the last step is below 3e-8 V
+    where it converged, so first-order extrapolation from the last evaluation to t is exact to
+    about 1e-15 relative."""
     for _ in range(6):
         e = string.evaluate(t, branches=state, slopes=True)
+        last = t
         with np.errstate(divide="ignore", invalid="ignore"):
             step = (e["voltage"] - level) / e["dvoltage"]
         new = t - step
@@ -82,7 +85,17 @@ def _polish_level(string, state, t, level, lo, hi):
         t = new
         if abs(_scalar(step)) <= 3e-8:
             break
-    return t
+    return t, last, e
+
+
+def _keep_until(ts, e, count, t_point, e_point):
+    """The first ``count`` samples of a piece and then one more evaluated point."""
+    out = {k: np.concatenate([e[k][:, :count], e_point[k]], axis=1)
+           for k in ("current", "voltage", "dcurrent", "dvoltage")}
+    out["voltages"] = [np.concatenate([np.broadcast_to(a, e["current"].shape)[:, :count],
+                                       np.broadcast_to(b, e_point["current"].shape)], axis=1)
+                       for a, b in zip(e["voltages"], e_point["voltages"])]
+    return np.concatenate([ts[:, :count], t_point], axis=1), out
 
 
 def _hermite_level(ts, v, dv, i, level):
@@ -104,8 +117,9 @@ def _hermite_level(ts, v, dv, i, level):
     return t0 + x * h
 
 
-def _build_pieces(string, t_forward, t_lowest, v_floor):
-    """The path's pieces (branch state, t_start, t_end) with their exact samples."""
+def _build_pieces(string, t_forward, t_lowest, v_floor, first=None):
+    """The path's pieces (branch state, t_start, t_end) with their exact samples; ``first``,
+    when given, holds the first piece's samples (every junction on its tunnel branch)."""
     tunnels = string.tunnels
     extrema = [string.tunnel_extrema[t.name] for t in tunnels]
     peaks = [_scalar(e.peak_A_m2) for e in extrema]
@@ -127,7 +141,10 @@ def _build_pieces(string, t_forward, t_lowest, v_floor):
         else:
             t_end = string.pilot_voltage_at(np.full((1, 1), fold_j))
         state = {t.name: b for t, b in zip(tunnels, branches)}
-        ts, e = _samples(string, state, t_start, t_end, SAMPLES_PER_PIECE)
+        if first is not None and not pieces and not ends_path:
+            ts, e = first
+        else:
+            ts, e = _samples(string, state, t_start, t_end, SAMPLES_PER_PIECE)
         if direction > 0:
             # the path ends where the terminal voltage first falls through the floor
             v = e["voltage"][0]
@@ -140,8 +157,12 @@ def _build_pieces(string, t_forward, t_lowest, v_floor):
                     t_cut = np.full((1, 1), _hermite_level(ts[0], v, e["dvoltage"][0], i - 1,
                                                            v_floor))
                     lo, hi = sorted((ts[0, i - 1], ts[0, i]))
-                    t_cut = _polish_level(string, state, t_cut, v_floor, lo, hi)
-                ts, e = _samples(string, state, t_start, t_cut, SAMPLES_PER_PIECE)
+                    # the piece ends at the polish's last evaluated point (within 3e-8 V of
+                    # the floor): the samples before it, then that point
+                    _, t_cut, e_cut = _polish_level(string, state, t_cut, v_floor, lo, hi)
+                    ts, e = _keep_until(ts, e, i, t_cut, e_cut)
+                if i == 0:
+                    ts, e = _samples(string, state, t_start, t_cut, SAMPLES_PER_PIECE)
                 pieces.append((dict(state), t_start, t_cut, ts, e))
                 break
         pieces.append((dict(state), t_start, t_end, ts, e))
@@ -174,7 +195,7 @@ def _mpp_on_piece(string, state, ts, e, i):
     candidates = [m for m in (i, i - 1) if 0 <= m < n - 1 and np.isfinite(g[m]) and
                   np.isfinite(g[m + 1]) and g[m] * g[m + 1] <= 0]
     if not candidates:
-        return np.full((1, 1), t[i])
+        return np.full((1, 1), t[i]), None
     m = candidates[0]
     h = t[m + 1] - t[m]
     p0, p1, m0, m1 = j[m] * v[m], j[m + 1] * v[m + 1], h * g[m], h * g[m + 1]
@@ -192,6 +213,7 @@ def _mpp_on_piece(string, state, ts, e, i):
     previous = None
     for _ in range(6):
         ev = string.evaluate(np.full((1, 1), t_mpp), branches=state, slopes=True)
+        t_evaluated = t_mpp
         gm = _scalar(ev["dcurrent"] * ev["voltage"] + ev["current"] * ev["dvoltage"])
         if previous is not None and t_mpp != previous[0] and gm != previous[1]:
             curvature = (gm - previous[1]) / (t_mpp - previous[0])
@@ -199,21 +221,35 @@ def _mpp_on_piece(string, state, ts, e, i):
         if not (np.isfinite(gm) and np.isfinite(curvature)) or curvature == 0:
             break
         new = t_mpp - gm / curvature
-        if not lo < new < hi:
+        if not lo < new < hi or abs(new - t_mpp) <= 1e-10:
+            # converged (the next step would move t by under 1e-10 V: P is flat to 1e-20
+            # relative there): the evaluated point is the MPP
             break
-        step, t_mpp = new - t_mpp, new
-        if abs(step) <= 1e-10:
-            break
-    return np.full((1, 1), t_mpp)
+        t_mpp = new
+    return np.full((1, 1), t_evaluated), ev
 
 
-def solve_path(string, *, curve_points, reverse_fraction):
-    """Trace one design (B = 1) through its junctions' branches; Voc, Jsc, MPP and the curve."""
+def solve_path(string, *, curve_points, reverse_fraction, start=None):
+    """Trace one design (B = 1) through its junctions' branches; Voc, Jsc, MPP and the curve.
+
+    ``start`` (optional): what the vectorized pass already knows of this design, a dict with
+    ``voc`` (1, 1), ``voltages_voc`` (list of (1, 1)) and ``samples`` (t, evaluation) of the
+    tunnel branches from the first fold up to the forward end, t ascending: the path's first
+    piece is not sampled again.
+    """
     jph = string.pilot_photocurrent
-    t_voc = string.pilot_voltage_at(np.zeros_like(jph))
     t_forward = string.pilot_voltage_at(-0.3 * jph)
     t_lowest = string.lowest_pilot_voltage()
-    at_voc = string.evaluate(t_voc)
+    if start is None:
+        t_voc = string.pilot_voltage_at(np.zeros_like(jph))
+        at_voc = string.evaluate(t_voc)
+        first = None
+    else:
+        at_voc = dict(voltage=start["voc"], voltages=start["voltages_voc"])
+        ts, e = start["samples"]
+        # in path order: from the forward end towards the first fold
+        first = (ts[:, ::-1], {k: (x[:, ::-1] if k != "voltages" else [v[:, ::-1] for v in x])
+                               for k, x in e.items()})
     voc = at_voc["voltage"]
     # room below the usual floor for the junctions' thermal-branch drops
     thermal_drop = sum(
@@ -221,7 +257,7 @@ def solve_path(string, *, curve_points, reverse_fraction):
                                                   string.tunnel_extrema[t.name]), nan=1.0))
         for t in string.tunnels)
     v_floor = -max(reverse_fraction * _scalar(voc), 0.3) - thermal_drop
-    pieces = _build_pieces(string, t_forward, t_lowest, v_floor)
+    pieces = _build_pieces(string, t_forward, t_lowest, v_floor, first)
 
     # MPP: global maximum of P over every piece's samples, refined inside its piece
     best = (-np.inf, None, None)
@@ -232,8 +268,9 @@ def solve_path(string, *, curve_points, reverse_fraction):
             best = (p[i], index, i)
     _, index, i = best
     state, _, _, ts, e = pieces[index]
-    t_mpp = _mpp_on_piece(string, state, ts, e, i)
-    at_mpp = string.evaluate(t_mpp, branches=state)
+    t_mpp, at_mpp = _mpp_on_piece(string, state, ts, e, i)
+    if at_mpp is None:
+        at_mpp = string.evaluate(t_mpp, branches=state)
     branches_mpp = dict(state)
 
     # Jsc: the first zero of V met along the path after open circuit
@@ -254,8 +291,8 @@ def solve_path(string, *, curve_points, reverse_fraction):
             m = int(zero[0])
             t0 = np.full((1, 1), _hermite_level(ts_k[0], v, e["dvoltage"][0], m, 0.0))
             lo, hi = sorted((ts_k[0, m], ts_k[0, m + 1]))
-            t0 = _polish_level(string, state_k, t0, 0.0, lo, hi)
-            jsc = string.evaluate(t0, branches=state_k)["current"]
+            t0, last, e0 = _polish_level(string, state_k, t0, 0.0, lo, hi)
+            jsc = e0["current"] + e0["dcurrent"] * (t0 - last)
             break
 
     forward_to_reverse_v = np.concatenate([e["voltage"][0] for *_, e in pieces])
