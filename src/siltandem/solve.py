@@ -126,6 +126,20 @@ class _String:
             return self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)[0]
         return self._select([s.pilot_current(t, self.temperature_K)[0] for s in self.subcells])
 
+    def open_circuit_pilot_voltage(self):
+        """Pilot junction voltage carrying no current, with one more Newton step on the pilot's
+        forward law: open circuit to rounding (the inverse stops at its tolerance in t, about
+        1e-13 V, where J' ~ Jph/Vt would still leave ~1e-9 A/m^2 flowing)."""
+        t = self.pilot_voltage_at(np.zeros_like(self.pilot_photocurrent))
+        if self.single_pilot is not None:
+            j, slope, _, _ = self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)
+        else:
+            forward = [s.pilot_current(t, self.temperature_K) for s in self.subcells]
+            j, slope = self._select([f[0] for f in forward]), self._select([f[1] for f in forward])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            better = t - j / slope
+        return np.where(np.isfinite(better), better, t)
+
     def pilot_voltage_at(self, current_A_m2):
         """Pilot junction voltage t carrying ``current_A_m2`` (safe away from Jph)."""
         if self.single_pilot is not None:
@@ -413,7 +427,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     is traced again piece by piece).
     """
     jph = string.pilot_photocurrent
-    t_voc = string.pilot_voltage_at(np.zeros_like(jph))
+    t_voc = string.open_circuit_pilot_voltage()
     t_forward = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph)
     t_lowest = string.lowest_pilot_voltage()
 

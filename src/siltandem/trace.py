@@ -22,6 +22,8 @@ vectorized.
 """
 import numpy as np
 
+from .numerics import bracketed_root
+
 SAMPLES_PER_PIECE = 160
 #: at most this many pieces per junction (each junction turns at most a few times)
 MAX_PIECES_PER_JUNCTION = 6
@@ -141,6 +143,12 @@ def _build_pieces(string, t_forward, t_lowest, v_floor, first=None):
         else:
             t_end = string.pilot_voltage_at(np.full((1, 1), fold_j))
         state = {t.name: b for t, b in zip(tunnels, branches)}
+        if (ends_path and direction > 0 and pieces and "negative" not in branches
+                and np.isfinite(pieces[-1][4]["voltage"][0, -1])):
+            # towards reverse bias on tunnel and thermal branches dV/dt >= 1 (solve.py), so
+            # the floor is met above t_start - (V(t_start) - v_floor): sample only that far
+            v_start = pieces[-1][4]["voltage"][0, -1]
+            t_end = np.maximum(t_end, t_start - 1.05 * (v_start - v_floor) - 0.01)
         if first is not None and not pieces and not ends_path:
             ts, e = first
         else:
@@ -161,7 +169,8 @@ def _build_pieces(string, t_forward, t_lowest, v_floor, first=None):
                     # the floor): the samples before it, then that point
                     _, t_cut, e_cut = _polish_level(string, state, t_cut, v_floor, lo, hi)
                     ts, e = _keep_until(ts, e, i, t_cut, e_cut)
-                if i == 0:
+                if i < SAMPLES_PER_PIECE // 2:
+                    # most samples lay beyond the floor: sample the piece again up to it
                     ts, e = _samples(string, state, t_start, t_cut, SAMPLES_PER_PIECE)
                 pieces.append((dict(state), t_start, t_cut, ts, e))
                 break
@@ -185,6 +194,20 @@ def _regime(voltage, current):
     return "past peak, no hysteresis"
 
 
+def _mpp_by_brent(string, state, t_a, t_b, g_a, g_b):
+    """The root of dP/dt between two samples (Brent's method, scipy brentq), evaluated."""
+    def power_slope(t):
+        ev = string.evaluate(t, branches=state, slopes=True)
+        value = ev["dcurrent"] * ev["voltage"] + ev["current"] * ev["dvoltage"]
+        return np.where(np.isfinite(value), value, 0.0)
+
+    root = bracketed_root(power_slope, np.full((1, 1), t_a), np.full((1, 1), t_b),
+                          end_values=(np.full((1, 1), g_a), np.full((1, 1), g_b)))
+    if not np.all(np.isfinite(root)):
+        return np.full((1, 1), t_a), None
+    return root, string.evaluate(root, branches=state, slopes=True)
+
+
 def _mpp_on_piece(string, state, ts, e, i):
     """The MPP near sample i of a piece: where the exact dP/dt of the samples changes sign, the
     maximum of the cubic Hermite interpolant of P, then secant steps on dP/dt (exact
@@ -197,6 +220,12 @@ def _mpp_on_piece(string, state, ts, e, i):
     if not candidates:
         return np.full((1, 1), t[i]), None
     m = candidates[0]
+    lo, hi = sorted((t[m], t[m + 1]))
+    small, large = sorted((abs(g[m]), abs(g[m + 1])))
+    if large > 100.0 * small:
+        # one end's slope dwarfs the other's (the cell ends at a fold, where dV/dt is
+        # unbounded): no interpolant fits; Brent's method on dP/dt inside the cell instead
+        return _mpp_by_brent(string, state, t[m], t[m + 1], g[m], g[m + 1])
     h = t[m + 1] - t[m]
     p0, p1, m0, m1 = j[m] * v[m], j[m + 1] * v[m + 1], h * g[m], h * g[m + 1]
     qa = 6.0 * (p0 - p1) + 3.0 * (m0 + m1)
@@ -207,7 +236,6 @@ def _mpp_on_piece(string, state, ts, e, i):
         if dq == 0:
             break
         x = min(max(x - (qa * x * x + qb * x + m0) / dq, 0.0), 1.0)
-    lo, hi = sorted((t[m], t[m + 1]))
     t_mpp = t[m] + x * h
     curvature = (2.0 * qa * x + qb) / (h * h)
     previous = None
@@ -241,7 +269,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
     t_forward = string.pilot_voltage_at(-0.3 * jph)
     t_lowest = string.lowest_pilot_voltage()
     if start is None:
-        t_voc = string.pilot_voltage_at(np.zeros_like(jph))
+        t_voc = string.open_circuit_pilot_voltage()
         at_voc = string.evaluate(t_voc)
         first = None
     else:
@@ -271,6 +299,21 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
     t_mpp, at_mpp = _mpp_on_piece(string, state, ts, e, i)
     if at_mpp is None:
         at_mpp = string.evaluate(t_mpp, branches=state)
+    if not _scalar(at_mpp["current"] * at_mpp["voltage"]) > best[0]:
+        # the polish did not improve on the best sample: Brent's method on dP/dt in each cell
+        # next to it where the slope changes sign; as a last resort the best sample itself
+        t_all, j_all, v_all = ts[0], e["current"][0], e["voltage"][0]
+        g_all = e["dcurrent"][0] * v_all + j_all * e["dvoltage"][0]
+        for m in (i, i - 1):
+            if 0 <= m < t_all.size - 1 and g_all[m] * g_all[m + 1] < 0:
+                t_try, e_try = _mpp_by_brent(string, state, t_all[m], t_all[m + 1], g_all[m],
+                                             g_all[m + 1])
+                if e_try is not None and _scalar(e_try["current"] * e_try["voltage"]) > \
+                        _scalar(at_mpp["current"] * at_mpp["voltage"]):
+                    t_mpp, at_mpp = t_try, e_try
+        if not _scalar(at_mpp["current"] * at_mpp["voltage"]) >= best[0]:
+            t_mpp = ts[:, i:i + 1]
+            at_mpp = string.evaluate(t_mpp, branches=state)
     branches_mpp = dict(state)
 
     # Jsc: the first zero of V met along the path after open circuit
