@@ -30,8 +30,8 @@ from .numerics import safeguarded_newton
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
 TABLE_REVERSE_POINTS = 160
 TABLE_FORWARD_POINTS = 512
-#: an inverse is done when its residual is within this many rounding units of the current
-ROUNDING_UNITS = 2
+#: an inverse is done when its residual is within two rounding units of the current
+ROUNDING_TOLERANCE = 2 * np.finfo(float).eps
 
 
 def batch(value):
@@ -180,7 +180,7 @@ class Subcell:
 
         with np.errstate(over="ignore", invalid="ignore"):
             vj, slope = polish_root(residual, guess, lower, upper, increasing=False, active=inside,
-                                    ftol=ROUNDING_UNITS * np.finfo(float).eps * np.abs(target))
+                                    ftol=ROUNDING_TOLERANCE * np.abs(target))
         if not inside.all():
             out = ~inside
             junction = {k: np.broadcast_to(v, vj.shape)[out]
@@ -405,7 +405,7 @@ class TunnelJunction:
                 target = np.minimum(current, peak_j)
             elif branch == "negative":
                 inside = (current >= valley_j * (1 - 1e-9)) & (current <= peak_j * (1 + 1e-9))
-                target = np.clip(current, valley_j, peak_j)
+                target = np.minimum(np.maximum(current, valley_j), peak_j)
             else:
                 inside = current >= valley_j * (1 - 1e-9)
                 target = np.maximum(current, valley_j)
@@ -415,18 +415,25 @@ class TunnelJunction:
             prepared = self._prepared(temperature_K)
             # in a cell ending at a fold (J' = 0) linear interpolation is a poor guess: take
             # J ~ J_fold - |J''| (u - u_fold)^2 / 2 there instead
-            with np.errstate(invalid="ignore", divide="ignore"):
-                to_peak = np.sqrt(2.0 * np.maximum(peak_j - target, 0.0) / peak_curvature)
-                to_valley = np.sqrt(2.0 * np.maximum(target - valley_j, 0.0) / valley_curvature)
+            def to_peak():
+                return np.sqrt(2.0 * np.maximum(peak_j - target, 0.0) / peak_curvature)
+
+            def to_valley():
+                return np.sqrt(2.0 * np.maximum(target - valley_j, 0.0) / valley_curvature)
+
             if branch == "tunnel":
-                folds = [(upper >= table.u[:, -1:], peak_v - to_peak)]
+                folds = [(upper >= table.u[:, -1:], lambda: peak_v - to_peak())]
             elif branch == "negative":
-                folds = [(lower <= table.u[:, :1], peak_v + to_peak),
-                         (upper >= table.u[:, -1:], valley_v - to_valley)]
+                folds = [(lower <= table.u[:, :1], lambda: peak_v + to_peak()),
+                         (upper >= table.u[:, -1:], lambda: valley_v - to_valley())]
             else:
-                folds = [(lower <= table.u[:, :1], valley_v + to_valley)]
+                folds = [(lower <= table.u[:, :1], lambda: valley_v + to_valley())]
             for at_fold, model in folds:
-                guess = np.where(at_fold & np.isfinite(model), np.clip(model, lower, upper), guess)
+                if np.any(at_fold):
+                    with np.errstate(invalid="ignore", divide="ignore"):
+                        fold_guess = model()
+                    guess = np.where(at_fold & np.isfinite(fold_guess),
+                                     np.minimum(np.maximum(fold_guess, lower), upper), guess)
 
             def residual(u):
                 j, slope, _ = esaki.evaluate_prepared(u, prepared)
@@ -434,7 +441,7 @@ class TunnelJunction:
 
             u, slope = polish_root(residual, guess, lower, upper, increasing=branch != "negative",
                                    active=covered,
-                                   ftol=ROUNDING_UNITS * np.finfo(float).eps * np.abs(target))
+                                   ftol=ROUNDING_TOLERANCE * np.abs(target))
             if not covered.all():
                 # beyond the table (rare): the general search on the whole array
                 searched = self._junction_voltage_search(current, temperature_K, branch,

@@ -155,8 +155,6 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     Converged entries are frozen: a result never depends on the other entries of the array.
     """
     x = np.array(guess, dtype=float)
-    lower = np.array(np.broadcast_to(lower, x.shape), dtype=float)
-    upper = np.array(np.broadcast_to(upper, x.shape), dtype=float)
     done = np.zeros(x.shape, dtype=bool) if active is None else ~np.broadcast_to(active, x.shape)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         # common case first: two plain Newton steps, kept for each entry where they stay in
@@ -173,6 +171,8 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     if np.all(fine | done):
         return np.where(fine, x2, x), np.where(fine, df1, df)
     # the others: the safeguarded iteration from their first guess (each entry on its own)
+    lower = np.array(np.broadcast_to(lower, x.shape), dtype=float)
+    upper = np.array(np.broadcast_to(upper, x.shape), dtype=float)
     x = np.where(fine, x2, x)
     first_slope = np.where(fine, df1, df)
     done = done | fine
