@@ -175,3 +175,25 @@ def test_safeguarded_newton_keeps_a_root_met_exactly():
     root = safeguarded_newton(function, np.array([-100.0]), np.array([1.0]), start=np.array([0.5]))
     assert root[0] == pytest.approx(brentq(lambda x: x - 0.1, -100.0, 1.0), abs=1e-15)
     assert len(calls) <= 5
+
+
+def test_batches_too_large_for_tables_use_the_root_find_and_agree():
+    # beyond TABLE_MAX_ENTRIES a batch keeps the laws' own root finds (memory O(designs)); both
+    # routes give the same root to the inverse's conditioning
+    from siltandem import elements
+
+    rows = elements.TABLE_MAX_ENTRIES // (elements.TABLE_FORWARD_POINTS
+                                           + elements.TABLE_REVERSE_POINTS) + 10
+    jph = np.linspace(100.0, 400.0, rows)
+    big = Subcell("cell", batch(np.full(rows, 1.42)), ere=batch(1e-2), j02_A_m2=batch(1e-7),
+                  shunt_S_m2=batch(0.01)).with_photocurrent(jph)
+    assert not big._needs_table(T)
+    currents = jph[:, None] * np.array([[-0.3, 0.5, 0.99, 1.0001]])
+    general = big.junction_voltage_at(currents, T)
+    for row in (0, rows // 2, rows - 1):
+        small = Subcell("cell", batch(1.42), ere=batch(1e-2), j02_A_m2=batch(1e-7),
+                        shunt_S_m2=batch(0.01)).with_photocurrent(jph[row])
+        assert small._needs_table(T)
+        tabled = small.junction_voltage_at(currents[row:row + 1], T)[0]
+        for current, a, b in zip(currents[row], general[row], tabled):
+            assert_same_root(b, a, small, current)

@@ -30,6 +30,9 @@ from .numerics import safeguarded_newton
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
 TABLE_REVERSE_POINTS = 160
 TABLE_FORWARD_POINTS = 512
+#: largest table (designs x points) an element keeps; beyond it (batches of thousands of
+#: designs) the laws' own root finds serve, at O(designs x points) memory instead
+TABLE_MAX_ENTRIES = 4_000_000
 #: an inverse is done when its residual is within two rounding units of the current
 ROUNDING_TOLERANCE = 2 * np.finfo(float).eps
 
@@ -118,10 +121,19 @@ class Subcell:
     def with_photocurrent(self, photocurrent_A_m2):
         return replace(self, photocurrent_A_m2=batch(photocurrent_A_m2))
 
-    def _needs_table(self):
+    def _needs_table(self, temperature_K=None):
         """True when a table serves Vj(J): with J02 or breakdown (no closed form), and with a
         shunt (the Wright-omega closed form costs more than a table lookup and two Newton
-        steps). An ideal diode alone keeps its logarithm."""
+        steps). An ideal diode alone keeps its logarithm, and a batch too large for tables
+        (TABLE_MAX_ENTRIES) keeps the laws' own root finds."""
+        rows = max(np.shape(x)[0] for x in (self.gap_eV, self.j02_A_m2, self.shunt_S_m2,
+                                               self.photocurrent_A_m2
+                                               if self.photocurrent_A_m2 is not None
+                                               else self.gap_eV))
+        if np.ndim(temperature_K) == 2:
+            rows = max(rows, np.shape(temperature_K)[0])
+        if rows * (TABLE_FORWARD_POINTS + TABLE_REVERSE_POINTS) > TABLE_MAX_ENTRIES:
+            return False
         return bool(np.any(self.j02_A_m2 > 0) or np.any(self.shunt_S_m2 > 0) or np.any(
             (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)))
 
@@ -194,7 +206,7 @@ class Subcell:
         return vj, slope
 
     def voltage(self, current_A_m2, temperature_K):
-        if not self._needs_table():
+        if not self._needs_table(temperature_K):
             return diode.subcell_voltage(current_A_m2, series_ohm_m2=self.series_ohm_m2,
                                          **self._junction(temperature_K))
         vj, slope_j = self._junction_voltage_fast(current_A_m2, temperature_K)
@@ -205,7 +217,7 @@ class Subcell:
 
     def current(self, voltage_V, temperature_K):
         general = diode.subcell_current
-        if not self._needs_table() or np.any((self.breakdown_factor > 0)
+        if not self._needs_table(temperature_K) or np.any((self.breakdown_factor > 0)
                                              & np.isfinite(self.breakdown_V)):
             return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
                            **self._junction(temperature_K))
@@ -248,7 +260,7 @@ class Subcell:
 
     def junction_voltage_at(self, current_A_m2, temperature_K):
         """Junction voltage Vj [V] carrying ``current_A_m2``."""
-        if self._needs_table():
+        if self._needs_table(temperature_K):
             return self._junction_voltage_fast(current_A_m2, temperature_K)[0]
         vj, _ = diode.junction_voltage(current_A_m2, **self._junction(temperature_K))
         return vj
@@ -366,7 +378,8 @@ class TunnelJunction:
         if key not in self._cache:
             peak_v, peak_j, valley_v, valley_j = self.extrema(temperature_K)
             table = None
-            if np.all(np.isfinite(peak_v)) and np.all(np.isfinite(valley_v)):
+            small = np.shape(peak_v)[0] * 1.5 * TUNNEL_TABLE_POINTS <= TABLE_MAX_ENTRIES
+            if small and np.all(np.isfinite(peak_v)) and np.all(np.isfinite(valley_v)):
                 if branch == "tunnel":
                     # reverse to -4 Vp: the law carries about -600 Jp there
                     s_rev = np.linspace(-4.0, 0.0, TUNNEL_TABLE_POINTS // 2 + 1)[None, :-1]
