@@ -167,3 +167,31 @@ def test_past_peak_mpp_is_the_curves_maximum(am15g, series_ohm_cm2, ere):
     assert s.mpp_W_m2[0] >= best * (1 - 1e-12)
     assert s.mpp_W_m2[0] <= best * (1 + 1e-6)
     assert solve_string(elements, T).mpp_W_m2[0] == pytest.approx(s.mpp_W_m2[0], rel=1e-12)
+
+
+def test_a_batch_mixing_regimes_and_pilots_equals_its_designs_alone(am15g):
+    # one batched call with curves: a design below its junction's peak, one past it, and one
+    # whose limiting (pilot) subcell is the other one; each row as if solved alone
+    # (contract test of our own: batching must not change a design's answer)
+    top, bottom = radiative_cells([1.73, 1.12], am15g)
+    jph = np.array([top.photocurrent_A_m2[0, 0], top.photocurrent_A_m2[0, 0],
+                    1.5 * bottom.photocurrent_A_m2[0, 0]])
+    cells = [Subcell("top", batch([1.73] * 3), shunt_S_m2=batch(SHUNT_S_M2),
+                     j02_A_m2=batch(1e-7)).with_photocurrent(jph),
+             Subcell("bottom", batch([1.12] * 3), shunt_S_m2=batch(SHUNT_S_M2)).with_photocurrent(
+                 np.full(3, bottom.photocurrent_A_m2[0, 0]))]
+    tj = TunnelJunction("tj", batch([1000.0, 100.0, 1000.0]), batch(0.05),
+                        batch([100.0, 10.0, 100.0]), batch(0.2))
+    elements = [cells[0], tj, cells[1], Resistor("r", batch(1e-3))]
+    together = solve_string(elements, T, curve_points=300)
+    assert list(together.regime) == ["below peak", "past peak, hysteresis", "below peak"]
+    assert list(together.pilot_index) == [0, 0, 1]
+    from siltandem.elements import take_rows
+    for row in range(3):
+        alone = solve_string([take_rows(e, np.array([row])) for e in elements], T,
+                             curve_points=300)
+        for name in ("voc_V", "jsc_A_m2", "mpp_W_m2", "mpp_V"):
+            assert getattr(together, name)[row] == pytest.approx(getattr(alone, name)[0],
+                                                                 rel=1e-12), name
+        np.testing.assert_allclose(together.curve["voltage_V"][row], alone.curve["voltage_V"][0],
+                                   rtol=1e-12, atol=1e-12)
