@@ -197,3 +197,19 @@ def test_batches_too_large_for_tables_use_the_root_find_and_agree():
         tabled = small.junction_voltage_at(currents[row:row + 1], T)[0]
         for current, a, b in zip(currents[row], general[row], tabled):
             assert_same_root(b, a, small, current)
+
+
+def test_tunnel_peak_without_the_valley_search_equals_the_attained_peak():
+    # TunnelJunction.peak takes (Vp, J(Vp)) from the exact-peak shape; the full extrema search
+    # (sampled slopes, or Chandrupatla bracketing) finds the same maximum
+    rng = np.random.default_rng(5)
+    for _ in range(20):
+        jp, vp = 10 ** rng.uniform(2, 6), rng.uniform(0.03, 0.2)
+        make = lambda: TunnelJunction("tj", batch(jp), batch(vp),  # noqa: E731
+                                      batch(jp / rng.uniform(3, 30)), batch(vp * rng.uniform(3, 8)))
+        tj = make()
+        fresh = TunnelJunction("tj", tj.peak_A_m2, tj.peak_V, tj.valley_A_m2, tj.valley_V)
+        peak_v, peak_j = fresh.peak(T)
+        attained = tj.extrema(T)
+        assert peak_v[0, 0] == pytest.approx(attained.peak_V[0, 0], abs=2e-13)
+        assert peak_j[0, 0] == pytest.approx(attained.peak_A_m2[0, 0], rel=1e-13)

@@ -371,12 +371,33 @@ class TunnelJunction:
                                                          exact_peak_V=self.peak_V)
         return self._cache[key]
 
+    def peak(self, temperature_K):
+        """(peak_V, peak_A_m2) of the combined curve, (B, 1) each, without the valley's search.
+
+        The law is prepared with its exact-peak shape, so J'(Vp) = 0 in closed form and the
+        curvature there is negative (laws/esaki.py checks it): Vp is the curve's first maximum
+        (dJ/dV falls to a single minimum for V >= 0, Esaki notes), as :meth:`extrema` finds.
+        """
+        key = ("extrema", np.asarray(temperature_K, dtype=float).tobytes())
+        if key in self._cache:
+            return self._cache[key][:2]
+        key = ("peak", key[1])
+        if key not in self._cache:
+            prepared = self._prepared(temperature_K)
+            peak_v = np.broadcast_to(self.peak_V, np.broadcast(*prepared).shape).copy()
+            self._cache[key] = (peak_v, esaki.evaluate_prepared(peak_v, prepared)[0])
+        return self._cache[key]
+
     def _branch_table(self, temperature_K, branch):
         """:class:`~siltandem.inverse.LawTable` of J(u) on one branch, built once; None where
         the curve has no peak and valley to bound the branches."""
         key = ("table", branch, np.asarray(temperature_K, dtype=float).tobytes())
         if key not in self._cache:
-            peak_v, peak_j, valley_v, valley_j = self.extrema(temperature_K)
+            if branch == "tunnel":
+                peak_v, peak_j = self.peak(temperature_K)
+                valley_v = peak_v            # (unused on the tunnel branch)
+            else:
+                peak_v, peak_j, valley_v, valley_j = self.extrema(temperature_K)
             table = None
             small = np.shape(peak_v)[0] * 1.5 * TUNNEL_TABLE_POINTS <= TABLE_MAX_ENTRIES
             if small and np.all(np.isfinite(peak_v)) and np.all(np.isfinite(valley_v)):
@@ -407,9 +428,14 @@ class TunnelJunction:
         there. Through the branch's table (inverse.py) where it covers the current, else by a
         root find from a widened bracket.
         """
-        peak_v, peak_j, valley_v, valley_j = extrema or self.extrema(temperature_K)
         if branch not in TUNNEL_BRANCHES:
             raise ValueError(f"unknown branch {branch!r}; one of {TUNNEL_BRANCHES}")
+        if extrema is None and branch == "tunnel":
+            # the tunnel branch ends at the peak: no valley needed
+            peak_v, peak_j = self.peak(temperature_K)
+            valley_v = valley_j = np.full_like(peak_v, np.nan)
+        else:
+            peak_v, peak_j, valley_v, valley_j = extrema or self.extrema(temperature_K)
         table = self._branch_table(temperature_K, branch)
         if table is not None:
             current = np.asarray(current_A_m2, dtype=float)

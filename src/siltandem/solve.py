@@ -85,6 +85,19 @@ class StringSolution:
     capped: np.ndarray | None = None
 
 
+class _Extrema(dict):
+    """Tunnel-junction name -> its Extrema, computed on first access."""
+
+    def __init__(self, junctions, temperature_K):
+        super().__init__()
+        self._junctions, self._temperature = junctions, temperature_K
+
+    def __missing__(self, name):
+        value = self._junctions[name].extrema(self._temperature)
+        self[name] = value
+        return value
+
+
 class _String:
     """Evaluates a string of elements along the pilot junction voltage t (arrays (B, N))."""
 
@@ -95,7 +108,9 @@ class _String:
         if not self.subcells:
             raise ValueError("a string needs at least one subcell")
         self.tunnels = [e for e in self.elements if e.kind == "tunnel"]
-        self.tunnel_extrema = {t.name: t.extrema(temperature_K) for t in self.tunnels}
+        # peak and valley of each junction, found when first asked for (the common case, every
+        # junction on its tunnel branch, needs only the peaks: TunnelJunction.peak)
+        self.tunnel_extrema = _Extrema({t.name: t for t in self.tunnels}, temperature_K)
         size = max([1] + [v.shape[0] for e in self.elements for v in vars(e).values()
                           if isinstance(v, np.ndarray) and v.ndim == 2])
         self.size = size
@@ -187,8 +202,9 @@ class _String:
                         v = np.where(is_pilot, pilot_v, v_other)
                         dv_dt = np.where(is_pilot, pilot_dv, slope * dcurrent)
             elif element.kind == "tunnel":
-                v, slope = element.voltage(current, self.temperature_K,
-                                           branches.get(element.name, "tunnel"),
+                branch = branches.get(element.name, "tunnel")
+                v, slope = element.voltage(current, self.temperature_K, branch,
+                                           None if branch == "tunnel" else
                                            self.tunnel_extrema[element.name])
                 dv_dt = slope * dcurrent
             else:
@@ -436,7 +452,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     t_low = t_lowest
     if string.tunnels:
         smallest_peak = np.min(np.concatenate(
-            [string.tunnel_extrema[t.name].peak_A_m2 for t in string.tunnels], axis=1),
+            [t.peak(temperature_K)[1] for t in string.tunnels], axis=1),
             axis=1, keepdims=True)
         with np.errstate(invalid="ignore"):
             t_peak = string.pilot_voltage_at(smallest_peak * (1 - 1e-9))
