@@ -217,3 +217,25 @@ def test_dim_light_unshunted_middle_cell_still_has_an_mpp():
     assert not s.failed[0]
     assert 0 < s.mpp_W_m2[0] < s.voc_V[0] * s.jsc_A_m2[0]
     assert s.power_balance_error_W_m2[0] < 1e-9 * s.mpp_W_m2[0]
+
+
+@pytest.mark.parametrize("gaps, eres, shunt_S_m2, temperature", [
+    # the top cell, without a shunt, saturates at its photocurrent: V -> -inf at the limit
+    ([1.875, 1.125, 0.71875], [1.0, 1.0, 1.0], [0.0, 0.0, 10.0], 273.15),
+    # nearly ideal shunts (1e10 ohm cm2): V plunges by volts within 1e-9 V of pilot voltage
+    ([1.0, 0.703125], [1.0, 1e-5], [1e-6, 1e-6], 400.0),
+])
+def test_curve_and_summary_paths_agree_on_steep_short_circuits(am15g, gaps, eres, shunt_S_m2,
+                                                               temperature):
+    # found by a deep property run: the curve path once lost Jsc (NaN) where V is steep or
+    # unbounded at short circuit; the summary path (a Newton search in t) and the curve path
+    # (dense samples, polish) must agree. Contract test of our own (no outside source).
+    cells = radiative_cells([np.array(g) for g in gaps], am15g)
+    cells = [Subcell(c.name, c.gap_eV, ere=batch(e), shunt_S_m2=batch(g)).with_photocurrent(
+        c.photocurrent_A_m2) for c, e, g in zip(cells, eres, shunt_S_m2)]
+    summary = solve_string(cells, temperature)
+    traced = solve_string(cells, temperature, curve_points=401)
+    assert np.isfinite(traced.jsc_A_m2[0])
+    assert traced.jsc_A_m2[0] == pytest.approx(summary.jsc_A_m2[0], rel=1e-9)
+    assert traced.mpp_W_m2[0] == pytest.approx(summary.mpp_W_m2[0], rel=1e-12)
+    assert traced.voc_V[0] == pytest.approx(summary.voc_V[0], rel=1e-12)

@@ -22,6 +22,11 @@ import numpy as np
 
 __all__ = ["LawTable", "polish_root"]
 
+#: the quadratic-convergence shortcut is trusted only where the slope changed by less than this
+#: fraction over the last step (a slope that changes a lot says the function is far from its
+#: quadratic model, however small the steps look)
+STEADY_SLOPE = 0.1
+
 
 class LawTable:
     """A strictly monotone law J(u) sampled on increasing grids of u, one row per design.
@@ -145,7 +150,7 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     Notes
     -----
     First two plain Newton steps on every entry; where they stay inside the entry's bracket and
-    converge quadratically, that is the entry's answer. The other entries go through the
+    converge quadratically (with the slope steady over the step), that is the entry's answer. The other entries go through the
     safeguarded iteration from their guess: each iteration evaluates ``residual`` once, and an
     entry stops when its Newton step is below the
     tolerance, or when two successive Newton steps show quadratic convergence with a predicted
@@ -165,8 +170,10 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         x2 = x1 - f1 / df1
         s1, s2 = np.abs(x1 - x), np.abs(x2 - x1)
         tolerance = xtol + rtol * np.abs(x2)
+        # the quadratic model holds only where the slope barely changed over the step
+        steady = np.abs(df1 - df) <= STEADY_SLOPE * np.abs(df1)
         fine = ~done & ((x2 >= lower) & (x2 <= upper)
-                        & ((s2 <= tolerance) | (s2 * s2 * s2 <= tolerance * s1 * s1)
+                        & ((s2 <= tolerance) | (steady & (s2 * s2 * s2 <= tolerance * s1 * s1))
                            | (np.abs(f1) <= ftol)))
     if np.all(fine | done):
         return np.where(fine, x2, x), np.where(fine, df1, df)
@@ -179,9 +186,12 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     previous = np.full(x.shape, np.nan)   # last Newton step; NaN: none (start or bisection)
     last_move = np.abs(upper - lower)     # the last move of x (bisection or Newton)
     slope = first_slope
+    previous_df = np.full(x.shape, np.nan)
     for _ in range(max_iterations):
         f, df = residual(x)
         slope = np.where(done, slope, df)
+        steady = np.abs(df - previous_df) <= STEADY_SLOPE * np.abs(df)
+        previous_df = df
         lost = np.isnan(f) & ~done
         if lost.any():
             x[lost] = np.nan
@@ -202,7 +212,7 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             predicted = step * step * (step / (previous * previous))
         converged = ((step <= tolerance) | (f == 0) | (upper - lower <= tolerance)
-                     | (~bisect & (predicted <= tolerance)) | (np.abs(f) <= ftol))
+                     | (~bisect & steady & (predicted <= tolerance)) | (np.abs(f) <= ftol))
         converged |= np.isnan(f)
         last_move = np.where(done, last_move, np.abs(new - x))
         np.copyto(x, new, where=~done & (f != 0) & ~np.isnan(f))

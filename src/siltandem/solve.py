@@ -672,7 +672,11 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
                            ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]},
                     samples=(t, dense))
 
-    finite = np.isfinite(dense["voltage"]) & np.isfinite(dense["dvoltage"])
+    # a crossing may end on a sample where a subcell without a shunt is past its current limit
+    # (its voltage -> -inf: the crossing lies just before the limit), never on one where a law
+    # has no value at all (NaN)
+    finite = ((np.isfinite(dense["voltage"]) & np.isfinite(dense["dvoltage"]))
+              | (dense["voltage"] == -np.inf))
     # both crossings at once: the rows twice, once per level
     twice = [np.concatenate([x, x], axis=0) for x in (t, v, dv, finite)]
     crossing, cell_lo, cell_hi = _hermite_crossing(*twice[:3], np.concatenate(
@@ -723,8 +727,12 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
                 secant = (g - memory["g"]) / (x[:, 2:] - memory["t"])
             bend = np.where(np.isfinite(secant) & (secant != 0), secant, memory["bend"])
         memory.update(g=g, t=x[:, 2:], bend=bend)
-        f = np.concatenate([e["voltage"][:, :2] - levels, -g], axis=1)
-        df = np.concatenate([e["dvoltage"][:, :2], -bend], axis=1)
+        # beyond a subcell's current limit (V = -inf) the voltage counts as far below any level
+        # (the search then closes in on the limit by bisection), as in _solve_simple
+        v = np.where(e["voltage"][:, :2] == -np.inf, -1e3, e["voltage"][:, :2])
+        dv = np.where(np.isfinite(e["dvoltage"][:, :2]), e["dvoltage"][:, :2], 1.0)
+        f = np.concatenate([v - levels, -g], axis=1)
+        df = np.concatenate([dv, -bend], axis=1)
         finite = np.isfinite(f) & np.isfinite(df)
         return np.where(finite, f, np.nan), df
 
@@ -759,10 +767,21 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     n = curve_points
     current = final["current"]
     voltage = final["voltage"]
-    # a crossing the polish could not resolve (V jumps across zero between neighbouring floats
-    # of t: an element blocks) is no short circuit
-    reached = np.abs(voltage[:, n:n + 1]) <= SHORT_CIRCUIT_TOLERANCE_V
-    jsc = np.where(capped[:, None] | ~reached, np.nan, current[:, n:n + 1])
+    v_sc, j_sc = voltage[:, n:n + 1], current[:, n:n + 1]
+    reached = np.abs(v_sc) <= SHORT_CIRCUIT_TOLERANCE_V
+    change = np.zeros_like(j_sc)
+    if not np.all(reached | ~np.isfinite(t_sc)):
+        # where V is so steep in t that the polish stops short of V = 0, the current is still
+        # fixed if it barely changes over the remaining Newton distance V / (dV/dt): take it
+        # there (first order). Where it is not (V jumps across zero between neighbouring floats
+        # of t while the current jumps too: an element blocks), there is no short circuit.
+        near = string.evaluate(np.where(np.isfinite(t_sc), t_sc, t_voc), slopes=True)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            change = near["dcurrent"] * (-v_sc / near["dvoltage"])
+        steep = np.isfinite(change) & (np.abs(change) <= 1e-9 * np.abs(j_sc))
+        change = np.where(steep & ~reached, change, 0.0)
+        reached = reached | steep
+    jsc = np.where(capped[:, None] | ~reached, np.nan, j_sc + change)
     j_mpp, v_mpp = current[:, n + 1:], voltage[:, n + 1:]
     element_voltages = [np.broadcast_to(x, current.shape) for x in final["voltages"]]
     curve = {"current_A_m2": current[:, :n].copy(), "voltage_V": voltage[:, :n].copy()}
