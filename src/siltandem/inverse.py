@@ -190,7 +190,8 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     for _ in range(max_iterations):
         f, df = residual(x)
         slope = np.where(done, slope, df)
-        steady = np.abs(df - previous_df) <= STEADY_SLOPE * np.abs(df)
+        with np.errstate(invalid="ignore"):
+            steady = np.abs(df - previous_df) <= STEADY_SLOPE * np.abs(df)
         previous_df = df
         lost = np.isnan(f) & ~done
         if lost.any():
