@@ -221,24 +221,11 @@ class Subcell:
                                              & np.isfinite(self.breakdown_V)):
             return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
                            **self._junction(temperature_K))
-        # the same law through the table's lean forward: Vj - Rs J(Vj) = V inside the exact
-        # bracket between V and V + Rs J(V) (laws/diode.py, subcell_current)
+        # the same solve through the table's lean forward (no breakdown: the same law)
         forward, _ = self._fast_law(temperature_K)
-        voltage = np.asarray(voltage_V, dtype=float)
-        rs = self.series_ohm_m2
         with np.errstate(over="ignore", invalid="ignore"):
-            j_at_v, _ = forward(voltage)
-            other = voltage + rs * j_at_v
-            lo = np.minimum(voltage, other) - 1e-12
-            hi = np.maximum(voltage, other) + 1e-12
-
-            def residual(vj):
-                j, slope = forward(vj)
-                return vj - rs * j - voltage, 1.0 - rs * slope
-
-            vj, _ = polish_root(residual, np.clip(other, lo, hi), lo, hi, increasing=True)
-            current, slope_j = forward(vj)
-            slope = slope_j / (1.0 - rs * slope_j)
+            current, slope = general(voltage_V, series_ohm_m2=self.series_ohm_m2,
+                                     forward=forward)
         if not (np.all(np.isfinite(current)) and np.all(np.isfinite(slope))):
             return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
                            **self._junction(temperature_K))

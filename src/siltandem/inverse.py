@@ -62,6 +62,11 @@ class LawTable:
     def rows(self):
         return self.j.shape[0]
 
+    def _cell(self, k):
+        """Grid values and law values at both ends of cells ``k`` (rows of the table)."""
+        return tuple(np.take_along_axis(a, i, axis=1)
+                     for a, i in ((self.u, k), (self.u, k + 1), (self.j, k), (self.j, k + 1)))
+
     def start(self, target):
         """First guesses and exact brackets for u with J(u) = ``target``.
 
@@ -93,11 +98,7 @@ class LawTable:
             k = (np.searchsorted(self._keys, query.ravel()).reshape(query.shape) - 1
                  - m * np.arange(rows)[:, None])
             np.clip(k, 0, m - 2, out=k)
-            u_a = np.take_along_axis(self.u, k, axis=1)
-            u_b = np.take_along_axis(self.u, k + 1, axis=1)
-            j_a = np.take_along_axis(self.j, k, axis=1)
-            j_b = np.take_along_axis(self.j, k + 1, axis=1)
-        if rows > 1:
+            u_a, u_b, j_a, j_b = self._cell(k)
             # the search ran on normalised keys (rounded): one step to the neighbouring cell
             # where the real values say so, so that the cell depends on the design alone
             if self.increasing:
@@ -105,11 +106,7 @@ class LawTable:
             else:
                 step = np.where(target > j_a, -1, np.where(target < j_b, 1, 0))
             if np.any(step):
-                k = np.clip(k + step, 0, m - 2)
-                u_a = np.take_along_axis(self.u, k, axis=1)
-                u_b = np.take_along_axis(self.u, k + 1, axis=1)
-                j_a = np.take_along_axis(self.j, k, axis=1)
-                j_b = np.take_along_axis(self.j, k + 1, axis=1)
+                u_a, u_b, j_a, j_b = self._cell(np.clip(k + step, 0, m - 2))
         if self.increasing:
             inside = (target >= j_a) & (target <= j_b)
         else:
@@ -150,12 +147,12 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     Notes
     -----
     First two plain Newton steps on every entry; where they stay inside the entry's bracket and
-    converge quadratically (with the slope steady over the step), that is the entry's answer. The other entries go through the
-    safeguarded iteration from their guess: each iteration evaluates ``residual`` once, and an
-    entry stops when its Newton step is below the
-    tolerance, or when two successive Newton steps show quadratic convergence with a predicted
-    next step below it (e_{k+1} ~ K e_k^2, K estimated from the last two steps): a good first
-    guess then needs two evaluations. Bisection takes over where Newton leaves the bracket, so
+    converge quadratically (with the slope steady over the step), that is the entry's answer.
+    The other entries go through the safeguarded iteration from their guess: each iteration
+    evaluates ``residual`` once, and an entry stops when its Newton step is below the tolerance,
+    or when two successive Newton steps show quadratic convergence with a predicted next step
+    below it (e_{k+1} ~ K e_k^2, K estimated from the last two steps, the slope steady): a good
+    first guess then needs two evaluations. Bisection takes over where Newton leaves the bracket, so
     the iteration cannot diverge (W. H. Press et al., Numerical Recipes, 3rd ed., sec. 9.4).
     Converged entries are frozen: a result never depends on the other entries of the array.
     """

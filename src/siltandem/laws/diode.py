@@ -212,28 +212,36 @@ def subcell_voltage(current_A_m2, *, series_ohm_m2=0.0, **junction):
     return vj - current_A_m2 * series_ohm_m2, slope - series_ohm_m2
 
 
-def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
+def subcell_current(voltage_V, *, series_ohm_m2=0.0, forward=None, **junction):
     """Current density [A/m^2] of a subcell at terminal voltage ``voltage_V`` [V].
 
     Solves V = Vj - Rs J(Vj) for Vj (strictly increasing in Vj) by Newton steps inside an exact
     bracket from its end V + Rs J(V) (siltandem.inverse.polish_root, safeguarded by bisection),
     then J = J(Vj). Returns (current, dJ/dV).
+
+    ``forward`` (optional) is the junction law as a callable ``vj -> (J, dJ/dVj)`` with its
+    parameters bound (an element's cached form of :func:`junction_current`); otherwise
+    ``junction`` takes the keywords of :func:`junction_current`.
     """
     voltage = np.asarray(voltage_V, dtype=float)
     rs = np.broadcast_to(np.asarray(series_ohm_m2, dtype=float), voltage.shape)
-    junction = {k: np.broadcast_to(np.asarray(v, dtype=float), voltage.shape)
-                for k, v in junction.items()}
+    if forward is None:
+        junction = {k: np.broadcast_to(np.asarray(v, dtype=float), voltage.shape)
+                    for k, v in junction.items()}
+
+        def forward(vj):
+            return junction_current(vj, **junction)
     if np.all(rs == 0):
-        current, slope = junction_current(voltage, **junction)
+        current, slope = forward(voltage)
         return current, slope
 
     def residual(vj):
-        j, slope = junction_current(vj, **junction)
+        j, slope = forward(vj)
         return vj - rs * j - voltage, 1.0 - rs * slope
 
     # exact bracket: the root Vj* = V + Rs J(Vj*) lies between V and V + Rs J(V), because J
     # falls with Vj (if J(V) >= 0 then V <= Vj* <= V + Rs J(V), and the reverse if J(V) < 0)
-    j_at_v, _ = junction_current(voltage, **junction)
+    j_at_v, _ = forward(voltage)
     other = voltage + rs * j_at_v
     lo = np.minimum(voltage, other) - 1e-12
     hi = np.maximum(voltage, other) + 1e-12
@@ -246,6 +254,6 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, **junction):
         start = np.clip(other, lo, hi)
     vj, _ = polish_root(residual, np.where(np.isfinite(start), start, 0.5 * (lo + hi)), lo, hi,
                         increasing=True)
-    current, slope_j = junction_current(vj, **junction)
+    current, slope_j = forward(vj)
     slope = slope_j / (1.0 - rs * slope_j)
     return current, slope
