@@ -20,6 +20,8 @@ table by bisection) and sec. 9.4 ('rtsafe': Newton's method safeguarded by a bra
 """
 import numpy as np
 
+from .numerics import safeguarded_newton
+
 __all__ = ["LawTable", "polish_root"]
 
 #: the quadratic-convergence shortcut is trusted only where the slope changed by less than this
@@ -148,13 +150,11 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     -----
     First two plain Newton steps on every entry; where they stay inside the entry's bracket and
     converge quadratically (with the slope steady over the step), that is the entry's answer.
-    The other entries go through the safeguarded iteration from their guess: each iteration
-    evaluates ``residual`` once, and an entry stops when its Newton step is below the tolerance,
-    or when two successive Newton steps show quadratic convergence with a predicted next step
-    below it (e_{k+1} ~ K e_k^2, K estimated from the last two steps, the slope steady): a good
-    first guess then needs two evaluations. Bisection takes over where Newton leaves the bracket, so
-    the iteration cannot diverge (W. H. Press et al., Numerical Recipes, 3rd ed., sec. 9.4).
-    Converged entries are frozen: a result never depends on the other entries of the array.
+    The other entries go through :func:`siltandem.numerics.safeguarded_newton` from their guess
+    inside their brackets (bisection wherever Newton would leave the bracket or creep, so the
+    search cannot diverge: W. H. Press et al., Numerical Recipes, 3rd ed., sec. 9.4), and one
+    more evaluation gives their slopes. Converged entries are frozen: a result never depends on
+    the other entries of the array.
     """
     x = np.array(guess, dtype=float)
     done = np.zeros(x.shape, dtype=bool) if active is None else ~np.broadcast_to(active, x.shape)
@@ -174,48 +174,15 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
                            | (np.abs(f1) <= ftol)))
     if np.all(fine | done):
         return np.where(fine, x2, x), np.where(fine, df1, df)
-    # the others: the safeguarded iteration from their first guess (each entry on its own)
-    lower = np.array(np.broadcast_to(lower, x.shape), dtype=float)
-    upper = np.array(np.broadcast_to(upper, x.shape), dtype=float)
-    x = np.where(fine, x2, x)
-    first_slope = np.where(fine, df1, df)
-    done = done | fine
-    previous = np.full(x.shape, np.nan)   # last Newton step; NaN: none (start or bisection)
-    last_move = np.abs(upper - lower)     # the last move of x (bisection or Newton)
-    slope = first_slope
-    previous_df = np.full(x.shape, np.nan)
-    for _ in range(max_iterations):
-        f, df = residual(x)
-        slope = np.where(done, slope, df)
-        with np.errstate(invalid="ignore"):
-            steady = np.abs(df - previous_df) <= STEADY_SLOPE * np.abs(df)
-        previous_df = df
-        lost = np.isnan(f) & ~done
-        if lost.any():
-            x[lost] = np.nan
-        if increasing:
-            above, below = f < 0, f > 0
-        else:
-            above, below = f > 0, f < 0
-        np.copyto(lower, x, where=above & ~done)
-        np.copyto(upper, x, where=below & ~done)
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            new = x - f / df
-        # bisect where Newton leaves the bracket, or does not at least halve the move before
-        # last ('rtsafe'): a step creeping down a huge exponential cannot stall the search
-        bisect = ~((new >= lower) & (new <= upper)) | (np.abs(new - x) > 0.5 * last_move)
-        new = np.where(bisect, 0.5 * (lower + upper), new)
-        step = np.abs(new - x)
-        tolerance = xtol + rtol * np.abs(x)
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            predicted = step * step * (step / (previous * previous))
-        converged = ((step <= tolerance) | (f == 0) | (upper - lower <= tolerance)
-                     | (~bisect & steady & (predicted <= tolerance)) | (np.abs(f) <= ftol))
-        converged |= np.isnan(f)
-        last_move = np.where(done, last_move, np.abs(new - x))
-        np.copyto(x, new, where=~done & (f != 0) & ~np.isnan(f))
-        previous = np.where(bisect, np.nan, step)
-        done |= converged
-        if done.all():
-            break
+    # the others: the whole-array safeguarded Newton search (numerics.safeguarded_newton) from
+    # their first guess, each entry on its own; the cells' ends bracket by their known signs
+    rest = ~(done | fine)
+    low_sign, high_sign = (-1.0, 1.0) if increasing else (1.0, -1.0)
+    searched = safeguarded_newton(
+        residual, np.broadcast_to(lower, x.shape), np.broadcast_to(upper, x.shape), start=x,
+        end_values=(np.where(rest, low_sign, np.nan), np.where(rest, high_sign, np.nan)),
+        xtol=xtol, rtol=rtol, ftol=ftol, max_iterations=max_iterations)
+    x = np.where(fine, x2, np.where(rest, searched, x))
+    _, last_slope = residual(np.where(np.isfinite(x), x, guess))
+    slope = np.where(fine, df1, np.where(rest, last_slope, df))
     return x, slope

@@ -110,12 +110,13 @@ def _one_root(function, a, b, xtol, rtol, max_iterations, end_values):
 
 
 def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4e-16,
-                       max_iterations=100, end_values=None):
+                       ftol=0.0, max_iterations=100, end_values=None):
     """Roots of an elementwise function with known derivative, inside brackets, on whole arrays.
 
     ``function(x) -> (f, df/dx)``. ``start`` (optional) is a first guess inside the bracket (a
     close one saves most iterations); ``end_values`` (optional) the function's values at the
-    two ends when the caller has them. Newton steps, replaced by bisection whenever a step leaves the
+    two ends when the caller has them (their signs are enough); ``ftol`` a residual small
+    enough to stop at (the root is then fixed only to rounding). Newton steps, replaced by bisection whenever a step leaves the
     current bracket; the bracket shrinks around the sign change at every iteration, so the method
     cannot diverge (as in W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4, 'rtsafe').
     NaN where the bracket held no sign change.
@@ -167,7 +168,8 @@ def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4
         # depends on which other designs share its batch
         lost = np.isnan(f)
         converged = ((np.isfinite(f) & (np.abs(new_x - x) <= xtol + rtol * np.abs(x)))
-                     | (f == 0) | (np.abs(high - low) <= xtol + rtol * np.abs(x)))
+                     | (f == 0) | (np.abs(high - low) <= xtol + rtol * np.abs(x))
+                     | (np.abs(f) <= ftol))
         x = np.where(done | (f == 0), x, new_x)
         valid = valid & ~(lost & ~done)
         done = done | converged | lost
