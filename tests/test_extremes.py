@@ -14,22 +14,25 @@ shunts 1e-2..1e12 ohm cm2, series resistance 0..10 ohm cm2. The grid is not the 
 What "not inventing" is checked against, for every result that reports numbers:
 
 * the efficiency is below the detailed-balance bound of the same light (each subcell alone in
-  the radiative limit; W. Shockley, H. J. Queisser, J. Appl. Phys. 32 (1961) 510);
+  the radiative limit; W. Shockley, H. J. Queisser, J. Appl. Phys. 32 (1961) 510), a bound
+  itself checked here against the published AM1.5G limit (S. Ruehle, Solar Energy 130 (2016)
+  139);
 * the operating points lie on the traced curve: the curve crosses V = 0 at the reported Jsc
   and J = 0 at the reported Voc, and the MPP lies between them;
 * the power balance closes (or a warning says it does not).
+
+The last two are consistency checks of the solver's own outputs (common practice, no source).
 
 Where a number is missing (null) a warning must say so, and no warning text shows "nan".
 Points marked ``xfail`` are open defects (strict: they must start failing the mark once fixed).
 """
 import json
-import math
 import re
 
 import numpy as np
 import pytest
 
-from siltandem.elements import Subcell, batch
+from siltandem.elements import Subcell
 from siltandem.result import run_stack
 from siltandem.solve import solve_string
 from siltandem.stack import parse_stack
