@@ -24,7 +24,8 @@ import numpy as np
 from .laws import diode, esaki, thermionic
 from .laws.radiative import radiative_saturation_current
 from .constants import thermal_voltage_V
-from .inverse import LawTable, polish_root
+from .inverse import LawTable
+from . import kernels
 from .numerics import safeguarded_newton
 
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
@@ -35,6 +36,14 @@ TABLE_FORWARD_POINTS = 512
 TABLE_MAX_ENTRIES = 4_000_000
 #: an inverse is done when its residual is within two rounding units of the current
 ROUNDING_TOLERANCE = 2 * np.finfo(float).eps
+
+
+def _temperature_key(temperature_K):
+    """A cache key for a temperature: the float itself, or the bytes of an array of them."""
+    if isinstance(temperature_K, (float, int)):
+        return float(temperature_K)
+    array = np.asarray(temperature_K, dtype=float)
+    return float(array) if array.ndim == 0 else array.tobytes()
 
 
 def batch(value):
@@ -98,7 +107,7 @@ class Subcell:
         or the layer-physics value when the compiler fixed one."""
         if self.j01_fixed_A_m2 is not None:
             return self.j01_fixed_A_m2
-        key = np.asarray(temperature_K, dtype=float).tobytes()
+        key = _temperature_key(temperature_K)
         if key not in self._cache:
             self._cache[key] = radiative_saturation_current(
                 self.gap_eV, temperature_K=temperature_K, absorptance=self.absorptance) / self.ere
@@ -126,6 +135,12 @@ class Subcell:
         shunt (the Wright-omega closed form costs more than a table lookup and two Newton
         steps). An ideal diode alone keeps its logarithm, and a batch too large for tables
         (TABLE_MAX_ENTRIES) keeps the laws' own root finds."""
+        key = ("needs table", _temperature_key(temperature_K))
+        if key not in self._cache:
+            self._cache[key] = self._decide_table(temperature_K)
+        return self._cache[key]
+
+    def _decide_table(self, temperature_K):
         rows = max(np.shape(x)[0] for x in (self.gap_eV, self.j02_A_m2, self.shunt_S_m2,
                                                self.photocurrent_A_m2
                                                if self.photocurrent_A_m2 is not None
@@ -142,7 +157,7 @@ class Subcell:
         :class:`~siltandem.inverse.LawTable` of J over junction voltages from reverse bias
         (-1e7 V; with breakdown, just above the breakdown voltage or -3 V) to where the J01
         diode alone would carry three times the photocurrent forward."""
-        key = ("fast", np.asarray(temperature_K, dtype=float).tobytes())
+        key = ("fast", _temperature_key(temperature_K))
         if key not in self._cache:
             junction = self._junction(temperature_K)
             vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
@@ -174,32 +189,37 @@ class Subcell:
                                           (jph.shape[0], TABLE_REVERSE_POINTS))
             grid = np.concatenate([reverse, forward_part], axis=1)
             with np.errstate(over="ignore", invalid="ignore"):
-                values, _ = forward(grid)
-            self._cache[key] = (forward, LawTable(grid, values))
+                values, slopes = forward(grid)
+            self._cache[key] = (forward, LawTable(grid, values, slopes))
+        return self._cache[key]
+
+    def _law_parameters(self, temperature_K):
+        """(R, 8) rows (Jph, J01, J02, G, Vt, Vbr, a, m) of the compiled law (kernels.py)."""
+        key = ("parameters", _temperature_key(temperature_K))
+        if key not in self._cache:
+            junction = self._junction(temperature_K)
+            vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float)) * np.ones((1, 1))
+            columns = np.broadcast_arrays(
+                junction["photocurrent_A_m2"], junction["j01_A_m2"], self.j02_A_m2,
+                self.shunt_S_m2, vt, self.breakdown_V, self.breakdown_factor,
+                self.breakdown_exponent)
+            self._cache[key] = np.ascontiguousarray(np.concatenate(columns, axis=1), dtype=float)
         return self._cache[key]
 
     def _junction_voltage_fast(self, current_A_m2, temperature_K):
-        """Vj carrying the current and dJ/dVj there, through the table (module inverse.py);
-        currents beyond the table's range by the general root find of laws/diode.py."""
-        forward, table = self._fast_law(temperature_K)
+        """Vj carrying the current and dJ/dVj there, through the table and the compiled
+        per-entry Newton search inside its cell (kernels.py); currents beyond the table's
+        range by the general root find of laws/diode.py."""
+        _, table = self._fast_law(temperature_K)
         current = np.asarray(current_A_m2, dtype=float)
-        guess, lower, upper, inside = table.start(current)
-        target = np.broadcast_to(current, guess.shape)
-
-        def residual(v):
-            j, slope = forward(v)
-            return j - target, slope
-
-        with np.errstate(over="ignore", invalid="ignore"):
-            vj, slope = polish_root(residual, guess, lower, upper, increasing=False, active=inside,
-                                    ftol=ROUNDING_TOLERANCE * np.abs(target))
+        vj, slope, inside = kernels.invert(kernels.SUBCELL_LAW, self._law_parameters(temperature_K),
+                                           table, current, increasing=False)
         if not inside.all():
+            target = np.broadcast_to(current, vj.shape)
             out = ~inside
             junction = {k: np.broadcast_to(v, vj.shape)[out]
                         for k, v in self._junction(temperature_K).items()}
             v_out, s_out = diode.junction_voltage(target[out], **junction)
-            vj = np.array(vj)
-            slope = np.array(np.broadcast_to(slope, vj.shape))
             vj[out] = v_out
             with np.errstate(divide="ignore"):
                 slope[out] = 1.0 / s_out
@@ -236,12 +256,24 @@ class Subcell:
         saturation = self.j01_A_m2(temperature_K) + self.j02_A_m2
         return np.where(self.shunt_S_m2 > 0, np.inf, self.photocurrent_A_m2 + saturation)
 
+    def junction_current(self, v_junction_V, temperature_K):
+        """J [A/m^2] and dJ/dVj at junction voltages [V] (arrays (B, N) or (N,)): the law of
+        laws/diode.py, compiled (kernels.py)."""
+        v = np.asarray(v_junction_V, dtype=float)
+        params = self._law_parameters(temperature_K)
+        if v.ndim != 2:
+            current, slope = diode.junction_current(v, **self._junction(temperature_K))
+            return current, slope
+        if params.shape[0] > 1 and v.shape[0] != params.shape[0]:
+            v = np.broadcast_to(v, (params.shape[0], v.shape[1]))
+        return kernels.evaluate_law(kernels.SUBCELL_LAW, params, np.ascontiguousarray(v))
+
     def pilot_current(self, v_junction_V, temperature_K):
         """Current, its slope and the terminal voltage from the junction voltage [V].
 
         Returns (J, dJ/dVj, V, dV/dVj) with V = Vj - J Rs.
         """
-        current, slope = diode.junction_current(v_junction_V, **self._junction(temperature_K))
+        current, slope = self.junction_current(v_junction_V, temperature_K)
         voltage = v_junction_V - current * self.series_ohm_m2
         return current, slope, voltage, 1.0 - self.series_ohm_m2 * slope
 
@@ -340,9 +372,21 @@ class TunnelJunction:
                     temperature_K=temperature_K, exact_peak=True)
 
     def _prepared(self, temperature_K):
-        key = ("law", np.asarray(temperature_K, dtype=float).tobytes())
+        key = ("law", _temperature_key(temperature_K))
         if key not in self._cache:
             self._cache[key] = esaki.prepare_tunnel_law(**self._law(temperature_K))
+        return self._cache[key]
+
+    def _law_parameters(self, temperature_K):
+        """(R, 8) rows (A, V1, Jv, Vv, C2, J0, n Vt, k) of the compiled law (kernels.py)."""
+        key = ("parameters", _temperature_key(temperature_K))
+        if key not in self._cache:
+            a, v1, jv, vv, c2, j0, n, t = self._prepared(temperature_K)
+            nvt = n * thermal_voltage_V(t)
+            k = jv / -np.expm1(-2.0 * c2 * vv)
+            columns = np.broadcast_arrays(*(np.asarray(x, dtype=float).reshape(-1, 1) for x in
+                                            (a, v1, jv, vv, c2, j0, nvt, k)))
+            self._cache[key] = np.ascontiguousarray(np.concatenate(columns, axis=1))
         return self._cache[key]
 
     def junction_current(self, u, temperature_K):
@@ -352,7 +396,7 @@ class TunnelJunction:
 
     def extrema(self, temperature_K):
         """Attained (peak_V, peak_A_m2, valley_V, valley_A_m2) of the combined curve, (B, 1) each."""
-        key = ("extrema", np.asarray(temperature_K, dtype=float).tobytes())
+        key = ("extrema", _temperature_key(temperature_K))
         if key not in self._cache:
             self._cache[key] = esaki.extrema_of_prepared(self._prepared(temperature_K),
                                                          exact_peak_V=self.peak_V)
@@ -365,7 +409,7 @@ class TunnelJunction:
         curvature there is negative (laws/esaki.py checks it): Vp is the curve's first maximum
         (dJ/dV falls to a single minimum for V >= 0, Esaki notes), as :meth:`extrema` finds.
         """
-        key = ("extrema", np.asarray(temperature_K, dtype=float).tobytes())
+        key = ("extrema", _temperature_key(temperature_K))
         if key in self._cache:
             return self._cache[key][:2]
         key = ("peak", key[1])
@@ -378,7 +422,7 @@ class TunnelJunction:
     def _branch_table(self, temperature_K, branch):
         """:class:`~siltandem.inverse.LawTable` of J(u) on one branch, built once; None where
         the curve has no peak and valley to bound the branches."""
-        key = ("table", branch, np.asarray(temperature_K, dtype=float).tobytes())
+        key = ("table", branch, _temperature_key(temperature_K))
         if key not in self._cache:
             if branch == "tunnel":
                 peak_v, peak_j = self.peak(temperature_K)
@@ -399,11 +443,12 @@ class TunnelJunction:
                 else:
                     s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
                     grid = valley_v + THERMAL_TABLE_SPAN_V * s
-                values, _ = self.junction_current(grid, temperature_K)
+                values, slopes = self.junction_current(grid, temperature_K)
                 # curvature d2J/du2 at the peak and at the valley: the folds' quadratic models
                 folds = esaki.evaluate_prepared(np.concatenate([peak_v, valley_v], axis=1),
                                                 self._prepared(temperature_K))[2]
-                table = (LawTable(grid, values), np.abs(folds[:, :1]), np.abs(folds[:, 1:]))
+                table = (LawTable(grid, values, slopes), np.abs(folds[:, :1]),
+                         np.abs(folds[:, 1:]))
             self._cache[key] = table
         return self._cache[key]
 
@@ -436,38 +481,15 @@ class TunnelJunction:
                 inside = current >= valley_j * (1 - 1e-9)
                 target = np.maximum(current, valley_j)
             table, peak_curvature, valley_curvature = table
-            guess, lower, upper, covered = table.start(target)
-            target = np.broadcast_to(target, guess.shape)
-            prepared = self._prepared(temperature_K)
-            # in a cell ending at a fold (J' = 0) linear interpolation is a poor guess: take
-            # J ~ J_fold - |J''| (u - u_fold)^2 / 2 there instead
-            def to_peak():
-                return np.sqrt(2.0 * np.maximum(peak_j - target, 0.0) / peak_curvature)
-
-            def to_valley():
-                return np.sqrt(2.0 * np.maximum(target - valley_j, 0.0) / valley_curvature)
-
-            if branch == "tunnel":
-                folds = [(upper >= table.u[:, -1:], lambda: peak_v - to_peak())]
-            elif branch == "negative":
-                folds = [(lower <= table.u[:, :1], lambda: peak_v + to_peak()),
-                         (upper >= table.u[:, -1:], lambda: valley_v - to_valley())]
-            else:
-                folds = [(lower <= table.u[:, :1], lambda: valley_v + to_valley())]
-            for at_fold, model in folds:
-                if np.any(at_fold):
-                    with np.errstate(invalid="ignore", divide="ignore"):
-                        fold_guess = model()
-                    guess = np.where(at_fold & np.isfinite(fold_guess),
-                                     np.minimum(np.maximum(fold_guess, lower), upper), guess)
-
-            def residual(u):
-                j, slope, _ = esaki.evaluate_prepared(u, prepared)
-                return j - target, slope
-
-            u, slope = polish_root(residual, guess, lower, upper, increasing=branch != "negative",
-                                   active=covered,
-                                   ftol=ROUNDING_TOLERANCE * np.abs(target))
+            # in a cell ending at a fold (J' = 0) the first guess is the fold's quadratic model
+            # J ~ J_fold - |J''| (u - u_fold)^2 / 2 (kernels.invert_table)
+            fold_low = {"tunnel": None, "negative": peak_curvature,
+                        "thermal": valley_curvature}[branch]
+            fold_high = {"tunnel": peak_curvature, "negative": valley_curvature,
+                         "thermal": None}[branch]
+            u, slope, covered = kernels.invert(
+                kernels.TUNNEL_LAW, self._law_parameters(temperature_K), table, target,
+                increasing=branch != "negative", fold_low=fold_low, fold_high=fold_high)
             if not covered.all():
                 # beyond the table (rare): the general search on the whole array
                 searched = self._junction_voltage_search(current, temperature_K, branch,

@@ -40,13 +40,18 @@ class LawTable:
     j : (R, M) ndarray
         The law's values there, strictly monotone along each row and in the same direction in
         every row (rounding may leave equal neighbours where the law is flat). Finite.
+    slope : (R, M) ndarray, optional
+        dJ/du there (for the cubic first guesses of :func:`siltandem.kernels.invert_table`);
+        NaN when not given.
     """
 
-    __slots__ = ("u", "j", "increasing", "_keys", "_low", "_span")
+    __slots__ = ("u", "j", "slope", "increasing", "_keys", "_low", "_span")
 
-    def __init__(self, u, j):
+    def __init__(self, u, j, slope=None):
         self.u = np.ascontiguousarray(u, dtype=float)
         self.j = np.ascontiguousarray(j, dtype=float)
+        self.slope = np.full_like(self.j, np.nan) if slope is None else \
+            np.ascontiguousarray(np.broadcast_to(slope, self.j.shape), dtype=float)
         rows, m = self.j.shape
         self.increasing = bool(self.j[0, -1] >= self.j[0, 0])
         ascending = self.j if self.increasing else -self.j

@@ -1,0 +1,293 @@
+"""Compiled kernels of the series solver's hot loop: element inverses, one entry at a time.
+
+Every evaluation of a string inverts each non-pilot element at the string's current (solve.py).
+Done with whole-array numpy steps, that costs tens of array operations per element and call; here
+the same work (find the table cell that brackets the target, guess, safeguarded Newton inside the
+cell) runs as one compiled loop over the entries (numba), so each entry takes only the law
+evaluations it needs.
+
+The laws are the scalar forms of :func:`siltandem.laws.diode.junction_current` (two diodes,
+shunt, Bishop breakdown) and of the Esaki three-term law of :mod:`siltandem.laws.esaki` (prepared,
+with its exponentials continued linearly beyond ``esaki._EXP_LIMIT``); tests/test_kernels.py
+checks both against the numpy laws and the inverses against ``scipy.optimize.brentq``.
+
+References
+----------
+W. H. Press et al., Numerical Recipes, 3rd ed., Cambridge 2007, sec. 3.1 (locating a value in a
+table by bisection) and sec. 9.4 ('rtsafe': Newton's method safeguarded by a bracket).
+J. W. Bishop, Solar Cells 25 (1988) 73 (breakdown term); L. Esaki, Phys. Rev. 109 (1958) 603.
+"""
+import math
+
+import numba
+import numpy as np
+
+__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "invert", "invert_table", "evaluate_law"]
+
+#: law codes of :func:`invert_table`
+SUBCELL_LAW = 0
+TUNNEL_LAW = 1
+#: exponent beyond which the tunnel law's exponentials continue linearly (laws/esaki.py)
+EXP_LIMIT = 300.0
+_EPS = np.finfo(float).eps
+
+
+@numba.njit(cache=True)
+def _limited_exp(z):
+    """exp(z), continued by its tangent beyond EXP_LIMIT: (value, first derivative, second)."""
+    if z > EXP_LIMIT:
+        e = math.exp(EXP_LIMIT)
+        return e * (1.0 + (z - EXP_LIMIT)), e, 0.0
+    e = math.exp(z)
+    return e, e, e
+
+
+@numba.njit(cache=True)
+def _subcell(v, p):
+    """Junction current and dJ/dVj of a subcell; p = (Jph, J01, J02, G, Vt, Vbr, a, m)."""
+    jph, j01, j02, g, vt, vbr, a, m = p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7]
+    e1 = math.expm1(v / vt)
+    e2 = math.expm1(v / (2.0 * vt))
+    multiplier, multiplier_slope = 1.0, 0.0
+    if a > 0.0 and math.isfinite(vbr):
+        base = max(1.0 - v / vbr, 1e-300)
+        power = base ** (-m)
+        multiplier = 1.0 + a * power
+        multiplier_slope = a * m * power / base / vbr
+    second, second_slope = 0.0, 0.0
+    if j02 > 0.0:
+        second = j02 * e2
+        second_slope = (j02 / (2.0 * vt)) * (e2 + 1.0)
+    j = jph - j01 * e1 - second - g * v * multiplier
+    dj = -(j01 / vt) * (e1 + 1.0) - second_slope - g * (multiplier + v * multiplier_slope)
+    return j, dj
+
+
+@numba.njit(cache=True)
+def _tunnel(v, p):
+    """Esaki three-term current and dJ/du; p = (A, V1, Jv, Vv, C2, J0, n Vt, k), k the excess
+    term's prefactor Jv / (1 - exp(-2 C2 Vv))."""
+    a, v1, c2, j0, nvt, k = p[0], p[1], p[4], p[5], p[6], p[7]
+    vv = p[3]
+    x = v / v1
+    e1, e1d, _ = _limited_exp(1.0 - x)
+    ea, ead, _ = _limited_exp(c2 * (v - vv))
+    eb, ebd, _ = _limited_exp(-c2 * (v + vv))
+    z3 = v / nvt
+    if z3 > EXP_LIMIT:
+        e3, e3d, _ = _limited_exp(z3)
+        e3m1 = e3 - 1.0
+    else:
+        e3m1 = math.expm1(z3)
+        e3d = e3m1 + 1.0
+    j = a * x * e1 + k * (ea - eb) + j0 * e3m1
+    dj = (a / v1) * (e1 - x * e1d) + k * c2 * (ead + ebd) + j0 * e3d / nvt
+    return j, dj
+
+
+@numba.njit(cache=True)
+def _law(code, v, p):
+    if code == SUBCELL_LAW:
+        return _subcell(v, p)
+    return _tunnel(v, p)
+
+
+@numba.njit(cache=True)
+def evaluate_law(code, params, v):
+    """J and dJ/du of law ``code`` at ``v`` (R', N) with parameter rows ``params`` (R, P),
+    R = R' or R = 1 (for tests and forward evaluations)."""
+    rows, n = v.shape
+    j = np.empty((rows, n))
+    dj = np.empty((rows, n))
+    shared = params.shape[0] == 1
+    for b in range(rows):
+        p = params[0] if shared else params[b]
+        for i in range(n):
+            j[b, i], dj[b, i] = _law(code, v[b, i], p)
+    return j, dj
+
+
+@numba.njit(cache=True)
+def _hermite_inverse(y, xl, xh, jl, jh, dl, dh):
+    """u at J = y inside one cell from the cubic Hermite interpolant of the inverse u(J) (its
+    slopes 1/J' at both ends); the linear estimate where a slope is zero or not finite."""
+    width = jh - jl
+    if width == 0.0:
+        return 0.5 * (xl + xh)
+    s = (y - jl) / width
+    linear = xl + s * (xh - xl)
+    if not (dl != 0.0 and dh != 0.0 and math.isfinite(dl) and math.isfinite(dh)):
+        return linear
+    s2 = s * s
+    s3 = s2 * s
+    x = ((2.0 * s3 - 3.0 * s2 + 1.0) * xl + (s3 - 2.0 * s2 + s) * width / dl
+         + (3.0 * s2 - 2.0 * s3) * xh + (s3 - s2) * width / dh)
+    if x >= xl and x <= xh:
+        return x
+    return linear
+
+
+@numba.njit(cache=True)
+def invert_table(code, params, grid_u, grid_j, grid_slope, increasing, fold_low, fold_high,
+                 targets, xtol, rtol, max_iterations):
+    """u with J(u) = target, entry by entry, inside the cell of a sampled law that brackets it.
+
+    Parameters
+    ----------
+    code : int
+        SUBCELL_LAW or TUNNEL_LAW.
+    params : (R, P) float array
+        Law parameters, one row per design (R = 1: shared by all).
+    grid_u, grid_j, grid_slope : (R, M) float arrays
+        The law and its slope dJ/du sampled on an increasing grid of u, J strictly monotone
+        along each row.
+    increasing : bool
+        Whether J rises with u.
+    fold_low, fold_high : (R,) float arrays
+        |d2J/du2| where the table's first (last) sample is a fold of the law (J' = 0: a tunnel
+        junction's peak or valley), else 0; there the first guess is the fold's quadratic model.
+    targets : (B, N) float array
+        Currents; B = R, or any B when R = 1.
+    xtol, rtol : float
+        Absolute and relative tolerance on u. A residual within two rounding units of the
+        target also ends the search.
+    max_iterations : int
+
+    Returns
+    -------
+    u, slope : (B, N) arrays
+        The root and dJ/du there; NaN where the target is outside the table (``inside`` False).
+    inside : (B, N) bool array
+
+    Notes
+    -----
+    First guess: the cubic Hermite interpolant of the inverse law in the cell (next to a fold,
+    the fold's quadratic model). One evaluation there and a Newton step; the step is the answer
+    when the error it leaves, |J''| s^2 / (2 |J'|) with J'' bounded from the slopes at the
+    cell's ends and at the guess (times 4), is below the tolerance. Otherwise the search goes
+    on: Newton steps inside the bracket, bisection where a step would leave it or stop
+    shrinking (W. H. Press et al., Numerical Recipes, sec. 9.4).
+    """
+    rows, n = targets.shape
+    m = grid_u.shape[1]
+    shared = grid_u.shape[0] == 1
+    sign = 1.0 if increasing else -1.0
+    u_out = np.full((rows, n), np.nan)
+    slope_out = np.full((rows, n), np.nan)
+    inside = np.zeros((rows, n), dtype=np.bool_)
+    for b in range(rows):
+        r = 0 if shared else b
+        p = params[0] if params.shape[0] == 1 else params[b]
+        gu = grid_u[r]
+        gj = grid_j[r]
+        gs = grid_slope[r]
+        first, last = sign * gj[0], sign * gj[m - 1]
+        for i in range(n):
+            y = targets[b, i]
+            ys = sign * y
+            if not (ys >= first and ys <= last):
+                continue
+            inside[b, i] = True
+            lo, hi = 0, m - 1
+            while hi - lo > 1:                      # binary search for the bracketing cell
+                mid = (lo + hi) >> 1
+                if sign * gj[mid] <= ys:
+                    lo = mid
+                else:
+                    hi = mid
+            xl, xh = gu[lo], gu[hi]
+            jl, jh = gj[lo], gj[hi]
+            if lo == 0 and fold_low[r] > 0.0:
+                x = xl + math.sqrt(2.0 * abs(y - jl) / fold_low[r])
+            elif hi == m - 1 and fold_high[r] > 0.0:
+                x = xh - math.sqrt(2.0 * abs(jh - y) / fold_high[r])
+            else:
+                x = _hermite_inverse(y, xl, xh, jl, jh, gs[lo], gs[hi])
+            if not (x >= xl and x <= xh):
+                x = 0.5 * (xl + xh)
+            ftol = 2.0 * _EPS * abs(y)
+            j, dj = _law(code, x, p)
+            g = sign * (j - y)
+            if abs(g) <= ftol:
+                u_out[b, i] = x
+                slope_out[b, i] = dj
+                continue
+            if dj != 0.0 and math.isfinite(dj):
+                step = (j - y) / dj
+                newton = x - step
+                if newton > xl and newton < xh:
+                    # J'' bound from the slopes at the cell's ends and at the guess
+                    bend = 0.0
+                    if x > xl:
+                        bend = abs(dj - gs[lo]) / (x - xl)
+                    if x < xh:
+                        bend = max(bend, abs(gs[hi] - dj) / (xh - x))
+                    error = 4.0 * bend * step * step / (2.0 * abs(dj))
+                    if error <= xtol + rtol * abs(newton) and math.isfinite(bend):
+                        side = gs[hi] if newton > x else gs[lo]
+                        end = xh if newton > x else xl
+                        u_out[b, i] = newton
+                        slope_out[b, i] = dj + (side - dj) * (newton - x) / (end - x) \
+                            if end != x else dj
+                        continue
+            # the general search: Newton inside the shrinking bracket, bisection as needed
+            previous = xh - xl
+            for _ in range(max_iterations):
+                if g < 0.0:
+                    xl = x
+                else:
+                    xh = x
+                dg = sign * dj
+                newton = x - g / dg if dg != 0.0 else math.nan
+                if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
+                    step = newton - x
+                    x = newton
+                else:
+                    step = 0.5 * (xh - xl)
+                    x = xl + step
+                previous = step
+                j, dj = _law(code, x, p)
+                g = sign * (j - y)
+                if abs(g) <= ftol or abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
+                    break
+            u_out[b, i] = x
+            slope_out[b, i] = dj
+    return u_out, slope_out, inside
+
+
+#: tolerances of the element inverses: |du| below XTOL + RTOL |u|
+XTOL = 1e-13
+RTOL = 4e-16
+MAX_ITERATIONS = 100
+
+
+def invert(code, params, table, targets, *, increasing, fold_low=None, fold_high=None):
+    """:func:`invert_table` on a :class:`siltandem.inverse.LawTable` with numpy broadcasting.
+
+    ``targets`` of shape (R, N), or anything that broadcasts to (B, N) when the table and the
+    parameters have one row (R = 1). Returns (u, slope, inside), each of the broadcast shape.
+    """
+    rows = max(table.rows, params.shape[0])
+    targets = np.asarray(targets, dtype=float)
+    if targets.ndim < 2:
+        targets = targets.reshape(1, -1) if targets.ndim == 1 else targets.reshape(1, 1)
+    if rows > 1:
+        targets = np.broadcast_to(targets, (rows, targets.shape[1]))
+        if table.rows == 1:
+            # one table for every design (shared law), parameters per design: repeat the table
+            grid_u = np.broadcast_to(table.u, (rows, table.u.shape[1]))
+            grid_j = np.broadcast_to(table.j, (rows, table.j.shape[1]))
+            grid_slope = np.broadcast_to(table.slope, (rows, table.j.shape[1]))
+        else:
+            grid_u, grid_j, grid_slope = table.u, table.j, table.slope
+    else:
+        grid_u, grid_j, grid_slope = table.u, table.j, table.slope
+    zeros = np.zeros(grid_u.shape[0])
+    fold_low = zeros if fold_low is None else np.ascontiguousarray(
+        np.broadcast_to(np.ravel(fold_low), zeros.shape), dtype=float)
+    fold_high = zeros if fold_high is None else np.ascontiguousarray(
+        np.broadcast_to(np.ravel(fold_high), zeros.shape), dtype=float)
+    return invert_table(code, np.ascontiguousarray(params), np.ascontiguousarray(grid_u),
+                        np.ascontiguousarray(grid_j), np.ascontiguousarray(grid_slope),
+                        bool(increasing), fold_low, fold_high,
+                        np.ascontiguousarray(targets), XTOL, RTOL, MAX_ITERATIONS)
