@@ -152,45 +152,15 @@ class Subcell:
         return bool(np.any(self.j02_A_m2 > 0) or np.any(self.shunt_S_m2 > 0) or np.any(
             (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)))
 
-    def _fast_law(self, temperature_K):
-        """(forward, table) at one temperature, built once: forward(vj) -> (J, dJ/dVj), and a
-        :class:`~siltandem.inverse.LawTable` of J over junction voltages from reverse bias
-        (-1e7 V; with breakdown, just above the breakdown voltage or -3 V) to where the J01
-        diode alone would carry three times the photocurrent forward."""
-        key = ("fast", _temperature_key(temperature_K))
+    def _table(self, temperature_K):
+        """:class:`~siltandem.inverse.LawTable` of the junction law at one temperature, built
+        once (kernels.subcell_table): junction voltages from reverse bias (-1e7 V; with
+        breakdown, just above the breakdown voltage or -3 V) to where the J01 diode alone would
+        carry three times the photocurrent forward."""
+        key = ("table", _temperature_key(temperature_K))
         if key not in self._cache:
-            junction = self._junction(temperature_K)
-            vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
-            jph, j01, j02, g, vt = np.broadcast_arrays(
-                junction["photocurrent_A_m2"], junction["j01_A_m2"], self.j02_A_m2,
-                self.shunt_S_m2, vt * np.ones((1, 1)))
-            if np.any((self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)):
-                def forward(v):
-                    return diode.junction_current(v, **junction)
-            else:
-                half = 2.0 * vt
-                c1, c2 = j01 / vt, j02 / half
-
-                def forward(v):
-                    # inside the table's range: no exponential overflows
-                    e1, e2 = np.expm1(v / vt), np.expm1(v / half)
-                    return jph - j01 * e1 - j02 * e2 - g * v, -c1 * (e1 + 1.0) - c2 * (e2 + 1.0) - g
-            active = (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)
-            highest = vt * np.log1p(3.0 * np.maximum(jph, 1e-3) / j01) + 4.0 * vt
-            forward_part = highest * np.linspace(0.0, 1.0, TABLE_FORWARD_POINTS)[None, :]
-            if np.any(active):
-                # uniform down to just above the breakdown voltage (or -3 V)
-                lowest = np.maximum(np.where(active, self.breakdown_V * (1.0 - 1e-9), -3.0), -3.0)
-                reverse = np.broadcast_to(lowest, jph.shape) * (
-                    1.0 - np.linspace(0.0, 1.0, TABLE_REVERSE_POINTS + 1)[None, :-1])
-            else:
-                # geometric from -1e7 V to -1 mV: the shunt's reverse branch is nearly straight
-                reverse = np.broadcast_to(-np.geomspace(1e7, 1e-3, TABLE_REVERSE_POINTS)[None, :],
-                                          (jph.shape[0], TABLE_REVERSE_POINTS))
-            grid = np.concatenate([reverse, forward_part], axis=1)
-            with np.errstate(over="ignore", invalid="ignore"):
-                values, slopes = forward(grid)
-            self._cache[key] = (forward, LawTable(grid, values, slopes))
+            self._cache[key] = LawTable(*kernels.subcell_table(
+                self._law_parameters(temperature_K), TABLE_FORWARD_POINTS, TABLE_REVERSE_POINTS))
         return self._cache[key]
 
     def _law_parameters(self, temperature_K):
@@ -210,7 +180,7 @@ class Subcell:
         """Vj carrying the current and dJ/dVj there, through the table and the compiled
         per-entry Newton search inside its cell (kernels.py); currents beyond the table's
         range by the general root find of laws/diode.py."""
-        _, table = self._fast_law(temperature_K)
+        table = self._table(temperature_K)
         current = np.asarray(current_A_m2, dtype=float)
         vj, slope, inside = kernels.invert(kernels.SUBCELL_LAW, self._law_parameters(temperature_K),
                                            table, current, increasing=False)
@@ -236,20 +206,19 @@ class Subcell:
             slope - self.series_ohm_m2
 
     def current(self, voltage_V, temperature_K):
-        general = diode.subcell_current
-        if not self._needs_table(temperature_K) or np.any((self.breakdown_factor > 0)
-                                             & np.isfinite(self.breakdown_V)):
-            return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
-                           **self._junction(temperature_K))
-        # the same solve through the table's lean forward (no breakdown: the same law)
-        forward, _ = self._fast_law(temperature_K)
-        with np.errstate(over="ignore", invalid="ignore"):
-            current, slope = general(voltage_V, series_ohm_m2=self.series_ohm_m2,
-                                     forward=forward)
-        if not (np.all(np.isfinite(current)) and np.all(np.isfinite(slope))):
-            return general(voltage_V, series_ohm_m2=self.series_ohm_m2,
-                           **self._junction(temperature_K))
-        return current, slope
+        voltage = np.asarray(voltage_V, dtype=float)
+        if voltage.ndim != 2:
+            return diode.subcell_current(voltage, series_ohm_m2=self.series_ohm_m2,
+                                         **self._junction(temperature_K))
+        # the solve of laws/diode.py subcell_current, compiled (kernels.py)
+        params = self._law_parameters(temperature_K)
+        series = np.ascontiguousarray(np.broadcast_to(
+            self.series_ohm_m2, (params.shape[0], 1))[:, 0], dtype=float)
+        if params.shape[0] > 1 and voltage.shape[0] != params.shape[0]:
+            voltage = np.broadcast_to(voltage, (params.shape[0], voltage.shape[1]))
+        return kernels.subcell_terminal_current(params, series, np.ascontiguousarray(voltage),
+                                                kernels.XTOL, kernels.RTOL,
+                                                kernels.MAX_ITERATIONS)
 
     def current_limit(self, temperature_K):
         """Largest current the subcell can carry [A/m^2]: unbounded with a shunt, else Jph + J0."""
@@ -414,9 +383,11 @@ class TunnelJunction:
             return self._cache[key][:2]
         key = ("peak", key[1])
         if key not in self._cache:
-            prepared = self._prepared(temperature_K)
-            peak_v = np.broadcast_to(self.peak_V, np.broadcast(*prepared).shape).copy()
-            self._cache[key] = (peak_v, esaki.evaluate_prepared(peak_v, prepared)[0])
+            params = self._law_parameters(temperature_K)
+            peak_v = np.ascontiguousarray(np.broadcast_to(self.peak_V, (params.shape[0], 1)),
+                                          dtype=float)
+            self._cache[key] = (peak_v, kernels.evaluate_law(kernels.TUNNEL_LAW, params,
+                                                             peak_v)[0])
         return self._cache[key]
 
     def _branch_table(self, temperature_K, branch):
@@ -443,10 +414,13 @@ class TunnelJunction:
                 else:
                     s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
                     grid = valley_v + THERMAL_TABLE_SPAN_V * s
-                values, slopes = self.junction_current(grid, temperature_K)
+                values, slopes = kernels.evaluate_law(
+                    kernels.TUNNEL_LAW, self._law_parameters(temperature_K),
+                    np.ascontiguousarray(grid))
                 # curvature d2J/du2 at the peak and at the valley: the folds' quadratic models
-                folds = esaki.evaluate_prepared(np.concatenate([peak_v, valley_v], axis=1),
-                                                self._prepared(temperature_K))[2]
+                folds = kernels.tunnel_curvature(
+                    self._law_parameters(temperature_K),
+                    np.ascontiguousarray(np.concatenate([peak_v, valley_v], axis=1)))
                 table = (LawTable(grid, values, slopes), np.abs(folds[:, :1]),
                          np.abs(folds[:, 1:]))
             self._cache[key] = table

@@ -22,7 +22,8 @@ import math
 import numba
 import numpy as np
 
-__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "invert", "invert_table", "evaluate_law"]
+__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "invert", "invert_table", "invert_elements",
+           "evaluate_law", "tunnel_curvature", "subcell_table", "subcell_terminal_current"]
 
 #: law codes of :func:`invert_table`
 SUBCELL_LAW = 0
@@ -32,7 +33,7 @@ EXP_LIMIT = 300.0
 _EPS = np.finfo(float).eps
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _limited_exp(z):
     """exp(z), continued by its tangent beyond EXP_LIMIT: (value, first derivative, second)."""
     if z > EXP_LIMIT:
@@ -42,7 +43,7 @@ def _limited_exp(z):
     return e, e, e
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _subcell(v, p):
     """Junction current and dJ/dVj of a subcell; p = (Jph, J01, J02, G, Vt, Vbr, a, m)."""
     jph, j01, j02, g, vt, vbr, a, m = p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7]
@@ -63,7 +64,7 @@ def _subcell(v, p):
     return j, dj
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _tunnel(v, p):
     """Esaki three-term current and dJ/du; p = (A, V1, Jv, Vv, C2, J0, n Vt, k), k the excess
     term's prefactor Jv / (1 - exp(-2 C2 Vv))."""
@@ -86,6 +87,27 @@ def _tunnel(v, p):
 
 
 @numba.njit(cache=True)
+def tunnel_curvature(params, v):
+    """d2J/du2 of the Esaki three-term law (parameters as for the tunnel law) at ``v`` (R', N),
+    parameter rows (R, P) with R = R' or R = 1: the curvature of a peak or valley."""
+    rows, n = v.shape
+    out = np.empty((rows, n))
+    for b in range(rows):
+        p = params[0] if params.shape[0] == 1 else params[b]
+        a, v1, vv, c2, j0, nvt, k = p[0], p[1], p[3], p[4], p[5], p[6], p[7]
+        for i in range(n):
+            u = v[b, i]
+            x = u / v1
+            _, e1d, e1dd = _limited_exp(1.0 - x)
+            _, _, ea2 = _limited_exp(c2 * (u - vv))
+            _, _, eb2 = _limited_exp(-c2 * (u + vv))
+            _, _, e32 = _limited_exp(u / nvt)
+            out[b, i] = ((a / (v1 * v1)) * (-2.0 * e1d + x * e1dd) + k * c2 * c2 * (ea2 - eb2)
+                         + j0 * e32 / (nvt * nvt))
+    return out
+
+
+@numba.njit(cache=True, inline="always")
 def _law(code, v, p):
     if code == SUBCELL_LAW:
         return _subcell(v, p)
@@ -107,7 +129,7 @@ def evaluate_law(code, params, v):
     return j, dj
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _hermite_inverse(y, xl, xh, jl, jh, dl, dh):
     """u at J = y inside one cell from the cubic Hermite interpolant of the inverse u(J) (its
     slopes 1/J' at both ends); the linear estimate where a slope is zero or not finite."""
@@ -125,6 +147,102 @@ def _hermite_inverse(y, xl, xh, jl, jh, dl, dh):
     if x >= xl and x <= xh:
         return x
     return linear
+
+
+@numba.njit(cache=True, inline="always")
+def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol,
+                max_iterations, hint):
+    """(u, dJ/du, inside, cell) for one target y in one law's table (see
+    :func:`invert_table`); ``hint`` is a cell to try first (the previous entry's: targets
+    along a curve come in order)."""
+    ys = sign * y
+    first, last = sign * gj[0], sign * gj[m - 1]
+    if not (ys >= first and ys <= last):
+        # a few rounding units beyond an end (a fold's value computed elsewhere): the end
+        slack = 4.0 * _EPS * abs(y)
+        if not math.isfinite(y):
+            return math.nan, math.nan, False, hint
+        if ys >= first - slack and ys < first:
+            ys, y = first, gj[0]
+        elif ys <= last + slack and ys > last:
+            ys, y = last, gj[m - 1]
+        else:
+            return math.nan, math.nan, False, hint
+    lo, hi = 0, m - 1
+    if hint >= 0 and hint < m - 1:
+        # hunt from the hint outwards in growing steps (targets along a curve come in order),
+        # then bisect what is left (Numerical Recipes, sec. 3.1)
+        if sign * gj[hint] <= ys:
+            lo, step = hint, 1
+            while lo + step < m - 1 and sign * gj[lo + step] <= ys:
+                lo += step
+                step += step
+            hi = min(lo + step, m - 1)
+        else:
+            hi, step = hint, 1
+            while hi - step > 0 and sign * gj[hi - step] > ys:
+                hi -= step
+                step += step
+            lo = max(hi - step, 0)
+    while hi - lo > 1:                              # binary search for the bracketing cell
+        mid = (lo + hi) >> 1
+        if sign * gj[mid] <= ys:
+            lo = mid
+        else:
+            hi = mid
+    xl, xh = gu[lo], gu[hi]
+    jl, jh = gj[lo], gj[hi]
+    if lo == 0 and fold_low > 0.0:
+        x = xl + math.sqrt(2.0 * abs(y - jl) / fold_low)
+    elif hi == m - 1 and fold_high > 0.0:
+        x = xh - math.sqrt(2.0 * abs(jh - y) / fold_high)
+    else:
+        x = _hermite_inverse(y, xl, xh, jl, jh, gs[lo], gs[hi])
+    if not (x >= xl and x <= xh):
+        x = 0.5 * (xl + xh)
+    ftol = 2.0 * _EPS * abs(y)
+    j, dj = _law(code, x, p)
+    g = sign * (j - y)
+    if abs(g) <= ftol:
+        return x, dj, True, lo
+    if dj != 0.0 and math.isfinite(dj):
+        step = (j - y) / dj
+        newton = x - step
+        if newton > xl and newton < xh:
+            # the error the step leaves, with J'' bounded from the slopes at the cell's ends
+            # and at the guess
+            bend = 0.0
+            if x > xl:
+                bend = abs(dj - gs[lo]) / (x - xl)
+            if x < xh:
+                bend = max(bend, abs(gs[hi] - dj) / (xh - x))
+            error = 4.0 * bend * step * step / (2.0 * abs(dj))
+            if error <= xtol + rtol * abs(newton) and math.isfinite(bend):
+                side = gs[hi] if newton > x else gs[lo]
+                end = xh if newton > x else xl
+                slope = dj + (side - dj) * (newton - x) / (end - x) if end != x else dj
+                return newton, slope, True, lo
+    # the general search: Newton inside the shrinking bracket, bisection as needed
+    previous = xh - xl
+    for _ in range(max_iterations):
+        if g < 0.0:
+            xl = x
+        else:
+            xh = x
+        dg = sign * dj
+        newton = x - g / dg if dg != 0.0 else math.nan
+        if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
+            step = newton - x
+            x = newton
+        else:
+            step = 0.5 * (xh - xl)
+            x = xl + step
+        previous = step
+        j, dj = _law(code, x, p)
+        g = sign * (j - y)
+        if abs(g) <= ftol or abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
+            break
+    return x, dj, True, lo
 
 
 @numba.njit(cache=True)
@@ -170,88 +288,54 @@ def invert_table(code, params, grid_u, grid_j, grid_slope, increasing, fold_low,
     """
     rows, n = targets.shape
     m = grid_u.shape[1]
-    shared = grid_u.shape[0] == 1
     sign = 1.0 if increasing else -1.0
-    u_out = np.full((rows, n), np.nan)
-    slope_out = np.full((rows, n), np.nan)
-    inside = np.zeros((rows, n), dtype=np.bool_)
+    u_out = np.empty((rows, n))
+    slope_out = np.empty((rows, n))
+    inside = np.empty((rows, n), dtype=np.bool_)
     for b in range(rows):
-        r = 0 if shared else b
+        r = 0 if grid_u.shape[0] == 1 else b
         p = params[0] if params.shape[0] == 1 else params[b]
-        gu = grid_u[r]
-        gj = grid_j[r]
-        gs = grid_slope[r]
-        first, last = sign * gj[0], sign * gj[m - 1]
+        gu, gj, gs, fl, fh = grid_u[r], grid_j[r], grid_slope[r], fold_low[r], fold_high[r]
+        cell = -1
         for i in range(n):
-            y = targets[b, i]
-            ys = sign * y
-            if not (ys >= first and ys <= last):
-                continue
-            inside[b, i] = True
-            lo, hi = 0, m - 1
-            while hi - lo > 1:                      # binary search for the bracketing cell
-                mid = (lo + hi) >> 1
-                if sign * gj[mid] <= ys:
-                    lo = mid
-                else:
-                    hi = mid
-            xl, xh = gu[lo], gu[hi]
-            jl, jh = gj[lo], gj[hi]
-            if lo == 0 and fold_low[r] > 0.0:
-                x = xl + math.sqrt(2.0 * abs(y - jl) / fold_low[r])
-            elif hi == m - 1 and fold_high[r] > 0.0:
-                x = xh - math.sqrt(2.0 * abs(jh - y) / fold_high[r])
-            else:
-                x = _hermite_inverse(y, xl, xh, jl, jh, gs[lo], gs[hi])
-            if not (x >= xl and x <= xh):
-                x = 0.5 * (xl + xh)
-            ftol = 2.0 * _EPS * abs(y)
-            j, dj = _law(code, x, p)
-            g = sign * (j - y)
-            if abs(g) <= ftol:
-                u_out[b, i] = x
-                slope_out[b, i] = dj
-                continue
-            if dj != 0.0 and math.isfinite(dj):
-                step = (j - y) / dj
-                newton = x - step
-                if newton > xl and newton < xh:
-                    # J'' bound from the slopes at the cell's ends and at the guess
-                    bend = 0.0
-                    if x > xl:
-                        bend = abs(dj - gs[lo]) / (x - xl)
-                    if x < xh:
-                        bend = max(bend, abs(gs[hi] - dj) / (xh - x))
-                    error = 4.0 * bend * step * step / (2.0 * abs(dj))
-                    if error <= xtol + rtol * abs(newton) and math.isfinite(bend):
-                        side = gs[hi] if newton > x else gs[lo]
-                        end = xh if newton > x else xl
-                        u_out[b, i] = newton
-                        slope_out[b, i] = dj + (side - dj) * (newton - x) / (end - x) \
-                            if end != x else dj
-                        continue
-            # the general search: Newton inside the shrinking bracket, bisection as needed
-            previous = xh - xl
-            for _ in range(max_iterations):
-                if g < 0.0:
-                    xl = x
-                else:
-                    xh = x
-                dg = sign * dj
-                newton = x - g / dg if dg != 0.0 else math.nan
-                if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
-                    step = newton - x
-                    x = newton
-                else:
-                    step = 0.5 * (xh - xl)
-                    x = xl + step
-                previous = step
-                j, dj = _law(code, x, p)
-                g = sign * (j - y)
-                if abs(g) <= ftol or abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
-                    break
-            u_out[b, i] = x
-            slope_out[b, i] = dj
+            u_out[b, i], slope_out[b, i], inside[b, i], cell = _invert_one(
+                code, p, gu, gj, gs, m, sign, fl, fh, targets[b, i], xtol, rtol,
+                max_iterations, cell)
+    return u_out, slope_out, inside
+
+
+@numba.njit(cache=True)
+def invert_elements(codes, params, grid_u, grid_j, grid_slope, lengths, signs, fold_low,
+                    fold_high, lower, upper, current, xtol, rtol, max_iterations):
+    """Every element of a string inverted at the string's current, in one compiled pass.
+
+    Element e (of E) has law ``codes[e]``, parameter rows ``params[e]`` (R, P), a table of
+    ``lengths[e]`` samples in ``grid_*[e]`` (R, M, padded), direction ``signs[e]`` (+1 where J
+    rises with u), fold curvatures ``fold_low[e]``, ``fold_high[e]`` (R,), and the range
+    [``lower[e]``, ``upper[e]``] (R,) its current is clipped to (a tunnel junction's branch
+    ends at its peak or valley). ``current`` (B, N), B = R or R = 1.
+
+    Returns u, dJ/du (E, B, N) and ``inside`` (E, B, N): where the clipped current lies in
+    the element's table (elsewhere u is NaN and the caller solves the entry its own way).
+    """
+    count = codes.shape[0]
+    rows, n = current.shape
+    u_out = np.empty((count, rows, n))
+    slope_out = np.empty((count, rows, n))
+    inside = np.empty((count, rows, n), dtype=np.bool_)
+    shared = grid_u.shape[1] == 1
+    for e in range(count):
+        m = lengths[e]
+        code, sign = codes[e], signs[e]
+        for b in range(rows):
+            r = 0 if shared else b
+            p, gu, gj, gs = params[e, r], grid_u[e, r], grid_j[e, r], grid_slope[e, r]
+            low, high, fl, fh = lower[e, r], upper[e, r], fold_low[e, r], fold_high[e, r]
+            cell = -1
+            for i in range(n):
+                y = min(max(current[b, i], low), high)
+                u_out[e, b, i], slope_out[e, b, i], inside[e, b, i], cell = _invert_one(
+                    code, p, gu, gj, gs, m, sign, fl, fh, y, xtol, rtol, max_iterations, cell)
     return u_out, slope_out, inside
 
 
@@ -291,3 +375,92 @@ def invert(code, params, table, targets, *, increasing, fold_low=None, fold_high
                         np.ascontiguousarray(grid_j), np.ascontiguousarray(grid_slope),
                         bool(increasing), fold_low, fold_high,
                         np.ascontiguousarray(targets), XTOL, RTOL, MAX_ITERATIONS)
+
+
+@numba.njit(cache=True)
+def subcell_terminal_current(params, series, voltage, xtol, rtol, max_iterations):
+    """Current J and dJ/dV of subcells at terminal voltages V, with series resistance Rs.
+
+    Solves V = Vj - Rs J(Vj) for the junction voltage Vj (strictly increasing in Vj) inside its
+    exact bracket between V and V + Rs J(V) (J falls with Vj), by Newton steps safeguarded by
+    bisection, then J = J(Vj) and dJ/dV = J'/(1 - Rs J'). ``params`` (R, 8) as for the subcell
+    law, ``series`` (R,), ``voltage`` (B, N) with B = R or R = 1. The same solve as
+    :func:`siltandem.laws.diode.subcell_current`, compiled.
+    """
+    rows, n = voltage.shape
+    current = np.empty((rows, n))
+    slope = np.empty((rows, n))
+    for b in range(rows):
+        r = 0 if params.shape[0] == 1 else b
+        p = params[r]
+        rs = series[r]
+        vbr = p[5]
+        for i in range(n):
+            v = voltage[b, i]
+            j, dj = _subcell(v, p)
+            if rs == 0.0 or not math.isfinite(j):
+                current[b, i], slope[b, i] = j, dj
+                continue
+            other = v + rs * j
+            xl = min(v, other) - 1e-12
+            xh = max(v, other) + 1e-12
+            if math.isfinite(vbr) and p[6] > 0.0:
+                xl = max(xl, vbr * (1.0 - 1e-12))
+            x = min(max(other, xl), xh)
+            previous = xh - xl
+            j, dj = _subcell(x, p)
+            for _ in range(max_iterations):
+                h = x - rs * j - v
+                dh = 1.0 - rs * dj
+                if h == 0.0:
+                    break
+                if h < 0.0:
+                    xl = x
+                else:
+                    xh = x
+                newton = x - h / dh
+                if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
+                    step = newton - x
+                    x = newton
+                else:
+                    step = 0.5 * (xh - xl)
+                    x = xl + step
+                previous = step
+                j, dj = _subcell(x, p)
+                if abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
+                    break
+            current[b, i] = j
+            slope[b, i] = dj / (1.0 - rs * dj)
+    return current, slope
+
+
+@numba.njit(cache=True)
+def subcell_table(params, forward_points, reverse_points):
+    """Grid, J and dJ/dVj of a subcell's junction law for its inverse table, one row per
+    parameter row: forward from 0 to where the J01 diode alone carries three times the
+    photocurrent (plus 4 Vt), and in reverse either uniformly down to just above the breakdown
+    voltage (or -3 V), or geometrically from -1e-3 V to -1e7 V (the shunt's nearly straight
+    reverse branch)."""
+    rows = params.shape[0]
+    m = reverse_points + forward_points
+    grid = np.empty((rows, m))
+    j = np.empty((rows, m))
+    dj = np.empty((rows, m))
+    for r in range(rows):
+        p = params[r]
+        jph, j01, vt, vbr, a = p[0], p[1], p[4], p[5], p[6]
+        highest = vt * math.log1p(3.0 * max(jph, 1e-3) / j01) + 4.0 * vt
+        if a > 0.0 and math.isfinite(vbr):
+            lowest = max(vbr * (1.0 - 1e-9), -3.0)
+            for k in range(reverse_points):
+                grid[r, k] = lowest * (1.0 - k / reverse_points)
+        else:
+            ratio = math.log(1e-3 / 1e7) / (reverse_points - 1)
+            for k in range(reverse_points):
+                grid[r, k] = -1e7 * math.exp(ratio * k)
+            grid[r, reverse_points - 1] = -1e-3
+        for k in range(forward_points):
+            grid[r, reverse_points + k] = highest * (k / (forward_points - 1))
+        for k in range(m):
+            j[r, k], dj[r, k] = _subcell(grid[r, k], p)
+    return grid, j, dj

@@ -24,6 +24,7 @@ import warnings
 
 import numpy as np
 
+from . import kernels
 from .elements import take_rows
 from .constants import thermal_voltage_V
 from .inverse import polish_root
@@ -98,6 +99,132 @@ class _Extrema(dict):
         return value
 
 
+class _CompiledGroup:
+    """The string's elements that invert through tables, packed for one compiled pass
+    (kernels.invert_elements) at one branch state: subcells other than the pilot with a
+    table, tunnel junctions on the requested branch with one. Built once per branch state."""
+
+    def __init__(self, string, state):
+        temperature = string.temperature_K
+        members, codes, params, tables, signs, folds, clips, ranges = [], [], [], [], [], [], \
+            [], []
+        subcell_number = -1
+        for index, element in enumerate(string.elements):
+            if element.kind == "subcell":
+                subcell_number += 1
+                if string.single_pilot is None or subcell_number == string.single_pilot or \
+                        not element._needs_table(temperature):
+                    continue
+                table = element._table(temperature)
+                rows = table.rows
+                members.append((index, element, None))
+                codes.append(kernels.SUBCELL_LAW)
+                params.append(element._law_parameters(temperature))
+                tables.append(table)
+                signs.append(-1.0)
+                folds.append((0.0, 0.0))
+                clips.append((-np.inf, np.inf))
+                ranges.append((-np.inf, np.inf))
+            elif element.kind == "tunnel":
+                branch = state.get(element.name, "tunnel")
+                packed = element._branch_table(temperature, branch)
+                if packed is None:
+                    continue
+                table, peak_curvature, valley_curvature = packed
+                if branch == "tunnel":
+                    peak_v, peak_j = element.peak(temperature)
+                    valley_j = np.full_like(peak_j, -np.inf)
+                else:
+                    _, peak_j, _, valley_j = string.tunnel_extrema[element.name]
+                members.append((index, element, branch))
+                codes.append(kernels.TUNNEL_LAW)
+                params.append(element._law_parameters(temperature))
+                tables.append(table)
+                signs.append(-1.0 if branch == "negative" else 1.0)
+                folds.append({"tunnel": (0.0, peak_curvature),
+                              "negative": (peak_curvature, valley_curvature),
+                              "thermal": (valley_curvature, 0.0)}[branch])
+                # the current is clipped to the branch's ends; beyond them by more than
+                # 1e-9 relative the branch has no voltage (NaN)
+                clips.append({"tunnel": (-np.inf, peak_j), "negative": (valley_j, peak_j),
+                              "thermal": (valley_j, np.inf)}[branch])
+                ranges.append({"tunnel": (-np.inf, peak_j * (1 + 1e-9)),
+                               "negative": (valley_j * (1 - 1e-9), peak_j * (1 + 1e-9)),
+                               "thermal": (valley_j * (1 - 1e-9), np.inf)}[branch])
+        self.members = members
+        if not members:
+            return
+        count = len(members)
+        rows = max([t.rows for t in tables] + [p.shape[0] for p in params])
+        width = max(t.u.shape[1] for t in tables)
+        self.rows = rows
+        self.codes = np.array(codes, dtype=np.int64)
+        self.signs = np.array(signs)
+        self.lengths = np.array([t.u.shape[1] for t in tables], dtype=np.int64)
+        self.params = np.empty((count, rows, params[0].shape[1]))
+        # padded tables: every row (R, width), the samples first
+        self.grid_u = np.zeros((count, rows, width))
+        self.grid_j = np.zeros((count, rows, width))
+        self.grid_slope = np.zeros((count, rows, width))
+        per_row = {name: np.empty((count, rows)) for name in
+                   ("fold_low", "fold_high", "lower", "upper", "range_low", "range_high",
+                    "series")}
+        for e, (table, (index, element, _)) in enumerate(zip(tables, members)):
+            m = table.u.shape[1]
+            self.params[e] = params[e]
+            self.grid_u[e, :, :m] = table.u
+            self.grid_j[e, :, :m] = table.j
+            self.grid_slope[e, :, :m] = table.slope
+            for name, value in (("fold_low", folds[e][0]), ("fold_high", folds[e][1]),
+                                ("lower", clips[e][0]), ("upper", clips[e][1]),
+                                ("range_low", ranges[e][0]), ("range_high", ranges[e][1]),
+                                ("series", element.series_ohm_m2 if element.kind == "subcell"
+                                 else 0.0)):
+                per_row[name][e] = np.ravel(value)
+        self.fold_low, self.fold_high = per_row["fold_low"], per_row["fold_high"]
+        self.lower, self.upper = per_row["lower"], per_row["upper"]
+        self.range_low = per_row["range_low"][:, :, None]
+        self.range_high = per_row["range_high"][:, :, None]
+        self.series = per_row["series"][:, :, None]
+        # the element's voltage in the stack current's direction: Vj - J Rs for a subcell,
+        # -u for a tunnel junction
+        self.voltage_sign = np.array([1.0 if e.kind == "subcell" else -1.0
+                                      for _, e, _ in members])[:, None, None]
+
+    def voltages(self, string, current):
+        """(V, dV/dJ) of each member at ``current`` (B, N): two (E, B, N) arrays."""
+        current = np.asarray(current, dtype=float)
+        if self.rows > 1 and current.shape[0] != self.rows:
+            current = np.broadcast_to(current, (self.rows, current.shape[1]))
+        current = np.ascontiguousarray(current)
+        u, slope, covered = kernels.invert_elements(
+            self.codes, self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths,
+            self.signs, self.fold_low, self.fold_high, self.lower, self.upper, current,
+            kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
+        missing = ~covered & ~np.isnan(current)[None]
+        if missing.any():
+            # beyond a table (rare): the element's own general inverse for those entries
+            for e in np.flatnonzero(missing.reshape(len(self.members), -1).any(axis=1)):
+                _, element, branch = self.members[e]
+                if element.kind == "subcell":
+                    vj, slope_j = element._junction_voltage_fast(current, string.temperature_K)
+                else:
+                    vj, slope_j = element.junction_voltage(
+                        current, string.temperature_K, branch,
+                        None if branch == "tunnel" else string.tunnel_extrema[element.name],
+                        with_slope=True)
+                u[e] = np.where(missing[e], np.broadcast_to(vj, current.shape), u[e])
+                slope[e] = np.where(missing[e], np.broadcast_to(slope_j, current.shape),
+                                    slope[e])
+        valid = (current[None] >= self.range_low) & (current[None] <= self.range_high)
+        u = np.where(valid, u, np.nan)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            inverse_slope = np.where(np.isfinite(u), 1.0 / slope,
+                                     np.where(self.voltage_sign > 0, -np.inf, np.nan))
+        voltage = self.voltage_sign * u - self.series * current[None]
+        return voltage, self.voltage_sign * inverse_slope - self.series
+
+
 class _String:
     """Evaluates a string of elements along the pilot junction voltage t (arrays (B, N))."""
 
@@ -121,6 +248,14 @@ class _String:
         # one pilot for every design (the common case): only its forward law is needed
         first = int(self.pilot_index[0, 0])
         self.single_pilot = first if np.all(self.pilot_index == first) else None
+        # per branch state: the elements inverted together in one compiled pass
+        self._groups = {}
+
+    def _group(self, branches):
+        key = tuple(branches.get(t.name, "tunnel") for t in self.tunnels)
+        if key not in self._groups:
+            self._groups[key] = _CompiledGroup(self, branches)
+        return self._groups[key]
 
     def rows(self, rows):
         """The same string restricted to some designs of the batch."""
@@ -185,9 +320,18 @@ class _String:
             pilot_v = self._select([f[2] for f in forward])
             pilot_dv = self._select([f[3] for f in forward])
         voltages, dvoltage = [], np.zeros(np.shape(t))
+        group = self._group(branches)
+        packed = {}
+        if group.members:
+            group_v, group_slope = group.voltages(self, current)
+            packed = {index: k for k, (index, _, _) in enumerate(group.members)}
         subcell_number = 0
-        for element in self.elements:
-            if element.kind == "subcell":
+        for index, element in enumerate(self.elements):
+            if index in packed:
+                subcell_number += element.kind == "subcell"
+                v = group_v[packed[index]]
+                dv_dt = group_slope[packed[index]] * dcurrent
+            elif element.kind == "subcell":
                 is_pilot = self.pilot_index == subcell_number
                 subcell_number += 1
                 if self.single_pilot is not None and self.single_pilot != subcell_number - 1:
