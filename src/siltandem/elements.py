@@ -46,6 +46,15 @@ def _temperature_key(temperature_K):
     return float(array) if array.ndim == 0 else array.tobytes()
 
 
+def _parameter_rows(*columns):
+    """Columns of (R, 1), (1, 1) or scalar values side by side: a C-ordered (R, k) array."""
+    arrays = [np.asarray(c, dtype=float).reshape(-1) for c in columns]
+    out = np.empty((max(a.size for a in arrays), len(arrays)))
+    for k, a in enumerate(arrays):
+        out[:, k] = a
+    return out
+
+
 def batch(value):
     """Any scalar or 1-D array -> float array of shape (B, 1)."""
     return np.asarray(value, dtype=float).reshape(-1, 1)
@@ -167,13 +176,12 @@ class Subcell:
         """(R, 8) rows (Jph, J01, J02, G, Vt, Vbr, a, m) of the compiled law (kernels.py)."""
         key = ("parameters", _temperature_key(temperature_K))
         if key not in self._cache:
-            junction = self._junction(temperature_K)
-            vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float)) * np.ones((1, 1))
-            columns = np.broadcast_arrays(
-                junction["photocurrent_A_m2"], junction["j01_A_m2"], self.j02_A_m2,
-                self.shunt_S_m2, vt, self.breakdown_V, self.breakdown_factor,
-                self.breakdown_exponent)
-            self._cache[key] = np.ascontiguousarray(np.concatenate(columns, axis=1), dtype=float)
+            if self.photocurrent_A_m2 is None:
+                self._junction(temperature_K)                 # says what is missing
+            self._cache[key] = _parameter_rows(
+                self.photocurrent_A_m2, self.j01_A_m2(temperature_K), self.j02_A_m2,
+                self.shunt_S_m2, thermal_voltage_V(np.asarray(temperature_K, dtype=float)),
+                self.breakdown_V, self.breakdown_factor, self.breakdown_exponent)
         return self._cache[key]
 
     def _junction_voltage_fast(self, current_A_m2, temperature_K):
@@ -353,13 +361,18 @@ class TunnelJunction:
             a, v1, jv, vv, c2, j0, n, t = self._prepared(temperature_K)
             nvt = n * thermal_voltage_V(t)
             k = jv / -np.expm1(-2.0 * c2 * vv)
-            columns = np.broadcast_arrays(*(np.asarray(x, dtype=float).reshape(-1, 1) for x in
-                                            (a, v1, jv, vv, c2, j0, nvt, k)))
-            self._cache[key] = np.ascontiguousarray(np.concatenate(columns, axis=1))
+            self._cache[key] = _parameter_rows(a, v1, jv, vv, c2, j0, nvt, k)
         return self._cache[key]
 
     def junction_current(self, u, temperature_K):
-        """J [A/m^2] and dJ/du at forward junction voltage u [V]."""
+        """J [A/m^2] and dJ/du at forward junction voltage u [V] (arrays (B, N): the law of
+        laws/esaki.py compiled, kernels.py)."""
+        u = np.asarray(u, dtype=float)
+        if u.ndim == 2:
+            params = self._law_parameters(temperature_K)
+            if params.shape[0] > 1 and u.shape[0] != params.shape[0]:
+                u = np.broadcast_to(u, (params.shape[0], u.shape[1]))
+            return kernels.evaluate_law(kernels.TUNNEL_LAW, params, np.ascontiguousarray(u))
         j, slope, _ = esaki.evaluate_prepared(u, self._prepared(temperature_K))
         return j, slope
 

@@ -209,15 +209,13 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
         step = (j - y) / dj
         newton = x - step
         if newton > xl and newton < xh:
-            # the error the step leaves, with J'' bounded from the slopes at the cell's ends
-            # and at the guess
-            bend = 0.0
-            if x > xl:
-                bend = abs(dj - gs[lo]) / (x - xl)
-            if x < xh:
-                bend = max(bend, abs(gs[hi] - dj) / (xh - x))
-            error = 4.0 * bend * step * step / (2.0 * abs(dj))
-            if error <= xtol + rtol * abs(newton) and math.isfinite(bend):
+            # the error the step leaves, |J''| s^2 / (2 |J'|), with |J''| bounded by 4 times
+            # the larger of the slope's mean rates of change from the cell's ends to the guess
+            # (written without divisions: each side's rate is |dJ' / du| over its distance)
+            tolerance = (xtol + rtol * abs(newton)) * abs(dj)
+            squared = 2.0 * step * step
+            if (squared * abs(dj - gs[lo]) <= tolerance * (x - xl)
+                    and squared * abs(gs[hi] - dj) <= tolerance * (xh - x)):
                 side = gs[hi] if newton > x else gs[lo]
                 end = xh if newton > x else xl
                 slope = dj + (side - dj) * (newton - x) / (end - x) if end != x else dj
@@ -464,3 +462,108 @@ def subcell_table(params, forward_points, reverse_points):
         for k in range(m):
             j[r, k], dj[r, k] = _subcell(grid[r, k], p)
     return grid, j, dj
+
+
+@numba.njit(cache=True)
+def string_pass(pilot, pilot_series, t, codes, params, grid_u, grid_j, grid_slope, lengths,
+                signs, fold_low, fold_high, lower, upper, range_low, range_high, voltage_sign,
+                series, xtol, rtol, max_iterations):
+    """One evaluation of a series string along the pilot junction voltage t, compiled.
+
+    The pilot subcell's forward law gives the string current J(t) (parameter rows ``pilot``
+    (R, 8), series resistance ``pilot_series`` (R,)); every packed element (arrays as for
+    :func:`invert_elements`, plus ``range_low``/``range_high`` (E, R): beyond them the element
+    has no voltage, NaN; ``voltage_sign`` (E,): +1 for a subcell, whose voltage is Vj - J Rs,
+    -1 for a tunnel junction, whose voltage is -u; ``series`` (E, R)) is inverted at J.
+
+    Returns
+    -------
+    current, dcurrent : (B, N)
+        J and dJ/dt.
+    voltage, dvoltage : (B, N)
+        The pilot's voltage plus every packed element's, and d/dt of the sum.
+    element_voltage, element_slope : (E, B, N)
+        Each packed element's voltage and dV/dJ.
+    covered : (E, B, N) bool
+        Where the element's table held the current (elsewhere the caller solves the entry its
+        own way and corrects the sums).
+    """
+    rows, n = t.shape
+    count = codes.shape[0]
+    current = np.empty((rows, n))
+    dcurrent = np.empty((rows, n))
+    voltage = np.empty((rows, n))
+    dvoltage = np.empty((rows, n))
+    element_voltage = np.empty((count, rows, n))
+    element_slope = np.empty((count, rows, n))
+    covered = np.empty((count, rows, n), dtype=np.bool_)
+    shared = grid_u.shape[1] == 1
+    for b in range(rows):
+        pp = pilot[0] if pilot.shape[0] == 1 else pilot[b]
+        rp = pilot_series[0] if pilot_series.shape[0] == 1 else pilot_series[b]
+        for i in range(n):
+            j, dj = _subcell(t[b, i], pp)
+            current[b, i] = j
+            dcurrent[b, i] = dj
+            voltage[b, i] = t[b, i] - j * rp
+            dvoltage[b, i] = 1.0 - rp * dj
+    for e in range(count):
+        m = lengths[e]
+        code, sign, vsign = codes[e], signs[e], voltage_sign[e]
+        for b in range(rows):
+            r = 0 if shared else b
+            p, gu, gj, gs = params[e, r], grid_u[e, r], grid_j[e, r], grid_slope[e, r]
+            low, high, fl, fh = lower[e, r], upper[e, r], fold_low[e, r], fold_high[e, r]
+            range_lo, range_hi, rs = range_low[e, r], range_high[e, r], series[e, r]
+            cell = -1
+            for i in range(n):
+                j = current[b, i]
+                y = min(max(j, low), high)
+                u, slope, inside, cell = _invert_one(code, p, gu, gj, gs, m, sign, fl, fh, y,
+                                                     xtol, rtol, max_iterations, cell)
+                covered[e, b, i] = inside or math.isnan(j)
+                if not (j >= range_lo and j <= range_hi):
+                    u = math.nan
+                if math.isfinite(u):
+                    inverse_slope = 1.0 / slope
+                else:
+                    inverse_slope = -math.inf if vsign > 0.0 else math.nan
+                v = vsign * u - rs * j
+                dvdj = vsign * inverse_slope - rs
+                element_voltage[e, b, i] = v
+                element_slope[e, b, i] = dvdj
+                voltage[b, i] += v
+                dvoltage[b, i] += dvdj * dcurrent[b, i]
+    return current, dcurrent, voltage, dvoltage, element_voltage, element_slope, covered
+
+
+@numba.njit(cache=True)
+def exact_peak_shape(peak, peak_v, valley, valley_v, c2, j0, nvt):
+    """Tunnelling-term prefactor A and voltage scale V1 that put the combined Esaki curve's
+    maximum exactly at (Vp, Jp): u = Vp/V1 = 1 + R'(Vp) Vp / (Jp - R(Vp)), A = (Jp - R(Vp)) /
+    (u e^(1-u)), with R the excess plus thermal current (laws/esaki.py,
+    tunnel_term_for_exact_peak, says more). 1-D arrays of one length in; (A, V1, ok) out, ok
+    False where Jp <= R(Vp) or the curvature at Vp is not negative (the numpy law then raises
+    the error that says why)."""
+    n = peak.shape[0]
+    a = np.empty(n)
+    v1 = np.empty(n)
+    ok = np.empty(n, dtype=np.bool_)
+    p = np.zeros(8)
+    for i in range(n):
+        k = valley[i] / -math.expm1(-2.0 * c2[i] * valley_v[i])
+        p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7] = (0.0, 1.0, valley[i], valley_v[i],
+                                                          c2[i], j0[i], nvt[i], k)
+        rest, rest1 = _tunnel(peak_v[i], p)
+        margin = peak[i] - rest
+        u = 1.0 + rest1 * peak_v[i] / margin
+        v1[i] = peak_v[i] / u
+        a[i] = margin / (u * math.exp(1.0 - u))
+        # R'' at Vp: the excess and thermal terms' curvature (exponentials below the limit)
+        _, _, ea2 = _limited_exp(c2[i] * (peak_v[i] - valley_v[i]))
+        _, _, eb2 = _limited_exp(-c2[i] * (peak_v[i] + valley_v[i]))
+        _, _, e32 = _limited_exp(peak_v[i] / nvt[i])
+        rest2 = k * c2[i] * c2[i] * (ea2 - eb2) + j0[i] * e32 / (nvt[i] * nvt[i])
+        curvature = (a[i] / v1[i] ** 2) * math.exp(1.0 - u) * (u - 2.0) + rest2
+        ok[i] = margin > 0.0 and curvature < 0.0
+    return a, v1, ok

@@ -152,16 +152,24 @@ class _CompiledGroup:
                                "negative": (valley_j * (1 - 1e-9), peak_j * (1 + 1e-9)),
                                "thermal": (valley_j * (1 - 1e-9), np.inf)}[branch])
         self.members = members
-        if not members:
+        self.index = {index: k for k, (index, _, _) in enumerate(members)}
+        # with one pilot for every design, its forward law runs in the same compiled pass
+        self.pilot = None
+        if string.single_pilot is not None:
+            self.pilot = string.subcells[string.single_pilot]
+            self.pilot_index = next(k for k, e in enumerate(string.elements) if e is self.pilot)
+            self.pilot_params = self.pilot._law_parameters(temperature)
+        if not members and self.pilot is None:
             return
         count = len(members)
-        rows = max([t.rows for t in tables] + [p.shape[0] for p in params])
-        width = max(t.u.shape[1] for t in tables)
+        rows = max([t.rows for t in tables] + [p.shape[0] for p in params]
+                   + ([self.pilot_params.shape[0]] if self.pilot is not None else []))
+        width = max([t.u.shape[1] for t in tables] + [1])
         self.rows = rows
         self.codes = np.array(codes, dtype=np.int64)
         self.signs = np.array(signs)
         self.lengths = np.array([t.u.shape[1] for t in tables], dtype=np.int64)
-        self.params = np.empty((count, rows, params[0].shape[1]))
+        self.params = np.empty((count, rows, 8))
         # padded tables: every row (R, width), the samples first
         self.grid_u = np.zeros((count, rows, width))
         self.grid_j = np.zeros((count, rows, width))
@@ -190,6 +198,25 @@ class _CompiledGroup:
         # -u for a tunnel junction
         self.voltage_sign = np.array([1.0 if e.kind == "subcell" else -1.0
                                       for _, e, _ in members])[:, None, None]
+        if self.pilot is not None:
+            self.pilot_series = np.ascontiguousarray(np.broadcast_to(
+                self.pilot.series_ohm_m2, (self.pilot_params.shape[0], 1))[:, 0], dtype=float)
+
+    def evaluate(self, t):
+        """The fused compiled pass (kernels.string_pass) at pilot voltages ``t``: None where
+        some current lies beyond an element's table (the caller then takes the general route)."""
+        t = np.asarray(t, dtype=float)
+        if self.rows > 1 and t.shape[0] != self.rows:
+            t = np.broadcast_to(t, (self.rows, t.shape[1]))
+        out = kernels.string_pass(
+            self.pilot_params, self.pilot_series, np.ascontiguousarray(t), self.codes,
+            self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths, self.signs,
+            self.fold_low, self.fold_high, self.lower, self.upper, self.range_low[:, :, 0],
+            self.range_high[:, :, 0], self.voltage_sign[:, 0, 0], self.series[:, :, 0],
+            kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
+        if not out[-1].all():
+            return None
+        return out
 
     def voltages(self, string, current):
         """(V, dV/dJ) of each member at ``current`` (B, N): two (E, B, N) arrays."""
@@ -299,6 +326,10 @@ class _String:
                              for s in self.subcells])
 
     def lowest_pilot_voltage(self):
+        if self.single_pilot is not None:
+            lowest = self.subcells[self.single_pilot].lowest_junction_voltage()
+            return np.broadcast_to(np.maximum(lowest * (1 - 1e-9), LOWEST_PILOT_VOLTAGE_V),
+                                   self.pilot_index.shape)
         return self._select([np.maximum(s.lowest_junction_voltage() * (1 - 1e-9),
                                         LOWEST_PILOT_VOLTAGE_V) for s in self.subcells])
 
@@ -310,6 +341,11 @@ class _String:
         ``voltages`` (one per element) and, with ``slopes``, ``dcurrent`` and ``dvoltage``.
         """
         branches = branches or {}
+        group = self._group(branches)
+        if group.pilot is not None and np.ndim(t) == 2:
+            fused = group.evaluate(t)
+            if fused is not None:
+                return self._finish_fused(t, fused, group, branches, slopes)
         if self.single_pilot is not None:
             current, dcurrent, pilot_v, pilot_dv = self.subcells[self.single_pilot].pilot_current(
                 t, self.temperature_K)
@@ -320,7 +356,6 @@ class _String:
             pilot_v = self._select([f[2] for f in forward])
             pilot_dv = self._select([f[3] for f in forward])
         voltages, dvoltage = [], np.zeros(np.shape(t))
-        group = self._group(branches)
         packed = {}
         if group.members:
             group_v, group_slope = group.voltages(self, current)
@@ -357,6 +392,36 @@ class _String:
             voltages.append(v)
             dvoltage = dvoltage + dv_dt
         voltage = functools.reduce(np.add, voltages)
+        out = dict(current=current, voltage=voltage, voltages=voltages)
+        if slopes:
+            out.update(dcurrent=dcurrent, dvoltage=dvoltage)
+        return out
+
+
+    def _finish_fused(self, t, fused, group, branches, slopes):
+        """The rest of :meth:`evaluate` after the fused compiled pass: the elements it did not
+        take (resistors, isotype interfaces, subcells and junctions without tables)."""
+        current, dcurrent, voltage, dvoltage, element_voltage, _, _ = fused
+        voltages = []
+        for index, element in enumerate(self.elements):
+            k = group.index.get(index)
+            if k is not None:
+                voltages.append(element_voltage[k])
+                continue
+            if index == group.pilot_index:
+                voltages.append(t - current * element.series_ohm_m2)
+                continue
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                if element.kind == "tunnel":
+                    branch = branches.get(element.name, "tunnel")
+                    v, slope = element.voltage(current, self.temperature_K, branch,
+                                               None if branch == "tunnel" else
+                                               self.tunnel_extrema[element.name])
+                else:
+                    v, slope = element.voltage(current, self.temperature_K)
+                voltage = voltage + v
+                dvoltage = dvoltage + slope * dcurrent
+            voltages.append(v)
         out = dict(current=current, voltage=voltage, voltages=voltages)
         if slopes:
             out.update(dcurrent=dcurrent, dvoltage=dvoltage)

@@ -26,6 +26,7 @@ import numpy as np
 from numpy.polynomial.legendre import leggauss
 from scipy.optimize import elementwise
 
+from siltandem import kernels
 from siltandem.constants import (
     BOLTZMANN_EV_K,
     ELECTRON_MASS_KG,
@@ -342,6 +343,14 @@ def evaluate_prepared(voltage_V, prepared):
 
 
 def _exact_peak_shape(jp, vp, jv, vv, c2, j0, n, t):
+    # the common case compiled (siltandem.kernels.exact_peak_shape); where it finds no peak,
+    # the lines below say why
+    shape = np.broadcast(jp, vp, jv, vv, c2, j0, n, t).shape
+    flat = [np.ascontiguousarray(np.broadcast_to(x, shape), dtype=float).reshape(-1)
+            for x in (jp, vp, jv, vv, c2, j0, n * thermal_voltage_V(t))]
+    a, v1, ok = kernels.exact_peak_shape(*flat)
+    if ok.all():
+        return a.reshape(shape), v1.reshape(shape)
     rest, rest1, rest2 = (x + y for x, y in zip(_excess_term(vp, jv, vv, c2), _thermal_term(vp, j0, n, t)))
     margin = jp - rest
     found = _first_bad(~(margin > 0), [rest, jp])
