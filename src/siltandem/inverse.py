@@ -125,7 +125,7 @@ class LawTable:
 
 
 def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=1e-13,
-                rtol=4e-16, ftol=0.0, max_iterations=60):
+                rtol=4e-16, ftol=0.0, max_iterations=60, plain_steps=2):
     """Root of ``residual`` inside exact brackets, by Newton steps that never leave the bracket.
 
     Parameters
@@ -143,6 +143,9 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     ftol : float or ndarray
         A residual this small also ends the search: the root is then fixed only to rounding
         (pass a few rounding units of the target, as the element inverses do).
+    plain_steps : int
+        Plain Newton steps tried on every entry before the safeguarded search (at least 2);
+        an entry is taken as soon as its last two steps pass the test below.
 
     Returns
     -------
@@ -164,21 +167,33 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
     x = np.array(guess, dtype=float)
     done = np.zeros(x.shape, dtype=bool) if active is None else ~np.broadcast_to(active, x.shape)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        # common case first: two plain Newton steps, kept for each entry where they stay in
-        # the bracket and show quadratic convergence (predicted next step below the tolerance)
+        # common case first: plain Newton steps, each entry kept as soon as its last two steps
+        # stay in the bracket and show quadratic convergence (predicted next step below the
+        # tolerance); a kept entry is frozen there
         f, df = residual(x)
         x1 = x - f / df
-        f1, df1 = residual(x1)
-        x2 = x1 - f1 / df1
-        s1, s2 = np.abs(x1 - x), np.abs(x2 - x1)
-        tolerance = xtol + rtol * np.abs(x2)
-        # the quadratic model holds only where the slope barely changed over the step
-        steady = np.abs(df1 - df) <= STEADY_SLOPE * np.abs(df1)
-        fine = ~done & ((x2 >= lower) & (x2 <= upper)
-                        & ((s2 <= tolerance) | (steady & (s2 * s2 * s2 <= tolerance * s1 * s1))
-                           | (np.abs(f1) <= ftol)))
+        fine = np.zeros(x.shape, dtype=bool)
+        kept, kept_slope = x.copy(), np.array(np.broadcast_to(df, x.shape), dtype=float)
+        before, df_before = x, df
+        for _ in range(max(plain_steps, 2) - 1):
+            f1, df1 = residual(x1)
+            x2 = x1 - f1 / df1
+            s1, s2 = np.abs(x1 - before), np.abs(x2 - x1)
+            tolerance = xtol + rtol * np.abs(x2)
+            # the quadratic model holds only where the slope barely changed over the step
+            steady = np.abs(df1 - df_before) <= STEADY_SLOPE * np.abs(df1)
+            now = ~done & ~fine & ((x2 >= lower) & (x2 <= upper)
+                                   & ((s2 <= tolerance)
+                                      | (steady & (s2 * s2 * s2 <= tolerance * s1 * s1))
+                                      | (np.abs(f1) <= ftol)))
+            kept = np.where(now, x2, kept)
+            kept_slope = np.where(now, df1, kept_slope)
+            fine = fine | now
+            if np.all(fine | done):
+                break
+            before, df_before, x1 = x1, df1, x2
     if np.all(fine | done):
-        return np.where(fine, x2, x), np.where(fine, df1, df)
+        return np.where(fine, kept, x), np.where(fine, kept_slope, df)
     # the others: the whole-array safeguarded Newton search (numerics.safeguarded_newton) from
     # their first guess, each entry on its own; the cells' ends bracket by their known signs
     rest = ~(done | fine)
@@ -187,7 +202,7 @@ def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=
         residual, np.broadcast_to(lower, x.shape), np.broadcast_to(upper, x.shape), start=x,
         end_values=(np.where(rest, low_sign, np.nan), np.where(rest, high_sign, np.nan)),
         xtol=xtol, rtol=rtol, ftol=ftol, max_iterations=max_iterations)
-    x = np.where(fine, x2, np.where(rest, searched, x))
+    x = np.where(fine, kept, np.where(rest, searched, x))
     _, last_slope = residual(np.where(np.isfinite(x), x, guess))
-    slope = np.where(fine, df1, np.where(rest, last_slope, df))
+    slope = np.where(fine, kept_slope, np.where(rest, last_slope, df))
     return x, slope

@@ -4,7 +4,8 @@ Every evaluation of a string inverts each non-pilot element at the string's curr
 Done with whole-array numpy steps, that costs tens of array operations per element and call; here
 the same work (find the table cell that brackets the target, guess, safeguarded Newton inside the
 cell) runs as one compiled loop over the entries (numba), so each entry takes only the law
-evaluations it needs.
+evaluations it needs. Every kernel uses numpy's floating-point error model: a division by zero
+gives inf or NaN, as the numpy code around it expects, never an exception.
 
 The laws are the scalar forms of :func:`siltandem.laws.diode.junction_current` (two diodes,
 shunt, Bishop breakdown) and of the Esaki three-term law of :mod:`siltandem.laws.esaki` (prepared,
@@ -33,7 +34,7 @@ EXP_LIMIT = 300.0
 _EPS = np.finfo(float).eps
 
 
-@numba.njit(cache=True, inline="always")
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _limited_exp(z):
     """exp(z), continued by its tangent beyond EXP_LIMIT: (value, first derivative, second)."""
     if z > EXP_LIMIT:
@@ -43,7 +44,7 @@ def _limited_exp(z):
     return e, e, e
 
 
-@numba.njit(cache=True, inline="always")
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _subcell(v, p):
     """Junction current and dJ/dVj of a subcell; p = (Jph, J01, J02, G, Vt, Vbr, a, m)."""
     jph, j01, j02, g, vt, vbr, a, m = p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7]
@@ -64,7 +65,7 @@ def _subcell(v, p):
     return j, dj
 
 
-@numba.njit(cache=True, inline="always")
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _tunnel(v, p):
     """Esaki three-term current and dJ/du; p = (A, V1, Jv, Vv, C2, J0, n Vt, k), k the excess
     term's prefactor Jv / (1 - exp(-2 C2 Vv))."""
@@ -86,7 +87,20 @@ def _tunnel(v, p):
     return j, dj
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _tunnel_bend(u, p):
+    """d2J/du2 of the Esaki three-term law at u (parameters as for the tunnel law)."""
+    a, v1, vv, c2, j0, nvt, k = p[0], p[1], p[3], p[4], p[5], p[6], p[7]
+    x = u / v1
+    _, e1d, e1dd = _limited_exp(1.0 - x)
+    _, _, ea2 = _limited_exp(c2 * (u - vv))
+    _, _, eb2 = _limited_exp(-c2 * (u + vv))
+    _, _, e32 = _limited_exp(u / nvt)
+    return ((a / (v1 * v1)) * (-2.0 * e1d + x * e1dd) + k * c2 * c2 * (ea2 - eb2)
+            + j0 * e32 / (nvt * nvt))
+
+
+@numba.njit(cache=True, error_model="numpy")
 def tunnel_curvature(params, v):
     """d2J/du2 of the Esaki three-term law (parameters as for the tunnel law) at ``v`` (R', N),
     parameter rows (R, P) with R = R' or R = 1: the curvature of a peak or valley."""
@@ -94,27 +108,19 @@ def tunnel_curvature(params, v):
     out = np.empty((rows, n))
     for b in range(rows):
         p = params[0] if params.shape[0] == 1 else params[b]
-        a, v1, vv, c2, j0, nvt, k = p[0], p[1], p[3], p[4], p[5], p[6], p[7]
         for i in range(n):
-            u = v[b, i]
-            x = u / v1
-            _, e1d, e1dd = _limited_exp(1.0 - x)
-            _, _, ea2 = _limited_exp(c2 * (u - vv))
-            _, _, eb2 = _limited_exp(-c2 * (u + vv))
-            _, _, e32 = _limited_exp(u / nvt)
-            out[b, i] = ((a / (v1 * v1)) * (-2.0 * e1d + x * e1dd) + k * c2 * c2 * (ea2 - eb2)
-                         + j0 * e32 / (nvt * nvt))
+            out[b, i] = _tunnel_bend(v[b, i], p)
     return out
 
 
-@numba.njit(cache=True, inline="always")
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _law(code, v, p):
     if code == SUBCELL_LAW:
         return _subcell(v, p)
     return _tunnel(v, p)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def evaluate_law(code, params, v):
     """J and dJ/du of law ``code`` at ``v`` (R', N) with parameter rows ``params`` (R, P),
     R = R' or R = 1 (for tests and forward evaluations)."""
@@ -129,7 +135,7 @@ def evaluate_law(code, params, v):
     return j, dj
 
 
-@numba.njit(cache=True, inline="always")
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _hermite_inverse(y, xl, xh, jl, jh, dl, dh):
     """u at J = y inside one cell from the cubic Hermite interpolant of the inverse u(J) (its
     slopes 1/J' at both ends); the linear estimate where a slope is zero or not finite."""
@@ -149,7 +155,7 @@ def _hermite_inverse(y, xl, xh, jl, jh, dl, dh):
     return linear
 
 
-@numba.njit(cache=True, inline="always")
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol,
                 max_iterations, hint):
     """(u, dJ/du, inside, cell) for one target y in one law's table (see
@@ -220,6 +226,26 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
                 end = xh if newton > x else xl
                 slope = dj + (side - dj) * (newton - x) / (end - x) if end != x else dj
                 return newton, slope, True, lo
+            # not yet: one more evaluation at the Newton point, and the same test on the
+            # next step (which quadratic convergence makes tiny)
+            if g < 0.0:
+                xl = x
+            else:
+                xh = x
+            x = newton
+            j, dj = _law(code, x, p)
+            g = sign * (j - y)
+            if abs(g) <= ftol:
+                return x, dj, True, lo
+            if dj != 0.0 and math.isfinite(dj):
+                step = (j - y) / dj
+                newton = x - step
+                tolerance = (xtol + rtol * abs(newton)) * abs(dj)
+                squared = 2.0 * step * step
+                if (newton > xl and newton < xh
+                        and squared * abs(dj - gs[lo]) <= tolerance * (x - gu[lo])
+                        and squared * abs(gs[hi] - dj) <= tolerance * (gu[hi] - x)):
+                    return newton, dj, True, lo
     # the general search: Newton inside the shrinking bracket, bisection as needed
     previous = xh - xl
     for _ in range(max_iterations):
@@ -243,7 +269,7 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
     return x, dj, True, lo
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def invert_table(code, params, grid_u, grid_j, grid_slope, increasing, fold_low, fold_high,
                  targets, xtol, rtol, max_iterations):
     """u with J(u) = target, entry by entry, inside the cell of a sampled law that brackets it.
@@ -302,7 +328,7 @@ def invert_table(code, params, grid_u, grid_j, grid_slope, increasing, fold_low,
     return u_out, slope_out, inside
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def invert_elements(codes, params, grid_u, grid_j, grid_slope, lengths, signs, fold_low,
                     fold_high, lower, upper, current, xtol, rtol, max_iterations):
     """Every element of a string inverted at the string's current, in one compiled pass.
@@ -375,7 +401,7 @@ def invert(code, params, table, targets, *, increasing, fold_low=None, fold_high
                         np.ascontiguousarray(targets), XTOL, RTOL, MAX_ITERATIONS)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def subcell_terminal_current(params, series, voltage, xtol, rtol, max_iterations):
     """Current J and dJ/dV of subcells at terminal voltages V, with series resistance Rs.
 
@@ -432,7 +458,7 @@ def subcell_terminal_current(params, series, voltage, xtol, rtol, max_iterations
     return current, slope
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def subcell_table(params, forward_points, reverse_points):
     """Grid, J and dJ/dVj of a subcell's junction law for its inverse table, one row per
     parameter row: forward from 0 to where the J01 diode alone carries three times the
@@ -464,7 +490,7 @@ def subcell_table(params, forward_points, reverse_points):
     return grid, j, dj
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def string_pass(pilot, pilot_series, t, codes, params, grid_u, grid_j, grid_slope, lengths,
                 signs, fold_low, fold_high, lower, upper, range_low, range_high, voltage_sign,
                 series, xtol, rtol, max_iterations):
@@ -537,7 +563,7 @@ def string_pass(pilot, pilot_series, t, codes, params, grid_u, grid_j, grid_slop
     return current, dcurrent, voltage, dvoltage, element_voltage, element_slope, covered
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, error_model="numpy")
 def exact_peak_shape(peak, peak_v, valley, valley_v, c2, j0, nvt):
     """Tunnelling-term prefactor A and voltage scale V1 that put the combined Esaki curve's
     maximum exactly at (Vp, Jp): u = Vp/V1 = 1 + R'(Vp) Vp / (Jp - R(Vp)), A = (Jp - R(Vp)) /
@@ -567,3 +593,176 @@ def exact_peak_shape(peak, peak_v, valley, valley_v, c2, j0, nvt):
         curvature = (a[i] / v1[i] ** 2) * math.exp(1.0 - u) * (u - 2.0) + rest2
         ok[i] = margin > 0.0 and curvature < 0.0
     return a, v1, ok
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _clip01(x):
+    """x clipped to [0, 1]; NaN stays NaN."""
+    if x < 0.0:
+        return 0.0
+    if x > 1.0:
+        return 1.0
+    return x
+
+
+@numba.njit(cache=True, error_model="numpy")
+def hermite_crossing(t, v, dv, level, finite):
+    """Where sampled, rising V(t) crosses ``level`` (one per row): the cubic Hermite
+    interpolant of the exact values and slopes in the crossing cell, by Newton steps.
+
+    ``t``, ``v``, ``dv``, ``finite`` (B, N); ``level`` (B,). Returns (crossing, t0, t1) of
+    shape (B,): NaN where the samples do not cross the level between two samples that both
+    have a value (``finite``), and the crossing cell's ends.
+    """
+    rows, n = t.shape
+    crossing = np.empty(rows)
+    t0_out = np.empty(rows)
+    t1_out = np.empty(rows)
+    for b in range(rows):
+        below = 0
+        for i in range(n):
+            if v[b, i] < level[b]:
+                below += 1
+        crossed = below > 0 and below < n
+        k = min(max(below, 1), n - 1)
+        crossed = crossed and finite[b, k - 1] and finite[b, k]
+        t0, t1 = t[b, k - 1], t[b, k]
+        v0, v1 = v[b, k - 1], v[b, k]
+        h = t1 - t0
+        m0, m1 = h * dv[b, k - 1], h * dv[b, k]
+        x = _clip01((level[b] - v0) / (v1 - v0)) if v1 != v0 else 0.5
+        if not (math.isfinite(m0) and math.isfinite(m1)):
+            m0 = m1 = v1 - v0
+        for _ in range(4):
+            x2, x3 = x * x, x * x * x
+            p = ((2 * x3 - 3 * x2 + 1) * v0 + (x3 - 2 * x2 + x) * m0 + (3 * x2 - 2 * x3) * v1
+                 + (x3 - x2) * m1)
+            dp = (6 * x2 - 6 * x) * (v0 - v1) + (3 * x2 - 4 * x + 1) * m0 + (3 * x2 - 2 * x) * m1
+            x = _clip01(x - ((p - level[b]) / dp if dp > 0 else 0.0))
+        crossing[b] = t0 + x * h if crossed else math.nan
+        t0_out[b] = t0
+        t1_out[b] = t1
+    return crossing, t0_out, t1_out
+
+
+@numba.njit(cache=True, error_model="numpy")
+def power_maximum(t, j, v, dj, dv):
+    """The best sample of P = J V per row and the maximum of P's cubic Hermite interpolant in
+    the cell next to it where dP/dt changes sign.
+
+    Returns (t_best, t_other, turns, t_mpp, curvature), each (B,): the best sample, the cell's
+    other end, whether dP/dt changes sign in that cell, the interpolant's maximum (t_best
+    where it does not turn) and the interpolant's d2P/dt2 there.
+    """
+    rows, n = t.shape
+    t_best = np.empty(rows)
+    t_other = np.empty(rows)
+    turns = np.empty(rows, dtype=np.bool_)
+    t_mpp = np.empty(rows)
+    curvature = np.empty(rows)
+    for b in range(rows):
+        best, best_power = 0, -math.inf
+        for i in range(n):                          # the first largest, as numpy's argmax
+            power = j[b, i] * v[b, i] if math.isfinite(j[b, i]) else -math.inf
+            if i == 0 or power > best_power:
+                best, best_power = i, power
+        g_best = dj[b, best] * v[b, best] + j[b, best] * dv[b, best]
+        other = best + 1 if g_best > 0 else best - 1
+        other = min(max(other, 0), n - 1)
+        g_other = dj[b, other] * v[b, other] + j[b, other] * dv[b, other]
+        p_other = j[b, other] * v[b, other] if math.isfinite(j[b, other]) else -math.inf
+        turn = (math.isfinite(g_best) and math.isfinite(g_other)
+                and ((g_best > 0 and g_other < 0) or (g_best < 0 and g_other > 0)))
+        h = t[b, other] - t[b, best]
+        m0, m1 = h * g_best, h * g_other
+        x = _clip01(g_best / (g_best - g_other)) if turn else 0.0
+        qa = 6.0 * (best_power - p_other) + 3.0 * (m0 + m1)
+        qb = -6.0 * (best_power - p_other) - 4.0 * m0 - 2.0 * m1
+        for _ in range(3):
+            dq = 2.0 * qa * x + qb
+            x = _clip01(x - ((qa * x * x + qb * x + m0) / dq if dq != 0 else 0.0))
+        t_best[b] = t[b, best]
+        t_other[b] = t[b, other]
+        turns[b] = turn
+        t_mpp[b] = t[b, best] + x * h if (turn and math.isfinite(x)) else t[b, best]
+        curvature[b] = (2.0 * qa * x + qb) / (h * h)
+    return t_best, t_other, turns, t_mpp, curvature
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _slope_root(p, lo, hi, s_lo, s_hi, rising, xtol, rtol, max_iterations):
+    """Root of the tunnel law's dJ/du in [lo, hi] (it changes sign there, falling for a peak,
+    rising for a valley): Newton steps on dJ/du with d2J/du2, kept inside the shrinking
+    bracket, bisection otherwise (Numerical Recipes, sec. 9.4)."""
+    sign = 1.0 if rising else -1.0
+    x = lo + s_lo * (hi - lo) / (s_lo - s_hi)
+    if not (x >= lo and x <= hi):
+        x = 0.5 * (lo + hi)
+    previous = hi - lo
+    for _ in range(max_iterations):
+        _, g = _tunnel(x, p)
+        g = sign * g
+        if g == 0.0:
+            break
+        if g < 0.0:
+            lo = x
+        else:
+            hi = x
+        dg = sign * _tunnel_bend(x, p)
+        newton = x - g / dg if dg != 0.0 else math.nan
+        if newton > lo and newton < hi and abs(newton - x) <= 0.5 * abs(previous):
+            step = newton - x
+            x = newton
+        else:
+            step = 0.5 * (hi - lo)
+            x = lo + step
+        previous = step
+        if abs(step) <= xtol + rtol * abs(x) or hi - lo <= xtol:
+            break
+    return x
+
+
+@numba.njit(cache=True, error_model="numpy")
+def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
+    """Peak and valley voltages of the Esaki three-term curve, one per parameter row.
+
+    dJ/du is sampled on ``samples`` points over (0, 3 max(Vv, 2 V1)]; the peak lies in the first
+    cell where it turns negative and the valley in the next cell where it turns positive again
+    (for u >= 0, dJ/du falls to a single minimum and rises after it: laws/esaki.py,
+    attained_peak_and_valley). Each root is polished inside its cell by :func:`_slope_root`.
+    Where ``exact_peak_v`` (R,) is finite and lies in the peak's cell, it is the peak (the law
+    was prepared to peak there in closed form). NaN where the samples see no such pair (the
+    caller then brackets from the steepest point).
+    """
+    rows = params.shape[0]
+    peak = np.full(rows, np.nan)
+    valley = np.full(rows, np.nan)
+    for r in range(rows):
+        p = params[r]
+        top = 3.0 * max(p[3], 2.0 * p[1])
+        first = -1
+        rising = -1
+        previous_u, previous_s = 0.0, 0.0
+        peak_cell = (0.0, 0.0, 0.0, 0.0)
+        for i in range(1, samples + 1):
+            u = top * i / samples
+            _, slope = _tunnel(u, p)
+            if first < 0:
+                if slope < 0.0:
+                    first = i
+                    peak_cell = (previous_u, u, previous_s, slope)
+            elif slope >= 0.0 or not slope < 0.0:
+                rising = i
+                if first > 1 and slope >= 0.0:
+                    lo, hi, s_lo, s_hi = peak_cell
+                    vp = exact_peak_v[r]
+                    if math.isfinite(vp) and lo <= vp and vp <= hi:
+                        peak[r] = vp
+                    else:
+                        peak[r] = _slope_root(p, lo, hi, s_lo, s_hi, False, xtol, rtol,
+                                              max_iterations)
+                    valley[r] = _slope_root(p, previous_u, u, previous_s, slope, True, xtol,
+                                            rtol, max_iterations)
+                break
+            previous_u, previous_s = u, slope
+    return peak, valley

@@ -303,11 +303,13 @@ class _String:
             return self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)[0]
         return self._select([s.pilot_current(t, self.temperature_K)[0] for s in self.subcells])
 
-    def open_circuit_pilot_voltage(self):
+    def open_circuit_pilot_voltage(self, t=None):
         """Pilot junction voltage carrying no current, with one more Newton step on the pilot's
         forward law: open circuit to rounding (the inverse stops at its tolerance in t, about
-        1e-13 V, where J' ~ Jph/Vt would still leave ~1e-9 A/m^2 flowing)."""
-        t = self.pilot_voltage_at(np.zeros_like(self.pilot_photocurrent))
+        1e-13 V, where J' ~ Jph/Vt would still leave ~1e-9 A/m^2 flowing). ``t``: the
+        inverse at zero current when the caller has it."""
+        if t is None:
+            t = self.pilot_voltage_at(np.zeros_like(self.pilot_photocurrent))
         if self.single_pilot is not None:
             j, slope, _, _ = self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)
         else:
@@ -652,19 +654,23 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     is traced again piece by piece).
     """
     jph = string.pilot_photocurrent
-    t_voc = string.open_circuit_pilot_voltage()
-    t_forward = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph)
-    t_lowest = string.lowest_pilot_voltage()
-
-    # every tunnel junction on its tunnel branch: the trace must stay below the smallest peak
-    # current, i.e. above the pilot voltage t_peak that carries it
-    t_low = t_lowest
+    # the pilot voltages at zero current, at the forward end and, with tunnel junctions, at the
+    # smallest peak current (every junction on its tunnel branch: the trace must stay below
+    # it, i.e. above the pilot voltage t_peak that carries it), in one inverse
+    targets = [np.zeros_like(jph), FORWARD_CURRENT_FRACTION * jph]
     if string.tunnels:
         smallest_peak = np.min(np.concatenate(
             [t.peak(temperature_K)[1] for t in string.tunnels], axis=1),
             axis=1, keepdims=True)
-        with np.errstate(invalid="ignore"):
-            t_peak = string.pilot_voltage_at(smallest_peak * (1 - 1e-9))
+        targets.append(np.broadcast_to(smallest_peak * (1 - 1e-9), jph.shape))
+    with np.errstate(invalid="ignore"):
+        inverted = string.pilot_voltage_at(np.concatenate(targets, axis=1))
+    t_zero, t_forward = inverted[:, :1], inverted[:, 1:2]
+    t_voc = string.open_circuit_pilot_voltage(t_zero)
+    t_lowest = string.lowest_pilot_voltage()
+    t_low = t_lowest
+    if string.tunnels:
+        t_peak = inverted[:, 2:3]
         t_low = np.where(np.isfinite(t_peak) & (t_peak > t_lowest), t_peak, t_lowest)
     # an isotype interface driven forward carries at most its flat-band current: the law has no
     # voltage beyond it, so the trace stops there (reported, never invented)
@@ -680,7 +686,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
 
     if curve_points:
         return _solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
-                            t_forward=t_forward, t_lowest=t_lowest, t_low=t_low,
+                            t_zero=t_zero, t_forward=t_forward, t_lowest=t_lowest, t_low=t_low,
                             limited=limited if caps else None)
 
     at_voc = string.evaluate(t_voc)
@@ -776,39 +782,8 @@ DENSE_J_SAMPLES = 128
 SHORT_CIRCUIT_TOLERANCE_V = 1e-6
 
 
-def _take(a, index):
-    return np.take_along_axis(a, index, axis=1)
-
-
-def _hermite_crossing(t, v, dv, level, finite):
-    """Where the sampled, strictly rising V(t) crosses ``level`` (B, 1): the cubic Hermite
-    interpolant of the exact values and slopes in the crossing cell, solved by Newton steps.
-    NaN where the samples do not cross the level between two samples with a value (``finite``:
-    where an element cannot carry the current there is no voltage, and no crossing)."""
-    points = t.shape[1]
-    k = np.sum(v < level, axis=1, keepdims=True)
-    crossed = (k > 0) & (k < points)
-    k = np.clip(k, 1, points - 1)
-    crossed &= _take(finite, k - 1) & _take(finite, k)
-    t0, t1 = _take(t, k - 1), _take(t, k)
-    v0, v1 = _take(v, k - 1), _take(v, k)
-    h = t1 - t0
-    m0, m1 = h * _take(dv, k - 1), h * _take(dv, k)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        x = np.clip(np.where(v1 != v0, (level - v0) / (v1 - v0), 0.5), 0.0, 1.0)
-        smooth = np.isfinite(m0) & np.isfinite(m1)
-        m0, m1 = np.where(smooth, m0, v1 - v0), np.where(smooth, m1, v1 - v0)
-        for _ in range(4):
-            x2, x3 = x * x, x * x * x
-            p = ((2 * x3 - 3 * x2 + 1) * v0 + (x3 - 2 * x2 + x) * m0 + (3 * x2 - 2 * x3) * v1
-                 + (x3 - x2) * m1)
-            dp = (6 * x2 - 6 * x) * (v0 - v1) + (3 * x2 - 4 * x + 1) * m0 + (3 * x2 - 2 * x) * m1
-            x = np.clip(x - np.where(dp > 0, (p - level) / dp, 0.0), 0.0, 1.0)
-    return np.where(crossed, t0 + x * h, np.nan), t0, t1
-
-
-def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_lowest, t_low,
-                 limited):
+def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_forward, t_lowest,
+                 t_low, limited):
     """The traced curve and its summary from one dense exact pass (every tunnel junction on its
     tunnel branch).
 
@@ -830,9 +805,10 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     # open circuit before any evaluation: at zero current every element but the subcells has
     # zero voltage (a resistor, a tunnel junction, an isotype interface), and each subcell its
     # own open-circuit voltage; this fixes where the samples start
-    voc_guess = functools.reduce(np.add, [s.junction_voltage_at(np.zeros_like(jph),
-                                                                string.temperature_K)
-                                          for s in string.subcells])
+    voc_guess = functools.reduce(np.add, [
+        t_zero if k == string.single_pilot else
+        s.junction_voltage_at(np.zeros_like(jph), string.temperature_K)
+        for k, s in enumerate(string.subcells)])
     floor_guess = -np.maximum(reverse_fraction * voc_guess, 0.3)
     # (with a margin: where dV/dt = 1 exactly the bound is the reverse end itself)
     t_start = np.maximum(t_low, _finite_or(t_voc - 1.05 * (voc_guess - floor_guess) - 0.01,
@@ -886,34 +862,19 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
     # has no value at all (NaN)
     finite = ((np.isfinite(dense["voltage"]) & np.isfinite(dense["dvoltage"]))
               | (dense["voltage"] == -np.inf))
-    # both crossings at once: the rows twice, once per level
-    twice = [np.concatenate([x, x], axis=0) for x in (t, v, dv, finite)]
-    crossing, cell_lo, cell_hi = _hermite_crossing(*twice[:3], np.concatenate(
-        [np.zeros_like(voc), v_floor], axis=0), twice[3])
+    # both crossings at once: the rows twice, once per level (compiled, kernels.py)
+    twice = [np.ascontiguousarray(np.concatenate([x, x], axis=0)) for x in (t, v, dv, finite)]
+    crossing, cell_lo, cell_hi = (x[:, None] for x in kernels.hermite_crossing(
+        twice[0], twice[1], twice[2], np.concatenate([np.zeros_like(voc), v_floor], axis=0)[:, 0],
+        twice[3]))
     t_sc, t_floor = crossing[:size], crossing[size:]
     sc_lo, floor_lo, sc_hi, floor_hi = cell_lo[:size], cell_lo[size:], cell_hi[:size], cell_hi[size:]
-    power = np.where(np.isfinite(j), j * v, -np.inf)
-    slope = dj * v + j * dv
-    best = np.argmax(power, axis=1)[:, None]
-    rising = _take(slope, best) > 0
-    other = np.clip(np.where(rising, best + 1, best - 1), 0, t.shape[1] - 1)
-    t_best, g_best = _take(t, best), _take(slope, best)
-    t_other, g_other = _take(t, other), _take(slope, other)
-    turns = np.isfinite(g_best) & np.isfinite(g_other) & (np.sign(g_best) * np.sign(g_other) < 0)
-    # inside the cell, the maximum of the cubic Hermite interpolant of P (exact P and dP/dt at
-    # both ends): dP/ds is a quadratic in s, solved by Newton steps from the linear estimate
-    p_best, p_other = _take(power, best), _take(power, other)
-    h = t_other - t_best
-    m0, m1 = h * g_best, h * g_other
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        x = np.clip(np.where(turns, g_best / (g_best - g_other), 0.0), 0.0, 1.0)
-        qa = 6.0 * (p_best - p_other) + 3.0 * (m0 + m1)
-        qb = -6.0 * (p_best - p_other) - 4.0 * m0 - 2.0 * m1
-        for _ in range(3):
-            dq = 2.0 * qa * x + qb
-            x = np.clip(x - np.where(dq != 0, (qa * x * x + qb * x + m0) / dq, 0.0), 0.0, 1.0)
-        t_mpp = np.where(turns & np.isfinite(x), t_best + x * h, t_best)
-        curvature = (2.0 * qa * x + qb) / (h * h)        # the interpolant's d2P/dt2 there
+    # the best sample of P and, in the cell next to it where dP/dt changes sign, the maximum
+    # of the cubic Hermite interpolant of P (exact P and dP/dt at both ends), with its d2P/dt2
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        t_best, t_other, turns, t_mpp, curvature = (x[:, None] for x in kernels.power_maximum(
+            np.ascontiguousarray(t), np.ascontiguousarray(j), np.ascontiguousarray(v),
+            np.ascontiguousarray(dj), np.ascontiguousarray(dv)))
 
     # polish the three estimates together inside their sample cells (exact brackets): Newton
     # on V - level for the two crossings, and on -dP/dt for the MPP with d2P/dt2 from the
@@ -947,7 +908,7 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_forward, t_
 
     with np.errstate(invalid="ignore"):
         polished, _ = polish_root(residual, guess, lower, upper, increasing=True, active=active,
-                                  xtol=1e-13, rtol=4e-16)
+                                  xtol=1e-13, rtol=4e-16, plain_steps=4)
     polished = np.where(active, polished, np.nan)
     t_sc, t_floor = polished[:, :1], polished[:, 1:2]
     t_mpp = np.where(turns, polished[:, 2:], t_best)

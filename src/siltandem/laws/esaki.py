@@ -472,48 +472,19 @@ def _extrema_by_table(args, exact_peak_V=None):
 
     dJ/dV is sampled on a grid over (0, 3 max(Vv, 2 V1)]; the peak lies in the first cell where
     it turns negative and the valley in the next cell where it turns positive again. Inside each
-    cell, Newton steps on dJ/dV with the analytic d2J/dV2 (safeguarded by the cell,
-    siltandem.inverse.polish_root) give the root to rounding. NaN where the grid sees no such
-    pair (the caller then brackets from the steepest point, :func:`_extrema_by_bracketing`).
+    cell, Newton steps on dJ/dV with the analytic d2J/dV2 (safeguarded by the cell) give the
+    root to rounding (compiled: siltandem.kernels.tunnel_extrema). NaN where the grid sees no
+    such pair (the caller then brackets from the steepest point, :func:`_extrema_by_bracketing`).
     """
-    from siltandem.inverse import polish_root
-
-    v1, vv = args[1][:, None], args[3][:, None]
-    params = tuple(x[:, None] for x in args)
-    top = 3.0 * np.maximum(vv, 2.0 * v1)
-    grid = top * np.linspace(0.0, 1.0, _EXTREMA_SAMPLES + 1)[None, 1:]
-    slope = _total(grid, *params)[1]
-    falling = slope < 0
-    first = np.argmax(falling, axis=1)[:, None]                      # first negative slope
-    after = falling | (np.arange(grid.shape[1])[None, :] <= first)
-    rising = np.argmax(~after, axis=1)[:, None]                      # first positive after it
-    found = (np.take_along_axis(falling, first, axis=1) & (first > 0)
-             & ~np.take_along_axis(after, rising, axis=1))
-
-    def residual(v):
-        _, dj, d2j = _total(v, *params)
-        return dj, d2j
-
-    def cell(index):
-        below = np.maximum(index - 1, 0)
-        return (np.take_along_axis(grid, below, axis=1), np.take_along_axis(grid, index, axis=1),
-                np.take_along_axis(slope, below, axis=1), np.take_along_axis(slope, index, axis=1))
-
-    def root(index, increasing):
-        lo, hi, s_lo, s_hi = cell(index)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            guess = np.clip(lo + s_lo * (hi - lo) / (s_lo - s_hi), lo, hi)
-        x, _ = polish_root(residual, np.where(np.isfinite(guess), guess, 0.5 * (lo + hi)), lo, hi,
-                           increasing=increasing)
-        return np.where(found, x, np.nan)[:, 0]
-
-    if exact_peak_V is not None:
-        lo, hi, _, _ = cell(first)
-        vp = exact_peak_V[:, None]
-        confirmed = found & (lo <= vp) & (vp <= hi)
-        if np.all(confirmed):
-            return np.array(exact_peak_V, dtype=float), root(rising, True)
-    return root(first, False), root(rising, True)
+    a, v1, jv, vv, c2, j0, n, t = args
+    nvt = n * thermal_voltage_V(t)
+    params = np.ascontiguousarray(np.stack(
+        np.broadcast_arrays(a, v1, jv, vv, c2, j0, nvt, jv / -np.expm1(-2.0 * c2 * vv)),
+        axis=1), dtype=float)
+    exact = np.full(params.shape[0], np.nan) if exact_peak_V is None else \
+        np.ascontiguousarray(np.broadcast_to(exact_peak_V, params.shape[:1]), dtype=float)
+    with np.errstate(all="ignore"):
+        return kernels.tunnel_extrema(params, exact, _EXTREMA_SAMPLES, 1e-13, 4e-16, 100)
 
 
 def _extrema_by_bracketing(args):
