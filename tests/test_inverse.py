@@ -155,12 +155,22 @@ def test_polish_root_is_independent_of_the_batch():
     np.testing.assert_allclose(together, np.log(4.0), rtol=0, atol=1e-13)   # xtol
 
 
-def test_table_start_brackets_and_flags_outside():
+def test_table_flags_currents_outside_and_brackets_inside():
+    # a decreasing law sampled on 11 points: inside its range the compiled inverse finds the
+    # root of the law itself (u = sqrt(-J), exact to rounding), outside it flags the entry
+    from siltandem import kernels
+
     u = np.linspace(0.0, 1.0, 11)[None, :]
-    table = LawTable(u, -u**2)                        # decreasing law
-    guess, lower, upper, inside = table.start(np.array([[-0.25, -2.0, 0.5]]))
+    params = np.array([[0.0, 1e-300, 0.0, 0.0, 1.0, -np.inf, 0.0, 3.28]])
+    # J = -G u with G = 1: a shunt alone (the subcell law with no photocurrent and no diodes)
+    params[0, 3] = 1.0
+    j, slope = kernels.evaluate_law(kernels.SUBCELL_LAW, params, u)
+    table = LawTable(u, j, slope)
+    assert not table.increasing
+    root, _, inside = kernels.invert(kernels.SUBCELL_LAW, params, table,
+                                     np.array([[-0.25, -2.0, 0.5]]), increasing=False)
     assert inside.tolist() == [[True, False, False]]
-    assert lower[0, 0] <= 0.5 <= upper[0, 0] and upper[0, 0] - lower[0, 0] == pytest.approx(0.1)
+    assert root[0, 0] == pytest.approx(0.25, abs=1e-15)
 
 
 def test_safeguarded_newton_keeps_a_root_met_exactly():

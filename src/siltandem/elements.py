@@ -307,6 +307,11 @@ TUNNEL_BRANCHES = ("tunnel", "negative", "thermal")
 TUNNEL_TABLE_POINTS = 256
 #: the thermal branch's table runs from the valley this far forward [V] (beyond: root find)
 THERMAL_TABLE_SPAN_V = 1.0
+#: the branch tables' grids in units of the branch: the tunnel branch from -4 Vp to Vp (half as
+#: many points in reverse), the others uniform from one end to the other
+_UNIT_GRID = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
+_TUNNEL_BRANCH_GRID = np.concatenate(
+    [np.linspace(-4.0, 0.0, TUNNEL_TABLE_POINTS // 2 + 1)[:-1], _UNIT_GRID[0]])[None, :]
 
 
 @dataclass(frozen=True)
@@ -418,15 +423,11 @@ class TunnelJunction:
             if small and np.all(np.isfinite(peak_v)) and np.all(np.isfinite(valley_v)):
                 if branch == "tunnel":
                     # reverse to -4 Vp: the law carries about -600 Jp there
-                    s_rev = np.linspace(-4.0, 0.0, TUNNEL_TABLE_POINTS // 2 + 1)[None, :-1]
-                    s_fwd = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
-                    grid = np.concatenate([peak_v * s_rev, peak_v * s_fwd], axis=1)
+                    grid = peak_v * _TUNNEL_BRANCH_GRID
                 elif branch == "negative":
-                    s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
-                    grid = peak_v + (valley_v - peak_v) * s
+                    grid = peak_v + (valley_v - peak_v) * _UNIT_GRID
                 else:
-                    s = np.linspace(0.0, 1.0, TUNNEL_TABLE_POINTS)[None, :]
-                    grid = valley_v + THERMAL_TABLE_SPAN_V * s
+                    grid = valley_v + THERMAL_TABLE_SPAN_V * _UNIT_GRID
                 values, slopes = kernels.evaluate_law(
                     kernels.TUNNEL_LAW, self._law_parameters(temperature_K),
                     np.ascontiguousarray(grid))

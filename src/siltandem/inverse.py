@@ -1,17 +1,16 @@
-"""Fast inverses of strictly monotone element laws: a table finds the cell, Newton polishes inside it.
+"""Sampled laws and whole-array root polishing.
 
 An element law J = f(u) (a subcell's junction current against its junction voltage, a tunnel
 junction's current on one branch) is cheap to evaluate forward and costly to invert by a root
 find from a wide bracket. The series solver inverts every non-pilot element at every point of
-the curve, so each element keeps a :class:`LawTable`: f sampled once on a grid of u. A target
-current then finds its cell (two neighbouring samples that bracket it) by a binary search, a
-linear interpolation inside the cell gives the first guess, and :func:`polish_root` refines it
-by Newton steps kept inside the cell (bisection whenever a step would leave it). The cell is an
-exact bracket, so the result is the law's own root to rounding, never an interpolated value.
+the curve, so each element keeps a :class:`LawTable`: f and its slope sampled once on a grid of
+u. The compiled inverse (siltandem.kernels.invert_table) finds a target's cell (two
+neighbouring samples that bracket it), guesses by cubic Hermite interpolation of the inverse,
+and polishes by Newton steps kept inside the cell. The cell is an exact bracket, so the result
+is the law's own root to rounding, never an interpolated value.
 
-Targets outside the table's range are flagged (``inside`` False); the caller solves those few
-entries with its general method. Everything works on whole arrays: a table has rows (R, M), one
-per design of a batch (R = 1 when the element's parameters are shared by every design).
+:func:`polish_root` is the whole-array counterpart for residuals that are Python callables (the
+string's voltage in the solver's dense pass, the laws' own root finds).
 
 References
 ----------
@@ -31,7 +30,8 @@ STEADY_SLOPE = 0.1
 
 
 class LawTable:
-    """A strictly monotone law J(u) sampled on increasing grids of u, one row per design.
+    """A strictly monotone law J(u) and its slope sampled on increasing grids of u, one row per
+    design; :func:`siltandem.kernels.invert_table` inverts through it.
 
     Parameters
     ----------
@@ -41,87 +41,25 @@ class LawTable:
         The law's values there, strictly monotone along each row and in the same direction in
         every row (rounding may leave equal neighbours where the law is flat). Finite.
     slope : (R, M) ndarray, optional
-        dJ/du there (for the cubic first guesses of :func:`siltandem.kernels.invert_table`);
-        NaN when not given.
+        dJ/du there (for the cubic first guesses of the compiled inverse); NaN when not given.
     """
 
-    __slots__ = ("u", "j", "slope", "increasing", "_keys", "_low", "_span")
+    __slots__ = ("u", "j", "slope", "increasing")
 
     def __init__(self, u, j, slope=None):
         self.u = np.ascontiguousarray(u, dtype=float)
         self.j = np.ascontiguousarray(j, dtype=float)
-        self.slope = np.full_like(self.j, np.nan) if slope is None else \
-            np.ascontiguousarray(np.broadcast_to(slope, self.j.shape), dtype=float)
-        rows, m = self.j.shape
-        self.increasing = bool(self.j[0, -1] >= self.j[0, 0])
-        ascending = self.j if self.increasing else -self.j
-        if rows == 1:
-            self._keys = ascending[0]
-            self._low = self._span = None
+        if slope is None:
+            self.slope = np.full_like(self.j, np.nan)
         else:
-            # rows side by side in one sorted array: row r normalised into [2r, 2r + 1]
-            self._low = ascending[:, :1]
-            self._span = np.maximum(ascending[:, -1:] - self._low, np.finfo(float).tiny)
-            self._keys = ((ascending - self._low) / self._span
-                          + 2.0 * np.arange(rows)[:, None]).ravel()
+            slope = np.asarray(slope, dtype=float)
+            self.slope = np.ascontiguousarray(
+                slope if slope.shape == self.j.shape else np.broadcast_to(slope, self.j.shape))
+        self.increasing = bool(self.j[0, -1] >= self.j[0, 0])
 
     @property
     def rows(self):
         return self.j.shape[0]
-
-    def _cell(self, k):
-        """Grid values and law values at both ends of cells ``k`` (rows of the table)."""
-        return tuple(np.take_along_axis(a, i, axis=1)
-                     for a, i in ((self.u, k), (self.u, k + 1), (self.j, k), (self.j, k + 1)))
-
-    def start(self, target):
-        """First guesses and exact brackets for u with J(u) = ``target``.
-
-        Parameters
-        ----------
-        target : ndarray
-            Of shape (R, N), or anything that broadcasts to (R', N) when R = 1.
-
-        Returns
-        -------
-        guess, lower, upper : ndarray
-            Linear interpolation inside the bracketing cell and the cell's ends (grid values).
-        inside : ndarray of bool
-            Where the target lies inside the table's range (elsewhere the three are meaningless).
-        """
-        target = np.asarray(target, dtype=float)
-        rows, m = self.j.shape
-        signed = target if self.increasing else -target
-        if rows == 1:
-            k = np.searchsorted(self._keys, signed.ravel()).reshape(signed.shape) - 1
-            np.clip(k, 0, m - 2, out=k)
-            u, j = self.u[0], self.j[0]
-            u_a, u_b, j_a, j_b = u[k], u[k + 1], j[k], j[k + 1]
-        else:
-            signed = np.broadcast_to(signed, (rows,) + signed.shape[1:])
-            target = np.broadcast_to(target, signed.shape)
-            offset = 2.0 * np.arange(rows)[:, None]
-            query = np.clip((signed - self._low) / self._span, 0.0, 1.0) + offset
-            k = (np.searchsorted(self._keys, query.ravel()).reshape(query.shape) - 1
-                 - m * np.arange(rows)[:, None])
-            np.clip(k, 0, m - 2, out=k)
-            u_a, u_b, j_a, j_b = self._cell(k)
-            # the search ran on normalised keys (rounded): one step to the neighbouring cell
-            # where the real values say so, so that the cell depends on the design alone
-            if self.increasing:
-                step = np.where(target < j_a, -1, np.where(target > j_b, 1, 0))
-            else:
-                step = np.where(target > j_a, -1, np.where(target < j_b, 1, 0))
-            if np.any(step):
-                u_a, u_b, j_a, j_b = self._cell(np.clip(k + step, 0, m - 2))
-        if self.increasing:
-            inside = (target >= j_a) & (target <= j_b)
-        else:
-            inside = (target <= j_a) & (target >= j_b)
-        width = j_b - j_a
-        with np.errstate(divide="ignore", invalid="ignore"):
-            w = np.where(width != 0, (target - j_a) / width, 0.5)
-        return u_a + w * (u_b - u_a), u_a, u_b, inside
 
 
 def polish_root(residual, guess, lower, upper, *, increasing, active=None, xtol=1e-13,

@@ -472,6 +472,14 @@ def spread_parameter(string, t_start, t_end, points, branches=None, end_currents
     return out
 
 
+@functools.lru_cache(maxsize=16)
+def _unit_steps(points):
+    """np.linspace(0, 1, points) as a (1, points) row, made once (read-only)."""
+    steps = np.linspace(0.0, 1.0, points)[None, :]
+    steps.flags.writeable = False
+    return steps
+
+
 def _finite_or(value, fallback):
     return np.where(np.isfinite(value), value, fallback)
 
@@ -813,10 +821,10 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     # (with a margin: where dV/dt = 1 exactly the bound is the reverse end itself)
     t_start = np.maximum(t_low, _finite_or(t_voc - 1.05 * (voc_guess - floor_guess) - 0.01,
                                            t_low))
-    by_t = t_start + (t_forward - t_start) * np.linspace(0.0, 1.0, DENSE_T_SAMPLES)[None, :]
+    by_t = t_start + (t_forward - t_start) * _unit_steps(DENSE_T_SAMPLES)
     # the current at the samples' reverse end, from the pilot's forward law alone
     j_top = _finite_or(string.pilot_current_at(t_start), jph)
-    fractions = np.linspace(0.0, 1.0, DENSE_J_SAMPLES + 2)[None, 1:-1]
+    fractions = _unit_steps(DENSE_J_SAMPLES + 2)[:, 1:-1]
     with np.errstate(invalid="ignore"):
         by_j = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph
                                        + (j_top - FORWARD_CURRENT_FRACTION * jph) * fractions)
@@ -878,8 +886,8 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
 
     # polish the three estimates together inside their sample cells (exact brackets): Newton
     # on V - level for the two crossings, and on -dP/dt for the MPP with d2P/dt2 from the
-    # interpolant, then from the secant of the last two evaluations (inverse.polish_root: two
-    # evaluations when the steps converge fast, a safeguarded search otherwise)
+    # interpolant, then from the secant of the last two evaluations (inverse.polish_root: up
+    # to four plain steps, the secant usually needs three; a safeguarded search otherwise)
     levels = np.concatenate([np.zeros_like(voc), v_floor], axis=1)
     lower = np.concatenate([sc_lo, floor_lo, np.minimum(t_best, t_other)], axis=1)
     upper = np.concatenate([sc_hi, floor_hi, np.maximum(t_best, t_other)], axis=1)
@@ -917,8 +925,8 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
 
     # the curve: points evenly spaced in arc length of (V / V-span, J / J-span) along the samples
     # (with a little weight on t), from the reverse end to the forward end
-    vn = np.nan_to_num(v, nan=0.0, posinf=0.0, neginf=0.0)
-    jn = np.nan_to_num(j, nan=0.0, posinf=0.0, neginf=0.0)
+    vn = np.where(np.isfinite(v), v, 0.0)
+    jn = np.where(np.isfinite(j), j, 0.0)
     v_span = np.maximum(np.ptp(vn, axis=1, keepdims=True), 1e-12)
     j_span = np.maximum(np.ptp(jn, axis=1, keepdims=True), 1e-12)
     t_span = np.maximum(t_forward - t_start, 1e-12)
@@ -926,7 +934,7 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
                 + 0.05 * np.diff(t, axis=1) / t_span)
     arc = np.concatenate([np.zeros((size, 1)), np.cumsum(arc_step, axis=1)], axis=1)
     curve_t = np.empty((size, curve_points))
-    fractions = np.linspace(0.0, 1.0, curve_points)
+    fractions = _unit_steps(curve_points)[0]
     for row in range(size):
         a_floor = np.interp(t_floor[row, 0], t[row], arc[row])
         targets = a_floor + (arc[row, -1] - a_floor) * fractions
@@ -953,7 +961,8 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
         reached = reached | steep
     jsc = np.where(capped[:, None] | ~reached, np.nan, j_sc + change)
     j_mpp, v_mpp = current[:, n + 1:], voltage[:, n + 1:]
-    element_voltages = [np.broadcast_to(x, current.shape) for x in final["voltages"]]
+    element_voltages = [x if x.shape == current.shape else np.broadcast_to(x, current.shape)
+                        for x in final["voltages"]]
     curve = {"current_A_m2": current[:, :n].copy(), "voltage_V": voltage[:, :n].copy()}
     for element, v_i in zip(string.elements, element_voltages):
         curve[element.name] = np.array(v_i[:, :n], dtype=float)

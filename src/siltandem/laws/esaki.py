@@ -146,6 +146,20 @@ def validate_tunnel_parameters(*, peak_A_m2, peak_V, valley_A_m2, valley_V, exce
         Non-finite or non-positive values, peak voltage not below valley voltage, valley current not
         below peak current. The message names the parameter, the value and the fix.
     """
+    # the common case in one pass: every value finite and positive (the saturation current may
+    # be zero), the peak before the valley and above it; the checks below say what is wrong
+    values = [np.ravel(np.asarray(v, dtype=float)) for v in
+              (peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V, ideality,
+               temperature_K) if v is not None]
+    saturation = np.ravel(np.asarray(0.0 if saturation_A_m2 is None else saturation_A_m2,
+                                     dtype=float))
+    with np.errstate(invalid="ignore"):
+        together = np.concatenate(values)
+        if (np.isfinite(together).all() and (together > 0).all() and (saturation >= 0).all()
+                and np.isfinite(saturation).all()
+                and (np.asarray(peak_V) < np.asarray(valley_V)).all()
+                and (np.asarray(valley_A_m2) < np.asarray(peak_A_m2)).all()):
+            return
     checks = [("peak_A_m2", peak_A_m2, "A/m^2", False), ("peak_V", peak_V, "V", False),
               ("valley_A_m2", valley_A_m2, "A/m^2", False), ("valley_V", valley_V, "V", False),
               ("excess_slope_per_V", excess_slope_per_V, "1/V", False),
@@ -346,9 +360,11 @@ def _exact_peak_shape(jp, vp, jv, vv, c2, j0, n, t):
     # the common case compiled (siltandem.kernels.exact_peak_shape); where it finds no peak,
     # the lines below say why
     shape = np.broadcast(jp, vp, jv, vv, c2, j0, n, t).shape
-    flat = [np.ascontiguousarray(np.broadcast_to(x, shape), dtype=float).reshape(-1)
-            for x in (jp, vp, jv, vv, c2, j0, n * thermal_voltage_V(t))]
-    a, v1, ok = kernels.exact_peak_shape(*flat)
+    columns = (jp, vp, jv, vv, c2, j0, n * thermal_voltage_V(t))
+    rows = np.empty((len(columns), int(np.prod(shape, dtype=int))))
+    for k, column in enumerate(columns):
+        rows[k] = np.ravel(column)                 # size 1 or the full size: broadcasts
+    a, v1, ok = kernels.exact_peak_shape(*rows)
     if ok.all():
         return a.reshape(shape), v1.reshape(shape)
     rest, rest1, rest2 = (x + y for x, y in zip(_excess_term(vp, jv, vv, c2), _thermal_term(vp, j0, n, t)))
