@@ -161,9 +161,9 @@ def test_table_flags_currents_outside_and_brackets_inside():
     from siltandem import kernels
 
     u = np.linspace(0.0, 1.0, 11)[None, :]
-    params = np.array([[0.0, 1e-300, 0.0, 0.0, 1.0, -np.inf, 0.0, 3.28]])
     # J = -G u with G = 1: a shunt alone (the subcell law with no photocurrent and no diodes)
-    params[0, 3] = 1.0
+    params = kernels.parameter_rows(kernels.SUBCELL_LAW,
+                                    [[0.0, 1e-300, 0.0, 1.0, 1.0, -np.inf, 0.0, 3.28]])
     j, slope = kernels.evaluate_law(kernels.SUBCELL_LAW, params, u)
     table = LawTable(u, j, slope)
     assert not table.increasing

@@ -24,7 +24,7 @@ VT = float(thermal_voltage_V(T))
 
 
 def subcell_params(jph=300.0, j01=1e-16, j02=1e-7, g=0.01, vbr=-np.inf, a=0.0, m=3.28):
-    return np.array([[jph, j01, j02, g, VT, vbr, a, m]])
+    return kernels.parameter_rows(kernels.SUBCELL_LAW, [[jph, j01, j02, g, VT, vbr, a, m]])
 
 
 def tunnel_element(peak=1000.0, peak_v=0.06, valley=1000.0 / 12, valley_v=0.35):
@@ -61,7 +61,7 @@ def test_tunnel_law_satisfies_the_esaki_closed_forms():
     # the pure tunnelling term (no excess, no thermal current): J(Vp) = Jp, J'(Vp) = 0,
     # J(2 Vp) = (2/e) Jp, dJ/dV(0) = e Jp / Vp (Esaki 1958, the standard empirical form)
     jp, vp = 1000.0, 0.06
-    params = np.array([[jp, vp, 0.0, 0.35, 10.0, 0.0, VT, 0.0]])
+    params = kernels.parameter_rows(kernels.TUNNEL_LAW, [[jp, vp, 0.0, 0.35, 10.0, 0.0, VT, 0.0]])
     v = np.array([[vp, 2 * vp, 0.0]])
     j, dj = kernels.evaluate_law(kernels.TUNNEL_LAW, params, v)
     assert j[0, 0] == pytest.approx(jp, rel=1e-14)

@@ -158,8 +158,8 @@ class Subcell:
             rows = max(rows, np.shape(temperature_K)[0])
         if rows * (TABLE_FORWARD_POINTS + TABLE_REVERSE_POINTS) > TABLE_MAX_ENTRIES:
             return False
-        return bool(np.any(self.j02_A_m2 > 0) or np.any(self.shunt_S_m2 > 0) or np.any(
-            (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)))
+        return bool((self.j02_A_m2 > 0).any() or (self.shunt_S_m2 > 0).any() or (
+            (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)).any())
 
     def _table(self, temperature_K):
         """:class:`~siltandem.inverse.LawTable` of the junction law at one temperature, built
@@ -173,15 +173,16 @@ class Subcell:
         return self._cache[key]
 
     def _law_parameters(self, temperature_K):
-        """(R, 8) rows (Jph, J01, J02, G, Vt, Vbr, a, m) of the compiled law (kernels.py)."""
+        """Rows (Jph, J01, J02, G, Vt, Vbr, a, m, ...) of the compiled law
+        (kernels.parameter_rows)."""
         key = ("parameters", _temperature_key(temperature_K))
         if key not in self._cache:
             if self.photocurrent_A_m2 is None:
                 self._junction(temperature_K)                 # says what is missing
-            self._cache[key] = _parameter_rows(
+            self._cache[key] = kernels.parameter_rows(kernels.SUBCELL_LAW, _parameter_rows(
                 self.photocurrent_A_m2, self.j01_A_m2(temperature_K), self.j02_A_m2,
                 self.shunt_S_m2, thermal_voltage_V(np.asarray(temperature_K, dtype=float)),
-                self.breakdown_V, self.breakdown_factor, self.breakdown_exponent)
+                self.breakdown_V, self.breakdown_factor, self.breakdown_exponent))
         return self._cache[key]
 
     def _junction_voltage_fast(self, current_A_m2, temperature_K):
@@ -286,7 +287,9 @@ class Resistor:
 
     def voltage(self, current_A_m2, temperature_K):
         current = np.asarray(current_A_m2, dtype=float)
-        return -current * self.series_ohm_m2, np.broadcast_to(-self.series_ohm_m2, current.shape)
+        slope = np.empty(np.broadcast_shapes(current.shape, self.series_ohm_m2.shape))
+        slope[...] = -self.series_ohm_m2
+        return -current * self.series_ohm_m2, slope
 
     def current(self, voltage_V, temperature_K):
         voltage = np.asarray(voltage_V, dtype=float)
@@ -360,13 +363,15 @@ class TunnelJunction:
         return self._cache[key]
 
     def _law_parameters(self, temperature_K):
-        """(R, 8) rows (A, V1, Jv, Vv, C2, J0, n Vt, k) of the compiled law (kernels.py)."""
+        """Rows (A, V1, Jv, Vv, C2, J0, n Vt, k, ...) of the compiled law
+        (kernels.parameter_rows)."""
         key = ("parameters", _temperature_key(temperature_K))
         if key not in self._cache:
             a, v1, jv, vv, c2, j0, n, t = self._prepared(temperature_K)
             nvt = n * thermal_voltage_V(t)
             k = jv / -np.expm1(-2.0 * c2 * vv)
-            self._cache[key] = _parameter_rows(a, v1, jv, vv, c2, j0, nvt, k)
+            self._cache[key] = kernels.parameter_rows(
+                kernels.TUNNEL_LAW, _parameter_rows(a, v1, jv, vv, c2, j0, nvt, k))
         return self._cache[key]
 
     def junction_current(self, u, temperature_K):

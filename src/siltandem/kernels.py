@@ -23,12 +23,31 @@ import math
 import numba
 import numpy as np
 
-__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "invert", "invert_table", "invert_elements",
+__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "parameter_rows", "invert", "invert_table", "invert_elements",
            "evaluate_law", "tunnel_curvature", "subcell_table", "subcell_terminal_current"]
 
 #: law codes of :func:`invert_table`
 SUBCELL_LAW = 0
 TUNNEL_LAW = 1
+#: columns of a law's parameter rows: the law's 8 parameters, then quantities derived from them
+PARAMETER_WIDTH = 12
+
+
+def parameter_rows(code, base):
+    """A law's parameter rows for the kernels: ``base`` (R, 8), (Jph, J01, J02, G, Vt, Vbr, a, m)
+    for a subcell or (A, V1, Jv, Vv, C2, J0, n Vt, k) for a tunnel junction, followed by the
+    derived columns its scalar form reads (reciprocals, the shifted excess prefactor)."""
+    base = np.asarray(base, dtype=float)
+    rows = np.zeros((base.shape[0], PARAMETER_WIDTH))
+    rows[:, :8] = base
+    with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
+        if code == SUBCELL_LAW:
+            rows[:, 8] = 1.0 / base[:, 4]
+        else:
+            rows[:, 8] = 1.0 / base[:, 1]
+            rows[:, 9] = 1.0 / base[:, 6]
+            rows[:, 10] = base[:, 7] * np.exp(-base[:, 4] * base[:, 3])
+    return rows
 #: exponent beyond which the tunnel law's exponentials continue linearly (laws/esaki.py)
 EXP_LIMIT = 300.0
 _EPS = np.finfo(float).eps
@@ -46,10 +65,11 @@ def _limited_exp(z):
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _subcell(v, p):
-    """Junction current and dJ/dVj of a subcell; p = (Jph, J01, J02, G, Vt, Vbr, a, m)."""
-    jph, j01, j02, g, vt, vbr, a, m = p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7]
-    e1 = math.expm1(v / vt)
-    e2 = math.expm1(v / (2.0 * vt))
+    """Junction current and dJ/dVj of a subcell; p = (Jph, J01, J02, G, Vt, Vbr, a, m, 1/Vt)
+    (rows from :func:`parameter_rows`). expm1(2z) = expm1(z) (expm1(z) + 2): one exponential."""
+    jph, j01, j02, g, vbr, a, m, inverse = p[0], p[1], p[2], p[3], p[5], p[6], p[7], p[8]
+    e2 = math.expm1(0.5 * v * inverse)
+    e1 = e2 * (e2 + 2.0)
     multiplier, multiplier_slope = 1.0, 0.0
     if a > 0.0 and math.isfinite(vbr):
         base = max(1.0 - v / vbr, 1e-300)
@@ -59,31 +79,42 @@ def _subcell(v, p):
     second, second_slope = 0.0, 0.0
     if j02 > 0.0:
         second = j02 * e2
-        second_slope = (j02 / (2.0 * vt)) * (e2 + 1.0)
+        second_slope = 0.5 * j02 * inverse * (e2 + 1.0)
     j = jph - j01 * e1 - second - g * v * multiplier
-    dj = -(j01 / vt) * (e1 + 1.0) - second_slope - g * (multiplier + v * multiplier_slope)
+    dj = -j01 * inverse * (e1 + 1.0) - second_slope - g * (multiplier + v * multiplier_slope)
     return j, dj
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _tunnel(v, p):
-    """Esaki three-term current and dJ/du; p = (A, V1, Jv, Vv, C2, J0, n Vt, k), k the excess
-    term's prefactor Jv / (1 - exp(-2 C2 Vv))."""
-    a, v1, c2, j0, nvt, k = p[0], p[1], p[4], p[5], p[6], p[7]
-    vv = p[3]
-    x = v / v1
+    """Esaki three-term current and dJ/du; p = (A, V1, Jv, Vv, C2, J0, n Vt, k, 1/V1, 1/(n Vt),
+    k exp(-C2 Vv)), k the excess term's prefactor Jv / (1 - exp(-2 C2 Vv)) (rows from
+    :func:`parameter_rows`)."""
+    a, vv, c2, j0, k = p[0], p[3], p[4], p[5], p[7]
+    inverse_v1, inverse_nvt, shifted = p[8], p[9], p[10]
+    x = v * inverse_v1
     e1, e1d, _ = _limited_exp(1.0 - x)
-    ea, ead, _ = _limited_exp(c2 * (v - vv))
-    eb, ebd, _ = _limited_exp(-c2 * (v + vv))
-    z3 = v / nvt
+    c2v = c2 * v
+    if abs(c2v) + c2 * vv < 0.9 * EXP_LIMIT:
+        # exp(C2 (V - Vv)) and exp(-C2 (V + Vv)) from one exponential
+        ec = math.exp(c2v)
+        ei = 1.0 / ec
+        excess = shifted * (ec - ei)
+        excess_slope = shifted * c2 * (ec + ei)
+    else:
+        ea, ead, _ = _limited_exp(c2 * (v - vv))
+        eb, ebd, _ = _limited_exp(-c2 * (v + vv))
+        excess = k * (ea - eb)
+        excess_slope = k * c2 * (ead + ebd)
+    z3 = v * inverse_nvt
     if z3 > EXP_LIMIT:
         e3, e3d, _ = _limited_exp(z3)
         e3m1 = e3 - 1.0
     else:
         e3m1 = math.expm1(z3)
         e3d = e3m1 + 1.0
-    j = a * x * e1 + k * (ea - eb) + j0 * e3m1
-    dj = (a / v1) * (e1 - x * e1d) + k * c2 * (ead + ebd) + j0 * e3d / nvt
+    j = a * x * e1 + excess + j0 * e3m1
+    dj = a * inverse_v1 * (e1 - x * e1d) + excess_slope + j0 * e3d * inverse_nvt
     return j, dj
 
 
@@ -491,48 +522,39 @@ def subcell_table(params, forward_points, reverse_points):
 
 
 @numba.njit(cache=True, error_model="numpy")
-def string_pass(pilot, pilot_series, t, codes, params, grid_u, grid_j, grid_slope, lengths,
-                signs, fold_low, fold_high, lower, upper, range_low, range_high, voltage_sign,
-                series, xtol, rtol, max_iterations):
+def string_pass(pilot, t, codes, params, grid_u, grid_j, grid_slope, lengths, signs, fold_low,
+                fold_high, lower, upper, range_low, range_high, voltage_sign, series, xtol, rtol,
+                max_iterations):
     """One evaluation of a series string along the pilot junction voltage t, compiled.
 
-    The pilot subcell's forward law gives the string current J(t) (parameter rows ``pilot``
-    (R, 8), series resistance ``pilot_series`` (R,)); every packed element (arrays as for
-    :func:`invert_elements`, plus ``range_low``/``range_high`` (E, R): beyond them the element
-    has no voltage, NaN; ``voltage_sign`` (E,): +1 for a subcell, whose voltage is Vj - J Rs,
-    -1 for a tunnel junction, whose voltage is -u; ``series`` (E, R)) is inverted at J.
+    The pilot subcell's forward law (parameter rows ``pilot`` (R, P)) gives the string current
+    J(t); every packed element (arrays as for :func:`invert_elements`, plus
+    ``range_low``/``range_high`` (E, R): beyond them the element has no voltage, NaN;
+    ``voltage_sign`` (E,): +1 for a subcell, whose voltage is Vj - J Rs, -1 for a tunnel
+    junction, whose voltage is -u; ``series`` (E, R)) is inverted at J.
 
     Returns
     -------
     current, dcurrent : (B, N)
         J and dJ/dt.
-    voltage, dvoltage : (B, N)
-        The pilot's voltage plus every packed element's, and d/dt of the sum.
     element_voltage, element_slope : (E, B, N)
         Each packed element's voltage and dV/dJ.
     covered : (E, B, N) bool
         Where the element's table held the current (elsewhere the caller solves the entry its
-        own way and corrects the sums).
+        own way).
     """
     rows, n = t.shape
     count = codes.shape[0]
     current = np.empty((rows, n))
     dcurrent = np.empty((rows, n))
-    voltage = np.empty((rows, n))
-    dvoltage = np.empty((rows, n))
     element_voltage = np.empty((count, rows, n))
     element_slope = np.empty((count, rows, n))
     covered = np.empty((count, rows, n), dtype=np.bool_)
     shared = grid_u.shape[1] == 1
     for b in range(rows):
         pp = pilot[0] if pilot.shape[0] == 1 else pilot[b]
-        rp = pilot_series[0] if pilot_series.shape[0] == 1 else pilot_series[b]
         for i in range(n):
-            j, dj = _subcell(t[b, i], pp)
-            current[b, i] = j
-            dcurrent[b, i] = dj
-            voltage[b, i] = t[b, i] - j * rp
-            dvoltage[b, i] = 1.0 - rp * dj
+            current[b, i], dcurrent[b, i] = _subcell(t[b, i], pp)
     for e in range(count):
         m = lengths[e]
         code, sign, vsign = codes[e], signs[e], voltage_sign[e]
@@ -554,13 +576,9 @@ def string_pass(pilot, pilot_series, t, codes, params, grid_u, grid_j, grid_slop
                     inverse_slope = 1.0 / slope
                 else:
                     inverse_slope = -math.inf if vsign > 0.0 else math.nan
-                v = vsign * u - rs * j
-                dvdj = vsign * inverse_slope - rs
-                element_voltage[e, b, i] = v
-                element_slope[e, b, i] = dvdj
-                voltage[b, i] += v
-                dvoltage[b, i] += dvdj * dcurrent[b, i]
-    return current, dcurrent, voltage, dvoltage, element_voltage, element_slope, covered
+                element_voltage[e, b, i] = vsign * u - rs * j
+                element_slope[e, b, i] = vsign * inverse_slope - rs
+    return current, dcurrent, element_voltage, element_slope, covered
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -575,11 +593,12 @@ def exact_peak_shape(peak, peak_v, valley, valley_v, c2, j0, nvt):
     a = np.empty(n)
     v1 = np.empty(n)
     ok = np.empty(n, dtype=np.bool_)
-    p = np.zeros(8)
+    p = np.zeros(PARAMETER_WIDTH)
     for i in range(n):
         k = valley[i] / -math.expm1(-2.0 * c2[i] * valley_v[i])
         p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7] = (0.0, 1.0, valley[i], valley_v[i],
                                                           c2[i], j0[i], nvt[i], k)
+        p[8], p[9], p[10] = 1.0, 1.0 / nvt[i], k * math.exp(-c2[i] * valley_v[i])
         rest, rest1 = _tunnel(peak_v[i], p)
         margin = peak[i] - rest
         u = 1.0 + rest1 * peak_v[i] / margin
@@ -730,8 +749,8 @@ def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
     cell where it turns negative and the valley in the next cell where it turns positive again
     (for u >= 0, dJ/du falls to a single minimum and rises after it: laws/esaki.py,
     attained_peak_and_valley). Each root is polished inside its cell by :func:`_slope_root`.
-    Where ``exact_peak_v`` (R,) is finite and lies in the peak's cell, it is the peak (the law
-    was prepared to peak there in closed form). NaN where the samples see no such pair (the
+    Where ``exact_peak_v`` (R,) is finite and lies in the peak's cell or a neighbour of it, it
+    is the peak (the law was prepared to peak there in closed form). NaN where the samples see no such pair (the
     caller then brackets from the steepest point).
     """
     rows = params.shape[0]
@@ -756,7 +775,10 @@ def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
                 if first > 1 and slope >= 0.0:
                     lo, hi, s_lo, s_hi = peak_cell
                     vp = exact_peak_v[r]
-                    if math.isfinite(vp) and lo <= vp and vp <= hi:
+                    # (a sample can land on Vp itself, where the slope is zero to rounding
+                    # and its sign is chance: the neighbouring cells count too)
+                    width = hi - lo
+                    if math.isfinite(vp) and lo - width <= vp and vp <= hi + width:
                         peak[r] = vp
                     else:
                         peak[r] = _slope_root(p, lo, hi, s_lo, s_hi, False, xtol, rtol,
@@ -766,3 +788,17 @@ def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
                 break
             previous_u, previous_s = u, slope
     return peak, valley
+
+
+@numba.njit(cache=True, error_model="numpy")
+def bose_einstein_tail(x, terms):
+    """I(x) = integral_x^inf t^2 / (e^t - 1) dt by its series sum_k e^(-k x) (x^2/k + 2x/k^2 +
+    2/k^3), ``terms`` terms, for a flat array x > 0 (laws/radiative.py says when it is exact)."""
+    out = np.empty(x.shape[0])
+    for i in range(x.shape[0]):
+        xi = x[i]
+        total = 0.0
+        for k in range(1, terms + 1):
+            total += math.exp(-k * xi) * (xi * xi / k + 2.0 * xi / (k * k) + 2.0 / (k * k * k))
+        out[i] = total
+    return out

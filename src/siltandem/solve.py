@@ -169,7 +169,7 @@ class _CompiledGroup:
         self.codes = np.array(codes, dtype=np.int64)
         self.signs = np.array(signs)
         self.lengths = np.array([t.u.shape[1] for t in tables], dtype=np.int64)
-        self.params = np.empty((count, rows, 8))
+        self.params = np.empty((count, rows, kernels.PARAMETER_WIDTH))
         # padded tables: every row (R, width), the samples first
         self.grid_u = np.zeros((count, rows, width))
         self.grid_j = np.zeros((count, rows, width))
@@ -198,9 +198,6 @@ class _CompiledGroup:
         # -u for a tunnel junction
         self.voltage_sign = np.array([1.0 if e.kind == "subcell" else -1.0
                                       for _, e, _ in members])[:, None, None]
-        if self.pilot is not None:
-            self.pilot_series = np.ascontiguousarray(np.broadcast_to(
-                self.pilot.series_ohm_m2, (self.pilot_params.shape[0], 1))[:, 0], dtype=float)
 
     def evaluate(self, t):
         """The fused compiled pass (kernels.string_pass) at pilot voltages ``t``: None where
@@ -209,7 +206,7 @@ class _CompiledGroup:
         if self.rows > 1 and t.shape[0] != self.rows:
             t = np.broadcast_to(t, (self.rows, t.shape[1]))
         out = kernels.string_pass(
-            self.pilot_params, self.pilot_series, np.ascontiguousarray(t), self.codes,
+            self.pilot_params, np.ascontiguousarray(t), self.codes,
             self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths, self.signs,
             self.fold_low, self.fold_high, self.lower, self.upper, self.range_low[:, :, 0],
             self.range_high[:, :, 0], self.voltage_sign[:, 0, 0], self.series[:, :, 0],
@@ -268,8 +265,9 @@ class _String:
         size = max([1] + [v.shape[0] for e in self.elements for v in vars(e).values()
                           if isinstance(v, np.ndarray) and v.ndim == 2])
         self.size = size
-        photocurrents = np.concatenate(
-            [np.broadcast_to(s.photocurrent_A_m2, (size, 1)) for s in self.subcells], axis=1)
+        photocurrents = np.empty((size, len(self.subcells)))
+        for k, s in enumerate(self.subcells):
+            photocurrents[:, k] = s.photocurrent_A_m2[:, 0]
         self.pilot_index = np.argmin(photocurrents, axis=1)[:, None]  # (B, 1)
         self.pilot_photocurrent = np.take_along_axis(photocurrents, self.pilot_index, axis=1)
         # one pilot for every design (the common case): only its forward law is needed
@@ -402,29 +400,32 @@ class _String:
 
     def _finish_fused(self, t, fused, group, branches, slopes):
         """The rest of :meth:`evaluate` after the fused compiled pass: the elements it did not
-        take (resistors, isotype interfaces, subcells and junctions without tables)."""
-        current, dcurrent, voltage, dvoltage, element_voltage, _, _ = fused
-        voltages = []
+        take (resistors, isotype interfaces, subcells and junctions without tables), and the
+        sums in element order, as the general route adds them (a design's numbers never
+        depend on which route its batch took)."""
+        current, dcurrent, element_voltage, element_slope, _ = fused
+        voltages, dvoltage = [], np.zeros(np.shape(t))
         for index, element in enumerate(self.elements):
             k = group.index.get(index)
             if k is not None:
-                voltages.append(element_voltage[k])
-                continue
-            if index == group.pilot_index:
-                voltages.append(t - current * element.series_ohm_m2)
-                continue
-            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-                if element.kind == "tunnel":
-                    branch = branches.get(element.name, "tunnel")
-                    v, slope = element.voltage(current, self.temperature_K, branch,
-                                               None if branch == "tunnel" else
-                                               self.tunnel_extrema[element.name])
-                else:
-                    v, slope = element.voltage(current, self.temperature_K)
-                voltage = voltage + v
-                dvoltage = dvoltage + slope * dcurrent
+                v, dv_dt = element_voltage[k], element_slope[k] * dcurrent
+            elif index == group.pilot_index:
+                v = t - current * element.series_ohm_m2
+                dv_dt = 1.0 - element.series_ohm_m2 * dcurrent
+            else:
+                with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                    if element.kind == "tunnel":
+                        branch = branches.get(element.name, "tunnel")
+                        v, slope = element.voltage(current, self.temperature_K, branch,
+                                                   None if branch == "tunnel" else
+                                                   self.tunnel_extrema[element.name])
+                    else:
+                        v, slope = element.voltage(current, self.temperature_K)
+                    dv_dt = slope * dcurrent
             voltages.append(v)
-        out = dict(current=current, voltage=voltage, voltages=voltages)
+            dvoltage = dvoltage + dv_dt
+        out = dict(current=current, voltage=functools.reduce(np.add, voltages),
+                   voltages=voltages)
         if slopes:
             out.update(dcurrent=dcurrent, dvoltage=dvoltage)
         return out
@@ -567,8 +568,8 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
 
     with np.errstate(invalid="ignore", divide="ignore"):
         fill_factor = p_mpp / (voc * jsc)
-    results = [voc, v_mpp, j_mpp, p_mpp]
-    failed = ~np.all([np.isfinite(r) for r in results], axis=0)[:, 0]
+    failed = ~(np.isfinite(voc) & np.isfinite(v_mpp) & np.isfinite(j_mpp)
+               & np.isfinite(p_mpp))[:, 0]
     capped = simple.get("capped", np.zeros(failed.shape, dtype=bool))
     failed = failed | (~np.isfinite(jsc[:, 0]) & ~capped)
     if np.any(failed):

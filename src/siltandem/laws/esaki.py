@@ -462,10 +462,14 @@ def extrema_of_prepared(prepared, *, exact_peak_V=None, stacklevel=2):
     if retry.any():
         p_v, v_v = _extrema_by_bracketing(tuple(x[retry] for x in args))
         peak_v[retry], valley_v[retry] = p_v, v_v
-    both = np.concatenate([peak_v, valley_v])
+    # J at both, by the compiled form of the law (the one the solver's tables and
+    # siltandem.elements.TunnelJunction.peak use: the same rounding everywhere)
+    rows = _compiled_rows(args)
+    both = np.stack([peak_v, valley_v], axis=1)
     found = np.isfinite(both)
-    values = np.where(found, _total(np.where(found, both, 0.0),
-                                    *(np.concatenate([x, x]) for x in args))[0], np.nan)
+    values = np.where(found, kernels.evaluate_law(
+        kernels.TUNNEL_LAW, rows, np.ascontiguousarray(np.where(found, both, 0.0)))[0], np.nan)
+    values = np.concatenate([values[:, 0], values[:, 1]])
     peak_j, valley_j = values[:peak_v.size], values[peak_v.size:]
     missing = int(np.count_nonzero(~np.isfinite(peak_v) | ~np.isfinite(valley_v)))
     if missing:
@@ -477,6 +481,14 @@ def extrema_of_prepared(prepared, *, exact_peak_V=None, stacklevel=2):
 
 #: samples of dJ/dV on (0, 3 max(Vv, 2 V1)] that locate the peak's and the valley's cells
 _EXTREMA_SAMPLES = 192
+
+
+def _compiled_rows(args):
+    """Parameter rows of the compiled law (siltandem.kernels) from flat prepared arrays."""
+    a, v1, jv, vv, c2, j0, n, t = args
+    nvt = n * thermal_voltage_V(t)
+    return kernels.parameter_rows(kernels.TUNNEL_LAW, np.stack(
+        np.broadcast_arrays(a, v1, jv, vv, c2, j0, nvt, jv / -np.expm1(-2.0 * c2 * vv)), axis=1))
 
 
 def _extrema_by_table(args, exact_peak_V=None):
@@ -492,11 +504,7 @@ def _extrema_by_table(args, exact_peak_V=None):
     root to rounding (compiled: siltandem.kernels.tunnel_extrema). NaN where the grid sees no
     such pair (the caller then brackets from the steepest point, :func:`_extrema_by_bracketing`).
     """
-    a, v1, jv, vv, c2, j0, n, t = args
-    nvt = n * thermal_voltage_V(t)
-    params = np.ascontiguousarray(np.stack(
-        np.broadcast_arrays(a, v1, jv, vv, c2, j0, nvt, jv / -np.expm1(-2.0 * c2 * vv)),
-        axis=1), dtype=float)
+    params = _compiled_rows(args)
     exact = np.full(params.shape[0], np.nan) if exact_peak_V is None else \
         np.ascontiguousarray(np.broadcast_to(exact_peak_V, params.shape[:1]), dtype=float)
     with np.errstate(all="ignore"):

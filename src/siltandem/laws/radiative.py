@@ -17,6 +17,7 @@ S. Ruehle, Solar Energy 130 (2016) 139 (tabulated limits under AM1.5G).
 """
 import numpy as np
 
+from .. import kernels
 from ..constants import (
     BOLTZMANN_EV_K,
     ELEMENTARY_CHARGE_C,
@@ -31,7 +32,8 @@ def bose_einstein_tail(x):
     """Dimensionless integral  I(x) = integral_x^inf t^2 / (exp(t) - 1) dt  for x > 0.
 
     Evaluated by the convergent series  sum_k exp(-k x) (x^2/k + 2x/k^2 + 2/k^3), exact to
-    double precision for x >= 3 with 12 terms (every gap >= 0.3 eV up to 1000 K).
+    double precision for x >= 3 with 12 terms (every gap >= 0.3 eV up to 1000 K); the sum runs
+    compiled (siltandem.kernels.bose_einstein_tail).
 
     Parameters
     ----------
@@ -39,9 +41,7 @@ def bose_einstein_tail(x):
         Reduced gap Eg / kT [-], > 0.
     """
     x = np.asarray(x, dtype=float)
-    k = np.arange(1, _TERMS + 1, dtype=float).reshape((-1,) + (1,) * x.ndim)
-    terms = np.exp(-k * x) * (x**2 / k + 2.0 * x / k**2 + 2.0 / k**3)
-    return terms.sum(axis=0)
+    return kernels.bose_einstein_tail(np.ascontiguousarray(x.reshape(-1)), _TERMS).reshape(x.shape)
 
 
 def radiative_saturation_current(gap_eV, *, temperature_K, absorptance=1.0):
