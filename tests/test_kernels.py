@@ -187,3 +187,16 @@ def test_terminal_current_matches_pvlib_i_from_v():
     h = 1e-5                                   # central difference: error about 1e-7 here
     numeric = (cell.current(v + h, T)[0] - cell.current(v - h, T)[0]) / (2 * h)
     np.testing.assert_allclose(slope, numeric, rtol=1e-5)
+
+
+def test_the_compiled_kernels_are_cached_for_the_next_run(am15g):
+    # numba's on-disk cache (cache=True): after one solve with tabled elements the fused pass
+    # is in the cache, so the next process starts without compiling (the command line says
+    # when it must compile first)
+    from siltandem.solve import solve_string
+
+    cells = [Subcell("cell", batch(1.42), ere=batch(1e-2), j02_A_m2=batch(1e-7),
+                     shunt_S_m2=batch(0.01)).with_photocurrent(batch(300.0)),
+             Subcell("other", batch(1.12), shunt_S_m2=batch(0.01)).with_photocurrent(batch(400.0))]
+    solve_string(cells, T, curve_points=50)
+    assert kernels.compiled_already() is True

@@ -279,6 +279,12 @@ def _run(args):
 
 def main(argv=None):
     args = _parser().parse_args(argv)
+    if args.command != "materials":
+        from . import kernels
+
+        if kernels.compiled_already() is False:
+            print("siltandem: compiling the solver's kernels (the first run after installing or "
+                  "updating; about 10-20 s, once)", file=sys.stderr, flush=True)
     try:
         if args.command == "run":
             return _run(args)

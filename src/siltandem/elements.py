@@ -221,11 +221,11 @@ class Subcell:
                                          **self._junction(temperature_K))
         # the solve of laws/diode.py subcell_current, compiled (kernels.py)
         params = self._law_parameters(temperature_K)
-        series = np.ascontiguousarray(np.broadcast_to(
+        series = kernels.as_input(np.broadcast_to(
             self.series_ohm_m2, (params.shape[0], 1))[:, 0], dtype=float)
         if params.shape[0] > 1 and voltage.shape[0] != params.shape[0]:
             voltage = np.broadcast_to(voltage, (params.shape[0], voltage.shape[1]))
-        return kernels.subcell_terminal_current(params, series, np.ascontiguousarray(voltage),
+        return kernels.subcell_terminal_current(params, series, kernels.as_input(voltage),
                                                 kernels.XTOL, kernels.RTOL,
                                                 kernels.MAX_ITERATIONS)
 
@@ -244,7 +244,7 @@ class Subcell:
             return current, slope
         if params.shape[0] > 1 and v.shape[0] != params.shape[0]:
             v = np.broadcast_to(v, (params.shape[0], v.shape[1]))
-        return kernels.evaluate_law(kernels.SUBCELL_LAW, params, np.ascontiguousarray(v))
+        return kernels.evaluate_law(kernels.SUBCELL_LAW, params, kernels.as_input(v))
 
     def pilot_current(self, v_junction_V, temperature_K):
         """Current, its slope and the terminal voltage from the junction voltage [V].
@@ -382,7 +382,7 @@ class TunnelJunction:
             params = self._law_parameters(temperature_K)
             if params.shape[0] > 1 and u.shape[0] != params.shape[0]:
                 u = np.broadcast_to(u, (params.shape[0], u.shape[1]))
-            return kernels.evaluate_law(kernels.TUNNEL_LAW, params, np.ascontiguousarray(u))
+            return kernels.evaluate_law(kernels.TUNNEL_LAW, params, kernels.as_input(u))
         j, slope, _ = esaki.evaluate_prepared(u, self._prepared(temperature_K))
         return j, slope
 
@@ -407,7 +407,7 @@ class TunnelJunction:
         key = ("peak", key[1])
         if key not in self._cache:
             params = self._law_parameters(temperature_K)
-            peak_v = np.ascontiguousarray(np.broadcast_to(self.peak_V, (params.shape[0], 1)),
+            peak_v = kernels.as_input(np.broadcast_to(self.peak_V, (params.shape[0], 1)),
                                           dtype=float)
             self._cache[key] = (peak_v, kernels.evaluate_law(kernels.TUNNEL_LAW, params,
                                                              peak_v)[0])
@@ -435,11 +435,11 @@ class TunnelJunction:
                     grid = valley_v + THERMAL_TABLE_SPAN_V * _UNIT_GRID
                 values, slopes = kernels.evaluate_law(
                     kernels.TUNNEL_LAW, self._law_parameters(temperature_K),
-                    np.ascontiguousarray(grid))
+                    kernels.as_input(grid))
                 # curvature d2J/du2 at the peak and at the valley: the folds' quadratic models
                 folds = kernels.tunnel_curvature(
                     self._law_parameters(temperature_K),
-                    np.ascontiguousarray(np.concatenate([peak_v, valley_v], axis=1)))
+                    kernels.as_input(np.concatenate([peak_v, valley_v], axis=1)))
                 table = (LawTable(grid, values, slopes), np.abs(folds[:, :1]),
                          np.abs(folds[:, 1:]))
             self._cache[key] = table

@@ -33,6 +33,15 @@ TUNNEL_LAW = 1
 PARAMETER_WIDTH = 12
 
 
+def as_input(x, dtype=float):
+    """``x`` as a C-ordered, writable array of ``dtype`` (copied only where needed): every
+    kernel argument goes through it, so that each kernel is compiled for one array type only
+    (a read-only view, such as np.broadcast_to gives, would be a second type and a second
+    compilation)."""
+    a = np.ascontiguousarray(x, dtype=dtype)
+    return a if a.flags.writeable else a.copy()
+
+
 def parameter_rows(code, base):
     """A law's parameter rows for the kernels: ``base`` (R, 8), (Jph, J01, J02, G, Vt, Vbr, a, m)
     for a subcell or (A, V1, Jv, Vv, C2, J0, n Vt, k) for a tunnel junction, followed by the
@@ -187,6 +196,23 @@ def _hermite_inverse(y, xl, xh, jl, jh, dl, dh):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
+def _bracketed_step(x, g, dg, xl, xh, previous):
+    """One step of a safeguarded Newton search on a rising g inside [xl, xh]: the bracket
+    shrinks to the side where g changes sign, Newton's step is taken where it stays inside and
+    at most halves the previous step, bisection otherwise (W. H. Press et al., Numerical
+    Recipes, sec. 9.4, 'rtsafe'). Returns (x, step, xl, xh)."""
+    if g < 0.0:
+        xl = x
+    else:
+        xh = x
+    newton = x - g / dg if dg != 0.0 else math.nan
+    if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
+        return newton, newton - x, xl, xh
+    step = 0.5 * (xh - xl)
+    return xl + step, step, xl, xh
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol,
                 max_iterations, hint):
     """(u, dJ/du, inside, cell) for one target y in one law's table (see
@@ -238,65 +264,56 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
     if not (x >= xl and x <= xh):
         x = 0.5 * (xl + xh)
     ftol = 2.0 * _EPS * abs(y)
-    j, dj = _law(code, x, p)
-    g = sign * (j - y)
-    if abs(g) <= ftol:
-        return x, dj, True, lo
-    if dj != 0.0 and math.isfinite(dj):
-        step = (j - y) / dj
-        newton = x - step
-        if newton > xl and newton < xh:
-            # the error the step leaves, |J''| s^2 / (2 |J'|), with |J''| bounded by 4 times
-            # the larger of the slope's mean rates of change from the cell's ends to the guess
-            # (written without divisions: each side's rate is |dJ' / du| over its distance)
-            tolerance = (xtol + rtol * abs(newton)) * abs(dj)
-            squared = 2.0 * step * step
-            if (squared * abs(dj - gs[lo]) <= tolerance * (x - xl)
-                    and squared * abs(gs[hi] - dj) <= tolerance * (xh - x)):
-                side = gs[hi] if newton > x else gs[lo]
-                end = xh if newton > x else xl
-                slope = dj + (side - dj) * (newton - x) / (end - x) if end != x else dj
-                return newton, slope, True, lo
-            # not yet: one more evaluation at the Newton point, and the same test on the
-            # next step (which quadratic convergence makes tiny)
-            if g < 0.0:
-                xl = x
-            else:
-                xh = x
-            x = newton
-            j, dj = _law(code, x, p)
-            g = sign * (j - y)
-            if abs(g) <= ftol:
-                return x, dj, True, lo
-            if dj != 0.0 and math.isfinite(dj):
-                step = (j - y) / dj
-                newton = x - step
-                tolerance = (xtol + rtol * abs(newton)) * abs(dj)
-                squared = 2.0 * step * step
-                if (newton > xl and newton < xh
-                        and squared * abs(dj - gs[lo]) <= tolerance * (x - gu[lo])
-                        and squared * abs(gs[hi] - dj) <= tolerance * (gu[hi] - x)):
-                    return newton, dj, True, lo
-    # the general search: Newton inside the shrinking bracket, bisection as needed
+    # one law evaluation per pass of this loop (a single call site keeps the compiled code
+    # small): stage 0 at the first guess, stage 1 at its Newton point, stage 2 the general
+    # search (Newton inside the shrinking bracket, bisection where a step would leave it or
+    # stop shrinking)
+    stage = 0
     previous = xh - xl
-    for _ in range(max_iterations):
-        if g < 0.0:
-            xl = x
-        else:
-            xh = x
-        dg = sign * dj
-        newton = x - g / dg if dg != 0.0 else math.nan
-        if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
-            step = newton - x
-            x = newton
-        else:
-            step = 0.5 * (xh - xl)
-            x = xl + step
-        previous = step
+    step = xh - xl
+    for _ in range(max_iterations + 2):
         j, dj = _law(code, x, p)
         g = sign * (j - y)
-        if abs(g) <= ftol or abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
-            break
+        if abs(g) <= ftol:
+            return x, dj, True, lo
+        if stage == 2:
+            if abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
+                return x, dj, True, lo
+        elif dj != 0.0 and math.isfinite(dj):
+            step = (j - y) / dj
+            newton = x - step
+            if newton > xl and newton < xh:
+                # the error the step leaves, |J''| s^2 / (2 |J'|), with |J''| bounded by 4
+                # times the larger of the slope's mean rates of change from the cell's ends to
+                # the point (written without divisions: each side's rate over its distance)
+                tolerance = (xtol + rtol * abs(newton)) * abs(dj)
+                squared = 2.0 * step * step
+                if (squared * abs(dj - gs[lo]) <= tolerance * (x - gu[lo])
+                        and squared * abs(gs[hi] - dj) <= tolerance * (gu[hi] - x)):
+                    if stage == 1:
+                        return newton, dj, True, lo
+                    side = gs[hi] if newton > x else gs[lo]
+                    end = xh if newton > x else xl
+                    slope = dj + (side - dj) * (newton - x) / (end - x) if end != x else dj
+                    return newton, slope, True, lo
+                if stage == 0:
+                    # not yet: one more evaluation at the Newton point, and the same test on
+                    # the next step (which quadratic convergence makes tiny)
+                    if g < 0.0:
+                        xl = x
+                    else:
+                        xh = x
+                    x = newton
+                    stage = 1
+                    continue
+            stage = 2
+            previous = xh - xl
+        else:
+            stage = 2
+            previous = xh - xl
+        # the general search from x
+        x, step, xl, xh = _bracketed_step(x, g, sign * dj, xl, xh, previous)
+        previous = step
     return x, dj, True, lo
 
 
@@ -422,14 +439,14 @@ def invert(code, params, table, targets, *, increasing, fold_low=None, fold_high
     else:
         grid_u, grid_j, grid_slope = table.u, table.j, table.slope
     zeros = np.zeros(grid_u.shape[0])
-    fold_low = zeros if fold_low is None else np.ascontiguousarray(
+    fold_low = zeros if fold_low is None else as_input(
         np.broadcast_to(np.ravel(fold_low), zeros.shape), dtype=float)
-    fold_high = zeros if fold_high is None else np.ascontiguousarray(
+    fold_high = zeros if fold_high is None else as_input(
         np.broadcast_to(np.ravel(fold_high), zeros.shape), dtype=float)
-    return invert_table(code, np.ascontiguousarray(params), np.ascontiguousarray(grid_u),
-                        np.ascontiguousarray(grid_j), np.ascontiguousarray(grid_slope),
+    return invert_table(code, as_input(params), as_input(grid_u),
+                        as_input(grid_j), as_input(grid_slope),
                         bool(increasing), fold_low, fold_high,
-                        np.ascontiguousarray(targets), XTOL, RTOL, MAX_ITERATIONS)
+                        as_input(targets), XTOL, RTOL, MAX_ITERATIONS)
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -469,17 +486,7 @@ def subcell_terminal_current(params, series, voltage, xtol, rtol, max_iterations
                 dh = 1.0 - rs * dj
                 if h == 0.0:
                     break
-                if h < 0.0:
-                    xl = x
-                else:
-                    xh = x
-                newton = x - h / dh
-                if newton > xl and newton < xh and abs(newton - x) <= 0.5 * abs(previous):
-                    step = newton - x
-                    x = newton
-                else:
-                    step = 0.5 * (xh - xl)
-                    x = xl + step
+                x, step, xl, xh = _bracketed_step(x, h, dh, xl, xh, previous)
                 previous = step
                 j, dj = _subcell(x, p)
                 if abs(step) <= xtol + rtol * abs(x) or xh - xl <= xtol:
@@ -723,18 +730,7 @@ def _slope_root(p, lo, hi, s_lo, s_hi, rising, xtol, rtol, max_iterations):
         g = sign * g
         if g == 0.0:
             break
-        if g < 0.0:
-            lo = x
-        else:
-            hi = x
-        dg = sign * _tunnel_bend(x, p)
-        newton = x - g / dg if dg != 0.0 else math.nan
-        if newton > lo and newton < hi and abs(newton - x) <= 0.5 * abs(previous):
-            step = newton - x
-            x = newton
-        else:
-            step = 0.5 * (hi - lo)
-            x = lo + step
+        x, step, lo, hi = _bracketed_step(x, g, sign * _tunnel_bend(x, p), lo, hi, previous)
         previous = step
         if abs(step) <= xtol + rtol * abs(x) or hi - lo <= xtol:
             break
@@ -802,3 +798,13 @@ def bose_einstein_tail(x, terms):
             total += math.exp(-k * xi) * (xi * xi / k + 2.0 * xi / (k * k) + 2.0 / (k * k * k))
         out[i] = total
     return out
+
+
+def compiled_already():
+    """True when the kernels' compiled code is in numba's cache for this source (the solve
+    starts at once); False when the next solve compiles them (the first run after installing
+    or changing this file). Reads numba's cache index; None when it cannot tell."""
+    try:
+        return bool(string_pass._cache._cache_file._load_index())
+    except Exception:                                   # numba's private layout changed
+        return None

@@ -206,7 +206,7 @@ class _CompiledGroup:
         if self.rows > 1 and t.shape[0] != self.rows:
             t = np.broadcast_to(t, (self.rows, t.shape[1]))
         out = kernels.string_pass(
-            self.pilot_params, np.ascontiguousarray(t), self.codes,
+            self.pilot_params, kernels.as_input(t), self.codes,
             self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths, self.signs,
             self.fold_low, self.fold_high, self.lower, self.upper, self.range_low[:, :, 0],
             self.range_high[:, :, 0], self.voltage_sign[:, 0, 0], self.series[:, :, 0],
@@ -220,7 +220,7 @@ class _CompiledGroup:
         current = np.asarray(current, dtype=float)
         if self.rows > 1 and current.shape[0] != self.rows:
             current = np.broadcast_to(current, (self.rows, current.shape[1]))
-        current = np.ascontiguousarray(current)
+        current = kernels.as_input(current)
         u, slope, covered = kernels.invert_elements(
             self.codes, self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths,
             self.signs, self.fold_low, self.fold_high, self.lower, self.upper, current,
@@ -872,7 +872,8 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     finite = ((np.isfinite(dense["voltage"]) & np.isfinite(dense["dvoltage"]))
               | (dense["voltage"] == -np.inf))
     # both crossings at once: the rows twice, once per level (compiled, kernels.py)
-    twice = [np.ascontiguousarray(np.concatenate([x, x], axis=0)) for x in (t, v, dv, finite)]
+    twice = [kernels.as_input(np.concatenate([x, x], axis=0), x.dtype)
+             for x in (t, v, dv, finite)]
     crossing, cell_lo, cell_hi = (x[:, None] for x in kernels.hermite_crossing(
         twice[0], twice[1], twice[2], np.concatenate([np.zeros_like(voc), v_floor], axis=0)[:, 0],
         twice[3]))
@@ -882,8 +883,8 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     # of the cubic Hermite interpolant of P (exact P and dP/dt at both ends), with its d2P/dt2
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
         t_best, t_other, turns, t_mpp, curvature = (x[:, None] for x in kernels.power_maximum(
-            np.ascontiguousarray(t), np.ascontiguousarray(j), np.ascontiguousarray(v),
-            np.ascontiguousarray(dj), np.ascontiguousarray(dv)))
+            kernels.as_input(t), kernels.as_input(j), kernels.as_input(v),
+            kernels.as_input(dj), kernels.as_input(dv)))
 
     # polish the three estimates together inside their sample cells (exact brackets): Newton
     # on V - level for the two crossings, and on -dP/dt for the MPP with d2P/dt2 from the

@@ -468,7 +468,7 @@ def extrema_of_prepared(prepared, *, exact_peak_V=None, stacklevel=2):
     both = np.stack([peak_v, valley_v], axis=1)
     found = np.isfinite(both)
     values = np.where(found, kernels.evaluate_law(
-        kernels.TUNNEL_LAW, rows, np.ascontiguousarray(np.where(found, both, 0.0)))[0], np.nan)
+        kernels.TUNNEL_LAW, rows, kernels.as_input(np.where(found, both, 0.0)))[0], np.nan)
     values = np.concatenate([values[:, 0], values[:, 1]])
     peak_j, valley_j = values[:peak_v.size], values[peak_v.size:]
     missing = int(np.count_nonzero(~np.isfinite(peak_v) | ~np.isfinite(valley_v)))
@@ -506,7 +506,7 @@ def _extrema_by_table(args, exact_peak_V=None):
     """
     params = _compiled_rows(args)
     exact = np.full(params.shape[0], np.nan) if exact_peak_V is None else \
-        np.ascontiguousarray(np.broadcast_to(exact_peak_V, params.shape[:1]), dtype=float)
+        kernels.as_input(np.broadcast_to(exact_peak_V, params.shape[:1]), dtype=float)
     with np.errstate(all="ignore"):
         return kernels.tunnel_extrema(params, exact, _EXTREMA_SAMPLES, 1e-13, 4e-16, 100)
 

@@ -41,7 +41,7 @@ def bose_einstein_tail(x):
         Reduced gap Eg / kT [-], > 0.
     """
     x = np.asarray(x, dtype=float)
-    return kernels.bose_einstein_tail(np.ascontiguousarray(x.reshape(-1)), _TERMS).reshape(x.shape)
+    return kernels.bose_einstein_tail(kernels.as_input(x.reshape(-1)), _TERMS).reshape(x.shape)
 
 
 def radiative_saturation_current(gap_eV, *, temperature_K, absorptance=1.0):
