@@ -1,5 +1,4 @@
 """Subcells given by their measured external quantum efficiency (eqe = "file.csv")."""
-import numpy as np
 import pytest
 
 from siltandem.constants import HC_EV_NM

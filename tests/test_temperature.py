@@ -1,5 +1,4 @@
 """Temperature dependence: gaps through Varshni, Voc against the published temperature law."""
-import numpy as np
 import pytest
 
 from siltandem.constants import BOLTZMANN_EV_K

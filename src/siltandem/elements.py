@@ -34,8 +34,6 @@ TABLE_FORWARD_POINTS = 512
 #: largest table (designs x points) an element keeps; beyond it (batches of thousands of
 #: designs) the laws' own root finds serve, at O(designs x points) memory instead
 TABLE_MAX_ENTRIES = 4_000_000
-#: an inverse is done when its residual is within two rounding units of the current
-ROUNDING_TOLERANCE = 2 * np.finfo(float).eps
 
 
 def _temperature_key(temperature_K):

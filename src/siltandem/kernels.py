@@ -756,7 +756,6 @@ def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
         p = params[r]
         top = 3.0 * max(p[3], 2.0 * p[1])
         first = -1
-        rising = -1
         previous_u, previous_s = 0.0, 0.0
         peak_cell = (0.0, 0.0, 0.0, 0.0)
         for i in range(1, samples + 1):
@@ -766,8 +765,7 @@ def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
                 if slope < 0.0:
                     first = i
                     peak_cell = (previous_u, u, previous_s, slope)
-            elif slope >= 0.0 or not slope < 0.0:
-                rising = i
+            elif not slope < 0.0:                     # the first rise after it (or NaN)
                 if first > 1 and slope >= 0.0:
                     lo, hi, s_lo, s_hi = peak_cell
                     vp = exact_peak_v[r]
