@@ -19,6 +19,7 @@ All functions are pure and vectorized: array arguments broadcast, SI units (eV f
 """
 from __future__ import annotations
 
+import math
 import warnings
 from typing import NamedTuple
 
@@ -126,6 +127,19 @@ def _first_bad(mask, values):
     return where, vals
 
 
+def _single_floats(*values):
+    """The values as floats (None stays None) when each holds one number, else None."""
+    out = []
+    for v in values:
+        if v is None:
+            out.append(None)
+            continue
+        if np.size(v) != 1:
+            return None
+        out.append(float(np.ravel(v)[0]))
+    return out
+
+
 def validate_tunnel_parameters(*, peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V=None,
                                saturation_A_m2=None, ideality=None, temperature_K=None,
                                where="tunnel junction"):
@@ -147,7 +161,16 @@ def validate_tunnel_parameters(*, peak_A_m2, peak_V, valley_A_m2, valley_V, exce
         below peak current. The message names the parameter, the value and the fix.
     """
     # the common case in one pass: every value finite and positive (the saturation current may
-    # be zero), the peak before the valley and above it; the checks below say what is wrong
+    # be zero), the peak before the valley and above it; the checks below say what is wrong.
+    # One junction (every value a single number) takes plain floats
+    single = _single_floats(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V,
+                            ideality, temperature_K, saturation_A_m2)
+    if single is not None:
+        jp, vp, jv, vv, *rest, j0 = single
+        positive = [jp, vp, jv, vv] + [x for x in rest if x is not None]
+        if (all(math.isfinite(x) and x > 0 for x in positive)
+                and (j0 is None or (math.isfinite(j0) and j0 >= 0)) and vp < vv and jv < jp):
+            return
     values = [np.ravel(np.asarray(v, dtype=float)) for v in
               (peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V, ideality,
                temperature_K) if v is not None]
@@ -359,11 +382,16 @@ def evaluate_prepared(voltage_V, prepared):
 def _exact_peak_shape(jp, vp, jv, vv, c2, j0, n, t):
     # the common case compiled (siltandem.kernels.exact_peak_shape); where it finds no peak,
     # the lines below say why
-    shape = np.broadcast(jp, vp, jv, vv, c2, j0, n, t).shape
-    columns = (jp, vp, jv, vv, c2, j0, n * thermal_voltage_V(t))
-    rows = np.empty((len(columns), int(np.prod(shape, dtype=int))))
-    for k, column in enumerate(columns):
-        rows[k] = np.ravel(column)                 # size 1 or the full size: broadcasts
+    shape = np.broadcast_shapes(*(np.shape(x) for x in (jp, vp, jv, vv, c2, j0, n, t)))
+    single = _single_floats(jp, vp, jv, vv, c2, j0, n, t)
+    if single is not None:
+        *first, n1, t1 = single
+        rows = np.array(first + [n1 * float(thermal_voltage_V(t1))])[:, None]
+    else:
+        columns = (jp, vp, jv, vv, c2, j0, n * thermal_voltage_V(t))
+        rows = np.empty((len(columns), int(np.prod(shape, dtype=int))))
+        for k, column in enumerate(columns):
+            rows[k] = np.ravel(column)             # size 1 or the full size: broadcasts
     a, v1, ok = kernels.exact_peak_shape(*rows)
     if ok.all():
         return a.reshape(shape), v1.reshape(shape)
