@@ -157,7 +157,7 @@ def test_polish_root_is_independent_of_the_batch():
 
 def test_table_flags_currents_outside_and_brackets_inside():
     # a decreasing law sampled on 11 points: inside its range the compiled inverse finds the
-    # root of the law itself (u = sqrt(-J), exact to rounding), outside it flags the entry
+    # root of the law itself (u = -J, exact to rounding), outside it flags the entry
     from siltandem import kernels
 
     u = np.linspace(0.0, 1.0, 11)[None, :]

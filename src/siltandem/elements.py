@@ -236,10 +236,9 @@ class Subcell:
         """J [A/m^2] and dJ/dVj at junction voltages [V] (arrays (B, N) or (N,)): the law of
         laws/diode.py, compiled (kernels.py)."""
         v = np.asarray(v_junction_V, dtype=float)
-        params = self._law_parameters(temperature_K)
         if v.ndim != 2:
-            current, slope = diode.junction_current(v, **self._junction(temperature_K))
-            return current, slope
+            return diode.junction_current(v, **self._junction(temperature_K))
+        params = self._law_parameters(temperature_K)
         if params.shape[0] > 1 and v.shape[0] != params.shape[0]:
             v = np.broadcast_to(v, (params.shape[0], v.shape[1]))
         return kernels.evaluate_law(kernels.SUBCELL_LAW, params, kernels.as_input(v))
@@ -365,11 +364,7 @@ class TunnelJunction:
         (kernels.parameter_rows)."""
         key = ("parameters", _temperature_key(temperature_K))
         if key not in self._cache:
-            a, v1, jv, vv, c2, j0, n, t = self._prepared(temperature_K)
-            nvt = n * thermal_voltage_V(t)
-            k = jv / -np.expm1(-2.0 * c2 * vv)
-            self._cache[key] = kernels.parameter_rows(
-                kernels.TUNNEL_LAW, _parameter_rows(a, v1, jv, vv, c2, j0, nvt, k))
+            self._cache[key] = esaki.compiled_parameter_rows(self._prepared(temperature_K))
         return self._cache[key]
 
     def junction_current(self, u, temperature_K):
@@ -431,13 +426,12 @@ class TunnelJunction:
                     grid = peak_v + (valley_v - peak_v) * _UNIT_GRID
                 else:
                     grid = valley_v + THERMAL_TABLE_SPAN_V * _UNIT_GRID
-                values, slopes = kernels.evaluate_law(
-                    kernels.TUNNEL_LAW, self._law_parameters(temperature_K),
-                    kernels.as_input(grid))
+                params = self._law_parameters(temperature_K)
+                values, slopes = kernels.evaluate_law(kernels.TUNNEL_LAW, params,
+                                                      kernels.as_input(grid))
                 # curvature d2J/du2 at the peak and at the valley: the folds' quadratic models
                 folds = kernels.tunnel_curvature(
-                    self._law_parameters(temperature_K),
-                    kernels.as_input(np.concatenate([peak_v, valley_v], axis=1)))
+                    params, kernels.as_input(np.concatenate([peak_v, valley_v], axis=1)))
                 table = (LawTable(grid, values, slopes), np.abs(folds[:, :1]),
                          np.abs(folds[:, 1:]))
             self._cache[key] = table

@@ -23,8 +23,10 @@ import math
 import numba
 import numpy as np
 
-__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "parameter_rows", "invert", "invert_table", "invert_elements",
-           "evaluate_law", "tunnel_curvature", "subcell_table", "subcell_terminal_current"]
+__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "as_input", "parameter_rows", "evaluate_law",
+           "tunnel_curvature", "invert", "invert_table", "element_voltages", "string_pass",
+           "subcell_table", "subcell_terminal_current", "exact_peak_shape", "tunnel_extrema",
+           "hermite_crossing", "power_maximum", "bose_einstein_tail", "compiled_already"]
 
 #: law codes of :func:`invert_table`
 SUBCELL_LAW = 0
@@ -57,6 +59,8 @@ def parameter_rows(code, base):
             rows[:, 9] = 1.0 / base[:, 6]
             rows[:, 10] = base[:, 7] * np.exp(-base[:, 4] * base[:, 3])
     return rows
+
+
 #: exponent beyond which the tunnel law's exponentials continue linearly (laws/esaki.py)
 EXP_LIMIT = 300.0
 _EPS = np.finfo(float).eps
@@ -377,38 +381,53 @@ def invert_table(code, params, grid_u, grid_j, grid_slope, increasing, fold_low,
 
 
 @numba.njit(cache=True, error_model="numpy")
-def invert_elements(codes, params, grid_u, grid_j, grid_slope, lengths, signs, fold_low,
-                    fold_high, lower, upper, current, xtol, rtol, max_iterations):
-    """Every element of a string inverted at the string's current, in one compiled pass.
+def element_voltages(current, codes, params, grid_u, grid_j, grid_slope, lengths, signs,
+                     fold_low, fold_high, lower, upper, range_low, range_high, voltage_sign,
+                     series, xtol, rtol, max_iterations):
+    """Every element of a string at the string's current, in one compiled pass.
 
     Element e (of E) has law ``codes[e]``, parameter rows ``params[e]`` (R, P), a table of
     ``lengths[e]`` samples in ``grid_*[e]`` (R, M, padded), direction ``signs[e]`` (+1 where J
-    rises with u), fold curvatures ``fold_low[e]``, ``fold_high[e]`` (R,), and the range
+    rises with u), fold curvatures ``fold_low[e]``, ``fold_high[e]`` (R,), the range
     [``lower[e]``, ``upper[e]``] (R,) its current is clipped to (a tunnel junction's branch
-    ends at its peak or valley). ``current`` (B, N), B = R or R = 1.
+    ends at its peak or valley) and the range [``range_low[e]``, ``range_high[e]``] beyond
+    which it has no voltage (NaN); ``voltage_sign[e]`` is +1 for a subcell, whose voltage is
+    Vj - J Rs (``series[e]`` (R,)), -1 for a tunnel junction, whose voltage is -u.
+    ``current`` (B, N), B = R or R = 1.
 
-    Returns u, dJ/du (E, B, N) and ``inside`` (E, B, N): where the clipped current lies in
-    the element's table (elsewhere u is NaN and the caller solves the entry its own way).
+    Returns the voltages and dV/dJ (E, B, N), and ``covered`` (E, B, N): where the clipped
+    current lies in the element's table (elsewhere the caller solves the entry its own way).
     """
     count = codes.shape[0]
     rows, n = current.shape
-    u_out = np.empty((count, rows, n))
-    slope_out = np.empty((count, rows, n))
-    inside = np.empty((count, rows, n), dtype=np.bool_)
+    element_voltage = np.empty((count, rows, n))
+    element_slope = np.empty((count, rows, n))
+    covered = np.empty((count, rows, n), dtype=np.bool_)
     shared = grid_u.shape[1] == 1
     for e in range(count):
         m = lengths[e]
-        code, sign = codes[e], signs[e]
+        code, sign, vsign = codes[e], signs[e], voltage_sign[e]
         for b in range(rows):
             r = 0 if shared else b
             p, gu, gj, gs = params[e, r], grid_u[e, r], grid_j[e, r], grid_slope[e, r]
             low, high, fl, fh = lower[e, r], upper[e, r], fold_low[e, r], fold_high[e, r]
+            range_lo, range_hi, rs = range_low[e, r], range_high[e, r], series[e, r]
             cell = -1
             for i in range(n):
-                y = min(max(current[b, i], low), high)
-                u_out[e, b, i], slope_out[e, b, i], inside[e, b, i], cell = _invert_one(
-                    code, p, gu, gj, gs, m, sign, fl, fh, y, xtol, rtol, max_iterations, cell)
-    return u_out, slope_out, inside
+                j = current[b, i]
+                y = min(max(j, low), high)
+                u, slope, inside, cell = _invert_one(code, p, gu, gj, gs, m, sign, fl, fh, y,
+                                                     xtol, rtol, max_iterations, cell)
+                covered[e, b, i] = inside or math.isnan(j)
+                if not (j >= range_lo and j <= range_hi):
+                    u = math.nan
+                if math.isfinite(u):
+                    inverse_slope = 1.0 / slope
+                else:
+                    inverse_slope = -math.inf if vsign > 0.0 else math.nan
+                element_voltage[e, b, i] = vsign * u - rs * j
+                element_slope[e, b, i] = vsign * inverse_slope - rs
+    return element_voltage, element_slope, covered
 
 
 #: tolerances of the element inverses: |du| below XTOL + RTOL |u|
@@ -532,59 +551,20 @@ def subcell_table(params, forward_points, reverse_points):
 def string_pass(pilot, t, codes, params, grid_u, grid_j, grid_slope, lengths, signs, fold_low,
                 fold_high, lower, upper, range_low, range_high, voltage_sign, series, xtol, rtol,
                 max_iterations):
-    """One evaluation of a series string along the pilot junction voltage t, compiled.
-
-    The pilot subcell's forward law (parameter rows ``pilot`` (R, P)) gives the string current
-    J(t); every packed element (arrays as for :func:`invert_elements`, plus
-    ``range_low``/``range_high`` (E, R): beyond them the element has no voltage, NaN;
-    ``voltage_sign`` (E,): +1 for a subcell, whose voltage is Vj - J Rs, -1 for a tunnel
-    junction, whose voltage is -u; ``series`` (E, R)) is inverted at J.
-
-    Returns
-    -------
-    current, dcurrent : (B, N)
-        J and dJ/dt.
-    element_voltage, element_slope : (E, B, N)
-        Each packed element's voltage and dV/dJ.
-    covered : (E, B, N) bool
-        Where the element's table held the current (elsewhere the caller solves the entry its
-        own way).
-    """
+    """One evaluation of a series string along the pilot junction voltage t, compiled: the
+    pilot subcell's forward law (parameter rows ``pilot`` (R, P)) gives the string current
+    J(t) and dJ/dt, then :func:`element_voltages` (the other arguments) every packed element
+    at J. Returns (current, dcurrent, element voltages, their dV/dJ, covered)."""
     rows, n = t.shape
-    count = codes.shape[0]
     current = np.empty((rows, n))
     dcurrent = np.empty((rows, n))
-    element_voltage = np.empty((count, rows, n))
-    element_slope = np.empty((count, rows, n))
-    covered = np.empty((count, rows, n), dtype=np.bool_)
-    shared = grid_u.shape[1] == 1
     for b in range(rows):
         pp = pilot[0] if pilot.shape[0] == 1 else pilot[b]
         for i in range(n):
             current[b, i], dcurrent[b, i] = _subcell(t[b, i], pp)
-    for e in range(count):
-        m = lengths[e]
-        code, sign, vsign = codes[e], signs[e], voltage_sign[e]
-        for b in range(rows):
-            r = 0 if shared else b
-            p, gu, gj, gs = params[e, r], grid_u[e, r], grid_j[e, r], grid_slope[e, r]
-            low, high, fl, fh = lower[e, r], upper[e, r], fold_low[e, r], fold_high[e, r]
-            range_lo, range_hi, rs = range_low[e, r], range_high[e, r], series[e, r]
-            cell = -1
-            for i in range(n):
-                j = current[b, i]
-                y = min(max(j, low), high)
-                u, slope, inside, cell = _invert_one(code, p, gu, gj, gs, m, sign, fl, fh, y,
-                                                     xtol, rtol, max_iterations, cell)
-                covered[e, b, i] = inside or math.isnan(j)
-                if not (j >= range_lo and j <= range_hi):
-                    u = math.nan
-                if math.isfinite(u):
-                    inverse_slope = 1.0 / slope
-                else:
-                    inverse_slope = -math.inf if vsign > 0.0 else math.nan
-                element_voltage[e, b, i] = vsign * u - rs * j
-                element_slope[e, b, i] = vsign * inverse_slope - rs
+    element_voltage, element_slope, covered = element_voltages(
+        current, codes, params, grid_u, grid_j, grid_slope, lengths, signs, fold_low, fold_high,
+        lower, upper, range_low, range_high, voltage_sign, series, xtol, rtol, max_iterations)
     return current, dcurrent, element_voltage, element_slope, covered
 
 
@@ -611,11 +591,7 @@ def exact_peak_shape(peak, peak_v, valley, valley_v, c2, j0, nvt):
         u = 1.0 + rest1 * peak_v[i] / margin
         v1[i] = peak_v[i] / u
         a[i] = margin / (u * math.exp(1.0 - u))
-        # R'' at Vp: the excess and thermal terms' curvature (exponentials below the limit)
-        _, _, ea2 = _limited_exp(c2[i] * (peak_v[i] - valley_v[i]))
-        _, _, eb2 = _limited_exp(-c2[i] * (peak_v[i] + valley_v[i]))
-        _, _, e32 = _limited_exp(peak_v[i] / nvt[i])
-        rest2 = k * c2[i] * c2[i] * (ea2 - eb2) + j0[i] * e32 / (nvt[i] * nvt[i])
+        rest2 = _tunnel_bend(peak_v[i], p)      # R''(Vp): the law without its tunnel term
         curvature = (a[i] / v1[i] ** 2) * math.exp(1.0 - u) * (u - 2.0) + rest2
         ok[i] = margin > 0.0 and curvature < 0.0
     return a, v1, ok
@@ -746,8 +722,8 @@ def tunnel_extrema(params, exact_peak_v, samples, xtol, rtol, max_iterations):
     (for u >= 0, dJ/du falls to a single minimum and rises after it: laws/esaki.py,
     attained_peak_and_valley). Each root is polished inside its cell by :func:`_slope_root`.
     Where ``exact_peak_v`` (R,) is finite and lies in the peak's cell or a neighbour of it, it
-    is the peak (the law was prepared to peak there in closed form). NaN where the samples see no such pair (the
-    caller then brackets from the steepest point).
+    is the peak (the law was prepared to peak there in closed form). NaN where the samples see
+    no such pair (the caller then brackets from the steepest point).
     """
     rows = params.shape[0]
     peak = np.full(rows, np.nan)

@@ -101,8 +101,9 @@ class _Extrema(dict):
 
 class _CompiledGroup:
     """The string's elements that invert through tables, packed for one compiled pass
-    (kernels.invert_elements) at one branch state: subcells other than the pilot with a
-    table, tunnel junctions on the requested branch with one. Built once per branch state."""
+    (kernels.element_voltages, kernels.string_pass) at one branch state: subcells other than
+    the pilot with a table, tunnel junctions on the requested branch with one. Built once per
+    branch state."""
 
     def __init__(self, string, state):
         temperature = string.temperature_K
@@ -166,38 +167,34 @@ class _CompiledGroup:
                    + ([self.pilot_params.shape[0]] if self.pilot is not None else []))
         width = max([t.u.shape[1] for t in tables] + [1])
         self.rows = rows
-        self.codes = np.array(codes, dtype=np.int64)
-        self.signs = np.array(signs)
-        self.lengths = np.array([t.u.shape[1] for t in tables], dtype=np.int64)
-        self.params = np.empty((count, rows, kernels.PARAMETER_WIDTH))
+        packed_params = np.empty((count, rows, kernels.PARAMETER_WIDTH))
         # padded tables: every row (R, width), the samples first
-        self.grid_u = np.zeros((count, rows, width))
-        self.grid_j = np.zeros((count, rows, width))
-        self.grid_slope = np.zeros((count, rows, width))
+        grid_u, grid_j, grid_slope = (np.zeros((count, rows, width)) for _ in range(3))
         per_row = {name: np.empty((count, rows)) for name in
                    ("fold_low", "fold_high", "lower", "upper", "range_low", "range_high",
                     "series")}
         for e, (table, (index, element, _)) in enumerate(zip(tables, members)):
             m = table.u.shape[1]
-            self.params[e] = params[e]
-            self.grid_u[e, :, :m] = table.u
-            self.grid_j[e, :, :m] = table.j
-            self.grid_slope[e, :, :m] = table.slope
+            packed_params[e] = params[e]
+            grid_u[e, :, :m] = table.u
+            grid_j[e, :, :m] = table.j
+            grid_slope[e, :, :m] = table.slope
             for name, value in (("fold_low", folds[e][0]), ("fold_high", folds[e][1]),
                                 ("lower", clips[e][0]), ("upper", clips[e][1]),
                                 ("range_low", ranges[e][0]), ("range_high", ranges[e][1]),
                                 ("series", element.series_ohm_m2 if element.kind == "subcell"
                                  else 0.0)):
                 per_row[name][e] = np.ravel(value)
-        self.fold_low, self.fold_high = per_row["fold_low"], per_row["fold_high"]
-        self.lower, self.upper = per_row["lower"], per_row["upper"]
-        self.range_low = per_row["range_low"][:, :, None]
-        self.range_high = per_row["range_high"][:, :, None]
-        self.series = per_row["series"][:, :, None]
         # the element's voltage in the stack current's direction: Vj - J Rs for a subcell,
         # -u for a tunnel junction
-        self.voltage_sign = np.array([1.0 if e.kind == "subcell" else -1.0
-                                      for _, e, _ in members])[:, None, None]
+        voltage_sign = np.array([1.0 if e.kind == "subcell" else -1.0 for _, e, _ in members])
+        # the arguments of kernels.element_voltages after the current, in its order
+        self.packed = (np.array(codes, dtype=np.int64), packed_params, grid_u, grid_j,
+                       grid_slope, np.array([t.u.shape[1] for t in tables], dtype=np.int64),
+                       np.array(signs), per_row["fold_low"], per_row["fold_high"],
+                       per_row["lower"], per_row["upper"], per_row["range_low"],
+                       per_row["range_high"], voltage_sign, per_row["series"],
+                       kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
 
     def evaluate(self, t):
         """The fused compiled pass (kernels.string_pass) at pilot voltages ``t``: None where
@@ -205,48 +202,31 @@ class _CompiledGroup:
         t = np.asarray(t, dtype=float)
         if self.rows > 1 and t.shape[0] != self.rows:
             t = np.broadcast_to(t, (self.rows, t.shape[1]))
-        out = kernels.string_pass(
-            self.pilot_params, kernels.as_input(t), self.codes,
-            self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths, self.signs,
-            self.fold_low, self.fold_high, self.lower, self.upper, self.range_low[:, :, 0],
-            self.range_high[:, :, 0], self.voltage_sign[:, 0, 0], self.series[:, :, 0],
-            kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
+        out = kernels.string_pass(self.pilot_params, kernels.as_input(t), *self.packed)
         if not out[-1].all():
             return None
         return out
 
-    def voltages(self, string, current):
-        """(V, dV/dJ) of each member at ``current`` (B, N): two (E, B, N) arrays."""
+    def voltages(self, string, current, branches):
+        """(V, dV/dJ) of each member at ``current`` (B, N): two (E, B, N) arrays; entries
+        beyond an element's table through the element's own general route."""
         current = np.asarray(current, dtype=float)
         if self.rows > 1 and current.shape[0] != self.rows:
             current = np.broadcast_to(current, (self.rows, current.shape[1]))
-        current = kernels.as_input(current)
-        u, slope, covered = kernels.invert_elements(
-            self.codes, self.params, self.grid_u, self.grid_j, self.grid_slope, self.lengths,
-            self.signs, self.fold_low, self.fold_high, self.lower, self.upper, current,
-            kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
-        missing = ~covered & ~np.isnan(current)[None]
-        if missing.any():
-            # beyond a table (rare): the element's own general inverse for those entries
-            for e in np.flatnonzero(missing.reshape(len(self.members), -1).any(axis=1)):
-                _, element, branch = self.members[e]
-                if element.kind == "subcell":
-                    vj, slope_j = element._junction_voltage_fast(current, string.temperature_K)
+        voltage, slope, covered = kernels.element_voltages(kernels.as_input(current),
+                                                           *self.packed)
+        for e in np.flatnonzero(~covered.reshape(len(self.members), -1).all(axis=1)):
+            _, element, branch = self.members[e]
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                if element.kind == "tunnel":
+                    v, dv = element.voltage(current, string.temperature_K, branch,
+                                            None if branch == "tunnel" else
+                                            string.tunnel_extrema[element.name])
                 else:
-                    vj, slope_j = element.junction_voltage(
-                        current, string.temperature_K, branch,
-                        None if branch == "tunnel" else string.tunnel_extrema[element.name],
-                        with_slope=True)
-                u[e] = np.where(missing[e], np.broadcast_to(vj, current.shape), u[e])
-                slope[e] = np.where(missing[e], np.broadcast_to(slope_j, current.shape),
-                                    slope[e])
-        valid = (current[None] >= self.range_low) & (current[None] <= self.range_high)
-        u = np.where(valid, u, np.nan)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            inverse_slope = np.where(np.isfinite(u), 1.0 / slope,
-                                     np.where(self.voltage_sign > 0, -np.inf, np.nan))
-        voltage = self.voltage_sign * u - self.series * current[None]
-        return voltage, self.voltage_sign * inverse_slope - self.series
+                    v, dv = element.voltage(current, string.temperature_K)
+            voltage[e] = np.where(covered[e], voltage[e], v)
+            slope[e] = np.where(covered[e], slope[e], dv)
+        return voltage, slope
 
 
 class _String:
@@ -356,16 +336,14 @@ class _String:
             pilot_v = self._select([f[2] for f in forward])
             pilot_dv = self._select([f[3] for f in forward])
         voltages, dvoltage = [], np.zeros(np.shape(t))
-        packed = {}
         if group.members:
-            group_v, group_slope = group.voltages(self, current)
-            packed = {index: k for k, (index, _, _) in enumerate(group.members)}
+            group_v, group_slope = group.voltages(self, current, branches)
         subcell_number = 0
         for index, element in enumerate(self.elements):
-            if index in packed:
+            k = group.index.get(index)
+            if k is not None:
                 subcell_number += element.kind == "subcell"
-                v = group_v[packed[index]]
-                dv_dt = group_slope[packed[index]] * dcurrent
+                v, dv_dt = group_v[k], group_slope[k] * dcurrent
             elif element.kind == "subcell":
                 is_pilot = self.pilot_index == subcell_number
                 subcell_number += 1

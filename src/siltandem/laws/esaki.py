@@ -160,9 +160,9 @@ def validate_tunnel_parameters(*, peak_A_m2, peak_V, valley_A_m2, valley_V, exce
         Non-finite or non-positive values, peak voltage not below valley voltage, valley current not
         below peak current. The message names the parameter, the value and the fix.
     """
-    # the common case in one pass: every value finite and positive (the saturation current may
-    # be zero), the peak before the valley and above it; the checks below say what is wrong.
-    # One junction (every value a single number) takes plain floats
+    # one junction (every value a single number), the common case, in plain floats: every
+    # value finite and positive (the saturation current may be zero), the peak before the
+    # valley and above it; otherwise, and for arrays, the checks below say what is wrong
     single = _single_floats(peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V,
                             ideality, temperature_K, saturation_A_m2)
     if single is not None:
@@ -170,18 +170,6 @@ def validate_tunnel_parameters(*, peak_A_m2, peak_V, valley_A_m2, valley_V, exce
         positive = [jp, vp, jv, vv] + [x for x in rest if x is not None]
         if (all(math.isfinite(x) and x > 0 for x in positive)
                 and (j0 is None or (math.isfinite(j0) and j0 >= 0)) and vp < vv and jv < jp):
-            return
-    values = [np.ravel(np.asarray(v, dtype=float)) for v in
-              (peak_A_m2, peak_V, valley_A_m2, valley_V, excess_slope_per_V, ideality,
-               temperature_K) if v is not None]
-    saturation = np.ravel(np.asarray(0.0 if saturation_A_m2 is None else saturation_A_m2,
-                                     dtype=float))
-    with np.errstate(invalid="ignore"):
-        together = np.concatenate(values)
-        if (np.isfinite(together).all() and (together > 0).all() and (saturation >= 0).all()
-                and np.isfinite(saturation).all()
-                and (np.asarray(peak_V) < np.asarray(valley_V)).all()
-                and (np.asarray(valley_A_m2) < np.asarray(peak_A_m2)).all()):
             return
     checks = [("peak_A_m2", peak_A_m2, "A/m^2", False), ("peak_V", peak_V, "V", False),
               ("valley_A_m2", valley_A_m2, "A/m^2", False), ("valley_V", valley_V, "V", False),
@@ -492,7 +480,7 @@ def extrema_of_prepared(prepared, *, exact_peak_V=None, stacklevel=2):
         peak_v[retry], valley_v[retry] = p_v, v_v
     # J at both, by the compiled form of the law (the one the solver's tables and
     # siltandem.elements.TunnelJunction.peak use: the same rounding everywhere)
-    rows = _compiled_rows(args)
+    rows = compiled_parameter_rows(args)
     both = np.stack([peak_v, valley_v], axis=1)
     found = np.isfinite(both)
     values = np.where(found, kernels.evaluate_law(
@@ -511,12 +499,15 @@ def extrema_of_prepared(prepared, *, exact_peak_V=None, stacklevel=2):
 _EXTREMA_SAMPLES = 192
 
 
-def _compiled_rows(args):
-    """Parameter rows of the compiled law (siltandem.kernels) from flat prepared arrays."""
-    a, v1, jv, vv, c2, j0, n, t = args
-    nvt = n * thermal_voltage_V(t)
-    return kernels.parameter_rows(kernels.TUNNEL_LAW, np.stack(
-        np.broadcast_arrays(a, v1, jv, vv, c2, j0, nvt, jv / -np.expm1(-2.0 * c2 * vv)), axis=1))
+def compiled_parameter_rows(prepared):
+    """Parameter rows (R, P) of the law's compiled form (siltandem.kernels) from
+    :func:`prepare_tunnel_law`'s parameters, one row per entry of their broadcast shape."""
+    a, v1, jv, vv, c2, j0, n, t = prepared
+    columns = (a, v1, jv, vv, c2, j0, n * thermal_voltage_V(t), jv / -np.expm1(-2.0 * c2 * vv))
+    base = np.empty((max(np.size(x) for x in columns), len(columns)))
+    for k, column in enumerate(columns):
+        base[:, k] = np.ravel(column)              # size 1 or the full size: broadcasts
+    return kernels.parameter_rows(kernels.TUNNEL_LAW, base)
 
 
 def _extrema_by_table(args, exact_peak_V=None):
@@ -532,7 +523,7 @@ def _extrema_by_table(args, exact_peak_V=None):
     root to rounding (compiled: siltandem.kernels.tunnel_extrema). NaN where the grid sees no
     such pair (the caller then brackets from the steepest point, :func:`_extrema_by_bracketing`).
     """
-    params = _compiled_rows(args)
+    params = compiled_parameter_rows(args)
     exact = np.full(params.shape[0], np.nan) if exact_peak_V is None else \
         kernels.as_input(np.broadcast_to(exact_peak_V, params.shape[:1]), dtype=float)
     with np.errstate(all="ignore"):
