@@ -15,13 +15,24 @@ Output folder layout (``output=``)::
     chunk-<key>-<rows>rows-<id>.parquet   one per finished chunk, written atomically
     results.parquet                       all rows, written atomically at the end
 
-``<key>`` is a fingerprint of the table (values, column names, dtypes), of the function (module,
-qualified name, its own compiled code, default values, the arguments bound by
-``functools.partial``) and of the siltandem version, so a different sweep never picks up stale
-chunks. It does not cover the code the function calls: after changing that, pass
-``resume=False`` or use a fresh folder. ``<rows>`` is the chunk size, so chunk ids always mean the
-same rows. A temporary file (``.<name>.<pid>.<random>.tmp``) is renamed into place only when
-complete; the temporary files of a process that no longer exists are removed at the next start.
+``<key>`` is a fingerprint of:
+
+- the table (values, column names, dtypes);
+- the function (module, qualified name, its own compiled code, default values, the arguments
+  bound by ``functools.partial``, so the parsed stack a study binds);
+- the content of every input file the study reads (``inputs=``: the stack file, a spectrum CSV,
+  EQE CSVs), so an edited file is never answered from chunks of its old content;
+- the code: siltandem's version and a digest of every source and data file of the installed
+  package (:func:`code_digest`, computed once per process), with the versions of the numerical
+  libraries it rests on, so changed physics never resumes from chunks the old code wrote.
+
+A different key never mixes with chunks on disk: those chunks are ignored (and left in place, so
+going back to the old inputs resumes them). When the folder holds only results of other keys,
+the run starts afresh and says so once on stderr; a ``results.parquet`` of another key is removed
+before any work, so an interrupted fresh run cannot leave the old table beside the new chunks.
+``<rows>`` is the chunk size, so chunk ids always mean the same rows. A temporary file
+(``.<name>.<pid>.<random>.tmp``) is renamed into place only when complete; the temporary files
+of a process that no longer exists are removed at the next start.
 
 dask[distributed] is needed only for ``cluster=``, pyarrow only for ``output=``; both are the
 optional extra ``parallel`` (``pip install -e ".[parallel]"``) and are imported when used.
@@ -66,7 +77,7 @@ MAX_ATTEMPTS = 3
 PROGRESS_DELAY_S = 2.0
 
 RESULTS_NAME = "results.parquet"
-_FORMAT = b"siltandem.parallel chunks v1"
+_FORMAT = b"siltandem.parallel chunks v2"
 _CHUNK_NAME = re.compile(r"^chunk-(?P<key>[0-9a-f]{16})-(?P<rows>\d+)rows-(?P<id>\d{6})\.parquet$")
 _TEMPORARY_NAME = re.compile(r"^\.(?P<target>.+)\.(?P<pid>\d+)\.[0-9a-f]+\.tmp$")
 _EXTRA = 'pip install -e ".[parallel]"'
@@ -86,7 +97,7 @@ class WorkerLostWarning(RuntimeWarning):
 # the entry point
 
 def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, output=None,
-               progress=True, resume=True):
+               progress=True, resume=True, inputs=()):
     """Evaluate ``function`` over ``table`` chunk by chunk; every design's row exactly once.
 
     Parameters
@@ -121,6 +132,10 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
     resume : bool
         With ``output``: load chunks already on disk instead of computing them. False recomputes
         (and rewrites) every chunk.
+    inputs : iterable of str or path-like
+        Files the study function reads (the stack file, spectrum and EQE CSVs): their content
+        is part of the chunk key (a missing file counts as its own content), so editing one
+        starts afresh instead of resuming (see the module notes).
 
     Returns
     -------
@@ -146,7 +161,9 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
     chunk_rows = _check_options(chunk_rows, workers, cluster)
     n_rows = len(table)
     folder = None if output is None else _prepare_folder(output)
-    key = None if folder is None else sweep_key(table, function)
+    key = None if folder is None else sweep_key(table, function, inputs=inputs)
+    if folder is not None:
+        _set_aside_other_keys(folder, key, resume=resume)
     if folder is not None and chunk_rows is None and resume:
         chunk_rows = _chunk_rows_on_disk(folder, key)
 
@@ -294,16 +311,70 @@ def _require(module):
 # ----------------------------------------------------------------------------------------------
 # fingerprints
 
-def sweep_key(table, function):
-    """16-hex fingerprint of a canonical table and a study function (see the module notes)."""
-    from . import __version__
-
-    digest = hashlib.sha256(_FORMAT + __version__.encode())
+def sweep_key(table, function, *, inputs=()):
+    """16-hex fingerprint of a canonical table, a study function, the content of its input
+    files and the code (see the module notes)."""
+    digest = hashlib.sha256(_FORMAT + code_digest().encode())
     digest.update(json.dumps([[str(c) for c in table.columns],
                               [str(t) for t in table.dtypes], len(table)]).encode())
     digest.update(pd.util.hash_pandas_object(table, index=False).to_numpy().tobytes())
     _feed_callable(digest, function)
+    for path in sorted({str(Path(p)) for p in inputs}):
+        digest.update(b"\0input\0" + path.encode() + b"\0" + file_digest(path).encode())
     return digest.hexdigest()[:16]
+
+
+#: the libraries whose numbers a result rests on: their versions are part of the code digest
+_LIBRARIES = ("numpy", "scipy", "pandas", "pvlib", "numba")
+#: package files that make up the code and its data
+_CODE_SUFFIXES = (".py", ".toml", ".csv")
+
+
+@functools.lru_cache(maxsize=1)
+def code_digest():
+    """Hex digest of the code that computes a result, once per process (a few milliseconds).
+
+    It covers siltandem's version, the bytes of every ``.py``, ``.toml`` and ``.csv`` file of the
+    installed package (solver, laws, materials library, named spectra), each with its path inside
+    the package, and the versions of numpy, scipy, pandas, pvlib and numba. Any edit of the
+    package's code or data changes it.
+    """
+    from importlib import metadata
+
+    from . import __version__
+
+    digest = hashlib.sha256(b"siltandem " + __version__.encode())
+    digest.update(_tree_digest(Path(__file__).resolve().parent).encode())
+    for name in _LIBRARIES:
+        try:
+            version = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            version = "absent"
+        digest.update(f"\0{name} {version}".encode())
+    return digest.hexdigest()
+
+
+def _tree_digest(root):
+    """Hex digest of the code and data files under ``root`` (paths relative to it, and bytes);
+    compiled caches (``__pycache__``) are left out."""
+    root = Path(root)
+    digest = hashlib.sha256()
+    files = sorted(p for p in root.rglob("*") if p.suffix in _CODE_SUFFIXES
+                   and "__pycache__" not in p.relative_to(root).parts and p.is_file())
+    for path in files:
+        digest.update(b"\0file\0" + path.relative_to(root).as_posix().encode() + b"\0")
+        digest.update(hashlib.sha256(path.read_bytes()).digest())
+    return digest.hexdigest()
+
+
+def file_digest(path):
+    """Hex digest of a file's bytes; ``"missing"`` or ``"unreadable: ..."`` when it has none."""
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except FileNotFoundError:
+        return "missing"
+    except OSError as error:
+        return f"unreadable: {error.strerror}"
 
 
 def _feed_callable(digest, obj):
@@ -391,6 +462,44 @@ def _process_alive(pid):
     except PermissionError:
         return True
     return True
+
+
+#: said once on stderr when a folder holds only results of other keys
+AFRESH_MESSAGE = ("the folder holds results of a different stack/spectrum/code; starting afresh "
+                  "(its old chunk files are left in place and not used)")
+
+
+def _set_aside_other_keys(folder, key, *, resume, stream=None):
+    """Before any work: never mix results of another key with this run's.
+
+    Chunks of other keys are never read (their names carry their key). A ``results.parquet``
+    written under another key is removed, so that no interrupted run leaves an old table beside
+    new chunks; when the folder holds results of other keys and none of this key, the run starts
+    afresh and says so once on stderr. Returns True when it said so.
+    """
+    keys = {m["key"] for m in map(_CHUNK_NAME.match, os.listdir(folder)) if m}
+    results = folder / RESULTS_NAME
+    if results.is_file():
+        if _results_key(results) != key:
+            keys.add(None)
+            with contextlib.suppress(FileNotFoundError):
+                results.unlink()
+        else:
+            keys.add(key)
+    foreign = keys - {key}
+    if resume and foreign and key not in keys:
+        print(f"{folder}: {AFRESH_MESSAGE}", file=stream if stream is not None else sys.stderr)
+        return True
+    return False
+
+
+def _results_key(path):
+    """The key a ``results.parquet`` was written under (None if unreadable or foreign)."""
+    try:
+        metadata = _require("pyarrow.parquet").read_schema(path).metadata or {}
+        return json.loads(metadata.get(b"siltandem", b"{}")).get("key")
+    except Exception:  # unreadable or not ours: treat as another key's
+        return None
 
 
 def _chunk_rows_on_disk(folder, key):

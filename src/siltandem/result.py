@@ -162,13 +162,13 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
                  for string in circuit.strings]
     alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}
     # the efficiency penalty of each passive element: the string solved again without it
+    # (penalties.py: one batched solve per group of alike elements, not one solve per element)
+    from .penalties import removal_powers
+
     without = {}
     for string, solution in zip(circuit.strings, solutions):
-        for element in string:
-            if element.kind != "subcell":
-                rest = [e for e in string if e is not element]
-                without[element.name] = _first(solve_string(rest, temperature).mpp_W_m2) \
-                    - _first(solution.mpp_W_m2)
+        for name, power in removal_powers(string, temperature).items():
+            without[name] = power - _first(solution.mpp_W_m2)
     summary = _summarise(stack, conditions, light, circuit, solutions, alone, without)
     if placement_note:
         summary["warnings"].insert(0, placement_note)

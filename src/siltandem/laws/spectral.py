@@ -86,12 +86,10 @@ def step_absorber_photocurrents_rows(gaps_eV, absorptances, wavelength_nm, flux)
     Notes
     -----
     As :func:`siltandem.laws.optics.step_absorber_photocurrents`: absorber i sees
-    Phi_i = Phi prod_{j<i} (1 - a_j H(lambda_j - lambda)); expanding the product over subsets S of
-    the absorbers above,
-
-    J_i = q a_i sum_S (prod_{j in S} (-a_j)) N(min(lambda_i, min_S lambda_j)),
-
-    with N the exact trapezoid integral of each row of Phi up to a wavelength, lambda_j = hc/Eg_j.
+    Phi_i = Phi prod_{j<i} (1 - a_j H(lambda_j - lambda)) and collects
+    J_i = q a_i integral_0^{lambda_i} Phi_i, summed over the intervals between the gap
+    wavelengths lambda_j = hc/Eg_j (:func:`siltandem.laws.optics.filtered_photocurrents`), with
+    N the exact trapezoid integral of each row of Phi up to a wavelength.
     """
     flux = np.atleast_2d(np.asarray(flux, dtype=float))
     rows = (flux.shape[0], 1)

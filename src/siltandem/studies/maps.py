@@ -3,7 +3,7 @@ import functools
 
 
 from ..parallel import run_chunks
-from .sweep import design_table, evaluate_chunk
+from .sweep import design_table, evaluate_chunk, input_files
 
 
 def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=True,
@@ -17,7 +17,8 @@ def design_map(stack, first, second, *, workers=None, cluster=None, output=None,
     function = functools.partial(evaluate_chunk, stack=stack, spectrum=spectrum, suns=suns,
                                  temperature_K=temperature_K)
     return run_chunks(function, table, workers=workers, cluster=cluster, output=output,
-                      progress=progress, chunk_rows=chunk_rows)
+                      progress=progress, chunk_rows=chunk_rows,
+                      inputs=input_files(stack, spectrum=spectrum))
 
 
 def optimum(table, column="efficiency_pct"):

@@ -9,7 +9,7 @@ import numpy as np
 from scipy import optimize
 
 from ..parallel import run_chunks
-from .sweep import design_table, evaluate_chunk, photocurrents_at, solve_designs
+from .sweep import design_table, evaluate_chunk, input_files, photocurrents_at, solve_designs
 
 
 def match_currents(stack, variation, *, workers=None, cluster=None, output=None, progress=True,
@@ -30,7 +30,7 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
     table = design_table([variation])
     function = functools.partial(evaluate_chunk, stack=stack, **options)
     table = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
-                       progress=progress)
+                       progress=progress, inputs=input_files(stack, spectrum=spectrum))
     names = [c[: -len(".photocurrent_mA_cm2")] for c in table.columns
              if c.endswith(".photocurrent_mA_cm2")]
     x = table[variation.column].to_numpy()

@@ -110,8 +110,11 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
     table = pd.DataFrame({"design": np.arange(len(candidates), dtype=np.int64)})
     function = functools.partial(evaluate_candidates, stack=stack, candidates=candidates,
                                  spectrum=spectrum, suns=suns, temperature_K=temperature_K)
+    from .sweep import input_files
+
     result = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
-                        progress=progress, chunk_rows=1 if (workers or cluster) else None)
+                        progress=progress, chunk_rows=1 if (workers or cluster) else None,
+                        inputs=input_files(stack, spectrum=spectrum))
     result = result.sort_values("efficiency_pct", ascending=False, na_position="last")
     result.insert(0, "rank", np.arange(1, len(result) + 1))
     return result.reset_index(drop=True)

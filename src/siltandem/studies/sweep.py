@@ -7,6 +7,7 @@ so the same chunks run in this process, on a local pool or on a Dask cluster (pa
 """
 from dataclasses import dataclass, replace
 import functools
+from pathlib import Path
 import warnings
 
 import numpy as np
@@ -14,6 +15,7 @@ import numpy as np
 from .. import units
 from ..compile import compile_stack
 from ..errors import StackError
+from ..parallel import file_digest
 from ..illuminate import illuminate
 from ..solve import solve_string
 from ..spectra import get_spectrum
@@ -202,12 +204,50 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
 
 
 @functools.lru_cache(maxsize=8)
-def _spectrum_cached(name, suns, folder):
+def _spectrum_cached(name, suns, folder, content):
     return get_spectrum(name, suns=suns, relative_to=folder)
 
 
 def _spectrum(name, suns, folder):
-    return _spectrum_cached(name, float(suns), folder)
+    # keyed by the CSV's content too: a file edited between two studies of one process is read
+    # again, never answered from the cache
+    path = spectrum_file(name, folder)
+    content = None if path is None else file_digest(path)
+    return _spectrum_cached(name, float(suns), folder, content)
+
+
+def spectrum_file(name, folder):
+    """The CSV file a spectrum name stands for, resolved as the studies resolve it (relative to
+    the stack's folder); None for a named standard spectrum."""
+    from ..spectra import _catalogue
+
+    key = str(name).strip()
+    if key.lower() in _catalogue()[1] or not (
+            key.lower().endswith(".csv") or "/" in key or "\\" in key):
+        return None   # a standard spectrum (or its alias), or a name get_spectrum refuses
+    path = Path(key)
+    if folder is not None and not path.is_absolute():
+        path = Path(folder) / path
+    return path
+
+
+def input_files(stack, *, spectrum=None):
+    """Every file a study of ``stack`` reads: the stack file, the spectrum CSV (``spectrum``
+    overrides the stack's), each subcell's EQE CSV. Their content goes into the chunk key of
+    :func:`siltandem.parallel.run_chunks`, so that an edited file is never answered from old
+    chunks. (The materials library and the named spectra are package data: the code digest
+    covers them.)"""
+    files = [] if stack.source is None else [str(stack.source)]
+    if spectrum is None:
+        files.append(spectrum_file(stack.conditions.spectrum, stack.folder))
+    else:  # an override: the map and match studies resolve it next to the stack file, the
+        # placements (through run_stack) in the working folder; both are fingerprinted
+        files += [spectrum_file(spectrum, stack.folder), spectrum_file(spectrum, None)]
+    files = [str(f) for f in files if f is not None]
+    for spec in stack.elements:
+        if spec.values.get("eqe") is not None:
+            files.append(str(spec.values["eqe"]))
+    return files
 
 
 def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None):
