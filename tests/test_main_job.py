@@ -120,7 +120,7 @@ def test_four_terminal_each_string_at_its_own_mpp():
     (["run", DEMO, "--spectrum", "nofile.csv"], "spectrum file not found"),
     (["run", DEMO, "--plot", "x.gif"], "unsupported file type"),
     (["run", DEMO, "--curve", "x.txt"], "unsupported file type"),
-    (["run", DEMO, "--suns", "-3"], "must be > 0"),
+    (["run", DEMO, "--suns", "-3"], "suns = -3 is outside its physical range (0, 100000]"),
 ])
 def test_bad_input_exits_2_without_traceback(tmp_path, args, message):
     done = cli(*args, cwd=tmp_path)
@@ -182,7 +182,7 @@ def test_concentration_series(tmp_path):
 
 
 @pytest.mark.parametrize("args, message", [
-    (["--suns-range", "5:1:3"], "need 0 < START < STOP"),
+    (["--suns-range", "5:1:3"], "START 5 is not below STOP 1"),
     (["--suns-range", "abc"], "is not START:STOP:N"),
     (["--table", "t.csv"], "--table goes with --suns-range"),
 ])

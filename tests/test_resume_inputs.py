@@ -164,13 +164,13 @@ def test_a_spectrum_override_is_fingerprinted(folder, solves, capsys):
     variation = parse_vary("top.absorptance=0.7:0.9:3", stack)
     shutil.copy(folder / "light.csv", folder / "other.csv")
     first, _ = match_currents(stack, variation, progress=False, output=folder / "out",
-                              spectrum="other.csv")
+                              spectrum=str(folder / "other.csv"))
     write_spectrum(folder / "other.csv", blue_scale=0.5)
     solves["designs"] = 0
     second, _ = match_currents(stack, variation, progress=False, output=folder / "out",
-                               spectrum="other.csv")
+                               spectrum=str(folder / "other.csv"))
     assert solves["designs"] == 3
-    fresh, _ = match_currents(stack, variation, progress=False, spectrum="other.csv")
+    fresh, _ = match_currents(stack, variation, progress=False, spectrum=str(folder / "other.csv"))
     assert_same(second, fresh)
     assert not np.allclose(first["efficiency_pct"], fresh["efficiency_pct"], rtol=1e-6)
 

@@ -45,7 +45,7 @@ BAD = [
     (GOOD_HEAD + '[[element]]\nkind = "resistor"\nseries_ohm_cm2 = 1\n', "has no subcell", None),
     (GOOD_HEAD.replace("am1.5g", "am1.5g") + CELL + CELL, "is used twice", "element 2 'top'"),
     (GOOD_HEAD + CELL + "breakdown_V = 5\n", "breakdown_V needs shunt_ohm_cm2", "element 1"),
-    (GOOD_HEAD.replace('spectrum = "am1.5g"', "suns = -2") + CELL, "suns = -2 must be in",
+    (GOOD_HEAD.replace('spectrum = "am1.5g"', "suns = -2") + CELL, "suns = -2 is outside its physical range",
      "conditions.suns"),
     (GOOD_HEAD.replace('spectrum = "am1.5g"', "terminals = 3") + CELL, "terminals = 3",
      "conditions.terminals"),

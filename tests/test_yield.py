@@ -431,7 +431,7 @@ def test_layer_stack_year(weather):
     ({"gap_materials": {"middle": "GaAs"}}, "no subcell named 'middle'"),
     ({"gap_materials": {"cell": "Unobtainium"}}, "not in the library"),
     ({"eqe": {"nothere": "x.csv"}}, "no subcell named 'nothere'"),
-    ({"tilt_deg": 95.0}, r"--tilt 95 is outside \[0, 90\]"),
+    ({"tilt_deg": 95.0}, r"tilt_deg = 95 is outside its physical range \[0, 90\] deg"),
     ({"mounting": "on the roof"}, "--mounting 'on the roof' is not known"),
     ({"scaling": "both"}, "--scaling 'both' is not known"),
 ])

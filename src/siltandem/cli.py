@@ -19,16 +19,6 @@ def demo_stack_path():
     return resources.files("siltandem").joinpath("data", DEMO)
 
 
-def _positive(text):
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if not value > 0:
-        raise argparse.ArgumentTypeError(f"{text!r} must be > 0")
-    return value
-
-
 def _parser():
     parser = argparse.ArgumentParser(
         prog="siltandem",
@@ -41,13 +31,13 @@ def _parser():
     run.add_argument("stack", nargs="?", help="stack file (.toml); default: the bundled demo")
     run.add_argument("--spectrum", help="am1.5g (default), am1.5d, am0, or a CSV path "
                                         "(wavelength_nm, irradiance_W_m2_nm)")
-    run.add_argument("--suns", type=_positive, help="concentration (default from the file, 1)")
-    run.add_argument("--temperature", type=_positive, metavar="K",
+    run.add_argument("--suns", help="concentration (default from the file, 1)")
+    run.add_argument("--temperature", metavar="K",
                      help="cell temperature in kelvin (default from the file, 298.15)")
     run.add_argument("--json", metavar="PATH", help="write the result as JSON ('-' for stdout)")
     run.add_argument("--curve", metavar="PATH.csv", help="write the light I-V as CSV")
     run.add_argument("--plot", metavar="PATH.png|svg", help="draw the light I-V")
-    run.add_argument("--points", type=int, default=401, help="points on the traced curve")
+    run.add_argument("--points", default=401, help="points on the traced curve")
     run.add_argument("--sweep", choices=["up", "down"],
                      help="report what a terminal-voltage sweep measures (with hysteresis where a "
                           "tunnel junction is driven past its peak): --curve and --plot show it")
@@ -65,8 +55,8 @@ def _parser():
     face.add_argument("--layer", metavar="NAME",
                       help="the interface element's name (default: the first isotype interface)")
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
-    face.add_argument("--temperature", type=_positive, metavar="K", help="cell temperature")
-    face.add_argument("--points", type=int, default=21, help="rows of the printed J-V")
+    face.add_argument("--temperature", metavar="K", help="cell temperature")
+    face.add_argument("--points", default=21, help="rows of the printed J-V")
     from .cli_studies import (add_energy_options, add_losses_command, add_placements_command,
                               add_study_options)
 
@@ -96,7 +86,7 @@ def _parser():
                     "for an alloy, or a name like Ga0.51In0.49P): its properties at 300 K with "
                     "the source of each value.")
     library.add_argument("name", nargs="?", help="a material name")
-    library.add_argument("--composition", type=float, help="alloy composition x")
+    library.add_argument("--composition", help="alloy composition x")
     return parser
 
 
@@ -133,10 +123,13 @@ def _interface(args):
     from .result import run_stack
     from .stack import load_stack
 
+    from .files import check_outputs, stack_inputs
+
     if args.plot and Path(args.plot).suffix.lower() not in {".png", ".svg", ".pdf"}:
         raise StackError(f"--plot {args.plot}: unsupported file type", where="--plot",
                          fix="give a path ending in .pdf or .png or .svg")
     stack = load_stack(args.stack)
+    check_outputs([("--plot", args.plot)], stack_inputs(stack))
     interfaces = [e for e in stack.elements if e.kind == "isotype"]
     if not interfaces:
         raise StackError("the stack has no isotype interface", file=stack.source,
@@ -160,7 +153,7 @@ def _interface(args):
           f" {row['loss_W_m2']:.3f} W/m2, efficiency penalty "
           f"{row['efficiency_penalty_pct_abs']:.3f} % absolute"
           + ("  -- BLOCKS" if row["blocking"] else ""))
-    v, j = interface_iv(element, temperature, points=max(args.points, 3))
+    v, j = interface_iv(element, temperature, points=args.points)
     print("")
     print("  interface voltage V   current mA/cm2   (V > 0 lowers the barrier)")
     for vi, ji in zip(v, j):
@@ -173,26 +166,35 @@ def _interface(args):
 
 
 def _parse_range(text):
+    """``START:STOP:N`` -> N concentrations, log-spaced; START and STOP in the range of the file's
+    ``suns``, N in OPTION_SCHEMA's (the one schema, siltandem.options)."""
+    from .options import OPTION_SCHEMA, check_option
+    from .stack import CONDITION_SCHEMA
+
+    shown = text if len(text) <= 60 else text[:57] + "..."
     parts = text.split(":")
     try:
-        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
         if len(parts) != 3:
             raise ValueError
-    except (ValueError, IndexError):
-        raise StackError(f"--suns-range {text!r} is not START:STOP:N", where="--suns-range",
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+    except ValueError:
+        raise StackError(f"{shown!r} is not START:STOP:N", where="--suns-range",
                          fix="write for example --suns-range 1:2000:40") from None
-    if not (0 < start < stop <= 1e5) or not 2 <= count <= 2000:
-        raise StackError(f"--suns-range {text!r}: need 0 < START < STOP <= 1e5 and 2 <= N <= 2000",
+    where = f"--suns-range {shown}"
+    for value in (start, stop):
+        check_option(CONDITION_SCHEMA["suns"], value, where=where)
+    check_option(OPTION_SCHEMA["suns_range_count"], count, where=where, integer=True)
+    if not start < stop:
+        raise StackError(f"{shown!r}: START {start:g} is not below STOP {stop:g}",
                          where="--suns-range", fix="write for example --suns-range 1:2000:40")
     return np.geomspace(start, stop, count)
 
 
-def _concentration(args, stack):
+def _concentration(args, stack, suns):
     from .files import save_figure_atomic, write_atomic
     from .report import concentration_summary
     from .result import concentration_series
 
-    suns = _parse_range(args.suns_range)
     series = concentration_series(stack, suns, spectrum=args.spectrum,
                                   temperature_K=args.temperature)
     sys.stdout.write(concentration_summary(series, stack))
@@ -219,7 +221,8 @@ def _concentration(args, stack):
 
 
 def _run(args):
-    from .files import save_figure_atomic, write_atomic
+    from .files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
+    from .options import CLI_NAMES, CURVE_BYTES_PER_POINT, check_memory, check_study_memory
     from .report import sweep_summary, text_summary
     from .result import run_stack
     from .stack import load_stack
@@ -232,23 +235,27 @@ def _run(args):
         if Path(path).suffix.lower() not in allowed:
             raise StackError(f"{option} {path}: unsupported file type", where=option,
                              fix=f"give a path ending in {' or '.join(sorted(allowed))}")
-    if args.points < 20:
-        raise StackError(f"--points {args.points} is too few", where="--points",
-                         fix="give at least 20 points")
+    if args.suns_range:
+        if args.suns is not None or args.sweep or args.curve:
+            raise StackError("--suns-range goes without --suns, --sweep and --curve",
+                             where="--suns-range", fix="use --table for the series' CSV")
+        suns = _parse_range(args.suns_range)
+    elif args.table:
+        raise StackError("--table goes with --suns-range", where="--table",
+                         fix="add --suns-range START:STOP:N, or use --curve for the light I-V")
     path = args.stack
     if path is None:
         with resources.as_file(demo_stack_path()) as demo:
             stack = load_stack(demo)
     else:
         stack = load_stack(path)
+    check_outputs([("--json", args.json), ("--curve", args.curve), ("--plot", args.plot),
+                   ("--table", args.table)], stack_inputs(stack, spectrum=args.spectrum))
     if args.suns_range:
-        if args.suns is not None or args.sweep or args.curve:
-            raise StackError("--suns-range goes without --suns, --sweep and --curve",
-                             where="--suns-range", fix="use --table for the series' CSV")
-        return _concentration(args, stack)
-    if args.table:
-        raise StackError("--table goes with --suns-range", where="--table",
-                         fix="add --suns-range START:STOP:N, or use --curve for the light I-V")
+        check_study_memory(len(suns), names={**CLI_NAMES, "grid": "--suns-range"})
+        return _concentration(args, stack, suns)
+    check_memory(args.points * CURVE_BYTES_PER_POINT, what=f"a curve of {args.points} points",
+                 where="--points", fix="give fewer --points")
     result = run_stack(stack, spectrum=args.spectrum, suns=args.suns,
                        temperature_K=args.temperature, curve_points=args.points)
     to_stdout_json = args.json == "-"
@@ -286,6 +293,9 @@ def main(argv=None):
             print("siltandem: compiling the solver's kernels (the first run after installing or "
                   "updating; about 10-20 s, once)", file=sys.stderr, flush=True)
     try:
+        from .options import read_arguments
+
+        read_arguments(args)       # every number given: the same ranges as the file keys
         if args.command == "run":
             return _run(args)
         if args.command == "interface":

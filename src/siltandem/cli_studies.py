@@ -14,8 +14,8 @@ def add_energy_options(parser):
                              "annual energy over a weather file's year")
     parser.add_argument("--weather", metavar="FILE.csv|demo",
                         help="with --by energy: a TMY3 weather file (demo: the one pvlib ships)")
-    parser.add_argument("--tilt", type=float, metavar="DEG", help="with --by energy: plane tilt")
-    parser.add_argument("--azimuth", type=float, metavar="DEG",
+    parser.add_argument("--tilt", metavar="DEG", help="with --by energy: plane tilt")
+    parser.add_argument("--azimuth", metavar="DEG",
                         help="with --by energy: plane azimuth (clockwise from north)")
 
 
@@ -26,13 +26,35 @@ def _check_energy(args):
     if args.by != "energy" and args.weather:
         raise StackError("--weather goes with --by energy", where="--weather",
                          fix="add --by energy, or leave out --weather")
+    for option, value in (("--tilt", args.tilt), ("--azimuth", args.azimuth)):
+        if args.by != "energy" and value is not None:
+            raise StackError(f"{option} goes with --by energy", where=option,
+                             fix=f"add --by energy --weather FILE, or leave out {option}")
+
+
+def _weather(args):
+    """The weather year of --by energy, read before any work (a bad file fails at once)."""
+    if args.by != "energy":
+        return None
+    from .studies.yield_ import read_weather
+
+    return read_weather(args.weather)
+
+
+def _weather_input(args):
+    if getattr(args, "by", None) != "energy" or not args.weather:
+        return []
+    from .studies.yield_ import demo_weather_path
+
+    path = demo_weather_path() if args.weather == "demo" else Path(args.weather)
+    return [("the weather file", path)]
 
 
 def add_study_options(parser):
     parser.add_argument("stack", help="stack file (.toml)")
     parser.add_argument("--vary", action="append", required=True, metavar="NAME.KEY=START:STOP:N",
                         help="a numeric key of a named element, over N values")
-    parser.add_argument("--workers", type=int, help="local worker processes")
+    parser.add_argument("--workers", help="local worker processes")
     parser.add_argument("--cluster", metavar="ADDRESS",
                         help="address of a running dask.distributed scheduler (tcp://host:port)")
     parser.add_argument("--out", metavar="FOLDER",
@@ -43,8 +65,8 @@ def add_study_options(parser):
     parser.add_argument("--plot", metavar="PATH.png|svg", help="draw the study")
     parser.add_argument("--json", metavar="PATH", help="write the summary as JSON ('-' stdout)")
     parser.add_argument("--spectrum", help="override the stack's spectrum")
-    parser.add_argument("--suns", type=float, help="override the concentration")
-    parser.add_argument("--temperature", type=float, metavar="K", help="override the temperature")
+    parser.add_argument("--suns", help="override the concentration")
+    parser.add_argument("--temperature", metavar="K", help="override the temperature")
     parser.add_argument("--quiet", action="store_true", help="no progress line")
 
 
@@ -59,9 +81,29 @@ def _check_paths(args):
     if workers is not None and cluster:
         raise StackError("--workers and --cluster exclude each other", where="--workers",
                          fix="give one of them")
-    if workers is not None and not 1 <= workers <= 256:
-        raise StackError(f"--workers {workers} must be 1..256", where="--workers",
-                         fix="give the number of local processes")
+    if cluster is not None:
+        from .options import check_cluster_address
+
+        check_cluster_address(cluster, where="--cluster", in_process=False)
+
+
+def _check_outputs(args, stack):
+    """Every output of the study against the files it reads, before any work."""
+    from .files import check_outputs, stack_inputs
+
+    check_outputs([(option, getattr(args, option[2:], None))
+                   for option in ("--csv", "--parquet", "--plot", "--json")],
+                  stack_inputs(stack, spectrum=args.spectrum) + _weather_input(args),
+                  folders=[("--out", getattr(args, "out", None))])
+
+
+def _connect(args):
+    """The dask client of --cluster (short connect timeout, one message), or None."""
+    if not getattr(args, "cluster", None):
+        return None
+    from .options import connect_cluster
+
+    return connect_cluster(args.cluster)
 
 
 def _write_outputs(args, table, summary, figure=None):
@@ -89,10 +131,46 @@ def _write_outputs(args, table, summary, figure=None):
         print(f"  wrote {args.plot}")
 
 
-def _options(args):
-    return dict(workers=args.workers, cluster=args.cluster, output=args.out,
+def _options(args, client=None):
+    return dict(workers=args.workers, cluster=client, output=args.out,
                 progress=not args.quiet, spectrum=args.spectrum, suns=args.suns,
                 temperature_K=args.temperature)
+
+
+def _check_study(args, stack, variations):
+    """The study's options, memory and designs (studies.sweep.check_study) before any work,
+    naming the command-line options."""
+    from .options import CLI_NAMES
+    from .studies.sweep import check_study
+
+    check_study(stack, variations, workers=args.workers, cluster=args.cluster,
+                spectrum=args.spectrum, suns=args.suns, temperature_K=args.temperature,
+                names=CLI_NAMES)
+
+
+def _check_column(column, stack, variations):
+    """``map --column``: a numeric result column of this stack, known before the study runs."""
+    from .compile import compile_stack
+    from .studies.sweep import RESULT_COLUMNS
+
+    if stack.layers:
+        names = [cell.name for cell in compile_stack(stack).subcells]
+    else:
+        names = [e.name for e in stack.elements if e.kind == "subcell"]
+    numeric = ([v.column for v in variations] + RESULT_COLUMNS
+               + [f"{name}.photocurrent_mA_cm2" for name in names])
+    shown = column if len(column) <= 60 else column[:57] + "..."
+    if column in ("limiting_subcell", "regime"):
+        raise StackError(f"--column {shown!r} holds text, not numbers: it cannot be mapped",
+                         where="--column", fix="map one of " + ", ".join(numeric))
+    if column not in numeric:
+        raise StackError(f"--column {shown!r} is not a result column", where="--column",
+                         fix="one of " + ", ".join(numeric))
+    if stack.conditions.strings > 1 and column in RESULT_COLUMNS[1:]:
+        raise StackError(f"--column {column!r} is per string, and this stack has "
+                         f"{stack.conditions.strings} strings: the map would be empty",
+                         where="--column",
+                         fix="map efficiency_pct or a subcell's photocurrent")
 
 
 def run_match(args):
@@ -102,12 +180,20 @@ def run_match(args):
 
     _check_paths(args)
     _check_energy(args)
-    stack = load_stack(args.stack)
     if len(args.vary) != 1:
         raise StackError(f"match takes one --vary, got {len(args.vary)}", where="--vary",
                          fix="use `siltandem map` for two keys")
+    stack = load_stack(args.stack)
+    _check_outputs(args, stack)
     variation = parse_vary(args.vary[0], stack)
-    table, matches = match_currents(stack, variation, **_options(args))
+    _check_study(args, stack, [variation])
+    weather = _weather(args)
+    client = _connect(args)
+    try:
+        table, matches = match_currents(stack, variation, **_options(args, client))
+    finally:
+        if client is not None:
+            client.close()
     photocurrent_columns = [c for c in table.columns if c.endswith(".photocurrent_mA_cm2")]
     print(f"siltandem — current matching of {stack.name} over {variation.column}")
     print("")
@@ -135,7 +221,7 @@ def run_match(args):
         from .studies.matching import energy_by_value
 
         table["annual_energy_kWh_m2"] = energy_by_value(
-            stack, variation, table, weather=args.weather, tilt_deg=args.tilt,
+            stack, variation, table, weather=weather, tilt_deg=args.tilt,
             azimuth_deg=args.azimuth, progress=not args.quiet)
         top = table["annual_energy_kWh_m2"].idxmax()
         by_energy = {"value": float(table[variation.column][top]),
@@ -166,19 +252,24 @@ def run_map(args):
     from .studies.sweep import parse_vary
 
     _check_paths(args)
-    stack = load_stack(args.stack)
     if len(args.vary) != 2:
         raise StackError(f"map takes two --vary, got {len(args.vary)}", where="--vary",
                          fix="give --vary A=... --vary B=...; use `siltandem match` for one key")
+    stack = load_stack(args.stack)
+    _check_outputs(args, stack)
     first, second = (parse_vary(v, stack) for v in args.vary)
     if first.column == second.column:
         raise StackError(f"both --vary name {first.column}", where="--vary",
                          fix="vary two different keys")
-    table = design_map(stack, first, second, **_options(args))
     column = args.column
-    if column not in table.columns:
-        raise StackError(f"--column {column!r} is not a result column", where="--column",
-                         fix="one of " + ", ".join(c for c in table.columns if c != "design"))
+    _check_column(column, stack, [first, second])
+    _check_study(args, stack, [first, second])
+    client = _connect(args)
+    try:
+        table = design_map(stack, first, second, **_options(args, client))
+    finally:
+        if client is not None:
+            client.close()
     best = optimum(table, column)
     print(f"siltandem — design map of {stack.name}: {first.column} x {second.column} "
           f"({len(table)} designs)")
@@ -211,8 +302,8 @@ def add_losses_command(commands):
     losses.add_argument("--json", metavar="PATH", help="write the waterfall as JSON ('-' stdout)")
     losses.add_argument("--csv", metavar="PATH.csv", help="write the steps as CSV")
     losses.add_argument("--spectrum", help="override the stack's spectrum")
-    losses.add_argument("--suns", type=float, help="override the concentration")
-    losses.add_argument("--temperature", type=float, metavar="K", help="override the temperature")
+    losses.add_argument("--suns", help="override the concentration")
+    losses.add_argument("--temperature", metavar="K", help="override the temperature")
 
 
 def run_losses(args):
@@ -227,6 +318,7 @@ def run_losses(args):
     if stack.conditions.terminals != 2:
         raise StackError("the loss waterfall is for two-terminal stacks", file=stack.source,
                          where="key conditions.terminals", fix="set terminals = 2")
+    _check_outputs(args, stack)
     waterfall = loss_waterfall(stack, spectrum=args.spectrum, suns=args.suns,
                                temperature_K=args.temperature)
     print(f"siltandem — loss waterfall of {stack.name}")
@@ -262,9 +354,9 @@ def add_placements_command(commands):
                                ("--cluster", "ADDRESS", "a dask.distributed scheduler"),
                                ("--spectrum", None, "override the spectrum")):
         placements.add_argument(option, metavar=meta, help=text)
-    placements.add_argument("--workers", type=int, help="local worker processes")
-    placements.add_argument("--suns", type=float, help="override the concentration")
-    placements.add_argument("--temperature", type=float, metavar="K", help="cell temperature")
+    placements.add_argument("--workers", help="local worker processes")
+    placements.add_argument("--suns", help="override the concentration")
+    placements.add_argument("--temperature", metavar="K", help="cell temperature")
     placements.add_argument("--quiet", action="store_true", help="no progress line")
     add_energy_options(placements)
 
@@ -279,12 +371,18 @@ def run_placements(args):
     if not stack.layers:
         raise StackError("placements are declared in layer stacks", file=stack.source,
                          fix="write the stack as [[layer]] tables with [[placement]] candidates")
-
-    table = rank_placements(stack, auto=args.auto, **_options(args))
+    _check_outputs(args, stack)
+    weather = _weather(args)
+    client = _connect(args)
+    try:
+        table = rank_placements(stack, auto=args.auto, **_options(args, client))
+    finally:
+        if client is not None:
+            client.close()
     if args.by == "energy":
         from .studies.placements import energy_of_candidates
 
-        table = energy_of_candidates(stack, table, auto=args.auto, weather=args.weather,
+        table = energy_of_candidates(stack, table, auto=args.auto, weather=weather,
                                      tilt_deg=args.tilt, azimuth_deg=args.azimuth,
                                      progress=not args.quiet)
     print(f"siltandem — tunnel-junction placements of {stack.name}"

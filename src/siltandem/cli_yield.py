@@ -43,9 +43,9 @@ def add_yield_command(commands):
     parser.add_argument("--weather", required=True, metavar="FILE.csv|demo",
                         help="TMY3 weather file (read with pvlib.iotools.read_tmy3); 'demo' is "
                              "the Greensboro, NC file pvlib ships")
-    parser.add_argument("--tilt", type=float, metavar="DEG",
+    parser.add_argument("--tilt", metavar="DEG",
                         help="plane tilt from horizontal (default: the latitude)")
-    parser.add_argument("--azimuth", type=float, metavar="DEG",
+    parser.add_argument("--azimuth", metavar="DEG",
                         help="plane azimuth clockwise from north (default: facing the equator)")
     parser.add_argument("--sky-model", default="perez", choices=SKY_MODELS,
                         help="sky-diffuse transposition model (default perez)")
@@ -53,7 +53,7 @@ def add_yield_command(commands):
                         help="SAPM cell-temperature parameter set: open_rack_glass_glass "
                              "(default), close_mount_glass_glass, open_rack_glass_polymer, "
                              "insulated_back_glass_polymer")
-    parser.add_argument("--albedo", type=float,
+    parser.add_argument("--albedo",
                         help="ground albedo 0..1 (default: the file's, 0.2 where missing)")
     parser.add_argument("--scaling", default="total", choices=SCALINGS,
                         help="scale the SPECTRL2 spectrum to the measured total (default) or "
@@ -78,9 +78,10 @@ def add_yield_command(commands):
 
 def run_yield(args):
     """Run ``siltandem yield``; returns the exit status (StackError propagates to the caller)."""
-    from .files import save_figure_atomic, write_atomic
+    from .files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
     from .stack import load_stack
-    from .studies.yield_ import annual_yield, hourly_table, plot_yield, text_summary
+    from .studies.yield_ import (annual_yield, demo_weather_path, hourly_table, plot_yield,
+                                 temperature_parameters, text_summary)
 
     for option, path, allowed in (("--csv", args.csv, {".csv"}),
                                   ("--plot", args.plot, PLOT_SUFFIXES)):
@@ -89,8 +90,22 @@ def run_yield(args):
                              fix=f"give a path ending in {' or '.join(sorted(allowed))}")
     gap_materials = _pairs(args.gap_material, "--gap-material", "MATERIAL")
     eqe = _pairs(args.eqe, "--eqe", "FILE.csv")
+    temperature_parameters(args.mounting)          # a name pvlib knows, before any work
     stack = load_stack(args.stack)
-    result = annual_yield(stack, args.weather, tilt_deg=args.tilt, azimuth_deg=args.azimuth,
+    weather = demo_weather_path() if args.weather == "demo" else Path(args.weather)
+    check_outputs([("--json", args.json), ("--csv", args.csv), ("--plot", args.plot)],
+                  stack_inputs(stack) + [("the weather file", weather)]
+                  + [(f"the quantum-efficiency file of subcell {name!r} (--eqe)", Path(path))
+                     for name, path in eqe.items()])
+    # everything the year needs, read and checked before its hours are computed
+    from .compile import compile_stack
+    from .studies.yield_ import _eqe_tables, _gap_laws, read_weather
+
+    names = [cell.name for cell in compile_stack(stack).subcells]
+    _gap_laws(gap_materials, names)
+    _eqe_tables(eqe, names)
+    year = read_weather(args.weather)
+    result = annual_yield(stack, year, tilt_deg=args.tilt, azimuth_deg=args.azimuth,
                           sky_model=args.sky_model, mounting=args.mounting, albedo=args.albedo,
                           scaling=args.scaling, gap_materials=gap_materials, eqe=eqe,
                           split_losses=args.split_losses)

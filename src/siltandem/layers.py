@@ -32,6 +32,14 @@ COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0}
 _DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
+#: numeric layer keys and their ranges (unit, low, high, low_open): what parse_layers checks in a
+#: file, and what a study's --vary of a layer key is checked against (check_layer_value)
+LAYER_NUMBERS = {"thickness_nm": dict(unit="nm", low=0.0, high=2e6, low_open=True),
+                 "diffusion_length_um": dict(unit="um", low=0.0, high=1e5, low_open=True),
+                 "lifetime_ns": dict(unit="ns", low=0.0, high=1e9, low_open=True),
+                 "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False)}
+#: net doping range [cm^-3] of ``doping = "n:..."``
+DOPING_RANGE_CM3 = (1e10, 1e21)
 
 
 @dataclass(frozen=True)
@@ -123,7 +131,7 @@ def parse_doping(text, *, file, where):
     except ValueError:
         raise StackError(f"doping {text!r}: {match.group(2)!r} is not a number", file=file,
                          where=where, fix=fix) from None
-    if not 1e10 <= value <= 1e21:
+    if not DOPING_RANGE_CM3[0] <= value <= DOPING_RANGE_CM3[1]:
         raise StackError(f"doping {value:g} cm^-3 is outside 1e10..1e21 cm^-3", file=file,
                          where=where, fix="give a net doping between 1e10 and 1e21 cm^-3")
     return match.group(1), value
@@ -131,8 +139,6 @@ def parse_doping(text, *, file, where):
 
 def parse_layers(tables, *, file):
     """Validate the ``[[layer]]`` tables into Layer objects (materials are checked here too)."""
-    from .materials import MaterialError, load_material
-
     if not isinstance(tables, list) or not tables:
         raise StackError("layer must be a non-empty array of tables", file=file,
                          where="key layer", fix="write each layer as [[layer]] (double brackets)")
@@ -168,27 +174,22 @@ def parse_layers(tables, *, file):
                                         or not isinstance(composition, (int, float))):
             raise StackError(f"composition must be a number in [0, 1], got {composition!r}",
                              file=file, where=where, fix="write composition = 0.51")
-        try:
-            load_material(material, None if composition is None else float(composition))
-        except MaterialError as exc:
-            raise StackError(str(exc), file=file, where=f"{where}, key material",
-                             fix="see `siltandem materials` for the library and how each alloy "
-                                 "takes its composition") from None
-        thickness = _positive_number(table, "thickness_nm", file=file, where=where, unit="nm",
-                                     high=2e6)
+        _check_material(material, composition, file=file, where=where)
+        thickness = _positive_number(table, "thickness_nm", file=file, where=where,
+                                     **LAYER_NUMBERS["thickness_nm"])
         if "doping" not in table:
             raise StackError("missing required key 'doping'", file=file, where=where,
                              fix='add doping = "n:2e18" (type and net doping in cm^-3)')
         polarity, doping = parse_doping(table["doping"], file=file, where=where)
         length = _positive_number(table, "diffusion_length_um", file=file, where=where,
-                                  unit="um", high=1e5, required=False)
-        lifetime = _positive_number(table, "lifetime_ns", file=file, where=where, unit="ns",
-                                    high=1e9, required=False)
+                                  required=False, **LAYER_NUMBERS["diffusion_length_um"])
+        lifetime = _positive_number(table, "lifetime_ns", file=file, where=where,
+                                    required=False, **LAYER_NUMBERS["lifetime_ns"])
         if length is not None and lifetime is not None:
             raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
                              where=where, fix="remove one of the two")
-        srv = _positive_number(table, "srv_cm_s", file=file, where=where, unit="cm/s",
-                               high=1e8, required=False, low_open=False)
+        srv = _positive_number(table, "srv_cm_s", file=file, where=where, required=False,
+                               **LAYER_NUMBERS["srv_cm_s"])
         tunnel = {}
         for key, unit, high in (("tunnel_peak_mA_cm2", "mA/cm2", 1e9), ("tunnel_peak_V", "V", 5),
                                 ("tunnel_valley_mA_cm2", "mA/cm2", 1e9),
@@ -205,6 +206,35 @@ def parse_layers(tables, *, file):
                             else float(composition), thickness, polarity, doping, length,
                             lifetime, srv, tunnel or None, offset))
     return tuple(layers)
+
+
+def _check_material(material, composition, *, file, where):
+    from .materials import MaterialError, load_material
+
+    try:
+        load_material(material, None if composition is None else float(composition))
+    except MaterialError as exc:
+        raise StackError(str(exc), file=file, where=f"{where}, key material",
+                         fix="see `siltandem materials` for the library and how each alloy "
+                             "takes its composition") from None
+
+
+def check_layer_value(layer, key, value, *, file=None, where=None):
+    """One numeric key of ``layer`` set to ``value``, checked as parse_layers checks the file's
+    (same ranges, same messages): a study's varied layer keys go through here. Returns it."""
+    if key in LAYER_NUMBERS:
+        return _positive_number({key: value}, key, file=file, where=where, **LAYER_NUMBERS[key])
+    if key == "doping_cm3":
+        return parse_doping(f"{layer.polarity}:{float(value)!r}", file=file, where=where)[1]
+    if key == "composition":
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
+            raise StackError(f"composition must be a number in [0, 1], got {value!r}", file=file,
+                             where=where, fix="write composition = 0.51")
+        _check_material(layer.material, value, file=file, where=where)
+        return float(value)
+    raise StackError(f"layer {layer.name!r} has no numeric key {key!r}", file=file, where=where,
+                     fix="vary one of " + ", ".join(list(LAYER_NUMBERS) + ["doping_cm3",
+                                                                          "composition"]))
 
 
 def parse_coatings(tables, *, file):

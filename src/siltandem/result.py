@@ -139,6 +139,11 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     curve_points : int
         Points of the traced light I-V per string.
     """
+    from .options import OPTION_SCHEMA, check_conditions, check_option
+
+    suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
+    check_option(OPTION_SCHEMA["points"], curve_points, where="argument curve_points",
+                 integer=True)
     placement_note = None
     if stack.extra.get("placements"):
         from .placements_spec import with_placement
@@ -395,7 +400,12 @@ def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=Non
     """
     import pandas as pd
 
+    from .options import CONDITION_SCHEMA, check_conditions, check_option
+
+    _, temperature_K = check_conditions(temperature_K=temperature_K)
     suns = np.asarray(suns_values, dtype=float).reshape(-1)
+    for value in (suns.min(), suns.max()) if suns.size and np.all(np.isfinite(suns)) else suns:
+        check_option(CONDITION_SCHEMA["suns"], value, where="argument suns_values")
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("temperature_K", temperature_K))
                if v is not None}

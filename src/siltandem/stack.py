@@ -12,6 +12,8 @@ import math
 import re
 import tomllib
 
+import numpy as np
+
 from .constants import STANDARD_TEMPERATURE_K
 from .errors import StackError
 
@@ -115,6 +117,13 @@ CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_T
                   "terminals": 2}
 TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules", "optics",
                   "placement"}
+#: the numeric keys of [conditions] with their ranges; the overrides --suns and --temperature and
+#: the API's suns= and temperature_K= are checked against these same entries (siltandem.options)
+CONDITION_SCHEMA = {
+    "suns": Parameter("suns", "suns", 0.0, 1e5, 1.0, low_open=True, help="concentration"),
+    "temperature_K": Parameter("temperature_K", "K", 150.0, 1000.0, STANDARD_TEMPERATURE_K,
+                               help="cell temperature"),
+}
 
 
 @dataclass(frozen=True)
@@ -198,6 +207,39 @@ def _check_range(spec, value, *, file, where):
                          fix=f"give {spec.key} within {spec.describe_range()}")
 
 
+def check_number(spec, value, *, file=None, where=None):
+    """One value against its :class:`Parameter`: a number, not NaN, inside the key's range.
+
+    The one check behind file keys, command-line overrides and study options (siltandem.options),
+    so all three give the same message. Returns the value as a float.
+    """
+    if hasattr(value, "dtype") and getattr(value, "shape", None) == ():   # a numpy scalar
+        value = value.item()
+    value = _number(value, file=file, where=where, key=spec.key, unit=spec.unit)
+    _check_range(spec, value, file=file, where=where)
+    return value
+
+
+def check_element_values(kind, values, *, file=None, where=None):
+    """The rules between an element's keys: a tunnel junction's peak before and above its valley
+    (and a law that can put its maximum there), a subcell's breakdown only with a shunt.
+
+    ``values`` maps key -> number, or arrays of one design per entry (a study's grid): then any
+    bad design raises (its message names the first one only through its numbers when the arrays
+    hold one value; callers that need the design narrow the arrays down first).
+    """
+    if kind == "tunnel":
+        _check_tunnel(values, file=file, where=where)
+    elif kind == "subcell":
+        breakdown = np.isfinite(np.asarray(values["breakdown_V"], dtype=float))
+        shunt = np.isfinite(np.asarray(values["shunt_ohm_cm2"], dtype=float))
+        if np.any(breakdown & ~shunt):
+            raise StackError("breakdown_V needs shunt_ohm_cm2: the avalanche current multiplies "
+                             "the shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)",
+                             file=file, where=where,
+                             fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
+
+
 def _parse_element(index, table, *, file, terminals):
     where = f"element {index}"
     if not isinstance(table, dict):
@@ -257,12 +299,7 @@ def _parse_element(index, table, *, file, terminals):
         values["material"] = material.name
     if "eqe" in table:
         values["eqe"] = _subcell_eqe(table["eqe"], file=file, where=where)
-    if kind == "tunnel":
-        _check_tunnel(values, file=file, where=where)
-    if kind == "subcell" and "breakdown_V" in table and "shunt_ohm_cm2" not in table:
-        raise StackError("breakdown_V needs shunt_ohm_cm2: the avalanche current multiplies the "
-                         "shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)", file=file,
-                         where=where, fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
+    check_element_values(kind, values, file=file, where=where)
     return ElementSpec(index, kind, name, string, values)
 
 
@@ -382,17 +419,22 @@ def _check_tunnel(values, *, file, where):
     """Peak before valley, valley below peak, and a law that can put its maximum at the peak."""
     from .laws import esaki
 
-    if values["peak_V"] >= values["valley_V"]:
-        raise StackError(f"peak_V = {values['peak_V']:g} V is not below valley_V = "
-                         f"{values['valley_V']:g} V", file=file, where=where,
+    def g(key):   # one value as written; a study's arrays (any entry bad) say "several"
+        value = np.asarray(values[key], dtype=float)
+        return f"{float(value.reshape(-1)[0]):g}" if value.size == 1 else "(several values)"
+
+    if np.any(np.asarray(values["peak_V"]) >= np.asarray(values["valley_V"])):
+        raise StackError(f"peak_V = {g('peak_V')} V is not below valley_V = "
+                         f"{g('valley_V')} V", file=file, where=where,
                          fix="the current peak comes before the valley: lower peak_V or raise "
                              "valley_V")
-    if values["valley_mA_cm2"] >= values["peak_mA_cm2"]:
-        raise StackError(f"valley_mA_cm2 = {values['valley_mA_cm2']:g} is not below peak_mA_cm2 "
-                         f"= {values['peak_mA_cm2']:g}", file=file, where=where,
+    if np.any(np.asarray(values["valley_mA_cm2"]) >= np.asarray(values["peak_mA_cm2"])):
+        raise StackError(f"valley_mA_cm2 = {g('valley_mA_cm2')} is not below peak_mA_cm2 "
+                         f"= {g('peak_mA_cm2')}", file=file, where=where,
                          fix="a tunnel junction's valley current is below its peak current: "
                              "lower valley_mA_cm2 or raise peak_mA_cm2")
-    slope = values["excess_slope_per_V"] or None
+    slope = np.asarray(values["excess_slope_per_V"], dtype=float)
+    slope = slope if np.all(slope > 0) else None     # 0: the law's default (as compile.py)
     try:
         esaki.tunnel_term_for_exact_peak(
             peak_A_m2=values["peak_mA_cm2"] * 10, peak_V=values["peak_V"],
@@ -426,17 +468,11 @@ def _parse_conditions(table, *, file):
         raise StackError(f"spectrum must be text, got {spectrum!r}", file=file,
                          where="key conditions.spectrum",
                          fix='write spectrum = "am1.5g" (or am1.5d, am0, a CSV path)')
-    suns = _number(table.get("suns", 1.0), file=file, where="key conditions.suns",
-                   key="suns", unit="suns")
-    if not 0 < suns <= 1e5:
-        raise StackError(f"suns = {suns:g} must be in (0, 1e5]", file=file,
-                         where="key conditions.suns", fix="give the concentration, e.g. suns = 1")
-    temperature = _number(table.get("temperature_K", STANDARD_TEMPERATURE_K), file=file,
-                          where="key conditions.temperature_K", key="temperature_K", unit="K")
-    if not 150 <= temperature <= 1000:
-        raise StackError(f"temperature_K = {temperature:g} is outside [150, 1000] K", file=file,
-                         where="key conditions.temperature_K",
-                         fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
+    suns = check_number(CONDITION_SCHEMA["suns"], table.get("suns", 1.0), file=file,
+                        where="key conditions.suns")
+    temperature = check_number(CONDITION_SCHEMA["temperature_K"],
+                               table.get("temperature_K", STANDARD_TEMPERATURE_K), file=file,
+                               where="key conditions.temperature_K")
     terminals = table.get("terminals", 2)
     if isinstance(terminals, bool) or not isinstance(terminals, int) or terminals < 2 \
             or terminals % 2:

@@ -3,7 +3,7 @@ import functools
 
 
 from ..parallel import run_chunks
-from .sweep import design_table, evaluate_chunk, input_files
+from .sweep import check_study, design_table, evaluate_chunk, input_files
 
 
 def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=True,
@@ -13,6 +13,8 @@ def design_map(stack, first, second, *, workers=None, cluster=None, output=None,
     Columns: ``design``, the two varied columns (named as given, e.g. ``top.gap_eV``), then the
     result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...).
     """
+    check_study(stack, [first, second], workers=workers, cluster=cluster,
+                chunk_rows=chunk_rows, spectrum=spectrum, suns=suns, temperature_K=temperature_K)
     table = design_table([first, second])
     function = functools.partial(evaluate_chunk, stack=stack, spectrum=spectrum, suns=suns,
                                  temperature_K=temperature_K)

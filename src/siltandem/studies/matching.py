@@ -9,7 +9,8 @@ import numpy as np
 from scipy import optimize
 
 from ..parallel import run_chunks
-from .sweep import design_table, evaluate_chunk, input_files, photocurrents_at, solve_designs
+from .sweep import (check_study, design_table, evaluate_chunk, input_files, photocurrents_at,
+                    solve_designs)
 
 
 def match_currents(stack, variation, *, workers=None, cluster=None, output=None, progress=True,
@@ -26,6 +27,8 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
     """
     import functools
 
+    check_study(stack, [variation], workers=workers, cluster=cluster, spectrum=spectrum,
+                suns=suns, temperature_K=temperature_K)
     options = dict(spectrum=spectrum, suns=suns, temperature_K=temperature_K)
     table = design_table([variation])
     function = functools.partial(evaluate_chunk, stack=stack, **options)

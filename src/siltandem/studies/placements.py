@@ -103,6 +103,12 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
     """Every candidate solved; a DataFrame ranked by efficiency (best first, rank column)."""
     import pandas as pd
 
+    from ..options import check_conditions, check_study_options
+    from .sweep import study_light
+
+    suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
+    workers, _ = check_study_options(workers=workers, cluster=cluster)
+    study_light(stack, spectrum=spectrum, suns=suns)
     candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
     if not candidates:
         raise StackError("the stack declares no [[placement]] candidates", file=stack.source,

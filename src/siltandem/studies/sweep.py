@@ -19,17 +19,16 @@ from ..parallel import file_digest
 from ..illuminate import illuminate
 from ..solve import solve_string
 from ..spectra import get_spectrum
-from ..stack import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, _check_range
+from ..stack import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values, check_number
 
 #: result columns every study row carries, named as in the JSON of `siltandem run`
 RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
 #: isotype keys a study may vary (the explicit form of the law)
 ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
-#: layer keys a study may vary, with their units and ranges (a layer stack's designs are solved
-#: one by one: each changes the optics and the layer physics)
-LAYER_VARIABLE = {"thickness_nm": ("nm", 0.0, 2e6), "doping_cm3": ("cm-3", 1e10, 1e21),
-                  "composition": ("", 0.0, 1.0), "diffusion_length_um": ("um", 0.0, 1e5),
-                  "lifetime_ns": ("ns", 0.0, 1e9), "srv_cm_s": ("cm/s", 0.0, 1e8)}
+#: layer keys a study may vary (a layer stack's designs are solved one by one: each changes the
+#: optics and the layer physics); their ranges are the file's (layers.check_layer_value)
+LAYER_VARIABLE = ("thickness_nm", "doping_cm3", "composition", "diffusion_length_um",
+                  "lifetime_ns", "srv_cm_s")
 
 
 @dataclass(frozen=True)
@@ -46,29 +45,45 @@ class Variation:
 
 
 def parse_vary(text, stack):
-    """``NAME.KEY=START:STOP:N`` -> Variation, checked against the stack and the key's range."""
+    """``NAME.KEY=START:STOP:N`` -> Variation, checked against the stack and the key's range.
+
+    The values are checked by the file's own validators (stack.check_number with the key's
+    Parameter, layers.check_layer_value): the same ranges and messages as the key in a file.
+    The rules between keys (a tunnel junction's valley below its peak, ...) need every varied
+    key at once: :func:`check_designs`.
+    """
+    from ..options import OPTION_SCHEMA, check_option
+
     fix = "write --vary NAME.KEY=START:STOP:N, e.g. --vary top.gap_eV=1.6:1.9:31"
+    if not isinstance(text, str):
+        raise StackError(f"{text!r} is not NAME.KEY=START:STOP:N (text)", where="--vary",
+                         fix=fix)
+    shown = text if len(text) <= 120 else text[:117] + "..."
     name_key, sep, span = text.partition("=")
     element, dot, key = name_key.rpartition(".")
     if not sep or not dot:
-        raise StackError(f"--vary {text!r} is not NAME.KEY=START:STOP:N", where="--vary", fix=fix)
+        raise StackError(f"{shown!r} is not NAME.KEY=START:STOP:N", where="--vary",
+                         fix=fix)
     parts = span.split(":")
     try:
-        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
         if len(parts) != 3:
             raise ValueError
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
     except (ValueError, IndexError):
-        raise StackError(f"--vary {text!r}: {span!r} is not START:STOP:N", where="--vary",
+        raise StackError(f"{shown!r}: {span[:40]!r} is not START:STOP:N", where="--vary",
                          fix=fix) from None
-    if not 2 <= count <= 1_000_000:
-        raise StackError(f"--vary {text!r}: N = {count} must be 2..1000000", where="--vary",
-                         fix=fix)
+    where = f"--vary {shown}"
+    check_option(OPTION_SCHEMA["vary_count"], count, where=where, integer=True)
+    for value in (start, stop):
+        if not np.isfinite(value):
+            raise StackError(f"{shown!r}: {value} is not a finite number", where="--vary",
+                             fix="give START and STOP as finite numbers within the key's range")
     if stack.layers:
-        return _parse_layer_vary(text, stack, element, key, start, stop, count)
+        return _parse_layer_vary(shown, stack, element, key, start, stop, count)
     specs = {e.name: e for e in stack.elements}
     if element not in specs:
-        names = ", ".join(repr(n) for n in specs) or "none (a layer stack: not yet)"
-        raise StackError(f"--vary {text!r}: no element named {element!r}", where="--vary",
+        names = ", ".join(repr(n) for n in specs)
+        raise StackError(f"{shown!r}: no element named {element!r}", where="--vary",
                          fix=f"the stack's elements are {names}")
     spec = specs[element]
     if spec.kind == "isotype":
@@ -76,28 +91,117 @@ def parse_vary(text, stack):
     else:
         allowed = {p.key: p for p in ELEMENT_SCHEMA[spec.kind]}
     if key not in allowed:
-        raise StackError(f"--vary {text!r}: {spec.kind} {element!r} has no numeric key {key!r}",
+        raise StackError(f"{shown!r}: {spec.kind} {element!r} has no numeric key {key!r}",
                          where="--vary", fix="vary one of " + ", ".join(sorted(allowed)))
     values = np.linspace(start, stop, count)
-    for value in (start, stop):
-        _check_range(allowed[key], value, file=None, where=f"--vary {text}")
+    # the range is an interval: its ends bound every value between them
+    for value in (values.min(), values.max()):
+        check_number(allowed[key], float(value), where=where)
     return Variation(element, key, values)
 
 
 def _parse_layer_vary(text, stack, name, key, start, stop, count):
+    from ..layers import check_layer_value
+
     layers = {layer.name: layer for layer in stack.layers}
     if name not in layers:
-        raise StackError(f"--vary {text!r}: no layer named {name!r}", where="--vary",
+        raise StackError(f"{text!r}: no layer named {name!r}", where="--vary",
                          fix="the stack's layers are " + ", ".join(repr(n) for n in layers))
     if key not in LAYER_VARIABLE:
-        raise StackError(f"--vary {text!r}: layer {name!r} has no numeric key {key!r}",
+        raise StackError(f"{text!r}: layer {name!r} has no numeric key {key!r}",
                          where="--vary", fix="vary one of " + ", ".join(LAYER_VARIABLE))
-    unit, low, high = LAYER_VARIABLE[key]
-    for value in (start, stop):
-        if not low < value <= high and not (key in ("composition", "srv_cm_s") and value == low):
-            raise StackError(f"--vary {text!r}: {key} = {value:g} is outside ({low:g}, {high:g}] "
-                             f"{unit}", where="--vary", fix=f"give {key} within its range")
-    return Variation(name, key, np.linspace(start, stop, count))
+    values = np.linspace(start, stop, count)
+    for value in (values.min(), values.max()):   # an interval: its ends bound the rest
+        check_layer_value(layers[name], key, float(value), where=f"--vary {text}")
+    return Variation(name, key, values)
+
+
+def check_designs(stack, variations, *, grid=True):
+    """Every design of the study against the rules between an element's keys, before any work.
+
+    Each element that a variation touches is checked over all its combinations of varied
+    values (stack.check_element_values: a tunnel junction's peak before and above its valley
+    and a law that can place its maximum there; a breakdown only with a shunt). The first bad
+    design is named with its varied values and the file's message. Layer stacks: every design
+    goes through the layer compiler's rules (a doping that unmakes a tunnel junction fails).
+    """
+    if stack.layers:
+        _check_layer_designs(stack, variations, grid=grid)
+        return
+    specs = {e.name: e for e in stack.elements}
+    for name in dict.fromkeys(v.element for v in variations):
+        spec = specs[name]
+        mine = [v for v in variations if v.element == name]
+        if spec.kind not in ("tunnel", "subcell"):
+            continue
+        if grid and len(mine) > 1:
+            mesh = np.meshgrid(*[v.values for v in mine], indexing="ij")
+            columns = [m.reshape(-1) for m in mesh]
+        else:
+            columns = [v.values for v in mine]
+
+        def values_at(index, spec=spec, mine=mine, columns=columns):
+            values = dict(spec.values)
+            for variation, column in zip(mine, columns):
+                values[variation.key] = column[index]
+            return values
+
+        size = len(columns[0])
+        try:
+            check_element_values(spec.kind, values_at(slice(None)), where=spec.label)
+            continue
+        except StackError:
+            pass
+        low, high = 0, size       # the first bad design: the smallest prefix that fails
+        while high - low > 1:
+            middle = (low + high) // 2
+            try:
+                check_element_values(spec.kind, values_at(slice(low, middle)), where=spec.label)
+                low = middle
+            except StackError:
+                high = middle
+        design = ", ".join(f"{v.column} = {float(c[low]):g}" for v, c in zip(mine, columns))
+        check_element_values(spec.kind, values_at(low), file=stack.source,
+                             where=f"--vary: {spec.label} at {design}")
+        raise AssertionError("a failing design passed on its own")  # pragma: no cover
+
+
+def check_study(stack, variations, *, workers=None, cluster=None, chunk_rows=None,
+                spectrum=None, suns=None, temperature_K=None, names=None):
+    """Everything a study is given, checked before its table is allocated or any design solved:
+    the overrides (the file's ranges), workers, cluster address and chunk size, the grid's memory,
+    the spectrum, and every design against its element's rules (:func:`check_designs`)."""
+    from ..options import (API_NAMES, check_conditions, check_study_memory,
+                           check_study_options)
+
+    suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
+    workers, chunk_rows = check_study_options(workers=workers, cluster=cluster,
+                                              chunk_rows=chunk_rows)
+    designs = int(np.prod([len(v.values) for v in variations], dtype=float))
+    check_study_memory(designs, workers=workers, cluster=cluster, chunk_rows=chunk_rows,
+                       names=names or API_NAMES)
+    study_light(stack, spectrum=spectrum, suns=suns)
+    check_designs(stack, variations)
+
+
+def _check_layer_designs(stack, variations, *, grid=True):
+    """Every layer design read by the layer compiler's rules (compile_layers.recognise) before
+    any design is solved: a doping that turns a tunnel junction into a p-n junction fails here,
+    named with its design, not in the middle of the study."""
+    from ..compile_layers import recognise
+
+    threshold = stack.rules["tunnel_doping_cm3"]
+    table = design_table(variations, grid=grid)
+    columns = {v.column: table[v.column].to_numpy() for v in variations}
+    for index in range(len(table)):
+        values = {column: array[index] for column, array in columns.items()}
+        try:
+            recognise(_layer_design(stack, values).layers, tunnel_doping_cm3=threshold,
+                      file=stack.source)
+        except StackError as exc:
+            design = ", ".join(f"{c} = {float(x):g}" for c, x in values.items())
+            raise StackError(exc.problem, file=exc.file, where=f"--vary: design {design}"
+                             + (f", {exc.where}" if exc.where else ""), fix=exc.fix) from None
 
 
 def _layer_design(stack, values):
@@ -163,6 +267,9 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     Returns a dict of (B,) arrays: the RESULT_COLUMNS, ``<subcell>.photocurrent_mA_cm2`` for
     every subcell, ``limiting_subcell`` and ``regime``.
     """
+    from ..options import check_conditions
+
+    suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     if stack.layers and columns:
         return _solve_layer_designs(stack, columns, spectrum=spectrum, suns=suns,
                                     temperature_K=temperature_K)
@@ -170,7 +277,7 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
     conditions = replace(conditions, **changes)
-    light = _spectrum(conditions.spectrum, conditions.suns, stack.folder)
+    light = study_light(stack, spectrum=spectrum, suns=conditions.suns)
     circuit = illuminate(compile_stack(replace(_with_values(stack, columns),
                                                conditions=conditions)), light)
     size = max([1] + [np.size(v) for v in columns.values()])
@@ -240,14 +347,21 @@ def input_files(stack, *, spectrum=None):
     files = [] if stack.source is None else [str(stack.source)]
     if spectrum is None:
         files.append(spectrum_file(stack.conditions.spectrum, stack.folder))
-    else:  # an override: the map and match studies resolve it next to the stack file, the
-        # placements (through run_stack) in the working folder; both are fingerprinted
-        files += [spectrum_file(spectrum, stack.folder), spectrum_file(spectrum, None)]
+    else:  # an override is a path relative to the working folder, as for `siltandem run`
+        files.append(spectrum_file(spectrum, None))
     files = [str(f) for f in files if f is not None]
     for spec in stack.elements:
         if spec.values.get("eqe") is not None:
             files.append(str(spec.values["eqe"]))
     return files
+
+
+def study_light(stack, *, spectrum=None, suns=None):
+    """The study's spectrum: the override (a name, or a CSV path relative to the working folder,
+    as for `siltandem run`) or the stack's own (a path relative to the stack file)."""
+    name = stack.conditions.spectrum if spectrum is None else spectrum
+    folder = stack.folder if spectrum is None else None
+    return _spectrum(name, stack.conditions.suns if suns is None else suns, folder)
 
 
 def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None):
@@ -267,7 +381,7 @@ def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperat
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
     conditions = replace(conditions, **changes)
-    light = _spectrum(conditions.spectrum, conditions.suns, stack.folder)
+    light = study_light(stack, spectrum=spectrum, suns=conditions.suns)
     if stack.layers:
         varied = replace(_layer_design(stack, {column: value}), conditions=conditions)
     else:

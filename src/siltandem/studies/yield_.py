@@ -320,16 +320,9 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
     import pandas as pd
     import pvlib
 
-    if not 0 <= tilt_deg <= 90:
-        raise StackError(f"--tilt {tilt_deg:g} is outside [0, 90] degrees", where="--tilt",
-                         fix="give the plane's tilt from horizontal in degrees")
-    if not 0 <= azimuth_deg <= 360:
-        raise StackError(f"--azimuth {azimuth_deg:g} is outside [0, 360] degrees",
-                         where="--azimuth",
-                         fix="give the plane's azimuth clockwise from north (180: south)")
-    if albedo is not None and not 0 <= albedo <= 1:
-        raise StackError(f"albedo {albedo:g} is outside [0, 1]", where="--albedo",
-                         fix="give the ground's broadband reflectance, 0..1")
+    from ..options import check_plane
+
+    check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)
     _check_choice(sky_model, SKY_MODELS, "--sky-model")
     _check_choice(scaling, SCALINGS, "--scaling")
     parameters = temperature_parameters(mounting)
@@ -556,6 +549,9 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     -------
     YieldResult
     """
+    from ..options import check_plane
+
+    check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)   # before any work
     if not isinstance(weather, Weather):
         weather = read_weather(weather)
     if tilt_deg is None:
