@@ -1,4 +1,5 @@
 """The one exception type a user meets for bad input, with the fields every message carries."""
+from .text import printable
 
 
 class StackError(ValueError):
@@ -14,13 +15,16 @@ class StackError(ValueError):
         What is wrong.
     fix : str
         How to fix it.
+
+    Every field is kept printable: control characters a file or a name may carry (terminal
+    escape codes, line breaks) are written as escapes (``text.printable``).
     """
 
     def __init__(self, problem, *, file=None, where=None, fix=""):
-        self.file = None if file is None else str(file)
-        self.where = where
-        self.problem = problem
-        self.fix = fix
+        self.file = None if file is None else printable(file)
+        self.where = None if where is None else printable(where)
+        self.problem = printable(problem)
+        self.fix = printable(fix)
         super().__init__(self._text())
 
     def _text(self):
