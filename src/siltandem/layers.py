@@ -23,7 +23,8 @@ import math
 import re
 
 from .errors import StackError
-from .stack import _suggest
+from .stack import _number, _suggest
+from .text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
@@ -31,6 +32,11 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0}
+#: shortest minority-carrier diffusion length and lifetime a layer may give: 1 nm (a few
+#: lattice spacings) and 1 fs (below carrier scattering times); with the library's
+#: mobilities 1 fs gives about 1 nm
+MIN_DIFFUSION_LENGTH_UM = 1e-3
+MIN_LIFETIME_NS = 1e-6
 _DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
 
 
@@ -88,22 +94,23 @@ class Coating:
 
 
 def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, required=True,
-                     low_open=True):
+                     low_open=True, reason=""):
     if key not in table:
         if required:
             raise StackError(f"missing required key {key!r} ({unit})", file=file, where=where,
                              fix=f"add {key} = <number in {unit}>")
         return None
     value = table[key]
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
-        raise StackError(f"key {key!r} must be a number ({unit}), got {value!r}", file=file,
-                         where=where, fix=f"write {key} = <number> without quotes")
-    value = float(value)
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or (
+            isinstance(value, float) and math.isnan(value)):
+        raise StackError(f"key {key!r} must be a number ({unit}), got {excerpt(value)}",
+                         file=file, where=where, fix=f"write {key} = <number> without quotes")
+    value = _number(value, file=file, where=where, key=key, unit=unit)
     bad_low = value <= low if low_open else value < low
     if bad_low or value > high:
         bound = "(" if low_open else "["
-        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}",
-                         file=file, where=where,
+        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}"
+                         + (f" ({reason})" if reason else ""), file=file, where=where,
                          fix=f"give a {key} within {bound}{low:g}, {high:g}] {unit}")
     return value
 
@@ -112,16 +119,18 @@ def parse_doping(text, *, file, where):
     """``"n:2e18"`` -> ("n", 2e18); clear errors for anything else."""
     fix = 'write doping = "n:2e18" or "p:1e17" (type, colon, net doping in cm^-3)'
     if not isinstance(text, str):
-        raise StackError(f"doping must be text like \"n:2e18\", got {text!r}", file=file,
+        raise StackError(f"doping must be text like \"n:2e18\", got {excerpt(text)}", file=file,
                          where=where, fix=fix)
     match = _DOPING.match(text)
     if not match or match.group(1) not in ("n", "p"):
-        raise StackError(f"doping {text!r} is not understood (the type before the colon must be "
+        raise StackError(f"doping {excerpt(text)} is not understood (the type before the colon "
+                         "must be "
                          "n or p)", file=file, where=where, fix=fix)
     try:
         value = float(match.group(2))
     except ValueError:
-        raise StackError(f"doping {text!r}: {match.group(2)!r} is not a number", file=file,
+        raise StackError(f"doping {excerpt(text)}: {excerpt(match.group(2))} is not a number",
+                         file=file,
                          where=where, fix=fix) from None
     if not 1e10 <= value <= 1e21:
         raise StackError(f"doping {value:g} cm^-3 is outside 1e10..1e21 cm^-3", file=file,
@@ -144,7 +153,7 @@ def parse_layers(tables, *, file):
                              fix="write [[layer]] followed by key = value lines")
         name = table.get("name", f"layer{i}")
         if not isinstance(name, str) or not name.strip():
-            raise StackError(f"name must be a non-empty text, got {name!r}", file=file,
+            raise StackError(f"name must be a non-empty text, got {excerpt(name)}", file=file,
                              where=where, fix='write name = "top emitter" (any unique name)')
         where = f"layer {i} {name!r}"
         if name in names:
@@ -161,13 +170,18 @@ def parse_layers(tables, *, file):
             raise StackError("missing required key 'material'", file=file, where=where,
                              fix='add material = "GaAs" (see `siltandem materials`)')
         if not isinstance(material, str):
-            raise StackError(f"material must be text, got {material!r}", file=file, where=where,
+            raise StackError(f"material must be text, got {excerpt(material)}", file=file,
+                             where=where,
                              fix='write material = "GaAs"')
         composition = table.get("composition")
         if composition is not None and (isinstance(composition, bool)
                                         or not isinstance(composition, (int, float))):
-            raise StackError(f"composition must be a number in [0, 1], got {composition!r}",
-                             file=file, where=where, fix="write composition = 0.51")
+            raise StackError(f"composition must be a number in [0, 1], got "
+                             f"{excerpt(composition)}", file=file, where=where,
+                             fix="write composition = 0.51")
+        if composition is not None:
+            composition = _number(composition, file=file, where=where, key="composition",
+                                  unit="")
         try:
             load_material(material, None if composition is None else float(composition))
         except MaterialError as exc:
@@ -181,9 +195,15 @@ def parse_layers(tables, *, file):
                              fix='add doping = "n:2e18" (type and net doping in cm^-3)')
         polarity, doping = parse_doping(table["doping"], file=file, where=where)
         length = _positive_number(table, "diffusion_length_um", file=file, where=where,
-                                  unit="um", high=1e5, required=False)
+                                  unit="um", low=MIN_DIFFUSION_LENGTH_UM, low_open=False,
+                                  high=1e5, required=False,
+                                  reason="a diffusion length below 1 nm, a few lattice "
+                                         "spacings, has no meaning")
         lifetime = _positive_number(table, "lifetime_ns", file=file, where=where, unit="ns",
-                                    high=1e9, required=False)
+                                    low=MIN_LIFETIME_NS, low_open=False, high=1e9,
+                                    required=False,
+                                    reason="a lifetime below a femtosecond is shorter than "
+                                           "any carrier scattering time")
         if length is not None and lifetime is not None:
             raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
                              where=where, fix="remove one of the two")
