@@ -26,7 +26,8 @@ azimuth), every hour with light gets:
    default): King et al., Sandia report SAND2004-3535 (2004).
 
 Then the stack is solved for all hours at once: hours are the batch axis, each with its own
-photocurrents and temperature (J01 = J0,rad(Eg, T)/ERE follows the temperature). A subcell's gap
+photocurrents and temperature (J01 = J0,rad(Eg, T)/ERE and J02, proportional to n_i, follow the
+temperature). A subcell's gap
 stays as the file gives it unless the subcell is named in ``gap_materials``: its gap then shifts
 with the cell temperature as the library material's gap does (Varshni), by
 Eg(T) = gap_eV + Eg_material(T) - Eg_material(T_file), T_file the stack's ``temperature_K``.
@@ -45,7 +46,7 @@ import numpy as np
 from .. import units
 from ..compile import compile_stack
 from ..errors import StackError
-from ..illuminate import illuminate
+from ..illuminate import check_eqe_current, illuminate
 from ..laws.optics import photon_flux, step_absorber_photocurrents
 from ..laws.spectral import (
     quantum_efficiency_photocurrent,
@@ -55,6 +56,7 @@ from ..laws.spectral import (
 )
 from ..solve import solve_string
 from ..spectra import get_spectrum
+from ..text import excerpt
 
 #: SPECTRL2's atmosphere where the weather file gives nothing: the ASTM G173-03 atmosphere
 #: (C. A. Gueymard, D. Myers, K. Emery, Solar Energy 73 (2002) 443; values from memory):
@@ -74,6 +76,8 @@ TYPICAL_YEAR = 1990
 STANDARD_SPECTRUM = "am1.5g"
 STANDARD_TEMPERATURE_K = 298.15
 HOURS_PER_STEP = 1.0
+#: hourly rows of one typical year (TMY3: 365 days of 24 hours)
+HOURS_PER_YEAR = 8760
 
 CAUTION = ("Results are models, not measurements: the hourly spectra are clear-sky shapes scaled "
            "to measured irradiance. Electrical and optical work on cells and modules is "
@@ -113,6 +117,25 @@ def demo_weather_path():
     return Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
 
 
+def _check_whole_year(index, path):
+    """Refuse a weather file that does not cover one year hour by hour: annual energy needs
+    every hour of a typical year once (8760 hourly rows, TMY3 convention; W. Marion, K. Urban,
+    NREL/TP-463-7668, 1995)."""
+    repeated = int(index.duplicated().sum())
+    if repeated:
+        first = index[index.duplicated()][0]
+        raise StackError(f"{repeated} repeated hour(s) (first {first:%d %b %H:%M}): each hour "
+                         "would be counted more than once", file=path, where="--weather",
+                         fix="give each hour of the year once (8760 hourly rows)")
+    if len(index) < HOURS_PER_YEAR:
+        span = (f"{index[0]:%d %b %H:%M} to {index[-1]:%d %b %H:%M}" if len(index)
+                else "no hours")
+        raise StackError(f"the file covers {len(index)} of the {HOURS_PER_YEAR} hours of a year "
+                         f"({span}): a partial year is not an annual energy", file=path,
+                         where="--weather",
+                         fix="give a whole typical year (8760 hourly rows), e.g. --weather demo")
+
+
 def read_weather(path):
     """Read a TMY3-style weather file with ``pvlib.iotools.read_tmy3`` (map_variables=True).
 
@@ -134,8 +157,10 @@ def read_weather(path):
             data, meta = pvlib.iotools.read_tmy3(str(path), coerce_year=TYPICAL_YEAR,
                                                  map_variables=True)
     except Exception as exc:  # pvlib/pandas raise several types for files that are not TMY3
-        raise StackError(f"cannot read it as a TMY3 file ({exc.__class__.__name__}: {exc})",
-                         file=path, where="--weather", fix=fix) from None
+        raise StackError(f"cannot read it as a TMY3 file ({exc.__class__.__name__}: "
+                         f"{excerpt(str(exc), 120)})", file=path, where="--weather",
+                         fix=fix) from None
+    _check_whole_year(data.index, path)
     needed = ["ghi", "dni", "dhi", "temp_air", "wind_speed", "pressure"]
     missing = [c for c in needed if c not in data.columns]
     if missing:
@@ -423,11 +448,13 @@ def read_eqe_csv(path, *, where=None):
     try:
         frame = pd.read_csv(path, comment="#")
     except Exception as exc:  # pandas raises several types for unreadable files
-        raise StackError(f"cannot read it as CSV ({exc.__class__.__name__}: {exc})", file=path,
-                         where=where, fix=fix) from None
+        raise StackError(f"cannot read it as CSV ({exc.__class__.__name__}: "
+                         f"{excerpt(str(exc), 120)})", file=path, where=where, fix=fix) from None
     frame.columns = [str(c).strip() for c in frame.columns]
     if "wavelength_nm" not in frame.columns or "eqe" not in frame.columns:
-        raise StackError(f"columns {list(frame.columns)}: need 'wavelength_nm' and 'eqe'",
+        shown = ", ".join(excerpt(c, 30) for c in frame.columns[:6]) + (
+            f" and {len(frame.columns) - 6} more" if len(frame.columns) > 6 else "")
+        raise StackError(f"columns [{shown}]: need 'wavelength_nm' and 'eqe'",
                          file=path, where="header", fix=fix)
     lam = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
     eqe = pd.to_numeric(frame["eqe"], errors="coerce").to_numpy(dtype=float)
@@ -576,10 +603,13 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
         if cell.gap_material is not None and cell.name not in laws:
             laws[cell.name] = _gap_laws({cell.name: cell.gap_material}, names)[cell.name]
     tables = _eqe_tables(eqe, names)
+    eqe_files = {name: (str(value) if isinstance(value, (str, Path)) else None, f"--eqe {name}")
+                 for name, value in (eqe or {}).items()}
     # a subcell whose stack file gives its measured EQE uses it unless --eqe says otherwise
     for cell in subcells:
         if cell.eqe_table is not None and cell.name not in tables:
             tables[cell.name] = cell.eqe_table
+            eqe_files[cell.name] = (cell.eqe_file, None)
     frame = light.frame
     hours = len(frame)
     if hours == 0:
@@ -638,6 +668,10 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
             reference_currents[k] = quantum_efficiency_photocurrent(
                 reference.photon_flux, wavelength_nm=reference.wavelength_nm,
                 eqe_wavelength_nm=lam_q, eqe=q)
+            path, where = eqe_files[name]
+            check_eqe_current(name, path, reference_currents[k], file_gaps[k],
+                              reference.wavelength_nm, reference.photon_flux,
+                              light=f"{STANDARD_SPECTRUM} (the yield's reference)", where=where)
     poa = frame["poa_W_m2"].to_numpy()
     field_irradiance = np.trapezoid(light.irradiance_W_m2_nm, light.wavelength_nm, axis=1)
     mismatch = {name: spectral_mismatch_factor(
@@ -651,6 +685,17 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
         hourly_cells = {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
                                       j02_A_m2=np.asarray(dark[name][1], dtype=float))
                         for name, cell in hourly_cells.items()}
+    else:
+        # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
+        # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)
+        from ..laws.diode import intrinsic_density_ratio
+
+        hourly_cells = {cell.name: replace(hourly_cells[cell.name], j02_A_m2=cell.j02_A_m2
+                                           * intrinsic_density_ratio(
+                                               temperature, gap_eV=gap,
+                                               reference_temperature_K=reference_K,
+                                               reference_gap_eV=cell.gap_eV))
+                        for cell, gap in zip(subcells, gaps)}
 
     def lit(element):
         return hourly_cells.get(element.name, element)
