@@ -118,6 +118,54 @@ def _clean(value):
     return value
 
 
+#: headline numbers of a string, their words for warnings, and why one can be missing
+_HEADLINE = (("voc_V", "Voc", "the curve has no zero-current point"),
+             ("jsc_mA_cm2", "Jsc", "the curve does not reach 0 V"),
+             ("fill_factor", "fill factor", "it needs a positive Voc and Jsc"),
+             ("mpp_V", "MPP voltage", "no maximum power point was found"),
+             ("mpp_mA_cm2", "MPP current", "no maximum power point was found"),
+             ("efficiency_pct", "efficiency", "no maximum power point was found"))
+
+
+def _missing(value):
+    return value is None or (isinstance(value, (float, np.floating)) and not math.isfinite(value))
+
+
+def _missing_value_warnings(summary):
+    """One warning for every number the summary has no value for (text: none, JSON: null),
+    unless a warning already says so; every string without light says that instead."""
+    out = []
+    by_name = {row["name"]: row for row in summary["subcells"]}
+    for row in summary["strings"]:
+        number = row["string"]
+        cells = [by_name[name] for name in row["elements"] if name in by_name]
+        missing = [(word, why) for key, word, why in _HEADLINE if _missing(row.get(key))]
+        said = any(w.startswith(f"string {number}:") and "null" in w
+                   for w in summary["warnings"])
+        if cells and all(c["photocurrent_mA_cm2"] == 0 for c in cells):
+            out.append(f"string {number}: no subcell receives light above its gap (every "
+                       "photocurrent is 0): it gives no power"
+                       + (", and " + ", ".join(w for w, _ in missing)
+                          + (" have" if len(missing) > 1 else " has")
+                          + " no value (none in the text, null in JSON)" if missing else ""))
+        elif missing and not said:
+            reasons = list(dict.fromkeys(why for _, why in missing))
+            out.append(f"string {number}: no value for " + ", ".join(w for w, _ in missing)
+                       + " (none in the text, null in JSON): " + "; ".join(reasons))
+    rows = [(f"subcell {r['name']!r}", r, ("voc_alone_V", "efficiency_alone_pct", "j01_mA_cm2"))
+            for r in summary["subcells"]]
+    rows += [(f"element {r['name']!r}", r, ("voltage_at_mpp_V", "voltage_at_open_circuit_V",
+                                              "power_W_m2", "loss_W_m2"))
+             for r in summary["elements"]]
+    gaps = [f"{label} {key}" for label, row, keys in rows for key in keys
+            if key in row and _missing(row[key])]
+    if gaps:
+        out.append("no value for " + ", ".join(gaps[:6]) + (f" and {len(gaps) - 6} more"
+                                                            if len(gaps) > 6 else "")
+                   + " (none in the text, null in JSON): the solve found no such point")
+    return out
+
+
 def _first(array):
     return float(np.asarray(array, dtype=float).reshape(-1)[0])
 
@@ -172,6 +220,7 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     summary = _summarise(stack, conditions, light, circuit, solutions, alone, without)
     if placement_note:
         summary["warnings"].insert(0, placement_note)
+    summary["warnings"].extend(_missing_value_warnings(summary))
     return Result(summary, _curve_table(circuit, solutions), circuit, solutions)
 
 
@@ -227,7 +276,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                 "peak_mA_cm2": units.ma_cm2(peak), "peak_V": _first(ext.peak_V),
                 "valley_mA_cm2": units.ma_cm2(_first(ext.valley_A_m2)),
                 "valley_V": _first(ext.valley_V),
-                "peak_over_largest_photocurrent": peak / jph_max,
+                "peak_over_largest_photocurrent": peak / jph_max if jph_max > 0 else math.nan,
                 "branch_at_mpp": solution.tunnel_branch_at_mpp[element.name][0]})
             if peak < jph_max:
                 warnings_.append(f"tunnel junction {element.name!r}: peak current "
