@@ -79,6 +79,7 @@ def add_yield_command(commands):
 def run_yield(args):
     """Run ``siltandem yield``; returns the exit status (StackError propagates to the caller)."""
     from .files import save_figure_atomic, write_atomic
+    from .text import csv_safe
     from .stack import load_stack
     from .studies.yield_ import annual_yield, hourly_table, plot_yield, text_summary
 
@@ -105,7 +106,8 @@ def run_yield(args):
             write_atomic(args.json, result.to_json())
             print(f"  wrote {args.json}", file=notices)
     if args.csv:
-        write_atomic(args.csv, hourly_table(result).to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.csv, csv_safe(hourly_table(result)).to_csv(
+            index=False, float_format="%.10g"))
         print(f"  wrote {args.csv}", file=notices)
     if args.plot:
         axes = plot_yield(result)

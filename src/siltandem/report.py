@@ -34,6 +34,7 @@ def _milli(value):
 
 
 def _table(headers, rows, aligns):
+    rows = [[printable(c) for c in r] for r in rows]
     widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h)
               for i, h in enumerate(headers)]
 

@@ -96,26 +96,42 @@ class Result:
         return pd.concat(frames, ignore_index=True)
 
     def to_json(self, indent=2):
-        return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
+        return json_text(self.summary, indent)
 
     def with_summary(self, **changes):
         return replace(self, summary={**self.summary, **changes})
 
 
 def _clean(value):
-    """JSON-safe copy: numpy scalars to float, non-finite floats to None."""
+    """JSON-safe copy: numpy scalars and arrays to Python, non-finite floats (and pandas' missing
+    values) to None, keys to text; anything else JSON cannot hold to its text."""
     if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, np.ndarray)):
         return [_clean(v) for v in value]
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
     if isinstance(value, (np.floating, float)):
         value = float(value)
         return value if math.isfinite(value) else None
-    if isinstance(value, np.integer):
+    if isinstance(value, (int, np.integer)):
         return int(value)
-    if isinstance(value, np.bool_):
-        return bool(value)
-    return value
+    if value is None or isinstance(value, str):
+        return value
+    try:
+        import pandas as pd
+
+        if pd.isna(value):
+            return None
+    except (TypeError, ValueError):
+        pass
+    return str(value)
+
+
+def json_text(value, indent=2):
+    """Strict JSON of ``value`` (``null`` where a number has no value, never ``NaN``), one
+    trailing newline: what every JSON output of the command line writes."""
+    return json.dumps(_clean(value), indent=indent, allow_nan=False) + "\n"
 
 
 #: headline numbers of a string, their words for warnings, and why one can be missing

@@ -10,26 +10,24 @@
   (OWASP, "CSV Injection", https://owasp.org/www-community/attacks/CSV_Injection).
 """
 import math
-import unicodedata
+import re
 
 #: what a missing value reads as in text (its reason is in a warning)
 MISSING = "none"
 #: characters that make a spreadsheet read a cell as a formula (OWASP CSV-injection guidance)
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
-#: bidirectional controls that can reorder what a terminal shows (Unicode TR9)
-_BIDI = {"\u061c", "\u200e", "\u200f", *map(chr, range(0x202A, 0x202F)),
-         *map(chr, range(0x2066, 0x206A))}
+#: control characters: C0 and C1 controls and DEL (Unicode category Cc), the line and paragraph
+#: separators (Zl, Zp) and the bidirectional controls that can reorder what a terminal shows
+#: (Unicode TR9)
+_UNSAFE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\u061c\u200e\u200f\u202a-\u202e"
+                     "\u2066-\u2069]")
+_UNSAFE_IN_LINES = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u2028\u2029\u061c\u200e"
+                              "\u200f\u202a-\u202e\u2066-\u2069]")
 
 
-def _escape(character):
-    code = ord(character)
-    if code < 0x100:
-        return f"\\x{code:02x}"
-    return f"\\u{code:04x}" if code < 0x10000 else f"\\U{code:08x}"
-
-
-def _unsafe(character):
-    return (unicodedata.category(character) in ("Cc", "Zl", "Zp") or character in _BIDI)
+def _escape(match):
+    code = ord(match.group())
+    return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}"
 
 
 def printable(text, *, keep_newlines=False):
@@ -37,13 +35,9 @@ def printable(text, *, keep_newlines=False):
 
     Letters of any script, symbols and spaces pass unchanged; C0 and C1 controls (ESC, BEL, CR,
     DEL, CSI...), line and paragraph separators and bidirectional overrides do not. With
-    ``keep_newlines`` a ``\\n`` stays a line break (for multi-line reports).
+    ``keep_newlines`` a line break and a tab stay as they are (the layout of a report).
     """
-    text = str(text)
-    if not any(_unsafe(c) for c in text):
-        return text
-    return "".join(c if not _unsafe(c) or (keep_newlines and c == "\n") else _escape(c)
-                   for c in text)
+    return (_UNSAFE_IN_LINES if keep_newlines else _UNSAFE).sub(_escape, str(text))
 
 
 def excerpt(value, limit=60):
@@ -73,25 +67,37 @@ def number(value, spec, missing=MISSING):
 
 
 def csv_cell(value):
-    """A text cell that would start a formula, with a leading single quote; others unchanged."""
-    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
-        return "'" + value
-    return value
+    """A text cell with control characters escaped and, where it would start a formula, a
+    leading single quote; anything that is not text unchanged."""
+    if not isinstance(value, str):
+        return value
+    if value.startswith(FORMULA_STARTS):
+        value = "'" + value
+    return printable(value)
 
 
 def csv_safe(frame):
-    """A copy of a DataFrame whose column names and text cells cannot start a formula.
+    """A copy of a DataFrame ready for a CSV file: no cell starts a formula, none says inf.
 
-    Numeric columns are untouched (a negative number is a number, not a formula); text
-    columns (object or string dtype) are escaped cell by cell.
+    Column names and text cells (object or string columns) that would start a formula get a
+    leading single quote, and their control characters are escaped; numeric values are
+    untouched (a negative number is a number, not a formula), except that an infinite one
+    becomes an empty cell like NaN.
     """
+    import numpy as np
     import pandas as pd
 
-    out = frame.copy()
-    out.columns = [csv_cell(str(c)) for c in out.columns]
-    for k, column in enumerate(out.columns):
-        series = out.iloc[:, k]
-        if pd.api.types.is_numeric_dtype(series) or pd.api.types.is_bool_dtype(series):
-            continue
-        out.iloc[:, k] = series.map(csv_cell).astype(object)
+    columns = {}
+    for k in range(frame.shape[1]):
+        series = frame.iloc[:, k]
+        if pd.api.types.is_bool_dtype(series):
+            pass
+        elif pd.api.types.is_numeric_dtype(series):
+            if pd.api.types.is_float_dtype(series):
+                series = series.where(np.isfinite(series.to_numpy(dtype=float)))
+        else:
+            series = series.map(csv_cell).astype(object)
+        columns[k] = series.reset_index(drop=True)
+    out = pd.DataFrame(columns)
+    out.columns = [csv_cell(str(c)) for c in frame.columns]
     return out

@@ -37,7 +37,6 @@ its own maximum power point (four-terminal, no other element); the annual loss t
 mismatch is the four-terminal energy minus the two-terminal energy.
 """
 from dataclasses import dataclass, replace
-import json
 from pathlib import Path
 import warnings
 
@@ -526,9 +525,9 @@ class YieldResult:
     light: HourlyLight
 
     def to_json(self, indent=2):
-        from ..result import _clean
+        from ..result import json_text
 
-        return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
+        return json_text(self.summary, indent)
 
 
 def _power(solution):
