@@ -195,41 +195,44 @@ def _parse_range(text):
 
 def _concentration(args, stack):
     from .files import save_figure_atomic, write_atomic
-    from .text import csv_safe
     from .report import concentration_summary
     from .result import concentration_series
+    from .text import csv_safe
 
     suns = _parse_range(args.suns_range)
     series = concentration_series(stack, suns, spectrum=args.spectrum,
                                   temperature_K=args.temperature)
-    sys.stdout.write(concentration_summary(series, stack))
+    to_stdout_json = args.json == "-"      # then stdout carries the JSON alone
+    notices = sys.stderr if to_stdout_json else sys.stdout
+    if not to_stdout_json:
+        sys.stdout.write(concentration_summary(series, stack))
     if args.table:
         write_atomic(args.table, csv_safe(series).to_csv(index=False, float_format="%.10g"))
-        print(f"  wrote {args.table}")
+        print(f"  wrote {args.table}", file=notices)
     if args.json:
         from .result import json_text
 
         text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
-        if args.json == "-":
+        if to_stdout_json:
             sys.stdout.write(text)
         else:
             write_atomic(args.json, text)
-            print(f"  wrote {args.json}")
+            print(f"  wrote {args.json}", file=notices)
     if args.plot:
         from .plots import plot_concentration
 
         ax = plot_concentration(series, title=f"{stack.name}: efficiency against concentration")
         save_figure_atomic(ax.figure, args.plot)
-        print(f"  wrote {args.plot}")
+        print(f"  wrote {args.plot}", file=notices)
     return 0
 
 
 def _run(args):
     from .files import save_figure_atomic, write_atomic
-    from .text import csv_safe
     from .report import sweep_summary, text_summary
     from .result import run_stack
     from .stack import load_stack
+    from .text import csv_safe
 
     for option, path in (("--curve", args.curve), ("--plot", args.plot),
                          ("--table", args.table)):

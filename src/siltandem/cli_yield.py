@@ -79,9 +79,9 @@ def add_yield_command(commands):
 def run_yield(args):
     """Run ``siltandem yield``; returns the exit status (StackError propagates to the caller)."""
     from .files import save_figure_atomic, write_atomic
-    from .text import csv_safe
     from .stack import load_stack
     from .studies.yield_ import annual_yield, hourly_table, plot_yield, text_summary
+    from .text import csv_safe
 
     for option, path, allowed in (("--csv", args.csv, {".csv"}),
                                   ("--plot", args.plot, PLOT_SUFFIXES)):
