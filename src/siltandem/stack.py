@@ -202,8 +202,8 @@ def _number(value, *, file, where, key, unit):
     except OverflowError:
         raise StackError(f"key {key!r} = {excerpt(value)} is too large to be a number "
                          "(float64 holds magnitudes up to about 1.8e308)", file=file,
-                         where=where, fix=f"give {key} in {unit or 'its unit'} within its "
-                                          "range (README, stack files)") from None
+                         where=where, fix=f"give {key}" + (f" in {unit}" if unit else "")
+                         + " within its range (README, stack files)") from None
     if math.isnan(value):
         raise StackError(f"key {key!r} is nan", file=file, where=where, fix="give a number")
     return value
