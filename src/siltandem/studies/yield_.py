@@ -463,6 +463,12 @@ def read_eqe_csv(path, *, where=None):
     if np.any(np.diff(lam) <= 0) or lam[0] <= 0:
         raise StackError("wavelengths are not positive and increasing", file=path, where=where,
                          fix="sort the rows by wavelength and remove repeated wavelengths")
+    from ..spectra import MICROMETRE_HINT_NM
+
+    if lam[-1] < MICROMETRE_HINT_NM:
+        raise StackError(f"the wavelengths run from {lam[0]:g} to {lam[-1]:g}: below "
+                         f"{MICROMETRE_HINT_NM:g} they look like micrometres, not nm", file=path,
+                         where=where, fix="give wavelengths in nm (multiply micrometres by 1000)")
     if np.any(eqe < 0) or np.any(eqe > 1):
         hint = " (it looks like percent: divide by 100)" if eqe.max() > 1.5 else ""
         raise StackError(f"eqe values outside [0, 1]{hint}", file=path, where=where,
