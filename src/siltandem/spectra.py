@@ -171,8 +171,14 @@ def read_spectrum_csv(path, *, where=None):
         row = int(np.flatnonzero(irradiance < 0)[0])
         raise StackError(f"negative irradiance {irradiance[row]} W/m2/nm", file=path,
                          where=f"line {row + 2}", fix="spectral irradiance cannot be negative")
-    total = float(np.trapezoid(irradiance, wavelength))
-    if not np.isfinite(total) or total <= 0:
+    with np.errstate(over="ignore", invalid="ignore"):
+        total = float(np.trapezoid(irradiance, wavelength))
+    if not np.isfinite(total):
+        raise StackError(f"the spectrum's total irradiance overflows (wavelengths up to "
+                         f"{wavelength[-1]:g} nm)", file=path,
+                         fix="give wavelengths in nm and spectral irradiance in W/m2/nm "
+                             "(ASTM G173 runs from 280 to 4000 nm)")
+    if total <= 0:
         raise StackError(f"the spectrum carries no light (total {total:g} W/m2)", file=path,
                          fix="give spectral irradiance in W/m2/nm, not all zero")
     if total > 1e8:
