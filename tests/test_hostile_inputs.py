@@ -279,6 +279,38 @@ def test_repeated_hours_of_weather_are_refused(tmp_path):
         read_weather(doubled)
 
 
+def _with_field(line, index, value):
+    fields = line.rstrip("\n").split(",")
+    fields[index] = value
+    return ",".join(fields) + "\n"
+
+
+@pytest.mark.parametrize("where, change, message", [
+    ("station", (4, "999"), "line 1: the station's latitude 999 deg is outside [-90, 90] deg"),
+    ("station", (6, "1e9"), "line 1: the station's altitude 1e+09 m is outside [-500, 9000] m"),
+    ("hours", (4, "1e30"), "column ghi: 8760 hour(s) with global horizontal irradiance outside "
+                           "[-10, 2000] W/m2 (first 01 Jan 01:00: 1e+30 W/m2)"),
+    ("hours", (31, "1e30"), "column temp_air: 8760 hour(s) with air temperature outside "
+                            "[-100, 70] degC"),
+])
+def test_implausible_weather_is_refused(where, change, message, tmp_path):
+    """A latitude of 999 used to surface as "--tilt 999 is outside [0, 90]" (the tilt defaults
+    to the latitude); a GHI of 1e30 W/m2 or an air temperature of 1e30 degC gave an annual
+    energy of 0.00 kWh/m2 without a word."""
+    from siltandem.studies.yield_ import read_weather
+
+    lines = _weather_lines()
+    if where == "station":
+        lines[0] = _with_field(lines[0], *change)
+    else:
+        lines[2:] = [_with_field(line, *change) for line in lines[2:]]
+    path = _write(tmp_path, "weather.csv", "".join(lines))
+    with pytest.raises(StackError) as info:
+        read_weather(path)
+    assert message in str(info.value)
+    assert info.value.file == str(path) and info.value.fix
+
+
 EQE_STACK = """[stack]
 name = "eqe"
 [[element]]

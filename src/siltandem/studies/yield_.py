@@ -77,6 +77,19 @@ STANDARD_TEMPERATURE_K = 298.15
 HOURS_PER_STEP = 1.0
 #: hourly rows of one typical year (TMY3: 365 days of 24 hours)
 HOURS_PER_YEAR = 8760
+#: plausible station metadata: degrees north and east, metres above sea level (the Dead Sea
+#: shore is about -430 m, the highest stations below 9000 m)
+STATION_RANGES = {"latitude": (-90.0, 90.0, "deg"), "longitude": (-180.0, 180.0, "deg"),
+                  "altitude": (-500.0, 9000.0, "m")}
+#: plausible hourly values (after pvlib's variable mapping), with room for cloud enhancement
+#: above the solar constant (1361 W/m2; G. Kopp, J. L. Lean, Geophys. Res. Lett. 38 (2011)
+#: L01706) and for the recorded extremes of air temperature (-89.2 and 56.7 degC, World
+#: Meteorological Organization archive); missing values (NaN) are handled after this check
+WEATHER_RANGES = {"ghi": (-10.0, 2000.0, "W/m2", "global horizontal irradiance"),
+                  "dni": (-10.0, 2000.0, "W/m2", "direct normal irradiance"),
+                  "dhi": (-10.0, 2000.0, "W/m2", "diffuse horizontal irradiance"),
+                  "temp_air": (-100.0, 70.0, "degC", "air temperature"),
+                  "wind_speed": (0.0, 120.0, "m/s", "wind speed")}
 
 CAUTION = ("Results are models, not measurements: the hourly spectra are clear-sky shapes scaled "
            "to measured irradiance. Electrical and optical work on cells and modules is "
@@ -169,6 +182,22 @@ def read_weather(path):
         if not np.isfinite(float(meta.get(key, np.nan))):
             raise StackError(f"the station's {key} is missing", file=path, where="line 1",
                              fix=fix)
+    for key, (low, high, unit) in STATION_RANGES.items():
+        value = float(meta.get(key, 0.0))
+        if not low <= value <= high:
+            raise StackError(f"the station's {key} {value:g} {unit} is outside [{low:g}, "
+                             f"{high:g}] {unit}", file=path, where="line 1",
+                             fix="check the station line of the weather file (TMY3: id, name, "
+                                 "state, time zone, latitude, longitude, altitude)")
+    for column, (low, high, unit, what) in WEATHER_RANGES.items():
+        values = data[column].astype(float).to_numpy()
+        outside = np.flatnonzero((values < low) | (values > high))
+        if outside.size:
+            first = data.index[outside[0]]
+            raise StackError(f"{outside.size} hour(s) with {what} outside [{low:g}, {high:g}] "
+                             f"{unit} (first {first:%d %b %H:%M}: {values[outside[0]]:g} {unit})",
+                             file=path, where=f"column {column}",
+                             fix=f"give {what} in {unit}; fill or correct those hours")
     frame = data[needed].astype(float).copy()
     for column, fill in (("precipitable_water", PRECIPITABLE_WATER_CM), ("albedo", ALBEDO)):
         values = data[column].astype(float) if column in data.columns else np.nan
