@@ -362,6 +362,17 @@ def test_a_spectrum_that_is_another_file_is_quoted_not_printed(tmp_path):
     assert len(info.value.problem) < 200
 
 
+@pytest.mark.parametrize("change", ['kind = "{long}"', 'material = "{long}"', '{long} = 1'])
+def test_a_long_value_is_cut_in_the_message(change, tmp_path, capsys):
+    text = (STACKS / "demo_dual.toml").read_text().replace(
+        'name = "top"\n', 'name = "top"\n' + change.format(long="Q" * 100_000) + "\n", 1)
+    if change.startswith("kind"):
+        text = text.replace('kind = "subcell"\nname = "top"\n', 'name = "top"\n', 1)
+    status, out, err = _main(["run", _write(tmp_path, "long.toml", text)], capsys)
+    assert status == 2 and out == ""
+    assert "Q" * 700 not in err and "characters cut)" in err and len(err) < 2000
+
+
 @pytest.mark.skipif(not Path("/proc/self/environ").exists(), reason="needs Linux /proc")
 def test_proc_self_environ_as_a_spectrum_prints_no_environment(tmp_path):
     stack = _write(tmp_path, "stack.toml", (STACKS / "demo_dual.toml").read_text().replace(

@@ -40,6 +40,13 @@ def printable(text, *, keep_newlines=False):
     return (_UNSAFE_IN_LINES if keep_newlines else _UNSAFE).sub(_escape, str(text))
 
 
+def shorten(text, limit):
+    """``text`` cut to ``limit`` characters, saying how much was cut (a backstop for messages
+    that quote a long value whole)."""
+    text = str(text)
+    return text if len(text) <= limit else f"{text[:limit]}... ({len(text) - limit} characters cut)"
+
+
 def excerpt(value, limit=60):
     """A short, escaped quotation of ``value`` for an error message (at most ``limit`` characters
     of it, then ``...`` and how long it was); text is quoted like ``repr``."""
