@@ -6,6 +6,7 @@ import os
 
 import pytest
 
+from siltandem.errors import StackError
 from siltandem.files import write_atomic
 
 
@@ -25,6 +26,7 @@ def test_a_write_interrupted_before_its_rename_leaves_the_old_file(tmp_path, mon
 
 def test_a_first_write_that_fails_leaves_nothing(tmp_path, monkeypatch):
     monkeypatch.setattr(os, "fsync", lambda fd: (_ for _ in ()).throw(OSError("disk full")))
-    with pytest.raises(OSError, match="disk full"):
+    with pytest.raises(StackError, match="cannot write the output file: disk full") as info:
         write_atomic(tmp_path / "curve.csv", b"voltage_V\n")
+    assert info.value.file == str(tmp_path / "curve.csv")
     assert list(tmp_path.iterdir()) == []

@@ -3,6 +3,7 @@
 Exit status: 0 done, 2 bad input (a clear message, no traceback), 1 an internal fault.
 """
 import argparse
+import contextlib
 from importlib import resources
 from pathlib import Path
 import sys
@@ -10,6 +11,7 @@ import sys
 import numpy as np
 
 from .errors import StackError
+from .text import number, printable
 
 DEMO = "demo_dual.toml"
 
@@ -145,21 +147,25 @@ def _interface(args):
     row = next(r for r in result.summary["interfaces"] if r["name"] == name)
     bias = row["drop_at_mpp_V"] * (1 if row["bias"] == "forward" else -1)
     print(f"siltandem — isotype interface {name!r} of {stack.name}")
-    print(f"  carrier {row['carrier']}, barrier {row['barrier_eV']:.4f} eV above the accumulation "
-          f"side's Fermi level, built-in {row['built_in_V']:.4f} V, alpha {row['alpha']:.4g}")
+    print(f"  carrier {row['carrier']}, barrier {number(row['barrier_eV'], '.4f')} eV above the "
+          f"accumulation side's Fermi level, built-in {number(row['built_in_V'], '.4f')} V, "
+          f"alpha {number(row['alpha'], '.4g')}")
     if np.isfinite(row["offset_eV"]):
         print(f"  band offset seen from the accumulation side {row['offset_eV']:+.4f} eV")
-    print(f"  in the stack: {row['bias']} biased; {1000 * row['drop_at_mpp_V']:.2f} mV at the MPP,"
-          f" {row['loss_W_m2']:.3f} W/m2, efficiency penalty "
-          f"{row['efficiency_penalty_pct_abs']:.3f} % absolute"
+    drop = row["drop_at_mpp_V"]
+    print(f"  in the stack: {row['bias']} biased; "
+          + (f"{1000 * drop:.2f} mV at the MPP" if np.isfinite(drop) else
+             "no operating point through it (drop: none)")
+          + f", {number(row['loss_W_m2'], '.3f')} W/m2, efficiency penalty "
+          f"{number(row['efficiency_penalty_pct_abs'], '.3f')} % absolute"
           + ("  -- BLOCKS" if row["blocking"] else ""))
     v, j = interface_iv(element, temperature, points=args.points)
     print("")
     print("  interface voltage V   current mA/cm2   (V > 0 lowers the barrier)")
     for vi, ji in zip(v, j):
-        print(f"  {vi:+17.4f}   {ji / 10:+14.6g}")
+        print(f"  {number(vi, '+17.4f'):>17}   {number(ji / 10, '+14.6g'):>14}")
     if args.plot:
-        axes = plot_interface(element, temperature, bias)
+        axes = plot_interface(element, temperature, bias if np.isfinite(bias) else 0.0)
         save_figure_atomic(axes[0].figure, args.plot)
         print(f"  wrote {args.plot}")
     return 0
@@ -194,29 +200,32 @@ def _concentration(args, stack, suns):
     from .files import save_figure_atomic, write_atomic
     from .report import concentration_summary
     from .result import concentration_series
+    from .text import csv_safe
 
     series = concentration_series(stack, suns, spectrum=args.spectrum,
                                   temperature_K=args.temperature)
-    sys.stdout.write(concentration_summary(series, stack))
+    to_stdout_json = args.json == "-"      # then stdout carries the JSON alone
+    notices = sys.stderr if to_stdout_json else sys.stdout
+    if not to_stdout_json:
+        sys.stdout.write(concentration_summary(series, stack))
     if args.table:
-        write_atomic(args.table, series.to_csv(index=False, float_format="%.10g"))
-        print(f"  wrote {args.table}")
+        write_atomic(args.table, csv_safe(series).to_csv(index=False, float_format="%.10g"))
+        print(f"  wrote {args.table}", file=notices)
     if args.json:
-        import json
+        from .result import json_text
 
-        text = json.dumps({"stack": stack.name, "series": json.loads(
-            series.to_json(orient="records"))}, indent=2) + "\n"
-        if args.json == "-":
+        text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
+        if to_stdout_json:
             sys.stdout.write(text)
         else:
             write_atomic(args.json, text)
-            print(f"  wrote {args.json}")
+            print(f"  wrote {args.json}", file=notices)
     if args.plot:
         from .plots import plot_concentration
 
         ax = plot_concentration(series, title=f"{stack.name}: efficiency against concentration")
         save_figure_atomic(ax.figure, args.plot)
-        print(f"  wrote {args.plot}")
+        print(f"  wrote {args.plot}", file=notices)
     return 0
 
 
@@ -226,6 +235,7 @@ def _run(args):
     from .report import sweep_summary, text_summary
     from .result import run_stack
     from .stack import load_stack
+    from .text import csv_safe
 
     for option, path in (("--curve", args.curve), ("--plot", args.plot),
                          ("--table", args.table)):
@@ -273,7 +283,7 @@ def _run(args):
             sys.stdout.write(sweep_summary(swept, args.sweep, result))
     if args.curve:
         table = swept if args.sweep else result.iv
-        write_atomic(args.curve, table.to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.curve, csv_safe(table).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.curve}", file=sys.stderr if to_stdout_json else sys.stdout)
     if args.plot:
         from .plots import plot_iv
@@ -282,6 +292,16 @@ def _run(args):
         save_figure_atomic(ax.figure, args.plot)
         print(f"  wrote {args.plot}", file=sys.stderr if to_stdout_json else sys.stdout)
     return 0
+
+
+def _json_alone(args, command):
+    """Run a study command; with ``--json -`` its text goes to stderr and stdout carries only
+    the JSON, as for ``run`` and ``yield``."""
+    if getattr(args, "json", None) != "-":
+        return command(args)
+    args.json_stream = sys.stdout
+    with contextlib.redirect_stdout(sys.stderr):
+        return command(args)
 
 
 def main(argv=None):
@@ -296,28 +316,8 @@ def main(argv=None):
         from .options import read_arguments
 
         read_arguments(args)       # every number given: the same ranges as the file keys
-        if args.command == "run":
-            return _run(args)
-        if args.command == "interface":
-            return _interface(args)
-        if args.command == "materials":
-            return _materials(args)
-        if args.command == "yield":
-            from .cli_yield import run_yield
-
-            return run_yield(args)
-        if args.command == "placements":
-            from .cli_studies import run_placements
-
-            return run_placements(args)
-        if args.command == "losses":
-            from .cli_studies import run_losses
-
-            return run_losses(args)
-        if args.command in ("match", "map"):
-            from .cli_studies import run_map, run_match
-
-            return (run_match if args.command == "match" else run_map)(args)
+        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)):
+            return _command(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)
         return 2
@@ -329,6 +329,47 @@ def main(argv=None):
 
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+
+
+class _PrintableStream:
+    """stdout as the commands see it: names and numbers printed from files cannot carry
+    control characters (terminal escape codes) to the screen (text.printable; line breaks and
+    tabs stay)."""
+
+    def __init__(self, stream):
+        self._stream = stream
+
+    def write(self, text):
+        return self._stream.write(printable(text, keep_newlines=True))
+
+    def __getattr__(self, name):
+        return getattr(self._stream, name)
+
+
+def _command(args):
+    """Dispatch one parsed command; returns its exit status."""
+    if args.command == "run":
+        return _run(args)
+    if args.command == "interface":
+        return _interface(args)
+    if args.command == "materials":
+        return _materials(args)
+    if args.command == "yield":
+        from .cli_yield import run_yield
+
+        return run_yield(args)
+    if args.command == "placements":
+        from .cli_studies import run_placements
+
+        return _json_alone(args, run_placements)
+    if args.command == "losses":
+        from .cli_studies import run_losses
+
+        return _json_alone(args, run_losses)
+    if args.command in ("match", "map"):
+        from .cli_studies import run_map, run_match
+
+        return _json_alone(args, run_match if args.command == "match" else run_map)
     return 1
 
 

@@ -1,11 +1,11 @@
 """Command-line studies: ``siltandem match`` and ``siltandem map``."""
-import json
 from pathlib import Path
 import sys
 
 import numpy as np
 
 from .errors import StackError
+from .text import number
 
 
 def add_energy_options(parser):
@@ -108,9 +108,10 @@ def _connect(args):
 
 def _write_outputs(args, table, summary, figure=None):
     from .files import save_figure_atomic, write_atomic
+    from .text import csv_safe
 
     if args.csv:
-        write_atomic(args.csv, table.to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.csv, csv_safe(table).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.csv}")
     if args.parquet:
         import io
@@ -120,9 +121,11 @@ def _write_outputs(args, table, summary, figure=None):
         write_atomic(args.parquet, buffer.getvalue())
         print(f"  wrote {args.parquet}")
     if args.json:
-        text = json.dumps(summary, indent=2, default=float) + "\n"
+        from .result import json_text
+
+        text = json_text(summary)
         if args.json == "-":
-            sys.stdout.write(text)
+            getattr(args, "json_stream", sys.stdout).write(text)
         else:
             write_atomic(args.json, text)
             print(f"  wrote {args.json}")
@@ -202,20 +205,25 @@ def run_match(args):
     print("  " + "  ".join(f"{h:>14}" for h in header))
     step = max(1, len(table) // 15)
     for _, row in table.iloc[::step].iterrows():
-        cells = [f"{row[variation.column]:.5g}"] + [f"{row[c]:.4f}" for c in photocurrent_columns]
-        cells += [f"{row['efficiency_pct']:.3f}", str(row["limiting_subcell"])]
+        cells = [number(row[variation.column], ".5g")] + [number(row[c], ".4f")
+                                                          for c in photocurrent_columns]
+        cells += [number(row["efficiency_pct"], ".3f"), str(row["limiting_subcell"])]
         print("  " + "  ".join(f"{c:>14}" for c in cells))
     print("")
     if matches:
         for m in matches:
             print(f"  matched: {m['subcells'][0]} = {m['subcells'][1]} at {variation.column} = "
-                  f"{m['value']:.8g} ({m['photocurrent_mA_cm2']:.4f} mA/cm2), efficiency "
-                  f"{m['efficiency_pct']:.3f} %")
+                  f"{number(m['value'], '.8g')} ({number(m['photocurrent_mA_cm2'], '.4f')} "
+                  f"mA/cm2), efficiency {number(m['efficiency_pct'], '.3f')} %")
     else:
         print("  no two subcells' photocurrents cross in this range: widen it")
-    best = table["efficiency_pct"].idxmax()
-    print(f"  best efficiency on the grid: {table['efficiency_pct'][best]:.3f} % at "
-          f"{variation.column} = {table[variation.column][best]:.6g}")
+    found = table["efficiency_pct"].notna().any()
+    best = table["efficiency_pct"].idxmax() if found else None
+    if found:
+        print(f"  best efficiency on the grid: {number(table['efficiency_pct'][best], '.3f')} % "
+              f"at {variation.column} = {number(table[variation.column][best], '.6g')}")
+    else:
+        print("  best efficiency on the grid: none (no design found an operating point)")
     by_energy = None
     if args.by == "energy":
         from .studies.matching import energy_by_value
@@ -226,8 +234,9 @@ def run_match(args):
         top = table["annual_energy_kWh_m2"].idxmax()
         by_energy = {"value": float(table[variation.column][top]),
                      "annual_energy_kWh_m2": float(table["annual_energy_kWh_m2"][top])}
-        print(f"  best annual energy on the grid: {by_energy['annual_energy_kWh_m2']:.2f} kWh/m2"
-              f" at {variation.column} = {by_energy['value']:.6g} (weather {args.weather})")
+        print(f"  best annual energy on the grid: "
+              f"{number(by_energy['annual_energy_kWh_m2'], '.2f')} kWh/m2 at {variation.column} = "
+              f"{number(by_energy['value'], '.6g')} (weather {args.weather})")
     figure = None
     if args.plot:
         axes = plot_matching(table, variation, matches,
@@ -239,8 +248,9 @@ def run_match(args):
                       label="annual energy")
             twin.set_ylabel("annual energy (kWh/m²)", color="tab:green")
     summary = {"stack": stack.name, "varied": variation.column, "matches": matches,
-               "best": {"value": float(table[variation.column][best]),
-                        "efficiency_pct": float(table["efficiency_pct"][best])},
+               "best": None if best is None else {
+                   "value": float(table[variation.column][best]),
+                   "efficiency_pct": float(table["efficiency_pct"][best])},
                "best_by_energy": by_energy}
     _write_outputs(args, table, summary, figure)
     return 0
@@ -270,14 +280,21 @@ def run_map(args):
     finally:
         if client is not None:
             client.close()
-    best = optimum(table, column)
+    values = table[column]
+    found = values.notna().any()
+    best = optimum(table, column) if found else None
     print(f"siltandem — design map of {stack.name}: {first.column} x {second.column} "
           f"({len(table)} designs)")
-    print(f"  optimum {column} = {best[column]:.6g} at {first.column} = {best[first.column]:.6g},"
-          f" {second.column} = {best[second.column]:.6g}")
+    if found:
+        print(f"  optimum {column} = {number(best[column], '.6g')} at {first.column} = "
+              f"{number(best[first.column], '.6g')}, {second.column} = "
+              f"{number(best[second.column], '.6g')}")
+    else:
+        print(f"  optimum: none (no design has a value of {column})")
     failed = int(np.count_nonzero(~np.isfinite(table["efficiency_pct"].to_numpy(dtype=float))))
     if failed:
-        print(f"  warning: {failed} designs found no operating point (NaN in the table)")
+        print(f"  warning: {failed} designs found no operating point (their cells are empty in "
+              "the CSV, null in JSON)")
     figure = None
     if args.plot:
         ax = plot_map(table, first, second, column,
@@ -285,8 +302,9 @@ def run_map(args):
         figure = ax.figure
     summary = {"stack": stack.name, "varied": [first.column, second.column], "column": column,
                "designs": len(table), "failed": failed,
-               "optimum": {k: (float(best[k]) if isinstance(best[k], (int, float, np.floating))
-                               else str(best[k])) for k in table.columns if k != "design"}}
+               "optimum": None if best is None else {
+                   k: (float(best[k]) if isinstance(best[k], (int, float, np.floating))
+                       else str(best[k])) for k in table.columns if k != "design"}}
     _write_outputs(args, table, summary, figure)
     return 0
 
@@ -322,13 +340,14 @@ def run_losses(args):
     waterfall = loss_waterfall(stack, spectrum=args.spectrum, suns=args.suns,
                                temperature_K=args.temperature)
     print(f"siltandem — loss waterfall of {stack.name}")
-    print(f"  limit {waterfall['limit_pct']:8.3f} %   ({waterfall['limit_definition']})")
+    print(f"  limit {number(waterfall['limit_pct'], '8.3f'):>8} %   "
+          f"({waterfall['limit_definition']})")
     for step in waterfall["steps"]:
-        print(f"  - {step['loss_pct_abs']:7.3f} %   {step['loss']:<40} -> "
-              f"{step['efficiency_after_pct']:.3f} %")
-    print(f"  stack {waterfall['efficiency_pct']:8.3f} %   (the steps add up to "
-          f"{waterfall['limit_pct'] - waterfall['efficiency_pct']:.3f} %, rounding "
-          f"{waterfall['check_pct']:.1e})")
+        print(f"  - {number(step['loss_pct_abs'], '7.3f'):>7} %   {step['loss']:<40} -> "
+              f"{number(step['efficiency_after_pct'], '.3f')} %")
+    print(f"  stack {number(waterfall['efficiency_pct'], '8.3f'):>8} %   (the steps add up to "
+          f"{number(waterfall['limit_pct'] - waterfall['efficiency_pct'], '.3f')} %, rounding "
+          f"{number(waterfall['check_pct'], '.1e')})")
     figure = None
     if args.plot:
         figure = plot_waterfall(waterfall).figure
@@ -397,15 +416,17 @@ def run_placements(args):
         if not np.isfinite(row["efficiency_pct"]):
             print(f"  {row['rank']:>4}  {row['placement']:<40} {'-':>12}  {row['problem']}")
             continue
-        print(f"  {row['rank']:>4}  {row['placement']:<40} {row['efficiency_pct']:12.3f} "
-              f"{row['voc_V']:8.4f} {100 * row['fill_factor']:6.2f} "
-              f"{row['tunnel_penalty_pct_abs']:11.3f} {row['interface_penalty_pct_abs']:12.3f}  "
+        print(f"  {row['rank']:>4}  {row['placement']:<40} "
+              f"{number(row['efficiency_pct'], '12.3f'):>12} "
+              f"{number(row['voc_V'], '8.4f'):>8} {number(100 * row['fill_factor'], '6.2f'):>6} "
+              f"{number(row['tunnel_penalty_pct_abs'], '11.3f'):>11} "
+              f"{number(row['interface_penalty_pct_abs'], '12.3f'):>12}  "
               f"{row['limiting_subcell']}"
-              + (f"   {row['annual_energy_kWh_m2']:.2f}" if energy else ""))
+              + (f"   {number(row['annual_energy_kWh_m2'], '.2f')}" if energy else ""))
     print("  (junctions / interfaces: efficiency regained by removing them, % absolute)")
     figure = None
     if args.plot:
         figure = plot_placements(table, title=f"{stack.name}: placements")[0].figure
-    summary = {"stack": stack.name, "ranking": json.loads(table.to_json(orient="records"))}
+    summary = {"stack": stack.name, "ranking": table.to_dict(orient="records")}
     _write_outputs(args, table, summary, figure)
     return 0

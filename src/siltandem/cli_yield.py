@@ -82,6 +82,7 @@ def run_yield(args):
     from .stack import load_stack
     from .studies.yield_ import (annual_yield, demo_weather_path, hourly_table, plot_yield,
                                  temperature_parameters, text_summary)
+    from .text import csv_safe
 
     for option, path, allowed in (("--csv", args.csv, {".csv"}),
                                   ("--plot", args.plot, PLOT_SUFFIXES)):
@@ -120,7 +121,8 @@ def run_yield(args):
             write_atomic(args.json, result.to_json())
             print(f"  wrote {args.json}", file=notices)
     if args.csv:
-        write_atomic(args.csv, hourly_table(result).to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.csv, csv_safe(hourly_table(result)).to_csv(
+            index=False, float_format="%.10g"))
         print(f"  wrote {args.csv}", file=notices)
     if args.plot:
         axes = plot_yield(result)

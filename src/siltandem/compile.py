@@ -37,13 +37,23 @@ def _subcell(spec, temperature_K=None):
     breakdown = np.where(has_breakdown, -np.asarray(v["breakdown_V"], dtype=float), -np.inf)
     factor = np.where(has_breakdown, v["breakdown_factor"], 0.0)
     gap = v["gap_eV"] if temperature_K is None else _gap_at(spec, temperature_K)
+    # j02_mA_cm2 is given at 298.15 K; J02 follows n_i (Sah-Noyce-Shockley), as J01 follows n_i^2
+    j02 = units.a_m2(np.asarray(v["j02_mA_cm2"], dtype=float))
+    if temperature_K is not None:
+        from .constants import STANDARD_TEMPERATURE_K
+        from .laws.diode import intrinsic_density_ratio
+
+        j02 = j02 * intrinsic_density_ratio(temperature_K, gap_eV=gap,
+                                            reference_temperature_K=STANDARD_TEMPERATURE_K,
+                                            reference_gap_eV=v["gap_eV"])
     return Subcell(
         name=spec.name, gap_eV=batch(gap), absorptance=batch(v["absorptance"]),
-        ere=batch(v["ere"]), j02_A_m2=batch(units.a_m2(v["j02_mA_cm2"])),
+        ere=batch(v["ere"]), j02_A_m2=batch(j02),
         series_ohm_m2=batch(v["series_ohm_cm2"] * units.OHM_CM2_TO_OHM_M2),
         shunt_S_m2=batch(conductance), breakdown_V=batch(breakdown),
         breakdown_factor=batch(factor), breakdown_exponent=batch(v["breakdown_exponent"]),
-        string=spec.string, gap_material=v.get("material"), eqe_table=_eqe(v.get("eqe")))
+        string=spec.string, gap_material=v.get("material"), eqe_table=_eqe(v.get("eqe")),
+        eqe_file=v.get("eqe"))
 
 
 def _eqe(path):

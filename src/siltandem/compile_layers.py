@@ -50,7 +50,11 @@ class Structure:
 
 
 def _same_material(a, b):
-    return a.material.lower() == b.material.lower() and a.composition == b.composition
+    """One material however it is written (``Ga0.51In0.49P`` and ``GaInP`` at 0.51 alike)."""
+    from .materials import material_identity
+
+    return (material_identity(a.material, a.composition)
+            == material_identity(b.material, b.composition))
 
 
 def recognise(layers, *, tunnel_doping_cm3, file=None):

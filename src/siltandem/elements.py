@@ -107,6 +107,8 @@ class Subcell:
     #: measured external quantum efficiency (wavelength_nm, eqe) within the stack: the
     #: photocurrent is then q integral Phi EQE over the light on the stack (None: step absorber)
     eqe_table: tuple | None = field(default=None, compare=False, repr=False)
+    #: the file the measured EQE came from (for messages)
+    eqe_file: str | None = field(default=None, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):

@@ -1,4 +1,9 @@
 """The one exception type a user meets for bad input, with the fields every message carries."""
+from .text import printable, shorten
+
+#: longest problem or place a message shows, and longest fix (a backstop: values are quoted as
+#: short excerpts where they are read, text.excerpt)
+PROBLEM_LIMIT, FIX_LIMIT = 600, 1200
 
 
 class StackError(ValueError):
@@ -14,13 +19,17 @@ class StackError(ValueError):
         What is wrong.
     fix : str
         How to fix it.
+
+    Every field is kept printable: control characters a file or a name may carry (terminal
+    escape codes, line breaks) are written as escapes (``text.printable``); a problem or place
+    longer than 600 characters (a fix longer than 1200) is cut, saying so.
     """
 
     def __init__(self, problem, *, file=None, where=None, fix=""):
-        self.file = None if file is None else str(file)
-        self.where = where
-        self.problem = problem
-        self.fix = fix
+        self.file = None if file is None else printable(file)
+        self.where = None if where is None else printable(shorten(where, PROBLEM_LIMIT))
+        self.problem = printable(shorten(problem, PROBLEM_LIMIT))
+        self.fix = printable(shorten(fix, FIX_LIMIT))
         super().__init__(self._text())
 
     def _text(self):

@@ -6,7 +6,9 @@ regular-file path (a folder, a device, a pipe or socket, a path under a file, a 
 or that two outputs share. :func:`write_atomic` writes a temporary file in the same folder, then
 renames it: an interrupted write leaves the old file or none, never half of a new one. A new file
 gets the permissions the umask allows (0644 under umask 022); a replaced file keeps its mode.
+A full disk or a read-only folder is a StackError naming the path, never a traceback.
 """
+import errno
 import os
 from pathlib import Path
 import stat
@@ -38,29 +40,47 @@ def _mode_for(target):
         return 0o666 & ~_umask()
 
 
+#: what an operating-system error on writing means, in plain words
+_WRITE_FAILURES = {errno.ENOSPC: "the disk is full", errno.EDQUOT: "the disk quota is used up",
+                   errno.EROFS: "the file system is read-only",
+                   errno.EACCES: "permission denied", errno.EPERM: "permission denied"}
+
+
+def _cannot_write(path, exc):
+    reason = (_WRITE_FAILURES.get(exc.errno) or exc.strerror or str(exc)
+              or exc.__class__.__name__)
+    return StackError(f"cannot write the output file: {reason}", file=path, where="output",
+                      fix="free some space, or give a path in a folder you can write to")
+
+
 def write_atomic(path, data):
     """Write ``data`` (str or bytes) to ``path`` atomically; creates the parent folder.
 
     A symlink is followed: its target is replaced, the link stays. The file's mode is the
-    replaced file's, or what the umask allows for a new one.
+    replaced file's, or what the umask allows for a new one. A full disk, a read-only file
+    system or a folder without write permission raises StackError naming the path and the
+    reason; the temporary file is removed.
     """
     path = Path(path)
     target = Path(os.path.realpath(path))
-    target.parent.mkdir(parents=True, exist_ok=True)
     mode = "wb" if isinstance(data, bytes) else "w"
-    permissions = _mode_for(target)
-    handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp",
-                                         dir=target.parent)
+    temporary = None
     try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        permissions = _mode_for(target)
+        handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp",
+                                             dir=target.parent)
         with os.fdopen(handle, mode, **({} if mode == "wb" else {"encoding": "utf-8"})) as f:
             f.write(data)
             f.flush()
             os.fchmod(f.fileno(), permissions)
             os.fsync(f.fileno())
         os.replace(temporary, target)
-    except BaseException:
-        if os.path.exists(temporary):
+    except BaseException as exc:
+        if temporary is not None and os.path.exists(temporary):
             os.unlink(temporary)
+        if isinstance(exc, OSError):
+            raise _cannot_write(path, exc) from None
         raise
     return path
 

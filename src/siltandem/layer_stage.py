@@ -27,12 +27,20 @@ from .elements import Subcell, TunnelJunction, batch
 from .errors import StackError
 from .laws import collection, esaki, thinfilm
 from .laws.radiative import radiative_saturation_current
+from .materials import material_identity
 
 #: defaults of the layer compiler (common practice, no source; each can be given per layer)
 DEFAULT_SRV_CM_S = 1e4
 #: a tunnel junction's valley, when not given: peak-to-valley ratio and valley voltage offset
 DEFAULT_PEAK_TO_VALLEY = 10.0
 DEFAULT_VALLEY_OFFSET_V = 0.3
+#: an emitter or base must be doped at least this many times its intrinsic density: the
+#: diffusion and depletion laws take the majority density equal to the doping, which is 1 %
+#: off at a doping of 10 n_i (n = N/2 + sqrt(N^2/4 + n_i^2); S. M. Sze, K. K. Ng, Physics of
+#: Semiconductor Devices, 3rd ed. (2007), ch. 1)
+INTRINSIC_MARGIN = 10.0
+#: the temperatures the layer physics is written for [K] (the stack files' range)
+TEMPERATURE_RANGE_K = (150.0, 1000.0)
 
 
 @dataclass(frozen=True)
@@ -97,6 +105,16 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     n_side, p_side = (emitter, base) if emitter.polarity == "n" else (base, emitter)
     donor = n_side.doping_cm3 * units.PER_CM3_TO_PER_M3
     acceptor = p_side.doping_cm3 * units.PER_CM3_TO_PER_M3
+    for layer in (emitter, base):
+        if ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
+            raise StackError(
+                f"at {temperature_K:g} K the intrinsic carrier density of {material.name} "
+                f"({ni / units.PER_CM3_TO_PER_M3:.3g} cm^-3) is more than a tenth of this "
+                f"layer's doping ({layer.doping_cm3:.3g} cm^-3): the layer physics takes the "
+                "majority density equal to the doping, which no longer holds", file=file,
+                where=layer.label,
+                fix=f"lower the temperature, or dope the layer above "
+                    f"{INTRINSIC_MARGIN * ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
     junction = collection.abrupt_junction(0.0, acceptor_density_m3=acceptor,
                                           donor_density_m3=donor,
                                           relative_permittivity=material.relative_permittivity,
@@ -158,7 +176,8 @@ def _tunnel(index, layers, materials, temperature_K, file):
     n_mat, p_mat = materials[n_i], materials[p_i]
     name = f"tunnel junction {upper.name} / {lower.name}"
     given = upper.tunnel or {}
-    hetero = not (n_mat.name == p_mat.name and n_layer.composition == p_layer.composition)
+    hetero = (material_identity(n_layer.material, n_layer.composition)
+              != material_identity(p_layer.material, p_layer.composition))
     if "peak_mA_cm2" in given:
         peak_a_m2 = units.a_m2(given["peak_mA_cm2"])
         peak_v = given.get("peak_V", 0.1)
@@ -235,6 +254,11 @@ def compile_layer_stack(stack):
     """Layer stack -> Circuit with a LayerModel for the optics stage."""
     file = stack.source
     temperature = stack.conditions.temperature_K
+    low, high = TEMPERATURE_RANGE_K
+    if not low <= temperature <= high:
+        raise StackError(f"temperature {temperature:g} K is outside [{low:g}, {high:g}] K",
+                         file=file, where="temperature_K",
+                         fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
     layers = stack.layers
     structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
     materials = tuple(_material(layer) for layer in layers)
@@ -244,8 +268,16 @@ def compile_layer_stack(stack):
         if kind == "subcell":
             name = _cell_name(info["cell"], layers, used)
             used.add(name)
-            element, model, extra = _subcell(info["cell"], layers, materials, temperature, file,
-                                             name)
+            try:
+                element, model, extra = _subcell(info["cell"], layers, materials, temperature,
+                                                 file, name)
+            except collection.CollectionParameterError as exc:
+                cell = info["cell"]
+                raise StackError(f"subcell {name!r}: {exc}", file=file,
+                                 where=f"{layers[cell.emitter].label} / "
+                                       f"{layers[cell.base].label}",
+                                 fix="check the emitter's and base's thickness, doping, "
+                                     "diffusion length or lifetime and srv_cm_s") from None
             elements.append(element)
             cell_models.append(model)
             details["subcells"][name] = extra

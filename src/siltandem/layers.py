@@ -23,7 +23,8 @@ import math
 import re
 
 from .errors import StackError
-from .stack import _suggest
+from .stack import _number, _suggest
+from .text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
@@ -31,15 +32,26 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0}
-_DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
-#: numeric layer keys and their ranges (unit, low, high, low_open): what parse_layers checks in a
-#: file, and what a study's --vary of a layer key is checked against (check_layer_value)
-LAYER_NUMBERS = {"thickness_nm": dict(unit="nm", low=0.0, high=2e6, low_open=True),
-                 "diffusion_length_um": dict(unit="um", low=0.0, high=1e5, low_open=True),
-                 "lifetime_ns": dict(unit="ns", low=0.0, high=1e9, low_open=True),
-                 "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False)}
+#: shortest minority-carrier diffusion length and lifetime a layer may give: 1 nm (a few
+#: lattice spacings) and 1 fs (below carrier scattering times); with the library's
+#: mobilities 1 fs gives about 1 nm
+MIN_DIFFUSION_LENGTH_UM = 1e-3
+MIN_LIFETIME_NS = 1e-6
+#: numeric layer keys and their ranges (unit, low, high, low_open, reason): what parse_layers
+#: checks in a file, and what a study's --vary of a layer key is checked against
+#: (check_layer_value)
+LAYER_NUMBERS = {
+    "thickness_nm": dict(unit="nm", low=0.0, high=2e6, low_open=True),
+    "diffusion_length_um": dict(unit="um", low=MIN_DIFFUSION_LENGTH_UM, high=1e5, low_open=False,
+                                reason="a diffusion length below 1 nm, a few lattice spacings, "
+                                       "has no meaning"),
+    "lifetime_ns": dict(unit="ns", low=MIN_LIFETIME_NS, high=1e9, low_open=False,
+                        reason="a lifetime below a femtosecond is shorter than any carrier "
+                               "scattering time"),
+    "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False)}
 #: net doping range [cm^-3] of ``doping = "n:..."``
 DOPING_RANGE_CM3 = (1e10, 1e21)
+_DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
 
 
 @dataclass(frozen=True)
@@ -96,22 +108,23 @@ class Coating:
 
 
 def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, required=True,
-                     low_open=True):
+                     low_open=True, reason=""):
     if key not in table:
         if required:
             raise StackError(f"missing required key {key!r} ({unit})", file=file, where=where,
                              fix=f"add {key} = <number in {unit}>")
         return None
     value = table[key]
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
-        raise StackError(f"key {key!r} must be a number ({unit}), got {value!r}", file=file,
-                         where=where, fix=f"write {key} = <number> without quotes")
-    value = float(value)
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or (
+            isinstance(value, float) and math.isnan(value)):
+        raise StackError(f"key {key!r} must be a number ({unit}), got {excerpt(value)}",
+                         file=file, where=where, fix=f"write {key} = <number> without quotes")
+    value = _number(value, file=file, where=where, key=key, unit=unit)
     bad_low = value <= low if low_open else value < low
     if bad_low or value > high:
         bound = "(" if low_open else "["
-        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}",
-                         file=file, where=where,
+        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}"
+                         + (f" ({reason})" if reason else ""), file=file, where=where,
                          fix=f"give a {key} within {bound}{low:g}, {high:g}] {unit}")
     return value
 
@@ -120,16 +133,18 @@ def parse_doping(text, *, file, where):
     """``"n:2e18"`` -> ("n", 2e18); clear errors for anything else."""
     fix = 'write doping = "n:2e18" or "p:1e17" (type, colon, net doping in cm^-3)'
     if not isinstance(text, str):
-        raise StackError(f"doping must be text like \"n:2e18\", got {text!r}", file=file,
+        raise StackError(f"doping must be text like \"n:2e18\", got {excerpt(text)}", file=file,
                          where=where, fix=fix)
     match = _DOPING.match(text)
     if not match or match.group(1) not in ("n", "p"):
-        raise StackError(f"doping {text!r} is not understood (the type before the colon must be "
+        raise StackError(f"doping {excerpt(text)} is not understood (the type before the colon "
+                         "must be "
                          "n or p)", file=file, where=where, fix=fix)
     try:
         value = float(match.group(2))
     except ValueError:
-        raise StackError(f"doping {text!r}: {match.group(2)!r} is not a number", file=file,
+        raise StackError(f"doping {excerpt(text)}: {excerpt(match.group(2))} is not a number",
+                         file=file,
                          where=where, fix=fix) from None
     if not DOPING_RANGE_CM3[0] <= value <= DOPING_RANGE_CM3[1]:
         raise StackError(f"doping {value:g} cm^-3 is outside 1e10..1e21 cm^-3", file=file,
@@ -150,7 +165,7 @@ def parse_layers(tables, *, file):
                              fix="write [[layer]] followed by key = value lines")
         name = table.get("name", f"layer{i}")
         if not isinstance(name, str) or not name.strip():
-            raise StackError(f"name must be a non-empty text, got {name!r}", file=file,
+            raise StackError(f"name must be a non-empty text, got {excerpt(name)}", file=file,
                              where=where, fix='write name = "top emitter" (any unique name)')
         where = f"layer {i} {name!r}"
         if name in names:
@@ -167,13 +182,18 @@ def parse_layers(tables, *, file):
             raise StackError("missing required key 'material'", file=file, where=where,
                              fix='add material = "GaAs" (see `siltandem materials`)')
         if not isinstance(material, str):
-            raise StackError(f"material must be text, got {material!r}", file=file, where=where,
+            raise StackError(f"material must be text, got {excerpt(material)}", file=file,
+                             where=where,
                              fix='write material = "GaAs"')
         composition = table.get("composition")
         if composition is not None and (isinstance(composition, bool)
                                         or not isinstance(composition, (int, float))):
-            raise StackError(f"composition must be a number in [0, 1], got {composition!r}",
-                             file=file, where=where, fix="write composition = 0.51")
+            raise StackError(f"composition must be a number in [0, 1], got "
+                             f"{excerpt(composition)}", file=file, where=where,
+                             fix="write composition = 0.51")
+        if composition is not None:
+            composition = _number(composition, file=file, where=where, key="composition",
+                                  unit="")
         _check_material(material, composition, file=file, where=where)
         thickness = _positive_number(table, "thickness_nm", file=file, where=where,
                                      **LAYER_NUMBERS["thickness_nm"])
@@ -206,35 +226,6 @@ def parse_layers(tables, *, file):
                             else float(composition), thickness, polarity, doping, length,
                             lifetime, srv, tunnel or None, offset))
     return tuple(layers)
-
-
-def _check_material(material, composition, *, file, where):
-    from .materials import MaterialError, load_material
-
-    try:
-        load_material(material, None if composition is None else float(composition))
-    except MaterialError as exc:
-        raise StackError(str(exc), file=file, where=f"{where}, key material",
-                         fix="see `siltandem materials` for the library and how each alloy "
-                             "takes its composition") from None
-
-
-def check_layer_value(layer, key, value, *, file=None, where=None):
-    """One numeric key of ``layer`` set to ``value``, checked as parse_layers checks the file's
-    (same ranges, same messages): a study's varied layer keys go through here. Returns it."""
-    if key in LAYER_NUMBERS:
-        return _positive_number({key: value}, key, file=file, where=where, **LAYER_NUMBERS[key])
-    if key == "doping_cm3":
-        return parse_doping(f"{layer.polarity}:{float(value)!r}", file=file, where=where)[1]
-    if key == "composition":
-        if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
-            raise StackError(f"composition must be a number in [0, 1], got {value!r}", file=file,
-                             where=where, fix="write composition = 0.51")
-        _check_material(layer.material, value, file=file, where=where)
-        return float(value)
-    raise StackError(f"layer {layer.name!r} has no numeric key {key!r}", file=file, where=where,
-                     fix="vary one of " + ", ".join(list(LAYER_NUMBERS) + ["doping_cm3",
-                                                                          "composition"]))
 
 
 def parse_coatings(tables, *, file):
@@ -301,3 +292,31 @@ def parse_optics(table, *, file):
     return _settings(table, file=file, section="optics", defaults=OPTICS_KEYS,
                      ranges={"back_reflectance": ("", 0.0, 1.0, False),
                              "ambient_index": ("", 1.0, 5.0, False)})
+
+def _check_material(material, composition, *, file, where):
+    from .materials import MaterialError, load_material
+
+    try:
+        load_material(material, None if composition is None else float(composition))
+    except MaterialError as exc:
+        raise StackError(str(exc), file=file, where=f"{where}, key material",
+                         fix="see `siltandem materials` for the library and how each alloy "
+                             "takes its composition") from None
+
+
+def check_layer_value(layer, key, value, *, file=None, where=None):
+    """One numeric key of ``layer`` set to ``value``, checked as parse_layers checks the file's
+    (same ranges, same messages): a study's varied layer keys go through here. Returns it."""
+    if key in LAYER_NUMBERS:
+        return _positive_number({key: value}, key, file=file, where=where, **LAYER_NUMBERS[key])
+    if key == "doping_cm3":
+        return parse_doping(f"{layer.polarity}:{float(value)!r}", file=file, where=where)[1]
+    if key == "composition":
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
+            raise StackError(f"composition must be a number in [0, 1], got {excerpt(value)}", file=file,
+                             where=where, fix="write composition = 0.51")
+        _check_material(layer.material, value, file=file, where=where)
+        return float(value)
+    raise StackError(f"layer {layer.name!r} has no numeric key {key!r}", file=file, where=where,
+                     fix="vary one of " + ", ".join(list(LAYER_NUMBERS) + ["doping_cm3",
+                                                                          "composition"]))

@@ -18,6 +18,7 @@ changes which isotype interfaces the stack has.
 from dataclasses import dataclass, replace
 
 from .errors import StackError
+from .text import excerpt
 
 
 @dataclass(frozen=True)
@@ -44,6 +45,9 @@ def parse_placements(tables, base_layers, *, file):
                              fix="write [[placement]] with name, after (or before) and "
                                  "[[placement.layer]] tables")
         name = table.get("name", f"placement {k}")
+        if not isinstance(name, str) or not name.strip():
+            raise StackError(f"name must be a non-empty text, got {excerpt(name)}", file=file,
+                             where=where, fix='write name = "in the silicon" (any unique name)')
         where = f"placement {k} {name!r}"
         if name in seen:
             raise StackError(f"placement name {name!r} is used twice", file=file, where=where,
@@ -57,8 +61,15 @@ def parse_placements(tables, base_layers, *, file):
             raise StackError("give exactly one of 'after' or 'before'", file=file, where=where,
                              fix='write after = "<layer name>" (or before = "<layer name>")')
         anchor = table.get("after", table.get("before"))
+        side = "after" if "after" in table else "before"
+        if not isinstance(anchor, str):
+            raise StackError(f"{side} must be one layer's name (text), got "
+                             f"{type(anchor).__name__} {excerpt(anchor)}", file=file,
+                             where=f"{where}, key {side}",
+                             fix=f'write {side} = "<layer name>"; for several positions write '
+                                 "one [[placement]] per position")
         if anchor not in names:
-            raise StackError(f"no layer named {anchor!r} to place it at", file=file,
+            raise StackError(f"no layer named {excerpt(anchor)} to place it at", file=file,
                              where=where, fix="name one of the stack's layers: "
                                               + ", ".join(repr(n) for n in names))
         after = names[anchor] if "after" in table else names[anchor] - 1

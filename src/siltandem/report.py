@@ -1,11 +1,40 @@
-"""Plain-text summary of a Result, for the terminal."""
+"""Plain-text summary of a Result, for the terminal.
+
+A number with no value (None, NaN, inf) prints as ``none`` (its reason is in a warning), a
+key that does not apply as ``-``; names and every line pass through ``text.printable``.
+"""
+from .text import MISSING, number, printable
 
 
-def _fmt(value, spec, missing="-"):
-    return missing if value is None else format(value, spec)
+def _fmt(value, spec, missing=MISSING):
+    return number(value, spec, missing)
+
+
+def _lines(lines):
+    """The report's lines joined, with control characters in names escaped."""
+    return printable("\n".join(lines), keep_newlines=True) + "\n"
+
+
+def _headline(label, value, spec, unit):
+    """``  Voc                 2.0737 V``; ``none`` without a unit where there is no value."""
+    text = _fmt(value, spec)
+    return f"  {label:<17} {text:>8}" + ("" if text == MISSING else f" {unit}")
+
+
+def _finite(value):
+    return number(value, "g", "") != ""
+
+
+def _percent(fraction):
+    return None if fraction is None else 100 * fraction
+
+
+def _milli(value):
+    return None if value is None else 1000 * value
 
 
 def _table(headers, rows, aligns):
+    rows = [[printable(c) for c in r] for r in rows]
     widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h)
               for i, h in enumerate(headers)]
 
@@ -29,19 +58,18 @@ def text_summary(result):
                  f"{c['irradiance_W_m2']:.1f} W/m2; cell at {c['temperature_K']:.2f} K; "
                  f"{c['terminals']} terminals")
     lines.append("")
-    lines.append(f"  efficiency        {s['efficiency_pct']:8.3f} %")
+    lines.append(_headline("efficiency", s["efficiency_pct"], ".3f", "%"))
     if len(s["strings"]) == 1:
         lines += [
-            f"  Voc               {_fmt(s['voc_V'], '8.4f')} V",
-            f"  Jsc               {_fmt(s['jsc_mA_cm2'], '8.3f')} mA/cm2",
-            f"  fill factor       {_fmt(s['fill_factor'] and 100 * s['fill_factor'], '8.2f')} %",
-            f"  MPP voltage       {_fmt(s['mpp_V'], '8.4f')} V",
-            f"  MPP current       {_fmt(s['mpp_mA_cm2'], '8.3f')} mA/cm2",
+            _headline("Voc", s["voc_V"], ".4f", "V"),
+            _headline("Jsc", s["jsc_mA_cm2"], ".3f", "mA/cm2"),
+            _headline("fill factor", _percent(s["fill_factor"]), ".2f", "%"),
+            _headline("MPP voltage", s["mpp_V"], ".4f", "V"),
+            _headline("MPP current", s["mpp_mA_cm2"], ".3f", "mA/cm2"),
         ]
     else:
         rows = [[str(r["string"]), _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
-                 _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(r["fill_factor"] and 100 * r["fill_factor"],
-                                                     ".2f"),
+                 _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(_percent(r["fill_factor"]), ".2f"),
                  _fmt(r["mpp_V"], ".4f"), _fmt(r["mpp_mA_cm2"], ".3f")]
                 for r in s["strings"]]
         lines.append("  each string at its own MPP, powers summed:")
@@ -55,8 +83,8 @@ def text_summary(result):
     lines.append("")
     lines.append("  subcells (optical order, sun side first; * limits its string's current)")
     rows = [[("* " if r["limiting"] else "  ") + r["name"], str(r["string"]),
-             f"{r['gap_eV']:.3f}", f"{r['photocurrent_mA_cm2']:.3f}",
-             f"{r['voc_alone_V']:.4f}", f"{r['efficiency_alone_pct']:.2f}"]
+             _fmt(r['gap_eV'], ".3f"), _fmt(r['photocurrent_mA_cm2'], ".3f"),
+             _fmt(r['voc_alone_V'], ".4f"), _fmt(r['efficiency_alone_pct'], ".2f")]
             for r in s["subcells"]]
     lines += ["    " + x for x in _table(
         ["subcell", "string", "gap eV", "photocurrent mA/cm2", "Voc alone V", "eff. alone %"],
@@ -64,9 +92,11 @@ def text_summary(result):
     lines.append("")
     lines.append("  elements at the MPP (current order; loss = power given up, "
                  "for a subcell against its own MPP)")
-    rows = [[r["name"], r["kind"], str(r["string"]), f"{r['voltage_at_mpp_V']:+.4f}",
-             f"{r['power_W_m2']:+.3f}", f"{r['loss_W_m2']:.3f}", f"{r['loss_pct_abs']:.3f}",
-             _fmt(r.get("efficiency_penalty_pct_abs"), ".3f")]
+    rows = [[r["name"], r["kind"], str(r["string"]), _fmt(r['voltage_at_mpp_V'], "+.4f"),
+             _fmt(r['power_W_m2'], "+.3f"), _fmt(r['loss_W_m2'], ".3f"),
+             _fmt(r['loss_pct_abs'], ".3f"),
+             "-" if "efficiency_penalty_pct_abs" not in r
+             else _fmt(r["efficiency_penalty_pct_abs"], ".3f")]
             for r in s["elements"]]
     lines += ["    " + x for x in _table(
         ["element", "kind", "string", "voltage V", "power W/m2", "loss W/m2", "loss % abs",
@@ -78,30 +108,35 @@ def text_summary(result):
         lines.append("  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV or "
                      "penalty above 1 %)")
         rows = [[("! " if r["blocking"] else "  ") + r["name"], r["carrier"],
-                 f"{r['barrier_eV']:.3f}", f"{r['offset_eV']:.3f}", f"{r['alpha']:.3g}",
-                 r["bias"], f"{1000 * r['drop_at_mpp_V']:.1f}", f"{r['loss_W_m2']:.3f}",
-                 f"{r['efficiency_penalty_pct_abs']:.3f}"] for r in s["interfaces"]]
+                 _fmt(r['barrier_eV'], ".3f"), _fmt(r['offset_eV'], ".3f", "-"),
+                 _fmt(r['alpha'], ".3g"), r["bias"], _fmt(_milli(r['drop_at_mpp_V']), ".1f"),
+                 _fmt(r['loss_W_m2'], ".3f"), _fmt(r['efficiency_penalty_pct_abs'], ".3f")]
+                for r in s["interfaces"]]
         lines += ["    " + x for x in _table(
             ["interface", "carrier", "barrier eV", "offset eV", "alpha", "bias",
              "drop at MPP mV", "loss W/m2", "penalty % abs"], rows, "<<>>><>>>")]
+        if any(not _finite(r["offset_eV"]) for r in s["interfaces"]):
+            lines.append("    (offset -: an interface given by its law's numbers has no band "
+                         "offset; give it by its two materials for one)")
     if s.get("tunnel_junctions"):
         lines.append("")
         lines.append("  tunnel junctions (attained peak and valley of the combined law)")
-        rows = [[r["name"], str(r["string"]), f"{r['peak_mA_cm2']:.4g}", f"{r['peak_V']:.3f}",
-                 f"{r['valley_mA_cm2']:.4g}", f"{r['valley_V']:.3f}",
-                 f"{r['peak_over_largest_photocurrent']:.3g}", r["branch_at_mpp"]]
+        rows = [[r["name"], str(r["string"]), _fmt(r['peak_mA_cm2'], ".4g"),
+                 _fmt(r['peak_V'], ".3f"), _fmt(r['valley_mA_cm2'], ".4g"),
+                 _fmt(r['valley_V'], ".3f"), _fmt(r['peak_over_largest_photocurrent'], ".3g"),
+                 r["branch_at_mpp"]]
                 for r in s["tunnel_junctions"]]
         lines += ["    " + x for x in _table(
             ["junction", "string", "peak mA/cm2", "peak V", "valley mA/cm2", "valley V",
              "peak / Jph", "branch at MPP"], rows, "<>>>>>><")]
     lines.append("")
-    lines.append(f"  power balance error {s['power_balance_error_W_m2']:.2e} W/m2 "
+    lines.append(f"  power balance error {_fmt(s['power_balance_error_W_m2'], '.2e')} W/m2 "
                  "(sum of element powers, each from its own law, against V*J)")
     for w in s["warnings"]:
         lines.append(f"  warning: {w}")
     for caution in s["cautions"]:
         lines.append(f"  caution: {caution}")
-    return "\n".join(lines) + "\n"
+    return _lines(lines)
 
 
 def sweep_summary(frame, direction, result):
@@ -111,7 +146,8 @@ def sweep_summary(frame, direction, result):
     power = frame["voltage_V"] * frame["current_mA_cm2"] * 10
     best = int(np.nanargmax(power.to_numpy())) if np.any(np.isfinite(power)) else None
     lines = [f"  voltage sweep {direction} ({len(frame)} points from "
-             f"{frame['voltage_V'].min():.3f} to {frame['voltage_V'].max():.3f} V):"]
+             f"{_fmt(frame['voltage_V'].min(), '.3f')} to {_fmt(frame['voltage_V'].max(), '.3f')}"
+             " V):"]
     if best is None:
         lines.append("    no point found")
     else:
@@ -119,8 +155,9 @@ def sweep_summary(frame, direction, result):
         lines.append(f"    best sweep point {frame['voltage_V'].iloc[best]:.4f} V, "
                      f"{frame['current_mA_cm2'].iloc[best]:.3f} mA/cm2, "
                      f"{100 * power.iloc[best] / irradiance:.3f} % (read on the sweep grid; the "
-                     f"curve's true MPP above is {result.summary['efficiency_pct']:.3f} %)")
-    return "\n".join(lines) + "\n"
+                     f"curve's true MPP above is {_fmt(result.summary['efficiency_pct'], '.3f')}"
+                     " %)")
+    return _lines(lines)
 
 
 def concentration_summary(series, stack):
@@ -132,12 +169,16 @@ def concentration_summary(series, stack):
     rows = []
     for _, r in series.iterrows():
         rows.append([f"{r['suns']:.4g}", _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
-                     _fmt(r["jsc_mA_cm2"], ".4g"), _fmt(100 * r["fill_factor"], ".2f"),
+                     _fmt(r["jsc_mA_cm2"], ".4g"), _fmt(_percent(r["fill_factor"]), ".2f"),
                      str(r["regime"])] + ["yes" if r[c] else "no" for c in flags])
     lines += ["  " + x for x in _table(headers, rows, ">>>>><" + "<" * len(flags))]
-    best = series["efficiency_pct"].idxmax()
     lines.append("")
-    lines.append(f"  best: {series['efficiency_pct'][best]:.3f} % at {series['suns'][best]:.4g} suns")
+    if series["efficiency_pct"].notna().any():
+        best = series["efficiency_pct"].idxmax()
+        lines.append(f"  best: {series['efficiency_pct'][best]:.3f} % at "
+                     f"{series['suns'][best]:.4g} suns")
+    else:
+        lines.append("  best: none (no concentration found an operating point)")
     for c in flags:
         exceeded = series[c].to_numpy(dtype=bool)
         if exceeded.any():
@@ -145,4 +186,4 @@ def concentration_summary(series, stack):
                          f"photocurrent from {series['suns'][exceeded.argmax()]:.4g} suns on")
     lines.append("  caution: concentrated light burns skin and eyes and ignites material; results "
                  "are models; follow local codes and licensed practice.")
-    return "\n".join(lines) + "\n"
+    return _lines(lines)

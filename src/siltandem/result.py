@@ -96,26 +96,90 @@ class Result:
         return pd.concat(frames, ignore_index=True)
 
     def to_json(self, indent=2):
-        return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
+        return json_text(self.summary, indent)
 
     def with_summary(self, **changes):
         return replace(self, summary={**self.summary, **changes})
 
 
 def _clean(value):
-    """JSON-safe copy: numpy scalars to float, non-finite floats to None."""
+    """JSON-safe copy: numpy scalars and arrays to Python, non-finite floats (and pandas' missing
+    values) to None, keys to text; anything else JSON cannot hold to its text."""
     if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple, np.ndarray)):
         return [_clean(v) for v in value]
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
     if isinstance(value, (np.floating, float)):
         value = float(value)
         return value if math.isfinite(value) else None
-    if isinstance(value, np.integer):
+    if isinstance(value, (int, np.integer)):
         return int(value)
-    if isinstance(value, np.bool_):
-        return bool(value)
-    return value
+    if value is None or isinstance(value, str):
+        return value
+    try:
+        import pandas as pd
+
+        if pd.isna(value):
+            return None
+    except (TypeError, ValueError):
+        pass
+    return str(value)
+
+
+def json_text(value, indent=2):
+    """Strict JSON of ``value`` (``null`` where a number has no value, never ``NaN``), one
+    trailing newline: what every JSON output of the command line writes."""
+    return json.dumps(_clean(value), indent=indent, allow_nan=False) + "\n"
+
+
+#: headline numbers of a string, their words for warnings, and why one can be missing
+_HEADLINE = (("voc_V", "Voc", "the curve has no zero-current point"),
+             ("jsc_mA_cm2", "Jsc", "the curve does not reach 0 V"),
+             ("fill_factor", "fill factor", "it needs a positive Voc and Jsc"),
+             ("mpp_V", "MPP voltage", "no maximum power point was found"),
+             ("mpp_mA_cm2", "MPP current", "no maximum power point was found"),
+             ("efficiency_pct", "efficiency", "no maximum power point was found"))
+
+
+def _missing(value):
+    return value is None or (isinstance(value, (float, np.floating)) and not math.isfinite(value))
+
+
+def _missing_value_warnings(summary):
+    """One warning for every number the summary has no value for (text: none, JSON: null),
+    unless a warning already says so; every string without light says that instead."""
+    out = []
+    by_name = {row["name"]: row for row in summary["subcells"]}
+    for row in summary["strings"]:
+        number = row["string"]
+        cells = [by_name[name] for name in row["elements"] if name in by_name]
+        missing = [(word, why) for key, word, why in _HEADLINE if _missing(row.get(key))]
+        said = any(w.startswith(f"string {number}:") and "null" in w
+                   for w in summary["warnings"])
+        if cells and all(c["photocurrent_mA_cm2"] == 0 for c in cells):
+            out.append(f"string {number}: no subcell receives light above its gap (every "
+                       "photocurrent is 0): it gives no power"
+                       + (", and " + ", ".join(w for w, _ in missing)
+                          + (" have" if len(missing) > 1 else " has")
+                          + " no value (none in the text, null in JSON)" if missing else ""))
+        elif missing and not said:
+            reasons = list(dict.fromkeys(why for _, why in missing))
+            out.append(f"string {number}: no value for " + ", ".join(w for w, _ in missing)
+                       + " (none in the text, null in JSON): " + "; ".join(reasons))
+    rows = [(f"subcell {r['name']!r}", r, ("voc_alone_V", "efficiency_alone_pct", "j01_mA_cm2"))
+            for r in summary["subcells"]]
+    rows += [(f"element {r['name']!r}", r, ("voltage_at_mpp_V", "voltage_at_open_circuit_V",
+                                              "power_W_m2", "loss_W_m2"))
+             for r in summary["elements"]]
+    gaps = [f"{label} {key}" for label, row, keys in rows for key in keys
+            if key in row and _missing(row[key])]
+    if gaps:
+        out.append("no value for " + ", ".join(gaps[:6]) + (f" and {len(gaps) - 6} more"
+                                                            if len(gaps) > 6 else "")
+                   + " (none in the text, null in JSON): the solve found no such point")
+    return out
 
 
 def _first(array):
@@ -177,6 +241,7 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     summary = _summarise(stack, conditions, light, circuit, solutions, alone, without)
     if placement_note:
         summary["warnings"].insert(0, placement_note)
+    summary["warnings"].extend(_missing_value_warnings(summary))
     return Result(summary, _curve_table(circuit, solutions), circuit, solutions)
 
 
@@ -232,7 +297,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                 "peak_mA_cm2": units.ma_cm2(peak), "peak_V": _first(ext.peak_V),
                 "valley_mA_cm2": units.ma_cm2(_first(ext.valley_A_m2)),
                 "valley_V": _first(ext.valley_V),
-                "peak_over_largest_photocurrent": peak / jph_max,
+                "peak_over_largest_photocurrent": peak / jph_max if jph_max > 0 else math.nan,
                 "branch_at_mpp": solution.tunnel_branch_at_mpp[element.name][0]})
             if peak < jph_max:
                 warnings_.append(f"tunnel junction {element.name!r}: peak current "

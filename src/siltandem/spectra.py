@@ -14,7 +14,14 @@ import tomllib
 import numpy as np
 
 from .errors import StackError
+from .text import excerpt
 from .laws.optics import photon_flux
+
+
+#: a spectrum whose largest wavelength is below this [nm] was written in micrometres: no solar
+#: or lamp spectrum a cell is rated under ends in the extreme ultraviolet (ASTM G173 runs
+#: 280-4000 nm)
+MICROMETRE_HINT_NM = 50.0
 
 
 @dataclass(frozen=True)
@@ -118,19 +125,21 @@ def read_spectrum_csv(path, *, where=None):
     try:
         frame = pd.read_csv(path, comment="#")
     except Exception as exc:  # pandas raises several types for unreadable files
-        raise StackError(f"cannot read spectrum CSV ({exc.__class__.__name__}: {exc})",
-                         file=path, fix=fix_format) from None
+        raise StackError(f"cannot read spectrum CSV ({exc.__class__.__name__}: "
+                         f"{excerpt(str(exc), 120)})", file=path, fix=fix_format) from None
     columns = [str(c).strip() for c in frame.columns]
     frame.columns = columns
     if not columns or columns[0] != "wavelength_nm":
-        raise StackError(f"first column is {columns[0] if columns else 'missing'!r}, expected "
-                         "'wavelength_nm'", file=path, where="header", fix=fix_format)
+        raise StackError(f"first column is {excerpt(columns[0]) if columns else 'missing'}, "
+                         "expected 'wavelength_nm'", file=path, where="header", fix=fix_format)
     if "irradiance_W_m2_nm" in columns:
         value_column = "irradiance_W_m2_nm"
     elif len(columns) == 2:
         value_column = columns[1]
     else:
-        raise StackError(f"cannot tell the irradiance column among {columns}", file=path,
+        shown = ", ".join(excerpt(c, 30) for c in columns[:6]) + (
+            f" and {len(columns) - 6} more" if len(columns) > 6 else "")
+        raise StackError(f"cannot tell the irradiance column among [{shown}]", file=path,
                          where="header", fix=fix_format)
     wavelength = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
     irradiance = pd.to_numeric(frame[value_column], errors="coerce").to_numpy(dtype=float)
@@ -152,12 +161,24 @@ def read_spectrum_csv(path, *, where=None):
         raise StackError(f"wavelengths not increasing at {wavelength[row]} nm (after "
                          f"{wavelength[row - 1]} nm)", file=path, where=f"line {row + 2}",
                          fix="sort the rows by wavelength and remove repeated wavelengths")
+    if wavelength[-1] < MICROMETRE_HINT_NM:
+        raise StackError(f"the wavelengths run from {wavelength[0]:g} to {wavelength[-1]:g}: "
+                         f"below {MICROMETRE_HINT_NM:g} they look like micrometres, not nm",
+                         file=path, where="column wavelength_nm",
+                         fix="give wavelengths in nm (multiply micrometres by 1000, and an "
+                             "irradiance per micrometre by 1e-3 for W/m2/nm)")
     if np.any(irradiance < 0):
         row = int(np.flatnonzero(irradiance < 0)[0])
         raise StackError(f"negative irradiance {irradiance[row]} W/m2/nm", file=path,
                          where=f"line {row + 2}", fix="spectral irradiance cannot be negative")
-    total = float(np.trapezoid(irradiance, wavelength))
-    if not np.isfinite(total) or total <= 0:
+    with np.errstate(over="ignore", invalid="ignore"):
+        total = float(np.trapezoid(irradiance, wavelength))
+    if not np.isfinite(total):
+        raise StackError(f"the spectrum's total irradiance overflows (wavelengths up to "
+                         f"{wavelength[-1]:g} nm)", file=path,
+                         fix="give wavelengths in nm and spectral irradiance in W/m2/nm "
+                             "(ASTM G173 runs from 280 to 4000 nm)")
+    if total <= 0:
         raise StackError(f"the spectrum carries no light (total {total:g} W/m2)", file=path,
                          fix="give spectral irradiance in W/m2/nm, not all zero")
     if total > 1e8:
@@ -199,7 +220,7 @@ def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None, origin
     else:
         close = difflib.get_close_matches(key.lower(), list(names), n=3, cutoff=0.5)
         hint = f"did you mean {', '.join(close)}? " if close else ""
-        raise StackError(f"unknown spectrum {key!r}", file=origin, where=where,
+        raise StackError(f"unknown spectrum {excerpt(key)}", file=origin, where=where,
                          fix=f"{hint}use one of {', '.join(spectrum_names())} or a CSV path "
                              "ending in .csv")
     return spectrum.concentrated(suns) if suns != 1.0 else spectrum

@@ -16,6 +16,7 @@ import numpy as np
 
 from .constants import STANDARD_TEMPERATURE_K
 from .errors import StackError
+from .text import excerpt
 
 
 @dataclass(frozen=True)
@@ -38,20 +39,28 @@ class Parameter:
 
 
 INF = math.inf
+#: smallest absorptance, ERE and shunt a subcell may give: sensible floors that keep the law's
+#: numbers finite (a denormal 5e-324 would make J01 or the shunt conductance infinite)
+MIN_ABSORPTANCE = 1e-6
+MIN_ERE = 1e-12
+MIN_SHUNT_OHM_CM2 = 1e-6
 
 #: keys of each element kind: the stack-file schema (units as written in files)
 ELEMENT_SCHEMA = {
     "subcell": [
         Parameter("gap_eV", "eV", 0.3, 4.0, help="band gap"),
-        Parameter("absorptance", "", 0.0, 1.0, 1.0, low_open=True,
-                  help="step absorptance above the gap"),
-        Parameter("ere", "", 0.0, 1.0, 1.0, low_open=True,
-                  help="external radiative efficiency (1 = radiative limit)"),
+        Parameter("absorptance", "", MIN_ABSORPTANCE, 1.0, 1.0,
+                  help="step absorptance above the gap; below 1e-6 the subcell takes less than a "
+                       "millionth of the light: leave it out of the stack instead"),
+        Parameter("ere", "", MIN_ERE, 1.0, 1.0,
+                  help="external radiative efficiency (1 = radiative limit); below 1e-12 J01 is "
+                       "more than 1e12 times the radiative limit and the cell gives no voltage"),
         Parameter("j02_mA_cm2", "mA/cm2", 0.0, 1e3, 0.0,
                   help="saturation current of the ideality-2 diode"),
         Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e3, 0.0, help="series resistance"),
-        Parameter("shunt_ohm_cm2", "ohm cm2", 0.0, INF, INF, low_open=True,
-                  help="shunt resistance (omit for none)"),
+        Parameter("shunt_ohm_cm2", "ohm cm2", MIN_SHUNT_OHM_CM2, INF, INF,
+                  help="shunt resistance (omit for none); below 1e-6 ohm cm2 it drops less than "
+                       "a microvolt at 1 A/cm2: a short circuit, leave the subcell out instead"),
         Parameter("breakdown_V", "V", 0.0, 1e4, INF, low_open=True,
                   help="reverse breakdown voltage, as a positive magnitude (needs a shunt)"),
         Parameter("breakdown_factor", "", 0.0, 1e3, 1e-3,
@@ -188,11 +197,22 @@ def _suggest(word, options):
 
 
 def _number(value, *, file, where, key, unit):
+    """A file value as a float: a number (TOML integer or float), not text, bool or nan.
+
+    A TOML integer may have any number of digits; one beyond float64 (about 1.8e308) is
+    refused here rather than overflowing later.
+    """
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise StackError(f"key {key!r} must be a number ({unit or 'no unit'}), got "
-                         f"{type(value).__name__} {value!r}", file=file, where=where,
+                         f"{type(value).__name__} {excerpt(value)}", file=file, where=where,
                          fix=f"write {key} = <number> without quotes")
-    value = float(value)
+    try:
+        value = float(value)
+    except OverflowError:
+        raise StackError(f"key {key!r} = {excerpt(value)} is too large to be a number "
+                         "(float64 holds magnitudes up to about 1.8e308)", file=file,
+                         where=where, fix=f"give {key}" + (f" in {unit}" if unit else "")
+                         + " within its range (README, stack files)") from None
     if math.isnan(value):
         raise StackError(f"key {key!r} is nan", file=file, where=where, fix="give a number")
     return value
@@ -247,7 +267,8 @@ def _parse_element(index, table, *, file, terminals):
                          fix="write [[element]] followed by key = value lines")
     name = table.get("name", f"element{index}")
     if not isinstance(name, str) or not name.strip():
-        raise StackError(f"name must be a non-empty text, got {name!r}", file=file, where=where,
+        raise StackError(f"name must be a non-empty text, got {excerpt(name)}", file=file,
+                         where=where,
                          fix='write name = "top" (any unique name)')
     where = f"element {index} {name!r}"
     if "kind" not in table:
@@ -255,7 +276,7 @@ def _parse_element(index, table, *, file, terminals):
                          fix='add kind = "subcell", "resistor", "tunnel" or "isotype"')
     kind = table["kind"]
     if not isinstance(kind, str):
-        raise StackError(f"kind must be text, got {kind!r}", file=file, where=where,
+        raise StackError(f"kind must be text, got {excerpt(kind)}", file=file, where=where,
                          fix='write kind = "subcell"')
     if kind in PLANNED_KINDS:
         raise StackError(f"kind {kind!r} ({PLANNED_KINDS[kind]}) is not solvable in this "
@@ -308,7 +329,7 @@ def _subcell_material(name, *, file, where):
     from .materials import MaterialError, load_material
 
     if not isinstance(name, str):
-        raise StackError(f"material must be text, got {name!r}", file=file, where=where,
+        raise StackError(f"material must be text, got {excerpt(name)}", file=file, where=where,
                          fix='write material = "GaAs" (alloys with their fractions, e.g. '
                              '"Ga0.51In0.49P")')
     try:
@@ -324,7 +345,8 @@ def _subcell_eqe(name, *, file, where):
     from .studies.yield_ import read_eqe_csv
 
     if not isinstance(name, str):
-        raise StackError(f"eqe must be a file path (text), got {name!r}", file=file, where=where,
+        raise StackError(f"eqe must be a file path (text), got {excerpt(name)}", file=file,
+                         where=where,
                          fix='write eqe = "top_eqe.csv" (columns wavelength_nm, eqe)')
     path = Path(name)
     if file is not None and not path.is_absolute():
@@ -340,7 +362,7 @@ def _subcell_eqe(name, *, file, where):
 def _parse_string(table, *, file, where, terminals):
     string = table.get("string", 1)
     if isinstance(string, bool) or not isinstance(string, int) or not 1 <= string <= terminals // 2:
-        raise StackError(f"string = {string!r} is not a string of this stack (terminals = "
+        raise StackError(f"string = {excerpt(string)} is not a string of this stack (terminals = "
                          f"{terminals} gives strings 1..{terminals // 2})", file=file, where=where,
                          fix="give string = 1 for the sun-side pair of terminals, 2 for the next")
     return string
@@ -465,7 +487,7 @@ def _parse_conditions(table, *, file):
                              + ", ".join(CONDITION_KEYS))
     spectrum = table.get("spectrum", CONDITION_KEYS["spectrum"])
     if not isinstance(spectrum, str):
-        raise StackError(f"spectrum must be text, got {spectrum!r}", file=file,
+        raise StackError(f"spectrum must be text, got {excerpt(spectrum)}", file=file,
                          where="key conditions.spectrum",
                          fix='write spectrum = "am1.5g" (or am1.5d, am0, a CSV path)')
     suns = check_number(CONDITION_SCHEMA["suns"], table.get("suns", 1.0), file=file,
@@ -476,7 +498,7 @@ def _parse_conditions(table, *, file):
     terminals = table.get("terminals", 2)
     if isinstance(terminals, bool) or not isinstance(terminals, int) or terminals < 2 \
             or terminals % 2:
-        raise StackError(f"terminals = {terminals!r} must be an even whole number >= 2",
+        raise StackError(f"terminals = {excerpt(terminals)} must be an even whole number >= 2",
                          file=file, where="key conditions.terminals",
                          fix="2 for one series string, 4 for two independent strings")
     return Conditions(spectrum, suns, temperature, terminals)
@@ -502,7 +524,7 @@ def parse_stack(document, *, file=None, folder=None):
     notes = head.get("notes", "")
     for key, value in (("name", name), ("notes", notes)):
         if not isinstance(value, str):
-            raise StackError(f"{key} must be text, got {value!r}", file=file,
+            raise StackError(f"{key} must be text, got {excerpt(value)}", file=file,
                              where=f"key stack.{key}", fix=f'write {key} = "..."')
     conditions = _parse_conditions(document.get("conditions", {}), file=file)
     if "layer" in document:

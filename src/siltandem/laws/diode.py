@@ -22,12 +22,51 @@ J. W. Bishop, Solar Cells 25 (1988) 73 (reverse-bias breakdown term).
 import numpy as np
 from scipy.special import wrightomega
 
-from ..constants import thermal_voltage_V
+from ..constants import BOLTZMANN_EV_K, thermal_voltage_V
 from ..inverse import polish_root
 from ..numerics import safeguarded_newton
 
 #: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
 BREAKDOWN_EXPONENT = 3.28
+
+
+def intrinsic_density_ratio(temperature_K, *, gap_eV, reference_temperature_K,
+                            reference_gap_eV):
+    """n_i(T) / n_i(T0): how the intrinsic carrier density changes with temperature.
+
+    Parameters
+    ----------
+    temperature_K : array_like
+        Temperature T [K], > 0.
+    gap_eV : array_like
+        Band gap at T [eV] (the same gap when it does not follow the temperature).
+    reference_temperature_K : array_like
+        T0 [K], > 0: the temperature the scaled quantity was given at.
+    reference_gap_eV : array_like
+        Band gap at T0 [eV].
+
+    Returns
+    -------
+    ndarray
+        (T/T0)^(3/2) exp(Eg0/(2 k T0) - Eg/(2 k T)), broadcast shape.
+
+    Notes
+    -----
+    n_i = sqrt(Nc Nv) exp(-Eg / 2kT) with Nc, Nv proportional to T^(3/2) at fixed effective
+    masses, so n_i is proportional to T^(3/2) exp(-Eg / 2kT). The depletion-region
+    recombination current J02 is proportional to n_i (Sah-Noyce-Shockley), the diffusion
+    current J01 to n_i^2.
+
+    References
+    ----------
+    S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., Wiley (2007), ch. 1
+    (intrinsic carrier density); C.-T. Sah, R. N. Noyce, W. Shockley, Proc. IRE 45 (1957) 1228.
+    """
+    t = np.asarray(temperature_K, dtype=float)
+    t0 = np.asarray(reference_temperature_K, dtype=float)
+    exponent = (np.asarray(reference_gap_eV, dtype=float) / (2 * BOLTZMANN_EV_K * t0)
+                - np.asarray(gap_eV, dtype=float) / (2 * BOLTZMANN_EV_K * t))
+    return (t / t0) ** 1.5 * np.exp(exponent)
 
 
 def _breakdown_multiplier(v, breakdown_V, factor, exponent):

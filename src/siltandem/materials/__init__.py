@@ -13,6 +13,8 @@ from siltandem.materials.library import (
     describe_library,
     list_materials,
     load_material,
+    material_identity,
 )
 
-__all__ = ["Material", "MaterialError", "describe_library", "list_materials", "load_material"]
+__all__ = ["Material", "MaterialError", "describe_library", "list_materials", "load_material",
+           "material_identity"]

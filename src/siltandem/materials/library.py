@@ -404,6 +404,20 @@ def load_material(name, composition=None):
     return _build(family, x)
 
 
+@functools.lru_cache(maxsize=512)
+def material_identity(name, composition=None):
+    """What a material is, however it is spelled: (library name, composition or None).
+
+    ``material_identity("Ga0.51In0.49P") == material_identity("GaInP", 0.51)``, and an alias
+    or another case (``"silicon"``, ``"si"``) is the same as ``"Si"``. The composition is
+    rounded to 1e-9 so that a fraction computed as 1 - x compares equal to one written out.
+    Raises MaterialError as :func:`load_material` does.
+    """
+    material = load_material(name, composition)
+    x = material.composition
+    return material.family, None if x is None else round(float(x), 9)
+
+
 # ------------------------------------------------------------------------------------------- assembly
 def _binary_valleys(file_name, data):
     valleys = []

@@ -12,6 +12,7 @@ import functools
 import numpy as np
 
 from ..errors import StackError
+from ..materials import material_identity
 from ..parallel import run_chunks
 from ..placements_spec import Placement, with_placement
 
@@ -49,7 +50,8 @@ def auto_candidates(stack):
         }
         seen = set()
         for label, (a, b) in versions.items():
-            key = (a.material, a.composition, b.material, b.composition)
+            key = (material_identity(a.material, a.composition),
+                   material_identity(b.material, b.composition))
             if key in seen:
                 continue
             seen.add(key)

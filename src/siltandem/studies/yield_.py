@@ -26,7 +26,8 @@ azimuth), every hour with light gets:
    default): King et al., Sandia report SAND2004-3535 (2004).
 
 Then the stack is solved for all hours at once: hours are the batch axis, each with its own
-photocurrents and temperature (J01 = J0,rad(Eg, T)/ERE follows the temperature). A subcell's gap
+photocurrents and temperature (J01 = J0,rad(Eg, T)/ERE and J02, proportional to n_i, follow the
+temperature). A subcell's gap
 stays as the file gives it unless the subcell is named in ``gap_materials``: its gap then shifts
 with the cell temperature as the library material's gap does (Varshni), by
 Eg(T) = gap_eV + Eg_material(T) - Eg_material(T_file), T_file the stack's ``temperature_K``.
@@ -36,7 +37,6 @@ its own maximum power point (four-terminal, no other element); the annual loss t
 mismatch is the four-terminal energy minus the two-terminal energy.
 """
 from dataclasses import dataclass, replace
-import json
 from pathlib import Path
 import warnings
 
@@ -45,7 +45,7 @@ import numpy as np
 from .. import units
 from ..compile import compile_stack
 from ..errors import StackError
-from ..illuminate import illuminate
+from ..illuminate import check_eqe_current, illuminate
 from ..laws.optics import photon_flux, step_absorber_photocurrents
 from ..laws.spectral import (
     quantum_efficiency_photocurrent,
@@ -55,6 +55,7 @@ from ..laws.spectral import (
 )
 from ..solve import solve_string
 from ..spectra import get_spectrum
+from ..text import excerpt
 
 #: SPECTRL2's atmosphere where the weather file gives nothing: the ASTM G173-03 atmosphere
 #: (C. A. Gueymard, D. Myers, K. Emery, Solar Energy 73 (2002) 443; values from memory):
@@ -74,6 +75,21 @@ TYPICAL_YEAR = 1990
 STANDARD_SPECTRUM = "am1.5g"
 STANDARD_TEMPERATURE_K = 298.15
 HOURS_PER_STEP = 1.0
+#: hourly rows of one typical year (TMY3: 365 days of 24 hours)
+HOURS_PER_YEAR = 8760
+#: plausible station metadata: degrees north and east, metres above sea level (the Dead Sea
+#: shore is about -430 m, the highest stations below 9000 m)
+STATION_RANGES = {"latitude": (-90.0, 90.0, "deg"), "longitude": (-180.0, 180.0, "deg"),
+                  "altitude": (-500.0, 9000.0, "m")}
+#: plausible hourly values (after pvlib's variable mapping), with room for cloud enhancement
+#: above the solar constant (1361 W/m2; G. Kopp, J. L. Lean, Geophys. Res. Lett. 38 (2011)
+#: L01706) and for the recorded extremes of air temperature (-89.2 and 56.7 degC, World
+#: Meteorological Organization archive); missing values (NaN) are handled after this check
+WEATHER_RANGES = {"ghi": (-10.0, 2000.0, "W/m2", "global horizontal irradiance"),
+                  "dni": (-10.0, 2000.0, "W/m2", "direct normal irradiance"),
+                  "dhi": (-10.0, 2000.0, "W/m2", "diffuse horizontal irradiance"),
+                  "temp_air": (-100.0, 70.0, "degC", "air temperature"),
+                  "wind_speed": (0.0, 120.0, "m/s", "wind speed")}
 
 CAUTION = ("Results are models, not measurements: the hourly spectra are clear-sky shapes scaled "
            "to measured irradiance. Electrical and optical work on cells and modules is "
@@ -113,6 +129,25 @@ def demo_weather_path():
     return Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
 
 
+def _check_whole_year(index, path):
+    """Refuse a weather file that does not cover one year hour by hour: annual energy needs
+    every hour of a typical year once (8760 hourly rows, TMY3 convention; W. Marion, K. Urban,
+    NREL/TP-463-7668, 1995)."""
+    repeated = int(index.duplicated().sum())
+    if repeated:
+        first = index[index.duplicated()][0]
+        raise StackError(f"{repeated} repeated hour(s) (first {first:%d %b %H:%M}): each hour "
+                         "would be counted more than once", file=path, where="--weather",
+                         fix="give each hour of the year once (8760 hourly rows)")
+    if len(index) < HOURS_PER_YEAR:
+        span = (f"{index[0]:%d %b %H:%M} to {index[-1]:%d %b %H:%M}" if len(index)
+                else "no hours")
+        raise StackError(f"the file covers {len(index)} of the {HOURS_PER_YEAR} hours of a year "
+                         f"({span}): a partial year is not an annual energy", file=path,
+                         where="--weather",
+                         fix="give a whole typical year (8760 hourly rows), e.g. --weather demo")
+
+
 def read_weather(path):
     """Read a TMY3-style weather file with ``pvlib.iotools.read_tmy3`` (map_variables=True).
 
@@ -134,8 +169,10 @@ def read_weather(path):
             data, meta = pvlib.iotools.read_tmy3(str(path), coerce_year=TYPICAL_YEAR,
                                                  map_variables=True)
     except Exception as exc:  # pvlib/pandas raise several types for files that are not TMY3
-        raise StackError(f"cannot read it as a TMY3 file ({exc.__class__.__name__}: {exc})",
-                         file=path, where="--weather", fix=fix) from None
+        raise StackError(f"cannot read it as a TMY3 file ({exc.__class__.__name__}: "
+                         f"{excerpt(str(exc), 120)})", file=path, where="--weather",
+                         fix=fix) from None
+    _check_whole_year(data.index, path)
     needed = ["ghi", "dni", "dhi", "temp_air", "wind_speed", "pressure"]
     missing = [c for c in needed if c not in data.columns]
     if missing:
@@ -145,6 +182,22 @@ def read_weather(path):
         if not np.isfinite(float(meta.get(key, np.nan))):
             raise StackError(f"the station's {key} is missing", file=path, where="line 1",
                              fix=fix)
+    for key, (low, high, unit) in STATION_RANGES.items():
+        value = float(meta.get(key, 0.0))
+        if not low <= value <= high:
+            raise StackError(f"the station's {key} {value:g} {unit} is outside [{low:g}, "
+                             f"{high:g}] {unit}", file=path, where="line 1",
+                             fix="check the station line of the weather file (TMY3: id, name, "
+                                 "state, time zone, latitude, longitude, altitude)")
+    for column, (low, high, unit, what) in WEATHER_RANGES.items():
+        values = data[column].astype(float).to_numpy()
+        outside = np.flatnonzero((values < low) | (values > high))
+        if outside.size:
+            first = data.index[outside[0]]
+            raise StackError(f"{outside.size} hour(s) with {what} outside [{low:g}, {high:g}] "
+                             f"{unit} (first {first:%d %b %H:%M}: {values[outside[0]]:g} {unit})",
+                             file=path, where=f"column {column}",
+                             fix=f"give {what} in {unit}; fill or correct those hours")
     frame = data[needed].astype(float).copy()
     for column, fill in (("precipitable_water", PRECIPITABLE_WATER_CM), ("albedo", ALBEDO)):
         values = data[column].astype(float) if column in data.columns else np.nan
@@ -416,11 +469,13 @@ def read_eqe_csv(path, *, where=None):
     try:
         frame = pd.read_csv(path, comment="#")
     except Exception as exc:  # pandas raises several types for unreadable files
-        raise StackError(f"cannot read it as CSV ({exc.__class__.__name__}: {exc})", file=path,
-                         where=where, fix=fix) from None
+        raise StackError(f"cannot read it as CSV ({exc.__class__.__name__}: "
+                         f"{excerpt(str(exc), 120)})", file=path, where=where, fix=fix) from None
     frame.columns = [str(c).strip() for c in frame.columns]
     if "wavelength_nm" not in frame.columns or "eqe" not in frame.columns:
-        raise StackError(f"columns {list(frame.columns)}: need 'wavelength_nm' and 'eqe'",
+        shown = ", ".join(excerpt(c, 30) for c in frame.columns[:6]) + (
+            f" and {len(frame.columns) - 6} more" if len(frame.columns) > 6 else "")
+        raise StackError(f"columns [{shown}]: need 'wavelength_nm' and 'eqe'",
                          file=path, where="header", fix=fix)
     lam = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
     eqe = pd.to_numeric(frame["eqe"], errors="coerce").to_numpy(dtype=float)
@@ -430,6 +485,12 @@ def read_eqe_csv(path, *, where=None):
     if np.any(np.diff(lam) <= 0) or lam[0] <= 0:
         raise StackError("wavelengths are not positive and increasing", file=path, where=where,
                          fix="sort the rows by wavelength and remove repeated wavelengths")
+    from ..spectra import MICROMETRE_HINT_NM
+
+    if lam[-1] < MICROMETRE_HINT_NM:
+        raise StackError(f"the wavelengths run from {lam[0]:g} to {lam[-1]:g}: below "
+                         f"{MICROMETRE_HINT_NM:g} they look like micrometres, not nm", file=path,
+                         where=where, fix="give wavelengths in nm (multiply micrometres by 1000)")
     if np.any(eqe < 0) or np.any(eqe > 1):
         hint = " (it looks like percent: divide by 100)" if eqe.max() > 1.5 else ""
         raise StackError(f"eqe values outside [0, 1]{hint}", file=path, where=where,
@@ -492,9 +553,9 @@ class YieldResult:
     light: HourlyLight
 
     def to_json(self, indent=2):
-        from ..result import _clean
+        from ..result import json_text
 
-        return json.dumps(_clean(self.summary), indent=indent, allow_nan=False) + "\n"
+        return json_text(self.summary, indent)
 
 
 def _power(solution):
@@ -572,10 +633,13 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
         if cell.gap_material is not None and cell.name not in laws:
             laws[cell.name] = _gap_laws({cell.name: cell.gap_material}, names)[cell.name]
     tables = _eqe_tables(eqe, names)
+    eqe_files = {name: (str(value) if isinstance(value, (str, Path)) else None, f"--eqe {name}")
+                 for name, value in (eqe or {}).items()}
     # a subcell whose stack file gives its measured EQE uses it unless --eqe says otherwise
     for cell in subcells:
         if cell.eqe_table is not None and cell.name not in tables:
             tables[cell.name] = cell.eqe_table
+            eqe_files[cell.name] = (cell.eqe_file, None)
     frame = light.frame
     hours = len(frame)
     if hours == 0:
@@ -634,6 +698,10 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
             reference_currents[k] = quantum_efficiency_photocurrent(
                 reference.photon_flux, wavelength_nm=reference.wavelength_nm,
                 eqe_wavelength_nm=lam_q, eqe=q)
+            path, where = eqe_files[name]
+            check_eqe_current(name, path, reference_currents[k], file_gaps[k],
+                              reference.wavelength_nm, reference.photon_flux,
+                              light=f"{STANDARD_SPECTRUM} (the yield's reference)", where=where)
     poa = frame["poa_W_m2"].to_numpy()
     field_irradiance = np.trapezoid(light.irradiance_W_m2_nm, light.wavelength_nm, axis=1)
     mismatch = {name: spectral_mismatch_factor(
@@ -647,6 +715,17 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
         hourly_cells = {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
                                       j02_A_m2=np.asarray(dark[name][1], dtype=float))
                         for name, cell in hourly_cells.items()}
+    else:
+        # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
+        # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)
+        from ..laws.diode import intrinsic_density_ratio
+
+        hourly_cells = {cell.name: replace(hourly_cells[cell.name], j02_A_m2=cell.j02_A_m2
+                                           * intrinsic_density_ratio(
+                                               temperature, gap_eV=gap,
+                                               reference_temperature_K=reference_K,
+                                               reference_gap_eV=cell.gap_eV))
+                        for cell, gap in zip(subcells, gaps)}
 
     def lit(element):
         return hourly_cells.get(element.name, element)
