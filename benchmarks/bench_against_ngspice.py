@@ -34,10 +34,10 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 import spice  # noqa: E402  (the tests' ngspice harness)
 
-from siltandem.elements import Resistor, Subcell, TunnelJunction, batch  # noqa: E402
+from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch  # noqa: E402
 from siltandem.laws.optics import step_absorber_photocurrents  # noqa: E402
-from siltandem.solve import solve_string  # noqa: E402
-from siltandem.spectra import get_spectrum  # noqa: E402
+from siltandem.solve.series import solve_string  # noqa: E402
+from siltandem.materials.spectra import get_spectrum  # noqa: E402
 
 REPEATS = 7
 #: our solve takes about a millisecond: many more runs for a steady median on a shared machine
@@ -79,7 +79,7 @@ def where_time_goes(build):
     """Our solve split into its string evaluations (each inverts every element once at a batch
     of points) and the rest (element set-up: tables, junction extrema; pilot inverses; power
     balance): medians over REPEATS runs."""
-    from siltandem import solve as solve_module
+    from siltandem.solve import series as solve_module
 
     original = solve_module._String.evaluate
     record = []

@@ -17,7 +17,7 @@ import tempfile
 import numpy as np
 import pandas as pd
 
-from siltandem.parallel import default_chunk_rows, run_chunks
+from siltandem.studies.runner import default_chunk_rows, run_chunks
 
 SMALL, LARGE = 100, 1000      # chunk counts for the overhead slope (one design per chunk)
 REPEATS = 3

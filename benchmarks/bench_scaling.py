@@ -172,8 +172,8 @@ FAMILIES = {
 
 def main_job(path):
     """What `siltandem run FILE` computes: load, compile, illuminate, solve, summary."""
-    from siltandem.result import run_stack
-    from siltandem.stack import load_stack
+    from siltandem.result.driver import run_stack
+    from siltandem.stack.load import load_stack
 
     return run_stack(load_stack(path))
 

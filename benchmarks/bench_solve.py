@@ -8,12 +8,12 @@ import numpy as np
 
 from timing import median_time
 
-from siltandem.elements import Subcell, batch
+from siltandem.circuit.elements import Subcell, batch
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result import run_stack
-from siltandem.solve import solve_string
-from siltandem.spectra import get_spectrum
-from siltandem.stack import load_stack
+from siltandem.result.driver import run_stack
+from siltandem.solve.series import solve_string
+from siltandem.materials.spectra import get_spectrum
+from siltandem.stack.load import load_stack
 
 
 

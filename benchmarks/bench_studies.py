@@ -24,8 +24,8 @@ from timing import median_time
 from siltandem.constants import thermal_voltage_V
 from siltandem.laws.optics import step_absorber_photocurrents
 from siltandem.laws.radiative import radiative_saturation_current
-from siltandem.spectra import get_spectrum
-from siltandem.stack import load_stack
+from siltandem.materials.spectra import get_spectrum
+from siltandem.stack.load import load_stack
 from siltandem.studies.maps import design_map
 from siltandem.studies.sweep import parse_vary, solve_designs
 
@@ -82,7 +82,7 @@ def main():
     if "--million" in sys.argv:
         script = textwrap.dedent(f"""
             import resource, time
-            from siltandem.stack import load_stack
+            from siltandem.stack.load import load_stack
             from siltandem.studies.maps import design_map
             from siltandem.studies.sweep import parse_vary
             stack = load_stack({str(folder / 'dual.toml')!r})

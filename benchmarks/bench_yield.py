@@ -23,12 +23,12 @@ import warnings
 
 import numpy as np
 
-from siltandem.compile import compile_stack
-from siltandem.elements import take_rows
+from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.elements import take_rows
 from siltandem.laws.spectral import step_absorber_photocurrents_rows
-from siltandem.solve import solve_string
-from siltandem.stack import load_stack
-from siltandem.studies import yield_ as Y
+from siltandem.solve.series import solve_string
+from siltandem.stack.load import load_stack
+from siltandem.studies import yield_year as Y
 
 ROOT = Path(__file__).resolve().parents[1]
 RADIATIVE_TRIPLE = """[conditions]

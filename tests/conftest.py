@@ -2,9 +2,9 @@
 import numpy as np
 import pytest
 
-from siltandem.elements import Subcell, batch
+from siltandem.circuit.elements import Subcell, batch
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.spectra import get_spectrum
+from siltandem.materials.spectra import get_spectrum
 
 
 @pytest.fixture(scope="session")

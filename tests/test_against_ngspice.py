@@ -33,8 +33,8 @@ import pytest
 import spice
 from conftest import radiative_cells
 from siltandem.constants import thermal_voltage_V
-from siltandem.elements import Resistor, Subcell, batch
-from siltandem.solve import solve_string
+from siltandem.circuit.elements import Resistor, Subcell, batch
+from siltandem.solve.series import solve_string
 
 #: 1 mV: the agreement of voltage at equal current asked for (issue 5)
 VOLTAGE_TOL_V = 1e-3

@@ -6,7 +6,7 @@ from pvlib import pvsystem, singlediode
 
 from siltandem.constants import thermal_voltage_V
 from siltandem.laws import diode
-from siltandem.numerics import bracketed_root
+from siltandem.numerics.roots import bracketed_root
 
 T = 300.0
 VT = thermal_voltage_V(T)

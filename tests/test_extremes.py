@@ -32,10 +32,10 @@ import re
 import numpy as np
 import pytest
 
-from siltandem.elements import Subcell
-from siltandem.result import run_stack
-from siltandem.solve import solve_string
-from siltandem.stack import parse_stack
+from siltandem.circuit.elements import Subcell
+from siltandem.result.driver import run_stack
+from siltandem.solve.series import solve_string
+from siltandem.stack.load import parse_stack
 
 HEADLINE = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2",
             "mpp_W_m2", "power_balance_error_W_m2"]

@@ -16,10 +16,10 @@ import numpy as np
 import pytest
 import scipy.constants as sc
 
-from siltandem import cli
+from siltandem.cli import main as cli
 from siltandem.errors import StackError
-from siltandem.result import run_stack
-from siltandem.stack import load_stack, parse_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import load_stack, parse_stack
 
 ROOT = Path(__file__).resolve().parents[1]
 STACKS = ROOT / "stacks"
@@ -271,7 +271,7 @@ def test_a_half_year_of_weather_is_refused_with_the_hours_it_covers(tmp_path, ca
 
 
 def test_repeated_hours_of_weather_are_refused(tmp_path):
-    from siltandem.studies.yield_ import read_weather
+    from siltandem.studies.yield_year import read_weather
 
     lines = _weather_lines()
     year = "".join(lines).rstrip("\n") + "\n"
@@ -299,7 +299,7 @@ def test_implausible_weather_is_refused(where, change, message, tmp_path):
     """A latitude of 999 used to surface as "--tilt 999 is outside [0, 90]" (the tilt defaults
     to the latitude); a GHI of 1e30 W/m2 or an air temperature of 1e30 degC gave an annual
     energy of 0.00 kWh/m2 without a word."""
-    from siltandem.studies.yield_ import read_weather
+    from siltandem.studies.yield_year import read_weather
 
     lines = _weather_lines()
     if where == "station":
@@ -380,7 +380,7 @@ def test_proc_self_environ_as_a_spectrum_prints_no_environment(tmp_path):
     stack = _write(tmp_path, "stack.toml", (STACKS / "demo_dual.toml").read_text().replace(
         'spectrum = "am1.5g"', 'spectrum = "/proc/self/environ"'))
     env = {"AAAA_PADDING": "p" * 80, **os.environ, "ZZZZ_SIL_SECRET": "do-not-print-me"}
-    done = subprocess.run([sys.executable, "-m", "siltandem.cli", "run", str(stack)],
+    done = subprocess.run([sys.executable, "-m", "siltandem.cli.main", "run", str(stack)],
                           capture_output=True, text=True, env=env, timeout=300)
     assert done.returncode == 2 and done.stdout == ""
     assert "Traceback" not in done.stderr

@@ -24,11 +24,12 @@ import stat
 import numpy as np
 import pytest
 
-from siltandem import cli, options
+from siltandem.cli import main as cli
+from siltandem.stack import options
 from siltandem.errors import StackError
 from siltandem.files import check_outputs, write_atomic
-from siltandem.result import concentration_series, run_stack
-from siltandem.stack import load_stack
+from siltandem.result.driver import concentration_series, run_stack
+from siltandem.stack.load import load_stack
 from siltandem.studies.losses import loss_waterfall
 from siltandem.studies.maps import design_map
 from siltandem.studies.matching import match_currents
@@ -58,7 +59,7 @@ def folder(tmp_path, monkeypatch):
     text = (tmp_path / DUAL).read_text()
     (tmp_path / SPECTRUM_STACK).write_text(text.replace('spectrum = "am1.5g"',
                                                         'spectrum = "spec.csv"'))
-    from siltandem.spectra import get_spectrum
+    from siltandem.materials.spectra import get_spectrum
 
     light = get_spectrum("am1.5g")
     rows = "\n".join(f"{w:g},{e:.8g}" for w, e in zip(light.wavelength_nm,
@@ -123,7 +124,7 @@ def test_an_output_that_is_an_input_is_refused(folder, capsys, argv, pattern):
 
 
 def test_the_weather_file_is_an_input(folder, capsys):
-    from siltandem.studies.yield_ import demo_weather_path
+    from siltandem.studies.yield_year import demo_weather_path
 
     shutil.copy(demo_weather_path(), folder / "weather.csv")
     refused(capsys, ["yield", DUAL, "--weather", "weather.csv", "--csv", "weather.csv"],
@@ -508,7 +509,7 @@ def test_every_study_entry_checks_its_arguments(dual, folder):
         concentration_series(dual, [1.0, 1e6])
     with pytest.raises(StackError, match=SUNS.format("-1")):
         rank_placements(load_stack(folder / PLACES), suns=-1, progress=False)
-    from siltandem.studies.yield_ import annual_yield
+    from siltandem.studies.yield_year import annual_yield
 
     with pytest.raises(StackError, match=r"key 'tilt_deg' is nan"):
         annual_yield(dual, "demo", tilt_deg=math.nan)

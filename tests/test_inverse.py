@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from siltandem.elements import Subcell, TunnelJunction, batch
-from siltandem.inverse import LawTable, polish_root
+from siltandem.circuit.elements import Subcell, TunnelJunction, batch
+from siltandem.numerics.tables import LawTable, polish_root
 from siltandem.laws import diode
-from siltandem.numerics import safeguarded_newton
+from siltandem.numerics.roots import safeguarded_newton
 
 T = 300.0
 
@@ -158,7 +158,7 @@ def test_polish_root_is_independent_of_the_batch():
 def test_table_flags_currents_outside_and_brackets_inside():
     # a decreasing law sampled on 11 points: inside its range the compiled inverse finds the
     # root of the law itself (u = -J, exact to rounding), outside it flags the entry
-    from siltandem import kernels
+    from siltandem.laws import compiled as kernels
 
     u = np.linspace(0.0, 1.0, 11)[None, :]
     # J = -G u with G = 1: a shunt alone (the subcell law with no photocurrent and no diodes)
@@ -190,7 +190,7 @@ def test_safeguarded_newton_keeps_a_root_met_exactly():
 def test_batches_too_large_for_tables_use_the_root_find_and_agree():
     # beyond TABLE_MAX_ENTRIES a batch keeps the laws' own root finds (memory O(designs)); both
     # routes give the same root to the inverse's conditioning
-    from siltandem import elements
+    from siltandem.circuit import elements
 
     rows = elements.TABLE_MAX_ENTRIES // (elements.TABLE_FORWARD_POINTS
                                            + elements.TABLE_REVERSE_POINTS) + 10

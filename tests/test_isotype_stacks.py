@@ -13,8 +13,8 @@ import pytest
 
 from siltandem.constants import BOLTZMANN_EV_K
 from siltandem.errors import StackError
-from siltandem.result import run_stack
-from siltandem.stack import load_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import load_stack
 from test_main_job import cli
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -133,7 +133,7 @@ def test_interface_command(tmp_path):
 
 
 def test_band_diagram_edges_follow_the_alignment():
-    from siltandem.interfaces import band_diagram
+    from siltandem.studies.interface import band_diagram
 
     result = run_stack(load_stack(DEMO), curve_points=50)
     element = result.circuit.element("electron interface")

@@ -13,11 +13,12 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from siltandem import kernels
+from siltandem.laws import compiled as kernels
 from siltandem.constants import thermal_voltage_V
-from siltandem.elements import Subcell, TunnelJunction, batch
-from siltandem.inverse import LawTable
-from siltandem.laws import diode, esaki
+from siltandem.circuit.elements import Subcell, TunnelJunction, batch
+from siltandem.numerics.tables import LawTable
+from siltandem.laws import diode
+from siltandem.laws import esaki
 
 T = 300.0
 VT = float(thermal_voltage_V(T))
@@ -193,7 +194,7 @@ def test_the_compiled_kernels_are_cached_for_the_next_run(am15g):
     # numba's on-disk cache (cache=True): after one solve with tabled elements the fused pass
     # is in the cache, so the next process starts without compiling (the command line says
     # when it must compile first)
-    from siltandem.solve import solve_string
+    from siltandem.solve.series import solve_string
 
     cells = [Subcell("cell", batch(1.42), ere=batch(1e-2), j02_A_m2=batch(1e-7),
                      shunt_S_m2=batch(0.01)).with_photocurrent(batch(300.0)),

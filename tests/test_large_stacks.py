@@ -13,15 +13,16 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from siltandem import penalties, result as result_module
-from siltandem.compile import compile_stack
-from siltandem.elements import Resistor, Subcell, batch
-from siltandem.illuminate import illuminate
-from siltandem.penalties import removal_powers
-from siltandem.result import run_stack
-from siltandem.solve import solve_string
-from siltandem.spectra import get_spectrum
-from siltandem.stack import load_stack
+from siltandem.result import penalties
+from siltandem.result import driver as result_module
+from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.elements import Resistor, Subcell, batch
+from siltandem.optics.illuminate import illuminate
+from siltandem.result.penalties import removal_powers
+from siltandem.result.driver import run_stack
+from siltandem.solve.series import solve_string
+from siltandem.materials.spectra import get_spectrum
+from siltandem.stack.load import load_stack
 from test_photocurrents_large import per_wavelength
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
@@ -90,7 +91,7 @@ def test_removal_powers_equal_one_by_one_solves_on_larger_stacks(tmp_path, famil
 
 def test_interleaved_groups_of_resistors_and_junctions(am15g):
     # resistors and tunnel junctions alternate between subcells; one group each
-    from siltandem.elements import TunnelJunction
+    from siltandem.circuit.elements import TunnelJunction
     from siltandem.laws.optics import step_absorber_photocurrents
 
     gaps = [1.9, 1.4, 1.1]

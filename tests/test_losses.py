@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from siltandem.result import run_stack
-from siltandem.stack import load_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import load_stack
 from siltandem.studies.losses import loss_waterfall
 from test_main_job import cli
 

@@ -14,8 +14,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from siltandem.result import run_stack
-from siltandem.stack import load_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import load_stack
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "stacks" / "demo_dual.toml"
@@ -23,7 +23,7 @@ DEMO = ROOT / "stacks" / "demo_dual.toml"
 
 def cli(*args, cwd=None):
     env = dict(os.environ, MPLBACKEND="Agg")
-    return subprocess.run([sys.executable, "-m", "siltandem.cli", *map(str, args)],
+    return subprocess.run([sys.executable, "-m", "siltandem.cli.main", *map(str, args)],
                           capture_output=True, text=True, cwd=cwd, env=env, timeout=300)
 
 

@@ -20,10 +20,10 @@ import tomllib
 
 import pytest
 
-from siltandem import cli
+from siltandem.cli import main as cli
 from siltandem.errors import StackError
-from siltandem.result import run_stack
-from siltandem.stack import load_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import load_stack
 
 FOLDER = Path(__file__).resolve().parent / "malformed"
 EXPECTED = tomllib.loads((FOLDER / "expected.toml").read_text(encoding="utf-8"))
@@ -120,7 +120,7 @@ SUBPROCESS_FILES = ["binary_garbage.toml", "syntax_duplicate_key.toml",
 
 
 def test_command_line_in_a_fresh_interpreter():
-    runs = [subprocess.Popen([sys.executable, "-m", "siltandem.cli", "run", str(FOLDER / name)],
+    runs = [subprocess.Popen([sys.executable, "-m", "siltandem.cli.main", "run", str(FOLDER / name)],
                              stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
             for name in SUBPROCESS_FILES]
     for name, run in zip(SUBPROCESS_FILES, runs):

@@ -14,7 +14,7 @@ import re
 
 import pytest
 
-from siltandem import cli
+from siltandem.cli import main as cli
 
 ROOT = Path(__file__).resolve().parents[1]
 STACKS = ROOT / "stacks"

@@ -24,9 +24,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from siltandem import parallel
+from siltandem.studies import runner as parallel
 from siltandem.errors import StackError
-from siltandem.parallel import ChunkFailedError, WorkerLostWarning, run_chunks, sweep_key
+from siltandem.studies.runner import ChunkFailedError, WorkerLostWarning, run_chunks, sweep_key
 
 TESTS = Path(__file__).resolve().parent
 N_ROWS, CHUNK_ROWS = 2400, 300          # 8 chunks
@@ -302,7 +302,7 @@ import sys
 sys.path.insert(0, {tests!r})
 import functools
 from test_parallel import counted, design_table
-from siltandem.parallel import run_chunks
+from siltandem.studies.runner import run_chunks
 if __name__ == "__main__":
     study = functools.partial(counted, marker_dir={markers!r}, delay_s=0.1)
     run_chunks(study, design_table(), chunk_rows={chunk_rows}, output={out!r}, progress=False,
@@ -356,7 +356,7 @@ def test_parent_killed_by_sigkill_resumes_exactly_once(tmp_path, markers, worker
 STALL_BEFORE_RENAME = """
 import os, time
 os.replace = lambda *args, **kwargs: time.sleep(600)   # the kill comes before any rename
-from siltandem.parallel import run_chunks
+from siltandem.studies.runner import run_chunks
 import sys
 sys.path.insert(0, {tests!r})
 from test_parallel import formula, design_table

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 from siltandem.errors import StackError
-from siltandem.result import run_stack
-from siltandem.stack import load_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import load_stack
 from siltandem.studies.placements import auto_candidates, rank_placements
 from test_main_job import cli
 
@@ -31,7 +31,7 @@ def test_ranking_finds_the_costly_interface():
     assert best["interface_penalty_pct_abs"] < 0.2
     assert np.all(np.diff(table["efficiency_pct"].to_numpy()) <= 0)
     # each candidate's row equals the main job on the stack with that placement
-    from siltandem.placements_spec import with_placement
+    from siltandem.stack.placements import with_placement
 
     stack = load_stack(DEMO)
     candidate = next(p for p in stack.extra["placements"] if p.name == "in silicon")
@@ -84,9 +84,9 @@ def test_placements_command(tmp_path):
 
 
 def test_placements_by_energy_rank_by_the_year():
-    from siltandem.placements_spec import with_placement
+    from siltandem.stack.placements import with_placement
     from siltandem.studies.placements import energy_of_candidates
-    from siltandem.studies.yield_ import annual_yield, read_weather
+    from siltandem.studies.yield_year import annual_yield, read_weather
 
     stack = load_stack(DEMO)
     weather = read_weather("demo")

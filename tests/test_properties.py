@@ -46,13 +46,13 @@ import scipy.constants as sc
 from hypothesis import HealthCheck, event, given, settings, strategies as st
 
 import pvlib
-from siltandem.elements import Subcell, batch
+from siltandem.circuit.elements import Subcell, batch
 from siltandem.errors import StackError
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result import run_stack
-from siltandem.solve import solve_string
-from siltandem.spectra import get_spectrum
-from siltandem.stack import (CONDITION_KEYS, ELEMENT_SCHEMA, ISOTYPE_NUMBERS, ISOTYPE_TEXTS,
+from siltandem.result.driver import run_stack
+from siltandem.solve.series import solve_string
+from siltandem.materials.spectra import get_spectrum
+from siltandem.stack.load import (CONDITION_KEYS, ELEMENT_SCHEMA, ISOTYPE_NUMBERS, ISOTYPE_TEXTS,
                              load_stack, parse_stack)
 
 

@@ -14,9 +14,9 @@ import pandas as pd
 import pytest
 from pvlib.spectrum import get_reference_spectra
 
-from siltandem import parallel
+from siltandem.studies import runner as parallel
 from siltandem.constants import HC_EV_NM
-from siltandem.stack import load_stack
+from siltandem.stack.load import load_stack
 from siltandem.studies import sweep
 from siltandem.studies.maps import design_map
 from siltandem.studies.matching import match_currents

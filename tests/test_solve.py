@@ -6,8 +6,8 @@ from pvlib import pvsystem
 
 from conftest import radiative_cells
 from siltandem.constants import thermal_voltage_V
-from siltandem.elements import Resistor, Subcell, batch
-from siltandem.solve import solve_string
+from siltandem.circuit.elements import Resistor, Subcell, batch
+from siltandem.solve.series import solve_string
 
 
 def efficiency_pct(gaps, spectrum, temperature_K=300.0, four_terminal=False):
@@ -205,8 +205,8 @@ def test_dim_light_unshunted_middle_cell_still_has_an_mpp():
     # MPP search must not take that end for a root (demo triple, invented values, 1 W/m2 light)
     from pathlib import Path
 
-    from siltandem.compile import compile_stack
-    from siltandem.stack import load_stack
+    from siltandem.circuit.from_elements import compile_stack
+    from siltandem.stack.load import load_stack
 
     circuit = compile_stack(load_stack(Path(__file__).resolve().parents[1] / "stacks"
                                        / "demo_triple.toml"))

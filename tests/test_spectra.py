@@ -4,7 +4,7 @@ import pytest
 
 from siltandem.errors import StackError
 from siltandem.laws.optics import cumulative_below, step_absorber_photocurrents
-from siltandem.spectra import get_spectrum
+from siltandem.materials.spectra import get_spectrum
 
 
 @pytest.mark.parametrize("name, published", [

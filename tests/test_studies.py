@@ -8,7 +8,7 @@ from pvlib.spectrum import get_reference_spectra
 from scipy import constants
 
 from siltandem.errors import StackError
-from siltandem.stack import load_stack
+from siltandem.stack.load import load_stack
 from siltandem.studies.maps import design_map, optimum
 from siltandem.studies.matching import match_currents
 from siltandem.studies.sweep import design_table, parse_vary, solve_designs

@@ -3,8 +3,8 @@ import pytest
 
 from siltandem.constants import BOLTZMANN_EV_K
 from siltandem.materials import load_material
-from siltandem.result import run_stack
-from siltandem.stack import parse_stack
+from siltandem.result.driver import run_stack
+from siltandem.stack.load import parse_stack
 
 
 def cell_stack(material, ere, temperature_K):

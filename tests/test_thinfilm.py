@@ -18,7 +18,7 @@ from siltandem.laws.thinfilm import (LightTrappedWarning, ThinFilmInputError, co
                                      extinction_coefficient, front_reflectance, generation_profile,
                                      layer_absorption, photon_current_A_m2)
 from siltandem.materials import load_material
-from siltandem.spectra import get_spectrum
+from siltandem.materials.spectra import get_spectrum
 from siltandem.units import ma_cm2
 
 

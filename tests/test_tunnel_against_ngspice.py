@@ -93,10 +93,10 @@ import pytest
 
 import spice
 from conftest import radiative_cells
-from siltandem.elements import Resistor, TunnelJunction, batch
+from siltandem.circuit.elements import Resistor, TunnelJunction, batch
 from siltandem.laws import esaki
-from siltandem.solve import solve_string
-from siltandem.trace import voltage_sweep
+from siltandem.solve.series import solve_string
+from siltandem.solve.trace import voltage_sweep
 from test_against_ngspice import (compare_curves, compare_operating_points, require_ngspice,
                                   with_losses)
 

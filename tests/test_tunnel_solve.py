@@ -6,9 +6,9 @@ from pvlib import pvsystem
 
 from conftest import radiative_cells
 from siltandem.constants import thermal_voltage_V
-from siltandem.elements import Resistor, Subcell, TunnelJunction, batch
-from siltandem.solve import solve_string
-from siltandem.trace import voltage_sweep
+from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
+from siltandem.solve.series import solve_string
+from siltandem.solve.trace import voltage_sweep
 
 T = 300.0
 SHUNT_S_M2 = 0.1      # 1e5 ohm cm2
@@ -186,7 +186,7 @@ def test_a_batch_mixing_regimes_and_pilots_equals_its_designs_alone(am15g):
     together = solve_string(elements, T, curve_points=300)
     assert list(together.regime) == ["below peak", "past peak, hysteresis", "below peak"]
     assert list(together.pilot_index) == [0, 0, 1]
-    from siltandem.elements import take_rows
+    from siltandem.circuit.elements import take_rows
     for row in range(3):
         alone = solve_string([take_rows(e, np.array([row])) for e in elements], T,
                              curve_points=300)

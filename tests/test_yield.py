@@ -12,7 +12,7 @@ import pvlib
 import pytest
 from scipy import constants, integrate
 
-from siltandem.cli import main
+from siltandem.cli.main import main
 from siltandem.errors import StackError
 from siltandem.laws.optics import step_absorber_photocurrents
 from siltandem.laws.spectral import (
@@ -22,8 +22,8 @@ from siltandem.laws.spectral import (
     spectral_mismatch_factor,
     step_absorber_photocurrents_rows,
 )
-from siltandem.stack import load_stack
-from siltandem.studies import yield_ as Y
+from siltandem.stack.load import load_stack
+from siltandem.studies import yield_year as Y
 
 ROOT = Path(__file__).resolve().parents[1]
 WEATHER = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
@@ -404,8 +404,8 @@ def test_four_terminal_file(weather):
 def test_layer_stack_year(weather):
     # a layer stack's year: its optics and collection for each hour's spectrum, its dark
     # currents at each hour's temperature (ni^2 and ni scaling, Varshni gap)
-    from siltandem.layer_stage import layer_photocurrents
-    from siltandem.result import run_stack
+    from siltandem.circuit.from_layers import layer_photocurrents
+    from siltandem.result.driver import run_stack
 
     stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
     year = Y.annual_yield(stack, weather)
@@ -418,7 +418,7 @@ def test_layer_stack_year(weather):
     # the optics of the year agree with the main job's under AM1.5G (the SPECTRL2 grid is
     # coarser than the ASTM table: 1 %)
     main = run_stack(stack, curve_points=30)
-    from siltandem.spectra import get_spectrum
+    from siltandem.materials.spectra import get_spectrum
 
     reference = get_spectrum("am1.5g")
     currents = layer_photocurrents(main.circuit.model, reference.wavelength_nm,
@@ -509,10 +509,10 @@ def test_match_by_energy_ranks_by_the_year(tmp_path):
     # the energy of each swept design equals a yield year of that design run on its own
     import numpy as np
 
-    from siltandem.stack import load_stack
+    from siltandem.stack.load import load_stack
     from siltandem.studies.matching import energy_by_value, match_currents
     from siltandem.studies.sweep import _with_values, parse_vary
-    from siltandem.studies.yield_ import annual_yield, read_weather
+    from siltandem.studies.yield_year import annual_yield, read_weather
 
     path = tmp_path / "dual.toml"
     path.write_text('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\n'

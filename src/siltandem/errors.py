@@ -1,5 +1,5 @@
 """The one exception type a user meets for bad input, with the fields every message carries."""
-from .text import printable, shorten
+from siltandem.text import printable, shorten
 
 #: longest problem or place a message shows, and longest fix (a backstop: values are quoted as
 #: short excerpts where they are read, text.excerpt)

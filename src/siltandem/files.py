@@ -14,7 +14,7 @@ from pathlib import Path
 import stat
 import tempfile
 
-from .errors import StackError
+from siltandem.errors import StackError
 
 
 def _umask():
@@ -269,7 +269,7 @@ def package_inputs():
 
 def spectrum_input(name, relative_to=None):
     """(what, path) of the file a spectrum name or path makes the run read, or None."""
-    from .spectra import _catalogue
+    from siltandem.materials.spectra import _catalogue
 
     if name is None:
         return None

@@ -58,7 +58,7 @@ from typing import NamedTuple
 import numpy as np
 from scipy.special import exprel
 
-from ..constants import ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M, thermal_voltage_V
+from siltandem.constants import ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M, thermal_voltage_V
 
 __all__ = [
     "CollectionParameterError", "CollectionDomainWarning", "CollectedPhotocurrent",

@@ -22,9 +22,9 @@ J. W. Bishop, Solar Cells 25 (1988) 73 (reverse-bias breakdown term).
 import numpy as np
 from scipy.special import wrightomega
 
-from ..constants import BOLTZMANN_EV_K, thermal_voltage_V
-from ..inverse import polish_root
-from ..numerics import safeguarded_newton
+from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
+from siltandem.numerics.tables import polish_root
+from siltandem.numerics.roots import safeguarded_newton
 
 #: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
 BREAKDOWN_EXPONENT = 3.28

@@ -27,7 +27,7 @@ import numpy as np
 from numpy.polynomial.legendre import leggauss
 from scipy.optimize import elementwise
 
-from siltandem import kernels
+from siltandem.laws import compiled as kernels
 from siltandem.constants import (
     BOLTZMANN_EV_K,
     ELECTRON_MASS_KG,

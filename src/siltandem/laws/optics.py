@@ -11,7 +11,7 @@ A. De Vos, J. Phys. D 13 (1980) 839 (detailed balance of tandem cells, light fil
 """
 import numpy as np
 
-from ..constants import ELEMENTARY_CHARGE_C, HC_EV_NM, PLANCK_J_S, SPEED_OF_LIGHT_M_S
+from siltandem.constants import ELEMENTARY_CHARGE_C, HC_EV_NM, PLANCK_J_S, SPEED_OF_LIGHT_M_S
 
 
 def photon_flux(wavelength_nm, irradiance_W_m2_nm):

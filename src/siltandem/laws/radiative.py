@@ -17,8 +17,8 @@ S. Ruehle, Solar Energy 130 (2016) 139 (tabulated limits under AM1.5G).
 """
 import numpy as np
 
-from .. import kernels
-from ..constants import (
+from siltandem.laws import compiled as kernels
+from siltandem.constants import (
     BOLTZMANN_EV_K,
     ELEMENTARY_CHARGE_C,
     PLANCK_J_S,

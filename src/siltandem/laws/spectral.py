@@ -19,8 +19,8 @@ direct, sky-diffuse and ground-reflected spectra).
 
 import numpy as np
 
-from ..constants import ELEMENTARY_CHARGE_C, HC_EV_NM
-from .optics import filtered_photocurrents
+from siltandem.constants import ELEMENTARY_CHARGE_C, HC_EV_NM
+from siltandem.laws.optics import filtered_photocurrents
 
 
 def cumulative_below_rows(wavelength_limit_nm, wavelength_nm, values):

@@ -25,11 +25,11 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..constants import HC_EV_NM
-from ..elements import Subcell, batch
-from ..laws.optics import step_absorber_photocurrents
-from ..result import run_stack
-from ..solve import solve_string
+from siltandem.constants import HC_EV_NM
+from siltandem.circuit.elements import Subcell, batch
+from siltandem.laws.optics import step_absorber_photocurrents
+from siltandem.result.driver import run_stack
+from siltandem.solve.series import solve_string
 
 
 def _power(string, temperature_K):
@@ -51,7 +51,7 @@ def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True):
     passive layer (unless ``passive`` is False), and each subcell absorbs every photon above its
     gap that reaches its emitter.
     """
-    from ..laws import thinfilm
+    from siltandem.laws import thinfilm
 
     model = circuit.model
     wavelength, flux = spectrum.wavelength_nm, spectrum.photon_flux.copy()

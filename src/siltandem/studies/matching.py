@@ -8,8 +8,8 @@ import itertools
 import numpy as np
 from scipy import optimize
 
-from ..parallel import run_chunks
-from .sweep import (check_study, design_table, evaluate_chunk, input_files, photocurrents_at,
+from siltandem.studies.runner import run_chunks
+from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, input_files, photocurrents_at,
                     solve_designs)
 
 
@@ -102,11 +102,11 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
     """
     import sys
 
-    from ..studies.sweep import _with_values
-    from .yield_ import annual_yield, read_weather
+    from siltandem.studies.sweep import _with_values
+    from siltandem.studies.yield_year import annual_yield, read_weather
 
     if stack.layers:
-        from ..errors import StackError
+        from siltandem.errors import StackError
 
         raise StackError("ranking by energy needs an element stack (the yield year of a layer "
                          "stack is not yet supported)", file=stack.source,

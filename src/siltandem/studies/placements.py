@@ -11,10 +11,10 @@ import functools
 
 import numpy as np
 
-from ..errors import StackError
-from ..materials import material_identity
-from ..parallel import run_chunks
-from ..placements_spec import Placement, with_placement
+from siltandem.errors import StackError
+from siltandem.materials import material_identity
+from siltandem.studies.runner import run_chunks
+from siltandem.stack.placements import Placement, with_placement
 
 
 def auto_candidates(stack):
@@ -66,7 +66,7 @@ def auto_candidates(stack):
 def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
                         temperature_K=None):
     """Chunk function: solve each candidate (one row per candidate index in ``design``)."""
-    from ..result import run_stack
+    from siltandem.result.driver import run_stack
 
     rows = []
     for design in chunk["design"].to_numpy():
@@ -105,8 +105,8 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
     """Every candidate solved; a DataFrame ranked by efficiency (best first, rank column)."""
     import pandas as pd
 
-    from ..options import check_conditions, check_study_options
-    from .sweep import study_light
+    from siltandem.stack.options import check_conditions, check_study_options
+    from siltandem.studies.sweep import study_light
 
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     workers, _ = check_study_options(workers=workers, cluster=cluster)
@@ -118,7 +118,7 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
     table = pd.DataFrame({"design": np.arange(len(candidates), dtype=np.int64)})
     function = functools.partial(evaluate_candidates, stack=stack, candidates=candidates,
                                  spectrum=spectrum, suns=suns, temperature_K=temperature_K)
-    from .sweep import input_files
+    from siltandem.studies.sweep import input_files
 
     result = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
                         progress=progress, chunk_rows=1 if (workers or cluster) else None,
@@ -167,7 +167,7 @@ def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, az
     """Add each candidate's annual energy (a yield year each) and rank by it (best first)."""
     import sys
 
-    from .yield_ import annual_yield, read_weather
+    from siltandem.studies.yield_year import annual_yield, read_weather
 
     candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
     by_name = {c.name: c for c in candidates}

@@ -12,14 +12,14 @@ import warnings
 
 import numpy as np
 
-from .. import units
-from ..compile import compile_stack
-from ..errors import StackError
-from ..parallel import file_digest
-from ..illuminate import illuminate
-from ..solve import solve_string
-from ..spectra import get_spectrum
-from ..stack import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values, check_number
+from siltandem import units
+from siltandem.circuit.from_elements import compile_stack
+from siltandem.errors import StackError
+from siltandem.studies.runner import file_digest
+from siltandem.optics.illuminate import illuminate
+from siltandem.solve.series import solve_string
+from siltandem.materials.spectra import get_spectrum
+from siltandem.stack.load import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values, check_number
 
 #: result columns every study row carries, named as in the JSON of `siltandem run`
 RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
@@ -52,7 +52,7 @@ def parse_vary(text, stack):
     The rules between keys (a tunnel junction's valley below its peak, ...) need every varied
     key at once: :func:`check_designs`.
     """
-    from ..options import OPTION_SCHEMA, check_option
+    from siltandem.stack.options import OPTION_SCHEMA, check_option
 
     fix = "write --vary NAME.KEY=START:STOP:N, e.g. --vary top.gap_eV=1.6:1.9:31"
     if not isinstance(text, str):
@@ -101,7 +101,7 @@ def parse_vary(text, stack):
 
 
 def _parse_layer_vary(text, stack, name, key, start, stop, count):
-    from ..layers import check_layer_value
+    from siltandem.stack.layers import check_layer_value
 
     layers = {layer.name: layer for layer in stack.layers}
     if name not in layers:
@@ -171,7 +171,7 @@ def check_study(stack, variations, *, workers=None, cluster=None, chunk_rows=Non
     """Everything a study is given, checked before its table is allocated or any design solved:
     the overrides (the file's ranges), workers, cluster address and chunk size, the grid's memory,
     the spectrum, and every design against its element's rules (:func:`check_designs`)."""
-    from ..options import (API_NAMES, check_conditions, check_study_memory,
+    from siltandem.stack.options import (API_NAMES, check_conditions, check_study_memory,
                            check_study_options)
 
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
@@ -188,7 +188,7 @@ def _check_layer_designs(stack, variations, *, grid=True):
     """Every layer design read by the layer compiler's rules (compile_layers.recognise) before
     any design is solved: a doping that turns a tunnel junction into a p-n junction fails here,
     named with its design, not in the middle of the study."""
-    from ..compile_layers import recognise
+    from siltandem.circuit.recognise import recognise
 
     threshold = stack.rules["tunnel_doping_cm3"]
     table = design_table(variations, grid=grid)
@@ -267,7 +267,7 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     Returns a dict of (B,) arrays: the RESULT_COLUMNS, ``<subcell>.photocurrent_mA_cm2`` for
     every subcell, ``limiting_subcell`` and ``regime``.
     """
-    from ..options import check_conditions
+    from siltandem.stack.options import check_conditions
 
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     if stack.layers and columns:
@@ -326,7 +326,7 @@ def _spectrum(name, suns, folder):
 def spectrum_file(name, folder):
     """The CSV file a spectrum name stands for, resolved as the studies resolve it (relative to
     the stack's folder); None for a named standard spectrum."""
-    from ..spectra import _catalogue
+    from siltandem.materials.spectra import _catalogue
 
     key = str(name).strip()
     if key.lower() in _catalogue()[1] or not (

@@ -7,8 +7,8 @@ import json
 
 import numpy as np
 
-from .. import units
-from .yield_ import CAUTION, HOURS_PER_STEP
+from siltandem import units
+from siltandem.studies.yield_year import CAUTION, HOURS_PER_STEP
 
 
 def _kwh(power_W_m2):

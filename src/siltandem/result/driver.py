@@ -10,11 +10,11 @@ import math
 
 import numpy as np
 
-from . import units
-from .compile import compile_stack
-from .illuminate import illuminate
-from .solve import solve_string
-from .spectra import get_spectrum
+from siltandem import units
+from siltandem.circuit.from_elements import compile_stack
+from siltandem.optics.illuminate import illuminate
+from siltandem.solve.series import solve_string
+from siltandem.materials.spectra import get_spectrum
 
 SIGN_CONVENTION = ("generated current positive: the power quadrant is current > 0 and "
                    "voltage > 0; an element's voltage is taken in the stack current's direction")
@@ -72,7 +72,7 @@ class Result:
         """
         import pandas as pd
 
-        from .trace import voltage_sweep
+        from siltandem.solve.trace import voltage_sweep
 
         frames = []
         for number, solution in enumerate(self.solutions, start=1):
@@ -203,14 +203,14 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     curve_points : int
         Points of the traced light I-V per string.
     """
-    from .options import OPTION_SCHEMA, check_conditions, check_option
+    from siltandem.stack.options import OPTION_SCHEMA, check_conditions, check_option
 
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     check_option(OPTION_SCHEMA["points"], curve_points, where="argument curve_points",
                  integer=True)
     placement_note = None
     if stack.extra.get("placements"):
-        from .placements_spec import with_placement
+        from siltandem.stack.placements import with_placement
 
         first = stack.extra["placements"][0]
         stack = with_placement(stack, first)
@@ -232,7 +232,7 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}
     # the efficiency penalty of each passive element: the string solved again without it
     # (penalties.py: one batched solve per group of alike elements, not one solve per element)
-    from .penalties import removal_powers
+    from siltandem.result.penalties import removal_powers
 
     without = {}
     for string, solution in zip(circuit.strings, solutions):
@@ -465,7 +465,7 @@ def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=Non
     """
     import pandas as pd
 
-    from .options import CONDITION_SCHEMA, check_conditions, check_option
+    from siltandem.stack.options import CONDITION_SCHEMA, check_conditions, check_option
 
     _, temperature_K = check_conditions(temperature_K=temperature_K)
     suns = np.asarray(suns_values, dtype=float).reshape(-1)

@@ -22,8 +22,8 @@ from dataclasses import fields, replace
 
 import numpy as np
 
-from .elements import Resistor
-from .solve import solve_string
+from siltandem.circuit.elements import Resistor
+from siltandem.solve.series import solve_string
 
 
 def removal_powers(string, temperature_K):

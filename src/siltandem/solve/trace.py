@@ -22,7 +22,7 @@ vectorized.
 """
 import numpy as np
 
-from .numerics import bracketed_root
+from siltandem.numerics.roots import bracketed_root
 
 SAMPLES_PER_PIECE = 160
 #: at most this many pieces per junction (each junction turns at most a few times)

@@ -17,8 +17,8 @@ changes which isotype interfaces the stack has.
 """
 from dataclasses import dataclass, replace
 
-from .errors import StackError
-from .text import excerpt
+from siltandem.errors import StackError
+from siltandem.text import excerpt
 
 
 @dataclass(frozen=True)
@@ -29,7 +29,7 @@ class Placement:
 
 
 def parse_placements(tables, base_layers, *, file):
-    from .layers import parse_layers
+    from siltandem.stack.layers import parse_layers
 
     if not tables:
         return ()

@@ -1,8 +1,8 @@
 """Figures. Every function takes ``ax=None`` and returns the axes; matplotlib is imported lazily."""
 import numpy as np
 
-from . import units
-from .solve import solve_string
+from siltandem import units
+from siltandem.solve.series import solve_string
 
 
 def _axes(ax, figsize=(7, 4.8)):

@@ -24,11 +24,11 @@ import warnings
 
 import numpy as np
 
-from . import kernels
-from .elements import take_rows
-from .constants import thermal_voltage_V
-from .inverse import polish_root
-from .numerics import bracketed_root, safeguarded_newton
+from siltandem.laws import compiled as kernels
+from siltandem.circuit.elements import take_rows
+from siltandem.constants import thermal_voltage_V
+from siltandem.numerics.tables import polish_root
+from siltandem.numerics.roots import bracketed_root, safeguarded_newton
 
 #: forward end of a traced curve: the pilot carries this fraction of its photocurrent backwards
 FORWARD_CURRENT_FRACTION = -0.3
@@ -498,7 +498,7 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
                       dtype=object)
     branches = {t.name: np.full(past_peak.shape, "tunnel", dtype=object) for t in string.tunnels}
     if np.any(past_peak):
-        from .trace import solve_path
+        from siltandem.solve.trace import solve_path
 
         for row in np.flatnonzero(past_peak):
             one = string.rows(np.array([row]))
@@ -574,7 +574,7 @@ def _solve_explicit(string, temperature_K):
     J here (each term of V is concave), so the MPP is the one root of g = V + J V' in
     (0, min Jph + J0), found by safeguarded Newton with g' = 2 V' + J V''; Jsc is the root of V.
     """
-    from .numerics import safeguarded_newton
+    from siltandem.numerics.roots import safeguarded_newton
 
     vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
     size = string.size

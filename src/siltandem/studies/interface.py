@@ -15,8 +15,8 @@ layer, depletion approximation) - from memory.
 import numpy as np
 from scipy import integrate
 
-from .constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M
-from .laws.thermionic import voltage_split
+from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M
+from siltandem.laws.thermionic import voltage_split
 
 
 def interface_iv(element, temperature_K, *, points=201, span_V=None):

@@ -6,7 +6,7 @@
 from pathlib import Path
 import sys
 
-from .errors import StackError
+from siltandem.errors import StackError
 
 PLOT_SUFFIXES = {".png", ".svg", ".pdf"}
 
@@ -30,7 +30,7 @@ def _pairs(values, option, what):
 
 def add_yield_command(commands):
     """Add ``yield`` to the subparsers of the main parser; returns its parser."""
-    from .studies.yield_ import MOUNTING, SCALINGS, SKY_MODELS
+    from siltandem.studies.yield_year import MOUNTING, SCALINGS, SKY_MODELS
 
     parser = commands.add_parser(
         "yield", help="energy over a typical year from an hourly weather file",
@@ -78,11 +78,11 @@ def add_yield_command(commands):
 
 def run_yield(args):
     """Run ``siltandem yield``; returns the exit status (StackError propagates to the caller)."""
-    from .files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
-    from .stack import load_stack
-    from .studies.yield_ import (annual_yield, demo_weather_path, hourly_table, plot_yield,
+    from siltandem.files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
+    from siltandem.stack.load import load_stack
+    from siltandem.studies.yield_year import (annual_yield, demo_weather_path, hourly_table, plot_yield,
                                  temperature_parameters, text_summary)
-    from .text import csv_safe
+    from siltandem.text import csv_safe
 
     for option, path, allowed in (("--csv", args.csv, {".csv"}),
                                   ("--plot", args.plot, PLOT_SUFFIXES)):
@@ -99,8 +99,8 @@ def run_yield(args):
                   + [(f"the quantum-efficiency file of subcell {name!r} (--eqe)", Path(path))
                      for name, path in eqe.items()])
     # everything the year needs, read and checked before its hours are computed
-    from .compile import compile_stack
-    from .studies.yield_ import _eqe_tables, _gap_laws, read_weather
+    from siltandem.circuit.from_elements import compile_stack
+    from siltandem.studies.yield_year import _eqe_tables, _gap_laws, read_weather
 
     names = [cell.name for cell in compile_stack(stack).subcells]
     _gap_laws(gap_materials, names)

@@ -21,12 +21,14 @@ import warnings
 
 import numpy as np
 
-from .laws import diode, esaki, thermionic
-from .laws.radiative import radiative_saturation_current
-from .constants import thermal_voltage_V
-from .inverse import LawTable
-from . import kernels
-from .numerics import safeguarded_newton
+from siltandem.laws import diode
+from siltandem.laws import esaki
+from siltandem.laws import thermionic
+from siltandem.laws.radiative import radiative_saturation_current
+from siltandem.constants import thermal_voltage_V
+from siltandem.numerics.tables import LawTable
+from siltandem.laws import compiled as kernels
+from siltandem.numerics.roots import safeguarded_newton
 
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
 TABLE_REVERSE_POINTS = 160
@@ -636,7 +638,7 @@ class IsotypeInterface:
     def current_cap(self, temperature_K):
         """Largest stack current the law can carry [A/m^2]: the flat-band current when driven
         forward (just inside the law's domain), unbounded when driven in reverse."""
-        from .constants import thermal_voltage_V
+        from siltandem.constants import thermal_voltage_V
 
         edge = self.built_in_V - (1.0 + 1e-6 if self.include_tail else 1e-6) * \
             thermal_voltage_V(temperature_K)

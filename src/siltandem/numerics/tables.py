@@ -19,7 +19,7 @@ table by bisection) and sec. 9.4 ('rtsafe': Newton's method safeguarded by a bra
 """
 import numpy as np
 
-from .numerics import safeguarded_newton
+from siltandem.numerics.roots import safeguarded_newton
 
 __all__ = ["LawTable", "polish_root"]
 

@@ -42,20 +42,20 @@ import warnings
 
 import numpy as np
 
-from .. import units
-from ..compile import compile_stack
-from ..errors import StackError
-from ..illuminate import check_eqe_current, illuminate
-from ..laws.optics import photon_flux, step_absorber_photocurrents
-from ..laws.spectral import (
+from siltandem import units
+from siltandem.circuit.from_elements import compile_stack
+from siltandem.errors import StackError
+from siltandem.optics.illuminate import check_eqe_current, illuminate
+from siltandem.laws.optics import photon_flux, step_absorber_photocurrents
+from siltandem.laws.spectral import (
     quantum_efficiency_photocurrent,
     scaled_spectra,
     spectral_mismatch_factor,
     step_absorber_photocurrents_rows,
 )
-from ..solve import solve_string
-from ..spectra import get_spectrum
-from ..text import excerpt
+from siltandem.solve.series import solve_string
+from siltandem.materials.spectra import get_spectrum
+from siltandem.text import excerpt
 
 #: SPECTRL2's atmosphere where the weather file gives nothing: the ASTM G173-03 atmosphere
 #: (C. A. Gueymard, D. Myers, K. Emery, Solar Energy 73 (2002) 443; values from memory):
@@ -373,7 +373,7 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
     import pandas as pd
     import pvlib
 
-    from ..options import check_plane
+    from siltandem.stack.options import check_plane
 
     check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)
     _check_choice(sky_model, SKY_MODELS, "--sky-model")
@@ -485,7 +485,7 @@ def read_eqe_csv(path, *, where=None):
     if np.any(np.diff(lam) <= 0) or lam[0] <= 0:
         raise StackError("wavelengths are not positive and increasing", file=path, where=where,
                          fix="sort the rows by wavelength and remove repeated wavelengths")
-    from ..spectra import MICROMETRE_HINT_NM
+    from siltandem.materials.spectra import MICROMETRE_HINT_NM
 
     if lam[-1] < MICROMETRE_HINT_NM:
         raise StackError(f"the wavelengths run from {lam[0]:g} to {lam[-1]:g}: below "
@@ -514,7 +514,7 @@ def _eqe_tables(eqe, subcell_names):
 
 
 def _gap_laws(gap_materials, subcell_names):
-    from ..materials import MaterialError, load_material
+    from siltandem.materials import MaterialError, load_material
 
     laws = {}
     for name, material in (gap_materials or {}).items():
@@ -553,7 +553,7 @@ class YieldResult:
     light: HourlyLight
 
     def to_json(self, indent=2):
-        from ..result import json_text
+        from siltandem.result.driver import json_text
 
         return json_text(self.summary, indent)
 
@@ -610,7 +610,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     -------
     YieldResult
     """
-    from ..options import check_plane
+    from siltandem.stack.options import check_plane
 
     check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)   # before any work
     if not isinstance(weather, Weather):
@@ -666,7 +666,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     if layered:
         # layer stacks: the layers' optics and collection for every hour's spectrum; the dark
         # currents follow each hour's temperature (layer_stage.dark_currents_at)
-        from ..layer_stage import dark_currents_at, layer_photocurrents
+        from siltandem.circuit.from_layers import dark_currents_at, layer_photocurrents
 
         photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
                          layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
@@ -718,7 +718,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     else:
         # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
         # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)
-        from ..laws.diode import intrinsic_density_ratio
+        from siltandem.laws.diode import intrinsic_density_ratio
 
         hourly_cells = {cell.name: replace(hourly_cells[cell.name], j02_A_m2=cell.j02_A_m2
                                            * intrinsic_density_ratio(
@@ -790,7 +790,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     hourly["limiting_subcell"] = limiting
     hourly["failed"] = failed
 
-    from .yield_report import _summarise
+    from siltandem.studies.yield_report import _summarise
 
     summary, monthly = _summarise(stack, weather, light, hourly, names, laws, tables,
                                   standard_efficiency, bare_power, passive)
@@ -799,20 +799,20 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
 
 def text_summary(result):
     """Terminal text of a yield result (yield_report.py)."""
-    from .yield_report import text_summary as text
+    from siltandem.studies.yield_report import text_summary as text
 
     return text(result)
 
 
 def hourly_table(result):
     """One row per hour with light (yield_report.py)."""
-    from .yield_report import hourly_table as table
+    from siltandem.studies.yield_report import hourly_table as table
 
     return table(result)
 
 
 def plot_yield(result, axes=None):
     """Energy by month; the limiting subcell through a summer and a winter day."""
-    from .yield_report import plot_yield as plot
+    from siltandem.studies.yield_report import plot_yield as plot
 
     return plot(result, axes)

@@ -6,11 +6,11 @@ object, so everything downstream is shared.
 """
 import numpy as np
 
-from . import units
-from .circuit import build_circuit
-from .constants import RICHARDSON_FREE_A_M2_K2
-from .elements import IsotypeInterface, Resistor, Subcell, TunnelJunction, batch
-from .errors import StackError
+from siltandem import units
+from siltandem.circuit.graph import build_circuit
+from siltandem.constants import RICHARDSON_FREE_A_M2_K2
+from siltandem.circuit.elements import IsotypeInterface, Resistor, Subcell, TunnelJunction, batch
+from siltandem.errors import StackError
 
 
 def _gap_at(spec, temperature_K):
@@ -19,8 +19,8 @@ def _gap_at(spec, temperature_K):
     v = spec.values
     if "material" not in v:
         return v["gap_eV"]
-    from .constants import STANDARD_TEMPERATURE_K
-    from .materials import load_material
+    from siltandem.constants import STANDARD_TEMPERATURE_K
+    from siltandem.materials import load_material
 
     law = load_material(v["material"])
     return v["gap_eV"] + float(law.gap_eV(temperature_K)) - float(
@@ -40,8 +40,8 @@ def _subcell(spec, temperature_K=None):
     # j02_mA_cm2 is given at 298.15 K; J02 follows n_i (Sah-Noyce-Shockley), as J01 follows n_i^2
     j02 = units.a_m2(np.asarray(v["j02_mA_cm2"], dtype=float))
     if temperature_K is not None:
-        from .constants import STANDARD_TEMPERATURE_K
-        from .laws.diode import intrinsic_density_ratio
+        from siltandem.constants import STANDARD_TEMPERATURE_K
+        from siltandem.laws.diode import intrinsic_density_ratio
 
         j02 = j02 * intrinsic_density_ratio(temperature_K, gap_eV=gap,
                                             reference_temperature_K=STANDARD_TEMPERATURE_K,
@@ -59,7 +59,7 @@ def _subcell(spec, temperature_K=None):
 def _eqe(path):
     if path is None:
         return None
-    from .studies.yield_ import read_eqe_csv
+    from siltandem.studies.yield_year import read_eqe_csv
 
     return read_eqe_csv(path)
 
@@ -99,8 +99,8 @@ def _isotype(spec, temperature_K, file=None):
 
 
 def _isotype_from_materials(spec, temperature_K, file):
-    from .laws.thermionic import isotype_band_alignment
-    from .materials import MaterialError, load_material
+    from siltandem.laws.thermionic import isotype_band_alignment
+    from siltandem.materials import MaterialError, load_material
 
     v = spec.values
     layers = []
@@ -131,7 +131,7 @@ def _isotype_from_materials(spec, temperature_K, file):
     down = v["carriers_flow"] == "down"
     # forward: majority carriers cross from the depletion side into the accumulation side
     forward = (down and not upper_accumulates) or (not down and upper_accumulates)
-    from .constants import BOLTZMANN_EV_K
+    from siltandem.constants import BOLTZMANN_EV_K
 
     info = []
     for m, doping_key, band_dos in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos):
@@ -164,7 +164,7 @@ BUILDERS = {"subcell": _subcell, "resistor": _resistor, "tunnel": _tunnel}
 def compile_stack(stack):
     """Stack -> Circuit (no light yet)."""
     if stack.layers:
-        from .layer_stage import compile_layer_stack
+        from siltandem.circuit.from_layers import compile_layer_stack
 
         return compile_layer_stack(stack)
     elements = []

@@ -14,9 +14,9 @@ import tomllib
 
 import numpy as np
 
-from .constants import STANDARD_TEMPERATURE_K
-from .errors import StackError
-from .text import excerpt
+from siltandem.constants import STANDARD_TEMPERATURE_K
+from siltandem.errors import StackError
+from siltandem.text import excerpt
 
 
 @dataclass(frozen=True)
@@ -326,7 +326,7 @@ def _parse_element(index, table, *, file, terminals):
 
 def _subcell_material(name, *, file, where):
     """A subcell's ``material``: its gap then follows the library's Varshni law with temperature."""
-    from .materials import MaterialError, load_material
+    from siltandem.materials import MaterialError, load_material
 
     if not isinstance(name, str):
         raise StackError(f"material must be text, got {excerpt(name)}", file=file, where=where,
@@ -342,7 +342,7 @@ def _subcell_material(name, *, file, where):
 
 def _subcell_eqe(name, *, file, where):
     """A subcell's measured ``eqe`` CSV (wavelength_nm, eqe), resolved next to the stack file."""
-    from .studies.yield_ import read_eqe_csv
+    from siltandem.studies.yield_year import read_eqe_csv
 
     if not isinstance(name, str):
         raise StackError(f"eqe must be a file path (text), got {excerpt(name)}", file=file,
@@ -439,7 +439,7 @@ def _parse_isotype(table, *, file, where):
 
 def _check_tunnel(values, *, file, where):
     """Peak before valley, valley below peak, and a law that can put its maximum at the peak."""
-    from .laws import esaki
+    from siltandem.laws import esaki
 
     def g(key):   # one value as written; a study's arrays (any entry bad) say "several"
         value = np.asarray(values[key], dtype=float)
@@ -528,7 +528,7 @@ def parse_stack(document, *, file=None, folder=None):
                              where=f"key stack.{key}", fix=f'write {key} = "..."')
     conditions = _parse_conditions(document.get("conditions", {}), file=file)
     if "layer" in document:
-        from .layers import parse_coatings, parse_layers, parse_optics, parse_rules
+        from siltandem.stack.layers import parse_coatings, parse_layers, parse_optics, parse_rules
 
         if "element" in document:
             raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
@@ -541,7 +541,7 @@ def parse_stack(document, *, file=None, folder=None):
         if conditions.terminals != 2:
             raise StackError("layer stacks are two-terminal in this version", file=file,
                              where="key conditions.terminals", fix="set terminals = 2")
-        from .placements_spec import parse_placements
+        from siltandem.stack.placements import parse_placements
 
         placements = parse_placements(document.get("placement", []), layers, file=file)
         return Stack(name, notes, conditions, (), layers, None if file is None else str(file),

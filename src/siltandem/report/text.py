@@ -3,7 +3,7 @@
 A number with no value (None, NaN, inf) prints as ``none`` (its reason is in a warning), a
 key that does not apply as ``-``; names and every line pass through ``text.printable``.
 """
-from .text import MISSING, number, printable
+from siltandem.text import MISSING, number, printable
 
 
 def _fmt(value, spec, missing=MISSING):

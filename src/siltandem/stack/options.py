@@ -15,8 +15,8 @@ size against the memory this machine has free) and, on the command line,
 import math
 import re
 
-from .errors import StackError
-from .stack import CONDITION_SCHEMA, Parameter, check_number
+from siltandem.errors import StackError
+from siltandem.stack.load import CONDITION_SCHEMA, Parameter, check_number
 
 #: options that are not file keys: their ranges (the file keys' ranges live in stack.py/layers.py)
 OPTION_SCHEMA = {

@@ -20,14 +20,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import units
-from .circuit import build_circuit
-from .compile_layers import carriers_flow, recognise
-from .elements import Subcell, TunnelJunction, batch
-from .errors import StackError
-from .laws import collection, esaki, thinfilm
-from .laws.radiative import radiative_saturation_current
-from .materials import material_identity
+from siltandem import units
+from siltandem.circuit.graph import build_circuit
+from siltandem.circuit.recognise import carriers_flow, recognise
+from siltandem.circuit.elements import Subcell, TunnelJunction, batch
+from siltandem.errors import StackError
+from siltandem.laws import collection
+from siltandem.laws import esaki
+from siltandem.laws import thinfilm
+from siltandem.laws.radiative import radiative_saturation_current
+from siltandem.materials import material_identity
 
 #: defaults of the layer compiler (common practice, no source; each can be given per layer)
 DEFAULT_SRV_CM_S = 1e4
@@ -74,7 +76,7 @@ class LayerModel:
 
 
 def _material(layer):
-    from .materials import load_material
+    from siltandem.materials import load_material
 
     return load_material(layer.material, layer.composition)
 
@@ -219,8 +221,8 @@ def _tunnel(index, layers, materials, temperature_K, file):
 
 
 def _isotype(index, layers, materials, polarity, temperature_K, file):
-    from .compile import _isotype_from_materials
-    from .stack import ElementSpec
+    from siltandem.circuit.from_elements import _isotype_from_materials
+    from siltandem.stack.load import ElementSpec
 
     upper, lower = layers[index], layers[index + 1]
     values = {"upper_material": upper.material, "lower_material": lower.material,

@@ -22,9 +22,9 @@ from dataclasses import dataclass
 import math
 import re
 
-from .errors import StackError
-from .stack import _number, _suggest
-from .text import excerpt
+from siltandem.errors import StackError
+from siltandem.stack.load import _number, _suggest
+from siltandem.text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
@@ -294,7 +294,7 @@ def parse_optics(table, *, file):
                              "ambient_index": ("", 1.0, 5.0, False)})
 
 def _check_material(material, composition, *, file, where):
-    from .materials import MaterialError, load_material
+    from siltandem.materials import MaterialError, load_material
 
     try:
         load_material(material, None if composition is None else float(composition))

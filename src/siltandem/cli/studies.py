@@ -4,8 +4,8 @@ import sys
 
 import numpy as np
 
-from .errors import StackError
-from .text import number
+from siltandem.errors import StackError
+from siltandem.text import number
 
 
 def add_energy_options(parser):
@@ -36,7 +36,7 @@ def _weather(args):
     """The weather year of --by energy, read before any work (a bad file fails at once)."""
     if args.by != "energy":
         return None
-    from .studies.yield_ import read_weather
+    from siltandem.studies.yield_year import read_weather
 
     return read_weather(args.weather)
 
@@ -44,7 +44,7 @@ def _weather(args):
 def _weather_input(args):
     if getattr(args, "by", None) != "energy" or not args.weather:
         return []
-    from .studies.yield_ import demo_weather_path
+    from siltandem.studies.yield_year import demo_weather_path
 
     path = demo_weather_path() if args.weather == "demo" else Path(args.weather)
     return [("the weather file", path)]
@@ -82,14 +82,14 @@ def _check_paths(args):
         raise StackError("--workers and --cluster exclude each other", where="--workers",
                          fix="give one of them")
     if cluster is not None:
-        from .options import check_cluster_address
+        from siltandem.stack.options import check_cluster_address
 
         check_cluster_address(cluster, where="--cluster", in_process=False)
 
 
 def _check_outputs(args, stack):
     """Every output of the study against the files it reads, before any work."""
-    from .files import check_outputs, stack_inputs
+    from siltandem.files import check_outputs, stack_inputs
 
     check_outputs([(option, getattr(args, option[2:], None))
                    for option in ("--csv", "--parquet", "--plot", "--json")],
@@ -101,14 +101,14 @@ def _connect(args):
     """The dask client of --cluster (short connect timeout, one message), or None."""
     if not getattr(args, "cluster", None):
         return None
-    from .options import connect_cluster
+    from siltandem.stack.options import connect_cluster
 
     return connect_cluster(args.cluster)
 
 
 def _write_outputs(args, table, summary, figure=None):
-    from .files import save_figure_atomic, write_atomic
-    from .text import csv_safe
+    from siltandem.files import save_figure_atomic, write_atomic
+    from siltandem.text import csv_safe
 
     if args.csv:
         write_atomic(args.csv, csv_safe(table).to_csv(index=False, float_format="%.10g"))
@@ -121,7 +121,7 @@ def _write_outputs(args, table, summary, figure=None):
         write_atomic(args.parquet, buffer.getvalue())
         print(f"  wrote {args.parquet}")
     if args.json:
-        from .result import json_text
+        from siltandem.result.driver import json_text
 
         text = json_text(summary)
         if args.json == "-":
@@ -143,8 +143,8 @@ def _options(args, client=None):
 def _check_study(args, stack, variations):
     """The study's options, memory and designs (studies.sweep.check_study) before any work,
     naming the command-line options."""
-    from .options import CLI_NAMES
-    from .studies.sweep import check_study
+    from siltandem.stack.options import CLI_NAMES
+    from siltandem.studies.sweep import check_study
 
     check_study(stack, variations, workers=args.workers, cluster=args.cluster,
                 spectrum=args.spectrum, suns=args.suns, temperature_K=args.temperature,
@@ -153,8 +153,8 @@ def _check_study(args, stack, variations):
 
 def _check_column(column, stack, variations):
     """``map --column``: a numeric result column of this stack, known before the study runs."""
-    from .compile import compile_stack
-    from .studies.sweep import RESULT_COLUMNS
+    from siltandem.circuit.from_elements import compile_stack
+    from siltandem.studies.sweep import RESULT_COLUMNS
 
     if stack.layers:
         names = [cell.name for cell in compile_stack(stack).subcells]
@@ -177,9 +177,9 @@ def _check_column(column, stack, variations):
 
 
 def run_match(args):
-    from .stack import load_stack
-    from .studies.matching import match_currents, plot_matching
-    from .studies.sweep import parse_vary
+    from siltandem.stack.load import load_stack
+    from siltandem.studies.matching import match_currents, plot_matching
+    from siltandem.studies.sweep import parse_vary
 
     _check_paths(args)
     _check_energy(args)
@@ -226,7 +226,7 @@ def run_match(args):
         print("  best efficiency on the grid: none (no design found an operating point)")
     by_energy = None
     if args.by == "energy":
-        from .studies.matching import energy_by_value
+        from siltandem.studies.matching import energy_by_value
 
         table["annual_energy_kWh_m2"] = energy_by_value(
             stack, variation, table, weather=weather, tilt_deg=args.tilt,
@@ -257,9 +257,9 @@ def run_match(args):
 
 
 def run_map(args):
-    from .stack import load_stack
-    from .studies.maps import design_map, optimum, plot_map
-    from .studies.sweep import parse_vary
+    from siltandem.stack.load import load_stack
+    from siltandem.studies.maps import design_map, optimum, plot_map
+    from siltandem.studies.sweep import parse_vary
 
     _check_paths(args)
     if len(args.vary) != 2:
@@ -327,8 +327,8 @@ def add_losses_command(commands):
 def run_losses(args):
     import pandas as pd
 
-    from .stack import load_stack
-    from .studies.losses import loss_waterfall, plot_waterfall
+    from siltandem.stack.load import load_stack
+    from siltandem.studies.losses import loss_waterfall, plot_waterfall
 
     args.parquet = None
     _check_paths(args)
@@ -381,8 +381,8 @@ def add_placements_command(commands):
 
 
 def run_placements(args):
-    from .stack import load_stack
-    from .studies.placements import plot_placements, rank_placements
+    from siltandem.stack.load import load_stack
+    from siltandem.studies.placements import plot_placements, rank_placements
 
     _check_paths(args)
     _check_energy(args)
@@ -399,7 +399,7 @@ def run_placements(args):
         if client is not None:
             client.close()
     if args.by == "energy":
-        from .studies.placements import energy_of_candidates
+        from siltandem.studies.placements import energy_of_candidates
 
         table = energy_of_candidates(stack, table, auto=args.auto, weather=weather,
                                      tilt_deg=args.tilt, azimuth_deg=args.azimuth,

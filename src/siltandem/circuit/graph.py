@@ -9,7 +9,7 @@ from dataclasses import dataclass, field, replace
 
 import networkx as nx
 
-from .stack import Conditions
+from siltandem.stack.load import Conditions
 
 
 def front(string):

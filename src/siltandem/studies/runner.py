@@ -63,7 +63,7 @@ import warnings
 import numpy as np
 import pandas as pd
 
-from .errors import StackError
+from siltandem.errors import StackError
 
 #: Upper bound of the default chunk size, to bound a chunk's working memory. Studies whose
 #: per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
@@ -341,7 +341,7 @@ def code_digest():
     """
     from importlib import metadata
 
-    from . import __version__
+    from siltandem import __version__
 
     digest = hashlib.sha256(b"siltandem " + __version__.encode())
     digest.update(_tree_digest(Path(__file__).resolve().parent).encode())

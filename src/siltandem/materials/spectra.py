@@ -13,9 +13,9 @@ import tomllib
 
 import numpy as np
 
-from .errors import StackError
-from .text import excerpt
-from .laws.optics import photon_flux
+from siltandem.errors import StackError
+from siltandem.text import excerpt
+from siltandem.laws.optics import photon_flux
 
 
 #: a spectrum whose largest wavelength is below this [nm] was written in micrometres: no solar

@@ -10,8 +10,8 @@ import sys
 
 import numpy as np
 
-from .errors import StackError
-from .text import number, printable
+from siltandem.errors import StackError
+from siltandem.text import number, printable
 
 DEMO = "demo_dual.toml"
 
@@ -59,7 +59,7 @@ def _parser():
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
     face.add_argument("--temperature", metavar="K", help="cell temperature")
     face.add_argument("--points", default=21, help="rows of the printed J-V")
-    from .cli_studies import (add_energy_options, add_losses_command, add_placements_command,
+    from siltandem.cli.studies import (add_energy_options, add_losses_command, add_placements_command,
                               add_study_options)
 
     match = commands.add_parser(
@@ -79,7 +79,7 @@ def _parser():
                         help="the output column to map (default efficiency_pct)")
     add_losses_command(commands)
     add_placements_command(commands)
-    from .cli_yield import add_yield_command
+    from siltandem.cli.yield_command import add_yield_command
 
     add_yield_command(commands)
     library = commands.add_parser(
@@ -93,7 +93,7 @@ def _parser():
 
 
 def _materials(args):
-    from .materials import MaterialError, describe_library, load_material
+    from siltandem.materials import MaterialError, describe_library, load_material
 
     if args.name is None:
         rows = describe_library()
@@ -120,12 +120,12 @@ def _materials(args):
 
 
 def _interface(args):
-    from .files import save_figure_atomic
-    from .interfaces import interface_iv, plot_interface
-    from .result import run_stack
-    from .stack import load_stack
+    from siltandem.files import save_figure_atomic
+    from siltandem.studies.interface import interface_iv, plot_interface
+    from siltandem.result.driver import run_stack
+    from siltandem.stack.load import load_stack
 
-    from .files import check_outputs, stack_inputs
+    from siltandem.files import check_outputs, stack_inputs
 
     if args.plot and Path(args.plot).suffix.lower() not in {".png", ".svg", ".pdf"}:
         raise StackError(f"--plot {args.plot}: unsupported file type", where="--plot",
@@ -174,8 +174,8 @@ def _interface(args):
 def _parse_range(text):
     """``START:STOP:N`` -> N concentrations, log-spaced; START and STOP in the range of the file's
     ``suns``, N in OPTION_SCHEMA's (the one schema, siltandem.options)."""
-    from .options import OPTION_SCHEMA, check_option
-    from .stack import CONDITION_SCHEMA
+    from siltandem.stack.options import OPTION_SCHEMA, check_option
+    from siltandem.stack.load import CONDITION_SCHEMA
 
     shown = text if len(text) <= 60 else text[:57] + "..."
     parts = text.split(":")
@@ -197,10 +197,10 @@ def _parse_range(text):
 
 
 def _concentration(args, stack, suns):
-    from .files import save_figure_atomic, write_atomic
-    from .report import concentration_summary
-    from .result import concentration_series
-    from .text import csv_safe
+    from siltandem.files import save_figure_atomic, write_atomic
+    from siltandem.report.text import concentration_summary
+    from siltandem.result.driver import concentration_series
+    from siltandem.text import csv_safe
 
     series = concentration_series(stack, suns, spectrum=args.spectrum,
                                   temperature_K=args.temperature)
@@ -212,7 +212,7 @@ def _concentration(args, stack, suns):
         write_atomic(args.table, csv_safe(series).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.table}", file=notices)
     if args.json:
-        from .result import json_text
+        from siltandem.result.driver import json_text
 
         text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
         if to_stdout_json:
@@ -221,7 +221,7 @@ def _concentration(args, stack, suns):
             write_atomic(args.json, text)
             print(f"  wrote {args.json}", file=notices)
     if args.plot:
-        from .plots import plot_concentration
+        from siltandem.report.plots import plot_concentration
 
         ax = plot_concentration(series, title=f"{stack.name}: efficiency against concentration")
         save_figure_atomic(ax.figure, args.plot)
@@ -230,12 +230,12 @@ def _concentration(args, stack, suns):
 
 
 def _run(args):
-    from .files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
-    from .options import CLI_NAMES, CURVE_BYTES_PER_POINT, check_memory, check_study_memory
-    from .report import sweep_summary, text_summary
-    from .result import run_stack
-    from .stack import load_stack
-    from .text import csv_safe
+    from siltandem.files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
+    from siltandem.stack.options import CLI_NAMES, CURVE_BYTES_PER_POINT, check_memory, check_study_memory
+    from siltandem.report.text import sweep_summary, text_summary
+    from siltandem.result.driver import run_stack
+    from siltandem.stack.load import load_stack
+    from siltandem.text import csv_safe
 
     for option, path in (("--curve", args.curve), ("--plot", args.plot),
                          ("--table", args.table)):
@@ -286,7 +286,7 @@ def _run(args):
         write_atomic(args.curve, csv_safe(table).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.curve}", file=sys.stderr if to_stdout_json else sys.stdout)
     if args.plot:
-        from .plots import plot_iv
+        from siltandem.report.plots import plot_iv
 
         ax = plot_iv(result, sweeps=(args.sweep,) if args.sweep else ())
         save_figure_atomic(ax.figure, args.plot)
@@ -307,13 +307,13 @@ def _json_alone(args, command):
 def main(argv=None):
     args = _parser().parse_args(argv)
     if args.command != "materials":
-        from . import kernels
+        from siltandem.laws import compiled as kernels
 
         if kernels.compiled_already() is False:
             print("siltandem: compiling the solver's kernels (the first run after installing or "
                   "updating; about 10-20 s, once)", file=sys.stderr, flush=True)
     try:
-        from .options import read_arguments
+        from siltandem.stack.options import read_arguments
 
         read_arguments(args)       # every number given: the same ranges as the file keys
         with contextlib.redirect_stdout(_PrintableStream(sys.stdout)):
@@ -355,19 +355,19 @@ def _command(args):
     if args.command == "materials":
         return _materials(args)
     if args.command == "yield":
-        from .cli_yield import run_yield
+        from siltandem.cli.yield_command import run_yield
 
         return run_yield(args)
     if args.command == "placements":
-        from .cli_studies import run_placements
+        from siltandem.cli.studies import run_placements
 
         return _json_alone(args, run_placements)
     if args.command == "losses":
-        from .cli_studies import run_losses
+        from siltandem.cli.studies import run_losses
 
         return _json_alone(args, run_losses)
     if args.command in ("match", "map"):
-        from .cli_studies import run_map, run_match
+        from siltandem.cli.studies import run_map, run_match
 
         return _json_alone(args, run_match if args.command == "match" else run_map)
     return 1

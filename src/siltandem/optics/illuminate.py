@@ -7,9 +7,9 @@ table, as a current), absorbed by each subcell, and transmitted out of the back.
 """
 import numpy as np
 
-from .constants import ELEMENTARY_CHARGE_C, HC_EV_NM
-from .errors import StackError
-from .laws.optics import cumulative_below, step_absorber_photocurrents
+from siltandem.constants import ELEMENTARY_CHARGE_C, HC_EV_NM
+from siltandem.errors import StackError
+from siltandem.laws.optics import cumulative_below, step_absorber_photocurrents
 
 
 def illuminate(circuit, spectrum):
@@ -22,7 +22,7 @@ def illuminate(circuit, spectrum):
         Already scaled to the concentration of the run.
     """
     if circuit.model is not None:
-        from .layer_stage import illuminate_layers
+        from siltandem.circuit.from_layers import illuminate_layers
 
         return illuminate_layers(circuit, spectrum)
     subcells = circuit.subcells
@@ -40,7 +40,7 @@ def illuminate(circuit, spectrum):
     }
     # a subcell with a measured EQE (in the stack) collects q integral Phi EQE of the light on
     # the stack; its step absorptance still filters the light for the subcells below
-    from .laws.spectral import quantum_efficiency_photocurrent
+    from siltandem.laws.spectral import quantum_efficiency_photocurrent
 
     currents = [quantum_efficiency_photocurrent(flux, wavelength_nm=wavelength,
                                                 eqe_wavelength_nm=s.eqe_table[0],

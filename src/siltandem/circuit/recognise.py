@@ -21,7 +21,7 @@ isotype interface.
 """
 from dataclasses import dataclass, field
 
-from .errors import StackError
+from siltandem.errors import StackError
 
 
 @dataclass(frozen=True)
@@ -51,7 +51,7 @@ class Structure:
 
 def _same_material(a, b):
     """One material however it is written (``Ga0.51In0.49P`` and ``GaInP`` at 0.51 alike)."""
-    from .materials import material_identity
+    from siltandem.materials import material_identity
 
     return (material_identity(a.material, a.composition)
             == material_identity(b.material, b.composition))
