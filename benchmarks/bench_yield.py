@@ -1,6 +1,6 @@
 """Speed of the energy yield: a full year (8760 hours) of a triple, measured in one run.
 
-1. `siltandem.studies.yield_.annual_yield` end to end for the demo triple (stacks/demo_triple.toml:
+1. `siltandem.studies.yield_year.annual_yield` end to end for the demo triple (stacks/demo_triple.toml:
    J02 and a shunt, so the traced solve, not the explicit fast path) over the TMY3 year pvlib
    ships (8760 hours, about 4400 with light): median of 3 runs, as by default and with the loss
    split (one more batched solve: the subcells-only series string). The target is under 10 s.
@@ -23,12 +23,14 @@ import warnings
 
 import numpy as np
 
-from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.compile import compile_stack
 from siltandem.circuit.elements import take_rows
 from siltandem.laws.spectral import step_absorber_photocurrents_rows
 from siltandem.solve.series import solve_string
 from siltandem.stack.load import load_stack
 from siltandem.studies import yield_year as Y
+from siltandem.materials import weather as weather_files
+from siltandem.studies import sky
 
 ROOT = Path(__file__).resolve().parents[1]
 RADIATIVE_TRIPLE = """[conditions]
@@ -68,7 +70,7 @@ def quiet(function):
 @quiet
 def main():
     triple = load_stack(ROOT / "stacks" / "demo_triple.toml")
-    seconds_weather, weather = timed(lambda: Y.read_weather("demo"))
+    seconds_weather, weather = timed(lambda: weather_files.read_weather("demo"))
     hours = len(weather.data)
     Y.annual_yield(triple, weather)  # warm caches (pvlib tables, imports)
     total, result = timed(lambda: Y.annual_yield(triple, weather), repeats=3)
@@ -82,7 +84,7 @@ def main():
           "(median of 3)")
 
     tilt, azimuth = abs(weather.latitude), 180.0
-    seconds_light, light = timed(lambda: Y.hourly_light(weather, tilt_deg=tilt,
+    seconds_light, light = timed(lambda: sky.hourly_light(weather, tilt_deg=tilt,
                                                         azimuth_deg=azimuth), repeats=3)
     circuit = compile_stack(triple)
     cells = circuit.subcells

@@ -124,7 +124,7 @@ def test_an_output_that_is_an_input_is_refused(folder, capsys, argv, pattern):
 
 
 def test_the_weather_file_is_an_input(folder, capsys):
-    from siltandem.studies.yield_year import demo_weather_path
+    from siltandem.materials.weather import demo_weather_path
 
     shutil.copy(demo_weather_path(), folder / "weather.csv")
     refused(capsys, ["yield", DUAL, "--weather", "weather.csv", "--csv", "weather.csv"],

@@ -15,7 +15,7 @@ import pytest
 
 from siltandem.result import penalties
 from siltandem.result import driver as result_module
-from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.compile import compile_stack
 from siltandem.circuit.elements import Resistor, Subcell, batch
 from siltandem.optics.illuminate import illuminate
 from siltandem.result.penalties import removal_powers

@@ -86,7 +86,8 @@ def test_placements_command(tmp_path):
 def test_placements_by_energy_rank_by_the_year():
     from siltandem.stack.placements import with_placement
     from siltandem.studies.placements import energy_of_candidates
-    from siltandem.studies.yield_year import annual_yield, read_weather
+    from siltandem.studies.yield_year import annual_yield
+    from siltandem.materials.weather import read_weather
 
     stack = load_stack(DEMO)
     weather = read_weather("demo")

@@ -17,6 +17,7 @@ from pvlib.spectrum import get_reference_spectra
 from siltandem.studies import runner as parallel
 from siltandem.constants import HC_EV_NM
 from siltandem.stack.load import load_stack
+from siltandem.stack import inputs
 from siltandem.studies import sweep
 from siltandem.studies.maps import design_map
 from siltandem.studies.matching import match_currents
@@ -187,7 +188,8 @@ def test_a_code_change_invalidates_the_chunks(folder, solves, monkeypatch, capsy
 
 
 def test_the_code_digest_covers_every_source_and_data_file(tmp_path):
-    package = Path(parallel.__file__).resolve().parent
+    package = parallel.package_folder()
+    assert (package / "laws" / "optics.py").is_file()
     copy = tmp_path / "siltandem"
     shutil.copytree(package, copy, ignore=shutil.ignore_patterns("__pycache__"))
     reference = parallel._tree_digest(copy)
@@ -206,9 +208,9 @@ def test_the_code_digest_covers_every_source_and_data_file(tmp_path):
 
 def test_input_files_of_a_study(folder):
     stack = load_stack(folder / "dual.toml")
-    files = {Path(f).name for f in sweep.input_files(stack)}
+    files = {Path(f).name for f in inputs.input_files(stack)}
     assert files == {"dual.toml", "light.csv", "top_eqe.csv"}
-    named = sweep.input_files(stack, spectrum="am1.5d")
+    named = inputs.input_files(stack, spectrum="am1.5d")
     assert {Path(f).name for f in named} == {"dual.toml", "top_eqe.csv"}
 
 

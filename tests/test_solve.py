@@ -205,7 +205,7 @@ def test_dim_light_unshunted_middle_cell_still_has_an_mpp():
     # MPP search must not take that end for a root (demo triple, invented values, 1 W/m2 light)
     from pathlib import Path
 
-    from siltandem.circuit.from_elements import compile_stack
+    from siltandem.circuit.compile import compile_stack
     from siltandem.stack.load import load_stack
 
     circuit = compile_stack(load_stack(Path(__file__).resolve().parents[1] / "stacks"

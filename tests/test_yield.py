@@ -24,6 +24,9 @@ from siltandem.laws.spectral import (
 )
 from siltandem.stack.load import load_stack
 from siltandem.studies import yield_year as Y
+from siltandem.materials import eqe
+from siltandem.materials import weather as weather_files
+from siltandem.studies import sky
 
 ROOT = Path(__file__).resolve().parents[1]
 WEATHER = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
@@ -55,7 +58,7 @@ ere = 0.01
 
 @pytest.fixture(scope="module")
 def weather():
-    return Y.read_weather(WEATHER)
+    return weather_files.read_weather(WEATHER)
 
 
 @pytest.fixture(scope="module")
@@ -165,11 +168,11 @@ def test_spectrl2_chain_against_the_published_reference_case():
     # 47.9121 deg); SPA gives 47.9144 deg. That 0.0023 deg moves the spectra by about 1e-4
     # relative: tolerance 5e-4 relative (measured at most 9e-5).
     when = pd.DatetimeIndex([pd.Timestamp("2020-03-15 10:45:59", tz="Etc/GMT+5")])
-    geometry = Y.sun_geometry(when, latitude=40.0, longitude=-80.0, altitude_m=0.0,
+    geometry = sky.sun_geometry(when, latitude=40.0, longitude=-80.0, altitude_m=0.0,
                               pressure_Pa=101300.0, air_temperature_C=15.0, tilt_deg=0.0,
                               azimuth_deg=180.0)
     assert geometry["zenith_deg"][0] == pytest.approx(47.912086486816406, abs=0.01)
-    lam, parts = Y.clear_sky_plane_spectra(geometry, tilt_deg=0.0, albedo=0.2,
+    lam, parts = sky.clear_sky_plane_spectra(geometry, tilt_deg=0.0, albedo=0.2,
                                            pressure_Pa=101300.0, precipitable_water_cm=1.42,
                                            day_of_year=75, ozone_atm_cm=0.344,
                                            aerosol_turbidity_500nm=0.1)
@@ -183,7 +186,7 @@ def test_spectrl2_chain_against_the_published_reference_case():
 
 def _reference_poa(*, at_middle):
     """Yearly plane-of-array insolation [kWh/m2] by pvlib's broadband transposition alone."""
-    data, meta = pvlib.iotools.read_tmy3(str(WEATHER), coerce_year=Y.TYPICAL_YEAR,
+    data, meta = pvlib.iotools.read_tmy3(str(WEATHER), coerce_year=weather_files.TYPICAL_YEAR,
                                          map_variables=True)
     times = data.index - pd.Timedelta(minutes=30) if at_middle else data.index
     site = pvlib.location.Location(meta["latitude"], meta["longitude"], altitude=meta["altitude"])
@@ -404,7 +407,7 @@ def test_four_terminal_file(weather):
 def test_layer_stack_year(weather):
     # a layer stack's year: its optics and collection for each hour's spectrum, its dark
     # currents at each hour's temperature (ni^2 and ni scaling, Varshni gap)
-    from siltandem.circuit.from_layers import layer_photocurrents
+    from siltandem.optics.layers import layer_photocurrents
     from siltandem.result.driver import run_stack
 
     stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
@@ -450,16 +453,16 @@ def test_bad_quantum_efficiency_files(tmp_path, text, message):
     path = tmp_path / "eqe.csv"
     path.write_text(text)
     with pytest.raises(StackError, match=message):
-        Y.read_eqe_csv(path)
+        eqe.read_eqe_csv(path)
 
 
 def test_bad_weather_file(tmp_path):
     path = tmp_path / "weather.csv"
     path.write_text("not,a,tmy3\n1,2,3\n")
     with pytest.raises(StackError, match="cannot read it as a TMY3 file"):
-        Y.read_weather(path)
+        weather_files.read_weather(path)
     with pytest.raises(StackError, match="weather file not found"):
-        Y.read_weather(tmp_path / "missing.csv")
+        weather_files.read_weather(tmp_path / "missing.csv")
 
 
 # ----------------------------------------------------------------------------- the command
@@ -511,8 +514,9 @@ def test_match_by_energy_ranks_by_the_year(tmp_path):
 
     from siltandem.stack.load import load_stack
     from siltandem.studies.matching import energy_by_value, match_currents
-    from siltandem.studies.sweep import _with_values, parse_vary
-    from siltandem.studies.yield_year import annual_yield, read_weather
+    from siltandem.studies.sweep import with_values, parse_vary
+    from siltandem.studies.yield_year import annual_yield
+    from siltandem.materials.weather import read_weather
 
     path = tmp_path / "dual.toml"
     path.write_text('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\n'
@@ -523,7 +527,7 @@ def test_match_by_energy_ranks_by_the_year(tmp_path):
     table, _ = match_currents(stack, variation, progress=False)
     weather = read_weather("demo")
     energies = energy_by_value(stack, variation, table, weather=weather, progress=False)
-    alone = annual_yield(_with_values(stack, {"top.absorptance": np.array([1.0])}), weather)
+    alone = annual_yield(with_values(stack, {"top.absorptance": np.array([1.0])}), weather)
     assert energies[-1] == pytest.approx(alone.summary["annual_energy_kWh_m2"], rel=1e-12)
 
 

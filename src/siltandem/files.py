@@ -9,6 +9,7 @@ gets the permissions the umask allows (0644 under umask 022); a replaced file ke
 A full disk or a read-only folder is a StackError naming the path, never a traceback.
 """
 import errno
+import hashlib
 import os
 from pathlib import Path
 import stat
@@ -253,50 +254,11 @@ def check_outputs(outputs, inputs=(), folders=()):
                                  fix="give each output its own path")
 
 
-def package_inputs():
-    """The files of the installed package a run reads: the materials library, the spectra
-    catalogue and the demo stack (an output must not replace them either)."""
-    from importlib import resources
-
-    found = []
-    root = resources.files("siltandem")
-    for folder, pattern in (("materials", "*.toml"), ("data", "*.toml")):
-        place = Path(str(root.joinpath(folder)))
-        if place.is_dir():
-            found += [(f"a data file of siltandem", p) for p in sorted(place.glob(pattern))]
-    return found
-
-
-def spectrum_input(name, relative_to=None):
-    """(what, path) of the file a spectrum name or path makes the run read, or None."""
-    from siltandem.materials.spectra import _catalogue
-
-    if name is None:
-        return None
-    key = str(name).strip()
-    if key.lower() in _catalogue()[1]:    # a standard table, read through pvlib
-        import pvlib
-
-        table = Path(pvlib.__file__).parent / "data" / "ASTMG173.csv"
-        return ("the reference spectrum table of pvlib", table) if table.is_file() else None
-    path = Path(key)
-    if relative_to is not None and not path.is_absolute():
-        path = Path(relative_to) / path
-    return ("the spectrum file", path)
-
-
-def stack_inputs(stack, *, spectrum=None):
-    """Every file solving ``stack`` reads: the stack file, its spectrum CSV (or the ``spectrum``
-    override, relative to the working folder), every subcell's EQE CSV, the package's data."""
-    found = []
-    if stack.source:
-        found.append(("the stack file", Path(stack.source)))
-    if spectrum is not None:
-        found.append(spectrum_input(spectrum))
-    else:
-        found.append(spectrum_input(stack.conditions.spectrum, stack.folder))
-    for element in stack.elements:
-        if element.values.get("eqe"):
-            found.append((f"the quantum-efficiency file of {element.label}",
-                          Path(element.values["eqe"])))
-    return [item for item in found if item is not None] + package_inputs()
+def file_digest(path):
+    """Hex digest of a file's bytes; ``"missing"`` or ``"unreadable: ..."`` when it has none."""
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except FileNotFoundError:
+        return "missing"
+    except OSError as error:
+        return f"unreadable: {error.strerror}"

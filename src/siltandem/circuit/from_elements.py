@@ -8,9 +8,8 @@ import numpy as np
 
 from siltandem import units
 from siltandem.circuit.graph import build_circuit
-from siltandem.constants import RICHARDSON_FREE_A_M2_K2
-from siltandem.circuit.elements import IsotypeInterface, Resistor, Subcell, TunnelJunction, batch
-from siltandem.errors import StackError
+from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
+from siltandem.circuit.isotype import isotype_element
 
 
 def _gap_at(spec, temperature_K):
@@ -59,7 +58,7 @@ def _subcell(spec, temperature_K=None):
 def _eqe(path):
     if path is None:
         return None
-    from siltandem.studies.yield_year import read_eqe_csv
+    from siltandem.materials.eqe import read_eqe_csv
 
     return read_eqe_csv(path)
 
@@ -81,96 +80,15 @@ def _tunnel(spec):
         string=spec.string)
 
 
-def _isotype(spec, temperature_K, file=None):
-    v = spec.values
-    if "upper_material" in v:
-        return _isotype_from_materials(spec, temperature_K, file)
-    if "alpha" in v:
-        alpha = v["alpha"]
-    else:
-        alpha = (v["accumulation_permittivity"] * v["accumulation_doping_cm3"]
-                 / (v["depletion_permittivity"] * v["depletion_doping_cm3"]))
-    richardson = v.get("richardson_A_cm2_K2", RICHARDSON_FREE_A_M2_K2 * 1e-4) * 1e4
-    return IsotypeInterface(
-        spec.name, barrier_eV=batch(v["barrier_eV"]), built_in_V=batch(v["built_in_V"]),
-        alpha=batch(alpha), richardson_A_m2_K2=batch(richardson),
-        direction=batch(1.0 if v["orientation"] == "forward" else -1.0), carrier=v["carrier"],
-        string=spec.string)
-
-
-def _isotype_from_materials(spec, temperature_K, file):
-    from siltandem.laws.thermionic import isotype_band_alignment
-    from siltandem.materials import MaterialError, load_material
-
-    v = spec.values
-    layers = []
-    for side in ("upper", "lower"):
-        try:
-            layers.append(load_material(v[f"{side}_material"], v.get(f"{side}_composition")))
-        except MaterialError as exc:
-            raise StackError(str(exc), file=file, where=f"{spec.label}, key {side}_material",
-                             fix="see `siltandem materials` for the library") from None
-    upper, lower = layers
-    electron = v["carrier"] == "electron"
-    dos = [(m.conduction_dos_per_m3 if electron else m.valence_dos_per_m3)(temperature_K)
-           for m in layers]
-    alignment = isotype_band_alignment(
-        carrier=v["carrier"], affinity_a_eV=upper.electron_affinity_eV,
-        gap_a_eV=upper.gap_eV(temperature_K), band_dos_a_m3=dos[0],
-        doping_a_m3=v["upper_doping_cm3"] * units.PER_CM3_TO_PER_M3,
-        relative_permittivity_a=upper.relative_permittivity,
-        affinity_b_eV=lower.electron_affinity_eV, gap_b_eV=lower.gap_eV(temperature_K),
-        band_dos_b_m3=dos[1], doping_b_m3=v["lower_doping_cm3"] * units.PER_CM3_TO_PER_M3,
-        relative_permittivity_b=lower.relative_permittivity, temperature_K=temperature_K,
-        offset_eV=v.get("offset_eV"))
-    if float(alignment.built_in_V) <= 0:
-        raise StackError("the two layers' Fermi levels line up: no built-in potential, no "
-                         "barrier to model", file=file, where=spec.label,
-                         fix="change a doping slightly, or use a resistor for this interface")
-    upper_accumulates = bool(alignment.a_accumulates)
-    down = v["carriers_flow"] == "down"
-    # forward: majority carriers cross from the depletion side into the accumulation side
-    forward = (down and not upper_accumulates) or (not down and upper_accumulates)
-    from siltandem.constants import BOLTZMANN_EV_K
-
-    info = []
-    for m, doping_key, band_dos in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos):
-        doping = v[doping_key] * units.PER_CM3_TO_PER_M3
-        info.append(dict(material=m.name, doping_m3=doping, permittivity=m.relative_permittivity,
-                         gap_eV=float(m.gap_eV(temperature_K)),
-                         fermi_depth_eV=float(BOLTZMANN_EV_K * temperature_K
-                                              * np.log(band_dos / doping))))
-    sides = {"accumulation": info[0 if upper_accumulates else 1],
-             "depletion": info[1 if upper_accumulates else 0]}
-    if "richardson_A_cm2_K2" in v:
-        richardson = v["richardson_A_cm2_K2"] * 1e4
-    else:
-        attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
-        richardson = min(getattr(m, attribute) for m in layers)
-    # the kT/q tail form holds only a few kT/q away from flat band: a nearly flat interface
-    # (built-in below 3 kT/q) takes the plain depletion form, defined up to flat band
-    tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
-    return IsotypeInterface(
-        spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
-        include_tail=tail,
-        alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
-        direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
-        offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides)
-
-
 BUILDERS = {"subcell": _subcell, "resistor": _resistor, "tunnel": _tunnel}
 
 
-def compile_stack(stack):
-    """Stack -> Circuit (no light yet)."""
-    if stack.layers:
-        from siltandem.circuit.from_layers import compile_layer_stack
-
-        return compile_layer_stack(stack)
+def compile_element_stack(stack):
+    """An element stack (``[[element]]`` tables) -> Circuit (no light yet)."""
     elements = []
     for spec in stack.elements:
         if spec.kind == "isotype":
-            elements.append(_isotype(spec, stack.conditions.temperature_K, stack.source))
+            elements.append(isotype_element(spec, stack.conditions.temperature_K, stack.source))
         elif spec.kind == "subcell":
             elements.append(_subcell(spec, stack.conditions.temperature_K))
         else:

@@ -125,7 +125,8 @@ def _interface(args):
     from siltandem.result.driver import run_stack
     from siltandem.stack.load import load_stack
 
-    from siltandem.files import check_outputs, stack_inputs
+    from siltandem.files import check_outputs
+    from siltandem.stack.inputs import stack_inputs
 
     if args.plot and Path(args.plot).suffix.lower() not in {".png", ".svg", ".pdf"}:
         raise StackError(f"--plot {args.plot}: unsupported file type", where="--plot",
@@ -175,7 +176,7 @@ def _parse_range(text):
     """``START:STOP:N`` -> N concentrations, log-spaced; START and STOP in the range of the file's
     ``suns``, N in OPTION_SCHEMA's (the one schema, siltandem.options)."""
     from siltandem.stack.options import OPTION_SCHEMA, check_option
-    from siltandem.stack.load import CONDITION_SCHEMA
+    from siltandem.stack.schema import CONDITION_SCHEMA
 
     shown = text if len(text) <= 60 else text[:57] + "..."
     parts = text.split(":")
@@ -230,7 +231,8 @@ def _concentration(args, stack, suns):
 
 
 def _run(args):
-    from siltandem.files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
+    from siltandem.files import check_outputs, save_figure_atomic, write_atomic
+    from siltandem.stack.inputs import stack_inputs
     from siltandem.stack.options import CLI_NAMES, CURVE_BYTES_PER_POINT, check_memory, check_study_memory
     from siltandem.report.text import sweep_summary, text_summary
     from siltandem.result.driver import run_stack

@@ -36,7 +36,7 @@ def _weather(args):
     """The weather year of --by energy, read before any work (a bad file fails at once)."""
     if args.by != "energy":
         return None
-    from siltandem.studies.yield_year import read_weather
+    from siltandem.materials.weather import read_weather
 
     return read_weather(args.weather)
 
@@ -44,7 +44,7 @@ def _weather(args):
 def _weather_input(args):
     if getattr(args, "by", None) != "energy" or not args.weather:
         return []
-    from siltandem.studies.yield_year import demo_weather_path
+    from siltandem.materials.weather import demo_weather_path
 
     path = demo_weather_path() if args.weather == "demo" else Path(args.weather)
     return [("the weather file", path)]
@@ -89,7 +89,8 @@ def _check_paths(args):
 
 def _check_outputs(args, stack):
     """Every output of the study against the files it reads, before any work."""
-    from siltandem.files import check_outputs, stack_inputs
+    from siltandem.files import check_outputs
+    from siltandem.stack.inputs import stack_inputs
 
     check_outputs([(option, getattr(args, option[2:], None))
                    for option in ("--csv", "--parquet", "--plot", "--json")],
@@ -153,7 +154,7 @@ def _check_study(args, stack, variations):
 
 def _check_column(column, stack, variations):
     """``map --column``: a numeric result column of this stack, known before the study runs."""
-    from siltandem.circuit.from_elements import compile_stack
+    from siltandem.circuit.compile import compile_stack
     from siltandem.studies.sweep import RESULT_COLUMNS
 
     if stack.layers:

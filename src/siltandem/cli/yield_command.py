@@ -30,7 +30,7 @@ def _pairs(values, option, what):
 
 def add_yield_command(commands):
     """Add ``yield`` to the subparsers of the main parser; returns its parser."""
-    from siltandem.studies.yield_year import MOUNTING, SCALINGS, SKY_MODELS
+    from siltandem.studies.sky import MOUNTING, SCALINGS, SKY_MODELS
 
     parser = commands.add_parser(
         "yield", help="energy over a typical year from an hourly weather file",
@@ -78,10 +78,13 @@ def add_yield_command(commands):
 
 def run_yield(args):
     """Run ``siltandem yield``; returns the exit status (StackError propagates to the caller)."""
-    from siltandem.files import check_outputs, save_figure_atomic, stack_inputs, write_atomic
+    from siltandem.files import check_outputs, save_figure_atomic, write_atomic
+    from siltandem.stack.inputs import stack_inputs
     from siltandem.stack.load import load_stack
-    from siltandem.studies.yield_year import (annual_yield, demo_weather_path, hourly_table, plot_yield,
-                                 temperature_parameters, text_summary)
+    from siltandem.studies.yield_year import annual_yield
+    from siltandem.studies.yield_report import hourly_table, plot_yield, text_summary
+    from siltandem.studies.sky import temperature_parameters
+    from siltandem.materials.weather import demo_weather_path
     from siltandem.text import csv_safe
 
     for option, path, allowed in (("--csv", args.csv, {".csv"}),
@@ -99,12 +102,13 @@ def run_yield(args):
                   + [(f"the quantum-efficiency file of subcell {name!r} (--eqe)", Path(path))
                      for name, path in eqe.items()])
     # everything the year needs, read and checked before its hours are computed
-    from siltandem.circuit.from_elements import compile_stack
-    from siltandem.studies.yield_year import _eqe_tables, _gap_laws, read_weather
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.studies.yield_year import eqe_tables, gap_laws
+    from siltandem.materials.weather import read_weather
 
     names = [cell.name for cell in compile_stack(stack).subcells]
-    _gap_laws(gap_materials, names)
-    _eqe_tables(eqe, names)
+    gap_laws(gap_materials, names)
+    eqe_tables(eqe, names)
     year = read_weather(args.weather)
     result = annual_yield(stack, year, tilt_deg=args.tilt, azimuth_deg=args.azimuth,
                           sky_model=args.sky_model, mounting=args.mounting, albedo=args.albedo,

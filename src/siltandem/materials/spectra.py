@@ -86,6 +86,11 @@ def _catalogue():
     return table, names
 
 
+def is_standard_spectrum(name):
+    """Whether ``name`` names a standard spectrum of the catalogue (or one of its aliases)."""
+    return str(name).strip().lower() in _catalogue()[1]
+
+
 def spectrum_names():
     """Names a user can give for the standard spectra (without aliases)."""
     return list(_catalogue()[0])

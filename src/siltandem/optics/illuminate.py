@@ -22,7 +22,7 @@ def illuminate(circuit, spectrum):
         Already scaled to the concentration of the run.
     """
     if circuit.model is not None:
-        from siltandem.circuit.from_layers import illuminate_layers
+        from siltandem.optics.layers import illuminate_layers
 
         return illuminate_layers(circuit, spectrum)
     subcells = circuit.subcells

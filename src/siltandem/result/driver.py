@@ -11,7 +11,7 @@ import math
 import numpy as np
 
 from siltandem import units
-from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum

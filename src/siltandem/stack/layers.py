@@ -23,7 +23,7 @@ import math
 import re
 
 from siltandem.errors import StackError
-from siltandem.stack.load import _number, _suggest
+from siltandem.stack.schema import read_number, suggest
 from siltandem.text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
@@ -119,7 +119,7 @@ def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, r
             isinstance(value, float) and math.isnan(value)):
         raise StackError(f"key {key!r} must be a number ({unit}), got {excerpt(value)}",
                          file=file, where=where, fix=f"write {key} = <number> without quotes")
-    value = _number(value, file=file, where=where, key=key, unit=unit)
+    value = read_number(value, file=file, where=where, key=key, unit=unit)
     bad_low = value <= low if low_open else value < low
     if bad_low or value > high:
         bound = "(" if low_open else "["
@@ -175,7 +175,7 @@ def parse_layers(tables, *, file):
         for key in table:
             if key not in LAYER_KEYS:
                 raise StackError(f"unknown key {key!r} for a layer", file=file, where=where,
-                                 fix=_suggest(key, LAYER_KEYS) + "allowed keys: "
+                                 fix=suggest(key, LAYER_KEYS) + "allowed keys: "
                                  + ", ".join(sorted(LAYER_KEYS)))
         material = table.get("material")
         if material is None:
@@ -192,7 +192,7 @@ def parse_layers(tables, *, file):
                              f"{excerpt(composition)}", file=file, where=where,
                              fix="write composition = 0.51")
         if composition is not None:
-            composition = _number(composition, file=file, where=where, key="composition",
+            composition = read_number(composition, file=file, where=where, key="composition",
                                   unit="")
         _check_material(material, composition, file=file, where=where)
         thickness = _positive_number(table, "thickness_nm", file=file, where=where,
@@ -247,7 +247,7 @@ def parse_coatings(tables, *, file):
         for key in table:
             if key not in COATING_KEYS:
                 raise StackError(f"unknown key {key!r} for a coating", file=file, where=where,
-                                 fix=_suggest(key, COATING_KEYS) + "allowed keys: "
+                                 fix=suggest(key, COATING_KEYS) + "allowed keys: "
                                  + ", ".join(sorted(COATING_KEYS)))
         index = _positive_number(table, "refractive_index", file=file, where=where, unit="",
                                  low=1.0, high=5.0, low_open=False)
@@ -270,7 +270,7 @@ def _settings(table, *, file, section, defaults, ranges):
     for key in table:
         if key not in defaults:
             raise StackError(f"unknown key {key!r} in [{section}]", file=file,
-                             where=f"key {section}.{key}", fix=_suggest(key, defaults)
+                             where=f"key {section}.{key}", fix=suggest(key, defaults)
                              + "allowed: " + ", ".join(defaults))
     values = dict(defaults)
     for key, (unit, low, high, low_open) in ranges.items():

@@ -7,132 +7,16 @@ the file, the element (index and name) or key, what is wrong and how to fix it.
 """
 from dataclasses import dataclass, field
 from pathlib import Path
-import difflib
-import math
-import re
 import tomllib
 
-import numpy as np
 
 from siltandem.constants import STANDARD_TEMPERATURE_K
 from siltandem.errors import StackError
 from siltandem.text import excerpt
-
-
-@dataclass(frozen=True)
-class Parameter:
-    """One key of an element table: its unit, range and default."""
-
-    key: str
-    unit: str
-    low: float
-    high: float
-    default: float | None = None        # None: required
-    low_open: bool = False              # strict lower bound
-    high_open: bool = False
-    help: str = ""
-
-    def describe_range(self):
-        left = "(" if self.low_open else "["
-        right = ")" if self.high_open else "]"
-        return f"{left}{self.low:g}, {self.high:g}{right} {self.unit}".strip()
-
-
-INF = math.inf
-#: smallest absorptance, ERE and shunt a subcell may give: sensible floors that keep the law's
-#: numbers finite (a denormal 5e-324 would make J01 or the shunt conductance infinite)
-MIN_ABSORPTANCE = 1e-6
-MIN_ERE = 1e-12
-MIN_SHUNT_OHM_CM2 = 1e-6
-
-#: keys of each element kind: the stack-file schema (units as written in files)
-ELEMENT_SCHEMA = {
-    "subcell": [
-        Parameter("gap_eV", "eV", 0.3, 4.0, help="band gap"),
-        Parameter("absorptance", "", MIN_ABSORPTANCE, 1.0, 1.0,
-                  help="step absorptance above the gap; below 1e-6 the subcell takes less than a "
-                       "millionth of the light: leave it out of the stack instead"),
-        Parameter("ere", "", MIN_ERE, 1.0, 1.0,
-                  help="external radiative efficiency (1 = radiative limit); below 1e-12 J01 is "
-                       "more than 1e12 times the radiative limit and the cell gives no voltage"),
-        Parameter("j02_mA_cm2", "mA/cm2", 0.0, 1e3, 0.0,
-                  help="saturation current of the ideality-2 diode"),
-        Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e3, 0.0, help="series resistance"),
-        Parameter("shunt_ohm_cm2", "ohm cm2", MIN_SHUNT_OHM_CM2, INF, INF,
-                  help="shunt resistance (omit for none); below 1e-6 ohm cm2 it drops less than "
-                       "a microvolt at 1 A/cm2: a short circuit, leave the subcell out instead"),
-        Parameter("breakdown_V", "V", 0.0, 1e4, INF, low_open=True,
-                  help="reverse breakdown voltage, as a positive magnitude (needs a shunt)"),
-        Parameter("breakdown_factor", "", 0.0, 1e3, 1e-3,
-                  help="fraction of the shunt current multiplied by avalanche"),
-        Parameter("breakdown_exponent", "", 0.5, 20.0, 3.28, help="avalanche exponent"),
-    ],
-    "resistor": [
-        Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e4, help="series resistance"),
-    ],
-    "tunnel": [
-        Parameter("peak_mA_cm2", "mA/cm2", 0.0, 1e9, low_open=True,
-                  help="peak tunnelling current density"),
-        Parameter("peak_V", "V", 0.0, 5.0, low_open=True, help="voltage of the current peak"),
-        Parameter("valley_mA_cm2", "mA/cm2", 0.0, 1e9, low_open=True,
-                  help="excess (valley) current density"),
-        Parameter("valley_V", "V", 0.0, 10.0, low_open=True, help="voltage of the valley"),
-        Parameter("excess_slope_per_V", "1/V", 0.0, 1e4, 0.0,
-                  help="exponent of the excess current (0: the law's default)"),
-        Parameter("saturation_mA_cm2", "mA/cm2", 0.0, 1e3, 1e-14,
-                  help="saturation current of the thermal diode beyond the valley"),
-        Parameter("ideality", "", 0.5, 5.0, 1.0, help="ideality of the thermal diode"),
-    ],
-}
-#: numeric keys of an isotype interface (each optional; which ones are needed depends on the form)
-ISOTYPE_NUMBERS = {
-    "barrier_eV": Parameter("barrier_eV", "eV", -1.0, 5.0,
-                            help="barrier top above the accumulation side's Fermi level"),
-    "built_in_V": Parameter("built_in_V", "V", 0.0, 5.0, low_open=True,
-                            help="built-in potential"),
-    "alpha": Parameter("alpha", "", 0.0, INF, low_open=True, high_open=True,
-                       help="eps1 N1 / (eps2 N2), accumulation over depletion side"),
-    "accumulation_doping_cm3": Parameter("accumulation_doping_cm3", "cm-3", 1e10, 1e22,
-                                         help="doping of the accumulation side"),
-    "depletion_doping_cm3": Parameter("depletion_doping_cm3", "cm-3", 1e10, 1e22,
-                                      help="doping of the depletion side"),
-    "accumulation_permittivity": Parameter("accumulation_permittivity", "", 1.0, 100.0,
-                                           help="relative permittivity, accumulation side"),
-    "depletion_permittivity": Parameter("depletion_permittivity", "", 1.0, 100.0,
-                                        help="relative permittivity, depletion side"),
-    "richardson_A_cm2_K2": Parameter("richardson_A_cm2_K2", "A cm-2 K-2", 0.0, 1e4,
-                                     low_open=True, help="effective Richardson constant"),
-    "upper_doping_cm3": Parameter("upper_doping_cm3", "cm-3", 1e10, 1e22,
-                                  help="doping of the sun-side layer"),
-    "lower_doping_cm3": Parameter("lower_doping_cm3", "cm-3", 1e10, 1e22,
-                                  help="doping of the layer below"),
-    "upper_composition": Parameter("upper_composition", "", 0.0, 1.0,
-                                   help="alloy composition of the sun-side layer"),
-    "lower_composition": Parameter("lower_composition", "", 0.0, 1.0,
-                                   help="alloy composition of the layer below"),
-    "offset_eV": Parameter("offset_eV", "eV", -3.0, 3.0,
-                           help="band offset override (step of the carrier's band edge from "
-                                "the upper to the lower layer)"),
-}
-#: text keys of an isotype interface and their allowed values (None: any text)
-ISOTYPE_TEXTS = {"carrier": ("electron", "hole"), "orientation": ("forward", "reverse"),
-                 "carriers_flow": ("down", "up"), "upper_material": None,
-                 "lower_material": None}
-#: kinds whose laws come with later stages of the project: recognised, not yet solvable
-PLANNED_KINDS = {}
-COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
-STACK_KEYS = {"name", "notes"}
-CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
-                  "terminals": 2}
-TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules", "optics",
-                  "placement"}
-#: the numeric keys of [conditions] with their ranges; the overrides --suns and --temperature and
-#: the API's suns= and temperature_K= are checked against these same entries (siltandem.options)
-CONDITION_SCHEMA = {
-    "suns": Parameter("suns", "suns", 0.0, 1e5, 1.0, low_open=True, help="concentration"),
-    "temperature_K": Parameter("temperature_K", "K", 150.0, 1000.0, STANDARD_TEMPERATURE_K,
-                               help="cell temperature"),
-}
+from siltandem.stack.schema import (COMMON_ELEMENT_KEYS, CONDITION_KEYS, CONDITION_SCHEMA,
+                                    ELEMENT_SCHEMA, ISOTYPE_NUMBERS, ISOTYPE_TEXTS, STACK_KEYS,
+                                    TOP_LEVEL_KEYS, check_element_values, check_number,
+                                    check_range, read_number, suggest)
 
 
 @dataclass(frozen=True)
@@ -191,75 +75,6 @@ class Stack:
     rules: dict = field(default_factory=dict)
 
 
-def _suggest(word, options):
-    close = difflib.get_close_matches(word, sorted(options), n=3, cutoff=0.6)
-    return f"did you mean {' or '.join(repr(c) for c in close)}? " if close else ""
-
-
-def _number(value, *, file, where, key, unit):
-    """A file value as a float: a number (TOML integer or float), not text, bool or nan.
-
-    A TOML integer may have any number of digits; one beyond float64 (about 1.8e308) is
-    refused here rather than overflowing later.
-    """
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise StackError(f"key {key!r} must be a number ({unit or 'no unit'}), got "
-                         f"{type(value).__name__} {excerpt(value)}", file=file, where=where,
-                         fix=f"write {key} = <number> without quotes")
-    try:
-        value = float(value)
-    except OverflowError:
-        raise StackError(f"key {key!r} = {excerpt(value)} is too large to be a number "
-                         "(float64 holds magnitudes up to about 1.8e308)", file=file,
-                         where=where, fix=f"give {key}" + (f" in {unit}" if unit else "")
-                         + " within its range (README, stack files)") from None
-    if math.isnan(value):
-        raise StackError(f"key {key!r} is nan", file=file, where=where, fix="give a number")
-    return value
-
-
-def _check_range(spec, value, *, file, where):
-    low_bad = value <= spec.low if spec.low_open else value < spec.low
-    high_bad = value >= spec.high if spec.high_open else value > spec.high
-    if low_bad or high_bad:
-        raise StackError(f"{spec.key} = {value:g} is outside its physical range "
-                         f"{spec.describe_range()} ({spec.help})", file=file, where=where,
-                         fix=f"give {spec.key} within {spec.describe_range()}")
-
-
-def check_number(spec, value, *, file=None, where=None):
-    """One value against its :class:`Parameter`: a number, not NaN, inside the key's range.
-
-    The one check behind file keys, command-line overrides and study options (siltandem.options),
-    so all three give the same message. Returns the value as a float.
-    """
-    if hasattr(value, "dtype") and getattr(value, "shape", None) == ():   # a numpy scalar
-        value = value.item()
-    value = _number(value, file=file, where=where, key=spec.key, unit=spec.unit)
-    _check_range(spec, value, file=file, where=where)
-    return value
-
-
-def check_element_values(kind, values, *, file=None, where=None):
-    """The rules between an element's keys: a tunnel junction's peak before and above its valley
-    (and a law that can put its maximum there), a subcell's breakdown only with a shunt.
-
-    ``values`` maps key -> number, or arrays of one design per entry (a study's grid): then any
-    bad design raises (its message names the first one only through its numbers when the arrays
-    hold one value; callers that need the design narrow the arrays down first).
-    """
-    if kind == "tunnel":
-        _check_tunnel(values, file=file, where=where)
-    elif kind == "subcell":
-        breakdown = np.isfinite(np.asarray(values["breakdown_V"], dtype=float))
-        shunt = np.isfinite(np.asarray(values["shunt_ohm_cm2"], dtype=float))
-        if np.any(breakdown & ~shunt):
-            raise StackError("breakdown_V needs shunt_ohm_cm2: the avalanche current multiplies "
-                             "the shunt current (J. W. Bishop, Solar Cells 25 (1988) 73)",
-                             file=file, where=where,
-                             fix="add shunt_ohm_cm2 = <ohm cm2>, or remove breakdown_V")
-
-
 def _parse_element(index, table, *, file, terminals):
     where = f"element {index}"
     if not isinstance(table, dict):
@@ -278,17 +93,13 @@ def _parse_element(index, table, *, file, terminals):
     if not isinstance(kind, str):
         raise StackError(f"kind must be text, got {excerpt(kind)}", file=file, where=where,
                          fix='write kind = "subcell"')
-    if kind in PLANNED_KINDS:
-        raise StackError(f"kind {kind!r} ({PLANNED_KINDS[kind]}) is not solvable in this "
-                         "version", file=file, where=where,
-                         fix="use subcell, resistor and tunnel elements for now")
     if kind == "isotype":
         string = _parse_string(table, file=file, where=where, terminals=terminals)
         return ElementSpec(index, kind, name, string, _parse_isotype(table, file=file,
                                                                      where=where))
     if kind not in ELEMENT_SCHEMA:
         raise StackError(f"unknown element kind {kind!r}", file=file, where=where,
-                         fix=_suggest(kind, list(ELEMENT_SCHEMA) + ["isotype"])
+                         fix=suggest(kind, list(ELEMENT_SCHEMA) + ["isotype"])
                          + "kind is one of " + ", ".join(repr(k) for k in
                                                         list(ELEMENT_SCHEMA) + ["isotype"]))
     schema = {p.key: p for p in ELEMENT_SCHEMA[kind]}
@@ -296,7 +107,7 @@ def _parse_element(index, table, *, file, terminals):
     for key in table:
         if key not in schema and key not in COMMON_ELEMENT_KEYS and key not in extra_keys:
             raise StackError(f"unknown key {key!r} for a {kind}", file=file, where=where,
-                             fix=_suggest(key, list(schema) + list(COMMON_ELEMENT_KEYS)
+                             fix=suggest(key, list(schema) + list(COMMON_ELEMENT_KEYS)
                                           + list(extra_keys)) + "allowed keys: "
                              + ", ".join(sorted(set(schema) | COMMON_ELEMENT_KEYS | extra_keys)))
     string = _parse_string(table, file=file, where=where, terminals=terminals)
@@ -308,8 +119,8 @@ def _parse_element(index, table, *, file, terminals):
     values = {}
     for key, spec in schema.items():
         if key in table:
-            value = _number(table[key], file=file, where=where, key=key, unit=spec.unit)
-            _check_range(spec, value, file=file, where=where)
+            value = read_number(table[key], file=file, where=where, key=key, unit=spec.unit)
+            check_range(spec, value, file=file, where=where)
         elif spec.default is None:
             raise StackError(f"missing required key {key!r} ({spec.help}, {spec.unit})",
                              file=file, where=where, fix=f"add {key} = <number in {spec.unit}>")
@@ -342,7 +153,7 @@ def _subcell_material(name, *, file, where):
 
 def _subcell_eqe(name, *, file, where):
     """A subcell's measured ``eqe`` CSV (wavelength_nm, eqe), resolved next to the stack file."""
-    from siltandem.studies.yield_year import read_eqe_csv
+    from siltandem.materials.eqe import read_eqe_csv
 
     if not isinstance(name, str):
         raise StackError(f"eqe must be a file path (text), got {excerpt(name)}", file=file,
@@ -381,13 +192,13 @@ def _parse_isotype(table, *, file, where):
     for key in table:
         if key not in allowed:
             raise StackError(f"unknown key {key!r} for an isotype interface", file=file,
-                             where=where, fix=_suggest(key, allowed) + "allowed keys: "
+                             where=where, fix=suggest(key, allowed) + "allowed keys: "
                              + ", ".join(sorted(allowed)))
     values = {}
     for key, spec in ISOTYPE_NUMBERS.items():
         if key in table:
-            value = _number(table[key], file=file, where=where, key=key, unit=spec.unit)
-            _check_range(spec, value, file=file, where=where)
+            value = read_number(table[key], file=file, where=where, key=key, unit=spec.unit)
+            check_range(spec, value, file=file, where=where)
             values[key] = value
     for key, options in ISOTYPE_TEXTS.items():
         if key in table:
@@ -437,44 +248,6 @@ def _parse_isotype(table, *, file, where):
     return values
 
 
-def _check_tunnel(values, *, file, where):
-    """Peak before valley, valley below peak, and a law that can put its maximum at the peak."""
-    from siltandem.laws import esaki
-
-    def g(key):   # one value as written; a study's arrays (any entry bad) say "several"
-        value = np.asarray(values[key], dtype=float)
-        return f"{float(value.reshape(-1)[0]):g}" if value.size == 1 else "(several values)"
-
-    if np.any(np.asarray(values["peak_V"]) >= np.asarray(values["valley_V"])):
-        raise StackError(f"peak_V = {g('peak_V')} V is not below valley_V = "
-                         f"{g('valley_V')} V", file=file, where=where,
-                         fix="the current peak comes before the valley: lower peak_V or raise "
-                             "valley_V")
-    if np.any(np.asarray(values["valley_mA_cm2"]) >= np.asarray(values["peak_mA_cm2"])):
-        raise StackError(f"valley_mA_cm2 = {g('valley_mA_cm2')} is not below peak_mA_cm2 "
-                         f"= {g('peak_mA_cm2')}", file=file, where=where,
-                         fix="a tunnel junction's valley current is below its peak current: "
-                             "lower valley_mA_cm2 or raise peak_mA_cm2")
-    slope = np.asarray(values["excess_slope_per_V"], dtype=float)
-    slope = slope if np.all(slope > 0) else None     # 0: the law's default (as compile.py)
-    try:
-        esaki.tunnel_term_for_exact_peak(
-            peak_A_m2=values["peak_mA_cm2"] * 10, peak_V=values["peak_V"],
-            valley_A_m2=values["valley_mA_cm2"] * 10, valley_V=values["valley_V"],
-            excess_slope_per_V=slope, saturation_A_m2=values["saturation_mA_cm2"] * 10,
-            ideality=values["ideality"], temperature_K=STANDARD_TEMPERATURE_K)
-    except esaki.TunnelParameterError as exc:
-        message = str(exc).removeprefix("tunnel junction: ")
-        message = re.sub(r"(-?[\d.]+(?:e[-+]?\d+)?) A/m\^2",
-                         lambda m: f"{float(m.group(1)) / 10:g} mA/cm2", message)
-        for law_key, file_key in (("peak_A_m2", "peak_mA_cm2"), ("valley_A_m2", "valley_mA_cm2"),
-                                  ("saturation_A_m2", "saturation_mA_cm2")):
-            message = message.replace(law_key, file_key)
-        problem, _, fix = message.partition(": ")
-        raise StackError(problem, file=file, where=where,
-                         fix=fix or "check peak, valley and saturation values") from None
-
-
 def _parse_conditions(table, *, file):
     if not isinstance(table, dict):
         raise StackError("[conditions] must be a table", file=file, where="key conditions",
@@ -483,7 +256,7 @@ def _parse_conditions(table, *, file):
         if key not in CONDITION_KEYS:
             raise StackError(f"unknown key {key!r} in [conditions]", file=file,
                              where=f"key conditions.{key}",
-                             fix=_suggest(key, CONDITION_KEYS) + "allowed: "
+                             fix=suggest(key, CONDITION_KEYS) + "allowed: "
                              + ", ".join(CONDITION_KEYS))
     spectrum = table.get("spectrum", CONDITION_KEYS["spectrum"])
     if not isinstance(spectrum, str):
@@ -509,7 +282,7 @@ def parse_stack(document, *, file=None, folder=None):
     for key in document:
         if key not in TOP_LEVEL_KEYS:
             raise StackError(f"unknown table or key {key!r} at the top level", file=file,
-                             where=f"key {key}", fix=_suggest(key, TOP_LEVEL_KEYS)
+                             where=f"key {key}", fix=suggest(key, TOP_LEVEL_KEYS)
                              + "a stack file has [stack], [conditions] and [[element]] tables")
     head = document.get("stack", {})
     if not isinstance(head, dict):
@@ -519,7 +292,7 @@ def parse_stack(document, *, file=None, folder=None):
         if key not in STACK_KEYS:
             raise StackError(f"unknown key {key!r} in [stack]", file=file,
                              where=f"key stack.{key}",
-                             fix=_suggest(key, STACK_KEYS) + "allowed: name, notes")
+                             fix=suggest(key, STACK_KEYS) + "allowed: name, notes")
     name = head.get("name", Path(file).stem if file else "stack")
     notes = head.get("notes", "")
     for key, value in (("name", name), ("notes", notes)):

@@ -16,7 +16,7 @@ import math
 import re
 
 from siltandem.errors import StackError
-from siltandem.stack.load import CONDITION_SCHEMA, Parameter, check_number
+from siltandem.stack.schema import CONDITION_SCHEMA, Parameter, check_number
 
 #: options that are not file keys: their ranges (the file keys' ranges live in stack.py/layers.py)
 OPTION_SCHEMA = {

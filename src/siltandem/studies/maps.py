@@ -3,7 +3,8 @@ import functools
 
 
 from siltandem.studies.runner import run_chunks
-from siltandem.studies.sweep import check_study, design_table, evaluate_chunk, input_files
+from siltandem.studies.sweep import check_study, design_table, evaluate_chunk
+from siltandem.stack.inputs import input_files
 
 
 def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=True,

@@ -9,8 +9,9 @@ import numpy as np
 from scipy import optimize
 
 from siltandem.studies.runner import run_chunks
-from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, input_files, photocurrents_at,
-                    solve_designs)
+from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, photocurrents_at,
+                                     solve_designs)
+from siltandem.stack.inputs import input_files
 
 
 def match_currents(stack, variation, *, workers=None, cluster=None, output=None, progress=True,
@@ -102,8 +103,9 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
     """
     import sys
 
-    from siltandem.studies.sweep import _with_values
-    from siltandem.studies.yield_year import annual_yield, read_weather
+    from siltandem.studies.sweep import with_values
+    from siltandem.studies.yield_year import annual_yield
+    from siltandem.materials.weather import read_weather
 
     if stack.layers:
         from siltandem.errors import StackError
@@ -115,7 +117,7 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
     energies = []
     values = table[variation.column].to_numpy()
     for k, value in enumerate(values):
-        varied = _with_values(stack, {variation.column: np.array([value])})
+        varied = with_values(stack, {variation.column: np.array([value])})
         result = annual_yield(varied, year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
         energies.append(result.summary["annual_energy_kWh_m2"])
         if progress:

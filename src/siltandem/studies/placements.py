@@ -118,7 +118,7 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
     table = pd.DataFrame({"design": np.arange(len(candidates), dtype=np.int64)})
     function = functools.partial(evaluate_candidates, stack=stack, candidates=candidates,
                                  spectrum=spectrum, suns=suns, temperature_K=temperature_K)
-    from siltandem.studies.sweep import input_files
+    from siltandem.stack.inputs import input_files
 
     result = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
                         progress=progress, chunk_rows=1 if (workers or cluster) else None,
@@ -167,7 +167,8 @@ def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, az
     """Add each candidate's annual energy (a yield year each) and rank by it (best first)."""
     import sys
 
-    from siltandem.studies.yield_year import annual_yield, read_weather
+    from siltandem.studies.yield_year import annual_yield
+    from siltandem.materials.weather import read_weather
 
     candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
     by_name = {c.name: c for c in candidates}

@@ -64,6 +64,7 @@ import numpy as np
 import pandas as pd
 
 from siltandem.errors import StackError
+from siltandem.files import file_digest
 
 #: Upper bound of the default chunk size, to bound a chunk's working memory. Studies whose
 #: per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
@@ -341,10 +342,10 @@ def code_digest():
     """
     from importlib import metadata
 
-    from siltandem import __version__
+    from siltandem.version import __version__
 
     digest = hashlib.sha256(b"siltandem " + __version__.encode())
-    digest.update(_tree_digest(Path(__file__).resolve().parent).encode())
+    digest.update(_tree_digest(package_folder()).encode())
     for name in _LIBRARIES:
         try:
             version = metadata.version(name)
@@ -352,6 +353,11 @@ def code_digest():
             version = "absent"
         digest.update(f"\0{name} {version}".encode())
     return digest.hexdigest()
+
+
+def package_folder():
+    """The folder of the installed siltandem package (every stage's code and data under it)."""
+    return Path(__file__).resolve().parents[1]
 
 
 def _tree_digest(root):
@@ -365,16 +371,6 @@ def _tree_digest(root):
         digest.update(b"\0file\0" + path.relative_to(root).as_posix().encode() + b"\0")
         digest.update(hashlib.sha256(path.read_bytes()).digest())
     return digest.hexdigest()
-
-
-def file_digest(path):
-    """Hex digest of a file's bytes; ``"missing"`` or ``"unreadable: ..."`` when it has none."""
-    try:
-        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
-    except FileNotFoundError:
-        return "missing"
-    except OSError as error:
-        return f"unreadable: {error.strerror}"
 
 
 def _feed_callable(digest, obj):

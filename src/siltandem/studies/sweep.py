@@ -7,19 +7,20 @@ so the same chunks run in this process, on a local pool or on a Dask cluster (pa
 """
 from dataclasses import dataclass, replace
 import functools
-from pathlib import Path
 import warnings
 
 import numpy as np
 
 from siltandem import units
-from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.compile import compile_stack
 from siltandem.errors import StackError
-from siltandem.studies.runner import file_digest
+from siltandem.files import file_digest
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
-from siltandem.stack.load import ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values, check_number
+from siltandem.stack.inputs import spectrum_input
+from siltandem.stack.schema import (ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values,
+                                    check_number)
 
 #: result columns every study row carries, named as in the JSON of `siltandem run`
 RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
@@ -248,7 +249,7 @@ def design_table(variations, *, grid=True):
     return frame
 
 
-def _with_values(stack, columns):
+def with_values(stack, columns):
     """The stack with some element keys replaced by arrays (one value per design)."""
     changed = []
     for spec in stack.elements:
@@ -278,7 +279,7 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
                                  ("temperature_K", temperature_K)) if v is not None}
     conditions = replace(conditions, **changes)
     light = study_light(stack, spectrum=spectrum, suns=conditions.suns)
-    circuit = illuminate(compile_stack(replace(_with_values(stack, columns),
+    circuit = illuminate(compile_stack(replace(with_values(stack, columns),
                                                conditions=conditions)), light)
     size = max([1] + [np.size(v) for v in columns.values()])
     out = {}
@@ -318,42 +319,9 @@ def _spectrum_cached(name, suns, folder, content):
 def _spectrum(name, suns, folder):
     # keyed by the CSV's content too: a file edited between two studies of one process is read
     # again, never answered from the cache
-    path = spectrum_file(name, folder)
-    content = None if path is None else file_digest(path)
+    found = spectrum_input(name, folder)
+    content = None if found is None else file_digest(found[1])
     return _spectrum_cached(name, float(suns), folder, content)
-
-
-def spectrum_file(name, folder):
-    """The CSV file a spectrum name stands for, resolved as the studies resolve it (relative to
-    the stack's folder); None for a named standard spectrum."""
-    from siltandem.materials.spectra import _catalogue
-
-    key = str(name).strip()
-    if key.lower() in _catalogue()[1] or not (
-            key.lower().endswith(".csv") or "/" in key or "\\" in key):
-        return None   # a standard spectrum (or its alias), or a name get_spectrum refuses
-    path = Path(key)
-    if folder is not None and not path.is_absolute():
-        path = Path(folder) / path
-    return path
-
-
-def input_files(stack, *, spectrum=None):
-    """Every file a study of ``stack`` reads: the stack file, the spectrum CSV (``spectrum``
-    overrides the stack's), each subcell's EQE CSV. Their content goes into the chunk key of
-    :func:`siltandem.parallel.run_chunks`, so that an edited file is never answered from old
-    chunks. (The materials library and the named spectra are package data: the code digest
-    covers them.)"""
-    files = [] if stack.source is None else [str(stack.source)]
-    if spectrum is None:
-        files.append(spectrum_file(stack.conditions.spectrum, stack.folder))
-    else:  # an override is a path relative to the working folder, as for `siltandem run`
-        files.append(spectrum_file(spectrum, None))
-    files = [str(f) for f in files if f is not None]
-    for spec in stack.elements:
-        if spec.values.get("eqe") is not None:
-            files.append(str(spec.values["eqe"]))
-    return files
 
 
 def study_light(stack, *, spectrum=None, suns=None):
@@ -385,6 +353,6 @@ def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperat
     if stack.layers:
         varied = replace(_layer_design(stack, {column: value}), conditions=conditions)
     else:
-        varied = replace(_with_values(stack, {column: np.array([value])}), conditions=conditions)
+        varied = replace(with_values(stack, {column: np.array([value])}), conditions=conditions)
     circuit = illuminate(compile_stack(varied), light)
     return {c.name: float(units.ma_cm2(c.photocurrent_A_m2[0, 0])) for c in circuit.subcells}

@@ -8,7 +8,13 @@ import json
 import numpy as np
 
 from siltandem import units
-from siltandem.studies.yield_year import CAUTION, HOURS_PER_STEP
+
+#: hours each row of the hourly table stands for
+HOURS_PER_STEP = 1.0
+
+CAUTION = ("Results are models, not measurements: the hourly spectra are clear-sky shapes scaled "
+           "to measured irradiance. Electrical and optical work on cells and modules is "
+           "hazardous: follow local codes and licensed practice.")
 
 
 def _kwh(power_W_m2):
@@ -30,7 +36,7 @@ def plot_days(hourly, latitude):
     return days
 
 
-def _summarise(stack, weather, light, hourly, names, laws, tables, standard_efficiency,
+def summarise(stack, weather, light, hourly, names, laws, tables, standard_efficiency,
                bare_power, passive):
     import pandas as pd
 

@@ -43,462 +43,29 @@ import warnings
 import numpy as np
 
 from siltandem import units
-from siltandem.circuit.from_elements import compile_stack
+from siltandem.circuit.compile import compile_stack
 from siltandem.errors import StackError
 from siltandem.optics.illuminate import check_eqe_current, illuminate
-from siltandem.laws.optics import photon_flux, step_absorber_photocurrents
+from siltandem.laws.optics import step_absorber_photocurrents
 from siltandem.laws.spectral import (
     quantum_efficiency_photocurrent,
-    scaled_spectra,
     spectral_mismatch_factor,
     step_absorber_photocurrents_rows,
 )
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
-from siltandem.text import excerpt
+from siltandem.materials.weather import Weather, read_weather
+from siltandem.materials.eqe import read_eqe_csv
+from siltandem.studies.yield_report import summarise
+from siltandem.studies.sky import (AEROSOL_TURBIDITY_500NM, MOUNTING, OZONE_ATM_CM, HourlyLight,
+                                   hourly_light)
 
-#: SPECTRL2's atmosphere where the weather file gives nothing: the ASTM G173-03 atmosphere
-#: (C. A. Gueymard, D. Myers, K. Emery, Solar Energy 73 (2002) 443; values from memory):
-#: ozone 0.3438 atm-cm, aerosol optical depth 0.084 at 500 nm, precipitable water 1.42 cm
-OZONE_ATM_CM = 0.3438
-AEROSOL_TURBIDITY_500NM = 0.084
-PRECIPITABLE_WATER_CM = 1.42
-#: ground albedo where the file gives none (common practice, no source)
-ALBEDO = 0.2
-#: the cell-temperature parameter set used unless another is named
-MOUNTING = "open_rack_glass_glass"
-SKY_MODELS = ("perez", "haydavies", "isotropic", "klucher", "reindl", "king")
-SCALINGS = ("components", "total")
-#: TMY3 years are stitched from different years; the dates are placed in this non-leap year
-TYPICAL_YEAR = 1990
 #: reference conditions of the efficiency at standard test conditions (IEC 60904-3)
 STANDARD_SPECTRUM = "am1.5g"
 STANDARD_TEMPERATURE_K = 298.15
-HOURS_PER_STEP = 1.0
-#: hourly rows of one typical year (TMY3: 365 days of 24 hours)
-HOURS_PER_YEAR = 8760
-#: plausible station metadata: degrees north and east, metres above sea level (the Dead Sea
-#: shore is about -430 m, the highest stations below 9000 m)
-STATION_RANGES = {"latitude": (-90.0, 90.0, "deg"), "longitude": (-180.0, 180.0, "deg"),
-                  "altitude": (-500.0, 9000.0, "m")}
-#: plausible hourly values (after pvlib's variable mapping), with room for cloud enhancement
-#: above the solar constant (1361 W/m2; G. Kopp, J. L. Lean, Geophys. Res. Lett. 38 (2011)
-#: L01706) and for the recorded extremes of air temperature (-89.2 and 56.7 degC, World
-#: Meteorological Organization archive); missing values (NaN) are handled after this check
-WEATHER_RANGES = {"ghi": (-10.0, 2000.0, "W/m2", "global horizontal irradiance"),
-                  "dni": (-10.0, 2000.0, "W/m2", "direct normal irradiance"),
-                  "dhi": (-10.0, 2000.0, "W/m2", "diffuse horizontal irradiance"),
-                  "temp_air": (-100.0, 70.0, "degC", "air temperature"),
-                  "wind_speed": (0.0, 120.0, "m/s", "wind speed")}
-
-CAUTION = ("Results are models, not measurements: the hourly spectra are clear-sky shapes scaled "
-           "to measured irradiance. Electrical and optical work on cells and modules is "
-           "hazardous: follow local codes and licensed practice.")
 
 
-# ------------------------------------------------------------------------------------ weather
-@dataclass(frozen=True)
-class Weather:
-    """A typical year of hourly weather.
-
-    Attributes
-    ----------
-    data : pandas.DataFrame
-        One row per hour, indexed by the file's time stamps (end of each hour, local standard
-        time), with ``ghi``, ``dni``, ``dhi`` [W/m2], ``temp_air`` [degC], ``wind_speed`` [m/s],
-        ``pressure`` [mbar], ``precipitable_water`` [cm] and ``albedo`` [-] (pvlib names).
-    latitude, longitude, altitude_m, timezone_h : float
-    station : str
-    source : str
-        The file it came from.
-    """
-
-    data: object
-    latitude: float
-    longitude: float
-    altitude_m: float
-    timezone_h: float
-    station: str
-    source: str
-
-
-def demo_weather_path():
-    """The TMY3 file pvlib ships (Greensboro, North Carolina, USAF 723170)."""
-    import pvlib
-
-    return Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
-
-
-def _check_whole_year(index, path):
-    """Refuse a weather file that does not cover one year hour by hour: annual energy needs
-    every hour of a typical year once (8760 hourly rows, TMY3 convention; W. Marion, K. Urban,
-    NREL/TP-463-7668, 1995)."""
-    repeated = int(index.duplicated().sum())
-    if repeated:
-        first = index[index.duplicated()][0]
-        raise StackError(f"{repeated} repeated hour(s) (first {first:%d %b %H:%M}): each hour "
-                         "would be counted more than once", file=path, where="--weather",
-                         fix="give each hour of the year once (8760 hourly rows)")
-    if len(index) < HOURS_PER_YEAR:
-        span = (f"{index[0]:%d %b %H:%M} to {index[-1]:%d %b %H:%M}" if len(index)
-                else "no hours")
-        raise StackError(f"the file covers {len(index)} of the {HOURS_PER_YEAR} hours of a year "
-                         f"({span}): a partial year is not an annual energy", file=path,
-                         where="--weather",
-                         fix="give a whole typical year (8760 hourly rows), e.g. --weather demo")
-
-
-def read_weather(path):
-    """Read a TMY3-style weather file with ``pvlib.iotools.read_tmy3`` (map_variables=True).
-
-    ``path`` may be ``"demo"`` for the file pvlib ships (Greensboro, NC). Raises StackError for a
-    missing or unreadable file or one without the columns the yield needs.
-    """
-    import pvlib
-
-    if str(path).strip().lower() == "demo":
-        path = demo_weather_path()
-    path = Path(path)
-    fix = ("give a TMY3 CSV file (two header lines: station metadata, then the column names; "
-           "8760 hourly rows), e.g. pvlib's data/723170TYA.CSV, or --weather demo")
-    if not path.is_file():
-        raise StackError("weather file not found", file=path, where="--weather", fix=fix)
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            data, meta = pvlib.iotools.read_tmy3(str(path), coerce_year=TYPICAL_YEAR,
-                                                 map_variables=True)
-    except Exception as exc:  # pvlib/pandas raise several types for files that are not TMY3
-        raise StackError(f"cannot read it as a TMY3 file ({exc.__class__.__name__}: "
-                         f"{excerpt(str(exc), 120)})", file=path, where="--weather",
-                         fix=fix) from None
-    _check_whole_year(data.index, path)
-    needed = ["ghi", "dni", "dhi", "temp_air", "wind_speed", "pressure"]
-    missing = [c for c in needed if c not in data.columns]
-    if missing:
-        raise StackError(f"no column(s) {', '.join(missing)} after pvlib's variable mapping",
-                         file=path, where="header", fix=fix)
-    for key in ("latitude", "longitude"):
-        if not np.isfinite(float(meta.get(key, np.nan))):
-            raise StackError(f"the station's {key} is missing", file=path, where="line 1",
-                             fix=fix)
-    for key, (low, high, unit) in STATION_RANGES.items():
-        value = float(meta.get(key, 0.0))
-        if not low <= value <= high:
-            raise StackError(f"the station's {key} {value:g} {unit} is outside [{low:g}, "
-                             f"{high:g}] {unit}", file=path, where="line 1",
-                             fix="check the station line of the weather file (TMY3: id, name, "
-                                 "state, time zone, latitude, longitude, altitude)")
-    for column, (low, high, unit, what) in WEATHER_RANGES.items():
-        values = data[column].astype(float).to_numpy()
-        outside = np.flatnonzero((values < low) | (values > high))
-        if outside.size:
-            first = data.index[outside[0]]
-            raise StackError(f"{outside.size} hour(s) with {what} outside [{low:g}, {high:g}] "
-                             f"{unit} (first {first:%d %b %H:%M}: {values[outside[0]]:g} {unit})",
-                             file=path, where=f"column {column}",
-                             fix=f"give {what} in {unit}; fill or correct those hours")
-    frame = data[needed].astype(float).copy()
-    for column, fill in (("precipitable_water", PRECIPITABLE_WATER_CM), ("albedo", ALBEDO)):
-        values = data[column].astype(float) if column in data.columns else np.nan
-        frame[column] = values
-        # TMY3 writes 0 where it has no value; SPECTRL2 needs positive ones
-        frame.loc[~(frame[column] > 0), column] = fill
-    bad = ~np.isfinite(frame[["ghi", "dni", "dhi"]].to_numpy()).all(axis=1)
-    if bad.any():
-        first = frame.index[np.flatnonzero(bad)[0]]
-        raise StackError(f"{int(bad.sum())} hour(s) without GHI, DNI or DHI (first {first})",
-                         file=path, fix="fill the gaps in the weather file")
-    frame[["ghi", "dni", "dhi"]] = frame[["ghi", "dni", "dhi"]].clip(lower=0.0)
-    frame["temp_air"] = frame["temp_air"].fillna(frame["temp_air"].mean())
-    frame["wind_speed"] = frame["wind_speed"].fillna(0.0)
-    altitude = float(meta.get("altitude", 0.0))
-    standard_mbar = pvlib.atmosphere.alt2pres(altitude) / 100
-    frame["pressure"] = frame["pressure"].where(frame["pressure"] > 100, standard_mbar)
-    return Weather(frame, float(meta["latitude"]), float(meta["longitude"]), altitude,
-                   float(meta.get("TZ", 0.0)), str(meta.get("Name", "")).strip('" '), str(path))
-
-
-# ------------------------------------------------------------------------------- hourly light
-@dataclass(frozen=True)
-class HourlyLight:
-    """Light on the plane of array for the hours with sun.
-
-    Attributes
-    ----------
-    frame : pandas.DataFrame
-        One row per hour with light, indexed by the file's time stamps: ``sun_time`` (middle of
-        the hour), ``solar_zenith_deg`` (apparent), ``solar_azimuth_deg``, ``aoi_deg``,
-        ``poa_W_m2``, ``poa_direct_W_m2``, ``poa_sky_diffuse_W_m2``, ``poa_ground_W_m2``,
-        ``air_temperature_C``, ``wind_speed_m_s``, ``cell_temperature_C``, ``shape_fallback``.
-    wavelength_nm : (M,) ndarray
-        SPECTRL2's wavelengths, 300-4000 nm.
-    irradiance_W_m2_nm : (H, M) ndarray
-        The scaled spectrum of each hour.
-    clear_sky_W_m2_nm : (H, M) ndarray
-        SPECTRL2's unscaled plane-of-array global spectrum of each hour.
-    all_hours : pandas.DataFrame
-        ``poa_W_m2`` and ``sun_up`` for every hour of the file.
-    settings : dict
-        What was assumed (for the JSON).
-    """
-
-    frame: object
-    wavelength_nm: np.ndarray
-    irradiance_W_m2_nm: np.ndarray
-    clear_sky_W_m2_nm: np.ndarray
-    all_hours: object
-    settings: dict
-
-    @property
-    def photon_flux(self):
-        """(H, M) spectral photon flux [m^-2 s^-1 nm^-1]."""
-        return photon_flux(self.wavelength_nm[None, :], self.irradiance_W_m2_nm)
-
-
-def _check_choice(value, options, option):
-    if value not in options:
-        raise StackError(f"{option} {value!r} is not known", where=option,
-                         fix="one of " + ", ".join(options))
-
-
-def temperature_parameters(mounting):
-    """SAPM cell-temperature parameters (a, b, deltaT) of a named mounting (pvlib's table)."""
-    from pvlib.temperature import TEMPERATURE_MODEL_PARAMETERS
-
-    table = TEMPERATURE_MODEL_PARAMETERS["sapm"]
-    _check_choice(mounting, list(table), "--mounting")
-    return dict(table[mounting])
-
-
-def sun_geometry(times, *, latitude, longitude, altitude_m, pressure_Pa, air_temperature_C,
-                 tilt_deg, azimuth_deg):
-    """Sun position, relative airmass and angle of incidence on a plane at some times.
-
-    Parameters
-    ----------
-    times : pandas.DatetimeIndex
-        Time zone aware (the instants the sun is wanted: the middle of each hour).
-    latitude, longitude : float
-        [deg], north and east positive.
-    altitude_m : float
-    pressure_Pa, air_temperature_C : array_like
-        For the refraction correction.
-    tilt_deg, azimuth_deg : float
-        The plane (azimuth clockwise from north).
-
-    Returns
-    -------
-    dict of ndarray
-        ``zenith_deg`` (apparent, refraction included), ``azimuth_deg``, ``airmass`` (relative,
-        Kasten & Young 1989, as SPECTRL2's reference code uses) and ``aoi_deg``.
-    """
-    import pvlib
-
-    sun = pvlib.solarposition.get_solarposition(times, latitude, longitude, altitude=altitude_m,
-                                                pressure=pressure_Pa,
-                                                temperature=air_temperature_C)
-    zenith = sun["apparent_zenith"].to_numpy(dtype=float)
-    azimuth = sun["azimuth"].to_numpy(dtype=float)
-    with np.errstate(invalid="ignore"):
-        airmass = np.asarray(pvlib.atmosphere.get_relative_airmass(
-            zenith, model="kastenyoung1989"), dtype=float)
-    aoi = np.asarray(pvlib.irradiance.aoi(tilt_deg, azimuth_deg, zenith, azimuth), dtype=float)
-    return {"zenith_deg": zenith, "azimuth_deg": azimuth, "airmass": airmass, "aoi_deg": aoi}
-
-
-def clear_sky_plane_spectra(geometry, *, tilt_deg, albedo, pressure_Pa, precipitable_water_cm,
-                            day_of_year, ozone_atm_cm=OZONE_ATM_CM,
-                            aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM):
-    """SPECTRL2's clear-sky spectra on a plane (``pvlib.spectrum.spectrl2``), one row per case.
-
-    Parameters
-    ----------
-    geometry : dict
-        From :func:`sun_geometry` (rows with the sun up).
-    tilt_deg : float
-    albedo, pressure_Pa, precipitable_water_cm, day_of_year : array_like
-        Per case: ground albedo [-], surface pressure [Pa], precipitable water [cm], day of year.
-    ozone_atm_cm, aerosol_turbidity_500nm : float
-
-    Returns
-    -------
-    wavelength_nm : (122,) ndarray
-    components : dict of (H, 122) ndarray
-        ``poa_direct``, ``poa_sky_diffuse``, ``poa_ground_diffuse``, ``poa_global``, ``dni``,
-        ``dhi``, ``dni_extra`` [W m^-2 nm^-1], NaN replaced by 0 and negatives clipped.
-    """
-    import pvlib
-
-    spectra = pvlib.spectrum.spectrl2(
-        apparent_zenith=geometry["zenith_deg"], aoi=geometry["aoi_deg"], surface_tilt=tilt_deg,
-        ground_albedo=albedo, surface_pressure=pressure_Pa,
-        relative_airmass=geometry["airmass"], precipitable_water=precipitable_water_cm,
-        ozone=ozone_atm_cm, aerosol_turbidity_500nm=aerosol_turbidity_500nm,
-        dayofyear=day_of_year)
-    wavelength = np.asarray(spectra["wavelength"], dtype=float)
-    keys = ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse", "poa_global", "dni", "dhi",
-            "dni_extra")
-    rows = np.size(geometry["zenith_deg"])
-    components = {k: np.nan_to_num(np.asarray(spectra[k], dtype=float).reshape(-1, rows).T,
-                                   nan=0.0).clip(min=0.0) for k in keys}
-    return wavelength, components
-
-
-def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=MOUNTING,
-                 albedo=None, scaling="total", ozone_atm_cm=OZONE_ATM_CM,
-                 aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM):
-    """Sun, plane-of-array irradiance, spectra and cell temperature of every hour with light.
-
-    Parameters
-    ----------
-    weather : Weather
-    tilt_deg : float
-        Plane tilt from horizontal [deg], 0-90.
-    azimuth_deg : float
-        Plane azimuth [deg], clockwise from north (180 faces south).
-    sky_model : str
-        Sky-diffuse model of ``pvlib.irradiance.get_total_irradiance``.
-    mounting : str
-        SAPM cell-temperature parameter set (``pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS``).
-    albedo : float, optional
-        Ground albedo; default the file's hourly values where it has them, else 0.2.
-    scaling : {"components", "total"}
-        Scale each SPECTRL2 component to its measured broadband part, or the summed spectrum to
-        the measured total.
-    ozone_atm_cm, aerosol_turbidity_500nm : float
-        SPECTRL2's ozone column and aerosol turbidity (the file's TMY3 AOD is broadband and mostly
-        missing; defaults: the ASTM G173-03 atmosphere).
-    """
-    import pandas as pd
-    import pvlib
-
-    from siltandem.stack.options import check_plane
-
-    check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)
-    _check_choice(sky_model, SKY_MODELS, "--sky-model")
-    _check_choice(scaling, SCALINGS, "--scaling")
-    parameters = temperature_parameters(mounting)
-    data = weather.data
-    stamps = data.index
-    middle = stamps - pd.Timedelta(minutes=30)
-    pressure_Pa = data["pressure"].to_numpy() * 100.0
-    air_C = data["temp_air"].to_numpy()
-    sun = sun_geometry(middle, latitude=weather.latitude, longitude=weather.longitude,
-                       altitude_m=weather.altitude_m, pressure_Pa=pressure_Pa,
-                       air_temperature_C=air_C, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
-    zenith, solar_azimuth, aoi = sun["zenith_deg"], sun["azimuth_deg"], sun["aoi_deg"]
-    extra = np.asarray(pvlib.irradiance.get_extra_radiation(np.asarray(middle.day_of_year)),
-                       dtype=float)
-    ground_albedo = (data["albedo"].to_numpy() if albedo is None
-                     else np.full(len(data), float(albedo)))
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        poa = pvlib.irradiance.get_total_irradiance(
-            tilt_deg, azimuth_deg, zenith, solar_azimuth, data["dni"].to_numpy(),
-            data["ghi"].to_numpy(), data["dhi"].to_numpy(), dni_extra=extra,
-            airmass=sun["airmass"], albedo=ground_albedo, model=sky_model)
-    parts = {k: np.nan_to_num(np.asarray(poa[k], dtype=float), nan=0.0).clip(min=0.0)
-             for k in ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")}
-    total = parts["poa_direct"] + parts["poa_sky_diffuse"] + parts["poa_ground_diffuse"]
-    sun_up = zenith < 90.0
-    lit = sun_up & (total > 0)
-    rows = np.flatnonzero(lit)
-    wavelength, shape = clear_sky_plane_spectra(
-        {k: v[rows] for k, v in sun.items()}, tilt_deg=tilt_deg,
-        albedo=ground_albedo[rows], pressure_Pa=pressure_Pa[rows],
-        precipitable_water_cm=data["precipitable_water"].to_numpy()[rows],
-        day_of_year=np.asarray(middle.day_of_year)[rows], ozone_atm_cm=ozone_atm_cm,
-        aerosol_turbidity_500nm=aerosol_turbidity_500nm)
-    clear = shape["poa_direct"] + shape["poa_sky_diffuse"] + shape["poa_ground_diffuse"]
-    if scaling == "components":
-        keys = ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")
-        irradiance, fallback = scaled_spectra(wavelength, shapes=[shape[k] for k in keys],
-                                              broadband_W_m2=[parts[k][rows] for k in keys])
-    else:
-        irradiance, fallback = scaled_spectra(wavelength, shapes=[clear],
-                                              broadband_W_m2=[total[rows]])
-    cell_C = pvlib.temperature.sapm_cell(total[rows], air_C[rows],
-                                         data["wind_speed"].to_numpy()[rows], **parameters)
-    frame = pd.DataFrame({
-        "sun_time": middle[rows],
-        "solar_zenith_deg": zenith[rows], "solar_azimuth_deg": solar_azimuth[rows],
-        "aoi_deg": aoi[rows], "poa_W_m2": total[rows],
-        "poa_direct_W_m2": parts["poa_direct"][rows],
-        "poa_sky_diffuse_W_m2": parts["poa_sky_diffuse"][rows],
-        "poa_ground_W_m2": parts["poa_ground_diffuse"][rows],
-        "air_temperature_C": air_C[rows], "wind_speed_m_s": data["wind_speed"].to_numpy()[rows],
-        "cell_temperature_C": np.asarray(cell_C, dtype=float), "shape_fallback": fallback,
-    }, index=stamps[rows])
-    all_hours = pd.DataFrame({"poa_W_m2": total, "sun_up": sun_up}, index=stamps)
-    settings = {
-        "tilt_deg": float(tilt_deg), "azimuth_deg": float(azimuth_deg), "sky_model": sky_model,
-        "albedo": "from the weather file (0.2 where missing)" if albedo is None else float(albedo),
-        "sun_position": "pvlib.solarposition.get_solarposition (NREL SPA) at the middle of each "
-                        "hour (time stamp - 30 min: TMY3 values are totals of the hour ending at "
-                        "the stamp), refraction from the hour's pressure and air temperature",
-        "plane_of_array": f"pvlib.irradiance.get_total_irradiance, model {sky_model!r}, "
-                          "airmass kastenyoung1989",
-        "spectrum": "pvlib.spectrum.spectrl2 (Bird & Riordan) on the plane, 300-4000 nm; shape "
-                    "from SPECTRL2, magnitude from the measured plane-of-array irradiance ("
-                    + ("each of direct, sky-diffuse and ground-reflected scaled to its own "
-                       "broadband part" if scaling == "components" else
-                       "the summed spectrum scaled to the total") + ")",
-        "scaling": scaling, "ozone_atm_cm": ozone_atm_cm,
-        "aerosol_turbidity_500nm": aerosol_turbidity_500nm,
-        "precipitable_water": "from the weather file (1.42 cm where missing)",
-        "temperature_model": {"function": "pvlib.temperature.sapm_cell", "parameters": mounting,
-                              **parameters},
-    }
-    return HourlyLight(frame, wavelength, irradiance, clear, all_hours, settings)
-
-
-# ------------------------------------------------------------------------- measured subcells
-def read_eqe_csv(path, *, where=None):
-    """Read a measured external quantum efficiency: columns ``wavelength_nm`` and ``eqe`` (0..1).
-
-    Returns (wavelength_nm, eqe) as float arrays; StackError for anything it cannot use.
-    """
-    import pandas as pd
-
-    path = Path(path)
-    fix = ("give a CSV with a header line 'wavelength_nm,eqe' and one row per wavelength (nm, "
-           "increasing) with the external quantum efficiency as a fraction 0..1")
-    if not path.is_file():
-        raise StackError("quantum-efficiency file not found", file=path, where=where, fix=fix)
-    try:
-        frame = pd.read_csv(path, comment="#")
-    except Exception as exc:  # pandas raises several types for unreadable files
-        raise StackError(f"cannot read it as CSV ({exc.__class__.__name__}: "
-                         f"{excerpt(str(exc), 120)})", file=path, where=where, fix=fix) from None
-    frame.columns = [str(c).strip() for c in frame.columns]
-    if "wavelength_nm" not in frame.columns or "eqe" not in frame.columns:
-        shown = ", ".join(excerpt(c, 30) for c in frame.columns[:6]) + (
-            f" and {len(frame.columns) - 6} more" if len(frame.columns) > 6 else "")
-        raise StackError(f"columns [{shown}]: need 'wavelength_nm' and 'eqe'",
-                         file=path, where="header", fix=fix)
-    lam = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
-    eqe = pd.to_numeric(frame["eqe"], errors="coerce").to_numpy(dtype=float)
-    if lam.size < 2 or not (np.isfinite(lam).all() and np.isfinite(eqe).all()):
-        raise StackError("fewer than two rows, or values that are not numbers", file=path,
-                         where=where, fix=fix)
-    if np.any(np.diff(lam) <= 0) or lam[0] <= 0:
-        raise StackError("wavelengths are not positive and increasing", file=path, where=where,
-                         fix="sort the rows by wavelength and remove repeated wavelengths")
-    from siltandem.materials.spectra import MICROMETRE_HINT_NM
-
-    if lam[-1] < MICROMETRE_HINT_NM:
-        raise StackError(f"the wavelengths run from {lam[0]:g} to {lam[-1]:g}: below "
-                         f"{MICROMETRE_HINT_NM:g} they look like micrometres, not nm", file=path,
-                         where=where, fix="give wavelengths in nm (multiply micrometres by 1000)")
-    if np.any(eqe < 0) or np.any(eqe > 1):
-        hint = " (it looks like percent: divide by 100)" if eqe.max() > 1.5 else ""
-        raise StackError(f"eqe values outside [0, 1]{hint}", file=path, where=where,
-                         fix="give the quantum efficiency as a fraction 0..1")
-    return lam, eqe
-
-
-def _eqe_tables(eqe, subcell_names):
+def eqe_tables(eqe, subcell_names):
     tables = {}
     for name, value in (eqe or {}).items():
         if name not in subcell_names:
@@ -513,7 +80,7 @@ def _eqe_tables(eqe, subcell_names):
     return tables
 
 
-def _gap_laws(gap_materials, subcell_names):
+def gap_laws(gap_materials, subcell_names):
     from siltandem.materials import MaterialError, load_material
 
     laws = {}
@@ -626,13 +193,13 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     circuit = compile_stack(stack)
     subcells = circuit.subcells
     names = [s.name for s in subcells]
-    laws = _gap_laws(gap_materials, names)
+    laws = gap_laws(gap_materials, names)
     # a subcell that names its material in the stack file follows that material's gap law
     # unless --gap-material says otherwise
     for cell in subcells:
         if cell.gap_material is not None and cell.name not in laws:
-            laws[cell.name] = _gap_laws({cell.name: cell.gap_material}, names)[cell.name]
-    tables = _eqe_tables(eqe, names)
+            laws[cell.name] = gap_laws({cell.name: cell.gap_material}, names)[cell.name]
+    tables = eqe_tables(eqe, names)
     eqe_files = {name: (str(value) if isinstance(value, (str, Path)) else None, f"--eqe {name}")
                  for name, value in (eqe or {}).items()}
     # a subcell whose stack file gives its measured EQE uses it unless --eqe says otherwise
@@ -666,7 +233,8 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     if layered:
         # layer stacks: the layers' optics and collection for every hour's spectrum; the dark
         # currents follow each hour's temperature (layer_stage.dark_currents_at)
-        from siltandem.circuit.from_layers import dark_currents_at, layer_photocurrents
+        from siltandem.circuit.from_layers import dark_currents_at
+        from siltandem.optics.layers import layer_photocurrents
 
         photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
                          layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
@@ -790,29 +358,6 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     hourly["limiting_subcell"] = limiting
     hourly["failed"] = failed
 
-    from siltandem.studies.yield_report import _summarise
-
-    summary, monthly = _summarise(stack, weather, light, hourly, names, laws, tables,
+    summary, monthly = summarise(stack, weather, light, hourly, names, laws, tables,
                                   standard_efficiency, bare_power, passive)
     return YieldResult(summary, hourly, monthly, light)
-
-
-def text_summary(result):
-    """Terminal text of a yield result (yield_report.py)."""
-    from siltandem.studies.yield_report import text_summary as text
-
-    return text(result)
-
-
-def hourly_table(result):
-    """One row per hour with light (yield_report.py)."""
-    from siltandem.studies.yield_report import hourly_table as table
-
-    return table(result)
-
-
-def plot_yield(result, axes=None):
-    """Energy by month; the limiting subcell through a summer and a winter day."""
-    from siltandem.studies.yield_report import plot_yield as plot
-
-    return plot(result, axes)
