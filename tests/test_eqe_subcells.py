@@ -46,3 +46,24 @@ def test_eqe_file_errors(tmp_path):
     (tmp_path / "c.toml").write_text(base + "eqe = 3\n")
     with pytest.raises(StackError, match="eqe must be a file path"):
         load_stack(tmp_path / "c.toml")
+
+
+def test_the_eqe_file_is_read_once_at_load(tmp_path, monkeypatch):
+    """The table travels with the stack: compiling and solving it again (a study's chunks, a
+    cluster's workers) never reads the CSV again, so a worker need not see the file at all.
+    (Bookkeeping of our own, no outside source.)"""
+    from siltandem.materials import eqe
+
+    write_eqe(tmp_path / "top.csv", 700.0, 0.8)
+    (tmp_path / "s.toml").write_text(
+        '[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\nname = "top"\n'
+        'gap_eV = 1.8\neqe = "top.csv"\n')
+    reads = []
+    original = eqe.read_eqe_csv
+    monkeypatch.setattr(eqe, "read_eqe_csv", lambda *a, **k: reads.append(a) or original(*a, **k))
+    stack = load_stack(tmp_path / "s.toml")
+    assert len(reads) == 1
+    (tmp_path / "top.csv").unlink()
+    first = run_stack(stack, curve_points=30).summary["efficiency_pct"]
+    again = run_stack(stack, curve_points=30).summary["efficiency_pct"]
+    assert len(reads) == 1 and first == again and first > 0

@@ -51,16 +51,8 @@ def _subcell(spec, temperature_K=None):
         series_ohm_m2=batch(v["series_ohm_cm2"] * units.OHM_CM2_TO_OHM_M2),
         shunt_S_m2=batch(conductance), breakdown_V=batch(breakdown),
         breakdown_factor=batch(factor), breakdown_exponent=batch(v["breakdown_exponent"]),
-        string=spec.string, gap_material=v.get("material"), eqe_table=_eqe(v.get("eqe")),
+        string=spec.string, gap_material=v.get("material"), eqe_table=v.get("eqe_table"),
         eqe_file=v.get("eqe"))
-
-
-def _eqe(path):
-    if path is None:
-        return None
-    from siltandem.materials.eqe import read_eqe_csv
-
-    return read_eqe_csv(path)
 
 
 def _resistor(spec):

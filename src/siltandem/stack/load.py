@@ -130,7 +130,7 @@ def _parse_element(index, table, *, file, terminals):
     if material is not None:
         values["material"] = material.name
     if "eqe" in table:
-        values["eqe"] = _subcell_eqe(table["eqe"], file=file, where=where)
+        values["eqe"], values["eqe_table"] = _subcell_eqe(table["eqe"], file=file, where=where)
     check_element_values(kind, values, file=file, where=where)
     return ElementSpec(index, kind, name, string, values)
 
@@ -152,7 +152,9 @@ def _subcell_material(name, *, file, where):
 
 
 def _subcell_eqe(name, *, file, where):
-    """A subcell's measured ``eqe`` CSV (wavelength_nm, eqe), resolved next to the stack file."""
+    """A subcell's measured ``eqe`` CSV (wavelength_nm, eqe), resolved next to the stack file:
+    (its path, its table). The table is read here once and travels with the stack (compiles,
+    study chunks and cluster workers never read the file again)."""
     from siltandem.materials.eqe import read_eqe_csv
 
     if not isinstance(name, str):
@@ -166,8 +168,7 @@ def _subcell_eqe(name, *, file, where):
         raise StackError(f"quantum-efficiency file not found: {path}", file=file,
                          where=f"{where}, key eqe",
                          fix="give the CSV's path relative to the stack file")
-    read_eqe_csv(path, where=f"{where}, key eqe")
-    return str(path)
+    return str(path), read_eqe_csv(path, where=f"{where}, key eqe")
 
 
 def _parse_string(table, *, file, where, terminals):
