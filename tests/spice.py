@@ -81,7 +81,7 @@ positive) is ``J = +i(Vterm) / area``, and the terminal voltage is ``V = v(top) 
 voltages ``v(n{k+1}) - v(n{k})`` are in siltandem's direction too: positive for a subcell in the
 power quadrant, ``-J R`` for a resistor.
 """
-from functools import lru_cache
+from functools import cache
 import math
 import re
 import shutil
@@ -196,7 +196,7 @@ def run_deck(circuit_lines, control_lines, outputs, *, options=OPTIONS, timings=
     return results
 
 
-@lru_cache(maxsize=None)
+@cache
 def ngspice_thermal_voltage_V(temperature_K):
     """kT/q [V] as ngspice's diode model uses it at ``temperature_K``, measured.
 

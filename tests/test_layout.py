@@ -209,4 +209,4 @@ def test_the_public_api_is_the_pipeline_itself():
     assert siltandem.run_stack is run_stack and siltandem.load_stack is load_stack
     assert issubclass(siltandem.StackError, ValueError)
     with pytest.raises(AttributeError, match="no attribute 'solve_string'"):
-        siltandem.solve_string
+        siltandem.__getattr__("solve_string")

@@ -345,7 +345,7 @@ def test_silicon_two_gap_model_against_green():
     # 1.14-1.51, so within a factor 1.6; it is used only outside the table (scaled to meet its ends).
     si = load_material("Si")
     lam = np.array([500.0, 600.0, 700.0, 800.0, 900.0, 1000.0])
-    ratio = si.parametric_absorption_per_m(lam) / PER_CM / np.array([SILICON_GREEN_2008[l] for l in lam])
+    ratio = si.parametric_absorption_per_m(lam) / PER_CM / np.array([SILICON_GREEN_2008[w] for w in lam])
     assert np.all((ratio > 1 / 1.6) & (ratio < 1.6))
 
 

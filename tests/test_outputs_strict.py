@@ -116,7 +116,7 @@ def _check_outputs(argv, tmp_path, capsys, *, csv_option="--csv"):
     json_path, csv_path = tmp_path / "out.json", tmp_path / "out.csv"
     status, out, err = _run(argv + ["--json", json_path, csv_option, csv_path], capsys)
     assert status == 0, err
-    assert not NOT_A_NUMBER.search(out), [l for l in out.splitlines() if NOT_A_NUMBER.search(l)]
+    assert not NOT_A_NUMBER.search(out), [line for line in out.splitlines() if NOT_A_NUMBER.search(line)]
     assert not any(c in out for c in "\x1b\x07\u202e")
     summary = _strict(json_path.read_text())
     rows = list(csv.reader(csv_path.open(encoding="utf-8")))
@@ -160,8 +160,8 @@ def test_run_outputs_are_strict(name, hostile, tmp_path, capsys):
 def test_run_text_says_none_and_dash_where_there_is_no_value(hostile, capsys):
     status, out, _ = _run(["run", hostile / "numbers_isotype.toml"], capsys)
     assert status == 0
-    row = next(l for l in out.splitlines() if l.strip().startswith("interface ") and "electron"
-               in l)
+    row = next(line for line in out.splitlines() if line.strip().startswith("interface ") and "electron"
+               in line)
     assert row.split()[3] == "-"                       # the offset column
     assert "(offset -: an interface given by its law's numbers has no band offset" in out
     status, out, _ = _run(["run", hostile / "blocked_isotype.toml"], capsys)

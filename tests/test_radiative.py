@@ -33,8 +33,8 @@ def test_formula_with_scipy_constants_directly():
     # J0 = q 2 pi / (h^3 c^2) * int_Eg^inf E^2 / (exp(E/kT) - 1) dE, integrated in joules
     q, h, c, k = constants.e, constants.h, constants.c, constants.k
     gap_J, temperature = 1.5 * q, 330.0
-    integral, _ = integrate.quad(lambda e: e * e * np.exp(-e / (k * temperature)) / -np.expm1(-e / (k * temperature)), gap_J,
-                                 40 * gap_J, epsrel=1e-12)
+    integral, _ = integrate.quad(lambda e: e * e * np.exp(-e / (k * temperature)) / -np.expm1(-e / (k * temperature)),
+                                 gap_J, 40 * gap_J, epsrel=1e-12)
     expected = q * 2 * np.pi / (h**3 * c**2) * integral
     assert radiative_saturation_current(1.5, temperature_K=temperature) == pytest.approx(
         expected, rel=1e-9)

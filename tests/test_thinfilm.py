@@ -335,7 +335,8 @@ def test_silicon_wafer_photocurrent_under_am15g():
     assert j_single < ma_cm2(photon_current_A_m2(w, mirror.absorbed[0])) < j_all
     # the photon currents of the budget close
     parts = [single.reflected, single.absorbed[0], single.transmitted, single.escaped]
-    assert sum(photon_current_A_m2(w, p) for p in parts) == pytest.approx(photon_current_A_m2(w, flux), rel=1e-12, abs=0)
+    assert sum(photon_current_A_m2(w, p) for p in parts) == pytest.approx(photon_current_A_m2(w, flux), rel=1e-12,
+                                                                          abs=0)
 
 
 def test_photon_current_matches_the_step_optics_integral():

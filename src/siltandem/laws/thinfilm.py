@@ -279,7 +279,7 @@ def coating_response(wavelength_nm, *, substrate_index, coating_indices=(), coat
 
     b_top, c_top = scaled[0]
     denominator = np.abs(ambient * b_top + c_top) ** 2
-    reflectance = np.abs((ambient * b_top - c_top)) ** 2 / denominator
+    reflectance = np.abs(ambient * b_top - c_top) ** 2 / denominator
     # net flux entering layer j: 4 n0 Re(B_j C_j*) |scale_j|^-2 / |n0 B + C|^2, with the attenuation of
     # the layers above restored: exp(-2 sum_{i<j} Im delta_i)
     above = np.zeros(shape)

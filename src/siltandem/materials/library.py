@@ -16,7 +16,7 @@ import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
 from types import MappingProxyType
-from typing import Mapping
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -666,12 +666,13 @@ def _build_alloy(family, file_name, data, x):
             mobility.append(1.0 / lin(1.0 / getattr(one, attr), 1.0 / getattr(zero, attr)) / _CM2_TO_M2)
         else:
             mobility.append(float(np.interp(x, mobility_table["composition"], mobility_table[key])))
-    rule = "alloy of {} (x = 1) and {} (x = 0)".format(one.name, zero.name)
+    rule = f"alloy of {one.name} (x = 1) and {zero.name} (x = 0)"
     sources = _sources(data)
     for key in ("valleys.Gamma", "valleys.X", "valleys.L", "holes", "permittivity", "electron_affinity",
                 "refractive_index"):
         if key in one.sources or key in zero.sources:
-            how = {"electron_affinity": "ionisation energy (affinity + lowest gap) linear in x, minus the alloy gap; rough",
+            how = {"electron_affinity": "ionisation energy (affinity + lowest gap) linear in x, minus the "
+                                        "alloy gap; rough",
                    "refractive_index": "linear in x at each wavelength; rough"}.get(
                        key, "VMR bowing (see 'bowing')" if key.startswith("valleys") else "linear in x")
             sources[key] = (f"{rule}, {how}; {one.name}: {one.sources.get(key, '-')}; "

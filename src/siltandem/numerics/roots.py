@@ -116,7 +116,8 @@ def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4
     ``function(x) -> (f, df/dx)``. ``start`` (optional) is a first guess inside the bracket (a
     close one saves most iterations); ``end_values`` (optional) the function's values at the
     two ends when the caller has them (their signs are enough); ``ftol`` a residual small
-    enough to stop at (the root is then fixed only to rounding). Newton steps, replaced by bisection whenever a step leaves the
+    enough to stop at (the root is then fixed only to rounding). Newton steps, replaced by bisection whenever a
+    step leaves the
     current bracket; the bracket shrinks around the sign change at every iteration, so the method
     cannot diverge (as in W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4, 'rtsafe').
     NaN where the bracket held no sign change.

@@ -296,7 +296,7 @@ def connect_cluster(address, *, where="--cluster", timeout_s=None):
             "service's), e.g. tcp://127.0.0.1:8786")
     try:
         answer = asyncio.run(identity())
-    except (OSError, TimeoutError, ValueError, asyncio.TimeoutError):
+    except (OSError, TimeoutError, ValueError):
         raise not_a_scheduler from None
     if not isinstance(answer, dict) or answer.get("type") != "Scheduler":
         raise not_a_scheduler

@@ -391,7 +391,7 @@ def _feed_callable(digest, obj):
     else:  # a callable object or a builtin
         kind = type(obj)
         digest.update(f"{kind.__module__}:{kind.__qualname__}".encode())
-        call = getattr(kind, "__call__", None)
+        call = getattr(kind, "__call__", None)   # noqa: B004 (the class's own method, not callable())
         if inspect.isfunction(call):
             _feed_code(digest, call.__code__)
         digest.update(_pickled(obj, "the callable object"))
