@@ -1,4 +1,6 @@
-"""Materials library: data files (``*.toml`` beside this module) and their lookup.
+"""Materials and other data: the materials library (``*.toml`` beside this module) and its lookup;
+the readers of spectra (materials.spectra), measured EQEs (materials.eqe) and weather files
+(materials.weather).
 
 >>> from siltandem.materials import load_material
 >>> gainp = load_material("GaInP", composition=0.51)     # or load_material("Ga0.51In0.49P")

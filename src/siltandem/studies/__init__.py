@@ -1,0 +1,3 @@
+"""Studies over many designs: maps, current matching, placements, loss waterfalls, energy yield,
+one interface on its own, and the chunk runner (in process, local pool, Dask).
+"""
