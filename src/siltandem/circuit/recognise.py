@@ -119,7 +119,7 @@ def _stack_polarity(layers, subcells, boundary_kind, tunnel_doping_cm3, file):
     """The one polarity of every subcell (rule 4); refuses a stack without a subcell, and one of
     mixed polarity (naming a tunnel junction in the wrong order where that is the cause)."""
     if not subcells:
-        lonely = ", ".join(f"{l.label} ({l.polarity})" for l in layers)
+        lonely = ", ".join(f"{layer.label} ({layer.polarity})" for layer in layers)
         raise StackError("no p-n junction: the layers make no solar cell (" + lonely + ")",
                          file=file, fix="a subcell needs an emitter and a base of opposite type "
                                         "and one material, e.g. n-GaAs on p-GaAs")
@@ -186,7 +186,8 @@ def _check_alternation(layers, order, polarity, tunnel_doping_cm3, file):
                              "would meet back to back", file=file,
                              where=f"{layers[a.base].label} / {layers[b.emitter].label}",
                              fix="insert a tunnel junction (two layers doped at or above "
-                                 f"{tunnel_doping_cm3:g} cm^-3, {'p++ over n++' if polarity == 'n-on-p' else 'n++ over p++'})")
+                                 f"{tunnel_doping_cm3:g} cm^-3, "
+                                 f"{'p++ over n++' if polarity == 'n-on-p' else 'n++ over p++'})")
         if order[k][0] == "tunnel" and order[k + 1][0] == "tunnel":
             raise StackError("two tunnel junctions in a row", file=file,
                              where=layers[order[k][1]["upper"]].label,
