@@ -57,12 +57,10 @@ def _same_material(a, b):
             == material_identity(b.material, b.composition))
 
 
-def recognise(layers, *, tunnel_doping_cm3, file=None):
-    """Find the subcells, tunnel junctions and isotype interfaces of a layer stack.
-
-    Raises StackError naming the layers for a stack that makes no device.
-    """
-    parts, subcells, notes = [], [], []
+def _classify_boundaries(layers, tunnel_doping_cm3, file):
+    """Each layer boundary's kind (rules 1-3), by the index of its upper layer: "tunnel",
+    "junction" or "isotype" (a high-low junction gets none, but a note)."""
+    notes = []
     used_by_tunnel = set()
     boundary_kind = {}
     for i in range(len(layers) - 1):
@@ -86,6 +84,13 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
         elif upper.doping_cm3 != lower.doping_cm3:
             notes.append(f"{upper.label} / {lower.label}: high-low junction of one material, "
                          "treated as an ideal connection")
+    return boundary_kind, notes
+
+
+def _parts(layers, boundary_kind, tunnel_doping_cm3, file):
+    """The parts in boundary order, and the subcells (each p-n junction, checked to be a
+    homojunction)."""
+    parts, subcells = [], []
     for i, kind in sorted(boundary_kind.items()):
         upper, lower = layers[i], layers[i + 1]
         if kind == "junction":
@@ -107,8 +112,14 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
             parts.append(("tunnel", {"upper": i}))
         else:
             parts.append(("isotype", {"upper": i}))
+    return parts, subcells
+
+
+def _stack_polarity(layers, subcells, boundary_kind, tunnel_doping_cm3, file):
+    """The one polarity of every subcell (rule 4); refuses a stack without a subcell, and one of
+    mixed polarity (naming a tunnel junction in the wrong order where that is the cause)."""
     if not subcells:
-        lonely = ", ".join(f"{l.label} ({l.polarity})" for l in layers)
+        lonely = ", ".join(f"{layer.label} ({layer.polarity})" for layer in layers)
         raise StackError("no p-n junction: the layers make no solar cell (" + lonely + ")",
                          file=file, fix="a subcell needs an emitter and a base of opposite type "
                                         "and one material, e.g. n-GaAs on p-GaAs")
@@ -137,9 +148,12 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
                          fix="make every subcell n-on-p (or every one p-on-n) and join them with "
                              "a tunnel junction: two layers doped at or above "
                              f"{tunnel_doping_cm3:g} cm^-3")
-    polarity = polarities.pop()
-    # between consecutive subcells: exactly one tunnel junction of the right order
-    order = [(kind, info) for kind, info in parts if kind in ("subcell", "tunnel")]
+    return polarities.pop()
+
+
+def _check_tunnel_junctions(layers, order, polarity, tunnel_doping_cm3, file):
+    """Every tunnel junction lies between two subcells and in the order that passes the
+    current of ``polarity`` subcells (rule 4)."""
     for k, (kind, info) in enumerate(order):
         if kind != "tunnel":
             continue
@@ -160,6 +174,11 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
                 file=file, where=pair,
                 fix=f"swap its two layers: in {polarity} stacks the tunnel junction is "
                     f"{base_type}++ over {'n' if base_type == 'p' else 'p'}++")
+
+
+def _check_alternation(layers, order, polarity, tunnel_doping_cm3, file):
+    """Subcells and tunnel junctions alternate: exactly one tunnel junction between consecutive
+    subcells (rule 4)."""
     for k in range(len(order) - 1):
         if order[k][0] == "subcell" and order[k + 1][0] == "subcell":
             a, b = order[k][1]["cell"], order[k + 1][1]["cell"]
@@ -167,11 +186,42 @@ def recognise(layers, *, tunnel_doping_cm3, file=None):
                              "would meet back to back", file=file,
                              where=f"{layers[a.base].label} / {layers[b.emitter].label}",
                              fix="insert a tunnel junction (two layers doped at or above "
-                                 f"{tunnel_doping_cm3:g} cm^-3, {'p++ over n++' if polarity == 'n-on-p' else 'n++ over p++'})")
+                                 f"{tunnel_doping_cm3:g} cm^-3, "
+                                 f"{'p++ over n++' if polarity == 'n-on-p' else 'n++ over p++'})")
         if order[k][0] == "tunnel" and order[k + 1][0] == "tunnel":
             raise StackError("two tunnel junctions in a row", file=file,
                              where=layers[order[k][1]["upper"]].label,
                              fix="keep one tunnel junction between two subcells")
+
+
+def recognise(layers, *, tunnel_doping_cm3, file=None):
+    """Find the subcells, tunnel junctions and isotype interfaces of a layer stack.
+
+    Parameters
+    ----------
+    layers : list of Layer
+        The stack's layers, sun side first.
+    tunnel_doping_cm3 : float
+        Doping [cm^-3] at or above which both layers of an n/p pair make a tunnel junction.
+    file : str, optional
+        The stack file, for messages.
+
+    Returns
+    -------
+    Structure
+
+    Raises
+    ------
+    StackError
+        Naming the layers, for a stack that makes no device.
+    """
+    boundary_kind, notes = _classify_boundaries(layers, tunnel_doping_cm3, file)
+    parts, subcells = _parts(layers, boundary_kind, tunnel_doping_cm3, file)
+    polarity = _stack_polarity(layers, subcells, boundary_kind, tunnel_doping_cm3, file)
+    # between consecutive subcells: exactly one tunnel junction of the right order
+    order = [(kind, info) for kind, info in parts if kind in ("subcell", "tunnel")]
+    _check_tunnel_junctions(layers, order, polarity, tunnel_doping_cm3, file)
+    _check_alternation(layers, order, polarity, tunnel_doping_cm3, file)
     active = {c.emitter for c in subcells} | {c.base for c in subcells}
     return Structure(parts, subcells, polarity, active, notes)
 

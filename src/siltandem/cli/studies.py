@@ -177,9 +177,86 @@ def _check_column(column, stack, variations):
                          fix="map efficiency_pct or a subcell's photocurrent")
 
 
+def _print_match_table(stack, variation, table):
+    """About 15 rows of the matching table: the varied value, each subcell's photocurrent, the
+    efficiency and the limiting subcell."""
+    photocurrent_columns = [c for c in table.columns if c.endswith(".photocurrent_mA_cm2")]
+    print(f"siltandem — current matching of {stack.name} over {variation.column}")
+    print("")
+    header = [variation.column] + [c.removesuffix(".photocurrent_mA_cm2") + " mA/cm2"
+                                   for c in photocurrent_columns] + ["efficiency %", "limiting"]
+    print("  " + "  ".join(f"{h:>14}" for h in header))
+    step = max(1, len(table) // 15)
+    for _, row in table.iloc[::step].iterrows():
+        cells = [number(row[variation.column], ".5g")] + [number(row[c], ".4f")
+                                                          for c in photocurrent_columns]
+        cells += [number(row["efficiency_pct"], ".3f"), str(row["limiting_subcell"])]
+        print("  " + "  ".join(f"{c:>14}" for c in cells))
+    print("")
+
+
+def _print_matches(matches, variation):
+    """Each matched pair of subcells, or a hint to widen the range."""
+    if matches:
+        for m in matches:
+            print(f"  matched: {m['subcells'][0]} = {m['subcells'][1]} at {variation.column} = "
+                  f"{number(m['value'], '.8g')} ({number(m['photocurrent_mA_cm2'], '.4f')} "
+                  f"mA/cm2), efficiency {number(m['efficiency_pct'], '.3f')} %")
+    else:
+        print("  no two subcells' photocurrents cross in this range: widen it")
+
+
+def _best_efficiency(table, variation):
+    """The row of the best efficiency on the grid (None if no design found an operating point),
+    printed."""
+    found = table["efficiency_pct"].notna().any()
+    best = table["efficiency_pct"].idxmax() if found else None
+    if found:
+        print(f"  best efficiency on the grid: {number(table['efficiency_pct'][best], '.3f')} % "
+              f"at {variation.column} = {number(table[variation.column][best], '.6g')}")
+    else:
+        print("  best efficiency on the grid: none (no design found an operating point)")
+    return best
+
+
+def _best_energy(args, stack, variation, table, weather):
+    """``--by energy``: the annual energy of every value (added to ``table`` as
+    ``annual_energy_kWh_m2``) and the best of them, printed; None without it."""
+    if args.by != "energy":
+        return None
+    from siltandem.studies.matching import energy_by_value
+
+    table["annual_energy_kWh_m2"] = energy_by_value(
+        stack, variation, table, weather=weather, tilt_deg=args.tilt,
+        azimuth_deg=args.azimuth, progress=not args.quiet)
+    top = table["annual_energy_kWh_m2"].idxmax()
+    by_energy = {"value": float(table[variation.column][top]),
+                 "annual_energy_kWh_m2": float(table["annual_energy_kWh_m2"][top])}
+    print(f"  best annual energy on the grid: "
+          f"{number(by_energy['annual_energy_kWh_m2'], '.2f')} kWh/m2 at {variation.column} = "
+          f"{number(by_energy['value'], '.6g')} (weather {args.weather})")
+    return by_energy
+
+
+def _match_figure(stack, variation, table, matches, by_energy):
+    """The matching figure, with the annual energy on a second axis under ``--by energy``."""
+    from siltandem.studies.matching import plot_matching
+
+    axes = plot_matching(table, variation, matches,
+                         title=f"{stack.name}: current matching over {variation.column}")
+    if by_energy is not None:
+        twin = axes[1].twinx()
+        twin.plot(table[variation.column], table["annual_energy_kWh_m2"], color="tab:green",
+                  label="annual energy")
+        twin.set_ylabel("annual energy (kWh/m²)", color="tab:green")
+    return axes[0].figure
+
+
 def run_match(args):
+    """``siltandem match``: one varied key, the values where two subcells' photocurrents
+    cross, the best design by efficiency (or by annual energy); returns the exit code 0."""
     from siltandem.stack.load import load_stack
-    from siltandem.studies.matching import match_currents, plot_matching
+    from siltandem.studies.matching import match_currents
     from siltandem.studies.sweep import parse_vary
 
     _check_paths(args)
@@ -198,56 +275,11 @@ def run_match(args):
     finally:
         if client is not None:
             client.close()
-    photocurrent_columns = [c for c in table.columns if c.endswith(".photocurrent_mA_cm2")]
-    print(f"siltandem — current matching of {stack.name} over {variation.column}")
-    print("")
-    header = [variation.column] + [c.removesuffix(".photocurrent_mA_cm2") + " mA/cm2"
-                                   for c in photocurrent_columns] + ["efficiency %", "limiting"]
-    print("  " + "  ".join(f"{h:>14}" for h in header))
-    step = max(1, len(table) // 15)
-    for _, row in table.iloc[::step].iterrows():
-        cells = [number(row[variation.column], ".5g")] + [number(row[c], ".4f")
-                                                          for c in photocurrent_columns]
-        cells += [number(row["efficiency_pct"], ".3f"), str(row["limiting_subcell"])]
-        print("  " + "  ".join(f"{c:>14}" for c in cells))
-    print("")
-    if matches:
-        for m in matches:
-            print(f"  matched: {m['subcells'][0]} = {m['subcells'][1]} at {variation.column} = "
-                  f"{number(m['value'], '.8g')} ({number(m['photocurrent_mA_cm2'], '.4f')} "
-                  f"mA/cm2), efficiency {number(m['efficiency_pct'], '.3f')} %")
-    else:
-        print("  no two subcells' photocurrents cross in this range: widen it")
-    found = table["efficiency_pct"].notna().any()
-    best = table["efficiency_pct"].idxmax() if found else None
-    if found:
-        print(f"  best efficiency on the grid: {number(table['efficiency_pct'][best], '.3f')} % "
-              f"at {variation.column} = {number(table[variation.column][best], '.6g')}")
-    else:
-        print("  best efficiency on the grid: none (no design found an operating point)")
-    by_energy = None
-    if args.by == "energy":
-        from siltandem.studies.matching import energy_by_value
-
-        table["annual_energy_kWh_m2"] = energy_by_value(
-            stack, variation, table, weather=weather, tilt_deg=args.tilt,
-            azimuth_deg=args.azimuth, progress=not args.quiet)
-        top = table["annual_energy_kWh_m2"].idxmax()
-        by_energy = {"value": float(table[variation.column][top]),
-                     "annual_energy_kWh_m2": float(table["annual_energy_kWh_m2"][top])}
-        print(f"  best annual energy on the grid: "
-              f"{number(by_energy['annual_energy_kWh_m2'], '.2f')} kWh/m2 at {variation.column} = "
-              f"{number(by_energy['value'], '.6g')} (weather {args.weather})")
-    figure = None
-    if args.plot:
-        axes = plot_matching(table, variation, matches,
-                             title=f"{stack.name}: current matching over {variation.column}")
-        figure = axes[0].figure
-        if by_energy is not None:
-            twin = axes[1].twinx()
-            twin.plot(table[variation.column], table["annual_energy_kWh_m2"], color="tab:green",
-                      label="annual energy")
-            twin.set_ylabel("annual energy (kWh/m²)", color="tab:green")
+    _print_match_table(stack, variation, table)
+    _print_matches(matches, variation)
+    best = _best_efficiency(table, variation)
+    by_energy = _best_energy(args, stack, variation, table, weather)
+    figure = _match_figure(stack, variation, table, matches, by_energy) if args.plot else None
     summary = {"stack": stack.name, "varied": variation.column, "matches": matches,
                "best": None if best is None else {
                    "value": float(table[variation.column][best]),

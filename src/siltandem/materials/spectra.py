@@ -112,17 +112,15 @@ def _named(name):
                     nominal_W_m2=entry.get("nominal_W_m2"))
 
 
-def read_spectrum_csv(path, *, where=None):
-    """Read a user spectrum CSV: a header line, then wavelength_nm and irradiance (W m^-2 nm^-1).
+#: how a spectrum CSV is written, for the messages of a file that is not
+_CSV_FORMAT_FIX = ("give a CSV with a header line 'wavelength_nm,irradiance_W_m2_nm' and one "
+                   "row per wavelength (nm, increasing) with its spectral irradiance (W/m2/nm)")
 
-    The first column must be named ``wavelength_nm``; the irradiance column is the one named
-    ``irradiance_W_m2_nm``, or the second column when there are exactly two.
-    """
+
+def _read_csv_frame(path, where):
+    """The CSV's table, its column names stripped; refuses a missing or unreadable file."""
     import pandas as pd
 
-    path = Path(path)
-    fix_format = ("give a CSV with a header line 'wavelength_nm,irradiance_W_m2_nm' and one "
-                  "row per wavelength (nm, increasing) with its spectral irradiance (W/m2/nm)")
     if not path.is_file():
         raise StackError(f"spectrum file not found: {path}", file=path, where=where,
                          fix="give an existing CSV path (relative to the stack file) or one of "
@@ -131,21 +129,33 @@ def read_spectrum_csv(path, *, where=None):
         frame = pd.read_csv(path, comment="#")
     except Exception as exc:  # pandas raises several types for unreadable files
         raise StackError(f"cannot read spectrum CSV ({exc.__class__.__name__}: "
-                         f"{excerpt(str(exc), 120)})", file=path, fix=fix_format) from None
-    columns = [str(c).strip() for c in frame.columns]
-    frame.columns = columns
+                         f"{excerpt(str(exc), 120)})", file=path, fix=_CSV_FORMAT_FIX) from None
+    frame.columns = [str(c).strip() for c in frame.columns]
+    return frame
+
+
+def _irradiance_column(columns, path):
+    """The irradiance column's name: ``irradiance_W_m2_nm``, or the second of exactly two;
+    checks that the first is ``wavelength_nm``."""
     if not columns or columns[0] != "wavelength_nm":
         raise StackError(f"first column is {excerpt(columns[0]) if columns else 'missing'}, "
-                         "expected 'wavelength_nm'", file=path, where="header", fix=fix_format)
+                         "expected 'wavelength_nm'", file=path, where="header",
+                         fix=_CSV_FORMAT_FIX)
     if "irradiance_W_m2_nm" in columns:
-        value_column = "irradiance_W_m2_nm"
-    elif len(columns) == 2:
-        value_column = columns[1]
-    else:
-        shown = ", ".join(excerpt(c, 30) for c in columns[:6]) + (
-            f" and {len(columns) - 6} more" if len(columns) > 6 else "")
-        raise StackError(f"cannot tell the irradiance column among [{shown}]", file=path,
-                         where="header", fix=fix_format)
+        return "irradiance_W_m2_nm"
+    if len(columns) == 2:
+        return columns[1]
+    shown = ", ".join(excerpt(c, 30) for c in columns[:6]) + (
+        f" and {len(columns) - 6} more" if len(columns) > 6 else "")
+    raise StackError(f"cannot tell the irradiance column among [{shown}]", file=path,
+                     where="header", fix=_CSV_FORMAT_FIX)
+
+
+def _numeric_columns(frame, value_column, path):
+    """Wavelengths [nm] and irradiance [W m^-2 nm^-1] as float arrays; refuses a value that is
+    not a finite number, naming its line."""
+    import pandas as pd
+
     wavelength = pd.to_numeric(frame["wavelength_nm"], errors="coerce").to_numpy(dtype=float)
     irradiance = pd.to_numeric(frame[value_column], errors="coerce").to_numpy(dtype=float)
     for label, values in (("wavelength_nm", wavelength), (value_column, irradiance)):
@@ -153,9 +163,14 @@ def read_spectrum_csv(path, *, where=None):
         if bad.size:
             raise StackError(f"column {label}: {bad.size} value(s) not numbers, first on data "
                              f"line {bad[0] + 1}", file=path, where=f"line {bad[0] + 2}",
-                             fix=fix_format)
+                             fix=_CSV_FORMAT_FIX)
+    return wavelength, irradiance
+
+
+def _check_wavelengths(wavelength, path):
+    """At least two rows, positive, strictly increasing, and in nm rather than micrometres."""
     if wavelength.size < 2:
-        raise StackError(f"only {wavelength.size} data row(s)", file=path, fix=fix_format)
+        raise StackError(f"only {wavelength.size} data row(s)", file=path, fix=_CSV_FORMAT_FIX)
     if np.any(wavelength <= 0):
         row = int(np.flatnonzero(wavelength <= 0)[0])
         raise StackError(f"wavelength {wavelength[row]} nm is not positive", file=path,
@@ -172,6 +187,10 @@ def read_spectrum_csv(path, *, where=None):
                          file=path, where="column wavelength_nm",
                          fix="give wavelengths in nm (multiply micrometres by 1000, and an "
                              "irradiance per micrometre by 1e-3 for W/m2/nm)")
+
+
+def _check_irradiance(wavelength, irradiance, path):
+    """No negative value, and a total [W/m2] that is finite, positive and at most 1e8."""
     if np.any(irradiance < 0):
         row = int(np.flatnonzero(irradiance < 0)[0])
         raise StackError(f"negative irradiance {irradiance[row]} W/m2/nm", file=path,
@@ -190,6 +209,38 @@ def read_spectrum_csv(path, *, where=None):
         raise StackError(f"the spectrum totals {total:g} W/m2, beyond any sun or lamp "
                          "(1e8 W/m2 is 100 000 suns)", file=path,
                          fix="give spectral irradiance in W/m2/nm (and concentration with suns)")
+
+
+def read_spectrum_csv(path, *, where=None):
+    """Read a user spectrum CSV: a header line, then wavelength_nm and irradiance (W m^-2 nm^-1).
+
+    The first column must be named ``wavelength_nm``; the irradiance column is the one named
+    ``irradiance_W_m2_nm``, or the second column when there are exactly two.
+
+    Parameters
+    ----------
+    path : str or Path
+        The CSV file (``#`` starts a comment).
+    where : str, optional
+        Where the path was given (a key or an option), for the message of a missing file.
+
+    Returns
+    -------
+    Spectrum
+        Wavelengths [nm] and spectral irradiance [W m^-2 nm^-1] as in the file, at one sun.
+
+    Raises
+    ------
+    StackError
+        Naming the file, the line or column and the fix, for a file that is missing, unreadable
+        or not a spectrum.
+    """
+    path = Path(path)
+    frame = _read_csv_frame(path, where)
+    value_column = _irradiance_column(list(frame.columns), path)
+    wavelength, irradiance = _numeric_columns(frame, value_column, path)
+    _check_wavelengths(wavelength, path)
+    _check_irradiance(wavelength, irradiance, path)
     return Spectrum(str(path), f"user spectrum {path.name}", wavelength, irradiance)
 
 

@@ -152,80 +152,132 @@ def parse_doping(text, *, file, where):
     return match.group(1), value
 
 
+def _layer_name(table, i, names, file):
+    """The name of the i-th layer (default ``layer<i>``) and where it is, for messages: a
+    table, a non-empty name used once (``names``: name -> index, updated), known keys only."""
+    where = f"layer {i}"
+    if not isinstance(table, dict):
+        raise StackError("each [[layer]] must be a table", file=file, where=where,
+                         fix="write [[layer]] followed by key = value lines")
+    name = table.get("name", f"layer{i}")
+    if not isinstance(name, str) or not name.strip():
+        raise StackError(f"name must be a non-empty text, got {excerpt(name)}", file=file,
+                         where=where, fix='write name = "top emitter" (any unique name)')
+    where = f"layer {i} {name!r}"
+    if name in names:
+        raise StackError(f"name {name!r} is used twice (layers {names[name]} and {i})",
+                         file=file, where=where, fix="give every layer its own name")
+    names[name] = i
+    for key in table:
+        if key not in LAYER_KEYS:
+            raise StackError(f"unknown key {key!r} for a layer", file=file, where=where,
+                             fix=suggest(key, LAYER_KEYS) + "allowed keys: "
+                             + ", ".join(sorted(LAYER_KEYS)))
+    return name, where
+
+
+def _layer_material(table, *, file, where):
+    """The layer's material name and composition (None if not given), checked against the
+    library."""
+    material = table.get("material")
+    if material is None:
+        raise StackError("missing required key 'material'", file=file, where=where,
+                         fix='add material = "GaAs" (see `siltandem materials`)')
+    if not isinstance(material, str):
+        raise StackError(f"material must be text, got {excerpt(material)}", file=file,
+                         where=where,
+                         fix='write material = "GaAs"')
+    composition = table.get("composition")
+    if composition is not None and (isinstance(composition, bool)
+                                    or not isinstance(composition, (int, float))):
+        raise StackError(f"composition must be a number in [0, 1], got "
+                         f"{excerpt(composition)}", file=file, where=where,
+                         fix="write composition = 0.51")
+    if composition is not None:
+        composition = read_number(composition, file=file, where=where, key="composition",
+                                  unit="")
+    _check_material(material, composition, file=file, where=where)
+    return material, composition
+
+
+def _minority_carriers(table, *, file, where):
+    """Diffusion length [um] or lifetime [ns] (not both; None if not given) and the surface
+    recombination velocity [cm/s]."""
+    length = _positive_number(table, "diffusion_length_um", file=file, where=where,
+                              required=False, **LAYER_NUMBERS["diffusion_length_um"])
+    lifetime = _positive_number(table, "lifetime_ns", file=file, where=where,
+                                required=False, **LAYER_NUMBERS["lifetime_ns"])
+    if length is not None and lifetime is not None:
+        raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
+                         where=where, fix="remove one of the two")
+    srv = _positive_number(table, "srv_cm_s", file=file, where=where, required=False,
+                           **LAYER_NUMBERS["srv_cm_s"])
+    return length, lifetime, srv
+
+
+def _tunnel_settings(table, *, file, where):
+    """The layer's given tunnel-junction numbers (``peak_mA_cm2``, ``peak_V``, ``valley_mA_cm2``,
+    ``valley_V``), an empty dict if none."""
+    tunnel = {}
+    for key, unit, high in (("tunnel_peak_mA_cm2", "mA/cm2", 1e9), ("tunnel_peak_V", "V", 5),
+                            ("tunnel_valley_mA_cm2", "mA/cm2", 1e9),
+                            ("tunnel_valley_V", "V", 10)):
+        value = _positive_number(table, key, file=file, where=where, unit=unit, high=high,
+                                 required=False)
+        if value is not None:
+            tunnel[key.removeprefix("tunnel_")] = value
+    return tunnel
+
+
+def _parse_layer(i, table, names, *, file):
+    """One ``[[layer]]`` table (the i-th, from 1) validated into a Layer, in the order of its
+    checks: name and keys, material, thickness, doping, minority carriers, tunnel numbers,
+    band offset."""
+    name, where = _layer_name(table, i, names, file)
+    material, composition = _layer_material(table, file=file, where=where)
+    thickness = _positive_number(table, "thickness_nm", file=file, where=where,
+                                 **LAYER_NUMBERS["thickness_nm"])
+    if "doping" not in table:
+        raise StackError("missing required key 'doping'", file=file, where=where,
+                         fix='add doping = "n:2e18" (type and net doping in cm^-3)')
+    polarity, doping = parse_doping(table["doping"], file=file, where=where)
+    length, lifetime, srv = _minority_carriers(table, file=file, where=where)
+    tunnel = _tunnel_settings(table, file=file, where=where)
+    offset = None
+    if "offset_eV" in table:
+        offset = _positive_number(table, "offset_eV", file=file, where=where, unit="eV",
+                                  low=-3.0, high=3.0, low_open=False)
+    return Layer(i, name, material, None if composition is None else float(composition),
+                 thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset)
+
+
 def parse_layers(tables, *, file):
-    """Validate the ``[[layer]]`` tables into Layer objects (materials are checked here too)."""
+    """Validate the ``[[layer]]`` tables into Layer objects (materials are checked here too).
+
+    Parameters
+    ----------
+    tables : list of dict
+        The file's ``[[layer]]`` tables, sun side first.
+    file : str or Path
+        The stack file, for messages.
+
+    Returns
+    -------
+    tuple of Layer
+        Thicknesses in nm, net dopings in cm^-3, diffusion lengths in um, lifetimes in ns,
+        recombination velocities in cm/s, as the file gives them.
+
+    Raises
+    ------
+    StackError
+        Naming the layer and key, at the first problem found.
+    """
     if not isinstance(tables, list) or not tables:
         raise StackError("layer must be a non-empty array of tables", file=file,
                          where="key layer", fix="write each layer as [[layer]] (double brackets)")
-    layers, names = [], {}
-    for i, table in enumerate(tables, start=1):
-        where = f"layer {i}"
-        if not isinstance(table, dict):
-            raise StackError("each [[layer]] must be a table", file=file, where=where,
-                             fix="write [[layer]] followed by key = value lines")
-        name = table.get("name", f"layer{i}")
-        if not isinstance(name, str) or not name.strip():
-            raise StackError(f"name must be a non-empty text, got {excerpt(name)}", file=file,
-                             where=where, fix='write name = "top emitter" (any unique name)')
-        where = f"layer {i} {name!r}"
-        if name in names:
-            raise StackError(f"name {name!r} is used twice (layers {names[name]} and {i})",
-                             file=file, where=where, fix="give every layer its own name")
-        names[name] = i
-        for key in table:
-            if key not in LAYER_KEYS:
-                raise StackError(f"unknown key {key!r} for a layer", file=file, where=where,
-                                 fix=suggest(key, LAYER_KEYS) + "allowed keys: "
-                                 + ", ".join(sorted(LAYER_KEYS)))
-        material = table.get("material")
-        if material is None:
-            raise StackError("missing required key 'material'", file=file, where=where,
-                             fix='add material = "GaAs" (see `siltandem materials`)')
-        if not isinstance(material, str):
-            raise StackError(f"material must be text, got {excerpt(material)}", file=file,
-                             where=where,
-                             fix='write material = "GaAs"')
-        composition = table.get("composition")
-        if composition is not None and (isinstance(composition, bool)
-                                        or not isinstance(composition, (int, float))):
-            raise StackError(f"composition must be a number in [0, 1], got "
-                             f"{excerpt(composition)}", file=file, where=where,
-                             fix="write composition = 0.51")
-        if composition is not None:
-            composition = read_number(composition, file=file, where=where, key="composition",
-                                  unit="")
-        _check_material(material, composition, file=file, where=where)
-        thickness = _positive_number(table, "thickness_nm", file=file, where=where,
-                                     **LAYER_NUMBERS["thickness_nm"])
-        if "doping" not in table:
-            raise StackError("missing required key 'doping'", file=file, where=where,
-                             fix='add doping = "n:2e18" (type and net doping in cm^-3)')
-        polarity, doping = parse_doping(table["doping"], file=file, where=where)
-        length = _positive_number(table, "diffusion_length_um", file=file, where=where,
-                                  required=False, **LAYER_NUMBERS["diffusion_length_um"])
-        lifetime = _positive_number(table, "lifetime_ns", file=file, where=where,
-                                    required=False, **LAYER_NUMBERS["lifetime_ns"])
-        if length is not None and lifetime is not None:
-            raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
-                             where=where, fix="remove one of the two")
-        srv = _positive_number(table, "srv_cm_s", file=file, where=where, required=False,
-                               **LAYER_NUMBERS["srv_cm_s"])
-        tunnel = {}
-        for key, unit, high in (("tunnel_peak_mA_cm2", "mA/cm2", 1e9), ("tunnel_peak_V", "V", 5),
-                                ("tunnel_valley_mA_cm2", "mA/cm2", 1e9),
-                                ("tunnel_valley_V", "V", 10)):
-            value = _positive_number(table, key, file=file, where=where, unit=unit, high=high,
-                                     required=False)
-            if value is not None:
-                tunnel[key.removeprefix("tunnel_")] = value
-        offset = None
-        if "offset_eV" in table:
-            offset = _positive_number(table, "offset_eV", file=file, where=where, unit="eV",
-                                      low=-3.0, high=3.0, low_open=False)
-        layers.append(Layer(i, name, material, None if composition is None
-                            else float(composition), thickness, polarity, doping, length,
-                            lifetime, srv, tunnel or None, offset))
-    return tuple(layers)
+    names = {}
+    return tuple(_parse_layer(i, table, names, file=file)
+                 for i, table in enumerate(tables, start=1))
 
 
 def parse_coatings(tables, *, file):

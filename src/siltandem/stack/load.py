@@ -278,49 +278,82 @@ def _parse_conditions(table, *, file):
     return Conditions(spectrum, suns, temperature, terminals)
 
 
-def parse_stack(document, *, file=None, folder=None):
-    """Validate a parsed TOML document (a dict) into a :class:`Stack`."""
+def _check_top_level(document, file):
+    """Only the known tables and keys at the top level."""
     for key in document:
         if key not in TOP_LEVEL_KEYS:
             raise StackError(f"unknown table or key {key!r} at the top level", file=file,
                              where=f"key {key}", fix=suggest(key, TOP_LEVEL_KEYS)
                              + "a stack file has [stack], [conditions] and [[element]] tables")
-    head = document.get("stack", {})
-    if not isinstance(head, dict):
+
+
+def _parse_head(table, *, file):
+    """The ``[stack]`` table: the stack's name (default the file's stem) and notes, as text."""
+    if not isinstance(table, dict):
         raise StackError("[stack] must be a table", file=file, where="key stack",
                          fix='write [stack] then name = "..."')
-    for key in head:
+    for key in table:
         if key not in STACK_KEYS:
             raise StackError(f"unknown key {key!r} in [stack]", file=file,
                              where=f"key stack.{key}",
                              fix=suggest(key, STACK_KEYS) + "allowed: name, notes")
-    name = head.get("name", Path(file).stem if file else "stack")
-    notes = head.get("notes", "")
+    name = table.get("name", Path(file).stem if file else "stack")
+    notes = table.get("notes", "")
     for key, value in (("name", name), ("notes", notes)):
         if not isinstance(value, str):
             raise StackError(f"{key} must be text, got {excerpt(value)}", file=file,
                              where=f"key stack.{key}", fix=f'write {key} = "..."')
-    conditions = _parse_conditions(document.get("conditions", {}), file=file)
-    if "layer" in document:
-        from siltandem.stack.layers import parse_coatings, parse_layers, parse_optics, parse_rules
+    return name, notes
 
-        if "element" in document:
-            raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
-                             file=file, where="key element",
-                             fix="describe the stack by its layers or by its circuit elements")
-        layers = parse_layers(document["layer"], file=file)
-        coatings = parse_coatings(document.get("coating", []), file=file)
-        rules = parse_rules(document.get("rules", {}), file=file)
-        rules.update(parse_optics(document.get("optics", {}), file=file))
-        if conditions.terminals != 2:
-            raise StackError("layer stacks are two-terminal in this version", file=file,
-                             where="key conditions.terminals", fix="set terminals = 2")
-        from siltandem.stack.placements import parse_placements
 
-        placements = parse_placements(document.get("placement", []), layers, file=file)
-        return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
-                     None if folder is None else str(folder), coatings=coatings, rules=rules,
-                     extra={"placements": placements} if placements else {})
+def _parse_layer_stack(document, name, notes, conditions, *, file, folder):
+    """A layer stack: its layers, coatings, rules and optics, and placements (two-terminal)."""
+    from siltandem.stack.layers import parse_coatings, parse_layers, parse_optics, parse_rules
+
+    if "element" in document:
+        raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
+                         file=file, where="key element",
+                         fix="describe the stack by its layers or by its circuit elements")
+    layers = parse_layers(document["layer"], file=file)
+    coatings = parse_coatings(document.get("coating", []), file=file)
+    rules = parse_rules(document.get("rules", {}), file=file)
+    rules.update(parse_optics(document.get("optics", {}), file=file))
+    if conditions.terminals != 2:
+        raise StackError("layer stacks are two-terminal in this version", file=file,
+                         where="key conditions.terminals", fix="set terminals = 2")
+    from siltandem.stack.placements import parse_placements
+
+    placements = parse_placements(document.get("placement", []), layers, file=file)
+    return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
+                 None if folder is None else str(folder), coatings=coatings, rules=rules,
+                 extra={"placements": placements} if placements else {})
+
+
+def _check_element_names(elements, *, file):
+    """Every element has its own name."""
+    seen = {}
+    for element in elements:
+        if element.name in seen:
+            raise StackError(f"name {element.name!r} is used twice (elements {seen[element.name]}"
+                             f" and {element.index})", file=file, where=element.label,
+                             fix="give every element its own name")
+        seen[element.name] = element.index
+
+
+def _check_strings_have_subcells(elements, conditions, *, file):
+    """Every string of the stack holds at least one subcell."""
+    for number in range(1, conditions.strings + 1):
+        members = [e for e in elements if e.string == number]
+        if not any(e.kind == "subcell" for e in members):
+            raise StackError(f"string {number} has no subcell" if conditions.strings > 1
+                             else "the stack has no subcell", file=file,
+                             fix='add an [[element]] with kind = "subcell"'
+                             + (f" and string = {number}" if conditions.strings > 1 else ""))
+
+
+def _parse_element_stack(document, name, notes, conditions, *, file, folder):
+    """An element stack: its ``[[element]]`` tables, uniquely named, a subcell in every
+    string; no table that belongs to layer stacks."""
     for key in ("coating", "rules", "optics", "placement"):
         if key in document:
             raise StackError(f"[{key}] goes with [[layer]] stacks", file=file, where=f"key {key}",
@@ -334,22 +367,40 @@ def parse_stack(document, *, file=None, folder=None):
                          fix="write each element as [[element]] (double brackets)")
     elements = tuple(_parse_element(i + 1, t, file=file, terminals=conditions.terminals)
                      for i, t in enumerate(tables))
-    seen = {}
-    for element in elements:
-        if element.name in seen:
-            raise StackError(f"name {element.name!r} is used twice (elements {seen[element.name]}"
-                             f" and {element.index})", file=file, where=element.label,
-                             fix="give every element its own name")
-        seen[element.name] = element.index
-    for number in range(1, conditions.strings + 1):
-        members = [e for e in elements if e.string == number]
-        if not any(e.kind == "subcell" for e in members):
-            raise StackError(f"string {number} has no subcell" if conditions.strings > 1
-                             else "the stack has no subcell", file=file,
-                             fix='add an [[element]] with kind = "subcell"'
-                             + (f" and string = {number}" if conditions.strings > 1 else ""))
+    _check_element_names(elements, file=file)
+    _check_strings_have_subcells(elements, conditions, file=file)
     return Stack(name, notes, conditions, elements, (), None if file is None else str(file),
                  None if folder is None else str(folder))
+
+
+def parse_stack(document, *, file=None, folder=None):
+    """Validate a parsed TOML document (a dict) into a :class:`Stack`.
+
+    Parameters
+    ----------
+    document : dict
+        The stack file as ``tomllib`` reads it.
+    file : str or Path, optional
+        The stack file, for messages and the default name.
+    folder : str or Path, optional
+        Where relative paths in the file are resolved from.
+
+    Returns
+    -------
+    Stack
+        Values in file units (see ``stack.schema``).
+
+    Raises
+    ------
+    StackError
+        Naming the table, element or layer and key, at the first problem found.
+    """
+    _check_top_level(document, file)
+    name, notes = _parse_head(document.get("stack", {}), file=file)
+    conditions = _parse_conditions(document.get("conditions", {}), file=file)
+    if "layer" in document:
+        return _parse_layer_stack(document, name, notes, conditions, file=file, folder=folder)
+    return _parse_element_stack(document, name, notes, conditions, file=file, folder=folder)
 
 
 def load_stack(path):

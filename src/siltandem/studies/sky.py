@@ -151,6 +151,78 @@ def clear_sky_plane_spectra(geometry, *, tilt_deg, albedo, pressure_Pa, precipit
     return wavelength, components
 
 
+def _plane_of_array(data, sun, extra, *, tilt_deg, azimuth_deg, ground_albedo, sky_model):
+    """Broadband plane-of-array irradiance of every hour [W/m2]
+    (``pvlib.irradiance.get_total_irradiance``): its direct, sky-diffuse and ground-reflected
+    parts (NaN as 0, negatives clipped) and their total."""
+    import pvlib
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        poa = pvlib.irradiance.get_total_irradiance(
+            tilt_deg, azimuth_deg, sun["zenith_deg"], sun["azimuth_deg"],
+            data["dni"].to_numpy(), data["ghi"].to_numpy(), data["dhi"].to_numpy(),
+            dni_extra=extra, airmass=sun["airmass"], albedo=ground_albedo, model=sky_model)
+    parts = {k: np.nan_to_num(np.asarray(poa[k], dtype=float), nan=0.0).clip(min=0.0)
+             for k in ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")}
+    total = parts["poa_direct"] + parts["poa_sky_diffuse"] + parts["poa_ground_diffuse"]
+    return parts, total
+
+
+def _scale_spectra(wavelength, shape, parts, total, rows, scaling):
+    """The lit hours' SPECTRL2 shapes scaled to the measured irradiance (each component to its
+    part, or the sum to the total): (irradiance [W m^-2 nm^-1], fallback flags, clear-sky sum)."""
+    clear = shape["poa_direct"] + shape["poa_sky_diffuse"] + shape["poa_ground_diffuse"]
+    if scaling == "components":
+        keys = ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")
+        irradiance, fallback = scaled_spectra(wavelength, shapes=[shape[k] for k in keys],
+                                              broadband_W_m2=[parts[k][rows] for k in keys])
+    else:
+        irradiance, fallback = scaled_spectra(wavelength, shapes=[clear],
+                                              broadband_W_m2=[total[rows]])
+    return irradiance, fallback, clear
+
+
+def _light_frame(data, middle, sun, parts, total, air_C, cell_C, fallback, rows):
+    """The table of the lit hours (see :class:`HourlyLight`), indexed by the file's stamps."""
+    import pandas as pd
+
+    return pd.DataFrame({
+        "sun_time": middle[rows],
+        "solar_zenith_deg": sun["zenith_deg"][rows], "solar_azimuth_deg": sun["azimuth_deg"][rows],
+        "aoi_deg": sun["aoi_deg"][rows], "poa_W_m2": total[rows],
+        "poa_direct_W_m2": parts["poa_direct"][rows],
+        "poa_sky_diffuse_W_m2": parts["poa_sky_diffuse"][rows],
+        "poa_ground_W_m2": parts["poa_ground_diffuse"][rows],
+        "air_temperature_C": air_C[rows], "wind_speed_m_s": data["wind_speed"].to_numpy()[rows],
+        "cell_temperature_C": np.asarray(cell_C, dtype=float), "shape_fallback": fallback,
+    }, index=data.index[rows])
+
+
+def _light_settings(*, tilt_deg, azimuth_deg, sky_model, albedo, scaling, ozone_atm_cm,
+                    aerosol_turbidity_500nm, mounting, parameters):
+    """What the hourly light assumed, for the JSON."""
+    return {
+        "tilt_deg": float(tilt_deg), "azimuth_deg": float(azimuth_deg), "sky_model": sky_model,
+        "albedo": "from the weather file (0.2 where missing)" if albedo is None else float(albedo),
+        "sun_position": "pvlib.solarposition.get_solarposition (NREL SPA) at the middle of each "
+                        "hour (time stamp - 30 min: TMY3 values are totals of the hour ending at "
+                        "the stamp), refraction from the hour's pressure and air temperature",
+        "plane_of_array": f"pvlib.irradiance.get_total_irradiance, model {sky_model!r}, "
+                          "airmass kastenyoung1989",
+        "spectrum": "pvlib.spectrum.spectrl2 (Bird & Riordan) on the plane, 300-4000 nm; shape "
+                    "from SPECTRL2, magnitude from the measured plane-of-array irradiance ("
+                    + ("each of direct, sky-diffuse and ground-reflected scaled to its own "
+                       "broadband part" if scaling == "components" else
+                       "the summed spectrum scaled to the total") + ")",
+        "scaling": scaling, "ozone_atm_cm": ozone_atm_cm,
+        "aerosol_turbidity_500nm": aerosol_turbidity_500nm,
+        "precipitable_water": "from the weather file (1.42 cm where missing)",
+        "temperature_model": {"function": "pvlib.temperature.sapm_cell", "parameters": mounting,
+                              **parameters},
+    }
+
+
 def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=MOUNTING,
                  albedo=None, scaling="total", ozone_atm_cm=OZONE_ATM_CM,
                  aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM):
@@ -193,21 +265,13 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
     sun = sun_geometry(middle, latitude=weather.latitude, longitude=weather.longitude,
                        altitude_m=weather.altitude_m, pressure_Pa=pressure_Pa,
                        air_temperature_C=air_C, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
-    zenith, solar_azimuth, aoi = sun["zenith_deg"], sun["azimuth_deg"], sun["aoi_deg"]
     extra = np.asarray(pvlib.irradiance.get_extra_radiation(np.asarray(middle.day_of_year)),
                        dtype=float)
     ground_albedo = (data["albedo"].to_numpy() if albedo is None
                      else np.full(len(data), float(albedo)))
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        poa = pvlib.irradiance.get_total_irradiance(
-            tilt_deg, azimuth_deg, zenith, solar_azimuth, data["dni"].to_numpy(),
-            data["ghi"].to_numpy(), data["dhi"].to_numpy(), dni_extra=extra,
-            airmass=sun["airmass"], albedo=ground_albedo, model=sky_model)
-    parts = {k: np.nan_to_num(np.asarray(poa[k], dtype=float), nan=0.0).clip(min=0.0)
-             for k in ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")}
-    total = parts["poa_direct"] + parts["poa_sky_diffuse"] + parts["poa_ground_diffuse"]
-    sun_up = zenith < 90.0
+    parts, total = _plane_of_array(data, sun, extra, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg,
+                                   ground_albedo=ground_albedo, sky_model=sky_model)
+    sun_up = sun["zenith_deg"] < 90.0
     lit = sun_up & (total > 0)
     rows = np.flatnonzero(lit)
     wavelength, shape = clear_sky_plane_spectra(
@@ -216,44 +280,13 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
         precipitable_water_cm=data["precipitable_water"].to_numpy()[rows],
         day_of_year=np.asarray(middle.day_of_year)[rows], ozone_atm_cm=ozone_atm_cm,
         aerosol_turbidity_500nm=aerosol_turbidity_500nm)
-    clear = shape["poa_direct"] + shape["poa_sky_diffuse"] + shape["poa_ground_diffuse"]
-    if scaling == "components":
-        keys = ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse")
-        irradiance, fallback = scaled_spectra(wavelength, shapes=[shape[k] for k in keys],
-                                              broadband_W_m2=[parts[k][rows] for k in keys])
-    else:
-        irradiance, fallback = scaled_spectra(wavelength, shapes=[clear],
-                                              broadband_W_m2=[total[rows]])
+    irradiance, fallback, clear = _scale_spectra(wavelength, shape, parts, total, rows, scaling)
     cell_C = pvlib.temperature.sapm_cell(total[rows], air_C[rows],
                                          data["wind_speed"].to_numpy()[rows], **parameters)
-    frame = pd.DataFrame({
-        "sun_time": middle[rows],
-        "solar_zenith_deg": zenith[rows], "solar_azimuth_deg": solar_azimuth[rows],
-        "aoi_deg": aoi[rows], "poa_W_m2": total[rows],
-        "poa_direct_W_m2": parts["poa_direct"][rows],
-        "poa_sky_diffuse_W_m2": parts["poa_sky_diffuse"][rows],
-        "poa_ground_W_m2": parts["poa_ground_diffuse"][rows],
-        "air_temperature_C": air_C[rows], "wind_speed_m_s": data["wind_speed"].to_numpy()[rows],
-        "cell_temperature_C": np.asarray(cell_C, dtype=float), "shape_fallback": fallback,
-    }, index=stamps[rows])
+    frame = _light_frame(data, middle, sun, parts, total, air_C, cell_C, fallback, rows)
     all_hours = pd.DataFrame({"poa_W_m2": total, "sun_up": sun_up}, index=stamps)
-    settings = {
-        "tilt_deg": float(tilt_deg), "azimuth_deg": float(azimuth_deg), "sky_model": sky_model,
-        "albedo": "from the weather file (0.2 where missing)" if albedo is None else float(albedo),
-        "sun_position": "pvlib.solarposition.get_solarposition (NREL SPA) at the middle of each "
-                        "hour (time stamp - 30 min: TMY3 values are totals of the hour ending at "
-                        "the stamp), refraction from the hour's pressure and air temperature",
-        "plane_of_array": f"pvlib.irradiance.get_total_irradiance, model {sky_model!r}, "
-                          "airmass kastenyoung1989",
-        "spectrum": "pvlib.spectrum.spectrl2 (Bird & Riordan) on the plane, 300-4000 nm; shape "
-                    "from SPECTRL2, magnitude from the measured plane-of-array irradiance ("
-                    + ("each of direct, sky-diffuse and ground-reflected scaled to its own "
-                       "broadband part" if scaling == "components" else
-                       "the summed spectrum scaled to the total") + ")",
-        "scaling": scaling, "ozone_atm_cm": ozone_atm_cm,
-        "aerosol_turbidity_500nm": aerosol_turbidity_500nm,
-        "precipitable_water": "from the weather file (1.42 cm where missing)",
-        "temperature_model": {"function": "pvlib.temperature.sapm_cell", "parameters": mounting,
-                              **parameters},
-    }
+    settings = _light_settings(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, sky_model=sky_model,
+                               albedo=albedo, scaling=scaling, ozone_atm_cm=ozone_atm_cm,
+                               aerosol_turbidity_500nm=aerosol_turbidity_500nm,
+                               mounting=mounting, parameters=parameters)
     return HourlyLight(frame, wavelength, irradiance, clear, all_hours, settings)

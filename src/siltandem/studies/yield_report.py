@@ -36,18 +36,9 @@ def plot_days(hourly, latitude):
     return days
 
 
-def summarise(stack, weather, light, hourly, names, laws, tables, standard_efficiency,
-               bare_power, passive):
-    import pandas as pd
-
-    poa = hourly["poa_W_m2"].to_numpy()
-    insolation = _kwh(poa)
-    all_insolation = _kwh(light.all_hours["poa_W_m2"].to_numpy())
-    energy = _kwh(hourly["power_W_m2"])
-    two = _kwh(hourly["two_terminal_W_m2"])
-    four = _kwh(hourly["four_terminal_W_m2"])
-    bare = None if bare_power is None else _kwh(bare_power)
-    failed = int(hourly["failed"].sum())
+def _year_warnings(hourly, light, names, laws, failed, insolation, all_insolation):
+    """The year's warnings, in order: failed hours, empty SPECTRL2 components, insolation in
+    hours with the sun below the horizon, gaps fixed at the file's values."""
     warnings_ = []
     if failed:
         warnings_.append(f"{failed} hour(s) found no operating point: they count as zero energy")
@@ -59,11 +50,30 @@ def summarise(stack, weather, light, hourly, names, laws, tables, standard_effic
     if lost > 1e-3 * max(all_insolation, 1e-9):
         warnings_.append(f"{lost:.2f} kWh/m2 of plane-of-array insolation falls in hours whose "
                          "middle has the sun below the horizon; those hours are not solved")
+    fixed = [n for n in names if n not in laws]
+    if fixed:
+        warnings_.append("the gaps of " + ", ".join(repr(n) for n in fixed) + " are fixed at the "
+                         "file's values for every hour (give the subcell material = \"...\" or "
+                         "--gap-material): only their dark currents follow the cell temperature")
+    return warnings_
+
+
+def _limiting(hourly, names):
+    """Per subcell: the hours it limits the current, and its share of the two-terminal energy
+    in those hours (None without two-terminal energy)."""
     limiting_hours = {n: int(np.sum(hourly["limiting_subcell"] == n)) for n in names}
     two_terminal = hourly["two_terminal_W_m2"].to_numpy()
     limiting_share = {n: (float(two_terminal[hourly["limiting_subcell"].to_numpy() == n].sum()
                                 / two_terminal.sum()) if two_terminal.sum() > 0 else None)
                       for n in names}
+    return limiting_hours, limiting_share
+
+
+def _monthly_table(hourly, names):
+    """One row per month: sun hours, insolation and energies [kWh/m2], efficiency [%], the
+    irradiance-weighted cell temperature [degC] and each subcell's limiting hours."""
+    import pandas as pd
+
     month = hourly["sun_time"].dt.month.to_numpy()
     rows = []
     for m in range(1, 13):
@@ -82,7 +92,14 @@ def summarise(stack, weather, light, hourly, names, laws, tables, standard_effic
         for n in names:
             row[f"{n}.limiting_hours"] = int(np.sum(sub["limiting_subcell"] == n))
         rows.append(row)
-    monthly = pd.DataFrame(rows)
+    return pd.DataFrame(rows)
+
+
+def _subcell_rows(hourly, names, laws, tables, limiting_hours, limiting_share):
+    """One summary row per subcell: where its photocurrent and gap come from, its annual charge
+    [kAh/m2] and energy alone [kWh/m2], limiting hours and share, and its mismatch factors
+    (weighted by the plane-of-array irradiance, min, max)."""
+    poa = hourly["poa_W_m2"].to_numpy()
     subcell_rows = []
     for n in names:
         factor = hourly[f"{n}.mismatch_factor"].to_numpy()
@@ -102,19 +119,80 @@ def summarise(stack, weather, light, hourly, names, laws, tables, standard_effic
             "mismatch_factor_min": float(np.min(factor[ok])) if ok.any() else None,
             "mismatch_factor_max": float(np.max(factor[ok])) if ok.any() else None,
         })
-    fixed = [n for n in names if n not in laws]
-    if fixed:
-        warnings_.append("the gaps of " + ", ".join(repr(n) for n in fixed) + " are fixed at the "
-                         "file's values for every hour (give the subcell material = \"...\" or "
-                         "--gap-material): only their dark currents follow the cell temperature")
+    return subcell_rows
+
+
+def _weather_entry(weather, light, hourly):
+    """The summary's ``weather`` entry: the file, its station and the hours it holds."""
+    return {"file": weather.source, "station": weather.station,
+            "latitude_deg": weather.latitude, "longitude_deg": weather.longitude,
+            "altitude_m": weather.altitude_m, "timezone_h": weather.timezone_h,
+            "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly))}
+
+
+def _wiring_entry(stack, two, four):
+    """The summary's ``wiring`` entry: two- and four-terminal energies [kWh/m2] and what they
+    mean."""
+    return {
+        "terminals_in_file": stack.conditions.terminals,
+        "two_terminal_kWh_m2": two,
+        "four_terminal_kWh_m2": four,
+        "four_terminal_gain_pct": 100 * (four - two) / two if two > 0 else None,
+        "two_terminal_means": "every element of the stack in one series string, in optical "
+                              "order",
+        "four_terminal_means": "each subcell on its own at its own maximum power point; the "
+                               "stack's other elements (resistors, tunnel junctions, "
+                               "interfaces) left out",
+    }
+
+
+def summarise(stack, weather, light, hourly, names, laws, tables, standard_efficiency,
+              bare_power, passive):
+    """The yield's summary (the JSON contract) and its monthly table.
+
+    Parameters
+    ----------
+    stack : Stack
+    weather : Weather
+    light : HourlyLight
+    hourly : pandas.DataFrame
+        The hourly table of ``annual_yield`` (powers in W/m2, one row per hour with light).
+    names : list of str
+        The subcells, in optical order.
+    laws : dict
+        Subcell name -> the material whose gap law it follows.
+    tables : dict
+        Subcell name -> its measured EQE.
+    standard_efficiency : float
+        Efficiency at standard test conditions [%].
+    bare_power : numpy.ndarray or None
+        The subcells alone in series, every hour [W/m2]; None if not solved.
+    passive : bool
+        Whether the stack has elements other than subcells.
+
+    Returns
+    -------
+    summary : dict
+        Energies in kWh/m2, efficiencies in %, charges in kAh/m2 (names carry the units).
+    monthly : pandas.DataFrame
+        One row per month.
+    """
+    insolation = _kwh(hourly["poa_W_m2"].to_numpy())
+    all_insolation = _kwh(light.all_hours["poa_W_m2"].to_numpy())
+    energy = _kwh(hourly["power_W_m2"])
+    two = _kwh(hourly["two_terminal_W_m2"])
+    four = _kwh(hourly["four_terminal_W_m2"])
+    bare = None if bare_power is None else _kwh(bare_power)
+    failed = int(hourly["failed"].sum())
+    limiting_hours, limiting_share = _limiting(hourly, names)
+    monthly = _monthly_table(hourly, names)
+    subcell_rows = _subcell_rows(hourly, names, laws, tables, limiting_hours, limiting_share)
+    warnings_ = _year_warnings(hourly, light, names, laws, failed, insolation, all_insolation)
     days = plot_days(hourly, weather.latitude)
     efficiency = 100 * energy / insolation if insolation > 0 else None
     summary = {
         "stack": stack.name, "source_file": stack.source,
-        "weather": {"file": weather.source, "station": weather.station,
-                    "latitude_deg": weather.latitude, "longitude_deg": weather.longitude,
-                    "altitude_m": weather.altitude_m, "timezone_h": weather.timezone_h,
-                    "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly))},
+        "weather": _weather_entry(weather, light, hourly),
         "plane": {k: light.settings[k] for k in ("tilt_deg", "azimuth_deg", "sky_model",
                                                  "albedo")},
         "method": {k: v for k, v in light.settings.items()
@@ -125,17 +203,7 @@ def summarise(stack, weather, light, hourly, names, laws, tables, standard_effic
         "efficiency_at_standard_conditions_pct": standard_efficiency,
         "performance_ratio": (efficiency / standard_efficiency
                               if efficiency is not None and standard_efficiency > 0 else None),
-        "wiring": {
-            "terminals_in_file": stack.conditions.terminals,
-            "two_terminal_kWh_m2": two,
-            "four_terminal_kWh_m2": four,
-            "four_terminal_gain_pct": 100 * (four - two) / two if two > 0 else None,
-            "two_terminal_means": "every element of the stack in one series string, in optical "
-                                  "order",
-            "four_terminal_means": "each subcell on its own at its own maximum power point; the "
-                                   "stack's other elements (resistors, tunnel junctions, "
-                                   "interfaces) left out",
-        },
+        "wiring": _wiring_entry(stack, two, four),
         "current_mismatch_loss_kWh_m2": four - two,
         "current_mismatch_loss_pct": 100 * (four - two) / four if four > 0 else None,
         "of_which_other_elements_kWh_m2": (None if bare is None else

@@ -38,6 +38,7 @@ mismatch is the four-terminal energy minus the two-terminal energy.
 """
 from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import NamedTuple
 import warnings
 
 import numpy as np
@@ -139,6 +140,234 @@ def _solve(elements, temperature_K):
     return solution
 
 
+def _weather_and_plane(weather, tilt_deg, azimuth_deg):
+    """The weather (read from a path if needed) and the plane's tilt and azimuth [deg], with
+    their defaults: tilted at the latitude's magnitude, facing the equator."""
+    if not isinstance(weather, Weather):
+        weather = read_weather(weather)
+    if tilt_deg is None:
+        tilt_deg = abs(weather.latitude)
+    if azimuth_deg is None:
+        azimuth_deg = 180.0 if weather.latitude >= 0 else 0.0
+    return weather, tilt_deg, azimuth_deg
+
+
+def _subcell_gap_laws(subcells, gap_materials, names):
+    """Subcell name -> material whose gap law it follows: ``gap_materials`` first, then the
+    material a subcell names in the stack file."""
+    laws = gap_laws(gap_materials, names)
+    # a subcell that names its material in the stack file follows that material's gap law
+    # unless --gap-material says otherwise
+    for cell in subcells:
+        if cell.gap_material is not None and cell.name not in laws:
+            laws[cell.name] = gap_laws({cell.name: cell.gap_material}, names)[cell.name]
+    return laws
+
+
+def _subcell_eqe_tables(subcells, eqe, names):
+    """Subcell name -> measured EQE (wavelength_nm, eqe), from ``eqe`` first, then from the
+    stack file; and name -> (file path or None, where) for the messages."""
+    tables = eqe_tables(eqe, names)
+    eqe_files = {name: (str(value) if isinstance(value, (str, Path)) else None, f"--eqe {name}")
+                 for name, value in (eqe or {}).items()}
+    # a subcell whose stack file gives its measured EQE uses it unless --eqe says otherwise
+    for cell in subcells:
+        if cell.eqe_table is not None and cell.name not in tables:
+            tables[cell.name] = cell.eqe_table
+            eqe_files[cell.name] = (cell.eqe_file, None)
+    return tables, eqe_files
+
+
+def _hourly_gaps(subcells, laws, temperature, reference_K):
+    """Each subcell's gap [eV] in every hour: (hours, 1) where it follows a material's law
+    (shifted by Eg_material(T) - Eg_material(T_file)), else the file's number."""
+    gaps = []
+    for cell in subcells:
+        if cell.name in laws:
+            material = laws[cell.name]
+            shift = (np.asarray(material.gap_eV(temperature), dtype=float)
+                     - float(material.gap_eV(reference_K)))
+            gaps.append(cell.gap_eV + shift)
+        else:
+            gaps.append(cell.gap_eV)
+    return gaps
+
+
+def _layer_photocurrents(circuit, light, flux, reference, temperature):
+    """A layer stack's photocurrents [A/m2] of every hour (the layers' optics and collection for
+    each hour's photon flux ``flux``) and under the reference spectrum, and the dark currents of
+    each hour's temperature (``dark_currents_at``): (photocurrents, spectral_only, reference,
+    dark)."""
+    from siltandem.circuit.from_layers import dark_currents_at
+    from siltandem.optics.layers import layer_photocurrents
+
+    photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
+                     layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
+    on_grid = np.interp(light.wavelength_nm, reference.wavelength_nm, reference.photon_flux)
+    reference_currents = [np.asarray(j, dtype=float) for j in layer_photocurrents(
+        circuit.model, light.wavelength_nm, on_grid)]
+    dark = dark_currents_at(circuit.model, circuit, temperature)
+    return photocurrents, photocurrents, reference_currents, dark
+
+
+def _element_photocurrents(subcells, gaps, laws, light, flux, reference):
+    """An element stack's step-absorber photocurrents [A/m2]: of every hour at its gaps, of every
+    hour at the file's gaps (the purely spectral part, for the mismatch factors) and under the
+    reference spectrum at the file's gaps."""
+    file_gaps = [s.gap_eV for s in subcells]
+    absorptances = [s.absorptance for s in subcells]
+    photocurrents = step_absorber_photocurrents_rows(gaps, absorptances,
+                                                     light.wavelength_nm, flux)
+    spectral_only = (photocurrents if not laws else
+                     step_absorber_photocurrents_rows(file_gaps, absorptances,
+                                                      light.wavelength_nm, flux))
+    reference_currents = step_absorber_photocurrents(file_gaps, absorptances,
+                                                     reference.wavelength_nm,
+                                                     reference.photon_flux)
+    return photocurrents, spectral_only, reference_currents
+
+
+def _measured_eqe_photocurrents(subcells, tables, eqe_files, light, flux, reference,
+                                photocurrents, spectral_only, reference_currents):
+    """Replace, in place, the photocurrents of each subcell with a measured EQE by q integral
+    Phi EQE, hourly and under the reference; refuse an EQE that collects more than the reference
+    has photons above the gap."""
+    for k, cell in enumerate(subcells):
+        if cell.name in tables:
+            lam_q, q = tables[cell.name]
+            photocurrents[k] = quantum_efficiency_photocurrent(
+                flux, wavelength_nm=light.wavelength_nm, eqe_wavelength_nm=lam_q,
+                eqe=q).reshape(-1, 1)
+            spectral_only[k] = photocurrents[k]
+            reference_currents[k] = quantum_efficiency_photocurrent(
+                reference.photon_flux, wavelength_nm=reference.wavelength_nm,
+                eqe_wavelength_nm=lam_q, eqe=q)
+            path, where = eqe_files[cell.name]
+            check_eqe_current(cell.name, path, reference_currents[k], cell.gap_eV,
+                              reference.wavelength_nm, reference.photon_flux,
+                              light=f"{STANDARD_SPECTRUM} (the yield's reference)", where=where)
+
+
+def _mismatch_factors(names, light, reference, spectral_only, reference_currents):
+    """Subcell name -> spectral mismatch factor of every hour against the reference spectrum."""
+    field_irradiance = np.trapezoid(light.irradiance_W_m2_nm, light.wavelength_nm, axis=1)
+    return {name: spectral_mismatch_factor(
+        spectral_only[k][:, 0], irradiance_W_m2=field_irradiance,
+        reference_photocurrent_A_m2=float(np.asarray(reference_currents[k]).reshape(-1)[0]),
+        reference_irradiance_W_m2=reference.integral_W_m2) for k, name in enumerate(names)}
+
+
+def _hourly_subcells(subcells, gaps, photocurrents, dark, temperature, reference_K):
+    """Subcell name -> the subcell with every hour's gap, photocurrent and dark currents as
+    (hours, 1) arrays (``dark``: a layer stack's dark currents of each hour, else None)."""
+    hourly_cells = {cell.name: replace(cell, gap_eV=np.asarray(gap, dtype=float),
+                                       photocurrent_A_m2=np.asarray(jph, dtype=float))
+                    for cell, gap, jph in zip(subcells, gaps, photocurrents)}
+    if dark is not None:
+        return {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
+                              j02_A_m2=np.asarray(dark[name][1], dtype=float))
+                for name, cell in hourly_cells.items()}
+    # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
+    # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)
+    from siltandem.laws.diode import intrinsic_density_ratio
+
+    return {cell.name: replace(hourly_cells[cell.name], j02_A_m2=cell.j02_A_m2
+                               * intrinsic_density_ratio(
+                                   temperature, gap_eV=gap,
+                                   reference_temperature_K=reference_K,
+                                   reference_gap_eV=cell.gap_eV))
+            for cell, gap in zip(subcells, gaps)}
+
+
+class _YearPowers(NamedTuple):
+    """The powers [W/m2] of every hour from the year's solves."""
+
+    wired: np.ndarray         # the stack as wired, summed over its strings
+    two_terminal: np.ndarray  # every element in one series string
+    bare: object              # the subcells alone in series (None if not solved)
+    passive: bool             # whether the stack has elements other than subcells
+    alone: dict               # subcell name -> that subcell on its own at its maximum power
+    failed: np.ndarray        # hours without an operating point in some solve
+
+
+def _year_solves(circuit, hourly_cells, names, temperature, split_losses):
+    """The batched solves over the hours: the stack as wired, the two-terminal string, the bare
+    subcells in series (``split_losses``) and each subcell on its own (four-terminal)."""
+    def lit(element):
+        return hourly_cells.get(element.name, element)
+
+    hours = temperature.shape[0]
+    # the stack as wired, string by string
+    wired = np.zeros(hours)
+    failed = np.zeros(hours, dtype=bool)
+    for string in circuit.strings:
+        solution = _solve([lit(e) for e in string], temperature)
+        wired += _power(solution)
+        failed |= solution.failed
+    # the same elements all in one series string (two-terminal) and each subcell on its own
+    if circuit.conditions.strings == 1:
+        series_power = wired
+    else:
+        series = _solve([lit(e) for e in circuit.elements], temperature)
+        series_power = _power(series)
+        failed |= series.failed
+    passive = any(e.kind != "subcell" for e in circuit.elements)
+    if passive and split_losses:
+        bare = _solve([hourly_cells[n] for n in names], temperature)
+        bare_power = _power(bare)
+        failed |= bare.failed
+    elif passive:
+        bare_power = None
+    else:
+        bare_power = series_power
+    alone = {}
+    for name in names:
+        solution = _solve([hourly_cells[name]], temperature)
+        alone[name] = _power(solution)
+        failed |= solution.failed
+    return _YearPowers(wired, series_power, bare_power, passive, alone, failed)
+
+
+def _standard_efficiency(stack, reference, tables, reference_currents):
+    """Efficiency [%] at standard test conditions: the file's stack under AM1.5G at 25 degC (a
+    measured-EQE subcell with its EQE's photocurrent)."""
+    standard = illuminate(compile_stack(stack), reference)
+    standard = standard.with_elements([
+        cell.with_photocurrent(float(np.asarray(reference_currents[k]).reshape(-1)[0]))
+        for k, cell in enumerate(standard.subcells) if cell.name in tables])
+    standard_power = sum(float(_power(_solve(s, STANDARD_TEMPERATURE_K))[0])
+                         for s in standard.strings)
+    return 100 * standard_power / reference.irradiance_W_m2
+
+
+def _hourly_table(frame, names, laws, gaps, photocurrents, mismatch, powers):
+    """The hourly table: the light's columns, then each subcell's gap (if it follows a law),
+    photocurrent, mismatch factor and power alone, then the stack's powers and efficiency."""
+    hours = len(frame)
+    poa = frame["poa_W_m2"].to_numpy()
+    independent = np.sum([powers.alone[n] for n in names], axis=0)
+    stacked = np.concatenate([np.broadcast_to(j, (hours, 1)) for j in photocurrents], axis=1)
+    limiting_index = np.argmin(stacked, axis=1)
+    limiting = np.array(names, dtype=object)[limiting_index]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        efficiency = np.where(poa > 0, 100 * powers.wired / poa, np.nan)
+    hourly = frame.copy()
+    for k, name in enumerate(names):
+        if name in laws:
+            hourly[f"{name}.gap_eV"] = np.asarray(gaps[k], dtype=float)[:, 0]
+        hourly[f"{name}.photocurrent_mA_cm2"] = units.ma_cm2(
+            np.broadcast_to(photocurrents[k], (hours, 1))[:, 0])
+        hourly[f"{name}.mismatch_factor"] = mismatch[name]
+        hourly[f"{name}.alone_W_m2"] = powers.alone[name]
+    hourly["power_W_m2"] = powers.wired
+    hourly["efficiency_pct"] = efficiency
+    hourly["two_terminal_W_m2"] = powers.two_terminal
+    hourly["four_terminal_W_m2"] = independent
+    hourly["limiting_subcell"] = limiting
+    hourly["failed"] = powers.failed
+    return hourly
+
+
 def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="perez",
                  mounting=MOUNTING, albedo=None, scaling="total", gap_materials=None,
                  eqe=None, split_losses=False, ozone_atm_cm=OZONE_ATM_CM,
@@ -180,12 +409,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     from siltandem.stack.options import check_plane
 
     check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)   # before any work
-    if not isinstance(weather, Weather):
-        weather = read_weather(weather)
-    if tilt_deg is None:
-        tilt_deg = abs(weather.latitude)
-    if azimuth_deg is None:
-        azimuth_deg = 180.0 if weather.latitude >= 0 else 0.0
+    weather, tilt_deg, azimuth_deg = _weather_and_plane(weather, tilt_deg, azimuth_deg)
     light = hourly_light(weather, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg,
                          sky_model=sky_model, mounting=mounting, albedo=albedo, scaling=scaling,
                          ozone_atm_cm=ozone_atm_cm,
@@ -193,171 +417,36 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     circuit = compile_stack(stack)
     subcells = circuit.subcells
     names = [s.name for s in subcells]
-    laws = gap_laws(gap_materials, names)
-    # a subcell that names its material in the stack file follows that material's gap law
-    # unless --gap-material says otherwise
-    for cell in subcells:
-        if cell.gap_material is not None and cell.name not in laws:
-            laws[cell.name] = gap_laws({cell.name: cell.gap_material}, names)[cell.name]
-    tables = eqe_tables(eqe, names)
-    eqe_files = {name: (str(value) if isinstance(value, (str, Path)) else None, f"--eqe {name}")
-                 for name, value in (eqe or {}).items()}
-    # a subcell whose stack file gives its measured EQE uses it unless --eqe says otherwise
-    for cell in subcells:
-        if cell.eqe_table is not None and cell.name not in tables:
-            tables[cell.name] = cell.eqe_table
-            eqe_files[cell.name] = (cell.eqe_file, None)
+    laws = _subcell_gap_laws(subcells, gap_materials, names)
+    tables, eqe_files = _subcell_eqe_tables(subcells, eqe, names)
     frame = light.frame
-    hours = len(frame)
-    if hours == 0:
+    if len(frame) == 0:
         raise StackError("no hour of the year puts light on this plane", where="--tilt",
                          fix="check the weather file and the plane's tilt and azimuth")
     temperature = (frame["cell_temperature_C"].to_numpy() + 273.15).reshape(-1, 1)
     reference_K = stack.conditions.temperature_K
 
-    # gaps of each hour, and the photocurrents they give
-    file_gaps = [s.gap_eV for s in subcells]
-    gaps = []
-    for cell in subcells:
-        if cell.name in laws:
-            material = laws[cell.name]
-            shift = (np.asarray(material.gap_eV(temperature), dtype=float)
-                     - float(material.gap_eV(reference_K)))
-            gaps.append(cell.gap_eV + shift)
-        else:
-            gaps.append(cell.gap_eV)
+    gaps = _hourly_gaps(subcells, laws, temperature, reference_K)
     flux = light.photon_flux
-    absorptances = [s.absorptance for s in subcells]
     reference = get_spectrum(STANDARD_SPECTRUM)
-    layered = circuit.model is not None
-    if layered:
-        # layer stacks: the layers' optics and collection for every hour's spectrum; the dark
-        # currents follow each hour's temperature (layer_stage.dark_currents_at)
-        from siltandem.circuit.from_layers import dark_currents_at
-        from siltandem.optics.layers import layer_photocurrents
-
-        photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
-                         layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
-        spectral_only = photocurrents
-        on_grid = np.interp(light.wavelength_nm, reference.wavelength_nm, reference.photon_flux)
-        reference_currents = [np.asarray(j, dtype=float) for j in layer_photocurrents(
-            circuit.model, light.wavelength_nm, on_grid)]
-        dark = dark_currents_at(circuit.model, circuit, temperature)
+    dark = None
+    if circuit.model is not None:
+        photocurrents, spectral_only, reference_currents, dark = _layer_photocurrents(
+            circuit, light, flux, reference, temperature)
         gaps = [dark[c.name][2] for c in subcells]
         # layer subcells follow their absorber's Varshni law and intrinsic density
         laws = {c.name: circuit.model.materials[m.emitter]
                 for c, m in zip(subcells, circuit.model.subcells)}
     else:
-        photocurrents = step_absorber_photocurrents_rows(gaps, absorptances,
-                                                         light.wavelength_nm, flux)
-        spectral_only = (photocurrents if not laws else
-                         step_absorber_photocurrents_rows(file_gaps, absorptances,
-                                                          light.wavelength_nm, flux))
-        reference_currents = step_absorber_photocurrents(file_gaps, absorptances,
-                                                         reference.wavelength_nm,
-                                                         reference.photon_flux)
-    for k, name in enumerate(names):
-        if name in tables:
-            lam_q, q = tables[name]
-            photocurrents[k] = quantum_efficiency_photocurrent(
-                flux, wavelength_nm=light.wavelength_nm, eqe_wavelength_nm=lam_q,
-                eqe=q).reshape(-1, 1)
-            spectral_only[k] = photocurrents[k]
-            reference_currents[k] = quantum_efficiency_photocurrent(
-                reference.photon_flux, wavelength_nm=reference.wavelength_nm,
-                eqe_wavelength_nm=lam_q, eqe=q)
-            path, where = eqe_files[name]
-            check_eqe_current(name, path, reference_currents[k], file_gaps[k],
-                              reference.wavelength_nm, reference.photon_flux,
-                              light=f"{STANDARD_SPECTRUM} (the yield's reference)", where=where)
-    poa = frame["poa_W_m2"].to_numpy()
-    field_irradiance = np.trapezoid(light.irradiance_W_m2_nm, light.wavelength_nm, axis=1)
-    mismatch = {name: spectral_mismatch_factor(
-        spectral_only[k][:, 0], irradiance_W_m2=field_irradiance,
-        reference_photocurrent_A_m2=float(np.asarray(reference_currents[k]).reshape(-1)[0]),
-        reference_irradiance_W_m2=reference.integral_W_m2) for k, name in enumerate(names)}
-    hourly_cells = {cell.name: replace(cell, gap_eV=np.asarray(gap, dtype=float),
-                                       photocurrent_A_m2=np.asarray(jph, dtype=float))
-                    for cell, gap, jph in zip(subcells, gaps, photocurrents)}
-    if layered:
-        hourly_cells = {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
-                                      j02_A_m2=np.asarray(dark[name][1], dtype=float))
-                        for name, cell in hourly_cells.items()}
-    else:
-        # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
-        # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)
-        from siltandem.laws.diode import intrinsic_density_ratio
-
-        hourly_cells = {cell.name: replace(hourly_cells[cell.name], j02_A_m2=cell.j02_A_m2
-                                           * intrinsic_density_ratio(
-                                               temperature, gap_eV=gap,
-                                               reference_temperature_K=reference_K,
-                                               reference_gap_eV=cell.gap_eV))
-                        for cell, gap in zip(subcells, gaps)}
-
-    def lit(element):
-        return hourly_cells.get(element.name, element)
-
-    # the stack as wired, string by string
-    wired = np.zeros(hours)
-    failed = np.zeros(hours, dtype=bool)
-    for string in circuit.strings:
-        solution = _solve([lit(e) for e in string], temperature)
-        wired += _power(solution)
-        failed |= solution.failed
-    # the same elements all in one series string (two-terminal) and each subcell on its own
-    if circuit.conditions.strings == 1:
-        series_power = wired
-    else:
-        series = _solve([lit(e) for e in circuit.elements], temperature)
-        series_power = _power(series)
-        failed |= series.failed
-    passive = any(e.kind != "subcell" for e in circuit.elements)
-    if passive and split_losses:
-        bare = _solve([hourly_cells[n] for n in names], temperature)
-        bare_power = _power(bare)
-        failed |= bare.failed
-    elif passive:
-        bare_power = None
-    else:
-        bare_power = series_power
-    alone = {}
-    for name in names:
-        solution = _solve([hourly_cells[name]], temperature)
-        alone[name] = _power(solution)
-        failed |= solution.failed
-    independent = np.sum([alone[n] for n in names], axis=0)
-    stacked = np.concatenate([np.broadcast_to(j, (hours, 1)) for j in photocurrents], axis=1)
-    limiting_index = np.argmin(stacked, axis=1)
-    limiting = np.array(names, dtype=object)[limiting_index]
-
-    # standard test conditions: the file's stack under AM1.5G at 25 degC (a measured-EQE
-    # subcell with its EQE's photocurrent)
-    standard = illuminate(compile_stack(stack), reference)
-    standard = standard.with_elements([
-        cell.with_photocurrent(float(np.asarray(reference_currents[k]).reshape(-1)[0]))
-        for k, cell in enumerate(standard.subcells) if cell.name in tables])
-    standard_power = sum(float(_power(_solve(s, STANDARD_TEMPERATURE_K))[0])
-                         for s in standard.strings)
-    standard_efficiency = 100 * standard_power / reference.irradiance_W_m2
-
-    with np.errstate(divide="ignore", invalid="ignore"):
-        efficiency = np.where(poa > 0, 100 * wired / poa, np.nan)
-    hourly = frame.copy()
-    for k, name in enumerate(names):
-        if name in laws:
-            hourly[f"{name}.gap_eV"] = np.asarray(gaps[k], dtype=float)[:, 0]
-        hourly[f"{name}.photocurrent_mA_cm2"] = units.ma_cm2(
-            np.broadcast_to(photocurrents[k], (hours, 1))[:, 0])
-        hourly[f"{name}.mismatch_factor"] = mismatch[name]
-        hourly[f"{name}.alone_W_m2"] = alone[name]
-    hourly["power_W_m2"] = wired
-    hourly["efficiency_pct"] = efficiency
-    hourly["two_terminal_W_m2"] = series_power
-    hourly["four_terminal_W_m2"] = independent
-    hourly["limiting_subcell"] = limiting
-    hourly["failed"] = failed
-
+        photocurrents, spectral_only, reference_currents = _element_photocurrents(
+            subcells, gaps, laws, light, flux, reference)
+    _measured_eqe_photocurrents(subcells, tables, eqe_files, light, flux, reference,
+                                photocurrents, spectral_only, reference_currents)
+    mismatch = _mismatch_factors(names, light, reference, spectral_only, reference_currents)
+    hourly_cells = _hourly_subcells(subcells, gaps, photocurrents, dark, temperature, reference_K)
+    powers = _year_solves(circuit, hourly_cells, names, temperature, split_losses)
+    standard_efficiency = _standard_efficiency(stack, reference, tables, reference_currents)
+    hourly = _hourly_table(frame, names, laws, gaps, photocurrents, mismatch, powers)
     summary, monthly = summarise(stack, weather, light, hourly, names, laws, tables,
-                                  standard_efficiency, bare_power, passive)
+                                  standard_efficiency, powers.bare, powers.passive)
     return YieldResult(summary, hourly, monthly, light)
