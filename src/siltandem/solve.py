@@ -25,6 +25,7 @@ import warnings
 import numpy as np
 
 from . import kernels
+from .certificate import Certificate, Segment, certify, polisher
 from .elements import take_rows
 from .constants import thermal_voltage_V
 from .inverse import polish_root
@@ -66,6 +67,13 @@ class StringSolution:
         (S-shaped: a voltage sweep jumps, differently up and down).
     tunnel_branch_at_mpp : dict
         Tunnel junction name -> branch ("tunnel", "negative", "thermal") it sits on at the MPP.
+    mpp_certified : ndarray of bool
+        The MPP is proven the global maximum of the traced curve (certificate.py): no point of
+        it exceeds ``mpp_bound_W_m2``, which is within 1e-9 (relative) of ``mpp_W_m2``.
+    mpp_bound_W_m2 : ndarray
+        The largest upper bound of the power over the traced curve [W/m2] (>= mpp_W_m2).
+    mpp_cells_checked : ndarray of int
+        Cells (intervals between evaluated points) the proof bounded.
     """
 
     element_names: list
@@ -84,6 +92,9 @@ class StringSolution:
     regime: np.ndarray | None = None
     tunnel_branch_at_mpp: dict = field(default_factory=dict)
     capped: np.ndarray | None = None
+    mpp_certified: np.ndarray | None = None
+    mpp_bound_W_m2: np.ndarray | None = None
+    mpp_cells_checked: np.ndarray | None = None
 
 
 class _Extrema(dict):
@@ -463,6 +474,61 @@ def _finite_or(value, fallback):
     return np.where(np.isfinite(value), value, fallback)
 
 
+def _open_circuit(string, evaluation):
+    """Every element's voltage at zero current from an evaluation at the pilot's open circuit:
+    the subcells' own, zero for the rest (a resistor, a tunnel junction and an isotype
+    interface carry no current at zero volts)."""
+    return [np.asarray(v, dtype=float) if e.kind == "subcell" else np.zeros(np.shape(v))
+            for e, v in zip(string.elements, evaluation["voltages"])]
+
+
+def _concave(string):
+    """(B,) True where the string's V(J) is concave: only subcells without breakdown, and
+    resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
+    inverse Vj(J) is concave, and Vj - J Rs too; so is the sum. Then P = J V(J) is concave on
+    J >= 0 (P'' = 2 V' + J V'' < 0) and P(t) unimodal (J falls with t): a root of dP/dt where
+    it changes sign is the global maximum."""
+    if any(e.kind not in ("subcell", "resistor") for e in string.elements):
+        return np.zeros(string.size, dtype=bool)
+    concave = np.ones(string.size, dtype=bool)
+    for cell in string.subcells:
+        breakdown = ((cell.breakdown_factor > 0) & np.isfinite(cell.breakdown_V)
+                     & (cell.shunt_S_m2 > 0))
+        concave &= ~np.broadcast_to(breakdown, (string.size, 1))[:, 0]
+    return concave
+
+
+def _certified(string, t, samples, t_mpp, at_mpp, t_voc, zero, turned, active):
+    """The certificate of the MPP over one branch state (every junction on its tunnel branch)
+    from the exact samples (t ascending) and the MPP's own evaluation: by concavity where the
+    MPP is a turn of dP/dt on a concave string (_concave), else by bounding every cell
+    (certificate.certify; the MPP may move to a higher point found there). Returns
+    (Certificate, t_mpp, at_mpp)."""
+    size = t_mpp.shape[0]
+    with np.errstate(invalid="ignore", over="ignore"):
+        power = (at_mpp["current"] * at_mpp["voltage"])[:, 0]
+    by_shape = active & turned & _concave(string) & np.isfinite(power)
+    rest = active & ~by_shape
+    certified, bound = by_shape.copy(), np.where(by_shape, power, np.nan)
+    cells = np.zeros(size, dtype=int)
+    if rest.any():
+        segment = _segment({}, t, samples, string)
+        segment.merge(_segment({}, t_mpp, at_mpp, string))
+        proof, t_mpp, at_mpp, _, _ = certify(
+            string, [segment], np.zeros(size, dtype=int), t_mpp, at_mpp,
+            photocurrent=string.pilot_photocurrent, polish=polisher(string, [segment]),
+            open_circuit=(t_voc, zero), active=rest)
+        certified = np.where(rest, proof.certified, certified)
+        bound = np.where(rest, proof.bound_W_m2, bound)
+        cells = np.where(rest, proof.cells, cells)
+    return Certificate(certified, bound, cells), t_mpp, at_mpp
+
+
+def _segment(state, t, evaluation, string):
+    """Exact samples of one branch state for the certificate (certificate.Segment)."""
+    return Segment.from_evaluation(state, t, evaluation, [e.name for e in string.tunnels])
+
+
 def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.3):
     """Solve a batch of series strings.
 
@@ -494,6 +560,11 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     else:
         simple = _solve_simple(string, temperature_K, curve_points, reverse_fraction)
     past_peak = simple["reaches_peak"]
+    proof = simple.get("certificate")
+    size = past_peak.size
+    certified = np.zeros(size, dtype=bool) if proof is None else proof.certified.copy()
+    bound = np.full(size, np.nan) if proof is None else np.array(proof.bound_W_m2, dtype=float)
+    cells = np.zeros(size, dtype=int) if proof is None else proof.cells.copy()
     regime = np.array(["below peak" if string.tunnels else "no tunnel junction"] * past_peak.size,
                       dtype=object)
     branches = {t.name: np.full(past_peak.shape, "tunnel", dtype=object) for t in string.tunnels}
@@ -507,8 +578,9 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
                 # the vectorized pass sampled this design's first piece already
                 ts, e = simple["samples"]
                 pick = slice(row, row + 1)
-                start = dict(voc=simple["voc"][pick], voltages_voc=[
-                    v[pick] for v in simple["voltages_voc"]], samples=(ts[pick], {
+                start = dict(voc=simple["voc"][pick], t_voc=simple["t_voc"][pick],
+                             voltages_voc=[v[pick] for v in simple["voltages_voc"]],
+                             samples=(ts[pick], {
                         k: (x[pick] if k != "voltages" else [v[pick] for v in x])
                         for k, x in e.items()}))
             answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction,
@@ -522,6 +594,9 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
             for name, branch in answer["branches_mpp"].items():
                 branches[name][row] = branch
             regime[row] = answer["regime"]
+            certified[row] = answer["certificate"].certified[0]
+            bound[row] = answer["certificate"].bound_W_m2[0]
+            cells[row] = answer["certificate"].cells[0]
             if curve_points:
                 simple["curve"]["current_A_m2"][row] = answer["curve"]["current_A_m2"]
                 simple["curve"]["voltage_V"][row] = answer["curve"]["voltage_V"]
@@ -534,6 +609,7 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     if np.any(dead):
         j_mpp, v_mpp, p_mpp = (np.where(dead, 0.0, j_mpp), np.where(dead, voc, v_mpp),
                                np.where(dead, 0.0, p_mpp))
+        bound = np.where(dead[:, 0], np.fmax(bound, 0.0), bound)
         simple["voltages_mpp"] = [np.where(dead, vo, vm) for vm, vo in
                                   zip(simple["voltages_mpp"], simple["voltages_voc"])]
 
@@ -563,7 +639,10 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         voltage_at_zero_current_V={n: flat(v) for n, v in zip(names, simple["voltages_voc"])},
         power_balance_error_W_m2=flat(balance_error), failed=failed,
         pilot_index=string.pilot_index[:, 0], curve=simple["curve"], regime=regime,
-        tunnel_branch_at_mpp=branches, capped=capped)
+        tunnel_branch_at_mpp=branches, capped=capped,
+        mpp_certified=certified & np.isfinite(flat(p_mpp)),
+        mpp_bound_W_m2=np.where(np.isfinite(flat(p_mpp)), bound, np.nan),
+        mpp_cells_checked=cells)
 
 
 def _solve_explicit(string, temperature_K):
@@ -629,9 +708,16 @@ def _solve_explicit(string, temperature_K):
             r = np.broadcast_to(element.series_ohm_m2, (size, 1))
             voltages_mpp.append(vt * np.log1p((jph - j_mpp) / j0) - r * j_mpp)
             voltages_voc.append(vt * np.log1p(jph / j0))
-    return dict(voc=voc, jsc=jsc, v_mpp=v_mpp, j_mpp=j_mpp, p_mpp=j_mpp * v_mpp,
+    p_mpp = j_mpp * v_mpp
+    # P(J) is concave on J >= 0 (P'' = 2 V' + J V'' < 0): the root of dP/dJ is the global
+    # maximum, a proof needing no cells
+    finite = np.isfinite(p_mpp[:, 0])
+    proof = Certificate(finite, np.where(finite, p_mpp[:, 0], np.nan),
+                        np.zeros(size, dtype=int))
+    return dict(voc=voc, jsc=jsc, v_mpp=v_mpp, j_mpp=j_mpp, p_mpp=p_mpp,
                 voltages_mpp=voltages_mpp, voltages_voc=voltages_voc, curve=None,
-                reaches_peak=np.zeros(size, dtype=bool), capped=np.zeros(size, dtype=bool))
+                reaches_peak=np.zeros(size, dtype=bool), capped=np.zeros(size, dtype=bool),
+                certificate=proof)
 
 
 def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
@@ -662,6 +748,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     # an isotype interface driven forward carries at most its flat-band current: the law has no
     # voltage beyond it, so the trace stops there (reported, never invented)
     capped = np.zeros(jph.shape[0], dtype=bool)
+    capped_first = np.zeros(jph.shape[0], dtype=bool)
     caps = [np.broadcast_to(e.current_cap(temperature_K), jph.shape) for e in string.elements
             if e.kind == "isotype"]
     if caps:
@@ -670,6 +757,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
             t_cap = string.pilot_voltage_at(cap * (1 - 1e-9))
         limited = np.isfinite(t_cap) & (t_cap > t_low)
         t_low = np.where(limited, t_cap, t_low)
+        capped_first = limited[:, 0]
 
     if curve_points:
         return _solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
@@ -683,7 +771,9 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     v_low = _finite_or(low["voltage"], -1e3)
     reaches_peak = np.zeros(jph.shape[0], dtype=bool)
     if string.tunnels:
-        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+        # (where an isotype interface's flat-band current ends the curve first, no junction
+        # reaches its peak)
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
 
     # Jsc (V = 0) and, for a curve, its reverse end (V = v_floor) together: V rises strictly
     # with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
@@ -739,11 +829,16 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
                                        np.take_along_axis(grid_slope, high_index, axis=1)))
     interior = np.isfinite(t_mpp)
     t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
-    at_mpp = string.evaluate(t_mpp)
+    at_mpp = string.evaluate(t_mpp, slopes=True)
     lost = ~np.isfinite(at_mpp["current"] * at_mpp["voltage"])
     if np.any(lost):
         t_mpp = np.where(lost, np.take_along_axis(grid_t, best, axis=1), t_mpp)
-        at_mpp = string.evaluate(t_mpp)
+        at_mpp = string.evaluate(t_mpp, slopes=True)
+    # the certificate (certificate.py): between t_sc and t_voc lies every point of positive
+    # power (V rises with t)
+    proof, t_mpp, at_mpp = _certified(string, grid_t, grid, t_mpp, at_mpp, t_voc,
+                                      _open_circuit(string, at_voc), interior[:, 0],
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]))
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
 
     curve = None
@@ -759,7 +854,8 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
                               for v in at_mpp["voltages"]],
                 voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
                               for v in at_voc["voltages"]],
-                curve=curve, reaches_peak=reaches_peak, capped=capped)
+                curve=curve, reaches_peak=reaches_peak, capped=capped, certificate=proof,
+                t_voc=t_voc)
 
 
 #: exact samples of the dense pass of a traced curve: uniform in t, and uniform in current
@@ -829,7 +925,10 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     v_low = np.where(at_low, v[:, :1], -np.inf)
     reaches_peak = np.zeros(size, dtype=bool)
     if string.tunnels:
-        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+        # (where an isotype interface's flat-band current ends the curve first, no junction
+        # reaches its peak)
+        capped_first = np.zeros(size, dtype=bool) if limited is None else limited[:, 0]
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
     capped = np.zeros(size, dtype=bool)
     if limited is not None:
         # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
@@ -842,7 +941,7 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
                     voltages_voc=voltages_voc, reaches_peak=reaches_peak, capped=capped,
                     curve={name: np.full((size, curve_points), np.nan) for name in
                            ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]},
-                    samples=(t, dense))
+                    samples=(t, dense), t_voc=t_voc)
 
     # a crossing may end on a sample where a subcell without a shunt is past its current limit
     # (its voltage -> -inf: the crossing lies just before the limit), never on one where a law
@@ -921,10 +1020,21 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
         curve_t[row] = np.interp(targets, arc[row], t[row])
     curve_t[:, :1] = t_floor
     curve_t[:, -1:] = t_forward
-    final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1))
+    final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1), slopes=True)
     n = curve_points
     current = final["current"]
     voltage = final["voltage"]
+    # the certificate: the samples' cells and the MPP, refined until every cell's bound is
+    # within the tolerance of the MPP (certificate.py); the MPP moves where a higher point is
+    # found. The samples hold every point of positive power: below them V < v_floor < 0
+    # (dV/dt >= 1), beyond t_voc the current is negative and V >= Voc.
+    at_mpp = {key: (final[key][:, n + 1:] if key != "voltages" else
+                    [np.broadcast_to(x, current.shape)[:, n + 1:] for x in final[key]])
+              for key in ("current", "voltage", "voltages", "dcurrent", "dvoltage")}
+    proof, t_mpp, at_mpp = _certified(string, t, dense, t_mpp, at_mpp, t_voc,
+                                      _open_circuit(string, {"voltages": voltages_voc}),
+                                      turns[:, 0].astype(bool),
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]))
     v_sc, j_sc = voltage[:, n:n + 1], current[:, n:n + 1]
     reached = np.abs(v_sc) <= SHORT_CIRCUIT_TOLERANCE_V
     change = np.zeros_like(j_sc)
@@ -933,21 +1043,29 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
         # fixed if it barely changes over the remaining Newton distance V / (dV/dt): take it
         # there (first order). Where it is not (V jumps across zero between neighbouring floats
         # of t while the current jumps too: an element blocks), there is no short circuit.
-        near = string.evaluate(np.where(np.isfinite(t_sc), t_sc, t_voc), slopes=True)
+        # Where the polish ends beyond a subcell's current limit (V = -inf: a subcell without a
+        # shunt cannot carry more), V falls from positive to -inf within a step of t: Jsc is
+        # the limit to rounding, when V is still >= 0 a rounding step further forward and the
+        # current moves by under 1e-9 over that step.
+        at = np.where(np.isfinite(t_sc), t_sc, t_voc)
+        step = 1e-12 * np.maximum(np.abs(at), 1.0)
+        near = string.evaluate(np.concatenate([at, at + step], axis=1), slopes=True)
         with np.errstate(divide="ignore", invalid="ignore"):
-            change = near["dcurrent"] * (-v_sc / near["dvoltage"])
+            change = near["dcurrent"][:, :1] * (-v_sc / near["dvoltage"][:, :1])
         steep = np.isfinite(change) & (np.abs(change) <= 1e-9 * np.abs(j_sc))
         change = np.where(steep & ~reached, change, 0.0)
-        reached = reached | steep
+        limit = ((v_sc == -np.inf) & (near["voltage"][:, 1:] >= 0)
+                 & (np.abs(near["current"][:, 1:] - j_sc) <= 1e-9 * np.abs(j_sc)))
+        reached = reached | steep | limit
     jsc = np.where(capped[:, None] | ~reached, np.nan, j_sc + change)
-    j_mpp, v_mpp = current[:, n + 1:], voltage[:, n + 1:]
+    j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
     element_voltages = [x if x.shape == current.shape else np.broadcast_to(x, current.shape)
                         for x in final["voltages"]]
     curve = {"current_A_m2": current[:, :n].copy(), "voltage_V": voltage[:, :n].copy()}
     for element, v_i in zip(string.elements, element_voltages):
         curve[element.name] = np.array(v_i[:, :n], dtype=float)
     return dict(voc=voc.copy(), jsc=jsc, v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
-                p_mpp=j_mpp * v_mpp, voltages_mpp=[np.array(x[:, n + 1:], dtype=float)
-                                                   for x in element_voltages],
+                p_mpp=j_mpp * v_mpp, voltages_mpp=[np.array(x, dtype=float)
+                                                   for x in at_mpp["voltages"]],
                 voltages_voc=voltages_voc, curve=curve, reaches_peak=reaches_peak,
-                capped=capped, samples=(t, dense))
+                capped=capped, samples=(t, dense), certificate=proof, t_voc=t_voc)

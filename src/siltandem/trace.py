@@ -14,7 +14,8 @@ rising). It ends at the reverse-bias floor, at the lowest pilot voltage, or back
 
 Voc, Jsc and the MPP are found on the path: Voc at J = 0 on its first piece; Jsc at the first zero of
 the terminal voltage met from open circuit towards reverse bias; the MPP at the global maximum of P
-over all pieces, refined by a root of dP/dt inside its piece. What a terminal-voltage sweep shows
+over all pieces, refined by a root of dP/dt inside its piece, and proven global by bounding P
+between the samples of every piece (certificate.py). What a terminal-voltage sweep shows
 (with its hysteresis) follows from the path in :func:`voltage_sweep`.
 
 One design at a time (B = 1): this is the rare case, kept apart so that the common one stays
@@ -22,6 +23,7 @@ vectorized.
 """
 import numpy as np
 
+from .certificate import Segment, certify, polisher
 from .numerics import bracketed_root
 
 SAMPLES_PER_PIECE = 160
@@ -274,6 +276,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
         at_voc = string.evaluate(t_voc)
         first = None
     else:
+        t_voc = start["t_voc"]
         at_voc = dict(voltage=start["voc"], voltages=start["voltages_voc"])
         ts, e = start["samples"]
         # in path order: from the forward end towards the first fold
@@ -315,6 +318,21 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
         if not _scalar(at_mpp["current"] * at_mpp["voltage"]) >= best[0]:
             t_mpp = ts[:, i:i + 1]
             at_mpp = string.evaluate(t_mpp, branches=state)
+    # the certificate over every piece (certificate.py): each piece's cells, refined until
+    # every bound is within the tolerance of the MPP; the MPP moves to any higher point found
+    # (on whichever piece), polished there
+    tunnels = [t.name for t in string.tunnels]
+    segments = [Segment.from_evaluation(state_k, ts_k, e_k, tunnels)
+                for state_k, _, _, ts_k, e_k in pieces]
+    segments[index].merge(Segment.from_evaluation(state, t_mpp, at_mpp, tunnels))
+    # (at zero current every element but a subcell has zero voltage)
+    zero = [np.asarray(v, dtype=float) if e.kind == "subcell" else np.zeros(np.shape(v))
+            for e, v in zip(string.elements, at_voc["voltages"])]
+    proof, t_mpp, at_mpp, where, _ = certify(string, segments, np.array([index]), t_mpp,
+                                             at_mpp, photocurrent=jph,
+                                             polish=polisher(string, segments),
+                                             open_circuit=(t_voc, zero))
+    state = segments[int(where[0])].state
     branches_mpp = dict(state)
 
     # Jsc: the first zero of V met along the path after open circuit
@@ -374,7 +392,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
                 p_mpp=_scalar(at_mpp["current"] * at_mpp["voltage"]),
                 voltages_mpp=[_scalar(v) for v in at_mpp["voltages"]],
                 voltages_voc=[_scalar(v) for v in at_voc["voltages"]],
-                branches_mpp=branches_mpp, regime=regime, curve=curve)
+                branches_mpp=branches_mpp, regime=regime, curve=curve, certificate=proof)
 
 
 def voltage_sweep(voltage_V, current, *, direction, points=400):
