@@ -1,8 +1,16 @@
 """Plain-text summary of a Result, for the terminal."""
+import math
 
 
 def _fmt(value, spec, missing="-"):
     return missing if value is None else format(value, spec)
+
+
+def _headline(value, spec, unit=""):
+    """A headline number with its unit, or "none" where it is missing (null or not finite)."""
+    if value is None or not math.isfinite(value):
+        return "    none"
+    return f"{format(value, spec)} {unit}".rstrip()
 
 
 def _table(headers, rows, aligns):
@@ -29,20 +37,21 @@ def text_summary(result):
                  f"{c['irradiance_W_m2']:.1f} W/m2; cell at {c['temperature_K']:.2f} K; "
                  f"{c['terminals']} terminals")
     lines.append("")
-    lines.append(f"  efficiency        {s['efficiency_pct']:8.3f} %")
+    lines.append(f"  efficiency        {_headline(s['efficiency_pct'], '8.3f', '%')}")
     if len(s["strings"]) == 1:
+        fill = s["fill_factor"]
         lines += [
-            f"  Voc               {_fmt(s['voc_V'], '8.4f')} V",
-            f"  Jsc               {_fmt(s['jsc_mA_cm2'], '8.3f')} mA/cm2",
-            f"  fill factor       {_fmt(s['fill_factor'] and 100 * s['fill_factor'], '8.2f')} %",
-            f"  MPP voltage       {_fmt(s['mpp_V'], '8.4f')} V",
-            f"  MPP current       {_fmt(s['mpp_mA_cm2'], '8.3f')} mA/cm2",
+            f"  Voc               {_headline(s['voc_V'], '8.4f', 'V')}",
+            f"  Jsc               {_headline(s['jsc_mA_cm2'], '8.3f', 'mA/cm2')}",
+            f"  fill factor       {_headline(fill and 100 * fill, '8.2f', '%')}",
+            f"  MPP voltage       {_headline(s['mpp_V'], '8.4f', 'V')}",
+            f"  MPP current       {_headline(s['mpp_mA_cm2'], '8.3f', 'mA/cm2')}",
         ]
     else:
-        rows = [[str(r["string"]), _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
-                 _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(r["fill_factor"] and 100 * r["fill_factor"],
-                                                     ".2f"),
-                 _fmt(r["mpp_V"], ".4f"), _fmt(r["mpp_mA_cm2"], ".3f")]
+        rows = [[str(r["string"])] + [_headline(x, spec).strip() for x, spec in (
+                    (r["efficiency_pct"], ".3f"), (r["voc_V"], ".4f"), (r["jsc_mA_cm2"], ".3f"),
+                    (r["fill_factor"] and 100 * r["fill_factor"], ".2f"), (r["mpp_V"], ".4f"),
+                    (r["mpp_mA_cm2"], ".3f"))]
                 for r in s["strings"]]
         lines.append("  each string at its own MPP, powers summed:")
         lines += ["    " + x for x in _table(

@@ -196,8 +196,18 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         total_power += power
         balance += _first(solution.power_balance_error_W_m2)
         if solution.failed[0]:
-            warnings_.append(f"string {number}: no operating point found; its numbers are "
-                             "missing (null)")
+            # what is missing, in words; Voc is the point of zero current, where only the
+            # subcells have a voltage, so it stays (solve.py)
+            missing = [label for label, value in (
+                ("Voc", solution.voc_V), ("Jsc", solution.jsc_A_m2),
+                ("the MPP", solution.mpp_W_m2), ("the fill factor", solution.fill_factor))
+                if not np.isfinite(_first(value))]
+            listed = " and ".join(filter(None, [", ".join(missing[:-1]), missing[-1]])) \
+                if missing else "its numbers"
+            note = ("; Voc is the point of zero current, where only the subcells have a "
+                    "voltage" if np.isfinite(_first(solution.voc_V)) else "")
+            warnings_.append(f"string {number}: no operating point found for {listed} "
+                             f"(null){note}")
         if solution.capped is not None and solution.capped[0]:
             names = ", ".join(repr(e.name) for e in string if e.kind == "isotype")
             warnings_.append(f"string {number}: the current is capped at an isotype interface's "
@@ -274,7 +284,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                     cost = (f"costs {penalty:.2f} % absolute" if np.isfinite(penalty)
                             else "the stack without it found no operating point either")
                     warnings_.append(f"isotype interface {element.name!r} blocks: it drops "
-                                     f"{-v * 1000:.0f} mV at the MPP; {cost}")
+                                     f"{-v * 1000 + 0.0:.0f} mV at the MPP; {cost}")
             element_rows.append({
                 "name": element.name, "kind": element.kind, "string": number,
                 "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":

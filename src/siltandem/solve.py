@@ -602,6 +602,13 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
                 simple["curve"]["voltage_V"][row] = answer["curve"]["voltage_V"]
                 for element in string.elements:
                     simple["curve"][element.name][row] = answer["curve"][element.name]
+    # open circuit is the point of zero current, where every element but a subcell has zero
+    # voltage (a resistor, a tunnel junction and an isotype interface each carry no current
+    # at zero volts): Voc is the sum of the subcells' open-circuit voltages. (Evaluated at the
+    # pilot's open circuit, which leaves a rounding-level current, an interface that blocks
+    # would answer with an enormous voltage, or none.)
+    simple["voltages_voc"] = _open_circuit(string, {"voltages": simple["voltages_voc"]})
+    simple["voc"] = functools.reduce(np.add, simple["voltages_voc"])
     voc, jsc, v_mpp, j_mpp, p_mpp = (simple[k] for k in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"))
     # a string that gives no power (blocked) has its best point at open circuit: P = 0 there,
     # never a rounding-level negative power
@@ -612,6 +619,12 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         bound = np.where(dead[:, 0], np.fmax(bound, 0.0), bound)
         simple["voltages_mpp"] = [np.where(dead, vo, vm) for vm, vo in
                                   zip(simple["voltages_mpp"], simple["voltages_voc"])]
+
+    # no MPP found: no half of one either (a current from one point, a voltage from another)
+    lost = ~np.isfinite(p_mpp)
+    if np.any(lost):
+        j_mpp, v_mpp = np.where(lost, np.nan, j_mpp), np.where(lost, np.nan, v_mpp)
+        simple["voltages_mpp"] = [np.where(lost, np.nan, v) for v in simple["voltages_mpp"]]
 
     # power balance: each element's own forward law at its voltage
     balance = np.zeros_like(p_mpp)
@@ -627,8 +640,9 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     capped = simple.get("capped", np.zeros(failed.shape, dtype=bool))
     failed = failed | (~np.isfinite(jsc[:, 0]) & ~capped)
     if np.any(failed):
-        warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point; "
-                      "their results are NaN", RuntimeWarning, stacklevel=2)
+        warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point "
+                      "for Jsc, the MPP or the fill factor; those results are NaN (Voc, the "
+                      "point of zero current, stays)", RuntimeWarning, stacklevel=2)
 
     names = [e.name for e in string.elements]
     flat = lambda a: np.asarray(a, dtype=float)[:, 0]  # noqa: E731
