@@ -465,7 +465,7 @@ def _move(string, segment, k, rows, polish):
 
 
 def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polish,
-            open_circuit=None, active=None, passes=MAX_PASSES):
+            open_circuit=None, active=None, passes=None):
     """Prove (or fail to prove) that the reported MPP is the global maximum over the segments.
 
     Parameters
@@ -492,6 +492,8 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
         this point instead.
     active : (B,) bool, optional
         The designs to certify (others are left alone: not certified, never moved).
+    passes : int, optional
+        Refinement passes at most (default MAX_PASSES).
 
     Returns
     -------
@@ -499,6 +501,7 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
         ``moved`` (B,) is True where the MPP moved to a higher point than the one given
         (t_mpp, at_mpp and mpp_segment then hold the new point).
     """
+    passes = MAX_PASSES if passes is None else passes
     t_mpp = np.array(t_mpp, dtype=float)
     mpp_segment = np.array(mpp_segment)
     size = t_mpp.shape[0]

@@ -57,6 +57,15 @@ def text_summary(result):
         lines += ["    " + x for x in _table(
             ["string", "efficiency %", "Voc V", "Jsc mA/cm2", "FF %", "MPP V", "MPP mA/cm2"],
             rows, "<>>>>>>")]
+    for r in s["strings"]:
+        proof = r.get("mpp_certificate")
+        found = r["mpp_W_m2"] is not None and math.isfinite(r["mpp_W_m2"])
+        if proof is not None and found and not proof["certified"]:
+            bound = proof["upper_bound_W_m2"]
+            which = f"string {r['string']}: " if len(s["strings"]) > 1 else ""
+            lines.append(f"  {which}MPP not proven global"
+                         + (f": the curve may reach {bound:.6g} W/m2 between its evaluated "
+                            "points" if bound is not None and math.isfinite(bound) else ""))
     regime = s.get("regime")
     if regime and regime != "no tunnel junction":
         regimes = regime if isinstance(regime, list) else [regime]

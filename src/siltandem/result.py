@@ -208,6 +208,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                     "voltage" if np.isfinite(_first(solution.voc_V)) else "")
             warnings_.append(f"string {number}: no operating point found for {listed} "
                              f"(null){note}")
+        certificate = _certificate(solution)
         if solution.capped is not None and solution.capped[0]:
             names = ", ".join(repr(e.name) for e in string if e.kind == "isotype")
             warnings_.append(f"string {number}: the current is capped at an isotype interface's "
@@ -221,7 +222,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
             "jsc_mA_cm2": units.ma_cm2(_first(solution.jsc_A_m2)),
             "fill_factor": _first(solution.fill_factor), "mpp_V": _first(solution.mpp_V),
             "mpp_mA_cm2": units.ma_cm2(j_mpp), "mpp_W_m2": power,
-            "limiting_subcell": pilot.name, "regime": str(solution.regime[0])})
+            "limiting_subcell": pilot.name, "regime": str(solution.regime[0]),
+            "mpp_certificate": certificate})
         if str(solution.regime[0]).startswith("past peak"):
             warnings_.append(f"string {number}: a tunnel junction is driven past its peak on the "
                              f"traced curve ({solution.regime[0]}); see `--sweep up|down` for "
@@ -344,6 +346,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         "fill_factor": head.get("fill_factor"), "mpp_V": head.get("mpp_V"),
         "mpp_mA_cm2": head.get("mpp_mA_cm2"), "mpp_W_m2": total_power,
         "regime": regimes[0] if one else regimes,
+        "mpp_certificate": head.get("mpp_certificate") if one else [
+            r["mpp_certificate"] for r in string_rows],
         "strings": string_rows,
         "subcells": subcell_rows,
         "elements": element_rows,
@@ -365,6 +369,19 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         + ", Esaki tunnel junctions (three-term law), isotype interfaces (thermionic emission, "
           "any alpha)",
     }
+
+
+def _certificate(solution):
+    """The proof of the global MPP of a string (solve.py, certificate.py), for the summary:
+    by the concavity of P(J) (a string of subcells without breakdown, and resistors: no cells
+    to check) or by bounding the power between evaluated points."""
+    certified = bool(solution.mpp_certified is not None and solution.mpp_certified[0])
+    cells = int(solution.mpp_cells_checked[0]) if solution.mpp_cells_checked is not None else 0
+    return {"certified": certified,
+            "proof": ("cell bounds" if cells else "concavity") if certified else None,
+            "upper_bound_W_m2": (_first(solution.mpp_bound_W_m2)
+                                 if solution.mpp_bound_W_m2 is not None else math.nan),
+            "cells_checked": cells}
 
 
 def _photons(circuit):
