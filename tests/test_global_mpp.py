@@ -671,3 +671,40 @@ def test_an_unproven_mpp_says_so(monkeypatch):
     line = [x for x in text_summary(result).splitlines() if "not proven" in x]
     assert line == [f"  MPP not proven global: the curve may reach "
                     f"{proof['upper_bound_W_m2']:.6g} W/m2 between its evaluated points"]
+
+
+# ---------------------------------------------------------------------------------------------
+# a breakdown that only starts within 1e-9 of its voltage: the curve's tail, by current
+
+@pytest.mark.parametrize("peak", [None, 1000.0], ids=["no junction", "junction past peak"])
+def test_the_tail_beyond_a_steep_breakdown_is_followed(peak):
+    """The current-limiting subcell (a 1e5 ohm cm2 shunt, breakdown at 0.2 V, exponent 0.5)
+    carries 1432 A/m2 at the lowest junction voltage the trace keeps (a relative 1e-9 above its
+    breakdown voltage), where the string still gives power; the curve goes on by current, and
+    the maximum lies there (J = 1462.5 A/m2). Jsc is where the unshunted 1500 A/m2 subcell
+    reaches its current limit. Invented numbers."""
+    elements = [Subcell("cell 1", batch(1.0), shunt_S_m2=batch(0.1), breakdown_V=batch(-0.2),
+                        breakdown_factor=batch(1.0),
+                        breakdown_exponent=batch(0.5)).with_photocurrent(batch(800.0)),
+                Subcell("cell 2", batch(1.0)).with_photocurrent(batch(2100.0)),
+                Subcell("cell 3", batch(1.0), shunt_S_m2=batch(1e4)).with_photocurrent(
+                    batch(800.0)),
+                Subcell("cell 4", batch(1.0)).with_photocurrent(batch(1500.0))]
+    if peak is not None:
+        elements.insert(1, TunnelJunction("junction", batch(peak), batch(0.1),
+                                          batch(peak / 10), batch(0.4)))
+    reference = Reference(elements)
+    best, _ = reference.maximum()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        summary = solve_string(elements, TEMPERATURE_K)
+        traced = solve_string(elements, TEMPERATURE_K, curve_points=60)
+    for solution in (summary, traced):
+        assert shortfall(solution.mpp_W_m2[0], best[0]) <= 0
+        assert reported_point_is_on_the_curve(reference, solution)
+        assert solution.mpp_certified[0] and certificate_holds(solution, elements, 0)
+        assert not solution.failed[0]
+        assert solution.jsc_A_m2[0] == pytest.approx(1500.0, rel=1e-9)
+    if peak is None:
+        assert traced.mpp_A_m2[0] > 1432.0                       # the maximum in the tail
+        assert np.max(traced.curve["current_A_m2"]) >= traced.jsc_A_m2[0]

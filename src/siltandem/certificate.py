@@ -93,6 +93,10 @@ class Segment:
     parts: list
     slope: np.ndarray
     all_tunnel: bool
+    #: the samples' parameter (``t``) is the current itself, not the pilot's junction voltage
+    by_current: bool = False
+    #: no junction on its negative branch: V falls as J rises
+    falling: bool = True
     power: np.ndarray = None
     known: np.ndarray = None
     #: the bounds of the last pass (bound, width, view), while no sample was added since
@@ -104,7 +108,7 @@ class Segment:
         self.known = np.full(self.t.shape, np.nan)
 
     @classmethod
-    def from_evaluation(cls, state, t, e, tunnels=()):
+    def from_evaluation(cls, state, t, e, tunnels=(), by_current=False):
         t = np.asarray(t, dtype=float)
         shape = np.broadcast_shapes(t.shape, np.shape(e["current"]))
         arrays = [t, e["current"], e["voltage"]] + list(e["voltages"])
@@ -117,7 +121,15 @@ class Segment:
         order = np.argsort(arrays[0], axis=1, kind="stable")
         t, current, voltage, *parts, slope = _sorted_rows(order, *arrays)
         all_tunnel = all(state.get(name, "tunnel") == "tunnel" for name in tunnels)
-        return cls(dict(state), t, current, voltage, parts, slope, all_tunnel)
+        falling = all(state.get(name, "tunnel") != "negative" for name in tunnels)
+        return cls(dict(state), t, current, voltage, parts, slope, all_tunnel, by_current,
+                   falling)
+
+    def evaluate(self, string, x):
+        """The string, exactly, at parameters ``x`` (B, K) of this segment's kind."""
+        if self.by_current:
+            return string.evaluate_current(x, branches=self.state)
+        return string.evaluate(x, slopes=True, branches=self.state)
 
     def merge(self, other):
         """The samples of both, in order of t; a cell that a new sample splits loses its
@@ -181,6 +193,7 @@ class _Finite:
         finite = np.isfinite(segment.current) & ~np.isnan(segment.voltage) & \
             (segment.voltage < np.inf)
         self.state, self.all_tunnel = segment.state, segment.all_tunnel
+        self.by_current, self.falling = segment.by_current, segment.falling
         self.t_own = segment.t
         if finite.all():
             # (the common case: the segment itself)
@@ -226,6 +239,15 @@ def _open_ends(view):
     j_first, v_first = view.current[rows, first], view.power[rows, first]
     with np.errstate(invalid="ignore", divide="ignore"):
         v_first = v_first / j_first
+    if view.by_current:
+        # samples by current: beyond the last one J rises, and V falls (no junction on its
+        # negative branch)
+        j_last = view.current[rows, last]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            v_last = view.power[rows, last] / j_last
+        after = np.where(view.falling & (j_last > 0) & (v_last < 0),
+                         view.power[rows, last], np.inf)[:, None]
+        return np.full(after.shape, np.inf), after
     before = np.where(view.all_tunnel & (j_first > 0) & (v_first < 0),
                       view.power[rows, first], np.inf)[:, None]
     after = np.where(view.all_tunnel & (view.current[rows, last] <= 0), 0.0, np.inf)[:, None]
@@ -265,8 +287,10 @@ def slope_bounds(string, segment, cells):
     j_a, j_b = pick(segment.current, 0), pick(segment.current, 1)
     p_a, p_b = pick(segment.power, 0), pick(segment.power, 1)
     j_lo, j_hi = np.minimum(j_a, j_b), np.maximum(j_a, j_b)
+    by_current = segment.by_current
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
-        d_lo, d_hi = _pilot_slope_range(string, t_a, t_b)
+        if not by_current:
+            d_lo, d_hi = _pilot_slope_range(string, t_a, t_b)
         v_lo = np.zeros_like(t_a)
         v_hi = np.zeros_like(t_a)
         s_lo = np.zeros_like(t_a)
@@ -276,7 +300,7 @@ def slope_bounds(string, segment, cells):
             v_a, v_b = pick(values, 0), pick(values, 1)
             v_lo = v_lo + np.minimum(v_a, v_b)
             v_hi = v_hi + np.maximum(v_a, v_b)
-            if element.kind == "subcell":
+            if element.kind == "subcell" and not by_current:
                 pilot = string.pilot_index == subcell_number
                 subcell_number += 1
                 if np.all(pilot):
@@ -285,14 +309,19 @@ def slope_bounds(string, segment, cells):
                     continue
             lo, hi = element.voltage_slope_range(v_a, v_b, j_a, j_b, temperature,
                                                  segment.state.get(element.name, "tunnel"))
-            if element.kind == "subcell":
+            if element.kind == "subcell" and not by_current:
                 lo = np.where(pilot, -element.series_ohm_m2, lo)
                 hi = np.where(pilot, -element.series_ohm_m2, hi)
             s_lo, s_hi = s_lo + lo, s_hi + hi
         js_lo, js_hi = _product_range(j_lo, j_hi, s_lo, s_hi)
         w_lo, w_hi = v_lo + js_lo, v_hi + js_hi
-        dw_lo, dw_hi = _product_range(d_lo, d_hi, w_lo, w_hi)
-        rise_lo, rise_hi = j_lo + dw_lo, j_hi + dw_hi
+        if by_current:
+            # dP/dJ = V + J S, S the sum of every element's dV/dJ (the pilot's too)
+            rise_lo, rise_hi = w_lo, w_hi
+        else:
+            # dP/dt = J + J' (V + J S)
+            dw_lo, dw_hi = _product_range(d_lo, d_hi, w_lo, w_hi)
+            rise_lo, rise_hi = j_lo + dw_lo, j_hi + dw_hi
         h = t_b - t_a
         meet = np.clip((p_b - p_a - rise_lo * h) / (rise_hi - rise_lo), 0.0, h)
         bound = np.where(rise_lo >= 0, p_b, np.where(rise_hi <= 0, p_a, p_a + rise_hi * meet))
@@ -406,10 +435,10 @@ def polisher(string, segments):
     (numerics.bracketed_root; rows outside ``rows`` come with a zero-length bracket). A
     non-finite dP/dt counts as rising, as in solve.py."""
     def polish(k, rows, lower, upper, g_lower, g_upper):
-        state = segments[k].state
+        segment = segments[k]
 
         def power_slope(t):
-            e = string.evaluate(t, slopes=True, branches=state)
+            e = segment.evaluate(string, t)
             with np.errstate(invalid="ignore", over="ignore"):
                 g = e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"]
             return np.where(np.isfinite(g), g, 1e300)
@@ -449,7 +478,7 @@ def _move(string, segment, k, rows, polish):
                       np.where(bracket, g_hi, 0.0))
         t_new = np.where(bracket & np.isfinite(root), root, t_best)
     both = np.concatenate([t_new, t_best], axis=1)
-    e = string.evaluate(both, slopes=True, branches=segment.state)
+    e = segment.evaluate(string, both)
     point = _as_point(e, both.shape)
     with np.errstate(invalid="ignore", over="ignore"):
         p = point["current"] * point["voltage"]
@@ -458,7 +487,7 @@ def _move(string, segment, k, rows, polish):
         key: (x[:, :1] if key != "voltages" else [y[:, :1] for y in x])
         for key, x in {**point, "dcurrent": np.broadcast_to(e["dcurrent"], both.shape),
                        "dvoltage": np.broadcast_to(e["dvoltage"], both.shape)}.items()},
-        [t.name for t in string.tunnels]))
+        [t.name for t in string.tunnels], segment.by_current))
     pick = lambda x: np.where(root_wins, x[:, :1], x[:, 1:])  # noqa: E731
     return pick(both), {"current": pick(point["current"]), "voltage": pick(point["voltage"]),
                         "voltages": [pick(x) for x in point["voltages"]]}
@@ -579,8 +608,9 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
             spent += real.sum(axis=1)
             # rows with fewer new points repeat their first sample (a zero-length cell)
             new = np.where(real, new, segment.t[:, :1])
-            e = string.evaluate(new, slopes=True, branches=segment.state)
-            segment.merge(Segment.from_evaluation(segment.state, new, e, tunnels))
+            e = segment.evaluate(string, new)
+            segment.merge(Segment.from_evaluation(segment.state, new, e, tunnels,
+                                                  segment.by_current))
             added_any = True
         if not added_any:
             break

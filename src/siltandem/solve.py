@@ -386,6 +386,29 @@ class _String:
             out.update(dcurrent=dcurrent, dvoltage=dvoltage)
         return out
 
+    def evaluate_current(self, current, *, branches=None):
+        """The string at given currents (B, N), every element through its own inverse law,
+        the pilot too: for currents well above the pilot's photocurrent (its reverse branch
+        near breakdown, where t no longer resolves the current). Returns the dict of
+        :meth:`evaluate` with slopes, ``dcurrent`` = 1 and ``dvoltage`` = dV/dJ."""
+        branches = branches or {}
+        current = np.asarray(current, dtype=float)
+        voltages, dvoltage = [], np.zeros(current.shape)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            for element in self.elements:
+                if element.kind == "tunnel":
+                    branch = branches.get(element.name, "tunnel")
+                    v, slope = element.voltage(current, self.temperature_K, branch,
+                                               None if branch == "tunnel" else
+                                               self.tunnel_extrema[element.name])
+                else:
+                    v, slope = element.voltage(current, self.temperature_K)
+                v = np.broadcast_to(v, current.shape)
+                voltages.append(v)
+                dvoltage = dvoltage + slope
+        return dict(current=current, voltage=functools.reduce(np.add, voltages),
+                    voltages=voltages, dcurrent=np.ones(current.shape), dvoltage=dvoltage)
+
 
     def _finish_fused(self, t, fused, group, branches, slopes):
         """The rest of :meth:`evaluate` after the fused compiled pass: the elements it did not
@@ -498,30 +521,125 @@ def _concave(string):
     return concave
 
 
-def _certified(string, t, samples, t_mpp, at_mpp, t_voc, zero, turned, active):
+def _certified(string, t, samples, t_mpp, at_mpp, t_voc, zero, turned, active, tail=None):
     """The certificate of the MPP over one branch state (every junction on its tunnel branch)
     from the exact samples (t ascending) and the MPP's own evaluation: by concavity where the
     MPP is a turn of dP/dt on a concave string (_concave), else by bounding every cell
-    (certificate.certify; the MPP may move to a higher point found there). Returns
-    (Certificate, t_mpp, at_mpp)."""
+    (certificate.certify; the MPP may move to a higher point found there), with the tail's
+    samples by current where there is one (_tail_samples). Returns (Certificate, t_mpp,
+    at_mpp)."""
     size = t_mpp.shape[0]
     with np.errstate(invalid="ignore", over="ignore"):
         power = (at_mpp["current"] * at_mpp["voltage"])[:, 0]
     by_shape = active & turned & _concave(string) & np.isfinite(power)
+    if tail is not None:
+        by_shape &= ~tail[2]
     rest = active & ~by_shape
     certified, bound = by_shape.copy(), np.where(by_shape, power, np.nan)
     cells = np.zeros(size, dtype=int)
     if rest.any():
         segment = _segment({}, t, samples, string)
         segment.merge(_segment({}, t_mpp, at_mpp, string))
+        segments = [segment]
+        if tail is not None:
+            segments.append(Segment.from_evaluation({}, tail[0], tail[1],
+                                                    [e.name for e in string.tunnels],
+                                                    by_current=True))
         proof, t_mpp, at_mpp, _, _ = certify(
-            string, [segment], np.zeros(size, dtype=int), t_mpp, at_mpp,
-            photocurrent=string.pilot_photocurrent, polish=polisher(string, [segment]),
+            string, segments, np.zeros(size, dtype=int), t_mpp, at_mpp,
+            photocurrent=string.pilot_photocurrent, polish=polisher(string, segments),
             open_circuit=(t_voc, zero), active=rest)
         certified = np.where(rest, proof.certified, certified)
         bound = np.where(rest, proof.bound_W_m2, bound)
         cells = np.where(rest, proof.cells, cells)
     return Certificate(certified, bound, cells), t_mpp, at_mpp
+
+
+#: samples of a tail by current (uniform, plus points towards each subcell's photocurrent)
+TAIL_SAMPLES = 64
+
+
+def _tail_samples(string, j_low, rows, branches=None):
+    """The tail of the curve beyond the pilot's lowest voltage, sampled by current.
+
+    Just above a subcell's breakdown voltage its current rises so steeply with its junction
+    voltage that the pilot's t (kept a relative 1e-9 above the breakdown voltage) cannot follow
+    it: the curve goes on at currents from ``j_low`` (B, 1), the current there, upwards. Every
+    element, the pilot too, is evaluated there through its own inverse law
+    (_String.evaluate_current), from ``j_low`` to where V falls to zero or below (V falls with
+    J on these branches), uniformly and towards each subcell's photocurrent (its knee). Rows
+    outside ``rows`` (B,) repeat ``j_low``. Returns (currents (B, N), evaluation, rows,
+    branches)."""
+    photocurrents = [np.broadcast_to(c.photocurrent_A_m2, j_low.shape) for c in string.subcells]
+    top = np.max(np.concatenate(photocurrents, axis=1), axis=1, keepdims=True)
+    j_end = np.maximum(2.0 * j_low, j_low + top)
+    for _ in range(60):
+        v = string.evaluate_current(j_end, branches=branches)["voltage"]
+        grow = rows[:, None] & np.isfinite(v) & (v > 0)
+        if not grow.any():
+            break
+        j_end = np.where(grow, 2.0 * j_end, j_end)
+    near = np.logspace(-12, -0.5, 12)[None, :]
+    x = [j_low + (j_end - j_low) * _unit_steps(TAIL_SAMPLES)]
+    x += [jph * (1.0 - near) for jph in photocurrents] + [jph * (1.0 + near)
+                                                           for jph in photocurrents]
+    x = np.concatenate(x, axis=1)
+    x = np.where(rows[:, None] & (x >= j_low) & (x <= j_end), x, j_low)
+    x = np.sort(x, axis=1)
+    return x, string.evaluate_current(x, branches=branches), rows, branches
+
+
+def _with_tail_curve(string, final, tail, in_tail, v_floor):
+    """The curve's first ``in_tail`` points (per row) on the tail, from its reverse end (the
+    first sample where V has fallen below ``v_floor`` or has no finite value, else its last
+    sample) to the current where t stops, evenly in current and evaluated by current; the
+    rest of ``final`` unchanged."""
+    x, e, rows, branches = tail
+    v = e["voltage"]
+    beyond = ~(np.isfinite(v) & (v >= v_floor))
+    last = np.where(beyond.any(axis=1), np.argmax(beyond, axis=1), x.shape[1] - 1)
+    j_end = x[np.arange(x.shape[0]), last][:, None]
+    count = int(in_tail.max())
+    # from the reverse end towards the current where t stops (excluded: the t part starts there)
+    steps = np.linspace(0.0, 1.0, count + 1)[None, :-1]
+    j = j_end + (x[:, :1] - j_end) * steps
+    points = string.evaluate_current(j, branches=branches)
+    out = {k: (np.array(np.broadcast_to(final[k], final["current"].shape), dtype=float)
+               if k != "voltages" else
+               [np.array(np.broadcast_to(y, final["current"].shape), dtype=float)
+                for y in final[k]]) for k in ("current", "voltage", "voltages")}
+    for row in np.flatnonzero(in_tail):
+        k = in_tail[row]
+        out["current"][row, :k] = points["current"][row, :k]
+        out["voltage"][row, :k] = points["voltage"][row, :k]
+        for a, b in zip(out["voltages"], points["voltages"]):
+            a[row, :k] = np.broadcast_to(b, j.shape)[row, :k]
+    return {**final, **out}
+
+
+def _tail_short_circuit(string, tail, rows):
+    """Jsc in a tail (_tail_samples): where V falls through zero between two of its samples,
+    by a root of V(J) (each evaluation by current); NaN where it does not."""
+    x, e, _, branches = tail
+    v = e["voltage"]
+    change = (v[:, :-1] > 0) & (v[:, 1:] <= 0)
+    found = rows & change.any(axis=1)
+    k = np.argmax(change, axis=1)[:, None]
+    lo, hi = np.take_along_axis(x, k, axis=1), np.take_along_axis(x, k + 1, axis=1)
+    v_lo = np.take_along_axis(v, k, axis=1)
+    v_hi = np.take_along_axis(v, k + 1, axis=1)
+    lo, hi = np.where(found[:, None], lo, x[:, :1]), np.where(found[:, None], hi, x[:, :1])
+
+    big = np.finfo(float).max
+
+    def voltage(j):
+        w = string.evaluate_current(j, branches=branches)["voltage"]
+        return np.clip(np.where(np.isnan(w), -np.inf, w), -big, big)
+
+    root = bracketed_root(voltage, lo, hi, end_values=(
+        np.where(found[:, None], np.clip(v_lo, -big, big), 0.0),
+        np.where(found[:, None], np.clip(v_hi, -big, big), 0.0)))
+    return np.where(found[:, None], root, np.nan)
 
 
 def _segment(state, t, evaluation, string):
@@ -809,6 +927,15 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
         # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
         capped = (limited & (v_low > 0))[:, 0]
         t_sc = np.where(capped[:, None], t_low, t_sc)
+    # where V is still positive at the pilot's lowest voltage (just above its breakdown), the
+    # curve goes on at currents that t no longer resolves: the tail, sampled by current;
+    # Jsc lies there
+    tail_rows = ((t_low <= t_lowest) & (v_low > 0) & np.isfinite(low["current"]))[:, 0] & \
+        ~capped
+    tail = None
+    if tail_rows.any():
+        tail = _tail_samples(string, low["current"], tail_rows)
+        t_sc = np.where(tail_rows[:, None], t_low, t_sc)
     if curve_points:
         t_floor = roots[:, 1:2]
         t_floor = np.where(np.isfinite(t_floor), t_floor,
@@ -822,6 +949,8 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     jsc = grid["current"][:, :1]
     if caps:
         jsc = np.where(capped[:, None], np.nan, jsc)
+    if tail is not None:
+        jsc = np.where(tail_rows[:, None], _tail_short_circuit(string, tail, tail_rows), jsc)
     power = _finite_or(grid["current"] * grid["voltage"], -np.inf)
     # no value only where the current is beyond what an element can carry, at the reverse
     # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
@@ -852,7 +981,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     # power (V rises with t)
     proof, t_mpp, at_mpp = _certified(string, grid_t, grid, t_mpp, at_mpp, t_voc,
                                       _open_circuit(string, at_voc), interior[:, 0],
-                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]))
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
 
     curve = None
@@ -947,6 +1076,12 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     if limited is not None:
         # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
         capped = (limited & (v_low > 0))[:, 0]
+    # where V is still positive at the pilot's lowest voltage (just above its breakdown), the
+    # curve goes on at currents that t no longer resolves: its tail, sampled by current
+    tail_rows = ((at_low & (t_low <= t_lowest) & (v_low > 0))[:, 0]
+                 & np.isfinite(dense["current"][:, 0]) & ~capped & ~reaches_peak)
+    tail = _tail_samples(string, dense["current"][:, :1], tail_rows) if tail_rows.any() \
+        else None
     if np.all(reaches_peak):
         # every design is traced again through its junctions' branches (trace.py)
         nan = np.full((size, 1), np.nan)
@@ -1027,14 +1162,20 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
                 + 0.05 * np.diff(t, axis=1) / t_span)
     arc = np.concatenate([np.zeros((size, 1)), np.cumsum(arc_step, axis=1)], axis=1)
     curve_t = np.empty((size, curve_points))
-    fractions = _unit_steps(curve_points)[0]
+    # with a tail, its first eighth of the points lie on the tail (by current)
+    in_tail = np.where(tail_rows, max(curve_points // 8, 2), 0) if tail is not None else \
+        np.zeros(size, dtype=int)
     for row in range(size):
+        count = curve_points - in_tail[row]
         a_floor = np.interp(t_floor[row, 0], t[row], arc[row])
-        targets = a_floor + (arc[row, -1] - a_floor) * fractions
-        curve_t[row] = np.interp(targets, arc[row], t[row])
-    curve_t[:, :1] = t_floor
+        targets = a_floor + (arc[row, -1] - a_floor) * _unit_steps(count)[0]
+        curve_t[row, in_tail[row]:] = np.interp(targets, arc[row], t[row])
+        curve_t[row, :in_tail[row]] = t_floor[row, 0]
+        curve_t[row, in_tail[row]] = t_floor[row, 0]
     curve_t[:, -1:] = t_forward
     final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1), slopes=True)
+    if tail is not None:
+        final = _with_tail_curve(string, final, tail, in_tail, v_floor)
     n = curve_points
     current = final["current"]
     voltage = final["voltage"]
@@ -1048,7 +1189,7 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     proof, t_mpp, at_mpp = _certified(string, t, dense, t_mpp, at_mpp, t_voc,
                                       _open_circuit(string, {"voltages": voltages_voc}),
                                       turns[:, 0].astype(bool),
-                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]))
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
     v_sc, j_sc = voltage[:, n:n + 1], current[:, n:n + 1]
     reached = np.abs(v_sc) <= SHORT_CIRCUIT_TOLERANCE_V
     change = np.zeros_like(j_sc)
@@ -1072,6 +1213,8 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
                  & (np.abs(near["current"][:, 1:] - j_sc) <= 1e-9 * np.abs(j_sc)))
         reached = reached | steep | limit
     jsc = np.where(capped[:, None] | ~reached, np.nan, j_sc + change)
+    if tail is not None:
+        jsc = np.where(tail_rows[:, None], _tail_short_circuit(string, tail, tail_rows), jsc)
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
     element_voltages = [x if x.shape == current.shape else np.broadcast_to(x, current.shape)
                         for x in final["voltages"]]

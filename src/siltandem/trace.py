@@ -325,6 +325,18 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
     segments = [Segment.from_evaluation(state_k, ts_k, e_k, tunnels)
                 for state_k, _, _, ts_k, e_k in pieces]
     segments[index].merge(Segment.from_evaluation(state, t_mpp, at_mpp, tunnels))
+    # where the path ends at the pilot's lowest voltage (just above its breakdown) with V
+    # still positive, it goes on at currents that t no longer resolves: its tail, by current
+    tail = None
+    last_state, _, _, ts_last, e_last = pieces[-1]
+    v_end, j_end = _scalar(e_last["voltage"][:, -1:]), _scalar(e_last["current"][:, -1:])
+    if _scalar(ts_last[:, -1:]) <= _scalar(t_lowest) and v_end > 0 and np.isfinite(j_end):
+        from .solve import _tail_samples
+
+        tail = _tail_samples(string, e_last["current"][:, -1:], np.array([True]),
+                             branches=last_state)
+        segments.append(Segment.from_evaluation(last_state, tail[0], tail[1], tunnels,
+                                                by_current=True))
     # (at zero current every element but a subcell has zero voltage)
     zero = [np.asarray(v, dtype=float) if e.kind == "subcell" else np.zeros(np.shape(v))
             for e, v in zip(string.elements, at_voc["voltages"])]
@@ -356,6 +368,10 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
             t0, last, e0 = _polish_level(string, state_k, t0, 0.0, lo, hi)
             jsc = e0["current"] + e0["dcurrent"] * (t0 - last)
             break
+    if tail is not None and not np.all(np.isfinite(jsc)):
+        from .solve import _tail_short_circuit
+
+        jsc = _tail_short_circuit(string, tail, np.array([True]))
 
     forward_to_reverse_v = np.concatenate([e["voltage"][0] for *_, e in pieces])
     forward_to_reverse_j = np.concatenate([e["current"][0] for *_, e in pieces])
