@@ -708,3 +708,29 @@ def test_the_tail_beyond_a_steep_breakdown_is_followed(peak):
     if peak is None:
         assert traced.mpp_A_m2[0] > 1432.0                       # the maximum in the tail
         assert np.max(traced.curve["current_A_m2"]) >= traced.jsc_A_m2[0]
+
+
+def test_the_compiled_slope_ranges_are_the_numpy_ones():
+    """kernels.slope_range (what the certificate calls) against the numpy forms above."""
+    from siltandem import kernels
+    from siltandem.laws.diode import junction_slope_range
+
+    rng = np.random.default_rng(17)
+    cell = Subcell("cell", batch([1.4, 1.5]), j02_A_m2=batch([1e-8, 0.0]),
+                   shunt_S_m2=batch([30.0, 0.0]), breakdown_V=batch([-3.0, -np.inf]),
+                   breakdown_factor=batch([0.2, 0.0])).with_photocurrent(batch([300.0, 200.0]))
+    lo = rng.uniform(-2.9, 1.2, (2, 200))
+    hi = lo + rng.uniform(0.0, 1.0, (2, 200))
+    compiled = kernels.slope_range(kernels.SUBCELL_LAW, cell._law_parameters(TEMPERATURE_K),
+                                   lo, hi)
+    reference = junction_slope_range(lo, hi, **cell._junction(TEMPERATURE_K))
+    for a, b in zip(compiled, reference):
+        assert np.allclose(a, b, rtol=1e-13, atol=0.0)
+    junction = TunnelJunction("junction", batch(2000.0), batch(0.1), batch(200.0), batch(0.4))
+    lo = rng.uniform(-0.5, 1.2, (1, 300))
+    hi = lo + rng.uniform(0.0, 0.3, (1, 300))
+    compiled = kernels.slope_range(kernels.TUNNEL_LAW,
+                                   junction._law_parameters(TEMPERATURE_K), lo, hi)
+    reference = esaki.slope_range(lo, hi, junction._prepared(TEMPERATURE_K))
+    for a, b in zip(compiled, reference):
+        assert np.allclose(a, b, rtol=1e-13, atol=0.0)

@@ -56,6 +56,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import kernels
 from .numerics import bracketed_root
 
 #: a cell is certified when its bound is below the reported power times (1 + this) ...
@@ -73,57 +74,50 @@ MAX_POINTS = 4000
 MAX_POINTS_PER_PASS = 400
 
 
-def _sorted_rows(order, *arrays):
-    """Each (B, M) array reordered along its rows by ``order`` (B, M)."""
-    rows = np.arange(order.shape[0])[:, None]
-    return [a[rows, order] for a in arrays]
+#: rows of a segment's data: the parameter, current, terminal voltage, power, dP/d(parameter),
+#: the bound known for the cell to the right; then one row per element's voltage
+_T, _J, _V, _P, _SLOPE, _KNOWN, _PARTS = range(7)
 
 
-@dataclass
 class Segment:
-    """Exact samples of one branch state: t ascending (B, M) and, at each, the current, the
-    terminal voltage, the power, the element voltages and dP/dt (NaN where not evaluated);
-    ``known`` (B, M) holds the bound last proven for the cell to the right of each sample
-    (NaN where none is known: a new sample, or a cell just split)."""
+    """Exact samples of one branch state, in one array ``data`` (6 + E, B, M) ordered by the
+    parameter: the pilot's junction voltage t (or, with ``by_current``, the current itself),
+    the current, the terminal voltage, the power, dP/d(parameter) (NaN where not evaluated),
+    the bound last proven for the cell to the right of each sample (NaN where none is known:
+    a new sample, or a cell just split), and the element voltages."""
 
-    state: dict
-    t: np.ndarray
-    current: np.ndarray
-    voltage: np.ndarray
-    parts: list
-    slope: np.ndarray
-    all_tunnel: bool
-    #: the samples' parameter (``t``) is the current itself, not the pilot's junction voltage
-    by_current: bool = False
-    #: no junction on its negative branch: V falls as J rises
-    falling: bool = True
-    power: np.ndarray = None
-    known: np.ndarray = None
-    #: the bounds of the last pass (bound, width, view), while no sample was added since
-    last: tuple = None
+    def __init__(self, state, data, all_tunnel, by_current=False, falling=True):
+        self.state, self.data = dict(state), data
+        self.all_tunnel, self.by_current, self.falling = all_tunnel, by_current, falling
+        #: the bounds of the last pass (bound, width, view), while no sample was added since
+        self.last = None
 
-    def __post_init__(self):
-        with np.errstate(invalid="ignore", over="ignore"):
-            self.power = self.current * self.voltage
-        self.known = np.full(self.t.shape, np.nan)
+    t = property(lambda self: self.data[_T])
+    current = property(lambda self: self.data[_J])
+    voltage = property(lambda self: self.data[_V])
+    power = property(lambda self: self.data[_P])
+    slope = property(lambda self: self.data[_SLOPE])
+    known = property(lambda self: self.data[_KNOWN])
+    parts = property(lambda self: self.data[_PARTS:])
 
     @classmethod
     def from_evaluation(cls, state, t, e, tunnels=(), by_current=False):
         t = np.asarray(t, dtype=float)
         shape = np.broadcast_shapes(t.shape, np.shape(e["current"]))
-        arrays = [t, e["current"], e["voltage"]] + list(e["voltages"])
-        if "dcurrent" in e:
-            with np.errstate(invalid="ignore", over="ignore"):
-                arrays.append(e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"])
-        else:
-            arrays.append(np.nan)
-        arrays = [np.broadcast_to(a, shape) for a in arrays]
-        order = np.argsort(arrays[0], axis=1, kind="stable")
-        t, current, voltage, *parts, slope = _sorted_rows(order, *arrays)
+        with np.errstate(invalid="ignore", over="ignore"):
+            power = e["current"] * e["voltage"]
+            slope = (e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"]
+                     if "dcurrent" in e else np.nan)
+        data = np.stack([np.broadcast_to(a, shape) for a in
+                         [t, e["current"], e["voltage"], power, slope, np.nan]
+                         + list(e["voltages"])])
+        ordered = data[_T]
+        if ordered.shape[1] > 1 and not np.all(ordered[:, 1:] >= ordered[:, :-1]):
+            order = np.argsort(ordered, axis=1, kind="stable")
+            data = data[:, np.arange(shape[0])[:, None], order]
         all_tunnel = all(state.get(name, "tunnel") == "tunnel" for name in tunnels)
         falling = all(state.get(name, "tunnel") != "negative" for name in tunnels)
-        return cls(dict(state), t, current, voltage, parts, slope, all_tunnel, by_current,
-                   falling)
+        return cls(state, data, all_tunnel, by_current, falling)
 
     def evaluate(self, string, x):
         """The string, exactly, at parameters ``x`` (B, K) of this segment's kind."""
@@ -132,22 +126,17 @@ class Segment:
         return string.evaluate(x, slopes=True, branches=self.state)
 
     def merge(self, other):
-        """The samples of both, in order of t; a cell that a new sample splits loses its
-        known bound."""
-        pairs = [(self.t, other.t), (self.current, other.current),
-                 (self.voltage, other.voltage), (self.power, other.power),
-                 (self.slope, other.slope), (self.known, np.full(other.t.shape, np.nan))]
-        pairs += list(zip(self.parts, other.parts))
-        joined = [np.concatenate(pair, axis=1) for pair in pairs]
-        order = np.argsort(joined[0], axis=1, kind="stable")
-        t, current, voltage, power, slope, known, *parts = _sorted_rows(order, *joined)
+        """The samples of both, in order of the parameter; a cell that a new sample splits
+        loses its known bound."""
+        count = self.data.shape[2]
+        data = np.concatenate([self.data, other.data], axis=2)
+        data[_KNOWN, :, count:] = np.nan
+        order = np.argsort(data[_T], axis=1, kind="stable")
+        data = data[:, np.arange(order.shape[0])[:, None], order]
         # the sample before a new one now starts a new (shorter) cell
-        new = np.concatenate([np.zeros(self.t.shape, dtype=bool),
-                              np.ones(other.t.shape, dtype=bool)], axis=1)
-        (new,) = _sorted_rows(order, new)
-        known[:, :-1] = np.where(new[:, 1:], np.nan, known[:, :-1])
-        self.t, self.current, self.voltage, self.power = t, current, voltage, power
-        self.slope, self.known, self.parts = slope, known, parts
+        new = order >= count
+        data[_KNOWN, :, :-1] = np.where(new[:, 1:], np.nan, data[_KNOWN, :, :-1])
+        self.data = data
         self.last = None
 
 
@@ -159,16 +148,6 @@ class Certificate:
     certified: np.ndarray
     bound_W_m2: np.ndarray
     cells: np.ndarray
-
-
-def _pilot_slope_range(string, t_lo, t_hi):
-    """dJ/dt of the pilot's forward law over [t_lo, t_hi]: (steepest, flattest), both < 0."""
-    temperature = string.temperature_K
-    if string.single_pilot is not None:
-        return string.subcells[string.single_pilot].junction_slope_range(t_lo, t_hi,
-                                                                         temperature)
-    ranges = [s.junction_slope_range(t_lo, t_hi, temperature) for s in string.subcells]
-    return string._select([r[0] for r in ranges]), string._select([r[1] for r in ranges])
 
 
 def _product_range(a_lo, a_hi, b_lo, b_hi):
@@ -197,8 +176,7 @@ class _Finite:
         self.t_own = segment.t
         if finite.all():
             # (the common case: the segment itself)
-            self.t, self.current, self.power, self.parts = segment.t, segment.current, \
-                segment.power, segment.parts
+            self.data = segment.data
             self.lead = self.trail = np.zeros(finite.shape, dtype=bool)
             self.open = np.zeros((finite.shape[0], finite.shape[1] - 1), dtype=bool)
             self.complete = True
@@ -212,20 +190,14 @@ class _Finite:
         self.lead = last < 0
         self.trail = index > final
         source = np.where(self.lead, first, last)
-        rows = np.arange(size)[:, None]
-        take = lambda x: x[rows, source]  # noqa: E731
-        self.t, self.current, self.power = take(segment.t), take(segment.current), \
-            take(segment.power)
-        self.parts = [take(p) for p in segment.parts]
+        self.data = segment.data[:, np.arange(size)[:, None], source]
         # the cells with nothing to close onto keep their own ends, for halving
         self.open = self.lead[:, :-1] | self.trail[:, 1:]
 
-
-def _cells(segment):
-    """The end values of every cell of a segment (B, M - 1 each)."""
-    s = segment
-    cut = lambda x: (x[:, :-1], x[:, 1:])  # noqa: E731
-    return cut(s.t), cut(s.current), cut(s.power), [cut(p) for p in s.parts]
+    t = property(lambda self: self.data[_T])
+    current = property(lambda self: self.data[_J])
+    power = property(lambda self: self.data[_P])
+    parts = property(lambda self: self.data[_PARTS:])
 
 
 def _open_ends(view):
@@ -262,57 +234,117 @@ def corner_bounds(segment, open_circuit=None):
     value at the end where J >= 0 and its value at J = 0 (``open_circuit``: the element
     voltages at zero current, a list of (B, 1)): an end with J < 0 is replaced by the point
     of zero current."""
-    (t_a, t_b), (j_a, j_b), _, parts = _cells(segment)
+    j_a, j_b = segment.current[:, :-1], segment.current[:, 1:]
+    a, b = segment.parts[:, :, :-1], segment.parts[:, :, 1:]
     if segment.all_tunnel and open_circuit is not None:
-        parts = [(np.where(j_a < 0, zero, a), np.where(j_b < 0, zero, b))
-                 for (a, b), zero in zip(parts, open_circuit)]
+        zero = np.stack(open_circuit)
+        a, b = np.where(j_a < 0, zero, a), np.where(j_b < 0, zero, b)
         j_a, j_b = np.maximum(j_a, 0.0), np.maximum(j_b, 0.0)
     j_lo, j_hi = np.minimum(j_a, j_b), np.maximum(j_a, j_b)
-    v_lo = sum(np.minimum(a, b) for a, b in parts)
-    v_hi = sum(np.maximum(a, b) for a, b in parts)
+    v_lo = np.minimum(a, b).sum(axis=0)
+    v_hi = np.maximum(a, b).sum(axis=0)
     _, bound = _product_range(j_lo, j_hi, v_lo, v_hi)
     if segment.all_tunnel:
         bound = np.where(j_hi <= 0, np.minimum(bound, 0.0), bound)
     return bound
 
 
+def _laws(string):
+    """The string's elements grouped for the slope ranges, with their compiled law parameters
+    stacked per kind (built once per string and temperature)."""
+    cache = string.__dict__.setdefault("_slope_laws", {})
+    key = id(string.temperature_K) if np.ndim(string.temperature_K) else \
+        float(string.temperature_K)
+    if key not in cache:
+        size, temperature = string.size, string.temperature_K
+        kinds = {kind: [k for k, e in enumerate(string.elements) if e.kind == kind]
+                 for kind in ("subcell", "tunnel", "isotype", "resistor")}
+
+        def stacked(rows):
+            return np.stack([np.broadcast_to(r, (size, r.shape[1])) for r in rows])
+
+        subcells = [string.elements[k] for k in kinds["subcell"]]
+        cache[key] = dict(
+            kinds=kinds,
+            subcell_params=stacked([c._law_parameters(temperature) for c in subcells]),
+            subcell_series=stacked([np.asarray(c.series_ohm_m2, dtype=float).reshape(-1, 1)
+                                    for c in subcells]),
+            tunnel_params=(stacked([string.elements[k]._law_parameters(temperature)
+                                    for k in kinds["tunnel"]]) if kinds["tunnel"] else None),
+            resistance=sum((np.broadcast_to(string.elements[k].series_ohm_m2, (size, 1))
+                            for k in kinds["resistor"]), np.zeros((size, 1))),
+            pilot=(np.arange(len(subcells))[:, None, None]
+                   == string.pilot_index[None, :, :]))
+    return cache[key]
+
+
+def _law_slopes(code, params, lo, hi):
+    """kernels.slope_range over stacked laws: params (L, B, P), intervals (L, B, K)."""
+    laws, size, width = lo.shape
+    params = np.broadcast_to(params, (laws, size, params.shape[2]))
+    low, high = kernels.slope_range(
+        code, kernels.as_input(params.reshape(laws * size, -1)),
+        kernels.as_input(lo.reshape(laws * size, width)),
+        kernels.as_input(hi.reshape(laws * size, width)))
+    return low.reshape(lo.shape), high.reshape(lo.shape)
+
+
+def _reciprocal(low, high):
+    """[1/high, 1/low] for a slope range of one sign; (-inf, inf) where it holds zero or is not
+    finite."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ok = np.isfinite(low) & np.isfinite(high) & ((low > 0) | (high < 0))
+        return np.where(ok, 1.0 / high, -np.inf), np.where(ok, 1.0 / low, np.inf)
+
+
 def slope_bounds(string, segment, cells):
     """The slope (mean value) bound of P over the cells ``cells`` (B, K) of a segment (indices
     of their left ends), and the width of the dP/dt range per unit of t there (B, K): inf
     where some slope range is unbounded."""
-    temperature = string.temperature_K
     rows = np.arange(cells.shape[0])[:, None]
-    pick = lambda x, shift: x[rows, cells + shift]  # noqa: E731
-    t_a, t_b = pick(segment.t, 0), pick(segment.t, 1)
-    j_a, j_b = pick(segment.current, 0), pick(segment.current, 1)
-    p_a, p_b = pick(segment.power, 0), pick(segment.power, 1)
+    a, b = segment.data[:, rows, cells], segment.data[:, rows, cells + 1]
+    t_a, t_b, j_a, j_b, p_a, p_b = a[_T], b[_T], a[_J], b[_J], a[_P], b[_P]
+    parts_a, parts_b = a[_PARTS:], b[_PARTS:]
     j_lo, j_hi = np.minimum(j_a, j_b), np.maximum(j_a, j_b)
+    laws = _laws(string)
+    kinds = laws["kinds"]
     by_current = segment.by_current
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        v_lo = np.minimum(parts_a, parts_b).sum(axis=0)
+        v_hi = np.maximum(parts_a, parts_b).sum(axis=0)
+        # subcells: dJ/dVj over their junction voltages (and the pilot's over t), one call
+        series = laws["subcell_series"]
+        va, vb = parts_a[kinds["subcell"]] + j_a * series, parts_b[kinds["subcell"]] + j_b * series
+        count = len(kinds["subcell"])
+        lows, highs = [np.minimum(va, vb)], [np.maximum(va, vb)]
         if not by_current:
-            d_lo, d_hi = _pilot_slope_range(string, t_a, t_b)
-        v_lo = np.zeros_like(t_a)
-        v_hi = np.zeros_like(t_a)
-        s_lo = np.zeros_like(t_a)
-        s_hi = np.zeros_like(t_a)
-        subcell_number = 0
-        for element, values in zip(string.elements, segment.parts):
-            v_a, v_b = pick(values, 0), pick(values, 1)
-            v_lo = v_lo + np.minimum(v_a, v_b)
-            v_hi = v_hi + np.maximum(v_a, v_b)
-            if element.kind == "subcell" and not by_current:
-                pilot = string.pilot_index == subcell_number
-                subcell_number += 1
-                if np.all(pilot):
-                    # the pilot enters through its series resistance only (its junction is t)
-                    s_lo, s_hi = s_lo - element.series_ohm_m2, s_hi - element.series_ohm_m2
-                    continue
-            lo, hi = element.voltage_slope_range(v_a, v_b, j_a, j_b, temperature,
-                                                 segment.state.get(element.name, "tunnel"))
-            if element.kind == "subcell" and not by_current:
-                lo = np.where(pilot, -element.series_ohm_m2, lo)
-                hi = np.where(pilot, -element.series_ohm_m2, hi)
+            lows.append(np.broadcast_to(t_a, va.shape))
+            highs.append(np.broadcast_to(t_b, va.shape))
+        params = laws["subcell_params"]
+        steep, flat = _law_slopes(kernels.SUBCELL_LAW,
+                                  np.concatenate([params] * len(lows)) if len(lows) > 1
+                                  else params, np.concatenate(lows), np.concatenate(highs))
+        lo, hi = _reciprocal(steep[:count], flat[:count])
+        lo, hi = lo - series, hi - series
+        if not by_current:
+            # the pilot enters through its series resistance only (its junction is t); its
+            # own law's slope is dJ/dt
+            pilot = laws["pilot"]
+            lo, hi = np.where(pilot, -series, lo), np.where(pilot, -series, hi)
+            d_lo = np.where(pilot, steep[count:], 0.0).sum(axis=0)
+            d_hi = np.where(pilot, flat[count:], 0.0).sum(axis=0)
+        s_lo, s_hi = lo.sum(axis=0), hi.sum(axis=0)
+        if kinds["tunnel"]:
+            ua, ub = -parts_a[kinds["tunnel"]], -parts_b[kinds["tunnel"]]
+            low, high = _law_slopes(kernels.TUNNEL_LAW, laws["tunnel_params"],
+                                    np.minimum(ua, ub), np.maximum(ua, ub))
+            lo, hi = _reciprocal(low, high)
+            s_lo, s_hi = s_lo - hi.sum(axis=0), s_hi - lo.sum(axis=0)
+        for k in kinds["isotype"]:
+            lo, hi = string.elements[k].voltage_slope_range(parts_a[k], parts_b[k], j_a, j_b,
+                                                            string.temperature_K)
             s_lo, s_hi = s_lo + lo, s_hi + hi
+        s_lo, s_hi = s_lo - laws["resistance"], s_hi - laws["resistance"]
         js_lo, js_hi = _product_range(j_lo, j_hi, s_lo, s_hi)
         w_lo, w_hi = v_lo + js_lo, v_hi + js_hi
         if by_current:

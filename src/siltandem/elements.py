@@ -53,15 +53,6 @@ def _parameter_rows(*columns):
     return out
 
 
-def _compiled_slope_range(code, params, lo, hi):
-    """kernels.slope_range on (B, N) intervals, the parameter rows broadcast as the kernels
-    take them."""
-    if params.shape[0] > 1 and lo.shape[0] != params.shape[0]:
-        lo = np.broadcast_to(lo, (params.shape[0], lo.shape[1]))
-        hi = np.broadcast_to(hi, (params.shape[0], hi.shape[1]))
-    return kernels.slope_range(code, params, kernels.as_input(lo), kernels.as_input(hi))
-
-
 def _reciprocal_range(low, high, shift):
     """[1/high, 1/low] + shift for a slope range [low, high] of one sign: the range of dV/dJ
     from that of dJ/dV; (-inf, inf) where the range holds zero or is not finite."""
@@ -277,25 +268,6 @@ class Subcell:
         vj, _ = diode.junction_voltage(current_A_m2, **self._junction(temperature_K))
         return vj
 
-    def junction_slope_range(self, v_low_V, v_high_V, temperature_K):
-        """Smallest and largest dJ/dVj over junction voltages between the two arrays
-        (laws/diode.py junction_slope_range; compiled, kernels.slope_range, for (B, N)
-        arrays): the pilot's law over a cell of the trace."""
-        lo, hi = np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)
-        if lo.ndim != 2:
-            return diode.junction_slope_range(lo, hi, **self._junction(temperature_K))
-        return _compiled_slope_range(kernels.SUBCELL_LAW, self._law_parameters(temperature_K),
-                                     lo, hi)
-
-    def voltage_slope_range(self, v_a, v_b, j_a, j_b, temperature_K, branch=None):
-        """Smallest and largest dV/dJ [V m^2 A^-1] between two operating points (voltages
-        ``v_a``, ``v_b`` at currents ``j_a``, ``j_b``): 1/(dJ/dVj) - Rs over the junction
-        voltages between them. (-inf, inf) where an end has no finite voltage."""
-        vj_a, vj_b = v_a + j_a * self.series_ohm_m2, v_b + j_b * self.series_ohm_m2
-        steep, flat = self.junction_slope_range(np.minimum(vj_a, vj_b), np.maximum(vj_a, vj_b),
-                                                temperature_K)
-        return _reciprocal_range(steep, flat, -self.series_ohm_m2)
-
     def lowest_junction_voltage(self):
         """Junction voltages must stay above this [V] (the breakdown voltage where it applies)."""
         active = (self.breakdown_factor > 0) & (self.shunt_S_m2 > 0) & np.isfinite(self.breakdown_V)
@@ -336,12 +308,6 @@ class Resistor:
 
     def current_limit(self, temperature_K):
         return np.full_like(self.series_ohm_m2, np.inf)
-
-    def voltage_slope_range(self, v_a, v_b, j_a, j_b, temperature_K, branch=None):
-        """dV/dJ = -R, exactly (smallest and largest)."""
-        slope = np.broadcast_to(-self.series_ohm_m2, np.broadcast_shapes(
-            np.shape(v_a), np.shape(self.series_ohm_m2)))
-        return slope, slope
 
 
 #: branches of a tunnel junction's characteristic, in order of increasing junction voltage
@@ -599,19 +565,6 @@ class TunnelJunction:
     def current_limit(self, temperature_K):
         return np.full_like(self.peak_A_m2, np.inf)
 
-    def voltage_slope_range(self, v_a, v_b, j_a, j_b, temperature_K, branch=None):
-        """Smallest and largest dV/dJ = -1/(dJ/du) between two operating points on one branch
-        (u = -V; laws/esaki.py slope_range); (-inf, inf) where the law's slope can vanish
-        between them (a fold) or an end has no finite voltage."""
-        u_a, u_b = -np.asarray(v_a, dtype=float), -np.asarray(v_b, dtype=float)
-        u_lo, u_hi = np.minimum(u_a, u_b), np.maximum(u_a, u_b)
-        if u_lo.ndim == 2:
-            low, high = _compiled_slope_range(kernels.TUNNEL_LAW,
-                                              self._law_parameters(temperature_K), u_lo, u_hi)
-        else:
-            low, high = esaki.slope_range(u_lo, u_hi, self._prepared(temperature_K))
-        lo, hi = _reciprocal_range(low, high, 0.0)
-        return -hi, -lo
 
 
 @dataclass(frozen=True)
