@@ -43,6 +43,12 @@ holds every point of positive power). On every branch state of all-tunnel branch
 current is nowhere positive has P <= 0: V(J) falls with J there, so V >= V(0) = sum of the
 subcells' open-circuit voltages >= 0 wherever J <= 0.
 
+**Segments by current.** Just above a subcell's breakdown voltage its current can rise faster
+than t resolves (the trace keeps t a relative 1e-9 above it): the rest of such a curve is
+sampled by current (solve._tail_samples, every element through its inverse). There every
+element's voltage, the pilot's too, is monotone in J, and dP/dJ = V + J S: the same two bounds
+hold with J as the parameter.
+
 Every step works per design: a design's certificate never depends on its batch.
 
 References
@@ -108,9 +114,12 @@ class Segment:
             power = e["current"] * e["voltage"]
             slope = (e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"]
                      if "dcurrent" in e else np.nan)
-        data = np.stack([np.broadcast_to(a, shape) for a in
-                         [t, e["current"], e["voltage"], power, slope, np.nan]
-                         + list(e["voltages"])])
+        voltages = e["voltages"]
+        data = np.empty((_PARTS + len(voltages),) + shape)
+        for row, value in enumerate([t, e["current"], e["voltage"], power, slope, np.nan]):
+            data[row] = value
+        for row, value in enumerate(voltages, start=_PARTS):
+            data[row] = value
         ordered = data[_T]
         if ordered.shape[1] > 1 and not np.all(ordered[:, 1:] >= ordered[:, :-1]):
             order = np.argsort(ordered, axis=1, kind="stable")
@@ -413,6 +422,9 @@ def _points(segment, fail, bound, width, t_mpp, p_mpp, holds_mpp, tolerance):
     finite view (_Finite)."""
     t = segment.t
     rows, count = fail.shape
+    if not (holds_mpp & fail).any():
+        # (no MPP here: quarter points only)
+        return _quarter_points(segment, fail, np.empty((rows, 0)))
     index = np.arange(count)[None, :]
     # the cells on each side of the MPP: cell k spans [t_k, t_k+1]
     at = np.argmin(np.abs(t - t_mpp), axis=1)[:, None]                   # the MPP's sample
@@ -440,7 +452,13 @@ def _points(segment, fail, bound, width, t_mpp, p_mpp, holds_mpp, tolerance):
                              np.where(steps < right_end - t_mpp, t_mpp + steps, np.nan)],
                             axis=1)
     around = np.where(holds_mpp & in_run.any(axis=1, keepdims=True), around, np.nan)
-    # every failing cell that none of those points splits is halved
+    return _quarter_points(segment, fail, around)
+
+
+def _quarter_points(segment, fail, around):
+    """``around`` (B, G) with the quarter points of every failing cell that none of them
+    splits: sorted, NaN-padded, no point twice or outside the samples' range."""
+    t = segment.t
     cells, real = _compact(fail)
     rows = np.arange(t.shape[0])[:, None]
     own = segment.open[rows, cells]
@@ -454,7 +472,8 @@ def _points(segment, fail, bound, width, t_mpp, p_mpp, holds_mpp, tolerance):
                       & (middle < hi[:, :, None]), middle, np.nan).reshape(lo.shape[0], -1)
     new = np.concatenate([around, middle], axis=1)
     # no point outside the samples' range, and none twice
-    new = np.where((new > t[:, :1]) & (new < t[:, -1:]), new, np.nan)
+    own_t = segment.t_own
+    new = np.where((new > own_t[:, :1]) & (new < own_t[:, -1:]), new, np.nan)
     new = np.sort(new, axis=1)
     new[:, 1:] = np.where(new[:, 1:] == new[:, :-1], np.nan, new[:, 1:])
     new = np.sort(new, axis=1)
