@@ -55,6 +55,15 @@ def _parameter_rows(*columns):
     return out
 
 
+def _reciprocal_range(low, high, shift):
+    """[1/high, 1/low] + shift for a slope range [low, high] of one sign: the range of dV/dJ
+    from that of dJ/dV; (-inf, inf) where the range holds zero or is not finite."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ok = np.isfinite(low) & np.isfinite(high) & ((low > 0) | (high < 0))
+        return (np.where(ok, 1.0 / high, -np.inf) + shift,
+                np.where(ok, 1.0 / low, np.inf) + shift)
+
+
 def batch(value):
     """Any scalar or 1-D array -> float array of shape (B, 1)."""
     return np.asarray(value, dtype=float).reshape(-1, 1)
@@ -561,6 +570,7 @@ class TunnelJunction:
         return np.full_like(self.peak_A_m2, np.inf)
 
 
+
 @dataclass(frozen=True)
 class IsotypeInterface:
     """An isotype heterointerface (n-N or p-P): thermionic emission over the band-offset barrier.
@@ -647,6 +657,20 @@ class IsotypeInterface:
 
     def current_limit(self, temperature_K):
         return self.current_cap(temperature_K)
+
+    def voltage_slope_range(self, v_a, v_b, j_a, j_b, temperature_K, branch=None):
+        """Smallest and largest dV/dJ = -1/(dJ_law/dV_law) between two operating points
+        (V_law = -s V; laws/thermionic.py current_slope_range); (-inf, inf) where an end lies
+        outside the law's domain."""
+        s = self.direction
+        x_a, x_b = -s * np.asarray(v_a, dtype=float), -s * np.asarray(v_b, dtype=float)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
+            low, high = thermionic.current_slope_range(np.minimum(x_a, x_b),
+                                                       np.maximum(x_a, x_b),
+                                                       **self._law(temperature_K))
+        lo, hi = _reciprocal_range(low, high, 0.0)
+        return -hi, -lo
 
 
 ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction,

@@ -26,7 +26,8 @@ import numpy as np
 __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "as_input", "parameter_rows", "evaluate_law",
            "tunnel_curvature", "invert", "invert_table", "element_voltages", "string_pass",
            "subcell_table", "subcell_terminal_current", "exact_peak_shape", "tunnel_extrema",
-           "hermite_crossing", "power_maximum", "bose_einstein_tail", "compiled_already"]
+           "hermite_crossing", "power_maximum", "bose_einstein_tail", "compiled_already",
+           "slope_range"]
 
 #: law codes of :func:`invert_table`
 SUBCELL_LAW = 0
@@ -177,6 +178,75 @@ def evaluate_law(code, params, v):
         for i in range(n):
             j[b, i], dj[b, i] = _law(code, v[b, i], p)
     return j, dj
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _subcell_slopes(lo, hi, p):
+    """Smallest and largest dJ/dVj of the subcell law over [lo, hi]: the compiled form of
+    laws/diode.py junction_slope_range (the same terms, each monotone in Vj; the breakdown
+    shape q(w) = w^(-m-1) (m - (m - 1) w) has its one minimum at w = (m + 1)/(m - 1))."""
+    j01, j02, g, vbr, a, m, inverse = p[1], p[2], p[3], p[5], p[6], p[7], p[8]
+    small = j01 * inverse * math.exp(lo * inverse)
+    large = j01 * inverse * math.exp(hi * inverse)
+    if j02 > 0.0:
+        half = 0.5 * inverse
+        small += j02 * half * math.exp(lo * half)
+        large += j02 * half * math.exp(hi * half)
+    shunt_small, shunt_large = g, g
+    if a > 0.0 and math.isfinite(vbr):
+        w_lo, w_hi = 1.0 - lo / vbr, 1.0 - hi / vbr
+        q_lo = w_lo ** (-m - 1.0) * (m - (m - 1.0) * w_lo)
+        q_hi = w_hi ** (-m - 1.0) * (m - (m - 1.0) * w_hi)
+        q_min, q_max = min(q_lo, q_hi), max(q_lo, q_hi)
+        if m > 1.0:
+            turn = (m + 1.0) / (m - 1.0)
+            if w_lo < turn < w_hi:
+                q_min = turn ** (-m - 1.0) * (m - (m - 1.0) * turn)
+        shunt_small = g * (1.0 + a * q_min)
+        shunt_large = g * (1.0 + a * q_max)
+    return -(large + shunt_large) * (1.0 + 1e-12), -(small + shunt_small) * (1.0 - 1e-12)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _tunnel_slopes(lo, hi, p):
+    """Smallest and largest dJ/du of the Esaki law over [lo, hi]: the compiled form of
+    laws/esaki.py slope_range (the tunnelling term falls in x = u/V1 up to x = 2 and rises
+    beyond; one excess exponential rises and one falls in u; the thermal term rises)."""
+    a, v1, vv, c2, j0, nvt, k = p[0], p[1], p[3], p[4], p[5], p[6], p[7]
+    x_lo, x_hi = lo / v1, hi / v1
+    turn = min(max(2.0, min(x_lo, x_hi)), max(x_lo, x_hi))
+    smallest, largest = math.inf, -math.inf
+    for x in (x_lo, x_hi, turn):
+        value, first, _ = _limited_exp(1.0 - x)
+        term = (a / v1) * (value - x * first)
+        smallest, largest = min(smallest, term), max(largest, term)
+    rise_lo = math.exp(min(c2 * (lo - vv), EXP_LIMIT))
+    rise_hi = math.exp(min(c2 * (hi - vv), EXP_LIMIT))
+    fall_lo = math.exp(min(-c2 * (lo + vv), EXP_LIMIT))
+    fall_hi = math.exp(min(-c2 * (hi + vv), EXP_LIMIT))
+    smallest += k * c2 * (rise_lo + fall_hi) + j0 / nvt * math.exp(min(lo / nvt, EXP_LIMIT))
+    largest += k * c2 * (rise_hi + fall_lo) + j0 / nvt * math.exp(min(hi / nvt, EXP_LIMIT))
+    spread = 1e-12 * (abs(smallest) + abs(largest))
+    return smallest - spread, largest + spread
+
+
+@numba.njit(cache=True, error_model="numpy")
+def slope_range(code, params, lo, hi):
+    """Smallest and largest slope of law ``code`` over the intervals [lo, hi] (R', N each),
+    parameter rows (R, P), R = R' or R = 1: the ranges the MPP certificate's bounds rest on
+    (certificate.py). NaN where an end is NaN."""
+    rows, n = lo.shape
+    low = np.empty((rows, n))
+    high = np.empty((rows, n))
+    shared = params.shape[0] == 1
+    for b in range(rows):
+        p = params[0] if shared else params[b]
+        for i in range(n):
+            if code == SUBCELL_LAW:
+                low[b, i], high[b, i] = _subcell_slopes(lo[b, i], hi[b, i], p)
+            else:
+                low[b, i], high[b, i] = _tunnel_slopes(lo[b, i], hi[b, i], p)
+    return low, high
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")

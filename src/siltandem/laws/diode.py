@@ -296,3 +296,58 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, forward=None, **junction):
     current, slope_j = forward(vj)
     slope = slope_j / (1.0 - rs * slope_j)
     return current, slope
+
+
+def _breakdown_slope_shape(w, exponent):
+    """q(w) = w^(-m-1) (m - (m - 1) w): (M + Vj M') - 1 = a q of the breakdown multiplier
+    M = 1 + a w^-m, w = 1 - Vj/Vbr. dq/dw = m w^(-m-2) ((m - 1) w - (m + 1)): q falls up to
+    w* = (m + 1)/(m - 1) (for m > 1) and rises beyond it; for m <= 1 it falls everywhere."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return w ** (-exponent - 1.0) * (exponent - (exponent - 1.0) * w)
+
+
+def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
+                         shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
+                         breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+    """The smallest and largest dJ/dVj [A m^-2 V^-1] of :func:`junction_current` over every
+    junction voltage between ``v_low_V`` and ``v_high_V`` (arrays, v_low <= v_high).
+
+    dJ/dVj = -(J01/Vt) e^(Vj/Vt) - (J02/2Vt) e^(Vj/2Vt) - G (1 + a q(w)), w = 1 - Vj/Vbr,
+    q(w) = w^(-m-1) (m - (m - 1) w) (the derivative of Vj (1 + a w^-m)). Each term is
+    monotone in Vj, except q, which has one minimum at w* = (m + 1)/(m - 1) for m > 1: the
+    range is taken from the interval's ends and, where the interval holds w*, from q(w*). A
+    rigorous enclosure (up to rounding), used to bound the string's power between two
+    evaluated points (certificate.py). Both values are negative.
+    """
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    lo, hi = np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)
+    with np.errstate(over="ignore", invalid="ignore"):
+        inverse = 1.0 / vt
+        small = (j01_A_m2 * inverse) * np.exp(lo * inverse)
+        large = (j01_A_m2 * inverse) * np.exp(hi * inverse)
+        if np.any(np.asarray(j02_A_m2) > 0):
+            half = 0.5 * inverse
+            small = small + np.where(np.asarray(j02_A_m2) > 0,
+                                     (j02_A_m2 * half) * np.exp(lo * half), 0.0)
+            large = large + np.where(np.asarray(j02_A_m2) > 0,
+                                     (j02_A_m2 * half) * np.exp(hi * half), 0.0)
+        shunt_small = shunt_large = shunt_S_m2
+        active = (np.asarray(breakdown_factor) > 0) & np.isfinite(breakdown_V)
+        if np.any(active):
+            vbr = np.where(active, breakdown_V, -1.0)
+            # w rises with Vj (Vbr < 0)
+            w_lo, w_hi = 1.0 - lo / vbr, 1.0 - hi / vbr
+            m = np.asarray(breakdown_exponent, dtype=float)
+            q_lo, q_hi = _breakdown_slope_shape(w_lo, m), _breakdown_slope_shape(w_hi, m)
+            turn = np.where(m > 1.0, (m + 1.0) / np.where(m > 1.0, m - 1.0, 1.0), np.inf)
+            inside = (w_lo < turn) & (turn < w_hi)
+            q_min = np.where(inside, _breakdown_slope_shape(np.where(inside, turn, 1.0), m),
+                             np.minimum(q_lo, q_hi))
+            q_max = np.maximum(q_lo, q_hi)
+            factor = np.where(active, breakdown_factor, 0.0)
+            shunt_small = shunt_S_m2 * (1.0 + factor * np.where(active, q_min, 0.0))
+            shunt_large = shunt_S_m2 * (1.0 + factor * np.where(active, q_max, 0.0))
+        steepest = -(large + shunt_large)
+        flattest = -(small + shunt_small)
+    # widened by a few roundings of the terms above
+    return steepest * (1.0 + 1e-12), flattest * (1.0 - 1e-12)

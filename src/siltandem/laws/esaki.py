@@ -787,3 +787,49 @@ def estimate_peak_current(*, n_gap_eV, p_gap_eV, n_doping_m3, p_doping_m3, n_ele
         window = window + np.sum(_WEIGHTS * (fn - fp) * transverse, axis=-1) * 0.5 * half[..., 0]
     jp = q * mr / (2.0 * np.pi**2 * _HBAR_J_S**3) * np.exp(-lam) * ebar * window * q
     return PeakCurrentEstimate(jp, vp, field, gap, xi_n, xi_p, lam)
+
+
+def slope_range(u_low_V, u_high_V, prepared):
+    """The smallest and largest dJ/du [A m^-2 V^-1] of the prepared law over every junction
+    voltage between ``u_low_V`` and ``u_high_V`` (arrays, u_low <= u_high).
+
+    dJ/du = (A/V1) (E(1 - x) - x E'(1 - x)) + k C2 (E'(C2 (u - Vv)) + E'(-C2 (u + Vv)))
+    + (J0/nVt) E'(u/nVt), x = u/V1, E the exponential continued linearly beyond
+    ``_EXP_LIMIT`` (E' = exp(min(z, limit))). The first term falls in x up to x = 2 and rises
+    beyond (its derivative is (A/V1^2)(x - 2) e^(1-x), and it is linear and falling where the
+    exponential is continued); of the excess term's two exponentials one rises and one falls
+    in u; the thermal term rises. So the ends of the interval (and x = 2 where the interval
+    holds it) bound each term: a rigorous enclosure up to rounding, used to bound the string's
+    power between two evaluated points (certificate.py).
+    """
+    a, v1, jv, vv, c2, j0, n, t = prepared
+    lo, hi = np.asarray(u_low_V, dtype=float), np.asarray(u_high_V, dtype=float)
+    nvt = n * thermal_voltage_V(t)
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        x_lo, x_hi = lo / v1, hi / v1
+        turn = np.clip(2.0, np.minimum(x_lo, x_hi), np.maximum(x_lo, x_hi))
+        k = jv / -np.expm1(-2.0 * c2 * vv)
+        exponents = (1.0 - x_lo, 1.0 - x_hi, 1.0 - turn, c2 * (lo - vv), c2 * (hi - vv),
+                     -c2 * (lo + vv), -c2 * (hi + vv), lo / nvt, hi / nvt)
+        if max(np.max(z) for z in exponents) <= _EXP_LIMIT:
+            # every exponent below the limit: the plain exponentials (as _total does)
+            e_lo, e_hi, e_turn, ra_lo, ra_hi, fa_lo, fa_hi, th_lo, th_hi = (
+                np.exp(z) for z in exponents)
+            tunnel = [(a / v1) * (1.0 - x) * e for x, e in
+                      ((x_lo, e_lo), (x_hi, e_hi), (turn, e_turn))]
+        else:
+            def tunnel_term(x):
+                value, first, _ = _limited_exp(1.0 - x)
+                return (a / v1) * (value - x * first)
+
+            tunnel = [tunnel_term(x) for x in (x_lo, x_hi, turn)]
+            ra_lo, ra_hi, fa_lo, fa_hi, th_lo, th_hi = (
+                np.exp(np.minimum(z, _EXP_LIMIT)) for z in exponents[3:])
+        ends = np.broadcast_arrays(*tunnel)
+        smallest = (np.minimum(np.minimum(ends[0], ends[1]), ends[2])
+                    + k * c2 * (ra_lo + fa_hi) + (j0 / nvt) * th_lo)
+        largest = (np.maximum(np.maximum(ends[0], ends[1]), ends[2])
+                   + k * c2 * (ra_hi + fa_lo) + (j0 / nvt) * th_hi)
+    # widened by a few roundings of the terms above
+    spread = 1e-12 * (np.abs(smallest) + np.abs(largest))
+    return smallest - spread, largest + spread

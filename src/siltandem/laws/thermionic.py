@@ -33,6 +33,7 @@ __all__ = [
     "voltage_split",
     "isotype_current_density",
     "isotype_voltage",
+    "current_slope_range",
     "richardson_constant_A_m2_K2",
     "isotype_band_alignment",
 ]
@@ -492,6 +493,47 @@ def _chandrupatla(function, lower, upper, args):
             iterations += 1
     status[active] = -1                               # out of iterations
     return x_out, status == 0
+
+
+def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
+                        richardson_A_m2_K2, temperature_K, include_tail=False):
+    """The smallest and largest dJ/dV [A m^-2 V^-1] of `isotype_current_density` over every
+    voltage between ``v_low_V`` and ``v_high_V`` (arrays, v_low <= v_high, inside the domain).
+
+    dJ/dV = (P/Vt) e^v1 (1 + A e^v)/(1 + A), A = alpha (e^v1 - 1), v = V/Vt, with the
+    accumulation-side bending v1 falling as V rises (dv1/dV < 0, see the Notes of
+    `isotype_current_density`). e^v1 and A lie between their values at the interval's ends; the
+    ratio (1 + A e^v)/(1 + A) is monotone in A for fixed e^v and rises with e^v, so its extremes
+    lie at the corners. A rigorous enclosure up to rounding (positive; NaN outside the domain),
+    used to bound the string's power between two evaluated points (certificate.py).
+    """
+    tail = 1.0 if include_tail else 0.0
+    shape, both, vbi, alpha_f, vt, log_p = _prepare(
+        np.stack(np.broadcast_arrays(np.asarray(v_low_V, dtype=float),
+                                     np.asarray(v_high_V, dtype=float))),
+        barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K)
+    v = both / vt
+    v1, _ = _accumulation_bending(vbi - v, alpha_f, tail)
+    a_em1 = _alpha_terms(alpha_f, v1)[1]
+    half = both.size // 2
+    with np.errstate(over="ignore", invalid="ignore"):
+        # index 0: the low end of V (largest bending), 1: the high end
+        growth = np.exp(v1)
+        e_v = np.exp(v)
+        a_lo, a_hi = a_em1[half:], a_em1[:half]          # A at high V, A at low V
+        e_lo, e_hi = e_v[:half], e_v[half:]
+
+        def ratio(a, e):
+            return (1.0 + a * e) / (1.0 + a)
+
+        r_min = np.minimum(ratio(a_lo, e_lo), ratio(a_hi, e_lo))
+        r_max = np.maximum(ratio(a_lo, e_hi), ratio(a_hi, e_hi))
+        scale = np.exp(log_p[:half]) / vt[:half]
+        smallest = scale * growth[half:] * r_min
+        largest = scale * growth[:half] * r_max
+    out_shape = shape[1:]
+    return ((smallest * (1.0 - 1e-12)).reshape(out_shape),
+            (largest * (1.0 + 1e-12)).reshape(out_shape))
 
 
 # ---------------------------------------------------------------------------------------------

@@ -60,6 +60,7 @@ def text_summary(result):
     lines.append("")
     lines.append(_headline("efficiency", s["efficiency_pct"], ".3f", "%"))
     if len(s["strings"]) == 1:
+        fill = s["fill_factor"]
         lines += [
             _headline("Voc", s["voc_V"], ".4f", "V"),
             _headline("Jsc", s["jsc_mA_cm2"], ".3f", "mA/cm2"),
@@ -76,6 +77,15 @@ def text_summary(result):
         lines += ["    " + x for x in _table(
             ["string", "efficiency %", "Voc V", "Jsc mA/cm2", "FF %", "MPP V", "MPP mA/cm2"],
             rows, "<>>>>>>")]
+    for r in s["strings"]:
+        proof = r.get("mpp_certificate")
+        found = _finite(r["mpp_W_m2"])
+        if proof is not None and found and not proof["certified"]:
+            bound = proof["upper_bound_W_m2"]
+            which = f"string {r['string']}: " if len(s["strings"]) > 1 else ""
+            lines.append(f"  {which}MPP not proven global"
+                         + (f": the curve may reach {bound:.6g} W/m2 between its evaluated "
+                            "points" if _finite(bound) else ""))
     regime = s.get("regime")
     if regime and regime != "no tunnel junction":
         regimes = regime if isinstance(regime, list) else [regime]

@@ -266,8 +266,19 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         total_power += power
         balance += _first(solution.power_balance_error_W_m2)
         if solution.failed[0]:
-            warnings_.append(f"string {number}: no operating point found; its numbers are "
-                             "missing (null)")
+            # what is missing, in words; Voc is the point of zero current, where only the
+            # subcells have a voltage, so it stays (solve.py)
+            missing = [label for label, value in (
+                ("Voc", solution.voc_V), ("Jsc", solution.jsc_A_m2),
+                ("the MPP", solution.mpp_W_m2), ("the fill factor", solution.fill_factor))
+                if not np.isfinite(_first(value))]
+            listed = " and ".join(filter(None, [", ".join(missing[:-1]), missing[-1]])) \
+                if missing else "its numbers"
+            note = ("; Voc is the point of zero current, where only the subcells have a "
+                    "voltage" if np.isfinite(_first(solution.voc_V)) else "")
+            warnings_.append(f"string {number}: no operating point found for {listed} "
+                             f"(null){note}")
+        certificate = _certificate(solution)
         if solution.capped is not None and solution.capped[0]:
             names = ", ".join(repr(e.name) for e in string if e.kind == "isotype")
             warnings_.append(f"string {number}: the current is capped at an isotype interface's "
@@ -281,7 +292,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
             "jsc_mA_cm2": units.ma_cm2(_first(solution.jsc_A_m2)),
             "fill_factor": _first(solution.fill_factor), "mpp_V": _first(solution.mpp_V),
             "mpp_mA_cm2": units.ma_cm2(j_mpp), "mpp_W_m2": power,
-            "limiting_subcell": pilot.name, "regime": str(solution.regime[0])})
+            "limiting_subcell": pilot.name, "regime": str(solution.regime[0]),
+            "mpp_certificate": certificate})
         if str(solution.regime[0]).startswith("past peak"):
             warnings_.append(f"string {number}: a tunnel junction is driven past its peak on the "
                              f"traced curve ({solution.regime[0]}); see `--sweep up|down` for "
@@ -344,7 +356,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                     cost = (f"costs {penalty:.2f} % absolute" if np.isfinite(penalty)
                             else "the stack without it found no operating point either")
                     warnings_.append(f"isotype interface {element.name!r} blocks: it drops "
-                                     f"{-v * 1000:.0f} mV at the MPP; {cost}")
+                                     f"{-v * 1000 + 0.0:.0f} mV at the MPP; {cost}")
             element_rows.append({
                 "name": element.name, "kind": element.kind, "string": number,
                 "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
@@ -404,6 +416,8 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         "fill_factor": head.get("fill_factor"), "mpp_V": head.get("mpp_V"),
         "mpp_mA_cm2": head.get("mpp_mA_cm2"), "mpp_W_m2": total_power,
         "regime": regimes[0] if one else regimes,
+        "mpp_certificate": head.get("mpp_certificate") if one else [
+            r["mpp_certificate"] for r in string_rows],
         "strings": string_rows,
         "subcells": subcell_rows,
         "elements": element_rows,
@@ -425,6 +439,19 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         + ", Esaki tunnel junctions (three-term law), isotype interfaces (thermionic emission, "
           "any alpha)",
     }
+
+
+def _certificate(solution):
+    """The proof of the global MPP of a string (solve.py, certificate.py), for the summary:
+    by the concavity of P(J) (a string of subcells without breakdown, and resistors: no cells
+    to check) or by bounding the power between evaluated points."""
+    certified = bool(solution.mpp_certified is not None and solution.mpp_certified[0])
+    cells = int(solution.mpp_cells_checked[0]) if solution.mpp_cells_checked is not None else 0
+    return {"certified": certified,
+            "proof": ("cell bounds" if cells else "concavity") if certified else None,
+            "upper_bound_W_m2": (_first(solution.mpp_bound_W_m2)
+                                 if solution.mpp_bound_W_m2 is not None else math.nan),
+            "cells_checked": cells}
 
 
 def _photons(circuit):

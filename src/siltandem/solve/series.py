@@ -29,6 +29,7 @@ from siltandem.circuit.elements import take_rows
 from siltandem.constants import thermal_voltage_V
 from siltandem.numerics.tables import polish_root
 from siltandem.numerics.roots import bracketed_root, safeguarded_newton
+from siltandem.solve.certificate import Certificate, Segment, certify, polisher
 
 #: forward end of a traced curve: the pilot carries this fraction of its photocurrent backwards
 FORWARD_CURRENT_FRACTION = -0.3
@@ -66,6 +67,13 @@ class StringSolution:
         (S-shaped: a voltage sweep jumps, differently up and down).
     tunnel_branch_at_mpp : dict
         Tunnel junction name -> branch ("tunnel", "negative", "thermal") it sits on at the MPP.
+    mpp_certified : ndarray of bool
+        The MPP is proven the global maximum of the traced curve (certificate.py): no point of
+        it exceeds ``mpp_bound_W_m2``, which is within 1e-9 (relative) of ``mpp_W_m2``.
+    mpp_bound_W_m2 : ndarray
+        The largest upper bound of the power over the traced curve [W/m2] (>= mpp_W_m2).
+    mpp_cells_checked : ndarray of int
+        Cells (intervals between evaluated points) the proof bounded.
     """
 
     element_names: list
@@ -84,6 +92,9 @@ class StringSolution:
     regime: np.ndarray | None = None
     tunnel_branch_at_mpp: dict = field(default_factory=dict)
     capped: np.ndarray | None = None
+    mpp_certified: np.ndarray | None = None
+    mpp_bound_W_m2: np.ndarray | None = None
+    mpp_cells_checked: np.ndarray | None = None
 
 
 class _Extrema(dict):
@@ -375,6 +386,29 @@ class _String:
             out.update(dcurrent=dcurrent, dvoltage=dvoltage)
         return out
 
+    def evaluate_current(self, current, *, branches=None):
+        """The string at given currents (B, N), every element through its own inverse law,
+        the pilot too: for currents well above the pilot's photocurrent (its reverse branch
+        near breakdown, where t no longer resolves the current). Returns the dict of
+        :meth:`evaluate` with slopes, ``dcurrent`` = 1 and ``dvoltage`` = dV/dJ."""
+        branches = branches or {}
+        current = np.asarray(current, dtype=float)
+        voltages, dvoltage = [], np.zeros(current.shape)
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            for element in self.elements:
+                if element.kind == "tunnel":
+                    branch = branches.get(element.name, "tunnel")
+                    v, slope = element.voltage(current, self.temperature_K, branch,
+                                               None if branch == "tunnel" else
+                                               self.tunnel_extrema[element.name])
+                else:
+                    v, slope = element.voltage(current, self.temperature_K)
+                v = np.broadcast_to(v, current.shape)
+                voltages.append(v)
+                dvoltage = dvoltage + slope
+        return dict(current=current, voltage=functools.reduce(np.add, voltages),
+                    voltages=voltages, dcurrent=np.ones(current.shape), dvoltage=dvoltage)
+
 
     def _finish_fused(self, t, fused, group, branches, slopes):
         """The rest of :meth:`evaluate` after the fused compiled pass: the elements it did not
@@ -463,6 +497,156 @@ def _finite_or(value, fallback):
     return np.where(np.isfinite(value), value, fallback)
 
 
+def _open_circuit(string, evaluation):
+    """Every element's voltage at zero current from an evaluation at the pilot's open circuit:
+    the subcells' own, zero for the rest (a resistor, a tunnel junction and an isotype
+    interface carry no current at zero volts)."""
+    return [np.asarray(v, dtype=float) if e.kind == "subcell" else np.zeros(np.shape(v))
+            for e, v in zip(string.elements, evaluation["voltages"])]
+
+
+def _concave(string):
+    """(B,) True where the string's V(J) is concave: only subcells without breakdown, and
+    resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
+    inverse Vj(J) is concave, and Vj - J Rs too; so is the sum. Then P = J V(J) is concave on
+    J >= 0 (P'' = 2 V' + J V'' < 0) and P(t) unimodal (J falls with t): a root of dP/dt where
+    it changes sign is the global maximum."""
+    if any(e.kind not in ("subcell", "resistor") for e in string.elements):
+        return np.zeros(string.size, dtype=bool)
+    concave = np.ones(string.size, dtype=bool)
+    for cell in string.subcells:
+        breakdown = ((cell.breakdown_factor > 0) & np.isfinite(cell.breakdown_V)
+                     & (cell.shunt_S_m2 > 0))
+        concave &= ~np.broadcast_to(breakdown, (string.size, 1))[:, 0]
+    return concave
+
+
+def _certified(string, t, samples, t_mpp, at_mpp, t_voc, zero, turned, active, tail=None):
+    """The certificate of the MPP over one branch state (every junction on its tunnel branch)
+    from the exact samples (t ascending) and the MPP's own evaluation: by concavity where the
+    MPP is a turn of dP/dt on a concave string (_concave), else by bounding every cell
+    (certificate.certify; the MPP may move to a higher point found there), with the tail's
+    samples by current where there is one (_tail_samples). Returns (Certificate, t_mpp,
+    at_mpp)."""
+    size = t_mpp.shape[0]
+    with np.errstate(invalid="ignore", over="ignore"):
+        power = (at_mpp["current"] * at_mpp["voltage"])[:, 0]
+    by_shape = active & turned & _concave(string) & np.isfinite(power)
+    if tail is not None:
+        by_shape &= ~tail[2]
+    rest = active & ~by_shape
+    certified, bound = by_shape.copy(), np.where(by_shape, power, np.nan)
+    cells = np.zeros(size, dtype=int)
+    if rest.any():
+        segment = _segment({}, t, samples, string)
+        segment.merge(_segment({}, t_mpp, at_mpp, string))
+        segments = [segment]
+        if tail is not None:
+            segments.append(Segment.from_evaluation({}, tail[0], tail[1],
+                                                    [e.name for e in string.tunnels],
+                                                    by_current=True))
+        proof, t_mpp, at_mpp, _, _ = certify(
+            string, segments, np.zeros(size, dtype=int), t_mpp, at_mpp,
+            photocurrent=string.pilot_photocurrent, polish=polisher(string, segments),
+            open_circuit=(t_voc, zero), active=rest)
+        certified = np.where(rest, proof.certified, certified)
+        bound = np.where(rest, proof.bound_W_m2, bound)
+        cells = np.where(rest, proof.cells, cells)
+    return Certificate(certified, bound, cells), t_mpp, at_mpp
+
+
+#: samples of a tail by current (uniform, plus points towards each subcell's photocurrent)
+TAIL_SAMPLES = 64
+
+
+def _tail_samples(string, j_low, rows, branches=None):
+    """The tail of the curve beyond the pilot's lowest voltage, sampled by current.
+
+    Just above a subcell's breakdown voltage its current rises so steeply with its junction
+    voltage that the pilot's t (kept a relative 1e-9 above the breakdown voltage) cannot follow
+    it: the curve goes on at currents from ``j_low`` (B, 1), the current there, upwards. Every
+    element, the pilot too, is evaluated there through its own inverse law
+    (_String.evaluate_current), from ``j_low`` to where V falls to zero or below (V falls with
+    J on these branches), uniformly and towards each subcell's photocurrent (its knee). Rows
+    outside ``rows`` (B,) repeat ``j_low``. Returns (currents (B, N), evaluation, rows,
+    branches)."""
+    photocurrents = [np.broadcast_to(c.photocurrent_A_m2, j_low.shape) for c in string.subcells]
+    top = np.max(np.concatenate(photocurrents, axis=1), axis=1, keepdims=True)
+    j_end = np.maximum(2.0 * j_low, j_low + top)
+    for _ in range(60):
+        v = string.evaluate_current(j_end, branches=branches)["voltage"]
+        grow = rows[:, None] & np.isfinite(v) & (v > 0)
+        if not grow.any():
+            break
+        j_end = np.where(grow, 2.0 * j_end, j_end)
+    near = np.logspace(-12, -0.5, 12)[None, :]
+    x = [j_low + (j_end - j_low) * _unit_steps(TAIL_SAMPLES)]
+    x += [jph * (1.0 - near) for jph in photocurrents] + [jph * (1.0 + near)
+                                                           for jph in photocurrents]
+    x = np.concatenate(x, axis=1)
+    x = np.where(rows[:, None] & (x >= j_low) & (x <= j_end), x, j_low)
+    x = np.sort(x, axis=1)
+    return x, string.evaluate_current(x, branches=branches), rows, branches
+
+
+def _with_tail_curve(string, final, tail, in_tail, v_floor):
+    """The curve's first ``in_tail`` points (per row) on the tail, from its reverse end (the
+    first sample where V has fallen below ``v_floor`` or has no finite value, else its last
+    sample) to the current where t stops, evenly in current and evaluated by current; the
+    rest of ``final`` unchanged."""
+    x, e, rows, branches = tail
+    v = e["voltage"]
+    beyond = ~(np.isfinite(v) & (v >= v_floor))
+    last = np.where(beyond.any(axis=1), np.argmax(beyond, axis=1), x.shape[1] - 1)
+    j_end = x[np.arange(x.shape[0]), last][:, None]
+    count = int(in_tail.max())
+    # from the reverse end towards the current where t stops (excluded: the t part starts there)
+    steps = np.linspace(0.0, 1.0, count + 1)[None, :-1]
+    j = j_end + (x[:, :1] - j_end) * steps
+    points = string.evaluate_current(j, branches=branches)
+    out = {k: (np.array(np.broadcast_to(final[k], final["current"].shape), dtype=float)
+               if k != "voltages" else
+               [np.array(np.broadcast_to(y, final["current"].shape), dtype=float)
+                for y in final[k]]) for k in ("current", "voltage", "voltages")}
+    for row in np.flatnonzero(in_tail):
+        k = in_tail[row]
+        out["current"][row, :k] = points["current"][row, :k]
+        out["voltage"][row, :k] = points["voltage"][row, :k]
+        for a, b in zip(out["voltages"], points["voltages"]):
+            a[row, :k] = np.broadcast_to(b, j.shape)[row, :k]
+    return {**final, **out}
+
+
+def _tail_short_circuit(string, tail, rows):
+    """Jsc in a tail (_tail_samples): where V falls through zero between two of its samples,
+    by a root of V(J) (each evaluation by current); NaN where it does not."""
+    x, e, _, branches = tail
+    v = e["voltage"]
+    change = (v[:, :-1] > 0) & (v[:, 1:] <= 0)
+    found = rows & change.any(axis=1)
+    k = np.argmax(change, axis=1)[:, None]
+    lo, hi = np.take_along_axis(x, k, axis=1), np.take_along_axis(x, k + 1, axis=1)
+    v_lo = np.take_along_axis(v, k, axis=1)
+    v_hi = np.take_along_axis(v, k + 1, axis=1)
+    lo, hi = np.where(found[:, None], lo, x[:, :1]), np.where(found[:, None], hi, x[:, :1])
+
+    big = np.finfo(float).max
+
+    def voltage(j):
+        w = string.evaluate_current(j, branches=branches)["voltage"]
+        return np.clip(np.where(np.isnan(w), -np.inf, w), -big, big)
+
+    root = bracketed_root(voltage, lo, hi, end_values=(
+        np.where(found[:, None], np.clip(v_lo, -big, big), 0.0),
+        np.where(found[:, None], np.clip(v_hi, -big, big), 0.0)))
+    return np.where(found[:, None], root, np.nan)
+
+
+def _segment(state, t, evaluation, string):
+    """Exact samples of one branch state for the certificate (certificate.Segment)."""
+    return Segment.from_evaluation(state, t, evaluation, [e.name for e in string.tunnels])
+
+
 def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.3):
     """Solve a batch of series strings.
 
@@ -494,6 +678,11 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     else:
         simple = _solve_simple(string, temperature_K, curve_points, reverse_fraction)
     past_peak = simple["reaches_peak"]
+    proof = simple.get("certificate")
+    size = past_peak.size
+    certified = np.zeros(size, dtype=bool) if proof is None else proof.certified.copy()
+    bound = np.full(size, np.nan) if proof is None else np.array(proof.bound_W_m2, dtype=float)
+    cells = np.zeros(size, dtype=int) if proof is None else proof.cells.copy()
     regime = np.array(["below peak" if string.tunnels else "no tunnel junction"] * past_peak.size,
                       dtype=object)
     branches = {t.name: np.full(past_peak.shape, "tunnel", dtype=object) for t in string.tunnels}
@@ -507,8 +696,9 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
                 # the vectorized pass sampled this design's first piece already
                 ts, e = simple["samples"]
                 pick = slice(row, row + 1)
-                start = dict(voc=simple["voc"][pick], voltages_voc=[
-                    v[pick] for v in simple["voltages_voc"]], samples=(ts[pick], {
+                start = dict(voc=simple["voc"][pick], t_voc=simple["t_voc"][pick],
+                             voltages_voc=[v[pick] for v in simple["voltages_voc"]],
+                             samples=(ts[pick], {
                         k: (x[pick] if k != "voltages" else [v[pick] for v in x])
                         for k, x in e.items()}))
             answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction,
@@ -522,11 +712,21 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
             for name, branch in answer["branches_mpp"].items():
                 branches[name][row] = branch
             regime[row] = answer["regime"]
+            certified[row] = answer["certificate"].certified[0]
+            bound[row] = answer["certificate"].bound_W_m2[0]
+            cells[row] = answer["certificate"].cells[0]
             if curve_points:
                 simple["curve"]["current_A_m2"][row] = answer["curve"]["current_A_m2"]
                 simple["curve"]["voltage_V"][row] = answer["curve"]["voltage_V"]
                 for element in string.elements:
                     simple["curve"][element.name][row] = answer["curve"][element.name]
+    # open circuit is the point of zero current, where every element but a subcell has zero
+    # voltage (a resistor, a tunnel junction and an isotype interface each carry no current
+    # at zero volts): Voc is the sum of the subcells' open-circuit voltages. (Evaluated at the
+    # pilot's open circuit, which leaves a rounding-level current, an interface that blocks
+    # would answer with an enormous voltage, or none.)
+    simple["voltages_voc"] = _open_circuit(string, {"voltages": simple["voltages_voc"]})
+    simple["voc"] = functools.reduce(np.add, simple["voltages_voc"])
     voc, jsc, v_mpp, j_mpp, p_mpp = (simple[k] for k in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"))
     # a string that gives no power (blocked) has its best point at open circuit: P = 0 there,
     # never a rounding-level negative power
@@ -534,8 +734,15 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     if np.any(dead):
         j_mpp, v_mpp, p_mpp = (np.where(dead, 0.0, j_mpp), np.where(dead, voc, v_mpp),
                                np.where(dead, 0.0, p_mpp))
+        bound = np.where(dead[:, 0], np.fmax(bound, 0.0), bound)
         simple["voltages_mpp"] = [np.where(dead, vo, vm) for vm, vo in
                                   zip(simple["voltages_mpp"], simple["voltages_voc"])]
+
+    # no MPP found: no half of one either (a current from one point, a voltage from another)
+    lost = ~np.isfinite(p_mpp)
+    if np.any(lost):
+        j_mpp, v_mpp = np.where(lost, np.nan, j_mpp), np.where(lost, np.nan, v_mpp)
+        simple["voltages_mpp"] = [np.where(lost, np.nan, v) for v in simple["voltages_mpp"]]
 
     # power balance: each element's own forward law at its voltage
     balance = np.zeros_like(p_mpp)
@@ -551,8 +758,9 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     capped = simple.get("capped", np.zeros(failed.shape, dtype=bool))
     failed = failed | (~np.isfinite(jsc[:, 0]) & ~capped)
     if np.any(failed):
-        warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point; "
-                      "their results are NaN", RuntimeWarning, stacklevel=2)
+        warnings.warn(f"{int(failed.sum())} of {failed.size} designs found no operating point "
+                      "for Jsc, the MPP or the fill factor; those results are NaN (Voc, the "
+                      "point of zero current, stays)", RuntimeWarning, stacklevel=2)
 
     names = [e.name for e in string.elements]
     flat = lambda a: np.asarray(a, dtype=float)[:, 0]  # noqa: E731
@@ -563,7 +771,10 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         voltage_at_zero_current_V={n: flat(v) for n, v in zip(names, simple["voltages_voc"])},
         power_balance_error_W_m2=flat(balance_error), failed=failed,
         pilot_index=string.pilot_index[:, 0], curve=simple["curve"], regime=regime,
-        tunnel_branch_at_mpp=branches, capped=capped)
+        tunnel_branch_at_mpp=branches, capped=capped,
+        mpp_certified=certified & np.isfinite(flat(p_mpp)),
+        mpp_bound_W_m2=np.where(np.isfinite(flat(p_mpp)), bound, np.nan),
+        mpp_cells_checked=cells)
 
 
 def _solve_explicit(string, temperature_K):
@@ -629,9 +840,16 @@ def _solve_explicit(string, temperature_K):
             r = np.broadcast_to(element.series_ohm_m2, (size, 1))
             voltages_mpp.append(vt * np.log1p((jph - j_mpp) / j0) - r * j_mpp)
             voltages_voc.append(vt * np.log1p(jph / j0))
-    return dict(voc=voc, jsc=jsc, v_mpp=v_mpp, j_mpp=j_mpp, p_mpp=j_mpp * v_mpp,
+    p_mpp = j_mpp * v_mpp
+    # P(J) is concave on J >= 0 (P'' = 2 V' + J V'' < 0): the root of dP/dJ is the global
+    # maximum, a proof needing no cells
+    finite = np.isfinite(p_mpp[:, 0])
+    proof = Certificate(finite, np.where(finite, p_mpp[:, 0], np.nan),
+                        np.zeros(size, dtype=int))
+    return dict(voc=voc, jsc=jsc, v_mpp=v_mpp, j_mpp=j_mpp, p_mpp=p_mpp,
                 voltages_mpp=voltages_mpp, voltages_voc=voltages_voc, curve=None,
-                reaches_peak=np.zeros(size, dtype=bool), capped=np.zeros(size, dtype=bool))
+                reaches_peak=np.zeros(size, dtype=bool), capped=np.zeros(size, dtype=bool),
+                certificate=proof)
 
 
 def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
@@ -662,6 +880,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     # an isotype interface driven forward carries at most its flat-band current: the law has no
     # voltage beyond it, so the trace stops there (reported, never invented)
     capped = np.zeros(jph.shape[0], dtype=bool)
+    capped_first = np.zeros(jph.shape[0], dtype=bool)
     caps = [np.broadcast_to(e.current_cap(temperature_K), jph.shape) for e in string.elements
             if e.kind == "isotype"]
     if caps:
@@ -670,6 +889,7 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
             t_cap = string.pilot_voltage_at(cap * (1 - 1e-9))
         limited = np.isfinite(t_cap) & (t_cap > t_low)
         t_low = np.where(limited, t_cap, t_low)
+        capped_first = limited[:, 0]
 
     if curve_points:
         return _solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
@@ -683,7 +903,9 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     v_low = _finite_or(low["voltage"], -1e3)
     reaches_peak = np.zeros(jph.shape[0], dtype=bool)
     if string.tunnels:
-        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+        # (where an isotype interface's flat-band current ends the curve first, no junction
+        # reaches its peak)
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
 
     # Jsc (V = 0) and, for a curve, its reverse end (V = v_floor) together: V rises strictly
     # with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
@@ -705,6 +927,15 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
         # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
         capped = (limited & (v_low > 0))[:, 0]
         t_sc = np.where(capped[:, None], t_low, t_sc)
+    # where V is still positive at the pilot's lowest voltage (just above its breakdown), the
+    # curve goes on at currents that t no longer resolves: the tail, sampled by current;
+    # Jsc lies there
+    tail_rows = ((t_low <= t_lowest) & (v_low > 0) & np.isfinite(low["current"]))[:, 0] & \
+        ~capped
+    tail = None
+    if tail_rows.any():
+        tail = _tail_samples(string, low["current"], tail_rows)
+        t_sc = np.where(tail_rows[:, None], t_low, t_sc)
     if curve_points:
         t_floor = roots[:, 1:2]
         t_floor = np.where(np.isfinite(t_floor), t_floor,
@@ -718,6 +949,8 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
     jsc = grid["current"][:, :1]
     if caps:
         jsc = np.where(capped[:, None], np.nan, jsc)
+    if tail is not None:
+        jsc = np.where(tail_rows[:, None], _tail_short_circuit(string, tail, tail_rows), jsc)
     power = _finite_or(grid["current"] * grid["voltage"], -np.inf)
     # no value only where the current is beyond what an element can carry, at the reverse
     # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
@@ -739,11 +972,16 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
                                        np.take_along_axis(grid_slope, high_index, axis=1)))
     interior = np.isfinite(t_mpp)
     t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
-    at_mpp = string.evaluate(t_mpp)
+    at_mpp = string.evaluate(t_mpp, slopes=True)
     lost = ~np.isfinite(at_mpp["current"] * at_mpp["voltage"])
     if np.any(lost):
         t_mpp = np.where(lost, np.take_along_axis(grid_t, best, axis=1), t_mpp)
-        at_mpp = string.evaluate(t_mpp)
+        at_mpp = string.evaluate(t_mpp, slopes=True)
+    # the certificate (certificate.py): between t_sc and t_voc lies every point of positive
+    # power (V rises with t)
+    proof, t_mpp, at_mpp = _certified(string, grid_t, grid, t_mpp, at_mpp, t_voc,
+                                      _open_circuit(string, at_voc), interior[:, 0],
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
 
     curve = None
@@ -759,7 +997,8 @@ def _solve_simple(string, temperature_K, curve_points, reverse_fraction):
                               for v in at_mpp["voltages"]],
                 voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
                               for v in at_voc["voltages"]],
-                curve=curve, reaches_peak=reaches_peak, capped=capped)
+                curve=curve, reaches_peak=reaches_peak, capped=capped, certificate=proof,
+                t_voc=t_voc)
 
 
 #: exact samples of the dense pass of a traced curve: uniform in t, and uniform in current
@@ -829,11 +1068,20 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
     v_low = np.where(at_low, v[:, :1], -np.inf)
     reaches_peak = np.zeros(size, dtype=bool)
     if string.tunnels:
-        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0]
+        # (where an isotype interface's flat-band current ends the curve first, no junction
+        # reaches its peak)
+        capped_first = np.zeros(size, dtype=bool) if limited is None else limited[:, 0]
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
     capped = np.zeros(size, dtype=bool)
     if limited is not None:
         # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
         capped = (limited & (v_low > 0))[:, 0]
+    # where V is still positive at the pilot's lowest voltage (just above its breakdown), the
+    # curve goes on at currents that t no longer resolves: its tail, sampled by current
+    tail_rows = ((at_low & (t_low <= t_lowest) & (v_low > 0))[:, 0]
+                 & np.isfinite(dense["current"][:, 0]) & ~capped & ~reaches_peak)
+    tail = _tail_samples(string, dense["current"][:, :1], tail_rows) if tail_rows.any() \
+        else None
     if np.all(reaches_peak):
         # every design is traced again through its junctions' branches (trace.py)
         nan = np.full((size, 1), np.nan)
@@ -842,7 +1090,7 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
                     voltages_voc=voltages_voc, reaches_peak=reaches_peak, capped=capped,
                     curve={name: np.full((size, curve_points), np.nan) for name in
                            ["current_A_m2", "voltage_V"] + [e.name for e in string.elements]},
-                    samples=(t, dense))
+                    samples=(t, dense), t_voc=t_voc)
 
     # a crossing may end on a sample where a subcell without a shunt is past its current limit
     # (its voltage -> -inf: the crossing lies just before the limit), never on one where a law
@@ -914,17 +1162,34 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
                 + 0.05 * np.diff(t, axis=1) / t_span)
     arc = np.concatenate([np.zeros((size, 1)), np.cumsum(arc_step, axis=1)], axis=1)
     curve_t = np.empty((size, curve_points))
-    fractions = _unit_steps(curve_points)[0]
+    # with a tail, its first eighth of the points lie on the tail (by current)
+    in_tail = np.where(tail_rows, max(curve_points // 8, 2), 0) if tail is not None else \
+        np.zeros(size, dtype=int)
     for row in range(size):
+        count = curve_points - in_tail[row]
         a_floor = np.interp(t_floor[row, 0], t[row], arc[row])
-        targets = a_floor + (arc[row, -1] - a_floor) * fractions
-        curve_t[row] = np.interp(targets, arc[row], t[row])
-    curve_t[:, :1] = t_floor
+        targets = a_floor + (arc[row, -1] - a_floor) * _unit_steps(count)[0]
+        curve_t[row, in_tail[row]:] = np.interp(targets, arc[row], t[row])
+        curve_t[row, :in_tail[row]] = t_floor[row, 0]
+        curve_t[row, in_tail[row]] = t_floor[row, 0]
     curve_t[:, -1:] = t_forward
-    final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1))
+    final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1), slopes=True)
+    if tail is not None:
+        final = _with_tail_curve(string, final, tail, in_tail, v_floor)
     n = curve_points
     current = final["current"]
     voltage = final["voltage"]
+    # the certificate: the samples' cells and the MPP, refined until every cell's bound is
+    # within the tolerance of the MPP (certificate.py); the MPP moves where a higher point is
+    # found. The samples hold every point of positive power: below them V < v_floor < 0
+    # (dV/dt >= 1), beyond t_voc the current is negative and V >= Voc.
+    at_mpp = {key: (final[key][:, n + 1:] if key != "voltages" else
+                    [np.broadcast_to(x, current.shape)[:, n + 1:] for x in final[key]])
+              for key in ("current", "voltage", "voltages", "dcurrent", "dvoltage")}
+    proof, t_mpp, at_mpp = _certified(string, t, dense, t_mpp, at_mpp, t_voc,
+                                      _open_circuit(string, {"voltages": voltages_voc}),
+                                      turns[:, 0].astype(bool),
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
     v_sc, j_sc = voltage[:, n:n + 1], current[:, n:n + 1]
     reached = np.abs(v_sc) <= SHORT_CIRCUIT_TOLERANCE_V
     change = np.zeros_like(j_sc)
@@ -933,21 +1198,31 @@ def _solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_for
         # fixed if it barely changes over the remaining Newton distance V / (dV/dt): take it
         # there (first order). Where it is not (V jumps across zero between neighbouring floats
         # of t while the current jumps too: an element blocks), there is no short circuit.
-        near = string.evaluate(np.where(np.isfinite(t_sc), t_sc, t_voc), slopes=True)
+        # Where the polish ends beyond a subcell's current limit (V = -inf: a subcell without a
+        # shunt cannot carry more), V falls from positive to -inf within a step of t: Jsc is
+        # the limit to rounding, when V is still >= 0 a rounding step further forward and the
+        # current moves by under 1e-9 over that step.
+        at = np.where(np.isfinite(t_sc), t_sc, t_voc)
+        step = 1e-12 * np.maximum(np.abs(at), 1.0)
+        near = string.evaluate(np.concatenate([at, at + step], axis=1), slopes=True)
         with np.errstate(divide="ignore", invalid="ignore"):
-            change = near["dcurrent"] * (-v_sc / near["dvoltage"])
+            change = near["dcurrent"][:, :1] * (-v_sc / near["dvoltage"][:, :1])
         steep = np.isfinite(change) & (np.abs(change) <= 1e-9 * np.abs(j_sc))
         change = np.where(steep & ~reached, change, 0.0)
-        reached = reached | steep
+        limit = ((v_sc == -np.inf) & (near["voltage"][:, 1:] >= 0)
+                 & (np.abs(near["current"][:, 1:] - j_sc) <= 1e-9 * np.abs(j_sc)))
+        reached = reached | steep | limit
     jsc = np.where(capped[:, None] | ~reached, np.nan, j_sc + change)
-    j_mpp, v_mpp = current[:, n + 1:], voltage[:, n + 1:]
+    if tail is not None:
+        jsc = np.where(tail_rows[:, None], _tail_short_circuit(string, tail, tail_rows), jsc)
+    j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
     element_voltages = [x if x.shape == current.shape else np.broadcast_to(x, current.shape)
                         for x in final["voltages"]]
     curve = {"current_A_m2": current[:, :n].copy(), "voltage_V": voltage[:, :n].copy()}
     for element, v_i in zip(string.elements, element_voltages):
         curve[element.name] = np.array(v_i[:, :n], dtype=float)
     return dict(voc=voc.copy(), jsc=jsc, v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
-                p_mpp=j_mpp * v_mpp, voltages_mpp=[np.array(x[:, n + 1:], dtype=float)
-                                                   for x in element_voltages],
+                p_mpp=j_mpp * v_mpp, voltages_mpp=[np.array(x, dtype=float)
+                                                   for x in at_mpp["voltages"]],
                 voltages_voc=voltages_voc, curve=curve, reaches_peak=reaches_peak,
-                capped=capped, samples=(t, dense))
+                capped=capped, samples=(t, dense), certificate=proof, t_voc=t_voc)

@@ -14,7 +14,8 @@ rising). It ends at the reverse-bias floor, at the lowest pilot voltage, or back
 
 Voc, Jsc and the MPP are found on the path: Voc at J = 0 on its first piece; Jsc at the first zero of
 the terminal voltage met from open circuit towards reverse bias; the MPP at the global maximum of P
-over all pieces, refined by a root of dP/dt inside its piece. What a terminal-voltage sweep shows
+over all pieces, refined by a root of dP/dt inside its piece, and proven global by bounding P
+between the samples of every piece (certificate.py). What a terminal-voltage sweep shows
 (with its hysteresis) follows from the path in :func:`voltage_sweep`.
 
 One design at a time (B = 1): this is the rare case, kept apart so that the common one stays
@@ -23,6 +24,7 @@ vectorized.
 import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
+from siltandem.solve.certificate import Segment, certify, polisher
 
 SAMPLES_PER_PIECE = 160
 #: at most this many pieces per junction (each junction turns at most a few times)
@@ -274,6 +276,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
         at_voc = string.evaluate(t_voc)
         first = None
     else:
+        t_voc = start["t_voc"]
         at_voc = dict(voltage=start["voc"], voltages=start["voltages_voc"])
         ts, e = start["samples"]
         # in path order: from the forward end towards the first fold
@@ -315,6 +318,33 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
         if not _scalar(at_mpp["current"] * at_mpp["voltage"]) >= best[0]:
             t_mpp = ts[:, i:i + 1]
             at_mpp = string.evaluate(t_mpp, branches=state)
+    # the certificate over every piece (certificate.py): each piece's cells, refined until
+    # every bound is within the tolerance of the MPP; the MPP moves to any higher point found
+    # (on whichever piece), polished there
+    tunnels = [t.name for t in string.tunnels]
+    segments = [Segment.from_evaluation(state_k, ts_k, e_k, tunnels)
+                for state_k, _, _, ts_k, e_k in pieces]
+    segments[index].merge(Segment.from_evaluation(state, t_mpp, at_mpp, tunnels))
+    # where the path ends at the pilot's lowest voltage (just above its breakdown) with V
+    # still positive, it goes on at currents that t no longer resolves: its tail, by current
+    tail = None
+    last_state, _, _, ts_last, e_last = pieces[-1]
+    v_end, j_end = _scalar(e_last["voltage"][:, -1:]), _scalar(e_last["current"][:, -1:])
+    if _scalar(ts_last[:, -1:]) <= _scalar(t_lowest) and v_end > 0 and np.isfinite(j_end):
+        from siltandem.solve.series import _tail_samples
+
+        tail = _tail_samples(string, e_last["current"][:, -1:], np.array([True]),
+                             branches=last_state)
+        segments.append(Segment.from_evaluation(last_state, tail[0], tail[1], tunnels,
+                                                by_current=True))
+    # (at zero current every element but a subcell has zero voltage)
+    zero = [np.asarray(v, dtype=float) if e.kind == "subcell" else np.zeros(np.shape(v))
+            for e, v in zip(string.elements, at_voc["voltages"])]
+    proof, t_mpp, at_mpp, where, _ = certify(string, segments, np.array([index]), t_mpp,
+                                             at_mpp, photocurrent=jph,
+                                             polish=polisher(string, segments),
+                                             open_circuit=(t_voc, zero))
+    state = segments[int(where[0])].state
     branches_mpp = dict(state)
 
     # Jsc: the first zero of V met along the path after open circuit
@@ -338,6 +368,10 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
             t0, last, e0 = _polish_level(string, state_k, t0, 0.0, lo, hi)
             jsc = e0["current"] + e0["dcurrent"] * (t0 - last)
             break
+    if tail is not None and not np.all(np.isfinite(jsc)):
+        from siltandem.solve.series import _tail_short_circuit
+
+        jsc = _tail_short_circuit(string, tail, np.array([True]))
 
     forward_to_reverse_v = np.concatenate([e["voltage"][0] for *_, e in pieces])
     forward_to_reverse_j = np.concatenate([e["current"][0] for *_, e in pieces])
@@ -374,7 +408,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
                 p_mpp=_scalar(at_mpp["current"] * at_mpp["voltage"]),
                 voltages_mpp=[_scalar(v) for v in at_mpp["voltages"]],
                 voltages_voc=[_scalar(v) for v in at_voc["voltages"]],
-                branches_mpp=branches_mpp, regime=regime, curve=curve)
+                branches_mpp=branches_mpp, regime=regime, curve=curve, certificate=proof)
 
 
 def voltage_sweep(voltage_V, current, *, direction, points=400):
