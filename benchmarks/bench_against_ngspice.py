@@ -81,7 +81,7 @@ def where_time_goes(build):
     balance): medians over REPEATS runs."""
     from siltandem.solve import series as solve_module
 
-    original = solve_module._String.evaluate
+    original = solve_module.SeriesString.evaluate
     record = []
 
     def timed(self, t, **keywords):
@@ -90,7 +90,7 @@ def where_time_goes(build):
         record.append(time.perf_counter() - start)
         return out
 
-    solve_module._String.evaluate = timed
+    solve_module.SeriesString.evaluate = timed
     try:
         totals, inside, counts = [], [], []
         for _ in range(REPEATS):
@@ -101,7 +101,7 @@ def where_time_goes(build):
             inside.append(sum(record))
             counts.append(len(record))
     finally:
-        solve_module._String.evaluate = original
+        solve_module.SeriesString.evaluate = original
     return statistics.median(totals), statistics.median(inside), int(statistics.median(counts))
 
 

@@ -247,7 +247,7 @@ def tunnel_current_expression(u, numbers, *, limited=False):
     below 227.96, where ngspice 39's B-source ``exp()`` stops at 1e99 (measured; beyond it the
     value of the plain text stops growing there).
     """
-    limit = _number(esaki._EXP_LIMIT)
+    limit = _number(esaki.EXP_LIMIT)
 
     def exp(x):
         if limited:

@@ -15,7 +15,7 @@ from scipy.optimize import brentq
 
 from siltandem.constants import (BOLTZMANN_EV_K, ELECTRON_MASS_KG, ELEMENTARY_CHARGE_C, PLANCK_J_S,
                                  VACUUM_PERMITTIVITY_F_M)
-from siltandem.laws import esaki
+from siltandem.laws import carriers, esaki
 from siltandem.units import A_CM2_TO_A_M2, PER_CM3_TO_PER_M3
 
 HBAR = PLANCK_J_S / (2 * math.pi)
@@ -196,7 +196,7 @@ def test_joyce_dixon_against_numerical_fermi_dirac_inverse():
     kt = BOLTZMANN_EV_K * t
     r = np.logspace(-2, np.log10(300), 25)
     exact = np.array([brentq(lambda e: f_half(e) - ri, -30, 100, xtol=1e-12) for ri in r])
-    got = esaki.fermi_degeneracy_eV(r * 4.7e23, band_states_m3=4.7e23, temperature_K=t) / kt
+    got = carriers.fermi_degeneracy_eV(r * 4.7e23, band_states_m3=4.7e23, temperature_K=t) / kt
     err = np.abs(got - exact)
     assert np.max(err[r <= 4]) < 2e-4          # Joyce-Dixon range
     assert np.max(err) < 5e-3                  # whole range, including the blend and degenerate branch
@@ -206,7 +206,7 @@ def test_joyce_dixon_against_numerical_fermi_dirac_inverse():
 def test_effective_density_of_states_of_gaas():
     # GaAs conduction band, m* = 0.067 m0: Nc = 4.7e17 cm^-3 in the standard tables (REFERENCES, 300 K);
     # the tables fold in a slightly different mass, so 10 %
-    nc = esaki.effective_density_of_states_m3(0.067, temperature_K=300.0)
+    nc = carriers.effective_density_of_states_per_m3(300.0, mass_ratio=0.067)
     assert nc / PER_CM3_TO_PER_M3 == pytest.approx(4.7e17, rel=0.10)
 
 

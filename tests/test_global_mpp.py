@@ -452,7 +452,7 @@ def test_the_demo_stacks_carry_a_proven_mpp(path):
     proofs = summary["mpp_certificate"]
     proofs = proofs if isinstance(proofs, list) else [proofs]
     assert len(proofs) == len(result.solutions) == len(summary["strings"])
-    for proof, row, solution in zip(proofs, summary["strings"], result.solutions):
+    for proof, row in zip(proofs, summary["strings"]):
         assert proof == row["mpp_certificate"]
         assert proof["certified"] is True
         # strings of subcells without breakdown and resistors: P(J) is concave (solve.py)

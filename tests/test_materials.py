@@ -13,6 +13,7 @@ import pytest
 
 from siltandem.constants import HC_EV_NM, RICHARDSON_FREE_A_M2_K2
 from siltandem.materials import MaterialError, describe_library, list_materials, load_material
+from siltandem.laws.carriers import effective_density_of_states_per_m3
 from siltandem.materials import models
 from siltandem.units import PER_CM3_TO_PER_M3
 
@@ -216,7 +217,7 @@ def test_relative_permittivity(name, composition, low, high):
 # ----------------------------------------------------------------------- densities of states
 def test_unit_mass_density_of_states():
     # 2 (2 pi m0 kT / h^2)^1.5 = 2.51e19 cm^-3 at 300 K (S. M. Sze, Physics of Semiconductor Devices)
-    n = models.effective_density_of_states_per_m3(300.0, mass_ratio=1.0) / PER_CM3_TO_PER_M3
+    n = effective_density_of_states_per_m3(300.0, mass_ratio=1.0) / PER_CM3_TO_PER_M3
     assert n == pytest.approx(2.51e19, rel=5e-3)
 
 

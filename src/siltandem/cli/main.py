@@ -309,7 +309,7 @@ def _json_alone(args, command):
 def main(argv=None):
     args = _parser().parse_args(argv)
     if args.command != "materials":
-        from siltandem.laws import compiled as kernels
+        from siltandem.solve import kernels
 
         if kernels.compiled_already() is False:
             print("siltandem: compiling the solver's kernels (the first run after installing or "

@@ -11,8 +11,6 @@ tunnel_term_for_exact_peak   prefactor and voltage scale of the tunnelling term 
                              curve's maximum exactly at (peak_V, peak_A_m2)
 attained_peak_and_valley     where the combined curve really has its maximum and minimum (root finding)
 validate_tunnel_parameters   clear ValueError messages for impossible parameter sets
-fermi_degeneracy_eV          Fermi-level penetration into the band of a heavily doped layer
-effective_density_of_states_m3
 estimate_peak_current        band-to-band tunnelling peak current and peak voltage from the two layers
 
 All functions are pure and vectorized: array arguments broadcast, SI units (eV for band energies).
@@ -28,6 +26,8 @@ from numpy.polynomial.legendre import leggauss
 from scipy.optimize import elementwise
 
 from siltandem.laws import compiled as kernels
+from siltandem.laws.compiled import EXP_LIMIT
+from siltandem.laws.carriers import fermi_degeneracy_eV
 from siltandem.constants import (
     BOLTZMANN_EV_K,
     ELECTRON_MASS_KG,
@@ -48,16 +48,11 @@ __all__ = [
     "extrema_of_prepared",
     "validate_tunnel_parameters",
     "default_excess_slope_per_V",
-    "fermi_degeneracy_eV",
-    "effective_density_of_states_m3",
     "estimate_peak_current",
 ]
 
 _HBAR_J_S = PLANCK_J_S / (2.0 * np.pi)
 
-#: exponent beyond which every exponential of the law is continued along its tangent (value and slope
-#: continuous) so that nothing overflows; e**300 ~ 2e130 lies far outside any physical operating point.
-_EXP_LIMIT = 300.0
 
 
 class TunnelParameterError(ValueError):
@@ -93,20 +88,20 @@ class PeakCurrentEstimate(NamedTuple):
 
 
 # --------------------------------------------------------------------------------------------------
-# exponentials continued linearly beyond _EXP_LIMIT: value, first and second derivative
+# exponentials continued linearly beyond EXP_LIMIT: value, first and second derivative
 # --------------------------------------------------------------------------------------------------
 def _limited_exp(x):
-    xc = np.minimum(x, _EXP_LIMIT)
+    xc = np.minimum(x, EXP_LIMIT)
     e = np.exp(xc)
-    over = x > _EXP_LIMIT
-    value = np.where(over, e * (1.0 + (x - _EXP_LIMIT)), e)
+    over = x > EXP_LIMIT
+    value = np.where(over, e * (1.0 + (x - EXP_LIMIT)), e)
     second = np.where(over, 0.0, e)
     return value, e, second
 
 
 def _limited_expm1(x):
     value, first, second = _limited_exp(x)
-    return np.where(x > _EXP_LIMIT, value - 1.0, np.expm1(np.minimum(x, _EXP_LIMIT))), first, second
+    return np.where(x > EXP_LIMIT, value - 1.0, np.expm1(np.minimum(x, EXP_LIMIT))), first, second
 
 
 def _as_float(*arrays):
@@ -270,8 +265,8 @@ def _total(v, a, v1, jv, vv, c2, j0, n, t):
     z3 = v / nvt
     # common case, every exponent below the limit: the same terms without the tangent continuation
     # (NaN fails the comparisons and takes the general route)
-    if z1.max() <= _EXP_LIMIT and za.max() <= _EXP_LIMIT and zb.max() <= _EXP_LIMIT \
-            and z3.max() <= _EXP_LIMIT:
+    if z1.max() <= EXP_LIMIT and za.max() <= EXP_LIMIT and zb.max() <= EXP_LIMIT \
+            and z3.max() <= EXP_LIMIT:
         e1, ea, eb, e3 = np.exp(z1), np.exp(za), np.exp(zb), np.exp(z3)
         k = jv / -np.expm1(-2.0 * c2 * vv)
         j = a * x * e1 + k * (ea - eb) + j0 * np.expm1(z3)
@@ -569,81 +564,6 @@ def _extrema_by_bracketing(args):
 
 
 # --------------------------------------------------------------------------------------------------
-# Fermi-level degeneracy of a heavily doped layer
-# --------------------------------------------------------------------------------------------------
-#: Joyce-Dixon coefficients (W. B. Joyce, R. W. Dixon, Appl. Phys. Lett. 31 (1977) 354; A1 = 1/sqrt(8),
-#: A2 = 3/16 - sqrt(3)/9; A3, A4 from memory, confirmed by the test against a direct Fermi-Dirac inverse)
-_JOYCE_DIXON = (1.0 / np.sqrt(8.0), 3.0 / 16.0 - np.sqrt(3.0) / 9.0, 1.48386e-4, -4.42563e-6)
-
-
-def effective_density_of_states_m3(density_of_states_mass, *, temperature_K):
-    """Effective density of states of a parabolic band, ``Nc = 2 (2 pi m kT / h^2)^(3/2)`` [m^-3].
-
-    Parameters
-    ----------
-    density_of_states_mass : array_like
-        Density-of-states effective mass in units of the free-electron mass.
-    temperature_K : array_like
-        Temperature [K].
-
-    References
-    ----------
-    S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., ch. 1 (from memory).
-    """
-    m = np.asarray(density_of_states_mass, dtype=float) * ELECTRON_MASS_KG
-    kt_j = BOLTZMANN_EV_K * np.asarray(temperature_K, dtype=float) * ELEMENTARY_CHARGE_C
-    return 2.0 * (2.0 * np.pi * m * kt_j / PLANCK_J_S**2) ** 1.5
-
-
-def fermi_degeneracy_eV(carrier_density_m3, *, band_states_m3, temperature_K):
-    """Fermi level measured into the band from its edge [eV] (positive = degenerate).
-
-    For an n layer this is ``EF - Ec`` with ``band_states_m3 = Nc``; for a p layer ``Ev - EF`` with
-    ``band_states_m3 = Nv``. Full ionisation (carrier density = doping), one parabolic band.
-
-    Parameters
-    ----------
-    carrier_density_m3 : array_like
-        Majority-carrier density [m^-3] (the doping for full ionisation).
-    band_states_m3 : array_like
-        Effective density of states of the band [m^-3].
-    temperature_K : array_like
-        Temperature [K].
-
-    Notes
-    -----
-    Inverse of ``n = Nc F_1/2(eta)`` (F_1/2 normalised to exp(eta) for eta -> -inf). For ``r = n/Nc``
-    up to 4 the Joyce-Dixon series ``eta = ln r + sum_i A_i r^i`` (error < 1e-4 kT); above 8 the
-    degenerate (Sommerfeld) expansion ``F_1/2 = (4/3 sqrt(pi)) eta^(3/2) [1 + pi^2/(8 eta^2) +
-    7 pi^4/(640 eta^4)]`` inverted by fixed-point iteration (error < 2e-3 kT); in between a smooth blend
-    in ln r. Band-gap narrowing and non-parabolicity are neglected (both matter at 1e19-1e20 cm^-3).
-
-    References
-    ----------
-    W. B. Joyce, R. W. Dixon, Appl. Phys. Lett. 31 (1977) 354.
-    A. Sommerfeld expansion of Fermi-Dirac integrals, e.g. J. S. Blakemore, Semiconductor Statistics,
-    Pergamon 1962 (from memory).
-    """
-    n, nc, t = np.broadcast_arrays(*_as_float(carrier_density_m3, band_states_m3, temperature_K))
-    for name, v in (("carrier_density_m3", n), ("band_states_m3", nc), ("temperature_K", t)):
-        found = _first_bad(~np.isfinite(v) | (v <= 0), [v])
-        if found:
-            raise ValueError(f"fermi_degeneracy_eV: {name} = {found[1][0]:g}{found[0]} must be finite and "
-                             f"positive; give a positive {name}.")
-    r = n / nc
-    jd = np.log(r) + sum(c * r ** (i + 1) for i, c in enumerate(_JOYCE_DIXON))
-    rs = np.maximum(r, 4.0)
-    eta0 = (3.0 * np.sqrt(np.pi) * rs / 4.0) ** (2.0 / 3.0)
-    eta = eta0
-    for _ in range(8):
-        eta = eta0 * (1.0 + np.pi**2 / (8.0 * eta**2) + 7.0 * np.pi**4 / (640.0 * eta**4)) ** (-2.0 / 3.0)
-    s = np.clip(np.log(np.maximum(r, 1e-300) / 4.0) / np.log(2.0), 0.0, 1.0)   # 0 at r = 4, 1 at r = 8
-    w = s * s * (3.0 - 2.0 * s)
-    reduced = np.where(r <= 4.0, jd, (1.0 - w) * np.where(r < 8.0, jd, 0.0) + w * eta)
-    return reduced * BOLTZMANN_EV_K * t
-
-
-# --------------------------------------------------------------------------------------------------
 # peak current estimate: band-to-band tunnelling through the junction field
 # --------------------------------------------------------------------------------------------------
 _NODES, _WEIGHTS = leggauss(48)
@@ -795,7 +715,7 @@ def slope_range(u_low_V, u_high_V, prepared):
 
     dJ/du = (A/V1) (E(1 - x) - x E'(1 - x)) + k C2 (E'(C2 (u - Vv)) + E'(-C2 (u + Vv)))
     + (J0/nVt) E'(u/nVt), x = u/V1, E the exponential continued linearly beyond
-    ``_EXP_LIMIT`` (E' = exp(min(z, limit))). The first term falls in x up to x = 2 and rises
+    ``EXP_LIMIT`` (E' = exp(min(z, limit))). The first term falls in x up to x = 2 and rises
     beyond (its derivative is (A/V1^2)(x - 2) e^(1-x), and it is linear and falling where the
     exponential is continued); of the excess term's two exponentials one rises and one falls
     in u; the thermal term rises. So the ends of the interval (and x = 2 where the interval
@@ -811,7 +731,7 @@ def slope_range(u_low_V, u_high_V, prepared):
         k = jv / -np.expm1(-2.0 * c2 * vv)
         exponents = (1.0 - x_lo, 1.0 - x_hi, 1.0 - turn, c2 * (lo - vv), c2 * (hi - vv),
                      -c2 * (lo + vv), -c2 * (hi + vv), lo / nvt, hi / nvt)
-        if max(np.max(z) for z in exponents) <= _EXP_LIMIT:
+        if max(np.max(z) for z in exponents) <= EXP_LIMIT:
             # every exponent below the limit: the plain exponentials (as _total does)
             e_lo, e_hi, e_turn, ra_lo, ra_hi, fa_lo, fa_hi, th_lo, th_hi = (
                 np.exp(z) for z in exponents)
@@ -824,7 +744,7 @@ def slope_range(u_low_V, u_high_V, prepared):
 
             tunnel = [tunnel_term(x) for x in (x_lo, x_hi, turn)]
             ra_lo, ra_hi, fa_lo, fa_hi, th_lo, th_hi = (
-                np.exp(np.minimum(z, _EXP_LIMIT)) for z in exponents[3:])
+                np.exp(np.minimum(z, EXP_LIMIT)) for z in exponents[3:])
         ends = np.broadcast_arrays(*tunnel)
         smallest = (np.minimum(np.minimum(ends[0], ends[1]), ends[2])
                     + k * c2 * (ra_lo + fa_hi) + (j0 / nvt) * th_lo)

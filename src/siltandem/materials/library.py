@@ -21,6 +21,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from siltandem.constants import BOLTZMANN_EV_K, HC_EV_NM, RICHARDSON_FREE_A_M2_K2
+from siltandem.laws.carriers import effective_density_of_states_per_m3
 from siltandem.materials import models
 
 __all__ = ["Material", "MaterialError", "load_material", "list_materials", "describe_library"]
@@ -146,12 +147,12 @@ class Material:
             return self._conduction_300K_override_per_m3 * (t / REFERENCE_TEMPERATURE_K) ** 1.5
         e_min = self.gap_eV(t)
         kt = BOLTZMANN_EV_K * t
-        return sum(models.effective_density_of_states_per_m3(t, mass_ratio=v.dos_mass)
+        return sum(effective_density_of_states_per_m3(t, mass_ratio=v.dos_mass)
                    * np.exp(-(v.gap_eV(t) - e_min) / kt) for v in self._valleys)
 
     def valence_dos_per_m3(self, temperature_K=REFERENCE_TEMPERATURE_K):
         """Effective valence-band density of states Nv [m^-3] at ``temperature_K`` [K]; Nv ~ T^1.5."""
-        return models.effective_density_of_states_per_m3(temperature_K, mass_ratio=self._hole_dos_mass)
+        return effective_density_of_states_per_m3(temperature_K, mass_ratio=self._hole_dos_mass)
 
     def intrinsic_density_per_m3(self, temperature_K=REFERENCE_TEMPERATURE_K):
         """Intrinsic carrier density ni = sqrt(Nc Nv) exp(-Eg / 2kT) [m^-3] (no bandgap narrowing)."""
@@ -562,7 +563,7 @@ def _finish(*, name, family, composition, formula, valleys, hole_masses, affinit
     electron_ratio = richardson[0] if richardson[0] is not None else next(
         v.richardson_ratio for v in valleys if v.name == lowest)
     hole_ratio = richardson[1] if richardson[1] is not None else hh + lh
-    unit_dos = float(models.effective_density_of_states_per_m3(t, mass_ratio=1.0))
+    unit_dos = float(effective_density_of_states_per_m3(t, mass_ratio=1.0))
     fields = dict(
         gap_300K_eV=gaps[lowest], direct_300K=lowest == "Gamma", lowest_valley_300K=lowest,
         electron_dos_mass_ratio=(nc / unit_dos) ** (2.0 / 3.0),
@@ -605,7 +606,7 @@ def _build_binary(family, file_name, data):
         where = "density_of_states"
         override = _require(dos, "conduction_300K_per_cm3", file_name, where) * _PER_CM3_TO_PER_M3
         # the given Nv expressed as a hole density-of-states mass, so that Nv(T) = Nv(300 K) (T/300)^1.5
-        unit = float(models.effective_density_of_states_per_m3(REFERENCE_TEMPERATURE_K, mass_ratio=1.0))
+        unit = float(effective_density_of_states_per_m3(REFERENCE_TEMPERATURE_K, mass_ratio=1.0))
         hole_dos = (_require(dos, "valence_300K_per_cm3", file_name, where) * _PER_CM3_TO_PER_M3 / unit) ** (2 / 3)
     rich = data.get("richardson", {})
     mobility = _require(data, "mobility", file_name)

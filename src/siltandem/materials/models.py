@@ -10,15 +10,11 @@ import numpy as np
 
 from siltandem.constants import (
     BOLTZMANN_EV_K,
-    BOLTZMANN_J_K,
-    ELECTRON_MASS_KG,
-    PLANCK_J_S,
 )
 
 __all__ = [
     "varshni_gap_eV",
     "bose_einstein_gap_eV",
-    "effective_density_of_states_per_m3",
     "ellipsoid_dos_mass_ratio",
     "ellipsoid_richardson_mass_ratio",
     "light_heavy_hole_masses",
@@ -91,34 +87,6 @@ def bose_einstein_gap_eV(temperature_K, *, gap_0K_eV, strength_eV, temperature_s
     with np.errstate(divide="ignore", over="ignore"):
         occupation = 1.0 / np.expm1(2.0 * temperature_scale_K / t)
     return gap_0K_eV - 2.0 * strength_eV * occupation
-
-
-def effective_density_of_states_per_m3(temperature_K, *, mass_ratio):
-    """Effective density of states of one parabolic band (or a set folded into one DOS mass).
-
-    Parameters
-    ----------
-    temperature_K : array_like
-        Temperature [K], > 0.
-    mass_ratio : array_like
-        Density-of-states mass over the free-electron mass [-].
-
-    Returns
-    -------
-    ndarray
-        N [m^-3].
-
-    Notes
-    -----
-    N = 2 (2 pi m kT / h^2)^(3/2), so N scales as T^1.5 at fixed mass.
-
-    References
-    ----------
-    S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., Wiley (2007), ch. 1.
-    """
-    t = np.asarray(temperature_K, dtype=float)
-    m = np.asarray(mass_ratio, dtype=float) * ELECTRON_MASS_KG
-    return 2.0 * (2.0 * np.pi * m * BOLTZMANN_J_K * t / PLANCK_J_S**2) ** 1.5
 
 
 def ellipsoid_dos_mass_ratio(*, longitudinal, transverse, valley_count):

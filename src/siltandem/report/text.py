@@ -60,7 +60,6 @@ def text_summary(result):
     lines.append("")
     lines.append(_headline("efficiency", s["efficiency_pct"], ".3f", "%"))
     if len(s["strings"]) == 1:
-        fill = s["fill_factor"]
         lines += [
             _headline("Voc", s["voc_V"], ".4f", "V"),
             _headline("Jsc", s["jsc_mA_cm2"], ".3f", "mA/cm2"),

@@ -45,7 +45,7 @@ subcells' open-circuit voltages >= 0 wherever J <= 0.
 
 **Segments by current.** Just above a subcell's breakdown voltage its current can rise faster
 than t resolves (the trace keeps t a relative 1e-9 above it): the rest of such a curve is
-sampled by current (solve._tail_samples, every element through its inverse). There every
+sampled by current (solve.tail_samples, every element through its inverse). There every
 element's voltage, the pilot's too, is monotone in J, and dP/dJ = V + J S: the same two bounds
 hold with J as the parameter.
 
@@ -550,7 +550,7 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
 
     Parameters
     ----------
-    string : solve._String
+    string : solve.SeriesString
     segments : list of Segment
         Every branch state's exact samples (batch B each), including the reported MPP's own
         point in its segment. Refinement adds samples to them.
@@ -676,3 +676,58 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
     certified = ~failing & finite & active
     bound = np.where(active, bound, np.nan)
     return Certificate(certified, bound, cells), t_mpp, at_mpp, mpp_segment, moved
+
+
+def is_concave(string):
+    """(B,) True where the string's V(J) is concave: only subcells without breakdown, and
+    resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
+    inverse Vj(J) is concave, and Vj - J Rs too; so is the sum. Then P = J V(J) is concave on
+    J >= 0 (P'' = 2 V' + J V'' < 0) and P(t) unimodal (J falls with t): a root of dP/dt where
+    it changes sign is the global maximum."""
+    if any(e.kind not in ("subcell", "resistor") for e in string.elements):
+        return np.zeros(string.size, dtype=bool)
+    concave = np.ones(string.size, dtype=bool)
+    for cell in string.subcells:
+        breakdown = ((cell.breakdown_factor > 0) & np.isfinite(cell.breakdown_V)
+                     & (cell.shunt_S_m2 > 0))
+        concave &= ~np.broadcast_to(breakdown, (string.size, 1))[:, 0]
+    return concave
+
+
+def certify_mpp(string, t, samples, t_mpp, at_mpp, t_voc, zero, turned, active, tail=None):
+    """The certificate of the MPP over one branch state (every junction on its tunnel branch)
+    from the exact samples (t ascending) and the MPP's own evaluation: by concavity where the
+    MPP is a turn of dP/dt on a concave string (is_concave), else by bounding every cell
+    (certificate.certify; the MPP may move to a higher point found there), with the tail's
+    samples by current where there is one (tail_samples). Returns (Certificate, t_mpp,
+    at_mpp)."""
+    size = t_mpp.shape[0]
+    with np.errstate(invalid="ignore", over="ignore"):
+        power = (at_mpp["current"] * at_mpp["voltage"])[:, 0]
+    by_shape = active & turned & is_concave(string) & np.isfinite(power)
+    if tail is not None:
+        by_shape &= ~tail[2]
+    rest = active & ~by_shape
+    certified, bound = by_shape.copy(), np.where(by_shape, power, np.nan)
+    cells = np.zeros(size, dtype=int)
+    if rest.any():
+        segment = segment_of({}, t, samples, string)
+        segment.merge(segment_of({}, t_mpp, at_mpp, string))
+        segments = [segment]
+        if tail is not None:
+            segments.append(Segment.from_evaluation({}, tail[0], tail[1],
+                                                    [e.name for e in string.tunnels],
+                                                    by_current=True))
+        proof, t_mpp, at_mpp, _, _ = certify(
+            string, segments, np.zeros(size, dtype=int), t_mpp, at_mpp,
+            photocurrent=string.pilot_photocurrent, polish=polisher(string, segments),
+            open_circuit=(t_voc, zero), active=rest)
+        certified = np.where(rest, proof.certified, certified)
+        bound = np.where(rest, proof.bound_W_m2, bound)
+        cells = np.where(rest, proof.cells, cells)
+    return Certificate(certified, bound, cells), t_mpp, at_mpp
+
+
+def segment_of(state, t, evaluation, string):
+    """Exact samples of one branch state for the certificate (certificate.Segment)."""
+    return Segment.from_evaluation(state, t, evaluation, [e.name for e in string.tunnels])

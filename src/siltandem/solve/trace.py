@@ -25,6 +25,7 @@ import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
 from siltandem.solve.certificate import Segment, certify, polisher
+from siltandem.solve.tail import tail_samples, tail_short_circuit
 
 SAMPLES_PER_PIECE = 160
 #: at most this many pieces per junction (each junction turns at most a few times)
@@ -293,7 +294,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
 
     # MPP: global maximum of P over every piece's samples, refined inside its piece
     best = (-np.inf, None, None)
-    for index, (_, _, _, ts, e) in enumerate(pieces):
+    for index, (_, _, _, _, e) in enumerate(pieces):
         p = np.where(np.isfinite(e["voltage"]), e["current"] * e["voltage"], -np.inf)[0]
         i = int(np.argmax(p))
         if p[i] > best[0]:
@@ -331,9 +332,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
     last_state, _, _, ts_last, e_last = pieces[-1]
     v_end, j_end = _scalar(e_last["voltage"][:, -1:]), _scalar(e_last["current"][:, -1:])
     if _scalar(ts_last[:, -1:]) <= _scalar(t_lowest) and v_end > 0 and np.isfinite(j_end):
-        from siltandem.solve.series import _tail_samples
-
-        tail = _tail_samples(string, e_last["current"][:, -1:], np.array([True]),
+        tail = tail_samples(string, e_last["current"][:, -1:], np.array([True]),
                              branches=last_state)
         segments.append(Segment.from_evaluation(last_state, tail[0], tail[1], tunnels,
                                                 by_current=True))
@@ -369,9 +368,7 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
             jsc = e0["current"] + e0["dcurrent"] * (t0 - last)
             break
     if tail is not None and not np.all(np.isfinite(jsc)):
-        from siltandem.solve.series import _tail_short_circuit
-
-        jsc = _tail_short_circuit(string, tail, np.array([True]))
+        jsc = tail_short_circuit(string, tail, np.array([True]))
 
     forward_to_reverse_v = np.concatenate([e["voltage"][0] for *_, e in pieces])
     forward_to_reverse_j = np.concatenate([e["current"][0] for *_, e in pieces])

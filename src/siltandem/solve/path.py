@@ -1,0 +1,210 @@
+"""Operating points on the traced path of a string below its tunnel junctions' peaks: Voc, Jsc and the
+MPP as roots on the curve parameterised by the pilot's junction voltage, the MPP certified, and the
+curve's points spaced by arc length.
+"""
+import numpy as np
+
+from siltandem.numerics.roots import bracketed_root, safeguarded_newton
+from siltandem.solve.certificate import certify_mpp
+from siltandem.solve.dense import solve_dense
+from siltandem.solve.string import FORWARD_CURRENT_FRACTION, open_circuit_voltages
+from siltandem.solve.tail import finite_or, tail_samples, tail_short_circuit
+
+
+#: grid points used to bracket the MPP before root finding
+MPP_GRID_POINTS = 48
+
+
+#: pre-sample points per returned point when spacing a curve by arc length
+SPREAD_SAMPLES_PER_POINT = 2
+
+
+def spread_parameter(string, t_start, t_end, points, branches=None, end_currents=None):
+    """Pilot voltages from t_start to t_end (each (B, 1)) spaced evenly along the curve.
+
+    The spacing is uniform in arc length of the terminal curve in (V / V-span, J / J-span): a
+    dense pre-sample (uniform in t and in current) gives the arc length as a function of t, and
+    the returned t are where it takes evenly spaced values. Every returned point is then
+    evaluated exactly by the caller; only their placement comes from the pre-sample. Uniform t
+    alone leaves the knee of a non-limiting cell, or a junction's valley, nearly empty.
+    ``end_currents`` (optional) are the currents at t_start and t_end when the caller has them.
+    """
+    dense = SPREAD_SAMPLES_PER_POINT * points
+    s = np.linspace(0.0, 1.0, dense // 2)[None, :]
+    by_t = t_start + (t_end - t_start) * s
+    if end_currents is None:
+        j_start = string.evaluate(t_start, branches=branches)["current"]
+        j_end = string.evaluate(t_end, branches=branches)["current"]
+    else:
+        j_start, j_end = end_currents
+    inner = np.linspace(0.0, 1.0, dense - dense // 2 + 2)[None, 1:-1]
+    with np.errstate(invalid="ignore"):
+        by_j = string.pilot_voltage_at(j_start + (j_end - j_start) * inner)
+    low, high = np.minimum(t_start, t_end), np.maximum(t_start, t_end)
+    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
+    merged = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    merged = np.where(t_end < t_start, merged[:, ::-1], merged)
+    sample = string.evaluate(merged, branches=branches)
+    v = np.nan_to_num(sample["voltage"], nan=0.0, posinf=0.0, neginf=0.0)
+    j = np.nan_to_num(sample["current"], nan=0.0, posinf=0.0, neginf=0.0)
+    v_span = np.maximum(np.ptp(v, axis=1, keepdims=True), 1e-12)
+    j_span = np.maximum(np.ptp(j, axis=1, keepdims=True), 1e-12)
+    step = np.hypot(np.diff(v, axis=1) / v_span, np.diff(j, axis=1) / j_span)
+    # a little weight on t itself keeps points on stretches where the curve barely moves
+    t_span = np.maximum(np.abs(t_end - t_start), 1e-12)
+    step = step + 0.05 * np.abs(np.diff(merged, axis=1)) / t_span
+    arc = np.concatenate([np.zeros((merged.shape[0], 1)), np.cumsum(step, axis=1)], axis=1)
+    targets = np.linspace(0.0, 1.0, points)[None, :] * arc[:, -1:]
+    out = np.empty((merged.shape[0], points))
+    for row in range(merged.shape[0]):
+        out[row] = np.interp(targets[row], arc[row], merged[row])
+    return out
+
+
+def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
+    """Vectorized solve along the pilot voltage with every tunnel junction on its tunnel branch.
+
+    Also tells, per design, whether the trace reaches a junction's peak current (then the design
+    is traced again piece by piece).
+    """
+    jph = string.pilot_photocurrent
+    # the pilot voltages at zero current, at the forward end and, with tunnel junctions, at the
+    # smallest peak current (every junction on its tunnel branch: the trace must stay below
+    # it, i.e. above the pilot voltage t_peak that carries it), in one inverse
+    targets = [np.zeros_like(jph), FORWARD_CURRENT_FRACTION * jph]
+    if string.tunnels:
+        smallest_peak = np.min(np.concatenate(
+            [t.peak(temperature_K)[1] for t in string.tunnels], axis=1),
+            axis=1, keepdims=True)
+        targets.append(np.broadcast_to(smallest_peak * (1 - 1e-9), jph.shape))
+    with np.errstate(invalid="ignore"):
+        inverted = string.pilot_voltage_at(np.concatenate(targets, axis=1))
+    t_zero, t_forward = inverted[:, :1], inverted[:, 1:2]
+    t_voc = string.open_circuit_pilot_voltage(t_zero)
+    t_lowest = string.lowest_pilot_voltage()
+    t_low = t_lowest
+    if string.tunnels:
+        t_peak = inverted[:, 2:3]
+        t_low = np.where(np.isfinite(t_peak) & (t_peak > t_lowest), t_peak, t_lowest)
+    # an isotype interface driven forward carries at most its flat-band current: the law has no
+    # voltage beyond it, so the trace stops there (reported, never invented)
+    capped = np.zeros(jph.shape[0], dtype=bool)
+    capped_first = np.zeros(jph.shape[0], dtype=bool)
+    caps = [np.broadcast_to(e.current_cap(temperature_K), jph.shape) for e in string.elements
+            if e.kind == "isotype"]
+    if caps:
+        cap = np.min(np.concatenate(caps, axis=1), axis=1, keepdims=True)
+        with np.errstate(invalid="ignore"):
+            t_cap = string.pilot_voltage_at(cap * (1 - 1e-9))
+        limited = np.isfinite(t_cap) & (t_cap > t_low)
+        t_low = np.where(limited, t_cap, t_low)
+        capped_first = limited[:, 0]
+
+    if curve_points:
+        return solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
+                            t_zero=t_zero, t_forward=t_forward, t_lowest=t_lowest, t_low=t_low,
+                            limited=limited if caps else None)
+
+    at_voc = string.evaluate(t_voc)
+    voc = at_voc["voltage"]
+    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
+    low = string.evaluate(t_low)
+    v_low = finite_or(low["voltage"], -1e3)
+    reaches_peak = np.zeros(jph.shape[0], dtype=bool)
+    if string.tunnels:
+        # (where an isotype interface's flat-band current ends the curve first, no junction
+        # reaches its peak)
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
+
+    # Jsc (V = 0) and, for a curve, its reverse end (V = v_floor) together: V rises strictly
+    # with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
+    # guess: the terminal voltage follows t one to one (the pilot takes up the change).
+    levels = np.concatenate([np.zeros_like(voc), v_floor], axis=1) if curve_points else \
+        np.zeros_like(voc)
+
+    def shifted(t):
+        e = string.evaluate(t, slopes=True)
+        finite = np.isfinite(e["voltage"]) & np.isfinite(e["dvoltage"])
+        return (np.where(finite, e["voltage"] - levels, -1e3),
+                np.where(finite, e["dvoltage"], 1.0))
+
+    roots = safeguarded_newton(shifted, np.broadcast_to(t_low, levels.shape),
+                               np.broadcast_to(t_voc, levels.shape), start=t_voc - (voc - levels),
+                               end_values=(v_low - levels, finite_or(voc, -1e3) - levels))
+    t_sc = roots[:, :1]
+    if caps:
+        # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
+        capped = (limited & (v_low > 0))[:, 0]
+        t_sc = np.where(capped[:, None], t_low, t_sc)
+    # where V is still positive at the pilot's lowest voltage (just above its breakdown), the
+    # curve goes on at currents that t no longer resolves: the tail, sampled by current;
+    # Jsc lies there
+    tail_rows = ((t_low <= t_lowest) & (v_low > 0) & np.isfinite(low["current"]))[:, 0] & \
+        ~capped
+    tail = None
+    if tail_rows.any():
+        tail = tail_samples(string, low["current"], tail_rows)
+        t_sc = np.where(tail_rows[:, None], t_low, t_sc)
+    if curve_points:
+        t_floor = roots[:, 1:2]
+        t_floor = np.where(np.isfinite(t_floor), t_floor,
+                           np.where(np.isfinite(t_sc), t_sc, t_low))
+
+    # MPP: best of a coarse grid in t from short to open circuit, then dP/dt = 0 inside the
+    # grid cells around it (the grid's exact slopes are the bracket's end values)
+    s = np.linspace(0.0, 1.0, MPP_GRID_POINTS)[None, :]
+    grid_t = t_sc + (t_voc - t_sc) * s
+    grid = string.evaluate(grid_t, slopes=True)
+    jsc = grid["current"][:, :1]
+    if caps:
+        jsc = np.where(capped[:, None], np.nan, jsc)
+    if tail is not None:
+        jsc = np.where(tail_rows[:, None], tail_short_circuit(string, tail, tail_rows), jsc)
+    power = finite_or(grid["current"] * grid["voltage"], -np.inf)
+    # no value only where the current is beyond what an element can carry, at the reverse
+    # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
+    # there would be a false root)
+    grid_slope = finite_or(grid["dcurrent"] * grid["voltage"]
+                            + grid["current"] * grid["dvoltage"], 1e300)
+    best = np.argmax(power, axis=1)[:, None]
+    low_index = np.clip(best - 1, 0, MPP_GRID_POINTS - 1)
+    high_index = np.clip(best + 1, 0, MPP_GRID_POINTS - 1)
+    lo = np.take_along_axis(grid_t, low_index, axis=1)
+    hi = np.take_along_axis(grid_t, high_index, axis=1)
+
+    def power_slope(t):
+        e = string.evaluate(t, slopes=True)
+        return finite_or(e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"], 1e300)
+
+    t_mpp = bracketed_root(power_slope, lo, hi,
+                           end_values=(np.take_along_axis(grid_slope, low_index, axis=1),
+                                       np.take_along_axis(grid_slope, high_index, axis=1)))
+    interior = np.isfinite(t_mpp)
+    t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
+    at_mpp = string.evaluate(t_mpp, slopes=True)
+    lost = ~np.isfinite(at_mpp["current"] * at_mpp["voltage"])
+    if np.any(lost):
+        t_mpp = np.where(lost, np.take_along_axis(grid_t, best, axis=1), t_mpp)
+        at_mpp = string.evaluate(t_mpp, slopes=True)
+    # the certificate (certificate.py): between t_sc and t_voc lies every point of positive
+    # power (V rises with t)
+    proof, t_mpp, at_mpp = certify_mpp(string, grid_t, grid, t_mpp, at_mpp, t_voc,
+                                      open_circuit_voltages(string, at_voc), interior[:, 0],
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
+    j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
+
+    curve = None
+    if curve_points:
+        curve_t = spread_parameter(string, t_floor, t_forward, curve_points)
+        traced = string.evaluate(curve_t)
+        curve = {"current_A_m2": traced["current"].copy(), "voltage_V": traced["voltage"].copy()}
+        for element, v_i in zip(string.elements, traced["voltages"]):
+            curve[element.name] = np.array(v_i, dtype=float)
+    return dict(voc=voc.copy(), jsc=jsc.copy(), v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
+                p_mpp=(j_mpp * v_mpp).copy(),
+                voltages_mpp=[np.array(np.broadcast_to(v, j_mpp.shape), dtype=float)
+                              for v in at_mpp["voltages"]],
+                voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
+                              for v in at_voc["voltages"]],
+                curve=curve, reaches_peak=reaches_peak, capped=capped, certificate=proof,
+                t_voc=t_voc)
