@@ -9,7 +9,6 @@ Each element offers, for the series solver:
 * ``voltage(current_A_m2, temperature_K)`` -> (V, dV/dJ): its voltage in the stack's current
   direction (generated current positive, so a subcell's voltage is positive in the power quadrant
   and a resistor's is -J R);
-* ``current_limit(temperature_K)`` -> the largest current it can carry (inf if unbounded);
 * ``current(voltage_V, temperature_K)`` -> (J, dJ/dV), the forward law, used to check power balance.
 
 Subcells can also lead the trace as the solver's *pilot*: ``pilot_current(v_junction_V, T)``
@@ -240,11 +239,6 @@ class Subcell:
                                                 kernels.XTOL, kernels.RTOL,
                                                 kernels.MAX_ITERATIONS)
 
-    def current_limit(self, temperature_K):
-        """Largest current the subcell can carry [A/m^2]: unbounded with a shunt, else Jph + J0."""
-        saturation = self.j01_A_m2(temperature_K) + self.j02_A_m2
-        return np.where(self.shunt_S_m2 > 0, np.inf, self.photocurrent_A_m2 + saturation)
-
     def junction_current(self, v_junction_V, temperature_K):
         """J [A/m^2] and dJ/dVj at junction voltages [V] (arrays (B, N) or (N,)): the law of
         laws/diode.py, compiled (kernels.py)."""
@@ -309,9 +303,6 @@ class Resistor:
             current = np.where(self.series_ohm_m2 > 0, -voltage / self.series_ohm_m2, 0.0)
             slope = np.where(self.series_ohm_m2 > 0, -1.0 / self.series_ohm_m2, -np.inf)
         return current, np.broadcast_to(slope, voltage.shape)
-
-    def current_limit(self, temperature_K):
-        return np.full_like(self.series_ohm_m2, np.inf)
 
 
 #: branches of a tunnel junction's characteristic, in order of increasing junction voltage
@@ -566,10 +557,6 @@ class TunnelJunction:
         j, slope = self.junction_current(-np.asarray(voltage_V, dtype=float), temperature_K)
         return j, -slope
 
-    def current_limit(self, temperature_K):
-        return np.full_like(self.peak_A_m2, np.inf)
-
-
 
 @dataclass(frozen=True)
 class IsotypeInterface:
@@ -654,9 +641,6 @@ class IsotypeInterface:
             thermal_voltage_V(temperature_K)
         j, _ = self.law_current(edge, temperature_K)
         return np.where(self.direction > 0, j, np.inf)
-
-    def current_limit(self, temperature_K):
-        return self.current_cap(temperature_K)
 
     def voltage_slope_range(self, v_a, v_b, j_a, j_b, temperature_K, branch=None):
         """Smallest and largest dV/dJ = -1/(dJ_law/dV_law) between two operating points

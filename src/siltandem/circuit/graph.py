@@ -103,20 +103,3 @@ def check_circuit(circuit):
     if sorted(on_paths) != sorted(elements):
         raise ValueError("some elements are on no string or on several")
     return True
-
-
-def draw_circuit(circuit, ax=None):
-    """Draw the graph, strings as columns, current flowing down. Returns the axes."""
-    import matplotlib.pyplot as plt
-
-    if ax is None:
-        _, ax = plt.subplots(figsize=(3 + 2 * circuit.conditions.strings, 6))
-    positions = {}
-    for number in range(1, circuit.conditions.strings + 1):
-        path = nx.shortest_path(circuit.graph, front(number), back(number))
-        for depth, node in enumerate(path):
-            positions[node] = (number, -depth)
-    nx.draw_networkx(circuit.graph, positions, ax=ax, node_color="#dde6f0", node_size=1600,
-                     font_size=8)
-    ax.set_axis_off()
-    return ax
