@@ -289,6 +289,51 @@ def _bracketed_step(x, g, dg, xl, xh, previous):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
+def _locate_cell(gj, m, sign, ys, hint):
+    """(lo, hi): the table cell whose values sign * gj bracket ``ys`` (rising in the index).
+    From ``hint`` (a cell to try first) it hunts outwards in growing steps, as targets along a
+    curve come in order, then bisects what is left (Numerical Recipes, sec. 3.1)."""
+    lo, hi = 0, m - 1
+    if hint >= 0 and hint < m - 1:
+        if sign * gj[hint] <= ys:
+            lo, step = hint, 1
+            while lo + step < m - 1 and sign * gj[lo + step] <= ys:
+                lo += step
+                step += step
+            hi = min(lo + step, m - 1)
+        else:
+            hi, step = hint, 1
+            while hi - step > 0 and sign * gj[hi - step] > ys:
+                hi -= step
+                step += step
+            lo = max(hi - step, 0)
+    while hi - lo > 1:
+        mid = (lo + hi) >> 1
+        if sign * gj[mid] <= ys:
+            lo = mid
+        else:
+            hi = mid
+    return lo, hi
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _first_guess(y, lo, hi, m, gu, gj, gs, fold_low, fold_high):
+    """The first u for J = y in the cell [lo, hi]: the quadratic fold's inverse in an end cell
+    at a fold, else the cubic Hermite inverse (:func:`_hermite_inverse`); the cell's middle if
+    that leaves the cell."""
+    xl, xh = gu[lo], gu[hi]
+    if lo == 0 and fold_low > 0.0:
+        x = xl + math.sqrt(2.0 * abs(y - gj[lo]) / fold_low)
+    elif hi == m - 1 and fold_high > 0.0:
+        x = xh - math.sqrt(2.0 * abs(gj[hi] - y) / fold_high)
+    else:
+        x = _hermite_inverse(y, xl, xh, gj[lo], gj[hi], gs[lo], gs[hi])
+    if not (x >= xl and x <= xh):
+        x = 0.5 * (xl + xh)
+    return x
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol,
                 max_iterations, hint):
     """(u, dJ/du, inside, cell) for one target y in one law's table (see
@@ -307,38 +352,9 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
             ys, y = last, gj[m - 1]
         else:
             return math.nan, math.nan, False, hint
-    lo, hi = 0, m - 1
-    if hint >= 0 and hint < m - 1:
-        # hunt from the hint outwards in growing steps (targets along a curve come in order),
-        # then bisect what is left (Numerical Recipes, sec. 3.1)
-        if sign * gj[hint] <= ys:
-            lo, step = hint, 1
-            while lo + step < m - 1 and sign * gj[lo + step] <= ys:
-                lo += step
-                step += step
-            hi = min(lo + step, m - 1)
-        else:
-            hi, step = hint, 1
-            while hi - step > 0 and sign * gj[hi - step] > ys:
-                hi -= step
-                step += step
-            lo = max(hi - step, 0)
-    while hi - lo > 1:                              # binary search for the bracketing cell
-        mid = (lo + hi) >> 1
-        if sign * gj[mid] <= ys:
-            lo = mid
-        else:
-            hi = mid
+    lo, hi = _locate_cell(gj, m, sign, ys, hint)
     xl, xh = gu[lo], gu[hi]
-    jl, jh = gj[lo], gj[hi]
-    if lo == 0 and fold_low > 0.0:
-        x = xl + math.sqrt(2.0 * abs(y - jl) / fold_low)
-    elif hi == m - 1 and fold_high > 0.0:
-        x = xh - math.sqrt(2.0 * abs(jh - y) / fold_high)
-    else:
-        x = _hermite_inverse(y, xl, xh, jl, jh, gs[lo], gs[hi])
-    if not (x >= xl and x <= xh):
-        x = 0.5 * (xl + xh)
+    x = _first_guess(y, lo, hi, m, gu, gj, gs, fold_low, fold_high)
     ftol = 2.0 * _EPS * abs(y)
     # one law evaluation per pass of this loop (a single call site keeps the compiled code
     # small): stage 0 at the first guess, stage 1 at its Newton point, stage 2 the general
