@@ -213,7 +213,7 @@ def _concentration(args, stack, suns):
         write_atomic(args.table, csv_safe(series).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.table}", file=notices)
     if args.json:
-        from siltandem.result.driver import json_text
+        from siltandem.result.record import json_text
 
         text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
         if to_stdout_json:

@@ -4,8 +4,7 @@
 A Result is frozen: ``.summary`` (the JSON contract, trade units), ``.iv`` (the light I-V as a
 DataFrame), ``.losses`` (per-element table) and ``to_dataframe()`` (one row of headline numbers).
 """
-from dataclasses import dataclass, replace
-import json
+from dataclasses import replace
 import math
 
 import numpy as np
@@ -15,6 +14,7 @@ from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
+from siltandem.result.record import Result, curve_table, first_value
 
 SIGN_CONVENTION = ("generated current positive: the power quadrant is current > 0 and "
                    "voltage > 0; an element's voltage is taken in the stack current's direction")
@@ -22,116 +22,6 @@ CAUTION = ("Results are models, not measurements. Concentrated light, high curre
            "voltages are electrical and optical hazards: follow local codes and licensed practice.")
 #: relative power-balance error above which a result carries a warning
 POWER_BALANCE_TOLERANCE = 1e-9
-
-
-@dataclass(frozen=True)
-class Result:
-    """The answer for one stack under one set of conditions.
-
-    Attributes
-    ----------
-    summary : dict
-        The JSON contract (see README, "Outputs"); trade units, names carry them.
-    iv : pandas.DataFrame
-        Light I-V: ``voltage_V``, ``current_mA_cm2``, one ``<element>_V`` column per element
-        (and ``string`` for stacks of several strings).
-    circuit : Circuit
-        The illuminated circuit that was solved (for plots and further study).
-    solutions : list of StringSolution
-    """
-
-    summary: dict
-    iv: object
-    circuit: object
-    solutions: list
-
-    @property
-    def losses(self):
-        """Per-element voltage, power and loss at the MPP (DataFrame)."""
-        import pandas as pd
-
-        return pd.DataFrame(self.summary["elements"])
-
-    def to_dataframe(self):
-        """One row: the headline numbers with their units in the column names."""
-        import pandas as pd
-
-        keys = ["stack", "efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V",
-                "mpp_mA_cm2", "power_balance_error_W_m2"]
-        row = {k: self.summary[k] for k in keys}
-        row.update({f"conditions.{k}": v for k, v in self.summary["conditions"].items()})
-        for cell in self.summary["subcells"]:
-            row[f"{cell['name']}.photocurrent_mA_cm2"] = cell["photocurrent_mA_cm2"]
-        return pd.DataFrame([row])
-
-    def sweep(self, direction, points=400):
-        """What a terminal-voltage sweep measures (``direction`` "up" or "down"), as a DataFrame.
-
-        Columns as :attr:`iv`; element voltages are interpolated between traced points. Where a
-        tunnel junction makes the curve S-shaped the sweep jumps, differently up and down.
-        """
-        import pandas as pd
-
-        from siltandem.solve.trace import voltage_sweep
-
-        frames = []
-        for number, solution in enumerate(self.solutions, start=1):
-            curve = solution.curve
-            v, j = curve["voltage_V"][0], curve["current_A_m2"][0]
-            keep = np.isfinite(v) & np.isfinite(j)
-            target, current, segment, weight = voltage_sweep(v, j, direction=direction,
-                                                             points=points)
-            data = {"voltage_V": target, "current_mA_cm2": units.ma_cm2(current)}
-            ok = segment >= 0
-            for name in self.circuit.optical_order:
-                column = np.full(points, np.nan)
-                if name in curve:
-                    values = curve[name][0][keep]
-                    column[ok] = (values[segment[ok]] * (1 - weight[ok])
-                                  + values[segment[ok] + 1] * weight[ok])
-                data[f"{name}_V"] = column
-            if len(self.solutions) > 1:
-                data["string"] = number
-            frames.append(pd.DataFrame(data))
-        return pd.concat(frames, ignore_index=True)
-
-    def to_json(self, indent=2):
-        return json_text(self.summary, indent)
-
-    def with_summary(self, **changes):
-        return replace(self, summary={**self.summary, **changes})
-
-
-def _clean(value):
-    """JSON-safe copy: numpy scalars and arrays to Python, non-finite floats (and pandas' missing
-    values) to None, keys to text; anything else JSON cannot hold to its text."""
-    if isinstance(value, dict):
-        return {str(k): _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple, np.ndarray)):
-        return [_clean(v) for v in value]
-    if isinstance(value, (bool, np.bool_)):
-        return bool(value)
-    if isinstance(value, (np.floating, float)):
-        value = float(value)
-        return value if math.isfinite(value) else None
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if value is None or isinstance(value, str):
-        return value
-    try:
-        import pandas as pd
-
-        if pd.isna(value):
-            return None
-    except (TypeError, ValueError):
-        pass
-    return str(value)
-
-
-def json_text(value, indent=2):
-    """Strict JSON of ``value`` (``null`` where a number has no value, never ``NaN``), one
-    trailing newline: what every JSON output of the command line writes."""
-    return json.dumps(_clean(value), indent=indent, allow_nan=False) + "\n"
 
 
 #: headline numbers of a string, their words for warnings, and why one can be missing
@@ -180,10 +70,6 @@ def _missing_value_warnings(summary):
                                                             if len(gaps) > 6 else "")
                    + " (none in the text, null in JSON): the solve found no such point")
     return out
-
-
-def _first(array):
-    return float(np.asarray(array, dtype=float).reshape(-1)[0])
 
 
 def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
@@ -237,12 +123,12 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     without = {}
     for string, solution in zip(circuit.strings, solutions):
         for name, power in removal_powers(string, temperature).items():
-            without[name] = power - _first(solution.mpp_W_m2)
+            without[name] = power - first_value(solution.mpp_W_m2)
     summary = _summarise(stack, conditions, light, circuit, solutions, alone, without)
     if placement_note:
         summary["warnings"].insert(0, placement_note)
     summary["warnings"].extend(_missing_value_warnings(summary))
-    return Result(summary, _curve_table(circuit, solutions), circuit, solutions)
+    return Result(summary, curve_table(circuit, solutions), circuit, solutions)
 
 
 #: an isotype interface dropping more than this at the MPP is flagged as blocking [V]
@@ -262,20 +148,20 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
         subcells = [e for e in string if e.kind == "subcell"]
         pilot = subcells[int(solution.pilot_index[0])]
         limiting.add(pilot.name)
-        power = _first(solution.mpp_W_m2)
+        power = first_value(solution.mpp_W_m2)
         total_power += power
-        balance += _first(solution.power_balance_error_W_m2)
+        balance += first_value(solution.power_balance_error_W_m2)
         if solution.failed[0]:
             # what is missing, in words; Voc is the point of zero current, where only the
             # subcells have a voltage, so it stays (solve.py)
             missing = [label for label, value in (
                 ("Voc", solution.voc_V), ("Jsc", solution.jsc_A_m2),
                 ("the MPP", solution.mpp_W_m2), ("the fill factor", solution.fill_factor))
-                if not np.isfinite(_first(value))]
+                if not np.isfinite(first_value(value))]
             listed = " and ".join(filter(None, [", ".join(missing[:-1]), missing[-1]])) \
                 if missing else "its numbers"
             note = ("; Voc is the point of zero current, where only the subcells have a "
-                    "voltage" if np.isfinite(_first(solution.voc_V)) else "")
+                    "voltage" if np.isfinite(first_value(solution.voc_V)) else "")
             warnings_.append(f"string {number}: no operating point found for {listed} "
                              f"(null){note}")
         certificate = _certificate(solution)
@@ -285,12 +171,12 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                              f"flat-band current ({names}): the law has no voltage beyond it, so "
                              "the curve stops above zero volts and there is no Jsc (null); the "
                              "MPP sits at the cap and is an upper bound of this model")
-        j_mpp = _first(solution.mpp_A_m2)
+        j_mpp = first_value(solution.mpp_A_m2)
         string_rows.append({
             "string": number, "elements": [e.name for e in string],
-            "efficiency_pct": 100 * power / irradiance, "voc_V": _first(solution.voc_V),
-            "jsc_mA_cm2": units.ma_cm2(_first(solution.jsc_A_m2)),
-            "fill_factor": _first(solution.fill_factor), "mpp_V": _first(solution.mpp_V),
+            "efficiency_pct": 100 * power / irradiance, "voc_V": first_value(solution.voc_V),
+            "jsc_mA_cm2": units.ma_cm2(first_value(solution.jsc_A_m2)),
+            "fill_factor": first_value(solution.fill_factor), "mpp_V": first_value(solution.mpp_V),
             "mpp_mA_cm2": units.ma_cm2(j_mpp), "mpp_W_m2": power,
             "limiting_subcell": pilot.name, "regime": str(solution.regime[0]),
             "mpp_certificate": certificate})
@@ -298,17 +184,17 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
             warnings_.append(f"string {number}: a tunnel junction is driven past its peak on the "
                              f"traced curve ({solution.regime[0]}); see `--sweep up|down` for "
                              "what a voltage sweep measures")
-        jph_max = max(_first(c.photocurrent_A_m2) for c in subcells)
+        jph_max = max(first_value(c.photocurrent_A_m2) for c in subcells)
         for element in string:
             if element.kind != "tunnel":
                 continue
             ext = element.extrema(conditions.temperature_K)
-            peak = _first(ext.peak_A_m2)
+            peak = first_value(ext.peak_A_m2)
             tunnel_rows.append({
                 "name": element.name, "string": number,
-                "peak_mA_cm2": units.ma_cm2(peak), "peak_V": _first(ext.peak_V),
-                "valley_mA_cm2": units.ma_cm2(_first(ext.valley_A_m2)),
-                "valley_V": _first(ext.valley_V),
+                "peak_mA_cm2": units.ma_cm2(peak), "peak_V": first_value(ext.peak_V),
+                "valley_mA_cm2": units.ma_cm2(first_value(ext.valley_A_m2)),
+                "valley_V": first_value(ext.valley_V),
                 "peak_over_largest_photocurrent": peak / jph_max if jph_max > 0 else math.nan,
                 "branch_at_mpp": solution.tunnel_branch_at_mpp[element.name][0]})
             if peak < jph_max:
@@ -318,7 +204,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                                  "common practice: the peak must exceed Jsc times the "
                                  "concentration)")
         for element in string:
-            v = _first(solution.voltage_at_mpp_V[element.name])
+            v = first_value(solution.voltage_at_mpp_V[element.name])
             delivered = v * j_mpp
             extra = {}
             if element.kind == "tunnel":
@@ -328,7 +214,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                     warnings_.append(f"tunnel junction {element.name!r} operates past its peak at "
                                      f"the MPP ({branch} branch of its characteristic)")
             if element.kind == "subcell":
-                loss = _first(alone[element.name].mpp_W_m2) - delivered
+                loss = first_value(alone[element.name].mpp_W_m2) - delivered
                 if v < 0:
                     warnings_.append(f"subcell {element.name!r} is reverse biased at the MPP "
                                      f"({v:.3f} V): it dissipates power")
@@ -338,10 +224,10 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
             if element.kind == "isotype":
                 interface_rows.append({
                     "name": element.name, "string": number, "carrier": element.carrier,
-                    "barrier_eV": _first(element.barrier_eV),
-                    "built_in_V": _first(element.built_in_V), "alpha": _first(element.alpha),
-                    "offset_eV": _first(element.offset_eV),
-                    "bias": "forward" if _first(element.direction) > 0 else "reverse",
+                    "barrier_eV": first_value(element.barrier_eV),
+                    "built_in_V": first_value(element.built_in_V), "alpha": first_value(element.alpha),
+                    "offset_eV": first_value(element.offset_eV),
+                    "bias": "forward" if first_value(element.direction) > 0 else "reverse",
                     "drop_at_mpp_V": -v, "loss_W_m2": loss,
                     "efficiency_penalty_pct_abs": extra["efficiency_penalty_pct_abs"],
                     "blocking": bool(-v > BLOCKING_DROP_V or extra["efficiency_penalty_pct_abs"]
@@ -360,7 +246,7 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
             element_rows.append({
                 "name": element.name, "kind": element.kind, "string": number,
                 "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
-                    _first(solution.voltage_at_zero_current_V[element.name]),
+                    first_value(solution.voltage_at_zero_current_V[element.name]),
                 "power_W_m2": delivered, "loss_W_m2": loss,
                 "loss_pct_abs": 100 * loss / irradiance, **extra})
     if not np.isfinite(balance):
@@ -371,15 +257,15 @@ def _summarise(stack, conditions, light, circuit, solutions, alone, without):
                          f"{POWER_BALANCE_TOLERANCE:g} of the output power")
     subcell_rows = []
     for cell in circuit.subcells:
-        jph = _first(cell.photocurrent_A_m2)
+        jph = first_value(cell.photocurrent_A_m2)
         own = alone[cell.name]
         subcell_rows.append({
-            "name": cell.name, "string": cell.string, "gap_eV": _first(cell.gap_eV),
+            "name": cell.name, "string": cell.string, "gap_eV": first_value(cell.gap_eV),
             "photocurrent_mA_cm2": units.ma_cm2(jph),
-            "absorbed_mA_cm2": units.ma_cm2(_first(circuit.optics["absorbed_A_m2"][cell.name])),
-            "j01_mA_cm2": units.ma_cm2(_first(cell.j01_A_m2(conditions.temperature_K))),
-            "voc_alone_V": _first(own.voc_V),
-            "efficiency_alone_pct": 100 * _first(own.mpp_W_m2) / irradiance,
+            "absorbed_mA_cm2": units.ma_cm2(first_value(circuit.optics["absorbed_A_m2"][cell.name])),
+            "j01_mA_cm2": units.ma_cm2(first_value(cell.j01_A_m2(conditions.temperature_K))),
+            "voc_alone_V": first_value(own.voc_V),
+            "efficiency_alone_pct": 100 * first_value(own.mpp_W_m2) / irradiance,
             "limiting": cell.name in limiting})
         collected = circuit.optics.get("collected_A_m2", {}).get(cell.name)
         if collected:
@@ -449,7 +335,7 @@ def _certificate(solution):
     cells = int(solution.mpp_cells_checked[0]) if solution.mpp_cells_checked is not None else 0
     return {"certified": certified,
             "proof": ("cell bounds" if cells else "concavity") if certified else None,
-            "upper_bound_W_m2": (_first(solution.mpp_bound_W_m2)
+            "upper_bound_W_m2": (first_value(solution.mpp_bound_W_m2)
                                  if solution.mpp_bound_W_m2 is not None else math.nan),
             "cells_checked": cells}
 
@@ -457,28 +343,11 @@ def _certificate(solution):
 def _photons(circuit):
     optics = circuit.optics
     photons = {"incident_mA_cm2": units.ma_cm2(optics["incident_A_m2"]),
-               "transmitted_mA_cm2": units.ma_cm2(_first(optics["transmitted_A_m2"]))}
+               "transmitted_mA_cm2": units.ma_cm2(first_value(optics["transmitted_A_m2"]))}
     if "reflected_A_m2" in optics:
         photons["reflected_mA_cm2"] = units.ma_cm2(optics["reflected_A_m2"])
         photons["budget_error_relative"] = optics["budget_error_relative"]
     return photons
-
-
-def _curve_table(circuit, solutions):
-    import pandas as pd
-
-    frames = []
-    names = list(circuit.optical_order)
-    for number, solution in enumerate(solutions, start=1):
-        curve = solution.curve
-        data = {"voltage_V": curve["voltage_V"][0],
-                "current_mA_cm2": units.ma_cm2(curve["current_A_m2"][0])}
-        for name in names:
-            data[f"{name}_V"] = curve[name][0] if name in curve else np.nan
-        if len(solutions) > 1:
-            data["string"] = number
-        frames.append(pd.DataFrame(data))
-    return pd.concat(frames, ignore_index=True)
 
 
 def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=None):
@@ -524,7 +393,7 @@ def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=Non
                                         if e.kind == "subcell"], axis=1).max(axis=1)
         for element in string:
             if element.kind == "tunnel":
-                peak = _first(element.extrema(temperature).peak_A_m2)
+                peak = first_value(element.extrema(temperature).peak_A_m2)
                 table[f"{element.name}.peak_exceeded"] = photocurrents > peak
                 table[f"{element.name}.branch_at_mpp"] = solution.tunnel_branch_at_mpp[
                     element.name]
