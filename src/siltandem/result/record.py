@@ -1,5 +1,10 @@
 """The record of one solved stack: the frozen :class:`Result` and the helpers that turn the solver's
-arrays into its numbers and its numbers into strict JSON."""
+arrays into its numbers and its numbers into strict JSON.
+
+A Result holds ``.summary`` (the JSON contract, trade units; rules in ``summary.py``), ``.iv`` (the
+light I-V as a DataFrame), ``.losses`` (per-element table) and ``to_dataframe()`` (one row of
+headline numbers).
+"""
 from dataclasses import dataclass, replace
 import json
 import math
