@@ -200,7 +200,7 @@ def _parse_range(text):
 def _concentration(args, stack, suns):
     from siltandem.files import save_figure_atomic, write_atomic
     from siltandem.report.text import concentration_summary
-    from siltandem.result.driver import concentration_series
+    from siltandem.studies.concentration import concentration_series
     from siltandem.text import csv_safe
 
     series = concentration_series(stack, suns, spectrum=args.spectrum,
