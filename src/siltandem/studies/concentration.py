@@ -1,4 +1,5 @@
-"""Efficiency against concentration: one batched solve per string, photocurrents scaled with the suns."""
+"""Efficiency against concentration: one batched solve per string, the photocurrents scaled with
+the concentration (the ``--suns-range`` of ``siltandem run``)."""
 from dataclasses import replace
 
 import numpy as np
