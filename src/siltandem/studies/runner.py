@@ -26,6 +26,8 @@ Output folder layout (``output=``)::
   package (:func:`code_digest`, computed once per process), with the versions of the numerical
   libraries it rests on, so changed physics never resumes from chunks the old code wrote.
 
+(``fingerprint.py`` computes the key: :func:`sweep_key`, :func:`code_digest`.)
+
 A different key never mixes with chunks on disk: those chunks are ignored (and left in place, so
 going back to the old inputs resumes them). When the folder holds only results of other keys,
 the run starts afresh and says so once on stderr; a ``results.parquet`` of another key is removed
@@ -42,29 +44,25 @@ import concurrent.futures
 from concurrent.futures.process import BrokenProcessPool
 import contextlib
 import functools
-import hashlib
-import inspect
 import json
 import math
 import multiprocessing
 import multiprocessing.connection
 import os
 from pathlib import Path
-import pickle
 import re
 import secrets
 import signal
 import sys
 import threading
 import time
-import types
 import warnings
 
 import numpy as np
 import pandas as pd
 
 from siltandem.errors import StackError
-from siltandem.files import file_digest
+from siltandem.studies.fingerprint import sweep_key
 
 #: Upper bound of the default chunk size, to bound a chunk's working memory. Studies whose
 #: per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
@@ -78,7 +76,6 @@ MAX_ATTEMPTS = 3
 PROGRESS_DELAY_S = 2.0
 
 RESULTS_NAME = "results.parquet"
-_FORMAT = b"siltandem.parallel chunks v2"
 _CHUNK_NAME = re.compile(r"^chunk-(?P<key>[0-9a-f]{16})-(?P<rows>\d+)rows-(?P<id>\d{6})\.parquet$")
 _TEMPORARY_NAME = re.compile(r"^\.(?P<target>.+)\.(?P<pid>\d+)\.[0-9a-f]+\.tmp$")
 _EXTRA = 'pip install -e ".[parallel]"'
@@ -307,127 +304,6 @@ def _require(module):
     except ImportError as error:
         raise StackError(f"{module} is not installed ({error})", where="optional extra parallel",
                          fix=_EXTRA) from None
-
-
-# ----------------------------------------------------------------------------------------------
-# fingerprints
-
-def sweep_key(table, function, *, inputs=()):
-    """16-hex fingerprint of a canonical table, a study function, the content of its input
-    files and the code (see the module notes)."""
-    digest = hashlib.sha256(_FORMAT + code_digest().encode())
-    digest.update(json.dumps([[str(c) for c in table.columns],
-                              [str(t) for t in table.dtypes], len(table)]).encode())
-    digest.update(pd.util.hash_pandas_object(table, index=False).to_numpy().tobytes())
-    _feed_callable(digest, function)
-    for path in sorted({str(Path(p)) for p in inputs}):
-        digest.update(b"\0input\0" + path.encode() + b"\0" + file_digest(path).encode())
-    return digest.hexdigest()[:16]
-
-
-#: the libraries whose numbers a result rests on: their versions are part of the code digest
-_LIBRARIES = ("numpy", "scipy", "pandas", "pvlib", "numba")
-#: package files that make up the code and its data
-_CODE_SUFFIXES = (".py", ".toml", ".csv")
-
-
-@functools.lru_cache(maxsize=1)
-def code_digest():
-    """Hex digest of the code that computes a result, once per process (a few milliseconds).
-
-    It covers siltandem's version, the bytes of every ``.py``, ``.toml`` and ``.csv`` file of the
-    installed package (solver, laws, materials library, named spectra), each with its path inside
-    the package, and the versions of numpy, scipy, pandas, pvlib and numba. Any edit of the
-    package's code or data changes it.
-    """
-    from importlib import metadata
-
-    from siltandem.version import __version__
-
-    digest = hashlib.sha256(b"siltandem " + __version__.encode())
-    digest.update(_tree_digest(package_folder()).encode())
-    for name in _LIBRARIES:
-        try:
-            version = metadata.version(name)
-        except metadata.PackageNotFoundError:
-            version = "absent"
-        digest.update(f"\0{name} {version}".encode())
-    return digest.hexdigest()
-
-
-def package_folder():
-    """The folder of the installed siltandem package (every stage's code and data under it)."""
-    return Path(__file__).resolve().parents[1]
-
-
-def _tree_digest(root):
-    """Hex digest of the code and data files under ``root`` (paths relative to it, and bytes);
-    compiled caches (``__pycache__``) are left out."""
-    root = Path(root)
-    digest = hashlib.sha256()
-    files = sorted(p for p in root.rglob("*") if p.suffix in _CODE_SUFFIXES
-                   and "__pycache__" not in p.relative_to(root).parts and p.is_file())
-    for path in files:
-        digest.update(b"\0file\0" + path.relative_to(root).as_posix().encode() + b"\0")
-        digest.update(hashlib.sha256(path.read_bytes()).digest())
-    return digest.hexdigest()
-
-
-def _feed_callable(digest, obj):
-    if isinstance(obj, functools.partial):
-        _feed_callable(digest, obj.func)
-        digest.update(_pickled(obj.args, "the arguments bound by functools.partial"))
-        digest.update(_pickled(sorted(obj.keywords.items()), "the keywords bound by "
-                               "functools.partial"))
-    elif inspect.ismethod(obj):
-        _feed_callable(digest, obj.__func__)
-        digest.update(_pickled(obj.__self__, "the object the method is bound to"))
-    elif inspect.isfunction(obj):
-        digest.update(f"{obj.__module__}:{obj.__qualname__}".encode())
-        _feed_code(digest, obj.__code__)
-        digest.update(_pickled((obj.__defaults__, obj.__kwdefaults__), "its default values"))
-        cells = tuple(cell.cell_contents for cell in obj.__closure__ or ())
-        digest.update(_pickled(cells, "the variables it closes over"))
-    else:  # a callable object or a builtin
-        kind = type(obj)
-        digest.update(f"{kind.__module__}:{kind.__qualname__}".encode())
-        call = getattr(kind, "__call__", None)   # noqa: B004 (the class's own method, not callable())
-        if inspect.isfunction(call):
-            _feed_code(digest, call.__code__)
-        digest.update(_pickled(obj, "the callable object"))
-
-
-def _feed_code(digest, code):
-    digest.update(code.co_code)
-    digest.update(repr(code.co_names).encode())
-    for const in code.co_consts:
-        if isinstance(const, types.CodeType):
-            _feed_code(digest, const)
-        else:
-            digest.update(_stable_repr(const).encode())
-
-
-def _stable_repr(value):
-    # frozenset constants iterate in a per-process order (string hashing is randomized)
-    if isinstance(value, frozenset):
-        return "frozenset(" + repr(sorted(_stable_repr(v) for v in value)) + ")"
-    if isinstance(value, tuple):
-        return "(" + ",".join(_stable_repr(v) for v in value) + ")"
-    return repr(value)
-
-
-def _pickled(value, what):
-    try:
-        return pickle.dumps(value, protocol=4)
-    except Exception as error:
-        raise StackError(f"cannot fingerprint the study function: {what} cannot be pickled "
-                         f"({error})", where="argument function",
-                         fix="use a module-level function, or functools.partial of one with "
-                             "picklable arguments") from None
-
-
-def _run_token():
-    return secrets.token_hex(8)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -676,6 +552,11 @@ def _terminate(pool):
 
 # ----------------------------------------------------------------------------------------------
 # dask.distributed
+
+def _run_token():
+    """A random label for a dask run without a key."""
+    return secrets.token_hex(8)
+
 
 def _connect(cluster):
     distributed = _require("distributed")
