@@ -157,66 +157,102 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
     """
     table = _canonical_table(table)
     chunk_rows = _check_options(chunk_rows, workers, cluster)
-    n_rows = len(table)
-    folder = None if output is None else _prepare_folder(output)
-    key = None if folder is None else sweep_key(table, function, inputs=inputs)
-    if folder is not None:
-        _set_aside_other_keys(folder, key, resume=resume)
-    if folder is not None and chunk_rows is None and resume:
-        chunk_rows = _chunk_rows_on_disk(folder, key)
-
+    folder, key, chunk_rows = _open_output(output, table, function, inputs, chunk_rows,
+                                           resume=resume)
+    designs = table["design"].to_numpy()
     client, own_client = (None, False) if cluster is None else _connect(cluster)
     try:
         if chunk_rows is None:
-            local = client is None and workers is None
-            slots = workers if client is None else sum(client.nthreads().values())
-            chunk_rows = default_chunk_rows(n_rows, slots=max(1, slots or 1), local=local)
-        bounds = [(start, min(start + chunk_rows, n_rows))
-                  for start in range(0, n_rows, chunk_rows)]
-        designs = table["design"].to_numpy()
+            chunk_rows = _run_chunk_rows(len(table), client, workers)
+        bounds = [(start, min(start + chunk_rows, len(table)))
+                  for start in range(0, len(table), chunk_rows)]
         results = {}
         if folder is not None and resume:
             results = _load_chunks(folder, key, chunk_rows, bounds, designs)
-        pending = [i for i in range(len(bounds)) if i not in results]
-        meter = _Progress(n_rows, enabled=progress,
-                          already=sum(len(frame) for frame in results.values()))
-
-        def finish(chunk_id, frame):
-            start, stop = bounds[chunk_id]
-            frame = _check_result(frame, designs[start:stop], chunk_id)
-            if folder is not None:
-                _write_parquet_atomic(folder / chunk_name(key, chunk_rows, chunk_id), frame)
-            results[chunk_id] = frame
-            meter.update(len(frame))
-
-        chunks = {i: table.iloc[slice(*bounds[i])] for i in pending}
-        try:
-            if not pending:
-                pass
-            elif client is not None:
-                _run_on_dask(client, function, chunks, finish, key or _run_token())
-            elif workers is not None:
-                _run_on_pool(function, chunks, finish, workers)
-            else:
-                for chunk_id, chunk in chunks.items():
-                    finish(chunk_id, function(chunk.copy()))
-        except KeyboardInterrupt:
-            meter.close()
-            if folder is not None and progress:
-                print(f"interrupted: {len(results)} of {len(bounds)} chunks are in {folder}; run "
-                      "again with the same arguments to compute only the rest", file=sys.stderr)
-            raise
-        meter.close()
+        _compute_missing(function, table, designs, bounds, results, client=client,
+                         workers=workers, folder=folder, key=key, chunk_rows=chunk_rows,
+                         progress=progress)
     finally:
         if own_client:
             client.close()
+    return _combine(results, len(bounds), designs, folder=folder, key=key, chunk_rows=chunk_rows)
 
-    combined = pd.concat([results[i] for i in range(len(bounds))], ignore_index=True)
+
+def _open_output(output, table, function, inputs, chunk_rows, *, resume):
+    """The output folder (None without ``output``), the run's key (None without a folder) and
+    the chunk size: when resuming without one given, the size already on disk for this key.
+    Results of other keys in the folder are set aside first."""
+    if output is None:
+        return None, None, chunk_rows
+    folder = _prepare_folder(output)
+    key = sweep_key(table, function, inputs=inputs)
+    _set_aside_other_keys(folder, key, resume=resume)
+    if chunk_rows is None and resume:
+        chunk_rows = _chunk_rows_on_disk(folder, key)
+    return folder, key, chunk_rows
+
+
+def _run_chunk_rows(n_rows, client, workers):
+    """The default chunk size of a run in this process, on a local pool or on a cluster (one
+    slot per worker thread)."""
+    local = client is None and workers is None
+    slots = workers if client is None else sum(client.nthreads().values())
+    return default_chunk_rows(n_rows, slots=max(1, slots or 1), local=local)
+
+
+def _compute_missing(function, table, designs, bounds, results, *, client, workers, folder, key,
+                     chunk_rows, progress):
+    """Compute the chunks missing from ``results`` (chunk id -> frame), filling it in: each
+    frame is checked against its designs and written to ``folder`` as it arrives. On Ctrl-C, says
+    how many chunks are on disk and re-raises."""
+    pending = [i for i in range(len(bounds)) if i not in results]
+    meter = _Progress(len(table), enabled=progress,
+                      already=sum(len(frame) for frame in results.values()))
+
+    def finish(chunk_id, frame):
+        start, stop = bounds[chunk_id]
+        frame = _check_result(frame, designs[start:stop], chunk_id)
+        if folder is not None:
+            _write_parquet_atomic(folder / chunk_name(key, chunk_rows, chunk_id), frame)
+        results[chunk_id] = frame
+        meter.update(len(frame))
+
+    chunks = {i: table.iloc[slice(*bounds[i])] for i in pending}
+    try:
+        _dispatch(function, chunks, finish, client=client, workers=workers, key=key)
+    except KeyboardInterrupt:
+        meter.close()
+        if folder is not None and progress:
+            print(f"interrupted: {len(results)} of {len(bounds)} chunks are in {folder}; run "
+                  "again with the same arguments to compute only the rest", file=sys.stderr)
+        raise
+    meter.close()
+
+
+def _dispatch(function, chunks, finish, *, client, workers, key):
+    """Run ``chunks`` (chunk id -> table slice) where asked: on a dask cluster, on a local pool
+    of ``workers`` processes, or in this process; ``finish(chunk_id, frame)`` takes each result."""
+    if not chunks:
+        return
+    if client is not None:
+        _run_on_dask(client, function, chunks, finish, key or _run_token())
+    elif workers is not None:
+        _run_on_pool(function, chunks, finish, workers)
+    else:
+        for chunk_id, chunk in chunks.items():
+            finish(chunk_id, function(chunk.copy()))
+
+
+def _combine(results, n_chunks, designs, *, folder, key, chunk_rows):
+    """Every chunk's rows in design order, checked to hold each design once; written to
+    ``results.parquet`` in ``folder`` (with the key and chunk size) when there is one."""
+    combined = pd.concat([results[i] for i in range(n_chunks)], ignore_index=True)
     if not np.array_equal(combined["design"].to_numpy(), designs):  # guards the bookkeeping
         raise ChunkFailedError("the combined table does not hold every design exactly once")
     if folder is not None:
         _write_parquet_atomic(folder / RESULTS_NAME, combined,
-                              metadata={"key": key, "chunk_rows": chunk_rows, "rows": n_rows})
+                              metadata={"key": key, "chunk_rows": chunk_rows,
+                                        "rows": len(designs)})
     return combined
 
 
