@@ -28,8 +28,9 @@ from siltandem.cli import main as cli
 from siltandem.stack import options
 from siltandem.errors import StackError
 from siltandem.files import check_outputs, write_atomic
-from siltandem.result.driver import concentration_series, run_stack
+from siltandem.result.driver import run_stack
 from siltandem.stack.load import load_stack
+from siltandem.studies.concentration import concentration_series
 from siltandem.studies.losses import loss_waterfall
 from siltandem.studies.maps import design_map
 from siltandem.studies.matching import match_currents

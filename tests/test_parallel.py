@@ -26,7 +26,8 @@ import pytest
 
 from siltandem.studies import runner as parallel
 from siltandem.errors import StackError
-from siltandem.studies.runner import ChunkFailedError, WorkerLostWarning, run_chunks, sweep_key
+from siltandem.studies.fingerprint import sweep_key
+from siltandem.studies.runner import ChunkFailedError, WorkerLostWarning, run_chunks
 
 TESTS = Path(__file__).resolve().parent
 N_ROWS, CHUNK_ROWS = 2400, 300          # 8 chunks

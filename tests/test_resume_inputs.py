@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 from pvlib.spectrum import get_reference_spectra
 
-from siltandem.studies import runner as parallel
+from siltandem.studies import fingerprint, runner as parallel
 from siltandem.constants import HC_EV_NM
 from siltandem.stack.load import load_stack
 from siltandem.stack import inputs
@@ -179,7 +179,7 @@ def test_a_spectrum_override_is_fingerprinted(folder, solves, capsys):
 def test_a_code_change_invalidates_the_chunks(folder, solves, monkeypatch, capsys):
     first = run_map(folder, folder / "out")
     capsys.readouterr()
-    monkeypatch.setattr(parallel, "code_digest", lambda: "a later version of the solver")
+    monkeypatch.setattr(fingerprint, "code_digest", lambda: "a later version of the solver")
     solves["designs"] = 0
     again = run_map(folder, folder / "out")
     assert solves["designs"] == 6
@@ -188,22 +188,22 @@ def test_a_code_change_invalidates_the_chunks(folder, solves, monkeypatch, capsy
 
 
 def test_the_code_digest_covers_every_source_and_data_file(tmp_path):
-    package = parallel.package_folder()
+    package = fingerprint.package_folder()
     assert (package / "laws" / "optics.py").is_file()
     copy = tmp_path / "siltandem"
     shutil.copytree(package, copy, ignore=shutil.ignore_patterns("__pycache__"))
-    reference = parallel._tree_digest(copy)
-    assert reference == parallel._tree_digest(copy)              # deterministic
-    assert parallel._tree_digest(package) == reference           # compiled caches ignored
+    reference = fingerprint._tree_digest(copy)
+    assert reference == fingerprint._tree_digest(copy)              # deterministic
+    assert fingerprint._tree_digest(package) == reference           # compiled caches ignored
     for name in ("laws/optics.py", "materials/gap.toml", "data/spectra.toml"):
         path = copy / name
         original = path.read_bytes()
         path.write_bytes(original + b"\n")
-        assert parallel._tree_digest(copy) != reference, name
+        assert fingerprint._tree_digest(copy) != reference, name
         path.write_bytes(original)
-    assert parallel._tree_digest(copy) == reference
+    assert fingerprint._tree_digest(copy) == reference
     # the digest of this process is computed once and names the package's own files
-    assert parallel.code_digest() is parallel.code_digest()
+    assert fingerprint.code_digest() is fingerprint.code_digest()
 
 
 def test_input_files_of_a_study(folder):

@@ -24,7 +24,7 @@ from siltandem.version import __version__
 _API = {
     "load_stack": "siltandem.stack.load",
     "run_stack": "siltandem.result.driver",
-    "Result": "siltandem.result.driver",
+    "Result": "siltandem.result.record",
     "StackError": "siltandem.errors",
     "parse_vary": "siltandem.studies.sweep",
     "design_map": "siltandem.studies.maps",

@@ -200,7 +200,7 @@ def _parse_range(text):
 def _concentration(args, stack, suns):
     from siltandem.files import save_figure_atomic, write_atomic
     from siltandem.report.text import concentration_summary
-    from siltandem.result.driver import concentration_series
+    from siltandem.studies.concentration import concentration_series
     from siltandem.text import csv_safe
 
     series = concentration_series(stack, suns, spectrum=args.spectrum,
@@ -213,7 +213,7 @@ def _concentration(args, stack, suns):
         write_atomic(args.table, csv_safe(series).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.table}", file=notices)
     if args.json:
-        from siltandem.result.driver import json_text
+        from siltandem.result.record import json_text
 
         text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
         if to_stdout_json:

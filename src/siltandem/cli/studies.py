@@ -122,7 +122,7 @@ def _write_outputs(args, table, summary, figure=None):
         write_atomic(args.parquet, buffer.getvalue())
         print(f"  wrote {args.parquet}")
     if args.json:
-        from siltandem.result.driver import json_text
+        from siltandem.result.record import json_text
 
         text = json_text(summary)
         if args.json == "-":

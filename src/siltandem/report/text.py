@@ -50,6 +50,20 @@ def _table(headers, rows, aligns):
 def text_summary(result):
     """A readable multi-line summary: headline numbers, subcells, elements, warnings, cautions."""
     s = result.summary
+    lines = _title(s)
+    lines += _headline_numbers(s)
+    lines += _proof_notes(s)
+    lines += _regime_line(s)
+    lines += _subcell_table(s)
+    lines += _element_table(s)
+    lines += _interface_table(s)
+    lines += _tunnel_table(s)
+    lines += _closing(s)
+    return _lines(lines)
+
+
+def _title(s):
+    """The stack's name, its file and the light and temperature it was solved under."""
     c = s["conditions"]
     lines = [f"siltandem — {s['stack']}"]
     if s.get("source_file"):
@@ -58,24 +72,34 @@ def text_summary(result):
                  f"{c['irradiance_W_m2']:.1f} W/m2; cell at {c['temperature_K']:.2f} K; "
                  f"{c['terminals']} terminals")
     lines.append("")
-    lines.append(_headline("efficiency", s["efficiency_pct"], ".3f", "%"))
+    return lines
+
+
+def _headline_numbers(s):
+    """Efficiency, then Voc, Jsc, fill factor and MPP of one string, or a table of the strings."""
+    lines = [_headline("efficiency", s["efficiency_pct"], ".3f", "%")]
     if len(s["strings"]) == 1:
-        lines += [
+        return lines + [
             _headline("Voc", s["voc_V"], ".4f", "V"),
             _headline("Jsc", s["jsc_mA_cm2"], ".3f", "mA/cm2"),
             _headline("fill factor", _percent(s["fill_factor"]), ".2f", "%"),
             _headline("MPP voltage", s["mpp_V"], ".4f", "V"),
             _headline("MPP current", s["mpp_mA_cm2"], ".3f", "mA/cm2"),
         ]
-    else:
-        rows = [[str(r["string"]), _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
-                 _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(_percent(r["fill_factor"]), ".2f"),
-                 _fmt(r["mpp_V"], ".4f"), _fmt(r["mpp_mA_cm2"], ".3f")]
-                for r in s["strings"]]
-        lines.append("  each string at its own MPP, powers summed:")
-        lines += ["    " + x for x in _table(
-            ["string", "efficiency %", "Voc V", "Jsc mA/cm2", "FF %", "MPP V", "MPP mA/cm2"],
-            rows, "<>>>>>>")]
+    rows = [[str(r["string"]), _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
+             _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(_percent(r["fill_factor"]), ".2f"),
+             _fmt(r["mpp_V"], ".4f"), _fmt(r["mpp_mA_cm2"], ".3f")]
+            for r in s["strings"]]
+    lines.append("  each string at its own MPP, powers summed:")
+    lines += ["    " + x for x in _table(
+        ["string", "efficiency %", "Voc V", "Jsc mA/cm2", "FF %", "MPP V", "MPP mA/cm2"],
+        rows, "<>>>>>>")]
+    return lines
+
+
+def _proof_notes(s):
+    """A line for every string whose MPP was found but not proven global."""
+    lines = []
     for r in s["strings"]:
         proof = r.get("mpp_certificate")
         found = _finite(r["mpp_W_m2"])
@@ -85,12 +109,21 @@ def text_summary(result):
             lines.append(f"  {which}MPP not proven global"
                          + (f": the curve may reach {bound:.6g} W/m2 between its evaluated "
                             "points" if _finite(bound) else ""))
+    return lines
+
+
+def _regime_line(s):
+    """Where the tunnel junctions operate on the traced curve (none without a junction)."""
     regime = s.get("regime")
     if regime and regime != "no tunnel junction":
         regimes = regime if isinstance(regime, list) else [regime]
-        lines.append(f"  tunnel junctions  {', '.join(regimes)}")
-    lines.append("")
-    lines.append("  subcells (optical order, sun side first; * limits its string's current)")
+        return [f"  tunnel junctions  {', '.join(regimes)}"]
+    return []
+
+
+def _subcell_table(s):
+    """The subcells in optical order; * marks the one limiting its string's current."""
+    lines = ["", "  subcells (optical order, sun side first; * limits its string's current)"]
     rows = [[("* " if r["limiting"] else "  ") + r["name"], str(r["string"]),
              _fmt(r['gap_eV'], ".3f"), _fmt(r['photocurrent_mA_cm2'], ".3f"),
              _fmt(r['voc_alone_V'], ".4f"), _fmt(r['efficiency_alone_pct'], ".2f")]
@@ -98,9 +131,13 @@ def text_summary(result):
     lines += ["    " + x for x in _table(
         ["subcell", "string", "gap eV", "photocurrent mA/cm2", "Voc alone V", "eff. alone %"],
         rows, "<>>>>>")]
-    lines.append("")
-    lines.append("  elements at the MPP (current order; loss = power given up, "
-                 "for a subcell against its own MPP)")
+    return lines
+
+
+def _element_table(s):
+    """Every element at the MPP in current order: voltage, power, loss and efficiency penalty."""
+    lines = ["", "  elements at the MPP (current order; loss = power given up, "
+                 "for a subcell against its own MPP)"]
     rows = [[r["name"], r["kind"], str(r["string"]), _fmt(r['voltage_at_mpp_V'], "+.4f"),
              _fmt(r['power_W_m2'], "+.3f"), _fmt(r['loss_W_m2'], ".3f"),
              _fmt(r['loss_pct_abs'], ".3f"),
@@ -112,40 +149,52 @@ def text_summary(result):
          "penalty % abs"], rows, "<<>>>>>>")]
     lines.append("    (penalty: efficiency gained if the element were removed and the string "
                  "solved again)")
-    if s.get("interfaces"):
-        lines.append("")
-        lines.append("  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV or "
-                     "penalty above 1 %)")
-        rows = [[("! " if r["blocking"] else "  ") + r["name"], r["carrier"],
-                 _fmt(r['barrier_eV'], ".3f"), _fmt(r['offset_eV'], ".3f", "-"),
-                 _fmt(r['alpha'], ".3g"), r["bias"], _fmt(_milli(r['drop_at_mpp_V']), ".1f"),
-                 _fmt(r['loss_W_m2'], ".3f"), _fmt(r['efficiency_penalty_pct_abs'], ".3f")]
-                for r in s["interfaces"]]
-        lines += ["    " + x for x in _table(
-            ["interface", "carrier", "barrier eV", "offset eV", "alpha", "bias",
-             "drop at MPP mV", "loss W/m2", "penalty % abs"], rows, "<<>>><>>>")]
-        if any(not _finite(r["offset_eV"]) for r in s["interfaces"]):
-            lines.append("    (offset -: an interface given by its law's numbers has no band "
-                         "offset; give it by its two materials for one)")
-    if s.get("tunnel_junctions"):
-        lines.append("")
-        lines.append("  tunnel junctions (attained peak and valley of the combined law)")
-        rows = [[r["name"], str(r["string"]), _fmt(r['peak_mA_cm2'], ".4g"),
-                 _fmt(r['peak_V'], ".3f"), _fmt(r['valley_mA_cm2'], ".4g"),
-                 _fmt(r['valley_V'], ".3f"), _fmt(r['peak_over_largest_photocurrent'], ".3g"),
-                 r["branch_at_mpp"]]
-                for r in s["tunnel_junctions"]]
-        lines += ["    " + x for x in _table(
-            ["junction", "string", "peak mA/cm2", "peak V", "valley mA/cm2", "valley V",
-             "peak / Jph", "branch at MPP"], rows, "<>>>>>><")]
-    lines.append("")
-    lines.append(f"  power balance error {_fmt(s['power_balance_error_W_m2'], '.2e')} W/m2 "
-                 "(sum of element powers, each from its own law, against V*J)")
-    for w in s["warnings"]:
-        lines.append(f"  warning: {w}")
-    for caution in s["cautions"]:
-        lines.append(f"  caution: {caution}")
-    return _lines(lines)
+    return lines
+
+
+def _interface_table(s):
+    """The isotype interfaces (if any); ! marks one that blocks."""
+    if not s.get("interfaces"):
+        return []
+    lines = ["", "  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV or "
+                 "penalty above 1 %)"]
+    rows = [[("! " if r["blocking"] else "  ") + r["name"], r["carrier"],
+             _fmt(r['barrier_eV'], ".3f"), _fmt(r['offset_eV'], ".3f", "-"),
+             _fmt(r['alpha'], ".3g"), r["bias"], _fmt(_milli(r['drop_at_mpp_V']), ".1f"),
+             _fmt(r['loss_W_m2'], ".3f"), _fmt(r['efficiency_penalty_pct_abs'], ".3f")]
+            for r in s["interfaces"]]
+    lines += ["    " + x for x in _table(
+        ["interface", "carrier", "barrier eV", "offset eV", "alpha", "bias",
+         "drop at MPP mV", "loss W/m2", "penalty % abs"], rows, "<<>>><>>>")]
+    if any(not _finite(r["offset_eV"]) for r in s["interfaces"]):
+        lines.append("    (offset -: an interface given by its law's numbers has no band "
+                     "offset; give it by its two materials for one)")
+    return lines
+
+
+def _tunnel_table(s):
+    """The tunnel junctions (if any): attained peak and valley, and the branch at the MPP."""
+    if not s.get("tunnel_junctions"):
+        return []
+    lines = ["", "  tunnel junctions (attained peak and valley of the combined law)"]
+    rows = [[r["name"], str(r["string"]), _fmt(r['peak_mA_cm2'], ".4g"),
+             _fmt(r['peak_V'], ".3f"), _fmt(r['valley_mA_cm2'], ".4g"),
+             _fmt(r['valley_V'], ".3f"), _fmt(r['peak_over_largest_photocurrent'], ".3g"),
+             r["branch_at_mpp"]]
+            for r in s["tunnel_junctions"]]
+    lines += ["    " + x for x in _table(
+        ["junction", "string", "peak mA/cm2", "peak V", "valley mA/cm2", "valley V",
+         "peak / Jph", "branch at MPP"], rows, "<>>>>>><")]
+    return lines
+
+
+def _closing(s):
+    """The power balance, then every warning and every caution."""
+    lines = ["", f"  power balance error {_fmt(s['power_balance_error_W_m2'], '.2e')} W/m2 "
+                 "(sum of element powers, each from its own law, against V*J)"]
+    lines += [f"  warning: {w}" for w in s["warnings"]]
+    lines += [f"  caution: {caution}" for caution in s["cautions"]]
+    return lines
 
 
 def sweep_summary(frame, direction, result):

@@ -23,6 +23,7 @@ from dataclasses import fields, replace
 import numpy as np
 
 from siltandem.circuit.elements import Resistor
+from siltandem.result.record import first_value
 from siltandem.solve.series import solve_string
 
 
@@ -51,7 +52,7 @@ def removal_powers(string, temperature_K):
         if len(members) == 1 or not all(_single_design(e) for e in members):
             for element in members:                    # one by one: a string per element
                 rest = [e for e in string if e is not element]
-                powers[element.name] = _first(solve_string(rest, temperature_K).mpp_W_m2)
+                powers[element.name] = first_value(solve_string(rest, temperature_K).mpp_W_m2)
             continue
         reduced = _without_each(string, members)
         mpp = np.asarray(solve_string(reduced, temperature_K).mpp_W_m2, dtype=float).reshape(-1)
@@ -113,7 +114,3 @@ def _signature(element):
 def _single_design(element):
     return all(np.size(getattr(element, f.name)) == 1 for f in fields(element)
                if f.init and isinstance(getattr(element, f.name), np.ndarray))
-
-
-def _first(array):
-    return float(np.asarray(array, dtype=float).reshape(-1)[0])

@@ -26,6 +26,8 @@ Output folder layout (``output=``)::
   package (:func:`code_digest`, computed once per process), with the versions of the numerical
   libraries it rests on, so changed physics never resumes from chunks the old code wrote.
 
+(``fingerprint.py`` computes the key: :func:`sweep_key`, :func:`code_digest`.)
+
 A different key never mixes with chunks on disk: those chunks are ignored (and left in place, so
 going back to the old inputs resumes them). When the folder holds only results of other keys,
 the run starts afresh and says so once on stderr; a ``results.parquet`` of another key is removed
@@ -42,29 +44,25 @@ import concurrent.futures
 from concurrent.futures.process import BrokenProcessPool
 import contextlib
 import functools
-import hashlib
-import inspect
 import json
 import math
 import multiprocessing
 import multiprocessing.connection
 import os
 from pathlib import Path
-import pickle
 import re
 import secrets
 import signal
 import sys
 import threading
 import time
-import types
 import warnings
 
 import numpy as np
 import pandas as pd
 
 from siltandem.errors import StackError
-from siltandem.files import file_digest
+from siltandem.studies.fingerprint import sweep_key
 
 #: Upper bound of the default chunk size, to bound a chunk's working memory. Studies whose
 #: per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
@@ -78,7 +76,6 @@ MAX_ATTEMPTS = 3
 PROGRESS_DELAY_S = 2.0
 
 RESULTS_NAME = "results.parquet"
-_FORMAT = b"siltandem.parallel chunks v2"
 _CHUNK_NAME = re.compile(r"^chunk-(?P<key>[0-9a-f]{16})-(?P<rows>\d+)rows-(?P<id>\d{6})\.parquet$")
 _TEMPORARY_NAME = re.compile(r"^\.(?P<target>.+)\.(?P<pid>\d+)\.[0-9a-f]+\.tmp$")
 _EXTRA = 'pip install -e ".[parallel]"'
@@ -160,66 +157,102 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
     """
     table = _canonical_table(table)
     chunk_rows = _check_options(chunk_rows, workers, cluster)
-    n_rows = len(table)
-    folder = None if output is None else _prepare_folder(output)
-    key = None if folder is None else sweep_key(table, function, inputs=inputs)
-    if folder is not None:
-        _set_aside_other_keys(folder, key, resume=resume)
-    if folder is not None and chunk_rows is None and resume:
-        chunk_rows = _chunk_rows_on_disk(folder, key)
-
+    folder, key, chunk_rows = _open_output(output, table, function, inputs, chunk_rows,
+                                           resume=resume)
+    designs = table["design"].to_numpy()
     client, own_client = (None, False) if cluster is None else _connect(cluster)
     try:
         if chunk_rows is None:
-            local = client is None and workers is None
-            slots = workers if client is None else sum(client.nthreads().values())
-            chunk_rows = default_chunk_rows(n_rows, slots=max(1, slots or 1), local=local)
-        bounds = [(start, min(start + chunk_rows, n_rows))
-                  for start in range(0, n_rows, chunk_rows)]
-        designs = table["design"].to_numpy()
+            chunk_rows = _run_chunk_rows(len(table), client, workers)
+        bounds = [(start, min(start + chunk_rows, len(table)))
+                  for start in range(0, len(table), chunk_rows)]
         results = {}
         if folder is not None and resume:
             results = _load_chunks(folder, key, chunk_rows, bounds, designs)
-        pending = [i for i in range(len(bounds)) if i not in results]
-        meter = _Progress(n_rows, enabled=progress,
-                          already=sum(len(frame) for frame in results.values()))
-
-        def finish(chunk_id, frame):
-            start, stop = bounds[chunk_id]
-            frame = _check_result(frame, designs[start:stop], chunk_id)
-            if folder is not None:
-                _write_parquet_atomic(folder / chunk_name(key, chunk_rows, chunk_id), frame)
-            results[chunk_id] = frame
-            meter.update(len(frame))
-
-        chunks = {i: table.iloc[slice(*bounds[i])] for i in pending}
-        try:
-            if not pending:
-                pass
-            elif client is not None:
-                _run_on_dask(client, function, chunks, finish, key or _run_token())
-            elif workers is not None:
-                _run_on_pool(function, chunks, finish, workers)
-            else:
-                for chunk_id, chunk in chunks.items():
-                    finish(chunk_id, function(chunk.copy()))
-        except KeyboardInterrupt:
-            meter.close()
-            if folder is not None and progress:
-                print(f"interrupted: {len(results)} of {len(bounds)} chunks are in {folder}; run "
-                      "again with the same arguments to compute only the rest", file=sys.stderr)
-            raise
-        meter.close()
+        _compute_missing(function, table, designs, bounds, results, client=client,
+                         workers=workers, folder=folder, key=key, chunk_rows=chunk_rows,
+                         progress=progress)
     finally:
         if own_client:
             client.close()
+    return _combine(results, len(bounds), designs, folder=folder, key=key, chunk_rows=chunk_rows)
 
-    combined = pd.concat([results[i] for i in range(len(bounds))], ignore_index=True)
+
+def _open_output(output, table, function, inputs, chunk_rows, *, resume):
+    """The output folder (None without ``output``), the run's key (None without a folder) and
+    the chunk size: when resuming without one given, the size already on disk for this key.
+    Results of other keys in the folder are set aside first."""
+    if output is None:
+        return None, None, chunk_rows
+    folder = _prepare_folder(output)
+    key = sweep_key(table, function, inputs=inputs)
+    _set_aside_other_keys(folder, key, resume=resume)
+    if chunk_rows is None and resume:
+        chunk_rows = _chunk_rows_on_disk(folder, key)
+    return folder, key, chunk_rows
+
+
+def _run_chunk_rows(n_rows, client, workers):
+    """The default chunk size of a run in this process, on a local pool or on a cluster (one
+    slot per worker thread)."""
+    local = client is None and workers is None
+    slots = workers if client is None else sum(client.nthreads().values())
+    return default_chunk_rows(n_rows, slots=max(1, slots or 1), local=local)
+
+
+def _compute_missing(function, table, designs, bounds, results, *, client, workers, folder, key,
+                     chunk_rows, progress):
+    """Compute the chunks missing from ``results`` (chunk id -> frame), filling it in: each
+    frame is checked against its designs and written to ``folder`` as it arrives. On Ctrl-C, says
+    how many chunks are on disk and re-raises."""
+    pending = [i for i in range(len(bounds)) if i not in results]
+    meter = _Progress(len(table), enabled=progress,
+                      already=sum(len(frame) for frame in results.values()))
+
+    def finish(chunk_id, frame):
+        start, stop = bounds[chunk_id]
+        frame = _check_result(frame, designs[start:stop], chunk_id)
+        if folder is not None:
+            _write_parquet_atomic(folder / chunk_name(key, chunk_rows, chunk_id), frame)
+        results[chunk_id] = frame
+        meter.update(len(frame))
+
+    chunks = {i: table.iloc[slice(*bounds[i])] for i in pending}
+    try:
+        _dispatch(function, chunks, finish, client=client, workers=workers, key=key)
+    except KeyboardInterrupt:
+        meter.close()
+        if folder is not None and progress:
+            print(f"interrupted: {len(results)} of {len(bounds)} chunks are in {folder}; run "
+                  "again with the same arguments to compute only the rest", file=sys.stderr)
+        raise
+    meter.close()
+
+
+def _dispatch(function, chunks, finish, *, client, workers, key):
+    """Run ``chunks`` (chunk id -> table slice) where asked: on a dask cluster, on a local pool
+    of ``workers`` processes, or in this process; ``finish(chunk_id, frame)`` takes each result."""
+    if not chunks:
+        return
+    if client is not None:
+        _run_on_dask(client, function, chunks, finish, key or _run_token())
+    elif workers is not None:
+        _run_on_pool(function, chunks, finish, workers)
+    else:
+        for chunk_id, chunk in chunks.items():
+            finish(chunk_id, function(chunk.copy()))
+
+
+def _combine(results, n_chunks, designs, *, folder, key, chunk_rows):
+    """Every chunk's rows in design order, checked to hold each design once; written to
+    ``results.parquet`` in ``folder`` (with the key and chunk size) when there is one."""
+    combined = pd.concat([results[i] for i in range(n_chunks)], ignore_index=True)
     if not np.array_equal(combined["design"].to_numpy(), designs):  # guards the bookkeeping
         raise ChunkFailedError("the combined table does not hold every design exactly once")
     if folder is not None:
         _write_parquet_atomic(folder / RESULTS_NAME, combined,
-                              metadata={"key": key, "chunk_rows": chunk_rows, "rows": n_rows})
+                              metadata={"key": key, "chunk_rows": chunk_rows,
+                                        "rows": len(designs)})
     return combined
 
 
@@ -307,127 +340,6 @@ def _require(module):
     except ImportError as error:
         raise StackError(f"{module} is not installed ({error})", where="optional extra parallel",
                          fix=_EXTRA) from None
-
-
-# ----------------------------------------------------------------------------------------------
-# fingerprints
-
-def sweep_key(table, function, *, inputs=()):
-    """16-hex fingerprint of a canonical table, a study function, the content of its input
-    files and the code (see the module notes)."""
-    digest = hashlib.sha256(_FORMAT + code_digest().encode())
-    digest.update(json.dumps([[str(c) for c in table.columns],
-                              [str(t) for t in table.dtypes], len(table)]).encode())
-    digest.update(pd.util.hash_pandas_object(table, index=False).to_numpy().tobytes())
-    _feed_callable(digest, function)
-    for path in sorted({str(Path(p)) for p in inputs}):
-        digest.update(b"\0input\0" + path.encode() + b"\0" + file_digest(path).encode())
-    return digest.hexdigest()[:16]
-
-
-#: the libraries whose numbers a result rests on: their versions are part of the code digest
-_LIBRARIES = ("numpy", "scipy", "pandas", "pvlib", "numba")
-#: package files that make up the code and its data
-_CODE_SUFFIXES = (".py", ".toml", ".csv")
-
-
-@functools.lru_cache(maxsize=1)
-def code_digest():
-    """Hex digest of the code that computes a result, once per process (a few milliseconds).
-
-    It covers siltandem's version, the bytes of every ``.py``, ``.toml`` and ``.csv`` file of the
-    installed package (solver, laws, materials library, named spectra), each with its path inside
-    the package, and the versions of numpy, scipy, pandas, pvlib and numba. Any edit of the
-    package's code or data changes it.
-    """
-    from importlib import metadata
-
-    from siltandem.version import __version__
-
-    digest = hashlib.sha256(b"siltandem " + __version__.encode())
-    digest.update(_tree_digest(package_folder()).encode())
-    for name in _LIBRARIES:
-        try:
-            version = metadata.version(name)
-        except metadata.PackageNotFoundError:
-            version = "absent"
-        digest.update(f"\0{name} {version}".encode())
-    return digest.hexdigest()
-
-
-def package_folder():
-    """The folder of the installed siltandem package (every stage's code and data under it)."""
-    return Path(__file__).resolve().parents[1]
-
-
-def _tree_digest(root):
-    """Hex digest of the code and data files under ``root`` (paths relative to it, and bytes);
-    compiled caches (``__pycache__``) are left out."""
-    root = Path(root)
-    digest = hashlib.sha256()
-    files = sorted(p for p in root.rglob("*") if p.suffix in _CODE_SUFFIXES
-                   and "__pycache__" not in p.relative_to(root).parts and p.is_file())
-    for path in files:
-        digest.update(b"\0file\0" + path.relative_to(root).as_posix().encode() + b"\0")
-        digest.update(hashlib.sha256(path.read_bytes()).digest())
-    return digest.hexdigest()
-
-
-def _feed_callable(digest, obj):
-    if isinstance(obj, functools.partial):
-        _feed_callable(digest, obj.func)
-        digest.update(_pickled(obj.args, "the arguments bound by functools.partial"))
-        digest.update(_pickled(sorted(obj.keywords.items()), "the keywords bound by "
-                               "functools.partial"))
-    elif inspect.ismethod(obj):
-        _feed_callable(digest, obj.__func__)
-        digest.update(_pickled(obj.__self__, "the object the method is bound to"))
-    elif inspect.isfunction(obj):
-        digest.update(f"{obj.__module__}:{obj.__qualname__}".encode())
-        _feed_code(digest, obj.__code__)
-        digest.update(_pickled((obj.__defaults__, obj.__kwdefaults__), "its default values"))
-        cells = tuple(cell.cell_contents for cell in obj.__closure__ or ())
-        digest.update(_pickled(cells, "the variables it closes over"))
-    else:  # a callable object or a builtin
-        kind = type(obj)
-        digest.update(f"{kind.__module__}:{kind.__qualname__}".encode())
-        call = getattr(kind, "__call__", None)   # noqa: B004 (the class's own method, not callable())
-        if inspect.isfunction(call):
-            _feed_code(digest, call.__code__)
-        digest.update(_pickled(obj, "the callable object"))
-
-
-def _feed_code(digest, code):
-    digest.update(code.co_code)
-    digest.update(repr(code.co_names).encode())
-    for const in code.co_consts:
-        if isinstance(const, types.CodeType):
-            _feed_code(digest, const)
-        else:
-            digest.update(_stable_repr(const).encode())
-
-
-def _stable_repr(value):
-    # frozenset constants iterate in a per-process order (string hashing is randomized)
-    if isinstance(value, frozenset):
-        return "frozenset(" + repr(sorted(_stable_repr(v) for v in value)) + ")"
-    if isinstance(value, tuple):
-        return "(" + ",".join(_stable_repr(v) for v in value) + ")"
-    return repr(value)
-
-
-def _pickled(value, what):
-    try:
-        return pickle.dumps(value, protocol=4)
-    except Exception as error:
-        raise StackError(f"cannot fingerprint the study function: {what} cannot be pickled "
-                         f"({error})", where="argument function",
-                         fix="use a module-level function, or functools.partial of one with "
-                             "picklable arguments") from None
-
-
-def _run_token():
-    return secrets.token_hex(8)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -676,6 +588,11 @@ def _terminate(pool):
 
 # ----------------------------------------------------------------------------------------------
 # dask.distributed
+
+def _run_token():
+    """A random label for a dask run without a key."""
+    return secrets.token_hex(8)
+
 
 def _connect(cluster):
     distributed = _require("distributed")

@@ -121,7 +121,7 @@ class YieldResult:
     light: HourlyLight
 
     def to_json(self, indent=2):
-        from siltandem.result.driver import json_text
+        from siltandem.result.record import json_text
 
         return json_text(self.summary, indent)
 
