@@ -172,8 +172,7 @@ FAMILIES = {
 
 def main_job(path):
     """What `siltandem run FILE` computes: load, compile, illuminate, solve, summary."""
-    from siltandem.result.driver import run_stack
-    from siltandem.stack.load import load_stack
+    from siltandem import run_stack, load_stack
 
     return run_stack(load_stack(path))
 

@@ -10,10 +10,9 @@ from timing import median_time
 
 from siltandem.circuit.elements import Subcell, batch
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result.driver import run_stack
+from siltandem import run_stack, load_stack
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
-from siltandem.stack.load import load_stack
 
 
 

@@ -25,9 +25,8 @@ from siltandem.constants import thermal_voltage_V
 from siltandem.laws.optics import step_absorber_photocurrents
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.materials.spectra import get_spectrum
-from siltandem.stack.load import load_stack
-from siltandem.studies.maps import design_map
-from siltandem.studies.sweep import parse_vary, solve_designs
+from siltandem import load_stack, design_map, parse_vary
+from siltandem.studies.sweep import solve_designs
 
 DUAL = """[conditions]
 spectrum = "am1.5g"

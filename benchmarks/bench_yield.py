@@ -27,7 +27,7 @@ from siltandem.circuit.compile import compile_stack
 from siltandem.circuit.elements import take_rows
 from siltandem.laws.spectral import step_absorber_photocurrents_rows
 from siltandem.solve.series import solve_string
-from siltandem.stack.load import load_stack
+from siltandem import load_stack
 from siltandem.studies import yield_year as Y
 from siltandem.materials import weather as weather_files
 from siltandem.studies import sky

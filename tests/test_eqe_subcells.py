@@ -2,11 +2,9 @@
 import pytest
 
 from siltandem.constants import HC_EV_NM
-from siltandem.errors import StackError
+from siltandem import StackError, run_stack, load_stack
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result.driver import run_stack
 from siltandem.materials.spectra import get_spectrum
-from siltandem.stack.load import load_stack
 
 
 def write_eqe(path, edge_nm, value):

@@ -33,7 +33,7 @@ import numpy as np
 import pytest
 
 from siltandem.circuit.elements import Subcell
-from siltandem.result.driver import run_stack
+from siltandem import run_stack
 from siltandem.solve.series import solve_string
 from siltandem.stack.load import parse_stack
 

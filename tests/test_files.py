@@ -6,7 +6,7 @@ import os
 
 import pytest
 
-from siltandem.errors import StackError
+from siltandem import StackError
 from siltandem.files import write_atomic
 
 

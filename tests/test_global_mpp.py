@@ -444,8 +444,7 @@ DEMOS = sorted(STACKS.glob("*.toml"))
 
 @pytest.mark.parametrize("path", DEMOS, ids=[p.stem for p in DEMOS])
 def test_the_demo_stacks_carry_a_proven_mpp(path):
-    from siltandem.result.driver import run_stack
-    from siltandem.stack.load import load_stack
+    from siltandem import run_stack, load_stack
 
     result = run_stack(load_stack(path))
     summary = result.summary
@@ -499,7 +498,7 @@ def test_an_element_that_drops_nothing_costs_nothing(shunt, breakdown, factor, s
     """Removing an element raises the string's power at every current J by J times its drop
     there (nothing else changes), so the efficiency regained lies between its loss at the MPP
     and its largest loss J |V(J)| over the curve (both maxima global)."""
-    from siltandem.result.driver import run_stack
+    from siltandem import run_stack
     from siltandem.stack.load import parse_stack
 
     result = run_stack(parse_stack(penalty_stack(shunt, breakdown, factor, suns,
@@ -617,7 +616,7 @@ def test_a_blocked_string_reports_the_zero_current_voc(alpha, barrier, built_in,
     """At zero current every element but a subcell has zero voltage, so Voc is the sum of the
     subcells' own open-circuit voltages, here each from pvlib's single-diode solution at zero
     current (``pvlib.singlediode.bishop88_v_from_i``, independent of our code)."""
-    from siltandem.result.driver import run_stack
+    from siltandem import run_stack
     from siltandem.stack.load import parse_stack
 
     elements = [{"kind": "subcell", "name": "top", "gap_eV": 1.73, "ere": 0.02},
@@ -660,7 +659,7 @@ def test_an_unproven_mpp_says_so(monkeypatch):
     summary says the MPP is not certified, with the largest bound, and the text says so in one
     line (and only then: test_the_demo_stacks_carry_a_proven_mpp)."""
     import siltandem.solve.certificate as certificate
-    from siltandem.result.driver import run_stack
+    from siltandem import run_stack
     from siltandem.stack.load import parse_stack
 
     monkeypatch.setattr(certificate, "MAX_PASSES", 0)

@@ -17,9 +17,8 @@ import pytest
 import scipy.constants as sc
 
 from siltandem.cli import main as cli
-from siltandem.errors import StackError
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack, parse_stack
+from siltandem import StackError, run_stack, load_stack
+from siltandem.stack.load import parse_stack
 
 ROOT = Path(__file__).resolve().parents[1]
 STACKS = ROOT / "stacks"
@@ -271,7 +270,7 @@ def test_a_half_year_of_weather_is_refused_with_the_hours_it_covers(tmp_path, ca
 
 
 def test_repeated_hours_of_weather_are_refused(tmp_path):
-    from siltandem.materials.weather import read_weather
+    from siltandem import read_weather
 
     lines = _weather_lines()
     year = "".join(lines).rstrip("\n") + "\n"
@@ -299,7 +298,7 @@ def test_implausible_weather_is_refused(where, change, message, tmp_path):
     """A latitude of 999 used to surface as "--tilt 999 is outside [0, 90]" (the tilt defaults
     to the latitude); a GHI of 1e30 W/m2 or an air temperature of 1e30 degC gave an annual
     energy of 0.00 kWh/m2 without a word."""
-    from siltandem.materials.weather import read_weather
+    from siltandem import read_weather
 
     lines = _weather_lines()
     if where == "station":

@@ -26,16 +26,10 @@ import pytest
 
 from siltandem.cli import main as cli
 from siltandem.stack import options
-from siltandem.errors import StackError
+from siltandem import (StackError, concentration_series, design_map, load_stack, loss_waterfall,
+                       match_currents, parse_vary, rank_placements, run_stack)
 from siltandem.files import check_outputs, write_atomic
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack
-from siltandem.studies.concentration import concentration_series
-from siltandem.studies.losses import loss_waterfall
-from siltandem.studies.maps import design_map
-from siltandem.studies.matching import match_currents
-from siltandem.studies.placements import rank_placements
-from siltandem.studies.sweep import Variation, parse_vary, solve_designs
+from siltandem.studies.sweep import Variation, solve_designs
 
 STACKS = Path(__file__).resolve().parents[1] / "stacks"
 DUAL = "d.toml"            # the demo dual (elements 'front grid', 'top', 'silicon', 'rear contact')
@@ -510,7 +504,7 @@ def test_every_study_entry_checks_its_arguments(dual, folder):
         concentration_series(dual, [1.0, 1e6])
     with pytest.raises(StackError, match=SUNS.format("-1")):
         rank_placements(load_stack(folder / PLACES), suns=-1, progress=False)
-    from siltandem.studies.yield_year import annual_yield
+    from siltandem import annual_yield
 
     with pytest.raises(StackError, match=r"key 'tilt_deg' is nan"):
         annual_yield(dual, "demo", tilt_deg=math.nan)

@@ -12,9 +12,7 @@ import numpy as np
 import pytest
 
 from siltandem.constants import BOLTZMANN_EV_K
-from siltandem.errors import StackError
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack
+from siltandem import StackError, run_stack, load_stack
 from test_main_job import cli
 
 ROOT = Path(__file__).resolve().parents[1]

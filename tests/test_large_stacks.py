@@ -19,10 +19,9 @@ from siltandem.circuit.compile import compile_stack
 from siltandem.circuit.elements import Resistor, Subcell, batch
 from siltandem.optics.illuminate import illuminate
 from siltandem.result.penalties import removal_powers
-from siltandem.result.driver import run_stack
+from siltandem import run_stack, load_stack
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
-from siltandem.stack.load import load_stack
 from test_photocurrents_large import per_wavelength
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))

@@ -13,13 +13,11 @@ import pytest
 
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.constants import thermal_voltage_V
-from siltandem.errors import StackError
+from siltandem import StackError, run_stack, load_stack
 from siltandem.laws import thinfilm
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.materials import load_material
-from siltandem.result.driver import run_stack
 from siltandem.materials.spectra import get_spectrum
-from siltandem.stack.load import load_stack
 from test_main_job import cli
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -183,7 +183,7 @@ def test_the_contract_catches_what_it_should(tmp_path, monkeypatch, bad, message
 
 
 #: what `import siltandem` must offer (issue: a small public API at the top)
-PUBLIC_API = ["load_stack", "run_stack", "Result", "design_map", "match_currents",
+PUBLIC_API = ["load_stack", "run_stack", "Result", "design_map", "match_currents", "concentration_series",
               "rank_placements", "loss_waterfall", "annual_yield", "plot_iv", "StackError"]
 
 

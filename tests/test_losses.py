@@ -8,9 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack
-from siltandem.studies.losses import loss_waterfall
+from siltandem import run_stack, load_stack, loss_waterfall
 from test_main_job import cli
 
 ROOT = Path(__file__).resolve().parents[1]

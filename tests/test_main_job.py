@@ -14,8 +14,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack
+from siltandem import run_stack, load_stack
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "stacks" / "demo_dual.toml"

@@ -21,9 +21,7 @@ import tomllib
 import pytest
 
 from siltandem.cli import main as cli
-from siltandem.errors import StackError
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack
+from siltandem import StackError, run_stack, load_stack
 
 FOLDER = Path(__file__).resolve().parent / "malformed"
 EXPECTED = tomllib.loads((FOLDER / "expected.toml").read_text(encoding="utf-8"))

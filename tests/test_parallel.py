@@ -25,7 +25,7 @@ import pandas as pd
 import pytest
 
 from siltandem.studies import runner as parallel
-from siltandem.errors import StackError
+from siltandem import StackError
 from siltandem.studies.fingerprint import sweep_key
 from siltandem.studies.runner import ChunkFailedError, WorkerLostWarning, run_chunks
 

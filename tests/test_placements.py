@@ -9,10 +9,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from siltandem.errors import StackError
-from siltandem.result.driver import run_stack
-from siltandem.stack.load import load_stack
-from siltandem.studies.placements import auto_candidates, rank_placements
+from siltandem import StackError, run_stack, load_stack, rank_placements
+from siltandem.studies.placements import auto_candidates
 from test_main_job import cli
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -86,8 +84,7 @@ def test_placements_command(tmp_path):
 def test_placements_by_energy_rank_by_the_year():
     from siltandem.stack.placements import with_placement
     from siltandem.studies.placements import energy_of_candidates
-    from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import read_weather
+    from siltandem import annual_yield, read_weather
 
     stack = load_stack(DEMO)
     weather = read_weather("demo")

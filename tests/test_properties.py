@@ -47,13 +47,12 @@ from hypothesis import HealthCheck, event, given, settings, strategies as st
 
 import pvlib
 from siltandem.circuit.elements import Subcell, batch
-from siltandem.errors import StackError
+from siltandem import StackError, run_stack, load_stack
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result.driver import run_stack
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
 from siltandem.stack.schema import CONDITION_KEYS, ELEMENT_SCHEMA, ISOTYPE_NUMBERS, ISOTYPE_TEXTS
-from siltandem.stack.load import load_stack, parse_stack
+from siltandem.stack.load import parse_stack
 
 
 #: multiplies every example count, for a deeper local run (``SILTANDEM_HYPOTHESIS_SCALE=10

@@ -16,12 +16,9 @@ from pvlib.spectrum import get_reference_spectra
 
 from siltandem.studies import fingerprint, runner as parallel
 from siltandem.constants import HC_EV_NM
-from siltandem.stack.load import load_stack
+from siltandem import load_stack, design_map, match_currents, parse_vary
 from siltandem.stack import inputs
 from siltandem.studies import sweep
-from siltandem.studies.maps import design_map
-from siltandem.studies.matching import match_currents
-from siltandem.studies.sweep import parse_vary
 from test_main_job import cli
 
 TOP_GAP_EV = 1.75

@@ -206,7 +206,7 @@ def test_dim_light_unshunted_middle_cell_still_has_an_mpp():
     from pathlib import Path
 
     from siltandem.circuit.compile import compile_stack
-    from siltandem.stack.load import load_stack
+    from siltandem import load_stack
 
     circuit = compile_stack(load_stack(Path(__file__).resolve().parents[1] / "stacks"
                                        / "demo_triple.toml"))

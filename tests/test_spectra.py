@@ -2,7 +2,7 @@
 import numpy as np
 import pytest
 
-from siltandem.errors import StackError
+from siltandem import StackError
 from siltandem.laws.optics import cumulative_below, step_absorber_photocurrents
 from siltandem.materials.spectra import get_spectrum
 

@@ -3,8 +3,7 @@ from pathlib import Path
 
 import pytest
 
-from siltandem.errors import StackError
-from siltandem.stack.load import load_stack
+from siltandem import StackError, load_stack
 
 GOOD_HEAD = '[stack]\nname = "t"\n[conditions]\nspectrum = "am1.5g"\n'
 CELL = '[[element]]\nkind = "subcell"\nname = "top"\ngap_eV = 1.7\n'

@@ -7,11 +7,9 @@ import pytest
 from pvlib.spectrum import get_reference_spectra
 from scipy import constants
 
-from siltandem.errors import StackError
-from siltandem.stack.load import load_stack
-from siltandem.studies.maps import design_map, optimum
-from siltandem.studies.matching import match_currents
-from siltandem.studies.sweep import design_table, parse_vary, solve_designs
+from siltandem import StackError, load_stack, design_map, match_currents, parse_vary
+from siltandem.studies.maps import optimum
+from siltandem.studies.sweep import design_table, solve_designs
 from test_main_job import cli
 
 DUAL = """[conditions]

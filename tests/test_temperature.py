@@ -3,7 +3,7 @@ import pytest
 
 from siltandem.constants import BOLTZMANN_EV_K
 from siltandem.materials import load_material
-from siltandem.result.driver import run_stack
+from siltandem import run_stack
 from siltandem.stack.load import parse_stack
 
 

@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from siltandem.errors import StackError
+from siltandem import StackError
 from siltandem.text import MISSING, csv_cell, csv_safe, excerpt, number, printable
 
 BIDI_CONTROLS = ["\u061c", "\u200e", "\u200f", *map(chr, range(0x202A, 0x202F)),

@@ -13,7 +13,7 @@ import pytest
 from scipy import constants, integrate
 
 from siltandem.cli.main import main
-from siltandem.errors import StackError
+from siltandem import StackError
 from siltandem.laws.optics import step_absorber_photocurrents
 from siltandem.laws.spectral import (
     cumulative_below_rows,
@@ -22,7 +22,7 @@ from siltandem.laws.spectral import (
     spectral_mismatch_factor,
     step_absorber_photocurrents_rows,
 )
-from siltandem.stack.load import load_stack
+from siltandem import load_stack
 from siltandem.studies import yield_year as Y
 from siltandem.materials import eqe
 from siltandem.materials import weather as weather_files
@@ -408,7 +408,7 @@ def test_layer_stack_year(weather):
     # a layer stack's year: its optics and collection for each hour's spectrum, its dark
     # currents at each hour's temperature (ni^2 and ni scaling, Varshni gap)
     from siltandem.optics.layers import layer_photocurrents
-    from siltandem.result.driver import run_stack
+    from siltandem import run_stack
 
     stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
     year = Y.annual_yield(stack, weather)
@@ -512,11 +512,9 @@ def test_match_by_energy_ranks_by_the_year(tmp_path):
     # the energy of each swept design equals a yield year of that design run on its own
     import numpy as np
 
-    from siltandem.stack.load import load_stack
-    from siltandem.studies.matching import energy_by_value, match_currents
-    from siltandem.studies.sweep import with_values, parse_vary
-    from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import read_weather
+    from siltandem import load_stack, match_currents, parse_vary, annual_yield, read_weather
+    from siltandem.studies.matching import energy_by_value
+    from siltandem.studies.sweep import with_values
 
     path = tmp_path / "dual.toml"
     path.write_text('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\n'

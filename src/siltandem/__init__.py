@@ -31,6 +31,7 @@ _API = {
     "match_currents": "siltandem.studies.matching",
     "rank_placements": "siltandem.studies.placements",
     "loss_waterfall": "siltandem.studies.losses",
+    "concentration_series": "siltandem.studies.concentration",
     "annual_yield": "siltandem.studies.yield_year",
     "read_weather": "siltandem.materials.weather",
     "plot_iv": "siltandem.report.plots",
