@@ -483,9 +483,9 @@ def _quarter_points(segment, fail, around):
 
 def polisher(string, segments):
     """The polish ``certify`` calls: the root of dP/dt in a bracket on a segment's branch state
-    (numerics.bracketed_root; rows outside ``rows`` come with a zero-length bracket). A
+    (numerics.bracketed_root; rows not to polish come with a zero-length bracket). A
     non-finite dP/dt counts as rising, as in solve.py."""
-    def polish(k, rows, lower, upper, g_lower, g_upper):
+    def polish(k, lower, upper, g_lower, g_upper):
         segment = segments[k]
 
         def power_slope(t):
@@ -524,7 +524,7 @@ def _move(string, segment, k, rows, polish):
                & (g_hi <= 0) & (t_hi > t_lo))
     t_new = t_best
     if bracket.any():
-        root = polish(k, bracket[:, 0], np.where(bracket, t_lo, t_best),
+        root = polish(k, np.where(bracket, t_lo, t_best),
                       np.where(bracket, t_hi, t_best), np.where(bracket, g_lo, 0.0),
                       np.where(bracket, g_hi, 0.0))
         t_new = np.where(bracket & np.isfinite(root), root, t_best)
@@ -562,9 +562,9 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
     photocurrent : (B, 1)
         The pilot's photocurrent (scale of the absolute tolerance).
     polish : callable
-        ``polish(segment_index, rows, lo, hi, g_lo, g_hi) -> t`` (B, 1): the root of dP/dt in
-        [lo, hi] on that segment's branch state for the rows ``rows`` (B,) bool (the others are
-        ignored); NaN where none is found.
+        ``polish(segment_index, lo, hi, g_lo, g_hi) -> t`` (B, 1): the root of dP/dt in
+        [lo, hi] on that segment's branch state (rows not to polish come with lo = hi); NaN
+        where none is found.
     open_circuit : (t, voltages), optional
         The pilot voltage of open circuit (B, 1) and every element's voltage at zero current
         (a list of (B, 1)): a point of the curve with P = 0, in the first segment (all-tunnel

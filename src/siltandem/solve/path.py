@@ -1,6 +1,6 @@
 """Operating points on the traced path of a string below its tunnel junctions' peaks: Voc, Jsc and the
-MPP as roots on the curve parameterised by the pilot's junction voltage, the MPP certified, and the
-curve's points spaced by arc length.
+MPP as roots on the curve parameterised by the pilot's junction voltage, the MPP certified; with a
+curve, the dense pass (dense.py) instead.
 """
 import numpy as np
 
@@ -13,52 +13,6 @@ from siltandem.solve.tail import finite_or, tail_samples, tail_short_circuit
 
 #: grid points used to bracket the MPP before root finding
 MPP_GRID_POINTS = 48
-
-
-#: pre-sample points per returned point when spacing a curve by arc length
-SPREAD_SAMPLES_PER_POINT = 2
-
-
-def spread_parameter(string, t_start, t_end, points, branches=None, end_currents=None):
-    """Pilot voltages from t_start to t_end (each (B, 1)) spaced evenly along the curve.
-
-    The spacing is uniform in arc length of the terminal curve in (V / V-span, J / J-span): a
-    dense pre-sample (uniform in t and in current) gives the arc length as a function of t, and
-    the returned t are where it takes evenly spaced values. Every returned point is then
-    evaluated exactly by the caller; only their placement comes from the pre-sample. Uniform t
-    alone leaves the knee of a non-limiting cell, or a junction's valley, nearly empty.
-    ``end_currents`` (optional) are the currents at t_start and t_end when the caller has them.
-    """
-    dense = SPREAD_SAMPLES_PER_POINT * points
-    s = np.linspace(0.0, 1.0, dense // 2)[None, :]
-    by_t = t_start + (t_end - t_start) * s
-    if end_currents is None:
-        j_start = string.evaluate(t_start, branches=branches)["current"]
-        j_end = string.evaluate(t_end, branches=branches)["current"]
-    else:
-        j_start, j_end = end_currents
-    inner = np.linspace(0.0, 1.0, dense - dense // 2 + 2)[None, 1:-1]
-    with np.errstate(invalid="ignore"):
-        by_j = string.pilot_voltage_at(j_start + (j_end - j_start) * inner)
-    low, high = np.minimum(t_start, t_end), np.maximum(t_start, t_end)
-    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
-    merged = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
-    merged = np.where(t_end < t_start, merged[:, ::-1], merged)
-    sample = string.evaluate(merged, branches=branches)
-    v = np.nan_to_num(sample["voltage"], nan=0.0, posinf=0.0, neginf=0.0)
-    j = np.nan_to_num(sample["current"], nan=0.0, posinf=0.0, neginf=0.0)
-    v_span = np.maximum(np.ptp(v, axis=1, keepdims=True), 1e-12)
-    j_span = np.maximum(np.ptp(j, axis=1, keepdims=True), 1e-12)
-    step = np.hypot(np.diff(v, axis=1) / v_span, np.diff(j, axis=1) / j_span)
-    # a little weight on t itself keeps points on stretches where the curve barely moves
-    t_span = np.maximum(np.abs(t_end - t_start), 1e-12)
-    step = step + 0.05 * np.abs(np.diff(merged, axis=1)) / t_span
-    arc = np.concatenate([np.zeros((merged.shape[0], 1)), np.cumsum(step, axis=1)], axis=1)
-    targets = np.linspace(0.0, 1.0, points)[None, :] * arc[:, -1:]
-    out = np.empty((merged.shape[0], points))
-    for row in range(merged.shape[0]):
-        out[row] = np.interp(targets[row], arc[row], merged[row])
-    return out
 
 
 def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
@@ -116,11 +70,10 @@ def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
         # reaches its peak)
         reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
 
-    # Jsc (V = 0) and, for a curve, its reverse end (V = v_floor) together: V rises strictly
-    # with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
-    # guess: the terminal voltage follows t one to one (the pilot takes up the change).
-    levels = np.concatenate([np.zeros_like(voc), v_floor], axis=1) if curve_points else \
-        np.zeros_like(voc)
+    # Jsc (V = 0): V rises strictly with t and its slope is analytic, so safeguarded Newton
+    # takes a few evaluations. First guess: the terminal voltage follows t one to one (the
+    # pilot takes up the change).
+    levels = np.zeros_like(voc)
 
     def shifted(t):
         e = string.evaluate(t, slopes=True)
@@ -145,10 +98,6 @@ def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
     if tail_rows.any():
         tail = tail_samples(string, low["current"], tail_rows)
         t_sc = np.where(tail_rows[:, None], t_low, t_sc)
-    if curve_points:
-        t_floor = roots[:, 1:2]
-        t_floor = np.where(np.isfinite(t_floor), t_floor,
-                           np.where(np.isfinite(t_sc), t_sc, t_low))
 
     # MPP: best of a coarse grid in t from short to open circuit, then dP/dt = 0 inside the
     # grid cells around it (the grid's exact slopes are the bracket's end values)
@@ -193,18 +142,11 @@ def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
                                       ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
     j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
 
-    curve = None
-    if curve_points:
-        curve_t = spread_parameter(string, t_floor, t_forward, curve_points)
-        traced = string.evaluate(curve_t)
-        curve = {"current_A_m2": traced["current"].copy(), "voltage_V": traced["voltage"].copy()}
-        for element, v_i in zip(string.elements, traced["voltages"]):
-            curve[element.name] = np.array(v_i, dtype=float)
     return dict(voc=voc.copy(), jsc=jsc.copy(), v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
                 p_mpp=(j_mpp * v_mpp).copy(),
                 voltages_mpp=[np.array(np.broadcast_to(v, j_mpp.shape), dtype=float)
                               for v in at_mpp["voltages"]],
                 voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
                               for v in at_voc["voltages"]],
-                curve=curve, reaches_peak=reaches_peak, capped=capped, certificate=proof,
+                curve=None, reaches_peak=reaches_peak, capped=capped, certificate=proof,
                 t_voc=t_voc)

@@ -136,7 +136,7 @@ class CompiledGroup:
             return None
         return out
 
-    def voltages(self, string, current, branches):
+    def voltages(self, string, current):
         """(V, dV/dJ) of each member at ``current`` (B, N): two (E, B, N) arrays; entries
         beyond an element's table through the element's own general route."""
         current = np.asarray(current, dtype=float)
@@ -266,7 +266,7 @@ class SeriesString:
             pilot_dv = self._select([f[3] for f in forward])
         voltages, dvoltage = [], np.zeros(np.shape(t))
         if group.members:
-            group_v, group_slope = group.voltages(self, current, branches)
+            group_v, group_slope = group.voltages(self, current)
         subcell_number = 0
         for index, element in enumerate(self.elements):
             k = group.index.get(index)
