@@ -10,6 +10,7 @@ from siltandem.laws import compiled as kernels
 from siltandem.numerics.tables import polish_root
 from siltandem.solve.certificate import certify_mpp
 from siltandem.solve.kernels import hermite_crossing, power_maximum
+from siltandem.solve.spacing import arc_length, evenly_spaced, interpolate_rows
 from siltandem.solve.string import FORWARD_CURRENT_FRACTION, open_circuit_voltages
 from siltandem.solve.tail import finite_or, tail_samples, tail_short_circuit, unit_steps, with_tail_curve
 
@@ -168,27 +169,15 @@ def solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_forw
     t_sc = np.where(capped[:, None], t_low, t_sc)
     t_floor = np.where(np.isfinite(t_floor), t_floor, np.where(np.isfinite(t_sc), t_sc, t_low))
 
-    # the curve: points evenly spaced in arc length of (V / V-span, J / J-span) along the samples
-    # (with a little weight on t), from the reverse end to the forward end
-    vn = np.where(np.isfinite(v), v, 0.0)
-    jn = np.where(np.isfinite(j), j, 0.0)
-    v_span = np.maximum(np.ptp(vn, axis=1, keepdims=True), 1e-12)
-    j_span = np.maximum(np.ptp(jn, axis=1, keepdims=True), 1e-12)
-    t_span = np.maximum(t_forward - t_start, 1e-12)
-    arc_step = (np.hypot(np.diff(vn, axis=1) / v_span, np.diff(jn, axis=1) / j_span)
-                + 0.05 * np.diff(t, axis=1) / t_span)
-    arc = np.concatenate([np.zeros((size, 1)), np.cumsum(arc_step, axis=1)], axis=1)
-    curve_t = np.empty((size, curve_points))
-    # with a tail, its first eighth of the points lie on the tail (by current)
+    # the curve: points evenly spaced in arc length along the samples (spacing.py), from the
+    # reverse end to the forward end; with a tail, its first eighth of the points lie on the
+    # tail (by current)
     in_tail = np.where(tail_rows, max(curve_points // 8, 2), 0) if tail is not None else \
         np.zeros(size, dtype=int)
-    for row in range(size):
-        count = curve_points - in_tail[row]
-        a_floor = np.interp(t_floor[row, 0], t[row], arc[row])
-        targets = a_floor + (arc[row, -1] - a_floor) * unit_steps(count)[0]
-        curve_t[row, in_tail[row]:] = np.interp(targets, arc[row], t[row])
-        curve_t[row, :in_tail[row]] = t_floor[row, 0]
-        curve_t[row, in_tail[row]] = t_floor[row, 0]
+    arc = arc_length(dense["voltage"], dense["current"], t)
+    curve_t = evenly_spaced(arc, t, curve_points, start=interpolate_rows(t_floor, t, arc),
+                            skip=in_tail)
+    curve_t = np.where(np.arange(curve_points)[None, :] <= in_tail[:, None], t_floor, curve_t)
     curve_t[:, -1:] = t_forward
     final = string.evaluate(np.concatenate([curve_t, t_sc, t_mpp], axis=1), slopes=True)
     if tail is not None:

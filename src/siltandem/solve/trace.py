@@ -25,6 +25,7 @@ import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
 from siltandem.solve.certificate import Segment, certify, polisher
+from siltandem.solve.spacing import arc_length, curve_spans, evenly_spaced
 from siltandem.solve.tail import tail_samples, tail_short_circuit
 
 SAMPLES_PER_PIECE = 160
@@ -376,23 +377,19 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
 
     curve = None
     if curve_points:
-        # share the points among the pieces by their arc length in (V/Voc, J/Jph), and space
-        # them evenly in arc length along each piece's samples
-        scale_v, scale_j = max(abs(_scalar(voc)), 1e-3), _scalar(jph)
-        arcs = []
-        for *_, ts, e in pieces:
-            dv = np.diff(np.nan_to_num(e["voltage"][0])) / scale_v
-            dj = np.diff(np.nan_to_num(e["current"][0])) / scale_j
-            dt = np.abs(np.diff(ts[0])) / max(abs(_scalar(t_forward) - _scalar(t_lowest)), 1e-3)
-            arcs.append(np.concatenate([[0.0], np.cumsum(np.hypot(dv, dj) + 1e-3 * dt)]))
-        lengths = np.array([a[-1] + 1e-12 for a in arcs])
+        # share the points among the pieces by their arc length (spacing.py, with the spans of
+        # the whole path), and space them evenly in arc length along each piece's samples
+        spans = curve_spans(*(np.concatenate(x, axis=1) for x in zip(
+            *((e["voltage"], e["current"], ts) for *_, ts, e in pieces))))
+        arcs = [arc_length(e["voltage"], e["current"], ts, spans) for *_, ts, e in pieces]
+        lengths = np.array([a[0, -1] + 1e-12 for a in arcs])
         counts = np.maximum(2, np.floor(curve_points * lengths / lengths.sum()).astype(int))
         while counts.sum() > curve_points:
             counts[np.argmax(counts)] -= 1
         counts[np.argmax(lengths)] += curve_points - counts.sum()
         parts = []
         for (state, t_a, t_b, ts, _), arc, n in zip(pieces, arcs, counts):
-            placed = np.interp(np.linspace(0.0, arc[-1], n), arc, ts[0])
+            placed = evenly_spaced(arc, ts, n)[0]
             placed[0], placed[-1] = _scalar(t_a), _scalar(t_b)
             parts.append(string.evaluate(placed[None, :], branches=state))
         curve = {"current_A_m2": np.concatenate([e["current"][0] for e in parts])[::-1],
