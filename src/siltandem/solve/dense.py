@@ -10,9 +10,10 @@ from siltandem.laws import compiled as kernels
 from siltandem.numerics.tables import polish_root
 from siltandem.solve.certificate import certify_mpp
 from siltandem.solve.kernels import hermite_crossing, power_maximum
-from siltandem.solve.spacing import arc_length, evenly_spaced, interpolate_rows
+from siltandem.solve.spacing import (arc_length, evenly_spaced, interpolate_rows,
+                                     parameter_samples)
 from siltandem.solve.string import FORWARD_CURRENT_FRACTION, open_circuit_voltages
-from siltandem.solve.tail import finite_or, tail_samples, tail_short_circuit, unit_steps, with_tail_curve
+from siltandem.solve.tail import finite_or, tail_samples, tail_short_circuit, with_tail_curve
 
 
 #: exact samples of the dense pass of a traced curve: uniform in t, and uniform in current
@@ -57,15 +58,10 @@ def solve_dense(string, curve_points, reverse_fraction, *, t_voc, t_zero, t_forw
     # (with a margin: where dV/dt = 1 exactly the bound is the reverse end itself)
     t_start = np.maximum(t_low, finite_or(t_voc - 1.05 * (voc_guess - floor_guess) - 0.01,
                                            t_low))
-    by_t = t_start + (t_forward - t_start) * unit_steps(DENSE_T_SAMPLES)
     # the current at the samples' reverse end, from the pilot's forward law alone
     j_top = finite_or(string.pilot_current_at(t_start), jph)
-    fractions = unit_steps(DENSE_J_SAMPLES + 2)[:, 1:-1]
-    with np.errstate(invalid="ignore"):
-        by_j = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph
-                                       + (j_top - FORWARD_CURRENT_FRACTION * jph) * fractions)
-    by_j = np.where(np.isfinite(by_j), np.clip(by_j, t_start, t_forward), t_start)
-    t = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    t = parameter_samples(t_start, t_forward, FORWARD_CURRENT_FRACTION * jph, j_top,
+                          (DENSE_T_SAMPLES, DENSE_J_SAMPLES), string.pilot_voltage_at)
     points = t.shape[1]
     dense = string.evaluate(np.concatenate([t, t_voc], axis=1), slopes=True)
     voc = dense["voltage"][:, points:]

@@ -1,4 +1,5 @@
-"""Where a traced curve's points go: evenly in arc length along exact samples of the curve.
+"""Where a traced curve's points go: evenly in arc length along exact samples of the curve; and
+where those samples go (uniform in t and uniform in current).
 
 Points uniform in the pilot voltage t leave the knee of a non-limiting subcell, or a tunnel
 junction's valley, nearly empty (the curve moves fast in t there and slowly elsewhere). The
@@ -11,6 +12,8 @@ evaluated exactly by the caller; only their placement comes from the samples.
 Pure functions of (B, N) arrays, a row per design: a design's points never depend on its batch.
 """
 import numpy as np
+
+from siltandem.solve.tail import unit_steps
 
 #: weight of the parameter's own step in the arc length (relative to the V and J steps)
 PARAMETER_WEIGHT = 0.05
@@ -84,3 +87,19 @@ def evenly_spaced(arc, parameter, points, *, start=None, skip=None):
     start = np.zeros((arc.shape[0], 1)) if start is None else start
     targets = start + (arc[:, -1:] - start) * even_fractions(points, skip)
     return interpolate_rows(targets, arc, parameter)
+
+
+def parameter_samples(t_a, t_b, j_a, j_b, counts, inverse):
+    """Pilot voltages (B, n_t + n_j) to sample a piece of the curve at, sorted ascending: n_t
+    uniform in t from ``t_a`` to ``t_b`` (both included), and n_j where the current is uniform
+    strictly between ``j_a`` and ``j_b`` (``inverse``: current -> t; kept inside the piece, and
+    ``t_a`` where it has no value). Uniform t alone leaves the stretches where the current
+    changes fast nearly empty, uniform current those where it barely changes. ``counts`` =
+    (n_t, n_j); t_a, t_b, j_a, j_b (B, 1)."""
+    n_t, n_j = counts
+    by_t = t_a + (t_b - t_a) * unit_steps(n_t)
+    with np.errstate(invalid="ignore"):
+        by_j = inverse(j_a + (j_b - j_a) * unit_steps(n_j + 2)[:, 1:-1])
+    by_j = np.where(np.isfinite(by_j), np.clip(by_j, np.minimum(t_a, t_b), np.maximum(t_a, t_b)),
+                    t_a)
+    return np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)

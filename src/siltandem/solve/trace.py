@@ -25,7 +25,7 @@ import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
 from siltandem.solve.certificate import Segment, certify, polisher
-from siltandem.solve.spacing import arc_length, curve_spans, evenly_spaced
+from siltandem.solve.spacing import arc_length, curve_spans, evenly_spaced, parameter_samples
 from siltandem.solve.tail import tail_samples, tail_short_circuit
 
 SAMPLES_PER_PIECE = 160
@@ -58,18 +58,13 @@ def _samples(string, state, t_a, t_b, points):
     ends without inverting anything)."""
     pilot = string.subcells[string.single_pilot] if string.single_pilot is not None else None
     half = points // 2
-    by_t = t_a + (t_b - t_a) * np.linspace(0.0, 1.0, points - half)[None, :]
     ends = np.concatenate([t_a, t_b], axis=1)
     if pilot is not None:
         j_ends = pilot.pilot_current(ends, string.temperature_K)[0]
     else:
         j_ends = string.evaluate(ends, branches=state)["current"]
-    inner = np.linspace(0.0, 1.0, half + 2)[None, 1:-1]
-    with np.errstate(invalid="ignore"):
-        by_j = string.pilot_voltage_at(j_ends[:, :1] + (j_ends[:, 1:] - j_ends[:, :1]) * inner)
-    low, high = np.minimum(t_a, t_b), np.maximum(t_a, t_b)
-    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
-    ts = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    ts = parameter_samples(t_a, t_b, j_ends[:, :1], j_ends[:, 1:], (points - half, half),
+                           string.pilot_voltage_at)
     if _scalar(t_b) < _scalar(t_a):
         ts = ts[:, ::-1]
     return ts, string.evaluate(ts, branches=state, slopes=True)
