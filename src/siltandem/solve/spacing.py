@@ -11,15 +11,23 @@ evaluated exactly by the caller; only their placement comes from the samples.
 
 Pure functions of (B, N) arrays, a row per design: a design's points never depend on its batch.
 """
-import numpy as np
+import functools
 
-from siltandem.solve.tail import unit_steps
+import numpy as np
 
 #: weight of the parameter's own step in the arc length (relative to the V and J steps)
 PARAMETER_WEIGHT = 0.05
 
 #: smallest span a coordinate is scaled by (a flat coordinate then adds nothing)
 SPAN_FLOOR = 1e-12
+
+
+@functools.lru_cache(maxsize=16)
+def unit_steps(points):
+    """np.linspace(0, 1, points) as a (1, points) row, made once (read-only)."""
+    steps = np.linspace(0.0, 1.0, points)[None, :]
+    steps.flags.writeable = False
+    return steps
 
 
 def _finite_or_nan(x):

@@ -1,19 +1,10 @@
 """The tail of a curve beyond a steep reverse breakdown, where the pilot's junction voltage cannot
 resolve the current: sampled, traced and crossed by current, every element through its inverse law.
 """
-import functools
-
 import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
-
-
-@functools.lru_cache(maxsize=16)
-def unit_steps(points):
-    """np.linspace(0, 1, points) as a (1, points) row, made once (read-only)."""
-    steps = np.linspace(0.0, 1.0, points)[None, :]
-    steps.flags.writeable = False
-    return steps
+from siltandem.solve.spacing import unit_steps
 
 
 def finite_or(value, fallback):
