@@ -483,9 +483,9 @@ def _quarter_points(segment, fail, around):
 
 def polisher(string, segments):
     """The polish ``certify`` calls: the root of dP/dt in a bracket on a segment's branch state
-    (numerics.bracketed_root; rows outside ``rows`` come with a zero-length bracket). A
+    (numerics.bracketed_root; rows not to polish come with a zero-length bracket). A
     non-finite dP/dt counts as rising, as in solve.py."""
-    def polish(k, rows, lower, upper, g_lower, g_upper):
+    def polish(k, lower, upper, g_lower, g_upper):
         segment = segments[k]
 
         def power_slope(t):
@@ -524,7 +524,7 @@ def _move(string, segment, k, rows, polish):
                & (g_hi <= 0) & (t_hi > t_lo))
     t_new = t_best
     if bracket.any():
-        root = polish(k, bracket[:, 0], np.where(bracket, t_lo, t_best),
+        root = polish(k, np.where(bracket, t_lo, t_best),
                       np.where(bracket, t_hi, t_best), np.where(bracket, g_lo, 0.0),
                       np.where(bracket, g_hi, 0.0))
         t_new = np.where(bracket & np.isfinite(root), root, t_best)
@@ -562,9 +562,9 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
     photocurrent : (B, 1)
         The pilot's photocurrent (scale of the absolute tolerance).
     polish : callable
-        ``polish(segment_index, rows, lo, hi, g_lo, g_hi) -> t`` (B, 1): the root of dP/dt in
-        [lo, hi] on that segment's branch state for the rows ``rows`` (B,) bool (the others are
-        ignored); NaN where none is found.
+        ``polish(segment_index, lo, hi, g_lo, g_hi) -> t`` (B, 1): the root of dP/dt in
+        [lo, hi] on that segment's branch state (rows not to polish come with lo = hi); NaN
+        where none is found.
     open_circuit : (t, voltages), optional
         The pilot voltage of open circuit (B, 1) and every element's voltage at zero current
         (a list of (B, 1)): a point of the curve with P = 0, in the first segment (all-tunnel
@@ -590,44 +590,17 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
     spent = np.zeros(size, dtype=int)
     active = np.ones(size, dtype=bool) if active is None else np.asarray(active, dtype=bool)
     absolute = ABSOLUTE_TOLERANCE_V * np.abs(photocurrent)
-    tunnels = [t.name for t in string.tunnels]
     zero = None
     if open_circuit is not None:
-        t_open, zero = open_circuit
-        zero = [np.array(np.broadcast_to(z, t_mpp.shape), dtype=float) for z in zero]
-        with np.errstate(invalid="ignore", over="ignore"):
-            below = active & ((at_mpp["current"] * at_mpp["voltage"])[:, 0] < 0)
-        if below.any():
-            chosen = below[:, None]
-            t_mpp = np.where(chosen, t_open, t_mpp)
-            at_mpp = {"current": np.where(chosen, 0.0, at_mpp["current"]),
-                      "voltage": np.where(chosen, sum(zero), at_mpp["voltage"]),
-                      "voltages": [np.where(chosen, z, v) for z, v in
-                                   zip(zero, at_mpp["voltages"])]}
-            mpp_segment = np.where(below, 0, mpp_segment)
-            moved |= below
+        zero, t_mpp, at_mpp, mpp_segment, below = _no_lower_than_open_circuit(
+            open_circuit, active, t_mpp, at_mpp, mpp_segment)
+        moved |= below
     for attempt in range(passes + 1):
-        with np.errstate(invalid="ignore", over="ignore"):
-            p_mpp = at_mpp["current"] * at_mpp["voltage"]
         # 1. the reported MPP is at least every evaluated point: where one is higher, the MPP
         # moves there (polished)
-        best = np.stack([np.max(np.where(np.isfinite(s.power), s.power, -np.inf), axis=1)
-                         for s in segments])                                   # (S, B)
-        where = np.argmax(best, axis=0)
-        higher = active & np.isfinite(p_mpp[:, 0]) & (best.max(axis=0) > p_mpp[:, 0])
-        for k, segment in enumerate(segments):
-            rows = higher & (where == k)
-            if not rows.any():
-                continue
-            t_new, e = _move(string, segment, k, rows, polish)
-            chosen = rows[:, None]
-            t_mpp = np.where(chosen, t_new, t_mpp)
-            at_mpp = {"current": np.where(chosen, e["current"], at_mpp["current"]),
-                      "voltage": np.where(chosen, e["voltage"], at_mpp["voltage"]),
-                      "voltages": [np.where(chosen, a, b) for a, b in
-                                   zip(e["voltages"], at_mpp["voltages"])]}
-            mpp_segment = np.where(rows, k, mpp_segment)
-            moved |= rows
+        t_mpp, at_mpp, mpp_segment, higher = _move_to_best(string, segments, active, t_mpp,
+                                                           at_mpp, mpp_segment, polish)
+        moved |= higher
         with np.errstate(invalid="ignore", over="ignore"):
             p_mpp = at_mpp["current"] * at_mpp["voltage"]
         # 2. the bounds of every cell
@@ -642,29 +615,18 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
             failing |= fail.any(axis=1)
         if not failing.any() or attempt == passes:
             break
-        # 3. refinement: new points evaluated exactly and added to the samples, within each
-        # design's budget (a design that spends it stays unproven)
-        added_any = False
-        for k, (segment, (bound, width, view), fail) in enumerate(
-                zip(segments, results, fails)):
-            fail = fail & (spent < MAX_POINTS)[:, None]
-            if not fail.any():
-                continue
-            holds = (mpp_segment == k)[:, None]
-            new = _points(view, fail, bound, width, t_mpp, p_mpp, holds, tolerance)
-            new = new[:, :MAX_POINTS_PER_PASS]
-            if new.shape[1] == 0:
-                continue
-            real = np.isfinite(new)
-            spent += real.sum(axis=1)
-            # rows with fewer new points repeat their first sample (a zero-length cell)
-            new = np.where(real, new, segment.t[:, :1])
-            e = segment.evaluate(string, new)
-            segment.merge(Segment.from_evaluation(segment.state, new, e, tunnels,
-                                                  segment.by_current))
-            added_any = True
-        if not added_any:
+        # 3. refinement: new points evaluated exactly and added to the samples
+        if not _refine(string, segments, results, fails, spent, mpp_segment, t_mpp, p_mpp,
+                       tolerance):
             break
+    return _outcome(segments, results, p_mpp, failing, active), t_mpp, at_mpp, mpp_segment, \
+        moved
+
+
+def _outcome(segments, results, p_mpp, failing, active):
+    """The Certificate from the last pass: certified where no cell failed, the largest bound
+    (at least the MPP's power), and the cells of positive length checked."""
+    size = failing.shape[0]
     bound = np.full(size, np.nan)
     cells = np.zeros(size, dtype=int)
     for (b, _, _), segment in zip(results, segments):
@@ -675,7 +637,76 @@ def certify(string, segments, mpp_segment, t_mpp, at_mpp, *, photocurrent, polis
     bound = np.where(finite, np.fmax(bound, p_mpp[:, 0]), np.nan)
     certified = ~failing & finite & active
     bound = np.where(active, bound, np.nan)
-    return Certificate(certified, bound, cells), t_mpp, at_mpp, mpp_segment, moved
+    return Certificate(certified, bound, cells)
+
+
+def _no_lower_than_open_circuit(open_circuit, active, t_mpp, at_mpp, mpp_segment):
+    """Where the MPP given has P < 0 (a string that gives no power), open circuit (P = 0, in
+    the first segment) instead. Returns (the element voltages at zero current (B, 1 each),
+    t_mpp, at_mpp, mpp_segment, where it moved (B,))."""
+    t_open, zero = open_circuit
+    zero = [np.array(np.broadcast_to(z, t_mpp.shape), dtype=float) for z in zero]
+    with np.errstate(invalid="ignore", over="ignore"):
+        below = active & ((at_mpp["current"] * at_mpp["voltage"])[:, 0] < 0)
+    if below.any():
+        chosen = below[:, None]
+        t_mpp = np.where(chosen, t_open, t_mpp)
+        at_mpp = {"current": np.where(chosen, 0.0, at_mpp["current"]),
+                  "voltage": np.where(chosen, sum(zero), at_mpp["voltage"]),
+                  "voltages": [np.where(chosen, z, v) for z, v in
+                               zip(zero, at_mpp["voltages"])]}
+        mpp_segment = np.where(below, 0, mpp_segment)
+    return zero, t_mpp, at_mpp, mpp_segment, below
+
+
+def _move_to_best(string, segments, active, t_mpp, at_mpp, mpp_segment, polish):
+    """Where an evaluated point of some segment is higher than the MPP, the MPP moves there,
+    polished (_move). Returns (t_mpp, at_mpp, mpp_segment, where it moved (B,))."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        p_mpp = at_mpp["current"] * at_mpp["voltage"]
+    best = np.stack([np.max(np.where(np.isfinite(s.power), s.power, -np.inf), axis=1)
+                     for s in segments])                                   # (S, B)
+    where = np.argmax(best, axis=0)
+    higher = active & np.isfinite(p_mpp[:, 0]) & (best.max(axis=0) > p_mpp[:, 0])
+    for k, segment in enumerate(segments):
+        rows = higher & (where == k)
+        if not rows.any():
+            continue
+        t_new, e = _move(string, segment, k, rows, polish)
+        chosen = rows[:, None]
+        t_mpp = np.where(chosen, t_new, t_mpp)
+        at_mpp = {"current": np.where(chosen, e["current"], at_mpp["current"]),
+                  "voltage": np.where(chosen, e["voltage"], at_mpp["voltage"]),
+                  "voltages": [np.where(chosen, a, b) for a, b in
+                               zip(e["voltages"], at_mpp["voltages"])]}
+        mpp_segment = np.where(rows, k, mpp_segment)
+    return t_mpp, at_mpp, mpp_segment, higher
+
+
+def _refine(string, segments, results, fails, spent, mpp_segment, t_mpp, p_mpp, tolerance):
+    """New exact points in every segment's failing cells (_points), added to its samples,
+    within each design's budget (a design that spends it stays unproven; ``spent`` (B,)
+    counts in place). Returns whether any point was added."""
+    tunnels = [t.name for t in string.tunnels]
+    added_any = False
+    for k, (segment, (bound, width, view), fail) in enumerate(zip(segments, results, fails)):
+        fail = fail & (spent < MAX_POINTS)[:, None]
+        if not fail.any():
+            continue
+        holds = (mpp_segment == k)[:, None]
+        new = _points(view, fail, bound, width, t_mpp, p_mpp, holds, tolerance)
+        new = new[:, :MAX_POINTS_PER_PASS]
+        if new.shape[1] == 0:
+            continue
+        real = np.isfinite(new)
+        spent += real.sum(axis=1)
+        # rows with fewer new points repeat their first sample (a zero-length cell)
+        new = np.where(real, new, segment.t[:, :1])
+        e = segment.evaluate(string, new)
+        segment.merge(Segment.from_evaluation(segment.state, new, e, tunnels,
+                                              segment.by_current))
+        added_any = True
+    return added_any
 
 
 def is_concave(string):

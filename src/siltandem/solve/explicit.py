@@ -26,7 +26,7 @@ def solve_explicit(string, temperature_K):
     limit = np.min(np.concatenate([jph + j0 for jph, j0, _ in cells], axis=1), axis=1,
                    keepdims=True)
 
-    def voltage(j, order=0):
+    def voltage(j):
         v = -resistance * j
         dv = -resistance + 0.0 * j
         d2v = 0.0 * j

@@ -1,6 +1,6 @@
 """Operating points on the traced path of a string below its tunnel junctions' peaks: Voc, Jsc and the
-MPP as roots on the curve parameterised by the pilot's junction voltage, the MPP certified, and the
-curve's points spaced by arc length.
+MPP as roots on the curve parameterised by the pilot's junction voltage, the MPP certified; with a
+curve, the dense pass (dense.py) instead.
 """
 import numpy as np
 
@@ -8,69 +8,80 @@ from siltandem.numerics.roots import bracketed_root, safeguarded_newton
 from siltandem.solve.certificate import certify_mpp
 from siltandem.solve.dense import solve_dense
 from siltandem.solve.string import FORWARD_CURRENT_FRACTION, open_circuit_voltages
-from siltandem.solve.tail import finite_or, tail_samples, tail_short_circuit
+from siltandem.solve.tail import finite_or, lower_end, tail_samples, tail_short_circuit
 
 
 #: grid points used to bracket the MPP before root finding
 MPP_GRID_POINTS = 48
 
 
-#: pre-sample points per returned point when spacing a curve by arc length
-SPREAD_SAMPLES_PER_POINT = 2
-
-
-def spread_parameter(string, t_start, t_end, points, branches=None, end_currents=None):
-    """Pilot voltages from t_start to t_end (each (B, 1)) spaced evenly along the curve.
-
-    The spacing is uniform in arc length of the terminal curve in (V / V-span, J / J-span): a
-    dense pre-sample (uniform in t and in current) gives the arc length as a function of t, and
-    the returned t are where it takes evenly spaced values. Every returned point is then
-    evaluated exactly by the caller; only their placement comes from the pre-sample. Uniform t
-    alone leaves the knee of a non-limiting cell, or a junction's valley, nearly empty.
-    ``end_currents`` (optional) are the currents at t_start and t_end when the caller has them.
-    """
-    dense = SPREAD_SAMPLES_PER_POINT * points
-    s = np.linspace(0.0, 1.0, dense // 2)[None, :]
-    by_t = t_start + (t_end - t_start) * s
-    if end_currents is None:
-        j_start = string.evaluate(t_start, branches=branches)["current"]
-        j_end = string.evaluate(t_end, branches=branches)["current"]
-    else:
-        j_start, j_end = end_currents
-    inner = np.linspace(0.0, 1.0, dense - dense // 2 + 2)[None, 1:-1]
-    with np.errstate(invalid="ignore"):
-        by_j = string.pilot_voltage_at(j_start + (j_end - j_start) * inner)
-    low, high = np.minimum(t_start, t_end), np.maximum(t_start, t_end)
-    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
-    merged = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
-    merged = np.where(t_end < t_start, merged[:, ::-1], merged)
-    sample = string.evaluate(merged, branches=branches)
-    v = np.nan_to_num(sample["voltage"], nan=0.0, posinf=0.0, neginf=0.0)
-    j = np.nan_to_num(sample["current"], nan=0.0, posinf=0.0, neginf=0.0)
-    v_span = np.maximum(np.ptp(v, axis=1, keepdims=True), 1e-12)
-    j_span = np.maximum(np.ptp(j, axis=1, keepdims=True), 1e-12)
-    step = np.hypot(np.diff(v, axis=1) / v_span, np.diff(j, axis=1) / j_span)
-    # a little weight on t itself keeps points on stretches where the curve barely moves
-    t_span = np.maximum(np.abs(t_end - t_start), 1e-12)
-    step = step + 0.05 * np.abs(np.diff(merged, axis=1)) / t_span
-    arc = np.concatenate([np.zeros((merged.shape[0], 1)), np.cumsum(step, axis=1)], axis=1)
-    targets = np.linspace(0.0, 1.0, points)[None, :] * arc[:, -1:]
-    out = np.empty((merged.shape[0], points))
-    for row in range(merged.shape[0]):
-        out[row] = np.interp(targets[row], arc[row], merged[row])
-    return out
-
-
 def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
     """Vectorized solve along the pilot voltage with every tunnel junction on its tunnel branch.
 
     Also tells, per design, whether the trace reaches a junction's peak current (then the design
-    is traced again piece by piece).
+    is traced again piece by piece). With ``curve_points``, the dense pass (dense.py) answers.
+    """
+    t_zero, t_forward, t_voc, t_lowest, t_low, limited = _trace_range(string, temperature_K)
+    if curve_points:
+        return solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
+                           t_zero=t_zero, t_forward=t_forward, t_lowest=t_lowest, t_low=t_low,
+                           limited=limited)
+
+    at_voc = string.evaluate(t_voc)
+    voc = at_voc["voltage"]
+    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
+    low = string.evaluate(t_low)
+    v_low = finite_or(low["voltage"], -1e3)
+    reaches_peak, capped, tail_rows = lower_end(string, v_low, v_floor, t_low, t_lowest,
+                                                low["current"], limited)
+    t_sc = _short_circuit_root(string, t_low, t_voc, voc, v_low)
+    t_sc = np.where(capped[:, None], t_low, t_sc)
+    # beyond the pilot's lowest voltage, with V still positive: the tail, sampled by current;
+    # Jsc lies there
+    tail = None
+    if tail_rows.any():
+        tail = tail_samples(string, low["current"], tail_rows)
+        t_sc = np.where(tail_rows[:, None], t_low, t_sc)
+
+    # MPP: best of a coarse grid in t from short to open circuit, then dP/dt = 0 inside the
+    # grid cells around it
+    s = np.linspace(0.0, 1.0, MPP_GRID_POINTS)[None, :]
+    grid_t = t_sc + (t_voc - t_sc) * s
+    grid = string.evaluate(grid_t, slopes=True)
+    jsc = np.where(capped[:, None], np.nan, grid["current"][:, :1])
+    if tail is not None:
+        jsc = np.where(tail_rows[:, None], tail_short_circuit(string, tail, tail_rows), jsc)
+    t_mpp, at_mpp, interior = _mpp_in_grid(string, grid_t, grid)
+    # the certificate (certificate.py): between t_sc and t_voc lies every point of positive
+    # power (V rises with t)
+    proof, t_mpp, at_mpp = certify_mpp(string, grid_t, grid, t_mpp, at_mpp, t_voc,
+                                      open_circuit_voltages(string, at_voc), interior[:, 0],
+                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
+    j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
+
+    return dict(voc=voc.copy(), jsc=jsc.copy(), v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
+                p_mpp=(j_mpp * v_mpp).copy(),
+                voltages_mpp=[np.array(np.broadcast_to(v, j_mpp.shape), dtype=float)
+                              for v in at_mpp["voltages"]],
+                voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
+                              for v in at_voc["voltages"]],
+                curve=None, reaches_peak=reaches_peak, capped=capped, certificate=proof,
+                t_voc=t_voc)
+
+
+def _trace_range(string, temperature_K):
+    """The pilot voltages (B, 1 each) that bound the trace: at zero current (``t_zero``, and
+    ``t_voc`` one Newton step on, open circuit to rounding), at the forward end, the pilot's
+    lowest, and the trace's lower end ``t_low``; with ``limited`` (B, 1) bool, or None without
+    isotype interfaces, where an interface's flat-band current sets ``t_low``.
+
+    With tunnel junctions, every one on its tunnel branch, the trace must stay below the
+    smallest peak current, i.e. above the pilot voltage that carries it. An isotype interface
+    driven forward carries at most its flat-band current: the law has no voltage beyond it,
+    so the trace stops there (reported, never invented).
     """
     jph = string.pilot_photocurrent
-    # the pilot voltages at zero current, at the forward end and, with tunnel junctions, at the
-    # smallest peak current (every junction on its tunnel branch: the trace must stay below
-    # it, i.e. above the pilot voltage t_peak that carries it), in one inverse
+    # zero current, the forward end and the smallest peak current in one inverse
     targets = [np.zeros_like(jph), FORWARD_CURRENT_FRACTION * jph]
     if string.tunnels:
         smallest_peak = np.min(np.concatenate(
@@ -86,10 +97,7 @@ def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
     if string.tunnels:
         t_peak = inverted[:, 2:3]
         t_low = np.where(np.isfinite(t_peak) & (t_peak > t_lowest), t_peak, t_lowest)
-    # an isotype interface driven forward carries at most its flat-band current: the law has no
-    # voltage beyond it, so the trace stops there (reported, never invented)
-    capped = np.zeros(jph.shape[0], dtype=bool)
-    capped_first = np.zeros(jph.shape[0], dtype=bool)
+    limited = None
     caps = [np.broadcast_to(e.current_cap(temperature_K), jph.shape) for e in string.elements
             if e.kind == "isotype"]
     if caps:
@@ -98,77 +106,38 @@ def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
             t_cap = string.pilot_voltage_at(cap * (1 - 1e-9))
         limited = np.isfinite(t_cap) & (t_cap > t_low)
         t_low = np.where(limited, t_cap, t_low)
-        capped_first = limited[:, 0]
+    return t_zero, t_forward, t_voc, t_lowest, t_low, limited
 
-    if curve_points:
-        return solve_dense(string, curve_points, reverse_fraction, t_voc=t_voc,
-                            t_zero=t_zero, t_forward=t_forward, t_lowest=t_lowest, t_low=t_low,
-                            limited=limited if caps else None)
 
-    at_voc = string.evaluate(t_voc)
-    voc = at_voc["voltage"]
-    v_floor = -np.maximum(reverse_fraction * voc, 0.3)
-    low = string.evaluate(t_low)
-    v_low = finite_or(low["voltage"], -1e3)
-    reaches_peak = np.zeros(jph.shape[0], dtype=bool)
-    if string.tunnels:
-        # (where an isotype interface's flat-band current ends the curve first, no junction
-        # reaches its peak)
-        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
-
-    # Jsc (V = 0) and, for a curve, its reverse end (V = v_floor) together: V rises strictly
-    # with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
-    # guess: the terminal voltage follows t one to one (the pilot takes up the change).
-    levels = np.concatenate([np.zeros_like(voc), v_floor], axis=1) if curve_points else \
-        np.zeros_like(voc)
-
-    def shifted(t):
+def _short_circuit_root(string, t_low, t_voc, voc, v_low):
+    """The pilot voltage (B, 1) of V = 0 between ``t_low`` and ``t_voc``: V rises strictly
+    with t and its slope is analytic, so safeguarded Newton takes a few evaluations. First
+    guess: the terminal voltage follows t one to one (the pilot takes up the change)."""
+    def voltage(t):
         e = string.evaluate(t, slopes=True)
         finite = np.isfinite(e["voltage"]) & np.isfinite(e["dvoltage"])
-        return (np.where(finite, e["voltage"] - levels, -1e3),
-                np.where(finite, e["dvoltage"], 1.0))
+        return (np.where(finite, e["voltage"], -1e3), np.where(finite, e["dvoltage"], 1.0))
 
-    roots = safeguarded_newton(shifted, np.broadcast_to(t_low, levels.shape),
-                               np.broadcast_to(t_voc, levels.shape), start=t_voc - (voc - levels),
-                               end_values=(v_low - levels, finite_or(voc, -1e3) - levels))
-    t_sc = roots[:, :1]
-    if caps:
-        # the curve ends at the interface's flat-band current above zero volts: no Jsc to give
-        capped = (limited & (v_low > 0))[:, 0]
-        t_sc = np.where(capped[:, None], t_low, t_sc)
-    # where V is still positive at the pilot's lowest voltage (just above its breakdown), the
-    # curve goes on at currents that t no longer resolves: the tail, sampled by current;
-    # Jsc lies there
-    tail_rows = ((t_low <= t_lowest) & (v_low > 0) & np.isfinite(low["current"]))[:, 0] & \
-        ~capped
-    tail = None
-    if tail_rows.any():
-        tail = tail_samples(string, low["current"], tail_rows)
-        t_sc = np.where(tail_rows[:, None], t_low, t_sc)
-    if curve_points:
-        t_floor = roots[:, 1:2]
-        t_floor = np.where(np.isfinite(t_floor), t_floor,
-                           np.where(np.isfinite(t_sc), t_sc, t_low))
+    return safeguarded_newton(voltage, np.broadcast_to(t_low, voc.shape),
+                              np.broadcast_to(t_voc, voc.shape), start=t_voc - voc,
+                              end_values=(v_low, finite_or(voc, -1e3)))
 
-    # MPP: best of a coarse grid in t from short to open circuit, then dP/dt = 0 inside the
-    # grid cells around it (the grid's exact slopes are the bracket's end values)
-    s = np.linspace(0.0, 1.0, MPP_GRID_POINTS)[None, :]
-    grid_t = t_sc + (t_voc - t_sc) * s
-    grid = string.evaluate(grid_t, slopes=True)
-    jsc = grid["current"][:, :1]
-    if caps:
-        jsc = np.where(capped[:, None], np.nan, jsc)
-    if tail is not None:
-        jsc = np.where(tail_rows[:, None], tail_short_circuit(string, tail, tail_rows), jsc)
+
+def _mpp_in_grid(string, grid_t, grid):
+    """The MPP from a grid in t (``grid``: its exact evaluation with slopes): the root of
+    dP/dt in the grid cells around the best grid point (the grid's exact slopes are the
+    bracket's end values), else the best grid point. Returns (t_mpp, its evaluation,
+    interior: where the root was found)."""
     power = finite_or(grid["current"] * grid["voltage"], -np.inf)
     # no value only where the current is beyond what an element can carry, at the reverse
     # end of the bracket, where P still rises towards the MPP: count it as rising (a zero
     # there would be a false root)
     grid_slope = finite_or(grid["dcurrent"] * grid["voltage"]
                             + grid["current"] * grid["dvoltage"], 1e300)
+    last = grid_t.shape[1] - 1
     best = np.argmax(power, axis=1)[:, None]
-    low_index = np.clip(best - 1, 0, MPP_GRID_POINTS - 1)
-    high_index = np.clip(best + 1, 0, MPP_GRID_POINTS - 1)
+    low_index = np.clip(best - 1, 0, last)
+    high_index = np.clip(best + 1, 0, last)
     lo = np.take_along_axis(grid_t, low_index, axis=1)
     hi = np.take_along_axis(grid_t, high_index, axis=1)
 
@@ -186,25 +155,4 @@ def solve_on_path(string, temperature_K, curve_points, reverse_fraction):
     if np.any(lost):
         t_mpp = np.where(lost, np.take_along_axis(grid_t, best, axis=1), t_mpp)
         at_mpp = string.evaluate(t_mpp, slopes=True)
-    # the certificate (certificate.py): between t_sc and t_voc lies every point of positive
-    # power (V rises with t)
-    proof, t_mpp, at_mpp = certify_mpp(string, grid_t, grid, t_mpp, at_mpp, t_voc,
-                                      open_circuit_voltages(string, at_voc), interior[:, 0],
-                                      ~reaches_peak & np.isfinite(t_mpp[:, 0]), tail)
-    j_mpp, v_mpp = at_mpp["current"], at_mpp["voltage"]
-
-    curve = None
-    if curve_points:
-        curve_t = spread_parameter(string, t_floor, t_forward, curve_points)
-        traced = string.evaluate(curve_t)
-        curve = {"current_A_m2": traced["current"].copy(), "voltage_V": traced["voltage"].copy()}
-        for element, v_i in zip(string.elements, traced["voltages"]):
-            curve[element.name] = np.array(v_i, dtype=float)
-    return dict(voc=voc.copy(), jsc=jsc.copy(), v_mpp=v_mpp.copy(), j_mpp=j_mpp.copy(),
-                p_mpp=(j_mpp * v_mpp).copy(),
-                voltages_mpp=[np.array(np.broadcast_to(v, j_mpp.shape), dtype=float)
-                              for v in at_mpp["voltages"]],
-                voltages_voc=[np.array(np.broadcast_to(v, voc.shape), dtype=float)
-                              for v in at_voc["voltages"]],
-                curve=curve, reaches_peak=reaches_peak, capped=capped, certificate=proof,
-                t_voc=t_voc)
+    return t_mpp, at_mpp, interior

@@ -118,46 +118,16 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     past_peak = simple["reaches_peak"]
     proof = simple.get("certificate")
     size = past_peak.size
-    certified = np.zeros(size, dtype=bool) if proof is None else proof.certified.copy()
-    bound = np.full(size, np.nan) if proof is None else np.array(proof.bound_W_m2, dtype=float)
-    cells = np.zeros(size, dtype=int) if proof is None else proof.cells.copy()
+    certificate = dict(
+        certified=np.zeros(size, dtype=bool) if proof is None else proof.certified.copy(),
+        bound=np.full(size, np.nan) if proof is None else np.array(proof.bound_W_m2, dtype=float),
+        cells=np.zeros(size, dtype=int) if proof is None else proof.cells.copy())
     regime = np.array(["below peak" if string.tunnels else "no tunnel junction"] * past_peak.size,
                       dtype=object)
     branches = {t.name: np.full(past_peak.shape, "tunnel", dtype=object) for t in string.tunnels}
-    if np.any(past_peak):
-        from siltandem.solve.trace import solve_path
-
-        for row in np.flatnonzero(past_peak):
-            one = string.rows(np.array([row]))
-            start = None
-            if "samples" in simple:
-                # the vectorized pass sampled this design's first piece already
-                ts, e = simple["samples"]
-                pick = slice(row, row + 1)
-                start = dict(voc=simple["voc"][pick], t_voc=simple["t_voc"][pick],
-                             voltages_voc=[v[pick] for v in simple["voltages_voc"]],
-                             samples=(ts[pick], {
-                        k: (x[pick] if k != "voltages" else [v[pick] for v in x])
-                        for k, x in e.items()}))
-            answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction,
-                                start=start)
-            for key in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"):
-                simple[key][row] = answer[key]
-            for k, v in enumerate(answer["voltages_mpp"]):
-                simple["voltages_mpp"][k][row] = v
-            for k, v in enumerate(answer["voltages_voc"]):
-                simple["voltages_voc"][k][row] = v
-            for name, branch in answer["branches_mpp"].items():
-                branches[name][row] = branch
-            regime[row] = answer["regime"]
-            certified[row] = answer["certificate"].certified[0]
-            bound[row] = answer["certificate"].bound_W_m2[0]
-            cells[row] = answer["certificate"].cells[0]
-            if curve_points:
-                simple["curve"]["current_A_m2"][row] = answer["curve"]["current_A_m2"]
-                simple["curve"]["voltage_V"][row] = answer["curve"]["voltage_V"]
-                for element in string.elements:
-                    simple["curve"][element.name][row] = answer["curve"][element.name]
+    for row in np.flatnonzero(past_peak):
+        _trace_past_peak(string, simple, row, curve_points, reverse_fraction, regime, branches,
+                         certificate)
     # open circuit is the point of zero current, where every element but a subcell has zero
     # voltage (a resistor, a tunnel junction and an isotype interface each carry no current
     # at zero volts): Voc is the sum of the subcells' open-circuit voltages. (Evaluated at the
@@ -165,29 +135,9 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
     # would answer with an enormous voltage, or none.)
     simple["voltages_voc"] = open_circuit_voltages(string, {"voltages": simple["voltages_voc"]})
     simple["voc"] = functools.reduce(np.add, simple["voltages_voc"])
-    voc, jsc, v_mpp, j_mpp, p_mpp = (simple[k] for k in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"))
-    # a string that gives no power (blocked) has its best point at open circuit: P = 0 there,
-    # never a rounding-level negative power
-    dead = np.isfinite(p_mpp) & (p_mpp <= 0)
-    if np.any(dead):
-        j_mpp, v_mpp, p_mpp = (np.where(dead, 0.0, j_mpp), np.where(dead, voc, v_mpp),
-                               np.where(dead, 0.0, p_mpp))
-        bound = np.where(dead[:, 0], np.fmax(bound, 0.0), bound)
-        simple["voltages_mpp"] = [np.where(dead, vo, vm) for vm, vo in
-                                  zip(simple["voltages_mpp"], simple["voltages_voc"])]
-
-    # no MPP found: no half of one either (a current from one point, a voltage from another)
-    lost = ~np.isfinite(p_mpp)
-    if np.any(lost):
-        j_mpp, v_mpp = np.where(lost, np.nan, j_mpp), np.where(lost, np.nan, v_mpp)
-        simple["voltages_mpp"] = [np.where(lost, np.nan, v) for v in simple["voltages_mpp"]]
-
-    # power balance: each element's own forward law at its voltage
-    balance = np.zeros_like(p_mpp)
-    for element, v_i in zip(string.elements, simple["voltages_mpp"]):
-        j_i, _ = element.current(v_i, temperature_K)
-        balance = balance + v_i * j_i
-    balance_error = np.abs(balance - p_mpp)
+    voc, jsc = simple["voc"], simple["jsc"]
+    j_mpp, v_mpp, p_mpp, bound = _settled_mpp(simple, certificate["bound"])
+    balance_error = _power_balance_error(string, simple["voltages_mpp"], p_mpp, temperature_K)
 
     with np.errstate(invalid="ignore", divide="ignore"):
         fill_factor = p_mpp / (voc * jsc)
@@ -210,8 +160,74 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         power_balance_error_W_m2=flat(balance_error), failed=failed,
         pilot_index=string.pilot_index[:, 0], curve=simple["curve"], regime=regime,
         tunnel_branch_at_mpp=branches, capped=capped,
-        mpp_certified=certified & np.isfinite(flat(p_mpp)),
+        mpp_certified=certificate["certified"] & np.isfinite(flat(p_mpp)),
         mpp_bound_W_m2=np.where(np.isfinite(flat(p_mpp)), bound, np.nan),
-        mpp_cells_checked=cells)
+        mpp_cells_checked=certificate["cells"])
 
 
+def _trace_past_peak(string, simple, row, curve_points, reverse_fraction, regime, branches,
+                     certificate):
+    """Design ``row``, whose trace reached a junction's peak, traced piece by piece through
+    its junctions' branches (trace.py); its answers written into ``simple``, ``regime``,
+    ``branches`` and ``certificate`` (arrays of the batch, in place)."""
+    from siltandem.solve.trace import solve_path
+
+    one = string.rows(np.array([row]))
+    start = None
+    if "samples" in simple:
+        # the vectorized pass sampled this design's first piece already
+        ts, e = simple["samples"]
+        pick = slice(row, row + 1)
+        start = dict(voc=simple["voc"][pick], t_voc=simple["t_voc"][pick],
+                     voltages_voc=[v[pick] for v in simple["voltages_voc"]],
+                     samples=(ts[pick], {k: (x[pick] if k != "voltages" else [v[pick] for v in x])
+                                         for k, x in e.items()}))
+    answer = solve_path(one, curve_points=curve_points, reverse_fraction=reverse_fraction,
+                        start=start)
+    for key in ("voc", "jsc", "v_mpp", "j_mpp", "p_mpp"):
+        simple[key][row] = answer[key]
+    for k, v in enumerate(answer["voltages_mpp"]):
+        simple["voltages_mpp"][k][row] = v
+    for k, v in enumerate(answer["voltages_voc"]):
+        simple["voltages_voc"][k][row] = v
+    for name, branch in answer["branches_mpp"].items():
+        branches[name][row] = branch
+    regime[row] = answer["regime"]
+    certificate["certified"][row] = answer["certificate"].certified[0]
+    certificate["bound"][row] = answer["certificate"].bound_W_m2[0]
+    certificate["cells"][row] = answer["certificate"].cells[0]
+    if curve_points:
+        simple["curve"]["current_A_m2"][row] = answer["curve"]["current_A_m2"]
+        simple["curve"]["voltage_V"][row] = answer["curve"]["voltage_V"]
+        for element in string.elements:
+            simple["curve"][element.name][row] = answer["curve"][element.name]
+
+
+def _settled_mpp(simple, bound):
+    """(J, V, P) of the MPP (B, 1 each) and the power bound (B,) as reported: a string that
+    gives no power (blocked) has its best point at open circuit (P = 0 there, never a
+    rounding-level negative power); where no MPP was found, no half of one either (a current
+    from one point, a voltage from another). ``simple["voltages_mpp"]`` follows, in place."""
+    voc, j_mpp, v_mpp, p_mpp = (simple[k] for k in ("voc", "j_mpp", "v_mpp", "p_mpp"))
+    dead = np.isfinite(p_mpp) & (p_mpp <= 0)
+    if np.any(dead):
+        j_mpp, v_mpp, p_mpp = (np.where(dead, 0.0, j_mpp), np.where(dead, voc, v_mpp),
+                               np.where(dead, 0.0, p_mpp))
+        bound = np.where(dead[:, 0], np.fmax(bound, 0.0), bound)
+        simple["voltages_mpp"] = [np.where(dead, vo, vm) for vm, vo in
+                                  zip(simple["voltages_mpp"], simple["voltages_voc"])]
+    lost = ~np.isfinite(p_mpp)
+    if np.any(lost):
+        j_mpp, v_mpp = np.where(lost, np.nan, j_mpp), np.where(lost, np.nan, v_mpp)
+        simple["voltages_mpp"] = [np.where(lost, np.nan, v) for v in simple["voltages_mpp"]]
+    return j_mpp, v_mpp, p_mpp, bound
+
+
+def _power_balance_error(string, voltages_mpp, p_mpp, temperature_K):
+    """|sum_i V_i J_i(V_i) - P| at the MPP (B, 1), each J_i from the element's own forward law
+    (summing V_i J would agree by construction and prove nothing)."""
+    balance = np.zeros_like(p_mpp)
+    for element, v_i in zip(string.elements, voltages_mpp):
+        j_i, _ = element.current(v_i, temperature_K)
+        balance = balance + v_i * j_i
+    return np.abs(balance - p_mpp)

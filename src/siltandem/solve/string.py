@@ -36,53 +36,9 @@ class CompiledGroup:
 
     def __init__(self, string, state):
         temperature = string.temperature_K
-        members, codes, params, tables, signs, folds, clips, ranges = [], [], [], [], [], [], \
-            [], []
-        subcell_number = -1
-        for index, element in enumerate(string.elements):
-            if element.kind == "subcell":
-                subcell_number += 1
-                if string.single_pilot is None or subcell_number == string.single_pilot or \
-                        not element._needs_table(temperature):
-                    continue
-                table = element._table(temperature)
-                rows = table.rows
-                members.append((index, element, None))
-                codes.append(kernels.SUBCELL_LAW)
-                params.append(element._law_parameters(temperature))
-                tables.append(table)
-                signs.append(-1.0)
-                folds.append((0.0, 0.0))
-                clips.append((-np.inf, np.inf))
-                ranges.append((-np.inf, np.inf))
-            elif element.kind == "tunnel":
-                branch = state.get(element.name, "tunnel")
-                packed = element._branch_table(temperature, branch)
-                if packed is None:
-                    continue
-                table, peak_curvature, valley_curvature = packed
-                if branch == "tunnel":
-                    peak_v, peak_j = element.peak(temperature)
-                    valley_j = np.full_like(peak_j, -np.inf)
-                else:
-                    _, peak_j, _, valley_j = string.tunnel_extrema[element.name]
-                members.append((index, element, branch))
-                codes.append(kernels.TUNNEL_LAW)
-                params.append(element._law_parameters(temperature))
-                tables.append(table)
-                signs.append(-1.0 if branch == "negative" else 1.0)
-                folds.append({"tunnel": (0.0, peak_curvature),
-                              "negative": (peak_curvature, valley_curvature),
-                              "thermal": (valley_curvature, 0.0)}[branch])
-                # the current is clipped to the branch's ends; beyond them by more than
-                # 1e-9 relative the branch has no voltage (NaN)
-                clips.append({"tunnel": (-np.inf, peak_j), "negative": (valley_j, peak_j),
-                              "thermal": (valley_j, np.inf)}[branch])
-                ranges.append({"tunnel": (-np.inf, peak_j * (1 + 1e-9)),
-                               "negative": (valley_j * (1 - 1e-9), peak_j * (1 + 1e-9)),
-                               "thermal": (valley_j * (1 - 1e-9), np.inf)}[branch])
-        self.members = members
-        self.index = {index: k for k, (index, _, _) in enumerate(members)}
+        members = _group_members(string, state)
+        self.members = [(m["index"], m["element"], m["branch"]) for m in members]
+        self.index = {index: k for k, (index, _, _) in enumerate(self.members)}
         # with one pilot for every design, its forward law runs in the same compiled pass
         self.pilot = None
         if string.single_pilot is not None:
@@ -91,39 +47,10 @@ class CompiledGroup:
             self.pilot_params = self.pilot._law_parameters(temperature)
         if not members and self.pilot is None:
             return
-        count = len(members)
-        rows = max([t.rows for t in tables] + [p.shape[0] for p in params]
-                   + ([self.pilot_params.shape[0]] if self.pilot is not None else []))
-        width = max([t.u.shape[1] for t in tables] + [1])
-        self.rows = rows
-        packed_params = np.empty((count, rows, kernels.PARAMETER_WIDTH))
-        # padded tables: every row (R, width), the samples first
-        grid_u, grid_j, grid_slope = (np.zeros((count, rows, width)) for _ in range(3))
-        per_row = {name: np.empty((count, rows)) for name in
-                   ("fold_low", "fold_high", "lower", "upper", "range_low", "range_high",
-                    "series")}
-        for e, (table, (_, element, _)) in enumerate(zip(tables, members)):
-            m = table.u.shape[1]
-            packed_params[e] = params[e]
-            grid_u[e, :, :m] = table.u
-            grid_j[e, :, :m] = table.j
-            grid_slope[e, :, :m] = table.slope
-            for name, value in (("fold_low", folds[e][0]), ("fold_high", folds[e][1]),
-                                ("lower", clips[e][0]), ("upper", clips[e][1]),
-                                ("range_low", ranges[e][0]), ("range_high", ranges[e][1]),
-                                ("series", element.series_ohm_m2 if element.kind == "subcell"
-                                 else 0.0)):
-                per_row[name][e] = np.ravel(value)
-        # the element's voltage in the stack current's direction: Vj - J Rs for a subcell,
-        # -u for a tunnel junction
-        voltage_sign = np.array([1.0 if e.kind == "subcell" else -1.0 for _, e, _ in members])
+        self.rows = max([m["table"].rows for m in members] + [m["params"].shape[0] for m in members]
+                        + ([self.pilot_params.shape[0]] if self.pilot is not None else []))
         # the arguments of kernels.element_voltages after the current, in its order
-        self.packed = (np.array(codes, dtype=np.int64), packed_params, grid_u, grid_j,
-                       grid_slope, np.array([t.u.shape[1] for t in tables], dtype=np.int64),
-                       np.array(signs), per_row["fold_low"], per_row["fold_high"],
-                       per_row["lower"], per_row["upper"], per_row["range_low"],
-                       per_row["range_high"], voltage_sign, per_row["series"],
-                       kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
+        self.packed = _padded(members, self.rows)
 
     def evaluate(self, t):
         """The fused compiled pass (kernels.string_pass) at pilot voltages ``t``: None where
@@ -136,7 +63,7 @@ class CompiledGroup:
             return None
         return out
 
-    def voltages(self, string, current, branches):
+    def voltages(self, string, current):
         """(V, dV/dJ) of each member at ``current`` (B, N): two (E, B, N) arrays; entries
         beyond an element's table through the element's own general route."""
         current = np.asarray(current, dtype=float)
@@ -156,6 +83,97 @@ class CompiledGroup:
             voltage[e] = np.where(covered[e], voltage[e], v)
             slope[e] = np.where(covered[e], slope[e], dv)
         return voltage, slope
+
+
+def _group_members(string, state):
+    """The members of a CompiledGroup, in element order: subcells other than the pilot (with
+    one pilot for every design) that invert through a table, and tunnel junctions with a table
+    of their branch in ``state``. Each a dict of what the compiled pass needs of it."""
+    temperature = string.temperature_K
+    members = []
+    subcell_number = -1
+    for index, element in enumerate(string.elements):
+        if element.kind == "subcell":
+            subcell_number += 1
+            if string.single_pilot is None or subcell_number == string.single_pilot or \
+                    not element._needs_table(temperature):
+                continue
+            member = _subcell_member(element, temperature)
+        elif element.kind == "tunnel":
+            member = _tunnel_member(string, element, state.get(element.name, "tunnel"))
+            if member is None:
+                continue
+        else:
+            continue
+        members.append(dict(member, index=index, element=element))
+    return members
+
+
+def _subcell_member(element, temperature):
+    """A subcell's entry in the compiled pass (its table inverts the whole law)."""
+    return dict(branch=None, code=kernels.SUBCELL_LAW,
+                params=element._law_parameters(temperature), table=element._table(temperature),
+                sign=-1.0, fold=(0.0, 0.0), clip=(-np.inf, np.inf), range=(-np.inf, np.inf))
+
+
+def _tunnel_member(string, element, branch):
+    """A tunnel junction's entry in the compiled pass on one branch (None without a table)."""
+    temperature = string.temperature_K
+    packed = element._branch_table(temperature, branch)
+    if packed is None:
+        return None
+    table, peak_curvature, valley_curvature = packed
+    if branch == "tunnel":
+        _, peak_j = element.peak(temperature)
+        valley_j = np.full_like(peak_j, -np.inf)
+    else:
+        _, peak_j, _, valley_j = string.tunnel_extrema[element.name]
+    return dict(
+        branch=branch, code=kernels.TUNNEL_LAW, params=element._law_parameters(temperature),
+        table=table, sign=-1.0 if branch == "negative" else 1.0,
+        fold={"tunnel": (0.0, peak_curvature), "negative": (peak_curvature, valley_curvature),
+              "thermal": (valley_curvature, 0.0)}[branch],
+        # the current is clipped to the branch's ends; beyond them by more than 1e-9
+        # relative the branch has no voltage (NaN)
+        clip={"tunnel": (-np.inf, peak_j), "negative": (valley_j, peak_j),
+              "thermal": (valley_j, np.inf)}[branch],
+        range={"tunnel": (-np.inf, peak_j * (1 + 1e-9)),
+               "negative": (valley_j * (1 - 1e-9), peak_j * (1 + 1e-9)),
+               "thermal": (valley_j * (1 - 1e-9), np.inf)}[branch])
+
+
+def _padded(members, rows):
+    """The members packed for kernels.element_voltages: its arguments after the current, in
+    its order (law codes, parameters, padded tables (E, rows, width) with the samples first,
+    per-row fold, clip and range ends, signs, series resistances, the inverse's tolerances)."""
+    count = len(members)
+    width = max([m["table"].u.shape[1] for m in members] + [1])
+    packed_params = np.empty((count, rows, kernels.PARAMETER_WIDTH))
+    grid_u, grid_j, grid_slope = (np.zeros((count, rows, width)) for _ in range(3))
+    per_row = {name: np.empty((count, rows)) for name in
+               ("fold_low", "fold_high", "lower", "upper", "range_low", "range_high", "series")}
+    for e, m in enumerate(members):
+        table, element = m["table"], m["element"]
+        size = table.u.shape[1]
+        packed_params[e] = m["params"]
+        grid_u[e, :, :size] = table.u
+        grid_j[e, :, :size] = table.j
+        grid_slope[e, :, :size] = table.slope
+        for name, value in (("fold_low", m["fold"][0]), ("fold_high", m["fold"][1]),
+                            ("lower", m["clip"][0]), ("upper", m["clip"][1]),
+                            ("range_low", m["range"][0]), ("range_high", m["range"][1]),
+                            ("series", element.series_ohm_m2 if element.kind == "subcell"
+                             else 0.0)):
+            per_row[name][e] = np.ravel(value)
+    # the element's voltage in the stack current's direction: Vj - J Rs for a subcell,
+    # -u for a tunnel junction
+    voltage_sign = np.array([1.0 if m["element"].kind == "subcell" else -1.0 for m in members])
+    return (np.array([m["code"] for m in members], dtype=np.int64), packed_params, grid_u,
+            grid_j, grid_slope,
+            np.array([m["table"].u.shape[1] for m in members], dtype=np.int64),
+            np.array([m["sign"] for m in members]), per_row["fold_low"], per_row["fold_high"],
+            per_row["lower"], per_row["upper"], per_row["range_low"], per_row["range_high"],
+            voltage_sign, per_row["series"], kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
 
 
 class SeriesString:
@@ -266,7 +284,7 @@ class SeriesString:
             pilot_dv = self._select([f[3] for f in forward])
         voltages, dvoltage = [], np.zeros(np.shape(t))
         if group.members:
-            group_v, group_slope = group.voltages(self, current, branches)
+            group_v, group_slope = group.voltages(self, current)
         subcell_number = 0
         for index, element in enumerate(self.elements):
             k = group.index.get(index)

@@ -1,23 +1,39 @@
 """The tail of a curve beyond a steep reverse breakdown, where the pilot's junction voltage cannot
 resolve the current: sampled, traced and crossed by current, every element through its inverse law.
 """
-import functools
-
 import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
-
-
-@functools.lru_cache(maxsize=16)
-def unit_steps(points):
-    """np.linspace(0, 1, points) as a (1, points) row, made once (read-only)."""
-    steps = np.linspace(0.0, 1.0, points)[None, :]
-    steps.flags.writeable = False
-    return steps
+from siltandem.solve.spacing import unit_steps
 
 
 def finite_or(value, fallback):
     return np.where(np.isfinite(value), value, fallback)
+
+
+def lower_end(string, v_low, v_floor, t_low, t_lowest, j_low, limited):
+    """What lies at the lower end of a trace along t (every tunnel junction on its tunnel
+    branch), per design (B,) bool each: whether a junction reaches its peak current there
+    (``reaches_peak``: the design is traced again through its branches, trace.py), whether an
+    isotype interface's flat-band current ends the curve above zero volts (``capped``: no Jsc
+    to give), and whether the curve goes on beyond the pilot's lowest voltage with V still
+    positive (``tail``: sampled by current, tail_samples).
+
+    ``v_low``, ``j_low`` (B, 1): the voltage (-inf where the trace ends below the floor) and
+    current at the lower end ``t_low``; ``t_lowest``: the pilot's lowest voltage; ``limited``
+    (B, 1) bool or None: where an isotype interface's cap sets ``t_low``.
+    """
+    size = v_low.shape[0]
+    reaches_peak = np.zeros(size, dtype=bool)
+    if string.tunnels:
+        # (where an isotype interface's flat-band current ends the curve first, no junction
+        # reaches its peak)
+        capped_first = np.zeros(size, dtype=bool) if limited is None else limited[:, 0]
+        reaches_peak = (v_low > v_floor)[:, 0] & (t_low > t_lowest)[:, 0] & ~capped_first
+    capped = np.zeros(size, dtype=bool) if limited is None else (limited & (v_low > 0))[:, 0]
+    # (just above its breakdown voltage the pilot's current can rise faster than t resolves)
+    tail = ((t_low <= t_lowest) & (v_low > 0) & np.isfinite(j_low))[:, 0] & ~capped
+    return reaches_peak, capped, tail
 
 
 #: samples of a tail by current (uniform, plus points towards each subcell's photocurrent)

@@ -25,6 +25,8 @@ import numpy as np
 
 from siltandem.numerics.roots import bracketed_root
 from siltandem.solve.certificate import Segment, certify, polisher
+from siltandem.solve.spacing import arc_length, curve_spans, evenly_spaced, parameter_samples
+from siltandem.solve.string import FORWARD_CURRENT_FRACTION, open_circuit_voltages
 from siltandem.solve.tail import tail_samples, tail_short_circuit
 
 SAMPLES_PER_PIECE = 160
@@ -57,18 +59,13 @@ def _samples(string, state, t_a, t_b, points):
     ends without inverting anything)."""
     pilot = string.subcells[string.single_pilot] if string.single_pilot is not None else None
     half = points // 2
-    by_t = t_a + (t_b - t_a) * np.linspace(0.0, 1.0, points - half)[None, :]
     ends = np.concatenate([t_a, t_b], axis=1)
     if pilot is not None:
         j_ends = pilot.pilot_current(ends, string.temperature_K)[0]
     else:
         j_ends = string.evaluate(ends, branches=state)["current"]
-    inner = np.linspace(0.0, 1.0, half + 2)[None, 1:-1]
-    with np.errstate(invalid="ignore"):
-        by_j = string.pilot_voltage_at(j_ends[:, :1] + (j_ends[:, 1:] - j_ends[:, :1]) * inner)
-    low, high = np.minimum(t_a, t_b), np.maximum(t_a, t_b)
-    by_j = np.where(np.isfinite(by_j), np.clip(by_j, low, high), by_t[:, :1])
-    ts = np.sort(np.concatenate([by_t, by_j], axis=1), axis=1)
+    ts = parameter_samples(t_a, t_b, j_ends[:, :1], j_ends[:, 1:], (points - half, half),
+                           string.pilot_voltage_at)
     if _scalar(t_b) < _scalar(t_a):
         ts = ts[:, ::-1]
     return ts, string.evaluate(ts, branches=state, slopes=True)
@@ -270,29 +267,65 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
     piece is not sampled again.
     """
     jph = string.pilot_photocurrent
-    t_forward = string.pilot_voltage_at(-0.3 * jph)
+    t_forward = string.pilot_voltage_at(FORWARD_CURRENT_FRACTION * jph)
     t_lowest = string.lowest_pilot_voltage()
+    t_voc, at_voc, first = _open_circuit(string, start)
+    voc = at_voc["voltage"]
+    pieces = _build_pieces(string, t_forward, t_lowest,
+                           _reverse_floor(string, voc, reverse_fraction), first)
+    index, t_mpp, at_mpp = _mpp_on_path(string, pieces)
+    # the certificate over every piece (certificate.py): each piece's cells, refined until
+    # every bound is within the tolerance of the MPP; the MPP moves to any higher point found
+    # (on whichever piece), polished there
+    segments, tail = _segments(string, pieces, t_lowest)
+    segments[index].merge(Segment.from_evaluation(pieces[index][0], t_mpp, at_mpp,
+                                                  [t.name for t in string.tunnels]))
+    proof, t_mpp, at_mpp, where, _ = certify(
+        string, segments, np.array([index]), t_mpp, at_mpp, photocurrent=jph,
+        polish=polisher(string, segments),
+        open_circuit=(t_voc, open_circuit_voltages(string, at_voc)))
+    branches_mpp = dict(segments[int(where[0])].state)
+    jsc = _short_circuit_on_path(string, pieces)
+    if tail is not None and not np.all(np.isfinite(jsc)):
+        jsc = tail_short_circuit(string, tail, np.array([True]))
+    regime = _regime(np.concatenate([e["voltage"][0] for *_, e in pieces]),
+                     np.concatenate([e["current"][0] for *_, e in pieces]))
+    curve = _path_curve(string, pieces, curve_points) if curve_points else None
+    return dict(voc=_scalar(voc), jsc=_scalar(jsc), v_mpp=_scalar(at_mpp["voltage"]),
+                j_mpp=_scalar(at_mpp["current"]),
+                p_mpp=_scalar(at_mpp["current"] * at_mpp["voltage"]),
+                voltages_mpp=[_scalar(v) for v in at_mpp["voltages"]],
+                voltages_voc=[_scalar(v) for v in at_voc["voltages"]],
+                branches_mpp=branches_mpp, regime=regime, curve=curve, certificate=proof)
+
+
+def _open_circuit(string, start):
+    """(t_voc, the evaluation at open circuit, the first piece's samples in path order or
+    None), from ``start`` when the vectorized pass gave it (solve_path)."""
     if start is None:
         t_voc = string.open_circuit_pilot_voltage()
-        at_voc = string.evaluate(t_voc)
-        first = None
-    else:
-        t_voc = start["t_voc"]
-        at_voc = dict(voltage=start["voc"], voltages=start["voltages_voc"])
-        ts, e = start["samples"]
-        # in path order: from the forward end towards the first fold
-        first = (ts[:, ::-1], {k: (x[:, ::-1] if k != "voltages" else [v[:, ::-1] for v in x])
-                               for k, x in e.items()})
-    voc = at_voc["voltage"]
-    # room below the usual floor for the junctions' thermal-branch drops
-    thermal_drop = sum(
-        _scalar(np.nan_to_num(t.junction_voltage(jph, string.temperature_K, "thermal",
-                                                  string.tunnel_extrema[t.name]), nan=1.0))
-        for t in string.tunnels)
-    v_floor = -max(reverse_fraction * _scalar(voc), 0.3) - thermal_drop
-    pieces = _build_pieces(string, t_forward, t_lowest, v_floor, first)
+        return t_voc, string.evaluate(t_voc), None
+    ts, e = start["samples"]
+    # in path order: from the forward end towards the first fold
+    first = (ts[:, ::-1], {k: (x[:, ::-1] if k != "voltages" else [v[:, ::-1] for v in x])
+                           for k, x in e.items()})
+    return start["t_voc"], dict(voltage=start["voc"], voltages=start["voltages_voc"]), first
 
-    # MPP: global maximum of P over every piece's samples, refined inside its piece
+
+def _reverse_floor(string, voc, reverse_fraction):
+    """The terminal voltage where the path ends in reverse bias [V]: the usual floor, with room
+    below it for the junctions' thermal-branch drops."""
+    thermal_drop = sum(
+        _scalar(np.nan_to_num(t.junction_voltage(string.pilot_photocurrent, string.temperature_K,
+                                                  "thermal", string.tunnel_extrema[t.name]),
+                              nan=1.0))
+        for t in string.tunnels)
+    return -max(reverse_fraction * _scalar(voc), 0.3) - thermal_drop
+
+
+def _mpp_on_path(string, pieces):
+    """The global maximum of P over every piece's samples, refined inside its piece: (piece
+    index, t_mpp (1, 1), its evaluation)."""
     best = (-np.inf, None, None)
     for index, (_, _, _, _, e) in enumerate(pieces):
         p = np.where(np.isfinite(e["voltage"]), e["current"] * e["voltage"], -np.inf)[0]
@@ -319,15 +352,17 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
         if not _scalar(at_mpp["current"] * at_mpp["voltage"]) >= best[0]:
             t_mpp = ts[:, i:i + 1]
             at_mpp = string.evaluate(t_mpp, branches=state)
-    # the certificate over every piece (certificate.py): each piece's cells, refined until
-    # every bound is within the tolerance of the MPP; the MPP moves to any higher point found
-    # (on whichever piece), polished there
+    return index, t_mpp, at_mpp
+
+
+def _segments(string, pieces, t_lowest):
+    """The certificate's segments (certificate.Segment), one per piece, and the tail (or
+    None): where the path ends at the pilot's lowest voltage (just above its breakdown) with V
+    still positive, it goes on at currents that t no longer resolves, sampled by current as
+    one more segment."""
     tunnels = [t.name for t in string.tunnels]
     segments = [Segment.from_evaluation(state_k, ts_k, e_k, tunnels)
                 for state_k, _, _, ts_k, e_k in pieces]
-    segments[index].merge(Segment.from_evaluation(state, t_mpp, at_mpp, tunnels))
-    # where the path ends at the pilot's lowest voltage (just above its breakdown) with V
-    # still positive, it goes on at currents that t no longer resolves: its tail, by current
     tail = None
     last_state, _, _, ts_last, e_last = pieces[-1]
     v_end, j_end = _scalar(e_last["voltage"][:, -1:]), _scalar(e_last["current"][:, -1:])
@@ -336,18 +371,12 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
                              branches=last_state)
         segments.append(Segment.from_evaluation(last_state, tail[0], tail[1], tunnels,
                                                 by_current=True))
-    # (at zero current every element but a subcell has zero voltage)
-    zero = [np.asarray(v, dtype=float) if e.kind == "subcell" else np.zeros(np.shape(v))
-            for e, v in zip(string.elements, at_voc["voltages"])]
-    proof, t_mpp, at_mpp, where, _ = certify(string, segments, np.array([index]), t_mpp,
-                                             at_mpp, photocurrent=jph,
-                                             polish=polisher(string, segments),
-                                             open_circuit=(t_voc, zero))
-    state = segments[int(where[0])].state
-    branches_mpp = dict(state)
+    return segments, tail
 
-    # Jsc: the first zero of V met along the path after open circuit
-    jsc = np.full((1, 1), np.nan)
+
+def _short_circuit_on_path(string, pieces):
+    """Jsc (1, 1): the first zero of V met along the path after open circuit (a cubic Hermite
+    estimate in the samples, then Newton steps); NaN where the pieces hold none."""
     passed_open_circuit = False
     for state_k, _, _, ts_k, e in pieces:
         v, j = e["voltage"][0], e["current"][0]
@@ -365,47 +394,33 @@ def solve_path(string, *, curve_points, reverse_fraction, start=None):
             t0 = np.full((1, 1), _hermite_level(ts_k[0], v, e["dvoltage"][0], m, 0.0))
             lo, hi = sorted((ts_k[0, m], ts_k[0, m + 1]))
             t0, last, e0 = _polish_level(string, state_k, t0, 0.0, lo, hi)
-            jsc = e0["current"] + e0["dcurrent"] * (t0 - last)
-            break
-    if tail is not None and not np.all(np.isfinite(jsc)):
-        jsc = tail_short_circuit(string, tail, np.array([True]))
+            return e0["current"] + e0["dcurrent"] * (t0 - last)
+    return np.full((1, 1), np.nan)
 
-    forward_to_reverse_v = np.concatenate([e["voltage"][0] for *_, e in pieces])
-    forward_to_reverse_j = np.concatenate([e["current"][0] for *_, e in pieces])
-    regime = _regime(forward_to_reverse_v, forward_to_reverse_j)
 
-    curve = None
-    if curve_points:
-        # share the points among the pieces by their arc length in (V/Voc, J/Jph), and space
-        # them evenly in arc length along each piece's samples
-        scale_v, scale_j = max(abs(_scalar(voc)), 1e-3), _scalar(jph)
-        arcs = []
-        for *_, ts, e in pieces:
-            dv = np.diff(np.nan_to_num(e["voltage"][0])) / scale_v
-            dj = np.diff(np.nan_to_num(e["current"][0])) / scale_j
-            dt = np.abs(np.diff(ts[0])) / max(abs(_scalar(t_forward) - _scalar(t_lowest)), 1e-3)
-            arcs.append(np.concatenate([[0.0], np.cumsum(np.hypot(dv, dj) + 1e-3 * dt)]))
-        lengths = np.array([a[-1] + 1e-12 for a in arcs])
-        counts = np.maximum(2, np.floor(curve_points * lengths / lengths.sum()).astype(int))
-        while counts.sum() > curve_points:
-            counts[np.argmax(counts)] -= 1
-        counts[np.argmax(lengths)] += curve_points - counts.sum()
-        parts = []
-        for (state, t_a, t_b, ts, _), arc, n in zip(pieces, arcs, counts):
-            placed = np.interp(np.linspace(0.0, arc[-1], n), arc, ts[0])
-            placed[0], placed[-1] = _scalar(t_a), _scalar(t_b)
-            parts.append(string.evaluate(placed[None, :], branches=state))
-        curve = {"current_A_m2": np.concatenate([e["current"][0] for e in parts])[::-1],
-                 "voltage_V": np.concatenate([e["voltage"][0] for e in parts])[::-1]}
-        for k, element in enumerate(string.elements):
-            curve[element.name] = np.concatenate(
-                [np.broadcast_to(e["voltages"][k], e["current"].shape)[0] for e in parts])[::-1]
-    return dict(voc=_scalar(voc), jsc=_scalar(jsc), v_mpp=_scalar(at_mpp["voltage"]),
-                j_mpp=_scalar(at_mpp["current"]),
-                p_mpp=_scalar(at_mpp["current"] * at_mpp["voltage"]),
-                voltages_mpp=[_scalar(v) for v in at_mpp["voltages"]],
-                voltages_voc=[_scalar(v) for v in at_voc["voltages"]],
-                branches_mpp=branches_mpp, regime=regime, curve=curve, certificate=proof)
+def _path_curve(string, pieces, curve_points):
+    """The curve along the path, from reverse to forward bias: the points shared among the
+    pieces by their arc length (spacing.py, with the spans of the whole path) and spaced
+    evenly in arc length along each piece's samples, evaluated exactly."""
+    spans = curve_spans(*(np.concatenate(x, axis=1) for x in zip(
+        *((e["voltage"], e["current"], ts) for *_, ts, e in pieces))))
+    arcs = [arc_length(e["voltage"], e["current"], ts, spans) for *_, ts, e in pieces]
+    lengths = np.array([a[0, -1] + 1e-12 for a in arcs])
+    counts = np.maximum(2, np.floor(curve_points * lengths / lengths.sum()).astype(int))
+    while counts.sum() > curve_points:
+        counts[np.argmax(counts)] -= 1
+    counts[np.argmax(lengths)] += curve_points - counts.sum()
+    parts = []
+    for (state, t_a, t_b, ts, _), arc, n in zip(pieces, arcs, counts):
+        placed = evenly_spaced(arc, ts, n)[0]
+        placed[0], placed[-1] = _scalar(t_a), _scalar(t_b)
+        parts.append(string.evaluate(placed[None, :], branches=state))
+    curve = {"current_A_m2": np.concatenate([e["current"][0] for e in parts])[::-1],
+             "voltage_V": np.concatenate([e["voltage"][0] for e in parts])[::-1]}
+    for k, element in enumerate(string.elements):
+        curve[element.name] = np.concatenate(
+            [np.broadcast_to(e["voltages"][k], e["current"].shape)[0] for e in parts])[::-1]
+    return curve
 
 
 def voltage_sweep(voltage_V, current, *, direction, points=400):
