@@ -199,3 +199,15 @@ def test_materials_command():
     assert one.returncode == 0 and "lowest gap" in one.stdout and "VMR" in one.stdout
     bad = cli("materials", "Silicn")
     assert bad.returncode == 2 and "Si" in bad.stderr and "Traceback" not in bad.stderr
+
+
+def test_python_dash_m_siltandem_cli_is_the_same_command_line():
+    # `python -m siltandem.cli` (cli/__main__.py) and the `siltandem` script's entry point
+    # (cli.main:main) give the same help text and exit code
+    env = dict(os.environ, MPLBACKEND="Agg")
+    package = subprocess.run([sys.executable, "-m", "siltandem.cli", "--help"],
+                             capture_output=True, text=True, env=env, timeout=300)
+    entry = cli("--help")
+    assert package.returncode == entry.returncode == 0, package.stderr
+    assert "run" in package.stdout
+    assert package.stdout == entry.stdout
