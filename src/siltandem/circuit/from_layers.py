@@ -72,6 +72,9 @@ class LayerModel:
     notes: list = field(default_factory=list)
     back_reflectance: float = 0.0
     ambient_index: float = 1.0
+    #: "specular" or "lambertian" ([optics] back_scattering, front_scattering)
+    back_scattering: str = "specular"
+    front_scattering: str = "specular"
 
 
 def _material(layer):
@@ -291,7 +294,9 @@ def compile_layer_stack(stack):
                                      temperature, file))
     model = LayerModel(layers, materials, stack.coatings, tuple(cell_models), temperature, notes,
                        stack.rules.get("back_reflectance", 0.0),
-                       stack.rules.get("ambient_index", 1.0))
+                       stack.rules.get("ambient_index", 1.0),
+                       stack.rules.get("back_scattering", "specular"),
+                       stack.rules.get("front_scattering", "specular"))
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
     return circuit.with_elements([], optics={"layer_details": details,
                                              "polarity": structure.polarity})

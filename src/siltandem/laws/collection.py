@@ -39,6 +39,8 @@ Approximations the caller must know
 - Low injection, uniform doping, no drift fields in the quasi-neutral regions, no bandgap narrowing
   (pass an effective intrinsic density if the emitter has it).
 - Back-entering light is a single pass given by the caller; multiple reflections are the optics' job.
+- Scattered (light-trapped) light absorbed in a subcell is taken as generated uniformly over it (common
+  for weak, many-pass light; a Lambertian pass's alpha E2(alpha x) is steeper where trapping adds little).
 
 References
 ----------
@@ -63,7 +65,7 @@ from siltandem.constants import ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M, th
 __all__ = [
     "CollectionParameterError", "CollectionDomainWarning", "CollectedPhotocurrent",
     "DiffusionSaturationCurrent", "DepletionRecombination", "AbruptJunction", "RadiativeFloor",
-    "einstein_diffusivity", "diffusion_length", "layer_collection_fraction",
+    "einstein_diffusivity", "diffusion_length", "layer_collection_fraction", "uniform_collection_fraction",
     "collected_photocurrent", "region_saturation_current", "diffusion_saturation_current",
     "abrupt_junction", "depletion_recombination_current", "apply_radiative_floor",
 ]
@@ -351,11 +353,38 @@ def layer_collection_fraction(absorption_per_m, *, thickness_m, diffusion_length
     return _collection(alpha, w, length, s, d, lit_side == "junction")
 
 
+def uniform_collection_fraction(*, thickness_m, diffusion_length_m, diffusivity_m2_s, surface_srv_m_s,
+                                where="layer"):
+    """Mean collection probability [-] of carriers generated uniformly over one quasi-neutral region.
+    Parameters as :func:`layer_collection_fraction` (W [m] >= 0, L [m] > 0 or inf, D [m^2/s] > 0, S [m/s]
+    >= 0 or inf). Returns (1/W) integral_0^W f(u) du in [0, 1] (1 for W = 0), broadcast shape.
+    Notes: with f(u) = N(W - u)/N(W), N(z) = cosh(z/L) + (S/D) L sinh(z/L) (Donolato 1985) the mean is
+    [L sinh k + (S L^2/D)(cosh k - 1)] / [W (cosh k + (S L/D) sinh k)], k = W/L (tanh(k)/k for S = 0):
+    the limit alpha -> 0 of `layer_collection_fraction` over alpha W, evaluated with the same divided
+    differences at alpha W = 0 (no overflow). References: C. Donolato, Appl. Phys. Lett. 46 (1985) 270.
+    """
+    w = _checked("thickness_m", thickness_m, "m", where=where, zero_ok=True)
+    length = _checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
+    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
+    s = _checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    return _uniform(w, length, s, d)
+
+
+def _uniform(thickness, length, srv, diffusivity):
+    """`uniform_collection_fraction` on validated inputs: `_collection` over a, at a = 0."""
+    k = np.minimum(thickness / length, _LARGEST_RATIO)
+    t, one_minus_t = _surface_weights(srv, thickness, diffusivity)
+    zero = np.zeros_like(k)
+    inner = 0.5 * (_dd1(-k, zero) + _dd1(-k, -2.0 * k))
+    denominator = one_minus_t * 0.5 * (1.0 + np.exp(-2.0 * k)) + t * exprel(-2.0 * k)
+    return (one_minus_t * inner + t * _dd2(-k, zero, -2.0 * k)) / denominator
+
+
 def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickness_m,
                            emitter_diffusion_length_m, emitter_diffusivity_m2_s, front_srv_m_s,
                            depletion_width_m, base_thickness_m, base_diffusion_length_m,
                            base_diffusivity_m2_s, back_srv_m_s, back_photon_flux_m2_s=0.0,
-                           where="subcell"):
+                           uniform_absorbed_m2_s=0.0, where="subcell"):
     """Collected photocurrent of each region of a subcell, and the absorbed photon current.
 
     Parameters
@@ -381,6 +410,8 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
     back_photon_flux_m2_s : array_like, optional
         Photon flux entering the base from the back [m^-2 s^-1] (e.g. returned by a back reflector),
         single pass, same spectral "per" as ``photon_flux_m2_s``. Default 0.
+    uniform_absorbed_m2_s : array_like, optional
+        Photons absorbed in the subcell from scattered light [m^-2 s^-1, same "per"], >= 0; default 0.
     where : str
         Name of the subcell for error messages.
 
@@ -404,6 +435,8 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
 
     The depletion term with a long base (Wb >> L, S irrelevant) gives Gaertner's
     J = q Phi X [1 - Y / (1 + alpha L)].
+    Scattered photons G, generated uniformly over W = We + Wd + Wb, add q G (We/W) eta_u(emitter),
+    q G Wd/W and q G (Wb/W) eta_u(base), eta_u from :func:`uniform_collection_fraction`.
 
     References
     ----------
@@ -445,6 +478,16 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
         emitter_absorbed = emitter_absorbed + q * back_flux * z * y * absorbed_e
         base_absorbed = base_absorbed + q * back_flux * absorbed_b
         absorbed = absorbed + q * back_flux * -np.expm1(-alpha * (we + wd + wb))
+    scattered = _checked("uniform_absorbed_m2_s", uniform_absorbed_m2_s, "1/(m^2 s)", where=where, zero_ok=True)
+    if np.any(scattered != 0):
+        width = np.where(we + wd + wb > 0, we + wd + wb, 1.0)
+        shares, generated = [part / width for part in (we, wd, wb)], q * scattered
+        emitter = emitter + generated * shares[0] * _uniform(we, le, sf, de)
+        depletion = depletion + generated * shares[1]
+        base = base + generated * shares[2] * _uniform(wb, lb, sb, db)
+        emitter_absorbed, base_absorbed = (emitter_absorbed + generated * shares[0],
+                                           base_absorbed + generated * shares[2])
+        absorbed = absorbed + generated
     arrays = np.broadcast_arrays(emitter, depletion, base, emitter_absorbed, base_absorbed, absorbed)
     return CollectedPhotocurrent(*(np.array(a, dtype=float) for a in arrays))
 

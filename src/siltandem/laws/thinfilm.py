@@ -10,7 +10,9 @@ Two regimes, treated differently on purpose:
   spacing. For the coating they act as one semi-infinite substrate (the top semiconductor layer, with its
   own n and k = alpha lambda / 4 pi); inside the stack light is followed as a photon flux, each layer
   attenuating it by Beer-Lambert. An optional back reflector returns light for further passes, added as
-  intensities (no phase), with an optional internal reflectance of the front surface.
+  intensities (no phase), with an optional internal reflectance of the front surface. The back reflector
+  (and, for a textured front, the entry) may scatter into an ideal Lambertian distribution (light
+  trapping; see `layer_absorption`).
 
 Conventions: fields vary as exp(i (2 pi N z / lambda - omega t)), so an absorbing medium has k > 0 (the
 convention of M. Born, E. Wolf; H. A. Macleod writes N = n - i k with exp(+i omega t): the same physics,
@@ -24,6 +26,11 @@ M. Born, E. Wolf, Principles of Optics, 7th ed., Cambridge University Press (199
 H. A. Macleod, Thin-Film Optical Filters, 4th ed., CRC Press (2010), ch. 2 (the characteristic matrix,
     reflectance, transmittance and absorptance of an assembly; quarter-wave layers).
 E. Hecht, Optics, 5th ed., Pearson (2017), sec. 9.7 (single- and double-layer antireflection coatings).
+E. Yablonovitch, J. Opt. Soc. Am. 72 (1982) 899 (statistical ray optics: the 4 n^2 limit).
+T. Tiedje, E. Yablonovitch, G. D. Cody, B. G. Brooks, IEEE Trans. Electron Devices 31 (1984) 711
+    (absorption of a Lambertian slab, A = 4 n^2 alpha W / (1 + 4 n^2 alpha W) when weak).
+M. A. Green, Prog. Photovolt. 10 (2002) 235 (Lambertian light trapping: closed forms with the
+    transmission 2 E3(alpha W) of one Lambertian pass; from memory).
 """
 from __future__ import annotations
 
@@ -31,6 +38,7 @@ import warnings
 from typing import NamedTuple
 
 import numpy as np
+from scipy.special import expn
 
 from siltandem.constants import ELEMENTARY_CHARGE_C
 
@@ -43,6 +51,8 @@ __all__ = [
     "complex_index",
     "coating_response",
     "front_reflectance",
+    "lambertian_transmittance",
+    "lambertian_escape_fraction",
     "layer_absorption",
     "generation_profile",
     "photon_current_A_m2",
@@ -90,6 +100,9 @@ class PhotonBudget(NamedTuple):
         Downward flux at the top of each layer, summed over passes (the Phi_down of `generation_profile`).
     upward_at_bottom : ndarray, shape (L, ...)
         Upward flux at the bottom of each layer, summed over passes (the Phi_up of `generation_profile`).
+    scattered_absorbed : ndarray, shape (L, ...)
+        The part of ``absorbed`` that came from scattered (Lambertian) light; zero without scattering.
+        ``downward_at_top`` and ``upward_at_bottom`` hold the normal-incidence (specular) light only.
     """
 
     reflected: np.ndarray
@@ -98,6 +111,7 @@ class PhotonBudget(NamedTuple):
     escaped: np.ndarray
     downward_at_top: np.ndarray
     upward_at_bottom: np.ndarray
+    scattered_absorbed: np.ndarray | None = None
 
 
 # ---------------------------------------------------------------------------------------------- indices
@@ -168,6 +182,16 @@ def _check_nonnegative(name, value, unit):
         raise ThinFilmInputError(
             f"thin-film optics: '{name}' = {value[bad].ravel()[0].item()!r} must be finite and >= 0 [{unit}]; "
             f"give a non-negative value in {unit}")
+    return value
+
+
+def _check_nonnegative_or_inf(name, value):
+    value = np.asarray(value, dtype=float)
+    bad = ~(value >= 0)
+    if np.any(bad):
+        raise ThinFilmInputError(
+            f"thin-film optics: '{name}' = {value[bad].ravel()[0].item()!r} must be >= 0 (inf allowed); "
+            f"give a non-negative optical depth alpha d")
     return value
 
 
@@ -334,10 +358,84 @@ def front_reflectance(wavelength_nm, *, substrate_index, coating_indices=(), coa
                             ambient_index=ambient_index).reflectance
 
 
+# --------------------------------------------------------------------------------- Lambertian light
+def lambertian_transmittance(optical_depth):
+    """Fraction of a Lambertian (ideally scattered) photon flux that crosses a layer [-]: 2 E3(tau).
+
+    Parameters
+    ----------
+    optical_depth : array_like
+        tau = alpha d of the layer (or of several layers together) at normal incidence [-], >= 0
+        (inf allowed: opaque).
+
+    Returns
+    -------
+    ndarray
+        T in [0, 1], broadcast shape; 1 at tau = 0, 0 at tau = inf.
+
+    Notes
+    -----
+    A Lambertian flux has radiance independent of direction, so the flux crossing a plane at polar angle
+    theta is weighted by 2 cos(theta) sin(theta) d(theta). Each ray is attenuated by exp(-tau / cos theta):
+
+        T(tau) = integral_0^1 2 mu exp(-tau / mu) d mu = 2 E3(tau),
+
+    E3 the exponential integral of order 3 (scipy.special.expn). For small tau, T = 1 - 2 tau + ...:
+    a thin layer absorbs twice its normal-incidence fraction (mean path 2 d). Because each ray's
+    attenuation is exponential in depth, a Lambertian flux entering a stack of layers crosses their
+    sum: absorption in layer j is T(depth above j) - T(depth to the bottom of j), which adds up exactly.
+
+    References
+    ----------
+    M. A. Green, Prog. Photovolt. 10 (2002) 235 (from memory); E. Yablonovitch, J. Opt. Soc. Am. 72
+    (1982) 899.
+    """
+    tau = _check_nonnegative_or_inf("optical_depth", optical_depth)
+    return 2.0 * expn(3, tau)
+
+
+def lambertian_escape_fraction(refractive_index, *, front_reflectance=0.0, ambient_index=1.0):
+    """Fraction of a Lambertian flux inside a medium that leaves through a flat front surface [-].
+
+    Parameters
+    ----------
+    refractive_index : array_like
+        n of the medium holding the scattered light [-], > 0.
+    front_reflectance : array_like, optional
+        Reflectance of the front surface for light inside the escape cone [-], in [0, 1] (taken at normal
+        incidence).
+    ambient_index : array_like, optional
+        Real index of the medium in front [-], > 0.
+
+    Returns
+    -------
+    ndarray
+        e = (1 - R) min(1, (n_0 / n)^2), broadcast shape.
+
+    Notes
+    -----
+    Only rays inside the escape cone sin(theta) < n_0 / n can leave; a Lambertian flux has the fraction
+    sin^2(theta_c) = (n_0 / n)^2 of its photons there (the integral of 2 cos sin from 0 to theta_c). The
+    rest is totally internally reflected. The reflectance inside the cone is taken as the normal-incidence
+    value for all its angles, as in Green's closed forms (front internal reflectance of Lambertian light
+    1 - (1 - R) / n^2). A flat front reflects specularly, which keeps the distribution Lambertian.
+
+    References
+    ----------
+    E. Yablonovitch, J. Opt. Soc. Am. 72 (1982) 899; M. A. Green, Prog. Photovolt. 10 (2002) 235 (from
+    memory).
+    """
+    n = _check_index("refractive_index", refractive_index, allow_loss=False).real
+    n0 = _check_index("ambient_index", ambient_index, allow_loss=False).real
+    reflectance = _check_fraction("front_reflectance", front_reflectance)
+    return (1.0 - reflectance) * np.minimum(1.0, (n0 / n) ** 2)
+
+
 # ------------------------------------------------------------------------------ incoherent thick layers
 def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectance=0.0, back_reflectance=0.0,
-                     front_internal_reflectance=0.0):
-    """Beer-Lambert photon budget of a sequence of thick layers (sun side first), with an optional back mirror.
+                     front_internal_reflectance=0.0, back_scattering="specular", front_scattering="specular",
+                     trapping_index=None, ambient_index=1.0):
+    """Photon budget of a sequence of thick layers (sun side first), with an optional back mirror that may scatter.
 
     Parameters
     ----------
@@ -355,12 +453,23 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
     front_internal_reflectance : array_like, optional
         Reflectance of the front surface for light returning from inside [-], in [0, 1]; 0 = what returns
         to the front leaves (``escaped``). Only matters with a back reflector.
+    back_scattering : {"specular", "lambertian"}, optional
+        "specular" (default): a flat mirror; "lambertian": an ideal scattering rear, which sends what it
+        reflects (``back_reflectance``) into a Lambertian distribution.
+    front_scattering : {"specular", "lambertian"}, optional
+        "specular" (default): a flat front; "lambertian": an ideally textured front, which scatters the
+        light entering and the light it reflects back inside into a Lambertian distribution.
+    trapping_index : array_like, optional
+        Refractive index n of the layers for scattered light [-], > 0 (e.g. the bottom layer's n(lambda));
+        sets the escape cone sin(theta_c) = n_0 / n. Required with any "lambertian" surface.
+    ambient_index : array_like, optional
+        Real index n_0 of the medium in front [-], > 0 (default 1); used with scattering only.
 
     Returns
     -------
     PhotonBudget
         reflected, absorbed (L, ...), transmitted, escaped, downward_at_top (L, ...), upward_at_bottom
-        (L, ...), each of the broadcast shape of all inputs.
+        (L, ...), scattered_absorbed (L, ...), each of the broadcast shape of all inputs.
 
     Notes
     -----
@@ -378,13 +487,46 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
     through and the front lets (1 - R_i) P U escape. These add up to Phi exactly. The loss
     1 - R_b R_i P^2 is formed as -expm1(ln R_b + ln R_i - 2 sum tau); where it is zero (lossless layers
     between two perfect mirrors) the budget is NaN, counted and warned once (`LightTrappedWarning`).
-    Reflection at the interfaces between the thick layers is neglected (index matched), and the back
-    mirror is specular and at normal incidence (no light trapping by scattering).
+    Reflection at the interfaces between the thick layers is neglected (index matched).
+
+    **Scattering (light trapping).** A "lambertian" surface sends every ray it reflects (or, at the
+    front, lets in) into a Lambertian distribution; between two such events a ray keeps its angle
+    (mu = cos theta), crossing optical depth x with exp(-x / mu), and a Lambertian flux crosses it with
+    T(x) = 2 E3(x) (`lambertian_transmittance`). z_j is the optical depth at the bottom of layer j
+    (z_0 = 0), Z = z_L, R_b the back reflectance, R_i the front's internal reflectance (taken at normal
+    incidence over the escape cone mu > mu_c = sqrt(1 - (n_0/n)^2), total reflection outside it), and
+    e = (1 - R_i) (n_0/n)^2 the escape fraction of a Lambertian flux at a textured front
+    (`lambertian_escape_fraction`). Sums over all passes, for the flux E = (1 - R_f) Phi entering:
+
+    * flat front, scattering rear: the first pass is specular (as above, up to the back); U, the
+      Lambertian flux leaving the back upwards, keeps its angles up to the front and back:
+      U = R_b P E / (1 - R_b G(2Z)), G(x) = integral 2 mu R(mu) exp(-x/mu) d mu
+      = T(x) - (1 - R_i) [T(x) - mu_c^2 T(x / mu_c)]. Layer j absorbs U [T(Z - z_j) - T(Z - z_(j-1))]
+      going up and U [G(Z + z_(j-1)) - G(Z + z_j)] coming down; U [T(Z) - G(Z)] escapes.
+    * textured front, specular rear: D = E / (1 - (1 - e) R_b T(2Z)) enters Lambertian; layer j absorbs
+      D [T(z_(j-1)) - T(z_j)] going down and R_b D [T(2Z - z_j) - T(2Z - z_(j-1))] coming up (the
+      mirror keeps the angles); e R_b T(2Z) D escapes.
+    * both scattering (Green's double-sided case): D = E + (1 - e) T(Z) U and U = R_b T(Z) D, so
+      D = E / (1 - R_b (1 - e) T(Z)^2); layer j absorbs D [T(z_(j-1)) - T(z_j)] + U [T(Z - z_j) -
+      T(Z - z_(j-1))]; e T(Z) U escapes. For one layer, A = (1 - R_f)(1 - T)(1 + R_b T) /
+      (1 - R_b (1 - e) T^2), Green's closed form, whose weak-absorption limit (R_b = 1, R = 0,
+      tau -> 0) is A = 4 n^2 tau / (1 + 4 n^2 tau): the 4 n^2 path enhancement of Yablonovitch and
+      Tiedje et al. The flat-front case tends to 2 n^2 (1 + mu_c) + 1 times tau (derived here from the
+      same sums: the specular first pass plus the trapped passes), 48.97 for n = 3.5.
+
+    Each layer's absorption is a difference of T (or G) at its two depths, so the budget closes to
+    rounding. One index n serves all layers (they are index matched for the scattered light as for the
+    specular), and the part absorbed from scattered light is ``scattered_absorbed`` (its depth profile
+    is not returned: callers spread it uniformly, see `siltandem.laws.collection`). Where the trapped
+    light can lose nothing (lossless layers, R_b = 1, no escape) the budget is NaN, warned once.
 
     References
     ----------
     A. Beer, Ann. Phys. Chem. 86 (1852) 78 (exponential attenuation).
     M. Born, E. Wolf, Principles of Optics, 7th ed. (1999), sec. 1.6 and 14.1 (absorbing media).
+    M. A. Green, Prog. Photovolt. 10 (2002) 235 (Lambertian trapping, closed forms; from memory).
+    E. Yablonovitch, J. Opt. Soc. Am. 72 (1982) 899; T. Tiedje et al., IEEE Trans. Electron Devices 31
+    (1984) 711 (the 4 n^2 limit).
     """
     flux = np.asarray(photon_flux, dtype=float)
     alphas, thicknesses = _same_length("alpha_per_m", alpha_per_m, "thicknesses_m", thicknesses_m)
@@ -393,8 +535,41 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
     r_front = _check_fraction("front_reflectance", front_reflectance)
     r_back = _check_fraction("back_reflectance", back_reflectance)
     r_inside = _check_fraction("front_internal_reflectance", front_internal_reflectance)
+    for name, value in (("back_scattering", back_scattering), ("front_scattering", front_scattering)):
+        if value not in ("specular", "lambertian"):
+            raise ThinFilmInputError(f"thin-film optics: '{name}' = {value!r} is not known; give \"specular\" "
+                                     f"or \"lambertian\"")
     shape = np.broadcast_shapes(flux.shape, r_front.shape, r_back.shape, r_inside.shape,
                                 *(a.shape for a in alphas), *(d.shape for d in thicknesses))
+    if back_scattering == front_scattering == "specular":
+        return _specular_passes((1.0 - r_front) * flux, alphas, thicknesses, r_back, r_inside, shape,
+                                reflected=r_front * flux)[0]
+    if trapping_index is None:
+        raise ThinFilmInputError(
+            "thin-film optics: a \"lambertian\" surface needs 'trapping_index', the refractive index of the "
+            "layers for the scattered light; give it (e.g. the bottom layer's n(lambda))")
+    n = _check_index("trapping_index", trapping_index, allow_loss=False).real
+    n0 = _check_index("ambient_index", ambient_index, allow_loss=False).real
+    shape = np.broadcast_shapes(shape, n.shape, n0.shape)
+    entering = np.broadcast_to((1.0 - r_front) * flux, shape)
+    flat_front = front_scattering == "specular"
+    # the specular channel: the first pass of a flat front, down to the back (which scatters it all)
+    specular, reaching_back = _specular_passes(entering if flat_front else np.zeros(shape), alphas,
+                                               thicknesses, np.zeros(shape), r_inside, shape)
+    scattered, escaped, transmitted = _scattered_passes(
+        entering, reaching_back, alphas, thicknesses, r_back, r_inside, n0 / n, shape,
+        flat_front=flat_front, scattering_back=back_scattering == "lambertian")
+    return PhotonBudget(
+        reflected=np.broadcast_to(r_front * flux, shape).copy(), absorbed=specular.absorbed + scattered,
+        transmitted=transmitted, escaped=specular.escaped + escaped,
+        downward_at_top=specular.downward_at_top, upward_at_bottom=specular.upward_at_bottom,
+        scattered_absorbed=scattered)
+
+
+def _specular_passes(entering, alphas, thicknesses, r_back, r_inside, shape, reflected=None):
+    """The specular (normal-incidence) budget of `layer_absorption` for the flux ``entering`` the top
+    layer; ``reflected`` the front reflection (None: zeros, the caller adds it). Returns the budget
+    and the specular flux reaching the back, summed over passes."""
 
     depth = np.stack([np.broadcast_to(a * d, shape) for a, d in zip(alphas, thicknesses)]) if alphas \
         else np.zeros((0,) + shape)
@@ -412,9 +587,9 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
     if np.any(trapped):
         warnings.warn(f"layer_absorption: {int(np.count_nonzero(trapped))} point(s) have lossless layers between "
                       f"two perfect mirrors (no absorption, back_reflectance = front_internal_reflectance = 1); "
-                      f"set to NaN", LightTrappedWarning, stacklevel=2)
+                      f"set to NaN", LightTrappedWarning, stacklevel=3)
     with np.errstate(divide="ignore", invalid="ignore"):
-        down = np.where(trapped, np.nan, (1.0 - r_front) * flux / np.where(trapped, 1.0, loss))
+        down = np.where(trapped, np.nan, entering / np.where(trapped, 1.0, loss))
     up = r_back * single_pass * down
 
     downward_at_top = down * np.exp(-above)
@@ -422,8 +597,71 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
     absorbed = (downward_at_top + upward_at_bottom) * absorbed_once
     transmitted = (1.0 - r_back) * single_pass * down
     escaped = (1.0 - r_inside) * single_pass * up
-    reflected = np.broadcast_to(r_front * flux, shape).copy()
-    return PhotonBudget(reflected, absorbed, transmitted, escaped, downward_at_top, upward_at_bottom)
+    reflected = np.zeros(shape) if reflected is None else np.broadcast_to(reflected, shape).copy()
+    budget = PhotonBudget(reflected, absorbed, transmitted, escaped, downward_at_top, upward_at_bottom,
+                          np.zeros_like(absorbed))
+    return budget, single_pass * down
+
+
+def _cone_complement(x, mu_c):
+    """integral over mu_c < mu < 1 of 2 mu exp(-x/mu) d mu = T(x) - mu_c^2 T(x / mu_c): the part of a
+    Lambertian flux inside the escape cone that crosses optical depth x."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        scaled = np.where(mu_c > 0, x / np.where(mu_c > 0, mu_c, 1.0), np.inf)
+    return lambertian_transmittance(x) - mu_c ** 2 * lambertian_transmittance(scaled)
+
+
+def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_inside, ratio, shape, *,
+                      flat_front, scattering_back):
+    """The Lambertian channel of `layer_absorption` (Notes): absorbed per layer (L, ...), escaped and
+    transmitted (the specular first pass's share of the back included)."""
+    depth = np.stack([np.broadcast_to(a * d, shape) for a, d in zip(alphas, thicknesses)]) if alphas \
+        else np.zeros((0,) + shape)
+    bottoms = np.cumsum(depth, axis=0)                                       # z_j
+    total = bottoms[-1] if alphas else np.zeros(shape)                       # Z
+    tops = np.concatenate([np.zeros((1,) + shape), bottoms[:-1]])[:len(alphas)]  # z_(j-1), same numbers
+    transmittance = lambertian_transmittance
+    through = transmittance(total)
+    escape_share = np.minimum(1.0, ratio ** 2)
+    mu_c = np.sqrt(1.0 - escape_share)
+    escape = (1.0 - r_inside) * escape_share                                 # e
+    down_once = transmittance(tops) - transmittance(bottoms)                 # per Lambertian D
+    up_once = transmittance(np.maximum(total - bottoms, 0.0)) - transmittance(total - tops)
+    if flat_front:                       # source at the back; angles kept up to the front and down
+        def returning(x):                # G(x)
+            return transmittance(x) - (1.0 - r_inside) * _cone_complement(x, mu_c)
+        gain = r_back * returning(2.0 * total)
+        source = r_back * reaching_back
+    elif scattering_back:                # both randomise: Green's double-sided case
+        gain = r_back * (1.0 - escape) * through * through
+        source = entering
+    else:                                # textured front, mirror behind
+        gain = (1.0 - escape) * r_back * transmittance(2.0 * total)
+        source = entering
+    loss = np.broadcast_to(1.0 - gain, shape)
+    trapped = ~(loss > 0)
+    if np.any(trapped):
+        warnings.warn(f"layer_absorption: {int(np.count_nonzero(trapped))} point(s) trap scattered light "
+                      f"without loss (lossless layers, back_reflectance = 1, no escape); set to NaN",
+                      LightTrappedWarning, stacklevel=3)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        flux = np.where(trapped, np.nan, source / np.where(trapped, 1.0, loss))
+    if flat_front:                       # flux = U, leaving the back upwards
+        down_after = returning(total + tops) - returning(total + bottoms)
+        absorbed = flux * (up_once + down_after)
+        escaped = flux * (through - returning(total))
+        transmitted = (1.0 - r_back) * (reaching_back + flux * returning(2.0 * total))
+    elif scattering_back:                # flux = D, entering the top downwards
+        up = r_back * through * flux
+        absorbed = flux * down_once + up * up_once
+        escaped = escape * through * up
+        transmitted = (1.0 - r_back) * through * flux
+    else:
+        up_after = transmittance(np.maximum(2.0 * total - bottoms, 0.0)) - transmittance(2.0 * total - tops)
+        absorbed = flux * (down_once + r_back * up_after)
+        escaped = escape * r_back * transmittance(2.0 * total) * flux
+        transmitted = (1.0 - r_back) * through * flux
+    return absorbed, escaped, transmitted
 
 
 def generation_profile(depth_m, *, alpha_per_m, thickness_m, downward_flux, upward_flux=0.0):

@@ -1,5 +1,6 @@
 """Light through a layer stack: the coating by characteristic matrices, Beer-Lambert in every
-layer with an optional back mirror, collection by each subcell's layers, and the photon budget.
+layer with an optional back mirror (flat or ideally scattering, and an optionally textured front:
+light trapping, laws/thinfilm.py), collection by each subcell's layers, and the photon budget.
 
 The layer model comes from circuit.from_layers (compile_layer_stack); see its docstring.
 """
@@ -45,11 +46,19 @@ def layer_light(model, wavelength, flux):
     # light returning from inside sees the front surface as reflecting as much as from outside
     # (a lossless coating reflects alike from both sides: H. A. Macleod, Thin-Film Optical
     # Filters, ch. 2)
+    trapping = {}
+    if (model.back_scattering, model.front_scattering) != ("specular", "specular"):
+        # scattered light: ideal Lambertian surfaces, the escape cone of the bottom layer's index
+        # (Snell through flat layers: n sin theta is kept, so the cone into the ambient is set by
+        # the medium the light is scattered in), generation uniform in each subcell
+        trapping = dict(back_scattering=model.back_scattering, front_scattering=model.front_scattering,
+                        trapping_index=model.materials[-1].refractive_index(wavelength),
+                        ambient_index=model.ambient_index)
     budget = thinfilm.layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
                                        front_reflectance=1.0 - transmittance,
                                        back_reflectance=model.back_reflectance,
                                        front_internal_reflectance=reflectance
-                                       if model.back_reflectance > 0 else 0.0)
+                                       if model.back_reflectance > 0 else 0.0, **trapping)
     collected = [collection.collected_photocurrent(
         alphas[cell.emitter], photon_flux_m2_s=budget.downward_at_top[cell.emitter],
         emitter_thickness_m=cell.emitter_thickness_m,
@@ -58,7 +67,9 @@ def layer_light(model, wavelength, flux):
         front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
         base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
         base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
-        back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], where=cell.name)
+        back_photon_flux_m2_s=budget.upward_at_bottom[cell.base],
+        uniform_absorbed_m2_s=budget.scattered_absorbed[cell.emitter]
+        + budget.scattered_absorbed[cell.base] if trapping else 0.0, where=cell.name)
         for cell in model.subcells]
     return LayerLight(alphas, reflectance, coating_absorbed, budget, collected)
 

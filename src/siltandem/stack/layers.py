@@ -31,7 +31,10 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
-OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0}
+OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
+               "front_scattering": "specular"}
+#: the text keys of ``[optics]`` and their allowed values: how each surface reflects or lets light in
+SCATTERING_CHOICES = ("specular", "lambertian")
 #: shortest minority-carrier diffusion length and lifetime a layer may give: 1 nm (a few
 #: lattice spacings) and 1 fs (below carrier scattering times); with the library's
 #: mobilities 1 fs gives about 1 nm
@@ -339,11 +342,33 @@ def parse_rules(table, *, file):
 
 
 def parse_optics(table, *, file):
-    """``[optics]``: ``back_reflectance`` (a mirror behind the last layer, 0..1, default 0) and
-    ``ambient_index`` (the medium in front: 1 for air, about 1.5 under glass or encapsulant)."""
-    return _settings(table, file=file, section="optics", defaults=OPTICS_KEYS,
-                     ranges={"back_reflectance": ("", 0.0, 1.0, False),
-                             "ambient_index": ("", 1.0, 5.0, False)})
+    """``[optics]``: ``back_reflectance`` (a mirror behind the last layer, 0..1, default 0),
+    ``ambient_index`` (the medium in front: 1 for air, about 1.5 under glass or encapsulant),
+    ``back_scattering`` ("specular", the default: a flat mirror; "lambertian": an ideal
+    scattering rear of reflectance back_reflectance) and ``front_scattering`` ("specular": a flat
+    front; "lambertian": an ideally textured front, e.g. a stand-alone Si cell)."""
+    values = _settings(table, file=file, section="optics", defaults=OPTICS_KEYS,
+                       ranges={"back_reflectance": ("", 0.0, 1.0, False),
+                               "ambient_index": ("", 1.0, 5.0, False)})
+    for key in ("back_scattering", "front_scattering"):
+        if key not in table:
+            continue
+        value = table[key]
+        if not isinstance(value, str) or value not in SCATTERING_CHOICES:
+            close = suggest(value, SCATTERING_CHOICES) if isinstance(value, str) else ""
+            raise StackError(f"{key} = {excerpt(value)} is not one of "
+                             + ", ".join(repr(c) for c in SCATTERING_CHOICES), file=file,
+                             where=f"key optics.{key}",
+                             fix=close + f'write {key} = "specular" (flat) or {key} = "lambertian" '
+                                 "(ideal scattering)")
+        values[key] = value
+    if values["back_scattering"] == "lambertian" and values["back_reflectance"] == 0:
+        raise StackError('back_scattering = "lambertian" with back_reflectance = 0: a rear that '
+                         "reflects nothing scatters nothing", file=file,
+                         where="key optics.back_scattering",
+                         fix="give back_reflectance = <0..1>, the scattering rear's reflectance "
+                             "(e.g. 0.95), or remove back_scattering")
+    return values
 
 def _check_material(material, composition, *, file, where):
     from siltandem.materials import MaterialError, load_material
