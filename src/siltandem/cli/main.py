@@ -306,8 +306,18 @@ def _json_alone(args, command):
         return command(args)
 
 
+def _figures_offscreen(args):
+    """A command that writes a figure file draws it off screen: the command line (never a library
+    function) selects matplotlib's file-only backend, before pyplot is imported."""
+    if getattr(args, "plot", None):
+        import matplotlib
+
+        matplotlib.use("Agg")
+
+
 def main(argv=None):
     args = _parser().parse_args(argv)
+    _figures_offscreen(args)
     if args.command != "materials":
         from siltandem.solve import kernels
 

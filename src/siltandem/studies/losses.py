@@ -160,12 +160,9 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
 
 def plot_waterfall(waterfall, ax=None):
     """Bars falling from the limit to the stack's efficiency, one per loss."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if ax is None:
+        import matplotlib.pyplot as plt
+
         _, ax = plt.subplots(figsize=(9, 4.8))
     labels = ["limit"] + [s["loss"] for s in waterfall["steps"]] + ["stack"]
     level = waterfall["limit_pct"]

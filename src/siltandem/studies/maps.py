@@ -31,18 +31,15 @@ def optimum(table, column="efficiency_pct"):
 
 def plot_map(table, first, second, column="efficiency_pct", ax=None, *, title=""):
     """Filled map of ``column`` over the two varied keys, iso-lines, the optimum marked."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if ax is None:
+        import matplotlib.pyplot as plt
+
         _, ax = plt.subplots(figsize=(7, 5.5))
     x, y = first.values, second.values
     z = (table.sort_values("design")[column].to_numpy(dtype=float)
          .reshape(len(x), len(y)).T)
     filled = ax.contourf(x, y, z, levels=24, cmap="viridis")
-    plt.colorbar(filled, ax=ax, label=column)
+    ax.figure.colorbar(filled, ax=ax, label=column)
     lines = ax.contour(x, y, z, levels=10, colors="white", linewidths=0.6)
     ax.clabel(lines, fontsize=7, fmt="%.3g")
     best = optimum(table, column)

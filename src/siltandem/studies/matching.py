@@ -63,12 +63,9 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
 
 def plot_matching(table, variation, matches, axes=None, *, title=""):
     """Two panels sharing the varied axis: photocurrents (matched points marked), efficiency."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if axes is None:
+        import matplotlib.pyplot as plt
+
         _, axes = plt.subplots(2, 1, figsize=(7, 6.5), sharex=True)
     top, bottom = axes
     x = table[variation.column]

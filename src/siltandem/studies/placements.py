@@ -130,12 +130,9 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
 
 def plot_placements(table, axes=None, *, title=""):
     """Side by side: each candidate's efficiency, and its junction and interface penalties."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if axes is None:
+        import matplotlib.pyplot as plt
+
         _, axes = plt.subplots(1, 2, figsize=(12, 0.6 * len(table) + 2.5))
     left, right = axes
     names = table["placement"].tolist()[::-1]

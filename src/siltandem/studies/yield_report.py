@@ -293,9 +293,6 @@ def plot_yield(result, axes=None):
     import datetime
 
     if axes is None:
-        import matplotlib
-
-        matplotlib.use("Agg", force=False)
         import matplotlib.pyplot as plt
 
         _, axes = plt.subplots(1, 3, figsize=(15, 4.6), gridspec_kw={"width_ratios": [1.3, 1, 1]})

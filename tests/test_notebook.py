@@ -1,0 +1,96 @@
+"""At home in a notebook (issue 20): plots leave matplotlib's backend alone, the summary's
+warnings reach Python's ``warnings``, a Result prints as a few lines.
+
+Contract tests of our own API (no outside check values: the numbers shown are checked against
+published values in test_solve.py and test_spectra.py). The matplotlib behaviour relied on is
+documented: ``matplotlib.use`` sets the backend for the whole process and ``get_backend``
+reports it (matplotlib API reference, ``matplotlib.use``).
+"""
+import os
+from pathlib import Path
+import subprocess
+import sys
+import textwrap
+
+
+
+
+ROOT = Path(__file__).resolve().parents[1]
+STACKS = ROOT / "stacks"
+
+#: every public plot function called without and with axes, in a process whose backend the user
+#: chose ("svg": non-interactive, always available); the backend must stay the user's
+PLOTS = textwrap.dedent("""
+    import sys
+    import matplotlib
+    matplotlib.use("svg")
+    import matplotlib.pyplot as plt
+    from matplotlib.figure import Figure
+    import siltandem
+    from siltandem.report.plots import plot_concentration
+    from siltandem.studies.interface import plot_interface
+    from siltandem.studies.losses import plot_waterfall
+    from siltandem.studies.maps import plot_map
+    from siltandem.studies.matching import plot_matching
+    from siltandem.studies.placements import plot_placements
+    from siltandem.studies.yield_report import plot_yield
+
+    stacks = sys.argv[1]
+    dual = siltandem.load_stack(f"{stacks}/demo_dual.toml")
+    result = siltandem.run_stack(dual, curve_points=50)
+    gap = siltandem.parse_vary("top.gap_eV=1.6:1.9:3", dual)
+    absorb = siltandem.parse_vary("top.absorptance=0.8:1:3", dual)
+    table = siltandem.design_map(dual, gap, absorb, progress=False)
+    matched, matches = siltandem.match_currents(dual, siltandem.parse_vary(
+        "top.absorptance=0.5:1:5", dual), progress=False)
+    faces = siltandem.run_stack(siltandem.load_stack(f"{stacks}/demo_interfaces.toml"),
+                                curve_points=50)
+    face = next(e for e in faces.circuit.elements if e.kind == "isotype")
+    calls = {
+        "plot_iv": (lambda ax: siltandem.plot_iv(result, ax), 1),
+        "plot_concentration": (lambda ax: plot_concentration(
+            siltandem.concentration_series(dual, [1.0, 10.0]), ax), 1),
+        "plot_map": (lambda ax: plot_map(table, gap, absorb, ax=ax), 1),
+        "plot_matching": (lambda axes: plot_matching(matched, absorb, matches, axes), 2),
+        "plot_waterfall": (lambda ax: plot_waterfall(siltandem.loss_waterfall(dual), ax), 1),
+        "plot_placements": (lambda axes: plot_placements(siltandem.rank_placements(
+            siltandem.load_stack(f"{stacks}/demo_placements.toml"), progress=False), axes), 2),
+        "plot_interface": (lambda axes: plot_interface(face, 298.15, 0.0, axes), 2),
+        "plot_yield": (lambda axes: plot_yield(siltandem.annual_yield(dual, "demo"), axes), 3),
+    }
+    for name, (call, panels) in calls.items():
+        call(None)
+        print(name, "without axes:", matplotlib.get_backend())
+        before = plt.get_fignums()
+        figure = Figure()
+        axes = figure.subplots(1, panels)
+        call(axes if panels > 1 else axes)
+        print(name, "with axes:", matplotlib.get_backend(), plt.get_fignums() == before)
+""")
+
+
+def test_no_plot_function_changes_the_backend(tmp_path):
+    script = tmp_path / "plots.py"
+    script.write_text(PLOTS)
+    env = {k: v for k, v in os.environ.items() if k != "MPLBACKEND"}
+    done = subprocess.run([sys.executable, str(script), str(STACKS)], capture_output=True,
+                          text=True, env=env, timeout=600)
+    assert done.returncode == 0, done.stderr
+    lines = done.stdout.splitlines()
+    assert len(lines) == 16, done.stdout       # eight functions, with and without axes
+    for line in lines:
+        assert line.split(": ")[1].startswith("svg"), line
+    for line in lines[1::2]:                   # given axes, no pyplot figure is opened
+        assert line.endswith(" True"), line
+
+
+def test_the_command_line_draws_off_screen_whatever_the_environment_says(tmp_path):
+    # a backend named in the environment that cannot be loaded here (pyplot would fail to
+    # import with it): the command line selects its file-only backend itself, before pyplot
+    png = tmp_path / "iv.png"
+    env = dict(os.environ, MPLBACKEND="module://no_such_backend")
+    done = subprocess.run([sys.executable, "-m", "siltandem.cli.main", "run",
+                           str(STACKS / "demo_dual.toml"), "--plot", str(png)],
+                          capture_output=True, text=True, env=env, timeout=300)
+    assert done.returncode == 0, done.stderr
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
