@@ -11,6 +11,12 @@ from pathlib import Path
 import subprocess
 import sys
 import textwrap
+import warnings
+
+import pytest
+
+import siltandem
+from siltandem import ModelWarning, load_stack, run_stack
 
 
 
@@ -94,3 +100,78 @@ def test_the_command_line_draws_off_screen_whatever_the_environment_says(tmp_pat
                           capture_output=True, text=True, env=env, timeout=300)
     assert done.returncode == 0, done.stderr
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+# ----------------------------------------------------------------------------------------------
+# the summary's warnings reach Python's warnings, once per run_stack
+
+
+def _issued(stack, **options):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = run_stack(stack, curve_points=50, **options)
+    return result, [w for w in caught if issubclass(w.category, ModelWarning)]
+
+
+def test_every_listed_warning_is_issued_once():
+    stack = load_stack(STACKS / "demo_tunnel_limit.toml")
+    result, issued = _issued(stack)
+    listed = result.summary["warnings"]
+    assert len(listed) == 2 and len(issued) == len(listed)
+    for text, warning in zip(listed, issued):
+        assert str(warning.message) == f"{result.summary['stack']}: {text}"
+        assert warning.filename == __file__      # points at the caller's line, not ours
+    with pytest.warns(ModelWarning) as record:
+        run_stack(stack, curve_points=50)
+    assert ["driven past its peak" in str(w.message) for w in record] == [True, False]
+    assert issubclass(ModelWarning, UserWarning) and siltandem.ModelWarning is ModelWarning
+
+
+def test_a_blocking_interface_is_a_warning():
+    with pytest.warns(ModelWarning, match=r"isotype interface 'hole interface' blocks"):
+        run_stack(load_stack(STACKS / "demo_interfaces.toml"), curve_points=50)
+
+
+def test_a_stack_without_warnings_issues_none():
+    result, issued = _issued(load_stack(STACKS / "demo_dual.toml"))
+    assert result.summary["warnings"] == [] and issued == []
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ModelWarning)
+        run_stack(load_stack(STACKS / "demo_dual.toml"), curve_points=50)
+
+
+def test_the_command_line_prints_each_warning_once_even_with_warnings_as_errors():
+    done = subprocess.run([sys.executable, "-W", "error", "-m", "siltandem.cli.main", "run",
+                           str(STACKS / "demo_tunnel_limit.toml")],
+                          capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    assert (done.stdout + done.stderr).count("driven past its peak") == 1
+    assert "ModelWarning" not in done.stderr
+
+
+# ----------------------------------------------------------------------------------------------
+# a short repr and a notebook summary
+
+
+def test_the_repr_is_one_short_line_with_the_headline_numbers():
+    result = run_stack(load_stack(STACKS / "demo_dual.toml"), curve_points=50)
+    s = result.summary
+    text = repr(result)
+    assert "\n" not in text and len(text) <= 400, text
+    for shown in (f"'{s['stack']}'", "am1.5g", f"efficiency {s['efficiency_pct']:.2f} %",
+                  f"Voc {s['voc_V']:.4f} V", f"Jsc {s['jsc_mA_cm2']:.3f} mA/cm2",
+                  f"fill factor {s['fill_factor']:.4f}",
+                  f"MPP {s['mpp_V']:.4f} V x {s['mpp_mA_cm2']:.3f} mA/cm2", "0 warnings"):
+        assert shown in text, (shown, text)
+    html = result._repr_html_()
+    assert len(html) < 5000 and html.startswith("<div>") and html.endswith("</div>")
+    assert f"{s['efficiency_pct']:.2f}" in html and "top *" in html
+
+
+def test_the_repr_of_several_strings_and_of_warnings():
+    four = run_stack(load_stack(STACKS / "demo_four_terminal.toml"), curve_points=50)
+    assert "2 strings" in repr(four) and "Voc" not in repr(four) and len(repr(four)) <= 400
+    with pytest.warns(ModelWarning):
+        limited = run_stack(load_stack(STACKS / "demo_tunnel_limit.toml"), curve_points=50)
+    assert repr(limited).endswith(", 2 warnings>")
+    assert "<li>" in limited._repr_html_() and "&#x27;junction&#x27;" in limited._repr_html_()

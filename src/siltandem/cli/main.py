@@ -7,10 +7,11 @@ import contextlib
 from importlib import resources
 from pathlib import Path
 import sys
+import warnings
 
 import numpy as np
 
-from siltandem.errors import StackError
+from siltandem.errors import ModelWarning, StackError
 from siltandem.text import number, printable
 
 DEMO = "demo_dual.toml"
@@ -328,7 +329,9 @@ def main(argv=None):
         from siltandem.stack.options import read_arguments
 
         read_arguments(args)       # every number given: the same ranges as the file keys
-        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)):
+        # the commands print a result's warnings with it: not a second time through `warnings`
+        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings():
+            warnings.simplefilter("ignore", ModelWarning)
             return _command(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)

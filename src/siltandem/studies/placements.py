@@ -66,15 +66,15 @@ def auto_candidates(stack):
 def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
                         temperature_K=None):
     """Chunk function: solve each candidate (one row per candidate index in ``design``)."""
-    from siltandem.result.driver import run_stack
+    from siltandem.result.driver import compute_result
 
     rows = []
     for design in chunk["design"].to_numpy():
         placement = candidates[int(design)]
         row = {"design": int(design), "placement": placement.name}
         try:
-            result = run_stack(with_placement(stack, placement), spectrum=spectrum, suns=suns,
-                               temperature_K=temperature_K, curve_points=60)
+            result = compute_result(with_placement(stack, placement), spectrum=spectrum,
+                                    suns=suns, temperature_K=temperature_K, curve_points=60)
         except StackError as exc:
             row.update({"efficiency_pct": np.nan, "problem": exc.problem})
             rows.append(row)
