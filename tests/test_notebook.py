@@ -175,3 +175,21 @@ def test_the_repr_of_several_strings_and_of_warnings():
         limited = run_stack(load_stack(STACKS / "demo_tunnel_limit.toml"), curve_points=50)
     assert repr(limited).endswith(", 2 warnings>")
     assert "<li>" in limited._repr_html_() and "&#x27;junction&#x27;" in limited._repr_html_()
+
+
+# ----------------------------------------------------------------------------------------------
+# studies are silent unless asked
+
+
+def test_a_study_prints_no_progress_unless_asked(capsys, monkeypatch):
+    from siltandem.studies import runner
+
+    monkeypatch.setattr(runner, "PROGRESS_DELAY_S", 0.0)     # the line would show at once
+    dual = load_stack(STACKS / "demo_dual.toml")
+    gap = siltandem.parse_vary("top.gap_eV=1.6:1.9:3", dual)
+    absorb = siltandem.parse_vary("top.absorptance=0.8:1:3", dual)
+    siltandem.design_map(dual, gap, absorb)
+    siltandem.match_currents(dual, absorb)
+    assert capsys.readouterr() == ("", "")
+    siltandem.design_map(dual, gap, absorb, progress=True)
+    assert "rows 9 / 9 (100 %)" in capsys.readouterr().err

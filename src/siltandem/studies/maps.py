@@ -7,12 +7,14 @@ from siltandem.studies.sweep import check_study, design_table, evaluate_chunk
 from siltandem.stack.inputs import input_files
 
 
-def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=True,
+def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=False,
                chunk_rows=None, spectrum=None, suns=None, temperature_K=None):
     """Solve every design of the grid first x second; long-form DataFrame, one row per design.
 
     Columns: ``design``, the two varied columns (named as given, e.g. ``top.gap_eV``), then the
-    result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...).
+    result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...). Silent unless
+    ``progress=True`` (a progress line on stderr once the run has lasted 2 s; the command line's
+    default).
     """
     check_study(stack, [first, second], workers=workers, cluster=cluster,
                 chunk_rows=chunk_rows, spectrum=spectrum, suns=suns, temperature_K=temperature_K)

@@ -101,7 +101,7 @@ def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
 
 
 def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=None,
-                    progress=True, spectrum=None, suns=None, temperature_K=None):
+                    progress=False, spectrum=None, suns=None, temperature_K=None):
     """Every candidate solved; a DataFrame ranked by efficiency (best first, rank column)."""
     import pandas as pd
 
@@ -160,7 +160,7 @@ def plot_placements(table, axes=None, *, title=""):
 
 
 def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, azimuth_deg=None,
-                         progress=True):
+                         progress=False):
     """Add each candidate's annual energy (a yield year each) and rank by it (best first)."""
     import sys
 
