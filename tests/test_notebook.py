@@ -193,3 +193,43 @@ def test_a_study_prints_no_progress_unless_asked(capsys, monkeypatch):
     assert capsys.readouterr() == ("", "")
     siltandem.design_map(dual, gap, absorb, progress=True)
     assert "rows 9 / 9 (100 %)" in capsys.readouterr().err
+
+
+# ----------------------------------------------------------------------------------------------
+# every JSON output says which version wrote it and from which stack file
+
+
+@pytest.mark.parametrize("argv", [
+    ["run", "{stack}", "--json", "-"],
+    ["run", "{stack}", "--suns-range", "1:10:3", "--json", "-"],
+    ["map", "{stack}", "--vary", "top.gap_eV=1.6:1.8:3", "--vary", "top.absorptance=0.9:1:2",
+     "--json", "-", "--quiet"],
+    ["match", "{stack}", "--vary", "top.absorptance=0.5:1:5", "--json", "-", "--quiet"],
+    ["losses", "{stack}", "--json", "-"],
+    ["yield", "{stack}", "--weather", "demo", "--json", "-"],
+])
+def test_every_json_output_carries_the_version_and_the_stack_hash(tmp_path, capsys, argv):
+    import hashlib
+    import json
+
+    from siltandem.cli.main import main
+
+    stack = tmp_path / "s.toml"
+    stack.write_bytes((STACKS / "demo_dual.toml").read_bytes())
+    assert main([a.format(stack=stack) for a in argv]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["siltandem_version"] == siltandem.__version__
+    assert data["stack_sha256"] == hashlib.sha256(stack.read_bytes()).hexdigest()
+
+
+def test_the_result_and_the_stack_carry_the_hash_of_the_bytes_read(tmp_path):
+    import hashlib
+
+    stack = tmp_path / "s.toml"
+    stack.write_bytes((STACKS / "demo_dual.toml").read_bytes())
+    loaded = load_stack(stack)
+    stack.write_text("edited after loading\n")     # the hash is of what was read, not of now
+    digest = hashlib.sha256((STACKS / "demo_dual.toml").read_bytes()).hexdigest()
+    assert loaded.source_sha256 == digest
+    summary = run_stack(loaded, curve_points=50).summary
+    assert summary["stack_sha256"] == digest and summary["siltandem_version"] == siltandem.__version__

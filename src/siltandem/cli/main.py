@@ -216,7 +216,10 @@ def _concentration(args, stack, suns):
     if args.json:
         from siltandem.result.record import json_text
 
-        text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
+        from siltandem.stack.load import provenance
+
+        text = json_text({"stack": stack.name, **provenance(stack),
+                          "series": series.to_dict(orient="records")})
         if to_stdout_json:
             sys.stdout.write(text)
         else:

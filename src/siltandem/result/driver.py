@@ -14,6 +14,7 @@ from siltandem.materials.spectra import get_spectrum
 from siltandem.result.record import Result, curve_table, first_value
 from siltandem.errors import ModelWarning
 from siltandem.result.summary import missing_value_warnings, summarise
+from siltandem.stack.load import provenance
 
 
 def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
@@ -87,6 +88,7 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     if placement_note:
         summary["warnings"].insert(0, placement_note)
     summary["warnings"].extend(missing_value_warnings(summary))
+    summary.update(provenance(stack))
     return Result(summary, curve_table(circuit, solutions), circuit, solutions)
 
 
