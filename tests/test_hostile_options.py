@@ -540,3 +540,58 @@ def test_the_memory_estimate_names_what_to_change():
 ])
 def test_good_cluster_addresses_are_read(address, parsed):
     assert options.check_cluster_address(address) == parsed
+
+
+# a Variation given to a study through the API is checked as --vary is (issue 20): before, a
+# misspelt key varied nothing, an unknown element ended in a KeyError and absorptance 1.5 gave
+# 32.5 mA/cm2, above the photon limit (ASTM G173 above 1.73 eV: 21.67 mA/cm2)
+API_VARIATIONS = [
+    (Variation("top", "gapp_eV", np.array([1.6, 1.7])),
+     r"'top\.gapp_eV': subcell 'top' has no numeric key 'gapp_eV'", r"did you mean 'gap_eV'\? "
+     r"vary one of absorptance, .*gap_eV"),
+    (Variation("topp", "gap_eV", np.array([1.6, 1.7])), r"'topp\.gap_eV': no element named 'topp'",
+     r"did you mean 'top'\? the stack's elements are 'front grid', 'top', 'silicon', "
+     r"'rear contact'"),
+    (Variation("top", "absorptance", np.array([0.8, 1.5])),
+     r"'top\.absorptance': absorptance = 1\.5 is outside its physical range \[1e-06, 1\]",
+     r"give absorptance within \[1e-06, 1\]"),
+    (Variation("top", "absorptance", np.array([-0.2])),
+     r"absorptance = -0\.2 is outside its physical range \[1e-06, 1\]", r"within \[1e-06, 1\]"),
+    (Variation("top", "gap_eV", np.array([1.6, math.nan])), r"'top\.gap_eV': nan is not a finite",
+     r"finite values"),
+    (Variation("top", "gap_eV", np.array([])), r"'top\.gap_eV': no values", r"parse_vary"),
+    (Variation("top", "gap_eV", ["a", "b"]), r"the values .* are not numbers", r"parse_vary"),
+    ("top.gap_eV=1.6:1.9:3", r"'top\.gap_eV=1\.6:1\.9:3' is not a Variation", r"parse_vary"),
+]
+
+
+@pytest.mark.parametrize("variation, problem, fix", API_VARIATIONS)
+def test_a_bad_variation_given_to_the_api_is_refused(dual, variation, problem, fix):
+    other = parse_vary("rear contact.series_ohm_cm2=0:1:2", dual)
+    for call in (lambda: design_map(dual, other, variation, progress=False),
+                 lambda: match_currents(dual, variation, progress=False)):
+        with pytest.raises(StackError, match=problem) as info:
+            call()
+        assert info.value.where.startswith("argument variations")
+        assert re.search(fix, info.value.fix), info.value.fix
+
+
+def test_a_key_varied_twice_is_refused(dual):
+    gap = parse_vary("top.gap_eV=1.6:1.8:3", dual)
+    with pytest.raises(StackError, match=r"'top\.gap_eV' is varied twice"):
+        design_map(dual, gap, gap, progress=False)
+
+
+@pytest.mark.parametrize("stack, text, problem, fix", [
+    (DUAL, "top.gapp_eV=1.6:1.9:3", r"subcell 'top' has no numeric key 'gapp_eV'",
+     r"did you mean 'gap_eV'\?"),
+    (DUAL, "topp.gap_eV=1.6:1.9:3", r"no element named 'topp'", r"did you mean 'top'\?"),
+    (LAYERS, "top base.thicknes_nm=100:200:3", r"layer 'top base' has no numeric key",
+     r"did you mean 'thickness_nm'\?"),
+    (LAYERS, "tpo base.thickness_nm=100:200:3", r"no layer named 'tpo base'",
+     r"did you mean 'top base'"),
+])
+def test_parse_vary_suggests_the_closest_names(folder, stack, text, problem, fix):
+    with pytest.raises(StackError, match=problem) as info:
+        parse_vary(text, load_stack(folder / stack))
+    assert info.value.where == "--vary" and re.search(fix, info.value.fix), info.value.fix

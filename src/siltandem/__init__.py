@@ -14,7 +14,8 @@ The public API, loaded on first use (``import siltandem`` imports neither numpy 
 
 Studies: ``design_map``, ``match_currents`` (with ``parse_vary`` to name what varies),
 ``rank_placements``, ``loss_waterfall``, ``annual_yield`` (with ``read_weather``). Bad input raises
-``siltandem.StackError`` (a ValueError with ``file``, ``where``, ``problem`` and ``fix``).
+``siltandem.StackError`` (a ValueError with ``file``, ``where``, ``problem`` and ``fix``). What a
+result's ``warnings`` list holds is also issued as a ``siltandem.ModelWarning`` (a UserWarning).
 """
 from importlib import import_module
 
@@ -26,6 +27,7 @@ _API = {
     "run_stack": "siltandem.result.driver",
     "Result": "siltandem.result.record",
     "StackError": "siltandem.errors",
+    "ModelWarning": "siltandem.errors",
     "parse_vary": "siltandem.studies.sweep",
     "design_map": "siltandem.studies.maps",
     "match_currents": "siltandem.studies.matching",

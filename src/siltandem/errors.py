@@ -41,3 +41,10 @@ class StackError(ValueError):
 
     def to_dict(self):
         return {"file": self.file, "where": self.where, "problem": self.problem, "fix": self.fix}
+
+
+class ModelWarning(UserWarning):
+    """A warning about a solved model: what a result's ``warnings`` list holds (a tunnel junction
+    driven past its peak, an isotype interface that blocks, a missing number, ...), issued through
+    Python's :mod:`warnings` as well, so that a notebook or a script sees it. The command line,
+    which prints the list itself, silences it."""

@@ -7,10 +7,11 @@ import contextlib
 from importlib import resources
 from pathlib import Path
 import sys
+import warnings
 
 import numpy as np
 
-from siltandem.errors import StackError
+from siltandem.errors import ModelWarning, StackError
 from siltandem.text import number, printable
 
 DEMO = "demo_dual.toml"
@@ -215,7 +216,10 @@ def _concentration(args, stack, suns):
     if args.json:
         from siltandem.result.record import json_text
 
-        text = json_text({"stack": stack.name, "series": series.to_dict(orient="records")})
+        from siltandem.stack.load import provenance
+
+        text = json_text({"stack": stack.name, **provenance(stack),
+                          "series": series.to_dict(orient="records")})
         if to_stdout_json:
             sys.stdout.write(text)
         else:
@@ -306,8 +310,18 @@ def _json_alone(args, command):
         return command(args)
 
 
+def _figures_offscreen(args):
+    """A command that writes a figure file draws it off screen: the command line (never a library
+    function) selects matplotlib's file-only backend, before pyplot is imported."""
+    if getattr(args, "plot", None):
+        import matplotlib
+
+        matplotlib.use("Agg")
+
+
 def main(argv=None):
     args = _parser().parse_args(argv)
+    _figures_offscreen(args)
     if args.command != "materials":
         from siltandem.solve import kernels
 
@@ -318,7 +332,9 @@ def main(argv=None):
         from siltandem.stack.options import read_arguments
 
         read_arguments(args)       # every number given: the same ranges as the file keys
-        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)):
+        # the commands print a result's warnings with it: not a second time through `warnings`
+        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings():
+            warnings.simplefilter("ignore", ModelWarning)
             return _command(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)

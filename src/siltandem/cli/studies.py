@@ -107,7 +107,7 @@ def _connect(args):
     return connect_cluster(args.cluster)
 
 
-def _write_outputs(args, table, summary, figure=None):
+def _write_outputs(args, table, summary, figure=None, *, stack):
     from siltandem.files import save_figure_atomic, write_atomic
     from siltandem.text import csv_safe
 
@@ -124,7 +124,9 @@ def _write_outputs(args, table, summary, figure=None):
     if args.json:
         from siltandem.result.record import json_text
 
-        text = json_text(summary)
+        from siltandem.stack.load import provenance
+
+        text = json_text({**summary, **provenance(stack)})
         if args.json == "-":
             getattr(args, "json_stream", sys.stdout).write(text)
         else:
@@ -285,7 +287,7 @@ def run_match(args):
                    "value": float(table[variation.column][best]),
                    "efficiency_pct": float(table["efficiency_pct"][best])},
                "best_by_energy": by_energy}
-    _write_outputs(args, table, summary, figure)
+    _write_outputs(args, table, summary, figure, stack=stack)
     return 0
 
 
@@ -338,7 +340,7 @@ def run_map(args):
                "optimum": None if best is None else {
                    k: (float(best[k]) if isinstance(best[k], (int, float, np.floating))
                        else str(best[k])) for k in table.columns if k != "design"}}
-    _write_outputs(args, table, summary, figure)
+    _write_outputs(args, table, summary, figure, stack=stack)
     return 0
 
 
@@ -384,7 +386,7 @@ def run_losses(args):
     figure = None
     if args.plot:
         figure = plot_waterfall(waterfall).figure
-    _write_outputs(args, pd.DataFrame(waterfall["steps"]), waterfall, figure)
+    _write_outputs(args, pd.DataFrame(waterfall["steps"]), waterfall, figure, stack=stack)
     return 0
 
 
@@ -461,5 +463,5 @@ def run_placements(args):
     if args.plot:
         figure = plot_placements(table, title=f"{stack.name}: placements")[0].figure
     summary = {"stack": stack.name, "ranking": table.to_dict(orient="records")}
-    _write_outputs(args, table, summary, figure)
+    _write_outputs(args, table, summary, figure, stack=stack)
     return 0

@@ -8,9 +8,6 @@ from siltandem.solve.series import solve_string
 def _axes(ax, figsize=(7, 4.8)):
     if ax is not None:
         return ax
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
     import matplotlib.pyplot as plt
 
     _, ax = plt.subplots(figsize=figsize)

@@ -5,17 +5,35 @@ The Result object lives in ``record.py``, the rules of its summary in ``summary.
 passive elements' penalties in ``penalties.py``.
 """
 from dataclasses import replace
+import warnings
 
 from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
 from siltandem.result.record import Result, curve_table, first_value
+from siltandem.errors import ModelWarning
 from siltandem.result.summary import missing_value_warnings, summarise
+from siltandem.stack.load import provenance
 
 
 def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
     """Solve one stack: the main job.
+
+    Every entry of the result's ``summary["warnings"]`` is also issued once through Python's
+    :mod:`warnings` as a :class:`siltandem.ModelWarning` (filter it like any warning). Parameters
+    and the Result as :func:`compute_result`, which solves without issuing them.
+    """
+    result = compute_result(stack, spectrum=spectrum, suns=suns, temperature_K=temperature_K,
+                            curve_points=curve_points)
+    for text in result.summary["warnings"]:
+        warnings.warn(f"{result.summary['stack']}: {text}", ModelWarning, stacklevel=2)
+    return result
+
+
+def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
+    """Solve one stack, listing its warnings in the summary only (studies and the command line,
+    which report them themselves, call this; :func:`run_stack` issues them too).
 
     Parameters
     ----------
@@ -70,6 +88,7 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     if placement_note:
         summary["warnings"].insert(0, placement_note)
     summary["warnings"].extend(missing_value_warnings(summary))
+    summary.update(provenance(stack))
     return Result(summary, curve_table(circuit, solutions), circuit, solutions)
 
 

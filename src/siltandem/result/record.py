@@ -12,6 +12,7 @@ import math
 import numpy as np
 
 from siltandem import units
+from siltandem import text as words
 
 
 @dataclass(frozen=True)
@@ -87,6 +88,56 @@ class Result:
 
     def to_json(self, indent=2):
         return json_text(self.summary, indent)
+
+    def __repr__(self):
+        """One line: the stack, its light, the headline numbers and how many warnings (the full
+        record is :attr:`summary`; a notebook shows :meth:`_repr_html_`)."""
+        s = self.summary
+        conditions = s["conditions"]
+        name = words.printable(words.shorten(str(s["stack"]), 80))
+        strings = len(s["strings"])
+        shown = [f"efficiency {words.number(s['efficiency_pct'], '.2f')} %"]
+        if strings == 1:
+            shown += [f"Voc {words.number(s['voc_V'], '.4f')} V",
+                      f"Jsc {words.number(s['jsc_mA_cm2'], '.3f')} mA/cm2",
+                      f"fill factor {words.number(s['fill_factor'], '.4f')}",
+                      f"MPP {words.number(s['mpp_V'], '.4f')} V x {words.number(s['mpp_mA_cm2'], '.3f')} mA/cm2"]
+        else:
+            shown.append(f"{strings} strings (each at its own MPP, see .summary['strings'])")
+        count = len(s["warnings"])
+        shown.append(f"{count} warning{'' if count == 1 else 's'}")
+        light = (f"{words.printable(words.shorten(str(conditions['spectrum']), 40))}, "
+                 f"{words.number(conditions['suns'], 'g')} sun(s), "
+                 f"{words.number(conditions['temperature_K'], 'g')} K")
+        return f"<siltandem.Result {name!r} ({light}): " + ", ".join(shown) + ">"
+
+    def _repr_html_(self):
+        """A notebook's summary: the headline numbers, the subcells and the warnings."""
+        from html import escape
+
+        s = self.summary
+        rows = [("efficiency", words.number(s["efficiency_pct"], ".2f"), "%"),
+                ("Voc", words.number(s["voc_V"], ".4f"), "V"),
+                ("Jsc", words.number(s["jsc_mA_cm2"], ".3f"), "mA/cm²"),
+                ("fill factor", words.number(s["fill_factor"], ".4f"), "(fraction)"),
+                ("MPP voltage", words.number(s["mpp_V"], ".4f"), "V"),
+                ("MPP current", words.number(s["mpp_mA_cm2"], ".3f"), "mA/cm²")]
+        table = "".join(f"<tr><td>{escape(a)}</td><td style='text-align:right'>{escape(b)}</td>"
+                        f"<td>{escape(c)}</td></tr>" for a, b, c in rows)
+        cells = "".join(
+            f"<tr><td>{escape(str(c['name']))}{' *' if c['limiting'] else ''}</td>"
+            f"<td style='text-align:right'>{escape(words.number(c['photocurrent_mA_cm2'], '.3f'))}</td>"
+            f"<td>mA/cm² ({escape(words.number(c['gap_eV'], '.3f'))} eV)</td></tr>"
+            for c in s["subcells"])
+        said = "".join(f"<li>{escape(str(w))}</li>" for w in s["warnings"])
+        conditions = s["conditions"]
+        return (f"<div><b>{escape(str(s['stack']))}</b> under "
+                f"{escape(str(conditions['spectrum']))}, {escape(words.number(conditions['suns'], 'g'))}"
+                f" sun(s), {escape(words.number(conditions['temperature_K'], 'g'))} K"
+                f"<table>{table}</table><p>photocurrents (* limits its string)</p>"
+                f"<table>{cells}</table>"
+                + (f"<p>{len(s['warnings'])} warning(s)</p><ul>{said}</ul>" if said else "")
+                + "</div>")
 
     def with_summary(self, **changes):
         return replace(self, summary={**self.summary, **changes})

@@ -5,7 +5,8 @@ temperature_K, terminals) and either ``[[element]]`` tables (circuit level) or `
 tables (layer level, compiled by a later stage). Every problem raises :class:`StackError` naming
 the file, the element (index and name) or key, what is wrong and how to fix it.
 """
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
+import hashlib
 from pathlib import Path
 import tomllib
 
@@ -73,6 +74,7 @@ class Stack:
     extra: dict = field(default_factory=dict)
     coatings: tuple = ()
     rules: dict = field(default_factory=dict)
+    source_sha256: str | None = None   # SHA-256 of the file's bytes as read (outputs quote it)
 
 
 def _parse_element(index, table, *, file, terminals):
@@ -434,4 +436,13 @@ def load_stack(path):
         raise StackError("arrays or tables nested too deeply to read", file=path,
                          fix="a stack file needs no nesting beyond [[element]] or [[layer]] "
                              "tables and short arrays") from None
-    return parse_stack(document, file=path, folder=path.parent)
+    stack = parse_stack(document, file=path, folder=path.parent)
+    return replace(stack, source_sha256=hashlib.sha256(raw).hexdigest())
+
+
+def provenance(stack):
+    """What every JSON output quotes to say where it came from: the package version and the
+    SHA-256 of the stack file as read (None for a stack built in memory)."""
+    from siltandem.version import __version__
+
+    return {"siltandem_version": __version__, "stack_sha256": stack.source_sha256}

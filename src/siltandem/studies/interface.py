@@ -98,12 +98,9 @@ def band_diagram(element, temperature_K, bias_V=0.0):
 
 def plot_interface(element, temperature_K, mpp_bias_V, axes=None):
     """Figure: (a) the interface's J-V, (b) its band diagram at equilibrium and at the MPP bias."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if axes is None:
+        import matplotlib.pyplot as plt
+
         _, axes = plt.subplots(1, 2, figsize=(11, 4.4))
     ax_iv, ax_band = axes
     v, j = interface_iv(element, temperature_K)

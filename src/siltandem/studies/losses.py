@@ -28,7 +28,7 @@ import numpy as np
 from siltandem.constants import HC_EV_NM
 from siltandem.circuit.elements import Subcell, batch
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result.driver import run_stack
+from siltandem.result.driver import compute_result
 from siltandem.solve.series import solve_string
 
 
@@ -95,8 +95,8 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
         ``efficiency_after_pct``}] in waterfall order, and ``check_pct`` (limit minus the sum of
         the steps minus the stack: zero to rounding).
     """
-    result = run_stack(stack, spectrum=spectrum, suns=suns, temperature_K=temperature_K,
-                       curve_points=60)
+    result = compute_result(stack, spectrum=spectrum, suns=suns, temperature_K=temperature_K,
+                            curve_points=60)
     circuit = result.circuit
     conditions = result.summary["conditions"]
     temperature = conditions["temperature_K"]
@@ -160,12 +160,9 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
 
 def plot_waterfall(waterfall, ax=None):
     """Bars falling from the limit to the stack's efficiency, one per loss."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if ax is None:
+        import matplotlib.pyplot as plt
+
         _, ax = plt.subplots(figsize=(9, 4.8))
     labels = ["limit"] + [s["loss"] for s in waterfall["steps"]] + ["stack"]
     level = waterfall["limit_pct"]

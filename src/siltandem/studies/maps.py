@@ -7,12 +7,14 @@ from siltandem.studies.sweep import check_study, design_table, evaluate_chunk
 from siltandem.stack.inputs import input_files
 
 
-def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=True,
+def design_map(stack, first, second, *, workers=None, cluster=None, output=None, progress=False,
                chunk_rows=None, spectrum=None, suns=None, temperature_K=None):
     """Solve every design of the grid first x second; long-form DataFrame, one row per design.
 
     Columns: ``design``, the two varied columns (named as given, e.g. ``top.gap_eV``), then the
-    result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...).
+    result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...). Silent unless
+    ``progress=True`` (a progress line on stderr once the run has lasted 2 s; the command line's
+    default).
     """
     check_study(stack, [first, second], workers=workers, cluster=cluster,
                 chunk_rows=chunk_rows, spectrum=spectrum, suns=suns, temperature_K=temperature_K)
@@ -31,18 +33,15 @@ def optimum(table, column="efficiency_pct"):
 
 def plot_map(table, first, second, column="efficiency_pct", ax=None, *, title=""):
     """Filled map of ``column`` over the two varied keys, iso-lines, the optimum marked."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if ax is None:
+        import matplotlib.pyplot as plt
+
         _, ax = plt.subplots(figsize=(7, 5.5))
     x, y = first.values, second.values
     z = (table.sort_values("design")[column].to_numpy(dtype=float)
          .reshape(len(x), len(y)).T)
     filled = ax.contourf(x, y, z, levels=24, cmap="viridis")
-    plt.colorbar(filled, ax=ax, label=column)
+    ax.figure.colorbar(filled, ax=ax, label=column)
     lines = ax.contour(x, y, z, levels=10, colors="white", linewidths=0.6)
     ax.clabel(lines, fontsize=7, fmt="%.3g")
     best = optimum(table, column)

@@ -14,7 +14,7 @@ from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, 
 from siltandem.stack.inputs import input_files
 
 
-def match_currents(stack, variation, *, workers=None, cluster=None, output=None, progress=True,
+def match_currents(stack, variation, *, workers=None, cluster=None, output=None, progress=False,
                    spectrum=None, suns=None, temperature_K=None):
     """Sweep one key; find where subcell photocurrents cross.
 
@@ -63,12 +63,9 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
 
 def plot_matching(table, variation, matches, axes=None, *, title=""):
     """Two panels sharing the varied axis: photocurrents (matched points marked), efficiency."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if axes is None:
+        import matplotlib.pyplot as plt
+
         _, axes = plt.subplots(2, 1, figsize=(7, 6.5), sharex=True)
     top, bottom = axes
     x = table[variation.column]
@@ -95,7 +92,7 @@ def plot_matching(table, variation, matches, axes=None, *, title=""):
 
 
 def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_deg=None,
-                    progress=True):
+                    progress=False):
     """Annual energy [kWh/m2] for every value of the sweep (one yield year per value).
 
     ``weather`` is a path (``"demo"``: pvlib's TMY3 file) or a loaded Weather. Element stacks

@@ -66,15 +66,15 @@ def auto_candidates(stack):
 def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
                         temperature_K=None):
     """Chunk function: solve each candidate (one row per candidate index in ``design``)."""
-    from siltandem.result.driver import run_stack
+    from siltandem.result.driver import compute_result
 
     rows = []
     for design in chunk["design"].to_numpy():
         placement = candidates[int(design)]
         row = {"design": int(design), "placement": placement.name}
         try:
-            result = run_stack(with_placement(stack, placement), spectrum=spectrum, suns=suns,
-                               temperature_K=temperature_K, curve_points=60)
+            result = compute_result(with_placement(stack, placement), spectrum=spectrum,
+                                    suns=suns, temperature_K=temperature_K, curve_points=60)
         except StackError as exc:
             row.update({"efficiency_pct": np.nan, "problem": exc.problem})
             rows.append(row)
@@ -101,7 +101,7 @@ def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
 
 
 def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=None,
-                    progress=True, spectrum=None, suns=None, temperature_K=None):
+                    progress=False, spectrum=None, suns=None, temperature_K=None):
     """Every candidate solved; a DataFrame ranked by efficiency (best first, rank column)."""
     import pandas as pd
 
@@ -130,12 +130,9 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
 
 def plot_placements(table, axes=None, *, title=""):
     """Side by side: each candidate's efficiency, and its junction and interface penalties."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
     if axes is None:
+        import matplotlib.pyplot as plt
+
         _, axes = plt.subplots(1, 2, figsize=(12, 0.6 * len(table) + 2.5))
     left, right = axes
     names = table["placement"].tolist()[::-1]
@@ -163,7 +160,7 @@ def plot_placements(table, axes=None, *, title=""):
 
 
 def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, azimuth_deg=None,
-                         progress=True):
+                         progress=False):
     """Add each candidate's annual energy (a yield year each) and rank by it (best first)."""
     import sys
 

@@ -20,7 +20,8 @@ from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
 from siltandem.stack.inputs import spectrum_input
 from siltandem.stack.schema import (ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values,
-                                    check_number)
+                                    check_number, suggest)
+from siltandem.text import excerpt
 
 #: result columns every study row carries, named as in the JSON of `siltandem run`
 RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
@@ -79,13 +80,20 @@ def parse_vary(text, stack):
         if not np.isfinite(value):
             raise StackError(f"{shown!r}: {value} is not a finite number", where="--vary",
                              fix="give START and STOP as finite numbers within the key's range")
-    if stack.layers:
-        return _parse_layer_vary(shown, stack, element, key, start, stop, count)
+    values = np.linspace(start, stop, count)
+    _check_values(stack, element, key, values, shown=shown, where="--vary",
+                  value_where=f"--vary {shown}")
+    return Variation(element, key, values)
+
+
+def _element_parameter(stack, element, key, *, shown, where):
+    """The schema entry of an element key a study may vary; StackError naming the element's or
+    the key's known names (with the closest ones) otherwise."""
     specs = {e.name: e for e in stack.elements}
     if element not in specs:
         names = ", ".join(repr(n) for n in specs)
-        raise StackError(f"{shown!r}: no element named {element!r}", where="--vary",
-                         fix=f"the stack's elements are {names}")
+        raise StackError(f"{shown!r}: no element named {element!r}", where=where,
+                         fix=f"{suggest(element, specs)}the stack's elements are {names}")
     spec = specs[element]
     if spec.kind == "isotype":
         allowed = {k: ISOTYPE_NUMBERS[k] for k in ISOTYPE_VARIABLE if k in spec.values}
@@ -93,28 +101,60 @@ def parse_vary(text, stack):
         allowed = {p.key: p for p in ELEMENT_SCHEMA[spec.kind]}
     if key not in allowed:
         raise StackError(f"{shown!r}: {spec.kind} {element!r} has no numeric key {key!r}",
-                         where="--vary", fix="vary one of " + ", ".join(sorted(allowed)))
-    values = np.linspace(start, stop, count)
-    # the range is an interval: its ends bound every value between them
+                         where=where,
+                         fix=f"{suggest(key, allowed)}vary one of " + ", ".join(sorted(allowed)))
+    return allowed[key]
+
+
+def _check_values(stack, element, key, values, *, shown, where, value_where):
+    """A varied key of the stack and its values, by the file's own validators: the element (or
+    layer) and key must exist, and the values lie in the key's range (an interval: the smallest
+    and the largest value bound the rest)."""
+    if stack.layers:
+        from siltandem.stack.layers import check_layer_value
+
+        layers = {layer.name: layer for layer in stack.layers}
+        if element not in layers:
+            raise StackError(f"{shown!r}: no layer named {element!r}", where=where,
+                             fix=f"{suggest(element, layers)}the stack's layers are "
+                                 + ", ".join(repr(n) for n in layers))
+        if key not in LAYER_VARIABLE:
+            raise StackError(f"{shown!r}: layer {element!r} has no numeric key {key!r}",
+                             where=where, fix=f"{suggest(key, LAYER_VARIABLE)}vary one of "
+                                              + ", ".join(LAYER_VARIABLE))
+        for value in (values.min(), values.max()):
+            check_layer_value(layers[element], key, float(value), where=value_where)
+        return
+    parameter = _element_parameter(stack, element, key, shown=shown, where=where)
     for value in (values.min(), values.max()):
-        check_number(allowed[key], float(value), where=where)
-    return Variation(element, key, values)
+        check_number(parameter, float(value), where=value_where)
 
 
-def _parse_layer_vary(text, stack, name, key, start, stop, count):
-    from siltandem.stack.layers import check_layer_value
-
-    layers = {layer.name: layer for layer in stack.layers}
-    if name not in layers:
-        raise StackError(f"{text!r}: no layer named {name!r}", where="--vary",
-                         fix="the stack's layers are " + ", ".join(repr(n) for n in layers))
-    if key not in LAYER_VARIABLE:
-        raise StackError(f"{text!r}: layer {name!r} has no numeric key {key!r}",
-                         where="--vary", fix="vary one of " + ", ".join(LAYER_VARIABLE))
-    values = np.linspace(start, stop, count)
-    for value in (values.min(), values.max()):   # an interval: its ends bound the rest
-        check_layer_value(layers[name], key, float(value), where=f"--vary {text}")
-    return Variation(name, key, values)
+def check_variation(variation, stack, *, where="argument variations"):
+    """A :class:`Variation` given to a study through the API, checked as :func:`parse_vary`
+    checks ``--vary``: a Variation, of an element (or layer) and key the stack has, with finite
+    values in the key's range. StackError otherwise, naming the variation."""
+    fix = 'build it with siltandem.parse_vary("top.gap_eV=1.6:1.9:31", stack)'
+    if not isinstance(variation, Variation):
+        raise StackError(f"{excerpt(variation)} is not a Variation", where=where, fix=fix)
+    if not isinstance(variation.element, str) or not isinstance(variation.key, str):
+        raise StackError(f"a Variation of {excerpt(variation.element)}.{excerpt(variation.key)}: "
+                         "the element (or layer) and the key must be names (text)", where=where,
+                         fix=fix)
+    shown = variation.column if len(variation.column) <= 120 else variation.column[:117] + "..."
+    try:
+        values = np.asarray(variation.values, dtype=float).reshape(-1)
+    except (TypeError, ValueError):
+        raise StackError(f"{shown!r}: the values {excerpt(variation.values)} are not numbers",
+                         where=where, fix=fix) from None
+    if values.size == 0:
+        raise StackError(f"{shown!r}: no values", where=where, fix=fix)
+    bad = values[~np.isfinite(values)]
+    if bad.size:
+        raise StackError(f"{shown!r}: {bad[0]} is not a finite number", where=where,
+                         fix="give finite values within the key's range")
+    _check_values(stack, variation.element, variation.key, values, shown=shown, where=where,
+                  value_where=f"{where}: {shown!r}")
 
 
 def check_designs(stack, variations, *, grid=True):
@@ -175,6 +215,14 @@ def check_study(stack, variations, *, workers=None, cluster=None, chunk_rows=Non
     from siltandem.stack.options import (API_NAMES, check_conditions, check_study_memory,
                            check_study_options)
 
+    where = (names or API_NAMES)["grid"]
+    for variation in variations:
+        check_variation(variation, stack, where=where)
+    columns = [v.column for v in variations]
+    for column in columns:
+        if columns.count(column) > 1:
+            raise StackError(f"{column!r} is varied twice", where=where,
+                             fix="vary two different keys (or one key once)")
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     workers, chunk_rows = check_study_options(workers=workers, cluster=cluster,
                                               chunk_rows=chunk_rows)

@@ -8,6 +8,7 @@ import json
 import numpy as np
 
 from siltandem import units
+from siltandem.stack.load import provenance
 
 #: hours each row of the hourly table stands for
 HOURS_PER_STEP = 1.0
@@ -191,7 +192,7 @@ def summarise(stack, weather, light, hourly, names, laws, tables, standard_effic
     days = plot_days(hourly, weather.latitude)
     efficiency = 100 * energy / insolation if insolation > 0 else None
     summary = {
-        "stack": stack.name, "source_file": stack.source,
+        "stack": stack.name, "source_file": stack.source, **provenance(stack),
         "weather": _weather_entry(weather, light, hourly),
         "plane": {k: light.settings[k] for k in ("tilt_deg", "azimuth_deg", "sky_model",
                                                  "albedo")},
@@ -293,9 +294,6 @@ def plot_yield(result, axes=None):
     import datetime
 
     if axes is None:
-        import matplotlib
-
-        matplotlib.use("Agg", force=False)
         import matplotlib.pyplot as plt
 
         _, axes = plt.subplots(1, 3, figsize=(15, 4.6), gridspec_kw={"width_ratios": [1.3, 1, 1]})
