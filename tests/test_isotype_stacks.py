@@ -137,7 +137,7 @@ def test_band_diagram_edges_follow_the_alignment():
     element = result.circuit.element("electron interface")
     d = band_diagram(element, 298.15, 0.0)
     x, ec = d["x_nm"], d["conduction_eV"]
-    # far from the interface each side's band edge sits at its Fermi depth (Boltzmann)
+    # far from the interface each side's band edge sits at its Fermi depth (Fermi-Dirac)
     sides = element.sides
     assert ec[0] == pytest.approx(sides["accumulation"]["fermi_depth_eV"], abs=1e-9)
     assert ec[-1] == pytest.approx(sides["depletion"]["fermi_depth_eV"], abs=1e-9)
