@@ -259,8 +259,9 @@ def _degenerate_side_warnings(element):
     out = []
     for role, side in (element.sides or {}).items():
         if side.get("degenerate"):
+            doping_cm3 = side["doping_m3"] / units.PER_CM3_TO_PER_M3
             out.append(f"isotype interface {element.name!r}: the {role} side ({side['material']}, "
-                       f"{side['doping_m3'] * 1e-6:.3g} cm^-3) is degenerate (Fermi level "
+                       f"{doping_cm3:.3g} cm^-3) is degenerate (Fermi level "
                        f"{-1000 * side['fermi_depth_eV']:.0f} meV inside the band): Fermi-Dirac "
                        "statistics place its Fermi level, the band bending and the emission "
                        "over the barrier stay Boltzmann approximations")
