@@ -77,8 +77,12 @@ def test_large_offset_costs_far_more_than_small_offset():
 
 
 def test_reverse_biased_large_offset_blocks_without_nan(tmp_path):
+    # the string's current reversed: holes up, so electrons down (one current per string)
     text = DEMO.read_text().replace('carrier = "hole"\ncarriers_flow = "down"',
                                     'carrier = "hole"\ncarriers_flow = "up"')
+    text = text.replace('carrier = "electron"\ncarriers_flow = "up"',
+                        'carrier = "electron"\ncarriers_flow = "down"')
+    assert text.count('carriers_flow = "up"') == 1 and text.count('carriers_flow = "down"') == 1
     (tmp_path / "s.toml").write_text(text)
     result = run_stack(load_stack(tmp_path / "s.toml"), curve_points=50)
     s = result.summary
@@ -137,7 +141,7 @@ def test_band_diagram_edges_follow_the_alignment():
     element = result.circuit.element("electron interface")
     d = band_diagram(element, 298.15, 0.0)
     x, ec = d["x_nm"], d["conduction_eV"]
-    # far from the interface each side's band edge sits at its Fermi depth (Boltzmann)
+    # far from the interface each side's band edge sits at its Fermi depth (Fermi-Dirac)
     sides = element.sides
     assert ec[0] == pytest.approx(sides["accumulation"]["fermi_depth_eV"], abs=1e-9)
     assert ec[-1] == pytest.approx(sides["depletion"]["fermi_depth_eV"], abs=1e-9)
@@ -150,3 +154,44 @@ def test_band_diagram_edges_follow_the_alignment():
     gaps = d["conduction_eV"] - d["valence_eV"]
     assert np.allclose(gaps[:at_interface[0] + 1], sides["accumulation"]["gap_eV"], atol=1e-12)
     assert np.allclose(gaps[at_interface[1]:], sides["depletion"]["gap_eV"], atol=1e-12)
+
+
+# one current per series string: electrons cross the interfaces against it, holes with it
+# (the current density is q (p v_p - n v_n): S. M. Sze, K. K. Ng, Physics of Semiconductor
+# Devices, 3rd ed. (2007), ch. 1)
+MATERIALS_FORM = ('[[element]]\nkind = "isotype"\nname = "{name}"\nupper_material = "GaP"\n'
+                  'lower_material = "Si"\nupper_doping_cm3 = 1e18\nlower_doping_cm3 = 1e17\n'
+                  'carrier = "{carrier}"\ncarriers_flow = "{flow}"\nstring = {string}\n')
+
+
+@pytest.mark.parametrize("electrons, holes, consistent", [
+    ("up", "down", True), ("down", "up", True), ("down", "down", False), ("up", "up", False)])
+def test_carriers_of_one_string_flow_with_one_current(tmp_path, electrons, holes, consistent):
+    text = (MATERIALS_FORM.format(name="n side", carrier="electron", flow=electrons, string=1)
+            + MATERIALS_FORM.format(name="p side", carrier="hole", flow=holes, string=1))
+    if consistent:
+        assert len(load_stack(write(tmp_path, text)).elements) == 3
+        return
+    with pytest.raises(StackError, match="one series string carries its current one way") as info:
+        load_stack(write(tmp_path, text))
+    assert info.value.where == "element 3 'p side', key carriers_flow"
+    flipped = "up" if holes == "down" else "down"
+    assert f'set carriers_flow = "{flipped}" here or "{flipped}" on element 2' in info.value.fix
+    # and the same with the fix applied loads
+    fixed = (MATERIALS_FORM.format(name="n side", carrier="electron", flow=electrons, string=1)
+             + MATERIALS_FORM.format(name="p side", carrier="hole", flow=flipped, string=1))
+    assert len(load_stack(write(tmp_path, fixed)).elements) == 3
+
+
+def test_separate_strings_and_the_numbers_form_are_not_compared(tmp_path):
+    # four terminals: each string has its own current; the numbers form (orientation) names no
+    # direction of flow and so is left out of the check
+    path = tmp_path / "four.toml"
+    path.write_text('[conditions]\nspectrum = "am1.5g"\nterminals = 4\n' + CELL
+                    + MATERIALS_FORM.format(name="a", carrier="electron", flow="down", string=1)
+                    + '[[element]]\nkind = "subcell"\nname = "bottom"\ngap_eV = 1.1\nstring = 2\n'
+                    + MATERIALS_FORM.format(name="b", carrier="hole", flow="down", string=2)
+                    + '[[element]]\nkind = "isotype"\nname = "c"\nbarrier_eV = 0.4\n'
+                      'built_in_V = 0.3\nalpha = 1\ncarrier = "hole"\norientation = "reverse"\n'
+                      'string = 2\n')
+    assert [e.name for e in load_stack(path).elements] == ["cell", "a", "bottom", "b", "c"]

@@ -267,7 +267,7 @@ def compile_layer_stack(stack):
     structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
     materials = tuple(_material(layer) for layer in layers)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
-    details = {"subcells": {}, "tunnels": []}
+    details = {"subcells": {}, "tunnels": [], "interfaces": []}
     for kind, info in structure.parts:
         if kind == "subcell":
             name = _cell_name(info["cell"], layers, used)
@@ -292,6 +292,9 @@ def compile_layer_stack(stack):
         else:
             elements.append(_isotype(info["upper"], layers, materials, structure.polarity,
                                      temperature, file))
+            i = info["upper"]
+            details["interfaces"].append({"name": elements[-1].name,
+                                          "layers": [layers[i].name, layers[i + 1].name]})
     model = LayerModel(layers, materials, stack.coatings, tuple(cell_models), temperature, notes,
                        stack.rules.get("back_reflectance", 0.0),
                        stack.rules.get("ambient_index", 1.0),

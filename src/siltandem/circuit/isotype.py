@@ -1,6 +1,6 @@
 """Isotype interface elements from their file keys: the law's numbers given directly, or two
-library materials aligned by the electron-affinity rule (element stacks and layer stacks alike)."""
-import numpy as np
+library materials aligned by the electron-affinity rule (element stacks and layer stacks alike),
+each layer's Fermi level from Fermi-Dirac statistics (degenerate layers included)."""
 
 from siltandem import units
 from siltandem.constants import RICHARDSON_FREE_A_M2_K2
@@ -59,14 +59,17 @@ def isotype_from_materials(spec, temperature_K, file):
     # forward: majority carriers cross from the depletion side into the accumulation side
     forward = (down and not upper_accumulates) or (not down and upper_accumulates)
     from siltandem.constants import BOLTZMANN_EV_K
+    from siltandem.laws.carriers import fermi_degeneracy_eV
 
     info = []
     for m, doping_key, band_dos in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos):
         doping = v[doping_key] * units.PER_CM3_TO_PER_M3
+        # Fermi-Dirac, as in the alignment: band edge minus Fermi level, < 0 when degenerate
+        depth = -float(fermi_degeneracy_eV(doping, band_states_m3=band_dos,
+                                           temperature_K=temperature_K))
         info.append(dict(material=m.name, doping_m3=doping, permittivity=m.relative_permittivity,
-                         gap_eV=float(m.gap_eV(temperature_K)),
-                         fermi_depth_eV=float(BOLTZMANN_EV_K * temperature_K
-                                              * np.log(band_dos / doping))))
+                         gap_eV=float(m.gap_eV(temperature_K)), fermi_depth_eV=depth,
+                         degenerate=depth < 0.0))
     sides = {"accumulation": info[0 if upper_accumulates else 1],
              "depletion": info[1 if upper_accumulates else 0]}
     if "richardson_A_cm2_K2" in v:

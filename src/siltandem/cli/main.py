@@ -56,7 +56,12 @@ def _parser():
                     "its band-edge diagram at equilibrium and at the MPP bias.")
     face.add_argument("stack", help="stack file (.toml)")
     face.add_argument("--layer", metavar="NAME",
-                      help="the interface element's name (default: the first isotype interface)")
+                      help="the interface: its name, or in a layer stack the two layers it joins "
+                           "('upper / lower') or one of them (default: the first isotype "
+                           "interface)")
+    face.add_argument("--placement", metavar="NAME",
+                      help="in a layer stack with [[placement]] tables: the candidate to compile "
+                           "(default: the first declared)")
     face.add_argument("--plot", metavar="PATH.png|svg", help="draw the J-V and band diagram")
     face.add_argument("--temperature", metavar="K", help="cell temperature")
     face.add_argument("--points", default=21, help="rows of the printed J-V")
@@ -122,7 +127,8 @@ def _materials(args):
 
 def _interface(args):
     from siltandem.files import save_figure_atomic
-    from siltandem.studies.interface import interface_iv, plot_interface
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.studies.interface import choose_interface, interface_iv, plot_interface
     from siltandem.result.driver import run_stack
     from siltandem.stack.load import load_stack
 
@@ -134,15 +140,9 @@ def _interface(args):
                          fix="give a path ending in .pdf or .png or .svg")
     stack = load_stack(args.stack)
     check_outputs([("--plot", args.plot)], stack_inputs(stack))
-    interfaces = [e for e in stack.elements if e.kind == "isotype"]
-    if not interfaces:
-        raise StackError("the stack has no isotype interface", file=stack.source,
-                         fix='add an [[element]] with kind = "isotype"')
-    names = [e.name for e in interfaces]
-    name = args.layer or names[0]
-    if name not in names:
-        raise StackError(f"no isotype interface named {name!r}", file=stack.source,
-                         where="--layer", fix="choose one of " + ", ".join(repr(n) for n in names))
+    stack, placement = _chosen_placement(stack, args.placement)
+    name = choose_interface(compile_stack(stack), args.layer, file=stack.source,
+                            placement=placement)
     result = run_stack(stack, temperature_K=args.temperature, curve_points=60)
     element = result.circuit.element(name)
     temperature = result.summary["conditions"]["temperature_K"]
@@ -171,6 +171,26 @@ def _interface(args):
         save_figure_atomic(axes[0].figure, args.plot)
         print(f"  wrote {args.plot}")
     return 0
+
+
+def _chosen_placement(stack, wanted):
+    """The stack with the chosen [[placement]] inserted (default the first) and its name; the
+    stack as it is, and None, when it declares none."""
+    from siltandem.stack.placements import with_placement
+
+    placements = stack.extra.get("placements") or ()
+    if not placements:
+        if wanted is not None:
+            raise StackError(f"--placement {wanted!r}: the stack declares no [[placement]]",
+                             file=stack.source, where="--placement",
+                             fix="leave out --placement, or add [[placement]] tables to the file")
+        return stack, None
+    names = [p.name for p in placements]
+    if wanted is not None and wanted not in names:
+        raise StackError(f"no placement named {wanted!r}", file=stack.source, where="--placement",
+                         fix="choose one of " + ", ".join(repr(n) for n in names))
+    chosen = placements[names.index(wanted) if wanted is not None else 0]
+    return with_placement(stack, chosen), chosen.name
 
 
 def _parse_range(text):

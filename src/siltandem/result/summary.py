@@ -209,6 +209,7 @@ def _element_rows(number, string, solution, alone, without, irradiance):
             penalty = extra["efficiency_penalty_pct_abs"]
             interfaces.append(_interface_row(element, number, v, loss, penalty))
             warnings_ += _interface_warnings(element.name, v, penalty)
+            warnings_ += _degenerate_side_warnings(element)
         rows.append({
             "name": element.name, "kind": element.kind, "string": number,
             "voltage_at_mpp_V": v, "voltage_at_open_circuit_V":
@@ -250,6 +251,21 @@ def _interface_warnings(name, v, penalty):
         return [f"isotype interface {name!r} blocks: it drops "
                 f"{-v * 1000 + 0.0:.0f} mV at the MPP; {cost}"]
     return []
+
+
+def _degenerate_side_warnings(element):
+    """A warning for each side of an isotype interface (given by its materials) whose Fermi level
+    lies inside its band: Fermi-Dirac statistics place it, the rest of the law is Boltzmann."""
+    out = []
+    for role, side in (element.sides or {}).items():
+        if side.get("degenerate"):
+            doping_cm3 = side["doping_m3"] / units.PER_CM3_TO_PER_M3
+            out.append(f"isotype interface {element.name!r}: the {role} side ({side['material']}, "
+                       f"{doping_cm3:.3g} cm^-3) is degenerate (Fermi level "
+                       f"{-1000 * side['fermi_depth_eV']:.0f} meV inside the band): Fermi-Dirac "
+                       "statistics place its Fermi level, the band bending and the emission "
+                       "over the barrier stay Boltzmann approximations")
+    return out
 
 
 def _balance_warnings(balance, total_power, irradiance):

@@ -353,6 +353,41 @@ def _check_strings_have_subcells(elements, conditions, *, file):
                              + (f" and string = {number}" if conditions.strings > 1 else ""))
 
 
+def _current_direction(spec):
+    """Which way the conventional current crosses a materials-form isotype interface, from its
+    carrier and carriers_flow: electrons move against the current, holes with it."""
+    flow = spec.values["carriers_flow"]
+    if spec.values["carrier"] == "hole":
+        return flow
+    return "up" if flow == "down" else "down"
+
+
+def _check_carrier_flow(elements, *, file):
+    """In one series string the current has one direction: every isotype interface given by its
+    materials must say so (electrons cross against the current, holes with it). The numbers form
+    (``orientation``) names no direction and is not checked."""
+    first = {}
+    for spec in elements:
+        if spec.kind != "isotype" or "carriers_flow" not in spec.values:
+            continue
+        current = _current_direction(spec)
+        earlier = first.setdefault(spec.string, (spec, current))
+        other, other_current = earlier
+        if current == other_current:
+            continue
+        v, w = spec.values, other.values
+        flip = "up" if v["carriers_flow"] == "down" else "down"
+        flip_other = "up" if w["carriers_flow"] == "down" else "down"
+        raise StackError(
+            f"{v['carrier']}s flowing {v['carriers_flow']} carry a current flowing {current}, but "
+            f"{other.label} has {w['carrier']}s flowing {w['carriers_flow']}, a current flowing "
+            f"{other_current}: one series string carries its current one way", file=file,
+            where=f"{spec.label}, key carriers_flow",
+            fix=f'set carriers_flow = "{flip}" here or "{flip_other}" on {other.label} '
+                "(carriers_flow defaults to \"down\"): in one string electrons cross the "
+                "interfaces against the current and holes with it")
+
+
 def _parse_element_stack(document, name, notes, conditions, *, file, folder):
     """An element stack: its ``[[element]]`` tables, uniquely named, a subcell in every
     string; no table that belongs to layer stacks."""
@@ -371,6 +406,7 @@ def _parse_element_stack(document, name, notes, conditions, *, file, folder):
                      for i, t in enumerate(tables))
     _check_element_names(elements, file=file)
     _check_strings_have_subcells(elements, conditions, file=file)
+    _check_carrier_flow(elements, file=file)
     return Stack(name, notes, conditions, elements, (), None if file is None else str(file),
                  None if folder is None else str(folder))
 

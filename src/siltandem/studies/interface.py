@@ -1,4 +1,5 @@
-"""An isotype interface on its own: its J-V and its band-edge diagram from the analytical solution.
+"""An isotype interface on its own: its J-V and its band-edge diagram from the analytical solution;
+which interfaces a compiled stack has and choosing one (by name, or by the layers it joins).
 
 The diagram follows the law's picture (laws/thermionic.py): side 1 accumulates (Boltzmann
 carriers, full Poisson solution of the accumulation layer), side 2 is depleted (depletion
@@ -16,7 +17,56 @@ import numpy as np
 from scipy import integrate
 
 from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M
+from siltandem.errors import StackError
 from siltandem.laws.thermionic import voltage_split
+
+
+def isotype_interfaces(circuit):
+    """The circuit's isotype interfaces in optical order: a list of (name, layers), where
+    ``layers`` is the [upper, lower] pair of layer names the interface joins in a layer stack
+    and None in an element stack."""
+    joined = {d["name"]: d["layers"]
+              for d in (circuit.optics.get("layer_details") or {}).get("interfaces", [])}
+    return [(e.name, joined.get(e.name)) for e in circuit.elements if e.kind == "isotype"]
+
+
+def choose_interface(circuit, wanted=None, *, file=None, placement=None):
+    """The name of one isotype interface of a compiled stack.
+
+    ``wanted`` is the interface's name; in a layer stack also the two layers it joins written
+    ``"upper / lower"``, or one of them when it borders only one interface. None: the first.
+    ``placement`` (the placement's name, for messages only) says which candidate was compiled.
+    Raises StackError (``where`` = ``--layer``) naming the choices.
+    """
+    found = isotype_interfaces(circuit)
+    among = f" in placement {placement!r}" if placement else ""
+    if not found:
+        layered = circuit.model is not None
+        raise StackError(
+            f"the stack has no isotype interface{among}", file=file,
+            fix=("an isotype interface is two adjacent layers of one type (n/n or p/p) and "
+                 "different materials; `siltandem run` lists the parts it found"
+                 + ("; another --placement may have one" if placement else "")) if layered
+            else 'add an [[element]] with kind = "isotype"')
+    names = [name for name, _ in found]
+    choices = "choose one of " + ", ".join(repr(n) for n in names)
+    if wanted is None:
+        return names[0]
+    if wanted in names:
+        return wanted
+    pairs = [name for name, layers in found if layers and " / ".join(layers) == wanted]
+    if pairs:
+        return pairs[0]
+    touching = [name for name, layers in found if layers and wanted in layers]
+    if len(touching) == 1:
+        return touching[0]
+    if touching:
+        raise StackError(f"layer {wanted!r} borders {len(touching)} isotype interfaces{among}",
+                         file=file, where="--layer",
+                         fix="choose one of " + ", ".join(repr(n) for n in touching))
+    raise StackError(f"no isotype interface named {wanted!r}{among}", file=file, where="--layer",
+                     fix=choices + (" (or the two layers it joins, 'upper / lower', or one of "
+                                    "them)" if found[0][1] else ""))
 
 
 def interface_iv(element, temperature_K, *, points=201, span_V=None):
