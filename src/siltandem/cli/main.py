@@ -324,7 +324,7 @@ def _run(args):
         plt = _pyplot()
         layered = result.circuit.model is not None
         figure, axes = plt.subplots(1, 2 if layered else 1, figsize=(15, 4.8) if layered
-                                    else (7, 4.8), squeeze=False)
+                                    else (7, 4.8), squeeze=False, gridspec_kw={"wspace": 0.35})
         plot_iv(result, ax=axes[0, 0], sweeps=(args.sweep,) if args.sweep else ())
         if layered:
             plot_spectral(result, ax=axes[0, 1])

@@ -157,8 +157,8 @@ def plot_spectral(result, ax=None):
     ax.set_ylim(0, 1)
     ax.set_xlabel("wavelength (nm)")
     ax.set_ylabel("fraction of the incident photons")
-    ax.set_title(f"{summary['stack']}: where the light goes "
-                 f"({summary['conditions']['spectrum']})", fontsize=10)
+    ax.set_title(f"where the light goes ({summary['conditions']['spectrum']})\n"
+                 f"{summary['stack']}", fontsize=9)
     handles, labels = ax.get_legend_handles_labels()
     ax.legend(handles[::-1], labels[::-1], fontsize=7, loc="center left",
               bbox_to_anchor=(1.01, 0.5))
