@@ -101,6 +101,9 @@ SAME_AS_INPUT = [
      r"--curve: eqe\.csv is the quantum-efficiency file of element 2 'top'"),
     (["run", DUAL, "--suns-range", "1:10:3", "--table", "spec.csv", "--spectrum", "spec.csv"],
      r"--table: spec\.csv is the spectrum file"),
+    (["run", LAYERS, "--spectrum", "spec.csv", "--spectral", "spec.csv"],
+     r"--spectral: spec\.csv is the spectrum file"),
+    (["run", LAYERS, "--spectral", LAYERS], r"--spectral layers\.toml: unsupported file type"),
     (["losses", DUAL, "--json", DUAL], r"--json: d\.toml is the stack file"),
     (["losses", SPECTRUM_STACK, "--csv", "spec.csv"], r"--csv: spec\.csv is the spectrum file"),
     (["match", DUAL, *MATCH, "--json", DUAL], r"--json: d\.toml is the stack file"),
@@ -210,6 +213,20 @@ def test_a_folder_without_write_permission_is_refused(folder, capsys):
                 r"no permission to write in .*locked", folder=folder)
     finally:
         (folder / "locked").chmod(0o700)
+
+
+def test_the_spectral_table_of_a_layer_stack_is_an_output(folder, capsys):
+    # --spectral joins the outputs: never the stack file (whatever its suffix), never another
+    # output's path; nothing is written when it is refused
+    (folder / "layers.csv").write_bytes((folder / LAYERS).read_bytes())
+    refused(capsys, ["run", "layers.csv", "--spectral", "layers.csv"],
+            r"--spectral: layers\.csv is the stack file: writing it would replace an input",
+            folder=folder)
+    refused(capsys, ["run", LAYERS, "--json", "a.csv", "--spectral", "a.csv"],
+            r"--json and --spectral name the same file a\.csv", folder=folder,
+            absent=[folder / "a.csv"])
+    refused(capsys, ["run", DUAL, "--spectral", "s.csv"], r"--spectral needs a layer stack",
+            folder=folder, absent=[folder / "s.csv"])
 
 
 def test_dash_is_stdout_and_still_allowed(folder, capsys):

@@ -203,6 +203,23 @@ def test_yield_outputs_are_strict(name, hostile, tmp_path, capsys):
     assert summary["weather"]["hours"] == 8760
 
 
+@pytest.mark.parametrize("name", ["demo_dual_layers.toml", "demo_triple_layers.toml",
+                                  "lambertian_triple.toml"])
+def test_spectral_table_is_strict(name, hostile, tmp_path, capsys):
+    # the per-wavelength table of a layer stack (run --spectral): no nan or inf in any cell, also
+    # at the wavelengths where AM1.5G has no photons and with a scattering rear and front
+    if name == "lambertian_triple.toml":
+        (hostile / name).write_text((STACKS / "demo_triple_layers.toml").read_text().replace(
+            "back_reflectance = 0.9\n", 'back_reflectance = 1.0\nback_scattering = "lambertian"\n'
+            'front_scattering = "lambertian"\n'))
+    summary, rows = _check_outputs(["run", _stack(name, hostile)], tmp_path, capsys,
+                                   csv_option="--spectral")
+    assert rows[0][:3] == ["wavelength_nm", "reflectance", "transmittance"]
+    assert len(rows) == 1 + 2002                     # the ASTM G173 grid
+    assert all(_is_number(cell) for row in rows[1:] for cell in row)
+    assert summary["spectral_bands"]
+
+
 @pytest.mark.parametrize("name", ["demo_interfaces.toml", "numbers_isotype.toml",
                                   "blocked_isotype.toml"])
 def test_interface_text_has_no_nan(name, hostile, capsys):

@@ -11,6 +11,7 @@ The public API, loaded on first use (``import siltandem`` imports neither numpy 
     result = siltandem.run_stack(stack, suns=10)          # a siltandem.Result
     result.summary["efficiency_pct"]; result.iv; result.to_dataframe()
     siltandem.plot_iv(result)
+    result.spectral_table(); siltandem.plot_spectral(result)   # layer stacks: per wavelength
 
 Studies: ``design_map``, ``match_currents`` (with ``parse_vary`` to name what varies),
 ``rank_placements``, ``loss_waterfall``, ``annual_yield`` (with ``read_weather``). Bad input raises
@@ -37,6 +38,7 @@ _API = {
     "annual_yield": "siltandem.studies.yield_year",
     "read_weather": "siltandem.materials.weather",
     "plot_iv": "siltandem.report.plots",
+    "plot_spectral": "siltandem.report.plots",
 }
 
 __all__ = ["__version__", *_API]

@@ -39,7 +39,8 @@ def _parser():
                      help="cell temperature in kelvin (default from the file, 298.15)")
     run.add_argument("--json", metavar="PATH", help="write the result as JSON ('-' for stdout)")
     run.add_argument("--curve", metavar="PATH.csv", help="write the light I-V as CSV")
-    run.add_argument("--plot", metavar="PATH.png|svg", help="draw the light I-V")
+    run.add_argument("--plot", metavar="PATH.png|svg",
+                     help="draw the light I-V (a layer stack: beside it the spectral figure)")
     run.add_argument("--points", default=401, help="points on the traced curve")
     run.add_argument("--sweep", choices=["up", "down"],
                      help="report what a terminal-voltage sweep measures (with hysteresis where a "
@@ -49,6 +50,9 @@ def _parser():
                           "report efficiency against concentration; --plot draws it, --table "
                           "writes it")
     run.add_argument("--table", metavar="PATH.csv", help="with --suns-range: write the series")
+    run.add_argument("--spectral", metavar="PATH.csv",
+                     help="layer stacks: write per wavelength the reflectance, transmittance, "
+                          "each layer's absorptance and each subcell's EQE")
     face = commands.add_parser(
         "interface", help="one isotype interface on its own: J-V and band diagram",
         description="Print an isotype interface's J-V (law convention: V > 0 lowers the "
@@ -193,6 +197,17 @@ def _chosen_placement(stack, wanted):
     return with_placement(stack, chosen), chosen.name
 
 
+def _pyplot():
+    """matplotlib's pyplot with the command line's backend, Agg: figures go to files, no
+    window opens (the library's plot functions never choose a backend)."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
 def _parse_range(text):
     """``START:STOP:N`` -> N concentrations, log-spaced; START and STOP in the range of the file's
     ``suns``, N in OPTION_SCHEMA's (the one schema, siltandem.options)."""
@@ -248,6 +263,7 @@ def _concentration(args, stack, suns):
     if args.plot:
         from siltandem.report.plots import plot_concentration
 
+        _pyplot()
         ax = plot_concentration(series, title=f"{stack.name}: efficiency against concentration")
         save_figure_atomic(ax.figure, args.plot)
         print(f"  wrote {args.plot}", file=notices)
@@ -264,7 +280,7 @@ def _run(args):
     from siltandem.text import csv_safe
 
     for option, path in (("--curve", args.curve), ("--plot", args.plot),
-                         ("--table", args.table)):
+                         ("--table", args.table), ("--spectral", args.spectral)):
         if path is None:
             continue
         allowed = {".png", ".svg", ".pdf"} if option == "--plot" else {".csv"}
@@ -275,6 +291,10 @@ def _run(args):
         if args.suns is not None or args.sweep or args.curve:
             raise StackError("--suns-range goes without --suns, --sweep and --curve",
                              where="--suns-range", fix="use --table for the series' CSV")
+        if args.spectral:
+            raise StackError("--spectral goes with one run, not with --suns-range",
+                             where="--spectral", fix="run once without --suns-range for the "
+                             "spectral table (its fractions do not depend on the concentration)")
         suns = _parse_range(args.suns_range)
     elif args.table:
         raise StackError("--table goes with --suns-range", where="--table",
@@ -286,7 +306,14 @@ def _run(args):
     else:
         stack = load_stack(path)
     check_outputs([("--json", args.json), ("--curve", args.curve), ("--plot", args.plot),
-                   ("--table", args.table)], stack_inputs(stack, spectrum=args.spectrum))
+                   ("--table", args.table), ("--spectral", args.spectral)],
+                  stack_inputs(stack, spectrum=args.spectrum))
+    if args.spectral and not stack.layers:
+        raise StackError("--spectral needs a layer stack: an element stack has no layer optics "
+                         "(no reflectance, transmittance or absorption per layer to write)",
+                         file=stack.source, where="--spectral",
+                         fix="describe the stack by its [[layer]] tables (materials and "
+                             "thicknesses), or drop --spectral")
     if args.suns_range:
         check_study_memory(len(suns), names={**CLI_NAMES, "grid": "--suns-range"})
         return _concentration(args, stack, suns)
@@ -311,11 +338,22 @@ def _run(args):
         table = swept if args.sweep else result.iv
         write_atomic(args.curve, csv_safe(table).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.curve}", file=sys.stderr if to_stdout_json else sys.stdout)
+    if args.spectral:
+        write_atomic(args.spectral, csv_safe(result.spectral_table()).to_csv(
+            index=False, float_format="%.10g"))
+        print(f"  wrote {args.spectral}", file=sys.stderr if to_stdout_json else sys.stdout)
     if args.plot:
-        from siltandem.report.plots import plot_iv
+        from siltandem.report.plots import plot_iv, plot_spectral
 
-        ax = plot_iv(result, sweeps=(args.sweep,) if args.sweep else ())
-        save_figure_atomic(ax.figure, args.plot)
+        plt = _pyplot()
+        layered = result.circuit.model is not None
+        figure, axes = plt.subplots(1, 2 if layered else 1, figsize=(15, 4.8) if layered
+                                    else (7, 4.8), squeeze=False, gridspec_kw={"wspace": 0.35})
+        plot_iv(result, ax=axes[0, 0], sweeps=(args.sweep,) if args.sweep else ())
+        if layered:
+            plot_spectral(result, ax=axes[0, 1])
+        save_figure_atomic(figure, args.plot)
+        plt.close(figure)
         print(f"  wrote {args.plot}", file=sys.stderr if to_stdout_json else sys.stdout)
     return 0
 

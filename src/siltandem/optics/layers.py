@@ -116,9 +116,12 @@ def illuminate_layers(circuit, spectrum):
     optics = dict(circuit.optics)
     optics.update({
         "incident_A_m2": incident, "reflected_A_m2": reflected,
+        "escaped_A_m2": current(budget.escaped),
         "transmitted_A_m2": transmitted, "parasitic_A_m2": parasitic,
         "absorbed_A_m2": absorbed, "collected_A_m2": collected_by,
-        "budget_error_relative": abs(closure) / incident, "spectrum": spectrum})
+        "budget_error_relative": abs(closure) / incident, "spectrum": spectrum,
+        # the per-wavelength arrays of this pass, for the spectral table (result.spectral)
+        "layer_light": light})
     return circuit.with_elements(lit, optics=optics)
 
 

@@ -1,4 +1,5 @@
-"""Figures. Every function takes ``ax=None`` and returns the axes; matplotlib is imported lazily."""
+"""Figures. Every function takes ``ax=None`` and returns the axes; matplotlib is imported lazily.
+No function here chooses matplotlib's backend: the command line does (cli/main.py)."""
 import numpy as np
 
 from siltandem import units
@@ -6,6 +7,7 @@ from siltandem.solve.series import solve_string
 
 
 def _axes(ax, figsize=(7, 4.8)):
+    """``ax``, or the axes of a new figure (pyplot's backend: the command line chooses it)."""
     if ax is not None:
         return ax
     import matplotlib.pyplot as plt
@@ -81,4 +83,84 @@ def plot_concentration(series, ax=None, *, title=""):
     ax.set_title(title, fontsize=10)
     ax.grid(alpha=0.3, which="both")
     ax.legend(fontsize=8, loc="lower left")
+    return ax
+
+
+#: a parasitic layer whose absorptance stays below this everywhere joins the figure's
+#: "other layers" band instead of a band of its own [-]
+PARASITIC_BAND_MIN = 0.01
+
+
+def spectral_bands_per_nm(result):
+    """The areas of the spectral figure per wavelength, bottom to top (a list of (label, kind,
+    array)), from :meth:`Result.spectral_table`: each subcell's EQE; what the subcells absorb
+    and do not collect; each parasitic layer (those below PARASITIC_BAND_MIN everywhere
+    together); transmittance; reflectance. They add up to 1 at every wavelength."""
+    from siltandem.result.spectral import absorber_labels, subcell_layers
+
+    table = result.spectral_table()
+    model = result.circuit.model
+    labels = absorber_labels(model)
+    coatings = len(model.coatings)
+    active = {coatings + j for j in subcell_layers(model)}
+    eqe = [(cell.name, "collected", table[f"{cell.name}.eqe"].to_numpy())
+           for cell in model.subcells]
+    absorbed = sum(table[f"{labels[k]}.absorptance"].to_numpy() for k in sorted(active))
+    bands = eqe + [("absorbed, not collected", "not collected",
+                    absorbed - sum(values for _, _, values in eqe))]
+    others = np.zeros(len(table))
+    for k, label in enumerate(labels):
+        if k in active:
+            continue
+        values = table[f"{label}.absorptance"].to_numpy()
+        if np.max(values) >= PARASITIC_BAND_MIN:
+            bands.append((label, "parasitic", values))
+        else:
+            others = others + values
+    if np.max(others) > 1e-9:
+        bands.append((f"other layers (each < {PARASITIC_BAND_MIN:.0%})", "parasitic", others))
+    bands += [("transmittance", "transmitted", table["transmittance"].to_numpy()),
+              ("reflectance", "reflected", table["reflectance"].to_numpy())]
+    return table["wavelength_nm"].to_numpy(), bands
+
+
+def plot_spectral(result, ax=None):
+    """Stacked areas against wavelength (layer stacks): each subcell's EQE, the light its layers
+    absorb but do not collect, each parasitic layer's absorptance, transmittance and reflectance;
+    the top edge is 1. The legend gives each band's photon current under the run's spectrum
+    over the whole table (q times the integral of band x photon flux, as in the summary's
+    ``spectral_bands``). The wavelength axis ends a little beyond the last wavelength any
+    layer absorbs."""
+    from siltandem.constants import ELEMENTARY_CHARGE_C
+
+    ax = _axes(ax)
+    wavelength, bands = spectral_bands_per_nm(result)
+    summary = result.summary
+    flux = result.circuit.optics["spectrum"].photon_flux
+    greys = iter(np.linspace(0.35, 0.8, max(1, sum(k == "parasitic" for _, k, _ in bands))))
+    colours = {"not collected": "#d9b38c", "transmitted": "#b3d1ff", "reflected": "#f2f2f2"}
+    lower = np.zeros_like(wavelength)
+    for k, (label, kind, values) in enumerate(bands):
+        upper = lower + np.clip(values, 0.0, None)
+        colour = (f"C{k}" if kind == "collected" else
+                  str(next(greys)) if kind == "parasitic" else colours[kind])
+        current = units.ma_cm2(ELEMENTARY_CHARGE_C * np.trapezoid(values * flux, wavelength))
+        ax.fill_between(wavelength, lower, upper, facecolor=colour, edgecolor="0.5", lw=0.3,
+                        label=f"{label}: {current:.2f} mA/cm²",
+                        hatch="//" if kind == "not collected" else None)
+        lower = upper
+    absorbing = np.flatnonzero(sum(v for _, kind, v in bands
+                                   if kind not in ("transmitted", "reflected")) > 1e-4)
+    right = wavelength[-1] if absorbing.size == 0 else min(
+        wavelength[-1], wavelength[absorbing[-1]] * 1.1)
+    ax.set_xlim(wavelength[0], right)
+    ax.set_ylim(0, 1)
+    ax.set_xlabel("wavelength (nm)")
+    ax.set_ylabel("fraction of the incident photons")
+    ax.set_title(f"where the light goes ({summary['conditions']['spectrum']})\n"
+                 f"{summary['stack']}", fontsize=9)
+    handles, labels = ax.get_legend_handles_labels()
+    ax.legend(handles[::-1], labels[::-1], fontsize=7, loc="center left",
+              bbox_to_anchor=(1.01, 0.5))
+    ax.grid(alpha=0.3)
     return ax

@@ -3,7 +3,7 @@ arrays into its numbers and its numbers into strict JSON.
 
 A Result holds ``.summary`` (the JSON contract, trade units; rules in ``summary.py``), ``.iv`` (the
 light I-V as a DataFrame), ``.losses`` (per-element table) and ``to_dataframe()`` (one row of
-headline numbers).
+headline numbers), and for a layer stack ``spectral_table()`` (per wavelength).
 """
 from dataclasses import dataclass, replace
 import json
@@ -85,6 +85,15 @@ class Result:
                 data["string"] = number
             frames.append(pd.DataFrame(data))
         return pd.concat(frames, ignore_index=True)
+
+    def spectral_table(self):
+        """Per wavelength: ``wavelength_nm``, ``reflectance``, ``transmittance``, one
+        ``<layer>.absorptance`` per coating and layer, one ``<subcell>.eqe`` per subcell
+        (fractions of the incident photons; a DataFrame). Layer stacks only: an element stack
+        raises StackError. See ``result/spectral.py``."""
+        from siltandem.result.spectral import spectral_table
+
+        return spectral_table(self.circuit)
 
     def to_json(self, indent=2):
         return json_text(self.summary, indent)

@@ -11,6 +11,7 @@ import numpy as np
 
 from siltandem import units
 from siltandem.result.record import first_value
+from siltandem.result.spectral import spectral_bands
 
 SIGN_CONVENTION = ("generated current positive: the power quadrant is current > 0 and "
                    "voltage > 0; an element's voltage is taken in the stack current's direction")
@@ -73,6 +74,7 @@ def summarise(stack, conditions, light, circuit, solutions, alone, without):
         "interfaces": interfaces,
         "parasitic": [{"layer": name, "absorbed_mA_cm2": units.ma_cm2(value)}
                       for name, value in circuit.optics.get("parasitic_A_m2", {}).items()],
+        **({"spectral_bands": spectral_bands(circuit)} if circuit.model is not None else {}),
         "photons": photons,
         **{key: value for key, value in photons.items()
            if key in ("incident_mA_cm2", "reflected_mA_cm2", "transmitted_mA_cm2")},
