@@ -198,11 +198,8 @@ def _chosen_placement(stack, wanted):
 
 
 def _pyplot():
-    """matplotlib's pyplot with the command line's backend, Agg: figures go to files, no
-    window opens (the library's plot functions never choose a backend)."""
-    import matplotlib
-
-    matplotlib.use("Agg")
+    """matplotlib's pyplot, for a command that writes a figure file: ``main`` has already chosen
+    the file-only backend (``_figures_offscreen``); the library's plot functions never do."""
     import matplotlib.pyplot as plt
 
     return plt
@@ -263,7 +260,6 @@ def _concentration(args, stack, suns):
     if args.plot:
         from siltandem.report.plots import plot_concentration
 
-        _pyplot()
         ax = plot_concentration(series, title=f"{stack.name}: efficiency against concentration")
         save_figure_atomic(ax.figure, args.plot)
         print(f"  wrote {args.plot}", file=notices)
