@@ -74,12 +74,7 @@ class CompiledGroup:
         for e in np.flatnonzero(~covered.reshape(len(self.members), -1).all(axis=1)):
             _, element, branch = self.members[e]
             with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-                if element.kind == "tunnel":
-                    v, dv = element.voltage(current, string.temperature_K, branch,
-                                            None if branch == "tunnel" else
-                                            string.tunnel_extrema[element.name])
-                else:
-                    v, dv = element.voltage(current, string.temperature_K)
+                v, dv = string.element_voltage(element, current, branch)
             voltage[e] = np.where(covered[e], voltage[e], v)
             slope[e] = np.where(covered[e], slope[e], dv)
         return voltage, slope
@@ -260,6 +255,15 @@ class SeriesString:
         return self._select([np.maximum(s.lowest_junction_voltage() * (1 - 1e-9),
                                         LOWEST_PILOT_VOLTAGE_V) for s in self.subcells])
 
+    def element_voltage(self, element, current, branch="tunnel"):
+        """(V, dV/dJ) of one element at ``current`` through its own law (a tunnel junction on
+        ``branch``, with its extrema beyond the tunnel branch)."""
+        if element.kind == "tunnel":
+            return element.voltage(current, self.temperature_K, branch,
+                                   None if branch == "tunnel" else
+                                   self.tunnel_extrema[element.name])
+        return element.voltage(current, self.temperature_K)
+
     def evaluate(self, t, *, slopes=False, branches=None):
         """String current, voltage (and d/dt of both) at pilot junction voltage ``t``.
 
@@ -306,10 +310,8 @@ class SeriesString:
                         v = np.where(is_pilot, pilot_v, v_other)
                         dv_dt = np.where(is_pilot, pilot_dv, slope * dcurrent)
             elif element.kind == "tunnel":
-                branch = branches.get(element.name, "tunnel")
-                v, slope = element.voltage(current, self.temperature_K, branch,
-                                           None if branch == "tunnel" else
-                                           self.tunnel_extrema[element.name])
+                v, slope = self.element_voltage(element, current,
+                                                branches.get(element.name, "tunnel"))
                 dv_dt = slope * dcurrent
             else:
                 v_other, slope = element.voltage(current, self.temperature_K)
@@ -332,13 +334,8 @@ class SeriesString:
         voltages, dvoltage = [], np.zeros(current.shape)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             for element in self.elements:
-                if element.kind == "tunnel":
-                    branch = branches.get(element.name, "tunnel")
-                    v, slope = element.voltage(current, self.temperature_K, branch,
-                                               None if branch == "tunnel" else
-                                               self.tunnel_extrema[element.name])
-                else:
-                    v, slope = element.voltage(current, self.temperature_K)
+                v, slope = self.element_voltage(element, current,
+                                                branches.get(element.name, "tunnel"))
                 v = np.broadcast_to(v, current.shape)
                 voltages.append(v)
                 dvoltage = dvoltage + slope
@@ -362,13 +359,8 @@ class SeriesString:
                 dv_dt = 1.0 - element.series_ohm_m2 * dcurrent
             else:
                 with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-                    if element.kind == "tunnel":
-                        branch = branches.get(element.name, "tunnel")
-                        v, slope = element.voltage(current, self.temperature_K, branch,
-                                                   None if branch == "tunnel" else
-                                                   self.tunnel_extrema[element.name])
-                    else:
-                        v, slope = element.voltage(current, self.temperature_K)
+                    v, slope = self.element_voltage(element, current,
+                                                    branches.get(element.name, "tunnel"))
                     dv_dt = slope * dcurrent
             voltages.append(v)
             dvoltage = dvoltage + dv_dt
