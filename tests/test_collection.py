@@ -10,19 +10,12 @@ import numpy as np
 import pytest
 from scipy import constants, integrate
 
-from siltandem.laws.collection import (
-    CollectionDomainWarning,
-    CollectionParameterError,
-    abrupt_junction,
-    apply_radiative_floor,
-    collected_photocurrent,
-    depletion_recombination_current,
-    diffusion_length,
-    diffusion_saturation_current,
-    einstein_diffusivity,
-    layer_collection_fraction,
-    region_saturation_current,
-)
+from siltandem.laws.checks import CollectionDomainWarning, CollectionParameterError
+from siltandem.laws.collection import (collected_photocurrent, diffusion_length,
+                                       diffusion_saturation_current, einstein_diffusivity,
+                                       layer_collection_fraction, region_saturation_current)
+from siltandem.laws.junction import (abrupt_junction, apply_radiative_floor,
+                                     depletion_recombination_current)
 
 Q = constants.e
 VT300 = constants.k * 300.0 / constants.e

@@ -25,7 +25,8 @@ from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.circuit.elements import Subcell, TunnelJunction, batch
 from siltandem.errors import StackError
-from siltandem.laws import collection
+from siltandem.laws import checks, collection
+from siltandem.laws import junction as junction_law
 from siltandem.laws import esaki
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.materials import material_identity
@@ -119,7 +120,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                 where=layer.label,
                 fix=f"lower the temperature, or dope the layer above "
                     f"{INTRINSIC_MARGIN * ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
-    junction = collection.abrupt_junction(0.0, acceptor_density_m3=acceptor,
+    junction = junction_law.abrupt_junction(0.0, acceptor_density_m3=acceptor,
                                           donor_density_m3=donor,
                                           relative_permittivity=material.relative_permittivity,
                                           intrinsic_density_m3=ni, temperature_K=temperature_K,
@@ -154,7 +155,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     # J02 at a junction voltage near the operating point (about Eg - 0.4 V, common practice)
     vbi = float(junction.built_in_V)
     operating = float(np.clip(gap - 0.4, 0.0, 0.9 * vbi))
-    recombination = collection.depletion_recombination_current(
+    recombination = junction_law.depletion_recombination_current(
         operating, intrinsic_density_m3=ni, electron_lifetime_s=tau_n, hole_lifetime_s=tau_p,
         acceptor_density_m3=acceptor, donor_density_m3=donor,
         relative_permittivity=material.relative_permittivity, temperature_K=temperature_K,
@@ -275,7 +276,7 @@ def compile_layer_stack(stack):
             try:
                 element, model, extra = _subcell(info["cell"], layers, materials, temperature,
                                                  file, name)
-            except collection.CollectionParameterError as exc:
+            except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
                                  where=f"{layers[cell.emitter].label} / "

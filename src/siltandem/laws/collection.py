@@ -54,32 +54,22 @@ C.-T. Sah, R. N. Noyce, W. Shockley, Proc. IRE 45 (1957) 1228 (depletion-region 
 A. Luque, S. Hegedus (eds.), *Handbook of Photovoltaic Science and Engineering* (Wiley, 2003/2011),
 ch. 3 (the same closed forms; from memory).
 """
-import warnings
 from typing import NamedTuple
 
 import numpy as np
 from scipy.special import exprel
 
-from siltandem.constants import ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M, thermal_voltage_V
+from siltandem.constants import ELEMENTARY_CHARGE_C, thermal_voltage_V
+from siltandem.laws.checks import CollectionParameterError, checked, finite
 
 __all__ = [
-    "CollectionParameterError", "CollectionDomainWarning", "CollectedPhotocurrent",
-    "DiffusionSaturationCurrent", "DepletionRecombination", "AbruptJunction", "RadiativeFloor",
+    "CollectedPhotocurrent", "DiffusionSaturationCurrent",
     "einstein_diffusivity", "diffusion_length", "layer_collection_fraction", "uniform_collection_fraction",
     "collected_photocurrent", "region_saturation_current", "diffusion_saturation_current",
-    "abrupt_junction", "depletion_recombination_current", "apply_radiative_floor",
 ]
 
 _SERIES_TERMS = 20  # second divided difference, nodes within 1 of each other: 21/22! < 1e-19
 _LARGEST_RATIO = 1e250  # W/L is capped here: exp(-W/L) is 0 long before, and nothing overflows
-
-
-class CollectionParameterError(ValueError):
-    """A subcell layer parameter that the law cannot represent; the message names the fix."""
-
-
-class CollectionDomainWarning(RuntimeWarning):
-    """Some points lie outside a law's domain and were set to NaN."""
 
 
 class CollectedPhotocurrent(NamedTuple):
@@ -118,71 +108,8 @@ class DiffusionSaturationCurrent(NamedTuple):
         return self.emitter_A_m2 + self.base_A_m2
 
 
-class AbruptJunction(NamedTuple):
-    """Depletion approximation of an abrupt p-n junction at one voltage (SI)."""
-
-    built_in_V: np.ndarray
-    width_m: np.ndarray          # total depletion width
-    n_side_width_m: np.ndarray   # part in the n layer
-    p_side_width_m: np.ndarray   # part in the p layer
-    peak_field_V_m: np.ndarray   # at the metallurgical junction
-
-
-class DepletionRecombination(NamedTuple):
-    """Result of :func:`depletion_recombination_current` (arrays of the broadcast shape)."""
-
-    j02_A_m2: np.ndarray             # J02 with the effective width (Sah-Noyce-Shockley)
-    current_A_m2: np.ndarray         # recombination current at the given voltage
-    effective_width_m: np.ndarray    # pi kT / (q E*), capped at the depletion width
-    depletion_width_m: np.ndarray
-    full_width_j02_A_m2: np.ndarray  # upper bound q ni W / (2 sqrt(tau_n tau_p))
-
-
-class RadiativeFloor(NamedTuple):
-    """J01 raised to the radiative limit where the diffusion model fell below it."""
-
-    j01_A_m2: np.ndarray
-    floored: np.ndarray  # bool: True where the radiative value was used
-
-
 # --------------------------------------------------------------------------------------------
 # validation
-
-
-def _first_bad(mask, values):
-    mask = np.asarray(mask)
-    if not mask.any():
-        return None
-    idx = np.unravel_index(np.argmax(mask), mask.shape)
-    vals = [np.broadcast_to(np.asarray(v, dtype=float), mask.shape)[idx] for v in values]
-    at = "" if mask.ndim == 0 else (f" (at index {tuple(int(i) for i in idx)}, {int(mask.sum())} "
-                                    f"of {mask.size} entries)")
-    return at, vals
-
-
-def _checked(name, value, unit, *, where, zero_ok=False, inf_ok=False):
-    """``value`` as a float array; CollectionParameterError unless it is positive (and finite)."""
-    v = np.asarray(value, dtype=float)
-    bad = np.isnan(v) | (v < 0) | ((v == 0) & (not zero_ok)) | (np.isinf(v) & (not inf_ok))
-    found = _first_bad(bad, [v])
-    if found:
-        at, (val,) = found
-        need = "zero or positive" if zero_ok else "positive"
-        need += "" if inf_ok else " and finite"
-        extra = " (inf is allowed)" if inf_ok else ""
-        raise CollectionParameterError(
-            f"{where}: {name} = {val:g} {unit}{at} must be {need}{extra}; give a {need} {name}.")
-    return v
-
-
-def _finite(name, value, unit, *, where):
-    v = np.asarray(value, dtype=float)
-    found = _first_bad(~np.isfinite(v), [v])
-    if found:
-        at, (val,) = found
-        raise CollectionParameterError(f"{where}: {name} = {val:g} {unit}{at} must be finite; "
-                                       f"give a finite {name}.")
-    return v
 
 
 # --------------------------------------------------------------------------------------------
@@ -239,8 +166,8 @@ def einstein_diffusivity(mobility_m2_V_s, *, temperature_K):
     ----------
     A. Einstein, Ann. Phys. 17 (1905) 549; Sze & Ng (2007), ch. 1.
     """
-    mobility = _checked("mobility_m2_V_s", mobility_m2_V_s, "m^2/(V s)", where="einstein_diffusivity")
-    temperature = _checked("temperature_K", temperature_K, "K", where="einstein_diffusivity")
+    mobility = checked("mobility_m2_V_s", mobility_m2_V_s, "m^2/(V s)", where="einstein_diffusivity")
+    temperature = checked("temperature_K", temperature_K, "K", where="einstein_diffusivity")
     return mobility * thermal_voltage_V(temperature)
 
 
@@ -254,8 +181,8 @@ def diffusion_length(lifetime_s, *, diffusivity_m2_s):
     diffusivity_m2_s : array_like
         Diffusion coefficient [m^2/s], > 0.
     """
-    tau = _checked("lifetime_s", lifetime_s, "s", where="diffusion_length", inf_ok=True)
-    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where="diffusion_length")
+    tau = checked("lifetime_s", lifetime_s, "s", where="diffusion_length", inf_ok=True)
+    d = checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where="diffusion_length")
     return np.sqrt(d * tau)
 
 
@@ -345,11 +272,11 @@ def layer_collection_fraction(absorption_per_m, *, thickness_m, diffusion_length
     if lit_side not in ("surface", "junction"):
         raise CollectionParameterError(
             f"{where}: lit_side = {lit_side!r} is not known; give 'surface' or 'junction'.")
-    alpha = _checked("absorption_per_m", absorption_per_m, "1/m", where=where, zero_ok=True)
-    w = _checked("thickness_m", thickness_m, "m", where=where, zero_ok=True)
-    length = _checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
-    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
-    s = _checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    alpha = checked("absorption_per_m", absorption_per_m, "1/m", where=where, zero_ok=True)
+    w = checked("thickness_m", thickness_m, "m", where=where, zero_ok=True)
+    length = checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
+    d = checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
+    s = checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
     return _collection(alpha, w, length, s, d, lit_side == "junction")
 
 
@@ -363,10 +290,10 @@ def uniform_collection_fraction(*, thickness_m, diffusion_length_m, diffusivity_
     the limit alpha -> 0 of `layer_collection_fraction` over alpha W, evaluated with the same divided
     differences at alpha W = 0 (no overflow). References: C. Donolato, Appl. Phys. Lett. 46 (1985) 270.
     """
-    w = _checked("thickness_m", thickness_m, "m", where=where, zero_ok=True)
-    length = _checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
-    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
-    s = _checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    w = checked("thickness_m", thickness_m, "m", where=where, zero_ok=True)
+    length = checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
+    d = checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
+    s = checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
     return _uniform(w, length, s, d)
 
 
@@ -404,7 +331,8 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
         Recombination velocities of the emitter front and base back surfaces [m/s], >= 0, inf allowed
         (a window or back-surface-field layer is represented by its effective velocity).
     depletion_width_m : array_like
-        Depletion width [m], >= 0 (see :func:`abrupt_junction`); every carrier generated in it is collected.
+        Depletion width [m], >= 0 (see :func:`siltandem.laws.junction.abrupt_junction`); every carrier
+        generated in it is collected.
     base_thickness_m : array_like
         Quasi-neutral base thickness [m], >= 0.
     back_photon_flux_m2_s : array_like, optional
@@ -443,19 +371,19 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
     H. J. Hovel (1975), ch. 2; S. M. Sze, K. K. Ng (2007), ch. 13; W. W. Gaertner, Phys. Rev. 116
     (1959) 84; C. Donolato, Appl. Phys. Lett. 46 (1985) 270.
     """
-    alpha = _checked("absorption_per_m", absorption_per_m, "1/m", where=where, zero_ok=True)
-    flux = _finite("photon_flux_m2_s", photon_flux_m2_s, "1/(m^2 s)", where=where)
-    back_flux = _finite("back_photon_flux_m2_s", back_photon_flux_m2_s, "1/(m^2 s)", where=where)
-    we = _checked("emitter_thickness_m", emitter_thickness_m, "m", where=where, zero_ok=True)
-    le = _checked("emitter_diffusion_length_m", emitter_diffusion_length_m, "m", where=where,
+    alpha = checked("absorption_per_m", absorption_per_m, "1/m", where=where, zero_ok=True)
+    flux = finite("photon_flux_m2_s", photon_flux_m2_s, "1/(m^2 s)", where=where)
+    back_flux = finite("back_photon_flux_m2_s", back_photon_flux_m2_s, "1/(m^2 s)", where=where)
+    we = checked("emitter_thickness_m", emitter_thickness_m, "m", where=where, zero_ok=True)
+    le = checked("emitter_diffusion_length_m", emitter_diffusion_length_m, "m", where=where,
                   inf_ok=True)
-    de = _checked("emitter_diffusivity_m2_s", emitter_diffusivity_m2_s, "m^2/s", where=where)
-    sf = _checked("front_srv_m_s", front_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
-    wd = _checked("depletion_width_m", depletion_width_m, "m", where=where, zero_ok=True)
-    wb = _checked("base_thickness_m", base_thickness_m, "m", where=where, zero_ok=True)
-    lb = _checked("base_diffusion_length_m", base_diffusion_length_m, "m", where=where, inf_ok=True)
-    db = _checked("base_diffusivity_m2_s", base_diffusivity_m2_s, "m^2/s", where=where)
-    sb = _checked("back_srv_m_s", back_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    de = checked("emitter_diffusivity_m2_s", emitter_diffusivity_m2_s, "m^2/s", where=where)
+    sf = checked("front_srv_m_s", front_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    wd = checked("depletion_width_m", depletion_width_m, "m", where=where, zero_ok=True)
+    wb = checked("base_thickness_m", base_thickness_m, "m", where=where, zero_ok=True)
+    lb = checked("base_diffusion_length_m", base_diffusion_length_m, "m", where=where, inf_ok=True)
+    db = checked("base_diffusivity_m2_s", base_diffusivity_m2_s, "m^2/s", where=where)
+    sb = checked("back_srv_m_s", back_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
 
     q = ELEMENTARY_CHARGE_C
     x, y, z = np.exp(-alpha * we), np.exp(-alpha * wd), np.exp(-alpha * wb)
@@ -478,7 +406,7 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
         emitter_absorbed = emitter_absorbed + q * back_flux * z * y * absorbed_e
         base_absorbed = base_absorbed + q * back_flux * absorbed_b
         absorbed = absorbed + q * back_flux * -np.expm1(-alpha * (we + wd + wb))
-    scattered = _checked("uniform_absorbed_m2_s", uniform_absorbed_m2_s, "1/(m^2 s)", where=where, zero_ok=True)
+    scattered = checked("uniform_absorbed_m2_s", uniform_absorbed_m2_s, "1/(m^2 s)", where=where, zero_ok=True)
     if np.any(scattered != 0):
         width = np.where(we + wd + wb > 0, we + wd + wb, 1.0)
         shares, generated = [part / width for part in (we, wd, wb)], q * scattered
@@ -543,12 +471,12 @@ def region_saturation_current(thickness_m, *, doping_m3, intrinsic_density_m3, d
     W. Shockley, Bell Syst. Tech. J. 28 (1949) 435; S. M. Sze, K. K. Ng (2007), ch. 2; H. J. Hovel
     (1975), ch. 2 (finite region with a recombining surface; from memory).
     """
-    w = _checked("thickness_m", thickness_m, "m", where=where)
-    n_dop = _checked("doping_m3", doping_m3, "m^-3", where=where)
-    ni = _checked("intrinsic_density_m3", intrinsic_density_m3, "m^-3", where=where)
-    length = _checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
-    d = _checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
-    s = _checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
+    w = checked("thickness_m", thickness_m, "m", where=where)
+    n_dop = checked("doping_m3", doping_m3, "m^-3", where=where)
+    ni = checked("intrinsic_density_m3", intrinsic_density_m3, "m^-3", where=where)
+    length = checked("diffusion_length_m", diffusion_length_m, "m", where=where, inf_ok=True)
+    d = checked("diffusivity_m2_s", diffusivity_m2_s, "m^2/s", where=where)
+    s = checked("surface_srv_m_s", surface_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
     k = np.minimum(w / length, _LARGEST_RATIO)
     t, one_minus_t = _surface_weights(s, w, d)
     c = 0.5 * (1.0 + np.exp(-2.0 * k))
@@ -589,211 +517,3 @@ def diffusion_saturation_current(*, intrinsic_density_m3, emitter_doping_m3, emi
     return DiffusionSaturationCurrent(np.array(emitter), np.array(base))
 
 
-def _abrupt(voltage_V, acceptor_density_m3, donor_density_m3, relative_permittivity,
-            intrinsic_density_m3, temperature_K, where):
-    """Validated abrupt-junction arrays and the count of points at or beyond the built-in voltage."""
-    v = _finite("voltage_V", voltage_V, "V", where=where)
-    na = _checked("acceptor_density_m3", acceptor_density_m3, "m^-3", where=where)
-    nd = _checked("donor_density_m3", donor_density_m3, "m^-3", where=where)
-    eps = _checked("relative_permittivity", relative_permittivity, "", where=where) \
-        * VACUUM_PERMITTIVITY_F_M
-    ni = _checked("intrinsic_density_m3", intrinsic_density_m3, "m^-3", where=where)
-    vt = thermal_voltage_V(_checked("temperature_K", temperature_K, "K", where=where))
-    built_in = vt * np.log(na * nd / (ni * ni))
-    drop = built_in - v
-    outside = ~(drop > 0)
-    drop = np.where(outside, np.nan, drop)
-    q = ELEMENTARY_CHARGE_C
-    width = np.sqrt(2.0 * eps * drop * (na + nd) / (q * na * nd))
-    xn = width * na / (na + nd)
-    xp = width * nd / (na + nd)
-    field = q * nd * xn / eps
-    arrays = np.broadcast_arrays(built_in, width, xn, xp, field)
-    junction = AbruptJunction(*(np.array(a, dtype=float) for a in arrays))
-    return junction, int(np.count_nonzero(outside)), (v, na, nd, eps, ni, vt)
-
-
-def _warn_nan(where, count, what):
-    if count:
-        warnings.warn(f"{where}: {count} point(s) {what}; set to NaN", CollectionDomainWarning,
-                      stacklevel=3)
-
-
-def abrupt_junction(voltage_V, *, acceptor_density_m3, donor_density_m3, relative_permittivity,
-                    intrinsic_density_m3, temperature_K, where="junction"):
-    """Depletion approximation of an abrupt p-n homojunction.
-
-    Parameters
-    ----------
-    voltage_V : array_like
-        Junction voltage V [V] (forward positive), < Vbi; points at or above Vbi are NaN (warned once).
-    acceptor_density_m3, donor_density_m3 : array_like
-        Dopings NA of the p side and ND of the n side [m^-3], > 0.
-    relative_permittivity : array_like
-        Static relative permittivity [-], > 0.
-    intrinsic_density_m3 : array_like
-        ni [m^-3], > 0.
-    temperature_K : array_like
-        Temperature [K], > 0.
-    where : str
-        Name for messages.
-
-    Returns
-    -------
-    AbruptJunction
-        Built-in voltage, total width and its n-side and p-side parts, peak field.
-
-    Notes
-    -----
-    Vbi = (kT/q) ln(NA ND / ni^2); W = sqrt(2 eps (Vbi - V) (NA + ND) / (q NA ND));
-    xn = W NA / (NA + ND), xp = W ND / (NA + ND); E_max = q ND xn / eps. Majority-carrier tails
-    (the -2kT/q correction) are neglected.
-
-    References
-    ----------
-    S. M. Sze, K. K. Ng (2007), ch. 2 (abrupt junction, depletion approximation).
-    """
-    junction, outside, _ = _abrupt(voltage_V, acceptor_density_m3, donor_density_m3,
-                                   relative_permittivity, intrinsic_density_m3, temperature_K, where)
-    _warn_nan(where, outside, "at or beyond the built-in voltage (no depletion region)")
-    return junction
-
-
-def _sech_integral(ratio):
-    """G(r) = integral over the real line of dy / (cosh y + r), r >= 0 (pi at r = 0, 2 at r = 1).
-
-    G = 4/(1 + r) * arctan(s)/s with s = sqrt((1 - r)/(1 + r)) for r < 1, and artanh(s)/s with
-    s = sqrt((r - 1)/(r + 1)) for r > 1 (integral tables, e.g. Gradshteyn-Ryzhik 2.451; from memory;
-    the tests check it with quad).
-    """
-    r = np.asarray(ratio, dtype=float)
-    s = np.sqrt(np.abs(1.0 - r) / (1.0 + r))
-    small = s < 1e-4
-    with np.errstate(divide="ignore", invalid="ignore"):
-        below = np.arctan(s) / s
-        above = np.arctanh(np.minimum(s, 1.0 - 1e-16)) / s
-    series_below = 1.0 - s * s / 3.0
-    series_above = 1.0 + s * s / 3.0
-    value = np.where(r < 1.0, np.where(small, series_below, below),
-                     np.where(small, series_above, above))
-    return 4.0 / (1.0 + r) * value
-
-
-def depletion_recombination_current(voltage_V, *, intrinsic_density_m3, electron_lifetime_s,
-                                    hole_lifetime_s, acceptor_density_m3, donor_density_m3,
-                                    relative_permittivity, temperature_K, where="subcell"):
-    """J02 and the depletion-region recombination current of an abrupt junction (ideality 2).
-
-    Parameters
-    ----------
-    voltage_V : array_like
-        Junction voltage [V], 0 <= V < Vbi (NaN outside, warned once). The effective width depends
-        on the field, hence on V: give the operating voltage that matters (near the maximum power
-        point). The full-width bound does not depend on the field.
-    intrinsic_density_m3 : array_like
-        ni [m^-3], > 0.
-    electron_lifetime_s, hole_lifetime_s : array_like
-        SRH lifetimes tau_n, tau_p of the midgap centres in the depletion region [s], > 0.
-    acceptor_density_m3, donor_density_m3 : array_like
-        NA of the p side, ND of the n side [m^-3], > 0.
-    relative_permittivity : array_like
-        Static relative permittivity [-], > 0.
-    temperature_K : array_like
-        Temperature [K], > 0.
-    where : str
-        Name for messages.
-
-    Returns
-    -------
-    DepletionRecombination
-        ``j02_A_m2`` (to use with exp(qV/2kT) - 1), ``current_A_m2`` at ``voltage_V``,
-        ``effective_width_m`` (pi kT/(q E*), capped at W), ``depletion_width_m``,
-        ``full_width_j02_A_m2``.
-
-    Notes
-    -----
-    Shockley-Read-Hall rate with a midgap centre and flat quasi-Fermi levels (n p = ni^2 e^v,
-    v = qV/kT): U = (n p - ni^2) / (tau_p (n + ni) + tau_n (p + ni)). It is largest where
-    tau_p n = tau_n p, where U_max ~ ni e^(v/2) / (2 sqrt(tau_n tau_p)); hence the full-width bound
-    J02 <= q ni W / (2 sqrt(tau_n tau_p)). Around the maximum the potential is nearly linear with
-    the local field E*; with y = (psi - psi*)/(kT/q) the rate is
-    U = ni (e^v - 1) / (A cosh y + B), A = 2 sqrt(tau_n tau_p) e^(v/2), B = tau_n + tau_p, and
-
-        J_rec = q (kT/q) / E* * ni (e^v - 1) G(B/A) / A,    G(r) = int dy / (cosh y + r)
-
-    which for qV >> kT (G -> pi) is J02 (e^(v/2) - e^(-v/2)) with
-
-        J02 = q ni W_eff / (2 sqrt(tau_n tau_p)),   W_eff = pi kT / (q E*)
-
-    (Sah, Noyce, Shockley 1957; Sze & Ng ch. 2). E* is the depletion-approximation field at the
-    potential psi* = [Vbi - V + (kT/q) ln(tau_n NA / (tau_p ND))] / 2 above the p edge (clipped to
-    the region). W_eff (and G kT/(q E*) in the current) is capped at W. The linear-field step is
-    the only approximation beyond the depletion approximation: its relative error is of order
-    (kT/q) / psi_min, psi_min the smaller of psi* and Vbi - V - psi* (about 5 % at
-    Vbi - V = 0.5 V for a symmetric junction; measured against the full SRH integral in the tests).
-
-    References
-    ----------
-    C.-T. Sah, R. N. Noyce, W. Shockley, Proc. IRE 45 (1957) 1228; S. M. Sze, K. K. Ng (2007),
-    ch. 2 (generation-recombination current; from memory).
-    """
-    junction, outside, (v, na, nd, eps, ni, vt) = _abrupt(
-        voltage_V, acceptor_density_m3, donor_density_m3, relative_permittivity,
-        intrinsic_density_m3, temperature_K, where)
-    tau_n = _checked("electron_lifetime_s", electron_lifetime_s, "s", where=where)
-    tau_p = _checked("hole_lifetime_s", hole_lifetime_s, "s", where=where)
-    _warn_nan(where, outside, "at or beyond the built-in voltage (no depletion region)")
-    q = ELEMENTARY_CHARGE_C
-    drop = junction.built_in_V - v
-    with np.errstate(invalid="ignore"):  # NaN where drop is NaN, already counted and warned
-        psi = np.clip(0.5 * (drop + vt * np.log(tau_n * na / (tau_p * nd))), 0.0, drop)
-        p_drop = drop * nd / (na + nd)
-        field = np.where(psi <= p_drop, np.sqrt(2.0 * q * na * psi / eps),
-                         np.sqrt(2.0 * q * nd * np.maximum(drop - psi, 0.0) / eps))
-    tau = np.sqrt(tau_n * tau_p)
-    with np.errstate(divide="ignore", over="ignore"):
-        scale = vt / field                           # kT/(q E*) [m]; inf where E* = 0
-        w_eff = np.minimum(np.pi * scale, junction.width_m)
-        half = np.exp(-0.5 * v / vt)                 # e^(-v/2): B/A = (tau_n + tau_p) e^(-v/2) / (2 tau)
-        g = _sech_integral((tau_n + tau_p) / (2.0 * tau) * half)
-        width_now = np.minimum(g * scale, junction.width_m)
-        current = q * ni * width_now / (2.0 * tau) * (np.exp(0.5 * v / vt) - half)
-    reverse = v < 0
-    _warn_nan(where, int(np.count_nonzero(reverse & ~np.isnan(drop))),
-              "in reverse bias (the recombination estimate is for V >= 0)")
-    current = np.where(reverse, np.nan, current)
-    j02 = q * ni * w_eff / (2.0 * tau)
-    bound = q * ni * junction.width_m / (2.0 * tau)
-    arrays = np.broadcast_arrays(j02, current, w_eff, junction.width_m, bound)
-    return DepletionRecombination(*(np.array(a, dtype=float) for a in arrays))
-
-
-def apply_radiative_floor(j01_A_m2, *, radiative_j0_A_m2):
-    """Raise J01 to the radiative limit where it falls below it.
-
-    Parameters
-    ----------
-    j01_A_m2 : array_like
-        J01 from the diffusion model [A/m^2], >= 0.
-    radiative_j0_A_m2 : array_like
-        Radiative saturation current J0,rad [A/m^2] of the same subcell (e.g.
-        :func:`siltandem.laws.radiative.radiative_saturation_current`), >= 0.
-
-    Returns
-    -------
-    RadiativeFloor
-        ``j01_A_m2`` = max(J01, J0,rad) and ``floored`` (bool) where J0,rad was used.
-
-    Notes
-    -----
-    A cell cannot recombine less than it must radiate (detailed balance: W. Shockley,
-    H. J. Queisser, J. Appl. Phys. 32 (1961) 510), so J01 >= J0,rad. The floor is a maximum, not a
-    sum: a lifetime from the materials library is taken to include radiative recombination.
-    """
-    j01 = _checked("j01_A_m2", j01_A_m2, "A/m^2", where="radiative floor", zero_ok=True)
-    rad = _checked("radiative_j0_A_m2", radiative_j0_A_m2, "A/m^2", where="radiative floor",
-                   zero_ok=True)
-    floored = rad > j01
-    value = np.where(floored, rad, j01)
-    value, floored = np.broadcast_arrays(value, floored)
-    return RadiativeFloor(np.array(value, dtype=float), np.array(floored, dtype=bool))
