@@ -27,8 +27,8 @@ STAGES = [
     {"circuit"},
     {"optics"},
     {"solve"},
+    {"report"},      # renders result data (duck-typed); Result.plot / text delegate to it
     {"result"},
-    {"report"},
     {"studies"},
     {"cli"},
     {""},                                                            # the public API (__init__)

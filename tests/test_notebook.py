@@ -54,6 +54,7 @@ PLOTS = textwrap.dedent("""
     face = next(e for e in faces.circuit.elements if e.kind == "isotype")
     calls = {
         "plot_iv": (lambda ax: siltandem.plot_iv(result, ax), 1),
+        "Result.plot": (lambda ax: result.plot(ax=ax), 1),
         "plot_concentration": (lambda ax: plot_concentration(
             siltandem.concentration_series(dual, [1.0, 10.0]), ax), 1),
         "plot_map": (lambda ax: plot_map(table, gap, absorb, ax=ax), 1),
@@ -83,7 +84,7 @@ def test_no_plot_function_changes_the_backend(tmp_path):
                           text=True, env=env, timeout=600)
     assert done.returncode == 0, done.stderr
     lines = done.stdout.splitlines()
-    assert len(lines) == 16, done.stdout       # eight functions, with and without axes
+    assert len(lines) == 18, done.stdout       # nine functions, with and without axes
     for line in lines:
         assert line.split(": ")[1].startswith("svg"), line
     for line in lines[1::2]:                   # given axes, no pyplot figure is opened

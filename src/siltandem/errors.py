@@ -48,3 +48,9 @@ class ModelWarning(UserWarning):
     driven past its peak, an isotype interface that blocks, a missing number, ...), issued through
     Python's :mod:`warnings` as well, so that a notebook or a script sees it. The command line,
     which prints the list itself, silences it."""
+
+
+class CompileNotice(UserWarning):
+    """The first solve after installing or updating siltandem compiles the solver's kernels
+    (about 10-20 s, once; numba caches them). Issued once per process, before that solve, so a
+    notebook does not look stuck. The command line prints its own line instead."""

@@ -11,7 +11,7 @@ import warnings
 
 import numpy as np
 
-from siltandem.errors import ModelWarning, StackError
+from siltandem.errors import CompileNotice, ModelWarning, StackError
 from siltandem.text import number, printable
 
 DEMO = "demo_dual.toml"
@@ -389,6 +389,7 @@ def main(argv=None):
         # the commands print a result's warnings with it: not a second time through `warnings`
         with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings():
             warnings.simplefilter("ignore", ModelWarning)
+            warnings.simplefilter("ignore", CompileNotice)     # printed above, in the CLI's words
             return _command(args)
     except StackError as exc:
         print(f"siltandem: error: {exc}", file=sys.stderr)

@@ -380,9 +380,9 @@ def run_losses(args):
     for step in waterfall["steps"]:
         print(f"  - {number(step['loss_pct_abs'], '7.3f'):>7} %   {step['loss']:<40} -> "
               f"{number(step['efficiency_after_pct'], '.3f')} %")
-    print(f"  stack {number(waterfall['efficiency_pct'], '8.3f'):>8} %   (the steps add up to "
-          f"{number(waterfall['limit_pct'] - waterfall['efficiency_pct'], '.3f')} %, rounding "
-          f"{number(waterfall['check_pct'], '.1e')})")
+    print(f"  stack {number(waterfall['efficiency_pct'], '8.3f'):>8} %   (total loss "
+          f"{number(waterfall['limit_pct'] - waterfall['efficiency_pct'], '.3f')} % absolute = the sum of "
+          f"the steps; they close to {number(waterfall['check_pct'], '.1e')} %)")
     figure = None
     if args.plot:
         figure = plot_waterfall(waterfall).figure

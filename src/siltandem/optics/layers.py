@@ -136,3 +136,19 @@ def layer_photocurrents(model, wavelength_nm, flux):
     light = layer_light(model, wavelength, np.asarray(flux, dtype=float))
     return [np.trapezoid(r.emitter_A_m2 + r.depletion_A_m2 + r.base_A_m2, wavelength, axis=-1)
             for r in light.collected]
+
+
+def absorber_labels(model):
+    """The table's label of every absorbing layer, sun side first: the coatings (``coating
+    <name>``), then the layers by name; a repeated label gets `` (2)``, `` (3)``..."""
+    labels = [f"coating {c.name}" for c in model.coatings] + [layer.name for layer in model.layers]
+    seen, unique = {}, []
+    for label in labels:
+        seen[label] = seen.get(label, 0) + 1
+        unique.append(label if seen[label] == 1 else f"{label} ({seen[label]})")
+    return unique
+
+
+def subcell_layers(model):
+    """Indices of the layers that are some subcell's emitter or base (the rest is parasitic)."""
+    return {index for cell in model.subcells for index in (cell.emitter, cell.base)}

@@ -6,6 +6,30 @@ from siltandem import units
 from siltandem.solve.series import solve_string
 
 
+# column-name suffix -> unit shown on an axis (the data keeps its unit in the name)
+_UNIT_SUFFIXES = (("_pct_abs", "% absolute"), ("_pct", "%"), ("_mA_cm2", "mA/cm²"), ("_ohm_cm2", "Ω cm²"),
+                  ("_cm3", "cm⁻³"), ("_nm", "nm"), ("_um", "µm"), ("_eV", "eV"), ("_mV", "mV"), ("_V", "V"),
+                  ("_ns", "ns"), ("_K", "K"), ("_suns", "suns"), ("_deg", "°"), ("_kWh_m2", "kWh/m²"))
+_PLAIN_NAMES = {"efficiency": "efficiency", "voc": "Voc", "jsc": "Jsc", "mpp": "MPP voltage"}
+
+
+def axis_label(column):
+    """A readable axis label with its unit for a table column or varied key.
+
+    ``"efficiency_pct"`` -> ``"efficiency (%)"``; ``"top base.thickness_nm"`` ->
+    ``"top base thickness (nm)"``; a name without a known unit suffix is returned with its
+    underscores as spaces.
+    """
+    name, unit = str(column), ""
+    for suffix, shown in _UNIT_SUFFIXES:
+        if name.endswith(suffix):
+            name, unit = name[: -len(suffix)], shown
+            break
+    name = name.replace(".", " ").replace("_", " ").strip()
+    name = _PLAIN_NAMES.get(name, name)
+    return f"{name} ({unit})" if unit else name
+
+
 def _axes(ax, figsize=(7, 4.8)):
     """``ax``, or the axes of a new figure (pyplot's backend: the command line chooses it)."""
     if ax is not None:
@@ -96,7 +120,7 @@ def spectral_bands_per_nm(result):
     array)), from :meth:`Result.spectral_table`: each subcell's EQE; what the subcells absorb
     and do not collect; each parasitic layer (those below PARASITIC_BAND_MIN everywhere
     together); transmittance; reflectance. They add up to 1 at every wavelength."""
-    from siltandem.result.spectral import absorber_labels, subcell_layers
+    from siltandem.optics.layers import absorber_labels, subcell_layers
 
     table = result.spectral_table()
     model = result.circuit.model

@@ -9,6 +9,7 @@ import warnings
 
 from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
+from siltandem.solve.kernels import notice_compiling
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
 from siltandem.result.record import Result, curve_table, first_value
@@ -73,6 +74,7 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     circuit = compile_stack(replace(stack, conditions=conditions))
     circuit = illuminate(circuit, light)
     temperature = conditions.temperature_K
+    notice_compiling()
     solutions = [solve_string(string, temperature, curve_points=curve_points)
                  for string in circuit.strings]
     alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}

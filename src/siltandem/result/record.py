@@ -95,6 +95,23 @@ class Result:
 
         return spectral_table(self.circuit)
 
+    def plot(self, kind="iv", ax=None, **options):
+        """The result's figure on ``ax`` (a new figure when None); returns the axes.
+
+        ``kind`` is "iv" (the light I-V of the stack and of each subcell, the MPP marked;
+        :func:`siltandem.plot_iv`, options ``curve_points``, ``sweeps``) or "spectral" (layer
+        stacks: subcell EQEs, parasitic absorption, reflectance per wavelength;
+        :func:`siltandem.plot_spectral`). Never selects matplotlib's backend, so figures show
+        inline in a notebook.
+        """
+        from siltandem.report import plots
+
+        drawers = {"iv": plots.plot_iv, "spectral": plots.plot_spectral}
+        if kind not in drawers:
+            raise ValueError(f"Result.plot: kind = {kind!r} is not a figure of a result; give one of "
+                             f"{', '.join(map(repr, drawers))}")
+        return drawers[kind](self, ax=ax, **options)
+
     def to_json(self, indent=2):
         return json_text(self.summary, indent)
 

@@ -33,17 +33,7 @@ import numpy as np
 from siltandem import units
 from siltandem.constants import ELEMENTARY_CHARGE_C
 from siltandem.errors import StackError
-
-
-def absorber_labels(model):
-    """The table's label of every absorbing layer, sun side first: the coatings (``coating
-    <name>``), then the layers by name; a repeated label gets `` (2)``, `` (3)``..."""
-    labels = [f"coating {c.name}" for c in model.coatings] + [layer.name for layer in model.layers]
-    seen, unique = {}, []
-    for label in labels:
-        seen[label] = seen.get(label, 0) + 1
-        unique.append(label if seen[label] == 1 else f"{label} ({seen[label]})")
-    return unique
+from siltandem.optics.layers import absorber_labels
 
 
 def _first(value):
@@ -117,11 +107,6 @@ def spectral_table(circuit):
 
     wavelength, columns = spectral_columns(circuit)
     return pd.DataFrame({"wavelength_nm": wavelength, **columns})
-
-
-def subcell_layers(model):
-    """Indices of the layers that are some subcell's emitter or base (the rest is parasitic)."""
-    return {index for cell in model.subcells for index in (cell.emitter, cell.base)}
 
 
 def spectral_bands(circuit):

@@ -4,10 +4,12 @@ the crossing of a level and the maximum of the power between exact samples.
 The element laws and inverses they call are in :mod:`siltandem.laws.compiled`.
 """
 import math
+import warnings
 
 import numba
 import numpy as np
 
+from siltandem.errors import CompileNotice
 from siltandem.laws.compiled import element_voltages, subcell_law
 
 
@@ -124,6 +126,21 @@ def power_maximum(t, j, v, dj, dv):
         t_mpp[b] = t[b, best] + x * h if (turn and math.isfinite(x)) else t[b, best]
         curvature[b] = (2.0 * qa * x + qb) / (h * h)
     return t_best, t_other, turns, t_mpp, curvature
+
+
+_COMPILE_NOTICE_GIVEN = []
+
+
+def notice_compiling():
+    """Issue :class:`siltandem.errors.CompileNotice` once per process when the next solve will
+    compile the kernels (:func:`compiled_already` is False); nothing when they are cached or when
+    it cannot tell."""
+    if _COMPILE_NOTICE_GIVEN:
+        return
+    _COMPILE_NOTICE_GIVEN.append(True)
+    if compiled_already() is False:
+        warnings.warn("siltandem: compiling the solver's kernels (the first solve after installing or "
+                      "updating; about 10-20 s, once)", CompileNotice, stacklevel=3)
 
 
 def compiled_already():

@@ -158,26 +158,39 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
                                 "maximum power point, under the same spectrum"}
 
 
-def plot_waterfall(waterfall, ax=None):
-    """Bars falling from the limit to the stack's efficiency, one per loss."""
+def plot_waterfall(waterfall, ax=None, *, smallest_pct=0.005):
+    """Bars falling from the limit to the stack's efficiency, one per loss.
+
+    Steps smaller than ``smallest_pct`` (% absolute) are left out of the figure and counted in a
+    note under it (the text and JSON outputs list every step).
+    """
     if ax is None:
         import matplotlib.pyplot as plt
 
-        _, ax = plt.subplots(figsize=(9, 4.8))
-    labels = ["limit"] + [s["loss"] for s in waterfall["steps"]] + ["stack"]
+        _, ax = plt.subplots(figsize=(9, 5.2))
+    shown = [s for s in waterfall["steps"] if abs(s["loss_pct_abs"]) >= smallest_pct]
+    hidden = len(waterfall["steps"]) - len(shown)
+    labels = ["limit"] + [s["loss"] for s in shown] + ["stack"]
     level = waterfall["limit_pct"]
     ax.bar(0, level, color="0.35")
-    for k, step in enumerate(waterfall["steps"], start=1):
+    ax.text(0, level, f"{level:.2f}", ha="center", va="bottom", fontsize=8)
+    for k, step in enumerate(shown, start=1):
         loss = step["loss_pct_abs"]
         ax.bar(k, -loss, bottom=level, color="tab:red" if loss > 0 else "tab:green")
-        if abs(loss) > 0.005:
-            ax.text(k, level + 0.2, f"{loss:.2f}", ha="center", fontsize=7)
+        ax.text(k, max(level, level - loss), f"{loss:.2f}", ha="center", va="bottom", fontsize=8)
         level -= loss
     ax.bar(len(labels) - 1, waterfall["efficiency_pct"], color="tab:blue")
+    ax.text(len(labels) - 1, waterfall["efficiency_pct"], f"{waterfall['efficiency_pct']:.2f}",
+            ha="center", va="bottom", fontsize=8)
+    ax.set_ylim(0, 1.12 * max(waterfall["limit_pct"], waterfall["efficiency_pct"]))
     ax.set_xticks(range(len(labels)))
-    ax.set_xticklabels(labels, rotation=35, ha="right", fontsize=8)
+    ax.set_xticklabels(labels, rotation=30, ha="right", fontsize=8)
     ax.set_ylabel("efficiency (%)")
     ax.set_title(f"{waterfall['stack']}: {waterfall['limit_pct']:.2f} % limit to "
-                 f"{waterfall['efficiency_pct']:.2f} %", fontsize=10)
+                 f"{waterfall['efficiency_pct']:.2f} %", fontsize=10, pad=10)
+    if hidden:
+        ax.text(0.99, 0.98, f"{hidden} step(s) below {smallest_pct:g} % not drawn (see the table)",
+                transform=ax.transAxes, ha="right", va="top", fontsize=7, color="0.3")
     ax.grid(alpha=0.3, axis="y")
+    ax.figure.tight_layout()
     return ax

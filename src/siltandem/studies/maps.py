@@ -2,6 +2,7 @@
 import functools
 
 
+from siltandem.report.plots import axis_label
 from siltandem.studies.runner import run_chunks
 from siltandem.studies.sweep import check_study, design_table, evaluate_chunk
 from siltandem.stack.inputs import input_files
@@ -41,7 +42,7 @@ def plot_map(table, first, second, column="efficiency_pct", ax=None, *, title=""
     z = (table.sort_values("design")[column].to_numpy(dtype=float)
          .reshape(len(x), len(y)).T)
     filled = ax.contourf(x, y, z, levels=24, cmap="viridis")
-    ax.figure.colorbar(filled, ax=ax, label=column)
+    ax.figure.colorbar(filled, ax=ax, label=axis_label(column))
     lines = ax.contour(x, y, z, levels=10, colors="white", linewidths=0.6)
     ax.clabel(lines, fontsize=7, fmt="%.3g")
     best = optimum(table, column)
@@ -58,7 +59,7 @@ def plot_map(table, first, second, column="efficiency_pct", ax=None, *, title=""
                 va="top" if best[second.column] >= y_mid else "bottom", fontsize=8,
                 color="black", bbox=dict(boxstyle="round", fc="white", alpha=0.85),
                 arrowprops=dict(arrowstyle="-", color="white"))
-    ax.set_xlabel(first.column)
-    ax.set_ylabel(second.column)
+    ax.set_xlabel(axis_label(first.column))
+    ax.set_ylabel(axis_label(second.column))
     ax.set_title(title, fontsize=10)
     return ax

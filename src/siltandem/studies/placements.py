@@ -129,7 +129,11 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
 
 
 def plot_placements(table, axes=None, *, title=""):
-    """Side by side: each candidate's efficiency, and its junction and interface penalties."""
+    """Side by side: each candidate's efficiency, and its junction and interface penalties.
+
+    The efficiency axis starts at zero (bar lengths compare honestly); a candidate that could not
+    be solved gets a hatched grey bar across the axis with its problem written on it.
+    """
     if axes is None:
         import matplotlib.pyplot as plt
 
@@ -137,19 +141,28 @@ def plot_placements(table, axes=None, *, title=""):
     left, right = axes
     names = table["placement"].tolist()[::-1]
     y = np.arange(len(names))
-    left.barh(y, table["efficiency_pct"].to_numpy()[::-1], color="tab:blue")
+    efficiency = table["efficiency_pct"].to_numpy(dtype=float)[::-1]
+    failed = ~np.isfinite(efficiency)
+    finite = efficiency[~failed]
+    top = 1.1 * finite.max() if len(finite) else 1.0
+    left.barh(y[~failed], finite, color="tab:blue")
+    for k, value in zip(y[~failed], finite):
+        left.text(value, k, f" {value:.2f}", va="center", fontsize=8)
+    problems = (table["problem"].tolist()[::-1] if "problem" in table else [""] * len(names))
+    for k in y[failed]:
+        left.barh(k, top, color="0.9", hatch="//", edgecolor="0.6")
+        reason = str(problems[k]) if isinstance(problems[k], str) else ""
+        left.text(0.01 * top, k, f"not solved: {reason}"[:90], va="center", fontsize=7)
+    left.set_xlim(0, top)
     left.set_yticks(y)
     left.set_yticklabels(names, fontsize=8)
     left.set_xlabel("efficiency (%)")
     left.set_title(title or "placements, best on top", fontsize=10)
-    finite = table["efficiency_pct"].dropna()
-    if len(finite):
-        left.set_xlim(max(0, finite.min() - 2), finite.max() + 1)
-    tunnel = table.get("tunnel_penalty_pct_abs", 0 * y).to_numpy()[::-1]
-    interface = table.get("interface_penalty_pct_abs", 0 * y).to_numpy()[::-1]
+    tunnel = np.nan_to_num(table.get("tunnel_penalty_pct_abs", 0 * y).to_numpy(dtype=float)[::-1])
+    interface = np.nan_to_num(table.get("interface_penalty_pct_abs", 0 * y).to_numpy(dtype=float)[::-1])
     right.barh(y, tunnel, color="tab:orange", label="tunnel junctions")
-    right.barh(y, interface, left=np.nan_to_num(tunnel), color="tab:red",
-               label="isotype interfaces")
+    right.barh(y, interface, left=tunnel, color="tab:red", label="isotype interfaces")
+    right.set_xlim(0, max(1.1 * float(np.max(tunnel + interface, initial=0.0)), 0.1))
     right.set_yticks(y)
     right.set_yticklabels([])
     right.set_xlabel("efficiency penalty (% absolute)")

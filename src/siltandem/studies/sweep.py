@@ -16,6 +16,7 @@ from siltandem.circuit.compile import compile_stack
 from siltandem.errors import StackError
 from siltandem.files import file_digest
 from siltandem.optics.illuminate import illuminate
+from siltandem.solve.kernels import notice_compiling
 from siltandem.solve.series import solve_string
 from siltandem.materials.spectra import get_spectrum
 from siltandem.stack.inputs import spectrum_input
@@ -316,6 +317,7 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     Returns a dict of (B,) arrays: the RESULT_COLUMNS, ``<subcell>.photocurrent_mA_cm2`` for
     every subcell, ``limiting_subcell`` and ``regime``.
     """
+    notice_compiling()
     from siltandem.stack.options import check_conditions
 
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
