@@ -64,7 +64,15 @@ def test_carriers_flow_follows_polarity():
 @pytest.mark.parametrize("text, message", [
     (layer("lone", "GaAs", 1000, "p:1e17"), "no p-n junction"),
     (layer("a", "GaAs", 1000, "p:1e17") + layer("b", "GaAs", 1000, "p:1e18"), "no p-n junction"),
-    (cell("top", "GaAs") + cell("bottom", "GaAs"), "opposite polarity.*no tunnel junction"),
+    (cell("top", "GaAs") + cell("bottom", "GaAs"),
+     "no tunnel junction between layer 2 'top base' and layer 3 'bottom emitter'.*opposes the n-on-p"),
+    # a tunnel junction written upside down (n++ over p++ under a p base, issue 20): named as such,
+    # and again once the base is doped up as a generic fix would suggest
+    (cell("top", "Ga0.51In0.49P") + layer("t1", "GaAs", 20, "n:1e19") + layer("t2", "GaAs", 20, "p:5e19")
+     + cell("bottom", "GaAs"), "(?s)tunnel junction layer 3 't1' / layer 4 't2' looks upside down.*"
+     "fix: swap the dopings"),
+    (cell("top", "Ga0.51In0.49P", base="p:5e18") + layer("t1", "GaAs", 20, "n:1e19")
+     + layer("t2", "GaAs", 20, "p:5e19") + cell("bottom", "GaAs"), "looks upside down"),
     (cell("top", "GaAs") + layer("t0", "GaAs", 20, "p:5e19") + layer("t1", "GaAs", 20, "n:5e19")
      + layer("t2", "GaAs", 20, "p:5e19") + cell("bottom", "GaAs"), "three degenerate layers"),
     (cell("top", "GaAs") + layer("t1", "GaAs", 20, "n:5e19") + layer("t2", "GaAs", 20, "p:5e19")

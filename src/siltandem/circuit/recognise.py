@@ -57,6 +57,34 @@ def _same_material(a, b):
             == material_identity(b.material, b.composition))
 
 
+def _upside_down_tunnel(layers, i, tunnel_doping_cm3, file, *, neighbour_in_a_cell=False):
+    """A StackError for the degenerate pair ``layers[i], layers[i + 1]`` when it is a tunnel
+    junction written upside down: each of its layers has the type opposite to its outer
+    neighbour (n++ under a p base, p++ over an n window), so each neighbour makes a p-n junction
+    with it. None when that is not the likely cause."""
+    if i < 1 or i + 2 >= len(layers):
+        return None
+    above, upper, lower, below = layers[i - 1], layers[i], layers[i + 1], layers[i + 2]
+    degenerate = min(upper.doping_cm3, lower.doping_cm3) >= tunnel_doping_cm3
+    if not (degenerate and upper.polarity != lower.polarity
+            and upper.polarity != above.polarity and lower.polarity != below.polarity):
+        return None
+    # three degenerate layers in a row: upside down only if the third is a cell's layer (it has
+    # minority-carrier values); three plain degenerate layers are one layer too many
+    third = [layer for layer in (above, below) if layer.doping_cm3 >= tunnel_doping_cm3]
+    if neighbour_in_a_cell and not any(layer.diffusion_length_um is not None
+                                       or layer.lifetime_ns is not None for layer in third):
+        return None
+    return StackError(
+        f"the tunnel junction {upper.label} / {lower.label} looks upside down: it is "
+        f"{upper.polarity}++ over {lower.polarity}++ from the sun side, between {above.label} "
+        f"({above.polarity}) above and {below.label} ({below.polarity}) below, so each of its layers "
+        "forms a p-n junction with its neighbour", file=file, where=f"{upper.label} / {lower.label}",
+        fix=f"swap the dopings of {upper.label} and {lower.label}, so that the junction is "
+            f"{above.polarity}++ over {below.polarity}++ (each layer of the type of its neighbour); "
+            f"keep {above.label} and {below.label} below {tunnel_doping_cm3:g} cm^-3")
+
+
 def _classify_boundaries(layers, tunnel_doping_cm3, file):
     """Each layer boundary's kind (rules 1-3), by the index of its upper layer: "tunnel",
     "junction" or "isotype" (a high-low junction gets none, but a note)."""
@@ -69,6 +97,9 @@ def _classify_boundaries(layers, tunnel_doping_cm3, file):
             degenerate = (upper.doping_cm3 >= tunnel_doping_cm3
                           and lower.doping_cm3 >= tunnel_doping_cm3)
             if degenerate and i in used_by_tunnel:
+                hint = _upside_down_tunnel(layers, i, tunnel_doping_cm3, file, neighbour_in_a_cell=True)
+                if hint is not None:
+                    raise hint
                 raise StackError(f"{layers[i - 1].label}, {upper.label} and {lower.label} are "
                                  "three degenerate layers of alternating type: two tunnel "
                                  "junctions share a layer", file=file, where=upper.label,
@@ -95,6 +126,11 @@ def _parts(layers, boundary_kind, tunnel_doping_cm3, file):
         upper, lower = layers[i], layers[i + 1]
         if kind == "junction":
             if not _same_material(upper, lower):
+                for pair in (i - 1, i + 1):          # the degenerate neighbour's tunnel pair
+                    hint = (_upside_down_tunnel(layers, pair, tunnel_doping_cm3, file)
+                            if boundary_kind.get(pair) == "tunnel" else None)
+                    if hint is not None:
+                        raise hint
                 raise StackError(
                     f"{upper.label} ({upper.polarity}, {upper.material}) and {lower.label} "
                     f"({lower.polarity}, {lower.material}) form a p-n junction of two different "
@@ -141,6 +177,20 @@ def _stack_polarity(layers, subcells, boundary_kind, tunnel_doping_cm3, file):
                         "blocks the stack's current", file=file,
                         where=f"{upper.label} / {lower.label}",
                         fix="swap the two layers of the tunnel junction")
+        # a junction that shares a layer with the cell above: no tunnel junction between them
+        counts = [c.polarity for c in subcells]
+        main = max(("n-on-p", "p-on-n"), key=lambda x: (counts.count(x), x == counts[0]))
+        for above, cell in zip(subcells, subcells[1:]):
+            if cell.polarity != main and cell.emitter == above.base:
+                upper, lower = layers[cell.emitter], layers[cell.base]
+                order = "p++ over n++" if main == "n-on-p" else "n++ over p++"
+                raise StackError(
+                    f"no tunnel junction between {upper.label} and {lower.label}: without one they "
+                    f"form a {cell.polarity} junction that opposes the {main} subcells' current "
+                    "(a tunnel junction missing, or one of its layers doped too lightly)",
+                    file=file, where=f"{upper.label} / {lower.label}",
+                    fix=f"insert a tunnel junction between them: two layers doped at or above "
+                        f"{tunnel_doping_cm3:g} cm^-3, {order} from the sun side")
         names = ", ".join(f"{c.name}: {c.polarity}" for c in subcells)
         raise StackError(f"subcells of opposite polarity ({names}): their currents oppose; "
                          "where no tunnel junction joins two cells, the layers between them form "
