@@ -37,7 +37,7 @@ from siltandem import run_stack
 from siltandem.solve.series import solve_string
 from siltandem.stack.load import parse_stack
 
-HEADLINE = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2",
+HEADLINE = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct", "mpp_V", "mpp_mA_cm2",
             "mpp_W_m2", "power_balance_error_W_m2"]
 POINTS = 60
 
@@ -106,7 +106,7 @@ def check(result):
     voc, jsc = summary["voc_V"], summary["jsc_mA_cm2"]
     assert 0 <= summary["mpp_V"] <= voc * (1 + 1e-9)
     assert 0 <= summary["mpp_mA_cm2"] <= jsc * (1 + 1e-9)
-    assert 0 <= summary["fill_factor"] <= 1
+    assert 0 <= summary["fill_factor_pct"] <= 100
     # the reported Jsc and Voc are where the traced curve crosses V = 0 and J = 0
     iv = result.iv
     assert on_crossing(iv["voltage_V"], iv["current_mA_cm2"], jsc, 1e-9 * jsc + 1e-12), \

@@ -640,7 +640,7 @@ def test_a_blocked_string_reports_the_zero_current_voc(alpha, barrier, built_in,
             assert row["voltage_at_open_circuit_V"] == 0.0
     # every number is physical or null, and a null is named in a warning
     missing = [label for label, key in (("Jsc", "jsc_mA_cm2"), ("the MPP", "mpp_V"),
-                                        ("the fill factor", "fill_factor"))
+                                        ("the fill factor", "fill_factor_pct"))
                if summary[key] is None]
     if missing and not any("capped" in w for w in summary["warnings"]):
         (said,) = [w for w in summary["warnings"] if "no operating point found for" in w]

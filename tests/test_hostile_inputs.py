@@ -73,7 +73,7 @@ def test_no_light_above_the_gaps_is_solved_with_a_warning(case, tmp_path, capsys
     summary = _strict_json((tmp_path / "r.json").read_text())
     assert summary["efficiency_pct"] == 0.0
     assert all(c["photocurrent_mA_cm2"] == 0.0 for c in summary["subcells"])
-    assert summary["fill_factor"] is None
+    assert summary["fill_factor_pct"] is None
     assert all(t["peak_over_largest_photocurrent"] is None for t in summary["tunnel_junctions"])
     warning = ("string 1: no subcell receives light above its gap (every photocurrent is 0): it "
                "gives no power, and fill factor has no value")

@@ -39,7 +39,7 @@ def test_json_contract(tmp_path):
     done = cli("run", DEMO, "--json", out)
     assert done.returncode == 0, done.stderr
     data = json.loads(out.read_text())
-    for key in ("stack", "conditions", "efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor",
+    for key in ("stack", "conditions", "efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct",
                 "mpp_V", "mpp_mA_cm2", "subcells", "elements", "parasitic",
                 "power_balance_error_W_m2", "warnings"):
         assert key in data

@@ -161,7 +161,7 @@ def test_the_repr_is_one_short_line_with_the_headline_numbers():
     assert "\n" not in text and len(text) <= 400, text
     for shown in (f"'{s['stack']}'", "am1.5g", f"efficiency {s['efficiency_pct']:.2f} %",
                   f"Voc {s['voc_V']:.4f} V", f"Jsc {s['jsc_mA_cm2']:.3f} mA/cm2",
-                  f"fill factor {s['fill_factor']:.4f}",
+                  f"fill factor {s['fill_factor_pct']:.2f} %",
                   f"MPP {s['mpp_V']:.4f} V x {s['mpp_mA_cm2']:.3f} mA/cm2", "0 warnings"):
         assert shown in text, (shown, text)
     html = result._repr_html_()

@@ -150,7 +150,7 @@ def test_run_outputs_are_strict(name, hostile, tmp_path, capsys):
     if name == "numbers_isotype.toml":
         assert summary["interfaces"][0]["offset_eV"] is None
     if name == "blocked_isotype.toml":
-        assert summary["jsc_mA_cm2"] is None and summary["fill_factor"] is None
+        assert summary["jsc_mA_cm2"] is None and summary["fill_factor_pct"] is None
         assert any("no value for" in w or "null" in w for w in summary["warnings"])
     if name == "names.toml":
         assert rows[0][2:] == ["'=top\\x07_V", "'+junction\\x1b]0;x_V", "'-silicon\\u202e_V",

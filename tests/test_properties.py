@@ -154,7 +154,7 @@ def numbers(value, path="summary"):
         yield path, float(value)
 
 
-HEADLINE = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2",
+HEADLINE = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct", "mpp_V", "mpp_mA_cm2",
             "mpp_W_m2", "power_balance_error_W_m2"]
 
 
@@ -210,7 +210,7 @@ def test_random_valid_stacks_keep_every_invariant(count, data):
     # an operating point in the power quadrant
     assert 0 < summary["mpp_V"] < summary["voc_V"]
     assert 0 < summary["mpp_mA_cm2"] <= summary["jsc_mA_cm2"] * (1 + 1e-9)
-    assert 0 < summary["fill_factor"] < 1
+    assert 0 < summary["fill_factor_pct"] < 100
 
     # power balance: the solver's own check, and Kirchhoff's current law per subcell against
     # pvlib's single-diode solver (bracketed on the Bishop form, J. W. Bishop, Solar Cells 25

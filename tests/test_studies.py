@@ -78,7 +78,7 @@ def test_map_finds_the_published_dual_optimum(dual):
     assert best["top.absorptance"] == 1.0
     assert best["efficiency_pct"] == pytest.approx(45.06, abs=0.3)
     assert list(table.columns[:3]) == ["design", "top.gap_eV", "top.absorptance"]
-    for column in ("efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"):
+    for column in ("efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct", "mpp_V", "mpp_mA_cm2"):
         assert column in table.columns
 
 

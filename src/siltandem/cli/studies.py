@@ -453,7 +453,7 @@ def run_placements(args):
             continue
         print(f"  {row['rank']:>4}  {row['placement']:<40} "
               f"{number(row['efficiency_pct'], '12.3f'):>12} "
-              f"{number(row['voc_V'], '8.4f'):>8} {number(100 * row['fill_factor'], '6.2f'):>6} "
+              f"{number(row['voc_V'], '8.4f'):>8} {number(row['fill_factor_pct'], '6.2f'):>6} "
               f"{number(row['tunnel_penalty_pct_abs'], '11.3f'):>11} "
               f"{number(row['interface_penalty_pct_abs'], '12.3f'):>12}  "
               f"{row['limiting_subcell']}"

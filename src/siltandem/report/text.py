@@ -25,10 +25,6 @@ def _finite(value):
     return number(value, "g", "") != ""
 
 
-def _percent(fraction):
-    return None if fraction is None else 100 * fraction
-
-
 def _milli(value):
     return None if value is None else 1000 * value
 
@@ -82,12 +78,12 @@ def _headline_numbers(s):
         return lines + [
             _headline("Voc", s["voc_V"], ".4f", "V"),
             _headline("Jsc", s["jsc_mA_cm2"], ".3f", "mA/cm2"),
-            _headline("fill factor", _percent(s["fill_factor"]), ".2f", "%"),
+            _headline("fill factor", s["fill_factor_pct"], ".2f", "%"),
             _headline("MPP voltage", s["mpp_V"], ".4f", "V"),
             _headline("MPP current", s["mpp_mA_cm2"], ".3f", "mA/cm2"),
         ]
     rows = [[str(r["string"]), _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
-             _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(_percent(r["fill_factor"]), ".2f"),
+             _fmt(r["jsc_mA_cm2"], ".3f"), _fmt(r["fill_factor_pct"], ".2f"),
              _fmt(r["mpp_V"], ".4f"), _fmt(r["mpp_mA_cm2"], ".3f")]
             for r in s["strings"]]
     lines.append("  each string at its own MPP, powers summed:")
@@ -227,7 +223,7 @@ def concentration_summary(series, stack):
     rows = []
     for _, r in series.iterrows():
         rows.append([f"{r['suns']:.4g}", _fmt(r["efficiency_pct"], ".3f"), _fmt(r["voc_V"], ".4f"),
-                     _fmt(r["jsc_mA_cm2"], ".4g"), _fmt(_percent(r["fill_factor"]), ".2f"),
+                     _fmt(r["jsc_mA_cm2"], ".4g"), _fmt(r["fill_factor_pct"], ".2f"),
                      str(r["regime"])] + ["yes" if r[c] else "no" for c in flags])
     lines += ["  " + x for x in _table(headers, rows, ">>>>><" + "<" * len(flags))]
     lines.append("")

@@ -47,7 +47,7 @@ class Result:
         """One row: the headline numbers with their units in the column names."""
         import pandas as pd
 
-        keys = ["stack", "efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V",
+        keys = ["stack", "efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct", "mpp_V",
                 "mpp_mA_cm2", "power_balance_error_W_m2"]
         row = {k: self.summary[k] for k in keys}
         row.update({f"conditions.{k}": v for k, v in self.summary["conditions"].items()})
@@ -126,7 +126,7 @@ class Result:
         if strings == 1:
             shown += [f"Voc {words.number(s['voc_V'], '.4f')} V",
                       f"Jsc {words.number(s['jsc_mA_cm2'], '.3f')} mA/cm2",
-                      f"fill factor {words.number(s['fill_factor'], '.4f')}",
+                      f"fill factor {words.number(s['fill_factor_pct'], '.2f')} %",
                       f"MPP {words.number(s['mpp_V'], '.4f')} V x {words.number(s['mpp_mA_cm2'], '.3f')} mA/cm2"]
         else:
             shown.append(f"{strings} strings (each at its own MPP, see .summary['strings'])")
@@ -145,7 +145,7 @@ class Result:
         rows = [("efficiency", words.number(s["efficiency_pct"], ".2f"), "%"),
                 ("Voc", words.number(s["voc_V"], ".4f"), "V"),
                 ("Jsc", words.number(s["jsc_mA_cm2"], ".3f"), "mA/cm²"),
-                ("fill factor", words.number(s["fill_factor"], ".4f"), "(fraction)"),
+                ("fill factor", words.number(s["fill_factor_pct"], ".2f"), "%"),
                 ("MPP voltage", words.number(s["mpp_V"], ".4f"), "V"),
                 ("MPP current", words.number(s["mpp_mA_cm2"], ".3f"), "mA/cm²")]
         table = "".join(f"<tr><td>{escape(a)}</td><td style='text-align:right'>{escape(b)}</td>"

@@ -27,7 +27,7 @@ BLOCKING_PENALTY_PCT = 1.0
 #: headline numbers of a string, their words for warnings, and why one can be missing
 _HEADLINE = (("voc_V", "Voc", "the curve has no zero-current point"),
              ("jsc_mA_cm2", "Jsc", "the curve does not reach 0 V"),
-             ("fill_factor", "fill factor", "it needs a positive Voc and Jsc"),
+             ("fill_factor_pct", "fill factor", "it needs a positive Voc and Jsc"),
              ("mpp_V", "MPP voltage", "no maximum power point was found"),
              ("mpp_mA_cm2", "MPP current", "no maximum power point was found"),
              ("efficiency_pct", "efficiency", "no maximum power point was found"))
@@ -105,7 +105,7 @@ def _headline(strings, total_power, irradiance):
     return {
         "efficiency_pct": 100 * total_power / irradiance,
         "voc_V": head.get("voc_V"), "jsc_mA_cm2": head.get("jsc_mA_cm2"),
-        "fill_factor": head.get("fill_factor"), "mpp_V": head.get("mpp_V"),
+        "fill_factor_pct": head.get("fill_factor_pct"), "mpp_V": head.get("mpp_V"),
         "mpp_mA_cm2": head.get("mpp_mA_cm2"), "mpp_W_m2": total_power,
         "regime": regimes[0] if one else regimes,
         "mpp_certificate": head.get("mpp_certificate") if one else [
@@ -132,7 +132,7 @@ def _string_row(number, string, solution, irradiance):
         "string": number, "elements": [e.name for e in string],
         "efficiency_pct": 100 * power / irradiance, "voc_V": first_value(solution.voc_V),
         "jsc_mA_cm2": units.ma_cm2(first_value(solution.jsc_A_m2)),
-        "fill_factor": first_value(solution.fill_factor), "mpp_V": first_value(solution.mpp_V),
+        "fill_factor_pct": 100 * first_value(solution.fill_factor), "mpp_V": first_value(solution.mpp_V),
         "mpp_mA_cm2": units.ma_cm2(first_value(solution.mpp_A_m2)), "mpp_W_m2": power,
         "limiting_subcell": pilot.name, "regime": str(solution.regime[0]),
         "mpp_certificate": _certificate(solution)}

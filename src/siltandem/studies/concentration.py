@@ -17,7 +17,7 @@ def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=Non
 
     Photocurrents scale with the concentration (the spectrum's shape is kept); every other
     parameter is that of the stack. Returns a DataFrame: ``suns``, ``efficiency_pct``, ``voc_V``,
-    ``jsc_mA_cm2``, ``fill_factor``, ``mpp_V``, ``mpp_mA_cm2`` (of string 1 for several strings),
+    ``jsc_mA_cm2``, ``fill_factor_pct``, ``mpp_V``, ``mpp_mA_cm2`` (of string 1 for several strings),
     ``regime``, and per tunnel junction ``<name>.peak_exceeded`` (its peak current is below the
     largest photocurrent of its string) and ``<name>.branch_at_mpp``.
     """
@@ -48,7 +48,7 @@ def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=Non
         if number == 1:
             table.update({
                 "voc_V": solution.voc_V, "jsc_mA_cm2": units.ma_cm2(solution.jsc_A_m2),
-                "fill_factor": solution.fill_factor, "mpp_V": solution.mpp_V,
+                "fill_factor_pct": 100 * solution.fill_factor, "mpp_V": solution.mpp_V,
                 "mpp_mA_cm2": units.ma_cm2(solution.mpp_A_m2),
                 "regime": np.asarray(solution.regime, dtype=object)})
         photocurrents = np.concatenate([e.photocurrent_A_m2 for e in string

@@ -81,7 +81,7 @@ def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
             continue
         s = result.summary
         row.update({"efficiency_pct": s["efficiency_pct"], "voc_V": s["voc_V"],
-                    "jsc_mA_cm2": s["jsc_mA_cm2"], "fill_factor": s["fill_factor"],
+                    "jsc_mA_cm2": s["jsc_mA_cm2"], "fill_factor_pct": s["fill_factor_pct"],
                     "limiting_subcell": next(c["name"] for c in s["subcells"] if c["limiting"]),
                     "regime": s["regime"], "problem": ""})
         inserted = {layer.name for layer in placement.layers}

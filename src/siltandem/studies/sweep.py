@@ -25,7 +25,7 @@ from siltandem.stack.schema import (ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_eleme
 from siltandem.text import excerpt
 
 #: result columns every study row carries, named as in the JSON of `siltandem run`
-RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor", "mpp_V", "mpp_mA_cm2"]
+RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct", "mpp_V", "mpp_mA_cm2"]
 #: isotype keys a study may vary (the explicit form of the law)
 ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
 #: layer keys a study may vary (a layer stack's designs are solved one by one: each changes the
@@ -344,7 +344,7 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     if len(solutions) == 1:
         out["voc_V"] = np.broadcast_to(first.voc_V, (size,)).copy()
         out["jsc_mA_cm2"] = units.ma_cm2(np.broadcast_to(first.jsc_A_m2, (size,)))
-        out["fill_factor"] = np.broadcast_to(first.fill_factor, (size,)).copy()
+        out["fill_factor_pct"] = 100 * np.broadcast_to(first.fill_factor, (size,))
         out["mpp_V"] = np.broadcast_to(first.mpp_V, (size,)).copy()
         out["mpp_mA_cm2"] = units.ma_cm2(np.broadcast_to(first.mpp_A_m2, (size,)))
     else:
