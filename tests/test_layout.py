@@ -210,3 +210,23 @@ def test_the_public_api_is_the_pipeline_itself():
     assert issubclass(siltandem.StackError, ValueError)
     with pytest.raises(AttributeError, match="no attribute 'solve_string'"):
         siltandem.__getattr__("solve_string")
+
+
+@pytest.mark.parametrize("argv", [["--help"], ["materials"], ["materials", "GaAs"], ["run", "--help"]])
+def test_help_and_the_materials_list_load_no_heavy_package(argv):
+    """Start-up (issue 19): the commands that solve nothing import neither the compiler (numba)
+    nor pandas nor pvlib; only `run` and the studies pay for them."""
+    import subprocess
+    import sys
+
+    probe = ("import sys, contextlib, io\n"
+             "from siltandem.cli.main import main\n"
+             "with contextlib.redirect_stdout(io.StringIO()):\n"
+             "    try:\n"
+             f"        main({argv!r})\n"
+             "    except SystemExit:\n"
+             "        pass\n"
+             "print(sorted(m for m in ('numba', 'pandas', 'pvlib', 'matplotlib', 'networkx', 'dask')"
+             " if m in sys.modules))\n")
+    done = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True)
+    assert done.stdout.strip().splitlines()[-1] == "[]", done.stdout + done.stderr
