@@ -498,9 +498,17 @@ def _optics_for(file_name, data):
         raise MaterialError(f"materials data file {file_name}: no [absorption.direct] or [absorption.indirect] "
                             f"model; add one (it is used outside any table)")
     index = _require(data, "refractive_index", file_name)
+    if "file" in index:
+        nk = _nk_file(file_name, index["file"], "refractive_index")
+        index = {"wavelength_nm": nk["wavelength_nm"], "n": nk["n"]}
     optics = _Optics(None, None, direct_spec, indirect_spec,
                      index_nm=np.asarray(_require(index, "wavelength_nm", file_name, "refractive_index"), float),
                      index_n=np.asarray(_require(index, "n", file_name, "refractive_index"), float))
+    if table is not None and "file" in table:
+        nk = _nk_file(file_name, table["file"], "absorption.table")
+        # alpha = 4 pi k / lambda [cm^-1] (M. Born, E. Wolf, Principles of Optics, 7th ed. (1999), sec. 14.1)
+        table = {"wavelength_nm": nk["wavelength_nm"],
+                 "alpha_per_cm": 4.0 * np.pi * nk["k"] / (nk["wavelength_nm"] * 1e-7)}
     if table is not None:
         lam = np.asarray(_require(table, "wavelength_nm", file_name, "absorption.table"), dtype=float)
         alpha = np.asarray(_require(table, "alpha_per_cm", file_name, "absorption.table"), dtype=float)
@@ -510,6 +518,43 @@ def _optics_for(file_name, data):
         optics = _Optics(lam, np.log(alpha * _PER_CM_TO_PER_M), direct_spec, indirect_spec,
                          index_nm=optics.index_nm, index_n=optics.index_n)
     return optics
+
+
+@functools.lru_cache(maxsize=16)
+def _nk_table(data_file):
+    """The columns of an n,k data file beside the TOML files (CSV, ``#`` comment lines, a header
+    ``wavelength_nm,n,k``): dict name -> float array; MaterialError if unreadable."""
+    entry = resources.files("siltandem.materials").joinpath(data_file)
+    try:
+        text = entry.read_text(encoding="utf-8")
+    except (FileNotFoundError, OSError) as exc:
+        raise MaterialError(f"materials data file {data_file}: cannot be read ({exc}); "
+                            f"put it beside the TOML files") from exc
+    lines = [line for line in text.splitlines() if line.strip() and not line.lstrip().startswith("#")]
+    header = [h.strip() for h in lines[0].split(",")] if lines else []
+    try:
+        values = np.array([[float(v) for v in line.split(",")] for line in lines[1:]], dtype=float)
+    except ValueError as exc:
+        raise MaterialError(f"materials data file {data_file}: a value is not a number ({exc}); "
+                            f"fix the file") from exc
+    if header != ["wavelength_nm", "n", "k"] or values.ndim != 2 or values.shape[1] != 3 or len(values) < 2:
+        raise MaterialError(f"materials data file {data_file}: needs a header line 'wavelength_nm,n,k' "
+                            f"and at least two rows of three numbers; fix the file")
+    columns = {name: values[:, i].copy() for i, name in enumerate(header)}
+    if np.any(np.diff(columns["wavelength_nm"]) <= 0) or np.any(columns["k"] <= 0) \
+            or np.any(columns["n"] <= 0):
+        raise MaterialError(f"materials data file {data_file}: needs increasing wavelength_nm and "
+                            f"positive n and k; fix the file")
+    for array in columns.values():
+        array.flags.writeable = False
+    return MappingProxyType(columns)
+
+
+def _nk_file(file_name, data_file, where):
+    if not isinstance(data_file, str) or not data_file.endswith(".csv"):
+        raise MaterialError(f"materials data file {file_name}: [{where}] key 'file' = {data_file!r} "
+                            f"is not the name of a .csv file beside it; fix the key")
+    return _nk_table(data_file)
 
 
 def _end_scales(material):
