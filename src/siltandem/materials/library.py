@@ -22,6 +22,7 @@ import numpy as np
 
 from siltandem.constants import BOLTZMANN_EV_K, HC_EV_NM, RICHARDSON_FREE_A_M2_K2
 from siltandem.laws.carriers import effective_density_of_states_per_m3
+from siltandem.laws.haze import free_carrier_absorption_per_m
 from siltandem.materials import models
 
 __all__ = ["Material", "MaterialError", "load_material", "list_materials", "describe_library"]
@@ -116,6 +117,8 @@ class Material:
     #: light-hole mass along [001] [m0] (Luttinger parameters where the data give them); the
     #: tunnelling mass of a p++ layer
     light_hole_mass_ratio: float = field(default=math.nan, compare=False)
+    #: free-carrier absorption coefficients ([free_carrier_absorption] of the data file) or None
+    _free_carriers: Mapping | None = field(default=None, compare=False, repr=False)
 
     # --- band edges -----------------------------------------------------------------------------------
     def valley_gaps_eV(self, temperature_K=REFERENCE_TEMPERATURE_K):
@@ -185,6 +188,20 @@ class Material:
     def refractive_index(self, wavelength_nm):
         """Real refractive index at ``wavelength_nm`` [nm]: linear in the table, held at its end values."""
         return np.interp(np.asarray(wavelength_nm, dtype=float), self._optics.index_nm, self._optics.index_n)
+
+    @property
+    def has_free_carrier_absorption(self):
+        """True if the data file gives free-carrier absorption coefficients."""
+        return self._free_carriers is not None
+
+    def free_carrier_absorption_per_m(self, wavelength_nm, *, electron_density_m3=0.0, hole_density_m3=0.0):
+        """Free-carrier absorption [m^-1] at ``wavelength_nm`` [nm] for the given free electron and hole
+        densities [m^-3] (laws.haze.free_carrier_absorption_per_m with the data file's coefficients);
+        zero where the data file gives none."""
+        if self._free_carriers is None:
+            return np.zeros(np.shape(wavelength_nm))
+        return free_carrier_absorption_per_m(wavelength_nm, electron_density_m3=electron_density_m3,
+                                             hole_density_m3=hole_density_m3, **self._free_carriers)
 
     def _absorption_300K_of_energy(self, energy_eV):
         optics = self._optics
@@ -655,7 +672,11 @@ def _build_binary(family, file_name, data):
         hole_dos = (_require(dos, "valence_300K_per_cm3", file_name, where) * _PER_CM3_TO_PER_M3 / unit) ** (2 / 3)
     rich = data.get("richardson", {})
     mobility = _require(data, "mobility", file_name)
-    return _finish(
+    free = data.get("free_carrier_absorption")
+    if free is not None:
+        keys = ("electron_coefficient_cm2", "electron_exponent", "hole_coefficient_cm2", "hole_exponent")
+        free = MappingProxyType({k: float(_require(free, k, file_name, "free_carrier_absorption")) for k in keys})
+    return _replace(_finish(
         name=family, family=family, composition=None, formula=data.get("formula", family), valleys=valleys,
         hole_masses=hole_masses,
         affinity=_require(_require(data, "electron_affinity", file_name), "value_eV", file_name, "electron_affinity"),
@@ -664,7 +685,7 @@ def _build_binary(family, file_name, data):
         mobility=(_require(mobility, "electron_cm2_V_s", file_name, "mobility"),
                   _require(mobility, "hole_cm2_V_s", file_name, "mobility")),
         optics=_optics_for(file_name, data), sources=_sources(data), note=data.get("note", ""),
-        conduction_override=override, hole_dos_override=hole_dos)
+        conduction_override=override, hole_dos_override=hole_dos), _free_carriers=free)
 
 
 def _alloy_name(data, x):
