@@ -61,11 +61,16 @@ srv_cm_s = 10
 """
 
 
+#: the demo triple's [optics] lines (an invented scattering rear), replaced by the tests' own
+DEMO_OPTICS = 'back_reflectance = 0.9\nback_scattering = "lambertian"\n'
+
+
 def _triple(tmp_path, optics="back_reflectance = 0.9\n", name="triple.toml"):
     """The invented demo triple (GaInP/GaAs on Si, two coatings), its [optics] replaced."""
     text = (STACKS / "demo_triple_layers.toml").read_text()
     path = tmp_path / name
-    path.write_text(text.replace("back_reflectance = 0.9\n", optics))
+    assert DEMO_OPTICS in text
+    path.write_text(text.replace(DEMO_OPTICS, optics))
     return path
 
 

@@ -262,8 +262,9 @@ def test_scattered_photons_are_collected_uniformly():
 def _triple(tmp_path, optics, silicon_nm=160000):
     # the invented demo triple (GaInP/GaAs on Si), its rear and Si thickness changed
     text = (ROOT / "stacks" / "demo_triple_layers.toml").read_text()
-    text = text.replace("back_reflectance = 0.9\n", optics).replace("thickness_nm = 150000",
-                                                                     f"thickness_nm = {silicon_nm}")
+    demo_optics = 'back_reflectance = 0.9\nback_scattering = "lambertian"\n'
+    assert demo_optics in text
+    text = text.replace(demo_optics, optics).replace("thickness_nm = 150000", f"thickness_nm = {silicon_nm}")
     path = tmp_path / "triple.toml"
     path.write_text(text)
     circuit = illuminate(compile_stack(load_stack(path)), get_spectrum("am1.5g"))
@@ -292,7 +293,8 @@ def test_scattering_rear_behind_gaas_gains_silicon_current(tmp_path):
         assert circuit.optics["budget_error_relative"] < 1e-12
     flat, trapped = _silicon(specular), _silicon(scattering)
     # issue 16: 8.4 -> 11.7-12.1 mA/cm2 for a 160 um Si cell behind GaAs; our invented stack and
-    # library absorption differ from that case, so the window is widened (measured 9.43 -> 12.23)
+    # library absorption differ from that case, so the window is widened (measured 9.57 -> 12.52 with
+    # Green 2008 at 10 nm and free-carrier absorption; 9.43 -> 12.23 before)
     assert trapped - flat > 2.0
     assert 11.5 < trapped < 12.6
     # a textured front scatters on entry: a Lambertian pass absorbs more than a normal one
