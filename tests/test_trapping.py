@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from siltandem import load_stack
+from siltandem import load_stack, run_stack
 from siltandem.circuit.compile import compile_stack
 from siltandem.laws import collection
 from siltandem.laws.thinfilm import (ThinFilmInputError, lambertian_escape_fraction,
@@ -307,3 +307,24 @@ def test_scattering_rear_behind_gaas_gains_silicon_current(tmp_path):
     # no more current than photons absorbed in Si, and below the Si limit behind the GaAs
     absorbed = ma_cm2(scattering.optics["absorbed_A_m2"]["silicon"])
     assert trapped <= absorbed
+
+
+def test_scattering_rear_moves_the_limiting_subcell_of_the_demo(tmp_path):
+    # issue 16: with a scattering rear the Si cell behind GaAs gains current, so at a GaAs base
+    # where a flat rear leaves silicon limiting, the top cell limits instead (the design advice
+    # flips). The invented demo at a 900 nm GaAs base (README walk-through, measured: flat rear Si
+    # 10.83 < top 12.51 mA/cm2; scattering rear Si 13.08 > top 12.51)
+    text = (ROOT / "stacks" / "demo_triple_layers.toml").read_text()
+    middle = 'name = "middle base"\nmaterial = "GaAs"\nthickness_nm = 1500\n'
+    assert middle in text
+    text = text.replace(middle, middle.replace("1500", "900"))
+    limiting = {}
+    for rear, optics in (("flat", "back_reflectance = 0.9\n"),
+                         ("scattering", 'back_reflectance = 0.9\nback_scattering = "lambertian"\n')):
+        path = tmp_path / f"{rear}.toml"
+        path.write_text(text.replace('back_reflectance = 0.9\nback_scattering = "lambertian"\n', optics))
+        summary = run_stack(load_stack(path), curve_points=60).summary
+        limiting[rear] = summary["strings"][0]["limiting_subcell"]
+        currents = {c["name"]: c["photocurrent_mA_cm2"] for c in summary["subcells"]}
+        assert min(currents, key=currents.get) == limiting[rear]
+    assert limiting == {"flat": "silicon", "scattering": "top"}
