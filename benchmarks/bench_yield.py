@@ -9,6 +9,7 @@
 3. The same stack's hours solved one by one (200 hours through `solve_string`, scaled to all
    hours) against the one batched solve: the ratio.
 4. A detailed-balance triple 2.01 / 1.50 / 1.12 eV (the explicit fast path) end to end.
+5. A layer stack's optics over the year at one temperature and following each hour's (1 K bins).
 
 Asserts nothing: prints medians and ratios (the machine is shared: compare ratios, not seconds).
 Run: python benchmarks/bench_yield.py
@@ -67,6 +68,21 @@ def quiet(function):
     return run
 
 
+def layers_optics(light, temperature):
+    """5. A layer stack's optics over the year (stacks/demo_triple_layers.toml): every hour at the
+    stack's temperature against every hour at its own cell temperature (1 K bins)."""
+    from siltandem.optics.layers import layer_photocurrents, layer_photocurrents_by_temperature
+
+    model = compile_stack(load_stack(ROOT / "stacks" / "demo_triple_layers.toml")).model
+    bins = np.unique(np.floor(temperature)).size
+    fixed, _ = timed(lambda: layer_photocurrents(model, light.wavelength_nm, light.photon_flux), repeats=3)
+    follow, _ = timed(lambda: layer_photocurrents_by_temperature(model, light.wavelength_nm, light.photon_flux,
+                                                                 temperature), repeats=3)
+    print(f"layer-stack optics of the year (demo triple layers, {temperature.size} hours, {bins} bins of 1 K): "
+          f"one temperature {fixed:.2f} s, each hour's temperature {follow:.2f} s (medians of 3): "
+          f"ratio {follow / fixed:.2f}; the yield year runs both (the first for the mismatch factors)")
+
+
 @quiet
 def main():
     triple = load_stack(ROOT / "stacks" / "demo_triple.toml")
@@ -119,6 +135,8 @@ def main():
     print(f"  the stack hour by hour: {1e3 * per_hour:.1f} ms per hour, {per_hour * lit:.1f} s "
           f"for all hours; batched {seconds_stack:.2f} s: ratio "
           f"{per_hour * lit / seconds_stack:.0f}x")
+
+    layers_optics(light, temperature)
 
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / "triple.toml"

@@ -324,21 +324,29 @@ GAAS_ASPNES_1986 = {400: 6.74e5, 500: 1.07e5, 600: 4.83e4, 700: 2.52e4, 800: 1.3
 GAP_ASPNES_STUDNA_1983 = {400: 8.6e4, 500: 1.4e3}
 
 
-@pytest.mark.parametrize("name, table", [("Si", SILICON_GREEN_2008), ("GaAs", GAAS_ASPNES_1986),
-                                         ("GaP", GAP_ASPNES_STUDNA_1983)])
+@pytest.mark.parametrize("name, table", [("GaAs", GAAS_ASPNES_1986), ("GaP", GAP_ASPNES_STUDNA_1983)])
 def test_absorption_is_exact_at_tabulated_points(name, table):
     lam = np.array(list(table), dtype=float)
     np.testing.assert_allclose(alpha_per_cm(load_material(name), lam), list(table.values()), rtol=1e-9)
 
 
+def test_silicon_alpha_against_green_printed_to_three_figures():
+    # Si's table is Green's k (five figures, CC0 refractiveindex.info copy) with alpha = 4 pi k / lambda;
+    # Green prints alpha to three figures, so they agree to the rounding of the third figure (0.12 %
+    # at 600 nm: 4175 against 4.18e3)
+    lam = np.array(list(SILICON_GREEN_2008), dtype=float)
+    np.testing.assert_allclose(alpha_per_cm(load_material("Si"), lam), list(SILICON_GREEN_2008.values()),
+                               rtol=1.5e-3)
+
+
 def test_silicon_between_table_points():
-    # M. A. Green, Sol. Energy Mater. Sol. Cells 92 (2008) 1305, values at 550-1050 nm between the 100 nm
-    # points of the library's table (read from the public-domain refractiveindex.info copy of Green's table).
-    # Log-linear interpolation on a 100 nm grid stays within 12 % here (measured: +7 % at 550 nm,
-    # -11 % at 950 nm); it is worse at 450 nm (+33 %) and above 1100 nm (the model tail), not checked.
-    green = {550: 6.39e3, 850: 534.0, 950: 156.0, 1050: 16.3}
+    # M. A. Green, Sol. Energy Mater. Sol. Cells 92 (2008) 1305, values at 450-1050 nm that a 100 nm
+    # table missed (read from the public-domain refractiveindex.info copy of Green's table). The library
+    # now holds Green's 10 nm table, so these are its own points: within Green's three printed figures
+    # (the 100 nm table was +7 % at 550 nm, -11 % at 950 nm and +33 % at 450 nm)
+    green = {450: 2.41e4, 550: 6.39e3, 850: 534.0, 950: 156.0, 1050: 16.3}
     lam = np.array(list(green), dtype=float)
-    np.testing.assert_allclose(alpha_per_cm(load_material("Si"), lam), list(green.values()), rtol=0.12)
+    np.testing.assert_allclose(alpha_per_cm(load_material("Si"), lam), list(green.values()), rtol=2e-3)
 
 
 def test_silicon_two_gap_model_against_green():
@@ -366,7 +374,7 @@ def test_inp_parametric_model_against_aspnes_studna():
 
 
 @pytest.mark.parametrize("name, composition, wavelength_nm", [
-    ("GaAs", None, 950.0), ("Si", None, 1250.0), ("GaInP", 0.51, 700.0), ("AlInP", 0.52, 600.0),
+    ("GaAs", None, 950.0), ("Si", None, 1500.0), ("GaInP", 0.51, 700.0), ("AlInP", 0.52, 600.0),
     ("GaP", None, 600.0), ("AlGaAs", 0.3, 760.0)])
 def test_zero_below_the_edge(name, composition, wavelength_nm):
     assert alpha_per_cm(load_material(name, composition), wavelength_nm) == 0.0
@@ -412,8 +420,8 @@ def test_refractive_index():
     si = load_material("Si")
     # Green 2008: n = 3.940 at 600 nm, 3.572 at 1000 nm
     np.testing.assert_allclose(si.refractive_index([600.0, 1000.0]), [3.940, 3.572], atol=1e-9)
-    assert si.refractive_index(650.0) == pytest.approx(0.5 * (3.940 + 3.772))
-    assert si.refractive_index(2000.0) == pytest.approx(3.520)          # held at the last value
+    assert si.refractive_index(655.0) == pytest.approx(0.5 * (3.844 + 3.828))   # Green: 650, 660 nm
+    assert si.refractive_index(2000.0) == pytest.approx(3.485)          # held at the last value (1450 nm)
     # Aspnes et al. 1986: GaAs n = 3.683 at 800 nm
     assert load_material("GaAs").refractive_index(800.0) == pytest.approx(3.683)
     gainp = load_material("GaInP", 0.51)

@@ -210,8 +210,8 @@ def test_spectral_table_is_strict(name, hostile, tmp_path, capsys):
     # at the wavelengths where AM1.5G has no photons and with a scattering rear and front
     if name == "lambertian_triple.toml":
         (hostile / name).write_text((STACKS / "demo_triple_layers.toml").read_text().replace(
-            "back_reflectance = 0.9\n", 'back_reflectance = 1.0\nback_scattering = "lambertian"\n'
-            'front_scattering = "lambertian"\n'))
+            'back_reflectance = 0.9\nback_scattering = "lambertian"\n',
+            'back_reflectance = 1.0\nback_scattering = "lambertian"\nfront_scattering = "lambertian"\n'))
     summary, rows = _check_outputs(["run", _stack(name, hostile)], tmp_path, capsys,
                                    csv_option="--spectral")
     assert rows[0][:3] == ["wavelength_nm", "reflectance", "transmittance"]

@@ -61,11 +61,16 @@ srv_cm_s = 10
 """
 
 
+#: the demo triple's [optics] lines (an invented scattering rear), replaced by the tests' own
+DEMO_OPTICS = 'back_reflectance = 0.9\nback_scattering = "lambertian"\n'
+
+
 def _triple(tmp_path, optics="back_reflectance = 0.9\n", name="triple.toml"):
     """The invented demo triple (GaInP/GaAs on Si, two coatings), its [optics] replaced."""
     text = (STACKS / "demo_triple_layers.toml").read_text()
     path = tmp_path / name
-    path.write_text(text.replace("back_reflectance = 0.9\n", optics))
+    assert DEMO_OPTICS in text
+    path.write_text(text.replace(DEMO_OPTICS, optics))
     return path
 
 
@@ -102,7 +107,9 @@ def _g173_photon_flux():
 TRAPPING = {"specular": "back_reflectance = 0.9\n",
             "lambertian rear": 'back_reflectance = 0.9\nback_scattering = "lambertian"\n',
             "textured front, lambertian rear": 'back_reflectance = 0.95\nback_scattering = '
-                                               '"lambertian"\nfront_scattering = "lambertian"\n'}
+                                               '"lambertian"\nfront_scattering = "lambertian"\n',
+            "hazy front and rear": 'back_reflectance = 0.95\nback_scattering = "lambertian"\nback_haze = 0.6\n'
+                                   'front_scattering = "lambertian"\nfront_haze = 0.3\n'}
 
 
 @pytest.fixture(scope="module", params=list(TRAPPING))
@@ -122,7 +129,8 @@ def test_header_and_units(written):
     _, header, table, summary = written
     layers = ["top window", "top emitter", "top base", "upper tunnel p", "upper tunnel n",
               "middle window", "middle emitter", "middle base", "lower tunnel p",
-              "lower tunnel n", "nucleation", "silicon emitter", "silicon base"]
+              "lower tunnel n", "nucleation", "silicon emitter", "silicon emitter free carriers",
+              "silicon base", "silicon base free carriers"]     # doped Si: its free-carrier part apart
     assert header == (["wavelength_nm", "reflectance", "transmittance",
                        "coating upper coating.absorptance", "coating lower coating.absorptance"]
                       + [f"{name}.absorptance" for name in layers]
@@ -203,28 +211,37 @@ def _slab_optics(result):
     n = np.asarray(silicon.refractive_index(wavelength), dtype=float)
     tau = sum(np.asarray(m.absorption_per_m(wavelength, temperature_K=model.temperature_K))
               * layer.thickness_nm * 1e-9 for m, layer in zip(model.materials, model.layers))
-    k = np.asarray(silicon.absorption_per_m(wavelength, temperature_K=model.temperature_K)) \
+    # free carriers of the doped layers (laws.haze; majority density = doping)
+    free = sum(np.asarray(m.free_carrier_absorption_per_m(
+        wavelength, **{("electron_density_m3" if layer.polarity == "n" else "hole_density_m3"):
+                       layer.doping_cm3 * 1e6})) * layer.thickness_nm * 1e-9
+        for m, layer in zip(model.materials, model.layers))
+    top = model.layers[0]            # the front surface sees the top layer's alpha, its free carriers too
+    k = (np.asarray(silicon.absorption_per_m(wavelength, temperature_K=model.temperature_K))
+         + silicon.free_carrier_absorption_per_m(wavelength, electron_density_m3=top.doping_cm3 * 1e6)) \
         * wavelength * 1e-9 / (4 * np.pi)
     fresnel = np.abs((1 - (n + 1j * k)) / (1 + (n + 1j * k))) ** 2
-    return table, wavelength, n, tau, fresnel
+    return table, wavelength, n, tau, fresnel, free
 
 
 def test_transparent_range_gives_no_eqe_and_the_lossless_slab_sums(tmp_path):
-    # where alpha = 0 in every layer (Si beyond its absorption edge in the library) nothing is
-    # absorbed or collected (Beer-Lambert); a flat slab then reflects R_f + (1 - R_f)^2 R_b /
-    # (1 - R_b R_f) and transmits (1 - R_f)(1 - R_b) / (1 - R_b R_f) (incoherent multiple
-    # reflections, Born & Wolf sec. 1.6; R_f the normal-incidence Fresnel reflectance, 1.5.3)
+    # where the band-to-band alpha = 0 in every layer (Si beyond its absorption edge in the library)
+    # nothing is collected (Beer-Lambert); only the free carriers of the doped layers absorb, single
+    # pass P = exp(-tau_fca): a flat slab then reflects R_f + (1 - R_f)^2 R_b P^2 / (1 - R_b R_f P^2)
+    # and transmits (1 - R_f)(1 - R_b) P / (1 - R_b R_f P^2) (incoherent multiple reflections,
+    # Born & Wolf sec. 1.6; R_f the normal-incidence Fresnel reflectance, 1.5.3)
     result = run_stack(load_stack(_slab(tmp_path, "back_reflectance = 0.8")))
-    table, wavelength, n, tau, fresnel = _slab_optics(result)
+    table, wavelength, n, tau, fresnel, free = _slab_optics(result)
     clear = tau == 0
-    assert clear.sum() > 100 and wavelength[clear].min() > 1100
+    assert clear.sum() > 100 and wavelength[clear].min() > 1400
     for column in ("emitter.absorptance", "base.absorptance", "Si cell.eqe"):
         assert np.all(table[column].to_numpy()[clear] == 0), column
-    r_f, r_b = fresnel[clear], 0.8
+    assert np.all(table["emitter free carriers.absorptance"].to_numpy()[clear] > 0)
+    r_f, r_b, p = fresnel[clear], 0.8, np.exp(-free[clear])
     assert table["reflectance"].to_numpy()[clear] == pytest.approx(
-        r_f + (1 - r_f) ** 2 * r_b / (1 - r_b * r_f), rel=1e-12)
+        r_f + (1 - r_f) ** 2 * r_b * p * p / (1 - r_b * r_f * p * p), rel=1e-12)
     assert table["transmittance"].to_numpy()[clear] == pytest.approx(
-        (1 - r_f) * (1 - r_b) / (1 - r_b * r_f), rel=1e-12)
+        (1 - r_f) * (1 - r_b) * p / (1 - r_b * r_f * p * p), rel=1e-12)
     # where Si absorbs, its EQE is not 0 (the check above is not empty by construction)
     assert np.all(table["Si cell.eqe"].to_numpy()[(wavelength > 400) & (wavelength < 1000)] > 0.1)
 
@@ -237,12 +254,13 @@ def test_textured_slab_absorbs_greens_closed_form(tmp_path):
     result = run_stack(load_stack(_slab(tmp_path, f'back_reflectance = {back}\n'
                                         'back_scattering = "lambertian"\n'
                                         'front_scattering = "lambertian"')))
-    table, wavelength, n, tau, r_f = _slab_optics(result)
+    table, wavelength, n, tau, r_f, free = _slab_optics(result)
     weak = (wavelength >= 900) & (wavelength <= 1180) & (tau > 0)
-    t = 2 * expn(3, tau[weak])
+    t = 2 * expn(3, tau[weak] + free[weak])          # band-to-band and free carriers together
     r_fi = 1 - (1 - r_f[weak]) / n[weak] ** 2
     green = (1 - r_f[weak]) * (1 - t) * (1 + back * t) / (1 - back * r_fi * t * t)
-    absorbed = (table["emitter.absorptance"] + table["base.absorptance"]).to_numpy()[weak]
+    absorbed = sum(table[f"{layer}.absorptance"] for layer in (
+        "emitter", "emitter free carriers", "base", "base free carriers")).to_numpy()[weak]
     assert absorbed == pytest.approx(green, rel=1e-9)
     assert np.all(table["Si cell.eqe"].to_numpy()[weak] <= absorbed)
 

@@ -76,6 +76,9 @@ class LayerModel:
     #: "specular" or "lambertian" ([optics] back_scattering, front_scattering)
     back_scattering: str = "specular"
     front_scattering: str = "specular"
+    #: scattering fraction of a "lambertian" surface ([optics] back_haze, front_haze; 1 = ideal)
+    back_haze: float = 1.0
+    front_haze: float = 1.0
 
 
 def _material(layer):
@@ -300,7 +303,8 @@ def compile_layer_stack(stack):
                        stack.rules.get("back_reflectance", 0.0),
                        stack.rules.get("ambient_index", 1.0),
                        stack.rules.get("back_scattering", "specular"),
-                       stack.rules.get("front_scattering", "specular"))
+                       stack.rules.get("front_scattering", "specular"),
+                       stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0))
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
     return circuit.with_elements([], optics={"layer_details": details,
                                              "polarity": structure.polarity})

@@ -22,6 +22,7 @@ import numpy as np
 
 from siltandem.constants import BOLTZMANN_EV_K, HC_EV_NM, RICHARDSON_FREE_A_M2_K2
 from siltandem.laws.carriers import effective_density_of_states_per_m3
+from siltandem.laws.haze import free_carrier_absorption_per_m
 from siltandem.materials import models
 
 __all__ = ["Material", "MaterialError", "load_material", "list_materials", "describe_library"]
@@ -116,6 +117,8 @@ class Material:
     #: light-hole mass along [001] [m0] (Luttinger parameters where the data give them); the
     #: tunnelling mass of a p++ layer
     light_hole_mass_ratio: float = field(default=math.nan, compare=False)
+    #: free-carrier absorption coefficients ([free_carrier_absorption] of the data file) or None
+    _free_carriers: Mapping | None = field(default=None, compare=False, repr=False)
 
     # --- band edges -----------------------------------------------------------------------------------
     def valley_gaps_eV(self, temperature_K=REFERENCE_TEMPERATURE_K):
@@ -185,6 +188,20 @@ class Material:
     def refractive_index(self, wavelength_nm):
         """Real refractive index at ``wavelength_nm`` [nm]: linear in the table, held at its end values."""
         return np.interp(np.asarray(wavelength_nm, dtype=float), self._optics.index_nm, self._optics.index_n)
+
+    @property
+    def has_free_carrier_absorption(self):
+        """True if the data file gives free-carrier absorption coefficients."""
+        return self._free_carriers is not None
+
+    def free_carrier_absorption_per_m(self, wavelength_nm, *, electron_density_m3=0.0, hole_density_m3=0.0):
+        """Free-carrier absorption [m^-1] at ``wavelength_nm`` [nm] for the given free electron and hole
+        densities [m^-3] (laws.haze.free_carrier_absorption_per_m with the data file's coefficients);
+        zero where the data file gives none."""
+        if self._free_carriers is None:
+            return np.zeros(np.shape(wavelength_nm))
+        return free_carrier_absorption_per_m(wavelength_nm, electron_density_m3=electron_density_m3,
+                                             hole_density_m3=hole_density_m3, **self._free_carriers)
 
     def _absorption_300K_of_energy(self, energy_eV):
         optics = self._optics
@@ -498,9 +515,17 @@ def _optics_for(file_name, data):
         raise MaterialError(f"materials data file {file_name}: no [absorption.direct] or [absorption.indirect] "
                             f"model; add one (it is used outside any table)")
     index = _require(data, "refractive_index", file_name)
+    if "file" in index:
+        nk = _nk_file(file_name, index["file"], "refractive_index")
+        index = {"wavelength_nm": nk["wavelength_nm"], "n": nk["n"]}
     optics = _Optics(None, None, direct_spec, indirect_spec,
                      index_nm=np.asarray(_require(index, "wavelength_nm", file_name, "refractive_index"), float),
                      index_n=np.asarray(_require(index, "n", file_name, "refractive_index"), float))
+    if table is not None and "file" in table:
+        nk = _nk_file(file_name, table["file"], "absorption.table")
+        # alpha = 4 pi k / lambda [cm^-1] (M. Born, E. Wolf, Principles of Optics, 7th ed. (1999), sec. 14.1)
+        table = {"wavelength_nm": nk["wavelength_nm"],
+                 "alpha_per_cm": 4.0 * np.pi * nk["k"] / (nk["wavelength_nm"] * 1e-7)}
     if table is not None:
         lam = np.asarray(_require(table, "wavelength_nm", file_name, "absorption.table"), dtype=float)
         alpha = np.asarray(_require(table, "alpha_per_cm", file_name, "absorption.table"), dtype=float)
@@ -510,6 +535,43 @@ def _optics_for(file_name, data):
         optics = _Optics(lam, np.log(alpha * _PER_CM_TO_PER_M), direct_spec, indirect_spec,
                          index_nm=optics.index_nm, index_n=optics.index_n)
     return optics
+
+
+@functools.lru_cache(maxsize=16)
+def _nk_table(data_file):
+    """The columns of an n,k data file beside the TOML files (CSV, ``#`` comment lines, a header
+    ``wavelength_nm,n,k``): dict name -> float array; MaterialError if unreadable."""
+    entry = resources.files("siltandem.materials").joinpath(data_file)
+    try:
+        text = entry.read_text(encoding="utf-8")
+    except (FileNotFoundError, OSError) as exc:
+        raise MaterialError(f"materials data file {data_file}: cannot be read ({exc}); "
+                            f"put it beside the TOML files") from exc
+    lines = [line for line in text.splitlines() if line.strip() and not line.lstrip().startswith("#")]
+    header = [h.strip() for h in lines[0].split(",")] if lines else []
+    try:
+        values = np.array([[float(v) for v in line.split(",")] for line in lines[1:]], dtype=float)
+    except ValueError as exc:
+        raise MaterialError(f"materials data file {data_file}: a value is not a number ({exc}); "
+                            f"fix the file") from exc
+    if header != ["wavelength_nm", "n", "k"] or values.ndim != 2 or values.shape[1] != 3 or len(values) < 2:
+        raise MaterialError(f"materials data file {data_file}: needs a header line 'wavelength_nm,n,k' "
+                            f"and at least two rows of three numbers; fix the file")
+    columns = {name: values[:, i].copy() for i, name in enumerate(header)}
+    if np.any(np.diff(columns["wavelength_nm"]) <= 0) or np.any(columns["k"] <= 0) \
+            or np.any(columns["n"] <= 0):
+        raise MaterialError(f"materials data file {data_file}: needs increasing wavelength_nm and "
+                            f"positive n and k; fix the file")
+    for array in columns.values():
+        array.flags.writeable = False
+    return MappingProxyType(columns)
+
+
+def _nk_file(file_name, data_file, where):
+    if not isinstance(data_file, str) or not data_file.endswith(".csv"):
+        raise MaterialError(f"materials data file {file_name}: [{where}] key 'file' = {data_file!r} "
+                            f"is not the name of a .csv file beside it; fix the key")
+    return _nk_table(data_file)
 
 
 def _end_scales(material):
@@ -610,7 +672,11 @@ def _build_binary(family, file_name, data):
         hole_dos = (_require(dos, "valence_300K_per_cm3", file_name, where) * _PER_CM3_TO_PER_M3 / unit) ** (2 / 3)
     rich = data.get("richardson", {})
     mobility = _require(data, "mobility", file_name)
-    return _finish(
+    free = data.get("free_carrier_absorption")
+    if free is not None:
+        keys = ("electron_coefficient_cm2", "electron_exponent", "hole_coefficient_cm2", "hole_exponent")
+        free = MappingProxyType({k: float(_require(free, k, file_name, "free_carrier_absorption")) for k in keys})
+    return _replace(_finish(
         name=family, family=family, composition=None, formula=data.get("formula", family), valleys=valleys,
         hole_masses=hole_masses,
         affinity=_require(_require(data, "electron_affinity", file_name), "value_eV", file_name, "electron_affinity"),
@@ -619,7 +685,7 @@ def _build_binary(family, file_name, data):
         mobility=(_require(mobility, "electron_cm2_V_s", file_name, "mobility"),
                   _require(mobility, "hole_cm2_V_s", file_name, "mobility")),
         optics=_optics_for(file_name, data), sources=_sources(data), note=data.get("note", ""),
-        conduction_override=override, hole_dos_override=hole_dos)
+        conduction_override=override, hole_dos_override=hole_dos), _free_carriers=free)
 
 
 def _alloy_name(data, x):

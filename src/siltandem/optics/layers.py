@@ -4,13 +4,13 @@ light trapping, laws/thinfilm.py), collection by each subcell's layers, and the 
 
 The layer model comes from circuit.from_layers (compile_layer_stack); see its docstring.
 """
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from siltandem import units
 from siltandem.laws import collection
-from siltandem.laws import thinfilm
+from siltandem.laws import haze, thinfilm
 
 
 @dataclass(frozen=True)
@@ -22,13 +22,35 @@ class LayerLight:
     coating_absorbed: np.ndarray
     budget: object
     collected: list          # per subcell: CollectedPhotocurrent, per nm
+    #: per layer: the share of its absorption taken by free carriers (parasitic), or None
+    free_carrier_share: list = None
+
+
+def free_carrier_alphas(model, wavelength):
+    """Free-carrier absorption [m^-1] of every layer (its majority carriers = its doping; zero for a
+    material without free-carrier data), on ``wavelength`` [nm]."""
+    out = []
+    for layer, material in zip(model.layers, model.materials):
+        density = layer.doping_cm3 * units.PER_CM3_TO_PER_M3
+        carriers = {"electron_density_m3": density} if layer.polarity == "n" else {"hole_density_m3": density}
+        out.append(np.asarray(material.free_carrier_absorption_per_m(wavelength, **carriers), dtype=float))
+    return out
+
+
+def _share(part, total):
+    """part / total where total > 0, else 0."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(total > 0, part / np.where(total > 0, total, 1.0), 0.0)
 
 
 def layer_light(model, wavelength, flux):
     """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M)."""
     temperature = model.temperature_K
-    alphas = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
-              for m in model.materials]
+    band_to_band = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
+                    for m in model.materials]
+    free = free_carrier_alphas(model, wavelength)
+    alphas = [a + f for a, f in zip(band_to_band, free)]
+    free_share = [_share(f, a) for f, a in zip(free, alphas)]
     thicknesses = [layer.thickness_nm * 1e-9 for layer in model.layers]
     top = model.materials[0]
     substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(wavelength),
@@ -46,32 +68,48 @@ def layer_light(model, wavelength, flux):
     # light returning from inside sees the front surface as reflecting as much as from outside
     # (a lossless coating reflects alike from both sides: H. A. Macleod, Thin-Film Optical
     # Filters, ch. 2)
+    back_haze = model.back_haze if model.back_scattering == "lambertian" else 0.0
+    front_haze = model.front_haze if model.front_scattering == "lambertian" else 0.0
     trapping = {}
-    if (model.back_scattering, model.front_scattering) != ("specular", "specular"):
-        # scattered light: ideal Lambertian surfaces, the escape cone of the bottom layer's index
-        # (Snell through flat layers: n sin theta is kept, so the cone into the ambient is set by
-        # the medium the light is scattered in), generation uniform in each subcell
-        trapping = dict(back_scattering=model.back_scattering, front_scattering=model.front_scattering,
+    if back_haze > 0 or front_haze > 0:
+        # scattered light: ideal Lambertian surfaces (a fraction haze of each, laws/haze.py), the
+        # escape cone of the bottom layer's index (Snell through flat layers: n sin theta is kept, so
+        # the cone into the ambient is set by the medium the light is scattered in), generation
+        # uniform in each subcell
+        trapping = dict(back_haze=back_haze, front_haze=front_haze,
                         trapping_index=model.materials[-1].refractive_index(wavelength),
                         ambient_index=model.ambient_index)
-    budget = thinfilm.layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
-                                       front_reflectance=1.0 - transmittance,
-                                       back_reflectance=model.back_reflectance,
-                                       front_internal_reflectance=reflectance
-                                       if model.back_reflectance > 0 else 0.0, **trapping)
-    collected = [collection.collected_photocurrent(
-        alphas[cell.emitter], photon_flux_m2_s=budget.downward_at_top[cell.emitter],
+    budget = haze.hazy_layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
+                                        front_reflectance=1.0 - transmittance,
+                                        back_reflectance=model.back_reflectance,
+                                        front_internal_reflectance=reflectance
+                                        if model.back_reflectance > 0 else 0.0, **trapping)
+    collected = [_collected(cell, band_to_band, free, free_share, budget, bool(trapping))
+                 for cell in model.subcells]
+    return LayerLight(alphas, reflectance, coating_absorbed, budget, collected, free_share)
+
+
+def _collected(cell, band_to_band, free, free_share, budget, scattered):
+    """One subcell's collected photocurrent per nm. The collection law takes one alpha for emitter
+    and base: the emitter's band-to-band alpha plus the base's free-carrier alpha (the base is the
+    thick part). Free carriers absorb but make no pair: the generation is the band-to-band part
+    (the fluxes given to the collection law scaled by alpha_bb / alpha, the law being linear in
+    them), and of the scattered light absorbed in each layer only the band-to-band part counts."""
+    attenuation = band_to_band[cell.emitter] + free[cell.base]
+    keep = np.where(attenuation > 0, _share(band_to_band[cell.emitter], attenuation), 1.0)
+    uniform = 0.0
+    if scattered:
+        uniform = sum(budget.scattered_absorbed[j] * (1.0 - free_share[j]) for j in (cell.emitter, cell.base))
+    return collection.collected_photocurrent(
+        attenuation, photon_flux_m2_s=keep * budget.downward_at_top[cell.emitter],
         emitter_thickness_m=cell.emitter_thickness_m,
         emitter_diffusion_length_m=cell.emitter_length_m,
         emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
         front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
         base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
         base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
-        back_photon_flux_m2_s=budget.upward_at_bottom[cell.base],
-        uniform_absorbed_m2_s=budget.scattered_absorbed[cell.emitter]
-        + budget.scattered_absorbed[cell.base] if trapping else 0.0, where=cell.name)
-        for cell in model.subcells]
-    return LayerLight(alphas, reflectance, coating_absorbed, budget, collected)
+        back_photon_flux_m2_s=keep * budget.upward_at_bottom[cell.base],
+        uniform_absorbed_m2_s=uniform, where=cell.name)
 
 
 def illuminate_layers(circuit, spectrum):
@@ -88,14 +126,17 @@ def illuminate_layers(circuit, spectrum):
         """q * integral of a photon flux per nm over the table [A/m^2]."""
         return float(thinfilm.photon_current_A_m2(wavelength, per_nm))
 
-    lit, absorbed, collected_by = [], {}, {}
+    lit, absorbed, collected_by, parasitic = [], {}, {}, {}
     active = set()
     for cell, result in zip(model.subcells, light.collected):
         active.update({cell.emitter, cell.base})
         total = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
         photocurrent = float(np.trapezoid(total, wavelength))
-        absorbed[cell.name] = current(budget.absorbed[cell.emitter]
-                                                            + budget.absorbed[cell.base])
+        share = light.free_carrier_share
+        absorbed[cell.name] = current(sum(budget.absorbed[j] * (1.0 - share[j]) for j in (cell.emitter, cell.base)))
+        for j in (cell.emitter, cell.base):
+            if np.any(share[j] > 0):
+                parasitic[f"{model.layers[j].name} free carriers"] = current(budget.absorbed[j] * share[j])
         collected_by[cell.name] = {
             "emitter_mA_cm2": units.ma_cm2(float(np.trapezoid(result.emitter_A_m2, wavelength))),
             "depletion_mA_cm2": units.ma_cm2(float(np.trapezoid(result.depletion_A_m2,
@@ -105,7 +146,6 @@ def illuminate_layers(circuit, spectrum):
     incident = current(flux)
     reflected = current(reflectance * flux + budget.escaped)
     transmitted = current(budget.transmitted)
-    parasitic = {}
     for k, coating in enumerate(coatings):
         parasitic[f"coating {coating.name}"] = current(
             coating_absorbed[k] * flux)
@@ -152,3 +192,29 @@ def absorber_labels(model):
 def subcell_layers(model):
     """Indices of the layers that are some subcell's emitter or base (the rest is parasitic)."""
     return {index for cell in model.subcells for index in (cell.emitter, cell.base)}
+
+
+#: width of the temperature bins of :func:`layer_photocurrents_by_temperature` [K]
+TEMPERATURE_BIN_K = 1.0
+
+
+def layer_photocurrents_by_temperature(model, wavelength_nm, flux, temperature_K, *, bin_K=TEMPERATURE_BIN_K):
+    """Collected photocurrent [A/m^2] of every subcell for many spectra, each at its own temperature.
+
+    ``flux`` is (N, M) on ``wavelength_nm`` (M,), ``temperature_K`` (N,) or (N, 1); returns a list
+    (subcell order) of (N,) arrays. The layers' absorption follows each row's temperature
+    (``Material.absorption_per_m``); rows are grouped in bins of ``bin_K`` kelvin and each bin is
+    computed once at its mean temperature (a bin of 1 K moves the Si edge by about 0.3 meV, the
+    gap's slope of about -0.27 meV/K at 300 K).
+    """
+    wavelength = np.asarray(wavelength_nm, dtype=float)
+    flux = np.asarray(flux, dtype=float)
+    temperature = np.asarray(temperature_K, dtype=float).reshape(-1)
+    bins = np.floor(temperature / bin_K).astype(np.int64)
+    out = [np.zeros(temperature.size) for _ in model.subcells]
+    for key in np.unique(bins):
+        rows = np.flatnonzero(bins == key)
+        at = replace(model, temperature_K=float(np.mean(temperature[rows])))
+        for k, current in enumerate(layer_photocurrents(at, wavelength, flux[rows])):
+            out[k][rows] = current
+    return out

@@ -141,6 +141,13 @@ def spectral_bands_per_nm(result):
             bands.append((label, "parasitic", values))
         else:
             others = others + values
+    for column in table.columns:
+        if column.endswith(" free carriers.absorptance"):     # parasitic part of a subcell's layer
+            values = table[column].to_numpy()
+            if np.max(values) >= PARASITIC_BAND_MIN:
+                bands.append((column[:-len(".absorptance")], "parasitic", values))
+            else:
+                others = others + values
     if np.max(others) > 1e-9:
         bands.append((f"other layers (each < {PARASITIC_BAND_MIN:.0%})", "parasitic", others))
     bands += [("transmittance", "transmitted", table["transmittance"].to_numpy()),

@@ -13,7 +13,9 @@ divides them by the incident photon flux; nothing is solved again. Per wavelengt
 - ``transmittance``: light that reaches the back and is not returned (it leaves through the back
   or is lost in the back reflector);
 - ``<layer>.absorptance``: absorbed in that layer, all passes; coatings are labelled
-  ``coating <name>``, as in the summary's ``parasitic`` list;
+  ``coating <name>``, as in the summary's ``parasitic`` list; in a subcell's layer with
+  free-carrier absorption (doped Si) that part is its own column, ``<layer> free
+  carriers.absorptance`` (parasitic: it makes no pair), and ``<layer>.absorptance`` is the rest;
 - ``<subcell>.eqe``: collected electrons per incident photon (external quantum efficiency).
 
 reflectance + transmittance + the sum of the absorptances = 1 at every wavelength (the photon
@@ -33,7 +35,7 @@ import numpy as np
 from siltandem import units
 from siltandem.constants import ELEMENTARY_CHARGE_C
 from siltandem.errors import StackError
-from siltandem.optics.layers import absorber_labels
+from siltandem.optics.layers import absorber_labels, subcell_layers
 
 
 def _first(value):
@@ -60,8 +62,16 @@ def _fractions(model, light, flux):
     count = len(model.coatings)
     for k, label in enumerate(labels[:count]):
         columns[f"{label}.absorptance"] = _row(light.coating_absorbed[k], size)
+    share = light.free_carrier_share
+    split = subcell_layers(model) if share is not None else set()
     for j, label in enumerate(labels[count:]):
-        columns[f"{label}.absorptance"] = _row(budget.absorbed[j], size) / flux
+        absorbed = _row(budget.absorbed[j], size) / flux
+        if j in split and np.any(share[j] > 0):
+            free = absorbed * _row(share[j], size)
+            columns[f"{label}.absorptance"] = absorbed - free
+            columns[f"{label} free carriers.absorptance"] = free
+        else:
+            columns[f"{label}.absorptance"] = absorbed
     for cell, collected in zip(model.subcells, light.collected):
         columns[f"{cell.name}.eqe"] = _row(collected.collected_A_m2, size) / (
             ELEMENTARY_CHARGE_C * flux)

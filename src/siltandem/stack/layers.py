@@ -32,7 +32,7 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
-               "front_scattering": "specular"}
+               "front_scattering": "specular", "back_haze": 1.0, "front_haze": 1.0}
 #: the text keys of ``[optics]`` and their allowed values: how each surface reflects or lets light in
 SCATTERING_CHOICES = ("specular", "lambertian")
 #: shortest minority-carrier diffusion length and lifetime a layer may give: 1 nm (a few
@@ -346,10 +346,13 @@ def parse_optics(table, *, file):
     ``ambient_index`` (the medium in front: 1 for air, about 1.5 under glass or encapsulant),
     ``back_scattering`` ("specular", the default: a flat mirror; "lambertian": an ideal
     scattering rear of reflectance back_reflectance) and ``front_scattering`` ("specular": a flat
-    front; "lambertian": an ideally textured front, e.g. a stand-alone Si cell)."""
+    front; "lambertian": an ideally textured front, e.g. a stand-alone Si cell); ``back_haze`` and
+    ``front_haze`` (0..1, default 1, only with a "lambertian" surface): the fraction of that surface
+    that scatters, the rest flat (laws/haze.py)."""
     values = _settings(table, file=file, section="optics", defaults=OPTICS_KEYS,
                        ranges={"back_reflectance": ("", 0.0, 1.0, False),
-                               "ambient_index": ("", 1.0, 5.0, False)})
+                               "ambient_index": ("", 1.0, 5.0, False),
+                               "back_haze": ("", 0.0, 1.0, False), "front_haze": ("", 0.0, 1.0, False)})
     for key in ("back_scattering", "front_scattering"):
         if key not in table:
             continue
@@ -362,6 +365,14 @@ def parse_optics(table, *, file):
                              fix=close + f'write {key} = "specular" (flat) or {key} = "lambertian" '
                                  "(ideal scattering)")
         values[key] = value
+    for side in ("back", "front"):
+        if f"{side}_haze" in table and values[f"{side}_scattering"] != "lambertian":
+            raise StackError(f"{side}_haze is given but {side}_scattering is not \"lambertian\": the "
+                             "haze is the scattering fraction of a scattering surface", file=file,
+                             where=f"key optics.{side}_haze",
+                             fix=f'add {side}_scattering = "lambertian" (then {side}_haze = 0..1 is the '
+                                 f"fraction it scatters, the rest is reflected or let in as by a flat "
+                                 f"surface), or remove {side}_haze")
     if values["back_scattering"] == "lambertian" and values["back_reflectance"] == 0:
         raise StackError('back_scattering = "lambertian" with back_reflectance = 0: a rear that '
                          "reflects nothing scatters nothing", file=file,

@@ -32,6 +32,10 @@ stays as the file gives it unless the subcell is named in ``gap_materials``: its
 with the cell temperature as the library material's gap does (Varshni), by
 Eg(T) = gap_eV + Eg_material(T) - Eg_material(T_file), T_file the stack's ``temperature_K``.
 
+A layer stack's layer optics (absorption of every layer) follow each hour's cell temperature too,
+the hours grouped in 1 K bins (``optics.layers.layer_photocurrents_by_temperature``); its spectral
+mismatch factors use the optics at the stack's temperature, so they stay purely spectral.
+
 The same subcells are also solved all in one series string (two-terminal) and each on its own at
 its own maximum power point (four-terminal, no other element); the annual loss to current
 mismatch is the four-terminal energy minus the two-terminal energy.
@@ -195,19 +199,25 @@ def _hourly_gaps(subcells, laws, temperature, reference_K):
 
 def _layer_photocurrents(circuit, light, flux, reference, temperature):
     """A layer stack's photocurrents [A/m2] of every hour (the layers' optics and collection for
-    each hour's photon flux ``flux``) and under the reference spectrum, and the dark currents of
+    each hour's photon flux ``flux`` at the hour's cell temperature, binned to 1 K) and under the
+    reference spectrum (at the stack's temperature), and the dark currents of
     each hour's temperature (``dark_currents_at``): (photocurrents, spectral_only, reference,
     dark)."""
     from siltandem.circuit.from_layers import dark_currents_at
-    from siltandem.optics.layers import layer_photocurrents
+    from siltandem.optics.layers import layer_photocurrents, layer_photocurrents_by_temperature
 
+    # the layers' absorption follows each hour's cell temperature (1 K bins)
     photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
+                     layer_photocurrents_by_temperature(circuit.model, light.wavelength_nm, flux,
+                                                        temperature)]
+    # the purely spectral part (for the mismatch factors): the layers at the stack's temperature
+    spectral_only = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
                      layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
     on_grid = np.interp(light.wavelength_nm, reference.wavelength_nm, reference.photon_flux)
     reference_currents = [np.asarray(j, dtype=float) for j in layer_photocurrents(
         circuit.model, light.wavelength_nm, on_grid)]
     dark = dark_currents_at(circuit.model, circuit, temperature)
-    return photocurrents, photocurrents, reference_currents, dark
+    return photocurrents, spectral_only, reference_currents, dark
 
 
 def _element_photocurrents(subcells, gaps, laws, light, flux, reference):
