@@ -84,3 +84,160 @@ def test_bad_pandas_spectra_are_named(reference, change, message):
     with pytest.raises(StackError, match=message) as error:
         _quiet_run(load_stack(TRIPLE), spectrum=change(reference))
     assert error.value.where.startswith("spectrum") and error.value.fix
+
+
+# ------------------------------------------------------------------------------- weather
+SINGLE = """[conditions]
+temperature_K = 298.15
+[[element]]
+kind = "subcell"
+name = "cell"
+gap_eV = 1.34
+"""
+
+
+@pytest.fixture(scope="module")
+def single(tmp_path_factory):
+    path = tmp_path_factory.mktemp("single") / "single.toml"
+    path.write_text(SINGLE)
+    return load_stack(path)
+
+
+def _annual(stack, weather, **kwargs):
+    from siltandem import annual_yield
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return annual_yield(stack, weather, **kwargs)
+
+
+def _pvlib_poa(times, data, latitude, longitude, altitude, tilt, azimuth, albedo):
+    """Plane-of-array irradiance [W/m2] by pvlib alone, the sun at ``times``."""
+    sun = pvlib.solarposition.get_solarposition(times, latitude, longitude, altitude=altitude,
+                                                pressure=data["pressure"].to_numpy() * 100,
+                                                temperature=data["temp_air"].to_numpy())
+    airmass = pvlib.atmosphere.get_relative_airmass(sun["apparent_zenith"].to_numpy(),
+                                                    model="kastenyoung1989")
+    poa = pvlib.irradiance.get_total_irradiance(
+        tilt, azimuth, sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy(),
+        data["dni"].to_numpy(), data["ghi"].to_numpy(), data["dhi"].to_numpy(),
+        dni_extra=pvlib.irradiance.get_extra_radiation(np.asarray(times.day_of_year)),
+        airmass=airmass, albedo=albedo, model="perez")
+    return np.nan_to_num(np.asarray(poa["poa_global"], dtype=float)), sun
+
+
+def test_a_tmy2_file_through_pvlib(single):
+    """pvlib's TMY2 sample (Miami, WBAN 12839) read by pvlib.iotools.read_tmy2: the TMY2 manual
+    (Marion & Urban 1995, table 3-2) gives dry bulb and wind speed in tenths and irradiance in
+    Wh/m2 over the hour ending at the stamp (pvlib stamps its start). Our plane-of-array
+    irradiance of every lit hour equals pvlib's get_total_irradiance (Perez) with the sun at the
+    stamp + 30 min, to 1e-9."""
+    path = PVLIB_DATA / "12839.tm2"
+    data, meta = pvlib.iotools.read_tmy2(str(path))
+    year = _annual(single, str(path))
+    assert year.summary["weather"]["format"] == "TMY2"
+    frame = year.light.frame
+    rows = data.index.map(lambda t: t.replace(year=1990)).get_indexer(frame.index)
+    assert (rows >= 0).all()
+    np.testing.assert_allclose(frame["air_temperature_C"], data["DryBulb"].to_numpy()[rows] / 10,
+                               rtol=0, atol=1e-12)
+    np.testing.assert_allclose(frame["wind_speed_m_s"], data["Wspd"].to_numpy()[rows] / 10,
+                               rtol=0, atol=1e-12)
+    mapped = pd.DataFrame({"ghi": data["GHI"], "dni": data["DNI"], "dhi": data["DHI"],
+                           "temp_air": data["DryBulb"] / 10, "pressure": data["Pressure"]},
+                          index=data.index)
+    # the typical year placed in 1990, as the yield places every typical year
+    times = data.index.map(lambda t: t.replace(year=1990)) + pd.Timedelta(minutes=30)
+    poa, _ = _pvlib_poa(times, mapped, meta["latitude"],
+                        meta["longitude"], meta["altitude"], abs(meta["latitude"]), 180.0, 0.2)
+    np.testing.assert_allclose(frame["poa_W_m2"], poa[rows], rtol=1e-9, atol=1e-9)
+    # the hours left out are those whose middle has the sun down: under 0.2 % of the insolation
+    assert year.summary["annual_insolation_kWh_m2"] == pytest.approx(poa.sum() / 1000, rel=2e-3)
+
+
+def _write_epw(path, data, meta):
+    """An EPW file of TMY3 data, laid out as the EnergyPlus weather format prescribes: eight
+    header lines, then 35 comma-separated fields per hour, hour 1 being the hour ending at
+    01:00; pressure in Pa, precipitable water in mm, 999 where missing."""
+    header = [f"LOCATION,{meta['Name']},{meta['State']},USA,TMY3,{meta['USAF']},"
+              f"{meta['latitude']},{meta['longitude']},{meta['TZ']},{meta['altitude']}",
+              "DESIGN CONDITIONS,0", "TYPICAL/EXTREME PERIODS,0", "GROUND TEMPERATURES,0",
+              "HOLIDAYS/DAYLIGHT SAVINGS,No,0,0,0", "COMMENTS 1,written by a test",
+              "COMMENTS 2,", "DATA PERIODS,1,1,Data,Sunday, 1/ 1,12/31"]
+    stamps = data.index - pd.Timedelta(minutes=1)     # the hour ending at 24:00 is hour 24
+    lines = []
+    for t, row, stamp in zip(data.index, data.itertuples(), stamps):
+        hour = 24 if t.hour == 0 else t.hour
+        water = row.precipitable_water * 10 if row.precipitable_water > 0 else 999
+        albedo = row.albedo if 0 < row.albedo <= 1 else 999
+        fields = [1990, stamp.month, stamp.day, hour, 60, "?", row.temp_air, 0, 50,
+                  row.pressure * 100, 0, 0, 0, row.ghi, row.dni, row.dhi, 0, 0, 0, 0, 0,
+                  row.wind_speed, 0, 0, 0, 0, 9, 999999999, water, 0.1, 0, 88, albedo, 0, 0]
+        lines.append(",".join(str(f) for f in fields))
+    path.write_text("\n".join(header + lines) + "\n")
+
+
+def test_an_epw_file_through_pvlib_is_the_same_year_as_its_tmy3(single, tmp_path):
+    """The demo TMY3 year written as EPW (the EnergyPlus layout) and read back through
+    pvlib.iotools.read_epw: same hours (EPW hour 1 = the hour ending at 01:00), same sun, same
+    light, same energy, to 1e-12."""
+    tmy3 = PVLIB_DATA / "723170TYA.CSV"
+    data, meta = pvlib.iotools.read_tmy3(str(tmy3), coerce_year=1990, map_variables=True)
+    epw = tmp_path / "greensboro.epw"
+    _write_epw(epw, data, meta)
+    from_epw = _annual(single, str(epw))
+    from_tmy3 = _annual(single, str(tmy3))
+    assert from_epw.summary["weather"]["format"] == "EPW"
+    assert from_epw.summary["annual_energy_kWh_m2"] == pytest.approx(
+        from_tmy3.summary["annual_energy_kWh_m2"], rel=1e-12)
+    np.testing.assert_allclose(from_epw.light.frame["solar_zenith_deg"].to_numpy(),
+                               from_tmy3.light.frame["solar_zenith_deg"].to_numpy(), rtol=1e-12)
+
+
+def test_a_dataframe_is_the_same_year_as_its_file(single):
+    """pvlib's own read_tmy3 output given as a DataFrame (station in frame.attrs) is the same
+    year as the file."""
+    tmy3 = PVLIB_DATA / "723170TYA.CSV"
+    data, meta = pvlib.iotools.read_tmy3(str(tmy3), coerce_year=1990, map_variables=True)
+    frame = data[["ghi", "dni", "dhi", "temp_air", "wind_speed", "pressure",
+                  "precipitable_water", "albedo"]].copy()
+    frame.attrs.update(meta)
+    from_frame = _annual(single, frame)
+    from_file = _annual(single, str(tmy3))
+    assert from_frame.summary["weather"]["format"] == "DataFrame"
+    assert from_frame.summary["annual_energy_kWh_m2"] == pytest.approx(
+        from_file.summary["annual_energy_kWh_m2"], rel=1e-12)
+    # explicit station arguments, and the minimal columns (wind 1 m/s, standard pressure)
+    minimal = frame[["ghi", "dni", "dhi", "temp_air"]].copy()
+    year = read_weather(minimal, latitude=meta["latitude"], longitude=meta["longitude"],
+                        altitude_m=meta["altitude"])
+    assert (year.data["wind_speed"] == 1.0).all()
+    assert year.data["pressure"].iloc[0] == pytest.approx(
+        pvlib.atmosphere.alt2pres(meta["altitude"]) / 100, rel=1e-12)
+
+
+@pytest.mark.parametrize("change, message", [
+    (lambda f: f.tz_localize(None), "not a time zone aware DatetimeIndex"),
+    (lambda f: f.drop(columns="dhi"), r"no column\(s\) dhi"),
+    (lambda f: f.iloc[:4000], "covers 4000 of the 8760 hours"),
+    (lambda f: f.set_axis(f.index[0] + pd.to_timedelta(np.arange(len(f)) * 15, "min")),
+     "15 min apart"),
+    (lambda f: f.assign(ghi=f["ghi"] * 1000), "global horizontal irradiance outside"),
+])
+def test_bad_weather_frames_are_named(change, message):
+    data, meta = pvlib.iotools.read_tmy3(str(PVLIB_DATA / "723170TYA.CSV"), coerce_year=1990,
+                                         map_variables=True)
+    frame = data[["ghi", "dni", "dhi", "temp_air"]].copy()
+    with pytest.raises(StackError, match=message) as error:
+        read_weather(change(frame), latitude=meta["latitude"], longitude=meta["longitude"])
+    assert error.value.fix
+    with pytest.raises(StackError, match="no latitude"):
+        read_weather(frame)
+
+
+def test_an_unknown_weather_format_is_named(tmp_path):
+    path = tmp_path / "weather.txt"
+    path.write_text("station Somewhere\n2020-01-01,1,2\n")
+    with pytest.raises(StackError, match="cannot tell the weather file's format") as error:
+        read_weather(path)
+    assert "TMY3" in error.value.fix and "EPW" in error.value.fix

@@ -34,15 +34,16 @@ def add_yield_command(commands):
 
     parser = commands.add_parser(
         "yield", help="energy over a typical year from an hourly weather file",
-        description="Solve an element stack for every hour with sun of a TMY3 weather file: sun "
+        description="Solve a stack for every hour with sun of a TMY3, TMY2 or EPW weather file: sun "
                     "position, plane-of-array irradiance, a SPECTRL2 spectrum scaled to it and "
                     "the cell temperature, all hours in one batched solve. Prints the annual "
                     "energy, the energy-weighted efficiency, which subcell limits the current "
                     "for how long, two- against four-terminal wiring and a monthly table.")
     parser.add_argument("stack", help="stack file (.toml) with [[element]] tables")
-    parser.add_argument("--weather", required=True, metavar="FILE.csv|demo",
-                        help="TMY3 weather file (read with pvlib.iotools.read_tmy3); 'demo' is "
-                             "the Greensboro, NC file pvlib ships")
+    parser.add_argument("--weather", required=True, metavar="FILE|demo",
+                        help="TMY3, TMY2 or EPW weather file, the format told from its first "
+                             "lines (read with pvlib.iotools.read_tmy3, read_tmy2 or read_epw); "
+                             "'demo' is the Greensboro, NC TMY3 file pvlib ships")
     parser.add_argument("--tilt", metavar="DEG",
                         help="plane tilt from horizontal (default: the latitude)")
     parser.add_argument("--azimuth", metavar="DEG",

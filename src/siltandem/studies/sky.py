@@ -200,14 +200,15 @@ def _light_frame(data, middle, sun, parts, total, air_C, cell_C, fallback, rows)
 
 
 def _light_settings(*, tilt_deg, azimuth_deg, sky_model, albedo, scaling, ozone_atm_cm,
-                    aerosol_turbidity_500nm, mounting, parameters):
+                    aerosol_turbidity_500nm, mounting, parameters, middle_offset_min=-30.0):
     """What the hourly light assumed, for the JSON."""
     return {
         "tilt_deg": float(tilt_deg), "azimuth_deg": float(azimuth_deg), "sky_model": sky_model,
         "albedo": "from the weather file (0.2 where missing)" if albedo is None else float(albedo),
         "sun_position": "pvlib.solarposition.get_solarposition (NREL SPA) at the middle of each "
-                        "hour (time stamp - 30 min: TMY3 values are totals of the hour ending at "
-                        "the stamp), refraction from the hour's pressure and air temperature",
+                        f"hour (time stamp {middle_offset_min:+g} min: TMY3 stamps the end of "
+                        "the hour, pvlib's TMY2 and EPW readers its start), refraction from the "
+                        "hour's pressure and air temperature",
         "plane_of_array": f"pvlib.irradiance.get_total_irradiance, model {sky_model!r}, "
                           "airmass kastenyoung1989",
         "spectrum": "pvlib.spectrum.spectrl2 (Bird & Riordan) on the plane, 300-4000 nm; shape "
@@ -259,7 +260,7 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
     parameters = temperature_parameters(mounting)
     data = weather.data
     stamps = data.index
-    middle = stamps - pd.Timedelta(minutes=30)
+    middle = stamps + pd.Timedelta(minutes=weather.middle_offset_min)
     pressure_Pa = data["pressure"].to_numpy() * 100.0
     air_C = data["temp_air"].to_numpy()
     sun = sun_geometry(middle, latitude=weather.latitude, longitude=weather.longitude,
@@ -288,5 +289,6 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
     settings = _light_settings(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, sky_model=sky_model,
                                albedo=albedo, scaling=scaling, ozone_atm_cm=ozone_atm_cm,
                                aerosol_turbidity_500nm=aerosol_turbidity_500nm,
-                               mounting=mounting, parameters=parameters)
+                               mounting=mounting, parameters=parameters,
+                               middle_offset_min=weather.middle_offset_min)
     return HourlyLight(frame, wavelength, irradiance, clear, all_hours, settings)

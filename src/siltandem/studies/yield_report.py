@@ -125,10 +125,11 @@ def _subcell_rows(hourly, names, laws, tables, limiting_hours, limiting_share):
 
 def _weather_entry(weather, light, hourly):
     """The summary's ``weather`` entry: the file, its station and the hours it holds."""
-    return {"file": weather.source, "station": weather.station,
+    return {"file": weather.source, "format": weather.kind, "station": weather.station,
             "latitude_deg": weather.latitude, "longitude_deg": weather.longitude,
             "altitude_m": weather.altitude_m, "timezone_h": weather.timezone_h,
-            "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly))}
+            "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly)),
+            "middle_of_hour_from_stamp_min": weather.middle_offset_min}
 
 
 def _wiring_entry(stack, two, four):

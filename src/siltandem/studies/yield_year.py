@@ -1,12 +1,13 @@
 """Energy yield over a typical year: hourly sun, spectra, cell temperatures, one batched solve.
 
-For a TMY3-style weather file (read with ``pvlib.iotools.read_tmy3``) and a plane of array (tilt,
-azimuth), every hour with light gets:
+For a TMY3, TMY2 or EPW weather file (read with ``pvlib.iotools.read_tmy3``, ``read_tmy2`` or
+``read_epw``) or a DataFrame of hourly weather, and a plane of array (tilt, azimuth), every hour
+with light gets:
 
 1. **The sun.** Its position at the middle of the hour (``pvlib.solarposition.get_solarposition``,
    NREL SPA with refraction from the hour's pressure and air temperature). TMY3 irradiances are
    totals over the hour *ending* at the time stamp, so the middle of that hour is the stamp minus
-   30 minutes.
+   30 minutes; pvlib stamps TMY2 and EPW rows at the hour's start (plus 30 minutes).
 2. **The broadband plane-of-array irradiance** from the file's GHI, DNI and DHI
    (``pvlib.irradiance.get_total_irradiance``, Perez sky by default): direct, sky-diffuse and
    ground-reflected parts.
@@ -378,8 +379,14 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     ----------
     stack : Stack
         An element stack (``[[element]]``); layer stacks are not yet supported.
-    weather : Weather or str or Path
-        A :class:`Weather` or the path of a TMY3 file (``"demo"``: the one pvlib ships).
+    weather : Weather or str or Path or pandas.DataFrame
+        A :class:`Weather`, the path of a TMY3, TMY2 or EPW file (``"demo"``: the TMY3 file
+        pvlib ships), or a DataFrame of hourly weather with columns ``ghi``, ``dni``, ``dhi``
+        [W/m2], ``temp_air`` [degC] (optional ``wind_speed`` [m/s], ``pressure`` [mbar],
+        ``precipitable_water`` [cm], ``albedo``), a time zone aware index, and the station in
+        ``frame.attrs`` (``latitude``, ``longitude``, optional ``altitude`` [m] and ``stamps``:
+        "end" (default), "start" or "middle" of the hour); see
+        :func:`siltandem.materials.weather.read_weather`.
     tilt_deg : float, optional
         Plane tilt [deg]; default the latitude's magnitude (common practice, no source).
     azimuth_deg : float, optional
