@@ -235,9 +235,12 @@ def text_summary(result):
         lines.append(f"  file: {s['source_file']}")
     lines.append(f"  weather: {w['station']} ({w['latitude_deg']:.2f}, {w['longitude_deg']:.2f}),"
                  f" {w['hours_with_light']} of {w['hours']} hours with light")
-    lines.append(f"  plane: tilt {p['tilt_deg']:g} deg, azimuth {p['azimuth_deg']:g} deg, "
-                 f"{p['sky_model']} sky; cell temperature "
+    tracked = not str(s["method"].get("tracking", "fixed")).startswith("fixed")
+    lines.append(f"  plane: {'one-axis tracker, axis ' if tracked else ''}tilt {p['tilt_deg']:g} "
+                 f"deg, azimuth {p['azimuth_deg']:g} deg, {p['sky_model']} sky; cell temperature "
                  f"{s['method']['temperature_model']['parameters']} (SAPM)")
+    if s["method"].get("angle_losses", "none") != "none":
+        lines.append(f"  angle-of-incidence losses: {s['method']['angle_losses']} cover")
     lines.append("")
     wiring = s["wiring"]
     eff = s["energy_weighted_efficiency_pct"]
