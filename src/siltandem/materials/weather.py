@@ -135,7 +135,7 @@ def weather_format(path):
     if "," not in first and re.match(r"^\s*\d{5}\s+\S", first) and re.match(r"^\s*\d{8}", second):
         return "TMY2"
     raise StackError("cannot tell the weather file's format from its first lines (not TMY3, "
-                     f"TMY2 or EPW): {excerpt(first.strip(), 60)!r}", file=path,
+                     f"TMY2 or EPW): {excerpt(first.strip(), 60)}", file=path,
                      where="line 1", fix=_FORMAT_FIX)
 
 
