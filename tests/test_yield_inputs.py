@@ -338,6 +338,8 @@ def test_glass_diffuse_factors_on_a_tracker_interpolate_pvlib():
     ({"angle_losses": "ar-coating"}, "--angle-losses 'ar-coating' is not known"),
     ({"tracking": "one-axis", "max_rotation_deg": 120}, "--max-rotation 120"),
     ({"tracking": "one-axis", "ground_coverage": 1.5}, "--ground-coverage 1.5"),
+    ({"tracking": "one-axis", "max_rotation_deg": "wide"}, "--max-rotation 'wide' is not a num"),
+    ({"max_rotation_deg": 45}, "a tracker's setting, but the plane is fixed"),
 ])
 def test_bad_tracking_options_are_named(single, options, message):
     with pytest.raises(StackError, match=message) as error:

@@ -69,9 +69,9 @@ def add_yield_command(commands):
                         help="fixed plane (default) or a one-axis tracker with backtracking "
                              "(pvlib.tracking.singleaxis); with one-axis, --tilt and --azimuth "
                              "are the axis's (default 0 and 180: horizontal, north-south)")
-    parser.add_argument("--max-rotation", type=float, default=None, metavar="DEG",
+    parser.add_argument("--max-rotation", default=None, metavar="DEG",
                         help="the tracker's largest rotation from flat (default 60)")
-    parser.add_argument("--ground-coverage", type=float, default=None, metavar="RATIO",
+    parser.add_argument("--ground-coverage", default=None, metavar="RATIO",
                         help="the tracker rows' ground coverage ratio, for backtracking "
                              "(default 2/7, pvlib's)")
     parser.add_argument("--angle-losses", default="none", choices=ANGLE_LOSSES,
@@ -139,17 +139,17 @@ def run_yield(args):
     from siltandem.materials.hourly_spectra import measured_spectra
     from siltandem.studies.plane import check_tracking
 
-    check_tracking(args.tracking, 60.0 if args.max_rotation is None else args.max_rotation,
-                   0.5 if args.ground_coverage is None else args.ground_coverage,
-                   args.angle_losses)
+    check_tracking(args.tracking, args.max_rotation, args.ground_coverage, args.angle_losses)
     measured = (measured_spectra(args.measured_spectra) if args.measured_spectra else None)
     year = read_weather(args.weather)
     result = annual_yield(stack, year, tilt_deg=args.tilt, azimuth_deg=args.azimuth,
                           sky_model=args.sky_model, mounting=args.mounting, albedo=args.albedo,
                           scaling=args.scaling, gap_materials=gap_materials, eqe=eqe,
                           split_losses=args.split_losses, tracking=args.tracking,
-                          max_rotation_deg=args.max_rotation,
-                          ground_coverage=args.ground_coverage,
+                          max_rotation_deg=(None if args.max_rotation is None
+                                            else float(args.max_rotation)),
+                          ground_coverage=(None if args.ground_coverage is None
+                                           else float(args.ground_coverage)),
                           angle_losses=args.angle_losses, measured_spectra=measured)
     to_stdout_json = args.json == "-"
     notices = sys.stderr if to_stdout_json else sys.stdout

@@ -31,22 +31,32 @@ MARTIN_RUIZ_A_R = 0.16
 DIFFUSE_TILT_GRID_DEG = np.arange(0.0, 91.0, 5.0)
 
 
-def check_tracking(tracking, max_rotation_deg, ground_coverage, angle_losses):
-    """StackError naming the option for a tracking or angle-loss choice outside its range."""
+def check_tracking(tracking, max_rotation_deg=None, ground_coverage=None, angle_losses="none"):
+    """StackError naming the option for a tracking or angle-loss choice outside its range, or a
+    tracker setting given for a fixed plane (None: the default)."""
     for value, options, option in ((tracking, TRACKINGS, "--tracking"),
                                    (angle_losses, ANGLE_LOSSES, "--angle-losses")):
         if value not in options:
             raise StackError(f"{option} {value!r} is not known", where=option,
                              fix="one of " + ", ".join(options))
-    for value, low, high, option, what in (
-            (max_rotation_deg, 0.0, 90.0, "--max-rotation", "degrees, 0 < R <= 90"),
-            (ground_coverage, 0.0, 1.0, "--ground-coverage", "a ratio, 0 < R < 1")):
+    for value, option, what in (
+            (max_rotation_deg, "--max-rotation", "degrees, 0 < R <= 90"),
+            (ground_coverage, "--ground-coverage", "a ratio, 0 < R < 1")):
+        if value is None:
+            continue
+        if tracking == "fixed":
+            raise StackError(f"{option} is a tracker's setting, but the plane is fixed",
+                             where=option, fix="add --tracking one-axis, or leave it out")
         try:
             number = float(value)
         except (TypeError, ValueError):
             number = np.nan
-        if not (low < number <= high) or (option == "--ground-coverage" and number >= 1.0):
-            raise StackError(f"{option} {value!r} is outside its range", where=option,
+        if not np.isfinite(number):
+            raise StackError(f"{option} {value!r} is not a number", where=option,
+                             fix=f"give {what}")
+        high_ok = number <= 90.0 if option == "--max-rotation" else number < 1.0
+        if not (number > 0.0 and high_ok):
+            raise StackError(f"{option} {number:g} is outside its range", where=option,
                              fix=f"give {what}")
 
 

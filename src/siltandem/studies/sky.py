@@ -293,12 +293,12 @@ def hourly_light(weather, *, tilt_deg, azimuth_deg, sky_model="perez", mounting=
     from siltandem.studies.plane import (GROUND_COVERAGE, MAX_ROTATION_DEG, angle_factors,
                                          check_tracking, surface_orientation)
 
-    max_rotation_deg = MAX_ROTATION_DEG if max_rotation_deg is None else max_rotation_deg
-    ground_coverage = GROUND_COVERAGE if ground_coverage is None else ground_coverage
     check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, albedo=albedo)
     _check_choice(sky_model, SKY_MODELS, "--sky-model")
     _check_choice(scaling, SCALINGS, "--scaling")
     check_tracking(tracking, max_rotation_deg, ground_coverage, angle_losses)
+    max_rotation_deg = MAX_ROTATION_DEG if max_rotation_deg is None else float(max_rotation_deg)
+    ground_coverage = GROUND_COVERAGE if ground_coverage is None else float(ground_coverage)
     parameters = temperature_parameters(mounting)
     data = weather.data
     stamps = data.index

@@ -441,8 +441,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     from siltandem.materials.hourly_spectra import measured_spectra as checked_spectra
     from siltandem.studies.plane import check_tracking
 
-    check_tracking(tracking, 60.0 if max_rotation_deg is None else max_rotation_deg,
-                   0.5 if ground_coverage is None else ground_coverage, angle_losses)
+    check_tracking(tracking, max_rotation_deg, ground_coverage, angle_losses)
     if measured_spectra is not None:
         measured_spectra = checked_spectra(measured_spectra, where="argument measured_spectra")
     weather, tilt_deg, azimuth_deg = _weather_and_plane(weather, tilt_deg, azimuth_deg, tracking)
