@@ -428,3 +428,27 @@ def test_the_default_scaling_keeps_overcast_hours_within_observed_photon_energie
         found[scaling] = np.average(ape[overcast], weights=frame["poa_W_m2"].to_numpy()[overcast])
     assert 1.85 < found["total"] < 2.0
     assert found["components"] > 2.0
+
+
+def test_the_command_reads_tmy2_and_refuses_an_unknown_format(tmp_path, capsys):
+    from siltandem.cli.main import main
+    import json
+
+    stack = tmp_path / "single.toml"
+    stack.write_text(SINGLE)
+    out = tmp_path / "year.json"
+    assert main(["yield", str(stack), "--weather", str(PVLIB_DATA / "12839.tm2"),
+                 "--tracking", "one-axis", "--angle-losses", "martin-ruiz",
+                 "--json", str(out)]) == 0
+    written = json.loads(out.read_text())
+    assert written["weather"]["format"] == "TMY2"
+    assert written["weather"]["station"] == "MIAMI"
+    assert written["method"]["angle_losses"] == "martin-ruiz"
+    capsys.readouterr()
+    unknown = tmp_path / "weather.dat"
+    unknown.write_text("hello\nworld\n")
+    refused = tmp_path / "refused.json"
+    assert main(["yield", str(stack), "--weather", str(unknown), "--json", str(refused)]) == 2
+    err = capsys.readouterr().err
+    assert "cannot tell the weather file's format" in err and "Traceback" not in err
+    assert not refused.exists()
