@@ -87,7 +87,8 @@ def _check_whole_year(index, path, where="--weather"):
     if len(index) < HOURS_PER_YEAR:
         span = (f"{index[0]:%d %b %H:%M} to {index[-1]:%d %b %H:%M}" if len(index)
                 else "no hours")
-        raise StackError(f"the file covers {len(index)} of the {HOURS_PER_YEAR} hours of a year "
+        raise StackError(f"the {'file' if path else 'DataFrame'} covers {len(index)} of the "
+                         f"{HOURS_PER_YEAR} hours of a year "
                          f"({span}): a partial year is not an annual energy", file=path,
                          where=where,
                          fix="give a whole typical year (8760 hourly rows), e.g. --weather demo")
@@ -295,16 +296,19 @@ def read_weather(source, *, latitude=None, longitude=None, altitude_m=None, stam
 
 def _checked(data, meta, offset, station, path, kind, where, pvlib):
     """The common checks and fills of every source, then the :class:`Weather`."""
+    source = path
+    path = None if kind == "DataFrame" else path       # a frame is named by the argument
+    station_where = where if kind == "DataFrame" else "line 1"
     _check_whole_year(data.index, path, where)
     for key in ("latitude", "longitude"):
         if not np.isfinite(float(meta.get(key, np.nan))):
-            raise StackError(f"the station's {key} is missing", file=path, where="line 1",
-                             fix=_FORMAT_FIX)
+            raise StackError(f"the station's {key} is missing", file=path,
+                             where=station_where, fix=_FORMAT_FIX)
     for key, (low, high, unit) in STATION_RANGES.items():
         value = float(meta.get(key, 0.0))
         if not low <= value <= high:
             raise StackError(f"the station's {key} {value:g} {unit} is outside [{low:g}, "
-                             f"{high:g}] {unit}", file=path, where="line 1",
+                             f"{high:g}] {unit}", file=path, where=station_where,
                              fix="check the station of the weather (its latitude, longitude "
                                  "and altitude)")
     for column, (low, high, unit, what) in WEATHER_RANGES.items():
@@ -332,4 +336,4 @@ def _checked(data, meta, offset, station, path, kind, where, pvlib):
     standard_mbar = pvlib.atmosphere.alt2pres(altitude) / 100
     frame["pressure"] = frame["pressure"].where(frame["pressure"] > 100, standard_mbar)
     return Weather(frame, float(meta["latitude"]), float(meta["longitude"]), altitude,
-                   float(meta.get("TZ", 0.0)), station.strip('" '), str(path), offset, kind)
+                   float(meta.get("TZ", 0.0)), station.strip('" '), str(source), offset, kind)
