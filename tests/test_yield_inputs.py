@@ -192,6 +192,16 @@ def test_an_epw_file_through_pvlib_is_the_same_year_as_its_tmy3(single, tmp_path
         from_tmy3.summary["annual_energy_kWh_m2"], rel=1e-12)
     np.testing.assert_allclose(from_epw.light.frame["solar_zenith_deg"].to_numpy(),
                                from_tmy3.light.frame["solar_zenith_deg"].to_numpy(), rtol=1e-12)
+    # pvlib's read_epw output as a DataFrame: it stamps the hour's start
+    data, meta = pvlib.iotools.read_epw(str(epw), coerce_year=1990)
+    frame = data[["ghi", "dni", "dhi", "temp_air", "wind_speed", "albedo"]].copy()
+    frame["pressure"] = data["atmospheric_pressure"] / 100.0
+    frame["precipitable_water"] = data["precipitable_water"] / 10.0
+    frame.attrs.update(meta)
+    frame.attrs["stamps"] = "start"
+    from_frame = _annual(single, frame)
+    assert from_frame.summary["annual_energy_kWh_m2"] == pytest.approx(
+        from_tmy3.summary["annual_energy_kWh_m2"], rel=1e-12)
 
 
 def test_a_dataframe_is_the_same_year_as_its_file(single):
