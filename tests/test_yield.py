@@ -459,7 +459,7 @@ def test_bad_quantum_efficiency_files(tmp_path, text, message):
 def test_bad_weather_file(tmp_path):
     path = tmp_path / "weather.csv"
     path.write_text("not,a,tmy3\n1,2,3\n")
-    with pytest.raises(StackError, match="cannot read it as a TMY3 file"):
+    with pytest.raises(StackError, match="cannot tell the weather file's format"):
         weather_files.read_weather(path)
     with pytest.raises(StackError, match="weather file not found"):
         weather_files.read_weather(tmp_path / "missing.csv")

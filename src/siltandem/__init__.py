@@ -14,7 +14,9 @@ The public API, loaded on first use (``import siltandem`` imports neither numpy 
     result.spectral_table(); siltandem.plot_spectral(result)   # layer stacks: per wavelength
 
 Studies: ``design_map``, ``match_currents`` (with ``parse_vary`` to name what varies),
-``rank_placements``, ``loss_waterfall``, ``annual_yield`` (with ``read_weather``). Bad input raises
+``rank_placements``, ``loss_waterfall``, ``annual_yield`` (with ``read_weather``: TMY3, TMY2, EPW
+files or a pandas DataFrame). A ``spectrum=`` argument takes a name, a CSV path or a pandas Series
+indexed by wavelength in nm (pvlib's own spectra). Bad input raises
 ``siltandem.StackError`` (a ValueError with ``file``, ``where``, ``problem`` and ``fix``). What a
 result's ``warnings`` list holds is also issued as a ``siltandem.ModelWarning`` (a UserWarning).
 """

@@ -244,13 +244,81 @@ def read_spectrum_csv(path, *, where=None):
     return Spectrum(str(path), f"user spectrum {path.name}", wavelength, irradiance)
 
 
+#: how a pandas spectrum is given, for the messages of one that is not
+_PANDAS_FIX = ("give a pandas Series of spectral irradiance [W/m2/nm] indexed by wavelength [nm] "
+               "(e.g. pvlib.spectrum.get_reference_spectra()['global']), or a DataFrame with "
+               "columns wavelength_nm and irradiance_W_m2_nm")
+
+
+def is_spectrum_object(value):
+    """Whether ``value`` is a spectrum given as an object (a :class:`Spectrum`, a pandas Series
+    or DataFrame) rather than a name or a path."""
+    import sys
+
+    pandas = sys.modules.get("pandas")
+    return isinstance(value, Spectrum) or (
+        pandas is not None and isinstance(value, (pandas.Series, pandas.DataFrame)))
+
+
+def spectrum_from_pandas(value, *, where="argument spectrum"):
+    """A :class:`Spectrum` from a pandas Series indexed by wavelength [nm] (pvlib's spectra, e.g.
+    a column of ``pvlib.spectrum.get_reference_spectra()``, a row of ``spectrl2``'s output
+    turned into a Series), a one-column DataFrame indexed by wavelength, or a DataFrame with
+    columns ``wavelength_nm`` and ``irradiance_W_m2_nm``; checked as a spectrum CSV is (positive,
+    increasing nm, not micrometres, no negative or non-finite value, a plausible total)."""
+    import pandas as pd
+
+    label = where
+    if isinstance(value, pd.DataFrame):
+        columns = [str(c).strip() for c in value.columns]
+        if "wavelength_nm" in columns and "irradiance_W_m2_nm" in columns:
+            frame = value.set_axis(columns, axis=1)
+            wavelength = frame["wavelength_nm"]
+            irradiance = frame["irradiance_W_m2_nm"]
+            name = "DataFrame"
+        elif len(columns) == 1:
+            wavelength, irradiance = value.index, value.iloc[:, 0]
+            name = f"DataFrame column {columns[0]!r}"
+        else:
+            raise StackError(f"a DataFrame with columns {excerpt(', '.join(columns), 80)}: "
+                             "cannot tell which one is the spectrum", where=where,
+                             fix="pass one column, e.g. frame['global'] of pvlib's "
+                                 "get_reference_spectra(); " + _PANDAS_FIX)
+    else:
+        wavelength, irradiance = value.index, value
+        name = f"Series {value.name!r}" if value.name is not None else "Series"
+    wavelength = pd.to_numeric(pd.Series(np.asarray(wavelength)), errors="coerce").to_numpy(
+        dtype=float)
+    irradiance = pd.to_numeric(pd.Series(np.asarray(irradiance)), errors="coerce").to_numpy(
+        dtype=float)
+    for what, values in (("wavelengths (the index)", wavelength), ("irradiance", irradiance)):
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            raise StackError(f"{bad.size} {what} not finite numbers (first at row {bad[0]})",
+                             where=where, fix=_PANDAS_FIX)
+    try:
+        _check_wavelengths(wavelength, label)
+        _check_irradiance(wavelength, irradiance, label)
+    except StackError as exc:   # the CSV checks name file lines; here rows of the object
+        inner = exc.where
+        if inner and inner.startswith("line "):
+            inner = f"row {int(inner.split()[1]) - 2}"
+        elif inner == "column wavelength_nm":
+            inner = "the wavelengths"
+        raise StackError(exc.problem, where=where if inner is None else f"{where}: {inner}",
+                         fix=exc.fix) from None
+    return Spectrum(f"pandas {name}", f"pandas {name}, {wavelength[0]:g}-{wavelength[-1]:g} nm",
+                    wavelength, irradiance)
+
+
 def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None, origin=None):
-    """A spectrum by name (``am1.5g``, ``am1.5d``, ``am0``) or CSV path, times ``suns``.
+    """A spectrum by name (``am1.5g``, ``am1.5d``, ``am0``), CSV path or object, times ``suns``.
 
     Parameters
     ----------
-    name_or_path : str or Path
-        A name from ``data/spectra.toml`` (case-insensitive) or a CSV path.
+    name_or_path : str or Path or Spectrum or pandas.Series or pandas.DataFrame
+        A name from ``data/spectra.toml`` (case-insensitive), a CSV path, or a spectrum object
+        (:func:`spectrum_from_pandas` says which pandas forms).
     suns : float
         Concentration [-], > 0.
     relative_to : Path, optional
@@ -260,6 +328,10 @@ def get_spectrum(name_or_path, *, suns=1.0, relative_to=None, where=None, origin
     origin : str, optional
         The stack file that named the spectrum: errors about the name itself name that file.
     """
+    if is_spectrum_object(name_or_path):
+        spectrum = (name_or_path if isinstance(name_or_path, Spectrum) else
+                    spectrum_from_pandas(name_or_path, where=where or "argument spectrum"))
+        return spectrum.concentrated(suns) if suns != spectrum.suns else spectrum
     key = str(name_or_path).strip()
     _, names = _catalogue()
     if key.lower() in names:

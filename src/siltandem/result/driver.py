@@ -11,7 +11,7 @@ from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.kernels import notice_compiling
 from siltandem.solve.series import solve_string
-from siltandem.materials.spectra import get_spectrum
+from siltandem.materials.spectra import get_spectrum, is_spectrum_object
 from siltandem.result.record import Result, curve_table, first_value
 from siltandem.errors import ModelWarning
 from siltandem.result.summary import missing_value_warnings, summarise
@@ -40,9 +40,11 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     ----------
     stack : Stack
         From :func:`siltandem.stack.load_stack`.
-    spectrum : str, optional
-        Override of ``[conditions] spectrum`` (a name or a CSV path, relative to the working
-        folder when given here).
+    spectrum : str or pandas.Series or pandas.DataFrame or Spectrum, optional
+        Override of ``[conditions] spectrum``: a name, a CSV path (relative to the working
+        folder when given here), or a spectrum in memory (a Series of W/m2/nm indexed by
+        wavelength in nm, e.g. ``pvlib.spectrum.get_reference_spectra()["global"]``; see
+        :func:`siltandem.materials.spectra.spectrum_from_pandas`).
     suns : float, optional
         Override of ``[conditions] suns``.
     temperature_K : float, optional
@@ -71,6 +73,8 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     light = get_spectrum(conditions.spectrum, suns=conditions.suns, relative_to=relative_to,
                          where="spectrum" if spectrum is not None else "key conditions.spectrum",
                          origin=None if spectrum is not None else stack.source)
+    if is_spectrum_object(conditions.spectrum):    # the JSON names an object by its label
+        conditions = replace(conditions, spectrum=light.name)
     circuit = compile_stack(replace(stack, conditions=conditions))
     circuit = illuminate(circuit, light)
     temperature = conditions.temperature_K

@@ -7,7 +7,7 @@ edited file is never answered from old results.
 """
 from pathlib import Path
 
-from siltandem.materials.spectra import is_standard_spectrum
+from siltandem.materials.spectra import is_spectrum_object, is_standard_spectrum
 
 
 def package_inputs():
@@ -26,7 +26,7 @@ def package_inputs():
 
 def spectrum_input(name, relative_to=None):
     """(what, path) of the file a spectrum name or path makes the run read, or None."""
-    if name is None:
+    if name is None or is_spectrum_object(name):   # an object in memory reads no file
         return None
     key = str(name).strip()
     if is_standard_spectrum(key):    # a standard table, read through pvlib

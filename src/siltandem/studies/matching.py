@@ -102,7 +102,7 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
 
     from siltandem.studies.sweep import with_values
     from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import read_weather
+    from siltandem.materials.weather import Weather, read_weather
 
     if stack.layers:
         from siltandem.errors import StackError
@@ -110,7 +110,7 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
         raise StackError("ranking by energy needs an element stack (the yield year of a layer "
                          "stack is not yet supported)", file=stack.source,
                          fix="rank by efficiency, or describe the stack with [[element]] tables")
-    year = read_weather(weather) if isinstance(weather, str) else weather
+    year = weather if isinstance(weather, Weather) else read_weather(weather)
     energies = []
     values = table[variation.column].to_numpy()
     for k, value in enumerate(values):

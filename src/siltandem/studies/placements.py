@@ -178,11 +178,11 @@ def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, az
     import sys
 
     from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import read_weather
+    from siltandem.materials.weather import Weather, read_weather
 
     candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
     by_name = {c.name: c for c in candidates}
-    year = read_weather(weather) if isinstance(weather, str) else weather
+    year = weather if isinstance(weather, Weather) else read_weather(weather)
     energies = []
     for k, name in enumerate(table["placement"]):
         if not np.isfinite(table["efficiency_pct"].iloc[k]):

@@ -18,7 +18,7 @@ from siltandem.files import file_digest
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.kernels import notice_compiling
 from siltandem.solve.series import solve_string
-from siltandem.materials.spectra import get_spectrum
+from siltandem.materials.spectra import get_spectrum, is_spectrum_object
 from siltandem.stack.inputs import spectrum_input
 from siltandem.stack.schema import (ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values,
                                     check_number, suggest)
@@ -367,6 +367,8 @@ def _spectrum_cached(name, suns, folder, content):
 
 
 def _spectrum(name, suns, folder):
+    if is_spectrum_object(name):     # a Spectrum or pandas object: nothing to read or cache
+        return get_spectrum(name, suns=suns)
     # keyed by the CSV's content too: a file edited between two studies of one process is read
     # again, never answered from the cache
     found = spectrum_input(name, folder)

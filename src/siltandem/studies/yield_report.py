@@ -125,10 +125,11 @@ def _subcell_rows(hourly, names, laws, tables, limiting_hours, limiting_share):
 
 def _weather_entry(weather, light, hourly):
     """The summary's ``weather`` entry: the file, its station and the hours it holds."""
-    return {"file": weather.source, "station": weather.station,
+    return {"file": weather.source, "format": weather.kind, "station": weather.station,
             "latitude_deg": weather.latitude, "longitude_deg": weather.longitude,
             "altitude_m": weather.altitude_m, "timezone_h": weather.timezone_h,
-            "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly))}
+            "hours": int(len(light.all_hours)), "hours_with_light": int(len(hourly)),
+            "middle_of_hour_from_stamp_min": weather.middle_offset_min}
 
 
 def _wiring_entry(stack, two, four):
@@ -234,9 +235,12 @@ def text_summary(result):
         lines.append(f"  file: {s['source_file']}")
     lines.append(f"  weather: {w['station']} ({w['latitude_deg']:.2f}, {w['longitude_deg']:.2f}),"
                  f" {w['hours_with_light']} of {w['hours']} hours with light")
-    lines.append(f"  plane: tilt {p['tilt_deg']:g} deg, azimuth {p['azimuth_deg']:g} deg, "
-                 f"{p['sky_model']} sky; cell temperature "
+    tracked = not str(s["method"].get("tracking", "fixed")).startswith("fixed")
+    lines.append(f"  plane: {'one-axis tracker, axis ' if tracked else ''}tilt {p['tilt_deg']:g} "
+                 f"deg, azimuth {p['azimuth_deg']:g} deg, {p['sky_model']} sky; cell temperature "
                  f"{s['method']['temperature_model']['parameters']} (SAPM)")
+    if s["method"].get("angle_losses", "none") != "none":
+        lines.append(f"  angle-of-incidence losses: {s['method']['angle_losses']} cover")
     lines.append("")
     wiring = s["wiring"]
     eff = s["energy_weighted_efficiency_pct"]
