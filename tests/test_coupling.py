@@ -211,3 +211,43 @@ def test_four_terminal_coupling_crosses_strings(tmp_path):
     assert rows["bottom"]["coupled_mA_cm2"] == pytest.approx(expected, rel=1e-12)
     assert coupled.solutions[0].mpp_W_m2[0] == four.solutions[0].mpp_W_m2[0]
     assert coupled.solutions[1].mpp_W_m2[0] > four.solutions[1].mpp_W_m2[0]
+
+
+def test_eqe_artefact_correction_recovers_the_true_eqe_by_construction():
+    # Friedman, Geisz, Steiner, IEEE J. Photovolt. 3 (2013) 1429 (from memory): the artefact
+    # in the lower subcell's measured EQE. The "measurement" is simulated here with the coupled
+    # solver itself (light bias, string at short circuit, a small probe per wavelength), so the
+    # true EQEs are known by construction; the helper must recover the lower one.
+    from siltandem.laws.luminescent import coupling_corrected_eqe, differential_coupling_efficiency
+
+    wavelength = np.arange(400.0, 1101.0, 50.0)
+    edge = 1239.84 / 1.6
+    eqe_top = np.where(wavelength < edge, 0.9, 0.0)                  # invented spectra
+    eqe_bottom = np.where(wavelength < edge, 0.05, np.where(wavelength < 1100, 0.85, 0.2))
+    probe = 1e-3                                                     # q Phi [A/m^2]
+
+    def string(top_jph, bottom_jph):
+        top = Subcell("top", batch(1.6), ere=batch(0.3), j02_A_m2=batch(1e-10),
+                      series_ohm_m2=batch(0.2e-4),
+                      luminescent_coupling=batch(0.7)).with_photocurrent(top_jph)
+        bottom = Subcell("bottom", batch(1.12), ere=batch(0.01)).with_photocurrent(bottom_jph)
+        return [top, bottom]
+
+    def measured(top_bias, bottom_bias):
+        base = solve_string(string(top_bias, bottom_bias), T).jsc_A_m2[0]
+        lit = solve_string(string(top_bias + probe * eqe_top, bottom_bias + probe * eqe_bottom),
+                           T).jsc_A_m2
+        return (lit - base) / probe, base
+
+    bottom_measured, jsc = measured(250.0, 180.0)       # bias: the bottom limits
+    top_measured, _ = measured(250.0, 320.0)            # bias: the top limits
+    assert top_measured == pytest.approx(eqe_top, abs=1e-6)
+    artefact = bottom_measured - eqe_bottom
+    assert np.all(artefact[wavelength < edge] > 0.01)   # the spurious response is there
+    top = string(250.0, 180.0)[0]
+    eta = differential_coupling_efficiency(
+        0.7, j0_radiative_A_m2=float(radiative_saturation_current(1.6, temperature_K=T)),
+        j01_A_m2=top.j01_A_m2(T), j02_A_m2=1e-10,
+        v_junction_V=top.junction_voltage_at(batch(jsc), T), temperature_K=T)
+    corrected = coupling_corrected_eqe(top_measured, bottom_measured, eta[0, 0])
+    assert corrected == pytest.approx(eqe_bottom, abs=1e-6)
