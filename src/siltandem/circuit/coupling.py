@@ -34,15 +34,22 @@ from siltandem.laws import diode
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.numerics.roots import bracketed_root
 
-#: Newton steps of the pilot's coupled current before giving up (NaN)
-PILOT_ITERATIONS = 60
+#: Newton steps of the pilot's coupled current at most (it converges quadratically: 3-4)
+PILOT_ITERATIONS = 30
+#: step, relative to |J| + Jph + ΔJ, at which the pilot's coupled current has converged: the
+#: source's voltage is known to its inverse's tolerance (1e-13 V), which leaves the emission
+#: uncertain by more
+PILOT_RTOL = 1e-14
 
 
 def radiative_limit_A_m2(subcell, temperature_K):
     """J0,rad [A/m^2] of a subcell's gap at ``temperature_K``: the radiative part of its
     recombination (also where the layer physics fixed J01 itself)."""
-    return radiative_saturation_current(subcell.gap_eV, temperature_K=temperature_K,
-                                        absorptance=subcell.absorptance)
+    key = ("radiative limit", np.asarray(temperature_K, dtype=float).tobytes())
+    if key not in subcell._cache:
+        subcell._cache[key] = radiative_saturation_current(
+            subcell.gap_eV, temperature_K=temperature_K, absorptance=subcell.absorptance)
+    return subcell._cache[key]
 
 
 def emission_A_m2(subcell, v_junction_V, temperature_K):
@@ -107,6 +114,8 @@ class CoupledSubcell(Subcell):
         shift, dshift = self.coupled_current(base, temperature_K)
         low, high = base.copy(), base + shift
         current = high.copy()
+        # the scale of the currents involved (near open circuit J itself is near zero)
+        scale = np.abs(self.photocurrent_A_m2) + shift
         for _ in range(PILOT_ITERATIONS):
             shift, dshift = self.coupled_current(current, temperature_K)
             g = current - base - shift
@@ -117,7 +126,7 @@ class CoupledSubcell(Subcell):
             inside = (step >= low) & (step <= high)
             new = np.where(inside, step, 0.5 * (low + high))
             done = (new == current) | ~np.isfinite(new) | (
-                np.abs(new - current) <= 4e-16 * np.abs(current) + 1e-300)
+                np.abs(new - current) <= PILOT_RTOL * (np.abs(current) + scale))
             current = new
             if np.all(done):
                 break
