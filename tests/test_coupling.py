@@ -251,3 +251,46 @@ def test_eqe_artefact_correction_recovers_the_true_eqe_by_construction():
         v_junction_V=top.junction_voltage_at(batch(jsc), T), temperature_K=T)
     corrected = coupling_corrected_eqe(top_measured, bottom_measured, eta[0, 0])
     assert corrected == pytest.approx(eqe_bottom, abs=1e-6)
+
+
+def test_map_and_match_vary_the_coupling(tmp_path):
+    # each row of a map is the main job on that design (the main job, common practice): the
+    # batched study with luminescent_coupling varied agrees with run-by-run results
+    from siltandem import design_map, match_currents, parse_vary
+
+    path = tmp_path / "dual.toml"
+    path.write_text(DUAL.format(coupling="ere = 0.3", terminals=2, bottom_string=1).replace(
+        'gap_eV = 1.12', 'gap_eV = 1.12\nere = 0.01'))
+    stack = load_stack(path)
+    coupling = parse_vary("top.luminescent_coupling=0:1:3", stack)
+    gap = parse_vary("top.gap_eV=1.6:1.7:2", stack)
+    table = design_map(stack, coupling, gap, progress=False)
+    for _, row in table.iterrows():
+        text = path.read_text().replace("ere = 0.3", f"ere = 0.3\nluminescent_coupling = "
+                                        f"{row['top.luminescent_coupling']!r}").replace(
+            "gap_eV = 1.6\n", f"gap_eV = {row['top.gap_eV']!r}\n")
+        one = tmp_path / "one.toml"
+        one.write_text(text)
+        alone = compute_result(load_stack(one), curve_points=21).summary["efficiency_pct"]
+        assert row["efficiency_pct"] == pytest.approx(alone, rel=1e-9)
+    at_16 = table[table["top.gap_eV"] == 1.6].sort_values("top.luminescent_coupling")
+    assert at_16["efficiency_pct"].is_monotonic_increasing
+    sweep, _ = match_currents(stack, coupling, progress=False)
+    assert len(sweep) == 3
+
+
+def test_waterfall_coupling_gain_is_the_uncoupled_stack(tmp_path):
+    # the waterfall's rule (each step = the stack solved again without that loss): the
+    # coupling-gain step is the main job on the same file without the key, a gain (negative)
+    from siltandem import loss_waterfall
+
+    coupled = _dual(tmp_path, "luminescent_coupling = 0.5", name="c.toml")
+    plain = _dual(tmp_path, name="p.toml")
+    waterfall = loss_waterfall(load_stack(tmp_path / "c.toml"))
+    steps = {s["loss"]: s["loss_pct_abs"] for s in waterfall["steps"]}
+    gain = plain.summary["efficiency_pct"] - coupled.summary["efficiency_pct"]
+    assert gain < -1.0
+    assert steps["coupling gain"] == pytest.approx(gain, rel=1e-9)
+    assert abs(waterfall["check_pct"]) < 1e-12
+    assert "coupling gain" not in {s["loss"] for s in loss_waterfall(
+        load_stack(tmp_path / "p.toml"))["steps"]}
