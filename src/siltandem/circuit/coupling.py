@@ -160,6 +160,21 @@ class CoupledSubcell(Subcell):
         return law(np.where(coupled, root, lower))
 
 
+def linear_emission(element, size):
+    """(size,) True where a coupled subcell's gain is affine in the string current: its source
+    is one ideal diode (no J02, shunt or breakdown) whose own photocurrent is itself affine in J
+    (a chain), so J0,rad (exp(Vj/Vt) - 1) = (J0,rad/J01) (Jph,source - J) (clipped at 0 only
+    within J01 of the source's largest current). Then Vj(J - ΔJ(J)) stays concave in J
+    (solve.certificate.is_concave)."""
+    source = element.source
+    ideal = ((source.shunt_S_m2 == 0) & (source.j02_A_m2 == 0)
+             & ~((source.breakdown_factor > 0) & np.isfinite(source.breakdown_V)))
+    ideal = np.broadcast_to(ideal, (size, 1))[:, 0]
+    if is_coupled(source):
+        ideal = ideal & linear_emission(source, size)
+    return ideal
+
+
 def is_coupled(element):
     """True for a subcell that collects the emission of the one above it."""
     return isinstance(element, CoupledSubcell)

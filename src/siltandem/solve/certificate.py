@@ -62,6 +62,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from siltandem.circuit.coupling import is_coupled, linear_emission
 from siltandem.constants import thermal_voltage_V
 from siltandem.laws import compiled as kernels
 from siltandem.numerics.roots import bracketed_root
@@ -745,9 +746,13 @@ def is_concave(string):
     inverse Vj(J) is concave, and Vj - J Rs too; so is the sum. Then P = J V(J) is concave on
     J >= 0 (P'' = 2 V' + J V'' < 0) and P(t) unimodal (J falls with t): a root of dP/dt where
     it changes sign is the global maximum."""
-    if string.coupled or any(e.kind not in ("subcell", "resistor") for e in string.elements):
+    if any(e.kind not in ("subcell", "resistor") for e in string.elements):
         return np.zeros(string.size, dtype=bool)
     concave = np.ones(string.size, dtype=bool)
+    # luminescent coupling keeps it where each gain is affine in J (coupling.linear_emission)
+    for cell in string.subcells:
+        if is_coupled(cell):
+            concave &= linear_emission(cell, string.size)
     for cell in string.subcells:
         breakdown = ((cell.breakdown_factor > 0) & np.isfinite(cell.breakdown_V)
                      & (cell.shunt_S_m2 > 0))
