@@ -113,7 +113,9 @@ class CoupledSubcell(Subcell):
         base, base_slope = Subcell.junction_current(self, v_junction_V, temperature_K)
         shift, dshift = self.coupled_current(base, temperature_K)
         low, high = base.copy(), base + shift
-        current = high.copy()
+        # the first Newton step from J_base (g = -ΔJ there), inside the bracket as dΔJ/dJ <= 0
+        with np.errstate(invalid="ignore", divide="ignore"):
+            current = np.where(shift > 0, base + shift / (1.0 - dshift), base)
         # the scale of the currents involved (near open circuit J itself is near zero)
         scale = np.abs(self.photocurrent_A_m2) + shift
         for _ in range(PILOT_ITERATIONS):
