@@ -74,7 +74,7 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     circuit = illuminate(circuit, light)
     temperature = conditions.temperature_K
     strings, solutions = solve_strings(circuit.strings, circuit.subcells, temperature,
-                                       curve_points=curve_points)
+                                       curve_points=curve_points, solve=solve_string)
     alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}
     # the efficiency penalty of each passive element: the string solved again without it
     # (penalties.py: one batched solve per group of alike elements, not one solve per element)

@@ -180,7 +180,7 @@ def _coupled_at_mpp(string, j_mpp, temperature_K):
     return out
 
 
-def solve_strings(strings, subcells, temperature_K, *, curve_points=0):
+def solve_strings(strings, subcells, temperature_K, *, curve_points=0, solve=None):
     """Solve the strings of a circuit in turn, with luminescent coupling across strings.
 
     Within a string the coupling follows the string current exactly (SeriesString). Where a
@@ -190,6 +190,7 @@ def solve_strings(strings, subcells, temperature_K, *, curve_points=0):
     Vj = V + J Rs there, and adds to the lower subcell's photocurrent before its string is
     solved (each string is operated at its own MPP). Returns (strings, solutions): the strings
     as solved (the lower subcells with the added photocurrent) and their StringSolutions.
+    ``solve``: the solve of one string (default :func:`solve_string`).
     """
     from siltandem.circuit.coupling import emission_A_m2
 
@@ -216,7 +217,7 @@ def solve_strings(strings, subcells, temperature_K, *, curve_points=0):
             shift = np.where(np.isfinite(shift), shift, 0.0)
             string[i] = element.with_photocurrent(element.photocurrent_A_m2[:, 0] + shift)
             crossing[element.name] = shift
-        solution = solve_string(string, temperature_K, curve_points=curve_points)
+        solution = (solve or solve_string)(string, temperature_K, curve_points=curve_points)
         if crossing:
             from dataclasses import replace
 
