@@ -91,6 +91,9 @@ class Subcell:
         Reverse breakdown voltage [V] (negative); -inf for none.
     breakdown_factor, breakdown_exponent : (B, 1) ndarray
         Avalanche parameters a, m of the breakdown term (J. W. Bishop, Solar Cells 25 (1988) 73).
+    luminescent_coupling : (B, 1) ndarray
+        Fraction [-] of its radiative emission J0,rad (exp(Vj/Vt) - 1) that the next subcell
+        below collects as photocurrent (circuit/coupling.py); 0 is none.
     photocurrent_A_m2 : (B, 1) ndarray or None
         Filled in by the optics stage.
     string : int
@@ -119,6 +122,8 @@ class Subcell:
     eqe_table: tuple | None = field(default=None, compare=False, repr=False)
     #: the file the measured EQE came from (for messages)
     eqe_file: str | None = field(default=None, compare=False, repr=False)
+    #: fraction of its radiative emission the next subcell below collects (circuit/coupling.py)
+    luminescent_coupling: np.ndarray = field(default_factory=lambda: batch(0.0))
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):

@@ -52,7 +52,7 @@ def _subcell(spec, temperature_K=None):
         shunt_S_m2=batch(conductance), breakdown_V=batch(breakdown),
         breakdown_factor=batch(factor), breakdown_exponent=batch(v["breakdown_exponent"]),
         string=spec.string, gap_material=v.get("material"), eqe_table=v.get("eqe_table"),
-        eqe_file=v.get("eqe"))
+        eqe_file=v.get("eqe"), luminescent_coupling=batch(v.get("luminescent_coupling", 0.0)))
 
 
 def _resistor(spec):

@@ -127,6 +127,11 @@ def _subcell_table(s):
     lines += ["    " + x for x in _table(
         ["subcell", "string", "gap eV", "photocurrent mA/cm2", "Voc alone V", "eff. alone %"],
         rows, "<>>>>>")]
+    coupled = [r for r in s["subcells"] if r.get("coupled_mA_cm2")]
+    if coupled:
+        lines += ["    luminescent coupling at the MPP (light from the subcell above, collected): "
+                  + ", ".join(f"{r['name']} +{_fmt(r['coupled_mA_cm2'], '.3f')} mA/cm2"
+                              for r in coupled)]
     return lines
 
 

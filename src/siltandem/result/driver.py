@@ -10,7 +10,7 @@ import warnings
 from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.kernels import notice_compiling
-from siltandem.solve.series import solve_string
+from siltandem.solve.series import solve_string, solve_strings
 from siltandem.materials.spectra import get_spectrum, is_spectrum_object
 from siltandem.result.record import Result, curve_table, first_value
 from siltandem.errors import ModelWarning
@@ -79,15 +79,15 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     circuit = illuminate(circuit, light)
     temperature = conditions.temperature_K
     notice_compiling()
-    solutions = [solve_string(string, temperature, curve_points=curve_points)
-                 for string in circuit.strings]
+    strings, solutions = solve_strings(circuit.strings, circuit.subcells, temperature,
+                                       curve_points=curve_points, solve=solve_string)
     alone = {cell.name: solve_string([cell], temperature) for cell in circuit.subcells}
     # the efficiency penalty of each passive element: the string solved again without it
     # (penalties.py: one batched solve per group of alike elements, not one solve per element)
     from siltandem.result.penalties import removal_powers
 
     without = {}
-    for string, solution in zip(circuit.strings, solutions):
+    for string, solution in zip(strings, solutions):
         for name, power in removal_powers(string, temperature).items():
             without[name] = power - first_value(solution.mpp_W_m2)
     summary = summarise(stack, conditions, light, circuit, solutions, alone, without)

@@ -68,7 +68,8 @@ def summarise(stack, conditions, light, circuit, solutions, alone, without):
         "conditions": _conditions(conditions, light),
         **_headline(strings, total_power, irradiance),
         "strings": strings,
-        "subcells": _subcell_rows(circuit, temperature_K, alone, limiting, irradiance),
+        "subcells": _subcell_rows(circuit, temperature_K, alone, limiting, irradiance,
+                                  _coupled(solutions)),
         "elements": elements,
         "tunnel_junctions": tunnels,
         "interfaces": interfaces,
@@ -282,9 +283,18 @@ def _balance_warnings(balance, total_power, irradiance):
     return []
 
 
-def _subcell_rows(circuit, temperature_K, alone, limiting, irradiance):
+def _coupled(solutions):
+    """Subcell name -> the photocurrent [A/m^2] it collects at the MPP from the luminescent
+    coupling of the subcell above (solve.series.StringSolution.coupled_at_mpp_A_m2)."""
+    return {name: value for solution in solutions
+            for name, value in solution.coupled_at_mpp_A_m2.items()}
+
+
+def _subcell_rows(circuit, temperature_K, alone, limiting, irradiance, coupled=None):
     """One row per subcell in optical order: gap, photocurrent, absorbed (and collected) current,
-    J01, Voc and efficiency on its own, and whether it limits its string's current."""
+    J01, Voc and efficiency on its own, whether it limits its string's current, and the current
+    it collects at the MPP from the luminescent coupling of the subcell above (0 without)."""
+    coupled = coupled or {}
     rows = []
     for cell in circuit.subcells:
         own = alone[cell.name]
@@ -301,6 +311,7 @@ def _subcell_rows(circuit, temperature_K, alone, limiting, irradiance):
         if collected:
             row["collected_mA_cm2"] = collected
             row["collection_loss_mA_cm2"] = row["absorbed_mA_cm2"] - row["photocurrent_mA_cm2"]
+        row["coupled_mA_cm2"] = units.ma_cm2(first_value(coupled.get(cell.name, 0.0)))
         rows.append(row)
     return rows
 

@@ -62,6 +62,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from siltandem.circuit.coupling import is_coupled, linear_emission
+from siltandem.constants import thermal_voltage_V
 from siltandem.laws import compiled as kernels
 from siltandem.numerics.roots import bracketed_root
 
@@ -306,6 +308,32 @@ def _reciprocal(low, high):
         return np.where(ok, 1.0 / high, -np.inf), np.where(ok, 1.0 / low, np.inf)
 
 
+def _coupled_slopes(string, vj_high, steep, flat, count, by_current):
+    """The subcells' dJ/dVj ranges (steep, flat: (L, B, K), L = count or 2 count with the
+    pilot's range over t after them) as seen from the string current, with luminescent
+    coupling (circuit/coupling.py): a coupled subcell's junction follows J - ΔJ(J), so its
+    dVj/dJ is the law's times (1 - dΔJ/dJ), in [1, 1 + m], and a coupled pilot's dJ/dt the
+    law's divided by it. m bounds |dΔJ/dJ| = c J0,rad/Vt exp(Vj,s/Vt) |dVj,s/dJ| over the cell
+    from the source s's highest junction voltage and its flattest slope (already divided by
+    its own 1 + m in a chain). Dividing the flat end of dJ/dVj (<= 0) by 1 + m gives both."""
+    subcells = string.subcells
+    temperature = string.temperature_K
+    vt = thermal_voltage_V(np.asarray(temperature, dtype=float))
+    steep, flat = steep.copy(), flat.copy()
+    for i, cell in enumerate(subcells):
+        if not getattr(cell, "source", None) or not any(cell.source is s for s in subcells):
+            continue
+        s = next(k for k, c in enumerate(subcells) if c is cell.source)
+        with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+            factor = cell.emission_slope_factor(temperature)
+            m = factor * np.exp(vj_high[s] / vt) / np.abs(flat[s])
+            m = np.where(factor == 0, 0.0, np.where(np.isnan(m), np.inf, m))
+            flat[i] = flat[i] / (1.0 + m)
+            if not by_current:
+                flat[count + i] = flat[count + i] / (1.0 + m)
+    return steep, flat
+
+
 def slope_bounds(string, segment, cells):
     """The slope (mean value) bound of P over the cells ``cells`` (B, K) of a segment (indices
     of their left ends), and the width of the dP/dt range per unit of t there (B, K): inf
@@ -333,6 +361,9 @@ def slope_bounds(string, segment, cells):
         steep, flat = _law_slopes(kernels.SUBCELL_LAW,
                                   np.concatenate([params] * len(lows)) if len(lows) > 1
                                   else params, np.concatenate(lows), np.concatenate(highs))
+        if string.coupled:
+            steep, flat = _coupled_slopes(string, np.concatenate(highs)[:count], steep, flat,
+                                          count, by_current)
         lo, hi = _reciprocal(steep[:count], flat[:count])
         lo, hi = lo - series, hi - series
         if not by_current:
@@ -718,6 +749,10 @@ def is_concave(string):
     if any(e.kind not in ("subcell", "resistor") for e in string.elements):
         return np.zeros(string.size, dtype=bool)
     concave = np.ones(string.size, dtype=bool)
+    # luminescent coupling keeps it where each gain is affine in J (coupling.linear_emission)
+    for cell in string.subcells:
+        if is_coupled(cell):
+            concave &= linear_emission(cell, string.size)
     for cell in string.subcells:
         breakdown = ((cell.breakdown_factor > 0) & np.isfinite(cell.breakdown_V)
                      & (cell.shunt_S_m2 > 0))

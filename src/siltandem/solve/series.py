@@ -83,6 +83,9 @@ class StringSolution:
     mpp_certified: np.ndarray | None = None
     mpp_bound_W_m2: np.ndarray | None = None
     mpp_cells_checked: np.ndarray | None = None
+    #: subcell name -> photocurrent [A/m^2] it collects at the MPP from the luminescent coupling
+    #: of the subcell above it (circuit/coupling.py); only subcells that collect any
+    coupled_at_mpp_A_m2: dict = field(default_factory=dict)
 
 
 def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.3):
@@ -162,7 +165,66 @@ def solve_string(elements, temperature_K, *, curve_points=0, reverse_fraction=0.
         tunnel_branch_at_mpp=branches, capped=capped,
         mpp_certified=certificate["certified"] & np.isfinite(flat(p_mpp)),
         mpp_bound_W_m2=np.where(np.isfinite(flat(p_mpp)), bound, np.nan),
-        mpp_cells_checked=certificate["cells"])
+        mpp_cells_checked=certificate["cells"],
+        coupled_at_mpp_A_m2=_coupled_at_mpp(string, j_mpp, temperature_K))
+
+
+def _coupled_at_mpp(string, j_mpp, temperature_K):
+    """Subcell name -> the coupled photocurrent ΔJ it collects at the MPP current (B,)."""
+    out = {}
+    for element in string.elements:
+        if getattr(element, "source", None) is not None:
+            with np.errstate(invalid="ignore"):
+                shift, _ = element.coupled_current(j_mpp, temperature_K)
+            out[element.name] = np.where(np.isfinite(j_mpp), shift, np.nan)[:, 0]
+    return out
+
+
+def solve_strings(strings, subcells, temperature_K, *, curve_points=0, solve=None):
+    """Solve the strings of a circuit in turn, with luminescent coupling across strings.
+
+    Within a string the coupling follows the string current exactly (SeriesString). Where a
+    subcell's ``luminescent_coupling`` sends light to the next subcell in optical order
+    (``subcells``, sun side first) and that subcell is in a later string (4-terminal wiring),
+    the emission is the source's at its own string's MPP, J0,rad (exp(Vj/Vt) - 1) with
+    Vj = V + J Rs there, and adds to the lower subcell's photocurrent before its string is
+    solved (each string is operated at its own MPP). Returns (strings, solutions): the strings
+    as solved (the lower subcells with the added photocurrent) and their StringSolutions.
+    ``solve``: the solve of one string (default :func:`solve_string`).
+    """
+    from siltandem.circuit.coupling import emission_A_m2
+
+    strings = [list(s) for s in strings]
+    targets = {}
+    for upper, lower in zip(subcells, subcells[1:]):
+        if upper.string < lower.string and np.any(upper.luminescent_coupling > 0):
+            targets[lower.name] = upper
+    solutions = []
+    for k, string in enumerate(strings):
+        crossing = {}
+        for i, element in enumerate(string):
+            source = targets.get(element.name) if element.kind == "subcell" else None
+            if source is None:
+                continue
+            number = next(n for n, s in enumerate(strings[:k]) if any(e.name == source.name
+                                                                       for e in s))
+            done = solutions[number]
+            v_junction = (done.voltage_at_mpp_V[source.name]
+                          + done.mpp_A_m2 * np.asarray(source.series_ohm_m2)[:, 0])
+            lit = next(e for e in strings[number] if e.name == source.name)
+            shift = (lit.luminescent_coupling[:, 0]
+                     * emission_A_m2(lit, v_junction[:, None], temperature_K)[:, 0])
+            shift = np.where(np.isfinite(shift), shift, 0.0)
+            string[i] = element.with_photocurrent(element.photocurrent_A_m2[:, 0] + shift)
+            crossing[element.name] = shift
+        solution = (solve or solve_string)(string, temperature_K, curve_points=curve_points)
+        if crossing:
+            from dataclasses import replace
+
+            solution = replace(solution, coupled_at_mpp_A_m2={**solution.coupled_at_mpp_A_m2,
+                                                              **crossing})
+        solutions.append(solution)
+    return strings, solutions
 
 
 def _trace_past_peak(string, simple, row, curve_points, reverse_fraction, regime, branches,

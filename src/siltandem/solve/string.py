@@ -7,6 +7,7 @@ import functools
 import numpy as np
 
 from siltandem.laws import compiled as kernels
+from siltandem.circuit.coupling import couple_string, is_coupled
 from siltandem.circuit.elements import take_rows
 from siltandem.solve.kernels import string_pass
 
@@ -41,7 +42,9 @@ class CompiledGroup:
         self.index = {index: k for k, (index, _, _) in enumerate(self.members)}
         # with one pilot for every design, its forward law runs in the same compiled pass
         self.pilot = None
-        if string.single_pilot is not None:
+        # a pilot that collects coupled light solves its current by Newton steps (coupling.py):
+        # the general route takes it
+        if string.single_pilot is not None and not is_coupled(string.subcells[string.single_pilot]):
             self.pilot = string.subcells[string.single_pilot]
             self.pilot_index = next(k for k, e in enumerate(string.elements) if e is self.pilot)
             self.pilot_params = self.pilot._law_parameters(temperature)
@@ -91,7 +94,7 @@ def _group_members(string, state):
         if element.kind == "subcell":
             subcell_number += 1
             if string.single_pilot is None or subcell_number == string.single_pilot or \
-                    not element._needs_table(temperature):
+                    not element._needs_table(temperature) or is_coupled(element):
                 continue
             member = _subcell_member(element, temperature)
         elif element.kind == "tunnel":
@@ -175,7 +178,10 @@ class SeriesString:
     """Evaluates a string of elements along the pilot junction voltage t (arrays (B, N))."""
 
     def __init__(self, elements, temperature_K):
-        self.elements = list(elements)
+        # as given (rows() restricts these), and with luminescent coupling bound (coupling.py)
+        self.given = list(elements)
+        self.elements = couple_string(self.given)
+        self.coupled = any(is_coupled(e) for e in self.elements)
         self.temperature_K = temperature_K
         self.subcells = [e for e in self.elements if e.kind == "subcell"]
         if not self.subcells:
@@ -209,7 +215,7 @@ class SeriesString:
         temperature = self.temperature_K
         if np.ndim(temperature) == 2 and np.shape(temperature)[0] > 1:
             temperature = temperature[rows]
-        return SeriesString([take_rows(e, rows) for e in self.elements], temperature)
+        return SeriesString([take_rows(e, rows) for e in self.given], temperature)
 
     def _select(self, per_subcell):
         *values, index = np.broadcast_arrays(*per_subcell, self.pilot_index)

@@ -63,6 +63,9 @@ ELEMENT_SCHEMA = {
         Parameter("breakdown_factor", "", 0.0, 1e3, 1e-3,
                   help="fraction of the shunt current multiplied by avalanche"),
         Parameter("breakdown_exponent", "", 0.5, 20.0, 3.28, help="avalanche exponent"),
+        Parameter("luminescent_coupling", "", 0.0, 1.0, 0.0,
+                  help="fraction of this subcell's radiative emission that the next subcell "
+                       "below collects as photocurrent (0 = none)"),
     ],
     "resistor": [
         Parameter("series_ohm_cm2", "ohm cm2", 0.0, 1e4, help="series resistance"),

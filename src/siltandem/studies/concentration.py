@@ -7,7 +7,7 @@ import numpy as np
 from siltandem import units
 from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
-from siltandem.solve.series import solve_string
+from siltandem.solve.series import solve_strings
 from siltandem.materials.spectra import get_spectrum
 from siltandem.result.record import first_value
 
@@ -42,8 +42,9 @@ def concentration_series(stack, suns_values, *, spectrum=None, temperature_K=Non
     temperature = conditions.temperature_K
     table = {"suns": suns}
     total = np.zeros_like(suns)
-    for number, string in enumerate(circuit.strings, start=1):
-        solution = solve_string(string, temperature)
+    # in turn: luminescent coupling crosses from one string to the next (4 terminals)
+    strings, solutions = solve_strings(circuit.strings, circuit.subcells, temperature)
+    for number, (string, solution) in enumerate(zip(strings, solutions), start=1):
         total = total + np.nan_to_num(solution.mpp_W_m2, nan=0.0)
         if number == 1:
             table.update({

@@ -4,6 +4,8 @@ Each step is computed by removing that one loss and solving again, cumulatively,
 up exactly to the total. Starting from the stack as it is, the losses are removed in this order
 (the reverse of the waterfall read from the top):
 
+0. luminescent coupling, where a subcell has any (circuit/coupling.py): the "coupling gain" step,
+   negative (the stack gains it);
 1. series resistance (resistor elements, subcells' own series resistance);
 2. each tunnel junction;
 3. each isotype interface;
@@ -112,6 +114,11 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
         names.append(label)
         efficiency.append(100 * value / irradiance)
 
+    # 0. luminescent coupling (a gain: its step is negative), removed first
+    if any(e.kind == "subcell" and np.any(e.luminescent_coupling > 0) for e in string):
+        string = [replace(e, luminescent_coupling=batch(0.0)) if e.kind == "subcell" else e
+                  for e in string]
+        record("coupling gain", _power(string, temperature))
     # 1. series resistance
     string = [e for e in string if e.kind != "resistor"]
     string = [replace(e, series_ohm_m2=batch(0.0)) if e.kind == "subcell" else e for e in string]

@@ -17,7 +17,7 @@ from siltandem.errors import StackError
 from siltandem.files import file_digest
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.kernels import notice_compiling
-from siltandem.solve.series import solve_string
+from siltandem.solve.series import solve_strings
 from siltandem.materials.spectra import get_spectrum, is_spectrum_object
 from siltandem.stack.inputs import spectrum_input
 from siltandem.stack.schema import (ELEMENT_SCHEMA, ISOTYPE_NUMBERS, check_element_values,
@@ -336,7 +336,8 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     total = np.zeros(size)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        solutions = [solve_string(s, conditions.temperature_K) for s in circuit.strings]
+        # luminescent coupling across strings (4 terminals) needs the strings in turn
+        _, solutions = solve_strings(circuit.strings, circuit.subcells, conditions.temperature_K)
     for solution in solutions:
         total = total + np.broadcast_to(solution.mpp_W_m2, (size,))
     out["efficiency_pct"] = 100 * total / light.irradiance_W_m2
