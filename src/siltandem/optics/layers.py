@@ -25,8 +25,14 @@ class LayerLight:
 
 
 def layer_light(model, wavelength, flux):
-    """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M)."""
+    """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M).
+
+    The grid shades ``model.shading_fraction`` f of the front: the light entering the stack is
+    (1 - f) of ``flux``, and the reflectance and coating absorptance, fractions of the incident
+    light, are (1 - f) of the open area's."""
     temperature = model.temperature_K
+    open_area = 1.0 - model.shading_fraction
+    flux = flux * open_area
     alphas = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
               for m in model.materials]
     thicknesses = [layer.thickness_nm * 1e-9 for layer in model.layers]
@@ -71,7 +77,8 @@ def layer_light(model, wavelength, flux):
         uniform_absorbed_m2_s=budget.scattered_absorbed[cell.emitter]
         + budget.scattered_absorbed[cell.base] if trapping else 0.0, where=cell.name)
         for cell in model.subcells]
-    return LayerLight(alphas, reflectance, coating_absorbed, budget, collected)
+    return LayerLight(alphas, reflectance * open_area, coating_absorbed * open_area, budget,
+                      collected)
 
 
 def illuminate_layers(circuit, spectrum):
@@ -112,6 +119,8 @@ def illuminate_layers(circuit, spectrum):
     for j, layer in enumerate(model.layers):
         if j not in active:
             parasitic[layer.name] = current(budget.absorbed[j])
+    if model.shading_fraction > 0:
+        parasitic["grid shading"] = current(model.shading_fraction * flux)
     closure = incident - reflected - transmitted - sum(parasitic.values()) - sum(absorbed.values())
     optics = dict(circuit.optics)
     optics.update({

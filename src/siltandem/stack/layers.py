@@ -52,6 +52,18 @@ LAYER_NUMBERS = {
                         reason="a lifetime below a femtosecond is shorter than any carrier "
                                "scattering time"),
     "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False)}
+#: ``[device]`` keys of a layer stack and their defaults: the lumped series resistance of the
+#: string (grid, contacts, lateral spreading, bonds), a shunt across every subcell, and the
+#: fraction of the front shaded by the grid (scales the light entering the stack)
+DEVICE_KEYS = {"series_ohm_cm2": 0.0, "shunt_ohm_cm2": math.inf, "shading_fraction": 0.0}
+#: their ranges (as the element stacks' series resistor and subcell shunt; a shading of 1 or more
+#: leaves no light)
+DEVICE_NUMBERS = {
+    "series_ohm_cm2": dict(unit="ohm cm2", low=0.0, high=1e3, low_open=False),
+    "shunt_ohm_cm2": dict(unit="ohm cm2", low=1e-6, high=math.inf, low_open=False,
+                          reason="below 1e-6 ohm cm2 the shunt is a short circuit"),
+    "shading_fraction": dict(unit="", low=0.0, high=0.99, low_open=False,
+                             reason="a grid that shades the whole front leaves no light")}
 #: net doping range [cm^-3] of ``doping = "n:..."``
 DOPING_RANGE_CM3 = (1e10, 1e21)
 _DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
@@ -126,9 +138,10 @@ def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, r
     bad_low = value <= low if low_open else value < low
     if bad_low or value > high:
         bound = "(" if low_open else "["
-        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}"
+        span = f"{bound}{low:g}, {high:g}]" + (f" {unit}" if unit else "")
+        raise StackError(f"{key} = {value:g} is outside {span}"
                          + (f" ({reason})" if reason else ""), file=file, where=where,
-                         fix=f"give a {key} within {bound}{low:g}, {high:g}] {unit}")
+                         fix=f"give a {key} within {span}")
     return value
 
 
@@ -369,6 +382,30 @@ def parse_optics(table, *, file):
                          fix="give back_reflectance = <0..1>, the scattering rear's reflectance "
                              "(e.g. 0.95), or remove back_scattering")
     return values
+
+def parse_device(table, *, file):
+    """``[device]`` of a layer stack: ``series_ohm_cm2`` (a series resistor in the string, default
+    0), ``shunt_ohm_cm2`` (a shunt across every subcell, default none), ``shading_fraction`` (grid
+    shading: every photocurrent times 1 - f, default 0); each checked against DEVICE_NUMBERS."""
+    if not isinstance(table, dict):
+        raise StackError("[device] must be a table", file=file, where="key device",
+                         fix="write [device] followed by key = value lines, e.g. "
+                             "series_ohm_cm2 = 0.5")
+    for key in table:
+        if key not in DEVICE_KEYS:
+            raise StackError(f"unknown key {key!r} in [device]", file=file,
+                             where=f"key device.{key}", fix=suggest(key, DEVICE_KEYS)
+                             + "allowed: " + ", ".join(DEVICE_KEYS))
+    return {key: check_device_value(key, table[key], file=file) if key in table else default
+            for key, default in DEVICE_KEYS.items()}
+
+
+def check_device_value(key, value, *, file=None, where=None):
+    """One ``[device]`` key set to ``value``, checked as the file's (a study's ``--vary
+    device.<key>`` goes through here too). Returns it as a float."""
+    return _positive_number({key: value}, key, file=file, where=where or f"key device.{key}",
+                            **DEVICE_NUMBERS[key])
+
 
 def _check_material(material, composition, *, file, where):
     from siltandem.materials import MaterialError, load_material
