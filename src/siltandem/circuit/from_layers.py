@@ -17,6 +17,7 @@ characteristic matrices), Beer-Lambert absorption in every layer (laws/thinfilm.
 subcell's collected photocurrent from the light entering its emitter, and the photon budget.
 """
 from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 
@@ -83,7 +84,7 @@ class LayerModel:
 def _material(layer):
     from siltandem.materials import load_material
 
-    return load_material(layer.material, layer.composition)
+    return load_material(layer.material, layer.composition, gap_eV=layer.gap_eV)
 
 
 def _minority(layer, material, temperature_K, *, file, role):
@@ -249,10 +250,12 @@ def _cell_name(cell, layers, used):
     if emitter.endswith(" emitter") and base.endswith(" base") and \
             emitter[:-8] == base[:-5] and emitter[:-8] not in used:
         return emitter[:-8]
-    name = f"{layers[cell.emitter].material} cell"
+    material = layers[cell.emitter].material
+    shown = Path(material).stem if material.lower().endswith(".toml") else material  # a file
+    name = f"{shown} cell"
     k = 2
     while name in used:
-        name = f"{layers[cell.emitter].material} cell {k}"
+        name = f"{shown} cell {k}"
         k += 1
     return name
 

@@ -310,14 +310,16 @@ def _parse_head(table, *, file):
 
 def _parse_layer_stack(document, name, notes, conditions, *, file, folder):
     """A layer stack: its layers, coatings, rules and optics, and placements (two-terminal)."""
-    from siltandem.stack.layers import (parse_coatings, parse_device, parse_layers, parse_optics,
-                                        parse_rules)
+    from siltandem.stack.layers import (parse_coatings, parse_device, parse_layers,
+                                        parse_materials, parse_optics, parse_rules)
 
     if "element" in document:
         raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
                          file=file, where="key element",
                          fix="describe the stack by its layers or by its circuit elements")
-    layers = parse_layers(document["layer"], file=file)
+    layers = parse_layers(document["layer"], file=file,
+                          folder_materials=parse_materials(document.get("materials", {}),
+                                                           file=file))
     coatings = parse_coatings(document.get("coating", []), file=file)
     rules = parse_rules(document.get("rules", {}), file=file)
     rules.update(parse_optics(document.get("optics", {}), file=file))
