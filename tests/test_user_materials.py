@@ -259,3 +259,22 @@ def test_a_study_varies_the_ordered_gap(tmp_path):
             one.summary["efficiency_pct"], rel=1e-9)
     with pytest.raises(StackError, match="outside"):
         parse_vary("cell base.gap_eV=1.5:1.9:3", stack)
+
+
+def test_placements_read_a_folder_material(tmp_path):
+    # every GaP of the invented demo (layers and the placements' inserted layers) replaced by a
+    # copy of the library's GaP from a [materials] folder: the same ranking, the same numbers
+    from siltandem import rank_placements
+
+    root = Path(__file__).resolve().parents[1]
+    text = (root / "stacks" / "demo_placements.toml").read_text()
+    (tmp_path / "lib").mkdir()
+    copy_to_csv("gap", tmp_path / "lib", new_name="MyGaP")
+    (tmp_path / "own.toml").write_text(text.replace('material = "GaP"', 'material = "MyGaP"')
+                                       .replace("[conditions]", '[materials]\nfolder = "lib"\n\n'
+                                                "[conditions]", 1))
+    (tmp_path / "ref.toml").write_text(text)
+    own = rank_placements(load_stack(tmp_path / "own.toml"))
+    ref = rank_placements(load_stack(tmp_path / "ref.toml"))
+    assert list(own["placement"]) == list(ref["placement"])
+    assert own["efficiency_pct"].tolist() == ref["efficiency_pct"].tolist()

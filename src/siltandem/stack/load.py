@@ -317,9 +317,8 @@ def _parse_layer_stack(document, name, notes, conditions, *, file, folder):
         raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
                          file=file, where="key element",
                          fix="describe the stack by its layers or by its circuit elements")
-    layers = parse_layers(document["layer"], file=file,
-                          folder_materials=parse_materials(document.get("materials", {}),
-                                                           file=file))
+    folder_materials = parse_materials(document.get("materials", {}), file=file)
+    layers = parse_layers(document["layer"], file=file, folder_materials=folder_materials)
     coatings = parse_coatings(document.get("coating", []), file=file)
     rules = parse_rules(document.get("rules", {}), file=file)
     rules.update(parse_optics(document.get("optics", {}), file=file))
@@ -329,7 +328,8 @@ def _parse_layer_stack(document, name, notes, conditions, *, file, folder):
                          where="key conditions.terminals", fix="set terminals = 2")
     from siltandem.stack.placements import parse_placements
 
-    placements = parse_placements(document.get("placement", []), layers, file=file)
+    placements = parse_placements(document.get("placement", []), layers, file=file,
+                                  folder_materials=folder_materials)
     return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
                  None if folder is None else str(folder), coatings=coatings, rules=rules,
                  extra={"placements": placements} if placements else {})
