@@ -216,3 +216,39 @@ def test_an_element_stack_refuses_device(tmp_path):
     with pytest.raises(StackError, match=r"\[device\] goes with \[\[layer\]\] stacks") as caught:
         load_stack(path)
     assert "resistor element" in caught.value.fix
+
+
+def test_the_yield_photocurrents_carry_the_shading(tmp_path):
+    # the yield year's optics (optics.layers.layer_photocurrents, many spectra at once): each
+    # hour's photocurrent times (1 - f), as in the single run
+    from siltandem.optics.layers import layer_photocurrents
+
+    spectrum = get_spectrum("am1.5g")
+    flux = np.stack([spectrum.photon_flux, 0.3 * spectrum.photon_flux])
+    plain = compile_stack(load_stack(write(tmp_path, name="a.toml"))).model
+    shaded = compile_stack(load_stack(write(tmp_path, "shading_fraction = 0.07",
+                                            name="b.toml"))).model
+    for a, b in zip(layer_photocurrents(plain, spectrum.wavelength_nm, flux),
+                    layer_photocurrents(shaded, spectrum.wavelength_nm, flux)):
+        assert np.allclose(b, 0.93 * a, rtol=1e-12)
+
+
+def test_a_year_uses_the_device_table(tmp_path):
+    # the yield year of the layer stack with [device]: its standard-conditions efficiency is the
+    # main job's on the same file (the year solves the same circuit, resistor and shunt included)
+    from pathlib import Path
+
+    import pvlib
+
+    from siltandem import annual_yield, read_weather
+
+    weather = read_weather(Path(pvlib.__file__).parent / "data" / "723170TYA.CSV")
+    base = GAAS.replace("temperature_K = 300", "temperature_K = 298.15")   # the year's 25 degC
+    path = write(tmp_path, "series_ohm_cm2 = 2.0\nshunt_ohm_cm2 = 300\nshading_fraction = 0.05",
+                 name="y.toml", base=base)
+    year = annual_yield(load_stack(path), weather).summary
+    plain = annual_yield(load_stack(write(tmp_path, name="p.toml", base=base)), weather).summary
+    main = result(path, points=60).summary
+    assert year["efficiency_at_standard_conditions_pct"] == pytest.approx(
+        main["efficiency_pct"], rel=1e-6)
+    assert year["annual_energy_kWh_m2"] < 0.95 * plain["annual_energy_kWh_m2"]
