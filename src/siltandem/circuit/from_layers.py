@@ -16,14 +16,15 @@ element per subcell, tunnel junction and isotype interface, in the order of the 
 characteristic matrices), Beer-Lambert absorption in every layer (laws/thinfilm.py), each
 subcell's collected photocurrent from the light entering its emitter, and the photon budget.
 """
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 
 from siltandem import units
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.recognise import carriers_flow, recognise
-from siltandem.circuit.elements import Subcell, TunnelJunction, batch
+from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.errors import StackError
 from siltandem.laws import checks, collection
 from siltandem.laws import junction as junction_law
@@ -79,12 +80,14 @@ class LayerModel:
     #: scattering fraction of a "lambertian" surface ([optics] back_haze, front_haze; 1 = ideal)
     back_haze: float = 1.0
     front_haze: float = 1.0
+    #: [device] shading_fraction: the part of the front under the grid (light entering x (1 - f))
+    shading_fraction: float = 0.0
 
 
 def _material(layer):
     from siltandem.materials import load_material
 
-    return load_material(layer.material, layer.composition)
+    return load_material(layer.material, layer.composition, gap_eV=layer.gap_eV)
 
 
 def _minority(layer, material, temperature_K, *, file, role):
@@ -250,10 +253,12 @@ def _cell_name(cell, layers, used):
     if emitter.endswith(" emitter") and base.endswith(" base") and \
             emitter[:-8] == base[:-5] and emitter[:-8] not in used:
         return emitter[:-8]
-    name = f"{layers[cell.emitter].material} cell"
+    material = layers[cell.emitter].material
+    shown = Path(material).stem if material.lower().endswith(".toml") else material  # a file
+    name = f"{shown} cell"
     k = 2
     while name in used:
-        name = f"{layers[cell.emitter].material} cell {k}"
+        name = f"{shown} cell {k}"
         k += 1
     return name
 
@@ -304,10 +309,31 @@ def compile_layer_stack(stack):
                        stack.rules.get("ambient_index", 1.0),
                        stack.rules.get("back_scattering", "specular"),
                        stack.rules.get("front_scattering", "specular"),
-                       stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0))
+                       stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
+                       stack.rules.get("shading_fraction", 0.0))
+    elements = device_elements(elements, series_ohm_cm2=stack.rules.get("series_ohm_cm2", 0.0),
+                               shunt_ohm_cm2=stack.rules.get("shunt_ohm_cm2", np.inf))
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
     return circuit.with_elements([], optics={"layer_details": details,
                                              "polarity": structure.polarity})
+
+
+#: the name of the series resistor a layer stack's [device] series_ohm_cm2 adds to its string
+DEVICE_RESISTOR = "device series resistance"
+
+
+def device_elements(elements, *, series_ohm_cm2=0.0, shunt_ohm_cm2=np.inf):
+    """A layer stack's ``[device]`` as the element stacks' own parts: a shunt of
+    ``shunt_ohm_cm2`` [ohm cm2] across every subcell (a subcell's shunt_S_m2, as an element
+    subcell's shunt_ohm_cm2) and, for ``series_ohm_cm2`` [ohm cm2] > 0, a resistor element at the
+    end of the string (as a ``kind = "resistor"`` element)."""
+    out = list(elements)
+    if np.isfinite(shunt_ohm_cm2):
+        conductance = batch(1.0 / (shunt_ohm_cm2 * units.OHM_CM2_TO_OHM_M2))
+        out = [replace(e, shunt_S_m2=conductance) if isinstance(e, Subcell) else e for e in out]
+    if series_ohm_cm2 > 0:
+        out.append(Resistor(DEVICE_RESISTOR, batch(series_ohm_cm2 * units.OHM_CM2_TO_OHM_M2)))
+    return out
 
 
 def dark_currents_at(model, circuit, temperature_K):

@@ -126,6 +126,8 @@ def _materials(args):
         source = material.source(source_key) if callable(getattr(material, "source", None)) \
             else ""
         print(f"  {label:<28} {text:>14} {unit:<10} {source}")
+    for key in sorted(k for k in material.sources if k.startswith(("absorption", "ordering"))):
+        print(f"  {key:<28} {material.sources[key]}")
     return 0
 
 

@@ -14,9 +14,8 @@ from siltandem.materials.library import (
     MaterialError,
     describe_library,
     list_materials,
-    load_material,
-    material_identity,
 )
+from siltandem.materials.resolve import load_material, material_identity
 
 __all__ = ["Material", "MaterialError", "describe_library", "list_materials", "load_material",
            "material_identity"]

@@ -697,7 +697,39 @@ def _alloy_name(data, x):
     return out.replace("_", "").replace(" ", "")
 
 
-def _build_alloy(family, file_name, data, x):
+def build_document(name, file_name, data, composition=None, gap_eV=None):
+    """A Material from a parsed data file of the library's format (``data``: the TOML document,
+    ``file_name``: for messages), as the library builds its own: the composition checked, an
+    alloy's end members taken from the library, ``gap_eV`` (ordered alloys) moving the lowest
+    valley's 300 K gap. MaterialError for what the file lacks."""
+    x = _check_composition(name, data, composition)
+    if data.get("kind") != "alloy":
+        return _build_binary(name, file_name, data)
+    return _build_alloy(name, file_name, data, x, gap_eV)
+
+
+def library_document(name):
+    """(library name, data file name, parsed TOML) of a library material or alias; None if the
+    library has no such name (alloys written with fractions are not looked up here)."""
+    records, lookup = _registry()
+    family = lookup.get(str(name).strip().lower())
+    return None if family is None else (family, *records[family])
+
+
+def _shift_lowest(valleys, gap_eV, file_name):
+    """The valleys with the lowest one at 300 K moved to ``gap_eV`` (an ordered alloy): its
+    temperature law kept, its offset changed; it must stay the lowest."""
+    gaps = {v.name: float(v.gap_eV(REFERENCE_TEMPERATURE_K)) for v in valleys}
+    lowest = min(gaps, key=gaps.get)
+    others = [g for n, g in gaps.items() if n != lowest]
+    if others and min(others) <= gap_eV:
+        raise MaterialError(f"materials data file {file_name}: gap_eV = {gap_eV:g} eV lies above another "
+                            f"valley; give a gap below {min(others):.3f} eV")
+    shift = gap_eV - gaps[lowest]
+    return [dataclasses.replace(v, offset_eV=v.offset_eV + shift) if v.name == lowest else v for v in valleys]
+
+
+def _build_alloy(family, file_name, data, x, gap_eV=None):
     one = load_material(_require(data, "end_at_x1", file_name))
     zero = load_material(_require(data, "end_at_x0", file_name))
     bowing = _require(data, "bowing", file_name)
@@ -715,6 +747,8 @@ def _build_alloy(family, file_name, data, x):
         valleys.append(_Valley(vname, terms, -x * (1.0 - x) * c,
                                x * v1[vname].dos_mass + (1 - x) * v0[vname].dos_mass,
                                x * v1[vname].richardson_ratio + (1 - x) * v0[vname].richardson_ratio))
+    if gap_eV is not None:
+        valleys = _shift_lowest(valleys, gap_eV, file_name)
     lin = lambda a, b: x * a + (1.0 - x) * b
     h1 = _registry()[0][one.family][1]["holes"]
     h0 = _registry()[0][zero.family][1]["holes"]

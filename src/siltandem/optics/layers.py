@@ -44,8 +44,14 @@ def _share(part, total):
 
 
 def layer_light(model, wavelength, flux):
-    """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M)."""
+    """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M).
+
+    The grid shades ``model.shading_fraction`` f of the front: the light entering the stack is
+    (1 - f) of ``flux``, and the reflectance and coating absorptance, fractions of the incident
+    light, are (1 - f) of the open area's."""
     temperature = model.temperature_K
+    open_area = 1.0 - model.shading_fraction
+    flux = flux * open_area
     band_to_band = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
                     for m in model.materials]
     free = free_carrier_alphas(model, wavelength)
@@ -86,7 +92,8 @@ def layer_light(model, wavelength, flux):
                                         if model.back_reflectance > 0 else 0.0, **trapping)
     collected = [_collected(cell, band_to_band, free, free_share, budget, bool(trapping))
                  for cell in model.subcells]
-    return LayerLight(alphas, reflectance, coating_absorbed, budget, collected, free_share)
+    return LayerLight(alphas, reflectance * open_area, coating_absorbed * open_area, budget, collected,
+                      free_share)
 
 
 def _collected(cell, band_to_band, free, free_share, budget, scattered):
@@ -152,6 +159,8 @@ def illuminate_layers(circuit, spectrum):
     for j, layer in enumerate(model.layers):
         if j not in active:
             parasitic[layer.name] = current(budget.absorbed[j])
+    if model.shading_fraction > 0:
+        parasitic["grid shading"] = current(model.shading_fraction * flux)
     closure = incident - reflected - transmitted - sum(parasitic.values()) - sum(absorbed.values())
     optics = dict(circuit.optics)
     optics.update({

@@ -58,6 +58,8 @@ def _fractions(model, light, flux):
     budget = light.budget
     columns = {"reflectance": _row(light.reflectance, size) + _row(budget.escaped, size) / flux,
                "transmittance": _row(budget.transmitted, size) / flux}
+    if model.shading_fraction > 0:       # [device] shading_fraction: the front under the grid
+        columns["grid_shading"] = np.full(size, float(model.shading_fraction))
     labels = absorber_labels(model)
     count = len(model.coatings)
     for k, label in enumerate(labels[:count]):

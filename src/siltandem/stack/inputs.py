@@ -1,5 +1,5 @@
-"""Which files solving a stack reads: the stack file, its spectrum CSV, its EQE CSVs and the
-package's own data.
+"""Which files solving a stack reads: the stack file, its spectrum CSV, its EQE CSVs, the user's
+material files (and their CSV tables) and the package's own data.
 
 An output must never replace one of them (files.check_outputs, called by every command before any
 work), and a study's resumable chunks are keyed by their contents (studies.runner), so that an
@@ -50,6 +50,12 @@ def stack_inputs(stack, *, spectrum=None, package=True):
         found.append(spectrum_input(spectrum))
     else:
         found.append(spectrum_input(stack.conditions.spectrum, stack.folder))
+    from siltandem.materials.userfiles import is_material_file, material_files
+
+    for material in dict.fromkeys(layer.material for layer in stack.layers):
+        if is_material_file(material):       # the user's material file and its CSV tables
+            found += [(f"the material file {Path(material).name}", Path(f))
+                      for f in material_files(material)]
     for element in stack.elements:
         if element.values.get("eqe"):
             found.append((f"the quantum-efficiency file of {element.label}",

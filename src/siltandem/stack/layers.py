@@ -20,6 +20,7 @@ The compiler (compile_layers.py) finds the subcells, tunnel junctions and isotyp
 """
 from dataclasses import dataclass
 import math
+from pathlib import Path
 import re
 
 from siltandem.errors import StackError
@@ -28,7 +29,7 @@ from siltandem.text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
-              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV"}
+              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -52,6 +53,18 @@ LAYER_NUMBERS = {
                         reason="a lifetime below a femtosecond is shorter than any carrier "
                                "scattering time"),
     "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False)}
+#: ``[device]`` keys of a layer stack and their defaults: the lumped series resistance of the
+#: string (grid, contacts, lateral spreading, bonds), a shunt across every subcell, and the
+#: fraction of the front shaded by the grid (scales the light entering the stack)
+DEVICE_KEYS = {"series_ohm_cm2": 0.0, "shunt_ohm_cm2": math.inf, "shading_fraction": 0.0}
+#: their ranges (as the element stacks' series resistor and subcell shunt; a shading of 1 or more
+#: leaves no light)
+DEVICE_NUMBERS = {
+    "series_ohm_cm2": dict(unit="ohm cm2", low=0.0, high=1e3, low_open=False),
+    "shunt_ohm_cm2": dict(unit="ohm cm2", low=1e-6, high=math.inf, low_open=False,
+                          reason="below 1e-6 ohm cm2 the shunt is a short circuit"),
+    "shading_fraction": dict(unit="", low=0.0, high=0.99, low_open=False,
+                             reason="a grid that shades the whole front leaves no light")}
 #: net doping range [cm^-3] of ``doping = "n:..."``
 DOPING_RANGE_CM3 = (1e10, 1e21)
 _DOPING = re.compile(r"^\s*([A-Za-z]*)\s*:\s*(.*?)\s*$")
@@ -93,6 +106,8 @@ class Layer:
     tunnel: dict | None = None
     #: band-offset override at this layer's interface with the layer below [eV]
     offset_eV: float | None = None
+    #: the 300 K gap of an ordered alloy (GaInP), None: the library's disordered alloy [eV]
+    gap_eV: float | None = None
 
     @property
     def label(self):
@@ -126,9 +141,10 @@ def _positive_number(table, key, *, file, where, unit, low=0.0, high=math.inf, r
     bad_low = value <= low if low_open else value < low
     if bad_low or value > high:
         bound = "(" if low_open else "["
-        raise StackError(f"{key} = {value:g} is outside {bound}{low:g}, {high:g}] {unit}"
+        span = f"{bound}{low:g}, {high:g}]" + (f" {unit}" if unit else "")
+        raise StackError(f"{key} = {value:g} is outside {span}"
                          + (f" ({reason})" if reason else ""), file=file, where=where,
-                         fix=f"give a {key} within {bound}{low:g}, {high:g}] {unit}")
+                         fix=f"give a {key} within {span}")
     return value
 
 
@@ -179,9 +195,76 @@ def _layer_name(table, i, names, file):
     return name, where
 
 
-def _layer_material(table, *, file, where):
-    """The layer's material name and composition (None if not given), checked against the
-    library."""
+def resolve_material(material, *, file, where, folder_materials=None):
+    """A layer's ``material`` as the compiler reads it: a library name as written; a material
+    file (``"my_absorber.toml"``) as its absolute path, relative to the stack file; a name given
+    by a file of the ``[materials] folder`` (``folder_materials``: lower-case name -> path) as
+    that file's absolute path. StackError for a material file that is not there."""
+    from siltandem.materials.userfiles import is_material_file
+
+    if folder_materials and material.strip().lower() in folder_materials:
+        return folder_materials[material.strip().lower()]
+    if not is_material_file(material):
+        return material
+    path = Path(material.strip()).expanduser()
+    if not path.is_absolute():
+        path = (Path(file).parent if file is not None else Path.cwd()) / path
+    if not path.is_file():
+        raise StackError(f"material file {excerpt(material)} not found (looked for {path})",
+                         file=file, where=f"{where}, key material",
+                         fix="give the material file's path relative to the stack file, or a "
+                             "library name (see `siltandem materials`)")
+    return str(path.absolute())
+
+
+def parse_materials(table, *, file):
+    """``[materials]``: ``folder``, a folder of material files (relative to the stack file); each
+    file's name and aliases become material names of this stack (before the library's).
+    Returns {lower-case name: absolute path}."""
+    from siltandem.materials.userfiles import material_names
+
+    if not isinstance(table, dict):
+        raise StackError("[materials] must be a table", file=file, where="key materials",
+                         fix='write [materials] then folder = "my_materials"')
+    for key in table:
+        if key != "folder":
+            raise StackError(f"unknown key {key!r} in [materials]", file=file,
+                             where=f"key materials.{key}",
+                             fix=suggest(key, ["folder"]) + "allowed: folder")
+    if "folder" not in table:
+        return {}
+    folder = table["folder"]
+    if not isinstance(folder, str) or not folder.strip():
+        raise StackError(f"folder must be a folder path (text), got {excerpt(folder)}", file=file,
+                         where="key materials.folder", fix='write folder = "my_materials"')
+    path = Path(folder.strip()).expanduser()
+    if not path.is_absolute():
+        path = (Path(file).parent if file is not None else Path.cwd()) / path
+    if not path.is_dir():
+        raise StackError(f"material folder not found: {path}", file=file,
+                         where="key materials.folder",
+                         fix="give the folder of material files relative to the stack file")
+    found = {}
+    for entry in sorted(path.absolute().glob("*.toml")):
+        for name in material_names(entry):
+            key = name.lower()
+            if key in found and found[key] != str(entry):
+                raise StackError(f"material name {name!r} is given by two files: "
+                                 f"{Path(found[key]).name} and {entry.name}", file=file,
+                                 where="key materials.folder",
+                                 fix="give every material file of the folder its own name and "
+                                     "aliases")
+            found[key] = str(entry)
+    if not found:
+        raise StackError(f"no material files (*.toml) in {path}", file=file,
+                         where="key materials.folder",
+                         fix="put the material files in the folder, or remove [materials]")
+    return found
+
+
+def _layer_material(table, *, file, where, folder_materials=None):
+    """The layer's material (a library name, or a material file's absolute path) and
+    composition (None if not given), checked as the library's."""
     material = table.get("material")
     if material is None:
         raise StackError("missing required key 'material'", file=file, where=where,
@@ -199,8 +282,13 @@ def _layer_material(table, *, file, where):
     if composition is not None:
         composition = read_number(composition, file=file, where=where, key="composition",
                                   unit="")
-    _check_material(material, composition, file=file, where=where)
-    return material, composition
+    material = resolve_material(material, file=file, where=where,
+                                folder_materials=folder_materials)
+    gap = None
+    if "gap_eV" in table:
+        gap = read_number(table["gap_eV"], file=file, where=where, key="gap_eV", unit="eV")
+    _check_material(material, composition, file=file, where=where, gap_eV=gap)
+    return material, composition, gap
 
 
 def _minority_carriers(table, *, file, where):
@@ -232,12 +320,13 @@ def _tunnel_settings(table, *, file, where):
     return tunnel
 
 
-def _parse_layer(i, table, names, *, file):
+def _parse_layer(i, table, names, *, file, folder_materials=None):
     """One ``[[layer]]`` table (the i-th, from 1) validated into a Layer, in the order of its
     checks: name and keys, material, thickness, doping, minority carriers, tunnel numbers,
     band offset."""
     name, where = _layer_name(table, i, names, file)
-    material, composition = _layer_material(table, file=file, where=where)
+    material, composition, gap = _layer_material(table, file=file, where=where,
+                                                 folder_materials=folder_materials)
     thickness = _positive_number(table, "thickness_nm", file=file, where=where,
                                  **LAYER_NUMBERS["thickness_nm"])
     if "doping" not in table:
@@ -251,10 +340,11 @@ def _parse_layer(i, table, names, *, file):
         offset = _positive_number(table, "offset_eV", file=file, where=where, unit="eV",
                                   low=-3.0, high=3.0, low_open=False)
     return Layer(i, name, material, None if composition is None else float(composition),
-                 thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset)
+                 thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
+                 gap)
 
 
-def parse_layers(tables, *, file):
+def parse_layers(tables, *, file, folder_materials=None):
     """Validate the ``[[layer]]`` tables into Layer objects (materials are checked here too).
 
     Parameters
@@ -279,7 +369,7 @@ def parse_layers(tables, *, file):
         raise StackError("layer must be a non-empty array of tables", file=file,
                          where="key layer", fix="write each layer as [[layer]] (double brackets)")
     names = {}
-    return tuple(_parse_layer(i, table, names, file=file)
+    return tuple(_parse_layer(i, table, names, file=file, folder_materials=folder_materials)
                  for i, table in enumerate(tables, start=1))
 
 
@@ -381,11 +471,39 @@ def parse_optics(table, *, file):
                              "(e.g. 0.95), or remove back_scattering")
     return values
 
-def _check_material(material, composition, *, file, where):
+def parse_device(table, *, file):
+    """``[device]`` of a layer stack: ``series_ohm_cm2`` (a series resistor in the string, default
+    0), ``shunt_ohm_cm2`` (a shunt across every subcell, default none), ``shading_fraction`` (grid
+    shading: every photocurrent times 1 - f, default 0); each checked against DEVICE_NUMBERS."""
+    if not isinstance(table, dict):
+        raise StackError("[device] must be a table", file=file, where="key device",
+                         fix="write [device] followed by key = value lines, e.g. "
+                             "series_ohm_cm2 = 0.5")
+    for key in table:
+        if key not in DEVICE_KEYS:
+            raise StackError(f"unknown key {key!r} in [device]", file=file,
+                             where=f"key device.{key}", fix=suggest(key, DEVICE_KEYS)
+                             + "allowed: " + ", ".join(DEVICE_KEYS))
+    return {key: check_device_value(key, table[key], file=file) if key in table else default
+            for key, default in DEVICE_KEYS.items()}
+
+
+def check_device_value(key, value, *, file=None, where=None):
+    """One ``[device]`` key set to ``value``, checked as the file's (a study's ``--vary
+    device.<key>`` goes through here too). Returns it as a float."""
+    return _positive_number({key: value}, key, file=file, where=where or f"key device.{key}",
+                            **DEVICE_NUMBERS[key])
+
+
+def _check_material(material, composition, *, file, where, gap_eV=None):
     from siltandem.materials import MaterialError, load_material
 
     try:
-        load_material(material, None if composition is None else float(composition))
+        load_material(material, None if composition is None else float(composition),
+                      gap_eV=gap_eV)
+    except StackError as exc:     # a material file's own problem: named in that file
+        raise StackError(exc.problem, file=exc.file, where=f"{exc.where or 'material file'} "
+                         f"(the material of {where} in {file})", fix=exc.fix) from None
     except MaterialError as exc:
         raise StackError(str(exc), file=file, where=f"{where}, key material",
                          fix="see `siltandem materials` for the library and how each alloy "
@@ -403,8 +521,12 @@ def check_layer_value(layer, key, value, *, file=None, where=None):
         if isinstance(value, bool) or not isinstance(value, (int, float)) or math.isnan(value):
             raise StackError(f"composition must be a number in [0, 1], got {excerpt(value)}", file=file,
                              where=where, fix="write composition = 0.51")
-        _check_material(layer.material, value, file=file, where=where)
+        _check_material(layer.material, value, file=file, where=where, gap_eV=layer.gap_eV)
         return float(value)
+    if key == "gap_eV":      # an ordered alloy's gap (GaInP)
+        value = read_number(value, file=file, where=where, key="gap_eV", unit="eV")
+        _check_material(layer.material, layer.composition, file=file, where=where, gap_eV=value)
+        return value
     raise StackError(f"layer {layer.name!r} has no numeric key {key!r}", file=file, where=where,
                      fix="vary one of " + ", ".join(list(LAYER_NUMBERS) + ["doping_cm3",
-                                                                          "composition"]))
+                                                                          "composition", "gap_eV"]))

@@ -310,22 +310,26 @@ def _parse_head(table, *, file):
 
 def _parse_layer_stack(document, name, notes, conditions, *, file, folder):
     """A layer stack: its layers, coatings, rules and optics, and placements (two-terminal)."""
-    from siltandem.stack.layers import parse_coatings, parse_layers, parse_optics, parse_rules
+    from siltandem.stack.layers import (parse_coatings, parse_device, parse_layers,
+                                        parse_materials, parse_optics, parse_rules)
 
     if "element" in document:
         raise StackError("a stack has [[layer]] tables or [[element]] tables, not both",
                          file=file, where="key element",
                          fix="describe the stack by its layers or by its circuit elements")
-    layers = parse_layers(document["layer"], file=file)
+    folder_materials = parse_materials(document.get("materials", {}), file=file)
+    layers = parse_layers(document["layer"], file=file, folder_materials=folder_materials)
     coatings = parse_coatings(document.get("coating", []), file=file)
     rules = parse_rules(document.get("rules", {}), file=file)
     rules.update(parse_optics(document.get("optics", {}), file=file))
+    rules.update(parse_device(document.get("device", {}), file=file))
     if conditions.terminals != 2:
         raise StackError("layer stacks are two-terminal in this version", file=file,
                          where="key conditions.terminals", fix="set terminals = 2")
     from siltandem.stack.placements import parse_placements
 
-    placements = parse_placements(document.get("placement", []), layers, file=file)
+    placements = parse_placements(document.get("placement", []), layers, file=file,
+                                  folder_materials=folder_materials)
     return Stack(name, notes, conditions, (), layers, None if file is None else str(file),
                  None if folder is None else str(folder), coatings=coatings, rules=rules,
                  extra={"placements": placements} if placements else {})
@@ -391,10 +395,12 @@ def _check_carrier_flow(elements, *, file):
 def _parse_element_stack(document, name, notes, conditions, *, file, folder):
     """An element stack: its ``[[element]]`` tables, uniquely named, a subcell in every
     string; no table that belongs to layer stacks."""
-    for key in ("coating", "rules", "optics", "placement"):
+    for key in ("coating", "rules", "optics", "placement", "device", "materials"):
         if key in document:
             raise StackError(f"[{key}] goes with [[layer]] stacks", file=file, where=f"key {key}",
-                             fix=f"remove [{key}] or describe the stack by its layers")
+                             fix=f"remove [{key}] or describe the stack by its layers"
+                             + ("; an element stack gives a resistor element and each subcell's "
+                                "shunt_ohm_cm2 instead" if key == "device" else ""))
     tables = document.get("element")
     if tables is None:
         raise StackError("no [[element]] tables: a stack needs at least one subcell", file=file,

@@ -28,7 +28,7 @@ class Placement:
     layers: tuple
 
 
-def parse_placements(tables, base_layers, *, file):
+def parse_placements(tables, base_layers, *, file, folder_materials=None):
     from siltandem.stack.layers import parse_layers
 
     if not tables:
@@ -73,7 +73,8 @@ def parse_placements(tables, base_layers, *, file):
                              where=where, fix="name one of the stack's layers: "
                                               + ", ".join(repr(n) for n in names))
         after = names[anchor] if "after" in table else names[anchor] - 1
-        layers = parse_layers(table.get("layer", []), file=file)
+        layers = parse_layers(table.get("layer", []), file=file,
+                              folder_materials=folder_materials)
         clash = [layer.name for layer in layers if layer.name in names]
         if clash:
             raise StackError(f"layer name {clash[0]!r} is already in the stack", file=file,

@@ -123,7 +123,7 @@ STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
                   "terminals": 2}
 TOP_LEVEL_KEYS = {"stack", "conditions", "element", "layer", "coating", "rules", "optics",
-                  "placement"}
+                  "placement", "device", "materials"}
 #: the numeric keys of [conditions] with their ranges; the overrides --suns and --temperature and
 #: the API's suns= and temperature_K= are checked against these same entries (siltandem.options)
 CONDITION_SCHEMA = {

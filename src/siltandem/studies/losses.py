@@ -17,7 +17,11 @@ up exactly to the total. Starting from the stack as it is, the losses are remove
    every photon above its gap that reaches it (a full step absorber in its place);
 7. parasitic absorption: the layers that are not a subcell's emitter or base, and the coating,
    become transparent (layer stacks);
-8. front reflection removed (layer stacks).
+8. front reflection removed (layer stacks);
+9. grid shading removed (layer stacks with ``[device] shading_fraction``).
+
+A layer stack's ``[device]`` series resistance is a resistor element of its string (step 1); its
+shunt is each subcell's shunt, removed with the non-radiative recombination (step 4).
 
 What is left is the detailed-balance limit of the same gaps with each subcell at its own MPP
 (A. De Vos, J. Phys. D 13 (1980) 839; W. Shockley, H. J. Queisser, J. Appl. Phys. 32 (1961) 510).
@@ -46,17 +50,20 @@ def _radiative(cell, photocurrent):
     return Subcell(cell.name, cell.gap_eV, string=cell.string).with_photocurrent(photocurrent)
 
 
-def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True):
+def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True, shading=True):
     """Full step absorbers in the layers' optical environment, walked from the sun side down.
 
-    The flux enters after front reflection (unless ``reflection`` is False), is attenuated by every
-    passive layer (unless ``passive`` is False), and each subcell absorbs every photon above its
-    gap that reaches its emitter.
+    The flux enters through the open part of the front (unless ``shading`` is False) after front
+    reflection (unless ``reflection`` is False), is attenuated by every passive layer (unless
+    ``passive`` is False), and each subcell absorbs every photon above its gap that reaches its
+    emitter.
     """
     from siltandem.laws import thinfilm
 
     model = circuit.model
     wavelength, flux = spectrum.wavelength_nm, spectrum.photon_flux.copy()
+    if shading:
+        flux = flux * (1.0 - model.shading_fraction)
     temperature = model.temperature_K
     if reflection:
         top = model.materials[0]
@@ -141,6 +148,8 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
         steps = (("incomplete absorption and collection", dict(passive=True, reflection=True)),
                  ("parasitic absorption", dict(passive=False, reflection=True)),
                  ("front reflection", dict(passive=False, reflection=False)))
+        if circuit.model.shading_fraction > 0:
+            steps += (("grid shading", dict(passive=False, reflection=False, shading=False)),)
         for label, options in steps:
             currents = _walk_photocurrents(circuit, light, **options)
             subcells = [_radiative(c, currents[c.name]) for c in subcells]

@@ -31,7 +31,10 @@ ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
 #: layer keys a study may vary (a layer stack's designs are solved one by one: each changes the
 #: optics and the layer physics); their ranges are the file's (layers.check_layer_value)
 LAYER_VARIABLE = ("thickness_nm", "doping_cm3", "composition", "diffusion_length_um",
-                  "lifetime_ns", "srv_cm_s")
+                  "lifetime_ns", "srv_cm_s", "gap_eV")
+#: the name a layer stack's varied [device] keys go by (``--vary device.series_ohm_cm2=0:2:5``;
+#: a layer of that name takes precedence)
+DEVICE_TABLE = "device"
 
 
 @dataclass(frozen=True)
@@ -115,10 +118,21 @@ def _check_values(stack, element, key, values, *, shown, where, value_where):
         from siltandem.stack.layers import check_layer_value
 
         layers = {layer.name: layer for layer in stack.layers}
+        if element == DEVICE_TABLE and element not in layers:
+            from siltandem.stack.layers import DEVICE_KEYS, check_device_value
+
+            if key not in DEVICE_KEYS:
+                raise StackError(f"{shown!r}: [device] has no key {key!r}", where=where,
+                                 fix=f"{suggest(key, DEVICE_KEYS)}vary one of "
+                                     + ", ".join(f"device.{k}" for k in DEVICE_KEYS))
+            for value in (values.min(), values.max()):
+                check_device_value(key, float(value), where=value_where)
+            return
         if element not in layers:
             raise StackError(f"{shown!r}: no layer named {element!r}", where=where,
                              fix=f"{suggest(element, layers)}the stack's layers are "
-                                 + ", ".join(repr(n) for n in layers))
+                                 + ", ".join(repr(n) for n in layers)
+                                 + " (and device.<key> varies a [device] key)")
         if key not in LAYER_VARIABLE:
             raise StackError(f"{shown!r}: layer {element!r} has no numeric key {key!r}",
                              where=where, fix=f"{suggest(key, LAYER_VARIABLE)}vary one of "
@@ -255,7 +269,12 @@ def _check_layer_designs(stack, variations, *, grid=True):
 
 
 def _layer_design(stack, values):
-    """The layer stack with some layer keys replaced (one design)."""
+    """The layer stack with some layer keys (and ``device.<key>``) replaced (one design)."""
+    names = {layer.name for layer in stack.layers}
+    device = {column.rpartition(".")[2]: float(value) for column, value in values.items()
+              if column.rpartition(".")[0] == DEVICE_TABLE and DEVICE_TABLE not in names}
+    if device:
+        stack = replace(stack, rules={**stack.rules, **device})
     changed = []
     for layer in stack.layers:
         updates = {}
