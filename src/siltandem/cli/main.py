@@ -387,7 +387,8 @@ def main(argv=None):
 
         read_arguments(args)       # every number given: the same ranges as the file keys
         # the commands print a result's warnings with it: not a second time through `warnings`
-        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings():
+        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings(), \
+                _study_notes():
             warnings.simplefilter("ignore", ModelWarning)
             return _command(args)
     except StackError as exc:
@@ -401,6 +402,25 @@ def main(argv=None):
 
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+
+
+@contextlib.contextmanager
+def _study_notes():
+    """The studies' notes (a folder of another stack's results: starting afresh) on stderr,
+    --quiet or not: the library logs them (silent in the API), the command line shows them."""
+    import logging
+
+    logger = logging.getLogger("siltandem.studies.runner")
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("%(message)s"))
+    level = logger.level
+    logger.addHandler(handler)
+    logger.setLevel(logging.INFO)
+    try:
+        yield
+    finally:
+        logger.removeHandler(handler)
+        logger.setLevel(level)
 
 
 class _PrintableStream:
