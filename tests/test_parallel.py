@@ -24,6 +24,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from siltandem.studies import progress as progress_module
 from siltandem.studies import runner as parallel
 from siltandem import StackError
 from siltandem.studies.fingerprint import sweep_key
@@ -456,7 +457,7 @@ def test_a_chunk_that_always_kills_its_worker_is_given_up(monkeypatch):
 def test_progress_line_appears_only_after_the_delay():
     now = [0.0]
     stream = io.StringIO()
-    meter = parallel._Progress(2400, clock=lambda: now[0], stream=stream, already=300)
+    meter = progress_module.Progress(2400, clock=lambda: now[0], stream=stream, already=300)
     now[0] = 1.0
     meter.update(300)
     assert stream.getvalue() == ""                     # under PROGRESS_DELAY_S: silent
@@ -471,7 +472,7 @@ def test_progress_line_appears_only_after_the_delay():
 
 @pytest.mark.parametrize("progress", [True, False])
 def test_progress_goes_to_stderr_unless_disabled(capsys, monkeypatch, progress):
-    monkeypatch.setattr(parallel, "PROGRESS_DELAY_S", 0.0)
+    monkeypatch.setattr(progress_module, "PROGRESS_DELAY_S", 0.0)
     run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, progress=progress)
     captured = capsys.readouterr()
     assert captured.out == ""

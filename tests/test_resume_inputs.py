@@ -219,7 +219,7 @@ def test_map_command_after_editing_the_spectrum(folder):
                    "bottom.absorptance=0.8:1.0:2", "--out", folder / out, "--csv",
                    folder / csv, "--quiet")
         assert done.returncode == 0, done.stderr
-        return pd.read_csv(folder / csv), done.stderr
+        return pd.read_csv(folder / csv, comment="#"), done.stderr
 
     before, _ = run("out", "before.csv")
     write_spectrum(folder / "light.csv", blue_scale=0.7)

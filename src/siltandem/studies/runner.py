@@ -19,8 +19,9 @@ Output folder layout (``output=``)::
 The folder is a Parquet dataset that reads back as exactly the table, N rows for N designs:
 ``pandas.read_parquet`` and ``pyarrow.dataset`` skip names that start with ``_`` or ``.``
 (pyarrow's default ``ignore_prefixes``), and ``dask.dataframe.read_parquet``, which lists every
-``*.parquet`` under the folder, reads the files the ``_metadata`` summary names (its default). Chunk files of the older flat layout (beside ``results.parquet``) are
-moved into ``_chunks/`` when the folder is opened. ``results.parquet`` carries the run's key,
+``*.parquet`` under the folder, reads the files the ``_metadata`` summary names (its default).
+Chunk files of the older flat layout (beside ``results.parquet``) are moved into ``_chunks/``
+when the folder is opened. ``results.parquet`` carries the run's key,
 chunk size, row count and the study's provenance (``metadata=``: version, stack hash, light) in
 its schema metadata under the key ``siltandem`` (JSON).
 
@@ -66,7 +67,6 @@ import secrets
 import signal
 import sys
 import threading
-import time
 import warnings
 
 import numpy as np
@@ -75,6 +75,7 @@ import pandas as pd
 from siltandem.circuit.elements import TABLE_ROWS
 from siltandem.errors import StackError
 from siltandem.studies.fingerprint import sweep_key
+from siltandem.studies.progress import reporter
 
 #: Upper bound of the default chunk size. A batch of more designs than a subcell's junction
 #: table holds (circuit.elements.TABLE_ROWS, 5,952) leaves the tables for the laws' own root
@@ -87,8 +88,6 @@ MAX_CHUNK_ROWS = min(2_000, TABLE_ROWS)
 CHUNKS_PER_WORKER = 4
 #: A chunk that was running when worker processes died this many times is given up.
 MAX_ATTEMPTS = 3
-#: The progress line appears once a run has lasted this long [s].
-PROGRESS_DELAY_S = 2.0
 
 RESULTS_NAME = "results.parquet"
 #: the sub-folder of the chunk files (a leading "_": dataset readers skip it)
@@ -149,7 +148,7 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
         files (created if missing); the folder reads back as exactly the table (module notes).
     progress : bool, "tqdm" or callable
         False (default): silent. True: a progress line on stderr (rows done / total, rate, time
-        left) once the run has lasted :data:`PROGRESS_DELAY_S` (the command line's). ``"tqdm"``:
+        left) once the run has lasted ``progress.PROGRESS_DELAY_S`` (the command line's). ``"tqdm"``:
         a ``tqdm.auto`` bar (a widget in a notebook; needs tqdm). A callable:
         ``progress(done_rows, total_rows)`` after every finished chunk.
     resume : bool
@@ -246,7 +245,7 @@ def _compute_missing(function, table, designs, bounds, results, *, client, worke
     frame is checked against its designs and written to ``folder`` as it arrives. On Ctrl-C, says
     how many chunks are on disk and re-raises."""
     pending = [i for i in range(len(bounds)) if i not in results]
-    meter = _reporter(progress, len(table), sum(len(frame) for frame in results.values()))
+    meter = reporter(progress, len(table), sum(len(frame) for frame in results.values()))
 
     def finish(chunk_id, frame):
         start, stop = bounds[chunk_id]
@@ -392,6 +391,15 @@ def _check_result(frame, designs, chunk_id):
                          f"designs (missing {missing}, unexpected {extra}, or repeated ids)",
                          where=where, fix=fix)
     return frame
+
+
+def require_parquet(where):
+    """Before any work: pyarrow (a dependency) is importable, or a StackError naming ``where``
+    (an option or argument) and the install command."""
+    try:
+        _require("pyarrow.parquet")
+    except StackError as error:
+        raise StackError(error.problem, where=where, fix=error.fix) from None
 
 
 def _require(module, fix=None):
@@ -717,101 +725,3 @@ def _run_on_dask(client, function, chunks, finish, label):
         if outstanding:  # an error or an interrupt: nothing left running on the cluster
             running.clear()
             client.cancel([future for _, future in outstanding.values()])
-
-
-# ----------------------------------------------------------------------------------------------
-# progress
-
-def _reporter(progress, total, already):
-    """The progress reporter a run was asked for (see :func:`run_chunks`): update(rows), close()."""
-    if progress == "tqdm":
-        return _Bar(total, already)
-    if callable(progress) and not isinstance(progress, bool):
-        return _Callback(progress, total, already)
-    return _Progress(total, enabled=bool(progress), already=already)
-
-
-class _Callback:
-    """``progress(done_rows, total_rows)`` after each finished chunk (once at the start when
-    chunks came from disk)."""
-
-    def __init__(self, function, total, already):
-        self.function, self.total, self.done = function, total, already
-        if already:
-            function(already, total)
-
-    def update(self, rows):
-        self.done += rows
-        self.function(self.done, self.total)
-
-    def close(self):
-        pass
-
-
-class _Bar:
-    """A ``tqdm.auto`` bar: a widget in a notebook, a text bar in a terminal."""
-
-    def __init__(self, total, already):
-        self.bar = _require("tqdm.auto").tqdm(total=total, initial=already, unit="rows",
-                                              desc="designs")
-
-    def update(self, rows):
-        self.bar.update(rows)
-
-    def close(self):
-        self.bar.close()
-
-
-class _Progress:
-    """One line on stderr: rows done / total, rate, time left; only once the run is slow."""
-
-    def __init__(self, total, *, enabled=True, already=0, delay=None, clock=time.monotonic,
-                 stream=None):
-        self.total, self.done, self.already = total, already, already
-        self.enabled, self.clock, self.stream = enabled, clock, stream
-        self.delay = PROGRESS_DELAY_S if delay is None else delay
-        self.start = self.last = clock()
-        self.shown = False
-        self.width = 0
-
-    def _stream(self):
-        return self.stream if self.stream is not None else sys.stderr
-
-    def line(self):
-        elapsed = max(self.clock() - self.start, 1e-9)
-        rate = (self.done - self.already) / elapsed
-        left = (self.total - self.done) / rate if rate > 0 else float("nan")
-        if np.isfinite(left):
-            minutes, seconds = divmod(round(left), 60)
-            eta = f"{minutes // 60:d}:{minutes % 60:02d}:{seconds:02d}"
-        else:
-            eta = "?"
-        resumed = f", {self.already:,} from disk" if self.already else ""
-        return (f"rows {self.done:,} / {self.total:,} ({100 * self.done / self.total:.0f} %)"
-                f"{resumed}  {rate:,.0f} rows/s  left {eta}")
-
-    def update(self, rows):
-        self.done += rows
-        if not self.enabled:
-            return
-        now = self.clock()
-        stream = self._stream()
-        tty = getattr(stream, "isatty", lambda: False)()
-        if now - self.start < self.delay or (self.shown and now - self.last < (0.5 if tty else 10)):
-            return
-        self.last, self.shown = now, True
-        text = self.line()
-        self.width = max(self.width, len(text))
-        stream.write("\r" + text.ljust(self.width) if tty else text + "\n")
-        stream.flush()
-
-    def close(self):
-        if self.enabled and self.shown:
-            stream = self._stream()
-            tty = getattr(stream, "isatty", lambda: False)()
-            elapsed = self.clock() - self.start
-            text = self.line() + f"  done in {elapsed:.1f} s"
-            stream.write(("\r" + text.ljust(self.width) if tty else text) + "\n")
-            stream.flush()
-            self.shown = False
-            self.enabled = False
