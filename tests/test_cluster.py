@@ -121,13 +121,13 @@ def test_a_csv_spectrum_map_runs_on_workers_elsewhere_bit_identical_in_every_mod
 
     monkeypatch.chdir(project)                         # the client, as a user starts it
     stack = load_stack("dual.toml")                    # a relative path, as typed
-    gap = parse_vary("top.gap_eV=1.6:1.9:55", stack)
-    absorb = parse_vary("top.absorptance=0.8:1:50", stack)  # 2,750 designs > MAX_CHUNK_ROWS
+    gap = parse_vary("top.gap_eV=1.6:1.9:80", stack)
+    absorb = parse_vary("top.absorptance=0.8:1:80", stack)  # 6,400 designs > TABLE_ROWS
     default = design_map(stack, gap, absorb)
-    assert len(default) == 2750 and default["efficiency_pct"].notna().all()
+    assert len(default) == 6400 and default["efficiency_pct"].notna().all()
     assert_identical(design_map(stack, gap, absorb, chunk_rows=300), default)
-    assert_identical(design_map(stack, gap, absorb, chunk_rows=8000), default)  # > the tables
-    on_cluster = design_map(stack, gap, absorb, cluster=remote_cluster, chunk_rows=700)
+    assert_identical(design_map(stack, gap, absorb, chunk_rows=8000), default)  # one chunk
+    on_cluster = design_map(stack, gap, absorb, cluster=remote_cluster, chunk_rows=1000)
     assert_identical(on_cluster, default)
     # the command line, as the report ran it: exit 0, the folder reads back exactly
     code = main(["map", "dual.toml", "--vary", "top.gap_eV=1.6:1.9:5", "--vary",
