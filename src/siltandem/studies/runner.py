@@ -79,9 +79,10 @@ from siltandem.studies.progress import reporter
 
 #: Upper bound of the default chunk size. A batch of more designs than a subcell's junction
 #: table holds (circuit.elements.TABLE_ROWS, 5,952) leaves the tables for the laws' own root
-#: finds: about 4x slower, and last-ulp different from the same designs in smaller chunks. 2,000
-#: rows is the fastest size measured below that (benchmarks/bench_chunks.py). Studies whose
-#: per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
+#: finds: 1.8-2.1x slower in our runs, and last-bit different from the same designs in smaller
+#: chunks. Sizes from 1,000 rows to the limit measured within the noise of a shared machine of one
+#: another (benchmarks/bench_chunks.py); 2,000 keeps a chunk's memory and the progress steps
+#: small. Studies whose per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
 MAX_CHUNK_ROWS = min(2_000, TABLE_ROWS)
 #: Default number of chunks per worker on a pool or a cluster: enough to balance uneven chunks,
 #: few enough that per-task overhead stays negligible.
