@@ -110,6 +110,8 @@ def calls(marker_dir):
 
 
 def chunk_files(folder):
+    if not Path(folder, "_chunks").is_dir():          # a run that has not made it yet
+        return []
     return sorted(p for p in Path(folder, "_chunks").iterdir() if CHUNK_FILE.match(p.name))
 
 
