@@ -415,12 +415,12 @@ def test_csv_cells_that_would_start_a_formula_are_quoted(tmp_path, capsys):
             '[[element]]\nkind = "resistor"\nname = "@r"\nseries_ohm_cm2 = 0.5\n')
     stack = _write(tmp_path, "f.toml", text)
     assert _main(["run", stack, "--curve", tmp_path / "c.csv"], capsys)[0] == 0
-    rows = list(csv.reader((tmp_path / "c.csv").open()))
+    rows = list(csv.reader(line for line in (tmp_path / "c.csv").open() if line[0] != "#"))
     assert rows[0] == ["voltage_V", "current_mA_cm2", "'=HYPERLINK(1)_V", "'+si_V", "'@r_V"]
     assert any(float(r[0]) < 0 for r in rows[1:])            # negative numbers untouched
     assert _main(["match", stack, "--vary", "@r.series_ohm_cm2=0:1:3", "--quiet", "--csv",
                   tmp_path / "m.csv"], capsys)[0] == 0
-    rows = list(csv.reader((tmp_path / "m.csv").open()))
+    rows = list(csv.reader(line for line in (tmp_path / "m.csv").open() if line[0] != "#"))
     assert "'=HYPERLINK(1).photocurrent_mA_cm2" in rows[0]
     limiting = rows[0].index("limiting_subcell")
     assert {r[limiting] for r in rows[1:]} <= {"'=HYPERLINK(1)", "'+si"}

@@ -68,7 +68,7 @@ def test_curve_and_plot_files(tmp_path):
     curve, png, svg = tmp_path / "iv.csv", tmp_path / "iv.png", tmp_path / "iv.svg"
     done = cli("run", DEMO, "--curve", curve, "--plot", png)
     assert done.returncode == 0, done.stderr
-    frame = pd.read_csv(curve)
+    frame = pd.read_csv(curve, comment="#")
     assert list(frame.columns[:2]) == ["voltage_V", "current_mA_cm2"]
     assert list(frame.columns[2:]) == ["front grid_V", "top_V", "silicon_V", "rear contact_V"]
     np.testing.assert_allclose(frame.iloc[:, 2:].sum(axis=1), frame["voltage_V"], atol=1e-8)
@@ -156,8 +156,8 @@ def test_sweeps_up_and_down_differ_with_hysteresis(tmp_path):
     done = cli("run", TUNNEL_DEMO, "--sweep", "down", "--curve", down, "--plot",
                tmp_path / "s.png")
     assert done.returncode == 0 and "voltage sweep down" in done.stdout
-    a = pd.read_csv(up).sort_values("voltage_V")
-    b = pd.read_csv(down).sort_values("voltage_V")
+    a = pd.read_csv(up, comment="#").sort_values("voltage_V")
+    b = pd.read_csv(down, comment="#").sort_values("voltage_V")
     np.testing.assert_allclose(a["voltage_V"], b["voltage_V"], atol=1e-12)
     gap = np.nanmax(np.abs(a["current_mA_cm2"].to_numpy() - b["current_mA_cm2"].to_numpy()))
     assert gap > 1.0   # mA/cm2: the two sweeps sit on different branches somewhere
@@ -168,7 +168,7 @@ def test_concentration_series(tmp_path):
     done = cli("run", ROOT / "stacks" / "demo_concentrator.toml", "--suns-range", "1:2000:12",
                "--table", table, "--plot", tmp_path / "c.png")
     assert done.returncode == 0, done.stderr
-    frame = pd.read_csv(table)
+    frame = pd.read_csv(table, comment="#")
     assert len(frame) == 12 and frame["suns"].iloc[-1] == pytest.approx(2000)
     # Jsc rises in proportion to the light while every junction is below its peak; at 1 sun the
     # reverse-biased limiting cell's shunt adds about 0.2 % (2.5 V across 1e5 ohm cm2)

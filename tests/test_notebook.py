@@ -183,9 +183,9 @@ def test_the_repr_of_several_strings_and_of_warnings():
 
 
 def test_a_study_prints_no_progress_unless_asked(capsys, monkeypatch):
-    from siltandem.studies import runner
+    from siltandem.studies import progress as progress_module
 
-    monkeypatch.setattr(runner, "PROGRESS_DELAY_S", 0.0)     # the line would show at once
+    monkeypatch.setattr(progress_module, "PROGRESS_DELAY_S", 0.0)     # the line would show at once
     dual = load_stack(STACKS / "demo_dual.toml")
     gap = siltandem.parse_vary("top.gap_eV=1.6:1.9:3", dual)
     absorb = siltandem.parse_vary("top.absorptance=0.8:1:3", dual)
@@ -221,6 +221,109 @@ def test_every_json_output_carries_the_version_and_the_stack_hash(tmp_path, caps
     data = json.loads(capsys.readouterr().out)
     assert data["siltandem_version"] == siltandem.__version__
     assert data["stack_sha256"] == hashlib.sha256(stack.read_bytes()).hexdigest()
+    if argv[0] == "yield":
+        return                        # the yield year's JSON: its own light (the weather)
+    # the light used: AM1.5G, whose table is pvlib's ASTMG173.csv (the file read for it)
+    import pvlib
+
+    table = Path(pvlib.__file__).parent / "data" / "ASTMG173.csv"
+    assert data["light"] == {"spectrum": "am1.5g",
+                             "spectrum_sha256": hashlib.sha256(table.read_bytes()).hexdigest(),
+                             "suns": 1.0, "temperature_K": 298.15}
+
+
+def test_csv_and_parquet_outputs_carry_the_provenance(tmp_path, capsys):
+    """A CSV spectrum and overrides: the header lines and the Parquet schema metadata say the
+    version, the stack file's hash and the light, each hash that of the file's bytes."""
+    import hashlib
+    import json
+
+    import pandas as pd
+    import pyarrow.parquet
+
+    from siltandem.cli.main import main
+    from siltandem.result.record import read_provenance_lines
+
+    stack = tmp_path / "s.toml"
+    stack.write_bytes((STACKS / "demo_dual.toml").read_bytes())
+    light = tmp_path / "flat.csv"
+    light.write_text("wavelength_nm,irradiance_W_m2_nm\n300,1.0\n1200,1.0\n")   # invented
+    argv = ["map", str(stack), "--vary", "top.gap_eV=1.6:1.8:3", "--vary",
+            "top.absorptance=0.9:1:2", "--spectrum", str(light), "--suns", "2",
+            "--temperature", "310", "--quiet", "--csv", str(tmp_path / "m.csv"),
+            "--parquet", str(tmp_path / "m.parquet"), "--out", str(tmp_path / "out")]
+    assert main(argv) == 0, capsys.readouterr().err
+    expected = {"siltandem_version": siltandem.__version__,
+                "stack_sha256": hashlib.sha256(stack.read_bytes()).hexdigest(),
+                "light": {"spectrum": str(light),
+                          "spectrum_sha256": hashlib.sha256(light.read_bytes()).hexdigest(),
+                          "suns": 2.0, "temperature_K": 310.0}}
+    header = read_provenance_lines((tmp_path / "m.csv").read_text())
+    assert header == {"siltandem_version": expected["siltandem_version"],
+                      "stack_sha256": expected["stack_sha256"],
+                      **{f"light.{k}": str(v) for k, v in expected["light"].items()}}
+    table = pd.read_csv(tmp_path / "m.csv", comment="#")
+    assert len(table) == 6 and "efficiency_pct" in table.columns
+    for path in (tmp_path / "m.parquet", tmp_path / "out" / "results.parquet"):
+        stored = json.loads(pyarrow.parquet.read_schema(path).metadata[b"siltandem"])
+        assert {k: stored[k] for k in expected} == expected, path
+    run_csv = tmp_path / "iv.csv"
+    assert main(["run", str(stack), "--curve", str(run_csv)]) == 0
+    assert read_provenance_lines(run_csv.read_text())["light.spectrum"] == "am1.5g"
+
+
+def test_the_parquet_options_refuse_before_any_work_without_pyarrow(tmp_path, capsys,
+                                                                      monkeypatch):
+    from siltandem.cli.main import main
+
+    for name in [m for m in sys.modules if m == "pyarrow" or m.startswith("pyarrow.")]:
+        monkeypatch.setitem(sys.modules, name, None)
+    monkeypatch.setitem(sys.modules, "pyarrow", None)
+    monkeypatch.setitem(sys.modules, "pyarrow.parquet", None)
+    for option in ("--parquet", "--out"):
+        target = tmp_path / ("t.parquet" if option == "--parquet" else "folder")
+        code = main(["map", str(STACKS / "demo_dual.toml"), "--vary", "top.gap_eV=1.6:1.8:3",
+                     "--vary", "top.absorptance=0.9:1:2", option, str(target)])
+        out, err = capsys.readouterr()
+        assert code == 2 and out == "" and "Traceback" not in err
+        assert f"{option}: pyarrow.parquet is not installed" in err and "pip install pyarrow" in err
+        assert not target.exists()
+
+
+# ----------------------------------------------------------------------------------------------
+# the notebook kept in the repository runs, with its figures inline
+
+
+def test_the_walkthrough_notebook_runs_with_figures_inline(tmp_path):
+    """examples/walkthrough.ipynb executed by nbclient in a fresh Jupyter kernel: no cell fails,
+    the figures are PNG displays (the kernel's inline backend, untouched), the map on a
+    LocalCluster reads back as exactly its rows, the triple's matches say which pair limits."""
+    nbformat = pytest.importorskip("nbformat")
+    nbclient = pytest.importorskip("nbclient")
+    pytest.importorskip("ipykernel")
+    pytest.importorskip("distributed")
+    notebook = nbformat.read(ROOT / "examples" / "walkthrough.ipynb", as_version=4)
+    assert all(not cell.get("outputs") for cell in notebook.cells if cell.cell_type == "code")
+    env_path = os.pathsep.join([str(ROOT / "src"), *filter(None, [os.environ.get("PYTHONPATH")])])
+    os.environ["PYTHONPATH"], before = env_path, os.environ.get("PYTHONPATH")
+    try:
+        nbclient.NotebookClient(notebook, timeout=600, kernel_name="python3",
+                                resources={"metadata": {"path": str(ROOT / "examples")}}).execute()
+    finally:
+        if before is None:
+            os.environ.pop("PYTHONPATH")
+        else:
+            os.environ["PYTHONPATH"] = before
+    outputs = [o for cell in notebook.cells if cell.cell_type == "code" for o in cell.outputs]
+    assert not [o for o in outputs if o.output_type == "error"]
+    figures = [o for o in outputs if o.output_type == "display_data" and "image/png" in o.data]
+    assert len(figures) == 2                                   # the I-V and the map
+    text = "".join(o.get("text", "") for o in outputs if o.output_type == "stream")
+    assert "63 designs; 63 rows read back from the folder" in text
+    html = [o.data["text/html"] for o in outputs if "text/html" in o.get("data", {})]
+    assert any("efficiency" in h for h in html)                 # the Result's notebook summary
+    assert any("pair_limits" in h for h in html)
+    assert "Pending" in "".join(c.source for c in notebook.cells if c.cell_type == "markdown")
 
 
 def test_the_result_and_the_stack_carry_the_hash_of_the_bytes_read(tmp_path):

@@ -24,6 +24,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from siltandem.studies import progress as progress_module
 from siltandem.studies import runner as parallel
 from siltandem import StackError
 from siltandem.studies.fingerprint import sweep_key
@@ -109,18 +110,23 @@ def calls(marker_dir):
 
 
 def chunk_files(folder):
-    return sorted(p for p in Path(folder).iterdir() if CHUNK_FILE.match(p.name))
+    if not Path(folder, "_chunks").is_dir():          # a run that has not made it yet
+        return []
+    return sorted(p for p in Path(folder, "_chunks").iterdir() if CHUNK_FILE.match(p.name))
 
 
 def assert_only_complete_files(folder, *, final=True):
-    """Exactly the expected names: every chunk once (complete), results.parquet; nothing else."""
-    names = sorted(p.name for p in Path(folder).iterdir())
+    """Exactly the expected names: results.parquet beside the _chunks folder, every chunk once
+    (complete) in it; nothing else."""
+    assert sorted(p.name for p in Path(folder).iterdir()) == (
+        ["_chunks", "_metadata", "results.parquet"] if final else ["_chunks"])
+    names = sorted(p.name for p in Path(folder, "_chunks").iterdir())
     chunks = [n for n in names if CHUNK_FILE.match(n)]
     assert sorted(int(CHUNK_FILE.match(n)[1]) for n in chunks) == list(range(N_CHUNKS))
-    assert set(names) - set(chunks) == ({"results.parquet"} if final else set())
+    assert names == chunks
     firsts = first_designs()
     for name in chunks:
-        frame = pd.read_parquet(Path(folder, name))
+        frame = pd.read_parquet(Path(folder, "_chunks", name))
         chunk_id = int(CHUNK_FILE.match(name)[1])
         assert len(frame) == CHUNK_ROWS and frame["design"].iloc[0] == firsts[chunk_id]
     pd.testing.assert_frame_equal(pd.read_parquet(Path(folder, "results.parquet")), expected())
@@ -206,7 +212,8 @@ def test_default_chunking_and_index_as_design_id():
     assert list(result.columns) == ["design", "ratio", "length", "twice_k"]
     pd.testing.assert_frame_equal(result, expected(), check_exact=True)
     # default chunk sizes: the whole table in-process (up to the cap); ~4 chunks per worker
-    assert parallel.default_chunk_rows(2400) == 2400
+    assert parallel.default_chunk_rows(1500) == 1500
+    assert parallel.default_chunk_rows(2400) == parallel.MAX_CHUNK_ROWS == 2000
     assert parallel.default_chunk_rows(10**6) == parallel.MAX_CHUNK_ROWS
     assert parallel.default_chunk_rows(2400, slots=2, local=False) == 300
     assert parallel.default_chunk_rows(3, slots=8, local=False) == 1
@@ -336,7 +343,8 @@ def test_parent_killed_by_sigkill_resumes_exactly_once(tmp_path, markers, worker
     # after the kill: complete chunk files, maybe a temporary file, nothing else
     done = [int(CHUNK_FILE.match(p.name)[1]) for p in chunk_files(out)]
     assert 1 <= len(done) < N_CHUNKS
-    others = [p.name for p in out.iterdir() if not CHUNK_FILE.match(p.name)]
+    assert [p.name for p in out.iterdir()] == ["_chunks"]
+    others = [p.name for p in (out / "_chunks").iterdir() if not CHUNK_FILE.match(p.name)]
     assert all(TEMPORARY_FILE.match(name) for name in others), others
     for path in chunk_files(out):
         assert len(pd.read_parquet(path)) == CHUNK_ROWS
@@ -370,8 +378,9 @@ def test_write_killed_before_its_rename_leaves_no_partial_file(tmp_path):
     script = STALL_BEFORE_RENAME.format(tests=str(TESTS), out=str(out), chunk_rows=CHUNK_ROWS)
     child = subprocess.Popen([sys.executable, "-c", script])
     try:
-        wait_for(lambda: out.is_dir() and any(TEMPORARY_FILE.match(p.name)
-                                              for p in out.iterdir()), 40, "a temporary file")
+        wait_for(lambda: (out / "_chunks").is_dir() and any(
+            TEMPORARY_FILE.match(p.name) for p in (out / "_chunks").iterdir()), 40,
+            "a temporary file")
         time.sleep(0.1)
         os.kill(child.pid, signal.SIGKILL)
         child.wait(timeout=10)
@@ -379,7 +388,8 @@ def test_write_killed_before_its_rename_leaves_no_partial_file(tmp_path):
         if child.poll() is None:
             child.kill()
             child.wait()
-    names = [p.name for p in out.iterdir()]
+    assert [p.name for p in out.iterdir()] == ["_chunks"]
+    names = [p.name for p in (out / "_chunks").iterdir()]
     assert names and all(TEMPORARY_FILE.match(name) for name in names)   # no final name exists
     result = run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, output=out,
                         progress=False)
@@ -392,7 +402,7 @@ def test_failed_write_keeps_the_old_file_and_leaves_no_temporary(tmp_path, monke
 
     out = tmp_path / "out"
     run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, output=out, progress=False)
-    old = {p.name: p.read_bytes() for p in out.iterdir()}
+    old = {p.relative_to(out): p.read_bytes() for p in out.rglob("*") if p.is_file()}
 
     def breaks_halfway(table, where, **kwargs):
         where.write(b"PAR1 half a file")
@@ -401,7 +411,7 @@ def test_failed_write_keeps_the_old_file_and_leaves_no_temporary(tmp_path, monke
     with pytest.raises(OSError, match="simulated"):
         run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, output=out, resume=False,
                    progress=False)
-    assert {p.name: p.read_bytes() for p in out.iterdir()} == old
+    assert {p.relative_to(out): p.read_bytes() for p in out.rglob("*") if p.is_file()} == old
 
 
 # ----------------------------------------------------------------------------------------------
@@ -449,7 +459,7 @@ def test_a_chunk_that_always_kills_its_worker_is_given_up(monkeypatch):
 def test_progress_line_appears_only_after_the_delay():
     now = [0.0]
     stream = io.StringIO()
-    meter = parallel._Progress(2400, clock=lambda: now[0], stream=stream, already=300)
+    meter = progress_module.Progress(2400, clock=lambda: now[0], stream=stream, already=300)
     now[0] = 1.0
     meter.update(300)
     assert stream.getvalue() == ""                     # under PROGRESS_DELAY_S: silent
@@ -464,7 +474,7 @@ def test_progress_line_appears_only_after_the_delay():
 
 @pytest.mark.parametrize("progress", [True, False])
 def test_progress_goes_to_stderr_unless_disabled(capsys, monkeypatch, progress):
-    monkeypatch.setattr(parallel, "PROGRESS_DELAY_S", 0.0)
+    monkeypatch.setattr(progress_module, "PROGRESS_DELAY_S", 0.0)
     run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, progress=progress)
     captured = capsys.readouterr()
     assert captured.out == ""
@@ -542,14 +552,19 @@ def test_unfingerprintable_function_with_output(tmp_path):
                    output=tmp_path, progress=False)
 
 
-@pytest.mark.parametrize("missing, options", [("pyarrow", {"output": "folder"}),
-                                              ("distributed", {"cluster": "tcp://127.0.0.1:9"})])
-def test_missing_optional_extra(tmp_path, monkeypatch, missing, options):
+@pytest.mark.parametrize("missing, options, fix", [
+    ("pyarrow", {"output": "folder"}, "pip install pyarrow (a dependency of siltandem: pip install -e .)"),
+    ("distributed", {"cluster": "tcp://127.0.0.1:9"}, 'pip install -e ".[parallel]"'),
+    ("tqdm", {"progress": "tqdm"}, "pip install tqdm, or pass progress=True for a line on stderr")])
+def test_missing_package(tmp_path, monkeypatch, missing, options, fix):
     monkeypatch.setitem(sys.modules, missing, None)          # makes `import missing` fail
+    for name in [m for m in sys.modules if m.startswith(missing + ".")]:
+        monkeypatch.setitem(sys.modules, name, None)
     options = {k: tmp_path / v if k == "output" else v for k, v in options.items()}
     with pytest.raises(StackError, match=rf"{missing}.* is not installed") as error:
-        run_chunks(formula, design_table(), progress=False, **options)
-    assert error.value.fix == 'pip install -e ".[parallel]"'
+        run_chunks(formula, design_table(), **options)
+    assert error.value.fix == fix
+    assert not (tmp_path / "folder").exists()                # refused before any work
 
 
 def test_unreachable_scheduler():
@@ -558,3 +573,84 @@ def test_unreachable_scheduler():
         with pytest.raises(StackError, match=r"cannot reach the dask scheduler at "
                                              r"'tcp://127.0.0.1:9'"):
             run_chunks(formula, design_table(), cluster="tcp://127.0.0.1:9", progress=False)
+
+
+# ----------------------------------------------------------------------------------------------
+# the output folder is a dataset that reads back as exactly the table (issue 20)
+#
+# The readers' rule relied on: a folder is read as a dataset whose discovery skips names starting
+# with "_" or "." (pyarrow.dataset.dataset, ignore_prefixes default [".", "_"], pyarrow API
+# reference); pandas.read_parquet and dask.dataframe.read_parquet read folders through it.
+
+def test_the_output_folder_reads_back_as_exactly_the_table(tmp_path):
+    import pyarrow.dataset
+
+    out = tmp_path / "out"
+    result = run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, output=out,
+                        metadata={"siltandem_version": "x.y", "stack_sha256": "ab" * 32})
+    assert len(chunk_files(out)) == N_CHUNKS                 # the chunks are there, aside
+    read = pd.read_parquet(out)
+    assert len(read) == N_ROWS
+    pd.testing.assert_frame_equal(read, result, check_exact=True)
+    assert pyarrow.dataset.dataset(out, format="parquet").count_rows() == N_ROWS
+    dd = pytest.importorskip("dask.dataframe")
+    frame = dd.read_parquet(out).compute().reset_index(drop=True)
+    pd.testing.assert_frame_equal(frame, result, check_exact=True)
+
+
+def test_the_table_metadata_says_where_it_came_from(tmp_path):
+    import json
+
+    import pyarrow.parquet
+
+    out = tmp_path / "out"
+    run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, output=out,
+               metadata={"siltandem_version": "x.y", "stack_sha256": "ab" * 32})
+    stored = json.loads(pyarrow.parquet.read_schema(out / "results.parquet").metadata[b"siltandem"])
+    assert stored["siltandem_version"] == "x.y" and stored["stack_sha256"] == "ab" * 32
+    assert stored["rows"] == N_ROWS and stored["chunk_rows"] == CHUNK_ROWS
+    assert re.fullmatch(r"[0-9a-f]{16}", stored["key"])
+
+
+def test_chunks_of_the_older_flat_layout_are_moved_aside_and_resumed(tmp_path, markers):
+    out = tmp_path / "out"
+    study = functools.partial(counted, marker_dir=str(markers))
+    run_chunks(study, design_table(), chunk_rows=CHUNK_ROWS, output=out)
+    for path in chunk_files(out):                            # as the older layout left them
+        path.rename(out / path.name)
+    (out / "_chunks").rmdir()
+    (out / "_metadata").unlink()
+    assert len(pd.read_parquet(out)) == 2 * N_ROWS          # the older layout's double count
+    before = calls(markers)
+    result = run_chunks(study, design_table(), chunk_rows=CHUNK_ROWS, output=out)
+    assert calls(markers) == before                          # resumed, nothing recomputed
+    pd.testing.assert_frame_equal(result, expected(), check_exact=True)
+    assert_only_complete_files(out)
+    assert len(pd.read_parquet(out)) == N_ROWS
+
+
+def test_progress_through_a_callback_and_a_bar(capsys):
+    seen = []
+    run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS,
+               progress=lambda done, total: seen.append((done, total)))
+    assert seen == [(CHUNK_ROWS * (i + 1), N_ROWS) for i in range(N_CHUNKS)]
+    assert capsys.readouterr() == ("", "")
+    pytest.importorskip("tqdm")
+    run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, progress="tqdm")
+    assert f"{N_ROWS}/{N_ROWS}" in capsys.readouterr().err    # tqdm's text bar off a notebook
+    with pytest.raises(StackError, match=r"progress = 'bar' is not one of"):
+        run_chunks(formula, design_table(), progress="bar")
+
+
+def test_starting_afresh_is_silent_unless_progress_is_on(tmp_path, capsys, caplog):
+    import logging
+
+    out = tmp_path / "out"
+    run_chunks(formula, design_table(), chunk_rows=CHUNK_ROWS, output=out)
+    with caplog.at_level(logging.INFO, logger="siltandem"):
+        run_chunks(formula_other, design_table(), chunk_rows=CHUNK_ROWS, output=out)
+    assert capsys.readouterr() == ("", "")
+    assert parallel.AFRESH_MESSAGE in caplog.text
+    run_chunks(formula_from_index, design_table(), chunk_rows=CHUNK_ROWS, output=out,
+               progress=True)
+    assert parallel.AFRESH_MESSAGE in capsys.readouterr().err

@@ -90,11 +90,12 @@ def solves(monkeypatch):
 
 
 def run_map(folder, out):
-    """The map study of the stack file as it is now on disk (loaded afresh, as the CLI does)."""
+    """The map study of the stack file as it is now on disk (loaded afresh, as the CLI does);
+    with progress on, as the CLI runs it (a starting-afresh note goes to stderr)."""
     stack = load_stack(folder / "dual.toml")
     first = parse_vary("top.absorptance=0.7:0.9:3", stack)
     second = parse_vary("bottom.absorptance=0.8:1.0:2", stack)
-    return design_map(stack, first, second, progress=False, output=out)
+    return design_map(stack, first, second, progress=True, output=out)
 
 
 def assert_same(a, b):
@@ -137,7 +138,7 @@ def test_an_edited_input_file_starts_afresh_and_equals_a_fresh_run(folder, solve
     # results.parquet holds the new table; the old chunks stay, unused
     on_disk = pd.read_parquet(folder / "out" / parallel.RESULTS_NAME)
     assert_same(on_disk, fresh)
-    assert len(list((folder / "out").glob("chunk-*.parquet"))) == 2
+    assert len(list((folder / "out" / "_chunks").glob("chunk-*.parquet"))) == 2
     # going back to the first content resumes the first run's chunks again, without a message
     if edit == "spectrum":
         write_spectrum(folder / "light.csv")
@@ -218,7 +219,7 @@ def test_map_command_after_editing_the_spectrum(folder):
                    "bottom.absorptance=0.8:1.0:2", "--out", folder / out, "--csv",
                    folder / csv, "--quiet")
         assert done.returncode == 0, done.stderr
-        return pd.read_csv(folder / csv), done.stderr
+        return pd.read_csv(folder / csv, comment="#"), done.stderr
 
     before, _ = run("out", "before.csv")
     write_spectrum(folder / "light.csv", blue_scale=0.7)

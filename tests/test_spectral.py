@@ -89,7 +89,7 @@ def _run_cli(argv, capsys):
 
 def _read_table(path):
     with open(path, encoding="utf-8") as handle:
-        rows = list(csv.reader(handle))
+        rows = list(csv.reader(line for line in handle if not line.startswith("# ")))
     header, body = rows[0], np.array(rows[1:], dtype=float)
     return header, {name: body[:, k] for k, name in enumerate(header)}
 

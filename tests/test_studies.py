@@ -154,7 +154,7 @@ def test_match_and_map_commands(tmp_path):
                "top.absorptance=0.8:1:3", "--csv", tmp_path / "g.csv", "--parquet",
                tmp_path / "g.parquet", "--plot", tmp_path / "g.png", "--quiet")
     assert done.returncode == 0, done.stderr
-    frame = pd.read_csv(tmp_path / "g.csv")
+    frame = pd.read_csv(tmp_path / "g.csv", comment="#")
     assert len(frame) == 21 and "top.gap_eV" in frame.columns
     assert pd.read_parquet(tmp_path / "g.parquet").shape == frame.shape
     bad = cli("map", stack, "--vary", "top.gap_eV=1.6:1.9:7")
@@ -214,3 +214,41 @@ def test_map_on_a_dask_cluster_equals_the_local_run(dual):
     pd.testing.assert_frame_equal(local[["design", "efficiency_pct", "voc_V", "jsc_mA_cm2"]],
                                   remote[["design", "efficiency_pct", "voc_V", "jsc_mA_cm2"]],
                                   check_exact=True)
+
+
+def test_match_on_a_triple_says_which_pair_limits():
+    """The demo triple (invented data) over the top absorptance: top and middle cross where
+    silicon has the lowest photocurrent, top and silicon cross where they are the lowest pair.
+    Check, independent of the pair bookkeeping: in a series string the current is bounded by the
+    smallest photocurrent (Kirchhoff's current law; Green, Solar Cells, 1982, ch. 10), so the solved
+    Jsc at a non-limiting crossing follows silicon, not the matched pair."""
+    from pathlib import Path
+
+    triple = load_stack(Path(__file__).resolve().parents[1] / "stacks" / "demo_triple.toml")
+    variation = parse_vary("top.absorptance=0.5:1:11", triple)
+    table, matches = match_currents(triple, variation)
+    by_pair = {tuple(m["subcells"]): m for m in matches}
+    assert set(by_pair) == {("top", "middle"), ("top", "silicon")}
+    for pair, m in by_pair.items():
+        jsc = solve_designs(triple, {variation.column: np.array([m["value"]])})["jsc_mA_cm2"][0]
+        silicon = table["silicon.photocurrent_mA_cm2"]
+        if pair == ("top", "middle"):
+            assert m["pair_limits"] is False and m["limiting_subcell"] == "silicon"
+            assert m["photocurrent_mA_cm2"] - jsc > 3.0           # far below the pair
+            assert jsc <= silicon.max() + 1e-9
+        else:
+            assert m["pair_limits"] is True and m["limiting_subcell"] == "top"
+            assert jsc == pytest.approx(m["photocurrent_mA_cm2"], rel=2e-3)
+
+
+def test_the_match_command_prints_every_row_and_the_pair_verdict(tmp_path):
+    from pathlib import Path
+
+    stack = Path(__file__).resolve().parents[1] / "stacks" / "demo_triple.toml"
+    done = cli("match", stack, "--vary", "top.absorptance=0.5:1:31", "--quiet")
+    assert done.returncode == 0, done.stderr
+    rows = [line for line in done.stdout.splitlines()
+            if line.strip() and line.split()[-1] in ("top", "middle", "silicon")]
+    assert len(rows) == 31                                       # every row, not every second
+    assert "this pair does not limit: silicon has a lower photocurrent" in done.stdout
+    assert "this pair limits the string's current there" in done.stdout

@@ -35,6 +35,9 @@ TABLE_FORWARD_POINTS = 512
 #: largest table (designs x points) an element keeps; beyond it (batches of thousands of
 #: designs) the laws' own root finds serve, at O(designs x points) memory instead
 TABLE_MAX_ENTRIES = 4_000_000
+#: the most designs one batch solves through junction tables (5,952); studies cut their batches
+#: to at most this many, so that a design's result does not depend on its batch
+TABLE_ROWS = TABLE_MAX_ENTRIES // (TABLE_FORWARD_POINTS + TABLE_REVERSE_POINTS)
 
 
 def _temperature_key(temperature_K):
@@ -171,7 +174,7 @@ class Subcell:
                                                else self.gap_eV))
         if np.ndim(temperature_K) == 2:
             rows = max(rows, np.shape(temperature_K)[0])
-        if rows * (TABLE_FORWARD_POINTS + TABLE_REVERSE_POINTS) > TABLE_MAX_ENTRIES:
+        if rows > TABLE_ROWS:
             return False
         return bool((self.j02_A_m2 > 0).any() or (self.shunt_S_m2 > 0).any() or (
             (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)).any())

@@ -245,14 +245,14 @@ def _concentration(args, stack, suns):
     if not to_stdout_json:
         sys.stdout.write(concentration_summary(series, stack))
     if args.table:
-        write_atomic(args.table, csv_safe(series).to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.table, _csv_header(args, stack)
+                     + csv_safe(series).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.table}", file=notices)
     if args.json:
+        from siltandem.cli.studies import command_provenance
         from siltandem.result.record import json_text
 
-        from siltandem.stack.load import provenance
-
-        text = json_text({"stack": stack.name, **provenance(stack),
+        text = json_text({"stack": stack.name, **command_provenance(args, stack),
                           "series": series.to_dict(orient="records")})
         if to_stdout_json:
             sys.stdout.write(text)
@@ -334,11 +334,12 @@ def _run(args):
             sys.stdout.write(sweep_summary(swept, args.sweep, result))
     if args.curve:
         table = swept if args.sweep else result.iv
-        write_atomic(args.curve, csv_safe(table).to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.curve, _csv_header(args, stack)
+                     + csv_safe(table).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.curve}", file=sys.stderr if to_stdout_json else sys.stdout)
     if args.spectral:
-        write_atomic(args.spectral, csv_safe(result.spectral_table()).to_csv(
-            index=False, float_format="%.10g"))
+        write_atomic(args.spectral, _csv_header(args, stack) + csv_safe(
+            result.spectral_table()).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.spectral}", file=sys.stderr if to_stdout_json else sys.stdout)
     if args.plot:
         from siltandem.report.plots import plot_iv, plot_spectral
@@ -389,7 +390,8 @@ def main(argv=None):
 
         read_arguments(args)       # every number given: the same ranges as the file keys
         # the commands print a result's warnings with it: not a second time through `warnings`
-        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings():
+        with contextlib.redirect_stdout(_PrintableStream(sys.stdout)), warnings.catch_warnings(), \
+                _study_notes():
             warnings.simplefilter("ignore", ModelWarning)
             warnings.simplefilter("ignore", CompileNotice)     # printed above, in the CLI's words
             return _command(args)
@@ -404,6 +406,33 @@ def main(argv=None):
 
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+
+
+def _csv_header(args, stack):
+    """The ``# key: value`` provenance lines heading every CSV output."""
+    from siltandem.cli.studies import command_provenance
+    from siltandem.result.record import provenance_lines
+
+    return provenance_lines(command_provenance(args, stack))
+
+
+@contextlib.contextmanager
+def _study_notes():
+    """The studies' notes (a folder of another stack's results: starting afresh) on stderr,
+    --quiet or not: the library logs them (silent in the API), the command line shows them."""
+    import logging
+
+    logger = logging.getLogger("siltandem.studies.runner")
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("%(message)s"))
+    level = logger.level
+    logger.addHandler(handler)
+    logger.setLevel(logging.INFO)
+    try:
+        yield
+    finally:
+        logger.removeHandler(handler)
+        logger.setLevel(level)
 
 
 class _PrintableStream:

@@ -77,6 +77,10 @@ def _check_paths(args):
         if path is not None and Path(path).suffix.lower() not in allowed:
             raise StackError(f"{option} {path}: unsupported file type", where=option,
                              fix=f"give a path ending in {' or '.join(sorted(allowed))}")
+    if getattr(args, "parquet", None) or getattr(args, "out", None):
+        from siltandem.studies.runner import require_parquet
+
+        require_parquet("--parquet" if getattr(args, "parquet", None) else "--out")
     workers, cluster = getattr(args, "workers", None), getattr(args, "cluster", None)
     if workers is not None and cluster:
         raise StackError("--workers and --cluster exclude each other", where="--workers",
@@ -107,26 +111,30 @@ def _connect(args):
     return connect_cluster(args.cluster)
 
 
+def command_provenance(args, stack):
+    """The provenance of a command's outputs (result.record.provenance with its overrides)."""
+    from siltandem.result.record import provenance
+
+    return provenance(stack, spectrum=getattr(args, "spectrum", None),
+                      suns=getattr(args, "suns", None),
+                      temperature_K=getattr(args, "temperature", None))
+
+
 def _write_outputs(args, table, summary, figure=None, *, stack):
     from siltandem.files import save_figure_atomic, write_atomic
+    from siltandem.result.record import json_text, parquet_bytes, provenance_lines
     from siltandem.text import csv_safe
 
+    record = command_provenance(args, stack)
     if args.csv:
-        write_atomic(args.csv, csv_safe(table).to_csv(index=False, float_format="%.10g"))
+        write_atomic(args.csv, provenance_lines(record)
+                     + csv_safe(table).to_csv(index=False, float_format="%.10g"))
         print(f"  wrote {args.csv}")
     if args.parquet:
-        import io
-
-        buffer = io.BytesIO()
-        table.to_parquet(buffer, index=False)
-        write_atomic(args.parquet, buffer.getvalue())
+        write_atomic(args.parquet, parquet_bytes(table, record))
         print(f"  wrote {args.parquet}")
     if args.json:
-        from siltandem.result.record import json_text
-
-        from siltandem.stack.load import provenance
-
-        text = json_text({**summary, **provenance(stack)})
+        text = json_text({**summary, **record})
         if args.json == "-":
             getattr(args, "json_stream", sys.stdout).write(text)
         else:
@@ -180,7 +188,7 @@ def _check_column(column, stack, variations):
 
 
 def _print_match_table(stack, variation, table):
-    """About 15 rows of the matching table: the varied value, each subcell's photocurrent, the
+    """Every row of the matching table: the varied value, each subcell's photocurrent, the
     efficiency and the limiting subcell."""
     photocurrent_columns = [c for c in table.columns if c.endswith(".photocurrent_mA_cm2")]
     print(f"siltandem — current matching of {stack.name} over {variation.column}")
@@ -188,8 +196,7 @@ def _print_match_table(stack, variation, table):
     header = [variation.column] + [c.removesuffix(".photocurrent_mA_cm2") + " mA/cm2"
                                    for c in photocurrent_columns] + ["efficiency %", "limiting"]
     print("  " + "  ".join(f"{h:>14}" for h in header))
-    step = max(1, len(table) // 15)
-    for _, row in table.iloc[::step].iterrows():
+    for _, row in table.iterrows():
         cells = [number(row[variation.column], ".5g")] + [number(row[c], ".4f")
                                                           for c in photocurrent_columns]
         cells += [number(row["efficiency_pct"], ".3f"), str(row["limiting_subcell"])]
@@ -201,9 +208,16 @@ def _print_matches(matches, variation):
     """Each matched pair of subcells, or a hint to widen the range."""
     if matches:
         for m in matches:
-            print(f"  matched: {m['subcells'][0]} = {m['subcells'][1]} at {variation.column} = "
+            a, b = m["subcells"]
+            print(f"  matched: {a} = {b} at {variation.column} = "
                   f"{number(m['value'], '.8g')} ({number(m['photocurrent_mA_cm2'], '.4f')} "
                   f"mA/cm2), efficiency {number(m['efficiency_pct'], '.3f')} %")
+            if m["pair_limits"]:
+                print("           this pair limits the string's current there: a current match")
+            else:
+                print(f"           this pair does not limit: {m['limiting_subcell']} has a lower "
+                      "photocurrent there and sets the string's current;\n"
+                      f"           matching {a} and {b} does not raise it")
     else:
         print("  no two subcells' photocurrents cross in this range: widen it")
 

@@ -12,10 +12,9 @@ from siltandem.optics.illuminate import illuminate
 from siltandem.solve.kernels import notice_compiling
 from siltandem.solve.series import solve_string, solve_strings
 from siltandem.materials.spectra import get_spectrum, is_spectrum_object
-from siltandem.result.record import Result, curve_table, first_value
+from siltandem.result.record import Result, curve_table, first_value, provenance
 from siltandem.errors import ModelWarning
 from siltandem.result.summary import missing_value_warnings, summarise
-from siltandem.stack.load import provenance
 
 
 def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
@@ -94,7 +93,8 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     if placement_note:
         summary["warnings"].insert(0, placement_note)
     summary["warnings"].extend(missing_value_warnings(summary))
-    summary.update(provenance(stack))
+    summary.update(provenance(stack, spectrum=spectrum, suns=conditions.suns,
+                              temperature_K=conditions.temperature_K))
     return Result(summary, curve_table(circuit, solutions), circuit, solutions)
 
 

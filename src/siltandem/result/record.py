@@ -222,3 +222,69 @@ def curve_table(circuit, solutions):
             data["string"] = number
         frames.append(pd.DataFrame(data))
     return pd.concat(frames, ignore_index=True)
+
+
+def provenance(stack, *, spectrum=None, suns=None, temperature_K=None):
+    """Where an output came from, for every JSON, CSV header and Parquet file: the package
+    version, the SHA-256 of the stack file as read and the light used (``light``: the spectrum's
+    name or file, the SHA-256 of the file read for it, the concentration and the temperature),
+    with the overrides a command or study was given."""
+    import os
+
+    from siltandem.files import file_digest
+    from siltandem.stack.inputs import spectrum_input
+    from siltandem.stack.load import provenance as stack_provenance
+
+    conditions = stack.conditions
+    name = conditions.spectrum if spectrum is None else spectrum
+    if isinstance(name, (str, os.PathLike)):
+        found = spectrum_input(name, stack.folder if spectrum is None else None)
+        shown, digest = str(name), None if found is None else file_digest(found[1])
+    else:                                        # a spectrum given as an object, not a file
+        shown, digest = str(getattr(name, "label", type(name).__name__)), None
+    light = {"spectrum": shown, "spectrum_sha256": digest,
+             "suns": float(conditions.suns if suns is None else suns),
+             "temperature_K": float(conditions.temperature_K if temperature_K is None
+                                    else temperature_K)}
+    return {**stack_provenance(stack), "light": light}
+
+
+def provenance_lines(record):
+    """``# key: value`` lines (nested keys joined by a dot) heading a CSV output; read the CSV
+    with ``pandas.read_csv(path, comment="#")``."""
+    lines = []
+    for key, value in record.items():
+        items = value.items() if isinstance(value, dict) else [(None, value)]
+        for inner, item in items:
+            name = key if inner is None else f"{key}.{inner}"
+            text = "" if item is None else str(item)
+            lines.append(f"# {name}: {' '.join(text.split())}\n")
+    return "".join(lines)
+
+
+def read_provenance_lines(text):
+    """The ``# key: value`` header of a CSV output as a flat dict of text (the inverse of
+    :func:`provenance_lines`, for checks and for tools reading our CSVs)."""
+    found = {}
+    for line in text.splitlines():
+        if not line.startswith("# "):
+            break
+        key, _, value = line[2:].partition(": ")
+        found[key] = value
+    return found
+
+
+def parquet_bytes(table, record):
+    """``table`` as Parquet bytes, ``record`` (provenance) as JSON in the schema metadata under
+    the key ``siltandem`` (read it back with ``pyarrow.parquet.read_schema(path).metadata``)."""
+    import io
+
+    import pyarrow
+    import pyarrow.parquet
+
+    data = pyarrow.Table.from_pandas(table, preserve_index=False)
+    data = data.replace_schema_metadata({**(data.schema.metadata or {}),
+                                         b"siltandem": json_text(record, indent=None).encode()})
+    buffer = io.BytesIO()
+    pyarrow.parquet.write_table(data, buffer)
+    return buffer.getvalue()

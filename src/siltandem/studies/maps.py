@@ -3,8 +3,9 @@ import functools
 
 
 from siltandem.report.plots import axis_label
+from siltandem.result.record import provenance
 from siltandem.studies.runner import run_chunks
-from siltandem.studies.sweep import check_study, design_table, evaluate_chunk
+from siltandem.studies.sweep import check_study, design_table, evaluate_chunk, resolved_light
 from siltandem.stack.inputs import input_files
 
 
@@ -15,16 +16,21 @@ def design_map(stack, first, second, *, workers=None, cluster=None, output=None,
     Columns: ``design``, the two varied columns (named as given, e.g. ``top.gap_eV``), then the
     result columns (``efficiency_pct``, ``voc_V``, ``jsc_mA_cm2``, ...). Silent unless
     ``progress=True`` (a progress line on stderr once the run has lasted 2 s; the command line's
-    default).
+    default), ``progress="tqdm"`` (a bar; a widget in a notebook) or ``progress=f(done, total)``.
+    With ``output``, the folder reads back as exactly this table (``pandas.read_parquet``).
     """
     check_study(stack, [first, second], workers=workers, cluster=cluster,
                 chunk_rows=chunk_rows, spectrum=spectrum, suns=suns, temperature_K=temperature_K)
     table = design_table([first, second])
+    # the spectrum is read here and travels with every chunk: workers read no file
     function = functools.partial(evaluate_chunk, stack=stack, spectrum=spectrum, suns=suns,
-                                 temperature_K=temperature_K)
+                                 temperature_K=temperature_K,
+                                 light=resolved_light(stack, spectrum=spectrum))
     return run_chunks(function, table, workers=workers, cluster=cluster, output=output,
                       progress=progress, chunk_rows=chunk_rows,
-                      inputs=input_files(stack, spectrum=spectrum))
+                      inputs=input_files(stack, spectrum=spectrum),
+                      metadata=provenance(stack, spectrum=spectrum, suns=suns,
+                                          temperature_K=temperature_K))
 
 
 def optimum(table, column="efficiency_pct"):

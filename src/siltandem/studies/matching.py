@@ -1,7 +1,11 @@
 """Current matching: every subcell's photocurrent and the efficiency against one varied key.
 
 The matched value is where two subcells' photocurrents cross, found by root finding
-(scipy.optimize.brentq) on the optics alone, then solved for its efficiency.
+(scipy.optimize.brentq) on the optics alone, then solved for its efficiency. In a series string
+the subcell with the lowest photocurrent limits the current (the current-matching condition of
+multi-junction cells: Green, *Solar Cells*, 1982, ch. 10; Yamaguchi et al., Solar Energy 79,
+78 (2005)), so in a stack of three or more subcells a crossing of two subcells matters only where
+no third subcell lies below them: every match says whether its pair limits there.
 """
 import itertools
 
@@ -9,8 +13,9 @@ import numpy as np
 from scipy import optimize
 
 from siltandem.studies.runner import run_chunks
+from siltandem.result.record import provenance
 from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, photocurrents_at,
-                                     solve_designs)
+                                     resolved_light, solve_designs)
 from siltandem.stack.inputs import input_files
 
 
@@ -24,7 +29,9 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
         One row per value: the varied column, the result columns, each subcell's photocurrent.
     matches : list of dict
         Per crossing: ``subcells`` (the pair), ``value`` (of the varied key), ``photocurrent_mA_cm2``
-        and the solved ``efficiency_pct`` there.
+        and the solved ``efficiency_pct`` there; ``limiting_subcell`` (the subcell of the lowest
+        photocurrent there) and ``pair_limits`` (True when no other subcell's photocurrent is
+        below the pair's, i.e. the crossing is a current match of the whole string).
     """
     import functools
 
@@ -32,9 +39,11 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
                 suns=suns, temperature_K=temperature_K)
     options = dict(spectrum=spectrum, suns=suns, temperature_K=temperature_K)
     table = design_table([variation])
-    function = functools.partial(evaluate_chunk, stack=stack, **options)
+    function = functools.partial(evaluate_chunk, stack=stack, **options,
+                                 light=resolved_light(stack, spectrum=spectrum))
     table = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
-                       progress=progress, inputs=input_files(stack, spectrum=spectrum))
+                       progress=progress, inputs=input_files(stack, spectrum=spectrum),
+                       metadata=provenance(stack, **options))
     names = [c[: -len(".photocurrent_mA_cm2")] for c in table.columns
              if c.endswith(".photocurrent_mA_cm2")]
     x = table[variation.column].to_numpy()
@@ -51,14 +60,27 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
             solved = solve_designs(stack, {variation.column: np.array([value])}, **options)
             matches.append({"subcells": [a, b], "value": value,
                             "photocurrent_mA_cm2": currents[a],
-                            "efficiency_pct": float(solved["efficiency_pct"][0])})
+                            "efficiency_pct": float(solved["efficiency_pct"][0]),
+                            **pair_limits(currents, a, b)})
         exact = np.flatnonzero(d == 0)
         for k in exact:
             solved = table.iloc[k]
+            currents = {n: float(solved[f"{n}.photocurrent_mA_cm2"]) for n in names}
             matches.append({"subcells": [a, b], "value": float(x[k]),
-                            "photocurrent_mA_cm2": float(solved[f"{a}.photocurrent_mA_cm2"]),
-                            "efficiency_pct": float(solved["efficiency_pct"])})
+                            "photocurrent_mA_cm2": currents[a],
+                            "efficiency_pct": float(solved["efficiency_pct"]),
+                            **pair_limits(currents, a, b)})
     return table, matches
+
+
+def pair_limits(currents, a, b):
+    """``limiting_subcell`` (the lowest photocurrent of ``currents``, name -> mA/cm2) and
+    ``pair_limits``: whether the crossing pair ``a``, ``b`` is that lowest (to one part in 1e9:
+    the pair's two currents are equal there to the root finder's tolerance)."""
+    lowest = min(currents, key=currents.get)
+    pair = min(currents[a], currents[b])
+    limits = all(currents[n] >= pair * (1 - 1e-9) for n in currents if n not in (a, b))
+    return {"limiting_subcell": a if limits else lowest, "pair_limits": bool(limits)}
 
 
 def plot_matching(table, variation, matches, axes=None, *, title=""):

@@ -12,8 +12,18 @@ little more than the solve of one design. Workers return DataFrames (arrays), ne
 
 Output folder layout (``output=``)::
 
-    chunk-<key>-<rows>rows-<id>.parquet   one per finished chunk, written atomically
-    results.parquet                       all rows, written atomically at the end
+    results.parquet                              all rows, written atomically at the end
+    _metadata                                    the dataset's summary file: results.parquet only
+    _chunks/chunk-<key>-<rows>rows-<id>.parquet  one per finished chunk, written atomically
+
+The folder is a Parquet dataset that reads back as exactly the table, N rows for N designs:
+``pandas.read_parquet`` and ``pyarrow.dataset`` skip names that start with ``_`` or ``.``
+(pyarrow's default ``ignore_prefixes``), and ``dask.dataframe.read_parquet``, which lists every
+``*.parquet`` under the folder, reads the files the ``_metadata`` summary names (its default).
+Chunk files of the older flat layout (beside ``results.parquet``) are moved into ``_chunks/``
+when the folder is opened. ``results.parquet`` carries the run's key,
+chunk size, row count and the study's provenance (``metadata=``: version, stack hash, light) in
+its schema metadata under the key ``siltandem`` (JSON).
 
 ``<key>`` is a fingerprint of:
 
@@ -30,14 +40,15 @@ Output folder layout (``output=``)::
 
 A different key never mixes with chunks on disk: those chunks are ignored (and left in place, so
 going back to the old inputs resumes them). When the folder holds only results of other keys,
-the run starts afresh and says so once on stderr; a ``results.parquet`` of another key is removed
+the run starts afresh and says so once to the progress reporter (with ``progress`` on; logged at
+INFO on the ``siltandem.studies.runner`` logger otherwise); a ``results.parquet`` of another key is removed
 before any work, so an interrupted fresh run cannot leave the old table beside the new chunks.
 ``<rows>`` is the chunk size, so chunk ids always mean the same rows. A temporary file
 (``.<name>.<pid>.<random>.tmp``) is renamed into place only when complete; the temporary files
 of a process that no longer exists are removed at the next start.
 
-dask[distributed] is needed only for ``cluster=``, pyarrow only for ``output=``; both are the
-optional extra ``parallel`` (``pip install -e ".[parallel]"``) and are imported when used.
+dask[distributed] is needed only for ``cluster=``: the optional extra ``parallel``
+(``pip install -e ".[parallel]"``), imported when used. pyarrow (``output=``) is a core dependency.
 """
 from collections import Counter, deque
 import concurrent.futures
@@ -45,6 +56,7 @@ from concurrent.futures.process import BrokenProcessPool
 import contextlib
 import functools
 import json
+import logging
 import math
 import multiprocessing
 import multiprocessing.connection
@@ -55,30 +67,40 @@ import secrets
 import signal
 import sys
 import threading
-import time
 import warnings
 
 import numpy as np
 import pandas as pd
 
+from siltandem.circuit.elements import TABLE_ROWS
 from siltandem.errors import StackError
 from siltandem.studies.fingerprint import sweep_key
+from siltandem.studies.progress import reporter
 
-#: Upper bound of the default chunk size, to bound a chunk's working memory. Studies whose
-#: per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
-MAX_CHUNK_ROWS = 10_000
+#: Upper bound of the default chunk size. A batch of more designs than a subcell's junction
+#: table holds (circuit.elements.TABLE_ROWS, 5,952) leaves the tables for the laws' own root
+#: finds: 1.8-2.1x slower in our runs, and last-bit different from the same designs in smaller
+#: chunks. Sizes from 1,000 rows to the limit measured within the noise of a shared machine of one
+#: another (benchmarks/bench_chunks.py); 2,000 keeps a chunk's memory and the progress steps
+#: small. Studies whose per-design arrays are wide (full I-V curves) pass a smaller ``chunk_rows``.
+MAX_CHUNK_ROWS = min(2_000, TABLE_ROWS)
 #: Default number of chunks per worker on a pool or a cluster: enough to balance uneven chunks,
 #: few enough that per-task overhead stays negligible.
 CHUNKS_PER_WORKER = 4
 #: A chunk that was running when worker processes died this many times is given up.
 MAX_ATTEMPTS = 3
-#: The progress line appears once a run has lasted this long [s].
-PROGRESS_DELAY_S = 2.0
 
 RESULTS_NAME = "results.parquet"
+#: the sub-folder of the chunk files (a leading "_": dataset readers skip it)
+CHUNKS_FOLDER = "_chunks"
+SUMMARY_NAME = "_metadata"
+#: the starting-afresh note goes here when progress is off (the command line shows it)
+LOG = logging.getLogger(__name__)
 _CHUNK_NAME = re.compile(r"^chunk-(?P<key>[0-9a-f]{16})-(?P<rows>\d+)rows-(?P<id>\d{6})\.parquet$")
 _TEMPORARY_NAME = re.compile(r"^\.(?P<target>.+)\.(?P<pid>\d+)\.[0-9a-f]+\.tmp$")
 _EXTRA = 'pip install -e ".[parallel]"'
+_INSTALL = {"pyarrow": 'pip install pyarrow (a dependency of siltandem: pip install -e .)',
+            "pyarrow.parquet": 'pip install pyarrow (a dependency of siltandem: pip install -e .)'}
 _THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
                      "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
 
@@ -95,7 +117,7 @@ class WorkerLostWarning(RuntimeWarning):
 # the entry point
 
 def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, output=None,
-               progress=True, resume=True, inputs=()):
+               progress=False, resume=True, inputs=(), metadata=None):
     """Evaluate ``function`` over ``table`` chunk by chunk; every design's row exactly once.
 
     Parameters
@@ -123,10 +145,13 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
         Address of a running dask.distributed scheduler (``"tcp://host:port"``), or a connected
         client. Exclusive with ``workers``.
     output : str or path-like, optional
-        Folder for the chunk files and the final ``results.parquet`` (created if missing).
-    progress : bool
-        Print a progress line on stderr (rows done / total, rate, time left) once the run has
-        lasted :data:`PROGRESS_DELAY_S`.
+        Folder for the final ``results.parquet`` and, in its ``_chunks`` sub-folder, the chunk
+        files (created if missing); the folder reads back as exactly the table (module notes).
+    progress : bool, "tqdm" or callable
+        False (default): silent. True: a progress line on stderr (rows done / total, rate, time
+        left) once the run has lasted ``progress.PROGRESS_DELAY_S`` (the command line's). ``"tqdm"``:
+        a ``tqdm.auto`` bar (a widget in a notebook; needs tqdm). A callable:
+        ``progress(done_rows, total_rows)`` after every finished chunk.
     resume : bool
         With ``output``: load chunks already on disk instead of computing them. False recomputes
         (and rewrites) every chunk.
@@ -134,6 +159,9 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
         Files the study function reads (the stack file, spectrum and EQE CSVs): their content
         is part of the chunk key (a missing file counts as its own content), so editing one
         starts afresh instead of resuming (see the module notes).
+    metadata : dict, optional
+        JSON-able provenance (version, stack hash, light) stored in ``results.parquet``'s
+        schema metadata beside the key.
 
     Returns
     -------
@@ -157,8 +185,9 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
     """
     table = _canonical_table(table)
     chunk_rows = _check_options(chunk_rows, workers, cluster)
+    _check_progress(progress)
     folder, key, chunk_rows = _open_output(output, table, function, inputs, chunk_rows,
-                                           resume=resume)
+                                           resume=resume, progress=progress)
     designs = table["design"].to_numpy()
     client, own_client = (None, False) if cluster is None else _connect(cluster)
     try:
@@ -175,10 +204,21 @@ def run_chunks(function, table, *, chunk_rows=None, workers=None, cluster=None, 
     finally:
         if own_client:
             client.close()
-    return _combine(results, len(bounds), designs, folder=folder, key=key, chunk_rows=chunk_rows)
+    return _combine(results, len(bounds), designs, folder=folder, key=key, chunk_rows=chunk_rows,
+                    metadata=metadata)
 
 
-def _open_output(output, table, function, inputs, chunk_rows, *, resume):
+def _check_progress(progress):
+    if progress == "tqdm":
+        _require("tqdm.auto", fix="pip install tqdm, or pass progress=True for a line on stderr")
+    elif not (isinstance(progress, bool) or progress is None or callable(progress)):
+        raise StackError(f"progress = {progress!r} is not one of False, True, 'tqdm' or a "
+                         "callable", where="argument progress",
+                         fix="pass progress=True (stderr), 'tqdm' (a bar) or a function "
+                             "f(done_rows, total_rows)")
+
+
+def _open_output(output, table, function, inputs, chunk_rows, *, resume, progress=False):
     """The output folder (None without ``output``), the run's key (None without a folder) and
     the chunk size: when resuming without one given, the size already on disk for this key.
     Results of other keys in the folder are set aside first."""
@@ -186,7 +226,7 @@ def _open_output(output, table, function, inputs, chunk_rows, *, resume):
         return None, None, chunk_rows
     folder = _prepare_folder(output)
     key = sweep_key(table, function, inputs=inputs)
-    _set_aside_other_keys(folder, key, resume=resume)
+    _set_aside_other_keys(folder, key, resume=resume, say=progress is True)
     if chunk_rows is None and resume:
         chunk_rows = _chunk_rows_on_disk(folder, key)
     return folder, key, chunk_rows
@@ -206,14 +246,14 @@ def _compute_missing(function, table, designs, bounds, results, *, client, worke
     frame is checked against its designs and written to ``folder`` as it arrives. On Ctrl-C, says
     how many chunks are on disk and re-raises."""
     pending = [i for i in range(len(bounds)) if i not in results]
-    meter = _Progress(len(table), enabled=progress,
-                      already=sum(len(frame) for frame in results.values()))
+    meter = reporter(progress, len(table), sum(len(frame) for frame in results.values()))
 
     def finish(chunk_id, frame):
         start, stop = bounds[chunk_id]
         frame = _check_result(frame, designs[start:stop], chunk_id)
         if folder is not None:
-            _write_parquet_atomic(folder / chunk_name(key, chunk_rows, chunk_id), frame)
+            _write_parquet_atomic(folder / CHUNKS_FOLDER / chunk_name(key, chunk_rows, chunk_id),
+                                  frame)
         results[chunk_id] = frame
         meter.update(len(frame))
 
@@ -222,7 +262,7 @@ def _compute_missing(function, table, designs, bounds, results, *, client, worke
         _dispatch(function, chunks, finish, client=client, workers=workers, key=key)
     except KeyboardInterrupt:
         meter.close()
-        if folder is not None and progress:
+        if folder is not None and progress is True:
             print(f"interrupted: {len(results)} of {len(bounds)} chunks are in {folder}; run "
                   "again with the same arguments to compute only the rest", file=sys.stderr)
         raise
@@ -243,17 +283,37 @@ def _dispatch(function, chunks, finish, *, client, workers, key):
             finish(chunk_id, function(chunk.copy()))
 
 
-def _combine(results, n_chunks, designs, *, folder, key, chunk_rows):
+def _combine(results, n_chunks, designs, *, folder, key, chunk_rows, metadata=None):
     """Every chunk's rows in design order, checked to hold each design once; written to
-    ``results.parquet`` in ``folder`` (with the key and chunk size) when there is one."""
+    ``results.parquet`` in ``folder`` (with the key, chunk size and ``metadata``) when there is
+    one."""
     combined = pd.concat([results[i] for i in range(n_chunks)], ignore_index=True)
     if not np.array_equal(combined["design"].to_numpy(), designs):  # guards the bookkeeping
         raise ChunkFailedError("the combined table does not hold every design exactly once")
     if folder is not None:
         _write_parquet_atomic(folder / RESULTS_NAME, combined,
-                              metadata={"key": key, "chunk_rows": chunk_rows,
-                                        "rows": len(designs)})
+                              metadata={**(metadata or {}), "key": key,
+                                        "chunk_rows": chunk_rows, "rows": len(designs)})
+        _write_summary_file(folder)
     return combined
+
+
+def _write_summary_file(folder):
+    """The dataset's ``_metadata`` file (the Parquet summary-file convention readers such as
+    dask follow): the schema and row groups of ``results.parquet`` alone, written atomically."""
+    parquet = _require("pyarrow.parquet")
+    footer = parquet.read_metadata(folder / RESULTS_NAME)
+    footer.set_file_path(RESULTS_NAME)
+    path = folder / SUMMARY_NAME
+    temporary = path.with_name(f".{path.name}.{os.getpid()}.{secrets.token_hex(4)}.tmp")
+    try:
+        parquet.write_metadata(footer.schema.to_arrow_schema(), temporary,
+                               metadata_collector=[footer])
+        os.replace(temporary, path)
+    except BaseException:
+        with contextlib.suppress(FileNotFoundError):
+            os.unlink(temporary)
+        raise
 
 
 def default_chunk_rows(n_rows, *, slots=1, local=True):
@@ -334,12 +394,25 @@ def _check_result(frame, designs, chunk_id):
     return frame
 
 
-def _require(module):
+def require_parquet(where):
+    """Before any work: pyarrow (a dependency) is importable, or a StackError naming ``where``
+    (an option or argument) and the install command."""
+    try:
+        _require("pyarrow.parquet")
+    except StackError as error:
+        raise StackError(error.problem, where=where, fix=error.fix) from None
+
+
+def _require(module, fix=None):
     try:
         return __import__(module, fromlist=["_"])
     except ImportError as error:
-        raise StackError(f"{module} is not installed ({error})", where="optional extra parallel",
-                         fix=_EXTRA) from None
+        if module in _INSTALL:
+            raise StackError(f"{module} is not installed ({error})", where="dependency pyarrow",
+                             fix=fix or _INSTALL[module]) from None
+        where = "optional extra parallel" if fix is None else "optional package"
+        raise StackError(f"{module} is not installed ({error})", where=where,
+                         fix=fix or _EXTRA) from None
 
 
 # ----------------------------------------------------------------------------------------------
@@ -351,8 +424,12 @@ def _prepare_folder(output):
     if folder.exists() and not folder.is_dir():
         raise StackError("the output path exists and is not a folder", file=folder,
                          where="argument output", fix="give a folder (it is created if missing)")
-    folder.mkdir(parents=True, exist_ok=True)
-    for path in folder.iterdir():  # temporary files of writers that were killed
+    chunks = folder / CHUNKS_FOLDER
+    chunks.mkdir(parents=True, exist_ok=True)
+    for path in folder.iterdir():  # chunk files of the older flat layout join the others
+        if _CHUNK_NAME.match(path.name) and path.is_file():
+            os.replace(path, chunks / path.name)
+    for path in [*folder.iterdir(), *chunks.iterdir()]:  # temporary files of killed writers
         match = _TEMPORARY_NAME.match(path.name)
         if match and not _process_alive(int(match["pid"])):
             with contextlib.suppress(FileNotFoundError):
@@ -372,31 +449,36 @@ def _process_alive(pid):
     return True
 
 
-#: said once on stderr when a folder holds only results of other keys
+#: said once (stderr with progress=True, else the log) when a folder holds only other keys
 AFRESH_MESSAGE = ("the folder holds results of a different stack/spectrum/code; starting afresh "
                   "(its old chunk files are left in place and not used)")
 
 
-def _set_aside_other_keys(folder, key, *, resume, stream=None):
+def _set_aside_other_keys(folder, key, *, resume, stream=None, say=True):
     """Before any work: never mix results of another key with this run's.
 
     Chunks of other keys are never read (their names carry their key). A ``results.parquet``
     written under another key is removed, so that no interrupted run leaves an old table beside
     new chunks; when the folder holds results of other keys and none of this key, the run starts
-    afresh and says so once on stderr. Returns True when it said so.
+    afresh and says so once: on stderr with ``say``, else in the log (INFO). Returns True when
+    it starts afresh.
     """
-    keys = {m["key"] for m in map(_CHUNK_NAME.match, os.listdir(folder)) if m}
+    keys = {m["key"] for m in map(_CHUNK_NAME.match, os.listdir(folder / CHUNKS_FOLDER)) if m}
     results = folder / RESULTS_NAME
     if results.is_file():
         if _results_key(results) != key:
             keys.add(None)
-            with contextlib.suppress(FileNotFoundError):
-                results.unlink()
+            for stale in (folder / SUMMARY_NAME, results):
+                with contextlib.suppress(FileNotFoundError):
+                    stale.unlink()
         else:
             keys.add(key)
     foreign = keys - {key}
     if resume and foreign and key not in keys:
-        print(f"{folder}: {AFRESH_MESSAGE}", file=stream if stream is not None else sys.stderr)
+        if say:
+            print(f"{folder}: {AFRESH_MESSAGE}", file=stream if stream is not None else sys.stderr)
+        else:
+            LOG.info("%s: %s", folder, AFRESH_MESSAGE)
         return True
     return False
 
@@ -411,7 +493,8 @@ def _results_key(path):
 
 
 def _chunk_rows_on_disk(folder, key):
-    sizes = Counter(int(m["rows"]) for m in map(_CHUNK_NAME.match, os.listdir(folder))
+    sizes = Counter(int(m["rows"]) for m in map(_CHUNK_NAME.match,
+                                                os.listdir(folder / CHUNKS_FOLDER))
                     if m and m["key"] == key)
     return sizes.most_common(1)[0][0] if sizes else None
 
@@ -420,7 +503,7 @@ def _load_chunks(folder, key, chunk_rows, bounds, designs):
     parquet = _require("pyarrow.parquet")
     found = {}
     for chunk_id, (start, stop) in enumerate(bounds):
-        path = folder / chunk_name(key, chunk_rows, chunk_id)
+        path = folder / CHUNKS_FOLDER / chunk_name(key, chunk_rows, chunk_id)
         if not path.exists():
             continue
         try:
@@ -643,61 +726,3 @@ def _run_on_dask(client, function, chunks, finish, label):
         if outstanding:  # an error or an interrupt: nothing left running on the cluster
             running.clear()
             client.cancel([future for _, future in outstanding.values()])
-
-
-# ----------------------------------------------------------------------------------------------
-# progress
-
-class _Progress:
-    """One line on stderr: rows done / total, rate, time left; only once the run is slow."""
-
-    def __init__(self, total, *, enabled=True, already=0, delay=None, clock=time.monotonic,
-                 stream=None):
-        self.total, self.done, self.already = total, already, already
-        self.enabled, self.clock, self.stream = enabled, clock, stream
-        self.delay = PROGRESS_DELAY_S if delay is None else delay
-        self.start = self.last = clock()
-        self.shown = False
-        self.width = 0
-
-    def _stream(self):
-        return self.stream if self.stream is not None else sys.stderr
-
-    def line(self):
-        elapsed = max(self.clock() - self.start, 1e-9)
-        rate = (self.done - self.already) / elapsed
-        left = (self.total - self.done) / rate if rate > 0 else float("nan")
-        if np.isfinite(left):
-            minutes, seconds = divmod(round(left), 60)
-            eta = f"{minutes // 60:d}:{minutes % 60:02d}:{seconds:02d}"
-        else:
-            eta = "?"
-        resumed = f", {self.already:,} from disk" if self.already else ""
-        return (f"rows {self.done:,} / {self.total:,} ({100 * self.done / self.total:.0f} %)"
-                f"{resumed}  {rate:,.0f} rows/s  left {eta}")
-
-    def update(self, rows):
-        self.done += rows
-        if not self.enabled:
-            return
-        now = self.clock()
-        stream = self._stream()
-        tty = getattr(stream, "isatty", lambda: False)()
-        if now - self.start < self.delay or (self.shown and now - self.last < (0.5 if tty else 10)):
-            return
-        self.last, self.shown = now, True
-        text = self.line()
-        self.width = max(self.width, len(text))
-        stream.write("\r" + text.ljust(self.width) if tty else text + "\n")
-        stream.flush()
-
-    def close(self):
-        if self.enabled and self.shown:
-            stream = self._stream()
-            tty = getattr(stream, "isatty", lambda: False)()
-            elapsed = self.clock() - self.start
-            text = self.line() + f"  done in {elapsed:.1f} s"
-            stream.write(("\r" + text.ljust(self.width) if tty else text) + "\n")
-            stream.flush()
-            self.shown = False
-            self.enabled = False

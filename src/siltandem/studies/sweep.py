@@ -330,8 +330,9 @@ def with_values(stack, columns):
     return replace(stack, elements=tuple(changed))
 
 
-def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None):
-    """Solve B designs at once: ``columns`` maps ``element.key`` -> (B,) values.
+def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None, light=None):
+    """Solve B designs at once: ``columns`` maps ``element.key`` -> (B,) values. ``light``: the
+    study's spectrum at one sun, already read (:func:`resolved_light`); None reads it here.
 
     Returns a dict of (B,) arrays: the RESULT_COLUMNS, ``<subcell>.photocurrent_mA_cm2`` for
     every subcell, ``limiting_subcell`` and ``regime``.
@@ -342,12 +343,12 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     if stack.layers and columns:
         return _solve_layer_designs(stack, columns, spectrum=spectrum, suns=suns,
-                                    temperature_K=temperature_K)
+                                    temperature_K=temperature_K, light=light)
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
     conditions = replace(conditions, **changes)
-    light = study_light(stack, spectrum=spectrum, suns=conditions.suns)
+    light = study_light(stack, spectrum=spectrum, suns=conditions.suns, light=light)
     circuit = illuminate(compile_stack(replace(with_values(stack, columns),
                                                conditions=conditions)), light)
     size = max([1] + [np.size(v) for v in columns.values()])
@@ -396,22 +397,40 @@ def _spectrum(name, suns, folder):
     return _spectrum_cached(name, float(suns), folder, content)
 
 
-def study_light(stack, *, spectrum=None, suns=None):
+def study_light(stack, *, spectrum=None, suns=None, light=None):
     """The study's spectrum: the override (a name, or a CSV path relative to the working folder,
-    as for `siltandem run`) or the stack's own (a path relative to the stack file)."""
+    as for `siltandem run`) or the stack's own (a path relative to the stack file); or ``light``,
+    the one-sun spectrum already read (:func:`resolved_light`), concentrated to ``suns``."""
+    if light is not None:
+        suns = float(stack.conditions.suns if suns is None else suns)
+        return light.concentrated(suns) if suns != 1.0 else light
     name = stack.conditions.spectrum if spectrum is None else spectrum
     folder = stack.folder if spectrum is None else None
     return _spectrum(name, stack.conditions.suns if suns is None else suns, folder)
 
 
-def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None):
-    """Study function for parallel.run_chunks: the chunk's designs solved in one batch."""
-    columns = {c: chunk[c].to_numpy(dtype=float) for c in chunk.columns if c != "design"}
-    result = solve_designs(stack, columns, spectrum=spectrum, suns=suns,
-                           temperature_K=temperature_K)
+def resolved_light(stack, *, spectrum=None):
+    """The study's spectrum at one sun, read here (on the client): a study binds it into its
+    chunk function, so the table travels with every task and workers on a cluster never read a
+    file (whatever their working folder). Its content is part of the chunk key (fingerprint)."""
+    return study_light(stack, spectrum=spectrum, suns=1.0)
+
+
+def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None, light=None):
+    """Study function for parallel.run_chunks: the chunk's designs solved in batches of at most
+    runner.MAX_CHUNK_ROWS, so that every design is solved through the same junction tables
+    whatever the chunk size (bit-identical rows in-process, chunked and on a cluster)."""
+    from siltandem.studies.runner import MAX_CHUNK_ROWS
+
+    parts = []
+    for start in range(0, len(chunk), MAX_CHUNK_ROWS):
+        part = chunk.iloc[start:start + MAX_CHUNK_ROWS]
+        columns = {c: part[c].to_numpy(dtype=float) for c in part.columns if c != "design"}
+        parts.append(solve_designs(stack, columns, spectrum=spectrum, suns=suns,
+                                   temperature_K=temperature_K, light=light))
     out = chunk.copy()
-    for key, values in result.items():
-        out[key] = values
+    for key in parts[0]:
+        out[key] = np.concatenate([part[key] for part in parts])
     return out
 
 
