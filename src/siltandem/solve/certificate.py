@@ -710,14 +710,17 @@ def _refine(string, segments, results, fails, spent, mpp_segment, t_mpp, p_mpp, 
 
 
 def is_concave(string):
-    """(B,) True where the string's V(J) is concave: only subcells without breakdown, and
-    resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
+    """(B,) True where the string's V(J) is concave: only subcells without breakdown or a
+    silicon base law, and resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
     inverse Vj(J) is concave, and Vj - J Rs too; so is the sum. Then P = J V(J) is concave on
     J >= 0 (P'' = 2 V' + J V'' < 0) and P(t) unimodal (J falls with t): a root of dP/dt where
     it changes sign is the global maximum."""
     if any(e.kind not in ("subcell", "resistor") for e in string.elements):
         return np.zeros(string.size, dtype=bool)
     concave = np.ones(string.size, dtype=bool)
+    if any(getattr(cell, "bulk", None) is not None for cell in string.subcells):
+        # a silicon base's recombination law is not shown concave: bound the cells instead
+        return np.zeros(string.size, dtype=bool)
     for cell in string.subcells:
         breakdown = ((cell.breakdown_factor > 0) & np.isfinite(cell.breakdown_V)
                      & (cell.shunt_S_m2 > 0))
