@@ -223,7 +223,8 @@ class Subcell:
         if not inside.all():
             target = np.broadcast_to(current, vj.shape)
             out = ~inside
-            junction = {k: np.broadcast_to(v, vj.shape)[out]
+            junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else
+                            None if v is None else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
                         for k, v in self._junction(temperature_K).items()}
             v_out, s_out = diode.junction_voltage(target[out], **junction)
             vj[out] = v_out

@@ -55,7 +55,7 @@ def bulk_law(v, p, inverse):
     dvalue = (s * (a + b_low * brel) + 2.0 * g * b_low * brel_slope
               + _C * power * ((1.0 + _DELTA) * total + (2.0 + _DELTA) * xp)
               + rate * (total * total + 2.0 * total * x + 2.0 * x * x) / (s * s))
-    return factor * value, factor * dvalue * (ni2 + g) * inverse / s
+    return factor * value, factor * dvalue * (ni2 * math.exp(v * inverse)) * inverse / s
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -98,8 +98,8 @@ def bulk_slopes(lo, hi, p, inverse):
     p_lo = first_lo + second_lo + third_lo + fourth_lo
     p_hi = first_hi + second_hi + third_hi + fourth_hi
     spread = 1e-12 * (abs(first_hi) + abs(second_lo) + abs(second_hi) + third_hi + fourth_hi)
-    rate_lo = (ni2 + g_lo) * inverse / s_lo
-    rate_hi = (ni2 + g_hi) * inverse / s_hi
+    rate_lo = ni2 * math.exp(lo * inverse) * inverse / s_lo
+    rate_hi = ni2 * math.exp(hi * inverse) * inverse / s_hi
     low, high = _product(p_lo - spread, p_hi + spread, rate_lo, rate_hi)
     return factor * low * (1.0 - 1e-12) if low > 0.0 else factor * low * (1.0 + 1e-12), \
         factor * high * (1.0 + 1e-12)

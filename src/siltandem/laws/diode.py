@@ -283,8 +283,12 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, forward=None, **junction):
     voltage = np.asarray(voltage_V, dtype=float)
     rs = np.broadcast_to(np.asarray(series_ohm_m2, dtype=float), voltage.shape)
     if forward is None:
+        bulk = junction.pop("bulk", None)
         junction = {k: np.broadcast_to(np.asarray(v, dtype=float), voltage.shape)
                     for k, v in junction.items()}
+        if bulk is not None:
+            junction["bulk"] = tuple(np.broadcast_to(np.asarray(c, dtype=float), voltage.shape)
+                                     for c in bulk)
 
         def forward(vj):
             return junction_current(vj, **junction)

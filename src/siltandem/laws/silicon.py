@@ -195,5 +195,5 @@ def bulk_current(v_junction_V, columns, *, temperature_K):
                   + AUGER_INJECTION_CM * power * ((1 + AUGER_INJECTION_EXPONENT) * total
                                                   + (2 + AUGER_INJECTION_EXPONENT) * xp)
                   + rate * (total * total + 2.0 * total * x + 2.0 * x * x) / (s * s))
-        dx_dv = (ni2 + g) / (vt * s)
+        dx_dv = ni2 * np.exp(np.asarray(v_junction_V, dtype=float) / vt) / (vt * s)
     return factor * value, factor * dvalue * dx_dv
