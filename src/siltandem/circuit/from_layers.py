@@ -359,7 +359,8 @@ def compile_layer_stack(stack):
 
 
 def dark_currents_at(model, circuit, temperature_K):
-    """J01 and J02 of each layer subcell at other temperatures (arrays of temperature's shape).
+    """J01, J02, the gap and n_i(T)/n_i(T0) of each layer subcell at other temperatures (arrays of
+    temperature's shape; a Si base law's ni,eff scales with the last).
 
     The diffusion J01 scales with ni^2 and J02 with ni (the intrinsic density of the absorber,
     the library's Nc Nv T^1.5 law and Varshni gap); the radiative floor is applied again at
@@ -375,7 +376,8 @@ def dark_currents_at(model, circuit, temperature_K):
         diffusion = details["j01_diffusion_A_m2"] * ratio**2
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K)
-        j01 = np.maximum(diffusion, floor)
+        # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
+        j01 = diffusion if details.get("silicon_base_law") else np.maximum(diffusion, floor)
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
-        out[cell.name] = (j01, j02, gap)
+        out[cell.name] = (j01, j02, gap, ratio)
     return out
