@@ -25,7 +25,7 @@ from scipy.special import wrightomega
 from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
 from siltandem.numerics.tables import polish_root
 from siltandem.numerics.roots import safeguarded_newton
-from siltandem.laws.silicon import bulk_current
+from siltandem.laws.silicon import bulk_current, bulk_slope_range
 
 #: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
 BREAKDOWN_EXPONENT = 3.28
@@ -330,7 +330,7 @@ def _breakdown_slope_shape(w, exponent):
 
 def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
                          shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
-                         breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+                         breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT, bulk=None):
     """The smallest and largest dJ/dVj [A m^-2 V^-1] of :func:`junction_current` over every
     junction voltage between ``v_low_V`` and ``v_high_V`` (arrays, v_low <= v_high).
 
@@ -339,7 +339,8 @@ def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_
     monotone in Vj, except q, which has one minimum at w* = (m + 1)/(m - 1) for m > 1: the
     range is taken from the interval's ends and, where the interval holds w*, from q(w*). A
     rigorous enclosure (up to rounding), used to bound the string's power between two
-    evaluated points (certificate.py). Both values are negative.
+    evaluated points (certificate.py). Both values are negative. A Si base law (``bulk``) adds
+    its own enclosure (laws/silicon.py bulk_slope_range).
     """
     vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
     lo, hi = np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)
@@ -372,4 +373,8 @@ def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_
         steepest = -(large + shunt_large)
         flattest = -(small + shunt_small)
     # widened by a few roundings of the terms above
-    return steepest * (1.0 + 1e-12), flattest * (1.0 - 1e-12)
+    steepest, flattest = steepest * (1.0 + 1e-12), flattest * (1.0 - 1e-12)
+    if bulk is not None:
+        b_lo, b_hi = bulk_slope_range(lo, hi, bulk, temperature_K=temperature_K)
+        steepest, flattest = steepest - b_hi, flattest - b_lo
+    return steepest, flattest

@@ -197,3 +197,48 @@ def bulk_current(v_junction_V, columns, *, temperature_K):
                   + rate * (total * total + 2.0 * total * x + 2.0 * x * x) / (s * s))
         dx_dv = ni2 * np.exp(np.asarray(v_junction_V, dtype=float) / vt) / (vt * s)
     return factor * value, factor * dvalue * dx_dv
+
+
+def _interval_product(a_lo, a_hi, b_lo, b_hi):
+    corners = np.stack(np.broadcast_arrays(a_lo * b_lo, a_lo * b_hi, a_hi * b_lo, a_hi * b_hi))
+    return corners.min(axis=0), corners.max(axis=0)
+
+
+def bulk_slope_range(v_low_V, v_high_V, columns, *, temperature_K):
+    """The smallest and largest dJ_b/dVj of :func:`bulk_current` over [v_low, v_high], a rigorous
+    enclosure (up to rounding, widened by 1e-12): dJ_b/dv = F (dP/dx)(dx/dv), every part monotone
+    in the excess density x (s = n + p and g rise; D rises, its slope's parts fall and rise; the
+    Auger injection part rises; the SRH/surface part (N^2 + 2Nx + 2x^2)/s^2 falls; dx/dv =
+    n p / (Vt s) rises), combined by interval products. The numpy form of
+    laws/compiled_bulk.py ``bulk_slopes``."""
+    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    ends = []
+    for v in (np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)):
+        x, g = excess_density(v, total_cm3=total, ni2_cm6=ni2, temperature_K=temperature_K)
+        s = total + 2.0 * x
+        t1, t3 = (s / b1) ** RADIATIVE_B2, (s / b3) ** RADIATIVE_B4
+        with np.errstate(over="ignore"):
+            ends.append((x, g, s, 1.0 + t1 + t3, RADIATIVE_B2 * t1 / s, RADIATIVE_B4 * t3 / s,
+                         ni2 * np.exp(v / vt) / (vt * s)))
+    (x_lo, g_lo, s_lo, d_lo, fall_lo, rise_lo, r_lo), (x_hi, g_hi, s_hi, d_hi, fall_hi, rise_hi,
+                                                        r_hi) = ends
+    first_lo = s_lo * (a + b_low * (bmin + (1.0 - bmin) / d_hi))
+    first_hi = s_hi * (a + b_low * (bmin + (1.0 - bmin) / d_lo))
+    q_lo = (fall_hi + rise_lo) / (d_hi * d_hi)
+    q_hi = (fall_lo + rise_hi) / (d_lo * d_lo)
+    second_lo, second_hi = _interval_product(2.0 * g_lo * b_low, 2.0 * g_hi * b_low,
+                                             -(1.0 - bmin) * q_hi, -(1.0 - bmin) * q_lo)
+    xp_lo, xp_hi = np.maximum(x_lo, 0.0), np.maximum(x_hi, 0.0)
+    third_lo = AUGER_INJECTION_CM * xp_lo ** AUGER_INJECTION_EXPONENT * (
+        (1.0 + AUGER_INJECTION_EXPONENT) * total + (2.0 + AUGER_INJECTION_EXPONENT) * xp_lo)
+    third_hi = AUGER_INJECTION_CM * xp_hi ** AUGER_INJECTION_EXPONENT * (
+        (1.0 + AUGER_INJECTION_EXPONENT) * total + (2.0 + AUGER_INJECTION_EXPONENT) * xp_hi)
+    fourth_hi = rate * (total * total + 2.0 * total * x_lo + 2.0 * x_lo * x_lo) / (s_lo * s_lo)
+    fourth_lo = rate * (total * total + 2.0 * total * x_hi + 2.0 * x_hi * x_hi) / (s_hi * s_hi)
+    spread = 1e-12 * (np.abs(first_hi) + np.abs(second_lo) + np.abs(second_hi) + third_hi
+                      + fourth_hi)
+    low, high = _interval_product(first_lo + second_lo + third_lo + fourth_lo - spread,
+                                  first_hi + second_hi + third_hi + fourth_hi + spread, r_lo, r_hi)
+    low = np.where(low > 0.0, factor * low * (1.0 - 1e-12), factor * low * (1.0 + 1e-12))
+    return low, factor * high * (1.0 + 1e-12)
