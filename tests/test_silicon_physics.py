@@ -352,3 +352,16 @@ def test_compiled_base_law_slope_range_is_the_numpy_one():
     reference = diode.junction_slope_range(lo, hi, **cell._junction(T))
     for a, b in zip(compiled, reference):
         np.testing.assert_allclose(a, b, rtol=1e-12)
+
+
+def test_j0_key_on_a_layer_outside_a_subcell_is_refused(tmp_path):
+    # a window layer (same type as the emitter, another material) has no saturation current
+    path = _stack(tmp_path, "n:1e19", "lifetime_ns = 1e6")
+    text = path.read_text().replace('[[layer]]\nname = "emitter"', '[[layer]]\nname = "window"\n'
+                                    'material = "GaP"\nthickness_nm = 20\ndoping = "n:1e18"\n'
+                                    'j0_fA_cm2 = 10\n\n[[layer]]\nname = "emitter"', 1)
+    path.write_text(text)
+    with pytest.raises(StackError) as info:
+        compile_layer_stack(load_stack(path))
+    assert "no subcell's emitter or base" in str(info.value)
+    assert "layer 1 'window'" in str(info.value)

@@ -307,6 +307,20 @@ def _cell_name(cell, layers, used):
     return name
 
 
+def _check_measured_j0(layers, structure, file):
+    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored."""
+    active = set()
+    for kind, info in structure.parts:
+        if kind == "subcell":
+            active.update((info["cell"].emitter, info["cell"].base))
+    for i, layer in enumerate(layers):
+        if layer.j0_fA_cm2 is not None and i not in active:
+            raise StackError("j0_fA_cm2 is given on a layer that is no subcell's emitter or base, "
+                             "where no saturation current applies", file=file, where=layer.label,
+                             fix="move j0_fA_cm2 to the emitter (or the base, for its passivated "
+                                 "rear) of a subcell, or remove it")
+
+
 def compile_layer_stack(stack):
     """Layer stack -> Circuit with a LayerModel for the optics stage."""
     file = stack.source
@@ -319,6 +333,7 @@ def compile_layer_stack(stack):
     layers = stack.layers
     structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
     materials = tuple(_material(layer) for layer in layers)
+    _check_measured_j0(layers, structure, file)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
     details = {"subcells": {}, "tunnels": [], "interfaces": []}
     for kind, info in structure.parts:
