@@ -67,7 +67,7 @@ def relative_radiative_parameters(temperature_K):
 
 def relative_radiative_coefficient(carriers_cm3, *, temperature_K):
     """B_rel [-] at n + p = ``carriers_cm3`` [cm^-3] (Altermatt et al. 2005): 1 at low densities,
-    falling as screening sets in (about 0.8 at n + p = 2e16 cm^-3, 300 K)."""
+    falling as screening sets in (about 0.85 at n + p = 2e16 cm^-3, 300 K)."""
     bmin, b1, b3 = relative_radiative_parameters(temperature_K)
     s = np.asarray(carriers_cm3, dtype=float)
     return bmin + (1.0 - bmin) / (1.0 + (s / b1) ** RADIATIVE_B2 + (s / b3) ** RADIATIVE_B4)
@@ -118,8 +118,8 @@ def apparent_gap_narrowing(doping_cm3):
     at 1e20 cm^-3), the unified apparent narrowing of D. B. M. Klaassen, J. W. Slotboom,
     H. C. de Graaff, Solid-State Electron. 35 (1992) 125 (for Boltzmann statistics, fitted to
     minority-carrier data of both types; coefficients from memory). It stands in for the
-    quantum-mechanical model of A. Schenk, J. Appl. Phys. 84 (1998) 3684, which it follows to
-    within some 20 meV above 1e18 cm^-3; ni,eff = ni exp(dEg / 2kT).
+    quantum-mechanical model of A. Schenk, J. Appl. Phys. 84 (1998) 3684 (not implemented: no
+    injection or temperature dependence here); ni,eff = ni exp(dEg / 2kT).
     """
     x = np.log(np.asarray(doping_cm3, dtype=float) / 1.3e17)
     return 6.92e-3 * (x + np.sqrt(x * x + 0.5))
@@ -135,8 +135,8 @@ MASETTI = {"electron": (68.5, 68.5, 56.1, 1414.0, 9.20e16, 3.41e20, 0.711, 1.98,
 def masetti_mobility(doping_cm3, carrier):
     """Carrier mobility [cm^2/Vs] in Si at 300 K doped ``doping_cm3`` [cm^-3] (Masetti et al.
     1983): mu_min1 exp(-P_c/N) + (mu_max - mu_min2) / (1 + (N/C_r)^alpha) - mu_1 / (1 + (C_s/N)^beta).
-    Measured on majority carriers; used here for minority carriers too (their mobility is
-    within some 30 % of it below 1e19 cm^-3, Klaassen 1992)."""
+    Measured on majority carriers; used here for minority carriers too (minority-carrier
+    mobilities differ at high doping: D. B. M. Klaassen, Solid-State Electron. 35 (1992) 953)."""
     mu_min1, mu_min2, mu_1, mu_max, c_r, c_s, alpha, beta, p_c = MASETTI[carrier]
     n = np.asarray(doping_cm3, dtype=float)
     return (mu_min1 * np.exp(-p_c / n) + (mu_max - mu_min2) / (1.0 + (n / c_r) ** alpha)
