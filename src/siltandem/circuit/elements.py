@@ -22,6 +22,7 @@ import numpy as np
 
 from siltandem.laws import diode
 from siltandem.laws import esaki
+from siltandem.laws import silicon
 from siltandem.laws import thermionic
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.constants import thermal_voltage_V
@@ -127,6 +128,9 @@ class Subcell:
     eqe_file: str | None = field(default=None, compare=False, repr=False)
     #: fraction of its radiative emission the next subcell below collects (circuit/coupling.py)
     luminescent_coupling: np.ndarray = field(default_factory=lambda: batch(0.0))
+    #: a silicon base's recombination law at a uniform quasi-Fermi-level split (laws/silicon.py):
+    #: (F = q W, n0, p0, R = 1/tau + S/W, ni,eff [cm^-3]) as (B, 1) arrays, or None
+    bulk: tuple | None = field(default=None, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def j01_A_m2(self, temperature_K):
@@ -141,9 +145,19 @@ class Subcell:
         return self._cache[key]
 
     def is_explicit(self):
-        """True when V(J) is explicit: one ideal diode, no shunt, no J02, no breakdown."""
+        """True when V(J) is explicit: one ideal diode, no shunt, no J02, no breakdown, no base law."""
         return bool(np.all(self.shunt_S_m2 == 0) and np.all(self.j02_A_m2 == 0)
-                    and np.all(self.breakdown_factor == 0))
+                    and np.all(self.breakdown_factor == 0) and self.bulk is None)
+
+    def bulk_columns(self, temperature_K):
+        """The base law's columns at ``temperature_K`` (laws/silicon.py bulk_columns), or None."""
+        if self.bulk is None:
+            return None
+        key = ("bulk", _temperature_key(temperature_K))
+        if key not in self._cache:
+            self._cache[key] = silicon.bulk_columns(self.bulk[:4], ni_eff_cm3=self.bulk[4],
+                                                    temperature_K=temperature_K)
+        return self._cache[key]
 
     def _junction(self, temperature_K):
         if self.photocurrent_A_m2 is None:
@@ -152,7 +166,8 @@ class Subcell:
                     j02_A_m2=self.j02_A_m2, shunt_S_m2=self.shunt_S_m2,
                     temperature_K=temperature_K, breakdown_V=self.breakdown_V,
                     breakdown_factor=self.breakdown_factor,
-                    breakdown_exponent=self.breakdown_exponent)
+                    breakdown_exponent=self.breakdown_exponent,
+                    bulk=self.bulk_columns(temperature_K))
 
     def with_photocurrent(self, photocurrent_A_m2):
         return replace(self, photocurrent_A_m2=batch(photocurrent_A_m2))
@@ -177,7 +192,8 @@ class Subcell:
         if rows > TABLE_ROWS:
             return False
         return bool((self.j02_A_m2 > 0).any() or (self.shunt_S_m2 > 0).any() or (
-            (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)).any())
+            (self.breakdown_factor > 0) & np.isfinite(self.breakdown_V)).any()
+            or self.bulk is not None)
 
     def _table(self, temperature_K):
         """:class:`~siltandem.inverse.LawTable` of the junction law at one temperature, built
@@ -200,7 +216,8 @@ class Subcell:
             self._cache[key] = kernels.parameter_rows(kernels.SUBCELL_LAW, _parameter_rows(
                 self.photocurrent_A_m2, self.j01_A_m2(temperature_K), self.j02_A_m2,
                 self.shunt_S_m2, thermal_voltage_V(np.asarray(temperature_K, dtype=float)),
-                self.breakdown_V, self.breakdown_factor, self.breakdown_exponent))
+                self.breakdown_V, self.breakdown_factor, self.breakdown_exponent),
+                bulk=None if self.bulk is None else _parameter_rows(*self.bulk_columns(temperature_K)))
         return self._cache[key]
 
     def _junction_voltage_fast(self, current_A_m2, temperature_K):
@@ -214,7 +231,8 @@ class Subcell:
         if not inside.all():
             target = np.broadcast_to(current, vj.shape)
             out = ~inside
-            junction = {k: np.broadcast_to(v, vj.shape)[out]
+            junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else
+                            None if v is None else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
                         for k, v in self._junction(temperature_K).items()}
             v_out, s_out = diode.junction_voltage(target[out], **junction)
             vj[out] = v_out

@@ -25,10 +25,12 @@ from siltandem import units
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
+from siltandem.constants import BOLTZMANN_EV_K
 from siltandem.errors import StackError
 from siltandem.laws import checks, collection
 from siltandem.laws import junction as junction_law
 from siltandem.laws import esaki
+from siltandem.laws import silicon
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.materials import material_identity
 
@@ -90,10 +92,20 @@ def _material(layer):
     return load_material(layer.material, layer.composition, gap_eV=layer.gap_eV)
 
 
+def is_silicon(layer):
+    """True for a Si layer: its layer physics adds intrinsic recombination, band-gap narrowing
+    and doping-dependent mobilities (laws/silicon.py)."""
+    return layer.material == "Si"
+
+
 def _minority(layer, material, temperature_K, *, file, role):
-    """Minority-carrier diffusion length [m] and diffusivity [m^2/s] of an active layer."""
+    """Minority-carrier diffusion length [m] and diffusivity [m^2/s] of an active layer (a Si
+    layer's mobility from its doping, Masetti et al. 1983)."""
     mobility = (material.hole_mobility_m2_V_s if layer.polarity == "n"
                 else material.electron_mobility_m2_V_s)
+    if is_silicon(layer):
+        carrier = "hole" if layer.polarity == "n" else "electron"
+        mobility = float(silicon.masetti_mobility(layer.doping_cm3, carrier)) * 1e-4
     if not np.isfinite(mobility) or mobility <= 0:
         raise StackError(f"the library has no minority-carrier mobility for {material.name}",
                          file=file, where=layer.label,
@@ -142,21 +154,50 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                              "nm)", file=file, where=layer.label,
                              fix="make the layer thicker or dope the other side of the junction "
                                  "less")
+    silicon_cell = is_silicon(emitter) and is_silicon(base)
     l_e, d_e = _minority(emitter, material, temperature_K, file=file, role="emitter")
     l_b, d_b = _minority(base, material, temperature_K, file=file, role="base")
+    if silicon_cell and emitter.diffusion_length_um is None:
+        # the emitter's intrinsic (Auger + radiative) lifetime at low injection joins its own
+        l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni))))
     srv_e = (emitter.srv_cm_s if emitter.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
     base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    dark = collection.diffusion_saturation_current(
-        intrinsic_density_m3=ni, emitter_doping_m3=emitter_doping, emitter_thickness_m=emitter_qn,
-        emitter_diffusion_length_m=l_e, emitter_diffusivity_m2_s=d_e, front_srv_m_s=srv_e,
-        base_doping_m3=base_doping, base_thickness_m=base_qn, base_diffusion_length_m=l_b,
-        base_diffusivity_m2_s=d_b, back_srv_m_s=srv_b, where=name)
+    ni_e, ni_b = ni, ni
+    if silicon_cell:
+        ni_e, ni_b = (ni * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
+                                        / (2 * BOLTZMANN_EV_K * temperature_K)))
+                      for layer in (emitter, base))
+    dark = collection.DiffusionSaturationCurrent(*(np.array(collection.region_saturation_current(
+        thickness, doping_m3=doping, intrinsic_density_m3=n_i, diffusion_length_m=length,
+        diffusivity_m2_s=diffusivity, surface_srv_m_s=srv, where=f"{name} {role}"))
+        for thickness, doping, n_i, length, diffusivity, srv, role in (
+            (emitter_qn, emitter_doping, ni_e, l_e, d_e, srv_e, "emitter"),
+            (base_qn, base_doping, ni_b, l_b, d_b, srv_b, "base"))))
     gap = float(material.gap_eV(temperature_K))
     floor = float(radiative_saturation_current(gap, temperature_K=temperature_K))
-    j01 = max(float(dark.total_A_m2), floor)
+    emitter_j0 = (units.a_m2(emitter.j0_fA_cm2 * 1e-12) if emitter.j0_fA_cm2 is not None
+                  else float(dark.emitter_A_m2))
+    base_j0 = units.a_m2(base.j0_fA_cm2 * 1e-12) if base.j0_fA_cm2 is not None else None
     tau_e, tau_b = l_e**2 / d_e, l_b**2 / d_b
+    bulk = None
+    if silicon_cell:
+        # the base at one quasi-Fermi-level split over its whole thickness (laws/silicon.py):
+        # intrinsic, SRH and rear-surface recombination in one law; the rear surface's J0
+        # instead of its velocity where the base gives j0_fA_cm2
+        n0 = base.doping_cm3 if base.polarity == "n" else 0.0
+        p0 = base.doping_cm3 if base.polarity == "p" else 0.0
+        factor, n0, p0, rate = silicon.bulk_base(
+            thickness_m=base.thickness_nm * 1e-9, n0_cm3=n0, p0_cm3=p0, srh_rate_s=1.0 / tau_b,
+            surface_srv_m_s=0.0 if base_j0 is not None else srv_b)
+        bulk = tuple(batch(float(x)) for x in (factor, n0, p0, rate, ni_b / units.PER_CM3_TO_PER_M3))
+        # the law holds the radiative recombination: no floor
+        j01 = emitter_j0 + (base_j0 or 0.0)
+        diffusion_total = j01
+    else:
+        diffusion_total = emitter_j0 + (base_j0 if base_j0 is not None else float(dark.base_A_m2))
+        j01 = max(diffusion_total, floor)
     tau_n, tau_p = (tau_b, tau_e) if emitter.polarity == "n" else (tau_e, tau_b)
     # J02 at a junction voltage near the operating point (about Eg - 0.4 V, common practice)
     vbi = float(junction.built_in_V)
@@ -167,11 +208,22 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
         relative_permittivity=material.relative_permittivity, temperature_K=temperature_K,
         where=name)
     element = Subcell(name, batch(gap), j02_A_m2=batch(float(recombination.j02_A_m2)),
-                      j01_fixed_A_m2=batch(j01))
+                      j01_fixed_A_m2=batch(j01), bulk=bulk)
     model = SubcellModel(name, cell.emitter, cell.base, emitter_qn, base_qn,
                          float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b)
-    return element, model, {"j01_diffusion_A_m2": float(dark.total_A_m2),
-                            "j01_radiative_floor_A_m2": floor, "floor_applied": j01 == floor}
+    return element, model, {"j01_diffusion_A_m2": diffusion_total,
+                            "j01_radiative_floor_A_m2": floor,
+                            "floor_applied": bulk is None and j01 == floor,
+                            "j0_emitter_A_m2": emitter_j0,
+                            "silicon_base_law": bulk is not None}
+
+
+def _intrinsic_lifetime(layer, ni_m3):
+    """Low-injection intrinsic lifetime [s] of a doped Si layer (Richter et al. 2012)."""
+    ni = ni_m3 / units.PER_CM3_TO_PER_M3
+    n0 = layer.doping_cm3 if layer.polarity == "n" else ni * ni / layer.doping_cm3
+    p0 = layer.doping_cm3 if layer.polarity == "p" else ni * ni / layer.doping_cm3
+    return float(silicon.intrinsic_lifetime(1e-3 * min(n0, p0) + 1.0, n0_cm3=n0, p0_cm3=p0))
 
 
 def _tunnel_mass(material):
@@ -263,6 +315,20 @@ def _cell_name(cell, layers, used):
     return name
 
 
+def _check_measured_j0(layers, structure, file):
+    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored."""
+    active = set()
+    for kind, info in structure.parts:
+        if kind == "subcell":
+            active.update((info["cell"].emitter, info["cell"].base))
+    for i, layer in enumerate(layers):
+        if layer.j0_fA_cm2 is not None and i not in active:
+            raise StackError("j0_fA_cm2 is given on a layer that is no subcell's emitter or base, "
+                             "where no saturation current applies", file=file, where=layer.label,
+                             fix="move j0_fA_cm2 to the emitter (or the base, for its passivated "
+                                 "rear) of a subcell, or remove it")
+
+
 def compile_layer_stack(stack):
     """Layer stack -> Circuit with a LayerModel for the optics stage."""
     file = stack.source
@@ -275,6 +341,7 @@ def compile_layer_stack(stack):
     layers = stack.layers
     structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
     materials = tuple(_material(layer) for layer in layers)
+    _check_measured_j0(layers, structure, file)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
     details = {"subcells": {}, "tunnels": [], "interfaces": []}
     for kind, info in structure.parts:
@@ -337,7 +404,8 @@ def device_elements(elements, *, series_ohm_cm2=0.0, shunt_ohm_cm2=np.inf):
 
 
 def dark_currents_at(model, circuit, temperature_K):
-    """J01 and J02 of each layer subcell at other temperatures (arrays of temperature's shape).
+    """J01, J02, the gap and n_i(T)/n_i(T0) of each layer subcell at other temperatures (arrays of
+    temperature's shape; a Si base law's ni,eff scales with the last).
 
     The diffusion J01 scales with ni^2 and J02 with ni (the intrinsic density of the absorber,
     the library's Nc Nv T^1.5 law and Varshni gap); the radiative floor is applied again at
@@ -353,7 +421,8 @@ def dark_currents_at(model, circuit, temperature_K):
         diffusion = details["j01_diffusion_A_m2"] * ratio**2
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K)
-        j01 = np.maximum(diffusion, floor)
+        # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
+        j01 = diffusion if details.get("silicon_base_law") else np.maximum(diffusion, floor)
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
-        out[cell.name] = (j01, j02, gap)
+        out[cell.name] = (j01, j02, gap, ratio)
     return out

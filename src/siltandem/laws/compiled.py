@@ -19,9 +19,17 @@ table by bisection) and sec. 9.4 ('rtsafe': Newton's method safeguarded by a bra
 J. W. Bishop, Solar Cells 25 (1988) 73 (breakdown term); L. Esaki, Phys. Rev. 109 (1958) 603.
 """
 import math
+from pathlib import Path
 
 import numba
 import numpy as np
+
+from siltandem.numerics.kernel_cache import drop_stale_kernels
+
+# before any kernel is loaded from numba's cache: a cache built from other kernel sources goes
+drop_stale_kernels(Path(__file__).resolve().parents[1])
+
+from siltandem.laws.compiled_bulk import BULK_OFFSET, bulk_law, bulk_slopes  # noqa: E402
 
 __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "as_input", "parameter_rows", "evaluate_law",
            "tunnel_curvature", "invert", "invert_table", "element_voltages",
@@ -33,7 +41,8 @@ __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "as_input", "parameter_rows", "evaluate_
 SUBCELL_LAW = 0
 TUNNEL_LAW = 1
 #: columns of a law's parameter rows: the law's 8 parameters, then quantities derived from them
-PARAMETER_WIDTH = 12
+#: (a subcell: 1/Vt, then the 9 columns of a silicon base's recombination law, laws/compiled_bulk.py)
+PARAMETER_WIDTH = 18
 
 
 def as_input(x, dtype=float):
@@ -45,13 +54,17 @@ def as_input(x, dtype=float):
     return a if a.flags.writeable else a.copy()
 
 
-def parameter_rows(code, base):
+def parameter_rows(code, base, bulk=None):
     """A law's parameter rows for the kernels: ``base`` (R, 8), (Jph, J01, J02, G, Vt, Vbr, a, m)
     for a subcell or (A, V1, Jv, Vv, C2, J0, n Vt, k) for a tunnel junction, followed by the
-    derived columns its scalar form reads (reciprocals, the shifted excess prefactor)."""
+    derived columns its scalar form reads (reciprocals, the shifted excess prefactor); a
+    subcell's ``bulk`` (R or 1, 9) columns of a silicon base's law (laws/silicon.py
+    bulk_columns), none when None."""
     base = np.asarray(base, dtype=float)
     rows = np.zeros((base.shape[0], PARAMETER_WIDTH))
     rows[:, :8] = base
+    if bulk is not None:
+        rows[:, BULK_OFFSET:BULK_OFFSET + 9] = np.asarray(bulk, dtype=float)
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
         if code == SUBCELL_LAW:
             rows[:, 8] = 1.0 / base[:, 4]
@@ -98,6 +111,10 @@ def subcell_law(v, p):
         second_slope = 0.5 * j02 * inverse * (e2 + 1.0)
     j = jph - j01 * e1 - second - g * v * multiplier
     dj = -j01 * inverse * (e1 + 1.0) - second_slope - g * (multiplier + v * multiplier_slope)
+    if p[BULK_OFFSET] > 0.0:
+        jb, djb = bulk_law(v, p, inverse)
+        j -= jb
+        dj -= djb
     return j, dj
 
 
@@ -206,7 +223,12 @@ def _subcell_slopes(lo, hi, p):
                 q_min = turn ** (-m - 1.0) * (m - (m - 1.0) * turn)
         shunt_small = g * (1.0 + a * q_min)
         shunt_large = g * (1.0 + a * q_max)
-    return -(large + shunt_large) * (1.0 + 1e-12), -(small + shunt_small) * (1.0 - 1e-12)
+    steep, flat = -(large + shunt_large) * (1.0 + 1e-12), -(small + shunt_small) * (1.0 - 1e-12)
+    if p[BULK_OFFSET] > 0.0:
+        b_lo, b_hi = bulk_slopes(lo, hi, p, inverse)
+        steep -= b_hi
+        flat -= b_lo
+    return steep, flat
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -619,6 +641,12 @@ def subcell_table(params, forward_points, reverse_points):
         p = params[r]
         jph, j01, vt, vbr, a = p[0], p[1], p[4], p[5], p[6]
         highest = vt * math.log1p(3.0 * max(jph, 1e-3) / j01) + 4.0 * vt
+        if p[BULK_OFFSET] > 0.0:
+            # a silicon base's recombination may carry it first: the first 10 mV step where it does
+            for k in range(1, 400):
+                if 0.01 * k >= highest or bulk_law(0.01 * k, p, p[8])[0] > 3.0 * max(jph, 1e-3):
+                    highest = min(highest, 0.01 * k + 4.0 * vt)
+                    break
         if a > 0.0 and math.isfinite(vbr):
             lowest = max(vbr * (1.0 - 1e-9), -3.0)
             for k in range(reverse_points):

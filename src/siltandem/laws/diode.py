@@ -25,6 +25,7 @@ from scipy.special import wrightomega
 from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
 from siltandem.numerics.tables import polish_root
 from siltandem.numerics.roots import safeguarded_newton
+from siltandem.laws.silicon import bulk_current, bulk_slope_range
 
 #: default avalanche exponent m (J. W. Bishop, Solar Cells 25 (1988) 73; pvlib's default)
 BREAKDOWN_EXPONENT = 3.28
@@ -83,7 +84,7 @@ def _breakdown_multiplier(v, breakdown_V, factor, exponent):
 
 def junction_current(v_junction_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
                      shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
-                     breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+                     breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT, bulk=None):
     """Current density [A/m^2] of the junction at junction voltage ``v_junction_V`` [V].
 
     Parameters
@@ -104,6 +105,9 @@ def junction_current(v_junction_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
         Fraction a of the shunt current multiplied by avalanche [-], >= 0.
     breakdown_exponent : array_like
         Avalanche exponent m [-].
+    bulk : tuple of array_like or None
+        The columns of a silicon base's recombination law (laws/silicon.py ``bulk_columns``),
+        whose current J_b(Vj) is subtracted too; None for none.
 
     Returns
     -------
@@ -128,6 +132,9 @@ def junction_current(v_junction_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
     with np.errstate(over="ignore", invalid="ignore"):
         slope = (-(j01_A_m2 / vt) * (e1 + 1.0) - second_slope
                  - shunt_S_m2 * (multiplier + v * multiplier_slope))
+    if bulk is not None:
+        jb, djb = bulk_current(v, bulk, temperature_K=temperature_K)
+        current, slope = current - jb, slope - djb
     return current, slope
 
 
@@ -156,7 +163,7 @@ def _single_diode_voltage(current, *, photocurrent_A_m2, j01_A_m2, shunt_S_m2, v
 
 def junction_voltage(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
                      shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
-                     breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+                     breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT, bulk=None):
     """Junction voltage Vj [V] that carries ``current_A_m2`` [A/m^2] (inverse of junction_current).
 
     Parameters are those of :func:`junction_current`. Currents beyond what the junction can carry
@@ -172,11 +179,16 @@ def junction_voltage(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
     params = dict(photocurrent_A_m2=photocurrent_A_m2, j01_A_m2=j01_A_m2, j02_A_m2=j02_A_m2,
                   shunt_S_m2=shunt_S_m2, temperature_K=temperature_K, breakdown_V=breakdown_V,
                   breakdown_factor=breakdown_factor, breakdown_exponent=breakdown_exponent)
+    bulk_arrays = () if bulk is None else tuple(np.asarray(c, dtype=float) for c in bulk)
     arrays = np.broadcast_arrays(np.asarray(current_A_m2, dtype=float),
-                                 *[np.asarray(v, dtype=float) for v in params.values()])
-    current, (jph, j01, j02, g, temperature, vbr, factor, exponent) = arrays[0], arrays[1:]
+                                 *[np.asarray(v, dtype=float) for v in params.values()],
+                                 *bulk_arrays)
+    current, (jph, j01, j02, g, temperature, vbr, factor, exponent) = arrays[0], arrays[1:9]
+    bulk = tuple(arrays[9:]) if bulk is not None else None
     vt = thermal_voltage_V(temperature)
     simple = (j02 == 0) & ((factor == 0) | ~np.isfinite(vbr))
+    if bulk is not None:
+        simple &= ~(bulk[0] > 0)
     voltage = np.empty(current.shape)
     voltage[simple] = _single_diode_voltage(current[simple], photocurrent_A_m2=jph[simple],
                                             j01_A_m2=j01[simple], shunt_S_m2=g[simple],
@@ -185,22 +197,27 @@ def junction_voltage(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
     if np.any(hard):
         voltage[hard] = _bracketed_voltage(current[hard], jph[hard], j01[hard], j02[hard],
                                            g[hard], temperature[hard], vbr[hard],
-                                           factor[hard], exponent[hard])
+                                           factor[hard], exponent[hard],
+                                           None if bulk is None else tuple(c[hard] for c in bulk))
     with np.errstate(invalid="ignore"):
         _, slope_j = junction_current(voltage, photocurrent_A_m2=jph, j01_A_m2=j01, j02_A_m2=j02,
                                       shunt_S_m2=g, temperature_K=temperature,
                                       breakdown_V=vbr, breakdown_factor=factor,
-                                      breakdown_exponent=exponent)
+                                      breakdown_exponent=exponent, bulk=bulk)
     with np.errstate(divide="ignore", invalid="ignore"):
         slope = np.where(np.isfinite(voltage), 1.0 / slope_j, -np.inf)
     return voltage, slope
 
 
-def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, exponent):
+def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, exponent, bulk=None):
     """Vj(J) by a safeguarded Newton root find on the bracket (the law's own derivative)."""
     vt = thermal_voltage_V(temperature)
     surplus = jph - current
     saturation = j01 + j02
+    if bulk is not None:
+        # the base law's reverse saturation, -J_b(-inf)
+        saturation = saturation - bulk_current(np.full(current.shape, -np.inf), bulk,
+                                               temperature_K=temperature)[0]
     # upper bound: where the ideal diodes alone already carry the surplus (f < 0 there)
     with np.errstate(divide="ignore", invalid="ignore"):
         upper = np.where(surplus > 0, 2.0 * vt * np.log1p(np.maximum(surplus, 0.0) / saturation),
@@ -221,7 +238,8 @@ def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, expo
         r = reachable
         params = dict(photocurrent_A_m2=jph[r], j01_A_m2=j01[r], j02_A_m2=j02[r],
                       shunt_S_m2=g[r], temperature_K=temperature[r], breakdown_V=vbr[r],
-                      breakdown_factor=factor[r], breakdown_exponent=exponent[r])
+                      breakdown_factor=factor[r], breakdown_exponent=exponent[r],
+                      bulk=None if bulk is None else tuple(c[r] for c in bulk))
         target = current[r]
 
         def residual(v):
@@ -265,8 +283,12 @@ def subcell_current(voltage_V, *, series_ohm_m2=0.0, forward=None, **junction):
     voltage = np.asarray(voltage_V, dtype=float)
     rs = np.broadcast_to(np.asarray(series_ohm_m2, dtype=float), voltage.shape)
     if forward is None:
+        bulk = junction.pop("bulk", None)
         junction = {k: np.broadcast_to(np.asarray(v, dtype=float), voltage.shape)
                     for k, v in junction.items()}
+        if bulk is not None:
+            junction["bulk"] = tuple(np.broadcast_to(np.asarray(c, dtype=float), voltage.shape)
+                                     for c in bulk)
 
         def forward(vj):
             return junction_current(vj, **junction)
@@ -308,7 +330,7 @@ def _breakdown_slope_shape(w, exponent):
 
 def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
                          shunt_S_m2=0.0, temperature_K, breakdown_V=-np.inf,
-                         breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT):
+                         breakdown_factor=0.0, breakdown_exponent=BREAKDOWN_EXPONENT, bulk=None):
     """The smallest and largest dJ/dVj [A m^-2 V^-1] of :func:`junction_current` over every
     junction voltage between ``v_low_V`` and ``v_high_V`` (arrays, v_low <= v_high).
 
@@ -317,7 +339,8 @@ def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_
     monotone in Vj, except q, which has one minimum at w* = (m + 1)/(m - 1) for m > 1: the
     range is taken from the interval's ends and, where the interval holds w*, from q(w*). A
     rigorous enclosure (up to rounding), used to bound the string's power between two
-    evaluated points (certificate.py). Both values are negative.
+    evaluated points (certificate.py). Both values are negative. A Si base law (``bulk``) adds
+    its own enclosure (laws/silicon.py bulk_slope_range).
     """
     vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
     lo, hi = np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)
@@ -350,4 +373,8 @@ def junction_slope_range(v_low_V, v_high_V, *, photocurrent_A_m2, j01_A_m2, j02_
         steepest = -(large + shunt_large)
         flattest = -(small + shunt_small)
     # widened by a few roundings of the terms above
-    return steepest * (1.0 + 1e-12), flattest * (1.0 - 1e-12)
+    steepest, flattest = steepest * (1.0 + 1e-12), flattest * (1.0 - 1e-12)
+    if bulk is not None:
+        b_lo, b_hi = bulk_slope_range(lo, hi, bulk, temperature_K=temperature_K)
+        steepest, flattest = steepest - b_hi, flattest - b_lo
+    return steepest, flattest

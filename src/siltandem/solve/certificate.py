@@ -63,9 +63,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from siltandem.circuit.coupling import is_coupled, linear_emission
-from siltandem.constants import thermal_voltage_V
-from siltandem.laws import compiled as kernels
 from siltandem.numerics.roots import bracketed_root
+from siltandem.solve.slopes import SEGMENT_ROWS, product_range, slope_bounds
 
 #: a cell is certified when its bound is below the reported power times (1 + this) ...
 RELATIVE_TOLERANCE = 1e-9
@@ -84,7 +83,7 @@ MAX_POINTS_PER_PASS = 400
 
 #: rows of a segment's data: the parameter, current, terminal voltage, power, dP/d(parameter),
 #: the bound known for the cell to the right; then one row per element's voltage
-_T, _J, _V, _P, _SLOPE, _KNOWN, _PARTS = range(7)
+_T, _J, _V, _P, _SLOPE, _KNOWN, _PARTS = SEGMENT_ROWS
 
 
 class Segment:
@@ -159,16 +158,6 @@ class Certificate:
     certified: np.ndarray
     bound_W_m2: np.ndarray
     cells: np.ndarray
-
-
-def _product_range(a_lo, a_hi, b_lo, b_hi):
-    """Range of a*b over two intervals (the four corners); a NaN corner counts as unbounded."""
-    with np.errstate(invalid="ignore", over="ignore"):
-        c1, c2, c3, c4 = a_lo * b_lo, a_lo * b_hi, a_hi * b_lo, a_hi * b_hi
-        low = np.minimum(np.minimum(c1, c2), np.minimum(c3, c4))
-        high = np.maximum(np.maximum(c1, c2), np.maximum(c3, c4))
-    unknown = np.isnan(low)
-    return np.where(unknown, -np.inf, low), np.where(unknown, np.inf, high)
 
 
 class _Finite:
@@ -254,153 +243,10 @@ def corner_bounds(segment, open_circuit=None):
     j_lo, j_hi = np.minimum(j_a, j_b), np.maximum(j_a, j_b)
     v_lo = np.minimum(a, b).sum(axis=0)
     v_hi = np.maximum(a, b).sum(axis=0)
-    _, bound = _product_range(j_lo, j_hi, v_lo, v_hi)
+    _, bound = product_range(j_lo, j_hi, v_lo, v_hi)
     if segment.all_tunnel:
         bound = np.where(j_hi <= 0, np.minimum(bound, 0.0), bound)
     return bound
-
-
-def _laws(string):
-    """The string's elements grouped for the slope ranges, with their compiled law parameters
-    stacked per kind (built once per string and temperature)."""
-    cache = string.__dict__.setdefault("_slope_laws", {})
-    key = id(string.temperature_K) if np.ndim(string.temperature_K) else \
-        float(string.temperature_K)
-    if key not in cache:
-        size, temperature = string.size, string.temperature_K
-        kinds = {kind: [k for k, e in enumerate(string.elements) if e.kind == kind]
-                 for kind in ("subcell", "tunnel", "isotype", "resistor")}
-
-        def stacked(rows):
-            return np.stack([np.broadcast_to(r, (size, r.shape[1])) for r in rows])
-
-        subcells = [string.elements[k] for k in kinds["subcell"]]
-        cache[key] = dict(
-            kinds=kinds,
-            subcell_params=stacked([c._law_parameters(temperature) for c in subcells]),
-            subcell_series=stacked([np.asarray(c.series_ohm_m2, dtype=float).reshape(-1, 1)
-                                    for c in subcells]),
-            tunnel_params=(stacked([string.elements[k]._law_parameters(temperature)
-                                    for k in kinds["tunnel"]]) if kinds["tunnel"] else None),
-            resistance=sum((np.broadcast_to(string.elements[k].series_ohm_m2, (size, 1))
-                            for k in kinds["resistor"]), np.zeros((size, 1))),
-            pilot=(np.arange(len(subcells))[:, None, None]
-                   == string.pilot_index[None, :, :]))
-    return cache[key]
-
-
-def _law_slopes(code, params, lo, hi):
-    """kernels.slope_range over stacked laws: params (L, B, P), intervals (L, B, K)."""
-    laws, size, width = lo.shape
-    params = np.broadcast_to(params, (laws, size, params.shape[2]))
-    low, high = kernels.slope_range(
-        code, kernels.as_input(params.reshape(laws * size, -1)),
-        kernels.as_input(lo.reshape(laws * size, width)),
-        kernels.as_input(hi.reshape(laws * size, width)))
-    return low.reshape(lo.shape), high.reshape(lo.shape)
-
-
-def _reciprocal(low, high):
-    """[1/high, 1/low] for a slope range of one sign; (-inf, inf) where it holds zero or is not
-    finite."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ok = np.isfinite(low) & np.isfinite(high) & ((low > 0) | (high < 0))
-        return np.where(ok, 1.0 / high, -np.inf), np.where(ok, 1.0 / low, np.inf)
-
-
-def _coupled_slopes(string, vj_high, steep, flat, count, by_current):
-    """The subcells' dJ/dVj ranges (steep, flat: (L, B, K), L = count or 2 count with the
-    pilot's range over t after them) as seen from the string current, with luminescent
-    coupling (circuit/coupling.py): a coupled subcell's junction follows J - ΔJ(J), so its
-    dVj/dJ is the law's times (1 - dΔJ/dJ), in [1, 1 + m], and a coupled pilot's dJ/dt the
-    law's divided by it. m bounds |dΔJ/dJ| = c J0,rad/Vt exp(Vj,s/Vt) |dVj,s/dJ| over the cell
-    from the source s's highest junction voltage and its flattest slope (already divided by
-    its own 1 + m in a chain). Dividing the flat end of dJ/dVj (<= 0) by 1 + m gives both."""
-    subcells = string.subcells
-    temperature = string.temperature_K
-    vt = thermal_voltage_V(np.asarray(temperature, dtype=float))
-    steep, flat = steep.copy(), flat.copy()
-    for i, cell in enumerate(subcells):
-        if not getattr(cell, "source", None) or not any(cell.source is s for s in subcells):
-            continue
-        s = next(k for k, c in enumerate(subcells) if c is cell.source)
-        with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-            factor = cell.emission_slope_factor(temperature)
-            m = factor * np.exp(vj_high[s] / vt) / np.abs(flat[s])
-            m = np.where(factor == 0, 0.0, np.where(np.isnan(m), np.inf, m))
-            flat[i] = flat[i] / (1.0 + m)
-            if not by_current:
-                flat[count + i] = flat[count + i] / (1.0 + m)
-    return steep, flat
-
-
-def slope_bounds(string, segment, cells):
-    """The slope (mean value) bound of P over the cells ``cells`` (B, K) of a segment (indices
-    of their left ends), and the width of the dP/dt range per unit of t there (B, K): inf
-    where some slope range is unbounded."""
-    rows = np.arange(cells.shape[0])[:, None]
-    a, b = segment.data[:, rows, cells], segment.data[:, rows, cells + 1]
-    t_a, t_b, j_a, j_b, p_a, p_b = a[_T], b[_T], a[_J], b[_J], a[_P], b[_P]
-    parts_a, parts_b = a[_PARTS:], b[_PARTS:]
-    j_lo, j_hi = np.minimum(j_a, j_b), np.maximum(j_a, j_b)
-    laws = _laws(string)
-    kinds = laws["kinds"]
-    by_current = segment.by_current
-    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
-        v_lo = np.minimum(parts_a, parts_b).sum(axis=0)
-        v_hi = np.maximum(parts_a, parts_b).sum(axis=0)
-        # subcells: dJ/dVj over their junction voltages (and the pilot's over t), one call
-        series = laws["subcell_series"]
-        va, vb = parts_a[kinds["subcell"]] + j_a * series, parts_b[kinds["subcell"]] + j_b * series
-        count = len(kinds["subcell"])
-        lows, highs = [np.minimum(va, vb)], [np.maximum(va, vb)]
-        if not by_current:
-            lows.append(np.broadcast_to(t_a, va.shape))
-            highs.append(np.broadcast_to(t_b, va.shape))
-        params = laws["subcell_params"]
-        steep, flat = _law_slopes(kernels.SUBCELL_LAW,
-                                  np.concatenate([params] * len(lows)) if len(lows) > 1
-                                  else params, np.concatenate(lows), np.concatenate(highs))
-        if string.coupled:
-            steep, flat = _coupled_slopes(string, np.concatenate(highs)[:count], steep, flat,
-                                          count, by_current)
-        lo, hi = _reciprocal(steep[:count], flat[:count])
-        lo, hi = lo - series, hi - series
-        if not by_current:
-            # the pilot enters through its series resistance only (its junction is t); its
-            # own law's slope is dJ/dt
-            pilot = laws["pilot"]
-            lo, hi = np.where(pilot, -series, lo), np.where(pilot, -series, hi)
-            d_lo = np.where(pilot, steep[count:], 0.0).sum(axis=0)
-            d_hi = np.where(pilot, flat[count:], 0.0).sum(axis=0)
-        s_lo, s_hi = lo.sum(axis=0), hi.sum(axis=0)
-        if kinds["tunnel"]:
-            ua, ub = -parts_a[kinds["tunnel"]], -parts_b[kinds["tunnel"]]
-            low, high = _law_slopes(kernels.TUNNEL_LAW, laws["tunnel_params"],
-                                    np.minimum(ua, ub), np.maximum(ua, ub))
-            lo, hi = _reciprocal(low, high)
-            s_lo, s_hi = s_lo - hi.sum(axis=0), s_hi - lo.sum(axis=0)
-        for k in kinds["isotype"]:
-            lo, hi = string.elements[k].voltage_slope_range(parts_a[k], parts_b[k], j_a, j_b,
-                                                            string.temperature_K)
-            s_lo, s_hi = s_lo + lo, s_hi + hi
-        s_lo, s_hi = s_lo - laws["resistance"], s_hi - laws["resistance"]
-        js_lo, js_hi = _product_range(j_lo, j_hi, s_lo, s_hi)
-        w_lo, w_hi = v_lo + js_lo, v_hi + js_hi
-        if by_current:
-            # dP/dJ = V + J S, S the sum of every element's dV/dJ (the pilot's too)
-            rise_lo, rise_hi = w_lo, w_hi
-        else:
-            # dP/dt = J + J' (V + J S)
-            dw_lo, dw_hi = _product_range(d_lo, d_hi, w_lo, w_hi)
-            rise_lo, rise_hi = j_lo + dw_lo, j_hi + dw_hi
-        h = t_b - t_a
-        meet = np.clip((p_b - p_a - rise_lo * h) / (rise_hi - rise_lo), 0.0, h)
-        bound = np.where(rise_lo >= 0, p_b, np.where(rise_hi <= 0, p_a, p_a + rise_hi * meet))
-        width = (rise_hi - rise_lo) / h
-    ok = np.isfinite(bound) & np.isfinite(p_a) & np.isfinite(p_b)
-    return np.where(ok, np.maximum(bound, np.maximum(p_a, p_b)), np.inf), \
-        np.where(np.isfinite(width), width, np.inf)
 
 
 def _compact(mask):
@@ -741,14 +587,17 @@ def _refine(string, segments, results, fails, spent, mpp_segment, t_mpp, p_mpp, 
 
 
 def is_concave(string):
-    """(B,) True where the string's V(J) is concave: only subcells without breakdown, and
-    resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
+    """(B,) True where the string's V(J) is concave: only subcells without breakdown or a
+    silicon base law, and resistors. A subcell's J(Vj) is then concave and falling (every term of it is), so its
     inverse Vj(J) is concave, and Vj - J Rs too; so is the sum. Then P = J V(J) is concave on
     J >= 0 (P'' = 2 V' + J V'' < 0) and P(t) unimodal (J falls with t): a root of dP/dt where
     it changes sign is the global maximum."""
     if any(e.kind not in ("subcell", "resistor") for e in string.elements):
         return np.zeros(string.size, dtype=bool)
     concave = np.ones(string.size, dtype=bool)
+    if any(getattr(cell, "bulk", None) is not None for cell in string.subcells):
+        # a silicon base's recombination law is not shown concave: bound the cells instead
+        return np.zeros(string.size, dtype=bool)
     # luminescent coupling keeps it where each gain is affine in J (coupling.linear_emission)
     for cell in string.subcells:
         if is_coupled(cell):

@@ -29,7 +29,7 @@ from siltandem.text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
-              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV"}
+              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -52,7 +52,9 @@ LAYER_NUMBERS = {
     "lifetime_ns": dict(unit="ns", low=MIN_LIFETIME_NS, high=1e9, low_open=False,
                         reason="a lifetime below a femtosecond is shorter than any carrier "
                                "scattering time"),
-    "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False)}
+    "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False),
+    "j0_fA_cm2": dict(unit="fA/cm2", low=0.0, high=1e9, low_open=True,
+                      reason="a measured saturation current density is positive")}
 #: ``[device]`` keys of a layer stack and their defaults: the lumped series resistance of the
 #: string (grid, contacts, lateral spreading, bonds), a shunt across every subcell, and the
 #: fraction of the front shaded by the grid (scales the light entering the stack)
@@ -108,6 +110,9 @@ class Layer:
     offset_eV: float | None = None
     #: the 300 K gap of an ordered alloy (GaInP), None: the library's disordered alloy [eV]
     gap_eV: float | None = None
+    #: measured saturation current density of this region (emitter, or a base's passivated
+    #: rear) [fA/cm^2], replacing the diffusion model's J01 part of it (None: the model)
+    j0_fA_cm2: float | None = None
 
     @property
     def label(self):
@@ -339,9 +344,11 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
     if "offset_eV" in table:
         offset = _positive_number(table, "offset_eV", file=file, where=where, unit="eV",
                                   low=-3.0, high=3.0, low_open=False)
+    j0 = _positive_number(table, "j0_fA_cm2", file=file, where=where, required=False,
+                          **LAYER_NUMBERS["j0_fA_cm2"])
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap)
+                 gap, j0)
 
 
 def parse_layers(tables, *, file, folder_materials=None):

@@ -277,7 +277,9 @@ def _hourly_subcells(subcells, gaps, photocurrents, dark, temperature, reference
                     for cell, gap, jph in zip(subcells, gaps, photocurrents)}
     if dark is not None:
         return {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
-                              j02_A_m2=np.asarray(dark[name][1], dtype=float))
+                              j02_A_m2=np.asarray(dark[name][1], dtype=float),
+                              bulk=None if cell.bulk is None else (
+                                  *cell.bulk[:4], cell.bulk[4] * np.asarray(dark[name][3], dtype=float)))
                 for name, cell in hourly_cells.items()}
     # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
     # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)

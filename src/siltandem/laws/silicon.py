@@ -1,0 +1,244 @@
+"""Silicon layer physics: intrinsic recombination, apparent band-gap narrowing, mobilities, and the
+recombination current of a thick base at a uniform quasi-Fermi-level split.
+
+Intrinsic recombination (Auger + radiative), A. Richter, S. W. Glunz, F. Werner, J. Schmidt,
+A. Cuevas, Phys. Rev. B 86 (2012) 165202, eqs. (18)-(20) and table II (equation numbers from
+memory; the coefficients agree with a published open implementation of the same paper):
+
+    U_intr = (n p - ni,eff^2) (2.5e-31 g_eeh n0 + 8.5e-32 g_ehh p0 + 3.0e-29 dn^0.92 + B_rel B_low)
+    g_eeh = 1 + 13 (1 - tanh((n0 / 3.3e17)^0.66)),  g_ehh = 1 + 7.5 (1 - tanh((p0 / 7.0e17)^0.63))
+
+(cm^-3, cm^6/s), B_low = 4.73e-15 cm^3/s (T. Trupke et al., J. Appl. Phys. 94 (2003) 4930) and
+B_rel the relative radiative coefficient of P. P. Altermatt et al., J. Appl. Phys. 97 (2005)
+093710 (its temperature parameters from memory).
+
+A thick base whose diffusion length exceeds its width has one excess density dn throughout, set
+by the quasi-Fermi-level split Vj: n p = ni,eff^2 exp(Vj/Vt) with n = n0 + dn, p = p0 + dn, so
+
+    dn(Vj) = 2 g / (N + sqrt(N^2 + 4 g)),   g = n p - ni^2 = ni^2 expm1(Vj/Vt),   N = n0 + p0,
+
+in low and high injection alike, and the base's recombination current is
+
+    J_b(Vj) = q W [U_intr(dn) + g / (tau (n + p))] + q S g / (n + p)
+
+(the second term Shockley-Read-Hall recombination through mid-gap levels with equal lifetimes,
+the third a rear surface of recombination velocity S with equal capture). J_b rises strictly with
+Vj and is no diode: the subcell law carries it beside its J01 and J02 diodes
+(laws/compiled.py, subcell_law; laws/diode.py, junction_current).
+"""
+import numpy as np
+
+from siltandem.constants import ELEMENTARY_CHARGE_C, thermal_voltage_V
+
+#: Richter et al. 2012, table II: (cm^6/s, cm^6/s, cm^-3, cm^-3) and the injection term
+AUGER_EEH_CM6_S = 2.5e-31
+AUGER_EHH_CM6_S = 8.5e-32
+AUGER_EEH_DENSITY_CM3 = 3.3e17
+AUGER_EHH_DENSITY_CM3 = 7.0e17
+AUGER_EEH_ENHANCEMENT = 13.0
+AUGER_EHH_ENHANCEMENT = 7.5
+AUGER_EEH_EXPONENT = 0.66
+AUGER_EHH_EXPONENT = 0.63
+AUGER_INJECTION_CM = 3.0e-29
+AUGER_INJECTION_EXPONENT = 0.92
+#: radiative coefficient at low injection, 300 K [cm^3/s] (Trupke et al. 2003)
+RADIATIVE_LOW_CM3_S = 4.73e-15
+#: Altermatt et al. 2005: B_rel = bmin + (1 - bmin) / (1 + ((n+p)/b1)^0.54 + ((n+p)/b3)^1.25),
+#: bmin, b1/2, b3/2 each max + (min - max) / (1 + (T/T1)^e) (values from memory)
+RADIATIVE_B2 = 0.54
+RADIATIVE_B4 = 1.25
+_RADIATIVE_T = {"bmin": (0.2, 0.0, 320.0, 2.5), "b1": (1.5e18, 1e7, 550.0, 3.0),
+                "b3": (4.0e18, 1e9, 365.0, 3.54)}
+#: number of bulk-law columns (laws/compiled.py reads them after the subcell's own)
+BULK_COLUMNS = 9
+
+
+def relative_radiative_parameters(temperature_K):
+    """(bmin, b1, b3) of the relative radiative coefficient at ``temperature_K`` [K]
+    (Altermatt et al. 2005; b1, b3 in cm^-3 of n + p)."""
+    t = np.asarray(temperature_K, dtype=float)
+    out = []
+    for key in ("bmin", "b1", "b3"):
+        high, low, t1, e = _RADIATIVE_T[key]
+        value = high + (low - high) / (1.0 + (t / t1) ** e)
+        out.append(value if key == "bmin" else 2.0 * value)
+    return tuple(out)
+
+
+def relative_radiative_coefficient(carriers_cm3, *, temperature_K):
+    """B_rel [-] at n + p = ``carriers_cm3`` [cm^-3] (Altermatt et al. 2005): 1 at low densities,
+    falling as screening sets in (about 0.85 at n + p = 2e16 cm^-3, 300 K)."""
+    bmin, b1, b3 = relative_radiative_parameters(temperature_K)
+    s = np.asarray(carriers_cm3, dtype=float)
+    return bmin + (1.0 - bmin) / (1.0 + (s / b1) ** RADIATIVE_B2 + (s / b3) ** RADIATIVE_B4)
+
+
+def auger_prefactor(n0_cm3, p0_cm3):
+    """2.5e-31 g_eeh n0 + 8.5e-32 g_ehh p0 [cm^3/s]: the doping part of Richter's eq. (18)."""
+    n0, p0 = np.asarray(n0_cm3, dtype=float), np.asarray(p0_cm3, dtype=float)
+    g_eeh = 1.0 + AUGER_EEH_ENHANCEMENT * (1.0 - np.tanh((n0 / AUGER_EEH_DENSITY_CM3)
+                                                         ** AUGER_EEH_EXPONENT))
+    g_ehh = 1.0 + AUGER_EHH_ENHANCEMENT * (1.0 - np.tanh((p0 / AUGER_EHH_DENSITY_CM3)
+                                                         ** AUGER_EHH_EXPONENT))
+    return AUGER_EEH_CM6_S * g_eeh * n0 + AUGER_EHH_CM6_S * g_ehh * p0
+
+
+def intrinsic_recombination_rate(excess_cm3, *, n0_cm3, p0_cm3, temperature_K=300.0):
+    """Auger + radiative recombination rate U_intr [cm^-3 s^-1] (Richter et al. 2012, eq. 18).
+
+    Parameters
+    ----------
+    excess_cm3 : array_like
+        Excess carrier density dn = dp [cm^-3], >= 0 (the injection level).
+    n0_cm3, p0_cm3 : array_like
+        Equilibrium electron and hole densities [cm^-3] (n0 p0 = ni,eff^2).
+    temperature_K : array_like
+        Temperature [K] (of B_rel only: the Auger coefficients are those at 300 K).
+    """
+    dn = np.asarray(excess_cm3, dtype=float)
+    n0, p0 = np.asarray(n0_cm3, dtype=float), np.asarray(p0_cm3, dtype=float)
+    excess_product = dn * (n0 + p0 + dn)          # n p - n0 p0
+    b = RADIATIVE_LOW_CM3_S * relative_radiative_coefficient(n0 + p0 + 2 * dn,
+                                                             temperature_K=temperature_K)
+    return excess_product * (auger_prefactor(n0, p0)
+                             + AUGER_INJECTION_CM * np.maximum(dn, 0.0) ** AUGER_INJECTION_EXPONENT
+                             + b)
+
+
+def intrinsic_lifetime(excess_cm3, *, n0_cm3, p0_cm3, temperature_K=300.0):
+    """Intrinsic lifetime dn / U_intr [s] (Richter et al. 2012)."""
+    return np.asarray(excess_cm3, dtype=float) / intrinsic_recombination_rate(
+        excess_cm3, n0_cm3=n0_cm3, p0_cm3=p0_cm3, temperature_K=temperature_K)
+
+
+def apparent_gap_narrowing(doping_cm3):
+    """Apparent band-gap narrowing [eV] of n- or p-type Si doped at ``doping_cm3`` [cm^-3].
+
+    dEg = 6.92 meV [ln(N / 1.3e17) + sqrt(ln(N / 1.3e17)^2 + 0.5)] (about 61 meV at 1e19 and 92 meV
+    at 1e20 cm^-3), the unified apparent narrowing of D. B. M. Klaassen, J. W. Slotboom,
+    H. C. de Graaff, Solid-State Electron. 35 (1992) 125 (for Boltzmann statistics, fitted to
+    minority-carrier data of both types; coefficients from memory). It stands in for the
+    quantum-mechanical model of A. Schenk, J. Appl. Phys. 84 (1998) 3684 (not implemented: no
+    injection or temperature dependence here); ni,eff = ni exp(dEg / 2kT).
+    """
+    x = np.log(np.asarray(doping_cm3, dtype=float) / 1.3e17)
+    return 6.92e-3 * (x + np.sqrt(x * x + 0.5))
+
+
+#: G. Masetti, M. Severi, S. Solmi, IEEE Trans. Electron Devices 30 (1983) 764, table I:
+#: (mu_min1, mu_min2, mu_1, mu_max, C_r, C_s, alpha, beta, P_c) for electrons in
+#: phosphorus-doped and holes in boron-doped Si [cm^2/Vs, cm^-3] (values from memory)
+MASETTI = {"electron": (68.5, 68.5, 56.1, 1414.0, 9.20e16, 3.41e20, 0.711, 1.98, 0.0),
+           "hole": (44.9, 0.0, 29.0, 470.5, 2.23e17, 6.10e20, 0.719, 2.0, 9.23e16)}
+
+
+def masetti_mobility(doping_cm3, carrier):
+    """Carrier mobility [cm^2/Vs] in Si at 300 K doped ``doping_cm3`` [cm^-3] (Masetti et al.
+    1983): mu_min1 exp(-P_c/N) + (mu_max - mu_min2) / (1 + (N/C_r)^alpha) - mu_1 / (1 + (C_s/N)^beta).
+    Measured on majority carriers; used here for minority carriers too (minority-carrier
+    mobilities differ at high doping: D. B. M. Klaassen, Solid-State Electron. 35 (1992) 953)."""
+    mu_min1, mu_min2, mu_1, mu_max, c_r, c_s, alpha, beta, p_c = MASETTI[carrier]
+    n = np.asarray(doping_cm3, dtype=float)
+    return (mu_min1 * np.exp(-p_c / n) + (mu_max - mu_min2) / (1.0 + (n / c_r) ** alpha)
+            - mu_1 / (1.0 + (c_s / n) ** beta))
+
+
+def bulk_base(*, thickness_m, n0_cm3, p0_cm3, srh_rate_s, surface_srv_m_s=0.0):
+    """The temperature-free columns of a base's recombination law: (F, n0, p0, R) with
+    F = q W [A m^-2 per cm^-3 s^-1] and R = 1/tau + S/W [1/s]."""
+    thickness_cm = np.asarray(thickness_m, dtype=float) * 100.0
+    factor = ELEMENTARY_CHARGE_C * thickness_cm * 1e4           # A/cm^2 -> A/m^2
+    rate = np.asarray(srh_rate_s, dtype=float) + np.asarray(surface_srv_m_s, dtype=float) \
+        / np.asarray(thickness_m, dtype=float)
+    return (factor, np.asarray(n0_cm3, dtype=float), np.asarray(p0_cm3, dtype=float), rate)
+
+
+def bulk_columns(base, *, ni_eff_cm3, temperature_K):
+    """The law's columns (F, N, ni^2, A, B_low, bmin, b1, b3, R) at ``temperature_K``
+    (laws/compiled.py reads them in this order)."""
+    factor, n0, p0, rate = base
+    ni2 = np.asarray(ni_eff_cm3, dtype=float) ** 2
+    # keep n0 p0 = ni,eff^2: the minority density follows ni,eff
+    majority = np.maximum(n0, p0)
+    minority = ni2 / majority
+    n0, p0 = np.where(n0 >= p0, majority, minority), np.where(n0 >= p0, minority, majority)
+    bmin, b1, b3 = relative_radiative_parameters(temperature_K)
+    return (factor, n0 + p0, ni2, auger_prefactor(n0, p0), RADIATIVE_LOW_CM3_S + 0 * factor,
+            bmin + 0 * factor, b1 + 0 * factor, b3 + 0 * factor, rate)
+
+
+def excess_density(v_junction_V, *, total_cm3, ni2_cm6, temperature_K):
+    """dn [cm^-3] at quasi-Fermi-level split ``v_junction_V`` and g = n p - ni^2."""
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    with np.errstate(over="ignore"):
+        g = ni2_cm6 * np.expm1(np.asarray(v_junction_V, dtype=float) / vt)
+    root = np.sqrt(np.maximum(total_cm3 * total_cm3 + 4.0 * g, 0.0))
+    return 2.0 * g / (total_cm3 + root), g
+
+
+def bulk_current(v_junction_V, columns, *, temperature_K):
+    """Recombination current J_b [A/m^2] of a uniformly injected base and dJ_b/dVj (module
+    docstring); ``columns`` from :func:`bulk_columns`."""
+    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    x, g = excess_density(v_junction_V, total_cm3=total, ni2_cm6=ni2, temperature_K=temperature_K)
+    s = total + 2.0 * x
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        d = 1.0 + (s / b1) ** RADIATIVE_B2 + (s / b3) ** RADIATIVE_B4
+        d_slope = (RADIATIVE_B2 * (s / b1) ** RADIATIVE_B2 + RADIATIVE_B4 * (s / b3) ** RADIATIVE_B4) / s
+        brel = bmin + (1.0 - bmin) / d
+        brel_slope = -(1.0 - bmin) * d_slope / (d * d)
+        xp = np.maximum(x, 0.0)
+        power = xp ** AUGER_INJECTION_EXPONENT
+        value = g * (a + AUGER_INJECTION_CM * power + b_low * brel) + rate * g / s
+        dvalue = (s * (a + b_low * brel) + 2.0 * g * b_low * brel_slope
+                  + AUGER_INJECTION_CM * power * ((1 + AUGER_INJECTION_EXPONENT) * total
+                                                  + (2 + AUGER_INJECTION_EXPONENT) * xp)
+                  + rate * (total * total + 2.0 * total * x + 2.0 * x * x) / (s * s))
+        dx_dv = ni2 * np.exp(np.asarray(v_junction_V, dtype=float) / vt) / (vt * s)
+    return factor * value, factor * dvalue * dx_dv
+
+
+def _interval_product(a_lo, a_hi, b_lo, b_hi):
+    corners = np.stack(np.broadcast_arrays(a_lo * b_lo, a_lo * b_hi, a_hi * b_lo, a_hi * b_hi))
+    return corners.min(axis=0), corners.max(axis=0)
+
+
+def bulk_slope_range(v_low_V, v_high_V, columns, *, temperature_K):
+    """The smallest and largest dJ_b/dVj of :func:`bulk_current` over [v_low, v_high], a rigorous
+    enclosure (up to rounding, widened by 1e-12): dJ_b/dv = F (dP/dx)(dx/dv), every part monotone
+    in the excess density x (s = n + p and g rise; D rises, its slope's parts fall and rise; the
+    Auger injection part rises; the SRH/surface part (N^2 + 2Nx + 2x^2)/s^2 falls; dx/dv =
+    n p / (Vt s) rises), combined by interval products. The numpy form of
+    laws/compiled_bulk.py ``bulk_slopes``."""
+    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    ends = []
+    for v in (np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)):
+        x, g = excess_density(v, total_cm3=total, ni2_cm6=ni2, temperature_K=temperature_K)
+        s = total + 2.0 * x
+        t1, t3 = (s / b1) ** RADIATIVE_B2, (s / b3) ** RADIATIVE_B4
+        with np.errstate(over="ignore"):
+            ends.append((x, g, s, 1.0 + t1 + t3, RADIATIVE_B2 * t1 / s, RADIATIVE_B4 * t3 / s,
+                         ni2 * np.exp(v / vt) / (vt * s)))
+    (x_lo, g_lo, s_lo, d_lo, fall_lo, rise_lo, r_lo), (x_hi, g_hi, s_hi, d_hi, fall_hi, rise_hi,
+                                                        r_hi) = ends
+    first_lo = s_lo * (a + b_low * (bmin + (1.0 - bmin) / d_hi))
+    first_hi = s_hi * (a + b_low * (bmin + (1.0 - bmin) / d_lo))
+    q_lo = (fall_hi + rise_lo) / (d_hi * d_hi)
+    q_hi = (fall_lo + rise_hi) / (d_lo * d_lo)
+    second_lo, second_hi = _interval_product(2.0 * g_lo * b_low, 2.0 * g_hi * b_low,
+                                             -(1.0 - bmin) * q_hi, -(1.0 - bmin) * q_lo)
+    xp_lo, xp_hi = np.maximum(x_lo, 0.0), np.maximum(x_hi, 0.0)
+    third_lo = AUGER_INJECTION_CM * xp_lo ** AUGER_INJECTION_EXPONENT * (
+        (1.0 + AUGER_INJECTION_EXPONENT) * total + (2.0 + AUGER_INJECTION_EXPONENT) * xp_lo)
+    third_hi = AUGER_INJECTION_CM * xp_hi ** AUGER_INJECTION_EXPONENT * (
+        (1.0 + AUGER_INJECTION_EXPONENT) * total + (2.0 + AUGER_INJECTION_EXPONENT) * xp_hi)
+    fourth_hi = rate * (total * total + 2.0 * total * x_lo + 2.0 * x_lo * x_lo) / (s_lo * s_lo)
+    fourth_lo = rate * (total * total + 2.0 * total * x_hi + 2.0 * x_hi * x_hi) / (s_hi * s_hi)
+    spread = 1e-12 * (np.abs(first_hi) + np.abs(second_lo) + np.abs(second_hi) + third_hi
+                      + fourth_hi)
+    low, high = _interval_product(first_lo + second_lo + third_lo + fourth_lo - spread,
+                                  first_hi + second_hi + third_hi + fourth_hi + spread, r_lo, r_hi)
+    low = np.where(low > 0.0, factor * low * (1.0 - 1e-12), factor * low * (1.0 + 1e-12))
+    return low, factor * high * (1.0 + 1e-12)
