@@ -58,7 +58,6 @@ def isotype_from_materials(spec, temperature_K, file):
     down = v["carriers_flow"] == "down"
     # forward: majority carriers cross from the depletion side into the accumulation side
     forward = (down and not upper_accumulates) or (not down and upper_accumulates)
-    from siltandem.constants import BOLTZMANN_EV_K
     from siltandem.laws.carriers import fermi_degeneracy_eV
 
     info = []
@@ -77,12 +76,9 @@ def isotype_from_materials(spec, temperature_K, file):
     else:
         attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
         richardson = min(getattr(m, attribute) for m in layers)
-    # the kT/q tail form holds only a few kT/q away from flat band: a nearly flat interface
-    # (built-in below 3 kT/q) takes the plain depletion form, defined up to flat band
-    tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
+    # the depletion side is the element's default, the exact Boltzmann form (no tail/plain switch)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
-        include_tail=tail,
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides)
