@@ -107,5 +107,7 @@ def band_offset(upper, lower, carrier, temperature_K, given=None):
     else:
         step = ((ev_lower + float(lower.gap_eV(temperature_K)))
                 - (ev_upper + float(upper.gap_eV(temperature_K))))
+    memory = " (a value from memory)" if "memory" in source_upper + source_lower else ""
     return step, (f"measured valence-band offset: {upper.name} {ev_upper:+.3f} eV, {lower.name} "
-                  f"{ev_lower:+.3f} eV ({source_upper}; {source_lower})")
+                  f"{ev_lower:+.3f} eV on the scale of I. Vurgaftman, J. R. Meyer, L. R. Ram-Mohan, "
+                  f"J. Appl. Phys. 89 (2001) 5815{memory}")

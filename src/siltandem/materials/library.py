@@ -733,5 +733,6 @@ def valence_band_maximum_eV(material):
     x = float(material.composition)
     (one, one_source), (zero, zero_source) = table[ends[0]], table[ends[1]]
     level = x * one + (1.0 - x) * zero
-    return level, (f"linear in composition between {ends[0]} ({one:+.2f} eV: {one_source}) and "
-                   f"{ends[1]} ({zero:+.2f} eV: {zero_source})")
+    sources = "; ".join(dict.fromkeys(s.split(" (VBO")[0] + (" (from memory)" if "memory" in s else "")
+                                      for s in (one_source, zero_source)))
+    return level, f"linear between {ends[0]} ({one:+.2f} eV) and {ends[1]} ({zero:+.2f} eV): {sources}"
