@@ -85,7 +85,7 @@ _BRANCH_SERIES_RHO_MAX = 0.25     # truncation there ~4e-9 relative; the Halley 
 # the same series for the principal branch (p = +rho): W0 = -1 + rho - rho^2/3 + 11/72 rho^3 - ...
 _BRANCH_SERIES_UPPER = _BRANCH_SERIES * (-1.0) ** np.arange(_BRANCH_SERIES.size)
 _TINY = np.finfo(float).smallest_normal
-_EXACT_ITERATIONS = 60            # Newton from a bracket end; 3-6 steps in practice
+_EXACT_ITERATIONS = 60            # Newton from a bracket end; 1-10 steps in practice
 
 
 def _horner(coefficients, x):
@@ -222,21 +222,23 @@ def _exact_split(vb, alpha):
     lo[big] = np.clip(_reduced_split(vb[big], alpha[big], 1.0), 0.0, hi[big])
     # start from the tail root where its depletion side is deep (its error e^-v2 small)
     x = np.where(vb - lo > 3.0, lo, hi)
+    active = np.flatnonzero(np.isfinite(x))
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        for _ in range(_EXACT_ITERATIONS):
-            _, a_em1, a_g = _alpha_terms(alpha, x)
-            v2 = vb - x
+        for _ in range(_EXACT_ITERATIONS):        # Newton on the points not yet converged
+            xa, va, aa, la, ha = x[active], vb[active], alpha[active], lo[active], hi[active]
+            _, a_em1, a_g = _alpha_terms(aa, xa)
+            v2 = va - xa
             f = a_g - _alpha_terms(np.ones_like(v2), -v2)[2]
             slope = a_em1 - np.expm1(-v2)
-            lo = np.where(f < 0, x, lo)
-            hi = np.where(f > 0, x, hi)
-            step = np.where(slope > 0, f / slope, 0.0)
-            new = x - step
-            outside = ~((new >= lo) & (new <= hi))
-            new[outside] = 0.5 * (lo[outside] + hi[outside])
-            done = np.abs(new - x) <= 4.0 * _EPS * np.abs(x) + _TINY
-            x = new
-            if np.all(done | ~np.isfinite(x)):
+            la = np.where(f < 0, xa, la)
+            ha = np.where(f > 0, xa, ha)
+            new = xa - np.where(slope > 0, f / slope, 0.0)
+            outside = ~((new >= la) & (new <= ha))
+            new[outside] = 0.5 * (la[outside] + ha[outside])
+            x[active], lo[active], hi[active] = new, la, ha
+            done = (np.abs(new - xa) <= 4.0 * _EPS * np.abs(xa) + _TINY) | ~np.isfinite(new)
+            active = active[~done]
+            if active.size == 0:
                 break
     return x
 
