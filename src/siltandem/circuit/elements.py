@@ -607,8 +607,9 @@ class IsotypeInterface:
     #: default), or the closed forms "tail" (kT/q tail, undefined below Vbi = kT/q) and "plain"
     depletion: str = "exact"
     #: where the band offset came from: "given" (offset_eV), "measured" (the valence-band table,
-    #: materials/valence_band.csv), "electron-affinity rule", or "" (the numbers form)
-    offset_source: str = ""
+    #: materials/valence_band.csv), "electron-affinity rule", or "" (the numbers form); for
+    #: reports only (compare=False: interfaces that differ only in it share a penalty batch)
+    offset_source: str = field(default="", compare=False)
 
     def _law(self, temperature_K):
         return dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
