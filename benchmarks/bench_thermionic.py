@@ -62,6 +62,12 @@ def main():
           f"({N_LOOP} points timed) -> {loop_per_point * N_VECTOR:.1f} s scaled to {N_VECTOR:.0e}")
     print(f"speed ratio, brentq loop / vectorized J(V): {loop_per_point * N_VECTOR / t_j:.0f}x")
     print(f"largest relative difference between the two on the timed points: {agreement:.1e}")
+    # the form the elements use: the exact Boltzmann depletion side (Newton inside the bracket of
+    # the two closed forms), against the plain closed form timed above
+    t_exact = median_time(lambda: isotype_current_density(voltage, alpha=alpha, depletion="exact", **KW),
+                          repeats=3)
+    print(f"vectorized J(V), exact depletion side, median of 3: {t_exact:.3f} s "
+          f"({t_exact / t_j:.1f}x the plain closed form)")
 
 
 if __name__ == "__main__":

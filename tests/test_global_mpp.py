@@ -143,14 +143,14 @@ class Reference:
                    built_in_V=_column(e.built_in_V, self.rows),
                    alpha=_column(e.alpha, self.rows),
                    richardson_A_m2_K2=_column(e.richardson_A_m2_K2, self.rows),
-                   temperature_K=self.temperature, include_tail=e.include_tail)
+                   temperature_K=self.temperature, depletion=e.depletion)
 
         def current(x):
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
                 return thermionic.isotype_current_density(x, **law)
         # the law's domain ends a kT/q below the built-in potential (with the tail)
-        edge = law["built_in_V"] - (1.0 + 1e-6 if e.include_tail else 1e-6) * self.vt
+        edge = law["built_in_V"] - (1.0 + 1e-6 if e.depletion == "tail" else 1e-6) * self.vt
         return current, edge
 
     def element_current(self, e, v):

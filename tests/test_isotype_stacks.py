@@ -30,7 +30,10 @@ def write(tmp_path, text):
 def test_alpha_one_drop_follows_the_classic_isotype_law(tmp_path):
     # Chandra & Eastman, Solid-State Electron. 23 (1980) 599; B. Van Zeghbroeck, Principles of
     # Semiconductor Devices (n-n+ heterojunction): J = J0 (1 - V/Vbi)(exp(qV/kT) - 1),
-    # J0 = q A* T Vbi / k exp(-q Vbi / kT), exact for alpha = 1 with the kT/q tail and barrier = Vbi
+    # J0 = q A* T Vbi / k exp(-q Vbi / kT), exact for alpha = 1 with the kT/q tail and barrier = Vbi.
+    # The element uses the exact Boltzmann depletion side, whose field integral exceeds the tail
+    # form's by exp(-v2): at alpha = 1 that raises v1 (and ln J) by exp(-v2)/exp(v1) = exp(-vb) to
+    # first order (vb = (Vbi - V) q/kT), so the classic law holds to that, from above
     vbi, richardson = 0.60, 8.16   # A cm-2 K-2 (REFERENCES: A* = 8.16)
     path = write(tmp_path, f'[[element]]\nkind = "isotype"\nname = "window"\nbarrier_eV = {vbi}\n'
                            f'built_in_V = {vbi}\nalpha = 1.0\nrichardson_A_cm2_K2 = {richardson}\n')
@@ -39,7 +42,9 @@ def test_alpha_one_drop_follows_the_classic_isotype_law(tmp_path):
     v, j = row["drop_at_mpp_V"], result.summary["mpp_mA_cm2"] * 1e-3   # A/cm2
     kt = BOLTZMANN_EV_K * 300.0
     j0 = richardson * 300.0 * vbi / BOLTZMANN_EV_K * math.exp(-vbi / kt)
-    assert j == pytest.approx(j0 * (1 - v / vbi) * math.expm1(v / kt), rel=1e-9)
+    classic = j0 * (1 - v / vbi) * math.expm1(v / kt)
+    excess = math.exp(-(vbi - v) / kt)
+    assert classic * (1 + 0.5 * excess) < j < classic * (1 + 2 * excess)
     assert v > 0.05   # a 0.60 V barrier with a small Richardson constant costs tens of mV
 
 

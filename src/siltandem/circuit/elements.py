@@ -628,14 +628,19 @@ class IsotypeInterface:
     #: ("accumulation", "depletion") -> dict(doping_m3, permittivity, gap_eV, fermi_depth_eV,
     #: material)
     sides: dict | None = field(default=None, compare=False, repr=False)
-    #: the kT/q tail term on the depletion side: within 1e-6 of a full Poisson-Boltzmann solution
-    #: in realistic cases, against a few percent without it (tests/test_thermionic.py)
-    include_tail: bool = True
+    #: the depletion side's form (laws/thermionic.py voltage_split): "exact" (the full Boltzmann
+    #: depletion side, defined for every Vbi > 0 and smooth in doping, temperature and alpha; the
+    #: default), or the closed forms "tail" (kT/q tail, undefined below Vbi = kT/q) and "plain"
+    depletion: str = "exact"
+    #: where the band offset came from: "given" (offset_eV), "measured" (the valence-band table,
+    #: materials/valence_band.csv), "electron-affinity rule", or "" (the numbers form); for
+    #: reports only (compare=False: interfaces that differ only in it share a penalty batch)
+    offset_source: str = field(default="", compare=False)
 
     def _law(self, temperature_K):
         return dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
                     richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K,
-                    include_tail=self.include_tail)
+                    depletion=self.depletion)
 
     def law_current(self, voltage_V, temperature_K):
         """J_law [A/m^2] and dJ/dV at the interface voltage V (V > 0 lowers the barrier)."""
@@ -663,7 +668,7 @@ class IsotypeInterface:
         forward (just inside the law's domain), unbounded when driven in reverse."""
         from siltandem.constants import thermal_voltage_V
 
-        edge = self.built_in_V - (1.0 + 1e-6 if self.include_tail else 1e-6) * \
+        edge = self.built_in_V - (1.0 + 1e-6 if self.depletion == "tail" else 1e-6) * \
             thermal_voltage_V(temperature_K)
         j, _ = self.law_current(edge, temperature_K)
         return np.where(self.direction > 0, j, np.inf)

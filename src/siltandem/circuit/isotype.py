@@ -39,6 +39,7 @@ def isotype_from_materials(spec, temperature_K, file):
                              fix="see `siltandem materials` for the library") from None
     upper, lower = layers
     electron = v["carrier"] == "electron"
+    offset, offset_source = band_offset(upper, lower, v["carrier"], temperature_K, v.get("offset_eV"))
     dos = [(m.conduction_dos_per_m3 if electron else m.valence_dos_per_m3)(temperature_K)
            for m in layers]
     alignment = isotype_band_alignment(
@@ -49,7 +50,7 @@ def isotype_from_materials(spec, temperature_K, file):
         affinity_b_eV=lower.electron_affinity_eV, gap_b_eV=lower.gap_eV(temperature_K),
         band_dos_b_m3=dos[1], doping_b_m3=v["lower_doping_cm3"] * units.PER_CM3_TO_PER_M3,
         relative_permittivity_b=lower.relative_permittivity, temperature_K=temperature_K,
-        offset_eV=v.get("offset_eV"))
+        offset_eV=offset)
     if float(alignment.built_in_V) <= 0:
         raise StackError("the two layers' Fermi levels line up: no built-in potential, no "
                          "barrier to model", file=file, where=spec.label,
@@ -58,7 +59,6 @@ def isotype_from_materials(spec, temperature_K, file):
     down = v["carriers_flow"] == "down"
     # forward: majority carriers cross from the depletion side into the accumulation side
     forward = (down and not upper_accumulates) or (not down and upper_accumulates)
-    from siltandem.constants import BOLTZMANN_EV_K
     from siltandem.laws.carriers import fermi_degeneracy_eV
 
     info = []
@@ -77,12 +77,37 @@ def isotype_from_materials(spec, temperature_K, file):
     else:
         attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
         richardson = min(getattr(m, attribute) for m in layers)
-    # the kT/q tail form holds only a few kT/q away from flat band: a nearly flat interface
-    # (built-in below 3 kT/q) takes the plain depletion form, defined up to flat band
-    tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
+    # the depletion side is the element's default, the exact Boltzmann form (no tail/plain switch)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
-        include_tail=tail,
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
-        offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides)
+        offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides,
+        offset_source=offset_source)
+
+
+def band_offset(upper, lower, carrier, temperature_K, given=None):
+    """The band step from the upper to the lower layer in carrier energy (electrons Ec_lower -
+    Ec_upper, holes Ev_upper - Ev_lower) [eV] and where it came from: the ``offset_eV`` key when
+    given; else the measured valence-band positions of materials/valence_band.csv (I. Vurgaftman,
+    J. R. Meyer, L. R. Ram-Mohan, J. Appl. Phys. 89 (2001) 5815) when both layers are on that
+    scale, the conduction band following with each layer's gap at the temperature; else None (the
+    electron-affinity rule of the band alignment, R. L. Anderson, Solid-State Electron. 5 (1962)
+    341)."""
+    from siltandem.materials.offsets import valence_band_maximum_eV
+
+    if given is not None:
+        return given, "given (offset_eV)"
+    (ev_upper, source_upper), (ev_lower, source_lower) = (valence_band_maximum_eV(m)
+                                                          for m in (upper, lower))
+    if ev_upper is None or ev_lower is None:
+        return None, "electron-affinity rule (R. L. Anderson 1962)"
+    if carrier == "hole":
+        step = ev_upper - ev_lower
+    else:
+        step = ((ev_lower + float(lower.gap_eV(temperature_K)))
+                - (ev_upper + float(upper.gap_eV(temperature_K))))
+    memory = " (a value from memory)" if "memory" in source_upper + source_lower else ""
+    return step, (f"measured valence-band offset: {upper.name} {ev_upper:+.3f} eV, {lower.name} "
+                  f"{ev_lower:+.3f} eV on the scale of I. Vurgaftman, J. R. Meyer, L. R. Ram-Mohan, "
+                  f"J. Appl. Phys. 89 (2001) 5815{memory}")

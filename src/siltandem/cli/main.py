@@ -160,6 +160,8 @@ def _interface(args):
           f"alpha {number(row['alpha'], '.4g')}")
     if np.isfinite(row["offset_eV"]):
         print(f"  band offset seen from the accumulation side {row['offset_eV']:+.4f} eV")
+    if row.get("offset_source"):
+        print(f"  band offset from: {row['offset_source']}")
     drop = row["drop_at_mpp_V"]
     print(f"  in the stack: {row['bias']} biased; "
           + (f"{1000 * drop:.2f} mV at the MPP" if np.isfinite(drop) else

@@ -1,10 +1,12 @@
 """Isotype heterointerface (n-N or p-P): thermionic emission over the band-offset barrier.
 
 Side 1 is the accumulation side (Boltzmann carriers, full Poisson solution), side 2 the depletion
-side (depletion approximation, optionally with the kT/q tail term). The barrier voltage
-``Vbi - V`` splits between the two sides so that the displacement field is continuous at the
-interface; the split is found in closed form with the Lambert W function for any ratio
-``alpha = eps1 N1 / (eps2 N2)``, then polished by one Halley step on the charge balance.
+side: by default also the full Boltzmann solution ("exact"; no switch, defined for every Vbi > 0),
+or the closed forms of the depletion approximation with or without the kT/q tail term. The barrier
+voltage ``Vbi - V`` splits between the two sides so that the displacement field is continuous at
+the interface; for the closed forms the split is found with the Lambert W function for any ratio
+``alpha = eps1 N1 / (eps2 N2)``, then polished by one Halley step on the charge balance; the exact
+form is bracketed by those two and found by Newton's method to rounding.
 
 Conventions (both carrier types): energies are "carrier energies" (electron energy for n-N,
 minus the electron energy for p-P), so the barrier is a spike in the relevant band either way.
@@ -25,6 +27,7 @@ from scipy.special import lambertw, wrightomega
 
 from siltandem.constants import BOLTZMANN_EV_K, RICHARDSON_FREE_A_M2_K2, thermal_voltage_V
 from siltandem.laws.carriers import fermi_degeneracy_eV
+from siltandem.numerics.roots import chandrupatla_roots as _chandrupatla
 
 __all__ = [
     "IsotypeParameterError",
@@ -80,6 +83,10 @@ _BRANCH_SERIES = np.array([
 _EPS = np.finfo(float).eps
 _EDGE_SLACK = 1e-12   # [kT/q] a barrier voltage this far below the domain edge counts as on it
 _BRANCH_SERIES_RHO_MAX = 0.25     # truncation there ~4e-9 relative; the Halley step removes it
+# the same series for the principal branch (p = +rho): W0 = -1 + rho - rho^2/3 + 11/72 rho^3 - ...
+_BRANCH_SERIES_UPPER = _BRANCH_SERIES * (-1.0) ** np.arange(_BRANCH_SERIES.size)
+_TINY = np.finfo(float).smallest_normal
+_EXACT_ITERATIONS = 60            # Newton from a bracket end; 1-10 steps in practice
 
 
 def _horner(coefficients, x):
@@ -182,15 +189,99 @@ def _reduced_split(vb, alpha, tail):
         return v1 - 2.0 * f * f1 / (2.0 * f1 * f1 - f * a_exp)
 
 
+def _exact_depletion_bending(c):
+    """y >= 0 with G(-y) = e^-y - 1 + y = c >= 0 (the field integral of a Boltzmann depletion side,
+    inverted): y = c + 1 + W0(-exp(-1 - c)). About the branch point (small c) the series
+    W0 + 1 = rho - rho^2/3 + 11/72 rho^3 - ..., rho = sqrt(2 (1 - e^-c)) (Corless et al. 1996,
+    eq. 4.22, p = +rho), elsewhere scipy's lambertw; then one Newton step on G(-y) = c."""
+    c = np.asarray(c, dtype=float)
+    y = np.empty_like(c)
+    rho = np.sqrt(-2.0 * np.expm1(-c))
+    near = rho < _BRANCH_SERIES_RHO_MAX
+    y[near] = c[near] + rho[near] * _horner(_BRANCH_SERIES_UPPER, rho[near])
+    far = ~near
+    with np.errstate(under="ignore"):
+        y[far] = c[far] + 1.0 + lambertw(-np.exp(-1.0 - c[far]), 0).real
+    y = np.maximum(y, 0.0)
+    g = _alpha_terms(np.ones_like(y), -y)[2]
+    slope = -np.expm1(-y)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        step = np.where(slope > 0, (g - c) / slope, 0.0)
+    return np.maximum(y - step, 0.0)
+
+
+def _exact_split(vb, alpha):
+    """v1 >= 0 with alpha G(v1) = G(-(vb - v1)), G(x) = e^x - 1 - x, on flat arrays with vb >= 0.
+
+    The root lies between the tail-form root (G(-y) >= y - 1) and the plain-form root
+    (G(-y) <= y), both closed forms; Newton's method from the nearer one, kept inside that bracket
+    by bisection, runs to rounding (so the result is smooth in vb and alpha: no switch).
+    """
+    lo = np.zeros_like(vb)
+    hi = np.maximum(_reduced_split(vb, alpha, 0.0), 0.0)
+    big = vb > 1.0
+    lo[big] = np.clip(_reduced_split(vb[big], alpha[big], 1.0), 0.0, hi[big])
+    # start from the tail root where its depletion side is deep (its error e^-v2 small)
+    x = np.where(vb - lo > 3.0, lo, hi)
+    active = np.flatnonzero(np.isfinite(x))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        for _ in range(_EXACT_ITERATIONS):        # Newton on the points not yet converged
+            xa, va, aa, la, ha = x[active], vb[active], alpha[active], lo[active], hi[active]
+            _, a_em1, a_g = _alpha_terms(aa, xa)
+            v2 = va - xa
+            f = a_g - _alpha_terms(np.ones_like(v2), -v2)[2]
+            slope = a_em1 - np.expm1(-v2)
+            la = np.where(f < 0, xa, la)
+            ha = np.where(f > 0, xa, ha)
+            new = xa - np.where(slope > 0, f / slope, 0.0)
+            outside = ~((new >= la) & (new <= ha))
+            new[outside] = 0.5 * (la[outside] + ha[outside])
+            x[active], lo[active], hi[active] = new, la, ha
+            done = (np.abs(new - xa) <= 4.0 * _EPS * np.abs(xa) + _TINY) | ~np.isfinite(new)
+            active = active[~done]
+            if active.size == 0:
+                break
+    return x
+
+
 def _accumulation_bending(vb, alpha, tail):
-    """v1 on flat arrays, NaN where vb < tail or vb non-finite; also the count of such points."""
-    ok = np.isfinite(vb) & (vb >= tail - _EDGE_SLACK)      # the domain edge itself, to rounding
+    """v1 on flat arrays, NaN where vb < edge or vb non-finite; also the count of such points.
+    ``tail`` is the depletion-side form: 0.0 plain, 1.0 with the kT/q tail, or "exact"."""
+    edge = _domain_edge(tail)
+    ok = np.isfinite(vb) & (vb >= edge - _EDGE_SLACK)      # the domain edge itself, to rounding
     v1 = np.full_like(vb, np.nan)
-    v1[ok] = np.maximum(_reduced_split(np.maximum(vb[ok], tail), alpha[ok], tail), 0.0)
+    if tail == "exact":
+        v1[ok] = _exact_split(np.maximum(vb[ok], 0.0), alpha[ok])
+    else:
+        v1[ok] = np.maximum(_reduced_split(np.maximum(vb[ok], tail), alpha[ok], tail), 0.0)
     return v1, int(np.count_nonzero(~ok & np.isfinite(vb)))
 
 
-def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False):
+def _domain_edge(tail):
+    """Smallest reduced barrier voltage of a depletion-side form (kT/q with the tail, else 0)."""
+    return 0.0 if tail == "exact" else tail
+
+
+def _depletion_from_balance(alpha, v1, tail):
+    """v2 from the charge balance given v1: alpha G(v1) + t, or G(-v2) = alpha G(v1) (exact)."""
+    a_g = _alpha_terms(alpha, v1)[2]
+    return _exact_depletion_bending(a_g) if tail == "exact" else a_g + tail
+
+
+def _depletion_form(include_tail, depletion):
+    """The depletion-side form as the internal ``tail`` value: 0.0, 1.0 or "exact"."""
+    if depletion is None:
+        return 1.0 if include_tail else 0.0
+    forms = {"plain": 0.0, "tail": 1.0, "exact": "exact"}
+    if depletion not in forms:
+        raise IsotypeParameterError(
+            f"isotype interface: 'depletion' must be \"exact\", \"tail\" or \"plain\" (got "
+            f"{depletion!r}); use \"exact\" (the full Boltzmann depletion side) unless comparing "
+            "with the closed forms")
+    return forms[depletion]
+
+
+def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False, depletion=None):
     """Split of the barrier voltage between the accumulation and the depletion side.
 
     Parameters
@@ -204,6 +295,11 @@ def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False
     include_tail : bool, default False
         Add the kT/q majority-carrier tail to the depletion side (closer to a full Boltzmann
         solution when the depletion-side bending is many kT/q; undefined below kT/q).
+    depletion : {"exact", "tail", "plain"}, optional
+        The depletion side's form; overrides ``include_tail`` when given. "exact" is the full
+        Boltzmann depletion side, G(-v2) = e^-v2 - 1 + v2 in place of v2 - t (defined for every
+        barrier voltage >= 0, smooth in it and in alpha); "tail" and "plain" are the closed forms
+        (t = 1 and t = 0).
 
     Returns
     -------
@@ -217,11 +313,14 @@ def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False
 
         alpha (exp(v1) - 1 - v1) = v2 - t,   v1 + v2 = vb,   t = 0 (or 1 with the tail),
 
-    whose physical root is ``v1 = log(beta omega(x)/alpha)``, ``x = ln(alpha/beta) + c/beta``
+    (the exact form: ``alpha (exp(v1) - 1 - v1) = exp(-v2) - 1 + v2``, the same first integral of
+    Poisson's equation on both sides), whose physical root is ``v1 = log(beta omega(x)/alpha)``,
+    ``x = ln(alpha/beta) + c/beta``
     for alpha < 1 (beta = 1 - alpha, c = vb - t + alpha, omega the Wright omega function), and
     ``v1 = -c/g - W_{-1}(-(alpha/g) exp(-c/g))`` (g = alpha - 1, log-space, branch-point
     series) for alpha > 1; ``exp(v1) = 1 + vb - t`` at alpha = 1. One Halley step on the balance
-    follows.
+    follows. The exact form's root lies between the tail root and the plain root; Newton's method
+    from the nearer one, kept in that bracket, runs to rounding.
 
     References
     ----------
@@ -229,7 +328,7 @@ def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False
        Boltzmann space-charge layer; depletion width with the kT/q term.
     .. [2] R. M. Corless et al., "On the Lambert W function", Adv. Comput. Math. 5 (1996) 329.
     """
-    tail = 1.0 if include_tail else 0.0
+    tail = _depletion_form(include_tail, depletion)
     alpha = _check_positive("alpha", alpha)
     temperature_K = _check_positive("temperature_K", temperature_K)
     vt = thermal_voltage_V(temperature_K)
@@ -241,7 +340,7 @@ def voltage_split(barrier_voltage_V, *, alpha, temperature_K, include_tail=False
     # side 2 from whichever form does not cancel: vb - v1, or the charge balance itself
     v2 = vb - v1
     from_balance = v1 > 0.5 * vb
-    v2[from_balance] = _alpha_terms(alpha_b[from_balance], v1[from_balance])[2] + tail
+    v2[from_balance] = _depletion_from_balance(alpha_b[from_balance], v1[from_balance], tail)
     return VoltageSplit((v1 * vt_b).reshape(shape), (v2 * vt_b).reshape(shape))
 
 
@@ -268,22 +367,42 @@ def _prepare(first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperatu
     return shape, first, vbi / vt, alpha, vt, log_prefactor
 
 
-def _current_from_split(v, v1, a_em1, vt, log_prefactor, with_derivative):
+def _current_from_split(v, v1, a_em1, vt, log_prefactor, with_derivative, exact=None):
     """J = P e^v1 (e^v - 1) and dJ/dV = (P e^v1 / Vt) (1 + alpha (e^v1 - 1) e^v) / (1 + alpha (e^v1 - 1)).
 
     ``a_em1`` is alpha (e^v1 - 1) >= 0; the derivative is a sum of positive terms (no cancellation).
+    ``exact``: (v2, alpha) for the exact depletion side, where the 1s become G'(-v2) = 1 - e^-v2
+    (see `_exact_weight`).
     """
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         j = np.sign(v) * np.exp(log_prefactor + v1 + np.log(np.abs(np.expm1(v))))
         if not with_derivative:
             return j, None
+        if exact is not None:
+            w, rest = _exact_weight(a_em1, *exact)
+            base = log_prefactor + v1 - np.log(vt)
+            return j, rest * np.exp(base) + w * np.exp(base + v)
         base = log_prefactor + v1 - np.log(vt) - np.log1p(a_em1)
         djdv = np.exp(base) + a_em1 * np.exp(base + v)
     return j, djdv
 
 
+def _exact_weight(a_em1, v2, alpha):
+    """w = A/(A + s), A = alpha (e^v1 - 1), s = 1 - e^-v2: with the exact depletion side
+    dv1/dV = -s/(A + s) (units of kT/q), so dJ/dV = (P e^v1/Vt) ((1 - w) + w e^v). At flat band
+    (A = s = 0) its limit sqrt(alpha)/(1 + sqrt(alpha)) (v1 = v2/sqrt(alpha) to first order).
+    Returns (w, 1 - w), the second formed as s/(A + s) (no cancellation when A >> s)."""
+    s = -np.expm1(-np.maximum(v2, 0.0))
+    total = a_em1 + s
+    with np.errstate(divide="ignore", invalid="ignore"):
+        root = np.sqrt(alpha)
+        flat = total > 0
+        return (np.where(flat, a_em1 / total, root / (1.0 + root)),
+                np.where(flat, s / total, 1.0 / (1.0 + root)))
+
+
 def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
-                            temperature_K, include_tail=False, with_derivative=False):
+                            temperature_K, include_tail=False, with_derivative=False, depletion=None):
     """Thermionic-emission current density across an isotype heterointerface.
 
     Parameters
@@ -309,6 +428,9 @@ def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richard
         depletion approximation, defined up to flat band.
     with_derivative : bool, default False
         Also return dJ/dV [A m^-2 V^-1].
+    depletion : {"exact", "tail", "plain"}, optional
+        The depletion side's form (see `voltage_split`); overrides ``include_tail``. "exact" is
+        defined up to flat band for every Vbi > 0 and smooth in Vbi, alpha and T.
 
     Returns
     -------
@@ -325,7 +447,8 @@ def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richard
     sides (detailed balance fixes one Richardson constant for both directions). At alpha = 1,
     with the tail and phi = Vbi, this is exactly J0 (1 - V/Vbi)(exp(qV/kT) - 1),
     J0 = q A T Vbi / k exp(-q Vbi / kT); as alpha -> inf, v1 -> 0 and it becomes the Schottky law
-    A T^2 exp(-q phi / kT)(exp(qV/kT) - 1). dv1/dV = -1/(1 + alpha (exp(v1) - 1)).
+    A T^2 exp(-q phi / kT)(exp(qV/kT) - 1). dv1/dV = -1/(1 + alpha (exp(v1) - 1)) (the exact
+    depletion side: -s/(s + alpha (exp(v1) - 1)), s = 1 - exp(-v2)).
 
     References
     ----------
@@ -334,21 +457,22 @@ def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richard
     .. [3] E. H. Rhoderick, R. H. Williams, Metal-Semiconductor Contacts, 2nd ed., Oxford (1988).
     .. [4] R. L. Anderson, Solid-State Electron. 5 (1962) 341.
     """
-    tail = 1.0 if include_tail else 0.0
+    tail = _depletion_form(include_tail, depletion)
     shape, volt, vbi, alpha, vt, log_p = _prepare(voltage_V, barrier_eV, built_in_V, alpha,
                                                   richardson_A_m2_K2, temperature_K)
     v = volt / vt
     v1, bad = _accumulation_bending(vbi - v, alpha, tail)
     _warn_nan(bad, "beyond flat band (V > Vbi, or V > Vbi - kT/q with the tail)")
     a_em1 = _alpha_terms(alpha, v1)[1] if with_derivative else None
-    j, djdv = _current_from_split(v, v1, a_em1, vt, log_p, with_derivative)
+    exact = (vbi - v - v1, alpha) if tail == "exact" and with_derivative else None
+    j, djdv = _current_from_split(v, v1, a_em1, vt, log_p, with_derivative, exact)
     if with_derivative:
         return j.reshape(shape), djdv.reshape(shape)
     return j.reshape(shape)
 
 
 def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
-                    temperature_K, include_tail=False, with_derivative=False):
+                    temperature_K, include_tail=False, with_derivative=False, depletion=None):
     """Voltage across an isotype interface that carries a given current density (inverse law).
 
     Parameters are those of `isotype_current_density`, with ``current_A_m2`` [A m^-2] first.
@@ -363,7 +487,8 @@ def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A
     Notes
     -----
     Solved for the accumulation-side bending x = v1, for which everything is explicit:
-    vb(x) = alpha (exp(x) - 1 - x) + x + t and J(x) = P exp(x) expm1(vbi - vb(x)).
+    vb(x) = alpha (exp(x) - 1 - x) + x + t (exact depletion side: x + y, y >= 0 the root of
+    exp(-y) - 1 + y = alpha (exp(x) - 1 - x), in Lambert W) and J(x) = P exp(x) expm1(vbi - vb(x)).
     ``asinh(J(x)/P) = asinh(J/P)`` is bracketed by x = 0 (flat band) and
     x = max(ln(2|J|/P), vbi + ln 2), and solved with Chandrupatla's method, the iteration and
     stopping rule of scipy.optimize.elementwise.find_root in plain numpy (:func:`_chandrupatla`).
@@ -372,15 +497,15 @@ def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A
     ----------
     .. [1] T. R. Chandrupatla, Adv. Eng. Softw. 28 (1997) 145.
     """
-    tail = 1.0 if include_tail else 0.0
+    tail = _depletion_form(include_tail, depletion)
     shape, jt, vbi, alpha, vt, log_p = _prepare(current_A_m2, barrier_eV, built_in_V, alpha,
                                                 richardson_A_m2_K2, temperature_K)
     with np.errstate(over="ignore", under="ignore"):
         ratio = jt * np.exp(-log_p)                          # J/P, may be large
-        j_max = np.expm1(vbi - tail)                         # J(flat band)/P
+        j_max = np.expm1(vbi - _domain_edge(tail))           # J(flat band)/P
 
     def barrier_reduced(x, alpha):                           # vb as a function of v1 = x
-        return _alpha_terms(alpha, x)[2] + x + tail
+        return _depletion_from_balance(alpha, x, tail) + x
 
     def residual(x, vbi, alpha, target):                     # decreasing in x; asinh keeps scale
         with np.errstate(over="ignore", invalid="ignore"):
@@ -407,97 +532,13 @@ def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A
     volt = (v * vt).reshape(shape)
     if not with_derivative:
         return volt
-    _, djdv = _current_from_split(v, x_root, _alpha_terms(alpha, x_root)[1], vt, log_p, True)
+    exact = (_depletion_from_balance(alpha, x_root, tail), alpha) if tail == "exact" else None
+    _, djdv = _current_from_split(v, x_root, _alpha_terms(alpha, x_root)[1], vt, log_p, True, exact)
     return volt, (1.0 / djdv).reshape(shape)
 
 
-def _chandrupatla(function, lower, upper, args):
-    """Roots of ``function(x, *args)`` bracketed by [lower, upper], on flat arrays.
-
-    Chandrupatla's hybrid of inverse quadratic interpolation and bisection, with the iterates,
-    the defaults and the stopping rule of ``scipy.optimize.elementwise.find_root`` (scipy 1.15+:
-    stop where |f(x_min)| <= tiny, or where |x2 - x1| < 4 eps |x_min| + 4 tiny; NaN where the
-    ends have one sign or nothing is finite), so its roots are scipy's. Written out in numpy
-    because scipy's general array-API loop costs about 0.4 ms per iteration in overhead, which
-    made every isotype interface of a stack cost milliseconds per solver pass. ``function`` must
-    be elementwise. Returns (x, success), flat.
-
-    References
-    ----------
-    .. [1] T. R. Chandrupatla, Adv. Eng. Softw. 28 (1997) 145.
-    """
-    tiny, eps = np.finfo(float).smallest_normal, np.finfo(float).eps
-    x_atol, x_rtol, f_atol = 4.0 * tiny, 4.0 * eps, tiny
-    max_iterations = np.log2(np.finfo(float).max) - np.log2(tiny)
-    x1 = np.array(lower, dtype=float).reshape(-1)
-    x2 = np.array(upper, dtype=float).reshape(-1)
-    args = [np.asarray(a).reshape(-1) for a in args]
-    with np.errstate(all="ignore"):
-        f1 = np.asarray(function(x1, *args), dtype=float)
-        f2 = np.asarray(function(x2, *args), dtype=float)
-        f_rtol = 0.0 * np.minimum(np.abs(f1), np.abs(f2))
-    x_out = np.zeros(x1.size)
-    status = np.ones(x1.size, dtype=np.int8)          # 1 running, 0 converged, -1 failed
-    active = np.arange(x1.size)
-    x3 = f3 = None
-    t = 0.5
-    iterations = 0
-    with np.errstate(all="ignore"):
-        while True:
-            # the termination test (scipy's check_termination)
-            smaller = np.abs(f1) < np.abs(f2)
-            x_min = np.where(smaller, x1, x2)
-            f_min = np.where(smaller, f1, f2)
-            state = np.ones(x1.size, dtype=np.int8)
-            stop = np.abs(f_min) <= f_atol + f_rtol
-            state[stop] = 0
-            failed = ((np.sign(f1) == np.sign(f2)) | ~(np.isfinite(x1) & np.isfinite(x2))
-                      | (np.isnan(f1) & np.isnan(f2))) & ~stop
-            x_min[failed] = np.nan
-            state[failed] = -1
-            stop |= failed
-            dx = np.abs(x2 - x1)
-            tolerance = np.abs(x_min) * x_rtol + x_atol
-            close = dx < tolerance
-            state[close] = 0
-            stop |= close
-            if np.any(stop):
-                x_out[active[stop]] = x_min[stop]
-                status[active[stop]] = state[stop]
-                keep = ~stop
-                active = active[keep]
-                x1, f1, x2, f2, f_rtol, dx, tolerance = (a[keep] for a in (
-                    x1, f1, x2, f2, f_rtol, dx, tolerance))
-                args = [a[keep] for a in args]
-                if x3 is not None:
-                    x3, f3 = x3[keep], f3[keep]
-            if active.size == 0 or iterations >= max_iterations:
-                break
-            if iterations:        # the next step (scipy's post_termination_check)
-                xi = (x1 - x2) / (x3 - x2)
-                phi = (f1 - f2) / (f3 - f2)
-                alpha = (x3 - x1) / (x2 - x1)
-                quadratic = ((1 - np.sqrt(1 - xi)) < phi) & (phi < np.sqrt(xi))
-                t = np.full_like(alpha, 0.5)
-                a, b, c, k = f1[quadratic], f2[quadratic], f3[quadratic], alpha[quadratic]
-                t[quadratic] = a / (a - b) * c / (c - b) - k * a / (c - a) * b / (b - c)
-                limit = 0.5 * tolerance / dx
-                t = np.clip(t, limit, 1 - limit)
-            x = x1 + t * (x2 - x1)
-            f = np.asarray(function(x, *args), dtype=float)
-            # keep the bracket (scipy's post_func_eval)
-            x3, f3 = x2.copy(), f2.copy()
-            same = np.sign(f) == np.sign(f1)
-            x3[same], f3[same] = x1[same], f1[same]
-            x2[~same], f2[~same] = x1[~same], f1[~same]
-            x1, f1 = x, f
-            iterations += 1
-    status[active] = -1                               # out of iterations
-    return x_out, status == 0
-
-
 def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
-                        richardson_A_m2_K2, temperature_K, include_tail=False):
+                        richardson_A_m2_K2, temperature_K, include_tail=False, depletion=None):
     """The smallest and largest dJ/dV [A m^-2 V^-1] of `isotype_current_density` over every
     voltage between ``v_low_V`` and ``v_high_V`` (arrays, v_low <= v_high, inside the domain).
 
@@ -505,10 +546,13 @@ def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
     accumulation-side bending v1 falling as V rises (dv1/dV < 0, see the Notes of
     `isotype_current_density`). e^v1 and A lie between their values at the interval's ends; the
     ratio (1 + A e^v)/(1 + A) is monotone in A for fixed e^v and rises with e^v, so its extremes
-    lie at the corners. A rigorous enclosure up to rounding (positive; NaN outside the domain),
+    lie at the corners. With the exact depletion side the ratio is (1 - w) + w e^v,
+    w = A/(A + s), s = 1 - e^-v2 (`_exact_weight`): A and s both fall as V rises, so w lies in
+    [A(high)/(A(high) + s(low)), A(low)/(A(low) + s(high))] and the same corner argument holds.
+    A rigorous enclosure up to rounding (positive; NaN outside the domain),
     used to bound the string's power between two evaluated points (certificate.py).
     """
-    tail = 1.0 if include_tail else 0.0
+    tail = _depletion_form(include_tail, depletion)
     shape, both, vbi, alpha_f, vt, log_p = _prepare(
         np.stack(np.broadcast_arrays(np.asarray(v_low_V, dtype=float),
                                      np.asarray(v_high_V, dtype=float))),
@@ -524,11 +568,28 @@ def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
         a_lo, a_hi = a_em1[half:], a_em1[:half]          # A at high V, A at low V
         e_lo, e_hi = e_v[:half], e_v[half:]
 
-        def ratio(a, e):
-            return (1.0 + a * e) / (1.0 + a)
+        if tail == "exact":
+            s = -np.expm1(-np.maximum(vbi - v - v1, 0.0))
+            s_lo, s_hi = s[half:], s[:half]              # s at high V, s at low V
+            root = np.sqrt(alpha_f[:half])
+            # (w, 1 - w) at both ends of w's range, 1 - w as s/(A + s) (no cancellation)
+            ends = []
+            for a, s_ in ((a_lo, s_hi), (a_hi, s_lo)):
+                total = a + s_
+                ends.append((np.where(total > 0, a / total, root / (1.0 + root)),
+                             np.where(total > 0, s_ / total, 1.0 / (1.0 + root))))
 
-        r_min = np.minimum(ratio(a_lo, e_lo), ratio(a_hi, e_lo))
-        r_max = np.maximum(ratio(a_lo, e_hi), ratio(a_hi, e_hi))
+            def ratio(end, e):
+                return end[1] + end[0] * e
+            w_min, w_max = ends
+        else:
+            w_min, w_max = a_lo, a_hi
+
+            def ratio(a, e):
+                return (1.0 + a * e) / (1.0 + a)
+
+        r_min = np.minimum(ratio(w_min, e_lo), ratio(w_max, e_lo))
+        r_max = np.maximum(ratio(w_min, e_hi), ratio(w_max, e_hi))
         scale = np.exp(log_p[:half]) / vt[:half]
         smallest = scale * growth[half:] * r_min
         largest = scale * growth[:half] * r_max

@@ -238,7 +238,8 @@ def _interface_row(element, number, v, loss, penalty):
         "bias": "forward" if first_value(element.direction) > 0 else "reverse",
         "drop_at_mpp_V": -v, "loss_W_m2": loss,
         "efficiency_penalty_pct_abs": penalty,
-        "blocking": bool(_blocks(v, penalty))}
+        "blocking": bool(_blocks(v, penalty)),
+        "offset_source": getattr(element, "offset_source", "")}
 
 
 def _interface_warnings(name, v, penalty):

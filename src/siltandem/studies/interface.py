@@ -113,7 +113,7 @@ def band_diagram(element, temperature_K, bias_V=0.0):
     vbi = float(element.built_in_V[0, 0])
     barrier = vbi - bias_V
     split = voltage_split(barrier, alpha=float(element.alpha[0, 0]), temperature_K=temperature_K,
-                          include_tail=element.include_tail)
+                          depletion=element.depletion)
     v1, v2 = float(split.accumulation_V), float(split.depletion_V)
     acc, dep = sides["accumulation"], sides["depletion"]
     q = ELEMENTARY_CHARGE_C
