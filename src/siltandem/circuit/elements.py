@@ -22,6 +22,7 @@ import numpy as np
 
 from siltandem.laws import diode
 from siltandem.laws import esaki
+from siltandem.laws import field_emission
 from siltandem.laws import thermionic
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.constants import thermal_voltage_V
@@ -605,26 +606,40 @@ class IsotypeInterface:
     #: the kT/q tail term on the depletion side: within 1e-6 of a full Poisson-Boltzmann solution
     #: in realistic cases, against a few percent without it (tests/test_thermionic.py)
     include_tail: bool = True
+    #: "thermionic" (emission over the spike only) or "thermionic-field" (also tunnelling
+    #: through the depletion side below its top, laws/field_emission.py)
+    transport: str = "thermionic"
+    #: E00 of the depletion side [eV] (needed by "thermionic-field"); NaN unknown
+    field_energy_eV: np.ndarray = field(default_factory=lambda: batch(np.nan))
 
     def _law(self, temperature_K):
-        return dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
-                    richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K,
-                    include_tail=self.include_tail)
+        law = dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
+                   richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K,
+                   include_tail=self.include_tail)
+        if self.transport == "thermionic-field":
+            law.update(field_energy_eV=self.field_energy_eV, spike_eV=self.offset_eV)
+        return law
+
+    def _functions(self):
+        """(current, inverse, slope range) of this interface's transport law."""
+        if self.transport == "thermionic-field":
+            return (field_emission.field_emission_current_density,
+                    field_emission.field_emission_voltage, field_emission.field_emission_slope_range)
+        return (thermionic.isotype_current_density, thermionic.isotype_voltage,
+                thermionic.current_slope_range)
 
     def law_current(self, voltage_V, temperature_K):
         """J_law [A/m^2] and dJ/dV at the interface voltage V (V > 0 lowers the barrier)."""
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            return thermionic.isotype_current_density(voltage_V, with_derivative=True,
-                                                      **self._law(temperature_K))
+            return self._functions()[0](voltage_V, with_derivative=True, **self._law(temperature_K))
 
     def voltage(self, current_A_m2, temperature_K):
         s = self.direction
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            v_law, slope = thermionic.isotype_voltage(s * np.asarray(current_A_m2, dtype=float),
-                                                      with_derivative=True,
-                                                      **self._law(temperature_K))
+            v_law, slope = self._functions()[1](s * np.asarray(current_A_m2, dtype=float),
+                                                with_derivative=True, **self._law(temperature_K))
         return -s * v_law, -slope
 
     def current(self, voltage_V, temperature_K):
@@ -650,9 +665,8 @@ class IsotypeInterface:
         x_a, x_b = -s * np.asarray(v_a, dtype=float), -s * np.asarray(v_b, dtype=float)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            low, high = thermionic.current_slope_range(np.minimum(x_a, x_b),
-                                                       np.maximum(x_a, x_b),
-                                                       **self._law(temperature_K))
+            low, high = self._functions()[2](np.minimum(x_a, x_b), np.maximum(x_a, x_b),
+                                             **self._law(temperature_K))
         lo, hi = _reciprocal_range(low, high, 0.0)
         return -hi, -lo
 

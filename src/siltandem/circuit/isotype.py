@@ -18,8 +18,16 @@ def isotype_element(spec, temperature_K, file=None):
         alpha = (v["accumulation_permittivity"] * v["accumulation_doping_cm3"]
                  / (v["depletion_permittivity"] * v["depletion_doping_cm3"]))
     richardson = v.get("richardson_A_cm2_K2", RICHARDSON_FREE_A_M2_K2 * 1e-4) * 1e4
+    transport, field_energy = v.get("transport", "thermionic"), float("nan")
+    if transport == "thermionic-field":
+        from siltandem.laws.field_emission import field_energy_eV
+
+        field_energy = float(field_energy_eV(
+            doping_m3=v["depletion_doping_cm3"] * units.PER_CM3_TO_PER_M3,
+            relative_permittivity=v["depletion_permittivity"], mass_ratio=v["tunnelling_mass"]))
     return IsotypeInterface(
         spec.name, barrier_eV=batch(v["barrier_eV"]), built_in_V=batch(v["built_in_V"]),
+        transport=transport, field_energy_eV=batch(field_energy),
         alpha=batch(alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if v["orientation"] == "forward" else -1.0), carrier=v["carrier"],
         string=spec.string)
@@ -80,9 +88,25 @@ def isotype_from_materials(spec, temperature_K, file):
     # the kT/q tail form holds only a few kT/q away from flat band: a nearly flat interface
     # (built-in below 3 kT/q) takes the plain depletion form, defined up to flat band
     tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
+    transport, field_energy = _transport(v, layers, upper_accumulates, temperature_K)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
-        include_tail=tail,
+        include_tail=tail, transport=transport, field_energy_eV=batch(field_energy),
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides)
+
+
+def _transport(v, layers, upper_accumulates, temperature_K):
+    """The transport key (default "thermionic-field": the dopings are known) and E00 of the
+    depletion side from its doping, permittivity and tunnelling mass (laws/field_emission.py)."""
+    from siltandem.laws.field_emission import field_energy_eV
+    from siltandem.materials.tunnelling import tunnelling_mass_ratio
+
+    transport = v.get("transport", "thermionic-field")
+    depletion = 1 if upper_accumulates else 0
+    energy = field_energy_eV(
+        doping_m3=v[("upper_doping_cm3", "lower_doping_cm3")[depletion]] * units.PER_CM3_TO_PER_M3,
+        relative_permittivity=layers[depletion].relative_permittivity,
+        mass_ratio=v.get("tunnelling_mass", tunnelling_mass_ratio(layers[depletion], v["carrier"])))
+    return transport, float(energy)

@@ -28,7 +28,8 @@ from siltandem.text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
-              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV"}
+              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV",
+              "transport"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -93,6 +94,8 @@ class Layer:
     tunnel: dict | None = None
     #: band-offset override at this layer's interface with the layer below [eV]
     offset_eV: float | None = None
+    #: transport over an isotype interface with the layer below (None: "thermionic-field")
+    transport: str | None = None
 
     @property
     def label(self):
@@ -250,8 +253,15 @@ def _parse_layer(i, table, names, *, file):
     if "offset_eV" in table:
         offset = _positive_number(table, "offset_eV", file=file, where=where, unit="eV",
                                   low=-3.0, high=3.0, low_open=False)
+    transport = table.get("transport")
+    if transport is not None and transport not in ("thermionic", "thermionic-field"):
+        raise StackError(f"transport = {transport!r} is not allowed", file=file,
+                         where=f"{where}, key transport",
+                         fix='transport is "thermionic-field" (the default: emission over the '
+                             'spike and tunnelling through it) or "thermionic" (over it only)')
     return Layer(i, name, material, None if composition is None else float(composition),
-                 thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset)
+                 thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
+                 transport)
 
 
 def parse_layers(tables, *, file):
