@@ -207,7 +207,7 @@ def _gain_kernel(w_all, e00_all, spike_all, nodes, weights, log_out, dlog_out):
         log_integral = f_peak + math.log(integral)
         log_gain = max(log_integral, 0.0) + math.log1p(math.exp(-abs(log_integral)))
         log_out[i] = log_gain
-        dlog_out[i] = d_integral * math.exp(log_integral - f_peak - log_gain)
+        dlog_out[i] = d_integral * math.exp(f_peak - log_gain)
 
 
 # ---------------------------------------------------------------------------------------------
