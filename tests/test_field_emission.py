@@ -21,6 +21,7 @@ Checks against sources outside the law:
 """
 import math
 import warnings
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -34,6 +35,7 @@ from siltandem.laws import thermionic as te
 from siltandem.materials import load_material
 from siltandem.materials.tunnelling import tunnelling_mass_ratio
 
+ROOT = Path(__file__).resolve().parents[1]
 HBAR = PLANCK_J_S / (2 * math.pi)
 Q = ELEMENTARY_CHARGE_C
 EPS0 = VACUUM_PERMITTIVITY_F_M
@@ -274,3 +276,69 @@ def test_drop_is_continuous_in_doping_and_temperature():
         steps = np.abs(np.diff(series))
         assert np.all(np.isfinite(series))
         assert steps.max() < 0.1 * (series.max() - series.min())
+
+
+# --- the transport key in stack files ------------------------------------------------------------
+
+HEAD = '[conditions]\nspectrum = "am1.5g"\ntemperature_K = 300\n'
+CELL = '[[element]]\nkind = "subcell"\nname = "cell"\ngap_eV = 1.4\n'
+MATERIALS = ('[[element]]\nkind = "isotype"\nname = "i"\nupper_material = "GaP"\nlower_material = "Si"\n'
+             'upper_doping_cm3 = 1e19\nlower_doping_cm3 = 1e19\ncarrier = "hole"\ncarriers_flow = "down"\n')
+NUMBERS = ('[[element]]\nkind = "isotype"\nname = "i"\nbarrier_eV = 0.92\nbuilt_in_V = 0.95\n'
+           'accumulation_doping_cm3 = 1e19\ndepletion_doping_cm3 = 1e19\naccumulation_permittivity = 11.7\n'
+           'depletion_permittivity = 11.1\n')
+
+
+def summary(tmp_path, text):
+    from siltandem import load_stack, run_stack
+
+    path = tmp_path / "s.toml"
+    path.write_text(HEAD + CELL + text)
+    return run_stack(load_stack(path), curve_points=50).summary
+
+
+def test_materials_form_defaults_to_thermionic_field_and_thermionic_is_todays_law(tmp_path):
+    """p-GaP/p-Si 1e19/1e19 driven the blocking way (holes from GaP into Si): the default drops
+    a few mV at the MPP, transport = "thermionic" the hundreds of mV of the thermionic law."""
+    default = summary(tmp_path, MATERIALS)["interfaces"][0]
+    plain = summary(tmp_path, MATERIALS + 'transport = "thermionic"\n')["interfaces"][0]
+    assert default["transport"] == "thermionic-field" and plain["transport"] == "thermionic"
+    assert plain["bias"] == "forward" and plain["drop_at_mpp_V"] > 0.25
+    assert 0 < default["drop_at_mpp_V"] < 0.005
+
+
+def test_numbers_form_keeps_thermionic_unless_asked(tmp_path):
+    assert summary(tmp_path, NUMBERS)["interfaces"][0]["transport"] == "thermionic"
+    asked = summary(tmp_path, NUMBERS + 'transport = "thermionic-field"\ntunnelling_mass = 0.2\n')
+    plain = summary(tmp_path, NUMBERS)
+    assert asked["interfaces"][0]["transport"] == "thermionic-field"
+    assert asked["interfaces"][0]["drop_at_mpp_V"] < 0.1 * plain["interfaces"][0]["drop_at_mpp_V"]
+
+
+@pytest.mark.parametrize("extra, problem, key", [
+    ('transport = "tunnel"\n', "transport = 'tunnel' is not allowed", None),
+    ('transport = "thermionic-field"\n', "needs the depletion side: no tunnelling_mass", "transport"),
+    ('tunnelling_mass = 0.2\n', "tunnelling_mass goes with", "tunnelling_mass"),
+])
+def test_numbers_form_transport_errors_name_the_key(tmp_path, extra, problem, key):
+    from siltandem import StackError, load_stack
+
+    path = tmp_path / "s.toml"
+    path.write_text(HEAD + CELL + NUMBERS + extra)
+    with pytest.raises(StackError) as caught:
+        load_stack(path)
+    assert problem in caught.value.problem and caught.value.fix
+    if key:
+        assert f"key {key}" in caught.value.where
+
+
+def test_layer_transport_key_is_checked(tmp_path):
+    from siltandem import StackError, load_stack
+
+    text = (ROOT / "stacks" / "demo_placements.toml").read_text().replace(
+        'doping = "p:1e18"\n', 'doping = "p:1e18"\ntransport = "fast"\n', 1)
+    path = tmp_path / "s.toml"
+    path.write_text(text)
+    with pytest.raises(StackError) as caught:
+        load_stack(path)
+    assert "transport = 'fast'" in caught.value.problem and "key transport" in caught.value.where

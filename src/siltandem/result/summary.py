@@ -237,7 +237,8 @@ def _interface_row(element, number, v, loss, penalty):
         "bias": "forward" if first_value(element.direction) > 0 else "reverse",
         "drop_at_mpp_V": -v, "loss_W_m2": loss,
         "efficiency_penalty_pct_abs": penalty,
-        "blocking": bool(_blocks(v, penalty))}
+        "blocking": bool(_blocks(v, penalty)),
+        "transport": element.transport}
 
 
 def _interface_warnings(name, v, penalty):
@@ -335,7 +336,8 @@ def _model_text(circuit):
                "depletion recombination (J02), Beer-Lambert optics" if layer_level
                else "detailed-balance subcells (generalized Planck law), lumped resistors")
             + ", Esaki tunnel junctions (three-term law), isotype interfaces (thermionic "
-              "emission, any alpha)")
+              "emission, any alpha, with tunnelling through the spike where their transport is "
+              "thermionic-field)")
 
 
 def _certificate(solution):
