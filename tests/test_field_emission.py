@@ -228,6 +228,21 @@ def test_current_is_monotone_and_the_inverse_returns_it(n_cm3, carrier):
     np.testing.assert_allclose(dvdj, 1.0 / djdv[::50], rtol=1e-5)   # slope at the root; 2e-6 at the edge
 
 
+@pytest.mark.parametrize("include_tail", [True, False])
+def test_without_a_spike_the_inverse_is_the_thermionic_one_down_to_tiny_currents(include_tail):
+    """No spike (step <= 0): G = 1, so the compiled inverse must give the thermionic inverse, also
+    for currents far below what the zero-bias end of its bracket resolves (found by the
+    placement demo's removal solves)."""
+    law = dict(barrier_eV=0.066, built_in_V=0.05, alpha=0.889, richardson_A_m2_K2=1e6, temperature_K=298.15,
+               include_tail=include_tail)
+    currents = np.concatenate([-np.geomspace(1e8, 1e-12, 60), [0.0], np.geomspace(1e-12, 1e8, 60)])
+    v_ref, dv_ref = te.isotype_voltage(currents, with_derivative=True, **law)
+    v, dv = fe.field_emission_voltage(currents, field_energy_eV=0.01, spike_eV=-0.126, with_derivative=True, **law)
+    assert np.all(np.isfinite(v))
+    np.testing.assert_allclose(v, v_ref, rtol=1e-12, atol=1e-18)
+    np.testing.assert_allclose(dv, dv_ref, rtol=1e-12)
+
+
 def test_slope_range_encloses_the_slope():
     """The certificate's enclosure, on the condition 0 <= dlnG/dw <= 1 it states (checked here
     on a grid of w and e00), holds every sampled dJ/dV of each cell."""

@@ -167,47 +167,120 @@ def _level_point(start, bound, w, e00, target):
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _gain_kernel(w_all, e00_all, spike_all, nodes, weights, log_out, dlog_out):
-    """log G and dlogG/dw per entry: the panels and the Gauss-Legendre rule of the module
-    docstring, one compiled loop (the numpy form cost about 1 ms a call in array overhead,
-    and the inverse calls it twenty times per solve)."""
+def _gain_point(w, e00, spike, nodes, weights):
+    """log G and dlogG/dw at one point: the panels and the Gauss-Legendre rule of the module
+    docstring."""
+    if not math.isfinite(w):
+        return math.nan, math.nan
+    if not (w > 0.0 and spike > 0.0 and e00 > 0.0):
+        return 0.0, 0.0
     edges = np.empty(7)
+    top = min(w, spike)
+    peak = min(w * math.tanh(e00) ** 2, top)
+    f_peak = _exponent_point(peak, w, e00)[0]
+    start_hi = min(top, w * _S_MAX ** 2)
+    for k in range(3):
+        level = f_peak - _LEVELS[k]
+        edges[k] = _level_point(0.0, peak, w, e00, level)
+        edges[6 - k] = _level_point(start_hi, peak, w, e00, level)
+    edges[3] = peak
+    integral, d_integral = 0.0, 0.0
+    for k in range(6):
+        half = 0.5 * (edges[k + 1] - edges[k])
+        mid = 0.5 * (edges[k + 1] + edges[k])
+        if half <= 0.0:
+            continue
+        for j in range(nodes.size):
+            e = mid + half * nodes[j]
+            f = _exponent_point(e, w, e00)[0]
+            weight = half * weights[j] * math.exp(f - f_peak)
+            s = min(math.sqrt(e / w), _S_MAX)
+            integral += weight
+            d_integral += weight * (math.atanh(s) - s) / e00   # -d theta/dw at fixed e
+    if w < spike:                          # the range ends at the parabola's vertex
+        d_integral += math.exp(w - w / e00 - f_peak)
+    log_integral = f_peak + math.log(integral)
+    log_gain = max(log_integral, 0.0) + math.log1p(math.exp(-abs(log_integral)))
+    return log_gain, d_integral * math.exp(f_peak - log_gain)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _gain_kernel(w_all, e00_all, spike_all, nodes, weights, log_out, dlog_out):
+    """`_gain_point` over flat arrays, one compiled loop (the numpy form cost about 1 ms a call in
+    array overhead, and the inverse calls it many times per solve)."""
     for i in range(w_all.size):
-        w, e00, spike = w_all[i], e00_all[i], spike_all[i]
-        if not math.isfinite(w):
-            log_out[i], dlog_out[i] = math.nan, math.nan
+        log_out[i], dlog_out[i] = _gain_point(w_all[i], e00_all[i], spike_all[i], nodes, weights)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_bending(alpha, x):
+    """alpha (e^x - 1 - x) without cancellation for small |x| (series below 0.5)."""
+    if abs(x) < 0.5:
+        term, total = x * x / 2.0, 0.0
+        for k in range(3, 20):
+            total += term
+            term *= x / k
+        return alpha * total
+    return alpha * (math.expm1(x) - x)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _inverse_kernel(log_target, sign, vbi, alpha, tail, e00, spike, x_lo, x_hi, nodes, weights, out):
+    """Root x = v1 of log|J(x)/P| = log_target on [x_lo, x_hi] per entry, J(x)/P = e^x expm1(v) G,
+    v = vbi - (alpha (e^x - 1 - x) + x + tail): Newton's method safeguarded by the bracket
+    (bisection when a step leaves it or shrinks it too slowly), in the log of |J| where J keeps
+    one sign on the bracket (sign +1: forward, log|J| falls with x; -1: reverse, rises). NaN where
+    the ends do not bracket the target."""
+    for i in range(log_target.size):
+        lo, hi, target = x_lo[i], x_hi[i], log_target[i]
+        direction = -sign[i]                    # d log|J| / dx has this sign
+
+        def g(x):
+            a_g = _field_bending(alpha[i], x)
+            v = vbi[i] - (a_g + x + tail)
+            log_g, dlog = _gain_point(a_g, e00[i], spike[i], nodes, weights)
+            em1 = math.expm1(v)
+            a_em1 = alpha[i] * math.expm1(x)
+            value = x + math.log(abs(em1)) + log_g - target
+            slope = 1.0 + dlog * a_em1 - (1.0 + a_em1) * math.exp(v) / em1
+            return value, slope
+
+        g_lo, g_hi = g(lo)[0], g(hi)[0]
+        if math.isnan(g_lo) or math.isnan(g_hi):
+            # an end at v = 0 gives log 0 = -inf (a valid sign); NaN only from bad inputs
+            out[i] = math.nan
             continue
-        if not (w > 0.0 and spike > 0.0 and e00 > 0.0):
-            log_out[i], dlog_out[i] = 0.0, 0.0
+        # the zero-bias end (lo in reverse, hi forward) has v = 0 only to rounding: a current
+        # below what that resolves has its root there (the caller takes v from J itself)
+        zero_end = lo if direction > 0.0 else hi
+        if (direction > 0.0 and g_lo > 0.0) or (direction < 0.0 and g_hi > 0.0):
+            out[i] = zero_end
             continue
-        top = min(w, spike)
-        peak = min(w * math.tanh(e00) ** 2, top)
-        f_peak = _exponent_point(peak, w, e00)[0]
-        start_hi = min(top, w * _S_MAX ** 2)
-        for k in range(3):
-            level = f_peak - _LEVELS[k]
-            edges[k] = _level_point(0.0, peak, w, e00, level)
-            edges[6 - k] = _level_point(start_hi, peak, w, e00, level)
-        edges[3] = peak
-        integral, d_integral = 0.0, 0.0
-        for k in range(6):
-            half = 0.5 * (edges[k + 1] - edges[k])
-            mid = 0.5 * (edges[k + 1] + edges[k])
-            if half <= 0.0:
-                continue
-            for j in range(nodes.size):
-                e = mid + half * nodes[j]
-                f = _exponent_point(e, w, e00)[0]
-                weight = half * weights[j] * math.exp(f - f_peak)
-                s = min(math.sqrt(e / w), _S_MAX)
-                integral += weight
-                d_integral += weight * (math.atanh(s) - s) / e00   # -d theta/dw at fixed e
-        if w < spike:                          # the range ends at the parabola's vertex
-            d_integral += math.exp(w - w / e00 - f_peak)
-        log_integral = f_peak + math.log(integral)
-        log_gain = max(log_integral, 0.0) + math.log1p(math.exp(-abs(log_integral)))
-        log_out[i] = log_gain
-        dlog_out[i] = d_integral * math.exp(f_peak - log_gain)
+        if direction * g_lo > 0.0 or direction * g_hi < 0.0:
+            out[i] = math.nan
+            continue
+        # rtsafe (Numerical Recipes 9.4): Newton, bisection where a step leaves the bracket or
+        # would not halve the last-but-one step
+        x = 0.5 * (lo + hi)
+        dx_old = dx = hi - lo
+        for _ in range(200):
+            value, slope = g(x)
+            if value == 0.0:
+                break
+            if direction * value < 0.0:
+                lo = x
+            else:
+                hi = x
+            newton = x - value / slope
+            if not (lo < newton < hi) or not math.isfinite(newton) or abs(2.0 * value) > abs(dx_old * slope):
+                dx_old, dx = dx, 0.5 * (hi - lo)
+                x = lo + dx
+            else:
+                dx_old, dx = dx, value / slope
+                x = newton
+            if abs(dx) <= 4.0 * 2.220446049250313e-16 * abs(x) + 1e-300:
+                break
+        out[i] = x
 
 
 # ---------------------------------------------------------------------------------------------
@@ -275,14 +348,6 @@ def _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative):
     return j, djdv
 
 
-def _signed_asinh(sign, log_magnitude):
-    """asinh(sign * exp(log_magnitude)) without overflow (asinh y = ln 2|y| for |y| > 1e150)."""
-    with np.errstate(over="ignore", invalid="ignore"):
-        small = log_magnitude < 345.0
-        direct = np.arcsinh(sign * np.exp(np.where(small, log_magnitude, 0.0)))
-        return np.where(small, direct, sign * (log_magnitude + np.log(2.0)))
-
-
 def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
                            temperature_K, field_energy_eV, spike_eV=np.inf, include_tail=False,
                            with_derivative=False):
@@ -293,8 +358,11 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
     everything is explicit: vb(x) = alpha (e^x - 1 - x) + x + t, w(x) = alpha (e^x - 1 - x) and
     J(x) = P e^x expm1(vbi - vb(x)) G(w(x)). At flat band (x = 0) w = 0 and G = 1, so the
     flat-band current and the bracket [0, max(ln(2|J|/P), vbi + ln 2)] are the thermionic
-    law's (G >= 1 only deepens the reverse end); Chandrupatla's method on
-    asinh(J(x)/P) = asinh(J/P) (taken in log form where J/P overflows). J(V) is strictly increasing
+    law's (G >= 1 only deepens the reverse end). The bending at zero bias splits it: a forward
+    current lies in [0, x(V=0)], a reverse one above, and on each part log|J(x)| is monotone and
+    smooth; `_inverse_kernel` solves log|J(x)/P| = log|J/P| there by Newton's method safeguarded
+    by the bracket (rtsafe, W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4),
+    compiled, each Newton step with the gain's analytic slope. J(V) is strictly increasing
     (tests/test_field_emission.py checks it on a grid), so the root is unique.
 
     Returns
@@ -311,26 +379,28 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
         j_max = np.expm1(vbi - tail)
         log_target = np.log(np.abs(jt)) - log_p
 
-    def residual(x, vbi, alpha, e00, spike, target):
-        a_g = te.alpha_terms(alpha, x)[2]
-        v = vbi - (a_g + x + tail)
-        log_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike)
-        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-            log_mag = x + np.log(np.abs(np.expm1(v))) + log_g
-        return _signed_asinh(np.sign(v), log_mag) - target
-
     finite = np.isfinite(jt)
     flat = finite & (np.abs(ratio - j_max) <= 64 * np.finfo(float).eps * j_max)
     solve = finite & ~flat & (ratio < j_max)
     x_root = np.full_like(jt, np.nan)
     x_root[flat] = 0.0
     if np.any(solve):
+        # the bending at zero bias splits the bracket: forward currents below it, reverse above
+        x_zero, _ = te.accumulation_bending(vbi[solve], alpha[solve], tail)
         with np.errstate(divide="ignore", over="ignore"):
             x_hi = np.maximum(np.log(2.0 * np.abs(jt[solve])) - log_p[solve], vbi[solve] + np.log(2.0))
-        target = _signed_asinh(np.sign(jt[solve]), log_target[solve])
-        x, success = te.bracketed_roots(residual, np.zeros_like(x_hi), x_hi,
-                                        (vbi[solve], alpha[solve], e00[solve], spike[solve], target))
-        x_root[solve] = np.where(success, x, np.nan)
+        forward = jt[solve] > 0
+        sign = np.where(forward, 1.0, -1.0)
+        lower = np.where(forward, 0.0, x_zero)
+        upper = np.where(forward, x_zero, x_hi)
+        roots = np.empty(lower.size)
+        _inverse_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
+            log_target[solve], sign, vbi[solve], alpha[solve])), tail,
+            *(np.ascontiguousarray(a, dtype=float) for a in (e00[solve], spike[solve], lower, upper)),
+            _NODES, _WEIGHTS, roots)
+        zero = jt[solve] == 0                                  # no current: zero bias
+        roots[zero] = x_zero[zero]
+        x_root[solve] = roots
     a_g = te.alpha_terms(alpha, x_root)[2]
     log_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike)
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):

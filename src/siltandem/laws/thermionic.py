@@ -662,6 +662,5 @@ def isotype_band_alignment(*, carrier, affinity_a_eV, gap_a_eV, band_dos_a_m3, d
 
 alpha_terms = _alpha_terms
 accumulation_bending = _accumulation_bending
-bracketed_roots = _chandrupatla
 prepare_law_arguments = _prepare
 current_from_split = _current_from_split
