@@ -158,6 +158,9 @@ def _interface(args):
           f"alpha {number(row['alpha'], '.4g')}")
     if np.isfinite(row["offset_eV"]):
         print(f"  band offset seen from the accumulation side {row['offset_eV']:+.4f} eV")
+    print(f"  transport {row['transport']}"
+          + (f" (E00 of the depletion side {1e3 * float(element.field_energy_eV[0, 0]):.2f} meV)"
+             if row["transport"] == "thermionic-field" else ""))
     drop = row["drop_at_mpp_V"]
     print(f"  in the stack: {row['bias']} biased; "
           + (f"{1000 * drop:.2f} mV at the MPP" if np.isfinite(drop) else
