@@ -204,8 +204,11 @@ def test_large_alpha_reproduces_schottky_law():
 # the materials form: no switch, continuous in doping and temperature
 
 def interface(lower_doping_cm3, temperature_K=T):
+    # thermionic transport: the exact depletion side is its law (the thermionic-field law, the
+    # materials form's default, still takes the tail or plain closed form; see circuit/isotype.py)
     values = {"upper_material": "GaP", "lower_material": "Si", "upper_doping_cm3": 1e16,
-              "lower_doping_cm3": lower_doping_cm3, "carrier": "electron", "carriers_flow": "up"}
+              "lower_doping_cm3": lower_doping_cm3, "carrier": "electron", "carriers_flow": "up",
+              "transport": "thermionic"}
     return isotype_from_materials(ElementSpec(1, "isotype", "i", 1, values), temperature_K, None)
 
 

@@ -88,12 +88,20 @@ def test_reverse_biased_large_offset_blocks_without_nan(tmp_path):
     text = text.replace('carrier = "electron"\ncarriers_flow = "up"',
                         'carrier = "electron"\ncarriers_flow = "down"')
     assert text.count('carriers_flow = "up"') == 1 and text.count('carriers_flow = "down"') == 1
-    (tmp_path / "s.toml").write_text(text)
+    (tmp_path / "s.toml").write_text(text.replace('carriers_flow = "up"',
+                                                  'carriers_flow = "up"\ntransport = "thermionic"'))
     result = run_stack(load_stack(tmp_path / "s.toml"), curve_points=50)
     s = result.summary
     assert s["efficiency_pct"] < 0.01
     assert math.isfinite(s["efficiency_pct"]) and math.isfinite(s["voc_V"])
     assert json.loads(result.to_json())   # no NaN reaches the JSON
+    # with tunnelling (the default) the reverse-biased spike leaks by field emission through the
+    # widened depletion side (Padovani-Stratton reverse TFE), but still blocks
+    (tmp_path / "s.toml").write_text(text)
+    result = run_stack(load_stack(tmp_path / "s.toml"), curve_points=50)
+    row = {r["name"]: r for r in result.summary["interfaces"]}["hole interface"]
+    assert row["transport"] == "thermionic-field" and row["blocking"] and row["drop_at_mpp_V"] > 1.0
+    assert math.isfinite(result.summary["efficiency_pct"]) and json.loads(result.to_json())
 
 
 @pytest.mark.parametrize("text, message", [

@@ -23,6 +23,7 @@ import numpy as np
 from siltandem.laws import diode
 from siltandem.laws import esaki
 from siltandem.laws import silicon
+from siltandem.laws import field_emission
 from siltandem.laws import thermionic
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.constants import thermal_voltage_V
@@ -636,26 +637,45 @@ class IsotypeInterface:
     #: materials/valence_band.csv), "electron-affinity rule", or "" (the numbers form); for
     #: reports only (compare=False: interfaces that differ only in it share a penalty batch)
     offset_source: str = field(default="", compare=False)
+    #: "thermionic" (emission over the spike only) or "thermionic-field" (also tunnelling
+    #: through the depletion side below its top, laws/field_emission.py)
+    transport: str = "thermionic"
+    #: E00 of the depletion side [eV] (needed by "thermionic-field"); NaN unknown
+    field_energy_eV: np.ndarray = field(default_factory=lambda: batch(np.nan))
+    #: the depletion-side form of the thermionic-field law, which has no exact form yet: the kT/q
+    #: tail (True) or the plain form (False); the compiler takes the tail above Vbi = 3 kT/q
+    include_tail: bool = True
 
     def _law(self, temperature_K):
-        return dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
-                    richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K,
-                    depletion=self.depletion)
+        law = dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
+                   richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K)
+        if self.transport == "thermionic-field":
+            law.update(include_tail=self.include_tail, field_energy_eV=self.field_energy_eV,
+                       spike_eV=self.offset_eV)
+        else:
+            law.update(depletion=self.depletion)
+        return law
+
+    def _functions(self):
+        """(current, inverse, slope range) of this interface's transport law."""
+        if self.transport == "thermionic-field":
+            return (field_emission.field_emission_current_density,
+                    field_emission.field_emission_voltage, field_emission.field_emission_slope_range)
+        return (thermionic.isotype_current_density, thermionic.isotype_voltage,
+                thermionic.current_slope_range)
 
     def law_current(self, voltage_V, temperature_K):
         """J_law [A/m^2] and dJ/dV at the interface voltage V (V > 0 lowers the barrier)."""
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            return thermionic.isotype_current_density(voltage_V, with_derivative=True,
-                                                      **self._law(temperature_K))
+            return self._functions()[0](voltage_V, with_derivative=True, **self._law(temperature_K))
 
     def voltage(self, current_A_m2, temperature_K):
         s = self.direction
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            v_law, slope = thermionic.isotype_voltage(s * np.asarray(current_A_m2, dtype=float),
-                                                      with_derivative=True,
-                                                      **self._law(temperature_K))
+            v_law, slope = self._functions()[1](s * np.asarray(current_A_m2, dtype=float),
+                                                with_derivative=True, **self._law(temperature_K))
         return -s * v_law, -slope
 
     def current(self, voltage_V, temperature_K):
@@ -668,8 +688,9 @@ class IsotypeInterface:
         forward (just inside the law's domain), unbounded when driven in reverse."""
         from siltandem.constants import thermal_voltage_V
 
-        edge = self.built_in_V - (1.0 + 1e-6 if self.depletion == "tail" else 1e-6) * \
-            thermal_voltage_V(temperature_K)
+        tail = (self.include_tail if self.transport == "thermionic-field"
+                else self.depletion == "tail")
+        edge = self.built_in_V - (1.0 + 1e-6 if tail else 1e-6) * thermal_voltage_V(temperature_K)
         j, _ = self.law_current(edge, temperature_K)
         return np.where(self.direction > 0, j, np.inf)
 
@@ -681,9 +702,8 @@ class IsotypeInterface:
         x_a, x_b = -s * np.asarray(v_a, dtype=float), -s * np.asarray(v_b, dtype=float)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            low, high = thermionic.current_slope_range(np.minimum(x_a, x_b),
-                                                       np.maximum(x_a, x_b),
-                                                       **self._law(temperature_K))
+            low, high = self._functions()[2](np.minimum(x_a, x_b), np.maximum(x_a, x_b),
+                                             **self._law(temperature_K))
         lo, hi = _reciprocal_range(low, high, 0.0)
         return -hi, -lo
 

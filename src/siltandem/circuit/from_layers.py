@@ -296,6 +296,8 @@ def _isotype(index, layers, materials, polarity, temperature_K, file):
         values["lower_composition"] = lower.composition
     if upper.offset_eV is not None:
         values["offset_eV"] = upper.offset_eV
+    if upper.transport is not None:
+        values["transport"] = upper.transport
     spec = ElementSpec(upper.index, "isotype", f"interface {upper.name} / {lower.name}", 1, values)
     return isotype_from_materials(spec, temperature_K, file)
 

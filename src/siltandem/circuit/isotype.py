@@ -3,7 +3,7 @@ library materials aligned by the electron-affinity rule (element stacks and laye
 each layer's Fermi level from Fermi-Dirac statistics (degenerate layers included)."""
 
 from siltandem import units
-from siltandem.constants import RICHARDSON_FREE_A_M2_K2
+from siltandem.constants import BOLTZMANN_EV_K, RICHARDSON_FREE_A_M2_K2
 from siltandem.circuit.elements import IsotypeInterface, batch
 from siltandem.errors import StackError
 
@@ -18,8 +18,16 @@ def isotype_element(spec, temperature_K, file=None):
         alpha = (v["accumulation_permittivity"] * v["accumulation_doping_cm3"]
                  / (v["depletion_permittivity"] * v["depletion_doping_cm3"]))
     richardson = v.get("richardson_A_cm2_K2", RICHARDSON_FREE_A_M2_K2 * 1e-4) * 1e4
+    transport, field_energy = v.get("transport", "thermionic"), float("nan")
+    if transport == "thermionic-field":
+        from siltandem.laws.field_emission import field_energy_eV
+
+        field_energy = float(field_energy_eV(
+            doping_m3=v["depletion_doping_cm3"] * units.PER_CM3_TO_PER_M3,
+            relative_permittivity=v["depletion_permittivity"], mass_ratio=v["tunnelling_mass"]))
     return IsotypeInterface(
         spec.name, barrier_eV=batch(v["barrier_eV"]), built_in_V=batch(v["built_in_V"]),
+        transport=transport, field_energy_eV=batch(field_energy),
         alpha=batch(alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if v["orientation"] == "forward" else -1.0), carrier=v["carrier"],
         string=spec.string)
@@ -77,13 +85,18 @@ def isotype_from_materials(spec, temperature_K, file):
     else:
         attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
         richardson = min(getattr(m, attribute) for m in layers)
-    # the depletion side is the element's default, the exact Boltzmann form (no tail/plain switch)
+    # the exact Boltzmann depletion side serves thermionic emission; the thermionic-field law has
+    # no exact form yet: the kT/q tail form, or the plain form for a nearly flat interface (built-in
+    # below 3 kT/q)
+    tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
+    transport, field_energy = _transport(v, layers, upper_accumulates, temperature_K)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides,
-        offset_source=offset_source)
+        offset_source=offset_source, include_tail=tail, transport=transport,
+        field_energy_eV=batch(field_energy))
 
 
 def band_offset(upper, lower, carrier, temperature_K, given=None):
@@ -111,3 +124,18 @@ def band_offset(upper, lower, carrier, temperature_K, given=None):
     return step, (f"measured valence-band offset: {upper.name} {ev_upper:+.3f} eV, {lower.name} "
                   f"{ev_lower:+.3f} eV on the scale of I. Vurgaftman, J. R. Meyer, L. R. Ram-Mohan, "
                   f"J. Appl. Phys. 89 (2001) 5815{memory}")
+
+
+def _transport(v, layers, upper_accumulates, temperature_K):
+    """The transport key (default "thermionic-field": the dopings are known) and E00 of the
+    depletion side from its doping, permittivity and tunnelling mass (laws/field_emission.py)."""
+    from siltandem.laws.field_emission import field_energy_eV
+    from siltandem.materials.tunnelling import tunnelling_mass_ratio
+
+    transport = v.get("transport", "thermionic-field")
+    depletion = 1 if upper_accumulates else 0
+    energy = field_energy_eV(
+        doping_m3=v[("upper_doping_cm3", "lower_doping_cm3")[depletion]] * units.PER_CM3_TO_PER_M3,
+        relative_permittivity=layers[depletion].relative_permittivity,
+        mass_ratio=v.get("tunnelling_mass", tunnelling_mass_ratio(layers[depletion], v["carrier"])))
+    return transport, float(energy)

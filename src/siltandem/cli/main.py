@@ -160,6 +160,9 @@ def _interface(args):
           f"alpha {number(row['alpha'], '.4g')}")
     if np.isfinite(row["offset_eV"]):
         print(f"  band offset seen from the accumulation side {row['offset_eV']:+.4f} eV")
+    print(f"  transport {row['transport']}"
+          + (f" (E00 of the depletion side {1e3 * float(element.field_energy_eV[0, 0]):.2f} meV)"
+             if row["transport"] == "thermionic-field" else ""))
     if row.get("offset_source"):
         print(f"  band offset from: {row['offset_source']}")
     drop = row["drop_at_mpp_V"]

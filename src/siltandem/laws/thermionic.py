@@ -716,3 +716,12 @@ def isotype_band_alignment(*, carrier, affinity_a_eV, gap_a_eV, band_dos_a_m3, d
     eps_n_b = _check_positive("relative_permittivity_b", relative_permittivity_b) * doping_b
     alpha = np.where(a_acc, eps_n_a / eps_n_b, eps_n_b / eps_n_a)
     return IsotypeAlignment(built_in, np.maximum(offset, 0.0) + delta_1, offset, alpha, a_acc)
+
+
+# ---------------------------------------------------------------------------------------------
+# public names of the helpers the thermionic-field law (laws/field_emission.py) builds on
+
+alpha_terms = _alpha_terms
+accumulation_bending = _accumulation_bending
+prepare_law_arguments = _prepare
+current_from_split = _current_from_split

@@ -157,7 +157,10 @@ def _interface_table(s):
     """The isotype interfaces (if any); ! marks one that blocks."""
     if not s.get("interfaces"):
         return []
-    lines = ["", "  isotype interfaces (thermionic emission; ! blocks: drop above 100 mV or "
+    field = [r["name"] for r in s["interfaces"] if r.get("transport") == "thermionic-field"]
+    law = ("thermionic emission" if not field else "thermionic-field emission" if len(field) == len(
+        s["interfaces"]) else "thermionic emission, with tunnelling at " + ", ".join(field))
+    lines = ["", f"  isotype interfaces ({law}; ! blocks: drop above 100 mV or "
                  "penalty above 1 %)"]
     rows = [[("! " if r["blocking"] else "  ") + r["name"], r["carrier"],
              _fmt(r['barrier_eV'], ".3f"), _fmt(r['offset_eV'], ".3f", "-"),

@@ -239,7 +239,8 @@ def _interface_row(element, number, v, loss, penalty):
         "drop_at_mpp_V": -v, "loss_W_m2": loss,
         "efficiency_penalty_pct_abs": penalty,
         "blocking": bool(_blocks(v, penalty)),
-        "offset_source": getattr(element, "offset_source", "")}
+        "offset_source": getattr(element, "offset_source", ""),
+        "transport": element.transport}
 
 
 def _interface_warnings(name, v, penalty):
@@ -347,7 +348,8 @@ def _model_text(circuit):
                "depletion recombination (J02), Beer-Lambert optics" if layer_level
                else "detailed-balance subcells (generalized Planck law), lumped resistors")
             + ", Esaki tunnel junctions (three-term law), isotype interfaces (thermionic "
-              "emission, any alpha)")
+              "emission, any alpha, with tunnelling through the spike where their transport is "
+              "thermionic-field)")
 
 
 def _certificate(solution):

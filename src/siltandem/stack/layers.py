@@ -29,7 +29,8 @@ from siltandem.text import excerpt
 
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
-              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2"}
+              "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
+              "transport"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -113,6 +114,8 @@ class Layer:
     #: measured saturation current density of this region (emitter, or a base's passivated
     #: rear) [fA/cm^2], replacing the diffusion model's J01 part of it (None: the model)
     j0_fA_cm2: float | None = None
+    #: transport over an isotype interface with the layer below (None: "thermionic-field")
+    transport: str | None = None
 
     @property
     def label(self):
@@ -346,9 +349,15 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                                   low=-3.0, high=3.0, low_open=False)
     j0 = _positive_number(table, "j0_fA_cm2", file=file, where=where, required=False,
                           **LAYER_NUMBERS["j0_fA_cm2"])
+    transport = table.get("transport")
+    if transport is not None and transport not in ("thermionic", "thermionic-field"):
+        raise StackError(f"transport = {transport!r} is not allowed", file=file,
+                         where=f"{where}, key transport",
+                         fix='transport is "thermionic-field" (the default: emission over the '
+                             'spike and tunnelling through it) or "thermionic" (over it only)')
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0)
+                 gap, j0, transport)
 
 
 def parse_layers(tables, *, file, folder_materials=None):

@@ -222,6 +222,10 @@ def _parse_isotype(table, *, file, where):
                                  "or the two materials and their dopings")
         values.setdefault("carrier", "electron")
         values.setdefault("carriers_flow", "down")
+        if values.get("transport") == "thermionic" and "tunnelling_mass" in values:
+            raise StackError("tunnelling_mass goes with transport = \"thermionic-field\"",
+                             file=file, where=f"{where}, key tunnelling_mass",
+                             fix='remove tunnelling_mass, or transport = "thermionic"')
     else:
         needed = ["barrier_eV", "built_in_V"]
         sides = ["accumulation_doping_cm3", "depletion_doping_cm3",
@@ -238,6 +242,7 @@ def _parse_isotype(table, *, file, where):
                              file=file, where=where, fix="remove one of the two")
         values.setdefault("carrier", "electron")
         values.setdefault("orientation", "forward")
+        _check_numbers_transport(values, file=file, where=where)
         for key in ("carriers_flow", "offset_eV", "upper_composition", "lower_composition"):
             if key in values:
                 raise StackError(f"{key} goes with upper_material/lower_material", file=file,
@@ -249,6 +254,25 @@ def _parse_isotype(table, *, file, where):
                          + ", ".join(repr(k) for k in missing), file=file, where=where,
                          fix="an isotype interface needs " + ", ".join(needed))
     return values
+
+
+def _check_numbers_transport(values, *, file, where):
+    """The numbers form keeps "thermionic" unless asked; "thermionic-field" needs the depletion
+    side's doping, permittivity and tunnelling mass (for E00); tunnelling_mass only goes with it."""
+    if values.get("transport", "thermionic") == "thermionic":
+        if "tunnelling_mass" in values:
+            raise StackError("tunnelling_mass goes with transport = \"thermionic-field\"",
+                             file=file, where=f"{where}, key tunnelling_mass",
+                             fix='remove tunnelling_mass, or add transport = "thermionic-field"')
+        return
+    missing = [k for k in ("depletion_doping_cm3", "depletion_permittivity", "tunnelling_mass")
+               if k not in values]
+    if missing:
+        raise StackError('transport = "thermionic-field" needs the depletion side: no '
+                         + ", ".join(missing), file=file, where=f"{where}, key transport",
+                         fix="give the two sides' dopings and permittivities (instead of alpha) "
+                             "and tunnelling_mass = m*/m0 of the depletion side, or describe the "
+                             "interface by its two materials")
 
 
 def _parse_conditions(table, *, file):

@@ -113,11 +113,15 @@ ISOTYPE_NUMBERS = {
     "offset_eV": Parameter("offset_eV", "eV", -3.0, 3.0,
                            help="band offset override (step of the carrier's band edge from "
                                 "the upper to the lower layer)"),
+    "tunnelling_mass": Parameter("tunnelling_mass", "m0", 0.01, 10.0,
+                                 help="tunnelling effective mass of the depletion side (numbers "
+                                      "form with transport = \"thermionic-field\")"),
 }
 #: text keys of an isotype interface and their allowed values (None: any text)
 ISOTYPE_TEXTS = {"carrier": ("electron", "hole"), "orientation": ("forward", "reverse"),
                  "carriers_flow": ("down", "up"), "upper_material": None,
-                 "lower_material": None}
+                 "lower_material": None,
+                 "transport": ("thermionic", "thermionic-field")}
 COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,

@@ -163,7 +163,7 @@ def plot_interface(element, temperature_K, mpp_bias_V, axes=None):
         ax_iv.legend(fontsize=8)
     ax_iv.set_xlabel("interface voltage (V), > 0 lowers the barrier")
     ax_iv.set_ylabel("current density (mA/cm²)")
-    ax_iv.set_title(f"(a) {element.name}: thermionic emission, alpha = "
+    ax_iv.set_title(f"(a) {element.name}: {element.transport} emission, alpha = "
                     f"{float(element.alpha[0, 0]):.3g}", fontsize=10)
     ax_iv.grid(alpha=0.3)
     for bias, style, label in ((0.0, "-", "equilibrium"), (mpp_bias_V, "--", "at the MPP")):

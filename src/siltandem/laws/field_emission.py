@@ -1,0 +1,457 @@
+"""Isotype heterointerface (n-N or p-P): thermionic-field emission, i.e. thermionic emission over
+the spike plus tunnelling through the depletion side's barrier below its top.
+
+The band profile is the one of the thermionic law (laws/thermionic.py): the barrier voltage splits
+between the accumulation side (side 1, full Boltzmann solution, Lambert W) and the depletion
+side (side 2), and continuity of the displacement field at the interface fixes the field there,
+
+    (eps2 F0^2) / (2 q N2) = (kT/q) w,   w = alpha (exp(v1) - 1 - v1)      (reduced: units of kT),
+
+for both forms of the depletion side (with and without its kT/q tail). Inside the depletion side
+the band edge is the parabola with that field at the interface and the curvature q N2 / eps2 of
+its fixed charge; it falls by w kT from the spike top to its vertex. A carrier a depth ``e`` below
+the top (reduced) tunnels through it with the WKB transmission exp(-theta(e)),
+
+    theta(e) = (w / e00) [s - (1 - s^2) atanh(s)],   s = sqrt(e / w),
+    e00 = E00 / kT,   E00 = (q hbar / 2) sqrt(N2 / (m_t eps2))                (Padovani-Stratton),
+
+the exact integral of sqrt(2 m_t (E_c(x) - E)) over the parabola (no triangular approximation).
+With Boltzmann supply functions on both sides and transverse momentum conserved, the net current
+is the thermionic one times the gain
+
+    G = 1 + int_0^{e_max} exp(e - theta(e)) de,   e_max = min(w, spike depth / kT),
+
+(above the top T = 1 gives exactly the thermionic law; below it only energies that have states on
+both sides count: above the depletion side's parabola vertex and above the accumulation side's
+band edge at the interface, a spike depth below the top). So
+
+    J = P exp(v1) (exp(v) - 1) G(w(v1)),
+
+the thermionic law of laws/thermionic.py with the same P, v1 and v; with ``G = 1`` it is that law
+to rounding. The exponent e - theta(e) is concave in e with its maximum at
+``e* = w tanh^2(e00)`` (d theta/de = atanh(s)/e00): E00 << kT puts it at the top (thermionic
+emission), E00 ~ kT inside (thermionic-field), E00 >> kT at the vertex (field emission,
+G ~ exp(w (1 - kT/E00)) as in Padovani-Stratton).
+
+The integral is a fixed Gauss-Legendre rule on six panels between the points where the exponent
+has fallen 2, 12 and 45 below its maximum on either side (found by Newton steps, which converge
+monotonically from outside on a concave function): vectorized, no adaptive loop.
+
+References
+----------
+.. [1] F. A. Padovani, R. Stratton, Solid-State Electron. 9 (1966) 695 (E00; thermionic-field and
+   field emission through a Schottky barrier).
+.. [2] C. R. Crowell, V. L. Rideout, Solid-State Electron. 12 (1969) 89 (the WKB exponent through
+   the parabolic depletion barrier; the TFE regimes by E00/kT).
+.. [3] K. Yang, J. R. East, G. I. Haddad, Solid-State Electron. 36 (1993) 321 (thermionic-field
+   emission across an abrupt heterointerface: the current as the thermionic one plus tunnelling
+   through the depletion-side spike, one Richardson constant and detailed balance).
+.. [4] E. H. Rhoderick, R. H. Williams, Metal-Semiconductor Contacts, 2nd ed., Oxford (1988),
+   ch. 3 (the same in textbook form).
+"""
+from __future__ import annotations
+
+import math
+import warnings
+
+import numba
+import numpy as np
+
+from siltandem.constants import ELECTRON_MASS_KG, PLANCK_J_S, VACUUM_PERMITTIVITY_F_M
+from siltandem.laws import thermionic as te
+
+__all__ = [
+    "TRANSPORTS",
+    "field_energy_eV",
+    "tunnelling_gain",
+    "field_emission_current_density",
+    "field_emission_voltage",
+    "field_emission_slope_range",
+]
+
+#: the transport models of an isotype interface: thermionic emission only, or with tunnelling
+TRANSPORTS = ("thermionic", "thermionic-field")
+
+_HBAR_J_S = PLANCK_J_S / (2.0 * np.pi)
+_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(16)
+_LEVELS = np.array([45.0, 12.0, 2.0])         # drops below the exponent's maximum that bound the panels
+_NEWTON_STEPS = 10
+_S_MAX = 1.0 - 1e-15                 # keeps atanh(s) finite at the parabola's vertex
+
+
+def field_energy_eV(*, doping_m3, relative_permittivity, mass_ratio):
+    """Padovani-Stratton characteristic energy E00 = (q hbar / 2) sqrt(N / (m* eps)) [eV].
+
+    Parameters
+    ----------
+    doping_m3 : array_like
+        Net doping of the depletion side [m^-3].
+    relative_permittivity : array_like
+        Its static relative permittivity [-].
+    mass_ratio : array_like
+        Its tunnelling effective mass m*/m0 [-].
+
+    References
+    ----------
+    .. [1] F. A. Padovani, R. Stratton, Solid-State Electron. 9 (1966) 695.
+    """
+    n = _positive("doping_m3", doping_m3)
+    eps = _positive("relative_permittivity", relative_permittivity) * VACUUM_PERMITTIVITY_F_M
+    mass = _positive("mass_ratio", mass_ratio) * ELECTRON_MASS_KG
+    return 0.5 * _HBAR_J_S * np.sqrt(n / (mass * eps))
+
+
+def _positive(name, value):
+    value = np.asarray(value, dtype=float)
+    bad = ~(np.isfinite(value) & (value > 0))
+    if np.any(bad):
+        raise te.IsotypeParameterError(
+            f"isotype interface: '{name}' must be finite and > 0, got {value[bad].ravel()[0]!r}; "
+            "give a positive value in the unit its name states (SI, eV for energies)")
+    return value
+
+
+# ---------------------------------------------------------------------------------------------
+# the tunnelling gain (reduced units: energies in kT)
+
+def tunnelling_gain(field_bending, *, field_energy, spike_depth=np.inf, with_derivative=False):
+    """G = 1 + int_0^{e_max} exp(e - theta(e)) de: thermionic-field over thermionic current.
+
+    Parameters
+    ----------
+    field_bending : array_like
+        w = eps2 F0^2 / (2 q N2 kT) [-] (the depletion-side parabola's depth in kT), >= 0.
+    field_energy : array_like
+        e00 = E00 / kT [-], > 0.
+    spike_depth : array_like, default inf
+        Spike height above the accumulation side's band edge at the interface, over kT [-]; no
+        states below it on that side (e_max = min(w, spike_depth); <= 0 gives G = 1).
+    with_derivative : bool
+        Also return dG/dw.
+
+    Returns
+    -------
+    log G (and dG/dw / G), flat arrays in the broadcast shape (log form: G overflows in the
+    field-emission regime).
+    """
+    w, e00, spike = (np.ascontiguousarray(a, dtype=float).ravel() for a in np.broadcast_arrays(
+        np.asarray(field_bending, float), np.asarray(field_energy, float),
+        np.asarray(spike_depth, float)))
+    log_gain, dlog = np.empty_like(w), np.empty_like(w)
+    _gain_kernel(w.copy(), e00.copy(), spike.copy(), _NODES, _WEIGHTS, log_gain, dlog)
+    return (log_gain, dlog) if with_derivative else log_gain
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _exponent_point(e, w, e00):
+    """f(e) = e - theta(e) and its slope 1 - atanh(s)/e00 (reduced), with
+    theta = (w/e00) g(s), g(s) = s - (1 - s^2) atanh(s), s = sqrt(e/w) (s kept below 1 - 1e-15,
+    where (1 - s^2) atanh(s) < 4e-14: g(1) = 1 to that)."""
+    s = min(math.sqrt(max(e, 0.0) / w), _S_MAX)
+    t = math.atanh(s)
+    return e - (w / e00) * (s - (1.0 - s) * (1.0 + s) * t), 1.0 - t / e00
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _level_point(start, bound, w, e00, target):
+    """Newton steps on f(e) = target from ``start`` toward ``bound`` (f concave: the iterates
+    approach the root monotonically from outside and never pass it, so a point not fully
+    converged still lies outside the level and the panels still cover the integrand)."""
+    x, lo, hi = start, min(start, bound), max(start, bound)
+    for _ in range(_NEWTON_STEPS):
+        f, slope = _exponent_point(x, w, e00)
+        if f >= target or slope == 0.0:
+            break
+        x = min(max(x - (f - target) / slope, lo), hi)
+    return x
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _gain_point(w, e00, spike, nodes, weights):
+    """log G and dlogG/dw at one point: the panels and the Gauss-Legendre rule of the module
+    docstring."""
+    if not math.isfinite(w):
+        return math.nan, math.nan
+    if not (w > 0.0 and spike > 0.0 and e00 > 0.0):
+        return 0.0, 0.0
+    edges = np.empty(7)
+    top = min(w, spike)
+    peak = min(w * math.tanh(e00) ** 2, top)
+    f_peak = _exponent_point(peak, w, e00)[0]
+    start_hi = min(top, w * _S_MAX ** 2)
+    for k in range(3):
+        level = f_peak - _LEVELS[k]
+        edges[k] = _level_point(0.0, peak, w, e00, level)
+        edges[6 - k] = _level_point(start_hi, peak, w, e00, level)
+    edges[3] = peak
+    integral, d_integral = 0.0, 0.0
+    for k in range(6):
+        half = 0.5 * (edges[k + 1] - edges[k])
+        mid = 0.5 * (edges[k + 1] + edges[k])
+        if half <= 0.0:
+            continue
+        for j in range(nodes.size):
+            e = mid + half * nodes[j]
+            f = _exponent_point(e, w, e00)[0]
+            weight = half * weights[j] * math.exp(f - f_peak)
+            s = min(math.sqrt(e / w), _S_MAX)
+            integral += weight
+            d_integral += weight * (math.atanh(s) - s) / e00   # -d theta/dw at fixed e
+    if w < spike:                          # the range ends at the parabola's vertex
+        d_integral += math.exp(w - w / e00 - f_peak)
+    log_integral = f_peak + math.log(integral)
+    log_gain = max(log_integral, 0.0) + math.log1p(math.exp(-abs(log_integral)))
+    return log_gain, d_integral * math.exp(f_peak - log_gain)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _gain_kernel(w_all, e00_all, spike_all, nodes, weights, log_out, dlog_out):
+    """`_gain_point` over flat arrays, one compiled loop (the numpy form cost about 1 ms a call in
+    array overhead, and the inverse calls it many times per solve)."""
+    for i in range(w_all.size):
+        log_out[i], dlog_out[i] = _gain_point(w_all[i], e00_all[i], spike_all[i], nodes, weights)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_bending(alpha, x):
+    """alpha (e^x - 1 - x) without cancellation for small |x| (series below 0.5)."""
+    if abs(x) < 0.5:
+        term, total = x * x / 2.0, 0.0
+        for k in range(3, 20):
+            total += term
+            term *= x / k
+        return alpha * total
+    return alpha * (math.expm1(x) - x)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _inverse_kernel(log_target, sign, vbi, alpha, tail, e00, spike, x_lo, x_hi, nodes, weights, out):
+    """Root x = v1 of log|J(x)/P| = log_target on [x_lo, x_hi] per entry, J(x)/P = e^x expm1(v) G,
+    v = vbi - (alpha (e^x - 1 - x) + x + tail): Newton's method safeguarded by the bracket
+    (bisection when a step leaves it or shrinks it too slowly), in the log of |J| where J keeps
+    one sign on the bracket (sign +1: forward, log|J| falls with x; -1: reverse, rises). NaN where
+    the ends do not bracket the target."""
+    for i in range(log_target.size):
+        lo, hi, target = x_lo[i], x_hi[i], log_target[i]
+        direction = -sign[i]                    # d log|J| / dx has this sign
+
+        def g(x):
+            a_g = _field_bending(alpha[i], x)
+            v = vbi[i] - (a_g + x + tail)
+            log_g, dlog = _gain_point(a_g, e00[i], spike[i], nodes, weights)
+            em1 = math.expm1(v)
+            a_em1 = alpha[i] * math.expm1(x)
+            value = x + math.log(abs(em1)) + log_g - target
+            slope = 1.0 + dlog * a_em1 - (1.0 + a_em1) * math.exp(v) / em1
+            return value, slope
+
+        g_lo, g_hi = g(lo)[0], g(hi)[0]
+        if math.isnan(g_lo) or math.isnan(g_hi):
+            # an end at v = 0 gives log 0 = -inf (a valid sign); NaN only from bad inputs
+            out[i] = math.nan
+            continue
+        # the zero-bias end (lo in reverse, hi forward) has v = 0 only to rounding: a current
+        # below what that resolves has its root there (the caller takes v from J itself)
+        zero_end = lo if direction > 0.0 else hi
+        if (direction > 0.0 and g_lo > 0.0) or (direction < 0.0 and g_hi > 0.0):
+            out[i] = zero_end
+            continue
+        if direction * g_lo > 0.0 or direction * g_hi < 0.0:
+            out[i] = math.nan
+            continue
+        # rtsafe (Numerical Recipes 9.4): Newton, bisection where a step leaves the bracket or
+        # would not halve the last-but-one step
+        x = 0.5 * (lo + hi)
+        dx_old = dx = hi - lo
+        for _ in range(200):
+            value, slope = g(x)
+            if value == 0.0:
+                break
+            if direction * value < 0.0:
+                lo = x
+            else:
+                hi = x
+            newton = x - value / slope
+            if not (lo < newton < hi) or not math.isfinite(newton) or abs(2.0 * value) > abs(dx_old * slope):
+                dx_old, dx = dx, 0.5 * (hi - lo)
+                x = lo + dx
+            else:
+                dx_old, dx = dx, value / slope
+                x = newton
+            if abs(dx) <= 4.0 * 2.220446049250313e-16 * abs(x) + 1e-300:
+                break
+        out[i] = x
+
+
+# ---------------------------------------------------------------------------------------------
+# the current, its inverse and its slope range
+
+def _law_arrays(first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
+               field_energy_eV, spike_eV):
+    """Broadcast everything; flat arrays of the thermionic law's reduced quantities plus e00 and
+    the spike depth (in kT)."""
+    _positive("field_energy_eV", field_energy_eV)
+    first, e00_ev, spike_ev = np.broadcast_arrays(np.asarray(first, float), np.asarray(field_energy_eV, float),
+                                                  np.asarray(spike_eV, float))
+    shape, first, vbi, alpha, vt, log_p = te.prepare_law_arguments(
+        first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K)
+    e00 = np.broadcast_to(e00_ev, shape).ravel() / vt
+    spike = np.broadcast_to(spike_ev, shape).ravel() / vt
+    return shape, first, vbi, alpha, vt, log_p, e00, np.where(np.isnan(spike), np.inf, spike)
+
+
+def field_emission_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                                   temperature_K, field_energy_eV, spike_eV=np.inf,
+                                   include_tail=False, with_derivative=False):
+    """Thermionic-field emission current density across an isotype heterointerface.
+
+    Parameters are those of `siltandem.laws.thermionic.isotype_current_density`, and
+
+    field_energy_eV : array_like
+        E00 of the depletion side [eV] (`field_energy_eV`), > 0.
+    spike_eV : array_like, default inf
+        Spike height, the band step seen from the accumulation side [eV] (tunnelling only into
+        states of that side: energies down to the spike height below the top); NaN or inf: no
+        limit but the parabola's vertex; <= 0: no spike, the thermionic law.
+
+    Returns
+    -------
+    ndarray or (ndarray, ndarray)
+        J [A m^-2] (and dJ/dV), broadcast shape. J = J_thermionic * G (module docstring), so
+        the law's domain and its NaN points are the thermionic law's.
+    """
+    tail = 1.0 if include_tail else 0.0
+    shape, volt, vbi, alpha, vt, log_p, e00, spike = _law_arrays(
+        voltage_V, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
+        field_energy_eV, spike_eV)
+    v = volt / vt
+    v1, bad = te.accumulation_bending(vbi - v, alpha, tail)
+    if bad:
+        warnings.warn(f"isotype interface: {bad} point(s) beyond flat band (V > Vbi, or V > Vbi - "
+                      "kT/q with the tail); set to NaN", te.IsotypeDomainWarning, stacklevel=2)
+    j, djdv = _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative)
+    return (j.reshape(shape), djdv.reshape(shape)) if with_derivative else j.reshape(shape)
+
+
+def _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative):
+    """J = J_thermionic G and dJ/dV from the reduced voltage v and bending v1 (flat arrays)."""
+    _, a_em1, a_g = te.alpha_terms(alpha, v1)
+    log_g, dlog_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike, with_derivative=True)
+    j_te, dj_te = te.current_from_split(v, v1, a_em1, vt, log_p, True)
+    with np.errstate(over="ignore", invalid="ignore"):
+        gain = np.exp(log_g)
+        j = j_te * gain
+        if not with_derivative:
+            return j, None
+        # dG/dV = G (dlogG/dw)(dw/dv1)(dv1/dV), dw/dv1 = alpha (e^v1 - 1), dv1/dV = -1/(Vt (1 + that))
+        djdv = gain * dj_te - j * dlog_g * a_em1 / (vt * (1.0 + a_em1))
+    return j, djdv
+
+
+def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                           temperature_K, field_energy_eV, spike_eV=np.inf, include_tail=False,
+                           with_derivative=False):
+    """Voltage across an isotype interface that carries a given current density under
+    thermionic-field emission (the inverse of `field_emission_current_density`).
+
+    Solved, as the thermionic inverse is, for the accumulation-side bending x = v1, for which
+    everything is explicit: vb(x) = alpha (e^x - 1 - x) + x + t, w(x) = alpha (e^x - 1 - x) and
+    J(x) = P e^x expm1(vbi - vb(x)) G(w(x)). At flat band (x = 0) w = 0 and G = 1, so the
+    flat-band current and the bracket [0, max(ln(2|J|/P), vbi + ln 2)] are the thermionic
+    law's (G >= 1 only deepens the reverse end). The bending at zero bias splits it: a forward
+    current lies in [0, x(V=0)], a reverse one above, and on each part log|J(x)| is monotone and
+    smooth; `_inverse_kernel` solves log|J(x)/P| = log|J/P| there by Newton's method safeguarded
+    by the bracket (rtsafe, W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4),
+    compiled, each Newton step with the gain's analytic slope. J(V) is strictly increasing
+    (tests/test_field_emission.py checks it on a grid), so the root is unique.
+
+    Returns
+    -------
+    ndarray or (ndarray, ndarray)
+        V [V] (and dV/dJ [V m^2 A^-1]); NaN above the flat-band current (warned once).
+    """
+    tail = 1.0 if include_tail else 0.0
+    shape, jt, vbi, alpha, vt, log_p, e00, spike = _law_arrays(
+        current_A_m2, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
+        field_energy_eV, spike_eV)
+    with np.errstate(over="ignore", under="ignore", divide="ignore"):
+        ratio = jt * np.exp(-log_p)
+        j_max = np.expm1(vbi - tail)
+        log_target = np.log(np.abs(jt)) - log_p
+
+    finite = np.isfinite(jt)
+    flat = finite & (np.abs(ratio - j_max) <= 64 * np.finfo(float).eps * j_max)
+    solve = finite & ~flat & (ratio < j_max)
+    x_root = np.full_like(jt, np.nan)
+    x_root[flat] = 0.0
+    if np.any(solve):
+        # the bending at zero bias splits the bracket: forward currents below it, reverse above
+        x_zero, _ = te.accumulation_bending(vbi[solve], alpha[solve], tail)
+        with np.errstate(divide="ignore", over="ignore"):
+            x_hi = np.maximum(np.log(2.0 * np.abs(jt[solve])) - log_p[solve], vbi[solve] + np.log(2.0))
+        forward = jt[solve] > 0
+        sign = np.where(forward, 1.0, -1.0)
+        lower = np.where(forward, 0.0, x_zero)
+        upper = np.where(forward, x_zero, x_hi)
+        roots = np.empty(lower.size)
+        _inverse_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
+            log_target[solve], sign, vbi[solve], alpha[solve])), tail,
+            *(np.ascontiguousarray(a, dtype=float) for a in (e00[solve], spike[solve], lower, upper)),
+            _NODES, _WEIGHTS, roots)
+        zero = jt[solve] == 0                                  # no current: zero bias
+        roots[zero] = x_zero[zero]
+        x_root[solve] = roots
+    a_g = te.alpha_terms(alpha, x_root)[2]
+    log_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike)
+    with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
+        y = jt * np.exp(-log_p - x_root - log_g)               # = expm1(v) at the root
+        small = np.abs(y) < 0.5
+        v = np.where(small, np.log1p(np.where(small, y, 0.0)), vbi - (a_g + x_root + tail))
+    for count, what in ((int(np.count_nonzero(finite & ~flat & ~solve)), "above the flat-band current"),
+                        (int(np.count_nonzero(solve & np.isnan(v))), "did not converge")):
+        if count:
+            warnings.warn(f"isotype interface: {count} point(s) {what}; set to NaN",
+                          te.IsotypeDomainWarning, stacklevel=2)
+    volt = (v * vt).reshape(shape)
+    if not with_derivative:
+        return volt
+    _, djdv = _current_from_bending(v, x_root, alpha, vt, log_p, e00, spike, True)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return volt, (1.0 / djdv).reshape(shape)
+
+
+def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
+                               richardson_A_m2_K2, temperature_K, field_energy_eV, spike_eV=np.inf,
+                               include_tail=False):
+    """Smallest and largest dJ/dV [A m^-2 V^-1] of `field_emission_current_density` between two
+    voltages (arrays, v_low <= v_high, inside the domain), for the certificate (solve/certificate.py).
+
+    dJ/dV = (P/Vt) e^v1 G [1 + A (e^v (1 - L) + L)] / (1 + A), A = alpha (e^v1 - 1), L = dlnG/dw.
+    e^v1 G and A rise with v1, which falls as V rises, so they lie between their values at the
+    ends; e^v rises with V; the bracket is linear in L, and 0 <= L <= 1 (at the exponent's maximum
+    L = (atanh s* - s*)/e00 < 1 with s* = tanh e00, or 1 - 1/e00 where the vertex cuts it off;
+    tests/test_field_emission.py checks 0 <= L <= 1 on a grid of w and e00), so over the cell
+    the bracket lies between 1 + A_lo min(1, e^v_lo) and 1 + A_hi max(1, e^v_hi). An enclosure
+    on that condition, wider than the thermionic law's (it does not shrink to a point with the
+    cell: the certificate's corner bound and refinement close the gap).
+    """
+    tail = 1.0 if include_tail else 0.0
+    lows, highs = np.broadcast_arrays(np.asarray(v_low_V, float), np.asarray(v_high_V, float))
+    shape, both, vbi, alpha_f, vt, log_p, e00, spike = _law_arrays(
+        np.stack([lows, highs]), barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
+        field_energy_eV, spike_eV)
+    v = both / vt
+    v1, _ = te.accumulation_bending(vbi - v, alpha_f, tail)
+    _, a_em1, a_g = te.alpha_terms(alpha_f, v1)
+    log_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike)
+    half = both.size // 2
+    with np.errstate(over="ignore", invalid="ignore"):
+        scale = np.exp(log_p + v1 + log_g) / vt         # P e^v1 G / Vt: larger at the low end
+        e_v = np.exp(v)
+        a_low_v, a_high_v = a_em1[:half], a_em1[half:]   # A at the low end (larger), high end
+        bracket_min = 1.0 + a_high_v * np.minimum(1.0, e_v[:half])
+        bracket_max = 1.0 + a_low_v * np.maximum(1.0, e_v[half:])
+        smallest = scale[half:] * bracket_min / (1.0 + a_low_v)
+        largest = scale[:half] * bracket_max / (1.0 + a_high_v)
+    out = shape[1:]
+    return (smallest * (1.0 - 1e-12)).reshape(out), (largest * (1.0 + 1e-12)).reshape(out)
