@@ -95,9 +95,10 @@ def test_reverse_biased_large_offset_blocks_without_nan(tmp_path):
     assert s["efficiency_pct"] < 0.01
     assert math.isfinite(s["efficiency_pct"]) and math.isfinite(s["voc_V"])
     assert json.loads(result.to_json())   # no NaN reaches the JSON
-    # with tunnelling (the default) the reverse-biased spike leaks by field emission through the
-    # widened depletion side (Padovani-Stratton reverse TFE), but still blocks
-    (tmp_path / "s.toml").write_text(text)
+    # with tunnelling (transport = "thermionic-field") the reverse-biased spike leaks by field
+    # emission through the widened depletion side (Padovani-Stratton reverse TFE), but still blocks
+    (tmp_path / "s.toml").write_text(text.replace('carriers_flow = "up"',
+                                                  'carriers_flow = "up"\ntransport = "thermionic-field"'))
     result = run_stack(load_stack(tmp_path / "s.toml"), curve_points=50)
     row = {r["name"]: r for r in result.summary["interfaces"]}["hole interface"]
     assert row["transport"] == "thermionic-field" and row["blocking"] and row["drop_at_mpp_V"] > 1.0

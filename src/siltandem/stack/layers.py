@@ -114,7 +114,7 @@ class Layer:
     #: measured saturation current density of this region (emitter, or a base's passivated
     #: rear) [fA/cm^2], replacing the diffusion model's J01 part of it (None: the model)
     j0_fA_cm2: float | None = None
-    #: transport over an isotype interface with the layer below (None: "thermionic-field")
+    #: transport over an isotype interface with the layer below (None: "thermionic")
     transport: str | None = None
 
     @property
