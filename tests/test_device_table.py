@@ -144,8 +144,10 @@ def test_shunt_is_the_element_subcells_shunt(tmp_path):
     j1, _ = shunted.circuit.subcells[0].current(voltage, 300.0)
     assert np.allclose(np.ravel(j1), np.ravel(j0) - voltage / (rsh * 1e-4), rtol=1e-9, atol=1e-9)
     # at short circuit the junction sits at the window interface's small drop: the shunt takes
-    # that drop over R_sh, a few parts in 1e8 of Jsc here
-    assert shunted.summary["jsc_mA_cm2"] == pytest.approx(bare.summary["jsc_mA_cm2"], rel=1e-6)
+    # that drop over R_sh (1.3e-6 of Jsc with the measured band offsets; a few parts in 1e8 with
+    # the affinity rule), well inside 1e-5
+    assert shunted.summary["jsc_mA_cm2"] == pytest.approx(bare.summary["jsc_mA_cm2"], rel=1e-5)
+    assert shunted.summary["jsc_mA_cm2"] <= bare.summary["jsc_mA_cm2"]
 
 
 def test_losses_show_the_device_steps_as_real_removals(tmp_path):

@@ -269,10 +269,12 @@ def test_placements_read_a_folder_material(tmp_path):
     root = Path(__file__).resolve().parents[1]
     text = (root / "stacks" / "demo_placements.toml").read_text()
     (tmp_path / "lib").mkdir()
-    copy_to_csv("gap", tmp_path / "lib", new_name="MyGaP")
-    (tmp_path / "own.toml").write_text(text.replace('material = "GaP"', 'material = "MyGaP"')
-                                       .replace("[conditions]", '[materials]\nfolder = "lib"\n\n'
-                                                "[conditions]", 1))
+    # the copy keeps the name GaP (a folder's name comes before the library's): the measured
+    # band offsets (materials/valence_band.csv) are keyed by that name; a renamed copy takes the
+    # electron-affinity rule instead
+    copy_to_csv("gap", tmp_path / "lib", new_name="GaP")
+    (tmp_path / "own.toml").write_text(text.replace("[conditions]", '[materials]\nfolder = "lib"\n\n'
+                                                    "[conditions]", 1))
     (tmp_path / "ref.toml").write_text(text)
     own = rank_placements(load_stack(tmp_path / "own.toml"))
     ref = rank_placements(load_stack(tmp_path / "ref.toml"))

@@ -44,7 +44,10 @@ def valence_band_maximum_eV(material):
     I. Vurgaftman, J. R. Meyer, L. R. Ram-Mohan, J. Appl. Phys. 89 (2001) 5815 (the VBO scale).
     """
     table = _valence_band_table()
-    _, file_name, data = library_document(material.family)
+    document = library_document(material.family)
+    if document is None:             # a user's material file: not on the table's scale
+        return None, None
+    _, file_name, data = document
     if data["kind"] != "alloy":
         return table.get(material.family, (None, None))
     ends = [load_material(data[key]).family for key in ("end_at_x1", "end_at_x0")]
