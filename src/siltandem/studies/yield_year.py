@@ -388,12 +388,13 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
                  aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM, tracking="fixed",
                  max_rotation_deg=None, ground_coverage=None, angle_losses="none",
                  measured_spectra=None):
-    """Energy of an element stack over the weather file's year: one batched solve of all hours.
+    """Energy of a stack over the weather file's year: one batched solve of all hours.
 
     Parameters
     ----------
     stack : Stack
-        An element stack (``[[element]]``); layer stacks are not yet supported.
+        An element stack (``[[element]]``) or a layer stack (``[[layer]]``, whose layer optics
+        follow each hour's cell temperature in 1 K bins).
     weather : Weather or str or Path or pandas.DataFrame
         A :class:`Weather`, the path of a TMY3, TMY2 or EPW file (``"demo"``: the TMY3 file
         pvlib ships), or a DataFrame of hourly weather with columns ``ghi``, ``dni``, ``dhi``
