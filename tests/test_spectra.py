@@ -109,3 +109,23 @@ def test_unknown_spectrum_name_suggests():
 def test_missing_csv():
     with pytest.raises(StackError, match="spectrum file not found"):
         get_spectrum("nowhere/none.csv")
+
+
+def test_a_spectrum_per_micrometre_read_as_per_nm_is_refused(tmp_path):
+    """ASTM G173 global (pvlib's copy) written in W/m2/um on an nm grid totals about 1e6 W/m2,
+    a thousand times the standard's 1000 W/m2 (ASTM G173-03): refused with the unit named, as a
+    CSV and as a pandas Series; the same table in W/m2/nm is accepted."""
+    import pandas as pd
+    import pvlib
+
+    table = pvlib.spectrum.get_reference_spectra(standard="ASTM G173-03")["global"]
+    per_um = table * 1000.0
+    path = tmp_path / "per_um.csv"
+    pd.DataFrame({"wavelength_nm": per_um.index, "irradiance_W_m2_nm": per_um.to_numpy()}).to_csv(
+        path, index=False)
+    with pytest.raises(StackError, match="per micrometre") as raised:
+        get_spectrum(str(path))
+    assert "1e-3" in raised.value.fix
+    with pytest.raises(StackError, match="per micrometre"):
+        get_spectrum(per_um)
+    assert abs(get_spectrum(table).integral_W_m2 - 1000.4) < 1.0     # ASTM G173-03: 1000.4 W/m2

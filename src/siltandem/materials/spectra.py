@@ -189,8 +189,15 @@ def _check_wavelengths(wavelength, path):
                              "irradiance per micrometre by 1e-3 for W/m2/nm)")
 
 
+#: [W/m2] the most a one-sun spectrum may total: 20 times AM1.5G's 1000 W/m2 (the AM0 table
+#: totals 1348 W/m2); a spectrum in W/m2/um read as W/m2/nm totals about 1e6 (common practice,
+#: no source)
+ONE_SUN_LIMIT_W_M2 = 2.0e4
+
+
 def _check_irradiance(wavelength, irradiance, path):
-    """No negative value, and a total [W/m2] that is finite, positive and at most 1e8."""
+    """No negative value, and a total [W/m2] that is finite, positive and at most
+    :data:`ONE_SUN_LIMIT_W_M2` (a one-sun spectrum; concentration comes from ``suns``)."""
     if np.any(irradiance < 0):
         row = int(np.flatnonzero(irradiance < 0)[0])
         raise StackError(f"negative irradiance {irradiance[row]} W/m2/nm", file=path,
@@ -209,6 +216,12 @@ def _check_irradiance(wavelength, irradiance, path):
         raise StackError(f"the spectrum totals {total:g} W/m2, beyond any sun or lamp "
                          "(1e8 W/m2 is 100 000 suns)", file=path,
                          fix="give spectral irradiance in W/m2/nm (and concentration with suns)")
+    if total > ONE_SUN_LIMIT_W_M2:
+        raise StackError(f"the spectrum totals {total:.4g} W/m2 at one sun, {total / 1000:.3g} times "
+                         "the 1000 W/m2 of AM1.5G: it looks like W/m2 per micrometre (or a "
+                         "concentrated spectrum)", file=path,
+                         fix="give spectral irradiance in W/m2/nm (multiply W/m2/um by 1e-3) at one "
+                             "sun, and concentration with suns")
 
 
 def read_spectrum_csv(path, *, where=None):
