@@ -165,3 +165,25 @@ def test_a_lightly_doped_emitter_is_still_refused(tmp_path):
         compile_layer_stack(load_stack(path))
     assert caught.value.where == "layer 1 'wafer emitter'"
     assert "intrinsic carrier density" in caught.value.problem
+
+
+def test_undoped_wafer_voc_temperature_coefficient_follows_green_2003(tmp_path):
+    # M. A. Green, Prog. Photovolt. 11 (2003) 333 (from memory): dVoc/dT = -(Eg0/q - Voc +
+    # gamma kT/q) / T, Eg0 the gap extrapolated linearly to 0 K. A flooded base's recombination
+    # grows as n_i^m exp(m qV/2kT) (m about 2.9 for Auger at high injection, 2 for radiative),
+    # with n_i^2 ~ T^3 exp(-Eg/kT): gamma = 3 whatever m. Left out: the rise of Jsc with T
+    # ((2kT/mq) dlnJsc/dT, about 0.3 %) and B_rel's temperature law: 2 % tolerance.
+    from siltandem.constants import BOLTZMANN_EV_K
+    from siltandem.materials import load_material
+
+    vocs = []
+    for t in (293.15, 303.15):
+        path = tmp_path / f"wafer_{t:.0f}.toml"
+        path.write_text(UNDOPED_WAFER.replace("temperature_K = 298.15", f"temperature_K = {t}"))
+        vocs.append(run_stack(load_stack(path)).summary["voc_V"])
+    slope = (vocs[1] - vocs[0]) / 10.0
+    t, h = 298.15, 0.01
+    si = load_material("Si")
+    gap0 = float(si.gap_eV(t)) - t * (float(si.gap_eV(t + h)) - float(si.gap_eV(t - h))) / (2 * h)
+    green = -(gap0 - 0.5 * (vocs[0] + vocs[1]) + 3 * BOLTZMANN_EV_K * t) / t
+    assert slope == pytest.approx(green, rel=0.02)
