@@ -187,3 +187,24 @@ def test_undoped_wafer_voc_temperature_coefficient_follows_green_2003(tmp_path):
     gap0 = float(si.gap_eV(t)) - t * (float(si.gap_eV(t + h)) - float(si.gap_eV(t - h))) / (2 * h)
     green = -(gap0 - 0.5 * (vocs[0] + vocs[1]) + 3 * BOLTZMANN_EV_K * t) / t
     assert slope == pytest.approx(green, rel=0.02)
+
+
+def test_a_fully_depleted_si_base_is_a_flooded_base(tmp_path):
+    # a 50 um base doped 1e11 cm^-3 (above 10 ni at 25 degC) is depleted through at equilibrium
+    # (the abrupt junction's width, 84 um here, Sze & Ng ch. 2): before, an error; now a flooded
+    # base. At the operating point dn ~ 1e16 >> N, so by the base law's equations (n0 + p0 enters
+    # only beside 2 dn) its Voc is within 0.5 mV of the same wafer doped 1e10.
+    results = {}
+    for doping in ("n:1e11", "n:1e10"):
+        text = UNDOPED_WAFER.replace('doping = "n:1e10"', f'doping = "{doping}"').replace(
+            "thickness_nm = 109900", "thickness_nm = 49900")
+        assert f'doping = "{doping}"' in text and "thickness_nm = 49900" in text
+        path = tmp_path / f"thin_{doping[2:]}.toml"
+        path.write_text(text)
+        circuit = compile_layer_stack(load_stack(path))
+        (cell,) = circuit.optics["layer_details"]["subcells"].values()
+        assert cell["silicon_base_flooded"]
+        summary = run_stack(load_stack(path)).summary
+        assert summary["mpp_certificate"]["certified"]
+        results[doping] = summary["voc_V"]
+    assert results["n:1e11"] == pytest.approx(results["n:1e10"], abs=5e-4)

@@ -129,9 +129,10 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     donor = n_side.doping_cm3 * units.PER_CM3_TO_PER_M3
     acceptor = p_side.doping_cm3 * units.PER_CM3_TO_PER_M3
     silicon_cell = is_silicon(emitter) and is_silicon(base)
-    # a Si base doped below INTRINSIC_MARGIN n_i is no diode base: the base law (laws/silicon.py)
-    # takes its equilibrium densities from charge neutrality and its excess density in high
-    # injection; there is then no depletion region at the operating point (the base is flooded)
+    # a Si base doped below INTRINSIC_MARGIN n_i, or so lightly that the junction depletes all of
+    # it at equilibrium (a p-i-n), is no diode base: the base law (laws/silicon.py) takes its
+    # equilibrium densities from charge neutrality and its excess density in high injection;
+    # there is then no depletion region at the operating point (the base is flooded)
     light_base = silicon_cell and ni * INTRINSIC_MARGIN > base.doping_cm3 * units.PER_CM3_TO_PER_M3
     for layer in (emitter,) if light_base else (emitter, base):
         if ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
@@ -155,20 +156,18 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                                           where=name)
     x_emitter = float(junction.n_side_width_m if emitter.polarity == "n" else junction.p_side_width_m)
     x_base = float(junction.p_side_width_m if emitter.polarity == "n" else junction.n_side_width_m)
+    light_base = light_base or (silicon_cell and x_base >= base.thickness_nm * 1e-9)
     if light_base:
         x_emitter, x_base = 0.0, 0.0
     emitter_qn = emitter.thickness_nm * 1e-9 - x_emitter
     base_qn = base.thickness_nm * 1e-9 - x_base
-    flooded_below = INTRINSIC_MARGIN * ni / units.PER_CM3_TO_PER_M3
     for layer, left in ((emitter, emitter_qn), (base, base_qn)):
         if left <= 0:
             raise StackError(f"{layer.label} is thinner than its share of the junction's "
                              f"depletion region ({(layer.thickness_nm * 1e-9 - left) * 1e9:.0f} "
                              "nm)", file=file, where=layer.label,
                              fix="make the layer thicker or dope the other side of the junction "
-                                 "less" + (f" (or dope this Si base below {flooded_below:.2g} "
-                                           "cm^-3: it is then solved as a flooded, high-injection base)"
-                                           if silicon_cell and layer is base else ""))
+                                 "less")
     l_e, d_e = _minority(emitter, material, temperature_K, file=file, role="emitter")
     l_b, d_b = _minority(base, material, temperature_K, file=file, role="base")
     if silicon_cell and emitter.diffusion_length_um is None:
