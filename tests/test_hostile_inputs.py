@@ -102,13 +102,16 @@ def test_override_at_5000_K_of_a_layer_stack_exits_2(capsys):
 
 
 def test_a_layer_too_lightly_doped_for_its_temperature_is_named():
-    """At 800 K silicon's n_i is about 1e17 cm^-3 (library, Green 1990 / Sze), ten times the
-    demo's 1e16 cm^-3 base doping: the quasi-neutral layer physics no longer holds."""
+    """At 800 K silicon's n_i is about 1e17 cm^-3 (library, Green 1990 / Sze), more than a tenth
+    of an emitter doped 5e17 cm^-3: the quasi-neutral emitter physics no longer holds. (The
+    demo's 1e16 cm^-3 Si base is then a flooded, high-injection base and is no error.)"""
     text = LAYER_STACK.replace('spectrum = "am1.5g"', 'spectrum = "am1.5g"\ntemperature_K = 800')
+    text = text.replace('thickness_nm = 400\ndoping = "n:5e18"', 'thickness_nm = 400\ndoping = "n:5e17"')
+    assert 'doping = "n:5e17"' in text
     stack = parse_stack(__import__("tomllib").loads(text), file="hot.toml")
     with pytest.raises(StackError, match="intrinsic carrier density of Si") as info:
         run_stack(stack, curve_points=20)
-    assert info.value.where == "layer 8 'silicon base'"
+    assert info.value.where == "layer 7 'silicon emitter'"
     assert "dope the layer above" in info.value.fix
 
 

@@ -128,7 +128,13 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     n_side, p_side = (emitter, base) if emitter.polarity == "n" else (base, emitter)
     donor = n_side.doping_cm3 * units.PER_CM3_TO_PER_M3
     acceptor = p_side.doping_cm3 * units.PER_CM3_TO_PER_M3
-    for layer in (emitter, base):
+    silicon_cell = is_silicon(emitter) and is_silicon(base)
+    # a Si base doped below INTRINSIC_MARGIN n_i, or so lightly that the junction depletes all of
+    # it at equilibrium (a p-i-n), is no diode base: the base law (laws/silicon.py) takes its
+    # equilibrium densities from charge neutrality and its excess density in high injection;
+    # there is then no depletion region at the operating point (the base is flooded)
+    light_base = silicon_cell and ni * INTRINSIC_MARGIN > base.doping_cm3 * units.PER_CM3_TO_PER_M3
+    for layer in (emitter,) if light_base else (emitter, base):
         if ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
             raise StackError(
                 f"at {temperature_K:g} K the intrinsic carrier density of {material.name} "
@@ -138,6 +144,11 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                 where=layer.label,
                 fix=f"lower the temperature, or dope the layer above "
                     f"{INTRINSIC_MARGIN * ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
+    if light_base:
+        # the junction's widths and J02 are not used for a flooded base (set to zero below): the
+        # junction is evaluated at the margin's doping only to keep its law's inputs valid
+        floor_m3 = INTRINSIC_MARGIN * ni
+        donor, acceptor = (max(donor, floor_m3), acceptor) if base is n_side else (donor, max(acceptor, floor_m3))
     junction = junction_law.abrupt_junction(0.0, acceptor_density_m3=acceptor,
                                           donor_density_m3=donor,
                                           relative_permittivity=material.relative_permittivity,
@@ -145,6 +156,9 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                                           where=name)
     x_emitter = float(junction.n_side_width_m if emitter.polarity == "n" else junction.p_side_width_m)
     x_base = float(junction.p_side_width_m if emitter.polarity == "n" else junction.n_side_width_m)
+    light_base = light_base or (silicon_cell and x_base >= base.thickness_nm * 1e-9)
+    if light_base:
+        x_emitter, x_base = 0.0, 0.0
     emitter_qn = emitter.thickness_nm * 1e-9 - x_emitter
     base_qn = base.thickness_nm * 1e-9 - x_base
     for layer, left in ((emitter, emitter_qn), (base, base_qn)):
@@ -154,7 +168,6 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                              "nm)", file=file, where=layer.label,
                              fix="make the layer thicker or dope the other side of the junction "
                                  "less")
-    silicon_cell = is_silicon(emitter) and is_silicon(base)
     l_e, d_e = _minority(emitter, material, temperature_K, file=file, role="emitter")
     l_b, d_b = _minority(base, material, temperature_K, file=file, role="base")
     if silicon_cell and emitter.diffusion_length_um is None:
@@ -207,15 +220,17 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
         acceptor_density_m3=acceptor, donor_density_m3=donor,
         relative_permittivity=material.relative_permittivity, temperature_K=temperature_K,
         where=name)
-    element = Subcell(name, batch(gap), j02_A_m2=batch(float(recombination.j02_A_m2)),
-                      j01_fixed_A_m2=batch(j01), bulk=bulk)
+    # a flooded (lightly doped) base: its SRH recombination is the base law's, over its whole width
+    j02 = 0.0 if light_base else float(recombination.j02_A_m2)
+    element = Subcell(name, batch(gap), j02_A_m2=batch(j02), j01_fixed_A_m2=batch(j01), bulk=bulk)
     model = SubcellModel(name, cell.emitter, cell.base, emitter_qn, base_qn,
-                         float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b)
+                         0.0 if light_base else float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b)
     return element, model, {"j01_diffusion_A_m2": diffusion_total,
                             "j01_radiative_floor_A_m2": floor,
                             "floor_applied": bulk is None and j01 == floor,
                             "j0_emitter_A_m2": emitter_j0,
-                            "silicon_base_law": bulk is not None}
+                            "silicon_base_law": bulk is not None,
+                            "silicon_base_flooded": light_base}
 
 
 def _intrinsic_lifetime(layer, ni_m3):

@@ -158,8 +158,12 @@ def bulk_columns(base, *, ni_eff_cm3, temperature_K):
     (laws/compiled.py reads them in this order)."""
     factor, n0, p0, rate = base
     ni2 = np.asarray(ni_eff_cm3, dtype=float) ** 2
-    # keep n0 p0 = ni,eff^2: the minority density follows ni,eff
-    majority = np.maximum(n0, p0)
+    # equilibrium densities from charge neutrality with the net doping N = |n0 - p0| and
+    # n0 p0 = ni,eff^2: majority N/2 + sqrt(N^2/4 + ni^2) (S. M. Sze, K. K. Ng, Physics of
+    # Semiconductor Devices, 3rd ed. (2007), ch. 1), the doping itself when N >> ni and ni when
+    # undoped, so a lightly doped base follows ni,eff(T)
+    net = np.abs(n0 - p0)
+    majority = 0.5 * net + np.sqrt(0.25 * net * net + ni2)
     minority = ni2 / majority
     n0, p0 = np.where(n0 >= p0, majority, minority), np.where(n0 >= p0, minority, majority)
     bmin, b1, b3 = relative_radiative_parameters(temperature_K)

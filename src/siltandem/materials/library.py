@@ -119,6 +119,8 @@ class Material:
     light_hole_mass_ratio: float = field(default=math.nan, compare=False)
     #: free-carrier absorption coefficients ([free_carrier_absorption] of the data file) or None
     _free_carriers: Mapping | None = field(default=None, compare=False, repr=False)
+    #: ni / (sqrt(Nc Nv) exp(-Eg/2kT)): 1, or the data file's measured ni at 300 K over the formula's
+    _intrinsic_scale: float = field(default=1.0, compare=False, repr=False)
 
     # --- band edges -----------------------------------------------------------------------------------
     def valley_gaps_eV(self, temperature_K=REFERENCE_TEMPERATURE_K):
@@ -158,9 +160,9 @@ class Material:
         return effective_density_of_states_per_m3(temperature_K, mass_ratio=self._hole_dos_mass)
 
     def intrinsic_density_per_m3(self, temperature_K=REFERENCE_TEMPERATURE_K):
-        """Intrinsic carrier density ni = sqrt(Nc Nv) exp(-Eg / 2kT) [m^-3] (no bandgap narrowing)."""
+        """ni = s sqrt(Nc Nv) exp(-Eg / 2kT) [m^-3], no gap narrowing; s meets a file's measured 300 K ni."""
         t = np.asarray(temperature_K, dtype=float)
-        return np.sqrt(self.conduction_dos_per_m3(t) * self.valence_dos_per_m3(t)) * np.exp(
+        return self._intrinsic_scale * np.sqrt(self.conduction_dos_per_m3(t) * self.valence_dos_per_m3(t)) * np.exp(
             -self.gap_eV(t) / (2.0 * BOLTZMANN_EV_K * t))
 
     # --- optics ---------------------------------------------------------------------------------------
@@ -676,7 +678,7 @@ def _build_binary(family, file_name, data):
     if free is not None:
         keys = ("electron_coefficient_cm2", "electron_exponent", "hole_coefficient_cm2", "hole_exponent")
         free = MappingProxyType({k: float(_require(free, k, file_name, "free_carrier_absorption")) for k in keys})
-    return _replace(_finish(
+    material = _replace(_finish(
         name=family, family=family, composition=None, formula=data.get("formula", family), valleys=valleys,
         hole_masses=hole_masses,
         affinity=_require(_require(data, "electron_affinity", file_name), "value_eV", file_name, "electron_affinity"),
@@ -686,6 +688,11 @@ def _build_binary(family, file_name, data):
                   _require(mobility, "hole_cm2_V_s", file_name, "mobility")),
         optics=_optics_for(file_name, data), sources=_sources(data), note=data.get("note", ""),
         conduction_override=override, hole_dos_override=hole_dos), _free_carriers=free)
+    if (dos or {}).get("intrinsic_300K_per_cm3") is None:
+        return material
+    measured = float(dos["intrinsic_300K_per_cm3"]) * _PER_CM3_TO_PER_M3
+    return _replace(material, _intrinsic_scale=measured / material.intrinsic_density_300K_per_m3,
+                    intrinsic_density_300K_per_m3=measured)
 
 
 def _alloy_name(data, x):
