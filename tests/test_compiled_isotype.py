@@ -201,3 +201,19 @@ def test_layer_demo_equals_the_numpy_law_result():
     for key in ("efficiency_pct", "mpp_V", "voc_V", "jsc_mA_cm2", "fill_factor_pct"):
         assert compiled_path[key] == pytest.approx(numpy_path[key], rel=1e-9), key
     assert compiled_path["mpp_certificate"]["certified"]
+
+
+def test_an_interface_with_a_parameter_the_compiled_law_lacks_takes_the_numpy_law():
+    # a field added to IsotypeInterface later (here made up on a subclass) with a non-default
+    # value: the element must not be solved by the compiled law, which would ignore it
+    from dataclasses import dataclass
+
+    @dataclass(frozen=True)
+    class Extended(elements.IsotypeInterface):
+        extra_charge: float = 0.0
+
+    common = dict(barrier_eV=elements.batch(0.45), built_in_V=elements.batch(0.3),
+                  alpha=elements.batch(2.0), richardson_A_m2_K2=elements.batch(8e5))
+    assert Extended("a", **common).compiled_rows(300.0) is not None
+    assert Extended("b", extra_charge=1.0, **common).compiled_rows(300.0) is None
+    assert elements.IsotypeInterface("c", **common).compiled_rows(300.0) is not None
