@@ -217,3 +217,46 @@ def test_an_interface_with_a_parameter_the_compiled_law_lacks_takes_the_numpy_la
     assert Extended("a", **common).compiled_rows(300.0) is not None
     assert Extended("b", extra_charge=1.0, **common).compiled_rows(300.0) is None
     assert elements.IsotypeInterface("c", **common).compiled_rows(300.0) is not None
+
+
+def test_field_emission_on_the_exact_depletion_side_is_continuous():
+    # issue 18: the tail/plain switch at Vbi = 3 kT/q makes the thermionic-field current jump; the
+    # exact Boltzmann depletion side (Sze & Ng: the field integral e^-v2 - 1 + v2) has no switch.
+    # Invented law numbers (alpha 0.3, E00 20 meV, spike 0.2 eV), Vbi from 2 to 4 kT/q.
+    temperature = 300.0
+    vt = thermal_voltage_V(temperature)
+    vbi = np.linspace(2.0, 4.0, 2001)[:, None] * vt
+
+    def current(form, transport="thermionic-field", e00=0.02):
+        rows = isotype_rows(built_in_V=vbi, alpha=0.3, barrier_eV=vbi + 0.1, richardson_A_m2_K2=8e5,
+                            temperature_K=temperature, form=form, transport=transport,
+                            field_energy_eV=e00, spike_eV=0.2, direction=1.0)
+        return isotype_currents(rows, np.full((vbi.size, 1), -0.05))[0][:, 0]
+
+    exact = current("exact")
+    switched = np.where(vbi[:, 0] > 3 * vt, current("tail"), current("plain"))
+    assert np.max(np.abs(np.diff(np.log(-exact)))) < 1e-3          # steps of 1e-3 kT/q: smooth
+    assert np.max(np.abs(np.diff(np.log(-switched)))) > 0.3        # the switch's jump (measured 0.56)
+    # deep in the tail form's range the exact side is close to it (measured 1.6 % at 4 kT/q)
+    assert exact[-1] == pytest.approx(current("tail")[-1], rel=0.05)
+    # vanishing E00: the thermionic law on the exact side (the excess current of the triangular
+    # top, Gamma(5/3) (1.5 e00 sqrt(w))^(2/3), about 1e-5 here)
+    np.testing.assert_allclose(current("exact", e00=1e-9), current("exact", "thermionic"), rtol=1e-4)
+
+
+def test_field_emission_exact_side_slope_range_contains_the_slopes():
+    # a rigorous enclosure given 0 <= dlnG/dw <= 1 (tests/test_field_emission.py); like the
+    # closed forms' range it does not shrink to the point slope with the cell (L is not monotone
+    # in w: it falls in places and drops at w = spike depth), checked here at two cell widths
+    law, field, voltage, edge = _points("exact", n=600, seed=9)
+    rows = _rows("thermionic-field", "exact", law, field)
+    for width in (0.02, 1e-4):
+        low = np.minimum(voltage, edge - 1e-3)
+        high = np.minimum(low + width, edge)
+        lo_c, hi_c = (a[:, 0] for a in isotype_slope_ranges(rows, _column(low), _column(high)))
+        inside = np.linspace(0, 1, 17)[:, None] * (high - low) + low
+        _, slopes = isotype_currents(rows, np.ascontiguousarray(inside.T))
+        ok = np.isfinite(lo_c) & np.all(np.isfinite(slopes), axis=1)
+        assert ok.mean() > 0.9
+        assert np.all(slopes[ok] >= lo_c[ok, None] - 1e-9 * np.abs(lo_c[ok, None]))
+        assert np.all(slopes[ok] <= hi_c[ok, None] * (1 + 1e-9))

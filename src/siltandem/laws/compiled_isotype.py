@@ -416,6 +416,29 @@ def _end(voltage, p):
     return x, math.exp(v), a_em1, s, _gain(w, p)[0]
 
 
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale):
+    """The slope range of thermionic-field emission on the exact depletion side (ends a: low V,
+    b: high V). Vt dJ/dV = P e^x G [1 + (e^v - 1)(q - L h)], q = A/(A + s), h = A s/(A + s),
+    L = dlnG/dw in [0, 1] (laws/field_emission.py): e^x G, A, s and h fall as V rises, q lies
+    between A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - h_a, q_max], and the
+    bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
+    q_min = a_b / (a_b + s_a) if a_b + s_a > 0.0 else 0.0
+    q_max = a_a / (a_a + s_b) if a_a + s_b > 0.0 else 1.0
+    h_max = a_a * s_a / (a_a + s_a) if a_a + s_a > 0.0 else 0.0
+    m_lo, m_hi = q_min - h_max, q_max
+    bracket_min, bracket_max = math.inf, -math.inf
+    for u in (e_a - 1.0, e_b - 1.0):
+        for m in (m_lo, m_hi):
+            bracket_min = min(bracket_min, 1.0 + u * m)
+            bracket_max = max(bracket_max, 1.0 + u * m)
+    low_scale = scale * math.exp(x_b + g_b)      # e^x G at high V: the smaller
+    high_scale = scale * math.exp(x_a + g_a)
+    smallest = (low_scale if bracket_min >= 0.0 else high_scale) * bracket_min
+    largest = (high_scale if bracket_max >= 0.0 else low_scale) * bracket_max
+    return smallest - 1e-12 * abs(smallest), largest + 1e-12 * abs(largest)
+
+
 @numba.njit(cache=True, error_model="numpy")
 def isotype_slope_range(v_low, v_high, p):
     """Smallest and largest dJ/dV [A m^-2 V^-1] of the law with row p over [v_low, v_high] [V]:
@@ -427,6 +450,8 @@ def isotype_slope_range(v_low, v_high, p):
     x_a, e_a, a_a, s_a, g_a = _end(v_low, p)       # low V: the larger bending
     x_b, e_b, a_b, s_b, g_b = _end(v_high, p)
     scale = math.exp(p[2]) / p[3]
+    if p[5] != 0.0 and p[4] == 2.0:
+        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale)
     if p[5] != 0.0:
         low_scale = scale * math.exp(x_b + g_b)
         high_scale = scale * math.exp(x_a + g_a)
