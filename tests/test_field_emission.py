@@ -27,6 +27,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 
+from siltandem.circuit import elements
 from siltandem.circuit.elements import IsotypeInterface, batch
 from siltandem.constants import (BOLTZMANN_EV_K, ELECTRON_MASS_KG, ELEMENTARY_CHARGE_C, PLANCK_J_S,
                                  VACUUM_PERMITTIVITY_F_M)
@@ -194,17 +195,29 @@ def test_thermionic_transport_is_todays_law_exactly():
     common = dict(barrier_eV=batch(law["barrier_eV"]), built_in_V=batch(law["built_in_V"]),
                   alpha=batch(law["alpha"]), richardson_A_m2_K2=batch(law["richardson_A_m2_K2"]),
                   offset_eV=batch(sides["offset"]), field_energy_eV=batch(e00))
-    element = IsotypeInterface("x", transport="thermionic", **common)
     volts = np.linspace(-1.0, 0.9, 41)[None, :]
-    j, slope = element.law_current(volts, 300.0)
-    # the thermionic law as the element's default depletion side (the exact Boltzmann form) has it
+    currents = np.array([[-200.0, 1.0, 200.0]])
+    # the thermionic law as the element's default depletion side (the exact Boltzmann form) has it:
+    # exactly through the numpy law, to rounding through the compiled law (laws/compiled_isotype.py)
     exact = {k: v for k, v in law.items() if k != "include_tail"} | {"depletion": "exact"}
     j_ref, slope_ref = te.isotype_current_density(volts, with_derivative=True, **exact)
-    assert np.array_equal(j, j_ref) and np.array_equal(slope, slope_ref)
-    currents = np.array([[-200.0, 1.0, 200.0]])
-    v, dv = element.voltage(currents, 300.0)
     v_ref, dv_ref = te.isotype_voltage(currents, with_derivative=True, **exact)
-    assert np.array_equal(v, -v_ref) and np.array_equal(dv, -dv_ref)
+    for compiled in (False, True):
+        elements.COMPILED_ISOTYPE = compiled
+        try:
+            element = IsotypeInterface("x", transport="thermionic", **common)
+            j, slope = element.law_current(volts, 300.0)
+            v, dv = element.voltage(currents, 300.0)
+        finally:
+            elements.COMPILED_ISOTYPE = True
+        if compiled:
+            np.testing.assert_allclose(j, j_ref, rtol=1e-13)
+            np.testing.assert_allclose(slope, slope_ref, rtol=1e-12)
+            np.testing.assert_allclose(v, -v_ref, rtol=1e-12)
+            np.testing.assert_allclose(dv, -dv_ref, rtol=1e-11)
+        else:
+            assert np.array_equal(j, j_ref) and np.array_equal(slope, slope_ref)
+            assert np.array_equal(v, -v_ref) and np.array_equal(dv, -dv_ref)
     # and the tunnelling law with a vanishing E00 tends to it
     # (on the depletion-side form the tunnelling law uses: the kT/q tail)
     tiny = fe.field_emission_current_density(volts, field_energy_eV=1e-12, spike_eV=sides["offset"], **law)

@@ -15,7 +15,7 @@ Subcells can also lead the trace as the solver's *pilot*: ``pilot_current(v_junc
 gives (J, dJ/dVj, V, dV/dVj) from the junction voltage, so that every branch of the curve,
 including the reverse-biased one, is reached without inverting near Jph (see solve.py).
 """
-from dataclasses import dataclass, field, replace
+from dataclasses import MISSING, dataclass, field, fields, replace
 import warnings
 
 import numpy as np
@@ -29,8 +29,12 @@ from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.constants import thermal_voltage_V
 from siltandem.numerics.tables import LawTable
 from siltandem.laws import compiled as kernels
+from siltandem.laws import compiled_isotype
 from siltandem.numerics.roots import safeguarded_newton
 
+#: isotype interfaces invert through the compiled law (laws/compiled_isotype.py); False: the numpy
+#: laws (laws/thermionic.py, laws/field_emission.py), for benchmarks and checks
+COMPILED_ISOTYPE = True
 #: junction-voltage table of a subcell (inverse.py): points in reverse bias and forward of zero
 TABLE_REVERSE_POINTS = 160
 TABLE_FORWARD_POINTS = 512
@@ -645,6 +649,7 @@ class IsotypeInterface:
     #: the depletion-side form of the thermionic-field law, which has no exact form yet: the kT/q
     #: tail (True) or the plain form (False); the compiler takes the tail above Vbi = 3 kT/q
     include_tail: bool = True
+    _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def _law(self, temperature_K):
         law = dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
@@ -666,12 +671,47 @@ class IsotypeInterface:
 
     def law_current(self, voltage_V, temperature_K):
         """J_law [A/m^2] and dJ/dV at the interface voltage V (V > 0 lowers the barrier)."""
+        rows = self.compiled_rows(temperature_K)
+        voltage = np.asarray(voltage_V, dtype=float)
+        shape = np.broadcast_shapes(voltage.shape, self.direction.shape)
+        if rows is not None and len(shape) == 2:
+            return compiled_isotype.isotype_currents(rows, kernels.as_input(np.broadcast_to(voltage, shape)))
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
             return self._functions()[0](voltage_V, with_derivative=True, **self._law(temperature_K))
 
+    def compiled_rows(self, temperature_K):
+        """Parameter rows (B, P) of the compiled law (laws/compiled_isotype.py), or None where
+        this interface's law has no compiled form (the numpy law serves it)."""
+        if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS:
+            return None
+        field = self.transport == "thermionic-field"
+        form = ("tail" if self.include_tail else "plain") if field else self.depletion
+        if form not in compiled_isotype.FORMS:
+            return None
+        key = ("rows", _temperature_key(temperature_K))
+        if key not in self._cache:
+            self._cache[key] = (self._compiled_rows(form, temperature_K)
+                                if _only_compiled_fields_set(self) else None)
+        return self._cache[key]
+
+    def _compiled_rows(self, form, temperature_K):
+        return compiled_isotype.isotype_rows(
+            built_in_V=self.built_in_V, alpha=self.alpha, barrier_eV=self.barrier_eV,
+            richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K, form=form,
+            transport=self.transport, field_energy_eV=self.field_energy_eV,
+            spike_eV=self.offset_eV, direction=self.direction, width=kernels.PARAMETER_WIDTH)
+
     def voltage(self, current_A_m2, temperature_K):
         s = self.direction
+        rows = self.compiled_rows(temperature_K)
+        current = np.asarray(current_A_m2, dtype=float)
+        shape = np.broadcast_shapes(current.shape, s.shape)
+        if rows is not None and len(shape) == 2:
+            law_current = kernels.as_input(np.broadcast_to(s * current, shape))
+            v_law, djdv = compiled_isotype.isotype_voltages(rows, law_current)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                return -s * v_law, -1.0 / djdv
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
             v_law, slope = self._functions()[1](s * np.asarray(current_A_m2, dtype=float),
@@ -700,12 +740,47 @@ class IsotypeInterface:
         outside the law's domain."""
         s = self.direction
         x_a, x_b = -s * np.asarray(v_a, dtype=float), -s * np.asarray(v_b, dtype=float)
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
-            low, high = self._functions()[2](np.minimum(x_a, x_b), np.maximum(x_a, x_b),
-                                             **self._law(temperature_K))
+        rows = self.compiled_rows(temperature_K)
+        shape = np.broadcast_shapes(x_a.shape, x_b.shape)
+        if rows is not None and len(shape) == 2:
+            low, high = compiled_isotype.isotype_slope_ranges(
+                rows, *(kernels.as_input(np.broadcast_to(f(x_a, x_b), shape)) for f in (np.minimum, np.maximum)))
+        else:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", thermionic.IsotypeDomainWarning)
+                low, high = self._functions()[2](np.minimum(x_a, x_b), np.maximum(x_a, x_b),
+                                                 **self._law(temperature_K))
         lo, hi = _reciprocal_range(low, high, 0.0)
         return -hi, -lo
+
+
+#: the IsotypeInterface fields the compiled law reads (or that only label the element)
+_COMPILED_ISOTYPE_FIELDS = {"name", "barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2",
+                            "direction", "carrier", "offset_eV", "string", "kind", "depletion",
+                            "transport", "field_energy_eV", "include_tail"}
+
+
+def _only_compiled_fields_set(element):
+    """True when every other field of the interface has its default value: a parameter the
+    compiled law does not know (a later extension of the numpy law) sends the element to the
+    numpy law instead of being silently left out."""
+    for f in fields(element):
+        if f.name in _COMPILED_ISOTYPE_FIELDS or not f.compare:
+            continue
+        if f.default is not MISSING:
+            default = f.default
+        elif f.default_factory is not MISSING:
+            default = f.default_factory()
+        else:
+            return False
+        value = getattr(element, f.name)
+        try:
+            same = np.array_equal(np.asarray(value), np.asarray(default), equal_nan=True)
+        except TypeError:
+            same = bool(np.all(np.asarray(value) == np.asarray(default)))
+        if not same:
+            return False
+    return True
 
 
 ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction,

@@ -30,8 +30,9 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 drop_stale_kernels(Path(__file__).resolve().parents[1])
 
 from siltandem.laws.compiled_bulk import BULK_OFFSET, bulk_law, bulk_slopes  # noqa: E402
+from siltandem.laws.compiled_isotype import isotype_inverse  # noqa: E402
 
-__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "as_input", "parameter_rows", "evaluate_law",
+__all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "ISOTYPE_LAW", "as_input", "parameter_rows", "evaluate_law",
            "tunnel_curvature", "invert", "invert_table", "element_voltages",
            "subcell_table", "subcell_terminal_current", "exact_peak_shape", "tunnel_extrema",
            "bose_einstein_tail",
@@ -40,6 +41,8 @@ __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "as_input", "parameter_rows", "evaluate_
 #: law codes of :func:`invert_table`
 SUBCELL_LAW = 0
 TUNNEL_LAW = 1
+#: an isotype interface in :func:`element_voltages` (inverted by laws/compiled_isotype.py, no table)
+ISOTYPE_LAW = 2
 #: columns of a law's parameter rows: the law's 8 parameters, then quantities derived from them
 #: (a subcell: 1/Vt, then the 9 columns of a silicon base's recombination law, laws/compiled_bulk.py)
 PARAMETER_WIDTH = 18
@@ -525,6 +528,13 @@ def element_voltages(current, codes, params, grid_u, grid_j, grid_slope, lengths
             cell = -1
             for i in range(n):
                 j = current[b, i]
+                if code == ISOTYPE_LAW:
+                    # V = -s V_law(s J), dV/dJ = -1/J_law'(V_law), s = p[8] the direction
+                    v_law, law_slope = isotype_inverse(p[8] * j, p)
+                    element_voltage[e, b, i] = -p[8] * v_law
+                    element_slope[e, b, i] = -1.0 / law_slope
+                    covered[e, b, i] = True
+                    continue
                 y = min(max(j, low), high)
                 u, slope, inside, cell = _invert_one(code, p, gu, gj, gs, m, sign, fl, fh, y,
                                                      xtol, rtol, max_iterations, cell)

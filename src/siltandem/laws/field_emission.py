@@ -455,3 +455,7 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
         largest = scale[:half] * bracket_max / (1.0 + a_high_v)
     out = shape[1:]
     return (smallest * (1.0 - 1e-12)).reshape(out), (largest * (1.0 + 1e-12)).reshape(out)
+
+
+#: the compiled gain at one point (log G, dlogG/dw), for the compiled law (laws/compiled_isotype.py)
+gain_point = _gain_point

@@ -15,7 +15,8 @@ import hashlib
 from pathlib import Path
 
 #: the kernel sources, relative to the package folder (every file with @numba.njit(cache=True))
-KERNEL_SOURCES = ("laws/compiled.py", "laws/compiled_bulk.py", "solve/kernels.py")
+KERNEL_SOURCES = ("laws/compiled.py", "laws/compiled_bulk.py", "solve/kernels.py",
+                  "laws/compiled_isotype.py", "laws/field_emission.py")
 #: the file, in laws/__pycache__, that records the hash of the sources the cache was built from
 STAMP_NAME = "siltandem-kernel-sources.sha256"
 

@@ -9,6 +9,7 @@ import numpy as np
 from siltandem.laws import compiled as kernels
 from siltandem.circuit.coupling import couple_string, is_coupled
 from siltandem.circuit.elements import take_rows
+from siltandem.numerics.tables import LawTable
 from siltandem.solve.kernels import string_pass
 
 
@@ -101,6 +102,10 @@ def _group_members(string, state):
             member = _tunnel_member(string, element, state.get(element.name, "tunnel"))
             if member is None:
                 continue
+        elif element.kind == "isotype":
+            member = _isotype_member(element, temperature)
+            if member is None:
+                continue
         else:
             continue
         members.append(dict(member, index=index, element=element))
@@ -112,6 +117,20 @@ def _subcell_member(element, temperature):
     return dict(branch=None, code=kernels.SUBCELL_LAW,
                 params=element._law_parameters(temperature), table=element._table(temperature),
                 sign=-1.0, fold=(0.0, 0.0), clip=(-np.inf, np.inf), range=(-np.inf, np.inf))
+
+
+#: the one-sample table an isotype member carries (its law inverts without one)
+_NO_TABLE = LawTable(np.zeros((1, 1)), np.zeros((1, 1)), np.zeros((1, 1)))
+
+
+def _isotype_member(element, temperature):
+    """An isotype interface's entry in the compiled pass (laws/compiled_isotype.py inverts it),
+    None where its law has no compiled form."""
+    rows = element.compiled_rows(temperature)
+    if rows is None:
+        return None
+    return dict(branch=None, code=kernels.ISOTYPE_LAW, params=rows, table=_NO_TABLE, sign=1.0,
+                fold=(0.0, 0.0), clip=(-np.inf, np.inf), range=(-np.inf, np.inf))
 
 
 def _tunnel_member(string, element, branch):

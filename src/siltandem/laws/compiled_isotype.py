@@ -1,0 +1,489 @@
+"""The isotype-interface law compiled (numba): forward J(V) with dJ/dV and inverse V(J), one entry
+at a time, for thermionic emission (laws/thermionic.py) and thermionic-field emission
+(laws/field_emission.py), with the depletion side in any of its three forms (plain, kT/q tail, or
+the exact Boltzmann side).
+
+The numpy laws stay the reference; these are the same equations in scalar form, so that the fused
+compiled pass of a string (laws/compiled.py ``element_voltages``) inverts an interface without
+Python-level array steps. tests/test_compiled_isotype.py checks them against the numpy laws.
+
+Reduced units as in laws/thermionic.py (voltages in kT/q, energies in kT). With x = v1 the
+accumulation-side bending, everything is explicit in x:
+
+* field bending w(x) = alpha (e^x - 1 - x) (the first integral of Poisson's equation on side 1);
+* depletion-side bending y: y = w + t (closed forms, t = 0 plain, 1 tail), or the root y >= 0 of
+  e^-y - 1 + y = w (the exact Boltzmann side; Newton's method from an upper bound, which a
+  convex increasing function approaches monotonically);
+* barrier voltage vb(x) = x + y, so v = vbi - vb(x) and J/P = e^x expm1(v) G(w), G = 1 for
+  thermionic emission, the tunnelling gain of laws/field_emission.py otherwise.
+
+The inverse solves asinh(J(x)/P) = asinh(J/P) for x on [0, max(ln(2|J|/P), vbi + ln 2)] (the
+bracket of laws/thermionic.py isotype_voltage), by Newton's method safeguarded by the bracket
+('rtsafe', W. H. Press et al., Numerical Recipes, 3rd ed., Cambridge 2007, sec. 9.4); the
+forward law solves the charge balance w(x) = y-form(vb - x) for x on [0, vb] the same way.
+
+References
+----------
+.. [1] S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., Wiley (2007) (field of a
+   Boltzmann space-charge layer).
+.. [2] A. Chandra, L. F. Eastman, Solid-State Electron. 23 (1980) 599 (thermionic emission over
+   an isotype heterointerface).
+.. [3] K. Yang, J. R. East, G. I. Haddad, Solid-State Electron. 36 (1993) 321 (thermionic-field
+   emission across the spike).
+"""
+import math
+
+import numba
+import numpy as np
+
+from siltandem.laws.field_emission import gain_point
+
+__all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
+           "isotype_currents", "isotype_voltages"]
+
+#: depletion-side forms, as the law's parameter row stores them
+FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
+#: columns of an isotype parameter row: reduced Vbi, alpha, log P, kT/q, form, transport
+#: (0 thermionic, 1 thermionic-field), E00/kT, spike depth/kT, direction (+1/-1), the
+#: accumulation-side bending at zero bias (reduced)
+ISOTYPE_COLUMNS = 10
+ZERO_BIAS_COLUMN = 9
+
+_EPS = 2.220446049250313e-16
+_TINY = 2.2250738585072014e-308
+_ITERATIONS = 200
+_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(16)
+_LARGE = 1e8          # above this |u| asinh(u) = sign(u) (ln 2 + ln|u|) to rounding
+
+
+def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature_K, form,
+                 transport, field_energy_eV, spike_eV, direction, width=ISOTYPE_COLUMNS):
+    """Parameter rows (B, width) of the compiled law from the element's (B, 1) numbers.
+
+    ``form`` "plain", "tail" or "exact"; ``transport`` "thermionic" or "thermionic-field";
+    the spike depth NaN means no limit (inf). The prefactor is log(A T^2) - q phi / kT, as in
+    laws/thermionic.py.
+    """
+    from siltandem.constants import thermal_voltage_V
+
+    arrays = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
+        built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature_K, field_energy_eV,
+        spike_eV, direction)))
+    vbi, alpha, barrier, rich, temp, e00, spike, sign = (np.ravel(a) for a in arrays)
+    vt = thermal_voltage_V(temp)
+    rows = np.zeros((vbi.size, width))
+    rows[:, 0] = vbi / vt
+    rows[:, 1] = alpha
+    rows[:, 2] = np.log(rich) + 2.0 * np.log(temp) - barrier / vt
+    rows[:, 3] = vt
+    rows[:, 4] = FORMS[form]
+    field = transport == "thermionic-field"
+    rows[:, 5] = 1.0 if field else 0.0
+    rows[:, 6] = e00 / vt if field else 0.0
+    rows[:, 7] = np.where(np.isnan(spike), np.inf, spike / vt) if field else np.inf
+    rows[:, 8] = sign
+    rows[:, ZERO_BIAS_COLUMN] = zero_bias_bending(rows)
+    return rows
+
+
+# ---------------------------------------------------------------------------------------------
+# scalar pieces (reduced units)
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _g_minus(y):
+    """e^-y - 1 + y (series below 0.5: no cancellation) and its slope 1 - e^-y."""
+    if abs(y) < 0.5:
+        term, total = y * y / 2.0, 0.0
+        for k in range(3, 20):
+            total += term
+            term *= -y / k
+        return total, -math.expm1(-y)
+    return math.expm1(-y) + y, -math.expm1(-y)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _bending_terms(alpha, x):
+    """(alpha (e^x - 1 - x), alpha (e^x - 1)) without cancellation (series below 0.5) and
+    without overflow of e^x alone."""
+    if abs(x) < 0.5:
+        term, total = x * x / 2.0, 0.0
+        for k in range(3, 20):
+            total += term
+            term *= x / k
+        return alpha * total, alpha * math.expm1(x)
+    if x >= 700.0:
+        a_exp = math.exp(math.log(alpha) + x)
+        return a_exp - alpha - alpha * x, a_exp - alpha
+    a_em1 = alpha * math.expm1(x)
+    return a_em1 - alpha * x, a_em1
+
+
+#: W0(z) + 1 = sum_k c_k rho^(k+1) about the branch point, rho = sqrt(2 (1 + e z)) (R. M. Corless
+#: et al., Adv. Comput. Math. 5 (1996) 329, eq. 4.22, p = +rho): the exact depletion side's
+#: bending is y = c + W0(-e^(-1-c)) + 1 with rho = sqrt(2 (1 - e^-c))
+_BRANCH_SERIES = np.array([1.0, -1.0 / 3.0, 11.0 / 72.0, -43.0 / 540.0, 769.0 / 17280.0,
+                           -221.0 / 8505.0, 680863.0 / 43545600.0, -1963.0 / 204120.0,
+                           226287557.0 / 37623398400.0])
+#: below this c the series start (relative error under about 3e-2 at its end, far less below)
+_SERIES_LIMIT = 0.7
+
+
+@numba.njit(cache=True, error_model="numpy")
+def exact_depletion(c):
+    """y >= 0 with e^-y - 1 + y = c >= 0 (the exact Boltzmann depletion side's bending, reduced)
+    and the slope s = 1 - e^-y, by Halley's method (cubic convergence; the function is convex and
+    rising). Start: the branch-point series of W0 (``_BRANCH_SERIES``) for c < 0.7, else the
+    bound y <= c + 1 - e^-(c+1)."""
+    if not c > 0.0:
+        return 0.0, 0.0
+    if c < _SERIES_LIMIT:
+        rho = math.sqrt(-2.0 * math.expm1(-c))
+        total = 0.0
+        for k in range(_BRANCH_SERIES.size - 1, -1, -1):
+            total = total * rho + _BRANCH_SERIES[k]
+        y = c + rho * total
+    else:
+        y = c + 1.0 - math.exp(-(c + 1.0))
+    for _ in range(60):
+        g, slope = _g_minus(y)
+        if not slope > 0.0:
+            break
+        f = g - c
+        step = 2.0 * f * slope / (2.0 * slope * slope - f * (1.0 - slope))
+        y = y - step
+        if abs(step) <= 4.0 * _EPS * y:
+            break
+    return y, -math.expm1(-y)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _barrier(x, p):
+    """(vb(x), dvb/dx, w(x), alpha (e^x - 1), s) of row p at accumulation bending x: s is
+    1 - e^-y for the exact depletion side, 1 for the closed forms."""
+    w, a_em1 = _bending_terms(p[1], x)
+    form = p[4]
+    if form == 2.0:
+        y, s = exact_depletion(w)
+        if s > 0.0:
+            return x + y, 1.0 + a_em1 / s, w, a_em1, s
+        # at flat band: dy/dx = sqrt(alpha) (y = x sqrt(alpha) to first order)
+        return x + y, 1.0 + math.sqrt(p[1]), w, a_em1, s
+    return x + w + form, 1.0 + a_em1, w, a_em1, 1.0
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _gain(w, p):
+    """log G and dlogG/dw of the tunnelling gain (0, 0 for thermionic emission)."""
+    if p[5] == 0.0:
+        return 0.0, 0.0
+    return gain_point(w, p[6], p[7], _NODES, _WEIGHTS)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _slope(v, x, w, a_em1, s, p):
+    """dJ/dV [A m^-2 V^-1] at reduced voltage v and bending x: the thermionic slope
+    (P e^x / Vt) ((1 - q) + q e^v), q = A/(A + s) (s = 1 for the closed forms: q = A/(1 + A)),
+    times G, minus J (dlogG/dw) A (1 - q) / Vt for the tunnelling gain's fall with V."""
+    total = a_em1 + s
+    if total > 0.0:
+        q, rest = a_em1 / total, s / total
+    else:                                   # flat band of the exact side: v1 = v2/sqrt(alpha)
+        root = math.sqrt(p[1])
+        q, rest = root / (1.0 + root), 1.0 / (1.0 + root)
+    log_g, dlog = _gain(w, p)
+    base = p[2] + x + log_g - math.log(p[3])
+    slope = rest * math.exp(base) + q * math.exp(base + v)
+    if dlog != 0.0:
+        em1 = math.expm1(v)
+        j_over = math.copysign(math.exp(base + math.log(abs(em1))), em1) if em1 != 0.0 else 0.0
+        slope -= j_over * dlog * a_em1 * rest
+    return slope
+
+
+@numba.njit(cache=True, error_model="numpy")
+def split(vb, p):
+    """The accumulation-side bending x (reduced) at the reduced barrier voltage vb >= t: the
+    root on [0, vb - t] of w(x) = vb - x - t (closed forms) or w(x) = e^-(vb-x) - 1 + (vb - x)
+    (exact), the difference rising in x, by rtsafe from the middle of the bracket."""
+    form = p[4]
+    tail = form if form < 2.0 else 0.0
+    lo, hi = 0.0, vb - tail
+    x = 0.5 * (lo + hi)
+    dx_old = dx = hi - lo
+    for _ in range(_ITERATIONS):
+        if hi <= lo:
+            break
+        w, a_em1 = _bending_terms(p[1], x)
+        if form == 2.0:
+            g, s = _g_minus(vb - x)
+            f, df = w - g, a_em1 + s
+        else:
+            f, df = w + x + tail - vb, 1.0 + a_em1
+        if f == 0.0:
+            break
+        if f < 0.0:
+            lo = x
+        else:
+            hi = x
+        newton = x - f / df if df > 0.0 else math.nan
+        if abs(newton - x) <= 4.0 * _EPS * abs(x) + _TINY:    # converged to rounding
+            x = newton
+            break
+        if not (lo < newton < hi) or abs(2.0 * f) > abs(dx_old * df):
+            dx_old, dx = dx, 0.5 * (hi - lo)
+            x = lo + dx
+        else:
+            dx_old, dx = dx, f / df
+            x = newton
+        if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
+            break
+    return x
+
+
+@numba.njit(cache=True, error_model="numpy")
+def isotype_current(voltage, p):
+    """J [A m^-2] and dJ/dV of the law with row p at the voltage V [V] (V > 0 lowers the
+    barrier); NaN beyond flat band (V > Vbi, or V > Vbi - kT/q with the tail)."""
+    v = voltage / p[3]
+    vb = p[0] - v
+    form = p[4]
+    tail = form if form < 2.0 else 0.0
+    if not (vb >= tail - 1e-12) or not math.isfinite(vb):
+        return math.nan, math.nan
+    vb = max(vb, tail)
+    x = split(vb, p)
+    w, a_em1 = _bending_terms(p[1], x)
+    s = 1.0
+    if form == 2.0:
+        s = _g_minus(max(vb - x, 0.0))[1]
+    log_g = _gain(w, p)[0]
+    em1 = math.expm1(v)
+    if em1 == 0.0:
+        j = 0.0
+    else:
+        j = math.copysign(math.exp(p[2] + x + log_g + math.log(abs(em1))), em1)
+    return j, _slope(v, x, w, a_em1, s, p)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def zero_bias_bending(params):
+    """The accumulation-side bending at zero bias (reduced) of each parameter row (R, P): the
+    inverse's starting point and the split of its bracket (forward currents below it)."""
+    out = np.empty(params.shape[0])
+    for r in range(params.shape[0]):
+        p = params[r]
+        tail = p[4] if p[4] < 2.0 else 0.0
+        out[r] = split(max(p[0], tail), p) if math.isfinite(p[0]) else math.nan
+    return out
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _asinh_of_log(sign, log_abs):
+    """asinh(sign e^log_abs) without overflow."""
+    if log_abs > math.log(_LARGE):
+        return sign * (math.log(2.0) + log_abs)
+    return math.asinh(sign * math.exp(log_abs))
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _residual(x, p, target):
+    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x), plus the pieces."""
+    vb, dvb, w, a_em1, s = _barrier(x, p)
+    v = p[0] - vb
+    log_g, dlog = _gain(w, p)
+    em1 = math.expm1(v)
+    if em1 == 0.0:
+        # at zero bias: u = 0, du/dx = -e^x G e^v dvb (asinh' = 1)
+        return -target, -math.exp(x + log_g) * dvb
+    log_u = x + log_g + math.log(abs(em1))
+    sign = 1.0 if em1 > 0.0 else -1.0
+    value = _asinh_of_log(sign, log_u) - target
+    # d log|u| / dx = 1 + dlogG/dw A - e^v dvb / expm1(v); d asinh(u)/dx = sign(u) |u| that
+    # / sqrt(1 + u^2)
+    dlog_u = 1.0 + dlog * a_em1 - math.exp(v) * dvb / em1
+    if log_u > math.log(_LARGE):
+        factor = 1.0
+    else:
+        u = math.exp(log_u)
+        factor = u / math.sqrt(1.0 + u * u)
+    return value, sign * dlog_u * factor
+
+
+@numba.njit(cache=True, error_model="numpy")
+def isotype_inverse(current, p):
+    """V [V] and dJ/dV [A m^-2 V^-1] of the law with row p at the current density J [A m^-2];
+    NaN above the flat-band current (and for a non-finite J)."""
+    if not math.isfinite(current):
+        return math.nan, math.nan
+    vbi, log_p, vt, form = p[0], p[2], p[3], p[4]
+    tail = form if form < 2.0 else 0.0
+    ratio = current * math.exp(-log_p) if current != 0.0 else 0.0
+    j_max = math.expm1(vbi - tail)
+    if abs(ratio - j_max) <= 64.0 * _EPS * j_max:
+        x = 0.0
+    elif ratio > j_max:
+        return math.nan, math.nan
+    else:
+        sign = 1.0 if current > 0.0 else -1.0
+        if current == 0.0:
+            target = 0.0
+        else:
+            log_ratio = math.log(abs(current)) - log_p
+            target = _asinh_of_log(sign, log_ratio)
+        # forward currents lie in [0, x(V=0)], reverse ones in [x(V=0), x_hi]; Newton's method
+        # from the zero-bias bending (the residual is nearly linear there for |J| << P)
+        x_zero = p[ZERO_BIAS_COLUMN]
+        if current > 0.0:
+            lo, hi = 0.0, x_zero
+        else:
+            lo = x_zero
+            hi = max(vbi + math.log(2.0), math.log(2.0 * abs(current)) - log_p, x_zero)
+        # rtsafe on the falling residual (Numerical Recipes sec. 9.4)
+        x = x_zero
+        dx_old = dx = hi - lo
+        for _ in range(_ITERATIONS):
+            value, slope = _residual(x, p, target)
+            if value == 0.0 or not math.isfinite(value):
+                break
+            if value > 0.0:
+                lo = x
+            else:
+                hi = x
+            newton = x - value / slope if slope != 0.0 else math.nan
+            if abs(newton - x) <= 4.0 * _EPS * abs(x) + _TINY:    # converged to rounding
+                x = newton
+                break
+            if not (lo < newton < hi) or abs(2.0 * value) > abs(dx_old * slope):
+                dx_old, dx = dx, 0.5 * (hi - lo)
+                x = lo + dx
+            else:
+                dx_old, dx = dx, value / slope
+                x = newton
+            if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
+                break
+    vb, _, w, a_em1, s = _barrier(x, p)
+    log_g = _gain(w, p)[0]
+    # v from J itself where expm1(v) is small (no cancellation in vbi - vb), else vbi - vb
+    y = current * math.exp(-log_p - x - log_g)
+    if abs(y) < 0.5:
+        v = math.log1p(y)
+    else:
+        v = vbi - vb
+    if form < 2.0 and x == 0.0 and not (vbi - vb >= -1e-12):
+        return math.nan, math.nan
+    return v * vt, _slope(v, x, w, a_em1, s, p)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def isotype_voltages(params, current):
+    """:func:`isotype_inverse` at currents (B, N), parameter rows (B, P) or (1, P): (V, dJ/dV)."""
+    rows, n = current.shape
+    v = np.empty((rows, n))
+    slope = np.empty((rows, n))
+    for b in range(rows):
+        p = params[0] if params.shape[0] == 1 else params[b]
+        for i in range(n):
+            v[b, i], slope[b, i] = isotype_inverse(current[b, i], p)
+    return v, slope
+
+
+@numba.njit(cache=True, error_model="numpy")
+def isotype_currents(params, voltage):
+    """:func:`isotype_current` at voltages (B, N), parameter rows (B, P) or (1, P): (J, dJ/dV)."""
+    rows, n = voltage.shape
+    j = np.empty((rows, n))
+    slope = np.empty((rows, n))
+    for b in range(rows):
+        p = params[0] if params.shape[0] == 1 else params[b]
+        for i in range(n):
+            j[b, i], slope[b, i] = isotype_current(voltage[b, i], p)
+    return j, slope
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _end(voltage, p):
+    """(x, e^v, A = alpha (e^x - 1), s, log G) at a law voltage [V] (x NaN outside the domain)."""
+    v = voltage / p[3]
+    vb = p[0] - v
+    form = p[4]
+    tail = form if form < 2.0 else 0.0
+    if not (vb >= tail - 1e-12) or not math.isfinite(vb):
+        return math.nan, math.nan, math.nan, math.nan, math.nan
+    vb = max(vb, tail)
+    x = split(vb, p)
+    w, a_em1 = _bending_terms(p[1], x)
+    s = _g_minus(max(vb - x, 0.0))[1] if form == 2.0 else 1.0
+    return x, math.exp(v), a_em1, s, _gain(w, p)[0]
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale):
+    """The slope range of thermionic-field emission on the exact depletion side (ends a: low V,
+    b: high V). Vt dJ/dV = P e^x G [1 + (e^v - 1)(q - L h)], q = A/(A + s), h = A s/(A + s),
+    L = dlnG/dw in [0, 1] (laws/field_emission.py): e^x G, A, s and h fall as V rises, q lies
+    between A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - h_a, q_max], and the
+    bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
+    q_min = a_b / (a_b + s_a) if a_b + s_a > 0.0 else 0.0
+    q_max = a_a / (a_a + s_b) if a_a + s_b > 0.0 else 1.0
+    h_max = a_a * s_a / (a_a + s_a) if a_a + s_a > 0.0 else 0.0
+    m_lo, m_hi = q_min - h_max, q_max
+    bracket_min, bracket_max = math.inf, -math.inf
+    for u in (e_a - 1.0, e_b - 1.0):
+        for m in (m_lo, m_hi):
+            bracket_min = min(bracket_min, 1.0 + u * m)
+            bracket_max = max(bracket_max, 1.0 + u * m)
+    low_scale = scale * math.exp(x_b + g_b)      # e^x G at high V: the smaller
+    high_scale = scale * math.exp(x_a + g_a)
+    smallest = (low_scale if bracket_min >= 0.0 else high_scale) * bracket_min
+    largest = (high_scale if bracket_max >= 0.0 else low_scale) * bracket_max
+    return smallest - 1e-12 * abs(smallest), largest + 1e-12 * abs(largest)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def isotype_slope_range(v_low, v_high, p):
+    """Smallest and largest dJ/dV [A m^-2 V^-1] of the law with row p over [v_low, v_high] [V]:
+    the compiled form of laws/thermionic.py current_slope_range (thermionic emission, every
+    depletion form: e^v1 and A = alpha (e^v1 - 1) fall as V rises, s = 1 - e^-v2 too, and the
+    slope's bracket is monotone in each, so its extremes lie at the corners) and of
+    laws/field_emission.py field_emission_slope_range (thermionic-field emission, whose bracket is
+    linear in dlnG/dw in [0, 1]). NaN where an end lies outside the domain."""
+    x_a, e_a, a_a, s_a, g_a = _end(v_low, p)       # low V: the larger bending
+    x_b, e_b, a_b, s_b, g_b = _end(v_high, p)
+    scale = math.exp(p[2]) / p[3]
+    if p[5] != 0.0 and p[4] == 2.0:
+        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale)
+    if p[5] != 0.0:
+        low_scale = scale * math.exp(x_b + g_b)
+        high_scale = scale * math.exp(x_a + g_a)
+        smallest = low_scale * (1.0 + a_b * min(1.0, e_a)) / (1.0 + a_a)
+        largest = high_scale * (1.0 + a_a * max(1.0, e_b)) / (1.0 + a_b)
+        return smallest * (1.0 - 1e-12), largest * (1.0 + 1e-12)
+    # the weight q = A / (A + s) (s = 1 for the closed forms) lies between these two ends
+    root = math.sqrt(p[1])
+    total_min, total_max = a_b + s_a, a_a + s_b
+    if total_min > 0.0:
+        q_min, rest_min = a_b / total_min, s_a / total_min
+    else:
+        q_min, rest_min = root / (1.0 + root), 1.0 / (1.0 + root)
+    if total_max > 0.0:
+        q_max, rest_max = a_a / total_max, s_b / total_max
+    else:
+        q_max, rest_max = root / (1.0 + root), 1.0 / (1.0 + root)
+    r_min = min(rest_min + q_min * e_a, rest_max + q_max * e_a)
+    r_max = max(rest_min + q_min * e_b, rest_max + q_max * e_b)
+    smallest = scale * math.exp(x_b) * r_min
+    largest = scale * math.exp(x_a) * r_max
+    return smallest * (1.0 - 1e-12), largest * (1.0 + 1e-12)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def isotype_slope_ranges(params, v_low, v_high):
+    """:func:`isotype_slope_range` over (B, N) arrays, parameter rows (B, P) or (1, P)."""
+    rows, n = v_low.shape
+    low = np.empty((rows, n))
+    high = np.empty((rows, n))
+    for b in range(rows):
+        p = params[0] if params.shape[0] == 1 else params[b]
+        for i in range(n):
+            low[b, i], high[b, i] = isotype_slope_range(v_low[b, i], v_high[b, i], p)
+    return low, high
