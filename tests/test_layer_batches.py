@@ -1,0 +1,123 @@
+"""Batched layer designs (issue 19): designs of one recognised structure joined into one batched
+circuit (circuit/batch.py) and solved at once give, bit for bit, the numbers of each design
+solved alone.
+
+No physics value is checked here: the reference is the same design through the one-by-one path
+(compiled, illuminated and solved on its own), and the check is exact equality (``==``) of every
+result column, as issue 19 asks. The demo stacks are INVENTED DATA (marked in their files).
+"""
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from siltandem import load_stack
+from siltandem.circuit.batch import join_circuits, join_rows, structure_key
+from siltandem.circuit.compile import compile_stack
+from siltandem.circuit.elements import take_rows
+from siltandem.optics.illuminate import illuminate
+from siltandem.studies.sweep import layer_design, solve_designs, study_light
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def one_by_one(stack, columns):
+    """Every design of ``columns`` as its own layer stack, solved alone (batch of one)."""
+    size = len(next(iter(columns.values())))
+    rows = [solve_designs(layer_design(stack, {c: v[k] for c, v in columns.items()}), {})
+            for k in range(size)]
+    return {key: np.concatenate([np.asarray(r[key]).reshape(-1) for r in rows]) for key in rows[0]}
+
+
+def structures(stack, columns):
+    """How many designs each recognised structure holds (the batches the solve forms)."""
+    size = len(next(iter(columns.values())))
+    light = study_light(stack)
+    keys = [structure_key(illuminate(compile_stack(layer_design(
+        stack, {c: v[k] for c, v in columns.items()})), light)) for k in range(size)]
+    return sorted(keys.count(k) for k in set(keys))
+
+
+def assert_same_bits(batched, alone):
+    assert batched.keys() == alone.keys()
+    for key in alone:
+        assert batched[key].shape == alone[key].shape, key
+        same = batched[key] == alone[key]
+        assert same.all(), f"{key}: batched {batched[key][~same]} != alone {alone[key][~same]}"
+
+
+# thickness, doping and [device] keys varied together; a series resistance of 0 leaves the
+# device resistor out of the circuit, so the designs form two structures (two batches)
+CASES = {
+    "demo_triple_layers.toml": {
+        "top base.thickness_nm": np.array([400.0, 650.0, 900.0, 1200.0, 800.0]),
+        "middle base.doping_cm3": np.array([5e16, 1e17, 2e17, 3e17, 1e17]),
+        "device.series_ohm_cm2": np.array([0.0, 0.2, 0.5, 1.0, 0.0]),
+        "device.shading_fraction": np.array([0.02, 0.05, 0.0, 0.1, 0.03]),
+    },
+    "demo_dual_layers.toml": {
+        "top base.thickness_nm": np.array([900.0, 1400.0, 2000.0, 1100.0]),
+        "device.series_ohm_cm2": np.array([0.3, 0.0, 0.8, 0.5]),
+        "device.shunt_ohm_cm2": np.array([1e4, 5e3, 2e3, 1e5]),
+    },
+}
+
+
+@pytest.mark.parametrize("name", sorted(CASES))
+def test_batched_layer_designs_equal_their_solves_alone(name):
+    stack = load_stack(ROOT / "stacks" / name)
+    columns = CASES[name]
+    sizes = structures(stack, columns)
+    assert max(sizes) > 1, "no batch of more than one design: the test would prove nothing"
+    batched = solve_designs(stack, columns)
+    alone = one_by_one(stack, columns)
+    assert_same_bits(batched, alone)
+    # the designs differ (a varied key that changes nothing would make the check empty)
+    assert len(set(np.round(batched["efficiency_pct"], 9))) == len(batched["efficiency_pct"])
+
+
+def test_element_designs_do_not_depend_on_their_batch():
+    """The batched solve's roots stop per design (numerics/roots.py): a design solved in a batch
+    of one gives the numbers it gives among others."""
+    stack = load_stack(ROOT / "stacks" / "demo_triple.toml")
+    gaps = np.array([1.70, 1.76, 1.82, 1.88])
+    batched = solve_designs(stack, {"top.gap_eV": gaps})
+    rows = [solve_designs(stack, {"top.gap_eV": gaps[k:k + 1]}) for k in range(gaps.size)]
+    alone = {key: np.concatenate([r[key] for r in rows]) for key in rows[0]}
+    assert_same_bits(batched, alone)
+
+
+def test_join_rows_is_the_inverse_of_take_rows():
+    """Joined elements hold each design's parameters in turn; take_rows gives them back."""
+    stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
+    light = study_light(stack)
+    circuits = [illuminate(compile_stack(layer_design(stack, {"top base.thickness_nm": t})), light)
+                for t in (900.0, 1600.0, 2400.0)]
+    joined = join_circuits(circuits)
+    assert joined.optical_order == circuits[0].optical_order
+    for name in joined.optical_order:
+        element = joined.element(name)
+        for k, circuit in enumerate(circuits):
+            alone, back = circuit.element(name), take_rows(element, [k])
+            for key, value in vars(alone).items():
+                if isinstance(value, np.ndarray) and not key.startswith("_"):
+                    np.testing.assert_array_equal(np.broadcast_to(value, (1, 1)),
+                                                  getattr(back, key), err_msg=f"{name}.{key}")
+    # the photocurrents differ between the designs, so the rows are not one design repeated
+    top = joined.subcells[0].photocurrent_A_m2[:, 0]
+    assert len(set(top)) == 3
+    # elements of one batch with a base law keep its columns row by row
+    bases = [c for c in circuits[0].subcells if c.bulk is not None]
+    for cell in bases:
+        joined_cell = join_rows([c.element(cell.name) for c in circuits], [1, 1, 1])
+        assert all(np.shape(column) == (3, 1) for column in joined_cell.bulk)
+
+
+def test_circuits_of_different_structures_are_not_joined():
+    stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
+    light = study_light(stack)
+    circuits = [illuminate(compile_stack(layer_design(stack, {"device.series_ohm_cm2": r})), light)
+                for r in (0.0, 0.5)]
+    assert structure_key(circuits[0]) != structure_key(circuits[1])
+    with pytest.raises(ValueError, match="different structures"):
+        join_circuits(circuits)
