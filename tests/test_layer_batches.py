@@ -121,3 +121,49 @@ def test_circuits_of_different_structures_are_not_joined():
     assert structure_key(circuits[0]) != structure_key(circuits[1])
     with pytest.raises(ValueError, match="different structures"):
         join_circuits(circuits)
+
+
+def test_entry_memo_gives_a_fresh_evaluation_bit_for_bit():
+    """numerics/memo.py: entries whose input is unchanged are taken from the last call, the rest
+    evaluated; the answer equals scipy.special.expn evaluated afresh (==), and only changed
+    entries reach the function."""
+    from scipy.special import expn
+
+    from siltandem.numerics.memo import EntryMemo
+
+    seen = []
+
+    def counted(x):
+        seen.append(np.size(x))
+        return 2.0 * expn(3, x)
+
+    memo = EntryMemo(counted)
+    rng = np.random.default_rng(19)
+    x = rng.uniform(0.0, 30.0, (4, 50))
+    np.testing.assert_array_equal(memo(x, "a"), 2.0 * expn(3, x))
+    y = x.copy()
+    y[1, 7:12] *= 1.5
+    y[3, 0] = np.nan
+    got = memo(y, "a")
+    assert seen == [200, 6]                       # 5 changed entries and the NaN
+    assert np.array_equal(got, 2.0 * expn(3, y), equal_nan=True)
+    # another slot or shape is remembered apart
+    np.testing.assert_array_equal(memo(x[:2], "a"), 2.0 * expn(3, x[:2]))
+    assert seen[-1] == 100
+
+
+def test_remembered_transmittance_equals_the_law():
+    """The Lambertian channel's remembered T (laws/thinfilm.py) against T = 2 E3 itself
+    (scipy.special.expn; M. A. Green, Prog. Photovolt. 10 (2002) 235, from memory), bit for bit,
+    for a sequence of depths that changes part of its entries."""
+    from scipy.special import expn
+
+    from siltandem.laws import thinfilm
+
+    rng = np.random.default_rng(7)
+    depth = rng.uniform(0.0, 50.0, (3, 40))
+    for step in range(3):
+        depth[0, step::3] += 1.0
+        np.testing.assert_array_equal(thinfilm._remembered_transmittance(depth, "test"),
+                                      2.0 * expn(3, depth))
+        np.testing.assert_array_equal(thinfilm.lambertian_transmittance(depth), 2.0 * expn(3, depth))
