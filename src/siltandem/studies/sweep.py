@@ -307,10 +307,11 @@ def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperatur
     conditions = replace(conditions, **changes)
     light = study_light(stack, spectrum=spectrum, suns=conditions.suns, light=light)
     flat = {c: np.asarray(v).reshape(-1) for c, v in columns.items()}
-    groups = {}
+    groups, reuse = {}, {}          # reuse: parts equal between designs, built once
     for k in range(size):
         design = layer_design(stack, {c: v[k] if v.size > 1 else v[0] for c, v in flat.items()})
-        circuit = illuminate(compile_stack(replace(design, conditions=conditions)), light)
+        circuit = illuminate(compile_stack(replace(design, conditions=conditions), reuse), light,
+                             reuse)
         groups.setdefault(structure_key(circuit), []).append((k, circuit))
     out = {}
     for members in groups.values():
