@@ -167,3 +167,32 @@ def test_remembered_transmittance_equals_the_law():
         np.testing.assert_array_equal(thinfilm._remembered_transmittance(depth, "test"),
                                       2.0 * expn(3, depth))
         np.testing.assert_array_equal(thinfilm.lambertian_transmittance(depth), 2.0 * expn(3, depth))
+
+
+def test_layer_map_rows_equal_their_designs_alone():
+    """`siltandem.design_map` on layer keys (the study path: chunks, batches of one structure):
+    every row, bit for bit, the design solved alone."""
+    from siltandem import design_map, parse_vary
+
+    stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
+    first = parse_vary("top base.thickness_nm=900:2100:3", stack)
+    second = parse_vary("device.series_ohm_cm2=0:0.6:2", stack)
+    table = design_map(stack, first, second, progress=False)
+    columns = {c: table[c].to_numpy() for c in (first.column, second.column)}
+    alone = one_by_one(stack, columns)
+    batched = {key: table[key].to_numpy() for key in alone}
+    assert_same_bits(batched, alone)
+
+
+def test_photocurrents_with_reuse_equal_a_fresh_compile():
+    """The layer-key match's root search keeps one reuse dict between its optics calls
+    (studies/matching.py): each call gives, bit for bit, the photocurrents of a fresh compile."""
+    from siltandem.studies.sweep import photocurrents_at
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    reuse = {}
+    for value in (500.0, 731.25, 500.0, 1400.0):
+        kept = photocurrents_at(stack, "top base.thickness_nm", value, reuse=reuse)
+        fresh = photocurrents_at(stack, "top base.thickness_nm", value)
+        assert kept == fresh
+    assert any(key[0] == "isotype" for key in reuse)      # something was reused

@@ -464,8 +464,11 @@ def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None
     return out
 
 
-def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperature_K=None):
-    """Every subcell's photocurrent [mA/cm2] at one value of one varied key (optics only)."""
+def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperature_K=None,
+                     reuse=None):
+    """Every subcell's photocurrent [mA/cm2] at one value of one varied key (optics only).
+    ``reuse``: a dict kept between the calls of one root search (compile_stack, illuminate):
+    what does not change with the key is built once."""
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
@@ -475,5 +478,5 @@ def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperat
         varied = replace(layer_design(stack, {column: value}), conditions=conditions)
     else:
         varied = replace(with_values(stack, {column: np.array([value])}), conditions=conditions)
-    circuit = illuminate(compile_stack(varied), light)
+    circuit = illuminate(compile_stack(varied, reuse), light, reuse)
     return {c.name: float(units.ma_cm2(c.photocurrent_A_m2[0, 0])) for c in circuit.subcells}
