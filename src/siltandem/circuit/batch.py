@@ -99,12 +99,13 @@ def circuit_rows(circuit):
     return rows
 
 
-def join_circuits(circuits):
+def join_circuits(circuits, *, key=None):
     """Circuits of one structure (:func:`structure_key`) as one batched circuit, their designs
-    in turn. The optics record and the layer model are per design: the joined circuit has none."""
+    in turn. The optics record and the layer model are per design: the joined circuit has none.
+    ``key``: the structure key every circuit was grouped by (then not computed again)."""
     if len(circuits) == 1:
         return circuits[0]
-    keys = {structure_key(c) for c in circuits}
+    keys = {key} if key is not None else {structure_key(c) for c in circuits}
     if len(keys) != 1:
         raise ValueError("circuits of different structures cannot be joined into one batch")
     sizes = [circuit_rows(c) for c in circuits]

@@ -312,11 +312,15 @@ def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperatur
         design = layer_design(stack, {c: v[k] if v.size > 1 else v[0] for c, v in flat.items()})
         circuit = illuminate(compile_stack(replace(design, conditions=conditions), reuse), light,
                              reuse)
+        # the solve needs the elements only: the photon budget (arrays over the spectrum) and the
+        # layer model are let go, so a chunk of thousands of designs stays small in memory
+        circuit = replace(circuit, optics={}, model=None)
         groups.setdefault(structure_key(circuit), []).append((k, circuit))
     out = {}
-    for members in groups.values():
+    for structure, members in groups.items():
         rows = np.array([k for k, _ in members])
-        found = circuit_results(join_circuits([c for _, c in members]), len(members), light)
+        found = circuit_results(join_circuits([c for _, c in members], key=structure),
+                                len(members), light)
         for key, values in found.items():
             if key not in out:
                 values = np.asarray(values)
