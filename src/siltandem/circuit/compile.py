@@ -4,7 +4,9 @@ from siltandem.circuit.from_elements import compile_element_stack
 from siltandem.circuit.from_layers import compile_layer_stack
 
 
-def compile_stack(stack):
+def compile_stack(stack, reuse=None):
     """Stack -> Circuit (no light yet): the element laws bound to their file values, wired into
-    the networkx graph of the stack's strings."""
-    return compile_layer_stack(stack) if stack.layers else compile_element_stack(stack)
+    the networkx graph of the stack's strings. ``reuse``: a dict that a study of many layer
+    designs passes to every compile, so that parts equal between designs are built once
+    (compile_layer_stack)."""
+    return compile_layer_stack(stack, reuse) if stack.layers else compile_element_stack(stack)

@@ -296,7 +296,7 @@ def _tunnel(index, layers, materials, temperature_K, file):
                      "layers": [upper.name, lower.name]}
 
 
-def _isotype(index, layers, materials, polarity, temperature_K, file):
+def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None):
     from siltandem.circuit.isotype import isotype_from_materials
     from siltandem.stack.load import ElementSpec
 
@@ -314,7 +314,13 @@ def _isotype(index, layers, materials, polarity, temperature_K, file):
     if upper.transport is not None:
         values["transport"] = upper.transport
     spec = ElementSpec(upper.index, "isotype", f"interface {upper.name} / {lower.name}", 1, values)
-    return isotype_from_materials(spec, temperature_K, file)
+    if reuse is None:
+        return isotype_from_materials(spec, temperature_K, file)
+    # the interface is a pure function of its two layers' keys: built once per study
+    key = ("isotype", repr(spec), float(temperature_K), str(file))
+    if key not in reuse:
+        reuse[key] = isotype_from_materials(spec, temperature_K, file)
+    return reuse[key]
 
 
 def _cell_name(cell, layers, used):
@@ -346,8 +352,10 @@ def _check_measured_j0(layers, structure, file):
                                  "rear) of a subcell, or remove it")
 
 
-def compile_layer_stack(stack):
-    """Layer stack -> Circuit with a LayerModel for the optics stage."""
+def compile_layer_stack(stack, reuse=None):
+    """Layer stack -> Circuit with a LayerModel for the optics stage. ``reuse``: a dict kept
+    between the designs of one study; an isotype interface whose layers' keys are unchanged is
+    taken from it (the same element, built once)."""
     file = stack.source
     temperature = stack.conditions.temperature_K
     low, high = TEMPERATURE_RANGE_K
@@ -384,7 +392,7 @@ def compile_layer_stack(stack):
             details["tunnels"].append(extra)
         else:
             elements.append(_isotype(info["upper"], layers, materials, structure.polarity,
-                                     temperature, file))
+                                     temperature, file, reuse))
             i = info["upper"]
             details["interfaces"].append({"name": elements[-1].name,
                                           "layers": [layers[i].name, layers[i + 1].name]})

@@ -41,6 +41,7 @@ import numpy as np
 from scipy.special import expn
 
 from siltandem.constants import ELEMENTARY_CHARGE_C
+from siltandem.numerics.memo import EntryMemo
 
 __all__ = [
     "ThinFilmInputError",
@@ -603,12 +604,27 @@ def _specular_passes(entering, alphas, thicknesses, r_back, r_inside, shape, ref
     return budget, single_pass * down
 
 
-def _cone_complement(x, mu_c):
+def _cone_complement(x, mu_c, transmittance=lambertian_transmittance, t_x=None):
     """integral over mu_c < mu < 1 of 2 mu exp(-x/mu) d mu = T(x) - mu_c^2 T(x / mu_c): the part of a
-    Lambertian flux inside the escape cone that crosses optical depth x."""
+    Lambertian flux inside the escape cone that crosses optical depth x. ``transmittance(x, part)``
+    may be a remembered T (`_remembered_transmittance`); ``t_x`` T(x) when known."""
     with np.errstate(divide="ignore", invalid="ignore"):
         scaled = np.where(mu_c > 0, x / np.where(mu_c > 0, mu_c, 1.0), np.inf)
-    return lambertian_transmittance(x) - mu_c ** 2 * lambertian_transmittance(scaled)
+    if transmittance is lambertian_transmittance:
+        return lambertian_transmittance(x) - mu_c ** 2 * lambertian_transmittance(scaled)
+    t_x = transmittance(x, "cone x") if t_x is None else t_x
+    return t_x - mu_c ** 2 * transmittance(scaled, "cone x/mu")
+
+
+#: T = 2 E3 remembered entry by entry between calls (numerics/memo.py): the designs of a layer
+#: study share most optical depths bit for bit, and E3 dominates the Lambertian channel's cost
+_TRANSMITTANCE_MEMO = EntryMemo(lambda tau: 2.0 * expn(3, tau))
+
+
+def _remembered_transmittance(optical_depth, part):
+    """`lambertian_transmittance`, the same numbers bit for bit, remembered per ``part`` (a call
+    site) so that only the entries whose depth changed since the last call are evaluated."""
+    return _TRANSMITTANCE_MEMO(_check_nonnegative_or_inf("optical_depth", optical_depth), part)
 
 
 def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_inside, ratio, shape, *,
@@ -620,23 +636,32 @@ def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_in
     bottoms = np.cumsum(depth, axis=0)                                       # z_j
     total = bottoms[-1] if alphas else np.zeros(shape)                       # Z
     tops = np.concatenate([np.zeros((1,) + shape), bottoms[:-1]])[:len(alphas)]  # z_(j-1), same numbers
-    transmittance = lambertian_transmittance
-    through = transmittance(total)
+    transmittance = _remembered_transmittance
+    # tops are the bottoms one layer up (the same numbers), and total - 0 = total: T of each
+    # distinct depth is evaluated once
+    t_bottoms = transmittance(bottoms, "bottoms")
+    t_tops = np.concatenate([transmittance(tops[:1], "top"), t_bottoms[:-1]])[:len(alphas)]
+    through = t_bottoms[-1] if alphas else transmittance(total, "total")
     escape_share = np.minimum(1.0, ratio ** 2)
     mu_c = np.sqrt(1.0 - escape_share)
     escape = (1.0 - r_inside) * escape_share                                 # e
-    down_once = transmittance(tops) - transmittance(bottoms)                 # per Lambertian D
-    up_once = transmittance(np.maximum(total - bottoms, 0.0)) - transmittance(total - tops)
+    down_once = t_tops - t_bottoms                                           # per Lambertian D
+    t_rising = transmittance(np.maximum(total - bottoms, 0.0), "total - bottoms")
+    up_once = t_rising - (np.concatenate([through[None], t_rising[:-1]]) if alphas else t_rising)
     if flat_front:                       # source at the back; angles kept up to the front and down
-        def returning(x):                # G(x)
-            return transmittance(x) - (1.0 - r_inside) * _cone_complement(x, mu_c)
-        gain = r_back * returning(2.0 * total)
+        def returning(x, part, t_x=None):                # G(x)
+            t_x = transmittance(x, part) if t_x is None else t_x
+            return t_x - (1.0 - r_inside) * _cone_complement(x, mu_c, lambda y, what: transmittance(
+                y, f"{part}: {what}"), t_x=t_x)
+        g_twice = returning(2.0 * total, "2 total")
+        gain = r_back * g_twice
         source = r_back * reaching_back
     elif scattering_back:                # both randomise: Green's double-sided case
         gain = r_back * (1.0 - escape) * through * through
         source = entering
     else:                                # textured front, mirror behind
-        gain = (1.0 - escape) * r_back * transmittance(2.0 * total)
+        t_twice = transmittance(2.0 * total, "2 total")
+        gain = (1.0 - escape) * r_back * t_twice
         source = entering
     loss = np.broadcast_to(1.0 - gain, shape)
     trapped = ~(loss > 0)
@@ -647,19 +672,23 @@ def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_in
     with np.errstate(divide="ignore", invalid="ignore"):
         flux = np.where(trapped, np.nan, source / np.where(trapped, 1.0, loss))
     if flat_front:                       # flux = U, leaving the back upwards
-        down_after = returning(total + tops) - returning(total + bottoms)
+        g_bottoms = returning(total + bottoms, "total + bottoms")
+        g_total = returning(total, "total", t_x=through)
+        g_tops = np.concatenate([g_total[None], g_bottoms[:-1]]) if alphas else g_bottoms
+        down_after = g_tops - g_bottoms
         absorbed = flux * (up_once + down_after)
-        escaped = flux * (through - returning(total))
-        transmitted = (1.0 - r_back) * (reaching_back + flux * returning(2.0 * total))
+        escaped = flux * (through - g_total)
+        transmitted = (1.0 - r_back) * (reaching_back + flux * g_twice)
     elif scattering_back:                # flux = D, entering the top downwards
         up = r_back * through * flux
         absorbed = flux * down_once + up * up_once
         escaped = escape * through * up
         transmitted = (1.0 - r_back) * through * flux
     else:
-        up_after = transmittance(np.maximum(2.0 * total - bottoms, 0.0)) - transmittance(2.0 * total - tops)
+        up_after = (transmittance(np.maximum(2.0 * total - bottoms, 0.0), "2 total - bottoms")
+                    - transmittance(2.0 * total - tops, "2 total - tops"))
         absorbed = flux * (down_once + r_back * up_after)
-        escaped = escape * r_back * transmittance(2.0 * total) * flux
+        escaped = escape * r_back * t_twice * flux
         transmitted = (1.0 - r_back) * through * flux
     return absorbed, escaped, transmitted
 

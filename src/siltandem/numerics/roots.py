@@ -6,14 +6,16 @@ active, which needs every parameter passed through ``args``. The series solver e
 element chains whose parameters live in dataclasses, so it uses this whole-array variant: the
 Illinois modification of regula falsi (M. Dowell, P. Jarratt, BIT 11 (1971) 168), guarded by
 bisection, always on the full array; a stale end's value is halved once more each further time
-in a row it is kept. A single root (arrays of one entry) goes to ``scipy.optimize.brentq``.
+in a row it is kept. A caller that always solves one design at a time (the piecewise trace past a
+tunnel junction's peak) may ask for ``scipy.optimize.brentq`` instead (``one_by_one``); batched
+callers never do, so that a design's root is the same whether its batch holds one design or many.
 """
 import numpy as np
 from scipy.optimize import brentq
 
 
 def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200,
-                   end_values=None):
+                   end_values=None, one_by_one=False):
     """Roots of an elementwise function inside brackets, on whole arrays.
 
     Parameters
@@ -26,6 +28,11 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
         Absolute and relative tolerance on the root.
     end_values : (ndarray, ndarray), optional
         ``function(lower), function(upper)`` when the caller has them already.
+    one_by_one : bool
+        The caller solves a single design, always (never a batch that may hold one): a root of
+        one entry then goes to Brent's method. False (batched callers): every entry, even a
+        batch of one, by the whole-array iteration, whose entries stop on their own, so a
+        design's root does not depend on the other designs of its batch.
 
     Returns
     -------
@@ -36,7 +43,7 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
     b = np.array(upper, dtype=float, copy=True)
     a, b = np.broadcast_arrays(a, b)
     a, b = a.copy(), b.copy()
-    if a.size == 1:
+    if one_by_one and a.size == 1:
         return _one_root(function, a, b, xtol, rtol, max_iterations, end_values)
     if end_values is None:
         fa = np.asarray(function(a), dtype=float)

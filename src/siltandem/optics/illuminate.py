@@ -12,7 +12,7 @@ from siltandem.errors import StackError
 from siltandem.laws.optics import cumulative_below, step_absorber_photocurrents
 
 
-def illuminate(circuit, spectrum):
+def illuminate(circuit, spectrum, reuse=None):
     """Return ``circuit`` with photocurrents set and ``circuit.optics`` filled.
 
     Parameters
@@ -20,11 +20,14 @@ def illuminate(circuit, spectrum):
     circuit : Circuit
     spectrum : Spectrum
         Already scaled to the concentration of the run.
+    reuse : dict, optional
+        Kept between the designs of one layer study (optics.layers.layer_light): a layer
+        material's absorption on the spectrum's grid is computed once.
     """
     if circuit.model is not None:
         from siltandem.optics.layers import illuminate_layers
 
-        return illuminate_layers(circuit, spectrum)
+        return illuminate_layers(circuit, spectrum, reuse)
     subcells = circuit.subcells
     wavelength, flux = spectrum.wavelength_nm, spectrum.photon_flux
     currents = step_absorber_photocurrents([s.gap_eV for s in subcells],

@@ -43,7 +43,29 @@ def _share(part, total):
         return np.where(total > 0, part / np.where(total > 0, total, 1.0), 0.0)
 
 
-def layer_light(model, wavelength, flux):
+#: entries a study's ``reuse`` dict keeps (the oldest goes first)
+REUSE_ENTRIES = 256
+
+
+def _band_to_band(material, wavelength, temperature, reuse):
+    """A material's absorption coefficient on the wavelength grid [m^-1]; with ``reuse`` (a dict
+    kept between the designs of one study) computed once per material object, grid and
+    temperature (the objects are held in the entry, so their ids stay theirs)."""
+    if reuse is None:
+        return np.asarray(material.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
+    key = ("band to band", id(material), id(wavelength), float(temperature))
+    found = reuse.get(key)
+    if found is None or found[0] is not material or found[1] is not wavelength:
+        alpha = np.array(material.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
+        alpha.flags.writeable = False
+        found = (material, wavelength, alpha)
+        if len(reuse) >= REUSE_ENTRIES:             # a study that varies gaps: keep it bounded
+            reuse.pop(next(iter(reuse)))
+        reuse[key] = found
+    return found[2]
+
+
+def layer_light(model, wavelength, flux, reuse=None):
     """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M).
 
     The grid shades ``model.shading_fraction`` f of the front: the light entering the stack is
@@ -52,8 +74,7 @@ def layer_light(model, wavelength, flux):
     temperature = model.temperature_K
     open_area = 1.0 - model.shading_fraction
     flux = flux * open_area
-    band_to_band = [np.asarray(m.absorption_per_m(wavelength, temperature_K=temperature), dtype=float)
-                    for m in model.materials]
+    band_to_band = [_band_to_band(m, wavelength, temperature, reuse) for m in model.materials]
     free = free_carrier_alphas(model, wavelength)
     alphas = [a + f for a, f in zip(band_to_band, free)]
     free_share = [_share(f, a) for f, a in zip(free, alphas)]
@@ -119,13 +140,13 @@ def _collected(cell, band_to_band, free, free_share, budget, scattered):
         uniform_absorbed_m2_s=uniform, where=cell.name)
 
 
-def illuminate_layers(circuit, spectrum):
+def illuminate_layers(circuit, spectrum, reuse=None):
     """Light through the layers; photocurrents set, the photon budget in ``circuit.optics``."""
     model = circuit.model
     wavelength = spectrum.wavelength_nm
     flux = spectrum.photon_flux
     coatings = model.coatings
-    light = layer_light(model, wavelength, flux)
+    light = layer_light(model, wavelength, flux, reuse)
     reflectance, coating_absorbed, budget = (light.reflectance, light.coating_absorbed,
                                              light.budget)
 

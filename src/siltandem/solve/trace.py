@@ -203,7 +203,8 @@ def _mpp_by_brent(string, state, t_a, t_b, g_a, g_b):
 
     # P is flat at its maximum: 1e-11 V in t moves P by about 1e-22 relative
     root = bracketed_root(power_slope, np.full((1, 1), t_a), np.full((1, 1), t_b),
-                          end_values=(np.full((1, 1), g_a), np.full((1, 1), g_b)), xtol=1e-11)
+                          end_values=(np.full((1, 1), g_a), np.full((1, 1), g_b)), xtol=1e-11,
+                          one_by_one=True)
     if not np.all(np.isfinite(root)):
         return np.full((1, 1), t_a), None
     return root, string.evaluate(root, branches=state, slopes=True)

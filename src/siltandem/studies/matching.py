@@ -48,15 +48,17 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
              if c.endswith(".photocurrent_mA_cm2")]
     x = table[variation.column].to_numpy()
     matches = []
+    reuse = {}          # a layer stack's parts that the key leaves alone, built once
     for a, b in itertools.combinations(names, 2):
         difference = (table[f"{a}.photocurrent_mA_cm2"] - table[f"{b}.photocurrent_mA_cm2"])
         d = difference.to_numpy()
         for k in np.flatnonzero(np.sign(d[:-1]) * np.sign(d[1:]) < 0):
             def gap(value, a=a, b=b):
-                currents = photocurrents_at(stack, variation.column, value, **options)
+                currents = photocurrents_at(stack, variation.column, value, **options,
+                                            reuse=reuse)
                 return currents[a] - currents[b]
             value = optimize.brentq(gap, x[k], x[k + 1], xtol=1e-14, rtol=1e-15)
-            currents = photocurrents_at(stack, variation.column, value, **options)
+            currents = photocurrents_at(stack, variation.column, value, **options, reuse=reuse)
             solved = solve_designs(stack, {variation.column: np.array([value])}, **options)
             matches.append({"subcells": [a, b], "value": value,
                             "photocurrent_mA_cm2": currents[a],

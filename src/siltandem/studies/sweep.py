@@ -28,8 +28,9 @@ from siltandem.text import excerpt
 RESULT_COLUMNS = ["efficiency_pct", "voc_V", "jsc_mA_cm2", "fill_factor_pct", "mpp_V", "mpp_mA_cm2"]
 #: isotype keys a study may vary (the explicit form of the law)
 ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
-#: layer keys a study may vary (a layer stack's designs are solved one by one: each changes the
-#: optics and the layer physics); their ranges are the file's (layers.check_layer_value)
+#: layer keys a study may vary (a layer stack's designs are compiled and illuminated one by one:
+#: each changes the optics and the layer physics; then solved in batches of one structure);
+#: their ranges are the file's (layers.check_layer_value)
 LAYER_VARIABLE = ("thickness_nm", "doping_cm3", "composition", "diffusion_length_um",
                   "lifetime_ns", "srv_cm_s", "gap_eV", "j0_fA_cm2")
 #: the name a layer stack's varied [device] keys go by (``--vary device.series_ohm_cm2=0:2:5``;
@@ -260,7 +261,7 @@ def _check_layer_designs(stack, variations, *, grid=True):
     for index in range(len(table)):
         values = {column: array[index] for column, array in columns.items()}
         try:
-            recognise(_layer_design(stack, values).layers, tunnel_doping_cm3=threshold,
+            recognise(layer_design(stack, values).layers, tunnel_doping_cm3=threshold,
                       file=stack.source)
         except StackError as exc:
             design = ", ".join(f"{c} = {float(x):g}" for c, x in values.items())
@@ -268,7 +269,7 @@ def _check_layer_designs(stack, variations, *, grid=True):
                              + (f", {exc.where}" if exc.where else ""), fix=exc.fix) from None
 
 
-def _layer_design(stack, values):
+def layer_design(stack, values):
     """The layer stack with some layer keys (and ``device.<key>``) replaced (one design)."""
     names = {layer.name for layer in stack.layers}
     device = {column.rpartition(".")[2]: float(value) for column, value in values.items()
@@ -291,16 +292,42 @@ def _layer_design(stack, values):
     return replace(stack, layers=tuple(changed))
 
 
-def _solve_layer_designs(stack, columns, **options):
-    """Layer stacks: every design compiled and solved on its own (its optics differ)."""
+def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None,
+                         light=None):
+    """Layer stacks: every design compiled and illuminated on its own (its optics and layer
+    physics differ), then the designs of one recognised structure (circuit/batch.py
+    structure_key: the same elements in the same order, of the same kinds and settings) joined
+    into one batched circuit and solved at once. A design's row equals its solve alone."""
+    from siltandem.circuit.batch import join_circuits, structure_key
+
     size = max(np.size(v) for v in columns.values())
-    rows = []
+    conditions = stack.conditions
+    changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
+                                 ("temperature_K", temperature_K)) if v is not None}
+    conditions = replace(conditions, **changes)
+    light = study_light(stack, spectrum=spectrum, suns=conditions.suns, light=light)
+    flat = {c: np.asarray(v).reshape(-1) for c, v in columns.items()}
+    groups, reuse = {}, {}          # reuse: parts equal between designs, built once
     for k in range(size):
-        design = _layer_design(stack, {c: np.asarray(v).reshape(-1)[k] for c, v in
-                                       columns.items()})
-        rows.append(solve_designs(design, {}, **options))
-    keys = rows[0].keys()
-    return {key: np.concatenate([np.asarray(r[key]).reshape(-1) for r in rows]) for key in keys}
+        design = layer_design(stack, {c: v[k] if v.size > 1 else v[0] for c, v in flat.items()})
+        circuit = illuminate(compile_stack(replace(design, conditions=conditions), reuse), light,
+                             reuse)
+        # the solve needs the elements only: the photon budget (arrays over the spectrum) and the
+        # layer model are let go, so a chunk of thousands of designs stays small in memory
+        circuit = replace(circuit, optics={}, model=None)
+        groups.setdefault(structure_key(circuit), []).append((k, circuit))
+    out = {}
+    for structure, members in groups.items():
+        rows = np.array([k for k, _ in members])
+        found = circuit_results(join_circuits([c for _, c in members], key=structure),
+                                len(members), light)
+        for key, values in found.items():
+            if key not in out:
+                values = np.asarray(values)
+                out[key] = (np.full(size, None, dtype=object) if values.dtype == object
+                            else np.full(size, np.nan, dtype=values.dtype))
+            out[key][rows] = values
+    return out
 
 
 def design_table(variations, *, grid=True):
@@ -352,6 +379,13 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     circuit = illuminate(compile_stack(replace(with_values(stack, columns),
                                                conditions=conditions)), light)
     size = max([1] + [np.size(v) for v in columns.values()])
+    return circuit_results(circuit, size, light)
+
+
+def circuit_results(circuit, size, light):
+    """The study's result columns of an illuminated circuit of ``size`` designs (one batched
+    solve): a dict of (size,) arrays, as :func:`solve_designs` returns."""
+    conditions = circuit.conditions
     out = {}
     total = np.zeros(size)
     with warnings.catch_warnings():
@@ -434,16 +468,19 @@ def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None
     return out
 
 
-def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperature_K=None):
-    """Every subcell's photocurrent [mA/cm2] at one value of one varied key (optics only)."""
+def photocurrents_at(stack, column, value, *, spectrum=None, suns=None, temperature_K=None,
+                     reuse=None):
+    """Every subcell's photocurrent [mA/cm2] at one value of one varied key (optics only).
+    ``reuse``: a dict kept between the calls of one root search (compile_stack, illuminate):
+    what does not change with the key is built once."""
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
     conditions = replace(conditions, **changes)
     light = study_light(stack, spectrum=spectrum, suns=conditions.suns)
     if stack.layers:
-        varied = replace(_layer_design(stack, {column: value}), conditions=conditions)
+        varied = replace(layer_design(stack, {column: value}), conditions=conditions)
     else:
         varied = replace(with_values(stack, {column: np.array([value])}), conditions=conditions)
-    circuit = illuminate(compile_stack(varied), light)
+    circuit = illuminate(compile_stack(varied, reuse), light, reuse)
     return {c.name: float(units.ma_cm2(c.photocurrent_A_m2[0, 0])) for c in circuit.subcells}
