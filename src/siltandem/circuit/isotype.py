@@ -91,14 +91,15 @@ def isotype_from_materials(spec, temperature_K, file):
     from siltandem.laws.carriers import fermi_degeneracy_eV
 
     info = []
-    for m, doping_key, band_dos in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos):
+    for m, doping_key, band_dos, layer in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos,
+                                              ("upper", "lower")):
         doping = v[doping_key] * units.PER_CM3_TO_PER_M3
         # Fermi-Dirac, as in the alignment: band edge minus Fermi level, < 0 when degenerate
         depth = -float(fermi_degeneracy_eV(doping, band_states_m3=band_dos,
                                            temperature_K=temperature_K))
         info.append(dict(material=m.name, doping_m3=doping, permittivity=m.relative_permittivity,
                          gap_eV=float(m.gap_eV(temperature_K)), fermi_depth_eV=depth,
-                         degenerate=depth < 0.0))
+                         degenerate=depth < 0.0, layer=layer))
     sides = {"accumulation": info[0 if upper_accumulates else 1],
              "depletion": info[1 if upper_accumulates else 0]}
     if "richardson_A_cm2_K2" in v:
