@@ -140,3 +140,30 @@ def test_reduced_sheet_charge_sign_and_scale():
     assert np.isclose(s, expected, rtol=1e-14)
     assert np.isclose(ic.reduced_sheet_charge(1e12, carrier="hole", depletion_doping_m3=1e23,
                                               depletion_permittivity=11.7, temperature_K=T), -expected)
+
+
+def test_demo_in_silicon_drop_with_fermi_dirac_sides():
+    """The p-GaP/p-Si interface of stacks/demo_placements.toml, placement "in silicon" (Si at
+    1e20 cm^-3 degenerate, 59 meV), at its MPP current 17.462 mA/cm^2 (measured with `run`):
+    the Boltzmann law drops 323.3 mV (README), Fermi-Dirac charge and occupancy 316.4 mV, the
+    figure issue 18 reports for Fermi-Dirac statistics (its own independent computation, no
+    published source)."""
+    from pathlib import Path
+
+    from siltandem import load_stack
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.stack.placements import with_placement
+
+    stack = load_stack(Path(__file__).resolve().parents[1] / "stacks" / "demo_placements.toml")
+    chosen = next(p for p in stack.extra["placements"] if p.name == "in silicon")
+    circuit = compile_stack(with_placement(stack, chosen))
+    e = circuit.element("interface buffer / junction p")
+    law = dict(barrier_eV=e.barrier_eV, built_in_V=e.built_in_V, alpha=e.alpha,
+               richardson_A_m2_K2=e.richardson_A_m2_K2, temperature_K=298.15, depletion="exact")
+    current = float(e.direction[0, 0]) * 174.6237
+    boltzmann = -1000 * float(e.direction[0, 0]) * float(th.isotype_voltage(current, **law)[0, 0])
+    fermi = -1000 * float(e.direction[0, 0]) * float(th.isotype_voltage(
+        current, accumulation_fermi_eV=-e.sides["accumulation"]["fermi_depth_eV"],
+        depletion_fermi_eV=-e.sides["depletion"]["fermi_depth_eV"], **law)[0, 0])
+    assert abs(boltzmann) == pytest.approx(323.3, abs=0.05)
+    assert abs(fermi) == pytest.approx(316.4, abs=0.05)
