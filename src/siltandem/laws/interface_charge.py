@@ -141,14 +141,13 @@ def charge_integral(x, eta=None):
         t2 = t * t
         with np.errstate(over="ignore"):
             shift = expit(z + x) * expit(-z) * (-np.expm1(-x))        # sigma(z + x) - sigma(z)
-        return np.stack([t2 * _phi_inner(z, x), t2 * shift, t2 * expit(z), expit(z)])
+        return np.stack([t2 * _phi_inner(z, x), t2 * shift])
 
-    value = _quad_rows(rows, [eta, eta + x])
-    # the common factor 2/Gamma(j + 1) is 2/Gamma(3/2) for the first three rows (F_1/2 sums) and
-    # 2/Gamma(1/2) for F_-1/2
-    half = value[2]
-    return (value[0] / half, value[1] / half,
-            value[3] * gamma(1.5) / (gamma(0.5) * half))
+    value = (2.0 / gamma(1.5)) * _quad_rows(rows, [eta, eta + x])
+    # F_1/2(eta) and F_-1/2(eta) once per distinct eta (one per interface side in the solver)
+    levels, index = np.unique(eta, return_inverse=True)
+    half = fermi_integral(0.5, levels)[index]
+    return value[0] / half, value[1] / half, fermi_integral(-0.5, levels)[index] / half
 
 
 def reduced_sheet_charge(sheet_charge_cm2, *, carrier, depletion_doping_m3, depletion_permittivity,
