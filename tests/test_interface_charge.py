@@ -167,3 +167,20 @@ def test_demo_in_silicon_drop_with_fermi_dirac_sides():
         depletion_fermi_eV=-e.sides["depletion"]["fermi_depth_eV"], **law)[0, 0])
     assert abs(boltzmann) == pytest.approx(323.3, abs=0.05)
     assert abs(fermi) == pytest.approx(316.4, abs=0.05)
+
+
+def test_element_with_fermi_levels_runs_the_general_law():
+    """An IsotypeInterface built (from Python) with Fermi levels is marked general_law and gives the
+    law's own voltage (the compiled path must leave it to numpy)."""
+    from siltandem.circuit.elements import IsotypeInterface, batch
+
+    plain = IsotypeInterface("i", barrier_eV=batch(0.5), built_in_V=batch(0.3), alpha=batch(0.3),
+                             richardson_A_m2_K2=batch(1.2e6))
+    fermi = IsotypeInterface("i", barrier_eV=batch(0.5), built_in_V=batch(0.3), alpha=batch(0.3),
+                             richardson_A_m2_K2=batch(1.2e6), accumulation_fermi_eV=batch(3 * KT))
+    assert fermi.general_law and not plain.general_law
+    current = np.array([[10.0, 100.0]])
+    volts, _ = fermi.voltage(current, T)
+    law = th.isotype_voltage(current, accumulation_fermi_eV=3 * KT, **dict(LAW, depletion="exact"))
+    assert np.allclose(volts, -law, rtol=1e-12, atol=0)
+    assert not np.allclose(volts, plain.voltage(current, T)[0], rtol=1e-3)
