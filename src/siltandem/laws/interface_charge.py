@@ -206,6 +206,8 @@ def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0):
             break
         lo = np.where(grow_lo, 2.0 * lo, lo)
         hi = np.where(grow_hi, 2.0 * hi, hi)
+    else:                                     # the last widening was not evaluated yet
+        f_lo, f_hi = f(lo)[0], f(hi)[0]
     out[ok] = safeguarded_newton(f, lo, hi, start=np.clip(np.zeros_like(vb_ok), lo, hi),
                                  end_values=(f_lo, f_hi))
     return out
