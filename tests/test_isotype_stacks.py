@@ -157,17 +157,21 @@ def test_band_diagram_edges_follow_the_alignment():
     x, ec = d["x_nm"], d["conduction_eV"]
     # far from the interface each side's band edge sits at its Fermi depth (Fermi-Dirac)
     sides = element.sides
-    assert ec[0] == pytest.approx(sides["accumulation"]["fermi_depth_eV"], abs=1e-9)
-    assert ec[-1] == pytest.approx(sides["depletion"]["fermi_depth_eV"], abs=1e-9)
+    # the upper (sun-side) layer is drawn on the left, whichever side accumulates
+    first, second = (("accumulation", "depletion") if d["accumulation_at_left"]
+                     else ("depletion", "accumulation"))
+    assert ec[0] == pytest.approx(sides[first]["fermi_depth_eV"], abs=1e-9)
+    assert ec[-1] == pytest.approx(sides[second]["fermi_depth_eV"], abs=1e-9)
     # total band bending equals the built-in potential; the step at x = 0 is the offset
-    at_interface = np.flatnonzero(x == 0)      # the last point of side 1, the first of side 2
+    at_interface = np.flatnonzero(x == 0)      # the last point of the left side, the first of the right
     left, right = ec[at_interface[0]], ec[at_interface[1]]
-    assert right - left == pytest.approx(float(element.offset_eV[0, 0]), abs=1e-9)
+    step = float(element.offset_eV[0, 0])      # seen from the accumulation side
+    assert (right - left if d["accumulation_at_left"] else left - right) == pytest.approx(step, abs=1e-9)
     assert d["accumulation_V"] + d["depletion_V"] == pytest.approx(
         float(element.built_in_V[0, 0]), rel=1e-12)
     gaps = d["conduction_eV"] - d["valence_eV"]
-    assert np.allclose(gaps[:at_interface[0] + 1], sides["accumulation"]["gap_eV"], atol=1e-12)
-    assert np.allclose(gaps[at_interface[1]:], sides["depletion"]["gap_eV"], atol=1e-12)
+    assert np.allclose(gaps[:at_interface[0] + 1], sides[first]["gap_eV"], atol=1e-12)
+    assert np.allclose(gaps[at_interface[1]:], sides[second]["gap_eV"], atol=1e-12)
 
 
 # one current per series string: electrons cross the interfaces against it, holes with it

@@ -650,6 +650,19 @@ class IsotypeInterface:
     #: tail (True) or the plain form (False); the compiler takes the tail above Vbi = 3 kT/q
     include_tail: bool = True
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
+    #: Fermi level above the band edge in each side's bulk [eV] when a side is degenerate: the
+    #: law then takes Fermi-Dirac charge and occupancy (laws/interface_charge.py); None: Boltzmann
+    accumulation_fermi_eV: np.ndarray | None = None
+    depletion_fermi_eV: np.ndarray | None = None
+    #: fixed interface charge, reduced (laws/interface_charge.py reduced_sheet_charge); 0: none
+    sheet_charge: np.ndarray = field(default_factory=lambda: batch(0.0))
+
+    @property
+    def general_law(self):
+        """True where the law runs its general form (a Fermi-Dirac side or a sheet charge):
+        a compiled path that has only the Boltzmann law must leave this element to numpy."""
+        return (self.accumulation_fermi_eV is not None or self.depletion_fermi_eV is not None
+                or bool(np.any(self.sheet_charge != 0)))
 
     def _law(self, temperature_K):
         law = dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
@@ -659,6 +672,9 @@ class IsotypeInterface:
                        spike_eV=self.offset_eV)
         else:
             law.update(depletion=self.depletion)
+            if self.general_law:
+                law.update(accumulation_fermi_eV=self.accumulation_fermi_eV,
+                           depletion_fermi_eV=self.depletion_fermi_eV, sheet_charge=self.sheet_charge)
         return law
 
     def _functions(self):

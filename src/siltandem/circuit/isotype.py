@@ -25,12 +25,33 @@ def isotype_element(spec, temperature_K, file=None):
         field_energy = float(field_energy_eV(
             doping_m3=v["depletion_doping_cm3"] * units.PER_CM3_TO_PER_M3,
             relative_permittivity=v["depletion_permittivity"], mass_ratio=v["tunnelling_mass"]))
+    sheet = 0.0
+    if v.get("sheet_charge_cm2", 0.0) != 0.0:
+        sheet = _reduced_sheet(v["sheet_charge_cm2"], v["carrier"], v["depletion_doping_cm3"],
+                               v["depletion_permittivity"], temperature_K, transport, spec, file)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(v["barrier_eV"]), built_in_V=batch(v["built_in_V"]),
         transport=transport, field_energy_eV=batch(field_energy),
         alpha=batch(alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if v["orientation"] == "forward" else -1.0), carrier=v["carrier"],
-        string=spec.string)
+        string=spec.string, sheet_charge=batch(sheet))
+
+
+def _reduced_sheet(sheet_charge_cm2, carrier, depletion_doping_cm3, permittivity, temperature_K,
+                   transport, spec, file):
+    """The fixed interface charge in the law's reduced form (laws/interface_charge.py); the
+    thermionic-field law has no sheet charge yet."""
+    from siltandem.laws.interface_charge import reduced_sheet_charge
+
+    if transport == "thermionic-field":
+        raise StackError("sheet_charge_cm2 works with transport = \"thermionic\" only (the "
+                         "thermionic-field law has no interface charge yet)", file=file,
+                         where=f"{spec.label}, key sheet_charge_cm2",
+                         fix='set transport = "thermionic", or remove sheet_charge_cm2')
+    return float(reduced_sheet_charge(
+        sheet_charge_cm2, carrier=carrier,
+        depletion_doping_m3=depletion_doping_cm3 * units.PER_CM3_TO_PER_M3,
+        depletion_permittivity=permittivity, temperature_K=temperature_K))
 
 
 def isotype_from_materials(spec, temperature_K, file):
@@ -70,14 +91,15 @@ def isotype_from_materials(spec, temperature_K, file):
     from siltandem.laws.carriers import fermi_degeneracy_eV
 
     info = []
-    for m, doping_key, band_dos in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos):
+    for m, doping_key, band_dos, layer in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos,
+                                              ("upper", "lower")):
         doping = v[doping_key] * units.PER_CM3_TO_PER_M3
         # Fermi-Dirac, as in the alignment: band edge minus Fermi level, < 0 when degenerate
         depth = -float(fermi_degeneracy_eV(doping, band_states_m3=band_dos,
                                            temperature_K=temperature_K))
         info.append(dict(material=m.name, doping_m3=doping, permittivity=m.relative_permittivity,
                          gap_eV=float(m.gap_eV(temperature_K)), fermi_depth_eV=depth,
-                         degenerate=depth < 0.0))
+                         degenerate=depth < 0.0, layer=layer))
     sides = {"accumulation": info[0 if upper_accumulates else 1],
              "depletion": info[1 if upper_accumulates else 0]}
     if "richardson_A_cm2_K2" in v:
@@ -90,13 +112,19 @@ def isotype_from_materials(spec, temperature_K, file):
     # below 3 kT/q)
     tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
     transport, field_energy = _transport(v, layers, upper_accumulates, temperature_K)
+    sheet = 0.0
+    if v.get("sheet_charge_cm2", 0.0) != 0.0:
+        depleting = sides["depletion"]
+        sheet = _reduced_sheet(v["sheet_charge_cm2"], v["carrier"],
+                               depleting["doping_m3"] / units.PER_CM3_TO_PER_M3,
+                               depleting["permittivity"], temperature_K, transport, spec, file)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides,
         offset_source=offset_source, include_tail=tail, transport=transport,
-        field_energy_eV=batch(field_energy))
+        field_energy_eV=batch(field_energy), sheet_charge=batch(sheet))
 
 
 def band_offset(upper, lower, carrier, temperature_K, given=None):

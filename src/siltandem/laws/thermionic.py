@@ -402,7 +402,8 @@ def _exact_weight(a_em1, v2, alpha):
 
 
 def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
-                            temperature_K, include_tail=False, with_derivative=False, depletion=None):
+                            temperature_K, include_tail=False, with_derivative=False, depletion=None,
+                            accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0):
     """Thermionic-emission current density across an isotype heterointerface.
 
     Parameters
@@ -431,6 +432,16 @@ def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richard
     depletion : {"exact", "tail", "plain"}, optional
         The depletion side's form (see `voltage_split`); overrides ``include_tail``. "exact" is
         defined up to flat band for every Vbi > 0 and smooth in Vbi, alpha and T.
+    accumulation_fermi_eV, depletion_fermi_eV : array_like, optional
+        Fermi level above the band edge in each side's bulk, ``E_F - E_edge`` in carrier energy
+        [eV] (> 0 degenerate; `siltandem.laws.carriers.fermi_degeneracy_eV`). Given, that side's
+        charge follows Fermi-Dirac statistics and the emission Fermi-Dirac occupancy
+        (laws/interface_charge.py); needs ``depletion="exact"``. Default None: Boltzmann, this
+        module's law unchanged.
+    sheet_charge : array_like, default 0.0
+        Fixed interface charge, reduced: ``sigma_c / sqrt(2 eps2 kT N2)``, ``sigma_c`` > 0 when
+        it attracts the majority carriers (`siltandem.laws.interface_charge.reduced_sheet_charge`);
+        nonzero needs ``depletion="exact"``. 0 (the default) is this module's law unchanged.
 
     Returns
     -------
@@ -458,6 +469,10 @@ def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richard
     .. [4] R. L. Anderson, Solid-State Electron. 5 (1962) 341.
     """
     tail = _depletion_form(include_tail, depletion)
+    general = _general_arguments(tail, accumulation_fermi_eV, depletion_fermi_eV, sheet_charge)
+    if general is not None:
+        return _general_law("current", voltage_V, None, barrier_eV, built_in_V, alpha,
+                            richardson_A_m2_K2, temperature_K, general, with_derivative)
     shape, volt, vbi, alpha, vt, log_p = _prepare(voltage_V, barrier_eV, built_in_V, alpha,
                                                   richardson_A_m2_K2, temperature_K)
     v = volt / vt
@@ -472,7 +487,8 @@ def isotype_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richard
 
 
 def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
-                    temperature_K, include_tail=False, with_derivative=False, depletion=None):
+                    temperature_K, include_tail=False, with_derivative=False, depletion=None,
+                    accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0):
     """Voltage across an isotype interface that carries a given current density (inverse law).
 
     Parameters are those of `isotype_current_density`, with ``current_A_m2`` [A m^-2] first.
@@ -498,6 +514,10 @@ def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A
     .. [1] T. R. Chandrupatla, Adv. Eng. Softw. 28 (1997) 145.
     """
     tail = _depletion_form(include_tail, depletion)
+    general = _general_arguments(tail, accumulation_fermi_eV, depletion_fermi_eV, sheet_charge)
+    if general is not None:
+        return _general_law("voltage", current_A_m2, None, barrier_eV, built_in_V, alpha,
+                            richardson_A_m2_K2, temperature_K, general, with_derivative)
     shape, jt, vbi, alpha, vt, log_p = _prepare(current_A_m2, barrier_eV, built_in_V, alpha,
                                                 richardson_A_m2_K2, temperature_K)
     with np.errstate(over="ignore", under="ignore"):
@@ -538,7 +558,8 @@ def isotype_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A
 
 
 def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
-                        richardson_A_m2_K2, temperature_K, include_tail=False, depletion=None):
+                        richardson_A_m2_K2, temperature_K, include_tail=False, depletion=None,
+                        accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0):
     """The smallest and largest dJ/dV [A m^-2 V^-1] of `isotype_current_density` over every
     voltage between ``v_low_V`` and ``v_high_V`` (arrays, v_low <= v_high, inside the domain).
 
@@ -553,6 +574,10 @@ def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
     used to bound the string's power between two evaluated points (certificate.py).
     """
     tail = _depletion_form(include_tail, depletion)
+    general = _general_arguments(tail, accumulation_fermi_eV, depletion_fermi_eV, sheet_charge)
+    if general is not None:
+        return _general_law("slopes", v_low_V, v_high_V, barrier_eV, built_in_V, alpha,
+                            richardson_A_m2_K2, temperature_K, general, False)
     shape, both, vbi, alpha_f, vt, log_p = _prepare(
         np.stack(np.broadcast_arrays(np.asarray(v_low_V, dtype=float),
                                      np.asarray(v_high_V, dtype=float))),
@@ -596,6 +621,40 @@ def current_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
     out_shape = shape[1:]
     return ((smallest * (1.0 - 1e-12)).reshape(out_shape),
             (largest * (1.0 + 1e-12)).reshape(out_shape))
+
+
+# ---------------------------------------------------------------------------------------------
+# Fermi-Dirac sides and a sheet charge: the general form (laws/interface_charge.py)
+
+def _general_arguments(tail, accumulation_fermi_eV, depletion_fermi_eV, sheet_charge):
+    """None for today's law (no Fermi-Dirac side, no sheet charge), else the extra arguments."""
+    sheet = np.asarray(sheet_charge, dtype=float)
+    if accumulation_fermi_eV is None and depletion_fermi_eV is None and not np.any(sheet != 0):
+        return None
+    if not np.all(np.isfinite(sheet)):
+        raise IsotypeParameterError(
+            "isotype interface: 'sheet_charge' must be finite; give the reduced interface charge "
+            "(see laws/interface_charge.py reduced_sheet_charge)")
+    if tail != "exact":
+        raise IsotypeParameterError(
+            "isotype interface: Fermi-Dirac sides and a sheet charge need the full depletion side; "
+            "pass depletion=\"exact\" (the closed forms have no such variant)")
+    return accumulation_fermi_eV, depletion_fermi_eV, sheet
+
+
+def _general_law(kind, first, second, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                 temperature_K, general, with_derivative):
+    """The law through laws/interface_charge.py: ``kind`` "current", "voltage" or "slopes"."""
+    from siltandem.laws.interface_charge import interface_law
+
+    for name, value in (("alpha", alpha), ("richardson_A_m2_K2", richardson_A_m2_K2),
+                        ("temperature_K", temperature_K), ("built_in_V", built_in_V)):
+        _check_positive(name, value)
+    return interface_law(kind, first, second, barrier_eV=barrier_eV, built_in_V=built_in_V,
+                         alpha=alpha, richardson_A_m2_K2=richardson_A_m2_K2,
+                         temperature_K=temperature_K, accumulation_fermi_eV=general[0],
+                         depletion_fermi_eV=general[1], sheet_charge=general[2],
+                         with_derivative=with_derivative)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -30,7 +30,7 @@ from siltandem.text import excerpt
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
-              "transport"}
+              "transport", "sheet_charge_cm2"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -116,6 +116,8 @@ class Layer:
     j0_fA_cm2: float | None = None
     #: transport over an isotype interface with the layer below (None: "thermionic")
     transport: str | None = None
+    #: fixed charge at this layer's interface with the layer below [elementary charges per cm^2]
+    sheet_charge_cm2: float | None = None
 
     @property
     def label(self):
@@ -355,9 +357,13 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                          where=f"{where}, key transport",
                          fix='transport is "thermionic-field" (the default: emission over the '
                              'spike and tunnelling through it) or "thermionic" (over it only)')
+    sheet = _positive_number(table, "sheet_charge_cm2", file=file, where=where, required=False,
+                             unit="cm-2", low=-1e15, high=1e15, low_open=False,
+                             reason="a fixed interface charge in elementary charges per cm^2; a "
+                                    "full monolayer is below 1e15")
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0, transport)
+                 gap, j0, transport, sheet)
 
 
 def parse_layers(tables, *, file, folder_materials=None):

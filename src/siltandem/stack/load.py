@@ -243,6 +243,13 @@ def _parse_isotype(table, *, file, where):
         values.setdefault("carrier", "electron")
         values.setdefault("orientation", "forward")
         _check_numbers_transport(values, file=file, where=where)
+        if values.get("sheet_charge_cm2", 0.0) != 0.0 and not all(
+                k in values for k in ("depletion_doping_cm3", "depletion_permittivity")):
+            raise StackError("sheet_charge_cm2 needs the depletion side's doping and permittivity "
+                             "(the charge is scaled by them)", file=file,
+                             where=f"{where}, key sheet_charge_cm2",
+                             fix="give the two sides' dopings and permittivities instead of alpha, "
+                                 "or remove sheet_charge_cm2")
         for key in ("carriers_flow", "offset_eV", "upper_composition", "lower_composition"):
             if key in values:
                 raise StackError(f"{key} goes with upper_material/lower_material", file=file,

@@ -113,6 +113,9 @@ ISOTYPE_NUMBERS = {
     "offset_eV": Parameter("offset_eV", "eV", -3.0, 3.0,
                            help="band offset override (step of the carrier's band edge from "
                                 "the upper to the lower layer)"),
+    "sheet_charge_cm2": Parameter("sheet_charge_cm2", "cm-2", -1e15, 1e15,
+                                  help="fixed interface charge in elementary charges per cm^2 "
+                                       "(> 0 positive; polar interfaces)"),
     "tunnelling_mass": Parameter("tunnelling_mass", "m0", 0.01, 10.0,
                                  help="tunnelling effective mass of the depletion side (numbers "
                                       "form with transport = \"thermionic-field\")"),

@@ -101,7 +101,8 @@ def _accumulation_profile(v1, debye_m, points=200):
 def band_diagram(element, temperature_K, bias_V=0.0):
     """Band edges and Fermi levels across the interface at a bias (law's convention).
 
-    Returns a dict with ``x_nm`` (increasing, interface at 0; accumulation side at x < 0),
+    Returns a dict with ``x_nm`` (increasing, interface at 0; the upper, sun-side layer at x < 0,
+    the lower layer at x > 0; ``accumulation_at_left`` says which side accumulates),
     ``conduction_eV``, ``valence_eV``, ``fermi_accumulation_eV`` (a constant, 0) and
     ``fermi_depletion_eV``, all electron energies [eV]; None when the element was not given by
     its materials (no dopings, gaps, permittivities to draw with).
@@ -133,6 +134,10 @@ def band_diagram(element, temperature_K, bias_V=0.0):
     x = np.concatenate([x1, x2]) * 1e9
     edge = np.concatenate([edge1, edge2])
     gap = np.concatenate([np.full(x1.size, acc["gap_eV"]), np.full(x2.size, dep["gap_eV"])])
+    # the sun side on the left: mirror when the lower layer is the accumulating one
+    accumulation_at_left = acc.get("layer", "upper") == "upper"
+    if not accumulation_at_left:
+        x, edge, gap = -x[::-1], edge[::-1], gap[::-1]
     sign = 1.0 if element.carrier == "electron" else -1.0   # hole carrier energy = -electron
     majority = sign * edge
     if element.carrier == "electron":
@@ -143,7 +148,9 @@ def band_diagram(element, temperature_K, bias_V=0.0):
             "fermi_accumulation_eV": 0.0, "fermi_depletion_eV": sign * bias_V,
             "accumulation_V": v1, "depletion_V": v2, "depletion_width_nm": width * 1e9,
             "debye_length_nm": debye * 1e9, "accumulation_material": acc["material"],
-            "depletion_material": dep["material"]}
+            "depletion_material": dep["material"], "accumulation_at_left": accumulation_at_left,
+            "upper_material": (acc if accumulation_at_left else dep)["material"],
+            "lower_material": (dep if accumulation_at_left else acc)["material"]}
 
 
 def plot_interface(element, temperature_K, mpp_bias_V, axes=None):
@@ -179,15 +186,18 @@ def plot_interface(element, temperature_K, mpp_bias_V, axes=None):
                      label=f"Ec, {label}")
         ax_band.plot(d["x_nm"], d["valence_eV"], style, color="tab:orange",
                      label=f"Ev, {label}")
-        ax_band.plot(d["x_nm"][d["x_nm"] <= 0], np.zeros(np.sum(d["x_nm"] <= 0)), style,
-                     color="0.3", lw=1)
-        ax_band.plot(d["x_nm"][d["x_nm"] >= 0],
-                     np.full(np.sum(d["x_nm"] >= 0), d["fermi_depletion_eV"]), style,
+        left = d["x_nm"] <= 0
+        fermi_left, fermi_right = ((d["fermi_accumulation_eV"], d["fermi_depletion_eV"])
+                                   if d["accumulation_at_left"] else
+                                   (d["fermi_depletion_eV"], d["fermi_accumulation_eV"]))
+        ax_band.plot(d["x_nm"][left], np.full(np.sum(left), fermi_left), style, color="0.3", lw=1)
+        ax_band.plot(d["x_nm"][~left], np.full(np.sum(~left), fermi_right), style,
                      color="0.3", lw=1, label=f"Fermi level, {label}")
-        ax_band.set_title(f"(b) {d['accumulation_material']} (accumulates) | "
-                          f"{d['depletion_material']} (depleted)", fontsize=10)
+        roles = ("accumulates", "depleted") if d["accumulation_at_left"] else ("depleted", "accumulates")
+        ax_band.set_title(f"(b) upper {d['upper_material']} ({roles[0]}) | "
+                          f"lower {d['lower_material']} ({roles[1]})", fontsize=10)
     ax_band.axvline(0, color="0.7", lw=0.8)
-    ax_band.set_xlabel("position (nm), interface at 0")
+    ax_band.set_xlabel("position (nm), interface at 0: sun side (upper layer) left, lower layer right")
     ax_band.set_ylabel("electron energy (eV) from the Fermi level")
     ax_band.legend(fontsize=7, loc="best")
     ax_band.grid(alpha=0.3)

@@ -1,0 +1,319 @@
+"""Isotype heterointerface (n-N or p-P) with Fermi-Dirac carriers and a fixed interface sheet charge.
+
+The general form of the thermionic law of laws/thermionic.py (its optional parameters
+``accumulation_fermi_eV``, ``depletion_fermi_eV``, ``sheet_charge`` dispatch here; with none of them
+that module's own code runs, unchanged). Reduced units: potentials in kT/q, energies in kT.
+
+Charge balance. Each side's first integral of Poisson's equation, with the majority carriers of
+one parabolic band (density ``Nb F_1/2(eta)``, full ionisation, so the doping is ``Nb F_1/2(eta_b)``):
+
+    eps E^2 / (2 kT) = N g(x; eta_b),
+    g(x; eta) = [F_3/2(eta + x) - F_3/2(eta) - x F_1/2(eta)] / F_1/2(eta),
+
+x the bending that raises the carrier density (> 0 accumulation, < 0 depletion); F_j the
+Fermi-Dirac integral of order j normalised by Gamma(j + 1) (dF_j/deta = F_(j-1)), which gives
+``g = e^x - 1 - x`` for Boltzmann carriers (eta -> -inf). The side charges per area, in units
+of ``sqrt(2 eps2 kT N2)``, are ``q1 = sign(v1) sqrt(alpha g1(v1))`` (side 1, the accumulation side)
+and ``q2 = sign(v2) sqrt(g2(-v2))`` (side 2, the depletion side), and Gauss's law with a fixed
+sheet charge at the interface gives
+
+    q1(v1) = q2(vb - v1) + s,    s = sigma_c / sqrt(2 eps2 kT N2),
+
+``sigma_c`` the sheet charge counted positive when its sign is opposite to the majority carriers'
+(positive for n-N, negative for p-P: it attracts them to the interface). q1 rises and q2(vb - v1)
+falls with v1, so the root is unique for every vb and s; s = 0 with Boltzmann sides is the
+"exact" balance of laws/thermionic.py.
+
+Current. The barrier top sits at the interface; its height above side 1's Fermi level is
+``phi - v1`` (phi the barrier of laws/thermionic.py), above side 2's ``phi - v1 - v``. With
+Boltzmann occupancy the net flux is ``J = A T^2 exp(v1 - phi)(e^v - 1)`` (that law); with
+Fermi-Dirac occupancy of both sides' states over the top (a parabolic band, transverse momentum
+conserved: the supply function integrates to ``ln(1 + e^eta)``),
+
+    J = A T^2 [ln(1 + e^(a + v)) - ln(1 + e^a)] = A T^2 ln(1 + sigma(a) expm1(v)),  a = v1 - phi,
+
+which tends to the Boltzmann law when the top lies many kT above both Fermi levels.
+
+References
+----------
+.. [1] J. S. Blakemore, "Approximations for Fermi-Dirac integrals, especially the function F_1/2",
+   Solid-State Electron. 25 (1982) 1067 (the normalised F_j, dF_j/deta = F_(j-1)).
+.. [2] S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., Wiley (2007), ch. 1
+   (n = Nc F_1/2) and ch. 3 (thermionic emission; surface charge and the first integral).
+.. [3] R. Stratton, F. A. Padovani, Solid-State Electron. 10 (1967) 813 (Fermi-Dirac supply
+   function: thermionic emission from a degenerate semiconductor, ln(1 + e^eta)).
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy.special import expit, gamma
+
+from siltandem.constants import (BOLTZMANN_J_K, ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M,
+                                 thermal_voltage_V)
+from siltandem.numerics.roots import safeguarded_newton
+
+__all__ = ["fermi_integral", "charge_integral", "reduced_sheet_charge", "bending_split",
+           "general_current", "general_voltage", "general_slope_range", "interface_law"]
+
+_TOP = 60.0                      # [kT] states this far above max(eta, 0) hold < e^-60 of the carriers
+_SMALL_X = 0.01                  # Taylor series of the inner integral below this |x|
+_EXP_TAIL = np.array([1.0 / gamma(k + 3.0) for k in range(15)])
+
+
+def _horner(coefficients, x):
+    out = np.full_like(x, coefficients[-1])
+    for c in coefficients[-2::-1]:
+        out = out * x + c
+    return out
+
+
+_OFFSETS = np.array([-40.0, -20.0, -10.0, -5.0, -2.0, 0.0, 2.0, 5.0, 10.0, 20.0, 40.0])
+_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(32)
+
+
+def _quad_rows(rows, knees):
+    """int_0^inf of the (k, m, n) integrand ``rows(t)`` dt (t of shape (m, n): m nodes for each of
+    n points), by a fixed 32-node Gauss-Legendre rule on panels whose ends, in e = t^2, lie
+    0, 2, 5, 10, 20, 40 kT either side of each knee (the Fermi levels ``knees``, a list of (n,)
+    arrays), from 0 to 60 kT above the highest (beyond it the carriers hold < e^-60 of the
+    charge). The integrands are smooth in t; relative error ~1e-13 (tested against mpmath)."""
+    top = np.maximum(np.max(knees, axis=0), 0.0) + _TOP
+    ends = [np.zeros_like(top), top]
+    ends += [np.clip(k + o, 0.0, top) for k in knees for o in _OFFSETS]
+    t_ends = np.sqrt(np.sort(np.stack(ends), axis=0))               # (panels + 1, n)
+    a, b = t_ends[:-1], t_ends[1:]
+    half, mid = 0.5 * (b - a), 0.5 * (b + a)
+    t = mid[:, None, :] + half[:, None, :] * _NODES[None, :, None]   # (panels, nodes, n)
+    t = t.reshape(-1, top.size)
+    w = (half[:, None, :] * _WEIGHTS[None, :, None]).reshape(-1, top.size)
+    return np.sum(rows(t) * w[None], axis=1)
+
+
+def fermi_integral(order, eta):
+    """Fermi-Dirac integral F_j(eta) = 1/Gamma(j+1) int_0^inf e^j / (1 + exp(e - eta)) de [-],
+    for j = ``order`` > -1 (e = t^2 removes the e^j singularity), by quadrature
+    (a fixed Gauss-Legendre rule on panels about the knee) to ~1e-13 relative; tends to exp(eta) for eta -> -inf.
+
+    Reference: J. S. Blakemore, Solid-State Electron. 25 (1982) 1067 (this normalisation)."""
+    eta = np.atleast_1d(np.asarray(eta, dtype=float))
+    power = 2.0 * order + 1.0
+
+    def rows(t):
+        return (t ** power * expit(eta - t * t))[None]
+
+    return (2.0 / gamma(order + 1.0)) * _quad_rows(rows, [eta])[0]
+
+
+def _phi_inner(z, x):
+    """L(z + x) - L(z) - x sigma(z), L(z) = ln(1 + e^z): the inner integral over the band bending,
+    without cancellation (Taylor series in x below 0.01, else the form that keeps L's large part
+    out)."""
+    p = expit(z)
+    d2 = p * (1.0 - p)
+    series = x * x * d2 * (0.5 + x * (1.0 - 2.0 * p) / 6.0 + x * x * (1.0 - 6.0 * p + 6.0 * p * p) / 24.0
+                           + x ** 3 * (1.0 - 2.0 * p) * (1.0 - 12.0 * p + 12.0 * p * p) / 120.0
+                           + x ** 4 * (1.0 - 30.0 * p + 150.0 * p ** 2 - 240.0 * p ** 3 + 120.0 * p ** 4)
+                           / 720.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        positive = np.logaddexp(0.0, -z - x) - np.logaddexp(0.0, -z) + x * expit(-z)
+        negative = np.logaddexp(0.0, z + x) - np.logaddexp(0.0, z) - x * p
+    direct = np.where(z > 0, positive, negative)
+    return np.where(np.abs(x) < _SMALL_X, series, direct)
+
+
+def charge_integral(x, eta=None):
+    """g(x; eta) and dg/dx: the first integral of Poisson's equation of one side [-] (see the
+    module notes), x the reduced bending toward accumulation, eta the side's reduced Fermi level
+    above its band edge in the bulk; ``eta=None`` Boltzmann (``e^x - 1 - x``, ``e^x - 1``).
+    Returns (g, dg/dx, c) with c = g''(0) = F_-1/2(eta) / F_1/2(eta) (1 for Boltzmann)."""
+    x = np.atleast_1d(np.asarray(x, dtype=float))
+    if eta is None:
+        with np.errstate(over="ignore"):
+            g = np.expm1(x) - x
+            small = np.abs(x) < 0.5
+            g[small] = x[small] ** 2 * _horner(_EXP_TAIL, x[small])
+            return g, np.expm1(x), np.ones_like(x)
+    x, eta = np.broadcast_arrays(x, np.asarray(eta, dtype=float))
+    x, eta = x.ravel(), eta.ravel()
+
+    def rows(t):
+        z = eta - t * t
+        t2 = t * t
+        with np.errstate(over="ignore"):
+            shift = expit(z + x) * expit(-z) * (-np.expm1(-x))        # sigma(z + x) - sigma(z)
+        return np.stack([t2 * _phi_inner(z, x), t2 * shift])
+
+    value = (2.0 / gamma(1.5)) * _quad_rows(rows, [eta, eta + x])
+    # F_1/2(eta) and F_-1/2(eta) once per distinct eta (one per interface side in the solver)
+    levels, index = np.unique(eta, return_inverse=True)
+    half = fermi_integral(0.5, levels)[index]
+    return value[0] / half, value[1] / half, fermi_integral(-0.5, levels)[index] / half
+
+
+def reduced_sheet_charge(sheet_charge_cm2, *, carrier, depletion_doping_m3, depletion_permittivity,
+                         temperature_K):
+    """s = sigma_c / sqrt(2 eps2 kT N2) [-] from a fixed interface charge in elementary charges per
+    cm^2 (> 0 a positive charge), sigma_c = +q sigma for n-N and -q sigma for p-P (positive when it
+    attracts the majority carriers to the interface)."""
+    sign = 1.0 if carrier == "electron" else -1.0
+    sigma = sign * np.asarray(sheet_charge_cm2, dtype=float) * 1e4 * ELEMENTARY_CHARGE_C
+    scale = np.sqrt(2.0 * depletion_permittivity * VACUUM_PERMITTIVITY_F_M * BOLTZMANN_J_K
+                    * np.asarray(temperature_K, float) * np.asarray(depletion_doping_m3, float))
+    return sigma / scale
+
+
+def _side_charge(x, weight, eta):
+    """sign(x) sqrt(weight g(x)) and its derivative in x (both sides' charge in one form)."""
+    g, dg, c = charge_integral(x, eta)
+    root = np.sqrt(weight * np.maximum(g, 0.0))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(root > 0, weight * np.abs(dg) / (2.0 * root), np.sqrt(weight * c / 2.0))
+    return np.sign(x) * root, slope
+
+
+def _balance(v1, vb, alpha, eta1, eta2, s):
+    """f(v1) = q1(v1) - q2(vb - v1) - s, df/dv1, and the two charge slopes (L', R')."""
+    q1, d1 = _side_charge(v1, alpha, eta1)
+    q2, d2 = _side_charge(-(vb - v1), np.ones_like(v1), eta2)
+    # q2 as a function of v2 = vb - v1 is -(charge at -v2): side 2 depletes for v2 > 0
+    return q1 + q2 - s, d1 + d2, d1, d2
+
+
+def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0):
+    """v1 (side 1's reduced bending, > 0 accumulation) on flat arrays for reduced barrier
+    voltages vb >= 0; NaN elsewhere. Safeguarded Newton on the monotone balance from an expanding
+    bracket."""
+    vb, alpha, s = (np.asarray(a, dtype=float).ravel() for a in np.broadcast_arrays(vb, alpha, s))
+    e1 = None if eta1 is None else np.broadcast_to(np.asarray(eta1, float), vb.shape).ravel()
+    e2 = None if eta2 is None else np.broadcast_to(np.asarray(eta2, float), vb.shape).ravel()
+    ok = np.isfinite(vb) & (vb >= 0.0)
+    out = np.full(vb.shape, np.nan)
+    if not np.any(ok):
+        return out
+    vb_ok, al, s_ok = vb[ok], alpha[ok], s[ok]
+    e1_ok = None if e1 is None else e1[ok]
+    e2_ok = None if e2 is None else e2[ok]
+
+    def f(v1):
+        value, slope, _, _ = _balance(v1, vb_ok, al, e1_ok, e2_ok, s_ok)
+        return value, slope
+
+    lo, hi = -1.0 - np.zeros_like(vb_ok), vb_ok + 1.0
+    for _ in range(40):                       # widen until the balance changes sign
+        f_lo, f_hi = f(lo)[0], f(hi)[0]
+        grow_lo, grow_hi = f_lo > 0, f_hi < 0
+        if not (np.any(grow_lo) or np.any(grow_hi)):
+            break
+        lo = np.where(grow_lo, 2.0 * lo, lo)
+        hi = np.where(grow_hi, 2.0 * hi, hi)
+    else:                                     # the last widening was not evaluated yet
+        f_lo, f_hi = f(lo)[0], f(hi)[0]
+    out[ok] = safeguarded_newton(f, lo, hi, start=np.clip(np.zeros_like(vb_ok), lo, hi),
+                                 end_values=(f_lo, f_hi))
+    return out
+
+
+def _occupancy_terms(a, v, fermi_dirac):
+    """(J / (A T^2), the weights of (1 - u) and u in dJ/dv): Boltzmann e^a expm1(v), e^(a+v),
+    e^a; Fermi-Dirac ln(1 + sigma(a) expm1(v)), sigma(a + v), sigma(a)."""
+    with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+        if fermi_dirac:
+            return np.log1p(expit(a) * np.expm1(v)), expit(a + v), expit(a)
+        return np.exp(a) * np.expm1(v), np.exp(a + v), np.exp(a)
+
+
+def general_current(v, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=None, s=0.0,
+                    fermi_dirac=False, with_derivative=False):
+    """J [A m^-2] (and dJ/dv per reduced volt) on flat arrays: v = qV/kT, vbi = qVbi/kT,
+    log_richardson_t2 = ln(A T^2 [A m^-2]), phi the barrier in kT. NaN for v > vbi."""
+    v1 = bending_split(vbi - v, alpha, eta1, eta2, s)
+    a = v1 - phi
+    scale = np.exp(log_richardson_t2)
+    j_red, upper, lower = _occupancy_terms(a, v, fermi_dirac)
+    j = scale * j_red
+    if not with_derivative:
+        return j, None
+    _, _, d1, d2 = _balance(v1, vbi - v, alpha, eta1, eta2, s)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        u = d2 / (d1 + d2)                                    # dv1/dvb, in [0, 1]
+    return j, scale * (upper * (1.0 - u) + lower * u)
+
+
+def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, **law):
+    """Reduced voltage v with J(v) = j_target (J rises strictly with v), NaN above the flat-band
+    current J(vbi): safeguarded Newton on asinh(J / J0), bracketed by vbi and a widening lower end."""
+    j_target = np.asarray(j_target, dtype=float)
+    j_flat, _ = general_current(vbi, vbi, alpha, log_richardson_t2, phi, **law)
+    scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
+
+    def f(v):
+        j, dj = general_current(v, vbi, alpha, log_richardson_t2, phi, with_derivative=True, **law)
+        r = j / scale
+        return np.arcsinh(r) - np.arcsinh(j_target / scale), dj / scale / np.sqrt(1.0 + r * r)
+
+    ok = np.isfinite(j_target) & (j_target <= j_flat)
+    lo = np.where(ok, np.minimum(vbi, 0.0) - 1.0, np.nan)
+    for _ in range(60):
+        below = ok & (f(lo)[0] > 0)
+        if not np.any(below):
+            break
+        lo = np.where(below, 2.0 * lo - 1.0, lo)
+    hi = np.where(ok, vbi, np.nan)
+    v = safeguarded_newton(f, lo, hi)
+    return np.where(ok & (j_target == j_flat), vbi, v)
+
+
+def general_slope_range(v_lo, v_hi, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=None,
+                        s=0.0, fermi_dirac=False):
+    """Smallest and largest dJ/dv over [v_lo, v_hi] (per reduced volt), an enclosure: dJ/dv =
+    A T^2 [w_up (1 - u) + w_low u] with u = R'/(L' + R'); as v rises v1 and v2 fall and so do the
+    charge slopes L' and R' (each side's charge is convex in its bending), so u lies between
+    R'(hi)/(R'(hi) + L'(lo)) and R'(lo)/(R'(lo) + L'(hi)); w_low (occupancy at a = v1 - phi) falls and
+    w_up (at a + v, d(a + v)/dv = 1 - u >= 0) rises with v; the bound is linear in u, so its
+    extremes lie at the corners."""
+    v1 = [bending_split(vbi - v, alpha, eta1, eta2, s) for v in (v_lo, v_hi)]
+    slopes = [_balance(x, vbi - v, alpha, eta1, eta2, s)[2:] for x, v in zip(v1, (v_lo, v_hi))]
+    (l_lo, r_lo), (l_hi, r_hi) = slopes
+    with np.errstate(invalid="ignore", divide="ignore"):
+        u_min = r_hi / (r_hi + l_lo)
+        u_max = r_lo / (r_lo + l_hi)
+    _, up_lo, low_lo = _occupancy_terms(v1[0] - phi, v_lo, fermi_dirac)
+    _, up_hi, low_hi = _occupancy_terms(v1[1] - phi, v_hi, fermi_dirac)
+    scale = np.exp(log_richardson_t2)
+    smallest = np.minimum(up_lo * (1 - u_min) + low_hi * u_min, up_lo * (1 - u_max) + low_hi * u_max)
+    largest = np.maximum(up_hi * (1 - u_min) + low_lo * u_min, up_hi * (1 - u_max) + low_lo * u_max)
+    return scale * smallest * (1.0 - 1e-9), scale * largest * (1.0 + 1e-9)
+
+
+def interface_law(kind, first, second=None, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                  temperature_K, accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0,
+                  with_derivative=False):
+    """The isotype law in SI units (the general form behind laws/thermionic.py's optional
+    parameters; see there for each). ``kind``: "current" (first = V [V]: J [A m^-2], and dJ/dV),
+    "voltage" (first = J: V, and dV/dJ) or "slopes" (first, second = V_low, V_high: the smallest and
+    largest dJ/dV between them). Broadcast shape out."""
+    given = [np.asarray(first, dtype=float)] + ([] if second is None else [np.asarray(second, float)])
+    optional = [np.nan if e is None else e for e in (accumulation_fermi_eV, depletion_fermi_eV)]
+    arrays = np.broadcast_arrays(*given, *(np.asarray(a, dtype=float) for a in (
+        barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, *optional, sheet_charge)))
+    shape = arrays[0].shape
+    flat = [a.ravel() for a in arrays]
+    values = flat[:len(given)]
+    barrier, vbi, alpha_f, rich, temp, acc, dep, s = flat[len(given):]
+    vt = thermal_voltage_V(temp)
+    args = (vbi / vt, alpha_f, np.log(rich) + 2.0 * np.log(temp), barrier / vt)
+    law = dict(eta1=None if accumulation_fermi_eV is None else acc / vt,
+               eta2=None if depletion_fermi_eV is None else dep / vt, s=s,
+               fermi_dirac=accumulation_fermi_eV is not None or depletion_fermi_eV is not None)
+    with np.errstate(all="ignore"):
+        if kind == "current":
+            j, dj = general_current(values[0] / vt, *args, with_derivative=with_derivative, **law)
+            return (j.reshape(shape), (dj / vt).reshape(shape)) if with_derivative else j.reshape(shape)
+        if kind == "voltage":
+            v = general_voltage(values[0], *args, **law)
+            if not with_derivative:
+                return (v * vt).reshape(shape)
+            _, dj = general_current(v, *args, with_derivative=True, **law)
+            return (v * vt).reshape(shape), (vt / dj).reshape(shape)
+        lo, hi = general_slope_range(values[0] / vt, values[1] / vt, *args, **law)
+        return (lo / vt).reshape(shape), (hi / vt).reshape(shape)
