@@ -23,6 +23,7 @@ import numpy as np
 
 from siltandem import units
 from siltandem.circuit.graph import build_circuit
+from siltandem.circuit.layer_coupling import couple_layers
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.constants import BOLTZMANN_EV_K
@@ -380,6 +381,8 @@ def compile_layer_stack(stack):
                        stack.rules.get("front_scattering", "specular"),
                        stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
                        stack.rules.get("shading_fraction", 0.0))
+    elements, couplings = couple_layers(elements, model, file=file)
+    details["couplings"] = couplings
     elements = device_elements(elements, series_ohm_cm2=stack.rules.get("series_ohm_cm2", 0.0),
                                shunt_ohm_cm2=stack.rules.get("shunt_ohm_cm2", np.inf))
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
