@@ -18,6 +18,13 @@ reaches n^2 (10 to 14 into III-V or Si): c is in units of J0,rad, not a fraction
 
 A layer key ``luminescent_coupling`` on the upper subcell's emitter or base replaces the value
 (then exactly the element law with that c).
+
+The upper subcell's radiative floor (J01 >= J0,rad, circuit/from_layers.py) then counts its
+emission into the layers below as well: J01 >= J0,rad + (its downward emission), both per unit of
+exp(qVj/kT), so the light it sends down never exceeds what it recombines (O. D. Miller,
+E. Yablonovitch, S. R. Kurtz, IEEE J. Photovolt. 2 (2012) 303, from memory: a cell on an absorbing
+substrate loses about n^2 times its front emission there). Light totally reflected at the escape
+cone returns to the subcell (photon recycling) and is not counted as lost.
 """
 from dataclasses import dataclass, replace
 
@@ -185,14 +192,14 @@ def couple_layers(elements, model, *, file=None):
             found = replace(found, coupling=float(given), source="given")
         couplings.append(found)
         values[upper.name] = found.coupling
-        element = by_name[upper.name]
-        j01 = float(np.asarray(element.j01_A_m2(model.temperature_K)).reshape(-1)[0])
-        if element.bulk is None and found.coupling > 0 and j01 < found.reference_A_m2 + found.emitted_A_m2:
-            model.notes.append(
-                f"subcell {upper.name!r}: its J01 ({j01:.3g} A/m2) is below its own radiative emission to the "
-                f"front and into the layers below ({found.reference_A_m2 + found.emitted_A_m2:.3g} A/m2): the "
-                "radiative floor counts the front only, so the coupled light to the subcell below is more than "
-                "the subcell recombines; treat its gain as an upper bound")
-    out = [replace(e, luminescent_coupling=batch(values[e.name])) if isinstance(e, Subcell) and e.name in values
-           else e for e in elements]
+    floors = {c.upper: c.reference_A_m2 + c.emitted_A_m2 for c in couplings}
+    out = []
+    for e in elements:
+        if isinstance(e, Subcell) and e.name in values:
+            e = replace(e, luminescent_coupling=batch(values[e.name]))
+            if e.bulk is None and e.j01_fixed_A_m2 is not None:
+                # the radiative floor counts the emission into the layers below too (else the
+                # coupled light could exceed what the subcell recombines)
+                e = replace(e, j01_fixed_A_m2=np.maximum(e.j01_fixed_A_m2, floors[e.name]))
+        out.append(e)
     return out, couplings
