@@ -210,3 +210,64 @@ def _stack_text_with(where, value):
             text += f"luminescent_coupling = {json.dumps(value)}\n"
     return HEAD + text
 
+
+# --------------------------------------------------------------------------- the yield year, 4 terminals
+FOUR_T = """[conditions]
+temperature_K = 298.15
+terminals = 4
+[[element]]
+kind = "subcell"
+name = "top"
+gap_eV = 1.75
+string = 1
+luminescent_coupling = {c}
+[[element]]
+kind = "subcell"
+name = "bottom"
+gap_eV = 1.12
+string = 2
+"""
+
+
+def _ideal_mpp(photocurrent, j0, vt):
+    """(P, V) at the MPP of one ideal diode, by scipy.optimize.minimize_scalar (bounded)."""
+    from scipy.optimize import minimize_scalar
+
+    voc = vt * np.log1p(photocurrent / j0)
+    best = minimize_scalar(lambda v: -v * (photocurrent - j0 * np.expm1(v / vt)), bounds=(0, voc),
+                           method="bounded", options={"xatol": 1e-12})
+    return -best.fun, best.x
+
+
+def test_four_terminal_yield_year_couples_across_strings(tmp_path):
+    # each hour: the top string at its own MPP (scipy), its emission J0,rad (exp(V/Vt) - 1) times c
+    # added to the bottom string's photocurrent, that string's MPP (scipy): the model of the
+    # crossing coupling (Bremner et al. 2008, from memory) written again here
+    from test_yield import WEATHER
+    from siltandem.materials import weather as weather_files
+    from siltandem.studies import yield_year as Y
+
+    weather = weather_files.read_weather(WEATHER)
+    runs = {}
+    for c in (0.0, 1.0):
+        path = tmp_path / f"four_{c}.toml"
+        path.write_text(FOUR_T.format(c=c))
+        runs[c] = Y.annual_yield(load_stack(path), weather)
+    hourly = runs[1.0].hourly
+    lit = np.flatnonzero(hourly["top.photocurrent_mA_cm2"].to_numpy() > 5)
+    assert lit.size > 100
+    for row in lit[:: lit.size // 12][:12]:
+        t = hourly["cell_temperature_C"].to_numpy()[row] + 273.15
+        vt = sc.k * t / sc.e
+        j_top = hourly["top.photocurrent_mA_cm2"].to_numpy()[row] * 10
+        j_bottom = hourly["bottom.photocurrent_mA_cm2"].to_numpy()[row] * 10
+        j0_top = float(radiative_saturation_current(1.75, temperature_K=t))
+        p_top, v_top = _ideal_mpp(j_top, j0_top, vt)
+        gain = j0_top * np.expm1(v_top / vt)
+        p_bottom, _ = _ideal_mpp(j_bottom + gain, float(radiative_saturation_current(1.12, temperature_K=t)), vt)
+        assert hourly["power_W_m2"].to_numpy()[row] == pytest.approx(p_top + p_bottom, rel=1e-7)
+        # each subcell on its own terminals is the same two strings here
+        assert hourly["bottom.alone_W_m2"].to_numpy()[row] == pytest.approx(p_bottom, rel=1e-7)
+        assert gain > 0
+    coupled, plain = (runs[c].summary["annual_energy_kWh_m2"] for c in (1.0, 0.0))
+    assert coupled > plain
