@@ -14,6 +14,8 @@ Sources beside each check:
 - photon conservation (no source needed: collected <= absorbed <= arriving <= emitted).
 Every stack below is invented test data (no check value comes from it).
 """
+from pathlib import Path
+
 import numpy as np
 import pytest
 from scipy import constants as sc
@@ -271,3 +273,24 @@ def test_four_terminal_yield_year_couples_across_strings(tmp_path):
         assert gain > 0
     coupled, plain = (runs[c].summary["annual_energy_kWh_m2"] for c in (1.0, 0.0))
     assert coupled > plain
+
+
+def test_a_map_varies_the_layer_key(tmp_path):
+    # the key in a study (no source needed): each design of the map is the stack with that key,
+    # solved alone; c = 0 couples nothing, and the coupled designs gain while the top over-produces
+    from siltandem import design_map, parse_vary
+
+    stack = _stack(tmp_path)
+    coupling = parse_vary("top emitter.luminescent_coupling=0:8:3", stack)
+    thickness = parse_vary("top base.thickness_nm=3000:3200:2", stack)
+    table = design_map(stack, coupling, thickness, progress=False)
+    table = table[table["top base.thickness_nm"] == 3000]
+    efficiency = table.sort_values("top emitter.luminescent_coupling")["efficiency_pct"].to_numpy()
+    assert efficiency[0] < efficiency[1] < efficiency[2]
+    for c, eta in zip((0.0, 4.0, 8.0), efficiency):
+        path = tmp_path / f"alone_{c}.toml"
+        text = Path(stack.source).read_text().replace("thickness_nm = 500\n", "thickness_nm = 3000\n")
+        path.write_text(text.replace("diffusion_length_um = 2.0\n",
+                                     f"diffusion_length_um = 2.0\nluminescent_coupling = {c}\n", 1))
+        assert compute_result(load_stack(path), curve_points=21).summary["efficiency_pct"] == pytest.approx(
+            eta, rel=1e-9)
