@@ -302,3 +302,43 @@ def test_waterfall_coupling_gain_is_the_uncoupled_stack(tmp_path):
     assert abs(waterfall["check_pct"]) < 1e-12
     assert "coupling gain" not in {s["loss"] for s in loss_waterfall(
         load_stack(tmp_path / "p.toml"))["steps"]}
+
+
+@pytest.mark.parametrize("photocurrents", [(160.0, 150.0, 165.0),   # middle limits
+                                           (200.0, 170.0, 150.0),   # bottom limits
+                                           (140.0, 170.0, 175.0)])  # top limits
+def test_coupled_ideal_chain_summary_takes_the_explicit_path(photocurrents, monkeypatch):
+    # ideal single diodes coupled top -> middle -> bottom, summary solve (no curve): the explicit
+    # path in J (solve/explicit.py), against the independent brentq chain above and scipy's
+    # bounded maximum; the traced solve is switched off so that only the explicit path can answer
+    from siltandem.solve import series
+
+    def no_trace(*args, **kwargs):
+        raise AssertionError("the coupled ideal string was traced")
+
+    monkeypatch.setattr(series, "solve_on_path", no_trace)
+    gaps, eres, couplings = (1.9, 1.42, 1.12), (0.3, 0.2, 0.01), (0.6, 0.4, 0.0)
+    cells, elements = [], []
+    for k, (gap, ere, c, jph) in enumerate(zip(gaps, eres, couplings, photocurrents)):
+        j0rad = float(radiative_saturation_current(gap, temperature_K=T))
+        cells.append(dict(jph=jph, j0rad=j0rad, j01=j0rad / ere, j02=0.0, shunt=0.0, rs=0.3e-4, c=c))
+        elements.append(Subcell(f"cell{k}", batch(gap), ere=batch(ere), series_ohm_m2=batch(0.3e-4),
+                                luminescent_coupling=batch(c)).with_photocurrent(jph))
+    resistance = 0.5e-4
+    elements.append(Resistor("grid", batch(resistance)))
+    solution = solve_string(elements, T)
+    best = minimize_scalar(lambda j: -j * _independent_voltage(j, cells, resistance),
+                           bounds=(0.5 * min(photocurrents), (1 - 1e-6) * solution.jsc_A_m2[0]),
+                           method="bounded", options={"xatol": 1e-10})
+    assert solution.mpp_W_m2[0] == pytest.approx(-best.fun, rel=1e-9)
+    assert solution.mpp_A_m2[0] == pytest.approx(best.x, rel=1e-4)
+    assert solution.voc_V[0] == pytest.approx(_independent_voltage(0.0, cells, resistance), abs=1e-9)
+    assert solution.mpp_certified[0] and solution.mpp_cells_checked[0] == 0   # by concavity
+    assert solution.power_balance_error_W_m2[0] < 1e-9 * solution.mpp_W_m2[0]
+    shift = 0.0
+    for cell, element in zip(cells, elements):
+        vj = brentq(lambda v: _law_current(v, cell["jph"] + shift, cell["j01"], 0.0, 0.0)
+                    - solution.mpp_A_m2[0], -200, 3, xtol=1e-15)
+        if shift:
+            assert solution.coupled_at_mpp_A_m2[element.name][0] == pytest.approx(shift, rel=1e-7)
+        shift = cell["c"] * cell["j0rad"] * max(np.expm1(vj / VT), 0.0)

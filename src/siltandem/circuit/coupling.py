@@ -70,7 +70,9 @@ class CoupledSubcell(Subcell):
     source_fraction: np.ndarray = field(default_factory=lambda: batch(0.0))
 
     def is_explicit(self):
-        return False
+        """True when this subcell and its source are ideal single diodes (solve/explicit.py: the
+        source's emission is then affine in the string current, linear_emission)."""
+        return Subcell.is_explicit(self) and self.source.is_explicit()
 
     def coupled_current(self, current_A_m2, temperature_K):
         """ΔJ [A/m^2] the subcell gains at string current ``current_A_m2`` and dΔJ/dJ (<= 0)."""

@@ -23,6 +23,7 @@ import numpy as np
 
 from siltandem import units
 from siltandem.circuit.graph import build_circuit
+from siltandem.circuit.layer_coupling import couple_layers
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.constants import BOLTZMANN_EV_K
@@ -405,6 +406,10 @@ def compile_layer_stack(stack, reuse=None):
                        stack.rules.get("front_scattering", "specular"),
                        stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
                        stack.rules.get("shading_fraction", 0.0))
+    elements, couplings = couple_layers(elements, model, file=file)
+    details["couplings"] = couplings
+    for found in couplings:      # the floor counts the emission into the layers below too
+        details["subcells"][found.upper]["downward_emission_ratio"] = found.emitted_A_m2 / found.reference_A_m2
     elements = device_elements(elements, series_ohm_cm2=stack.rules.get("series_ohm_cm2", 0.0),
                                shunt_ohm_cm2=stack.rules.get("shunt_ohm_cm2", np.inf))
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
@@ -449,6 +454,7 @@ def dark_currents_at(model, circuit, temperature_K):
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K)
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
+        floor = floor * (1.0 + details.get("downward_emission_ratio", 0.0))
         j01 = diffusion if details.get("silicon_base_law") else np.maximum(diffusion, floor)
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         out[cell.name] = (j01, j02, gap, ratio)

@@ -30,7 +30,7 @@ from siltandem.text import excerpt
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
-              "transport", "sheet_charge_cm2"}
+              "transport", "sheet_charge_cm2", "luminescent_coupling"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -55,7 +55,12 @@ LAYER_NUMBERS = {
                                "scattering time"),
     "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False),
     "j0_fA_cm2": dict(unit="fA/cm2", low=0.0, high=1e9, low_open=True,
-                      reason="a measured saturation current density is positive")}
+                      reason="a measured saturation current density is positive"),
+    # in units of the subcell's one-sided radiative limit J0,rad: emission into a semiconductor below
+    # reaches about n^2 (10 to 14) of it (circuit/layer_coupling.py)
+    "luminescent_coupling": dict(unit="", low=0.0, high=50.0, low_open=False,
+                                 reason="emission into a medium of index n is at most about n^2 times "
+                                        "J0,rad, and no semiconductor has n above 7")}
 #: ``[device]`` keys of a layer stack and their defaults: the lumped series resistance of the
 #: string (grid, contacts, lateral spreading, bonds), a shunt across every subcell, and the
 #: fraction of the front shaded by the grid (scales the light entering the stack)
@@ -118,6 +123,9 @@ class Layer:
     transport: str | None = None
     #: fixed charge at this layer's interface with the layer below [elementary charges per cm^2]
     sheet_charge_cm2: float | None = None
+    #: on a subcell's emitter or base: its luminescent coupling to the subcell below, replacing the
+    #: value from the layers (None: from the layers, circuit/layer_coupling.py)
+    luminescent_coupling: float | None = None
 
     @property
     def label(self):
@@ -361,9 +369,11 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                              unit="cm-2", low=-1e15, high=1e15, low_open=False,
                              reason="a fixed interface charge in elementary charges per cm^2; a "
                                     "full monolayer is below 1e15")
+    coupling = _positive_number(table, "luminescent_coupling", file=file, where=where, required=False,
+                                **LAYER_NUMBERS["luminescent_coupling"])
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0, transport, sheet)
+                 gap, j0, transport, sheet, coupling)
 
 
 def parse_layers(tables, *, file, folder_materials=None):

@@ -32,7 +32,7 @@ ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
 #: each changes the optics and the layer physics; then solved in batches of one structure);
 #: their ranges are the file's (layers.check_layer_value)
 LAYER_VARIABLE = ("thickness_nm", "doping_cm3", "composition", "diffusion_length_um",
-                  "lifetime_ns", "srv_cm_s", "gap_eV", "j0_fA_cm2")
+                  "lifetime_ns", "srv_cm_s", "gap_eV", "j0_fA_cm2", "luminescent_coupling")
 #: the name a layer stack's varied [device] keys go by (``--vary device.series_ohm_cm2=0:2:5``;
 #: a layer of that name takes precedence)
 DEVICE_TABLE = "device"

@@ -144,7 +144,8 @@ def _wiring_entry(stack, two, four):
                               "order",
         "four_terminal_means": "each subcell on its own at its own maximum power point; the "
                                "stack's other elements (resistors, tunnel junctions, "
-                               "interfaces) left out",
+                               "interfaces) left out; luminescent coupling from the subcell "
+                               "above at that subcell's own maximum power point",
     }
 
 

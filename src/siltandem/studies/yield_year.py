@@ -58,7 +58,7 @@ from siltandem.laws.spectral import (
     spectral_mismatch_factor,
     step_absorber_photocurrents_rows,
 )
-from siltandem.solve.series import solve_string
+from siltandem.solve.series import solve_string, solve_strings
 from siltandem.materials.spectra import get_spectrum
 from siltandem.materials.weather import Weather, read_weather
 from siltandem.materials.eqe import read_eqe_csv
@@ -143,6 +143,11 @@ def _solve(elements, temperature_K):
         warnings.simplefilter("ignore", RuntimeWarning)
         solution = solve_string(elements, temperature_K)
     return solution
+
+
+def _solve_with(elements, temperature_K, curve_points=0):
+    """:func:`_solve` in the form solve.series.solve_strings calls (no curve)."""
+    return _solve(elements, temperature_K)
 
 
 def _weather_and_plane(weather, tilt_deg, azimuth_deg, tracking="fixed"):
@@ -311,11 +316,14 @@ def _year_solves(circuit, hourly_cells, names, temperature, split_losses):
         return hourly_cells.get(element.name, element)
 
     hours = temperature.shape[0]
-    # the stack as wired, string by string
+    # the stack as wired, string by string; luminescent coupling crosses strings (4 terminals) at
+    # the upper string's MPP of each hour (solve.series.solve_strings)
     wired = np.zeros(hours)
     failed = np.zeros(hours, dtype=bool)
-    for string in circuit.strings:
-        solution = _solve([lit(e) for e in string], temperature)
+    optical = [lit(c) for c in circuit.subcells]
+    _, solutions = solve_strings([[lit(e) for e in string] for string in circuit.strings], optical,
+                                 temperature, solve=_solve_with)
+    for solution in solutions:
         wired += _power(solution)
         failed |= solution.failed
     # the same elements all in one series string (two-terminal) and each subcell on its own
@@ -334,10 +342,13 @@ def _year_solves(circuit, hourly_cells, names, temperature, split_losses):
         bare_power = None
     else:
         bare_power = series_power
+    # each subcell on its own terminals, the light of the coupling crossing from the one above at
+    # its own MPP (as a four-terminal stack's strings)
+    apart = [replace(hourly_cells[c.name], string=k + 1) for k, c in enumerate(circuit.subcells)]
+    _, solutions = solve_strings([[cell] for cell in apart], apart, temperature, solve=_solve_with)
     alone = {}
-    for name in names:
-        solution = _solve([hourly_cells[name]], temperature)
-        alone[name] = _power(solution)
+    for cell, solution in zip(apart, solutions):
+        alone[cell.name] = _power(solution)
         failed |= solution.failed
     return _YearPowers(wired, series_power, bare_power, passive, alone, failed)
 
