@@ -77,8 +77,10 @@ def test_carriers_flow_follows_polarity():
      + layer("t2", "GaAs", 20, "p:5e19") + cell("bottom", "GaAs"), "three degenerate layers"),
     (cell("top", "GaAs") + layer("t1", "GaAs", 20, "n:5e19") + layer("t2", "GaAs", 20, "p:5e19")
      + cell("bottom", "GaAs"), "wrong order for its neighbours"),
-    (layer("e", "GaAs", 100, "n:1e18", diffusion_length_um=1.0)
-     + layer("b", "Si", 1000, "p:1e17", diffusion_length_um=1.0), "two different materials"),
+    # a heterojunction whose valence-band spike (0.9 eV by the affinity rule, Anderson 1962) blocks
+    # the holes of the Si absorber (the limit of laws/heterojunction.py, about 0.35 eV)
+    (layer("e", "GaP", 100, "p:2e18", diffusion_length_um=1.0)
+     + layer("b", "Si", 20000, "n:1e16", diffusion_length_um=100.0), "spike in the valence band.*blocks the holes"),
     (layer("t1", "GaAs", 20, "p:5e19") + layer("t2", "GaAs", 20, "n:5e19") + cell("c", "GaAs"),
      "lies above the top"),
 ])

@@ -22,6 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from siltandem import units
+from siltandem.circuit import hetero
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
@@ -64,6 +65,19 @@ class SubcellModel:
     base_diffusivity_m2_s: float
     front_srv_m_s: float
     back_srv_m_s: float
+    #: a heterojunction: its emitter's part of the depletion width [m] (None: a homojunction,
+    #: one absorber); and the layer whose material sets the gap and n_i (the narrower gap)
+    emitter_depletion_width_m: float | None = None
+    dark_layer: int | None = None
+
+    @property
+    def hetero(self):
+        return self.emitter_depletion_width_m is not None
+
+    @property
+    def dark_index(self):
+        """The layer whose material sets the subcell's gap and n_i (the emitter's for one absorber)."""
+        return self.emitter if self.dark_layer is None else self.dark_layer
 
 
 @dataclass(frozen=True)
@@ -121,28 +135,37 @@ def _minority(layer, material, temperature_K, *, file, role):
                      fix="add diffusion_length_um = <um> or lifetime_ns = <ns>")
 
 
-def _subcell(cell, layers, materials, temperature_K, file, name):
+def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
     emitter, base = layers[cell.emitter], layers[cell.base]
-    material = materials[cell.emitter]
-    ni = float(material.intrinsic_density_per_m3(temperature_K))
+    material_e, material_b = materials[cell.emitter], materials[cell.base]
+    dark_side = hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
+    dark_index = cell.emitter if dark_side == "emitter" else cell.base
+    ni_e0 = float(material_e.intrinsic_density_per_m3(temperature_K))
+    ni_b0 = float(material_b.intrinsic_density_per_m3(temperature_K))
     n_side, p_side = (emitter, base) if emitter.polarity == "n" else (base, emitter)
     donor = n_side.doping_cm3 * units.PER_CM3_TO_PER_M3
     acceptor = p_side.doping_cm3 * units.PER_CM3_TO_PER_M3
-    for layer in (emitter, base):
-        if ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
+    for layer, own, own_ni in ((emitter, material_e, ni_e0), (base, material_b, ni_b0)):
+        if own_ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
             raise StackError(
-                f"at {temperature_K:g} K the intrinsic carrier density of {material.name} "
-                f"({ni / units.PER_CM3_TO_PER_M3:.3g} cm^-3) is more than a tenth of this "
+                f"at {temperature_K:g} K the intrinsic carrier density of {own.name} "
+                f"({own_ni / units.PER_CM3_TO_PER_M3:.3g} cm^-3) is more than a tenth of this "
                 f"layer's doping ({layer.doping_cm3:.3g} cm^-3): the layer physics takes the "
                 "majority density equal to the doping, which no longer holds", file=file,
                 where=layer.label,
                 fix=f"lower the temperature, or dope the layer above "
-                    f"{INTRINSIC_MARGIN * ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
-    junction = junction_law.abrupt_junction(0.0, acceptor_density_m3=acceptor,
-                                          donor_density_m3=donor,
-                                          relative_permittivity=material.relative_permittivity,
-                                          intrinsic_density_m3=ni, temperature_K=temperature_K,
-                                          where=name)
+                    f"{INTRINSIC_MARGIN * own_ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
+    material = materials[dark_index]      # one absorber, or the narrower gap of a heterojunction
+    ni = float(material.intrinsic_density_per_m3(temperature_K))
+    if cell.hetero:
+        junction = hetero.heterojunction(emitter, base, material_e, material_b,
+                                         temperature_K=temperature_K, suns=suns, file=file, name=name)
+    else:
+        junction = junction_law.abrupt_junction(0.0, acceptor_density_m3=acceptor,
+                                              donor_density_m3=donor,
+                                              relative_permittivity=material.relative_permittivity,
+                                              intrinsic_density_m3=ni, temperature_K=temperature_K,
+                                              where=name)
     x_emitter = float(junction.n_side_width_m if emitter.polarity == "n" else junction.p_side_width_m)
     x_base = float(junction.p_side_width_m if emitter.polarity == "n" else junction.n_side_width_m)
     emitter_qn = emitter.thickness_nm * 1e-9 - x_emitter
@@ -155,8 +178,8 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                              fix="make the layer thicker or dope the other side of the junction "
                                  "less")
     silicon_cell = is_silicon(emitter) and is_silicon(base)
-    l_e, d_e = _minority(emitter, material, temperature_K, file=file, role="emitter")
-    l_b, d_b = _minority(base, material, temperature_K, file=file, role="base")
+    l_e, d_e = _minority(emitter, material_e, temperature_K, file=file, role="emitter")
+    l_b, d_b = _minority(base, material_b, temperature_K, file=file, role="base")
     if silicon_cell and emitter.diffusion_length_um is None:
         # the emitter's intrinsic (Auger + radiative) lifetime at low injection joins its own
         l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni))))
@@ -164,7 +187,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
     base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    ni_e, ni_b = ni, ni
+    ni_e, ni_b = (ni_e0, ni_b0) if cell.hetero else (ni, ni)
     if silicon_cell:
         ni_e, ni_b = (ni * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
                                         / (2 * BOLTZMANN_EV_K * temperature_K)))
@@ -201,6 +224,13 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     tau_n, tau_p = (tau_b, tau_e) if emitter.polarity == "n" else (tau_e, tau_b)
     # J02 at a junction voltage near the operating point (about Eg - 0.4 V, common practice)
     vbi = float(junction.built_in_V)
+    if cell.hetero:
+        # the depletion-region recombination of the narrower-gap material, whose n_i is
+        # exponentially the larger (its own homojunction's built-in voltage bounds the bias)
+        vbi = min(vbi, float(junction_law.abrupt_junction(
+            0.0, acceptor_density_m3=acceptor, donor_density_m3=donor,
+            relative_permittivity=material.relative_permittivity, intrinsic_density_m3=ni,
+            temperature_K=temperature_K, where=name).built_in_V))
     operating = float(np.clip(gap - 0.4, 0.0, 0.9 * vbi))
     recombination = junction_law.depletion_recombination_current(
         operating, intrinsic_density_m3=ni, electron_lifetime_s=tau_n, hole_lifetime_s=tau_p,
@@ -210,8 +240,16 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     element = Subcell(name, batch(gap), j02_A_m2=batch(float(recombination.j02_A_m2)),
                       j01_fixed_A_m2=batch(j01), bulk=bulk)
     model = SubcellModel(name, cell.emitter, cell.base, emitter_qn, base_qn,
-                         float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b)
-    return element, model, {"j01_diffusion_A_m2": diffusion_total,
+                         float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b,
+                         x_emitter if cell.hetero else None, dark_index if cell.hetero else None)
+    extra = {}
+    if cell.hetero:
+        extra = {"heterojunction": {
+            "offset_source": junction.source, "built_in_V": float(junction.built_in_V),
+            "gaps_eV": junction.gaps, "minority_steps_eV": junction.spikes,
+            "dark_side": dark_side},
+            "j01_base_A_m2": diffusion_total - emitter_j0}
+    return element, model, {**extra, "j01_diffusion_A_m2": diffusion_total,
                             "j01_radiative_floor_A_m2": floor,
                             "floor_applied": bulk is None and j01 == floor,
                             "j0_emitter_A_m2": emitter_j0,
@@ -352,7 +390,7 @@ def compile_layer_stack(stack):
             used.add(name)
             try:
                 element, model, extra = _subcell(info["cell"], layers, materials, temperature,
-                                                 file, name)
+                                                 file, name, stack.conditions.suns)
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -415,12 +453,20 @@ def dark_currents_at(model, circuit, temperature_K):
     """
     out = {}
     t0 = model.temperature_K
+    def ni_ratio(material):
+        return (np.asarray(material.intrinsic_density_per_m3(temperature_K), dtype=float)
+                / float(material.intrinsic_density_per_m3(t0)))
+
     for cell_model, cell in zip(model.subcells, [circuit.element(c.name) for c in model.subcells]):
-        material = model.materials[cell_model.emitter]
-        ratio = (np.asarray(material.intrinsic_density_per_m3(temperature_K), dtype=float)
-                 / float(material.intrinsic_density_per_m3(t0)))
+        material = model.materials[cell_model.dark_index]
+        ratio = ni_ratio(material)
         details = circuit.optics["layer_details"]["subcells"][cell.name]
         diffusion = details["j01_diffusion_A_m2"] * ratio**2
+        if cell_model.hetero:
+            # a heterojunction: each side's diffusion J01 follows its own n_i^2
+            base = details["j01_base_A_m2"]
+            diffusion = ((details["j01_diffusion_A_m2"] - base) * ni_ratio(model.materials[cell_model.emitter])**2
+                         + base * ni_ratio(model.materials[cell_model.base])**2)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K)
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows

@@ -102,11 +102,13 @@ def _collected(cell, band_to_band, free, free_share, budget, scattered):
     thick part). Free carriers absorb but make no pair: the generation is the band-to-band part
     (the fluxes given to the collection law scaled by alpha_bb / alpha, the law being linear in
     them), and of the scattered light absorbed in each layer only the band-to-band part counts."""
-    attenuation = band_to_band[cell.emitter] + free[cell.base]
-    keep = np.where(attenuation > 0, _share(band_to_band[cell.emitter], attenuation), 1.0)
     uniform = 0.0
     if scattered:
         uniform = sum(budget.scattered_absorbed[j] * (1.0 - free_share[j]) for j in (cell.emitter, cell.base))
+    if cell.hetero:
+        return _collected_hetero(cell, band_to_band, free, budget, uniform)
+    attenuation = band_to_band[cell.emitter] + free[cell.base]
+    keep = np.where(attenuation > 0, _share(band_to_band[cell.emitter], attenuation), 1.0)
     return collection.collected_photocurrent(
         attenuation, photon_flux_m2_s=keep * budget.downward_at_top[cell.emitter],
         emitter_thickness_m=cell.emitter_thickness_m,
@@ -117,6 +119,38 @@ def _collected(cell, band_to_band, free, free_share, budget, scattered):
         base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
         back_photon_flux_m2_s=keep * budget.upward_at_bottom[cell.base],
         uniform_absorbed_m2_s=uniform, where=cell.name)
+
+
+def _collected_hetero(cell, band_to_band, free, budget, uniform):
+    """A heterojunction's collected photocurrent per nm: emitter and base each absorb with their
+    own material's alpha (band-to-band plus free carriers: Beer-Lambert layer by layer); of each
+    region's current the band-to-band share makes pairs (the depletion region's share weighted by
+    the optical depth of its two parts)."""
+    alpha_e = band_to_band[cell.emitter] + free[cell.emitter]
+    alpha_b = band_to_band[cell.base] + free[cell.base]
+    result = collection.collected_photocurrent(
+        alpha_e, photon_flux_m2_s=budget.downward_at_top[cell.emitter],
+        emitter_thickness_m=cell.emitter_thickness_m,
+        emitter_diffusion_length_m=cell.emitter_length_m,
+        emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
+        front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
+        base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
+        base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
+        back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], uniform_absorbed_m2_s=uniform,
+        base_absorption_per_m=alpha_b, emitter_depletion_width_m=cell.emitter_depletion_width_m,
+        where=cell.name)
+    if not (np.any(free[cell.emitter]) or np.any(free[cell.base])):
+        return result
+    keep_e = np.where(alpha_e > 0, _share(band_to_band[cell.emitter], alpha_e), 1.0)
+    keep_b = np.where(alpha_b > 0, _share(band_to_band[cell.base], alpha_b), 1.0)
+    wde = cell.emitter_depletion_width_m
+    wdb = cell.depletion_width_m - wde
+    depth = alpha_e * wde + alpha_b * wdb
+    keep_d = np.where(depth > 0, _share(band_to_band[cell.emitter] * wde + band_to_band[cell.base] * wdb,
+                                        depth), 1.0)
+    return result._replace(emitter_A_m2=result.emitter_A_m2 * keep_e,
+                           depletion_A_m2=result.depletion_A_m2 * keep_d,
+                           base_A_m2=result.base_A_m2 * keep_b)
 
 
 def illuminate_layers(circuit, spectrum):
