@@ -260,3 +260,26 @@ def test_a_year_of_a_heterojunction_stack(tmp_path):
     assert year["efficiency_at_standard_conditions_pct"] == pytest.approx(
         run(path).summary["efficiency_pct"], rel=1e-6)
     assert year["annual_energy_kWh_m2"] > 0
+
+
+def test_each_side_keeps_its_own_intrinsic_density_at_other_temperatures(tmp_path):
+    # the diffusion J01 of a side is proportional to its n_i^2 (Sze & Ng ch. 2, the ideal diode),
+    # so at another temperature each side's part scales with its own material's n_i(T)^2; the
+    # radiative floor of the narrower gap (generalized Planck law) bounds the sum from below
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.circuit.from_layers import dark_currents_at
+    from siltandem.laws.radiative import radiative_saturation_current
+
+    circuit = compile_stack(load_stack(write(tmp_path, FRONT_HETERO, name="t.toml")))
+    details = circuit.optics["layer_details"]["subcells"]["cell"]
+    emitter, base = load_material("AlGaAs", 0.3), load_material("GaAs")
+    temperatures = np.array([280.0, 300.0, 340.0])
+    j01, j02, gap, _ = dark_currents_at(circuit.model, circuit, temperatures)["cell"]
+
+    def ratio(m):
+        return m.intrinsic_density_per_m3(temperatures) / m.intrinsic_density_per_m3(300.0)
+    by_hand = (details["j0_emitter_A_m2"] * ratio(emitter) ** 2 + details["j01_base_A_m2"] * ratio(base) ** 2)
+    floor = radiative_saturation_current(base.gap_eV(temperatures), temperature_K=temperatures)
+    assert np.allclose(j01, np.maximum(by_hand, floor), rtol=1e-12)
+    assert np.allclose(gap, base.gap_eV(temperatures), rtol=1e-12)
+    assert np.allclose(j02, float(circuit.element("cell").j02_A_m2.reshape(-1)[0]) * ratio(base), rtol=1e-12)
