@@ -3,7 +3,8 @@
 ``compile_layer_stack(stack)`` builds, from the recognised structure (compile_layers.py), one
 element per subcell, tunnel junction and isotype interface, in the order of the layer boundaries:
 
-* a **subcell** at layer-physics level: J01 from the minority-carrier diffusion solution of its
+* a **subcell** (a homojunction, or a heterojunction: circuit/hetero.py, each side with its own
+  material) at layer-physics level: J01 from the minority-carrier diffusion solution of its
   emitter and base (laws/collection.py), never below the radiative floor J0,rad(Eg); J02 from
   depletion-region recombination (Sah-Noyce-Shockley); its photocurrent comes later, from the
   optics stage;
@@ -12,9 +13,10 @@ element per subcell, tunnel junction and isotype interface, in the order of the 
 * an **isotype interface** from its two materials (electron-affinity rule, laws/thermionic.py),
   oriented by the stack's polarity.
 
-``optics.layers.illuminate_layers(circuit, spectrum)``: front reflectance (bare surface or the coating, by
-characteristic matrices), Beer-Lambert absorption in every layer (laws/thinfilm.py), each
-subcell's collected photocurrent from the light entering its emitter, and the photon budget.
+``optics.layers.illuminate_layers(circuit, spectrum)``: front reflectance (the coating and the thin
+layers above the first emitter, by characteristic matrices), Beer-Lambert absorption in every layer
+below (laws/thinfilm.py), each subcell's collected photocurrent from the light entering its
+emitter, and the photon budget.
 """
 from dataclasses import dataclass, field, replace
 from pathlib import Path
