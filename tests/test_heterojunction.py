@@ -283,3 +283,26 @@ def test_each_side_keeps_its_own_intrinsic_density_at_other_temperatures(tmp_pat
     assert np.allclose(j01, np.maximum(by_hand, floor), rtol=1e-12)
     assert np.allclose(gap, base.gap_eV(temperatures), rtol=1e-12)
     assert np.allclose(j02, float(circuit.element("cell").j02_A_m2.reshape(-1)[0]) * ratio(base), rtol=1e-12)
+
+
+def test_a_silicon_base_under_a_wide_gap_emitter_keeps_silicons_base_law(tmp_path):
+    # an n-GaP emitter on a p-Si base (a GaP/Si heterojunction; the affinity rule puts a 0.25 eV
+    # conduction-band spike before the silicon's electrons, which thermionic emission passes):
+    # the Si base keeps the same base law (intrinsic recombination, band-gap narrowing) as under a
+    # Si emitter, and the GaP emitter's diffusion J0 carries its n_i^2 ~ exp(-Eg / kT) (Sze & Ng
+    # ch. 1): exp(-(2.26 - 1.12) eV / kT) ~ 1e-19 of silicon's, so the cell's Voc rises
+    from siltandem.circuit.compile import compile_stack
+
+    def cell(emitter_material):
+        text = ('[optics]\nback_reflectance = 0.9\n'
+                + layer("cell emitter", emitter_material, 20, "n:1e19", length_um=0.1)
+                + layer("cell base", "Si", 150000, "p:1e16").replace("diffusion_length_um = 1.0", "lifetime_ns = 1e6"))
+        return write(tmp_path, text, name=f"{emitter_material}.toml")
+
+    hetero, homo = compile_stack(load_stack(cell("GaP"))), compile_stack(load_stack(cell("Si")))
+    details = [c.optics["layer_details"]["subcells"]["cell"] for c in (hetero, homo)]
+    assert details[0]["silicon_base_law"] and details[1]["silicon_base_law"]
+    for a, b in zip(hetero.element("cell").bulk, homo.element("cell").bulk):
+        assert np.array_equal(a, b)
+    assert details[0]["j0_emitter_A_m2"] < 1e-12 * details[1]["j0_emitter_A_m2"]
+    assert run(cell("GaP")).summary["voc_V"] > run(cell("Si")).summary["voc_V"]   # 597 against 589 mV seen

@@ -179,21 +179,21 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
                              "nm)", file=file, where=layer.label,
                              fix="make the layer thicker or dope the other side of the junction "
                                  "less")
-    silicon_cell = is_silicon(emitter) and is_silicon(base)
+    # Si layers (of a homojunction, or one side of a heterojunction) keep silicon's own physics:
+    # the emitter's intrinsic lifetime, band-gap narrowing and the base law
+    silicon_base = is_silicon(base)
     l_e, d_e = _minority(emitter, material_e, temperature_K, file=file, role="emitter")
     l_b, d_b = _minority(base, material_b, temperature_K, file=file, role="base")
-    if silicon_cell and emitter.diffusion_length_um is None:
+    if is_silicon(emitter) and emitter.diffusion_length_um is None:
         # the emitter's intrinsic (Auger + radiative) lifetime at low injection joins its own
-        l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni))))
+        l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni_e0))))
     srv_e = (emitter.srv_cm_s if emitter.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
     base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    ni_e, ni_b = (ni_e0, ni_b0) if cell.hetero else (ni, ni)
-    if silicon_cell:
-        ni_e, ni_b = (ni * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
-                                        / (2 * BOLTZMANN_EV_K * temperature_K)))
-                      for layer in (emitter, base))
+    ni_e, ni_b = ((own * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
+                                      / (2 * BOLTZMANN_EV_K * temperature_K))) if is_silicon(layer) else own)
+                  for layer, own in ((emitter, ni_e0), (base, ni_b0)))
     dark = collection.DiffusionSaturationCurrent(*(np.array(collection.region_saturation_current(
         thickness, doping_m3=doping, intrinsic_density_m3=n_i, diffusion_length_m=length,
         diffusivity_m2_s=diffusivity, surface_srv_m_s=srv, where=f"{name} {role}"))
@@ -207,7 +207,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
     base_j0 = units.a_m2(base.j0_fA_cm2 * 1e-12) if base.j0_fA_cm2 is not None else None
     tau_e, tau_b = l_e**2 / d_e, l_b**2 / d_b
     bulk = None
-    if silicon_cell:
+    if silicon_base:
         # the base at one quasi-Fermi-level split over its whole thickness (laws/silicon.py):
         # intrinsic, SRH and rear-surface recombination in one law; the rear surface's J0
         # instead of its velocity where the base gives j0_fA_cm2
@@ -455,6 +455,7 @@ def dark_currents_at(model, circuit, temperature_K):
     """
     out = {}
     t0 = model.temperature_K
+
     def ni_ratio(material):
         return (np.asarray(material.intrinsic_density_per_m3(temperature_K), dtype=float)
                 / float(material.intrinsic_density_per_m3(t0)))
@@ -474,5 +475,7 @@ def dark_currents_at(model, circuit, temperature_K):
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
         j01 = diffusion if details.get("silicon_base_law") else np.maximum(diffusion, floor)
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
-        out[cell.name] = (j01, j02, gap, ratio)
+        # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
+        bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio
+        out[cell.name] = (j01, j02, gap, bulk_ratio)
     return out
