@@ -306,3 +306,20 @@ def test_a_silicon_base_under_a_wide_gap_emitter_keeps_silicons_base_law(tmp_pat
         assert np.array_equal(a, b)
     assert details[0]["j0_emitter_A_m2"] < 1e-12 * details[1]["j0_emitter_A_m2"]
     assert run(cell("GaP")).summary["voc_V"] > run(cell("Si")).summary["voc_V"]   # 597 against 589 mV seen
+
+
+def test_a_rear_heterojunction_takes_the_absorber_emitter_for_its_dark_current(tmp_path):
+    # a rear heterojunction: a thick n-GaAs emitter (the absorber) on a thin p-Al0.3Ga0.7As base.
+    # The holes of the GaAs meet a valence-band step of about 0.16 eV (0.3 x the 0.53 eV GaAs/AlAs
+    # offset of Vurgaftman et al. 2001, linear), below the ~0.3 eV thermionic emission passes, so
+    # the cell is accepted; the GaAs side has the smaller gap and sets the gap and J01
+    text = (layer("cell emitter", "GaAs", 2000, "n:1e17", length_um=3.0)
+            + layer("cell base", "AlGaAs", 200, "p:1e18", "composition = 0.3"))
+    result = run(write(tmp_path, text, name="rear.toml"))
+    details = result.circuit.optics["layer_details"]["subcells"]["cell"]
+    steps = details["heterojunction"]["minority_steps_eV"]
+    assert details["heterojunction"]["dark_side"] == "emitter"
+    assert 0.1 < steps["emitter"] < 0.25
+    assert details["j01_base_A_m2"] < 1e-3 * details["j0_emitter_A_m2"]
+    gap = float(result.circuit.element("cell").gap_eV.reshape(-1)[0])
+    assert gap == pytest.approx(float(load_material("GaAs").gap_eV(300.0)), rel=1e-12)
