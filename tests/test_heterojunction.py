@@ -323,3 +323,22 @@ def test_a_rear_heterojunction_takes_the_absorber_emitter_for_its_dark_current(t
     assert details["j01_base_A_m2"] < 1e-3 * details["j0_emitter_A_m2"]
     gap = float(result.circuit.element("cell").gap_eV.reshape(-1)[0])
     assert gap == pytest.approx(float(load_material("GaAs").gap_eV(300.0)), rel=1e-12)
+
+
+def test_the_json_summary_shows_the_band_diagram(tmp_path):
+    # the run's JSON lists a heterojunction subcell's offsets source, built-in voltage, gaps and the
+    # steps its minority carriers meet; the GaAs electrons of the front heterojunction meet the
+    # conduction-band step Ec(AlGaAs) - Ec(GaAs) = (Ev,AlGaAs + Eg,AlGaAs) - (Ev,GaAs + Eg,GaAs) on
+    # the valence-band scale of Vurgaftman et al. 2001
+    from siltandem.materials.offsets import valence_band_maximum_eV
+
+    path = write(tmp_path, FRONT_HETERO, name="j.toml")
+    done = cli("run", path, "--json", tmp_path / "r.json")
+    assert done.returncode == 0, done.stderr
+    (row,) = json.loads((tmp_path / "r.json").read_text())["subcells"]
+    band = row["heterojunction"]
+    emitter, base = load_material("AlGaAs", 0.3), load_material("GaAs")
+    step = ((valence_band_maximum_eV(emitter)[0] + float(emitter.gap_eV(300.0)))
+            - (valence_band_maximum_eV(base)[0] + float(base.gap_eV(300.0))))
+    assert band["minority_steps_eV"]["base"] == pytest.approx(step, rel=1e-12)
+    assert "Vurgaftman" in band["offset_source"] and band["dark_side"] == "base"
