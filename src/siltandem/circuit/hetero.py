@@ -109,7 +109,7 @@ def heterojunction(emitter, base, emitter_material, base_material, *, temperatur
                 f"photocurrent over more than {limit:.2f} eV, so the cell would collect nothing",
                 file=file, where=where,
                 fix="choose a partner layer whose band edge lies at most "
-                    f"{limit:.2f} eV beyond the absorber's (e.g. less aluminium in the window alloy), or "
+                    f"{limit:.2f} eV beyond the absorber's (e.g. less aluminium in the wide-gap alloy), or "
                     "make the junction a homojunction of the absorber")
     depletion = law.depletion(0.0, built_in_V=vbi, acceptor_density_m3=na, donor_density_m3=nd,
                               n_relative_permittivity=n_mat.relative_permittivity,
