@@ -77,8 +77,10 @@ def test_carriers_flow_follows_polarity():
      + layer("t2", "GaAs", 20, "p:5e19") + cell("bottom", "GaAs"), "three degenerate layers"),
     (cell("top", "GaAs") + layer("t1", "GaAs", 20, "n:5e19") + layer("t2", "GaAs", 20, "p:5e19")
      + cell("bottom", "GaAs"), "wrong order for its neighbours"),
-    (layer("e", "GaAs", 100, "n:1e18", diffusion_length_um=1.0)
-     + layer("b", "Si", 1000, "p:1e17", diffusion_length_um=1.0), "two different materials"),
+    # a heterojunction whose valence-band spike (0.9 eV by the affinity rule, Anderson 1962) blocks
+    # the holes of the Si absorber (the limit of laws/heterojunction.py, about 0.35 eV)
+    (layer("e", "GaP", 100, "p:2e18", diffusion_length_um=1.0)
+     + layer("b", "Si", 20000, "n:1e16", diffusion_length_um=100.0), "spike in the valence band.*blocks the holes"),
     (layer("t1", "GaAs", 20, "p:5e19") + layer("t2", "GaAs", 20, "n:5e19") + cell("c", "GaAs"),
      "lies above the top"),
 ])
@@ -156,9 +158,13 @@ def test_ideal_layers_approach_the_detailed_balance_cell(tmp_path):
     assert result.summary["voc_V"] == pytest.approx(voc, abs=0.01)
 
 
-def test_window_absorbs_as_beer_lambert(tmp_path):
-    # the top layer's parasitic absorption: (1 - R) Phi (1 - exp(-alpha d)) (A. Beer 1852)
-    text = (layer("window", "AlInP", 30, "n:2e18", composition=0.52)
+@pytest.mark.parametrize("thickness_nm", [30, 1500])
+def test_window_absorbs_as_a_film_or_by_beer_lambert(tmp_path, thickness_nm):
+    # a thin window (<= 1 um) is a coherent film on the emitter: its absorptance 1 - R - T from
+    # Airy's single-film formulas r = (r01 + r12 e^{2i d}) / (1 + r01 r12 e^{2i d}),
+    # t = t01 t12 e^{i d} / (1 + r01 r12 e^{2i d}), T = Re(N2) |t|^2 (M. Born, E. Wolf, Principles
+    # of Optics, sec. 1.6.4); a thick one absorbs (1 - R) Phi (1 - exp(-alpha d)) (A. Beer 1852)
+    text = (layer("window", "AlInP", thickness_nm, "n:2e18", composition=0.52)
             + cell("c", "GaAs"))
     result = run_stack(stack_from(tmp_path, text), curve_points=30)
     spectrum = get_spectrum("am1.5g")
@@ -167,9 +173,20 @@ def test_window_absorbs_as_beer_lambert(tmp_path):
     alpha = window.absorption_per_m(w, temperature_K=300.0)
     n_complex = thinfilm.complex_index(w, refractive_index=window.refractive_index(w),
                                        alpha_per_m=alpha)
-    reflectance = np.abs((1 - n_complex) / (1 + n_complex)) ** 2
-    expected = thinfilm.photon_current_A_m2(
-        w, spectrum.photon_flux * (1 - reflectance) * -np.expm1(-alpha * 30e-9)) / 10
+    if thickness_nm <= 1000:
+        gaas = load_material("GaAs")
+        n_sub = thinfilm.complex_index(w, refractive_index=gaas.refractive_index(w),
+                                       alpha_per_m=gaas.absorption_per_m(w, temperature_K=300.0))
+        r01, r12 = (1 - n_complex) / (1 + n_complex), (n_complex - n_sub) / (n_complex + n_sub)
+        t01, t12 = 2 / (1 + n_complex), 2 * n_complex / (n_complex + n_sub)
+        phase = np.exp(1j * 2 * np.pi * n_complex * thickness_nm / w)
+        r = (r01 + r12 * phase**2) / (1 + r01 * r12 * phase**2)
+        t = t01 * t12 * phase / (1 + r01 * r12 * phase**2)
+        absorptance = 1 - np.abs(r) ** 2 - n_sub.real * np.abs(t) ** 2
+    else:
+        reflectance = np.abs((1 - n_complex) / (1 + n_complex)) ** 2
+        absorptance = (1 - reflectance) * -np.expm1(-alpha * thickness_nm * 1e-9)
+    expected = thinfilm.photon_current_A_m2(w, spectrum.photon_flux * absorptance) / 10
     parasitic = {p["layer"]: p["absorbed_mA_cm2"] for p in result.summary["parasitic"]}
     assert parasitic["window"] == pytest.approx(expected, rel=1e-9)
     interfaces = result.summary["interfaces"]

@@ -3,7 +3,8 @@
 ``compile_layer_stack(stack)`` builds, from the recognised structure (compile_layers.py), one
 element per subcell, tunnel junction and isotype interface, in the order of the layer boundaries:
 
-* a **subcell** at layer-physics level: J01 from the minority-carrier diffusion solution of its
+* a **subcell** (a homojunction, or a heterojunction: circuit/hetero.py, each side with its own
+  material) at layer-physics level: J01 from the minority-carrier diffusion solution of its
   emitter and base (laws/collection.py), never below the radiative floor J0,rad(Eg); J02 from
   depletion-region recombination (Sah-Noyce-Shockley); its photocurrent comes later, from the
   optics stage;
@@ -12,9 +13,10 @@ element per subcell, tunnel junction and isotype interface, in the order of the 
 * an **isotype interface** from its two materials (electron-affinity rule, laws/thermionic.py),
   oriented by the stack's polarity.
 
-``optics.layers.illuminate_layers(circuit, spectrum)``: front reflectance (bare surface or the coating, by
-characteristic matrices), Beer-Lambert absorption in every layer (laws/thinfilm.py), each
-subcell's collected photocurrent from the light entering its emitter, and the photon budget.
+``optics.layers.illuminate_layers(circuit, spectrum)``: front reflectance (the coating and the thin
+layers above the first emitter, by characteristic matrices), Beer-Lambert absorption in every layer
+below (laws/thinfilm.py), each subcell's collected photocurrent from the light entering its
+emitter, and the photon budget.
 """
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -22,6 +24,7 @@ from pathlib import Path
 import numpy as np
 
 from siltandem import units
+from siltandem.circuit import hetero
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.layer_coupling import couple_layers
 from siltandem.circuit.recognise import carriers_flow, recognise
@@ -65,6 +68,19 @@ class SubcellModel:
     base_diffusivity_m2_s: float
     front_srv_m_s: float
     back_srv_m_s: float
+    #: a heterojunction: its emitter's part of the depletion width [m] (None: a homojunction,
+    #: one absorber); and the layer whose material sets the gap and n_i (the narrower gap)
+    emitter_depletion_width_m: float | None = None
+    dark_layer: int | None = None
+
+    @property
+    def hetero(self):
+        return self.emitter_depletion_width_m is not None
+
+    @property
+    def dark_index(self):
+        """The layer whose material sets the subcell's gap and n_i (the emitter's for one absorber)."""
+        return self.emitter if self.dark_layer is None else self.dark_layer
 
 
 @dataclass(frozen=True)
@@ -122,10 +138,13 @@ def _minority(layer, material, temperature_K, *, file, role):
                      fix="add diffusion_length_um = <um> or lifetime_ns = <ns>")
 
 
-def _subcell(cell, layers, materials, temperature_K, file, name):
+def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
     emitter, base = layers[cell.emitter], layers[cell.base]
-    material = materials[cell.emitter]
-    ni = float(material.intrinsic_density_per_m3(temperature_K))
+    material_e, material_b = materials[cell.emitter], materials[cell.base]
+    dark_side = hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
+    dark_index = cell.emitter if dark_side == "emitter" else cell.base
+    ni_e0 = float(material_e.intrinsic_density_per_m3(temperature_K))
+    ni_b0 = float(material_b.intrinsic_density_per_m3(temperature_K))
     n_side, p_side = (emitter, base) if emitter.polarity == "n" else (base, emitter)
     donor = n_side.doping_cm3 * units.PER_CM3_TO_PER_M3
     acceptor = p_side.doping_cm3 * units.PER_CM3_TO_PER_M3
@@ -134,27 +153,34 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     # it at equilibrium (a p-i-n), is no diode base: the base law (laws/silicon.py) takes its
     # equilibrium densities from charge neutrality and its excess density in high injection;
     # there is then no depletion region at the operating point (the base is flooded)
-    light_base = silicon_cell and ni * INTRINSIC_MARGIN > base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    for layer in (emitter,) if light_base else (emitter, base):
-        if ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
+    light_base = silicon_cell and ni_b0 * INTRINSIC_MARGIN > base.doping_cm3 * units.PER_CM3_TO_PER_M3
+    checked = ((emitter, material_e, ni_e0),) + (() if light_base else ((base, material_b, ni_b0),))
+    for layer, own, own_ni in checked:
+        if own_ni * INTRINSIC_MARGIN > layer.doping_cm3 * units.PER_CM3_TO_PER_M3:
             raise StackError(
-                f"at {temperature_K:g} K the intrinsic carrier density of {material.name} "
-                f"({ni / units.PER_CM3_TO_PER_M3:.3g} cm^-3) is more than a tenth of this "
+                f"at {temperature_K:g} K the intrinsic carrier density of {own.name} "
+                f"({own_ni / units.PER_CM3_TO_PER_M3:.3g} cm^-3) is more than a tenth of this "
                 f"layer's doping ({layer.doping_cm3:.3g} cm^-3): the layer physics takes the "
                 "majority density equal to the doping, which no longer holds", file=file,
                 where=layer.label,
                 fix=f"lower the temperature, or dope the layer above "
-                    f"{INTRINSIC_MARGIN * ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
+                    f"{INTRINSIC_MARGIN * own_ni / units.PER_CM3_TO_PER_M3:.2g} cm^-3")
+    material = materials[dark_index]      # one absorber, or the narrower gap of a heterojunction
+    ni = float(material.intrinsic_density_per_m3(temperature_K))
     if light_base:
         # the junction's widths and J02 are not used for a flooded base (set to zero below): the
         # junction is evaluated at the margin's doping only to keep its law's inputs valid
         floor_m3 = INTRINSIC_MARGIN * ni
         donor, acceptor = (max(donor, floor_m3), acceptor) if base is n_side else (donor, max(acceptor, floor_m3))
-    junction = junction_law.abrupt_junction(0.0, acceptor_density_m3=acceptor,
-                                          donor_density_m3=donor,
-                                          relative_permittivity=material.relative_permittivity,
-                                          intrinsic_density_m3=ni, temperature_K=temperature_K,
-                                          where=name)
+    if cell.hetero:
+        junction = hetero.heterojunction(emitter, base, material_e, material_b,
+                                         temperature_K=temperature_K, suns=suns, file=file, name=name)
+    else:
+        junction = junction_law.abrupt_junction(0.0, acceptor_density_m3=acceptor,
+                                              donor_density_m3=donor,
+                                              relative_permittivity=material.relative_permittivity,
+                                              intrinsic_density_m3=ni, temperature_K=temperature_K,
+                                              where=name)
     x_emitter = float(junction.n_side_width_m if emitter.polarity == "n" else junction.p_side_width_m)
     x_base = float(junction.p_side_width_m if emitter.polarity == "n" else junction.n_side_width_m)
     light_base = light_base or (silicon_cell and x_base >= base.thickness_nm * 1e-9)
@@ -169,20 +195,21 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
                              "nm)", file=file, where=layer.label,
                              fix="make the layer thicker or dope the other side of the junction "
                                  "less")
-    l_e, d_e = _minority(emitter, material, temperature_K, file=file, role="emitter")
-    l_b, d_b = _minority(base, material, temperature_K, file=file, role="base")
-    if silicon_cell and emitter.diffusion_length_um is None:
+    # Si layers (of a homojunction, or one side of a heterojunction) keep silicon's own physics:
+    # the emitter's intrinsic lifetime, band-gap narrowing and the base law
+    silicon_base = is_silicon(base)
+    l_e, d_e = _minority(emitter, material_e, temperature_K, file=file, role="emitter")
+    l_b, d_b = _minority(base, material_b, temperature_K, file=file, role="base")
+    if is_silicon(emitter) and emitter.diffusion_length_um is None:
         # the emitter's intrinsic (Auger + radiative) lifetime at low injection joins its own
-        l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni))))
+        l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni_e0))))
     srv_e = (emitter.srv_cm_s if emitter.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
     base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    ni_e, ni_b = ni, ni
-    if silicon_cell:
-        ni_e, ni_b = (ni * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
-                                        / (2 * BOLTZMANN_EV_K * temperature_K)))
-                      for layer in (emitter, base))
+    ni_e, ni_b = ((own * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
+                                      / (2 * BOLTZMANN_EV_K * temperature_K))) if is_silicon(layer) else own)
+                  for layer, own in ((emitter, ni_e0), (base, ni_b0)))
     dark = collection.DiffusionSaturationCurrent(*(np.array(collection.region_saturation_current(
         thickness, doping_m3=doping, intrinsic_density_m3=n_i, diffusion_length_m=length,
         diffusivity_m2_s=diffusivity, surface_srv_m_s=srv, where=f"{name} {role}"))
@@ -196,7 +223,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     base_j0 = units.a_m2(base.j0_fA_cm2 * 1e-12) if base.j0_fA_cm2 is not None else None
     tau_e, tau_b = l_e**2 / d_e, l_b**2 / d_b
     bulk = None
-    if silicon_cell:
+    if silicon_base:
         # the base at one quasi-Fermi-level split over its whole thickness (laws/silicon.py):
         # intrinsic, SRH and rear-surface recombination in one law; the rear surface's J0
         # instead of its velocity where the base gives j0_fA_cm2
@@ -215,6 +242,13 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     tau_n, tau_p = (tau_b, tau_e) if emitter.polarity == "n" else (tau_e, tau_b)
     # J02 at a junction voltage near the operating point (about Eg - 0.4 V, common practice)
     vbi = float(junction.built_in_V)
+    if cell.hetero:
+        # the depletion-region recombination of the narrower-gap material, whose n_i is
+        # exponentially the larger (its own homojunction's built-in voltage bounds the bias)
+        vbi = min(vbi, float(junction_law.abrupt_junction(
+            0.0, acceptor_density_m3=acceptor, donor_density_m3=donor,
+            relative_permittivity=material.relative_permittivity, intrinsic_density_m3=ni,
+            temperature_K=temperature_K, where=name).built_in_V))
     operating = float(np.clip(gap - 0.4, 0.0, 0.9 * vbi))
     recombination = junction_law.depletion_recombination_current(
         operating, intrinsic_density_m3=ni, electron_lifetime_s=tau_n, hole_lifetime_s=tau_p,
@@ -225,8 +259,16 @@ def _subcell(cell, layers, materials, temperature_K, file, name):
     j02 = 0.0 if light_base else float(recombination.j02_A_m2)
     element = Subcell(name, batch(gap), j02_A_m2=batch(j02), j01_fixed_A_m2=batch(j01), bulk=bulk)
     model = SubcellModel(name, cell.emitter, cell.base, emitter_qn, base_qn,
-                         0.0 if light_base else float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b)
-    return element, model, {"j01_diffusion_A_m2": diffusion_total,
+                         0.0 if light_base else float(junction.width_m), l_e, d_e, l_b, d_b, srv_e, srv_b,
+                         x_emitter if cell.hetero else None, dark_index if cell.hetero else None)
+    extra = {}
+    if cell.hetero:
+        extra = {"heterojunction": {
+            "offset_source": junction.source, "built_in_V": float(junction.built_in_V),
+            "gaps_eV": junction.gaps, "minority_steps_eV": junction.spikes,
+            "dark_side": dark_side},
+            "j01_base_A_m2": diffusion_total - emitter_j0}
+    return element, model, {**extra, "j01_diffusion_A_m2": diffusion_total,
                             "j01_radiative_floor_A_m2": floor,
                             "floor_applied": bulk is None and j01 == floor,
                             "j0_emitter_A_m2": emitter_j0,
@@ -378,7 +420,7 @@ def compile_layer_stack(stack, reuse=None):
             used.add(name)
             try:
                 element, model, extra = _subcell(info["cell"], layers, materials, temperature,
-                                                 file, name)
+                                                 file, name, stack.conditions.suns)
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -445,17 +487,28 @@ def dark_currents_at(model, circuit, temperature_K):
     """
     out = {}
     t0 = model.temperature_K
+
+    def ni_ratio(material):
+        return (np.asarray(material.intrinsic_density_per_m3(temperature_K), dtype=float)
+                / float(material.intrinsic_density_per_m3(t0)))
+
     for cell_model, cell in zip(model.subcells, [circuit.element(c.name) for c in model.subcells]):
-        material = model.materials[cell_model.emitter]
-        ratio = (np.asarray(material.intrinsic_density_per_m3(temperature_K), dtype=float)
-                 / float(material.intrinsic_density_per_m3(t0)))
+        material = model.materials[cell_model.dark_index]
+        ratio = ni_ratio(material)
         details = circuit.optics["layer_details"]["subcells"][cell.name]
         diffusion = details["j01_diffusion_A_m2"] * ratio**2
+        if cell_model.hetero:
+            # a heterojunction: each side's diffusion J01 follows its own n_i^2
+            base = details["j01_base_A_m2"]
+            diffusion = ((details["j01_diffusion_A_m2"] - base) * ni_ratio(model.materials[cell_model.emitter])**2
+                         + base * ni_ratio(model.materials[cell_model.base])**2)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K)
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
         floor = floor * (1.0 + details.get("downward_emission_ratio", 0.0))
         j01 = diffusion if details.get("silicon_base_law") else np.maximum(diffusion, floor)
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
-        out[cell.name] = (j01, j02, gap, ratio)
+        # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
+        bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio
+        out[cell.name] = (j01, j02, gap, bulk_ratio)
     return out

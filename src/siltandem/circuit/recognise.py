@@ -6,7 +6,10 @@ Recognition rules (sun side first), in this order:
    ``[rules] tunnel_doping_cm3`` (default 5e18 cm^-3: degenerate in the III-V arsenides and
    phosphides and in silicon; common practice, no source).
 2. Any other adjacent pair of opposite type is the p-n junction of a **subcell**: the upper layer is
-   its emitter, the lower its base. Both must be of one absorber material (a homojunction).
+   its emitter, the lower its base. Of one material it is a homojunction; of two, a heterojunction
+   (front: a wider-gap emitter; rear: a wider-gap base), whose band offsets the compiler checks
+   (circuit/from_layers.py). A pair of different materials next to a tunnel junction written
+   upside down is named as that tunnel junction.
 3. An adjacent pair of the same type and different materials (or compositions) is an **isotype
    interface** (n-N or p-P). Same material, same type, different doping: a high-low junction,
    treated as an ideal connection.
@@ -32,6 +35,7 @@ class SubcellLayers:
     emitter: int
     base: int
     polarity: str             # "n-on-p" or "p-on-n"
+    hetero: bool = False      # emitter and base of different materials
 
 
 @dataclass(frozen=True)
@@ -119,29 +123,22 @@ def _classify_boundaries(layers, tunnel_doping_cm3, file):
 
 
 def _parts(layers, boundary_kind, tunnel_doping_cm3, file):
-    """The parts in boundary order, and the subcells (each p-n junction, checked to be a
-    homojunction)."""
+    """The parts in boundary order, and the subcells (each p-n junction; a pair of different
+    materials is a heterojunction unless a neighbouring tunnel junction is upside down)."""
     parts, subcells = [], []
     for i, kind in sorted(boundary_kind.items()):
         upper, lower = layers[i], layers[i + 1]
         if kind == "junction":
-            if not _same_material(upper, lower):
+            hetero = not _same_material(upper, lower)
+            if hetero:
                 for pair in (i - 1, i + 1):          # the degenerate neighbour's tunnel pair
                     hint = (_upside_down_tunnel(layers, pair, tunnel_doping_cm3, file)
                             if boundary_kind.get(pair) == "tunnel" else None)
                     if hint is not None:
                         raise hint
-                raise StackError(
-                    f"{upper.label} ({upper.polarity}, {upper.material}) and {lower.label} "
-                    f"({lower.polarity}, {lower.material}) form a p-n junction of two different "
-                    "materials; a subcell here is a homojunction of one absorber", file=file,
-                    where=f"{upper.label} / {lower.label}",
-                    fix="make emitter and base the same material, or dope both at or above "
-                        f"{tunnel_doping_cm3:g} cm^-3 if they are a tunnel junction ([rules] "
-                        "tunnel_doping_cm3 sets the threshold)")
             polarity = "n-on-p" if upper.polarity == "n" else "p-on-n"
             cell = SubcellLayers(f"{upper.material} cell ({upper.name} / {lower.name})", i, i + 1,
-                                 polarity)
+                                 polarity, hetero)
             subcells.append(cell)
             parts.append(("subcell", {"upper": i, "cell": cell}))
         elif kind == "tunnel":
@@ -157,8 +154,8 @@ def _stack_polarity(layers, subcells, boundary_kind, tunnel_doping_cm3, file):
     if not subcells:
         lonely = ", ".join(f"{layer.label} ({layer.polarity})" for layer in layers)
         raise StackError("no p-n junction: the layers make no solar cell (" + lonely + ")",
-                         file=file, fix="a subcell needs an emitter and a base of opposite type "
-                                        "and one material, e.g. n-GaAs on p-GaAs")
+                         file=file, fix="a subcell needs an emitter and a base of opposite type, "
+                                        "e.g. n-GaAs on p-GaAs")
     polarities = {c.polarity for c in subcells}
     if len(polarities) > 1:
         # a junction of the other polarity next to a tunnel junction: the tunnel junction is in

@@ -311,7 +311,8 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
                            emitter_diffusion_length_m, emitter_diffusivity_m2_s, front_srv_m_s,
                            depletion_width_m, base_thickness_m, base_diffusion_length_m,
                            base_diffusivity_m2_s, back_srv_m_s, back_photon_flux_m2_s=0.0,
-                           uniform_absorbed_m2_s=0.0, where="subcell"):
+                           uniform_absorbed_m2_s=0.0, base_absorption_per_m=None,
+                           emitter_depletion_width_m=None, where="subcell"):
     """Collected photocurrent of each region of a subcell, and the absorbed photon current.
 
     Parameters
@@ -340,6 +341,13 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
         single pass, same spectral "per" as ``photon_flux_m2_s``. Default 0.
     uniform_absorbed_m2_s : array_like, optional
         Photons absorbed in the subcell from scattered light [m^-2 s^-1, same "per"], >= 0; default 0.
+    base_absorption_per_m : array_like, optional
+        A heterojunction's base absorption [1/m], >= 0: the base and the base's part of the
+        depletion region absorb with it, the emitter and its part with ``absorption_per_m``.
+        Default None: one absorber (the homojunction; results unchanged).
+    emitter_depletion_width_m : array_like, optional
+        With ``base_absorption_per_m``: the part of the depletion width in the emitter [m],
+        0 <= it <= ``depletion_width_m``; default None (all of it).
     where : str
         Name of the subcell for error messages.
 
@@ -361,6 +369,8 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
         J_base      = q Phi X Y eta_j(base)                + q Phi_b eta_s(base)
         absorbed    = q (Phi + Phi_b) (1 - X Y Z)
 
+    A heterojunction (``base_absorption_per_m`` alpha_b): Y = exp(-alpha Wd,e - alpha_b Wd,b)
+    and Z = exp(-alpha_b Wb), the base's eta with alpha_b; Beer-Lambert layer by layer.
     The depletion term with a long base (Wb >> L, S irrelevant) gives Gaertner's
     J = q Phi X [1 - Y / (1 + alpha L)].
     Scattered photons G, generated uniformly over W = We + Wd + Wb, add q G (We/W) eta_u(emitter),
@@ -386,26 +396,35 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
     sb = checked("back_srv_m_s", back_srv_m_s, "m/s", where=where, zero_ok=True, inf_ok=True)
 
     q = ELEMENTARY_CHARGE_C
-    x, y, z = np.exp(-alpha * we), np.exp(-alpha * wd), np.exp(-alpha * wb)
-    absorbed_e, absorbed_d, absorbed_b = -np.expm1(-alpha * we), -np.expm1(-alpha * wd), \
-        -np.expm1(-alpha * wb)
+    if base_absorption_per_m is None:
+        alpha_b, depth_d, depth = alpha, alpha * wd, alpha * (we + wd + wb)
+    else:
+        alpha_b = checked("base_absorption_per_m", base_absorption_per_m, "1/m", where=where, zero_ok=True)
+        wde = wd if emitter_depletion_width_m is None else checked(
+            "emitter_depletion_width_m", emitter_depletion_width_m, "m", where=where, zero_ok=True)
+        wde = np.minimum(wde, wd)
+        depth_d = alpha * wde + alpha_b * (wd - wde)
+        depth = alpha * we + depth_d + alpha_b * wb
+    x, y, z = np.exp(-alpha * we), np.exp(-depth_d), np.exp(-alpha_b * wb)
+    absorbed_e, absorbed_d, absorbed_b = -np.expm1(-alpha * we), -np.expm1(-depth_d), \
+        -np.expm1(-alpha_b * wb)
     emitter_front = _collection(alpha, we, le, sf, de, lit_at_junction=False)
-    base_front = _collection(alpha, wb, lb, sb, db, lit_at_junction=True)
+    base_front = _collection(alpha_b, wb, lb, sb, db, lit_at_junction=True)
     emitter = q * flux * emitter_front
     depletion = q * flux * x * absorbed_d
     base = q * flux * x * y * base_front
     emitter_absorbed = q * flux * absorbed_e
     base_absorbed = q * flux * x * y * absorbed_b
-    absorbed = q * flux * -np.expm1(-alpha * (we + wd + wb))
+    absorbed = q * flux * -np.expm1(-depth)
     if np.any(back_flux != 0):
         emitter_back = _collection(alpha, we, le, sf, de, lit_at_junction=True)
-        base_back = _collection(alpha, wb, lb, sb, db, lit_at_junction=False)
+        base_back = _collection(alpha_b, wb, lb, sb, db, lit_at_junction=False)
         emitter = emitter + q * back_flux * z * y * emitter_back
         depletion = depletion + q * back_flux * z * absorbed_d
         base = base + q * back_flux * base_back
         emitter_absorbed = emitter_absorbed + q * back_flux * z * y * absorbed_e
         base_absorbed = base_absorbed + q * back_flux * absorbed_b
-        absorbed = absorbed + q * back_flux * -np.expm1(-alpha * (we + wd + wb))
+        absorbed = absorbed + q * back_flux * -np.expm1(-depth)
     scattered = checked("uniform_absorbed_m2_s", uniform_absorbed_m2_s, "1/(m^2 s)", where=where, zero_ok=True)
     if np.any(scattered != 0):
         width = np.where(we + wd + wb > 0, we + wd + wb, 1.0)

@@ -1,4 +1,5 @@
-"""Light through a layer stack: the coating by characteristic matrices, Beer-Lambert in every
+"""Light through a layer stack: the coating and the thin layers above the first emitter (window,
+contact layers) by characteristic matrices, Beer-Lambert in every thicker
 layer with an optional back mirror (flat or ideally scattering, and an optionally textured front:
 light trapping, laws/thinfilm.py), collection by each subcell's layers, and the photon budget.
 
@@ -79,19 +80,13 @@ def layer_light(model, wavelength, flux, reuse=None):
     alphas = [a + f for a, f in zip(band_to_band, free)]
     free_share = [_share(f, a) for f, a in zip(free, alphas)]
     thicknesses = [layer.thickness_nm * 1e-9 for layer in model.layers]
-    top = model.materials[0]
-    substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(wavelength),
-                                       alpha_per_m=alphas[0])
     coatings = model.coatings
-    response = thinfilm.coating_response(
-        wavelength, substrate_index=substrate,
-        coating_indices=[c.refractive_index + 1j * c.extinction for c in coatings],
-        coating_thicknesses_nm=[c.thickness_nm for c in coatings],
-        ambient_index=model.ambient_index)
+    response, films = front_response(model, wavelength, alphas)
     reflectance = np.asarray(response.reflectance, dtype=float)
     transmittance = np.asarray(response.transmittance, dtype=float)
-    coating_absorbed = np.asarray(response.absorptance, dtype=float).reshape(len(coatings), -1) \
-        if coatings else np.zeros((0, wavelength.size))
+    film_absorbed = np.asarray(response.absorptance, dtype=float).reshape(len(coatings) + films, -1) \
+        if coatings or films else np.zeros((0, wavelength.size))
+    coating_absorbed = film_absorbed[:len(coatings)]
     # light returning from inside sees the front surface as reflecting as much as from outside
     # (a lossless coating reflects alike from both sides: H. A. Macleod, Thin-Film Optical
     # Filters, ch. 2)
@@ -106,15 +101,72 @@ def layer_light(model, wavelength, flux, reuse=None):
         trapping = dict(back_haze=back_haze, front_haze=front_haze,
                         trapping_index=model.materials[-1].refractive_index(wavelength),
                         ambient_index=model.ambient_index)
-    budget = haze.hazy_layer_absorption(flux, alpha_per_m=alphas, thicknesses_m=thicknesses,
+    # the thick layers (from the first emitter down) by Beer-Lambert; the films above it are in the
+    # coherent front response, their absorption its absorptance of the incident light
+    budget = haze.hazy_layer_absorption(flux, alpha_per_m=alphas[films:], thicknesses_m=thicknesses[films:],
                                         front_reflectance=1.0 - transmittance,
                                         back_reflectance=model.back_reflectance,
                                         front_internal_reflectance=reflectance
                                         if model.back_reflectance > 0 else 0.0, **trapping)
+    if films:
+        flux_array = np.asarray(flux, dtype=float)
+        front = film_absorbed[len(coatings):]
+        budget = _with_front_films(budget, front.reshape((films,) + (1,) * (flux_array.ndim - 1) + (-1,))
+                                   * flux_array)
     collected = [_collected(cell, band_to_band, free, free_share, budget, bool(trapping))
                  for cell in model.subcells]
     return LayerLight(alphas, reflectance * open_area, coating_absorbed * open_area, budget, collected,
                       free_share)
+
+
+#: the layers above the first emitter (window, contact layers) join the coherent front calculation
+#: when each is at most this thick [nm]: thinner than the coherence length of sunlight, about 1 um
+#: (common practice, no source); a thicker one keeps them all in the Beer-Lambert stack
+COHERENT_FRONT_MAX_NM = 1000.0
+
+
+def front_film_count(model):
+    """How many layers from the top join the coherent front calculation: all layers above the first
+    subcell's emitter when each is at most ``COHERENT_FRONT_MAX_NM`` thick, else none."""
+    first = min(cell.emitter for cell in model.subcells)
+    if all(model.layers[j].thickness_nm <= COHERENT_FRONT_MAX_NM for j in range(first)):
+        return first
+    return 0
+
+
+def front_response(model, wavelength, alphas):
+    """The coherent front: the coating and the thin layers above the first emitter (characteristic
+    matrices, laws/thinfilm.coating_response) on the first thick layer as the semi-infinite
+    substrate. ``alphas`` [1/m] per layer on ``wavelength`` [nm]. Returns the CoatingResponse
+    (absorptance: the coatings', then the films') and the number of films."""
+    films = front_film_count(model)
+
+    def index(j):
+        return thinfilm.complex_index(wavelength, refractive_index=model.materials[j].refractive_index(wavelength),
+                                      alpha_per_m=alphas[j])
+
+    coatings = model.coatings
+    response = thinfilm.coating_response(
+        wavelength, substrate_index=index(films),
+        coating_indices=[c.refractive_index + 1j * c.extinction for c in coatings] + [index(j) for j in range(films)],
+        coating_thicknesses_nm=[c.thickness_nm for c in coatings] + [model.layers[j].thickness_nm
+                                                                     for j in range(films)],
+        ambient_index=model.ambient_index)
+    return response, films
+
+
+def _with_front_films(budget, absorbed_films):
+    """The Beer-Lambert budget of the thick layers with the front films put back on top: their
+    absorbed light (from the coherent front response; light returning from below that they would
+    absorb is counted as escaping, as for the coating), no flux of their own."""
+    shape = np.shape(budget.downward_at_top)[1:]
+    films = absorbed_films.shape[0]
+    zeros = np.zeros((films,) + shape)
+    absorbed = np.broadcast_to(absorbed_films, (films,) + shape)
+    return budget._replace(absorbed=np.concatenate([absorbed, budget.absorbed]),
+                           downward_at_top=np.concatenate([zeros, budget.downward_at_top]),
+                           upward_at_bottom=np.concatenate([zeros, budget.upward_at_bottom]),
+                           scattered_absorbed=np.concatenate([zeros, budget.scattered_absorbed]))
 
 
 def _collected(cell, band_to_band, free, free_share, budget, scattered):
@@ -123,11 +175,13 @@ def _collected(cell, band_to_band, free, free_share, budget, scattered):
     thick part). Free carriers absorb but make no pair: the generation is the band-to-band part
     (the fluxes given to the collection law scaled by alpha_bb / alpha, the law being linear in
     them), and of the scattered light absorbed in each layer only the band-to-band part counts."""
-    attenuation = band_to_band[cell.emitter] + free[cell.base]
-    keep = np.where(attenuation > 0, _share(band_to_band[cell.emitter], attenuation), 1.0)
     uniform = 0.0
     if scattered:
         uniform = sum(budget.scattered_absorbed[j] * (1.0 - free_share[j]) for j in (cell.emitter, cell.base))
+    if cell.hetero:
+        return _collected_hetero(cell, band_to_band, free, budget, uniform)
+    attenuation = band_to_band[cell.emitter] + free[cell.base]
+    keep = np.where(attenuation > 0, _share(band_to_band[cell.emitter], attenuation), 1.0)
     return collection.collected_photocurrent(
         attenuation, photon_flux_m2_s=keep * budget.downward_at_top[cell.emitter],
         emitter_thickness_m=cell.emitter_thickness_m,
@@ -138,6 +192,38 @@ def _collected(cell, band_to_band, free, free_share, budget, scattered):
         base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
         back_photon_flux_m2_s=keep * budget.upward_at_bottom[cell.base],
         uniform_absorbed_m2_s=uniform, where=cell.name)
+
+
+def _collected_hetero(cell, band_to_band, free, budget, uniform):
+    """A heterojunction's collected photocurrent per nm: emitter and base each absorb with their
+    own material's alpha (band-to-band plus free carriers: Beer-Lambert layer by layer); of each
+    region's current the band-to-band share makes pairs (the depletion region's share weighted by
+    the optical depth of its two parts)."""
+    alpha_e = band_to_band[cell.emitter] + free[cell.emitter]
+    alpha_b = band_to_band[cell.base] + free[cell.base]
+    result = collection.collected_photocurrent(
+        alpha_e, photon_flux_m2_s=budget.downward_at_top[cell.emitter],
+        emitter_thickness_m=cell.emitter_thickness_m,
+        emitter_diffusion_length_m=cell.emitter_length_m,
+        emitter_diffusivity_m2_s=cell.emitter_diffusivity_m2_s,
+        front_srv_m_s=cell.front_srv_m_s, depletion_width_m=cell.depletion_width_m,
+        base_thickness_m=cell.base_thickness_m, base_diffusion_length_m=cell.base_length_m,
+        base_diffusivity_m2_s=cell.base_diffusivity_m2_s, back_srv_m_s=cell.back_srv_m_s,
+        back_photon_flux_m2_s=budget.upward_at_bottom[cell.base], uniform_absorbed_m2_s=uniform,
+        base_absorption_per_m=alpha_b, emitter_depletion_width_m=cell.emitter_depletion_width_m,
+        where=cell.name)
+    if not (np.any(free[cell.emitter]) or np.any(free[cell.base])):
+        return result
+    keep_e = np.where(alpha_e > 0, _share(band_to_band[cell.emitter], alpha_e), 1.0)
+    keep_b = np.where(alpha_b > 0, _share(band_to_band[cell.base], alpha_b), 1.0)
+    wde = cell.emitter_depletion_width_m
+    wdb = cell.depletion_width_m - wde
+    depth = alpha_e * wde + alpha_b * wdb
+    keep_d = np.where(depth > 0, _share(band_to_band[cell.emitter] * wde + band_to_band[cell.base] * wdb,
+                                        depth), 1.0)
+    return result._replace(emitter_A_m2=result.emitter_A_m2 * keep_e,
+                           depletion_A_m2=result.depletion_A_m2 * keep_d,
+                           base_A_m2=result.base_A_m2 * keep_b)
 
 
 def illuminate_layers(circuit, spectrum, reuse=None):

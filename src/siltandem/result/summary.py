@@ -315,6 +315,9 @@ def _subcell_rows(circuit, temperature_K, alone, limiting, irradiance, coupled=N
             row["collection_loss_mA_cm2"] = row["absorbed_mA_cm2"] - row["photocurrent_mA_cm2"]
         row["coupled_mA_cm2"] = units.ma_cm2(first_value(coupled.get(cell.name, 0.0)))
         row["luminescent_coupling"] = first_value(cell.luminescent_coupling)
+        hetero = circuit.optics.get("layer_details", {}).get("subcells", {}).get(cell.name, {}).get("heterojunction")
+        if hetero:       # a heterojunction subcell: its band diagram (circuit/hetero.py)
+            row["heterojunction"] = hetero
         rows.append(row)
     return rows
 

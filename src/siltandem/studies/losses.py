@@ -59,22 +59,19 @@ def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True, sha
     emitter.
     """
     from siltandem.laws import thinfilm
+    from siltandem.optics.layers import front_response
 
     model = circuit.model
     wavelength, flux = spectrum.wavelength_nm, spectrum.photon_flux.copy()
     if shading:
         flux = flux * (1.0 - model.shading_fraction)
     temperature = model.temperature_K
+    films = 0
     if reflection:
-        top = model.materials[0]
-        alpha0 = top.absorption_per_m(wavelength, temperature_K=temperature)
-        substrate = thinfilm.complex_index(wavelength, refractive_index=top.refractive_index(
-            wavelength), alpha_per_m=alpha0)
-        response = thinfilm.coating_response(
-            wavelength, substrate_index=substrate,
-            coating_indices=[c.refractive_index + 1j * c.extinction for c in model.coatings],
-            coating_thicknesses_nm=[c.thickness_nm for c in model.coatings],
-            ambient_index=model.ambient_index)
+        # the coherent front of the optics stage: the coating and the thin layers above the first
+        # emitter (their absorption is in the transmittance; without ``passive`` only R is lost)
+        alphas = [m.absorption_per_m(wavelength, temperature_K=temperature) for m in model.materials]
+        response, films = front_response(model, wavelength, alphas)
         flux = flux * (response.transmittance if passive else 1.0 - response.reflectance)
     emitters = {cell.emitter: cell for cell in model.subcells}
     active = {i for cell in model.subcells for i in (cell.emitter, cell.base)}
@@ -87,7 +84,7 @@ def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True, sha
             above = energy >= gap
             currents[cell.name] = float(thinfilm.photon_current_A_m2(wavelength, flux * above))
             flux = flux * ~above
-        elif j not in active and passive:
+        elif j not in active and passive and j >= films:
             alpha = material.absorption_per_m(wavelength, temperature_K=temperature)
             flux = flux * np.exp(-alpha * layer.thickness_nm * 1e-9)
     return currents

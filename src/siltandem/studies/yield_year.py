@@ -496,7 +496,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
             circuit, light, flux, reference, temperature)
         gaps = [dark[c.name][2] for c in subcells]
         # layer subcells follow their absorber's Varshni law and intrinsic density
-        laws = {c.name: circuit.model.materials[m.emitter]
+        laws = {c.name: circuit.model.materials[m.dark_index]
                 for c, m in zip(subcells, circuit.model.subcells)}
     else:
         photocurrents, spectral_only, reference_currents = _element_photocurrents(
