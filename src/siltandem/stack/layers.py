@@ -30,7 +30,7 @@ from siltandem.text import excerpt
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
-              "transport"}
+              "transport", "srh_lifetime_ns", "photon_recycling_factor"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -54,6 +54,12 @@ LAYER_NUMBERS = {
                         reason="a lifetime below a femtosecond is shorter than any carrier "
                                "scattering time"),
     "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False),
+    "srh_lifetime_ns": dict(unit="ns", low=MIN_LIFETIME_NS, high=1e9, low_open=False,
+                            reason="a lifetime below a femtosecond is shorter than any carrier "
+                                   "scattering time"),
+    "photon_recycling_factor": dict(unit="", low=1.0, high=1e4, low_open=False,
+                                    reason="photon recycling can only lengthen the radiative "
+                                           "lifetime (a factor of 1 is no recycling)"),
     "j0_fA_cm2": dict(unit="fA/cm2", low=0.0, high=1e9, low_open=True,
                       reason="a measured saturation current density is positive")}
 #: ``[device]`` keys of a layer stack and their defaults: the lumped series resistance of the
@@ -116,6 +122,11 @@ class Layer:
     j0_fA_cm2: float | None = None
     #: transport over an isotype interface with the layer below (None: "thermionic")
     transport: str | None = None
+    #: non-radiative (Shockley-Read-Hall) minority-carrier lifetime [ns] (None: from
+    #: lifetime_ns / diffusion_length_um less the radiative part)
+    srh_lifetime_ns: float | None = None
+    #: photon-recycling factor of the layer's radiative lifetime (None: self-consistent)
+    photon_recycling_factor: float | None = None
 
     @property
     def label(self):
@@ -309,6 +320,12 @@ def _minority_carriers(table, *, file, where):
     if length is not None and lifetime is not None:
         raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
                          where=where, fix="remove one of the two")
+    if "srh_lifetime_ns" in table and (length is not None or lifetime is not None):
+        raise StackError("srh_lifetime_ns (the non-radiative lifetime) is given together with the "
+                         "total lifetime or diffusion length", file=file, where=where,
+                         fix="give srh_lifetime_ns alone (the radiative part is added from the "
+                             "material's radiative coefficient), or lifetime_ns / "
+                             "diffusion_length_um alone (the measured total)")
     srv = _positive_number(table, "srv_cm_s", file=file, where=where, required=False,
                            **LAYER_NUMBERS["srv_cm_s"])
     return length, lifetime, srv
@@ -355,9 +372,12 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                          where=f"{where}, key transport",
                          fix='transport is "thermionic-field" (the default: emission over the '
                              'spike and tunnelling through it) or "thermionic" (over it only)')
+    srh, recycling = (_positive_number(table, key, file=file, where=where, required=False,
+                                       **LAYER_NUMBERS[key])
+                      for key in ("srh_lifetime_ns", "photon_recycling_factor"))
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0, transport)
+                 gap, j0, transport, srh, recycling)
 
 
 def parse_layers(tables, *, file, folder_materials=None):
