@@ -145,7 +145,7 @@ def _minority(layer, material, temperature_K, *, file, role, radiative_s=np.inf)
 def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflectance):
     """Rear emission of a subcell over its front emission (laws/lifetimes.py): into the layer
     behind its base where the layers behind reach one absorption length at the emission peak
-    (Eg + kT: a lower subcell, a substrate), else out of the back through transparent layers."""
+    (Eg + kT: a lower subcell, a substrate), else into the stack's back (reflectance R)."""
     peak_nm = HC_EV_NM / (gap_eV + BOLTZMANN_EV_K * temperature_K)
     cell_index = float(materials[cell.base].refractive_index(peak_nm))
     depth = 0.0
@@ -154,10 +154,8 @@ def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflecta
             * layer.thickness_nm * 1e-9
         if depth >= 1.0:
             return lifetimes.rear_emission_factor(
-                cell_index=cell_index, rear_index=float(material.refractive_index(peak_nm)),
-                rear_absorbs=True)
-    return lifetimes.rear_emission_factor(cell_index=cell_index, rear_index=1.0, rear_absorbs=False,
-                                          back_reflectance=back_reflectance)
+                cell_index=cell_index, rear_index=float(material.refractive_index(peak_nm)))
+    return lifetimes.rear_emission_factor(cell_index=cell_index, back_reflectance=back_reflectance)
 
 
 def _radiative_lifetimes(cell, layers, materials, ni, floor):

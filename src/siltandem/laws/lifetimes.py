@@ -70,28 +70,29 @@ def surface_share(thickness_m, *, doping_m3, intrinsic_density_m3, diffusion_len
         return ELEMENTARY_CHARGE_C * n0 / (np.cosh(k) / s + w / d * sinhc)
 
 
-def rear_emission_factor(*, cell_index, rear_index, rear_absorbs, back_reflectance=0.0):
+def rear_emission_factor(*, cell_index, rear_index=None, back_reflectance=0.0):
     """Rear emission of a subcell over its front emission into air [-].
 
     Parameters
     ----------
     cell_index : float
-        Refractive index of the subcell at its gap.
-    rear_index : float
-        Index of the first layer behind the subcell that absorbs at its gap (``rear_absorbs``
-        True), or of the ambient behind the stack (False).
-    rear_absorbs : bool
-        True: emission enters an absorbing medium (substrate, lower subcell) at rate
-        min(n_rear, n_cell)^2 (generalized Planck law in a medium of index n: n^2 times the
-        vacuum rate; beyond the cell's own index the escape cone is the cell's); False: it leaves
-        through the transparent layers into the ambient behind, reduced by the back reflectance.
+        Refractive index of the subcell at its emission peak.
+    rear_index : float or None
+        Index of the first layer behind the subcell that absorbs its emission (a substrate, a
+        lower subcell): emission enters it at min(n_rear, n_cell)^2 times the vacuum rate
+        (generalized Planck law in a medium of index n: n^2 times; beyond the cell's own index the
+        escape cone is the cell's). None: nothing behind absorbs; the emission crosses the
+        transparent layers to the stack's back, which reflects ``back_reflectance`` at every angle
+        (a mirror in contact; 0: an absorbing back contact, as the optics stage treats the back),
+        so n_cell^2 (1 - R) of it is lost.
 
     References
     ----------
     P. Wuerfel (1982); M. A. Steiner et al. (2013); O. D. Miller et al. (2012).
     """
-    index = min(float(rear_index), float(cell_index)) ** 2
-    return index if rear_absorbs else index * (1.0 - float(back_reflectance))
+    if rear_index is not None:
+        return min(float(rear_index), float(cell_index)) ** 2
+    return float(cell_index) ** 2 * (1.0 - float(back_reflectance))
 
 
 def self_consistent_recycling(*, internal_A_m2, external_A_m2):
