@@ -194,3 +194,36 @@ def test_recycling_factor_lengthens_the_radiative_lifetime(tmp_path):
     lives = [c.optics["layer_details"]["subcells"]["c"]["radiative_lifetime_ns"][0] for c in (plain, more)]
     assert lives[0] == pytest.approx(1e9 / (b * 2e18), rel=1e-12)
     assert lives[1] == pytest.approx(10 * lives[0], rel=1e-12)
+
+
+def test_dark_currents_at_other_temperatures_keep_the_two_sided_floor(tmp_path):
+    # the yield's hourly dark currents: at the stack's own temperature they are the compiled ones;
+    # the radiative part follows the generalized Planck law (quad) at the new temperature with the
+    # same (1 + r), the non-radiative part n_i^2
+    from siltandem.circuit.from_layers import dark_currents_at
+
+    circuit = _compile(stack_from(tmp_path, _ideal_gaas(True)))
+    cell = circuit.element("cell")
+    same = dark_currents_at(circuit.model, circuit, np.array([300.0]))["cell"]
+    assert float(same[0][0]) == pytest.approx(float(cell.j01_fixed_A_m2.reshape(-1)[0]), rel=1e-12)
+    details = circuit.optics["layer_details"]["subcells"]["cell"]
+    assert details["j01_diffusion_A_m2"] == 0.0          # ideal layers: all radiative
+    j01, _, gap, _ = dark_currents_at(circuit.model, circuit, np.array([330.0]))["cell"]
+    rear = details["radiative_rear_factor"]
+    assert float(j01[0]) == pytest.approx(_planck_j0_A_m2(float(gap[0]), 330.0, rear), rel=1e-6)
+
+
+@pytest.mark.parametrize("srv, length", [(1e2, 2e-6), (1e4, 5e-7), (0.0, 1e-6), (1e6, 3e-6)])
+def test_surface_share_and_bulk_add_up_to_the_region_j0(srv, length):
+    # particle balance of a quasi-neutral region (Hovel 1975, ch. 2): what enters at the depletion
+    # edge (the region's J0) recombines in the bulk, q/tau times the integral of the excess
+    # density (here by quad over the profile), or at the surface (surface_share)
+    w, d, n_dop, ni = 1.5e-6, 2e-3, 1e23, 2e12
+    kw = dict(doping_m3=n_dop, intrinsic_density_m3=ni, diffusion_length_m=length, diffusivity_m2_s=d,
+              surface_srv_m_s=srv)
+    n0, s = ni * ni / n_dop, srv * length / d
+    den = np.cosh(w / length) + s * np.sinh(w / length)
+    profile = lambda x: n0 * (np.cosh((w - x) / length) + s * np.sinh((w - x) / length)) / den  # noqa: E731
+    bulk = sc.e * d / length**2 * quad(profile, 0.0, w)[0]
+    whole = float(collection.region_saturation_current(w, **kw))
+    assert bulk + float(lifetimes.surface_share(w, **kw)) == pytest.approx(whole, rel=1e-9)
