@@ -227,3 +227,32 @@ def test_surface_share_and_bulk_add_up_to_the_region_j0(srv, length):
     bulk = sc.e * d / length**2 * quad(profile, 0.0, w)[0]
     whole = float(collection.region_saturation_current(w, **kw))
     assert bulk + float(lifetimes.surface_share(w, **kw)) == pytest.approx(whole, rel=1e-9)
+
+
+def test_measured_ere_sets_j01(tmp_path):
+    # J01 = J0,rad,front / ERE (M. A. Green, Prog. Photovolt. 20 (2012) 472), J0,rad by quad
+    text = (layer("c emitter", "GaAs", 100, "n:2e18", srh_lifetime_ns=5.0)
+            + layer("c base", "GaAs", 2000, "p:1e17", srh_lifetime_ns=50.0, ere=0.2))
+    circuit = _compile(stack_from(tmp_path, text))
+    gap = float(load_material("GaAs").gap_eV(300.0))
+    assert float(circuit.element("c").j01_fixed_A_m2.reshape(-1)[0]) == pytest.approx(
+        _planck_j0_A_m2(gap, 300.0, 0.0) / 0.2, rel=1e-6)
+
+
+@pytest.mark.parametrize("emitter, base, message", [
+    (dict(srh_lifetime_ns=5.0, ere=0.1), dict(srh_lifetime_ns=50.0), "ere is given on a layer that is no"),
+    (dict(srh_lifetime_ns=5.0, j0_fA_cm2=1.0), dict(srh_lifetime_ns=50.0, ere=0.1), "ere and j0_fA_cm2"),
+    (dict(srh_lifetime_ns=5.0), dict(srh_lifetime_ns=50.0, ere=2.0), "ere = 2 is outside"),
+])
+def test_bad_ere(tmp_path, emitter, base, message):
+    with pytest.raises(StackError, match=message) as info:
+        _compile(stack_from(tmp_path, layer("c emitter", "GaAs", 100, "n:2e18", **emitter)
+                            + layer("c base", "GaAs", 2000, "p:1e17", **base)))
+    assert info.value.fix
+
+
+def test_ere_refused_on_a_silicon_subcell(tmp_path):
+    text = (layer("s emitter", "Si", 400, "n:5e18", diffusion_length_um=3.0)
+            + layer("s base", "Si", 180000, "p:1e16", diffusion_length_um=600.0, ere=0.01))
+    with pytest.raises(StackError, match="ere is not taken for a Si subcell"):
+        _compile(stack_from(tmp_path, text))

@@ -253,9 +253,14 @@ def _subcell(cell, layers, materials, temperature_K, file, name, back_reflectanc
         # the law holds the radiative recombination: no floor
         j01 = emitter_j0 + (base_j0 or 0.0)
         diffusion_total = j01
+    elif base.ere is not None:
+        # a measured external radiative efficiency: the front emission over all recombination
+        # (M. A. Green, Prog. Photovolt. 20 (2012) 472)
+        diffusion_total, j01 = 0.0, front / base.ere
     else:
         diffusion_total = emitter_j0 + (base_j0 if base_j0 is not None else float(dark.base_A_m2))
         j01 = diffusion_total + floor
+    if not silicon_cell:
         # only the non-radiative (SRH) lifetimes recombine in the depletion region
         tau_e, tau_b = (min(t, _LONGEST_LIFETIME_S) for t in (srh_e, srh_b))
     tau_n, tau_p = (tau_b, tau_e) if emitter.polarity == "n" else (tau_e, tau_b)
@@ -278,6 +283,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name, back_reflectanc
                             "radiative_lifetime_ns": [rad_e * 1e9, rad_b * 1e9],
                             "srh_lifetime_ns": [srh_e * 1e9, srh_b * 1e9],
                             "floor_applied": bulk is None,
+                            "ere": base.ere,
                             "j0_emitter_A_m2": emitter_j0,
                             "silicon_base_law": bulk is not None}
 
@@ -402,17 +408,34 @@ def _cell_name(cell, layers, used):
 
 
 def _check_measured_j0(layers, structure, file):
-    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored."""
-    active = set()
+    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored; ``ere``
+    only on the base of a III-V subcell, with no ``j0_fA_cm2`` beside it."""
+    active, bases = set(), {}
     for kind, info in structure.parts:
         if kind == "subcell":
             active.update((info["cell"].emitter, info["cell"].base))
+            bases[info["cell"].base] = info["cell"].emitter
     for i, layer in enumerate(layers):
         if layer.j0_fA_cm2 is not None and i not in active:
             raise StackError("j0_fA_cm2 is given on a layer that is no subcell's emitter or base, "
                              "where no saturation current applies", file=file, where=layer.label,
                              fix="move j0_fA_cm2 to the emitter (or the base, for its passivated "
                                  "rear) of a subcell, or remove it")
+        if layer.ere is None:
+            continue
+        if i not in bases:
+            raise StackError("ere is given on a layer that is no subcell's base", file=file,
+                             where=f"{layer.label}, key ere",
+                             fix="give ere on the base of the subcell it was measured on")
+        emitter = layers[bases[i]]
+        if is_silicon(layer) and is_silicon(emitter):
+            raise StackError("ere is not taken for a Si subcell (its base law holds its own "
+                             "radiative recombination)", file=file, where=f"{layer.label}, key ere",
+                             fix="remove ere; give j0_fA_cm2 for measured saturation currents")
+        if layer.j0_fA_cm2 is not None or emitter.j0_fA_cm2 is not None:
+            raise StackError("ere and j0_fA_cm2 are given on one subcell: both set its J01",
+                             file=file, where=f"{layer.label}, key ere",
+                             fix="keep one of the two")
 
 
 def compile_layer_stack(stack):
@@ -510,6 +533,8 @@ def dark_currents_at(model, circuit, temperature_K):
             * (1.0 + details.get("radiative_rear_factor", 0.0))
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
         j01 = diffusion if details.get("silicon_base_law") else diffusion + floor
+        if details.get("ere") is not None:      # the measured ERE held at every temperature
+            j01 = radiative_saturation_current(gap, temperature_K=temperature_K) / details["ere"]
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         out[cell.name] = (j01, j02, gap, ratio)
     return out

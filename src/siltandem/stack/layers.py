@@ -30,7 +30,7 @@ from siltandem.text import excerpt
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
-              "transport", "srh_lifetime_ns", "photon_recycling_factor"}
+              "transport", "srh_lifetime_ns", "photon_recycling_factor", "ere"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -57,6 +57,9 @@ LAYER_NUMBERS = {
     "srh_lifetime_ns": dict(unit="ns", low=MIN_LIFETIME_NS, high=1e9, low_open=False,
                             reason="a lifetime below a femtosecond is shorter than any carrier "
                                    "scattering time"),
+    "ere": dict(unit="", low=1e-12, high=1.0, low_open=False,
+                reason="an external radiative efficiency is a fraction; below 1e-12 the cell gives "
+                       "no voltage"),
     "photon_recycling_factor": dict(unit="", low=1.0, high=1e4, low_open=False,
                                     reason="photon recycling can only lengthen the radiative "
                                            "lifetime (a factor of 1 is no recycling)"),
@@ -127,6 +130,8 @@ class Layer:
     srh_lifetime_ns: float | None = None
     #: photon-recycling factor of the layer's radiative lifetime (None: self-consistent)
     photon_recycling_factor: float | None = None
+    #: on a III-V subcell's base: its measured external radiative efficiency, J01 = J0,rad,front / ere
+    ere: float | None = None
 
     @property
     def label(self):
@@ -372,12 +377,12 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                          where=f"{where}, key transport",
                          fix='transport is "thermionic-field" (the default: emission over the '
                              'spike and tunnelling through it) or "thermionic" (over it only)')
-    srh, recycling = (_positive_number(table, key, file=file, where=where, required=False,
-                                       **LAYER_NUMBERS[key])
-                      for key in ("srh_lifetime_ns", "photon_recycling_factor"))
+    srh, recycling, ere = (_positive_number(table, key, file=file, where=where, required=False,
+                                            **LAYER_NUMBERS[key])
+                           for key in ("srh_lifetime_ns", "photon_recycling_factor", "ere"))
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0, transport, srh, recycling)
+                 gap, j0, transport, srh, recycling, ere)
 
 
 def parse_layers(tables, *, file, folder_materials=None):

@@ -32,7 +32,7 @@ ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
 #: optics and the layer physics); their ranges are the file's (layers.check_layer_value)
 LAYER_VARIABLE = ("thickness_nm", "doping_cm3", "composition", "diffusion_length_um",
                   "lifetime_ns", "srv_cm_s", "gap_eV", "j0_fA_cm2",
-                  "srh_lifetime_ns", "photon_recycling_factor")
+                  "srh_lifetime_ns", "photon_recycling_factor", "ere")
 #: the name a layer stack's varied [device] keys go by (``--vary device.series_ohm_cm2=0:2:5``;
 #: a layer of that name takes precedence)
 DEVICE_TABLE = "device"
