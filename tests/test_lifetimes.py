@@ -256,3 +256,20 @@ def test_ere_refused_on_a_silicon_subcell(tmp_path):
             + layer("s base", "Si", 180000, "p:1e16", diffusion_length_um=600.0, ere=0.01))
     with pytest.raises(StackError, match="ere is not taken for a Si subcell"):
         _compile(stack_from(tmp_path, text))
+
+
+def test_an_alloy_written_with_its_fractions_finds_its_data():
+    # "Ga0.51In0.49P" and GaInP at 0.51 are one material (README): the same B
+    gainp = load_material("GaInP", 0.51)
+    named = load_material("Ga0.51In0.49P")
+    assert radiative_coefficient_cm3_s(named, material_document("Ga0.51In0.49P", named)) == \
+        radiative_coefficient_cm3_s(gainp, material_document("GaInP", gainp)) == 1e-10
+
+
+def test_materials_command_shows_the_recombination_data():
+    from test_main_job import cli
+
+    one = cli("materials", "GaAs")
+    assert one.returncode == 0
+    assert "radiative coefficient B" in one.stdout and "7.2e-10" in one.stdout
+    assert "electron mobility at 1e17" in one.stdout and "4503.7" in one.stdout

@@ -107,7 +107,7 @@ def _mobility(layer, material, temperature_K):
     if is_silicon(layer):
         return float(silicon.masetti_mobility(layer.doping_cm3, carrier)) * 1e-4
     doped = recombination.minority_mobility_cm2_V_s(
-        material, recombination.material_document(layer.material), layer.doping_cm3, carrier,
+        material, recombination.material_document(layer.material, material), layer.doping_cm3, carrier,
         temperature_K=temperature_K)
     if doped is not None:
         return doped * 1e-4
@@ -162,7 +162,8 @@ def _radiative_lifetimes(cell, layers, materials, ni, floor):
     """(emitter, base) radiative lifetimes [s] with photon recycling, and the self-consistent
     recycling factor (a layer's photon_recycling_factor replaces it for that layer)."""
     pairs = [(layers[i], recombination.radiative_coefficient_cm3_s(
-        materials[i], recombination.material_document(layers[i].material))) for i in (cell.emitter, cell.base)]
+        materials[i], recombination.material_document(layers[i].material, materials[i])))
+        for i in (cell.emitter, cell.base)]
     internal = sum(ELEMENTARY_CHARGE_C * ni * ni * b * 1e-6 * layer.thickness_nm * 1e-9
                    for layer, b in pairs if b is not None)
     recycling = float(lifetimes.self_consistent_recycling(internal_A_m2=internal, external_A_m2=floor))

@@ -30,14 +30,17 @@ __all__ = ["caughey_thomas_mobility", "material_document", "radiative_coefficien
 _CARRIERS = ("electron", "hole")
 
 
-def material_document(name):
-    """The parsed data file of a material: a library name, or the path of a user's material file."""
+def material_document(name, material=None):
+    """The parsed data file of a material: the path of a user's material file, or a library name
+    (an alloy written with its fractions, "Ga0.51In0.49P", is found by ``material``'s family)."""
     from siltandem.materials import userfiles
     from siltandem.materials.library import library_document
 
     if userfiles.is_material_file(name):
         return userfiles.read_material_file(name)[0]
     found = library_document(name)
+    if found is None and material is not None:
+        found = library_document(material.family)
     return None if found is None else found[2]
 
 
