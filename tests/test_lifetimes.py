@@ -92,7 +92,8 @@ def _ideal_gaas(substrate):
 def _planck_j0_A_m2(gap_eV, temperature_K, index_squared):
     """q (1 + n^2) 2 pi / (h^3 c^2) int_Eg^inf E^2 / (exp(E/kT) - 1) dE (Wuerfel 1982), by quad."""
     kt = sc.k * temperature_K
-    value, _ = quad(lambda x: x * x / np.expm1(x), gap_eV * sc.e / kt, np.inf)
+    x0 = gap_eV * sc.e / kt        # the integrand falls as e^-x: 80 kT past the gap leaves < 1e-30
+    value, _ = quad(lambda x: x * x / np.expm1(x), x0, x0 + 80.0, epsabs=0.0, epsrel=1e-13)
     return sc.e * (1 + index_squared) * 2 * np.pi * kt**3 / (sc.h**3 * sc.c**2) * value
 
 
@@ -273,3 +274,17 @@ def test_materials_command_shows_the_recombination_data():
     assert one.returncode == 0
     assert "radiative coefficient B" in one.stdout and "7.2e-10" in one.stdout
     assert "electron mobility at 1e17" in one.stdout and "4503.7" in one.stdout
+
+
+def test_default_recycling_factor_is_internal_over_escaping_emission(tmp_path):
+    # Asbeck 1977: phi = internal radiative recombination q B ni^2 (W_e + W_b) over the escaping
+    # emission J0,rad (two-sided, here on a GaAs substrate: 1 + n^2, by quad)
+    circuit = _compile(stack_from(tmp_path, _ideal_gaas(True)))
+    details = circuit.optics["layer_details"]["subcells"]["cell"]
+    gaas = load_material("GaAs")
+    ni = float(gaas.intrinsic_density_per_m3(300.0))
+    internal = sc.e * _b("GaAs") * 1e-6 * ni * ni * 3.2e-6
+    escaping = _planck_j0_A_m2(float(gaas.gap_eV(300.0)), 300.0, details["radiative_rear_factor"])
+    assert details["photon_recycling_factor"] == pytest.approx(internal / escaping, rel=1e-6)
+    assert details["radiative_lifetime_ns"][1] == pytest.approx(
+        details["photon_recycling_factor"] / (_b("GaAs") * 1e16) * 1e9, rel=1e-12)
