@@ -264,7 +264,7 @@ def test_an_alloy_written_with_its_fractions_finds_its_data():
     gainp = load_material("GaInP", 0.51)
     named = load_material("Ga0.51In0.49P")
     assert radiative_coefficient_cm3_s(named, material_document("Ga0.51In0.49P", named)) == \
-        radiative_coefficient_cm3_s(gainp, material_document("GaInP", gainp)) == 1e-10
+        radiative_coefficient_cm3_s(gainp, material_document("GaInP", gainp)) == 3.6e-10
 
 
 def test_materials_command_shows_the_recombination_data():
@@ -288,3 +288,29 @@ def test_default_recycling_factor_is_internal_over_escaping_emission(tmp_path):
     assert details["photon_recycling_factor"] == pytest.approx(internal / escaping, rel=1e-6)
     assert details["radiative_lifetime_ns"][1] == pytest.approx(
         details["photon_recycling_factor"] / (_b("GaAs") * 1e16) * 1e9, rel=1e-12)
+
+
+def _van_roosbroeck_shockley_cm3_s(material, temperature_K=300.0):
+    """B = 8 pi / (ni^2 h^3 c^2) int n^2 alpha E^2 exp(-E/kT) dE (W. van Roosbroeck, W. Shockley,
+    Phys. Rev. 94 (1954) 1558), with the library's absorption, index and ni."""
+    kt = sc.k * temperature_K / sc.e
+    gap = float(material.gap_eV(temperature_K))
+    energy = np.linspace(gap - 0.15, gap + 0.8, 8001)
+    wavelength = sc.h * sc.c / sc.e * 1e9 / energy
+    alpha = material.absorption_per_m(wavelength, temperature_K=temperature_K) * 1e-2
+    n = material.refractive_index(wavelength)
+    h_ev, c_cm = sc.h / sc.e, sc.c * 100
+    rate = np.trapezoid(8 * np.pi * n**2 * alpha * energy**2 * np.exp(-energy / kt) / (h_ev**3 * c_cm**2), energy)
+    return rate / (float(material.intrinsic_density_per_m3(temperature_K)) * 1e-6) ** 2
+
+
+def test_radiative_coefficients_agree_with_van_roosbroeck_shockley():
+    # GaAs: the measured B (7.2e-10, R. N. Hall 1959 via the Ioffe archive, from memory) against the
+    # detailed-balance B from the library's own absorption (Aspnes 1986 + square-root edge), index
+    # and ni: within 25 % (published GaAs B span 2-7e-10, so the library is consistent)
+    gaas = load_material("GaAs")
+    assert _van_roosbroeck_shockley_cm3_s(gaas) == pytest.approx(_b("GaAs"), rel=0.25)
+    # GaInP's file value is this evaluation itself (its absorption is an estimate): 2 %
+    gainp = load_material("GaInP", 0.51)
+    assert _van_roosbroeck_shockley_cm3_s(gainp) == pytest.approx(
+        radiative_coefficient_cm3_s(gainp, material_document("GaInP", gainp)), rel=0.02)
