@@ -2,8 +2,9 @@
 
 The stacks (tests/records/*.toml) hold published-typical layer values of the device class, read
 from memory, not the record cells' own numbers (which are not all published); their SRH lifetimes
-are the least certain values: halving or doubling both moves the GaAs cell by about 1 % absolute
-(measured: 5/100 ns 27.6 %, 20/1000 ns 29.5 %, against 28.7 % at 10/300 ns).
+are the least certain values: dividing or multiplying them by 2-3 moves the GaAs cell by about 1 %
+absolute (measured, emitter/base SRH lifetimes: 5/100 ns 27.6 %, 20/1000 ns 29.5 %, against 28.7 %
+at the 10/300 ns of the file).
 
 Published values checked against:
 * GaAs thin film: 28.8 % (Voc 1.122 V, Jsc 29.68 mA/cm2, FF 86.5 %), M. A. Green et al., "Solar
