@@ -4,10 +4,11 @@
 element per subcell, tunnel junction and isotype interface, in the order of the layer boundaries:
 
 * a **subcell** (a homojunction, or a heterojunction: circuit/hetero.py, each side with its own
-  material) at layer-physics level: J01 from the minority-carrier diffusion solution of its
-  emitter and base (laws/collection.py), never below the radiative floor J0,rad(Eg); J02 from
-  depletion-region recombination (Sah-Noyce-Shockley); its photocurrent comes later, from the
-  optics stage;
+  material) at layer-physics level: J01 is the non-radiative part of the minority-carrier
+  diffusion solution of its emitter and base (laws/collection.py; lifetimes split by mechanism,
+  laws/lifetimes.py) plus the radiative floor J0,rad(Eg) with emission through the front and into
+  what lies behind; J02 from depletion-region recombination (Sah-Noyce-Shockley) with the SRH
+  lifetimes only; its photocurrent comes later, from the optics stage;
 * a **tunnel junction** whose peak current is estimated from its two layers (Kane's band-to-band
   tunnelling through the junction field, laws/esaki.py), unless its upper layer overrides it;
 * an **isotype interface** from its two materials (electron-affinity rule, laws/thermionic.py),
@@ -29,14 +30,14 @@ from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.layer_coupling import couple_layers
 from siltandem.circuit.recognise import carriers_flow, recognise
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
-from siltandem.constants import BOLTZMANN_EV_K
+from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, HC_EV_NM
 from siltandem.errors import StackError
 from siltandem.laws import checks, collection
 from siltandem.laws import junction as junction_law
 from siltandem.laws import esaki
-from siltandem.laws import silicon
+from siltandem.laws import lifetimes, silicon
 from siltandem.laws.radiative import radiative_saturation_current
-from siltandem.materials import material_identity
+from siltandem.materials import material_identity, recombination
 
 #: defaults of the layer compiler (common practice, no source; each can be given per layer)
 DEFAULT_SRV_CM_S = 1e4
@@ -115,30 +116,81 @@ def is_silicon(layer):
     return layer.material == "Si"
 
 
-def _minority(layer, material, temperature_K, *, file, role):
-    """Minority-carrier diffusion length [m] and diffusivity [m^2/s] of an active layer (a Si
-    layer's mobility from its doping, Masetti et al. 1983)."""
-    mobility = (material.hole_mobility_m2_V_s if layer.polarity == "n"
-                else material.electron_mobility_m2_V_s)
+def _mobility(layer, material, temperature_K):
+    """Minority-carrier mobility [m^2/(V s)] of an active layer: Masetti et al. 1983 for Si,
+    Caughey-Thomas with Sotoodeh et al. 2000 where the data have the material, else the
+    library's fixed (lightly doped) value."""
+    carrier = "hole" if layer.polarity == "n" else "electron"
     if is_silicon(layer):
-        carrier = "hole" if layer.polarity == "n" else "electron"
-        mobility = float(silicon.masetti_mobility(layer.doping_cm3, carrier)) * 1e-4
+        return float(silicon.masetti_mobility(layer.doping_cm3, carrier)) * 1e-4
+    doped = recombination.minority_mobility_cm2_V_s(
+        material, recombination.material_document(layer.material, material), layer.doping_cm3, carrier,
+        temperature_K=temperature_K)
+    if doped is not None:
+        return doped * 1e-4
+    return material.hole_mobility_m2_V_s if layer.polarity == "n" else material.electron_mobility_m2_V_s
+
+
+def _minority(layer, material, temperature_K, *, file, role, radiative_s=np.inf):
+    """Minority-carrier diffusion length [m], diffusivity [m^2/s] and non-radiative (SRH)
+    lifetime [s] of an active layer whose radiative lifetime (with photon recycling) is
+    ``radiative_s`` [s] (inf: none). ``srh_lifetime_ns`` is the SRH part and the radiative one
+    is added; ``lifetime_ns`` and ``diffusion_length_um`` are the measured total, the SRH part
+    being what the radiative one leaves (laws/lifetimes.py)."""
+    mobility = _mobility(layer, material, temperature_K)
     if not np.isfinite(mobility) or mobility <= 0:
         raise StackError(f"the library has no minority-carrier mobility for {material.name}",
                          file=file, where=layer.label,
                          fix="give diffusion_length_um for this layer")
-    diffusivity = collection.einstein_diffusivity(mobility, temperature_K=temperature_K)
+    diffusivity = float(collection.einstein_diffusivity(mobility, temperature_K=temperature_K))
+    if layer.srh_lifetime_ns is not None:
+        srh = layer.srh_lifetime_ns * 1e-9
+        total = float(lifetimes.effective_lifetime_s(srh, radiative_s))
+        return float(collection.diffusion_length(total, diffusivity_m2_s=diffusivity)), diffusivity, srh
     if layer.diffusion_length_um is not None:
-        return layer.diffusion_length_um * units.UM_TO_M, float(diffusivity)
-    if layer.lifetime_ns is not None:
-        length = collection.diffusion_length(layer.lifetime_ns * 1e-9, diffusivity_m2_s=diffusivity)
-        return float(length), float(diffusivity)
-    raise StackError(f"the {role} of a subcell needs its minority-carrier diffusion length or "
-                     "lifetime", file=file, where=layer.label,
-                     fix="add diffusion_length_um = <um> or lifetime_ns = <ns>")
+        length = layer.diffusion_length_um * units.UM_TO_M
+    elif layer.lifetime_ns is not None:
+        length = float(collection.diffusion_length(layer.lifetime_ns * 1e-9, diffusivity_m2_s=diffusivity))
+    else:
+        raise StackError(f"the {role} of a subcell needs its minority-carrier diffusion length or "
+                         "lifetime", file=file, where=layer.label,
+                         fix="add diffusion_length_um = <um>, lifetime_ns = <ns> or srh_lifetime_ns "
+                             "= <ns>")
+    return length, diffusivity, float(lifetimes.nonradiative_lifetime_s(length**2 / diffusivity, radiative_s))
 
 
-def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
+def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflectance):
+    """Rear emission of a subcell over its front emission (laws/lifetimes.py): into the layer
+    behind its base where the layers behind reach one absorption length at the emission peak
+    (Eg + kT: a lower subcell, a substrate), else into the stack's back (reflectance R)."""
+    peak_nm = HC_EV_NM / (gap_eV + BOLTZMANN_EV_K * temperature_K)
+    cell_index = float(materials[cell.base].refractive_index(peak_nm))
+    depth = 0.0
+    for layer, material in zip(layers[cell.base + 1:], materials[cell.base + 1:]):
+        depth += float(material.absorption_per_m(peak_nm, temperature_K=temperature_K)) \
+            * layer.thickness_nm * 1e-9
+        if depth >= 1.0:
+            return lifetimes.rear_emission_factor(
+                cell_index=cell_index, rear_index=float(material.refractive_index(peak_nm)))
+    return lifetimes.rear_emission_factor(cell_index=cell_index, back_reflectance=back_reflectance)
+
+
+def _radiative_lifetimes(cell, layers, materials, ni, floor):
+    """(emitter, base) radiative lifetimes [s] with photon recycling, and the self-consistent
+    recycling factor (a layer's photon_recycling_factor replaces it for that layer)."""
+    pairs = [(layers[i], recombination.radiative_coefficient_cm3_s(
+        materials[i], recombination.material_document(layers[i].material, materials[i])))
+        for i in (cell.emitter, cell.base)]
+    internal = sum(ELEMENTARY_CHARGE_C * ni * ni * b * 1e-6 * layer.thickness_nm * 1e-9
+                   for layer, b in pairs if b is not None)
+    recycling = float(lifetimes.self_consistent_recycling(internal_A_m2=internal, external_A_m2=floor))
+    out = tuple(np.inf if b is None else float(lifetimes.radiative_lifetime_s(
+        layer.doping_cm3, coefficient_cm3_s=b,
+        recycling_factor=layer.photon_recycling_factor or recycling)) for layer, b in pairs)
+    return out, recycling
+
+
+def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0):
     emitter, base = layers[cell.emitter], layers[cell.base]
     material_e, material_b = materials[cell.emitter], materials[cell.base]
     dark_side = hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
@@ -198,8 +250,20 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
     # Si layers (of a homojunction, or one side of a heterojunction) keep silicon's own physics:
     # the emitter's intrinsic lifetime, band-gap narrowing and the base law
     silicon_base = is_silicon(base)
-    l_e, d_e = _minority(emitter, material_e, temperature_K, file=file, role="emitter")
-    l_b, d_b = _minority(base, material_b, temperature_K, file=file, role="base")
+    gap = float(material.gap_eV(temperature_K))
+    # the radiative floor: emission through the front and into what lies behind (two-sided)
+    front = float(radiative_saturation_current(gap, temperature_K=temperature_K))
+    rear = 0.0 if silicon_cell else _rear_emission(cell, layers, materials, gap, temperature_K,
+                                                    back_reflectance)
+    floor = front * (1.0 + rear)
+    (rad_e, rad_b), recycling = ((np.inf, np.inf), 1.0) if silicon_cell else \
+        _radiative_lifetimes(cell, layers, materials, ni, floor)
+    # a Si side of a heterojunction: its intrinsic (Auger + radiative) recombination is silicon's own
+    rad_e, rad_b = (np.inf if is_silicon(layer) else rad for layer, rad in ((emitter, rad_e), (base, rad_b)))
+    l_e, d_e, srh_e = _minority(emitter, material_e, temperature_K, file=file, role="emitter",
+                                radiative_s=rad_e)
+    l_b, d_b, srh_b = _minority(base, material_b, temperature_K, file=file, role="base",
+                                radiative_s=rad_b)
     if is_silicon(emitter) and emitter.diffusion_length_um is None:
         # the emitter's intrinsic (Auger + radiative) lifetime at low injection joins its own
         l_e = float(np.sqrt(d_e / (d_e / l_e**2 + 1.0 / _intrinsic_lifetime(emitter, ni_e0))))
@@ -210,14 +274,11 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
     ni_e, ni_b = ((own * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
                                       / (2 * BOLTZMANN_EV_K * temperature_K))) if is_silicon(layer) else own)
                   for layer, own in ((emitter, ni_e0), (base, ni_b0)))
-    dark = collection.DiffusionSaturationCurrent(*(np.array(collection.region_saturation_current(
-        thickness, doping_m3=doping, intrinsic_density_m3=n_i, diffusion_length_m=length,
-        diffusivity_m2_s=diffusivity, surface_srv_m_s=srv, where=f"{name} {role}"))
-        for thickness, doping, n_i, length, diffusivity, srv, role in (
-            (emitter_qn, emitter_doping, ni_e, l_e, d_e, srv_e, "emitter"),
-            (base_qn, base_doping, ni_b, l_b, d_b, srv_b, "base"))))
-    gap = float(material.gap_eV(temperature_K))
-    floor = float(radiative_saturation_current(gap, temperature_K=temperature_K))
+    regions = ((emitter_qn, emitter_doping, ni_e, l_e, d_e, srv_e, rad_e, "emitter"),
+               (base_qn, base_doping, ni_b, l_b, d_b, srv_b, rad_b, "base"))
+    # each region's J0 less its bulk radiative share (the escaping part is the floor's)
+    dark = collection.DiffusionSaturationCurrent(*(np.array(_nonradiative_j0(*region, name=name))
+                                                   for region in regions))
     emitter_j0 = (units.a_m2(emitter.j0_fA_cm2 * 1e-12) if emitter.j0_fA_cm2 is not None
                   else float(dark.emitter_A_m2))
     base_j0 = units.a_m2(base.j0_fA_cm2 * 1e-12) if base.j0_fA_cm2 is not None else None
@@ -236,9 +297,16 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
         # the law holds the radiative recombination: no floor
         j01 = emitter_j0 + (base_j0 or 0.0)
         diffusion_total = j01
+    elif base.ere is not None:
+        # a measured external radiative efficiency: the front emission over all recombination
+        # (M. A. Green, Prog. Photovolt. 20 (2012) 472)
+        diffusion_total, j01 = 0.0, front / base.ere
     else:
         diffusion_total = emitter_j0 + (base_j0 if base_j0 is not None else float(dark.base_A_m2))
-        j01 = max(diffusion_total, floor)
+        j01 = diffusion_total + floor
+    if not silicon_cell:
+        # only the non-radiative (SRH) lifetimes recombine in the depletion region
+        tau_e, tau_b = (min(t, _LONGEST_LIFETIME_S) for t in (srh_e, srh_b))
     tau_n, tau_p = (tau_b, tau_e) if emitter.polarity == "n" else (tau_e, tau_b)
     # J02 at a junction voltage near the operating point (about Eg - 0.4 V, common practice)
     vbi = float(junction.built_in_V)
@@ -270,10 +338,36 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0):
             "j01_base_A_m2": diffusion_total - emitter_j0}
     return element, model, {**extra, "j01_diffusion_A_m2": diffusion_total,
                             "j01_radiative_floor_A_m2": floor,
-                            "floor_applied": bulk is None and j01 == floor,
+                            "radiative_rear_factor": rear,
+                            "photon_recycling_factor": recycling,
+                            "radiative_lifetime_ns": [rad_e * 1e9, rad_b * 1e9],
+                            "srh_lifetime_ns": [srh_e * 1e9, srh_b * 1e9],
+                            "floor_applied": bulk is None,
+                            "ere": base.ere,
                             "j0_emitter_A_m2": emitter_j0,
                             "silicon_base_law": bulk is not None,
                             "silicon_base_flooded": light_base}
+
+
+#: a lifetime standing for "no SRH recombination" in the depletion-region law (which needs a
+#: finite one) [s]: J02 = q ni W_eff / (2 tau) is then about 3e-19 A/cm^2 for GaAs (ni 1.8e6 cm^-3,
+#: W_eff 20 nm), about 1e-9 A/cm^2 of current at 1.1 V: nothing any cell shows
+_LONGEST_LIFETIME_S = 1.0
+
+
+def _nonradiative_j0(thickness, doping, ni, length, diffusivity, srv, radiative_s, role, *, name):
+    """A quasi-neutral region's J0 [A/m^2] without its bulk radiative recombination: the bulk part
+    (J0 less the surface's) splits by rate, tau_eff / tau_rad being radiative."""
+    total = float(collection.region_saturation_current(
+        thickness, doping_m3=doping, intrinsic_density_m3=ni, diffusion_length_m=length,
+        diffusivity_m2_s=diffusivity, surface_srv_m_s=srv, where=f"{name} {role}"))
+    if not np.isfinite(radiative_s):
+        return total
+    surface = float(lifetimes.surface_share(thickness, doping_m3=doping, intrinsic_density_m3=ni,
+                                            diffusion_length_m=length, diffusivity_m2_s=diffusivity,
+                                            surface_srv_m_s=srv))
+    share = min(length * length / diffusivity / radiative_s, 1.0)
+    return total - share * max(total - surface, 0.0)
 
 
 def _intrinsic_lifetime(layer, ni_m3):
@@ -384,17 +478,34 @@ def _cell_name(cell, layers, used):
 
 
 def _check_measured_j0(layers, structure, file):
-    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored."""
-    active = set()
+    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored; ``ere``
+    only on the base of a III-V subcell, with no ``j0_fA_cm2`` beside it."""
+    active, bases = set(), {}
     for kind, info in structure.parts:
         if kind == "subcell":
             active.update((info["cell"].emitter, info["cell"].base))
+            bases[info["cell"].base] = info["cell"].emitter
     for i, layer in enumerate(layers):
         if layer.j0_fA_cm2 is not None and i not in active:
             raise StackError("j0_fA_cm2 is given on a layer that is no subcell's emitter or base, "
                              "where no saturation current applies", file=file, where=layer.label,
                              fix="move j0_fA_cm2 to the emitter (or the base, for its passivated "
                                  "rear) of a subcell, or remove it")
+        if layer.ere is None:
+            continue
+        if i not in bases:
+            raise StackError("ere is given on a layer that is no subcell's base", file=file,
+                             where=f"{layer.label}, key ere",
+                             fix="give ere on the base of the subcell it was measured on")
+        emitter = layers[bases[i]]
+        if is_silicon(layer) and is_silicon(emitter):
+            raise StackError("ere is not taken for a Si subcell (its base law holds its own "
+                             "radiative recombination)", file=file, where=f"{layer.label}, key ere",
+                             fix="remove ere; give j0_fA_cm2 for measured saturation currents")
+        if layer.j0_fA_cm2 is not None or emitter.j0_fA_cm2 is not None:
+            raise StackError("ere and j0_fA_cm2 are given on one subcell: both set its J01",
+                             file=file, where=f"{layer.label}, key ere",
+                             fix="keep one of the two")
 
 
 def compile_layer_stack(stack, reuse=None):
@@ -420,7 +531,8 @@ def compile_layer_stack(stack, reuse=None):
             used.add(name)
             try:
                 element, model, extra = _subcell(info["cell"], layers, materials, temperature,
-                                                 file, name, stack.conditions.suns)
+                                                 file, name, stack.conditions.suns,
+                                                 stack.rules.get("back_reflectance", 0.0))
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -482,8 +594,8 @@ def dark_currents_at(model, circuit, temperature_K):
     temperature's shape; a Si base law's ni,eff scales with the last).
 
     The diffusion J01 scales with ni^2 and J02 with ni (the intrinsic density of the absorber,
-    the library's Nc Nv T^1.5 law and Varshni gap); the radiative floor is applied again at
-    each temperature. Diffusion lengths, lifetimes and mobilities stay at the stack's values.
+    the library's Nc Nv T^1.5 law and Varshni gap); the two-sided radiative floor is added again
+    at each temperature. Diffusion lengths, lifetimes and mobilities stay at the stack's values.
     """
     out = {}
     t0 = model.temperature_K
@@ -503,10 +615,17 @@ def dark_currents_at(model, circuit, temperature_K):
             diffusion = ((details["j01_diffusion_A_m2"] - base) * ni_ratio(model.materials[cell_model.emitter])**2
                          + base * ni_ratio(model.materials[cell_model.base])**2)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
-        floor = radiative_saturation_current(gap, temperature_K=temperature_K)
+        floor = radiative_saturation_current(gap, temperature_K=temperature_K) \
+            * (1.0 + details.get("radiative_rear_factor", 0.0))
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
-        floor = floor * (1.0 + details.get("downward_emission_ratio", 0.0))
-        j01 = diffusion if details.get("silicon_base_law") else np.maximum(diffusion, floor)
+        j01 = diffusion if details.get("silicon_base_law") else diffusion + floor
+        if details.get("ere") is not None:      # the measured ERE held at every temperature
+            j01 = radiative_saturation_current(gap, temperature_K=temperature_K) / details["ere"]
+        elif not details.get("silicon_base_law") and "downward_emission_ratio" in details:
+            # as at compile time (circuit/layer_coupling.py): at least the emission the coupling
+            # to the subcell below counts
+            j01 = np.maximum(j01, radiative_saturation_current(gap, temperature_K=temperature_K)
+                             * (1.0 + details["downward_emission_ratio"]))
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
         bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio

@@ -77,7 +77,8 @@ def _upside_down_tunnel(layers, i, tunnel_doping_cm3, file, *, neighbour_in_a_ce
     # minority-carrier values); three plain degenerate layers are one layer too many
     third = [layer for layer in (above, below) if layer.doping_cm3 >= tunnel_doping_cm3]
     if neighbour_in_a_cell and not any(layer.diffusion_length_um is not None
-                                       or layer.lifetime_ns is not None for layer in third):
+                                       or layer.lifetime_ns is not None
+                                       or layer.srh_lifetime_ns is not None for layer in third):
         return None
     return StackError(
         f"the tunnel junction {upper.label} / {lower.label} looks upside down: it is "

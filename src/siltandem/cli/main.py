@@ -128,7 +128,25 @@ def _materials(args):
         print(f"  {label:<28} {text:>14} {unit:<10} {source}")
     for key in sorted(k for k in material.sources if k.startswith(("absorption", "ordering"))):
         print(f"  {key:<28} {material.sources[key]}")
+    _recombination_rows(args.name, material)
     return 0
+
+
+def _recombination_rows(name, material):
+    """The layer compiler's radiative coefficient and doping-dependent mobilities, where the
+    material's file gives them (materials/recombination.py)."""
+    from siltandem.materials import recombination
+
+    document = recombination.material_document(name, material)
+    b = recombination.radiative_coefficient_cm3_s(material, document)
+    if b is not None:
+        print(f"  {'radiative coefficient B':<28} {b:>14.5g} {'cm^3 s^-1':<10} "
+              f"{document['radiative'].get('source', '')}")
+    for carrier in ("electron", "hole"):
+        mu = recombination.minority_mobility_cm2_V_s(material, document, 1e17, carrier)
+        if mu is not None:
+            print(f"  {carrier + ' mobility at 1e17':<28} {mu:>14.5g} {'cm^2 V^-1 s^-1':<10} "
+                  "Caughey-Thomas, M. Sotoodeh et al., J. Appl. Phys. 87 (2000) 2890 (from memory)")
 
 
 def _interface(args):

@@ -30,7 +30,8 @@ from siltandem.text import excerpt
 LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
-              "transport", "sheet_charge_cm2", "luminescent_coupling"}
+              "transport", "sheet_charge_cm2", "luminescent_coupling", "srh_lifetime_ns",
+              "photon_recycling_factor", "ere"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -54,6 +55,15 @@ LAYER_NUMBERS = {
                         reason="a lifetime below a femtosecond is shorter than any carrier "
                                "scattering time"),
     "srv_cm_s": dict(unit="cm/s", low=0.0, high=1e8, low_open=False),
+    "srh_lifetime_ns": dict(unit="ns", low=MIN_LIFETIME_NS, high=1e9, low_open=False,
+                            reason="a lifetime below a femtosecond is shorter than any carrier "
+                                   "scattering time"),
+    "ere": dict(unit="", low=1e-12, high=1.0, low_open=False,
+                reason="an external radiative efficiency is a fraction; below 1e-12 the cell gives "
+                       "no voltage"),
+    "photon_recycling_factor": dict(unit="", low=1.0, high=1e4, low_open=False,
+                                    reason="photon recycling can only lengthen the radiative "
+                                           "lifetime (a factor of 1 is no recycling)"),
     "j0_fA_cm2": dict(unit="fA/cm2", low=0.0, high=1e9, low_open=True,
                       reason="a measured saturation current density is positive"),
     # in units of the subcell's one-sided radiative limit J0,rad: emission into a semiconductor below
@@ -126,6 +136,13 @@ class Layer:
     #: on a subcell's emitter or base: its luminescent coupling to the subcell below, replacing the
     #: value from the layers (None: from the layers, circuit/layer_coupling.py)
     luminescent_coupling: float | None = None
+    #: non-radiative (Shockley-Read-Hall) minority-carrier lifetime [ns] (None: from
+    #: lifetime_ns / diffusion_length_um less the radiative part)
+    srh_lifetime_ns: float | None = None
+    #: photon-recycling factor of the layer's radiative lifetime (None: self-consistent)
+    photon_recycling_factor: float | None = None
+    #: on a III-V subcell's base: its measured external radiative efficiency, J01 = J0,rad,front / ere
+    ere: float | None = None
 
     @property
     def label(self):
@@ -319,6 +336,12 @@ def _minority_carriers(table, *, file, where):
     if length is not None and lifetime is not None:
         raise StackError("give diffusion_length_um or lifetime_ns, not both", file=file,
                          where=where, fix="remove one of the two")
+    if "srh_lifetime_ns" in table and (length is not None or lifetime is not None):
+        raise StackError("srh_lifetime_ns (the non-radiative lifetime) is given together with the "
+                         "total lifetime or diffusion length", file=file, where=where,
+                         fix="give srh_lifetime_ns alone (the radiative part is added from the "
+                             "material's radiative coefficient), or lifetime_ns / "
+                             "diffusion_length_um alone (the measured total)")
     srv = _positive_number(table, "srv_cm_s", file=file, where=where, required=False,
                            **LAYER_NUMBERS["srv_cm_s"])
     return length, lifetime, srv
@@ -371,9 +394,12 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                                     "full monolayer is below 1e15")
     coupling = _positive_number(table, "luminescent_coupling", file=file, where=where, required=False,
                                 **LAYER_NUMBERS["luminescent_coupling"])
+    srh, recycling, ere = (_positive_number(table, key, file=file, where=where, required=False,
+                                            **LAYER_NUMBERS[key])
+                           for key in ("srh_lifetime_ns", "photon_recycling_factor", "ere"))
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0, transport, sheet, coupling)
+                 gap, j0, transport, sheet, coupling, srh, recycling, ere)
 
 
 def parse_layers(tables, *, file, folder_materials=None):

@@ -32,7 +32,8 @@ ISOTYPE_VARIABLE = ("barrier_eV", "built_in_V", "alpha")
 #: each changes the optics and the layer physics; then solved in batches of one structure);
 #: their ranges are the file's (layers.check_layer_value)
 LAYER_VARIABLE = ("thickness_nm", "doping_cm3", "composition", "diffusion_length_um",
-                  "lifetime_ns", "srv_cm_s", "gap_eV", "j0_fA_cm2", "luminescent_coupling")
+                  "lifetime_ns", "srv_cm_s", "gap_eV", "j0_fA_cm2", "luminescent_coupling",
+                  "srh_lifetime_ns", "photon_recycling_factor", "ere")
 #: the name a layer stack's varied [device] keys go by (``--vary device.series_ohm_cm2=0:2:5``;
 #: a layer of that name takes precedence)
 DEVICE_TABLE = "device"
@@ -284,10 +285,10 @@ def layer_design(stack, values):
             if name == layer.name:
                 key = "doping_cm3" if key == "doping_cm3" else key
                 updates[key] = float(value)
-                if key == "diffusion_length_um":
-                    updates["lifetime_ns"] = None
-                if key == "lifetime_ns":
-                    updates["diffusion_length_um"] = None
+                # one of the three lifetime keys at a time (stack/layers.py)
+                lifetimes = ("diffusion_length_um", "lifetime_ns", "srh_lifetime_ns")
+                if key in lifetimes:
+                    updates.update({other: None for other in lifetimes if other != key})
         changed.append(replace(layer, **updates) if updates else layer)
     return replace(stack, layers=tuple(changed))
 
