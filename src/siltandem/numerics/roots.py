@@ -6,10 +6,14 @@ active, which needs every parameter passed through ``args``. The series solver e
 element chains whose parameters live in dataclasses, so it uses this whole-array variant: the
 Illinois modification of regula falsi (M. Dowell, P. Jarratt, BIT 11 (1971) 168), guarded by
 bisection, always on the full array; a stale end's value is halved once more each further time
-in a row it is kept. A single root (arrays of one entry) goes to ``scipy.optimize.brentq``.
+in a row it is kept. A single root (arrays of one entry) goes to Brent's method: scipy's own
+``brentq`` step for step (:func:`brent_root`), written out in Python so that solving one design
+does not import scipy.optimize (about 0.3 s of a command's start-up); tests/test_roots_brent.py
+checks it against ``scipy.optimize.brentq`` to the bit.
 """
+import math
+
 import numpy as np
-from scipy.optimize import brentq
 
 
 def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200,
@@ -102,12 +106,65 @@ def _one_root(function, a, b, xtol, rtol, max_iterations, end_values):
         value = float(np.asarray(function(np.full(shape, x)), dtype=float).reshape(-1)[0])
         return value if np.isfinite(value) else np.sign(value) * np.finfo(float).max
 
-    try:
-        root = brentq(scalar, lo, hi, xtol=xtol, rtol=max(rtol, 4 * np.finfo(float).eps),
-                      maxiter=max_iterations)
-    except (RuntimeError, ValueError):
-        return np.full(shape, np.nan)
-    return np.full(shape, root)
+    root, converged = brent_root(scalar, lo, hi, xtol=xtol,
+                                 rtol=max(rtol, 4 * np.finfo(float).eps), max_iterations=max_iterations)
+    return np.full(shape, root if converged else np.nan)
+
+
+def brent_root(function, a, b, *, xtol=2e-12, rtol=8.881784197001252e-16, max_iterations=100):
+    """A root of a scalar function between ``a`` and ``b`` by Brent's method, exactly as
+    ``scipy.optimize.brentq`` takes its steps (scipy/optimize/Zeros/brentq.c, C. Harris; R. P.
+    Brent, Algorithms for Minimization without Derivatives, Prentice-Hall 1973, ch. 4): the same
+    evaluations in the same order, the same floating-point operations, so the same root.
+
+    Returns (root, converged): converged is False, with root NaN, where the function has one
+    sign at both ends, gives NaN (scipy raises in both cases) or the iterations run out (scipy
+    raises; here the last estimate comes back with False).
+    """
+    xpre, xcur = float(a), float(b)
+    xblk = fblk = spre = scur = 0.0
+    fpre, fcur = float(function(xpre)), float(function(xcur))
+    if math.isnan(fpre) or math.isnan(fcur):
+        return math.nan, False
+    if fpre == 0:
+        return xpre, True
+    if fcur == 0:
+        return xcur, True
+    if math.copysign(1.0, fpre) == math.copysign(1.0, fcur):
+        return math.nan, False
+    for _ in range(max_iterations):
+        if fpre != 0 and fcur != 0 and math.copysign(1.0, fpre) != math.copysign(1.0, fcur):
+            xblk, fblk = xpre, fpre
+            spre = scur = xcur - xpre
+        if abs(fblk) < abs(fcur):
+            xpre, xcur, xblk = xcur, xblk, xcur
+            fpre, fcur, fblk = fcur, fblk, fcur
+        delta = (xtol + rtol * abs(xcur)) / 2
+        sbis = (xblk - xcur) / 2
+        if fcur == 0 or abs(sbis) < delta:
+            return xcur, True
+        if abs(spre) > delta and abs(fcur) < abs(fpre):
+            try:
+                if xpre == xblk:                  # interpolate
+                    stry = -fcur * (xcur - xpre) / (fcur - fpre)
+                else:                             # extrapolate
+                    dpre = (fpre - fcur) / (xpre - xcur)
+                    dblk = (fblk - fcur) / (xblk - xcur)
+                    stry = -fcur * (fblk * dblk - fpre * dpre) / (dblk * dpre * (fblk - fpre))
+            except ZeroDivisionError:             # C gives inf or NaN: the test below bisects
+                stry = math.inf
+            if 2 * abs(stry) < min(abs(spre), 3 * abs(sbis) - delta):
+                spre, scur = scur, stry           # good short step
+            else:
+                spre = scur = sbis                # bisect
+        else:
+            spre = scur = sbis                    # bisect
+        xpre, fpre = xcur, fcur
+        xcur += scur if abs(scur) > delta else (delta if sbis > 0 else -delta)
+        fcur = float(function(xcur))
+        if math.isnan(fcur):
+            return math.nan, False
+    return xcur, False
 
 
 def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4e-16,
