@@ -139,3 +139,22 @@ def test_the_circuit_graph_is_still_there_on_request():
         assert [e.name for e in circuit.string(number)] == path
         assert all(graph.nodes[n]["element"] is circuit.element(n) for n in path)
     assert nx.is_directed_acyclic_graph(graph)
+
+
+def test_a_big_stack_hands_over_to_numba_after_the_interpreted_budget(tmp_path):
+    """After INTERPRETED_BUDGET_S of interpreted kernel time the process switches to numba (here
+    a budget of zero: the first call answers interpreted, the next one compiled, same value)."""
+    (tmp_path / "sample_sum.py").write_text(
+        "from siltandem.numerics import jit as numba\n\n"
+        "@numba.njit(error_model='numpy')\n"
+        "def total(n):\n    s = 0.0\n    for i in range(n):\n        s += 0.5 * i\n    return s\n")
+    probe = ("import sys\n"
+             f"sys.path.insert(0, {str(tmp_path)!r})\n"
+             "from siltandem.numerics import jit\n"
+             "jit.interpret_kernels()\n"
+             "jit.INTERPRETED_BUDGET_S = 0.0\n"
+             "import sample_sum as k\n"
+             "first = k.total(1000)\n"
+             "mode = jit.mode()\n"
+             "print(first == k.total(1000) == 0.5 * 999 * 1000 / 2, mode, 'numba' in sys.modules)\n")
+    assert _python(probe) == "True compiled True"

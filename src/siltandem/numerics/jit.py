@@ -12,13 +12,20 @@ Arithmetic differs in one respect: compiled with ``error_model="numpy"``, a divi
 overflowing ``math.exp`` gives inf or NaN, while the interpreter raises. When an interpreted kernel
 raises such an error (ArithmeticError, or ValueError such as a math domain error), every kernel
 switches to its compiled form for the rest of the process and the call is repeated compiled, so
-the answer is always the compiled one's. The kernels are loops over scalars written for numba;
-interpreted, they give the same numbers to rounding (tests/test_jit.py compares every demo).
+the answer is always the compiled one's. A process whose kernels have run interpreted for more
+than INTERPRETED_BUDGET_S switches the same way after the call in progress (a big stack). The
+kernels are loops over scalars written for numba; interpreted, they gave the same numbers to the
+bit on every demo (tests/test_startup.py compares them).
 """
 import functools
+import time
 
 #: "compiled" (numba) or "interpreted"; fixed when the first kernel is defined
-_STATE = {"mode": "compiled", "fixed": False, "depth": 0}
+_STATE = {"mode": "compiled", "fixed": False, "depth": 0, "seconds": 0.0}
+#: interpreted kernel time [s of CPU] after which the process switches to numba for the rest of its
+#: kernels: loading numba costs about 0.5-0.8 s, and a stack of tens of subcells interprets
+#: for seconds (50 subcells: 10.9 s interpreted against 3.4 s compiled, whole command)
+INTERPRETED_BUDGET_S = 0.3
 #: every interpreted kernel defined in this process (switched to compiled together)
 _KERNELS = []
 #: the errors the interpreter raises where compiled code gives inf or NaN
@@ -71,16 +78,23 @@ class Kernel:
     def __call__(self, *args):
         if self.dispatcher is not None:
             return self.dispatcher(*args)
-        _STATE["depth"] += 1
-        try:
+        if _STATE["depth"]:                         # called from another kernel
             return self.py_func(*args)
-        except FALLBACK_ERRORS:
-            if _STATE["depth"] > 1:                 # the outermost kernel call repeats itself
-                raise
+        _STATE["depth"] = 1
+        start = time.process_time()
+        try:
+            out = self.py_func(*args)
+        except FALLBACK_ERRORS:                     # the outermost kernel call repeats itself
+            out = None
         finally:
-            _STATE["depth"] -= 1
-        compile_all()
-        return self.dispatcher(*args)
+            _STATE["depth"] = 0
+            _STATE["seconds"] += time.process_time() - start
+        if out is None:
+            compile_all()
+            return self.dispatcher(*args)
+        if _STATE["seconds"] > INTERPRETED_BUDGET_S:  # a big stack: numba pays for itself
+            compile_all()
+        return out
 
 
 def compile_all():
