@@ -137,3 +137,22 @@ def test_a_csv_spectrum_map_runs_on_workers_elsewhere_bit_identical_in_every_mod
     import pandas as pd
 
     assert len(pd.read_parquet(project / "out")) == 20
+
+
+def test_placements_with_a_csv_spectrum_rank_on_workers_elsewhere_as_in_process(
+        project, remote_cluster, monkeypatch):
+    """rank_placements binds the spectrum read on the client into its tasks (as design_map):
+    the workers, in another working folder, read no spectrum file, and every number is the
+    in-process one (``==``)."""
+    from siltandem import rank_placements
+
+    text = (ROOT / "stacks" / "demo_placements.toml").read_text()
+    assert 'spectrum = "am1.5g"' in text
+    (project / "placements.toml").write_text(text.replace('spectrum = "am1.5g"',
+                                                          'spectrum = "light/g173.csv"'))
+    monkeypatch.chdir(project)
+    stack = load_stack("placements.toml")              # relative, as typed
+    here = rank_placements(stack)
+    assert len(here) == 3 and here["efficiency_pct"].notna().all()
+    there = rank_placements(stack, cluster=remote_cluster)
+    assert_identical(there, here)

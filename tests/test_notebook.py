@@ -297,7 +297,8 @@ def test_the_parquet_options_refuse_before_any_work_without_pyarrow(tmp_path, ca
 def test_the_walkthrough_notebook_runs_with_figures_inline(tmp_path):
     """examples/walkthrough.ipynb executed by nbclient in a fresh Jupyter kernel: no cell fails,
     the figures are PNG displays (the kernel's inline backend, untouched), the map on a
-    LocalCluster reads back as exactly its rows, the triple's matches say which pair limits."""
+    LocalCluster reads back as exactly its rows, the triple's matches say which pair limits, the
+    yield year runs from an EPW file with pvlib's hourly spectra."""
     nbformat = pytest.importorskip("nbformat")
     nbclient = pytest.importorskip("nbclient")
     pytest.importorskip("ipykernel")
@@ -317,13 +318,16 @@ def test_the_walkthrough_notebook_runs_with_figures_inline(tmp_path):
     outputs = [o for cell in notebook.cells if cell.cell_type == "code" for o in cell.outputs]
     assert not [o for o in outputs if o.output_type == "error"]
     figures = [o for o in outputs if o.output_type == "display_data" and "image/png" in o.data]
-    assert len(figures) == 2                                   # the I-V and the map
+    assert len(figures) == 3                                   # the I-V, the map, the year
     text = "".join(o.get("text", "") for o in outputs if o.output_type == "stream")
     assert "63 designs; 63 rows read back from the folder" in text
     html = [o.data["text/html"] for o in outputs if "text/html" in o.get("data", {})]
     assert any("efficiency" in h for h in html)                 # the Result's notebook summary
     assert any("pair_limits" in h for h in html)
-    assert "Pending" in "".join(c.source for c in notebook.cells if c.cell_type == "markdown")
+    # the yield year from an EPW file through pvlib.iotools, with pvlib's SPECTRL2 spectra
+    assert "EPW file, " in text and "spectra: SPECTRL2 per hour" in text
+    assert "annual energy" in text and "energy-weighted efficiency" in text
+    assert "Pending" not in "".join(c.source for c in notebook.cells if c.cell_type == "markdown")
 
 
 def test_the_result_and_the_stack_carry_the_hash_of_the_bytes_read(tmp_path):

@@ -484,7 +484,25 @@ def test_command_writes_json_csv_and_plot(tmp_path, capsys):
         assert key in data
     assert data["plane"]["tilt_deg"] == 30 and data["plane"]["azimuth_deg"] == 170
     assert len(data["monthly"]) == 12
-    rows = pd.read_csv(table)
+    # provenance as every output has it (issue 20): version, the stack file's SHA-256 (hashlib
+    # over its bytes) and the light, with the weather file's SHA-256
+    import hashlib
+
+    from siltandem import __version__
+    from siltandem.materials.weather import demo_weather_path
+    from siltandem.result.record import read_provenance_lines
+
+    weather_sha = hashlib.sha256(Path(demo_weather_path()).read_bytes()).hexdigest()
+    assert data["siltandem_version"] == __version__
+    assert data["stack_sha256"] == hashlib.sha256(stack.read_bytes()).hexdigest()
+    assert data["light"]["spectrum"] == "SPECTRL2 per hour"
+    assert data["light"]["weather_sha256"] == weather_sha and data["light"]["suns"] == 1.0
+    header = read_provenance_lines(table.read_text())
+    assert header["siltandem_version"] == __version__
+    assert header["stack_sha256"] == data["stack_sha256"]
+    assert header["light.spectrum"] == "SPECTRL2 per hour"
+    assert header["light.weather_sha256"] == weather_sha
+    rows = pd.read_csv(table, comment="#")
     assert len(rows) == data["weather"]["hours_with_light"]
     for column in ("time", "sun_time", "poa_W_m2", "cell_temperature_C",
                    "cell.photocurrent_mA_cm2", "cell.mismatch_factor", "power_W_m2",

@@ -1,3 +1,3 @@
 """Compiling a stack into a circuit: element and layer stacks into elements (laws bound to their
-parameters) and the networkx graph of the strings.
+parameters) and the wiring of the strings (a networkx graph on request).
 """

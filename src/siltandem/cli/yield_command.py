@@ -162,7 +162,11 @@ def run_yield(args):
             write_atomic(args.json, result.to_json())
             print(f"  wrote {args.json}", file=notices)
     if args.csv:
-        write_atomic(args.csv, csv_safe(hourly_table(result)).to_csv(
+        from siltandem.result.record import provenance_lines
+
+        header = provenance_lines({k: result.summary[k] for k in
+                                   ("siltandem_version", "stack_sha256", "light")})
+        write_atomic(args.csv, header + csv_safe(hourly_table(result)).to_csv(
             index=False, float_format="%.10g"))
         print(f"  wrote {args.csv}", file=notices)
     if args.plot:

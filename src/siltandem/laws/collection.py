@@ -57,7 +57,6 @@ ch. 3 (the same closed forms; from memory).
 from typing import NamedTuple
 
 import numpy as np
-from scipy.special import exprel
 
 from siltandem.constants import ELEMENTARY_CHARGE_C, thermal_voltage_V
 from siltandem.laws.checks import CollectionParameterError, checked, finite
@@ -70,6 +69,14 @@ __all__ = [
 
 _SERIES_TERMS = 20  # second divided difference, nodes within 1 of each other: 21/22! < 1e-19
 _LARGEST_RATIO = 1e250  # W/L is capped here: exp(-W/L) is 0 long before, and nothing overflows
+
+
+def _exprel(x):
+    """scipy.special.exprel, (e^x - 1)/x; imported on first use (scipy.special costs a command
+    about 0.1 s of start-up)."""
+    from scipy.special import exprel
+
+    return exprel(x)
 
 
 class CollectedPhotocurrent(NamedTuple):
@@ -118,7 +125,7 @@ class DiffusionSaturationCurrent(NamedTuple):
 
 def _dd1(x, y):
     """First divided difference (e^x - e^y) / (x - y), exact at x = y, for finite x, y."""
-    return np.exp(np.maximum(x, y)) * exprel(-np.abs(x - y))
+    return np.exp(np.maximum(x, y)) * _exprel(-np.abs(x - y))
 
 
 def _dd2(x, y, z):
@@ -133,7 +140,7 @@ def _dd2(x, y, z):
     beta, gamma = mid - high, low - high
     far = gamma < -1.0
     value = np.empty_like(gamma)
-    value[far] = (exprel(beta[far]) - np.exp(beta[far]) * exprel(gamma[far] - beta[far])) / -gamma[far]
+    value[far] = (_exprel(beta[far]) - np.exp(beta[far]) * _exprel(gamma[far] - beta[far])) / -gamma[far]
     g, b = gamma[~far], beta[~far]
     h = np.ones_like(g)
     power = np.ones_like(g)
@@ -214,7 +221,7 @@ def _collection(alpha, thickness, length, srv, diffusivity, lit_at_junction):
         inner = 0.5 * (_dd1(-k, -a) + _dd1(-k, -(a + 2.0 * k)))
         surface = _dd2(-k, -a, -(a + 2.0 * k))
     numerator = a * (one_minus_t * inner + t * surface)
-    denominator = one_minus_t * 0.5 * (1.0 + e2) + t * exprel(-2.0 * k)
+    denominator = one_minus_t * 0.5 * (1.0 + e2) + t * _exprel(-2.0 * k)
     return numerator / denominator
 
 
@@ -303,7 +310,7 @@ def _uniform(thickness, length, srv, diffusivity):
     t, one_minus_t = _surface_weights(srv, thickness, diffusivity)
     zero = np.zeros_like(k)
     inner = 0.5 * (_dd1(-k, zero) + _dd1(-k, -2.0 * k))
-    denominator = one_minus_t * 0.5 * (1.0 + np.exp(-2.0 * k)) + t * exprel(-2.0 * k)
+    denominator = one_minus_t * 0.5 * (1.0 + np.exp(-2.0 * k)) + t * _exprel(-2.0 * k)
     return (one_minus_t * inner + t * _dd2(-k, zero, -2.0 * k)) / denominator
 
 
@@ -499,7 +506,7 @@ def region_saturation_current(thickness_m, *, doping_m3, intrinsic_density_m3, d
     k = np.minimum(w / length, _LARGEST_RATIO)
     t, one_minus_t = _surface_weights(s, w, d)
     c = 0.5 * (1.0 + np.exp(-2.0 * k))
-    h = exprel(-2.0 * k)
+    h = _exprel(-2.0 * k)
     ratio = (t * c + one_minus_t * k * (k * h)) / (one_minus_t * c + t * h)
     return ELEMENTARY_CHARGE_C * ni * ni * d / (n_dop * w) * ratio
 

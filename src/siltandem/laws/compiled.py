@@ -21,7 +21,7 @@ J. W. Bishop, Solar Cells 25 (1988) 73 (breakdown term); L. Esaki, Phys. Rev. 10
 import math
 from pathlib import Path
 
-import numba
+from siltandem.numerics import jit as numba
 import numpy as np
 
 from siltandem.numerics.kernel_cache import drop_stale_kernels

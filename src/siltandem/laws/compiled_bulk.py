@@ -9,7 +9,7 @@ al., J. Appl. Phys. 97 (2005) 093710 (relative radiative coefficient).
 """
 import math
 
-import numba
+from siltandem.numerics import jit as numba
 
 #: first column of the base law in a subcell's parameter row (after Jph..m and 1/Vt)
 BULK_OFFSET = 9

@@ -20,7 +20,6 @@ single-diode equation with series and shunt resistance).
 J. W. Bishop, Solar Cells 25 (1988) 73 (reverse-bias breakdown term).
 """
 import numpy as np
-from scipy.special import wrightomega
 
 from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
 from siltandem.numerics.tables import polish_root
@@ -146,6 +145,8 @@ def _single_diode_voltage(current, *, photocurrent_A_m2, j01_A_m2, shunt_S_m2, v
     of two large numbers; for x <= 0 (reverse branch) the first form is used. With G = 0:
     Vj = Vt ln1p((Jph - J)/J0), -inf at and beyond the saturation limit Jph + J0.
     """
+    from scipy.special import wrightomega     # here: scipy.special costs a command 0.1 s to import
+
     drive = photocurrent_A_m2 + j01_A_m2 - current
     shunted = shunt_S_m2 > 0
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):

@@ -23,7 +23,6 @@ from typing import NamedTuple
 
 import numpy as np
 from numpy.polynomial.legendre import leggauss
-from scipy.optimize import elementwise
 
 from siltandem.laws import compiled as kernels
 from siltandem.laws.compiled import EXP_LIMIT
@@ -539,6 +538,8 @@ def _extrema_by_bracketing(args):
 
     def curvature(v, *p):
         return _total(v, *p)[2]
+
+    from scipy.optimize import elementwise     # here: scipy.optimize costs a command 0.3 s to import
 
     nan = np.full(v1f.shape, np.nan)
     peak_v, valley_v = nan.copy(), nan.copy()

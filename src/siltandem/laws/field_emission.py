@@ -54,7 +54,7 @@ from __future__ import annotations
 import math
 import warnings
 
-import numba
+from siltandem.numerics import jit as numba
 import numpy as np
 
 from siltandem.constants import ELECTRON_MASS_KG, PLANCK_J_S, VACUUM_PERMITTIVITY_F_M

@@ -23,7 +23,6 @@ import warnings
 from typing import NamedTuple
 
 import numpy as np
-from scipy.special import lambertw, wrightomega
 
 from siltandem.constants import BOLTZMANN_EV_K, RICHARDSON_FREE_A_M2_K2, thermal_voltage_V
 from siltandem.laws.carriers import fermi_degeneracy_eV
@@ -131,6 +130,8 @@ def _branch_minus_one_excess(mu):
     k=-1 for mu <= 1, and Wright omega omega(-1 - mu - i pi) = W_{-1}(-exp(-1 - mu)) for mu > 1
     (on scipy 1.17 that identity fails between -2 and -1, where it returns the W_0 value).
     """
+    from scipy.special import lambertw, wrightomega     # here: 0.1 s of a command's start-up
+
     p = np.empty_like(mu)
     rho = np.sqrt(-2.0 * np.expm1(-mu))
     near = rho < _BRANCH_SERIES_RHO_MAX
@@ -169,6 +170,8 @@ def _reduced_split(vb, alpha, tail):
     """
     vb, alpha = np.asarray(vb, dtype=float), np.asarray(alpha, dtype=float)
     v1 = np.empty_like(vb)
+    from scipy.special import wrightomega     # here: 0.1 s of a command's start-up
+
     beta = 1.0 - alpha                      # exact for alpha in [0.5, 2] (Sterbenz)
     c = vb - tail + alpha
     lo, hi, one = beta > 0, beta < 0, beta == 0
@@ -194,6 +197,8 @@ def _exact_depletion_bending(c):
     inverted): y = c + 1 + W0(-exp(-1 - c)). About the branch point (small c) the series
     W0 + 1 = rho - rho^2/3 + 11/72 rho^3 - ..., rho = sqrt(2 (1 - e^-c)) (Corless et al. 1996,
     eq. 4.22, p = +rho), elsewhere scipy's lambertw; then one Newton step on G(-y) = c."""
+    from scipy.special import lambertw     # here: 0.1 s of a command's start-up
+
     c = np.asarray(c, dtype=float)
     y = np.empty_like(c)
     rho = np.sqrt(-2.0 * np.expm1(-c))

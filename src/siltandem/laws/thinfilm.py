@@ -38,7 +38,6 @@ import warnings
 from typing import NamedTuple
 
 import numpy as np
-from scipy.special import expn
 
 from siltandem.constants import ELEMENTARY_CHARGE_C
 from siltandem.numerics.memo import EntryMemo
@@ -391,6 +390,8 @@ def lambertian_transmittance(optical_depth):
     M. A. Green, Prog. Photovolt. 10 (2002) 235 (from memory); E. Yablonovitch, J. Opt. Soc. Am. 72
     (1982) 899.
     """
+    from scipy.special import expn     # here: scipy.special costs a command 0.1 s to import
+
     tau = _check_nonnegative_or_inf("optical_depth", optical_depth)
     return 2.0 * expn(3, tau)
 

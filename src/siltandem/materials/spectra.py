@@ -1,8 +1,9 @@
 """Spectra a stack is solved under: the ASTM G173-03 tables through pvlib, or a user CSV.
 
 A spectrum is spectral irradiance [W m^-2 nm^-1] on an increasing wavelength grid [nm]. The named
-spectra are listed in ``data/spectra.toml``; the tables themselves come from
-``pvlib.spectrum.get_reference_spectra`` and are never copied into this project.
+spectra are listed in ``data/spectra.toml``; the tables themselves are pvlib's, never copied into
+this project: the file ``pvlib.spectrum.get_reference_spectra`` reads, read here with numpy so that
+a run need not import pvlib (and pandas) to start.
 """
 from dataclasses import dataclass
 from functools import lru_cache
@@ -91,25 +92,62 @@ def is_standard_spectrum(name):
     return str(name).strip().lower() in _catalogue()[1]
 
 
+def standard_table_path(name):
+    """The file a standard spectrum's name makes a run read (pvlib's table), or None."""
+    table, names = _catalogue()
+    return reference_table_path(table[names[str(name).strip().lower()]]["standard"])
+
+
 def spectrum_names():
     """Names a user can give for the standard spectra (without aliases)."""
     return list(_catalogue()[0])
 
 
-@lru_cache(maxsize=4)
-def _reference_table(standard):
-    from pvlib.spectrum import get_reference_spectra
+#: the file in pvlib's data folder of each standard's table (pvlib.spectrum.get_reference_spectra)
+REFERENCE_FILES = {"ASTM G173-03": "ASTMG173.csv"}
 
-    return get_reference_spectra(standard=standard)
+
+def reference_table_path(standard):
+    """The path of pvlib's own file of a standard's table, found without importing pvlib (which
+    loads pandas: about 0.5 s of a command's start-up); None where it is not there."""
+    from importlib.util import find_spec
+
+    spec = find_spec("pvlib")
+    folders = list(spec.submodule_search_locations or []) if spec else []
+    for folder in folders:
+        path = Path(folder) / "data" / REFERENCE_FILES.get(standard, "")
+        if path.is_file():
+            return path
+    return None
+
+
+@lru_cache(maxsize=4)
+def reference_columns(standard):
+    """A standard spectrum's table as numpy columns: {"wavelength": nm, column name: W/m2/nm}.
+
+    Read with numpy from the file ``pvlib.spectrum.get_reference_spectra`` reads (a title line,
+    then the column names, then numbers); the same numbers to the bit (tests/test_spectra.py).
+    Through pvlib itself where the file is not where this expects it."""
+    path = reference_table_path(standard)
+    if path is None:
+        from pvlib.spectrum import get_reference_spectra
+
+        frame = get_reference_spectra(standard=standard)
+        return {"wavelength": frame.index.to_numpy(dtype=float),
+                **{name: frame[name].to_numpy(dtype=float) for name in frame.columns}}
+    with open(path, encoding="utf-8") as handle:
+        handle.readline()
+        names = [name.strip() for name in handle.readline().split(",")]
+        values = np.loadtxt(handle, delimiter=",", dtype=float, ndmin=2)
+    return dict(zip(names, values.T))
 
 
 def _named(name):
     table, names = _catalogue()
     entry = table[names[name]]
-    frame = _reference_table(entry["standard"])
-    return Spectrum(names[name], entry["description"], frame.index.to_numpy(dtype=float),
-                    frame[entry["column"]].to_numpy(dtype=float),
-                    nominal_W_m2=entry.get("nominal_W_m2"))
+    columns = reference_columns(entry["standard"])
+    return Spectrum(names[name], entry["description"], columns["wavelength"].copy(),
+                    columns[entry["column"]].copy(), nominal_W_m2=entry.get("nominal_W_m2"))
 
 
 #: how a spectrum CSV is written, for the messages of a file that is not

@@ -7,11 +7,11 @@ element chains whose parameters live in dataclasses, so it uses this whole-array
 Illinois modification of regula falsi (M. Dowell, P. Jarratt, BIT 11 (1971) 168), guarded by
 bisection, always on the full array; a stale end's value is halved once more each further time
 in a row it is kept. A caller that always solves one design at a time (the piecewise trace past a
-tunnel junction's peak) may ask for ``scipy.optimize.brentq`` instead (``one_by_one``); batched
+tunnel junction's peak) may ask for ``scipy.optimize.brentq`` instead (``one_by_one``, imported there only: a plain run
+never loads scipy.optimize, about 0.3 s of start-up); batched
 callers never do, so that a design's root is the same whether its batch holds one design or many.
 """
 import numpy as np
-from scipy.optimize import brentq
 
 
 def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200,
@@ -108,6 +108,8 @@ def _one_root(function, a, b, xtol, rtol, max_iterations, end_values):
             return known[x]
         value = float(np.asarray(function(np.full(shape, x)), dtype=float).reshape(-1)[0])
         return value if np.isfinite(value) else np.sign(value) * np.finfo(float).max
+
+    from scipy.optimize import brentq      # here only: a plain run never needs it (start-up)
 
     try:
         root = brentq(scalar, lo, hi, xtol=xtol, rtol=max(rtol, 4 * np.finfo(float).eps),

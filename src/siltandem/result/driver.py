@@ -12,7 +12,7 @@ from siltandem.optics.illuminate import illuminate
 from siltandem.solve.kernels import notice_compiling
 from siltandem.solve.series import solve_string, solve_strings
 from siltandem.materials.spectra import get_spectrum, is_spectrum_object
-from siltandem.result.record import Result, curve_table, first_value, provenance
+from siltandem.result.record import Result, first_value, provenance
 from siltandem.errors import ModelWarning
 from siltandem.result.summary import missing_value_warnings, summarise
 
@@ -95,6 +95,6 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
     summary["warnings"].extend(missing_value_warnings(summary))
     summary.update(provenance(stack, spectrum=spectrum, suns=conditions.suns,
                               temperature_K=conditions.temperature_K))
-    return Result(summary, curve_table(circuit, solutions), circuit, solutions)
+    return Result(summary, None, circuit, solutions)
 
 

@@ -25,16 +25,26 @@ class Result:
         The JSON contract (see README, "Outputs"); trade units, names carry them.
     iv : pandas.DataFrame
         Light I-V: ``voltage_V``, ``current_mA_cm2``, one ``<element>_V`` column per element
-        (and ``string`` for stacks of several strings).
+        (and ``string`` for stacks of several strings). Built from the solutions on first use
+        (a command that prints only the summary need not import pandas).
+    iv_table : pandas.DataFrame or None
+        :attr:`iv` once built (None before).
     circuit : Circuit
         The illuminated circuit that was solved (for plots and further study).
     solutions : list of StringSolution
     """
 
     summary: dict
-    iv: object
+    iv_table: object
     circuit: object
     solutions: list
+
+    @property
+    def iv(self):
+        """The light I-V as a DataFrame (see the class attributes), built once."""
+        if self.iv_table is None:
+            object.__setattr__(self, "iv_table", curve_table(self.circuit, self.solutions))
+        return self.iv_table
 
     @property
     def losses(self):

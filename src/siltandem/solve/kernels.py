@@ -6,7 +6,7 @@ The element laws and inverses they call are in :mod:`siltandem.laws.compiled`.
 import math
 import warnings
 
-import numba
+from siltandem.numerics import jit as numba
 import numpy as np
 
 from siltandem.errors import CompileNotice
@@ -146,7 +146,10 @@ def notice_compiling():
 def compiled_already():
     """True when the kernels' compiled code is in numba's cache for this source (the solve
     starts at once); False when the next solve compiles them (the first run after installing
-    or changing this file). Reads numba's cache index; None when it cannot tell."""
+    or changing this file). Reads numba's cache index; None when it cannot tell. True when the
+    kernels run interpreted (numerics/jit.py): nothing to compile."""
+    if numba.mode() == "interpreted":
+        return True
     try:
         return bool(string_pass._cache._cache_file._load_index())
     except Exception:                                   # numba's private layout changed

@@ -7,7 +7,7 @@ edited file is never answered from old results.
 """
 from pathlib import Path
 
-from siltandem.materials.spectra import is_spectrum_object, is_standard_spectrum
+from siltandem.materials.spectra import is_spectrum_object, is_standard_spectrum, standard_table_path
 
 
 def package_inputs():
@@ -29,11 +29,9 @@ def spectrum_input(name, relative_to=None):
     if name is None or is_spectrum_object(name):   # an object in memory reads no file
         return None
     key = str(name).strip()
-    if is_standard_spectrum(key):    # a standard table, read through pvlib
-        import pvlib
-
-        table = Path(pvlib.__file__).parent / "data" / "ASTMG173.csv"
-        return ("the reference spectrum table of pvlib", table) if table.is_file() else None
+    if is_standard_spectrum(key):    # a standard table: pvlib's file
+        table = standard_table_path(key)
+        return ("the reference spectrum table of pvlib", table) if table is not None else None
     path = Path(key)
     if relative_to is not None and not path.is_absolute():
         path = Path(relative_to) / path

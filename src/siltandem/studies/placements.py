@@ -65,7 +65,8 @@ def auto_candidates(stack):
 
 def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
                         temperature_K=None):
-    """Chunk function: solve each candidate (one row per candidate index in ``design``)."""
+    """Chunk function: solve each candidate (one row per candidate index in ``design``).
+    ``spectrum``: a name or path, or (from :func:`rank_placements`) the spectrum already read."""
     from siltandem.result.driver import compute_result
 
     rows = []
@@ -106,18 +107,21 @@ def rank_placements(stack, *, auto=False, workers=None, cluster=None, output=Non
     import pandas as pd
 
     from siltandem.stack.options import check_conditions, check_study_options
-    from siltandem.studies.sweep import study_light
+    from siltandem.studies.sweep import resolved_light, study_light
 
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     workers, _ = check_study_options(workers=workers, cluster=cluster)
     study_light(stack, spectrum=spectrum, suns=suns)
+    # the spectrum read here, on the client, at one sun: its table travels with every task, so
+    # workers on a cluster read no file whatever their working folder (as design_map does)
+    light = resolved_light(stack, spectrum=spectrum)
     candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
     if not candidates:
         raise StackError("the stack declares no [[placement]] candidates", file=stack.source,
                          fix="add [[placement]] tables, or use --auto with one of them")
     table = pd.DataFrame({"design": np.arange(len(candidates), dtype=np.int64)})
     function = functools.partial(evaluate_candidates, stack=stack, candidates=candidates,
-                                 spectrum=spectrum, suns=suns, temperature_K=temperature_K)
+                                 spectrum=light, suns=suns, temperature_K=temperature_K)
     from siltandem.stack.inputs import input_files
 
     result = run_chunks(function, table, workers=workers, cluster=cluster, output=output,

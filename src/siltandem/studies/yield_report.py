@@ -132,6 +132,23 @@ def _weather_entry(weather, light, hourly):
             "middle_of_hour_from_stamp_min": weather.middle_offset_min}
 
 
+def light_entry(weather, light):
+    """The summary's ``light`` entry, as every output has one (result.record.provenance): the
+    spectrum (SPECTRL2 per hour, or the measured spectra), the weather file it follows and that
+    file's SHA-256 (None for a DataFrame), at one sun; the cell temperature is per hour (the
+    hourly table), so ``temperature_K`` is None."""
+    from pathlib import Path
+
+    from siltandem.files import file_digest
+
+    measured = str(light.settings.get("spectrum", "")).startswith("measured")
+    path = Path(str(weather.source))
+    return {"spectrum": "measured hourly spectra" if measured else "SPECTRL2 per hour",
+            "spectrum_sha256": None, "weather": str(weather.source),
+            "weather_sha256": file_digest(path) if path.is_file() else None,
+            "suns": 1.0, "temperature_K": None}
+
+
 def _wiring_entry(stack, two, four):
     """The summary's ``wiring`` entry: two- and four-terminal energies [kWh/m2] and what they
     mean."""
@@ -195,6 +212,7 @@ def summarise(stack, weather, light, hourly, names, laws, tables, standard_effic
     efficiency = 100 * energy / insolation if insolation > 0 else None
     summary = {
         "stack": stack.name, "source_file": stack.source, **provenance(stack),
+        "light": light_entry(weather, light),
         "weather": _weather_entry(weather, light, hourly),
         "plane": {k: light.settings[k] for k in ("tilt_deg", "azimuth_deg", "sky_model",
                                                  "albedo")},
