@@ -15,7 +15,7 @@ Subcells can also lead the trace as the solver's *pilot*: ``pilot_current(v_junc
 gives (J, dJ/dVj, V, dV/dVj) from the junction voltage, so that every branch of the curve,
 including the reverse-biased one, is reached without inverting near Jph (see solve.py).
 """
-from dataclasses import MISSING, dataclass, field, fields, replace
+from dataclasses import dataclass, field, replace
 import warnings
 
 import numpy as np
@@ -31,6 +31,7 @@ from siltandem.numerics.tables import LawTable
 from siltandem.laws import compiled as kernels
 from siltandem.laws import compiled_isotype
 from siltandem.numerics.roots import safeguarded_newton
+from siltandem.circuit.defaults import COMPILED_ISOTYPE_FIELDS, only_fields_set
 
 #: isotype interfaces invert through the compiled law (laws/compiled_isotype.py); False: the numpy
 #: laws (laws/thermionic.py, laws/field_emission.py), for benchmarks and checks
@@ -708,7 +709,7 @@ class IsotypeInterface:
         key = ("rows", _temperature_key(temperature_K))
         if key not in self._cache:
             self._cache[key] = (self._compiled_rows(form, temperature_K)
-                                if _only_compiled_fields_set(self) else None)
+                                if only_fields_set(self, COMPILED_ISOTYPE_FIELDS) else None)
         return self._cache[key]
 
     def _compiled_rows(self, form, temperature_K):
@@ -768,35 +769,6 @@ class IsotypeInterface:
                                                  **self._law(temperature_K))
         lo, hi = _reciprocal_range(low, high, 0.0)
         return -hi, -lo
-
-
-#: the IsotypeInterface fields the compiled law reads (or that only label the element)
-_COMPILED_ISOTYPE_FIELDS = {"name", "barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2",
-                            "direction", "carrier", "offset_eV", "string", "kind", "depletion",
-                            "transport", "field_energy_eV", "include_tail"}
-
-
-def _only_compiled_fields_set(element):
-    """True when every other field of the interface has its default value: a parameter the
-    compiled law does not know (a later extension of the numpy law) sends the element to the
-    numpy law instead of being silently left out."""
-    for f in fields(element):
-        if f.name in _COMPILED_ISOTYPE_FIELDS or not f.compare:
-            continue
-        if f.default is not MISSING:
-            default = f.default
-        elif f.default_factory is not MISSING:
-            default = f.default_factory()
-        else:
-            return False
-        value = getattr(element, f.name)
-        try:
-            same = np.array_equal(np.asarray(value), np.asarray(default), equal_nan=True)
-        except TypeError:
-            same = bool(np.all(np.asarray(value) == np.asarray(default)))
-        if not same:
-            return False
-    return True
 
 
 ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunction,

@@ -33,8 +33,9 @@ References
 """
 import math
 
-import numba
 import numpy as np
+
+from siltandem.numerics import jit as numba
 
 from siltandem.laws.field_emission import gain_point
 

@@ -619,7 +619,13 @@ def _cone_complement(x, mu_c, transmittance=lambertian_transmittance, t_x=None):
 
 #: T = 2 E3 remembered entry by entry between calls (numerics/memo.py): the designs of a layer
 #: study share most optical depths bit for bit, and E3 dominates the Lambertian channel's cost
-_TRANSMITTANCE_MEMO = EntryMemo(lambda tau: 2.0 * expn(3, tau))
+def _two_e3(tau):
+    from scipy.special import expn     # here: scipy.special costs a command 0.1 s to import
+
+    return 2.0 * expn(3, tau)
+
+
+_TRANSMITTANCE_MEMO = EntryMemo(_two_e3)
 
 
 def _remembered_transmittance(optical_depth, part):
