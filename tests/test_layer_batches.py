@@ -196,3 +196,36 @@ def test_photocurrents_with_reuse_equal_a_fresh_compile():
         fresh = photocurrents_at(stack, "top base.thickness_nm", value)
         assert kept == fresh
     assert any(key[0] == "isotype" for key in reuse)      # something was reused
+
+
+def test_joined_isotype_interfaces_keep_the_compiled_law():
+    """A batch of layer designs joins each isotype interface's fields into (B, 1) arrays, the
+    defaulted ones too (a zero sheet charge becomes B zeros): the interface still takes the
+    compiled law (laws/compiled_isotype.py), and its voltages equal the numpy law's (the
+    reference: laws/thermionic.py, validated against mpmath in tests/test_isotype_exact.py).
+    A nonzero sheet charge in any row sends the joined interface to the numpy law."""
+    from dataclasses import replace
+
+    from siltandem.circuit.elements import IsotypeInterface
+    from siltandem.laws import thermionic
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    circuits = [compile_stack(layer_design(stack, {"top base.thickness_nm": t}))
+                for t in (600.0, 900.0, 1200.0)]
+    names = [e.name for e in circuits[0].elements if isinstance(e, IsotypeInterface)]
+    assert names
+    temperature = stack.conditions.temperature_K
+    current = np.full((3, 1), 120.0)            # 12 mA/cm2 in A/m2
+    for name in names:
+        joined = join_rows([c.element(name) for c in circuits], [1, 1, 1])
+        assert np.shape(joined.sheet_charge) == (3, 1)
+        assert joined.compiled_rows(temperature) is not None, name
+        voltage, _ = joined.voltage(current, temperature)
+        law = dict(joined._law(temperature))
+        s = joined.direction
+        reference, _ = thermionic.isotype_voltage(s * current, with_derivative=True, **law) \
+            if joined.transport == "thermionic" else (None, None)
+        if reference is not None:
+            np.testing.assert_allclose(voltage, -s * reference, rtol=1e-9, atol=1e-12)
+        charged = replace(joined, sheet_charge=np.array([[0.0], [0.1], [0.0]]))
+        assert charged.compiled_rows(temperature) is None, name

@@ -13,7 +13,7 @@ COMPILED_ISOTYPE_FIELDS = frozenset({
 
 def only_fields_set(element, names):
     """True when every compared field of the dataclass ``element`` outside ``names`` has its
-    default value (arrays compared entry by entry, NaN equal to NaN)."""
+    default value (:func:`_at_default`)."""
     for f in fields(element):
         if f.name in names or not f.compare:
             continue
@@ -23,11 +23,23 @@ def only_fields_set(element, names):
             default = f.default_factory()
         else:
             return False
-        value = getattr(element, f.name)
-        try:
-            same = np.array_equal(np.asarray(value), np.asarray(default), equal_nan=True)
-        except TypeError:
-            same = bool(np.all(np.asarray(value) == np.asarray(default)))
-        if not same:
+        if not _at_default(getattr(element, f.name), default):
             return False
     return True
+
+
+def _at_default(value, default):
+    """Whether a field holds its default: None is None; numbers and arrays entry by entry with
+    broadcasting (a batch of designs, (B, 1), against the default's (1, 1)), NaN equal to NaN;
+    anything else by ``==``."""
+    if default is None or value is None:
+        return value is default
+    try:
+        v = np.asarray(value, dtype=float)
+        d = np.asarray(default, dtype=float)
+        return bool(np.all((v == d) | (np.isnan(v) & np.isnan(d))))
+    except (TypeError, ValueError):          # not numbers, or shapes that do not broadcast
+        try:
+            return bool(np.all(np.asarray(value) == np.asarray(default)))
+        except (TypeError, ValueError):
+            return False
