@@ -41,3 +41,37 @@ def test_a_changed_inlined_source_drops_every_cached_kernel(tmp_path):
 
 def test_a_read_only_or_missing_cache_is_left_alone(tmp_path):
     assert drop_stale_kernels(tmp_path / "nowhere") is False
+
+
+def test_every_kernel_module_checks_the_cache_before_its_kernels():
+    """numba reads a kernel's cache at its first call: each module of KERNEL_SOURCES calls
+    drop_stale_kernels (or imports laws.compiled, which does) before its first kernel, so that
+    importing any one of them alone cannot run a stale compiled law (common practice, no source:
+    numba keys a cache entry by its own file only)."""
+    from pathlib import Path
+
+    import siltandem
+
+    package = Path(siltandem.__file__).resolve().parent
+    for name in KERNEL_SOURCES:
+        text = (package / name).read_text(encoding="utf-8")
+        first_kernel = text.index("@numba.njit")
+        checks = [text.find(marker) for marker in
+                  ("drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)",
+                   "from siltandem.laws.compiled import")]
+        assert any(0 <= at < first_kernel for at in checks), name
+
+
+def test_the_modules_check_runs_once_per_process(tmp_path):
+    """once=True: a second call for the same folder in one process checks nothing more; a plain
+    call always checks."""
+    folder = tmp_path / "pkg"
+    (folder / "laws").mkdir(parents=True)
+    drop_stale_kernels(folder, once=True)           # the first call checks and records
+    stamp = folder / "laws" / "__pycache__" / "siltandem-kernel-sources.sha256"
+    assert stamp.exists()
+    stamp.write_text("changed\n")
+    assert drop_stale_kernels(folder, once=True) is False
+    assert stamp.read_text() == "changed\n"          # not checked again
+    drop_stale_kernels(folder)
+    assert stamp.read_text() != "changed\n"          # a plain call checks and records afresh

@@ -27,7 +27,7 @@ import numpy as np
 from siltandem.numerics.kernel_cache import drop_stale_kernels
 
 # before any kernel is loaded from numba's cache: a cache built from other kernel sources goes
-drop_stale_kernels(Path(__file__).resolve().parents[1])
+drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
 from siltandem.laws.compiled_bulk import BULK_OFFSET, bulk_law, bulk_slopes  # noqa: E402
 from siltandem.laws.compiled_isotype import isotype_inverse  # noqa: E402

@@ -8,8 +8,13 @@ A. Richter et al., Phys. Rev. B 86 (2012) 165202 (intrinsic recombination); P. P
 al., J. Appl. Phys. 97 (2005) 093710 (relative radiative coefficient).
 """
 import math
+from pathlib import Path
 
 from siltandem.numerics import jit as numba
+from siltandem.numerics.kernel_cache import drop_stale_kernels
+
+# before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
+drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
 #: first column of the base law in a subcell's parameter row (after Jph..m and 1/Vt)
 BULK_OFFSET = 9

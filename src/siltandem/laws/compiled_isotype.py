@@ -32,12 +32,17 @@ References
    emission across the spike).
 """
 import math
+from pathlib import Path
 
 import numpy as np
 
 from siltandem.numerics import jit as numba
+from siltandem.numerics.kernel_cache import drop_stale_kernels
 
-from siltandem.laws.field_emission import gain_point
+# before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
+drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
+
+from siltandem.laws.field_emission import gain_point  # noqa: E402
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]

@@ -52,6 +52,7 @@ References
 from __future__ import annotations
 
 import math
+from pathlib import Path
 import warnings
 
 from siltandem.numerics import jit as numba
@@ -59,6 +60,10 @@ import numpy as np
 
 from siltandem.constants import ELECTRON_MASS_KG, PLANCK_J_S, VACUUM_PERMITTIVITY_F_M
 from siltandem.laws import thermionic as te
+from siltandem.numerics.kernel_cache import drop_stale_kernels
+
+# before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
+drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
 __all__ = [
     "TRANSPORTS",

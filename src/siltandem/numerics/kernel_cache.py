@@ -17,6 +17,8 @@ from pathlib import Path
 #: the kernel sources, relative to the package folder (every file with @numba.njit(cache=True))
 KERNEL_SOURCES = ("laws/compiled.py", "laws/compiled_bulk.py", "solve/kernels.py",
                   "laws/compiled_isotype.py", "laws/field_emission.py")
+#: package folders already checked in this process (every kernel module asks; one check serves)
+_CHECKED = set()
 #: the file, in laws/__pycache__, that records the hash of the sources the cache was built from
 STAMP_NAME = "siltandem-kernel-sources.sha256"
 
@@ -31,10 +33,16 @@ def sources_digest(package_folder):
     return digest.hexdigest()
 
 
-def drop_stale_kernels(package_folder):
+def drop_stale_kernels(package_folder, *, once=False):
     """Delete numba's cached kernels of every kernel source when any source changed since they
-    were cached; record the new hash. Returns True when something was deleted."""
-    package_folder = Path(package_folder)
+    were cached; record the new hash. Returns True when something was deleted. Every kernel
+    module calls it before defining its kernels (numba reads its cache at a kernel's first call,
+    so any module imported on its own is covered); with ``once`` (the modules' calls) the check
+    runs once per process and folder."""
+    package_folder = Path(package_folder).resolve()
+    if once and package_folder in _CHECKED:
+        return False
+    _CHECKED.add(package_folder)
     stamp = package_folder / "laws" / "__pycache__" / STAMP_NAME
     try:
         digest = sources_digest(package_folder)
