@@ -42,7 +42,7 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.field_emission import gain_point  # noqa: E402
+from siltandem.laws.field_emission import gain_point, rtsafe_step  # noqa: E402
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]
@@ -235,12 +235,7 @@ def split(vb, p):
         if abs(newton - x) <= 4.0 * _EPS * abs(x) + _TINY:    # converged to rounding
             x = newton
             break
-        if not (lo < newton < hi) or abs(2.0 * f) > abs(dx_old * df):
-            dx_old, dx = dx, 0.5 * (hi - lo)
-            x = lo + dx
-        else:
-            dx_old, dx = dx, f / df
-            x = newton
+        x, dx, dx_old = rtsafe_step(x, newton, f, df, lo, hi, dx, dx_old)
         if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
             break
     return x
@@ -359,12 +354,7 @@ def isotype_inverse(current, p):
             if abs(newton - x) <= 4.0 * _EPS * abs(x) + _TINY:    # converged to rounding
                 x = newton
                 break
-            if not (lo < newton < hi) or abs(2.0 * value) > abs(dx_old * slope):
-                dx_old, dx = dx, 0.5 * (hi - lo)
-                x = lo + dx
-            else:
-                dx_old, dx = dx, value / slope
-                x = newton
+            x, dx, dx_old = rtsafe_step(x, newton, value, slope, lo, hi, dx, dx_old)
             if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
                 break
     vb, _, w, a_em1, s = _barrier(x, p)

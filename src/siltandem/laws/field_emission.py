@@ -209,6 +209,17 @@ def _gain_point(w, e00, spike, nodes, weights):
     return log_gain, d_integral * math.exp(f_peak - log_gain)
 
 
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def rtsafe_step(x, newton, value, slope, lo, hi, dx, dx_old):
+    """The next point of rtsafe (W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4)
+    once the bracket [lo, hi] is updated: Newton's point where it stays inside the bracket and the
+    step is under half the last-but-one, else the bracket's middle (also for a NaN or infinite
+    Newton point). Returns (x, dx, dx_old)."""
+    if not (lo < newton < hi) or abs(2.0 * value) > abs(dx_old * slope):
+        return lo + 0.5 * (hi - lo), 0.5 * (hi - lo), dx
+    return newton, value / slope, dx
+
+
 @numba.njit(cache=True, error_model="numpy")
 def _gain_kernel(w_all, e00_all, spike_all, nodes, weights, log_out, dlog_out):
     """`_gain_point` over flat arrays, one compiled loop (the numpy form cost about 1 ms a call in
@@ -277,12 +288,7 @@ def _inverse_kernel(log_target, sign, vbi, alpha, tail, e00, spike, x_lo, x_hi, 
             else:
                 hi = x
             newton = x - value / slope
-            if not (lo < newton < hi) or not math.isfinite(newton) or abs(2.0 * value) > abs(dx_old * slope):
-                dx_old, dx = dx, 0.5 * (hi - lo)
-                x = lo + dx
-            else:
-                dx_old, dx = dx, value / slope
-                x = newton
+            x, dx, dx_old = rtsafe_step(x, newton, value, slope, lo, hi, dx, dx_old)
             if abs(dx) <= 4.0 * 2.220446049250313e-16 * abs(x) + 1e-300:
                 break
         out[i] = x
