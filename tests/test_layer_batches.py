@@ -229,3 +229,87 @@ def test_joined_isotype_interfaces_keep_the_compiled_law():
             np.testing.assert_allclose(voltage, -s * reference, rtol=1e-9, atol=1e-12)
         charged = replace(joined, sheet_charge=np.array([[0.0], [0.1], [0.0]]))
         assert charged.compiled_rows(temperature) is None, name
+
+
+def _element_fields(element):
+    """An element's numeric fields as bytes (exact comparison, NaN-safe)."""
+    from dataclasses import fields
+
+    out = {}
+    for f in fields(element):
+        value = getattr(element, f.name)
+        if isinstance(value, np.ndarray) or isinstance(value, float):
+            out[f.name] = np.asarray(value, dtype=float).tobytes()
+        elif isinstance(value, tuple) and value and isinstance(value[0], np.ndarray):
+            out[f.name] = tuple(np.asarray(v, dtype=float).tobytes() for v in value)
+    return out
+
+
+def test_remembered_compile_equals_a_fresh_compile():
+    """A study's compile keeps one reuse dict (numerics/memo.remembered: subcells, tunnel
+    junctions, couplings and per-layer optics keyed by every input they read). Over a 2-D
+    thickness grid (both varied layers, visited in an order that revisits values), every element
+    and coupling equals, bit for bit, the design compiled without the dict; and the subcells of the
+    unvaried layers were built once, not per design (the memo did work)."""
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    reuse = {}
+    grid = [(t, m) for t in (450.0, 800.0, 1300.0) for m in (1200.0, 2500.0)] + [(450.0, 2500.0)]
+    for top, middle in grid:
+        design = layer_design(stack, {"top base.thickness_nm": top, "middle base.thickness_nm": middle})
+        kept, fresh = compile_stack(design, reuse), compile_stack(design)
+        assert [e.name for e in kept.elements] == [e.name for e in fresh.elements]
+        for a, b in zip(kept.elements, fresh.elements):
+            assert _element_fields(a) == _element_fields(b), a.name
+        assert kept.model.subcells == fresh.model.subcells
+        details_kept, details_fresh = kept.optics["layer_details"], fresh.optics["layer_details"]
+        assert repr(details_kept) == repr(details_fresh)
+    subcells = reuse[("remembered", "subcell")]
+    # 3 top, 2 middle, 1 silicon subcell: 6 distinct subcells for 7 designs x 3 subcells
+    assert len(subcells) == 6
+
+
+def test_remembered_builds_once_per_key_and_again_for_another():
+    """numerics/memo.remembered: the same key answers from the dict (build not called), another
+    key builds; without a dict every call builds; a kind's table is bounded (oldest first)."""
+    from siltandem.numerics.memo import remembered
+
+    calls = []
+
+    def build(x):
+        calls.append(x)
+        return [x]
+
+    reuse = {}
+    first = remembered(reuse, "k", 1.0, lambda: build(1.0))
+    assert remembered(reuse, "k", 1.0, lambda: build(1.0)) is first
+    assert remembered(reuse, "k", 2.0, lambda: build(2.0)) == [2.0]
+    assert remembered(reuse, "other", 1.0, lambda: build(-1.0)) == [-1.0]   # a kind apart
+    assert calls == [1.0, 2.0, -1.0]
+    remembered(None, "k", 1.0, lambda: build(1.0))
+    assert calls[-1] == 1.0 and len(calls) == 4
+    small = {}
+    for x in range(5):
+        remembered(small, "k", x, lambda x=x: build(x), entries=3)
+    assert list(small[("remembered", "k")]) == [2, 3, 4]
+
+
+def test_stacked_optics_rows_equal_each_design_lit_alone():
+    """optics.layers.light_designs lights the designs of one optical group at once ((B, M)
+    arrays); each design's photocurrents equal, bit for bit, illuminate on it alone, which takes
+    the same stacked pass with B = 1. Thicknesses of both varied layers and the grid shading (a
+    [device] value) differ between rows."""
+    from siltandem.optics.layers import light_designs, optical_group
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    light = study_light(stack)
+    designs = [layer_design(stack, {"top base.thickness_nm": t, "middle base.thickness_nm": m,
+                                    "device.shading_fraction": f})
+               for t, m, f in ((500.0, 1200.0, 0.0), (900.0, 3000.0, 0.05), (1400.0, 2000.0, 0.02))]
+    compiled = [compile_stack(d) for d in designs]
+    assert len({optical_group(c.model) for c in compiled}) == 1
+    together = light_designs([c.model for c in compiled], light.wavelength_nm, light.photon_flux)
+    for circuit, currents in zip(compiled, together):
+        alone = illuminate(circuit, light)
+        assert currents == [float(alone.element(c.name).photocurrent_A_m2.reshape(-1)[0])
+                            for c in circuit.model.subcells]
+    assert len({tuple(c) for c in together}) == 3

@@ -38,6 +38,7 @@ from siltandem.laws import esaki
 from siltandem.laws import lifetimes, silicon
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.materials import material_identity, recombination
+from siltandem.numerics.memo import remembered
 
 #: defaults of the layer compiler (common practice, no source; each can be given per layer)
 DEFAULT_SRV_CM_S = 1e4
@@ -159,16 +160,25 @@ def _minority(layer, material, temperature_K, *, file, role, radiative_s=np.inf)
     return length, diffusivity, float(lifetimes.nonradiative_lifetime_s(length**2 / diffusivity, radiative_s))
 
 
-def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflectance):
+def material_key(layer):
+    """The layer keys its material is a pure function of (``_material``): a memo key."""
+    return (layer.material, layer.composition, layer.gap_eV)
+
+
+def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflectance, reuse=None):
     """Rear emission of a subcell over its front emission (laws/lifetimes.py): into the layer
     behind its base where the layers behind reach one absorption length at the emission peak
-    (Eg + kT: a lower subcell, a substrate), else into the stack's back (reflectance R)."""
+    (Eg + kT: a lower subcell, a substrate), else into the stack's back (reflectance R).
+    ``reuse``: a study's dict; each material's absorption at the peak is computed once."""
     peak_nm = HC_EV_NM / (gap_eV + BOLTZMANN_EV_K * temperature_K)
     cell_index = float(materials[cell.base].refractive_index(peak_nm))
     depth = 0.0
     for layer, material in zip(layers[cell.base + 1:], materials[cell.base + 1:]):
-        depth += float(material.absorption_per_m(peak_nm, temperature_K=temperature_K)) \
-            * layer.thickness_nm * 1e-9
+        alpha = remembered(reuse, "absorption at the emission peak",
+                           (material_key(layer), peak_nm, float(temperature_K)),
+                           lambda material=material: float(material.absorption_per_m(
+                               peak_nm, temperature_K=temperature_K)))
+        depth += alpha * layer.thickness_nm * 1e-9
         if depth >= 1.0:
             return lifetimes.rear_emission_factor(
                 cell_index=cell_index, rear_index=float(material.refractive_index(peak_nm)))
@@ -190,10 +200,41 @@ def _radiative_lifetimes(cell, layers, materials, ni, floor):
     return out, recycling
 
 
-def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0):
+def _dark_side(cell, materials, temperature_K):
+    """"emitter" or "base": the side whose material sets a subcell's gap and n_i."""
+    material_e, material_b = materials[cell.emitter], materials[cell.base]
+    return hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
+
+
+def _remembered_subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance,
+                        reuse):
+    """``_subcell``, remembered in a study's ``reuse`` dict under every input it reads: the
+    subcell's recognised layers, its emitter and base (their keys set their materials), the
+    conditions, and its rear emission (the only thing it takes from the layers behind it), so
+    that in a map of other layers' keys it is built once per distinct emitter and base."""
+    if reuse is None:
+        return _subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance)
+    emitter, base = layers[cell.emitter], layers[cell.base]
+    silicon_cell = is_silicon(emitter) and is_silicon(base)
+    rear = 0.0
+    if not silicon_cell:
+        dark = materials[cell.emitter if _dark_side(cell, materials, temperature_K) == "emitter" else cell.base]
+        rear = _rear_emission(cell, layers, materials, float(dark.gap_eV(temperature_K)), temperature_K,
+                              back_reflectance, reuse)
+    key = (repr(cell), repr(emitter), repr(base), float(temperature_K), str(file), name, float(suns),
+           float(back_reflectance), float(rear))
+    element, model, extra = remembered(reuse, "subcell", key, lambda: _subcell(
+        cell, layers, materials, temperature_K, file, name, suns, back_reflectance, rear=rear))
+    return element, model, dict(extra)       # the caller adds to the details: a copy of its own
+
+
+def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0, *,
+             rear=None):
+    """One subcell's element, SubcellModel and details. ``rear``: its rear emission factor when
+    already known (``_rear_emission`` of the same inputs), else computed here."""
     emitter, base = layers[cell.emitter], layers[cell.base]
     material_e, material_b = materials[cell.emitter], materials[cell.base]
-    dark_side = hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
+    dark_side = _dark_side(cell, materials, temperature_K)
     dark_index = cell.emitter if dark_side == "emitter" else cell.base
     ni_e0 = float(material_e.intrinsic_density_per_m3(temperature_K))
     ni_b0 = float(material_b.intrinsic_density_per_m3(temperature_K))
@@ -253,8 +294,9 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     gap = float(material.gap_eV(temperature_K))
     # the radiative floor: emission through the front and into what lies behind (two-sided)
     front = float(radiative_saturation_current(gap, temperature_K=temperature_K))
-    rear = 0.0 if silicon_cell else _rear_emission(cell, layers, materials, gap, temperature_K,
-                                                    back_reflectance)
+    if rear is None:
+        rear = 0.0 if silicon_cell else _rear_emission(cell, layers, materials, gap, temperature_K,
+                                                        back_reflectance)
     floor = front * (1.0 + rear)
     (rad_e, rad_b), recycling = ((np.inf, np.inf), 1.0) if silicon_cell else \
         _radiative_lifetimes(cell, layers, materials, ni, floor)
@@ -530,9 +572,9 @@ def compile_layer_stack(stack, reuse=None):
             name = _cell_name(info["cell"], layers, used)
             used.add(name)
             try:
-                element, model, extra = _subcell(info["cell"], layers, materials, temperature,
-                                                 file, name, stack.conditions.suns,
-                                                 stack.rules.get("back_reflectance", 0.0))
+                element, model, extra = _remembered_subcell(
+                    info["cell"], layers, materials, temperature, file, name, stack.conditions.suns,
+                    stack.rules.get("back_reflectance", 0.0), reuse)
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -544,7 +586,13 @@ def compile_layer_stack(stack, reuse=None):
             cell_models.append(model)
             details["subcells"][name] = extra
         elif kind == "tunnel":
-            element, extra = _tunnel(info["upper"], layers, materials, temperature, file)
+            upper = info["upper"]
+            # a pure function of its two layers' keys (they set their materials): built once per study
+            element, extra = remembered(
+                reuse, "tunnel", (upper, repr(layers[upper]), repr(layers[upper + 1]), float(temperature),
+                                  str(file)),
+                lambda upper=upper: _tunnel(upper, layers, materials, temperature, file))
+            extra = dict(extra)
             elements.append(element)
             details["tunnels"].append(extra)
         else:
@@ -560,7 +608,7 @@ def compile_layer_stack(stack, reuse=None):
                        stack.rules.get("front_scattering", "specular"),
                        stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
                        stack.rules.get("shading_fraction", 0.0))
-    elements, couplings = couple_layers(elements, model, file=file)
+    elements, couplings = couple_layers(elements, model, file=file, reuse=reuse)
     details["couplings"] = couplings
     for found in couplings:      # the floor counts the emission into the layers below too
         details["subcells"][found.upper]["downward_emission_ratio"] = found.emitted_A_m2 / found.reference_A_m2

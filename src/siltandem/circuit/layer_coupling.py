@@ -37,6 +37,7 @@ from siltandem.errors import StackError
 from siltandem.laws import collection, thinfilm
 from siltandem.laws.luminescent import downward_emission
 from siltandem.laws.radiative import radiative_saturation_current
+from siltandem.numerics.memo import remembered
 
 #: photon energies of the emission grid, relative to the upper gap [eV], and their number: the
 #: emission falls as exp(-E/kT) above the gap (e^-19 at +0.5 eV, 300 K) and with the absorption
@@ -77,18 +78,28 @@ def _span(cell):
     return range(min(cell.emitter, cell.base), max(cell.emitter, cell.base) + 1)
 
 
-def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back_haze=0.0):
+def _layer_key(layer):
+    """The keys of a layer its optics on a grid is a pure function of (material and doping)."""
+    return (layer.material, layer.composition, layer.gap_eV, layer.polarity, layer.doping_cm3)
+
+
+def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back_haze=0.0, reuse=None):
     """:class:`LayerCoupling` from ``upper`` to ``lower`` (SubcellModel of ``model``, a
-    LayerModel); ``element`` the upper Subcell (its gap and absorptance set J0,rad)."""
+    LayerModel); ``element`` the upper Subcell (its gap and absorptance set J0,rad). ``reuse``:
+    a study's dict; a layer's optics on the emission grid (set by the gap) is computed once."""
     temperature = model.temperature_K
     gap = float(np.asarray(element.gap_eV).reshape(-1)[0])
     energy = np.linspace(gap + ENERGY_SPAN_EV[0], gap + ENERGY_SPAN_EV[1], ENERGY_POINTS)
     wavelength = HC_EV_NM / energy
     layers, materials = model.layers, model.materials
 
-    def optics(j):
+    def fresh(j):
         band, free = _alpha(layers[j], materials[j], wavelength, temperature)
         return band, free, np.asarray(materials[j].refractive_index(wavelength), dtype=float)
+
+    def optics(j):
+        return remembered(reuse, "coupling optics", (_layer_key(layers[j]), gap, float(temperature)),
+                          lambda: fresh(j))
 
     up = list(_span(upper))
     depth = sum(optics(j)[0] * layers[j].thickness_nm * 1e-9 for j in up)
@@ -176,17 +187,25 @@ def check_given_coupling(layers, cells, file):
                                  fix=f"keep it on one of them (remove it from {layers[other].label})")
 
 
-def couple_layers(elements, model, *, file=None):
+def couple_layers(elements, model, *, file=None, reuse=None):
     """The elements with every subcell's ``luminescent_coupling`` set from its layers (or the
-    layer key), and the list of :class:`LayerCoupling` (sun side first)."""
+    layer key), and the list of :class:`LayerCoupling` (sun side first). ``reuse``: a study's
+    dict; a pair's coupling is remembered under every input it reads (the two subcells, the upper
+    one's gap and absorptance, the layers from the upper subcell down, the back)."""
     cells = list(model.subcells)
     check_given_coupling(model.layers, cells, file)
     by_name = {e.name: e for e in elements if isinstance(e, Subcell)}
     back_haze = model.back_haze if model.back_scattering == "lambertian" else 0.0
     couplings, values = [], {}
     for upper, lower in zip(cells, cells[1:]):
-        found = subcell_coupling(model, upper, lower, by_name[upper.name],
-                                 back_reflectance=model.back_reflectance, back_haze=back_haze)
+        element = by_name[upper.name]
+        key = (repr(upper), repr(lower), repr(model.layers[min(_span(upper)):]), float(model.temperature_K),
+               np.asarray(element.gap_eV, dtype=float).tobytes(),
+               np.asarray(element.absorptance, dtype=float).tobytes(), float(model.back_reflectance),
+               float(back_haze))
+        found = remembered(reuse, ("coupling", upper.name), key, lambda upper=upper, lower=lower, element=element:
+                           subcell_coupling(model, upper, lower, element, back_reflectance=model.back_reflectance,
+                                            back_haze=back_haze, reuse=reuse))
         given = given_coupling(model.layers, upper)
         if given is not None:
             found = replace(found, coupling=float(given), source="given")

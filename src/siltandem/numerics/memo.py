@@ -45,3 +45,27 @@ class EntryMemo:
     def clear(self):
         with self._lock:
             self._last.clear()
+
+
+#: entries one kind of :func:`remembered` keeps in a study's ``reuse`` dict (the oldest goes first):
+#: a 100 x 100 map has 100 distinct values of a part that depends on one varied key
+REMEMBERED_ENTRIES = 512
+
+
+def remembered(reuse, kind, key, build, *, entries=REMEMBERED_ENTRIES):
+    """``build()``, remembered in ``reuse`` (a dict kept between the designs of one study) under
+    ``key`` in a table of its own per ``kind``. ``key`` must hold every input ``build`` reads (a
+    pure function of them): then the answer is the fresh one bit for bit, and the memo only saves
+    time. ``reuse=None``: ``build()`` every time."""
+    if reuse is None:
+        return build()
+    table = reuse.setdefault(("remembered", kind), {})
+    try:
+        return table[key]
+    except KeyError:
+        pass
+    value = build()
+    if len(table) >= entries:
+        table.pop(next(iter(table)))
+    table[key] = value
+    return value

@@ -115,8 +115,10 @@ def layer_light(model, wavelength, flux, reuse=None):
                                    * flux_array)
     collected = [_collected(cell, band_to_band, free, free_share, budget, bool(trapping))
                  for cell in model.subcells]
-    return LayerLight(alphas, reflectance * open_area, coating_absorbed * open_area, budget, collected,
-                      free_share)
+    # a stacked model's shading is (B, 1): the coatings' (C, M) absorptance becomes (C, B, M)
+    coating_open = coating_absorbed * open_area if np.ndim(open_area) == 0 \
+        else coating_absorbed[:, None, :] * open_area
+    return LayerLight(alphas, reflectance * open_area, coating_open, budget, collected, free_share)
 
 
 #: the layers above the first emitter (window, contact layers) join the coherent front calculation
@@ -226,13 +228,88 @@ def _collected_hetero(cell, band_to_band, free, budget, uniform):
                            base_A_m2=result.base_A_m2 * keep_b)
 
 
+#: the SubcellModel fields that differ between the designs of one optical group (set by the
+#: layers' thicknesses: depletion and quasi-neutral widths, and lifetimes through them)
+_SUBCELL_ARRAYS = ("emitter_thickness_m", "base_thickness_m", "depletion_width_m", "emitter_length_m",
+                   "emitter_diffusivity_m2_s", "base_length_m", "base_diffusivity_m2_s", "front_srv_m_s",
+                   "back_srv_m_s", "emitter_depletion_width_m")
+#: designs lit at once by :func:`light_designs`: arrays (layers, designs, wavelengths) of 13 x 64
+#: x 2002 doubles are 13 MB each
+LIGHT_BATCH = 64
+
+
+def optical_group(model):
+    """A key equal for layer models that :func:`stacked_model` can light at once: everything of
+    the model but the thicknesses of the thick layers (from the first emitter down), the
+    subcells' widths and lengths and the grid's shading."""
+    films = front_film_count(model)
+    layers = tuple(repr(layer) if j < films else repr(replace(layer, thickness_nm=0.0))
+                   for j, layer in enumerate(model.layers))
+    cells = tuple((c.name, c.emitter, c.base, c.hetero, c.dark_layer) for c in model.subcells)
+    return (layers, films, tuple(id(m) for m in model.materials), repr(model.coatings), cells,
+            float(model.temperature_K), float(model.back_reflectance), float(model.ambient_index),
+            model.back_scattering, model.front_scattering, float(model.back_haze), float(model.front_haze))
+
+
+def stacked_model(models):
+    """B layer models of one :func:`optical_group` as one model whose thick layers' thicknesses,
+    subcell widths and lengths and shading are (B, 1) arrays (the front films stay numbers)."""
+    first = models[0]
+    films = front_film_count(first)
+
+    def column(values):
+        return np.array([float(v) for v in values])[:, None]
+
+    layers = tuple(layer if j < films else replace(layer, thickness_nm=column(m.layers[j].thickness_nm
+                                                                              for m in models))
+                   for j, layer in enumerate(first.layers))
+    cells = tuple(replace(cell, **{name: column(getattr(m.subcells[k], name) for m in models)
+                                   for name in _SUBCELL_ARRAYS if getattr(cell, name) is not None})
+                  for k, cell in enumerate(first.subcells))
+    return replace(first, layers=layers, subcells=cells,
+                   shading_fraction=column(m.shading_fraction for m in models))
+
+
+def _row(values, k):
+    """Design ``k`` of a stacked model's array (..., B, M)."""
+    return np.asarray(values)[..., k, :]
+
+
+def design_light(light, k):
+    """The LayerLight of design ``k`` of a stacked model's pass (:func:`stacked_model`)."""
+    return LayerLight(light.alphas, _row(light.reflectance, k), _row(light.coating_absorbed, k),
+                      type(light.budget)(*(_row(f, k) for f in light.budget)),
+                      [type(c)(*(_row(f, k) for f in c)) for c in light.collected], light.free_carrier_share)
+
+
+def light_designs(models, wavelength, flux, reuse=None):
+    """Collected photocurrent [A/m^2] of every subcell of B layer models of one optical group
+    (:func:`optical_group`), lit at once (batches of ``LIGHT_BATCH``); a list (designs) of lists
+    (subcells). Each design's numbers are those of :func:`illuminate_layers` on it alone, which
+    goes through the same stacked pass with B = 1."""
+    out = []
+    for start in range(0, len(models), LIGHT_BATCH):
+        part = models[start:start + LIGHT_BATCH]
+        light = layer_light(stacked_model(part), wavelength, flux, reuse)
+        for k in range(len(part)):
+            out.append([_photocurrent(_row(c.emitter_A_m2 + c.depletion_A_m2 + c.base_A_m2, k), wavelength)
+                        for c in light.collected])
+    return out
+
+
+def _photocurrent(total, wavelength):
+    """A subcell's photocurrent [A/m^2]: its collected current per nm integrated over the table."""
+    return float(np.trapezoid(total, wavelength))
+
+
 def illuminate_layers(circuit, spectrum, reuse=None):
-    """Light through the layers; photocurrents set, the photon budget in ``circuit.optics``."""
+    """Light through the layers; photocurrents set, the photon budget in ``circuit.optics``. The
+    pass is the stacked one (:func:`stacked_model`) with one design, the same as a study's."""
     model = circuit.model
     wavelength = spectrum.wavelength_nm
     flux = spectrum.photon_flux
     coatings = model.coatings
-    light = layer_light(model, wavelength, flux, reuse)
+    light = design_light(layer_light(stacked_model([model]), wavelength, flux, reuse), 0)
     reflectance, coating_absorbed, budget = (light.reflectance, light.coating_absorbed,
                                              light.budget)
 
@@ -244,8 +321,7 @@ def illuminate_layers(circuit, spectrum, reuse=None):
     active = set()
     for cell, result in zip(model.subcells, light.collected):
         active.update({cell.emitter, cell.base})
-        total = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
-        photocurrent = float(np.trapezoid(total, wavelength))
+        photocurrent = _photocurrent(result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2, wavelength)
         share = light.free_carrier_share
         absorbed[cell.name] = current(sum(budget.absorbed[j] * (1.0 - share[j]) for j in (cell.emitter, cell.base)))
         for j in (cell.emitter, cell.base):
