@@ -7,7 +7,9 @@ INVENTED DATA), measured in one run: medians, ratios, the per-design rate extrap
    (studies/sweep.py).
 2. The same kind of designs one by one: each its own layer stack, compiled, illuminated and
    solved alone (a batch of one), a few of them, per design.
-3. Where the batched map's time goes, per design: compile, illuminate, solve (one batch).
+3. Where the batched map's time goes, per design: compile (one reuse dict: parts equal between
+   designs built once), illuminate (the designs of one optical group lit at once,
+   optics.layers.light_designs), solve (one batch); and one design lit alone, for the ratio.
 
 Wall times on a shared machine follow its load; the process CPU times beside them do not.
 
@@ -26,7 +28,7 @@ from siltandem import design_map, load_stack, parse_vary
 from siltandem.circuit.batch import join_circuits
 from siltandem.circuit.compile import compile_stack
 from siltandem.optics.illuminate import illuminate
-from siltandem.studies.sweep import circuit_results, layer_design, solve_designs, study_light
+from siltandem.studies.sweep import circuit_results, layer_design, lit_designs, solve_designs, study_light
 
 STACK = Path(__file__).resolve().parents[1] / "stacks" / "demo_triple_layers.toml"
 
@@ -52,19 +54,26 @@ def main():
     per_alone = median_time(alone, repeats=3) / len(sample)
     cpu_alone = (time.process_time() - cpu) / 3 / len(sample)
 
-    # where the batched map's time goes (one pass, per design)
+    # where the batched map's time goes (one pass, per design, as the study runs it: one reuse
+    # dict for the compile, the designs of one optical group lit at once, one batched solve)
     light = study_light(stack)
     grid = [(x, y) for x in top.values for y in middle.values]
-    start = time.perf_counter()
-    compiled = [compile_stack(layer_design(stack, {top.column: x, middle.column: y}))
+    reuse = {}
+    start, cpu = time.perf_counter(), time.process_time()
+    compiled = [compile_stack(layer_design(stack, {top.column: x, middle.column: y}), reuse)
                 for x, y in grid]
-    t_compile = time.perf_counter() - start
-    start = time.perf_counter()
-    lit = [illuminate(c, light) for c in compiled]
-    t_light = time.perf_counter() - start
-    start = time.perf_counter()
+    t_compile, c_compile = time.perf_counter() - start, time.process_time() - cpu
+    start, cpu = time.perf_counter(), time.process_time()
+    lit = [c for _, c in lit_designs(compiled, light, reuse)]
+    t_light, c_light = time.perf_counter() - start, time.process_time() - cpu
+    start, cpu = time.perf_counter(), time.process_time()
     circuit_results(join_circuits(lit), len(lit), light)
-    t_solve = time.perf_counter() - start
+    t_solve, c_solve = time.perf_counter() - start, time.process_time() - cpu
+    # the same designs each lit alone (illuminate: the stacked pass with one design)
+    start, cpu = time.perf_counter(), time.process_time()
+    for c in compiled[:20]:
+        illuminate(c, light, reuse)
+    t_alone, c_alone = (time.perf_counter() - start) / 20, (time.process_time() - cpu) / 20
 
     size = n * n
     print(f"{n} x {n} layer-thickness map of the triple ({size} designs), medians of 3:")
@@ -74,8 +83,12 @@ def main():
           f"   (CPU, mean: {1e3 * cpu_alone:.1f} ms/design)")
     print(f"  one by one / batched, per design = {per_alone / per_batched:6.1f} x wall, "
           f"{cpu_alone * size / cpu_batched:6.1f} x CPU")
-    print(f"  batched, per design: compile {1e3 * t_compile / size:.1f} ms, illuminate "
+    print(f"  batched, per design (wall): compile {1e3 * t_compile / size:.1f} ms, illuminate "
           f"{1e3 * t_light / size:.1f} ms, solve {1e3 * t_solve / size:.1f} ms")
+    print(f"  batched, per design (CPU):  compile {1e3 * c_compile / size:.1f} ms, illuminate "
+          f"{1e3 * c_light / size:.1f} ms, solve {1e3 * c_solve / size:.1f} ms")
+    print(f"  illuminate one design alone: {1e3 * t_alone:.1f} ms wall, {1e3 * c_alone:.1f} ms CPU "
+          f"(lit together / alone, CPU: {c_light / size / c_alone:.2f})")
     print(f"  100 x 100 extrapolated from the batched rate: {1e4 * per_batched:8.0f} s wall, "
           f"{1e4 * cpu_batched / size:8.0f} s CPU (target < 60 s)")
     print(f"  per-design rate: {1 / per_batched:6.1f} designs/s batched, "

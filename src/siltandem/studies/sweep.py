@@ -308,14 +308,12 @@ def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperatur
     conditions = replace(conditions, **changes)
     light = study_light(stack, spectrum=spectrum, suns=conditions.suns, light=light)
     flat = {c: np.asarray(v).reshape(-1) for c, v in columns.items()}
-    groups, reuse = {}, {}          # reuse: parts equal between designs, built once
-    for k in range(size):
-        design = layer_design(stack, {c: v[k] if v.size > 1 else v[0] for c, v in flat.items()})
-        circuit = illuminate(compile_stack(replace(design, conditions=conditions), reuse), light,
-                             reuse)
-        # the solve needs the elements only: the photon budget (arrays over the spectrum) and the
-        # layer model are let go, so a chunk of thousands of designs stays small in memory
-        circuit = replace(circuit, optics={}, model=None)
+    reuse = {}                      # parts equal between designs, built once
+    compiled = [compile_stack(replace(layer_design(stack, {c: v[k] if v.size > 1 else v[0]
+                                                           for c, v in flat.items()}),
+                                      conditions=conditions), reuse) for k in range(size)]
+    groups = {}
+    for k, circuit in lit_designs(compiled, light, reuse):
         groups.setdefault(structure_key(circuit), []).append((k, circuit))
     out = {}
     for structure, members in groups.items():
@@ -329,6 +327,36 @@ def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperatur
                             else np.full(size, np.nan, dtype=values.dtype))
             out[key][rows] = values
     return out
+
+
+def lit_designs(compiled, light, reuse):
+    """(index, circuit with photocurrents) of every compiled layer design: the designs of one
+    optical group (optics.layers.optical_group: they differ in thick layers' thicknesses and
+    shading only) lit at once (light_designs), each bit for bit as illuminate on it alone. The
+    solve needs the elements only: the photon budget and the layer model are let go, so a chunk
+    of thousands of designs stays small in memory. A group whose stacked pass fails is lit design
+    by design, so the error names the design's own layers as `siltandem run` would."""
+    from siltandem.optics.layers import light_designs, optical_group
+
+    groups = {}
+    for k, circuit in enumerate(compiled):
+        groups.setdefault(optical_group(circuit.model), []).append(k)
+    out = []
+    for members in groups.values():
+        try:
+            currents = light_designs([compiled[k].model for k in members], light.wavelength_nm,
+                                     light.photon_flux, reuse)
+        except (StackError, ValueError):
+            currents = None
+        for i, k in enumerate(members):
+            circuit = compiled[k]
+            if currents is None:
+                lit = illuminate(circuit, light, reuse)
+            else:
+                lit = circuit.with_elements([circuit.element(cell.name).with_photocurrent(j)
+                                             for cell, j in zip(circuit.model.subcells, currents[i])])
+            out.append((k, replace(lit, optics={}, model=None)))
+    return sorted(out, key=lambda pair: pair[0])
 
 
 def design_table(variations, *, grid=True):
