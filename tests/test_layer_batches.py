@@ -313,3 +313,31 @@ def test_stacked_optics_rows_equal_each_design_lit_alone():
         assert currents == [float(alone.element(c.name).photocurrent_A_m2.reshape(-1)[0])
                             for c in circuit.model.subcells]
     assert len({tuple(c) for c in together}) == 3
+
+
+def test_entry_memo_takes_equal_rows_from_the_row_before():
+    """numerics/memo.EntryMemo on a stacked pass (..., B, M): an entry equal to the one a row
+    before is taken from it (a run of equal rows evaluated once), others evaluated; the answer
+    equals scipy.special.expn evaluated afresh (==), NaN entries included."""
+    from scipy.special import expn
+
+    from siltandem.numerics.memo import EntryMemo
+
+    seen = []
+
+    def counted(x):
+        seen.append(np.size(x))
+        return 2.0 * expn(3, x)
+
+    memo = EntryMemo(counted)
+    rng = np.random.default_rng(3)
+    row = rng.uniform(0.0, 30.0, 40)
+    x = np.stack([np.stack([row, row, row, row + 1.0, row + 1.0, row]) for _ in range(2)])  # (2, 6, 40)
+    x[1] += 2.0
+    x[0, 2, 5] = np.nan
+    x[0, 4, 9] = 7.0
+    got = memo(x, "rows")
+    assert np.array_equal(got, 2.0 * expn(3, x), equal_nan=True)
+    # per layer: rows 0, 3 and 5 differ from the row before (3 x 40 fresh); plus, in layer 0, the
+    # NaN (never equal) and the changed entry of row 4 (row 3's entry after the NaN is fresh anyway)
+    assert seen == [2 * 3 * 40 + 2]

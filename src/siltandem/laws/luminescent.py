@@ -9,6 +9,7 @@ then shows a spurious response where the upper subcell absorbs (D. J. Friedman, 
 M. A. Steiner, IEEE J. Photovolt. 3 (2013) 1429, from memory).
 """
 from dataclasses import dataclass
+import functools
 
 import numpy as np
 
@@ -107,6 +108,15 @@ class DownwardEmission:
         return np.sqrt(np.clip(1.0 - (self.sine_invariant / n) ** 2, 0.0, 1.0))
 
 
+@functools.lru_cache(maxsize=8)
+def _gauss_legendre(nodes):
+    """numpy's Gauss-Legendre nodes and weights on [-1, 1], computed once per count (read-only)."""
+    x, w = np.polynomial.legendre.leggauss(nodes)
+    x.flags.writeable = False
+    w.flags.writeable = False
+    return x, w
+
+
 def downward_emission(energy_eV, *, temperature_K, upper_index, upper_optical_depth,
                       path_indices=(), path_optical_depths=(), lower_index, nodes=ANGLE_NODES):
     """Radiative emission of an upper subcell downward, per unit of exp(qVj/kT), and the share
@@ -150,7 +160,7 @@ def downward_emission(energy_eV, *, temperature_K, upper_index, upper_optical_de
     for n in path_indices:
         n_min = np.minimum(n_min, np.asarray(n, dtype=float))
     mu_cone = np.sqrt(np.clip(1.0 - (n_min / n_a) ** 2, 0.0, 1.0))
-    x, w = np.polynomial.legendre.leggauss(nodes)
+    x, w = _gauss_legendre(nodes)
     half = (0.5 * (1.0 - mu_cone))[:, None]
     mu = mu_cone[:, None] + half * (x + 1.0)
     mu_weight = half * w

@@ -4,7 +4,8 @@ A layer study evaluates the same optical laws for design after design whose inpu
 equal bit for bit (a thickness map changes the optical depths below one layer, and only at the
 wavelengths that layer absorbs). :class:`EntryMemo` keeps, per call site (a ``slot``) and array
 shape, the last input and output; a new input is evaluated only at the entries whose input
-changed. The function must be elementwise and deterministic (a scalar kernel such as
+changed, and an entry equal to the one a row before it (axis -2: the previous design of a stacked
+pass) is taken from that row. The function must be elementwise and deterministic (a scalar kernel such as
 ``scipy.special.expn``), so an entry's output depends on its input alone: the answer is, bit for
 bit, the function evaluated afresh. The memo only saves time.
 """
@@ -29,17 +30,40 @@ class EntryMemo:
         with self._lock:
             last = self._last.get(key)
         if last is None:
-            y = np.asarray(self.function(x), dtype=float)
+            changed = np.ones(x.shape, dtype=bool)
+            y = np.empty(x.shape)
         else:
             last_x, last_y = last
             changed = x != last_x
             y = last_y.copy()
-            if changed.any():
-                y[changed] = self.function(x[changed])
+        if changed.any():
+            y = self._evaluate(x, y, changed)
         with self._lock:
             if key not in self._last and len(self._last) >= self.max_slots:
                 self._last.pop(next(iter(self._last)))
             self._last[key] = (x.copy(), y.copy())
+        return y
+
+    def _evaluate(self, x, y, changed):
+        """``y`` with the ``changed`` entries set to ``function(x)``. An array (..., B, M) holds B
+        designs of a stacked pass in its rows (axis -2): a changed entry equal to the one a row
+        before takes that row's value (the rows in order, so a run of equal entries is evaluated
+        once); the rest is evaluated."""
+        if x.ndim < 2 or x.shape[-2] < 2:
+            y[changed] = self.function(x[changed])
+            return y
+        same = np.zeros(x.shape, dtype=bool)
+        same[..., 1:, :] = x[..., 1:, :] == x[..., :-1, :]
+        copied = changed & same
+        fresh = changed & ~same
+        if fresh.any():
+            y[fresh] = self.function(x[fresh])
+        if copied.any():
+            # each copied entry takes the value of the last row at or above it that is not copied:
+            # every row between holds an equal input (== along the run), so an equal output
+            rows = np.broadcast_to(np.arange(x.shape[-2]).reshape(-1, 1), x.shape)
+            source = np.maximum.accumulate(np.where(copied, 0, rows), axis=-2)
+            y = np.take_along_axis(y, source, axis=-2)
         return y
 
     def clear(self):
