@@ -341,3 +341,47 @@ def test_entry_memo_takes_equal_rows_from_the_row_before():
     # per layer: rows 0, 3 and 5 differ from the row before (3 x 40 fresh); plus, in layer 0, the
     # NaN (never equal) and the changed entry of row 4 (row 3's entry after the NaN is fresh anyway)
     assert seen == [2 * 3 * 40 + 2]
+
+
+def test_value_memo_answers_only_bit_equal_arguments():
+    """numerics/memo.ValueMemo (the collection law's remembered fractions, laws/collection.py):
+    bit-equal arguments answer from the memo without calling the function, any changed bit or
+    shape calls it; every answer equals the function evaluated afresh (==) and is read-only."""
+    from siltandem.numerics.memo import ValueMemo
+
+    calls = []
+
+    def law(a, w):
+        calls.append(1)
+        return np.exp(-a * w) + a * w
+
+    memo = ValueMemo(law, entries=2)
+    a = np.linspace(0.0, 5.0, 30)
+    first = memo(a, 1e-6)
+    assert not first.flags.writeable
+    again = memo(a.copy(), 1e-6)
+    assert again is first and len(calls) == 1
+    nudged = memo(a, np.nextafter(1e-6, 1.0))          # one bit of the width changed
+    assert len(calls) == 2 and np.array_equal(nudged, law(a, np.nextafter(1e-6, 1.0)))
+    reshaped = memo(a.reshape(5, 6), 1e-6)              # same bytes, another shape
+    assert len(calls) == 4 and reshaped.shape == (5, 6)
+    np.testing.assert_array_equal(memo(a, 1e-6), law(a, 1e-6))  # evicted (2 entries): evaluated again
+
+
+def test_collected_photocurrent_with_its_memo_equals_the_law_afresh():
+    """laws/collection.collected_photocurrent remembers its regions' collected fractions: a second
+    call with the same absorber and another flux gives, bit for bit, the law with the memo emptied
+    (Hovel's collection law, tests/test_collection.py checks it against published values)."""
+    from siltandem.laws import collection
+
+    alpha = np.logspace(3, 7, 200)
+    geometry = dict(emitter_thickness_m=1e-7, emitter_diffusion_length_m=3e-7, emitter_diffusivity_m2_s=2e-4,
+                    front_srv_m_s=10.0, depletion_width_m=5e-8, base_thickness_m=2e-6,
+                    base_diffusion_length_m=4e-6, base_diffusivity_m2_s=1e-2, back_srv_m_s=100.0)
+    collection.collected_photocurrent(alpha, photon_flux_m2_s=np.ones(200), **geometry)
+    flux = np.linspace(1e18, 3e18, 200)
+    kept = collection.collected_photocurrent(alpha, photon_flux_m2_s=flux, **geometry)
+    collection._COLLECTION_MEMO.clear()
+    fresh = collection.collected_photocurrent(alpha, photon_flux_m2_s=flux, **geometry)
+    for a, b in zip(kept, fresh):
+        np.testing.assert_array_equal(a, b)

@@ -60,6 +60,7 @@ import numpy as np
 
 from siltandem.constants import ELEMENTARY_CHARGE_C, thermal_voltage_V
 from siltandem.laws.checks import CollectionParameterError, checked, finite
+from siltandem.numerics.memo import ValueMemo
 
 __all__ = [
     "CollectedPhotocurrent", "DiffusionSaturationCurrent",
@@ -223,6 +224,15 @@ def _collection(alpha, thickness, length, srv, diffusivity, lit_at_junction):
     numerator = a * (one_minus_t * inner + t * surface)
     denominator = one_minus_t * 0.5 * (1.0 + e2) + t * _exprel(-2.0 * k)
     return numerator / denominator
+
+
+def _collection_of(alpha, thickness, length, srv, diffusivity, lit_at_junction):
+    return _collection(alpha, thickness, length, srv, diffusivity, lit_at_junction=bool(lit_at_junction))
+
+
+#: a layer study calls the law design after design with one region's inputs unchanged (the
+#: unvaried subcells, the emitters): its collected fraction is remembered, keyed by the inputs' bytes
+_COLLECTION_MEMO = ValueMemo(_collection_of, entries=16)
 
 
 def layer_collection_fraction(absorption_per_m, *, thickness_m, diffusion_length_m, diffusivity_m2_s,
@@ -415,8 +425,8 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
     x, y, z = np.exp(-alpha * we), np.exp(-depth_d), np.exp(-alpha_b * wb)
     absorbed_e, absorbed_d, absorbed_b = -np.expm1(-alpha * we), -np.expm1(-depth_d), \
         -np.expm1(-alpha_b * wb)
-    emitter_front = _collection(alpha, we, le, sf, de, lit_at_junction=False)
-    base_front = _collection(alpha_b, wb, lb, sb, db, lit_at_junction=True)
+    emitter_front = _COLLECTION_MEMO(alpha, we, le, sf, de, False)
+    base_front = _COLLECTION_MEMO(alpha_b, wb, lb, sb, db, True)
     emitter = q * flux * emitter_front
     depletion = q * flux * x * absorbed_d
     base = q * flux * x * y * base_front
