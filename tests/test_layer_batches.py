@@ -369,7 +369,8 @@ def test_value_memo_answers_only_bit_equal_arguments():
 
 
 def test_collected_photocurrent_with_its_memo_equals_the_law_afresh():
-    """laws/collection.collected_photocurrent remembers its regions' collected fractions: a second
+    """laws/collection.collected_photocurrent remembers its regions' collected fractions (lit and
+    uniform generation): a second
     call with the same absorber and another flux gives, bit for bit, the law with the memo emptied
     (Hovel's collection law, tests/test_collection.py checks it against published values)."""
     from siltandem.laws import collection
@@ -378,10 +379,13 @@ def test_collected_photocurrent_with_its_memo_equals_the_law_afresh():
     geometry = dict(emitter_thickness_m=1e-7, emitter_diffusion_length_m=3e-7, emitter_diffusivity_m2_s=2e-4,
                     front_srv_m_s=10.0, depletion_width_m=5e-8, base_thickness_m=2e-6,
                     base_diffusion_length_m=4e-6, base_diffusivity_m2_s=1e-2, back_srv_m_s=100.0)
-    collection.collected_photocurrent(alpha, photon_flux_m2_s=np.ones(200), **geometry)
+    collection.collected_photocurrent(alpha, photon_flux_m2_s=np.ones(200), uniform_absorbed_m2_s=1.0, **geometry)
     flux = np.linspace(1e18, 3e18, 200)
-    kept = collection.collected_photocurrent(alpha, photon_flux_m2_s=flux, **geometry)
+    kept = collection.collected_photocurrent(alpha, photon_flux_m2_s=flux, uniform_absorbed_m2_s=0.1 * flux,
+                                             **geometry)
     collection._COLLECTION_MEMO.clear()
-    fresh = collection.collected_photocurrent(alpha, photon_flux_m2_s=flux, **geometry)
+    collection._UNIFORM_MEMO.clear()
+    fresh = collection.collected_photocurrent(alpha, photon_flux_m2_s=flux, uniform_absorbed_m2_s=0.1 * flux,
+                                              **geometry)
     for a, b in zip(kept, fresh):
         np.testing.assert_array_equal(a, b)

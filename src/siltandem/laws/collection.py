@@ -233,6 +233,7 @@ def _collection_of(alpha, thickness, length, srv, diffusivity, lit_at_junction):
 #: a layer study calls the law design after design with one region's inputs unchanged (the
 #: unvaried subcells, the emitters): its collected fraction is remembered, keyed by the inputs' bytes
 _COLLECTION_MEMO = ValueMemo(_collection_of, entries=16)
+_UNIFORM_MEMO = ValueMemo(lambda *args: _uniform(*args), entries=16)
 
 
 def layer_collection_fraction(absorption_per_m, *, thickness_m, diffusion_length_m, diffusivity_m2_s,
@@ -446,9 +447,9 @@ def collected_photocurrent(absorption_per_m, *, photon_flux_m2_s, emitter_thickn
     if np.any(scattered != 0):
         width = np.where(we + wd + wb > 0, we + wd + wb, 1.0)
         shares, generated = [part / width for part in (we, wd, wb)], q * scattered
-        emitter = emitter + generated * shares[0] * _uniform(we, le, sf, de)
+        emitter = emitter + generated * shares[0] * _UNIFORM_MEMO(we, le, sf, de)
         depletion = depletion + generated * shares[1]
-        base = base + generated * shares[2] * _uniform(wb, lb, sb, db)
+        base = base + generated * shares[2] * _UNIFORM_MEMO(wb, lb, sb, db)
         emitter_absorbed, base_absorbed = (emitter_absorbed + generated * shares[0],
                                            base_absorbed + generated * shares[2])
         absorbed = absorbed + generated
