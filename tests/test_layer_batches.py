@@ -293,7 +293,7 @@ def test_remembered_builds_once_per_key_and_again_for_another():
     assert list(small[("remembered", "k")]) == [2, 3, 4]
 
 
-def test_stacked_optics_rows_equal_each_design_lit_alone():
+def test_stacked_optics_rows_equal_each_design_lit_alone(monkeypatch):
     """optics.layers.light_designs lights the designs of one optical group at once ((B, M)
     arrays); each design's photocurrents equal, bit for bit, illuminate on it alone, which takes
     the same stacked pass with B = 1. Thicknesses of both varied layers and the grid shading (a
@@ -308,6 +308,10 @@ def test_stacked_optics_rows_equal_each_design_lit_alone():
     compiled = [compile_stack(d) for d in designs]
     assert len({optical_group(c.model) for c in compiled}) == 1
     together = light_designs([c.model for c in compiled], light.wavelength_nm, light.photon_flux)
+    from siltandem.optics import layers
+
+    monkeypatch.setattr(layers, "LIGHT_BATCH", 2)            # batches of 2 and 1: the same rows
+    assert light_designs([c.model for c in compiled], light.wavelength_nm, light.photon_flux) == together
     for circuit, currents in zip(compiled, together):
         alone = illuminate(circuit, light)
         assert currents == [float(alone.element(c.name).photocurrent_A_m2.reshape(-1)[0])

@@ -233,9 +233,11 @@ def _collected_hetero(cell, band_to_band, free, budget, uniform):
 _SUBCELL_ARRAYS = ("emitter_thickness_m", "base_thickness_m", "depletion_width_m", "emitter_length_m",
                    "emitter_diffusivity_m2_s", "base_length_m", "base_diffusivity_m2_s", "front_srv_m_s",
                    "back_srv_m_s", "emitter_depletion_width_m")
-#: designs lit at once by :func:`light_designs`: arrays (layers, designs, wavelengths) of 13 x 64
-#: x 2002 doubles are 13 MB each
-LIGHT_BATCH = 64
+#: designs lit at once by :func:`light_designs`: arrays (layers, designs, wavelengths) of 13 x 16
+#: x 2002 doubles (3 MB) stay near the caches; measured on the triple map (16 x 16 designs, CPU per
+#: design, loaded machine): 4: 6.5-6.9 ms, 8: 5.8-6.4, 16: 4.4-6.1, 32: 4.8-6.2, 64: 6.5-7.6,
+#: 256: 14-24 ms
+LIGHT_BATCH = 16
 
 
 def optical_group(model):
