@@ -334,8 +334,9 @@ def lit_designs(compiled, light, reuse):
     optical group (optics.layers.optical_group: they differ in thick layers' thicknesses and
     shading only) lit at once (light_designs, batches of LIGHT_BATCH), each bit for bit as
     illuminate on it alone. The solve needs the elements only: the photon budget and the layer
-    model are let go, so a chunk of thousands of designs stays small in memory. A group whose stacked pass fails is lit design
-    by design, so the error names the design's own layers as `siltandem run` would."""
+    model are let go, so a chunk of thousands of designs stays small in memory. A group whose
+    stacked pass fails is lit design by design, so the error names the design's own layers as
+    `siltandem run` would."""
     from siltandem.optics.layers import light_designs, optical_group
 
     groups = {}
