@@ -231,8 +231,11 @@ def _collection_of(alpha, thickness, length, srv, diffusivity, lit_at_junction):
 
 
 #: a layer study calls the law design after design with one region's inputs unchanged (the
-#: unvaried subcells, the emitters): its collected fraction is remembered, keyed by the inputs' bytes
-_COLLECTION_MEMO = ValueMemo(_collection_of, entries=16)
+#: unvaried subcells, the emitters): its collected fraction is remembered, keyed by the inputs' bytes.
+#: 128 entries hold a varied base's 100 values of a 100 x 100 map (the coupling's lower subcell:
+#: a 4 x 40 triple map's compile 6.3-7.1 -> 5.2-6.2 ms/design CPU against 16 entries); an entry of
+#: the coupling's (500, 16) grid is 64 kB, of a stacked optics pass (16, 2002) 256 kB
+_COLLECTION_MEMO = ValueMemo(_collection_of, entries=128)
 _UNIFORM_MEMO = ValueMemo(lambda *args: _uniform(*args), entries=16)
 
 
