@@ -135,3 +135,26 @@ def test_bracketed_root_against_brentq():
                                                   xtol=1e-15), abs=1e-12)
     # no sign change -> NaN, never a made-up number
     assert np.isnan(bracketed_root(lambda x: x * x + 1.0, np.array([-1.0]), np.array([1.0]))[0])
+
+
+def test_bracketed_root_idle_entries_at_nan_give_the_same_roots():
+    # idle=np.nan (the series solve's setting): the entries that have stopped are evaluated at
+    # NaN, and the roots are bit for bit those of idle=None; reference: scipy.optimize.brentq
+    shifts = np.array([0.1, 0.5, 1.7, 3.0, 40.0])
+    seen = []
+
+    def f(x):
+        seen.append(np.isnan(x).sum())
+        with np.errstate(over="ignore"):
+            return np.exp(x) - 1.0 - shifts * x - shifts
+
+    plain = bracketed_root(f, np.zeros(5), np.full(5, 5.0))
+    assert max(seen) == 0
+    seen.clear()
+    idle = bracketed_root(f, np.zeros(5), np.full(5, 5.0), idle=np.nan)
+    assert max(seen) > 0, "no entry stopped before the others: the check proves nothing"
+    assert np.array_equal(plain, idle, equal_nan=True)
+    assert np.isnan(idle[-1])                       # no sign change on [0, 5] for shift 40
+    for s, r in zip(shifts[:-1], idle[:-1]):
+        assert r == pytest.approx(optimize.brentq(lambda x: np.exp(x) - 1 - s * x - s, 0, 5,
+                                                  xtol=1e-15), abs=1e-12)

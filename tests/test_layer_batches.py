@@ -229,3 +229,17 @@ def test_joined_isotype_interfaces_keep_the_compiled_law():
             np.testing.assert_allclose(voltage, -s * reference, rtol=1e-9, atol=1e-12)
         charged = replace(joined, sheet_charge=np.array([[0.0], [0.1], [0.0]]))
         assert charged.compiled_rows(temperature) is None, name
+
+
+def test_coupled_layer_designs_do_not_depend_on_their_batch():
+    """Luminescent coupling varied: the coupled pilot's Newton steps (circuit/coupling.py) take a
+    different count per design, and the solve's roots evaluate stopped designs at NaN
+    (numerics/roots.py ``idle``); each design keeps, bit for bit, its numbers alone. Reference:
+    the same designs solved one by one (no physics value is checked)."""
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    columns = {"top base.luminescent_coupling": np.array([0.0, 0.05, 0.3, 0.9]),
+               "middle base.thickness_nm": np.array([1500.0, 2500.0, 1200.0, 3500.0])}
+    assert max(structures(stack, columns)) > 1
+    batched = solve_designs(stack, columns)
+    assert_same_bits(batched, one_by_one(stack, columns))
+    assert len(set(np.round(batched["efficiency_pct"], 9))) == 4
