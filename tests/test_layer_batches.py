@@ -152,6 +152,38 @@ def test_entry_memo_gives_a_fresh_evaluation_bit_for_bit():
     assert seen[-1] == 100
 
 
+def test_recall_gives_a_fresh_evaluation_bit_for_bit():
+    """numerics/memo.py recall: a repeated input is answered from the store, equal (==) to
+    scipy.special.expn evaluated afresh; a changed input is evaluated; changing a returned array
+    does not change what the store answers next; inputs past RECALL_ENTRIES are not kept."""
+    from scipy.special import expn
+
+    from siltandem.numerics import memo
+
+    seen = []
+
+    def counted(x):
+        seen.append(np.size(x))
+        return 2.0 * expn(3, x), expn(2, x)
+
+    store = {}
+    x = np.random.default_rng(7).uniform(0.0, 30.0, (3, 20))
+    first = memo.recall(store, x, counted)
+    first[0][:] = -1.0                              # the caller's copy, not the store's
+    again = memo.recall(store, x.copy(), counted)
+    assert seen == [60]
+    np.testing.assert_array_equal(again[0], 2.0 * expn(3, x))
+    np.testing.assert_array_equal(again[1], expn(2, x))
+    y = x.copy()
+    y[2, 5] += 1e-12
+    np.testing.assert_array_equal(memo.recall(store, y, counted)[0], 2.0 * expn(3, y))
+    assert seen == [60, 60]
+    big = np.ones(memo.RECALL_ENTRIES + 1)
+    memo.recall(store, big, counted)
+    memo.recall(store, big, counted)
+    assert seen[-2:] == [big.size, big.size] and len(store) == 2
+
+
 def test_remembered_transmittance_equals_the_law():
     """The Lambertian channel's remembered T (laws/thinfilm.py) against T = 2 E3 itself
     (scipy.special.expn; M. A. Green, Prog. Photovolt. 10 (2002) 235, from memory), bit for bit,

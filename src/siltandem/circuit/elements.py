@@ -30,6 +30,7 @@ from siltandem.constants import thermal_voltage_V
 from siltandem.numerics.tables import LawTable
 from siltandem.laws import compiled as kernels
 from siltandem.laws import compiled_isotype
+from siltandem.numerics.memo import recall
 from siltandem.numerics.roots import safeguarded_newton
 from siltandem.circuit.defaults import COMPILED_ISOTYPE_FIELDS, only_fields_set
 
@@ -45,12 +46,6 @@ TABLE_MAX_ENTRIES = 4_000_000
 #: the most designs one batch solves through junction tables (5,952); studies cut their batches
 #: to at most this many, so that a design's result does not depend on its batch
 TABLE_ROWS = TABLE_MAX_ENTRIES // (TABLE_FORWARD_POINTS + TABLE_REVERSE_POINTS)
-#: a subcell remembers its last INVERSE_MEMO_SIZE junction-voltage inversions of up to
-#: INVERSE_MEMO_ENTRIES currents each: the solve asks for the same currents again (a coupled
-#: subcell's source at the pilot's Newton steps and the certificate), and the inversions beyond
-#: the table go through the numpy root find of laws/diode.py, ~1 ms a call whatever the batch
-INVERSE_MEMO_SIZE = 8
-INVERSE_MEMO_ENTRIES = 100_000
 
 
 def _temperature_key(temperature_K):
@@ -235,20 +230,9 @@ class Subcell:
     def _junction_voltage_fast(self, current_A_m2, temperature_K):
         """Vj carrying the current and dJ/dVj there, through the table and the compiled
         per-entry Newton search inside its cell (kernels.py); currents beyond the table's
-        range by the general root find of laws/diode.py."""
-        current = np.asarray(current_A_m2, dtype=float)
-        if current.size > INVERSE_MEMO_ENTRIES:
-            return self._junction_voltage_table(current, temperature_K)
-        memo = self._cache.setdefault(("inverse memo", _temperature_key(temperature_K)), {})
-        key = (current.shape, current.tobytes())
-        found = memo.get(key)
-        if found is not None:
-            return found[0].copy(), found[1].copy()
-        vj, slope = self._junction_voltage_table(current, temperature_K)
-        if len(memo) >= INVERSE_MEMO_SIZE:
-            memo.pop(next(iter(memo), None), None)
-        memo[key] = (vj.copy(), slope.copy())
-        return vj, slope
+        range by the general root find of laws/diode.py; recent calls remembered (numerics.memo)."""
+        store = self._cache.setdefault(("inverse memo", _temperature_key(temperature_K)), {})
+        return recall(store, current_A_m2, lambda j: self._junction_voltage_table(j, temperature_K))
 
     def _junction_voltage_table(self, current, temperature_K):
         """:meth:`_junction_voltage_fast` evaluated afresh."""
