@@ -242,13 +242,19 @@ class Subcell:
         if not inside.all():
             target = np.broadcast_to(current, vj.shape)
             out = ~inside
+            junction = self._junction(temperature_K)
+            # -inf (slope 1/-inf) beyond what the junction carries, as the search would say
+            beyond = out & diode.beyond_reach(target, **junction)
+            vj[beyond], slope[beyond] = -np.inf, -0.0
+            out &= ~beyond
             junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else
                             None if v is None else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
-                        for k, v in self._junction(temperature_K).items()}
-            v_out, s_out = diode.junction_voltage(target[out], **junction)
-            vj[out] = v_out
-            with np.errstate(divide="ignore"):
-                slope[out] = 1.0 / s_out
+                        for k, v in junction.items()}
+            if out.any():
+                v_out, s_out = diode.junction_voltage(target[out], **junction)
+                vj[out] = v_out
+                with np.errstate(divide="ignore"):
+                    slope[out] = 1.0 / s_out
         return vj, slope
 
     def voltage(self, current_A_m2, temperature_K):
