@@ -158,3 +158,20 @@ def test_bracketed_root_idle_entries_at_nan_give_the_same_roots():
     for s, r in zip(shifts[:-1], idle[:-1]):
         assert r == pytest.approx(optimize.brentq(lambda x: np.exp(x) - 1 - s * x - s, 0, 5,
                                                   xtol=1e-15), abs=1e-12)
+
+
+def test_beyond_reach_marks_exactly_the_currents_the_junction_cannot_carry():
+    # without a shunt the two-diode junction carries at most Jph + J01 + J02 (the diode equation
+    # at Vj -> -inf: S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., 2007, ch. 13);
+    # beyond_reach must say so without searching, where junction_voltage gives -inf, and nowhere else
+    jph, j01, j02 = 150.0, 1e-12, 1e-7
+    limit = jph + j01 + j02
+    current = np.array([-1e4, 0.0, 149.0, limit * (1 - 1e-9), limit * (1 + 1e-9), 1e3, np.nan])
+    params = dict(photocurrent_A_m2=jph, j01_A_m2=j01, j02_A_m2=j02, shunt_S_m2=0.0,
+                  breakdown_V=-np.inf, breakdown_factor=0.0)
+    marked = diode.beyond_reach(current, **params)
+    assert marked.tolist() == [False, False, False, False, True, True, True]
+    v, _ = diode.junction_voltage(current, temperature_K=T, **params)
+    assert np.all(np.isneginf(v[marked])) and np.all(np.isfinite(v[~marked]))
+    # a shunt carries any current: nothing is beyond reach
+    assert not diode.beyond_reach(current, **{**params, "shunt_S_m2": 1.0}).any()
