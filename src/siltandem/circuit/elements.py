@@ -247,10 +247,10 @@ class Subcell:
             beyond = out & diode.beyond_reach(target, **junction)
             vj[beyond], slope[beyond] = -np.inf, -0.0
             out &= ~beyond
-            junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else
-                            None if v is None else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
-                        for k, v in junction.items()}
             if out.any():
+                junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else None if v is None
+                                else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
+                            for k, v in junction.items()}
                 v_out, s_out = diode.junction_voltage(target[out], **junction)
                 vj[out] = v_out
                 with np.errstate(divide="ignore"):
