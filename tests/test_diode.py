@@ -173,5 +173,8 @@ def test_beyond_reach_marks_exactly_the_currents_the_junction_cannot_carry():
     assert marked.tolist() == [False, False, False, False, True, True, True]
     v, _ = diode.junction_voltage(current, temperature_K=T, **params)
     assert np.all(np.isneginf(v[marked])) and np.all(np.isfinite(v[~marked]))
-    # a shunt carries any current: nothing is beyond reach
-    assert not diode.beyond_reach(current, **{**params, "shunt_S_m2": 1.0}).any()
+    # a shunt carries any current: nothing is beyond reach but NaN, which the search too
+    # answers with -inf
+    shunted = {**params, "shunt_S_m2": 1.0}
+    assert diode.beyond_reach(current, **shunted).tolist() == [False] * 6 + [True]
+    assert np.isneginf(diode.junction_voltage(current[-1:], temperature_K=T, **shunted)[0][0])
