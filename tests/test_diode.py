@@ -135,3 +135,46 @@ def test_bracketed_root_against_brentq():
                                                   xtol=1e-15), abs=1e-12)
     # no sign change -> NaN, never a made-up number
     assert np.isnan(bracketed_root(lambda x: x * x + 1.0, np.array([-1.0]), np.array([1.0]))[0])
+
+
+def test_bracketed_root_idle_entries_at_nan_give_the_same_roots():
+    # idle=np.nan (the series solve's setting): the entries that have stopped are evaluated at
+    # NaN, and the roots are bit for bit those of idle=None; reference: scipy.optimize.brentq
+    shifts = np.array([0.1, 0.5, 1.7, 3.0, 40.0])
+    seen = []
+
+    def f(x):
+        seen.append(np.isnan(x).sum())
+        with np.errstate(over="ignore"):
+            return np.exp(x) - 1.0 - shifts * x - shifts
+
+    plain = bracketed_root(f, np.zeros(5), np.full(5, 5.0))
+    assert max(seen) == 0
+    seen.clear()
+    idle = bracketed_root(f, np.zeros(5), np.full(5, 5.0), idle=np.nan)
+    assert max(seen) > 0, "no entry stopped before the others: the check proves nothing"
+    assert np.array_equal(plain, idle, equal_nan=True)
+    assert np.isnan(idle[-1])                       # no sign change on [0, 5] for shift 40
+    for s, r in zip(shifts[:-1], idle[:-1]):
+        assert r == pytest.approx(optimize.brentq(lambda x: np.exp(x) - 1 - s * x - s, 0, 5,
+                                                  xtol=1e-15), abs=1e-12)
+
+
+def test_beyond_reach_marks_exactly_the_currents_the_junction_cannot_carry():
+    # without a shunt the two-diode junction carries at most Jph + J01 + J02 (the diode equation
+    # at Vj -> -inf: S. M. Sze, K. K. Ng, Physics of Semiconductor Devices, 3rd ed., 2007, ch. 13);
+    # beyond_reach must say so without searching, where junction_voltage gives -inf, and nowhere else
+    jph, j01, j02 = 150.0, 1e-12, 1e-7
+    limit = jph + j01 + j02
+    current = np.array([-1e4, 0.0, 149.0, limit * (1 - 1e-9), limit * (1 + 1e-9), 1e3, np.nan])
+    params = dict(photocurrent_A_m2=jph, j01_A_m2=j01, j02_A_m2=j02, shunt_S_m2=0.0,
+                  breakdown_V=-np.inf, breakdown_factor=0.0)
+    marked = diode.beyond_reach(current, **params)
+    assert marked.tolist() == [False, False, False, False, True, True, True]
+    v, _ = diode.junction_voltage(current, temperature_K=T, **params)
+    assert np.all(np.isneginf(v[marked])) and np.all(np.isfinite(v[~marked]))
+    # a shunt carries any current: nothing is beyond reach but NaN, which the search too
+    # answers with -inf
+    shunted = {**params, "shunt_S_m2": 1.0}
+    assert diode.beyond_reach(current, **shunted).tolist() == [False] * 6 + [True]
+    assert np.isneginf(diode.junction_voltage(current[-1:], temperature_K=T, **shunted)[0][0])

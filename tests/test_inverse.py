@@ -223,3 +223,25 @@ def test_tunnel_peak_without_the_valley_search_equals_the_attained_peak():
         attained = tj.extrema(T)
         assert peak_v[0, 0] == pytest.approx(attained.peak_V[0, 0], abs=2e-13)
         assert peak_j[0, 0] == pytest.approx(attained.peak_A_m2[0, 0], rel=1e-13)
+
+
+def test_safeguarded_newton_idle_entries_at_nan_give_the_same_roots():
+    # idle=np.nan (the series solve's setting): stopped entries are evaluated at NaN, the roots
+    # stay bit for bit those of idle=None; reference: scipy.optimize.brentq
+    scales = np.array([1.0, 3.0, 30.0, 300.0])
+    seen = []
+
+    def function(x):
+        seen.append(np.isnan(x).sum())
+        with np.errstate(over="ignore", invalid="ignore"):
+            return np.expm1(scales * x) - 2.0, scales * np.exp(scales * x)
+
+    plain = safeguarded_newton(function, np.zeros(4), np.full(4, 2.0))
+    assert max(seen) == 0
+    seen.clear()
+    idle = safeguarded_newton(function, np.zeros(4), np.full(4, 2.0), idle=np.nan)
+    assert max(seen) > 0, "no entry stopped before the others: the check proves nothing"
+    assert np.array_equal(plain, idle)
+    for s, r in zip(scales, idle):
+        assert r == pytest.approx(brentq(lambda x: np.expm1(s * x) - 2.0, 0.0, 2.0, xtol=1e-16),
+                                  rel=1e-13)

@@ -152,6 +152,38 @@ def test_entry_memo_gives_a_fresh_evaluation_bit_for_bit():
     assert seen[-1] == 100
 
 
+def test_recall_gives_a_fresh_evaluation_bit_for_bit():
+    """numerics/memo.py recall: a repeated input is answered from the store, equal (==) to
+    scipy.special.expn evaluated afresh; a changed input is evaluated; changing a returned array
+    does not change what the store answers next; inputs past RECALL_ENTRIES are not kept."""
+    from scipy.special import expn
+
+    from siltandem.numerics import memo
+
+    seen = []
+
+    def counted(x):
+        seen.append(np.size(x))
+        return 2.0 * expn(3, x), expn(2, x)
+
+    store = {}
+    x = np.random.default_rng(7).uniform(0.0, 30.0, (3, 20))
+    first = memo.recall(store, x, counted)
+    first[0][:] = -1.0                              # the caller's copy, not the store's
+    again = memo.recall(store, x.copy(), counted)
+    assert seen == [60]
+    np.testing.assert_array_equal(again[0], 2.0 * expn(3, x))
+    np.testing.assert_array_equal(again[1], expn(2, x))
+    y = x.copy()
+    y[2, 5] += 1e-12
+    np.testing.assert_array_equal(memo.recall(store, y, counted)[0], 2.0 * expn(3, y))
+    assert seen == [60, 60]
+    big = np.ones(memo.RECALL_ENTRIES + 1)
+    memo.recall(store, big, counted)
+    memo.recall(store, big, counted)
+    assert seen[-2:] == [big.size, big.size] and len(store) == 2
+
+
 def test_remembered_transmittance_equals_the_law():
     """The Lambertian channel's remembered T (laws/thinfilm.py) against T = 2 E3 itself
     (scipy.special.expn; M. A. Green, Prog. Photovolt. 10 (2002) 235, from memory), bit for bit,
@@ -393,3 +425,42 @@ def test_collected_photocurrent_with_its_memo_equals_the_law_afresh():
                                               **geometry)
     for a, b in zip(kept, fresh):
         np.testing.assert_array_equal(a, b)
+def test_coupled_layer_designs_do_not_depend_on_their_batch():
+    """Luminescent coupling varied: the coupled pilot's Newton steps (circuit/coupling.py) take a
+    different count per design, and the solve's roots evaluate stopped designs at NaN
+    (numerics/roots.py ``idle``); each design keeps, bit for bit, its numbers alone. Reference:
+    the same designs solved one by one (no physics value is checked)."""
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    columns = {"top base.luminescent_coupling": np.array([0.0, 0.05, 0.3, 0.9]),
+               "middle base.thickness_nm": np.array([1500.0, 2500.0, 1200.0, 3500.0])}
+    assert max(structures(stack, columns)) > 1
+    batched = solve_designs(stack, columns)
+    assert_same_bits(batched, one_by_one(stack, columns))
+    assert len(set(np.round(batched["efficiency_pct"], 9))) == 4
+
+
+def test_mixed_pilots_drive_each_subcell_only_on_its_rows(monkeypatch):
+    """A batch whose designs are led by different subcells (solve/string.py: the pilot is the
+    subcell of least photocurrent, per design): each subcell's forward law is driven only on the
+    rows it leads (NaN elsewhere; those values were never selected), and every design keeps its
+    numbers alone bit for bit. Reference: the same designs solved one by one."""
+    from siltandem.circuit.coupling import CoupledSubcell
+    from siltandem.circuit.elements import Subcell
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    columns = {"top base.thickness_nm": np.array([300.0, 300.0, 1500.0, 1500.0]),
+               "middle base.thickness_nm": np.array([1000.0, 4000.0, 1000.0, 4000.0])}
+    driven = []
+    for cls in (Subcell, CoupledSubcell):
+        original = cls.pilot_current
+
+        def recorded(self, t, temperature_K, _original=original):
+            driven.append(np.isfinite(np.asarray(t)).any(axis=-1).reshape(-1))
+            return _original(self, t, temperature_K)
+        monkeypatch.setattr(cls, "pilot_current", recorded)
+    batched = solve_designs(stack, columns)
+    assert len(set(batched["limiting_subcell"])) > 1, "one pilot for all: the test proves nothing"
+    # in the batch of four, no row is driven through two subcells at once
+    per_call = [d for d in driven if d.size == 4]
+    assert per_call and max(int(d.sum()) for d in per_call) < 4
+    assert_same_bits(batched, one_by_one(stack, columns))

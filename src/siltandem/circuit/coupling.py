@@ -120,8 +120,13 @@ class CoupledSubcell(Subcell):
             current = np.where(shift > 0, base + shift / (1.0 - dshift), base)
         # the scale of the currents involved (near open circuit J itself is near zero)
         scale = np.abs(self.photocurrent_A_m2) + shift
+        # an entry keeps the step at which it stopped, however long the others go on: a design's
+        # current does not depend on its batch (numerics.safeguarded_newton freezes its entries
+        # the same way)
+        stopped = np.zeros(np.shape(current), dtype=bool)
         for _ in range(PILOT_ITERATIONS):
-            shift, dshift = self.coupled_current(current, temperature_K)
+            # (the stopped entries at NaN: their values are not used, and NaN costs nothing)
+            shift, dshift = self.coupled_current(np.where(stopped, np.nan, current), temperature_K)
             g = current - base - shift
             low = np.where(g < 0, current, low)
             high = np.where(g > 0, current, high)
@@ -131,8 +136,9 @@ class CoupledSubcell(Subcell):
             new = np.where(inside, step, 0.5 * (low + high))
             done = (new == current) | ~np.isfinite(new) | (
                 np.abs(new - current) <= PILOT_RTOL * (np.abs(current) + scale))
-            current = new
-            if np.all(done):
+            current = np.where(stopped, current, new)
+            stopped = stopped | done
+            if np.all(stopped):
                 break
         shift, dshift = self.coupled_current(current, temperature_K)
         with np.errstate(invalid="ignore", divide="ignore"):

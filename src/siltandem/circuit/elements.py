@@ -30,6 +30,7 @@ from siltandem.constants import thermal_voltage_V
 from siltandem.numerics.tables import LawTable
 from siltandem.laws import compiled as kernels
 from siltandem.laws import compiled_isotype
+from siltandem.numerics.memo import recall
 from siltandem.numerics.roots import safeguarded_newton
 from siltandem.circuit.defaults import COMPILED_ISOTYPE_FIELDS, only_fields_set
 
@@ -229,21 +230,31 @@ class Subcell:
     def _junction_voltage_fast(self, current_A_m2, temperature_K):
         """Vj carrying the current and dJ/dVj there, through the table and the compiled
         per-entry Newton search inside its cell (kernels.py); currents beyond the table's
-        range by the general root find of laws/diode.py."""
+        range by the general root find of laws/diode.py; recent calls remembered (numerics.memo)."""
+        store = self._cache.setdefault(("inverse memo", _temperature_key(temperature_K)), {})
+        return recall(store, current_A_m2, lambda j: self._junction_voltage_table(j, temperature_K))
+
+    def _junction_voltage_table(self, current, temperature_K):
+        """:meth:`_junction_voltage_fast` evaluated afresh."""
         table = self._table(temperature_K)
-        current = np.asarray(current_A_m2, dtype=float)
         vj, slope, inside = kernels.invert(kernels.SUBCELL_LAW, self._law_parameters(temperature_K),
                                            table, current, increasing=False)
         if not inside.all():
             target = np.broadcast_to(current, vj.shape)
             out = ~inside
-            junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else
-                            None if v is None else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
-                        for k, v in self._junction(temperature_K).items()}
-            v_out, s_out = diode.junction_voltage(target[out], **junction)
-            vj[out] = v_out
-            with np.errstate(divide="ignore"):
-                slope[out] = 1.0 / s_out
+            junction = self._junction(temperature_K)
+            # -inf (slope 1/-inf) beyond what the junction carries, as the search would say
+            beyond = out & diode.beyond_reach(target, **junction)
+            vj[beyond], slope[beyond] = -np.inf, -0.0
+            out &= ~beyond
+            if out.any():
+                junction = {k: (np.broadcast_to(v, vj.shape)[out] if k != "bulk" else None if v is None
+                                else tuple(np.broadcast_to(c, vj.shape)[out] for c in v))
+                            for k, v in junction.items()}
+                v_out, s_out = diode.junction_voltage(target[out], **junction)
+                vj[out] = v_out
+                with np.errstate(divide="ignore"):
+                    slope[out] = 1.0 / s_out
         return vj, slope
 
     def voltage(self, current_A_m2, temperature_K):

@@ -210,6 +210,29 @@ def junction_voltage(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2=0.0,
     return voltage, slope
 
 
+def beyond_reach(current_A_m2, *, photocurrent_A_m2, j01_A_m2, j02_A_m2, shunt_S_m2,
+                 breakdown_V, breakdown_factor, bulk=None, **_):
+    """True where :func:`junction_voltage` gives -inf by its bracketed search's own test, without
+    searching, on the bracketed path (J02, breakdown or a base law): a NaN current, or, with no
+    shunt and no base law, J at or beyond Jph + J01 + J02 (the same arithmetic as
+    :func:`_bracketed_voltage`, so the answer is the search's bit for bit). False elsewhere
+    (those entries need the search). Arguments as for :func:`junction_voltage`; broadcast together."""
+    current, jph, j01, j02, g, vbr, factor = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (
+        current_A_m2, photocurrent_A_m2, j01_A_m2, j02_A_m2, shunt_S_m2, breakdown_V,
+        breakdown_factor)))
+    hard = ~((j02 == 0) & ((factor == 0) | ~np.isfinite(vbr)))
+    # a NaN current on the bracketed path: the search's lower bound is -inf or NaN and its test
+    # says beyond reach (with or without shunt, breakdown or base law)
+    if bulk is not None:
+        hard = hard | (np.broadcast_to(np.asarray(bulk[0], dtype=float), current.shape) > 0)
+        return hard & np.isnan(current)
+    surplus = jph - current
+    with np.errstate(invalid="ignore"):
+        # no shunt: the search's lower bound is finite only where surplus >= 0
+        return hard & (np.isnan(current) | ((g == 0) & ~(surplus >= 0)
+                                            & ~(surplus + (j01 + j02) > 0)))
+
+
 def _bracketed_voltage(current, jph, j01, j02, g, temperature, vbr, factor, exponent, bulk=None):
     """Vj(J) by a safeguarded Newton root find on the bracket (the law's own derivative)."""
     vt = thermal_voltage_V(temperature)

@@ -15,7 +15,7 @@ import numpy as np
 
 
 def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterations=200,
-                   end_values=None, one_by_one=False):
+                   end_values=None, one_by_one=False, idle=None):
     """Roots of an elementwise function inside brackets, on whole arrays.
 
     Parameters
@@ -65,7 +65,7 @@ def bracketed_root(function, lower, upper, *, xtol=1e-13, rtol=4e-16, max_iterat
         bad = ~np.isfinite(x) | (x <= np.minimum(a, b)) | (x >= np.maximum(a, b))
         x = np.where(bad, middle, x)
         x = np.where(done, np.where(fa == 0, a, b), x)
-        fx = np.asarray(function(x), dtype=float)
+        fx = np.asarray(function(x if idle is None else np.where(done, idle, x)), dtype=float)
         fx = np.where(np.isfinite(fx), fx, np.sign(fx) * np.finfo(float).max)
         same_as_b = np.sign(fx) == np.sign(fb)
         active = ~done
@@ -120,7 +120,7 @@ def _one_root(function, a, b, xtol, rtol, max_iterations, end_values):
 
 
 def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4e-16,
-                       ftol=0.0, max_iterations=100, end_values=None):
+                       ftol=0.0, max_iterations=100, end_values=None, idle=None):
     """Roots of an elementwise function with known derivative, inside brackets, on whole arrays.
 
     ``function(x) -> (f, df/dx)``. ``start`` (optional) is a first guess inside the bracket (a
@@ -130,7 +130,8 @@ def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4
     step leaves the
     current bracket; the bracket shrinks around the sign change at every iteration, so the method
     cannot diverge (as in W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4, 'rtsafe').
-    NaN where the bracket held no sign change.
+    NaN where the bracket held no sign change. ``idle``: as for :func:`bracketed_root`, where
+    the entries that have stopped are evaluated (None: at their last point).
     """
     a, b = np.broadcast_arrays(np.array(lower, dtype=float), np.array(upper, dtype=float))
     a, b = a.copy(), b.copy()
@@ -154,7 +155,7 @@ def safeguarded_newton(function, lower, upper, *, start=None, xtol=1e-13, rtol=4
     done = ~valid
     previous_step = np.abs(b - a)
     for _ in range(max_iterations):
-        f, df = function(x)
+        f, df = function(x if idle is None else np.where(done, idle, x))
         f = np.asarray(f, dtype=float)
         # an overflowed value still has a sign (+-inf): it moves the bracket like any other;
         # only NaN says nothing

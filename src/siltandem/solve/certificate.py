@@ -371,7 +371,8 @@ def polisher(string, segments):
                 g = e["dcurrent"] * e["voltage"] + e["current"] * e["dvoltage"]
             return np.where(np.isfinite(g), g, 1e300)
 
-        return bracketed_root(power_slope, lower, upper, end_values=(g_lower, g_upper))
+        return bracketed_root(power_slope, lower, upper, end_values=(g_lower, g_upper),
+                              idle=np.nan)
     return polish
 
 

@@ -120,7 +120,7 @@ def _short_circuit_root(string, t_low, t_voc, voc, v_low):
 
     return safeguarded_newton(voltage, np.broadcast_to(t_low, voc.shape),
                               np.broadcast_to(t_voc, voc.shape), start=t_voc - voc,
-                              end_values=(v_low, finite_or(voc, -1e3)))
+                              end_values=(v_low, finite_or(voc, -1e3)), idle=np.nan)
 
 
 def _mpp_in_grid(string, grid_t, grid):
@@ -147,7 +147,8 @@ def _mpp_in_grid(string, grid_t, grid):
 
     t_mpp = bracketed_root(power_slope, lo, hi,
                            end_values=(np.take_along_axis(grid_slope, low_index, axis=1),
-                                       np.take_along_axis(grid_slope, high_index, axis=1)))
+                                       np.take_along_axis(grid_slope, high_index, axis=1)),
+                           idle=np.nan)
     interior = np.isfinite(t_mpp)
     t_mpp = np.where(interior, t_mpp, np.take_along_axis(grid_t, best, axis=1))
     at_mpp = string.evaluate(t_mpp, slopes=True)

@@ -242,11 +242,18 @@ class SeriesString:
         index = index[None]
         return np.take_along_axis(stacked, index, axis=0)[0]
 
+    def _forward(self, t):
+        """Every subcell's pilot_current at ``t``, each on the rows it leads (the others at NaN:
+        their values are never selected, and a subcell driven at another's junction voltage
+        would ask its neighbours for currents far beyond their tables)."""
+        return [s.pilot_current(np.where(self.pilot_index == k, t, np.nan), self.temperature_K)
+                for k, s in enumerate(self.subcells)]
+
     def pilot_current_at(self, t):
         """The string's current at pilot junction voltage ``t`` (the pilot's forward law)."""
         if self.single_pilot is not None:
             return self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)[0]
-        return self._select([s.pilot_current(t, self.temperature_K)[0] for s in self.subcells])
+        return self._select([f[0] for f in self._forward(t)])
 
     def open_circuit_pilot_voltage(self, t=None):
         """Pilot junction voltage carrying no current, with one more Newton step on the pilot's
@@ -258,7 +265,7 @@ class SeriesString:
         if self.single_pilot is not None:
             j, slope, _, _ = self.subcells[self.single_pilot].pilot_current(t, self.temperature_K)
         else:
-            forward = [s.pilot_current(t, self.temperature_K) for s in self.subcells]
+            forward = self._forward(t)
             j, slope = self._select([f[0] for f in forward]), self._select([f[1] for f in forward])
         with np.errstate(divide="ignore", invalid="ignore"):
             better = t - j / slope
@@ -306,7 +313,7 @@ class SeriesString:
             current, dcurrent, pilot_v, pilot_dv = self.subcells[self.single_pilot].pilot_current(
                 t, self.temperature_K)
         else:
-            forward = [s.pilot_current(t, self.temperature_K) for s in self.subcells]
+            forward = self._forward(t)
             current = self._select([f[0] for f in forward])
             dcurrent = self._select([f[1] for f in forward])
             pilot_v = self._select([f[2] for f in forward])
