@@ -119,27 +119,30 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
                     progress=False):
     """Annual energy [kWh/m2] for every value of the sweep (one yield year per value).
 
-    ``weather`` is a path (``"demo"``: pvlib's TMY3 file) or a loaded Weather. Element stacks
-    only (the yield year of a layer stack is not yet supported).
+    ``weather`` is a path (``"demo"``: pvlib's TMY3 file) or a loaded Weather; the hourly light
+    (sun, plane of array, SPECTRL2, cell temperature) is computed once and shared by every value.
+    A layer stack's value is a layer design (sweep.layer_design): its optics per photon once per
+    temperature bin and its hours solved as one batch (yield_year.annual_yield).
     """
     import sys
 
-    from siltandem.studies.sweep import with_values
-    from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import Weather, read_weather
+    from siltandem.studies.sweep import layer_design, with_values
+    from siltandem.studies.sky import hourly_light
+    from siltandem.studies.yield_year import annual_yield, weather_and_plane
 
-    if stack.layers:
-        from siltandem.errors import StackError
+    from siltandem.stack.options import check_plane
 
-        raise StackError("ranking by energy needs an element stack (the yield year of a layer "
-                         "stack is not yet supported)", file=stack.source,
-                         fix="rank by efficiency, or describe the stack with [[element]] tables")
-    year = weather if isinstance(weather, Weather) else read_weather(weather)
+    check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)          # before any work
+    year, tilt_deg, azimuth_deg = weather_and_plane(weather, tilt_deg, azimuth_deg)
+    light = hourly_light(year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
     energies = []
     values = table[variation.column].to_numpy()
     for k, value in enumerate(values):
-        varied = with_values(stack, {variation.column: np.array([value])})
-        result = annual_yield(varied, year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
+        if stack.layers:
+            varied = layer_design(stack, {variation.column: value})
+        else:
+            varied = with_values(stack, {variation.column: np.array([value])})
+        result = annual_yield(varied, year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, light=light)
         energies.append(result.summary["annual_energy_kWh_m2"])
         if progress:
             print(f"\r  energy year {k + 1} / {len(values)}", end="", file=sys.stderr)
