@@ -1,7 +1,9 @@
 """Current matching: every subcell's photocurrent and the efficiency against one varied key.
 
 The matched value is where two subcells' photocurrents cross, found by root finding
-(scipy.optimize.brentq) on the optics alone, then solved for its efficiency. In a series string
+(scipy.optimize.brentq) on the optics alone, then solved for its efficiency. A layer's thickness
+is searched on batched optics (:class:`ThicknessOptics`: the stack compiled once, many thicknesses
+through the layer optics in one pass); other keys compile and illuminate a design per step. In a series string
 the subcell with the lowest photocurrent limits the current (the current-matching condition of
 multi-junction cells: Green, *Solar Cells*, 1982, ch. 10; Yamaguchi et al., Solar Energy 79,
 78 (2005)), so in a stack of three or more subcells a crossing of two subcells matters only where
@@ -51,15 +53,18 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
     x = table[variation.column].to_numpy()
     matches = []
     reuse = {}          # a layer stack's parts that the key leaves alone, built once
-    optics = thickness_optics(stack, variation.column, **options)
+    optics = {}         # a thickness's batched optics, built at the first crossing
     for a, b in itertools.combinations(names, 2):
         difference = (table[f"{a}.photocurrent_mA_cm2"] - table[f"{b}.photocurrent_mA_cm2"])
         d = difference.to_numpy()
         for k in np.flatnonzero(np.sign(d[:-1]) * np.sign(d[1:]) < 0):
             ends = [{n: float(table[f"{n}.photocurrent_mA_cm2"].iloc[j]) for n in names} for j in (k, k + 1)]
-            if optics is not None and optics.agrees(x[k:k + 2], ends):
-                value = optics.crossing(a, b, x[k], x[k + 1])
-                currents = {n: float(c[0]) for n, c in optics([value]).items()}
+            if "batched" not in optics:
+                optics["batched"] = thickness_optics(stack, variation.column, **options)
+            batched = optics["batched"]
+            if batched is not None and batched.agrees(x[k:k + 2], ends):
+                value = batched.crossing(a, b, x[k], x[k + 1])
+                currents = {n: float(c[0]) for n, c in batched([value]).items()}
             else:
                 def gap(value, a=a, b=b):
                     currents = photocurrents_at(stack, variation.column, value, **options,
