@@ -34,8 +34,10 @@ with the cell temperature as the library material's gap does (Varshni), by
 Eg(T) = gap_eV + Eg_material(T) - Eg_material(T_file), T_file the stack's ``temperature_K``.
 
 A layer stack's layer optics (absorption of every layer) follow each hour's cell temperature too,
-the hours grouped in 1 K bins (``optics.layers.layer_photocurrents_by_temperature``); its spectral
-mismatch factors use the optics at the stack's temperature, so they stay purely spectral.
+the hours grouped in 1 K bins; the optics being linear in the light, each subcell's collection per
+photon is computed once per bin (``optics.layers.layer_collection_by_temperature``) and each hour's
+photocurrent is its spectrum times it, integrated. Its spectral mismatch factors use the optics at
+the stack's temperature, so they stay purely spectral.
 
 The same subcells are also solved all in one series string (two-terminal) and each on its own at
 its own maximum power point (four-terminal, no other element); the annual loss to current
