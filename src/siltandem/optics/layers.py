@@ -412,3 +412,36 @@ def layer_photocurrents_by_temperature(model, wavelength_nm, flux, temperature_K
         for k, current in enumerate(layer_photocurrents(at, wavelength, flux[rows])):
             out[k][rows] = current
     return out
+
+
+def layer_collection(model, wavelength_nm):
+    """Collected photocurrent of every subcell per incident photon, wavelength by wavelength.
+
+    The layer optics and the collection laws are linear in the incident flux (Beer-Lambert, the
+    Lambertian channel and the collection law all scale with it: laws/thinfilm.py,
+    laws/collection.py), so one pass at unit flux gives each subcell's response
+    c(lambda) [A/m^2 per (m^-2 s^-1 nm^-1)], q times its external quantum efficiency, and the
+    photocurrent of any spectrum Phi is the integral of Phi(lambda) c(lambda) d lambda
+    (np.trapezoid on the grid): many spectra at the price of one. Returns a list (subcell order)
+    of (M,) arrays on ``wavelength_nm`` (M,), the layers at the model's temperature.
+    """
+    wavelength = np.asarray(wavelength_nm, dtype=float)
+    light = layer_light(model, wavelength, np.ones(wavelength.shape))
+    return [np.asarray(r.emitter_A_m2 + r.depletion_A_m2 + r.base_A_m2, dtype=float) for r in light.collected]
+
+
+def layer_collection_by_temperature(model, wavelength_nm, temperature_K, *, bin_K=TEMPERATURE_BIN_K):
+    """:func:`layer_collection` of every row at its own temperature: ``temperature_K`` (N,) or (N, 1),
+    grouped in the bins of :func:`layer_photocurrents_by_temperature` (each bin at its mean
+    temperature, the same numbers). Returns a list (subcell order) of (N, M) arrays; a row's
+    photocurrent for its flux Phi (N, M) is ``np.trapezoid(Phi * c, wavelength_nm, axis=-1)``."""
+    wavelength = np.asarray(wavelength_nm, dtype=float)
+    temperature = np.asarray(temperature_K, dtype=float).reshape(-1)
+    bins = np.floor(temperature / bin_K).astype(np.int64)
+    out = [np.zeros((temperature.size, wavelength.size)) for _ in model.subcells]
+    for key in np.unique(bins):
+        rows = np.flatnonzero(bins == key)
+        at = replace(model, temperature_K=float(np.mean(temperature[rows])))
+        for k, response in enumerate(layer_collection(at, wavelength)):
+            out[k][rows] = response
+    return out

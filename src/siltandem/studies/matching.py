@@ -1,18 +1,22 @@
 """Current matching: every subcell's photocurrent and the efficiency against one varied key.
 
 The matched value is where two subcells' photocurrents cross, found by root finding
-(scipy.optimize.brentq) on the optics alone, then solved for its efficiency. In a series string
+(scipy.optimize.brentq) on the optics alone, then solved for its efficiency. A layer's thickness
+is searched on batched optics (:class:`ThicknessOptics`: the stack compiled once, many thicknesses
+through the layer optics in one pass); other keys compile and illuminate a design per step. In a series string
 the subcell with the lowest photocurrent limits the current (the current-matching condition of
 multi-junction cells: Green, *Solar Cells*, 1982, ch. 10; Yamaguchi et al., Solar Energy 79,
 78 (2005)), so in a stack of three or more subcells a crossing of two subcells matters only where
 no third subcell lies below them: every match says whether its pair limits there.
 """
+from dataclasses import replace
 import itertools
 
 import numpy as np
 from scipy import optimize
 
 from siltandem.studies.runner import run_chunks
+from siltandem import units
 from siltandem.result.record import provenance
 from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, photocurrents_at,
                                      resolved_light, solve_designs)
@@ -49,16 +53,25 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
     x = table[variation.column].to_numpy()
     matches = []
     reuse = {}          # a layer stack's parts that the key leaves alone, built once
+    optics = {}         # a thickness's batched optics, built at the first crossing
     for a, b in itertools.combinations(names, 2):
         difference = (table[f"{a}.photocurrent_mA_cm2"] - table[f"{b}.photocurrent_mA_cm2"])
         d = difference.to_numpy()
         for k in np.flatnonzero(np.sign(d[:-1]) * np.sign(d[1:]) < 0):
-            def gap(value, a=a, b=b):
-                currents = photocurrents_at(stack, variation.column, value, **options,
-                                            reuse=reuse)
-                return currents[a] - currents[b]
-            value = optimize.brentq(gap, x[k], x[k + 1], xtol=1e-14, rtol=1e-15)
-            currents = photocurrents_at(stack, variation.column, value, **options, reuse=reuse)
+            ends = [{n: float(table[f"{n}.photocurrent_mA_cm2"].iloc[j]) for n in names} for j in (k, k + 1)]
+            if "batched" not in optics:
+                optics["batched"] = thickness_optics(stack, variation.column, **options)
+            batched = optics["batched"]
+            if batched is not None and batched.agrees(x[k:k + 2], ends):
+                value = batched.crossing(a, b, x[k], x[k + 1])
+                currents = {n: float(c[0]) for n, c in batched([value]).items()}
+            else:
+                def gap(value, a=a, b=b):
+                    currents = photocurrents_at(stack, variation.column, value, **options,
+                                                reuse=reuse)
+                    return currents[a] - currents[b]
+                value = optimize.brentq(gap, x[k], x[k + 1], xtol=1e-14, rtol=1e-15)
+                currents = photocurrents_at(stack, variation.column, value, **options, reuse=reuse)
             solved = solve_designs(stack, {variation.column: np.array([value])}, **options)
             matches.append({"subcells": [a, b], "value": value,
                             "photocurrent_mA_cm2": currents[a],
@@ -73,6 +86,84 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
                             "efficiency_pct": float(solved["efficiency_pct"]),
                             **pair_limits(currents, a, b)})
     return table, matches
+
+
+class ThicknessOptics:
+    """Every subcell's photocurrent [mA/cm2] of a layer stack for many thicknesses of one layer at
+    once: the stack compiled once, the layer's thickness (and its subcell's quasi-neutral
+    thickness, the depletion widths being set by the dopings alone) made a (B, 1) array, and one
+    pass of the layer optics (optics.layers.layer_light) for all B values."""
+
+    def __init__(self, model, layer, light):
+        self.model, self.layer, self.light = model, layer, light
+
+    def __call__(self, values_nm):
+        from siltandem.optics.layers import layer_light
+
+        values = np.asarray(values_nm, dtype=float).reshape(-1, 1)
+        model, j = self.model, self.layer
+        shift_m = (values - model.layers[j].thickness_nm) * 1e-9
+        layers = list(model.layers)
+        layers[j] = replace(layers[j], thickness_nm=values)
+        cells = [replace(c, emitter_thickness_m=c.emitter_thickness_m + shift_m) if c.emitter == j else
+                 replace(c, base_thickness_m=c.base_thickness_m + shift_m) if c.base == j else c
+                 for c in model.subcells]
+        wavelength = self.light.wavelength_nm
+        lit = layer_light(replace(model, layers=tuple(layers), subcells=tuple(cells)), wavelength,
+                          self.light.photon_flux)
+        return {cell.name: units.ma_cm2(np.trapezoid(r.emitter_A_m2 + r.depletion_A_m2 + r.base_A_m2,
+                                                     wavelength, axis=-1))
+                for cell, r in zip(model.subcells, lit.collected)}
+
+    def agrees(self, values_nm, tables):
+        """Whether these optics give the table's photocurrents (each design compiled on its own)
+        at ``values_nm`` to 1e-9 relative: the check that the one-compile shortcut holds there."""
+        found = self(values_nm)
+        return all(abs(found[n][i] - want[n]) <= 1e-9 * abs(want[n])
+                   for i, want in enumerate(tables) for n in want)
+
+    def crossing(self, a, b, low, high):
+        """The thickness where subcells ``a`` and ``b`` have equal photocurrents, between ``low``
+        and ``high`` (a sign change): scipy.optimize.brentq on these optics, one value per step
+        (measured: a pass of B values costs about B/2 single passes, the Lambertian channel's
+        arrays growing with B, so a batched grid to narrow the bracket first took longer than
+        brentq's 8 steps)."""
+        def gap(value):
+            currents = self([value])
+            return float(currents[a][0] - currents[b][0])
+
+        return optimize.brentq(gap, low, high, xtol=1e-14, rtol=1e-15)
+
+
+def thickness_optics(stack, column, *, spectrum=None, suns=None, temperature_K=None):
+    """:class:`ThicknessOptics` for a varied layer thickness (``LAYER.thickness_nm``) of a layer
+    stack whose layer lies below the coherent front and whose subcell has a depletion region; None
+    otherwise (the root search then compiles a design per step: sweep.photocurrents_at)."""
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.optics.layers import front_film_count
+    from siltandem.studies.sweep import study_light
+
+    name, _, key = column.rpartition(".")
+    if not stack.layers or key != "thickness_nm":
+        return None
+    index = [layer.name for layer in stack.layers].index(name) if name in {
+        layer.name for layer in stack.layers} else None
+    if index is None:
+        return None
+    changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
+                                 ("temperature_K", temperature_K)) if v is not None}
+    circuit = compile_stack(replace(stack, conditions=replace(stack.conditions, **changes)))
+    model = circuit.model
+    j = [layer.name for layer in model.layers].index(name) if name in {
+        layer.name for layer in model.layers} else None
+    # above the first emitter a layer may join or leave the coherent front (front_film_count)
+    if j is None or j < max(front_film_count(model), min(c.emitter for c in model.subcells)):
+        return None
+    cell = next((c for c in model.subcells if j in (c.emitter, c.base)), None)
+    if cell is not None and not cell.depletion_width_m > 0:
+        return None
+    light = study_light(stack, spectrum=spectrum, suns=circuit.conditions.suns)
+    return ThicknessOptics(model, j, light)
 
 
 def pair_limits(currents, a, b):
@@ -119,27 +210,30 @@ def energy_by_value(stack, variation, table, *, weather, tilt_deg=None, azimuth_
                     progress=False):
     """Annual energy [kWh/m2] for every value of the sweep (one yield year per value).
 
-    ``weather`` is a path (``"demo"``: pvlib's TMY3 file) or a loaded Weather. Element stacks
-    only (the yield year of a layer stack is not yet supported).
+    ``weather`` is a path (``"demo"``: pvlib's TMY3 file) or a loaded Weather; the hourly light
+    (sun, plane of array, SPECTRL2, cell temperature) is computed once and shared by every value.
+    A layer stack's value is a layer design (sweep.layer_design): its optics per photon once per
+    temperature bin and its hours solved as one batch (yield_year.annual_yield).
     """
     import sys
 
-    from siltandem.studies.sweep import with_values
-    from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import Weather, read_weather
+    from siltandem.studies.sweep import layer_design, with_values
+    from siltandem.studies.sky import hourly_light
+    from siltandem.studies.yield_year import annual_yield, weather_and_plane
 
-    if stack.layers:
-        from siltandem.errors import StackError
+    from siltandem.stack.options import check_plane
 
-        raise StackError("ranking by energy needs an element stack (the yield year of a layer "
-                         "stack is not yet supported)", file=stack.source,
-                         fix="rank by efficiency, or describe the stack with [[element]] tables")
-    year = weather if isinstance(weather, Weather) else read_weather(weather)
+    check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)          # before any work
+    year, tilt_deg, azimuth_deg = weather_and_plane(weather, tilt_deg, azimuth_deg)
+    light = hourly_light(year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
     energies = []
     values = table[variation.column].to_numpy()
     for k, value in enumerate(values):
-        varied = with_values(stack, {variation.column: np.array([value])})
-        result = annual_yield(varied, year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
+        if stack.layers:
+            varied = layer_design(stack, {variation.column: value})
+        else:
+            varied = with_values(stack, {variation.column: np.array([value])})
+        result = annual_yield(varied, year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg, light=light)
         energies.append(result.summary["annual_energy_kWh_m2"])
         if progress:
             print(f"\r  energy year {k + 1} / {len(values)}", end="", file=sys.stderr)

@@ -181,19 +181,23 @@ def energy_of_candidates(stack, table, *, auto=False, weather, tilt_deg=None, az
     """Add each candidate's annual energy (a yield year each) and rank by it (best first)."""
     import sys
 
-    from siltandem.studies.yield_year import annual_yield
-    from siltandem.materials.weather import Weather, read_weather
+    from siltandem.stack.options import check_plane
+    from siltandem.studies.sky import hourly_light
+    from siltandem.studies.yield_year import annual_yield, weather_and_plane
 
+    check_plane(tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)          # before any work
     candidates = auto_candidates(stack) if auto else stack.extra.get("placements", ())
     by_name = {c.name: c for c in candidates}
-    year = weather if isinstance(weather, Weather) else read_weather(weather)
+    # the year's hourly light (sun, plane, spectra, cell temperature) once for every candidate
+    year, tilt_deg, azimuth_deg = weather_and_plane(weather, tilt_deg, azimuth_deg)
+    light = hourly_light(year, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg)
     energies = []
     for k, name in enumerate(table["placement"]):
         if not np.isfinite(table["efficiency_pct"].iloc[k]):
             energies.append(np.nan)
             continue
         result = annual_yield(with_placement(stack, by_name[name]), year, tilt_deg=tilt_deg,
-                              azimuth_deg=azimuth_deg)
+                              azimuth_deg=azimuth_deg, light=light)
         energies.append(result.summary["annual_energy_kWh_m2"])
         if progress:
             print(f"\r  energy year {k + 1} / {len(table)}", end="", file=sys.stderr)

@@ -34,8 +34,10 @@ with the cell temperature as the library material's gap does (Varshni), by
 Eg(T) = gap_eV + Eg_material(T) - Eg_material(T_file), T_file the stack's ``temperature_K``.
 
 A layer stack's layer optics (absorption of every layer) follow each hour's cell temperature too,
-the hours grouped in 1 K bins (``optics.layers.layer_photocurrents_by_temperature``); its spectral
-mismatch factors use the optics at the stack's temperature, so they stay purely spectral.
+the hours grouped in 1 K bins; the optics being linear in the light, each subcell's collection per
+photon is computed once per bin (``optics.layers.layer_collection_by_temperature``) and each hour's
+photocurrent is its spectrum times it, integrated. Its spectral mismatch factors use the optics at
+the stack's temperature, so they stay purely spectral.
 
 The same subcells are also solved all in one series string (two-terminal) and each on its own at
 its own maximum power point (four-terminal, no other element); the annual loss to current
@@ -150,7 +152,7 @@ def _solve_with(elements, temperature_K, curve_points=0):
     return _solve(elements, temperature_K)
 
 
-def _weather_and_plane(weather, tilt_deg, azimuth_deg, tracking="fixed"):
+def weather_and_plane(weather, tilt_deg, azimuth_deg, tracking="fixed"):
     """The weather (read from a path or DataFrame if needed) and the plane's tilt and azimuth
     [deg], with their defaults: tilted at the latitude's magnitude, facing the equator; a
     tracker's axis horizontal, north-south."""
@@ -209,20 +211,29 @@ def _layer_photocurrents(circuit, light, flux, reference, temperature):
     each hour's photon flux ``flux`` at the hour's cell temperature, binned to 1 K) and under the
     reference spectrum (at the stack's temperature), and the dark currents of
     each hour's temperature (``dark_currents_at``): (photocurrents, spectral_only, reference,
-    dark)."""
+    dark).
+
+    The optics are linear in the flux: each subcell's collection per photon is computed once per
+    temperature bin (``optics.layers.layer_collection_by_temperature``) and once at the stack's
+    temperature, and every hour's photocurrent is its flux times that response integrated over the
+    wavelengths (the same numbers as passing every hour's spectrum through the layers, to rounding).
+    """
     from siltandem.circuit.from_layers import dark_currents_at
-    from siltandem.optics.layers import layer_photocurrents, layer_photocurrents_by_temperature
+    from siltandem.optics.layers import layer_collection, layer_collection_by_temperature
+
+    wavelength = np.asarray(light.wavelength_nm, dtype=float)
+
+    def integrated(response, photons):
+        return np.trapezoid(photons * response, wavelength, axis=-1)
 
     # the layers' absorption follows each hour's cell temperature (1 K bins)
-    photocurrents = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
-                     layer_photocurrents_by_temperature(circuit.model, light.wavelength_nm, flux,
-                                                        temperature)]
+    photocurrents = [integrated(c, flux).reshape(-1, 1) for c in
+                     layer_collection_by_temperature(circuit.model, wavelength, temperature)]
     # the purely spectral part (for the mismatch factors): the layers at the stack's temperature
-    spectral_only = [np.asarray(j, dtype=float).reshape(-1, 1) for j in
-                     layer_photocurrents(circuit.model, light.wavelength_nm, flux)]
-    on_grid = np.interp(light.wavelength_nm, reference.wavelength_nm, reference.photon_flux)
-    reference_currents = [np.asarray(j, dtype=float) for j in layer_photocurrents(
-        circuit.model, light.wavelength_nm, on_grid)]
+    at_file = layer_collection(circuit.model, wavelength)
+    spectral_only = [integrated(c, flux).reshape(-1, 1) for c in at_file]
+    on_grid = np.interp(wavelength, reference.wavelength_nm, reference.photon_flux)
+    reference_currents = [np.asarray(integrated(c, on_grid), dtype=float) for c in at_file]
     dark = dark_currents_at(circuit.model, circuit, temperature)
     return photocurrents, spectral_only, reference_currents, dark
 
@@ -398,7 +409,7 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
                  eqe=None, split_losses=False, ozone_atm_cm=OZONE_ATM_CM,
                  aerosol_turbidity_500nm=AEROSOL_TURBIDITY_500NM, tracking="fixed",
                  max_rotation_deg=None, ground_coverage=None, angle_losses="none",
-                 measured_spectra=None):
+                 measured_spectra=None, light=None):
     """Energy of a stack over the weather file's year: one batched solve of all hours.
 
     Parameters
@@ -440,6 +451,10 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
         Measured plane-of-array spectra, one row per hour (time zone aware stamps of the
         weather) and one column per wavelength [nm], W m^-2 nm^-1; used as given instead of
         SPECTRL2's clear-sky shapes (see materials.hourly_spectra).
+    light : HourlyLight, optional
+        The year's hourly light already computed by :func:`hourly_light` for this ``weather`` and
+        these plane and sky options (a study of many designs computes it once and passes it on:
+        matching.energy_by_value); None computes it here.
     gap_materials : dict, optional
         Subcell name -> library material (``"GaAs"``, ``"Ga0.51In0.49P"``, ``"Si"``): that
         subcell's gap follows the cell temperature like the material's (Varshni law), anchored to
@@ -468,13 +483,14 @@ def annual_yield(stack, weather, *, tilt_deg=None, azimuth_deg=None, sky_model="
     check_tracking(tracking, max_rotation_deg, ground_coverage, angle_losses)
     if measured_spectra is not None:
         measured_spectra = checked_spectra(measured_spectra, where="argument measured_spectra")
-    weather, tilt_deg, azimuth_deg = _weather_and_plane(weather, tilt_deg, azimuth_deg, tracking)
-    light = hourly_light(weather, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg,
-                         sky_model=sky_model, mounting=mounting, albedo=albedo, scaling=scaling,
-                         ozone_atm_cm=ozone_atm_cm,
-                         aerosol_turbidity_500nm=aerosol_turbidity_500nm, tracking=tracking,
-                         max_rotation_deg=max_rotation_deg, ground_coverage=ground_coverage,
-                         angle_losses=angle_losses, measured_spectra=measured_spectra)
+    weather, tilt_deg, azimuth_deg = weather_and_plane(weather, tilt_deg, azimuth_deg, tracking)
+    if light is None:
+        light = hourly_light(weather, tilt_deg=tilt_deg, azimuth_deg=azimuth_deg,
+                             sky_model=sky_model, mounting=mounting, albedo=albedo, scaling=scaling,
+                             ozone_atm_cm=ozone_atm_cm,
+                             aerosol_turbidity_500nm=aerosol_turbidity_500nm, tracking=tracking,
+                             max_rotation_deg=max_rotation_deg, ground_coverage=ground_coverage,
+                             angle_losses=angle_losses, measured_spectra=measured_spectra)
     circuit = compile_stack(stack)
     subcells = circuit.subcells
     names = [s.name for s in subcells]
