@@ -175,6 +175,16 @@ def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflecta
     return lifetimes.rear_emission_factor(cell_index=cell_index, back_reflectance=back_reflectance)
 
 
+def _front_emission(cell, materials, gap_eV, temperature_K, ambient_index):
+    """Front emission of a subcell into the stack's ambient over that into air (laws/lifetimes.py):
+    the base's index at the emission peak (Eg + kT) bounds the escape cone."""
+    if ambient_index == 1.0:
+        return 1.0
+    peak_nm = HC_EV_NM / (gap_eV + BOLTZMANN_EV_K * temperature_K)
+    return lifetimes.front_emission_factor(ambient_index=ambient_index,
+                                           cell_index=float(materials[cell.base].refractive_index(peak_nm)))
+
+
 def _radiative_lifetimes(cell, layers, materials, ni, floor):
     """(emitter, base) radiative lifetimes [s] with photon recycling, and the self-consistent
     recycling factor (a layer's photon_recycling_factor replaces it for that layer)."""
@@ -190,7 +200,8 @@ def _radiative_lifetimes(cell, layers, materials, ni, floor):
     return out, recycling
 
 
-def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0):
+def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0,
+             ambient_index=1.0):
     emitter, base = layers[cell.emitter], layers[cell.base]
     material_e, material_b = materials[cell.emitter], materials[cell.base]
     dark_side = hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
@@ -251,11 +262,13 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     # the emitter's intrinsic lifetime, band-gap narrowing and the base law
     silicon_base = is_silicon(base)
     gap = float(material.gap_eV(temperature_K))
-    # the radiative floor: emission through the front and into what lies behind (two-sided)
+    # the radiative floor: emission through the front (into the ambient, n_ambient^2 times that into
+    # air) and into what lies behind (two-sided)
     front = float(radiative_saturation_current(gap, temperature_K=temperature_K))
     rear = 0.0 if silicon_cell else _rear_emission(cell, layers, materials, gap, temperature_K,
                                                     back_reflectance)
-    floor = front * (1.0 + rear)
+    ambient = 1.0 if silicon_cell else _front_emission(cell, materials, gap, temperature_K, ambient_index)
+    floor = front * (ambient + rear)
     (rad_e, rad_b), recycling = ((np.inf, np.inf), 1.0) if silicon_cell else \
         _radiative_lifetimes(cell, layers, materials, ni, floor)
     # a Si side of a heterojunction: its intrinsic (Auger + radiative) recombination is silicon's own
@@ -339,6 +352,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     return element, model, {**extra, "j01_diffusion_A_m2": diffusion_total,
                             "j01_radiative_floor_A_m2": floor,
                             "radiative_rear_factor": rear,
+                            "radiative_front_factor": ambient,
                             "photon_recycling_factor": recycling,
                             "radiative_lifetime_ns": [rad_e * 1e9, rad_b * 1e9],
                             "srh_lifetime_ns": [srh_e * 1e9, srh_b * 1e9],
@@ -532,7 +546,8 @@ def compile_layer_stack(stack, reuse=None):
             try:
                 element, model, extra = _subcell(info["cell"], layers, materials, temperature,
                                                  file, name, stack.conditions.suns,
-                                                 stack.rules.get("back_reflectance", 0.0))
+                                                 stack.rules.get("back_reflectance", 0.0),
+                                                 stack.rules.get("ambient_index", 1.0))
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -560,7 +575,8 @@ def compile_layer_stack(stack, reuse=None):
                        stack.rules.get("front_scattering", "specular"),
                        stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
                        stack.rules.get("shading_fraction", 0.0))
-    elements, couplings = couple_layers(elements, model, file=file)
+    elements, couplings = couple_layers(elements, model, file=file, front_factors={
+        name: extra.get("radiative_front_factor", 1.0) for name, extra in details["subcells"].items()})
     details["couplings"] = couplings
     for found in couplings:      # the floor counts the emission into the layers below too
         details["subcells"][found.upper]["downward_emission_ratio"] = found.emitted_A_m2 / found.reference_A_m2
@@ -616,7 +632,7 @@ def dark_currents_at(model, circuit, temperature_K):
                          + base * ni_ratio(model.materials[cell_model.base])**2)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K) \
-            * (1.0 + details.get("radiative_rear_factor", 0.0))
+            * (details.get("radiative_front_factor", 1.0) + details.get("radiative_rear_factor", 0.0))
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
         j01 = diffusion if details.get("silicon_base_law") else diffusion + floor
         if details.get("ere") is not None:      # the measured ERE held at every temperature
@@ -625,7 +641,7 @@ def dark_currents_at(model, circuit, temperature_K):
             # as at compile time (circuit/layer_coupling.py): at least the emission the coupling
             # to the subcell below counts
             j01 = np.maximum(j01, radiative_saturation_current(gap, temperature_K=temperature_K)
-                             * (1.0 + details["downward_emission_ratio"]))
+                             * (details.get("radiative_front_factor", 1.0) + details["downward_emission_ratio"]))
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
         bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio
