@@ -28,7 +28,8 @@ from siltandem import units
 from siltandem.circuit import hetero
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.layer_coupling import couple_layers
-from siltandem.circuit.recognise import carriers_flow, recognise
+from siltandem.circuit.recognise import carriers_flow
+from siltandem.circuit.strings import device_by_string, recognise_strings, string_shading
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, HC_EV_NM
 from siltandem.errors import StackError
@@ -102,6 +103,10 @@ class LayerModel:
     front_haze: float = 1.0
     #: [device] shading_fraction: the part of the front under the grid (light entering x (1 - f))
     shading_fraction: float = 0.0
+    #: several strings: each subcell's string (model.subcells order), and the shading of each string's
+    #: own grid from string 2 on (circuit/strings.py; string 1's is shading_fraction)
+    subcell_strings: tuple = ()
+    lower_shading: tuple = ()
 
 
 def _material(layer):
@@ -534,7 +539,7 @@ def compile_layer_stack(stack, reuse=None):
                          file=file, where="temperature_K",
                          fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
     layers = stack.layers
-    structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
+    structure = recognise_strings(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
     materials = tuple(_material(layer) for layer in layers)
     _check_measured_j0(layers, structure, file)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
@@ -555,16 +560,16 @@ def compile_layer_stack(stack, reuse=None):
                                        f"{layers[cell.base].label}",
                                  fix="check the emitter's and base's thickness, doping, "
                                      "diffusion length or lifetime and srv_cm_s") from None
-            elements.append(element)
+            elements.append(replace(element, string=info["string"]))
             cell_models.append(model)
             details["subcells"][name] = extra
         elif kind == "tunnel":
             element, extra = _tunnel(info["upper"], layers, materials, temperature, file)
-            elements.append(element)
+            elements.append(replace(element, string=info["string"]))
             details["tunnels"].append(extra)
         else:
-            elements.append(_isotype(info["upper"], layers, materials, structure.polarity,
-                                     temperature, file, reuse))
+            elements.append(replace(_isotype(info["upper"], layers, materials, info["polarity"],
+                                             temperature, file, reuse), string=info["string"]))
             i = info["upper"]
             details["interfaces"].append({"name": elements[-1].name,
                                           "layers": [layers[i].name, layers[i + 1].name]})
@@ -574,14 +579,14 @@ def compile_layer_stack(stack, reuse=None):
                        stack.rules.get("back_scattering", "specular"),
                        stack.rules.get("front_scattering", "specular"),
                        stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
-                       stack.rules.get("shading_fraction", 0.0))
+                       *string_shading(stack.rules, [info["string"] for kind, info in structure.parts
+                                                     if kind == "subcell"]))
     elements, couplings = couple_layers(elements, model, file=file, front_factors={
         name: extra.get("radiative_front_factor", 1.0) for name, extra in details["subcells"].items()})
     details["couplings"] = couplings
     for found in couplings:      # the floor counts the emission into the layers below too
         details["subcells"][found.upper]["downward_emission_ratio"] = found.emitted_A_m2 / found.reference_A_m2
-    elements = device_elements(elements, series_ohm_cm2=stack.rules.get("series_ohm_cm2", 0.0),
-                               shunt_ohm_cm2=stack.rules.get("shunt_ohm_cm2", np.inf))
+    elements = device_by_string(elements, stack.rules, device_elements)
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
     return circuit.with_elements([], optics={"layer_details": details,
                                              "polarity": structure.polarity})
