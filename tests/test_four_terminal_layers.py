@@ -131,3 +131,30 @@ def test_bad_strings_are_refused_with_the_layer_named(tmp_path, head, edit, mess
     with pytest.raises(StackError, match=message) as caught:
         stack_from(tmp_path, head + edit(TOP + BOTTOM))
     assert caught.value.fix
+
+
+def test_series_and_shunt_of_a_string_show_as_its_losses_steps(tmp_path):
+    # a step is the efficiency the file gains without that loss: string 2's [device] series
+    # resistance and shunt, each against the main job on the file without it (Ohm's law in the
+    # string; the strings are independent, their powers summed)
+    from siltandem.studies.losses import loss_waterfall
+
+    def efficiency(device, name):
+        return compute_result(_four(tmp_path, device, name), curve_points=60).summary["efficiency_pct"]
+
+    def step(device, name, label):
+        waterfall = loss_waterfall(_four(tmp_path, device, name))
+        assert abs(waterfall["check_pct"]) < 1e-9
+        assert waterfall["efficiency_pct"] == pytest.approx(efficiency(device, name), rel=1e-12)
+        return next(s["loss_pct_abs"] for s in waterfall["steps"] if s["loss"] == label)
+
+    series = "[device.1]\nseries_ohm_cm2 = 0.3\n[device.2]\nseries_ohm_cm2 = 1.2\n"
+    gained = efficiency("[device.1]\nseries_ohm_cm2 = 0.3\n", "no_r2.toml") - efficiency(series, "r2.toml")
+    assert gained > 0.1
+    assert step(series, "r2.toml", "series resistance, string 2") == pytest.approx(gained, rel=1e-6)
+    shunt = "[device.2]\nshunt_ohm_cm2 = 100\n"
+    lost = efficiency("", "plain.toml") - efficiency(shunt, "shunt.toml")
+    assert lost > 0.01
+    with_shunt = step(shunt, "shunt.toml", "non-radiative recombination, string 2")
+    without = step("", "plain.toml", "non-radiative recombination, string 2")
+    assert with_shunt - without == pytest.approx(lost, rel=1e-6)

@@ -382,9 +382,6 @@ def run_losses(args):
     args.parquet = None
     _check_paths(args)
     stack = load_stack(args.stack)
-    if stack.conditions.terminals != 2:
-        raise StackError("the loss waterfall is for two-terminal stacks", file=stack.source,
-                         where="key conditions.terminals", fix="set terminals = 2")
     _check_outputs(args, stack)
     waterfall = loss_waterfall(stack, spectrum=args.spectrum, suns=args.suns,
                                temperature_K=args.temperature)
