@@ -454,8 +454,9 @@ def test_the_demo_stacks_carry_a_proven_mpp(path):
     for proof, row in zip(proofs, summary["strings"]):
         assert proof == row["mpp_certificate"]
         assert proof["certified"] is True
-        # strings of subcells without breakdown and resistors: P(J) is concave (solve.py)
-        concave = all(e.kind == "resistor" or (e.kind == "subcell" and not (
+        # strings of subcells without breakdown or a silicon base law, and resistors: P(J) is
+        # concave (solve/certificate.is_concave)
+        concave = all(e.kind == "resistor" or (e.kind == "subcell" and e.bulk is None and not (
             e.breakdown_factor[0, 0] > 0 and np.isfinite(e.breakdown_V[0, 0])
             and e.shunt_S_m2[0, 0] > 0)) for e in result.circuit.strings[row["string"] - 1])
         assert proof["proof"] == ("concavity" if concave else "cell bounds")

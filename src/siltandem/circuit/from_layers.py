@@ -28,7 +28,8 @@ from siltandem import units
 from siltandem.circuit import hetero
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.layer_coupling import couple_layers
-from siltandem.circuit.recognise import carriers_flow, recognise
+from siltandem.circuit.recognise import carriers_flow
+from siltandem.circuit.strings import device_by_string, recognise_strings, string_shading
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, HC_EV_NM
 from siltandem.errors import StackError
@@ -103,6 +104,10 @@ class LayerModel:
     front_haze: float = 1.0
     #: [device] shading_fraction: the part of the front under the grid (light entering x (1 - f))
     shading_fraction: float = 0.0
+    #: several strings: each subcell's string (model.subcells order), and the shading of each string's
+    #: own grid from string 2 on (circuit/strings.py; string 1's is shading_fraction)
+    subcell_strings: tuple = ()
+    lower_shading: tuple = ()
 
 
 def _material(layer):
@@ -185,6 +190,16 @@ def _rear_emission(cell, layers, materials, gap_eV, temperature_K, back_reflecta
     return lifetimes.rear_emission_factor(cell_index=cell_index, back_reflectance=back_reflectance)
 
 
+def _front_emission(cell, materials, gap_eV, temperature_K, ambient_index):
+    """Front emission of a subcell into the stack's ambient over that into air (laws/lifetimes.py):
+    the base's index at the emission peak (Eg + kT) bounds the escape cone."""
+    if ambient_index == 1.0:
+        return 1.0
+    peak_nm = HC_EV_NM / (gap_eV + BOLTZMANN_EV_K * temperature_K)
+    return lifetimes.front_emission_factor(ambient_index=ambient_index,
+                                           cell_index=float(materials[cell.base].refractive_index(peak_nm)))
+
+
 def _radiative_lifetimes(cell, layers, materials, ni, floor):
     """(emitter, base) radiative lifetimes [s] with photon recycling, and the self-consistent
     recycling factor (a layer's photon_recycling_factor replaces it for that layer)."""
@@ -207,13 +222,14 @@ def _dark_side(cell, materials, temperature_K):
 
 
 def _remembered_subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance,
-                        reuse):
+                        ambient_index, reuse):
     """``_subcell``, remembered in a study's ``reuse`` dict under every input it reads: the
     subcell's recognised layers, its emitter and base (their keys set their materials), the
     conditions, and its rear emission (the only thing it takes from the layers behind it), so
     that in a map of other layers' keys it is built once per distinct emitter and base."""
     if reuse is None:
-        return _subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance)
+        return _subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance,
+                        ambient_index)
     emitter, base = layers[cell.emitter], layers[cell.base]
     silicon_cell = is_silicon(emitter) and is_silicon(base)
     rear = 0.0
@@ -222,14 +238,14 @@ def _remembered_subcell(cell, layers, materials, temperature_K, file, name, suns
         rear = _rear_emission(cell, layers, materials, float(dark.gap_eV(temperature_K)), temperature_K,
                               back_reflectance, reuse)
     key = (repr(cell), repr(emitter), repr(base), float(temperature_K), str(file), name, float(suns),
-           float(back_reflectance), float(rear))
+           float(back_reflectance), float(ambient_index), float(rear))
     element, model, extra = remembered(reuse, "subcell", key, lambda: _subcell(
-        cell, layers, materials, temperature_K, file, name, suns, back_reflectance, rear=rear))
+        cell, layers, materials, temperature_K, file, name, suns, back_reflectance, ambient_index, rear=rear))
     return element, model, dict(extra)       # the caller adds to the details: a copy of its own
 
 
-def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0, *,
-             rear=None):
+def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_reflectance=0.0,
+             ambient_index=1.0, *, rear=None):
     """One subcell's element, SubcellModel and details. ``rear``: its rear emission factor when
     already known (``_rear_emission`` of the same inputs), else computed here."""
     emitter, base = layers[cell.emitter], layers[cell.base]
@@ -292,12 +308,14 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     # the emitter's intrinsic lifetime, band-gap narrowing and the base law
     silicon_base = is_silicon(base)
     gap = float(material.gap_eV(temperature_K))
-    # the radiative floor: emission through the front and into what lies behind (two-sided)
+    # the radiative floor: emission through the front (into the ambient, n_ambient^2 times that into
+    # air) and into what lies behind (two-sided)
     front = float(radiative_saturation_current(gap, temperature_K=temperature_K))
     if rear is None:
         rear = 0.0 if silicon_cell else _rear_emission(cell, layers, materials, gap, temperature_K,
                                                         back_reflectance)
-    floor = front * (1.0 + rear)
+    ambient = 1.0 if silicon_cell else _front_emission(cell, materials, gap, temperature_K, ambient_index)
+    floor = front * (ambient + rear)
     (rad_e, rad_b), recycling = ((np.inf, np.inf), 1.0) if silicon_cell else \
         _radiative_lifetimes(cell, layers, materials, ni, floor)
     # a Si side of a heterojunction: its intrinsic (Auger + radiative) recombination is silicon's own
@@ -381,6 +399,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     return element, model, {**extra, "j01_diffusion_A_m2": diffusion_total,
                             "j01_radiative_floor_A_m2": floor,
                             "radiative_rear_factor": rear,
+                            "radiative_front_factor": ambient,
                             "photon_recycling_factor": recycling,
                             "radiative_lifetime_ns": [rad_e * 1e9, rad_b * 1e9],
                             "srh_lifetime_ns": [srh_e * 1e9, srh_b * 1e9],
@@ -562,7 +581,7 @@ def compile_layer_stack(stack, reuse=None):
                          file=file, where="temperature_K",
                          fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
     layers = stack.layers
-    structure = recognise(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
+    structure = recognise_strings(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
     materials = tuple(_material(layer) for layer in layers)
     _check_measured_j0(layers, structure, file)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
@@ -574,7 +593,7 @@ def compile_layer_stack(stack, reuse=None):
             try:
                 element, model, extra = _remembered_subcell(
                     info["cell"], layers, materials, temperature, file, name, stack.conditions.suns,
-                    stack.rules.get("back_reflectance", 0.0), reuse)
+                    stack.rules.get("back_reflectance", 0.0), stack.rules.get("ambient_index", 1.0), reuse)
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -582,7 +601,7 @@ def compile_layer_stack(stack, reuse=None):
                                        f"{layers[cell.base].label}",
                                  fix="check the emitter's and base's thickness, doping, "
                                      "diffusion length or lifetime and srv_cm_s") from None
-            elements.append(element)
+            elements.append(replace(element, string=info["string"]))
             cell_models.append(model)
             details["subcells"][name] = extra
         elif kind == "tunnel":
@@ -593,11 +612,11 @@ def compile_layer_stack(stack, reuse=None):
                                   str(file)),
                 lambda upper=upper: _tunnel(upper, layers, materials, temperature, file))
             extra = dict(extra)
-            elements.append(element)
+            elements.append(replace(element, string=info["string"]))
             details["tunnels"].append(extra)
         else:
-            elements.append(_isotype(info["upper"], layers, materials, structure.polarity,
-                                     temperature, file, reuse))
+            elements.append(replace(_isotype(info["upper"], layers, materials, info["polarity"],
+                                             temperature, file, reuse), string=info["string"]))
             i = info["upper"]
             details["interfaces"].append({"name": elements[-1].name,
                                           "layers": [layers[i].name, layers[i + 1].name]})
@@ -607,13 +626,14 @@ def compile_layer_stack(stack, reuse=None):
                        stack.rules.get("back_scattering", "specular"),
                        stack.rules.get("front_scattering", "specular"),
                        stack.rules.get("back_haze", 1.0), stack.rules.get("front_haze", 1.0),
-                       stack.rules.get("shading_fraction", 0.0))
-    elements, couplings = couple_layers(elements, model, file=file, reuse=reuse)
+                       *string_shading(stack.rules, [info["string"] for kind, info in structure.parts
+                                                     if kind == "subcell"]))
+    elements, couplings = couple_layers(elements, model, file=file, reuse=reuse, front_factors={
+        name: extra.get("radiative_front_factor", 1.0) for name, extra in details["subcells"].items()})
     details["couplings"] = couplings
     for found in couplings:      # the floor counts the emission into the layers below too
         details["subcells"][found.upper]["downward_emission_ratio"] = found.emitted_A_m2 / found.reference_A_m2
-    elements = device_elements(elements, series_ohm_cm2=stack.rules.get("series_ohm_cm2", 0.0),
-                               shunt_ohm_cm2=stack.rules.get("shunt_ohm_cm2", np.inf))
+    elements = device_by_string(elements, stack.rules, device_elements)
     circuit = build_circuit(elements, stack.conditions, name=stack.name, model=model)
     return circuit.with_elements([], optics={"layer_details": details,
                                              "polarity": structure.polarity})
@@ -664,7 +684,7 @@ def dark_currents_at(model, circuit, temperature_K):
                          + base * ni_ratio(model.materials[cell_model.base])**2)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K) \
-            * (1.0 + details.get("radiative_rear_factor", 0.0))
+            * (details.get("radiative_front_factor", 1.0) + details.get("radiative_rear_factor", 0.0))
         # a Si cell's base law holds its radiative recombination: no floor; its ni,eff follows
         j01 = diffusion if details.get("silicon_base_law") else diffusion + floor
         if details.get("ere") is not None:      # the measured ERE held at every temperature
@@ -673,7 +693,7 @@ def dark_currents_at(model, circuit, temperature_K):
             # as at compile time (circuit/layer_coupling.py): at least the emission the coupling
             # to the subcell below counts
             j01 = np.maximum(j01, radiative_saturation_current(gap, temperature_K=temperature_K)
-                             * (1.0 + details["downward_emission_ratio"]))
+                             * (details.get("radiative_front_factor", 1.0) + details["downward_emission_ratio"]))
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
         bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio

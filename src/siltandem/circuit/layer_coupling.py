@@ -187,11 +187,12 @@ def check_given_coupling(layers, cells, file):
                                  fix=f"keep it on one of them (remove it from {layers[other].label})")
 
 
-def couple_layers(elements, model, *, file=None, reuse=None):
+def couple_layers(elements, model, *, file=None, reuse=None, front_factors=None):
     """The elements with every subcell's ``luminescent_coupling`` set from its layers (or the
     layer key), and the list of :class:`LayerCoupling` (sun side first). ``reuse``: a study's
     dict; a pair's coupling is remembered under every input it reads (the two subcells, the upper
-    one's gap and absorptance, the layers from the upper subcell down, the back)."""
+    one's gap and absorptance, the layers from the upper subcell down, the back). ``front_factors``:
+    each subcell's front emission into the ambient over that into air (default 1), for its floor."""
     cells = list(model.subcells)
     check_given_coupling(model.layers, cells, file)
     by_name = {e.name: e for e in elements if isinstance(e, Subcell)}
@@ -211,7 +212,8 @@ def couple_layers(elements, model, *, file=None, reuse=None):
             found = replace(found, coupling=float(given), source="given")
         couplings.append(found)
         values[upper.name] = found.coupling
-    floors = {c.upper: c.reference_A_m2 + c.emitted_A_m2 for c in couplings}
+    front_factors = front_factors or {}
+    floors = {c.upper: c.reference_A_m2 * front_factors.get(c.upper, 1.0) + c.emitted_A_m2 for c in couplings}
     out = []
     for e in elements:
         if isinstance(e, Subcell) and e.name in values:

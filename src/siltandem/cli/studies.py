@@ -204,8 +204,11 @@ def _print_match_table(stack, variation, table):
     print("")
 
 
-def _print_matches(matches, variation):
+def _print_matches(matches, variation, strings=1):
     """Each matched pair of subcells, or a hint to widen the range."""
+    if strings > 1:
+        print(f"  {strings} strings wired apart: only subcells of one string are matched (the strings "
+              "carry independent currents)")
     if matches:
         for m in matches:
             a, b = m["subcells"]
@@ -219,7 +222,9 @@ def _print_matches(matches, variation):
                       "photocurrent there and sets the string's current;\n"
                       f"           matching {a} and {b} does not raise it")
     else:
-        print("  no two subcells' photocurrents cross in this range: widen it")
+        print("  no two subcells' photocurrents cross in this range: widen it" if strings == 1 else
+              "  no two subcells of one string cross in this range (a string of one subcell has none "
+              "to match)")
 
 
 def _best_efficiency(table, variation):
@@ -292,7 +297,7 @@ def run_match(args):
         if client is not None:
             client.close()
     _print_match_table(stack, variation, table)
-    _print_matches(matches, variation)
+    _print_matches(matches, variation, stack.conditions.strings)
     best = _best_efficiency(table, variation)
     by_energy = _best_energy(args, stack, variation, table, weather)
     figure = _match_figure(stack, variation, table, matches, by_energy) if args.plot else None
@@ -382,9 +387,6 @@ def run_losses(args):
     args.parquet = None
     _check_paths(args)
     stack = load_stack(args.stack)
-    if stack.conditions.terminals != 2:
-        raise StackError("the loss waterfall is for two-terminal stacks", file=stack.source,
-                         where="key conditions.terminals", fix="set terminals = 2")
     _check_outputs(args, stack)
     waterfall = loss_waterfall(stack, spectrum=args.spectrum, suns=args.suns,
                                temperature_K=args.temperature)

@@ -95,6 +95,14 @@ def rear_emission_factor(*, cell_index, rear_index=None, back_reflectance=0.0):
     return float(cell_index) ** 2 * (1.0 - float(back_reflectance))
 
 
+def front_emission_factor(*, ambient_index, cell_index):
+    """Front emission of a subcell into an ambient of index ``ambient_index`` (air 1, glass or
+    encapsulant about 1.5) over its front emission into air [-]: min(n_ambient, n_cell)^2 (the
+    generalized Planck law in a medium of index n is n^2 times the vacuum rate; beyond the cell's
+    own index the escape cone is the cell's). P. Wuerfel, J. Phys. C 15 (1982) 3967."""
+    return min(float(ambient_index), float(cell_index)) ** 2
+
+
 def self_consistent_recycling(*, internal_A_m2, external_A_m2):
     """Photon-recycling factor [-]: internal radiative recombination q B ni^2 W over the escaping
     (external) emission J0,rad, never below 1 (Asbeck 1977)."""

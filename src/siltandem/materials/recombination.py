@@ -13,7 +13,10 @@ library name or the path of a material file):
   2890), None where the data have no parameters for the material (then the library's fixed
   mobility stays).
 
-Alloys take their end members' parameters where both end members have the alloy's lowest valley
+An alloy file may give its own ``[mobility.electron_doping]`` / ``[mobility.hole_doping]`` with a
+``composition_range = [x_low, x_high]``: within that range its law is used as written (published
+parameters of one composition). Elsewhere, alloys take their end members' parameters where both
+end members have the alloy's lowest valley
 (mu_max and mu_min with 1/mu linear in x, Matthiessen's rule as for the library's fixed alloy
 mobilities; N_ref log-linear; lambda and the temperature exponents linear; common practice, no
 source). Where an end member's lowest valley differs (GaInP and GaAsP with indirect GaP, AlGaAs
@@ -107,7 +110,10 @@ def minority_mobility_cm2_V_s(material, document, doping_cm3, carrier, *, temper
     if document is None:
         return None
     ends = _end_members(material, document)
-    if ends is None:
+    own = _alloy_parameters(document, carrier, material.composition) if ends is not None else None
+    if own is not None:
+        parts = own
+    elif ends is None:
         parts = _parameters(document, carrier)
         if parts is None:
             return None
@@ -124,6 +130,20 @@ def minority_mobility_cm2_V_s(material, document, doping_cm3, carrier, *, temper
                      n_ref_cm3=float(np.exp(x * np.log(p1["n_ref_cm3"]) + (1 - x) * np.log(p0["n_ref_cm3"]))),
                      exponent=lin("exponent"), theta1=lin("theta1"), theta2=lin("theta2"))
     return float(caughey_thomas_mobility(doping_cm3, temperature_K=temperature_K, **parts))
+
+
+def _alloy_parameters(document, carrier, composition):
+    """An alloy file's own ``[mobility.<carrier>_doping]`` law where its ``composition_range``
+    [x_low, x_high] (default: every composition) holds ``composition``: published parameters of
+    one composition (e.g. lattice-matched Ga0.51In0.49P) replace the end members' interpolation
+    there. None without such a law, or outside its range."""
+    law = document.get("mobility", {}).get(f"{carrier}_doping")
+    if law is None:
+        return None
+    low, high = law.get("composition_range", (0.0, 1.0))
+    if not float(low) <= float(composition) <= float(high):
+        return None
+    return _parameters(document, carrier)
 
 
 def _lowest_valley(name):

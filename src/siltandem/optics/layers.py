@@ -115,6 +115,7 @@ def layer_light(model, wavelength, flux, reuse=None):
                                    * flux_array)
     collected = [_collected(cell, band_to_band, free, free_share, budget, bool(trapping))
                  for cell in model.subcells]
+    collected = [_shaded(result, own_grid_shading(model, k)) for k, result in enumerate(collected)]
     # a stacked model's shading is (B, 1): the coatings' (C, M) absorptance becomes (C, B, M)
     coating_open = coating_absorbed * open_area if np.ndim(open_area) == 0 \
         else coating_absorbed[:, None, :] * open_area
@@ -155,6 +156,24 @@ def front_response(model, wavelength, alphas):
                                                                      for j in range(films)],
         ambient_index=model.ambient_index)
     return response, films
+
+
+def own_grid_shading(model, k):
+    """The shading fraction of the own grid of subcell k's string (0 in string 1, whose grid is the
+    front's, ``model.shading_fraction``): a lower string's grid lies on its own absorber and takes
+    that share of the light its subcells absorb (circuit/strings.py)."""
+    if not model.lower_shading or model.subcell_strings[k] == 1:
+        return 0.0
+    return model.lower_shading[model.subcell_strings[k] - 2]
+
+
+def _shaded(result, fraction):
+    """A subcell's collected photocurrent with (1 - fraction) of it left."""
+    if fraction == 0.0:
+        return result
+    keep = 1.0 - fraction
+    return result._replace(emitter_A_m2=result.emitter_A_m2 * keep, depletion_A_m2=result.depletion_A_m2 * keep,
+                           base_A_m2=result.base_A_m2 * keep)
 
 
 def _with_front_films(budget, absorbed_films):
@@ -250,7 +269,8 @@ def optical_group(model):
     cells = tuple((c.name, c.emitter, c.base, c.hetero, c.dark_layer) for c in model.subcells)
     return (layers, films, tuple(id(m) for m in model.materials), repr(model.coatings), cells,
             float(model.temperature_K), float(model.back_reflectance), float(model.ambient_index),
-            model.back_scattering, model.front_scattering, float(model.back_haze), float(model.front_haze))
+            model.back_scattering, model.front_scattering, float(model.back_haze), float(model.front_haze),
+            tuple(model.subcell_strings), tuple(float(f) for f in model.lower_shading))
 
 
 def stacked_model(models):
@@ -321,11 +341,16 @@ def illuminate_layers(circuit, spectrum, reuse=None):
 
     lit, absorbed, collected_by, parasitic = [], {}, {}, {}
     active = set()
-    for cell, result in zip(model.subcells, light.collected):
+    for k, (cell, result) in enumerate(zip(model.subcells, light.collected)):
         active.update({cell.emitter, cell.base})
         photocurrent = _photocurrent(result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2, wavelength)
         share = light.free_carrier_share
         absorbed[cell.name] = current(sum(budget.absorbed[j] * (1.0 - share[j]) for j in (cell.emitter, cell.base)))
+        grid = own_grid_shading(model, k)
+        if grid > 0:      # a lower string's own grid takes its share of what the subcell absorbs
+            label = f"grid shading, string {model.subcell_strings[k]}"
+            parasitic[label] = parasitic.get(label, 0.0) + grid * absorbed[cell.name]
+            absorbed[cell.name] *= 1.0 - grid
         for j in (cell.emitter, cell.base):
             if np.any(share[j] > 0):
                 parasitic[f"{model.layers[j].name} free carriers"] = current(budget.absorbed[j] * share[j])

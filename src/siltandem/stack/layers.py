@@ -31,7 +31,7 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
               "transport", "sheet_charge_cm2", "luminescent_coupling", "srh_lifetime_ns",
-              "photon_recycling_factor", "ere"}
+              "photon_recycling_factor", "ere", "string"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -143,6 +143,8 @@ class Layer:
     photon_recycling_factor: float | None = None
     #: on a III-V subcell's base: its measured external radiative efficiency, J01 = J0,rad,front / ere
     ere: float | None = None
+    #: which string (pair of terminals) the layer belongs to, 1 on the sun side (stack/strings.py)
+    string: int = 1
 
     @property
     def label(self):
@@ -538,6 +540,8 @@ def parse_device(table, *, file):
                          fix="write [device] followed by key = value lines, e.g. "
                              "series_ohm_cm2 = 0.5")
     for key in table:
+        if isinstance(table[key], dict) and key.isdigit():
+            continue        # [device.2]: one string's own values (stack/strings.py)
         if key not in DEVICE_KEYS:
             raise StackError(f"unknown key {key!r} in [device]", file=file,
                              where=f"key device.{key}", fix=suggest(key, DEVICE_KEYS)

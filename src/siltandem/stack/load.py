@@ -354,9 +354,13 @@ def _parse_layer_stack(document, name, notes, conditions, *, file, folder):
     rules = parse_rules(document.get("rules", {}), file=file)
     rules.update(parse_optics(document.get("optics", {}), file=file))
     rules.update(parse_device(document.get("device", {}), file=file))
-    if conditions.terminals != 2:
-        raise StackError("layer stacks are two-terminal in this version", file=file,
-                         where="key conditions.terminals", fix="set terminals = 2")
+    from siltandem.stack.strings import assign_strings, parse_string_devices
+
+    layers = assign_strings(layers, document["layer"], terminals=conditions.terminals, file=file)
+    string_devices = parse_string_devices(document.get("device", {}), terminals=conditions.terminals,
+                                          file=file)
+    if string_devices:
+        rules["string_devices"] = string_devices
     from siltandem.stack.placements import parse_placements
 
     placements = parse_placements(document.get("placement", []), layers, file=file,

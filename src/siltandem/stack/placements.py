@@ -75,6 +75,12 @@ def parse_placements(tables, base_layers, *, file, folder_materials=None):
         after = names[anchor] if "after" in table else names[anchor] - 1
         layers = parse_layers(table.get("layer", []), file=file,
                               folder_materials=folder_materials)
+        if any(isinstance(t, dict) and "string" in t for t in table.get("layer", [])):
+            raise StackError("a placement's layer gives string: the inserted layers join the string of "
+                             f"the layer they are placed {side}", file=file, where=f"{where}, key string",
+                             fix="remove string from the placement's layers")
+        # the inserted layers join the string of the layer they are placed at (several strings)
+        layers = tuple(replace(layer, string=base_layers[names[anchor]].string) for layer in layers)
         clash = [layer.name for layer in layers if layer.name in names]
         if clash:
             raise StackError(f"layer name {clash[0]!r} is already in the stack", file=file,

@@ -20,6 +20,11 @@ up exactly to the total. Starting from the stack as it is, the losses are remove
 8. front reflection removed (layer stacks);
 9. grid shading removed (layer stacks with ``[device] shading_fraction``).
 
+A stack of several strings (4 terminals, ...) sums its strings' powers, each at its own MPP (the
+first value is the main job's, with luminescent coupling across strings); its series resistance and
+non-radiative recombination are removed string by string, one step each, so a string's ``[device]``
+series resistance and shunt show as that string's steps.
+
 A layer stack's ``[device]`` series resistance is a resistor element of its string (step 1); its
 shunt is each subcell's shunt, removed with the non-radiative recombination (step 4).
 
@@ -73,6 +78,9 @@ def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True, sha
         alphas = [m.absorption_per_m(wavelength, temperature_K=temperature) for m in model.materials]
         response, films = front_response(model, wavelength, alphas)
         flux = flux * (response.transmittance if passive else 1.0 - response.reflectance)
+    from siltandem.optics.layers import own_grid_shading
+
+    own_grid = {cell.name: own_grid_shading(model, k) if shading else 0.0 for k, cell in enumerate(model.subcells)}
     emitters = {cell.emitter: cell for cell in model.subcells}
     active = {i for cell in model.subcells for i in (cell.emitter, cell.base)}
     currents = {}
@@ -82,7 +90,8 @@ def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True, sha
             cell = emitters[j]
             gap = float(circuit.element(cell.name).gap_eV[0, 0])
             above = energy >= gap
-            currents[cell.name] = float(thinfilm.photon_current_A_m2(wavelength, flux * above))
+            currents[cell.name] = float(thinfilm.photon_current_A_m2(wavelength, flux * above)) \
+                * (1.0 - own_grid[cell.name])
             flux = flux * ~above
         elif j not in active and passive and j >= films:
             alpha = material.absorption_per_m(wavelength, temperature_K=temperature)
@@ -108,36 +117,50 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
     temperature = conditions["temperature_K"]
     irradiance = conditions["irradiance_W_m2"]
     light = circuit.optics["spectrum"]
-    if len(circuit.strings) != 1:
-        raise ValueError("the loss waterfall is for two-terminal stacks")
-    string = list(circuit.strings[0])
-    efficiency = [100 * _power(string, temperature) / irradiance]
+    # several strings (4 terminals, ...): each at its own MPP, their powers summed; the stack's
+    # efficiency with luminescent coupling across strings is the main job's
+    strings = [list(s) for s in circuit.strings]
+    several = len(strings) > 1
+    if several:
+        efficiency = [100 * sum(float(np.asarray(s.mpp_W_m2).reshape(-1)[0]) for s in result.solutions)
+                      / irradiance]
+    else:
+        efficiency = [100 * _power(strings[0], temperature) / irradiance]
     names = []
 
     def record(label, value):
         names.append(label)
         efficiency.append(100 * value / irradiance)
 
+    def total():
+        return sum(_power(string, temperature) for string in strings)
+
     # 0. luminescent coupling (a gain: its step is negative), removed first
-    if any(e.kind == "subcell" and np.any(e.luminescent_coupling > 0) for e in string):
-        string = [replace(e, luminescent_coupling=batch(0.0)) if e.kind == "subcell" else e
-                  for e in string]
-        record("coupling gain", _power(string, temperature))
-    # 1. series resistance
-    string = [e for e in string if e.kind != "resistor"]
-    string = [replace(e, series_ohm_m2=batch(0.0)) if e.kind == "subcell" else e for e in string]
-    record("series resistance", _power(string, temperature))
+    if any(e.kind == "subcell" and np.any(e.luminescent_coupling > 0) for string in strings for e in string):
+        strings = [[replace(e, luminescent_coupling=batch(0.0)) if e.kind == "subcell" else e for e in string]
+                   for string in strings]
+        record("coupling gain", total())
+    # 1. series resistance (string by string where there are several)
+    for k, string in enumerate(strings):
+        string = [e for e in string if e.kind != "resistor"]
+        strings[k] = [replace(e, series_ohm_m2=batch(0.0)) if e.kind == "subcell" else e for e in string]
+        if several or k == len(strings) - 1:
+            record(f"series resistance, string {k + 1}" if several else "series resistance", total())
     # 2, 3. each tunnel junction, then each isotype interface
     for kind, label in (("tunnel", "tunnel junction"), ("isotype", "isotype interface")):
-        for element in [e for e in string if e.kind == kind]:
-            string = [e for e in string if e is not element]
-            text = element.name if label.split()[-1] in element.name else \
-                f"{label} {element.name}"
-            record(text, _power(string, temperature))
-    # 4. non-radiative recombination
-    subcells = [_radiative(c, c.photocurrent_A_m2) for c in string]
-    string = subcells
-    record("non-radiative recombination", _power(string, temperature))
+        for k in range(len(strings)):
+            for element in [e for e in strings[k] if e.kind == kind]:
+                strings[k] = [e for e in strings[k] if e is not element]
+                text = element.name if label.split()[-1] in element.name else \
+                    f"{label} {element.name}"
+                record(text, total())
+    # 4. non-radiative recombination (with the shunts, string by string where there are several)
+    for k, string in enumerate(strings):
+        strings[k] = [_radiative(c, c.photocurrent_A_m2) for c in string]
+        if several or k == len(strings) - 1:
+            record(f"non-radiative recombination, string {k + 1}" if several
+                   else "non-radiative recombination", total())
+    subcells = [c for string in strings for c in string]
     # 5. current mismatch
     record("current mismatch", _independent(subcells, temperature))
     # 6-8. optics
@@ -145,7 +168,7 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
         steps = (("incomplete absorption and collection", dict(passive=True, reflection=True)),
                  ("parasitic absorption", dict(passive=False, reflection=True)),
                  ("front reflection", dict(passive=False, reflection=False)))
-        if circuit.model.shading_fraction > 0:
+        if circuit.model.shading_fraction > 0 or any(circuit.model.lower_shading):
             steps += (("grid shading", dict(passive=False, reflection=False, shading=False)),)
         for label, options in steps:
             currents = _walk_photocurrents(circuit, light, **options)

@@ -54,7 +54,12 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
     matches = []
     reuse = {}          # a layer stack's parts that the key leaves alone, built once
     optics = {}         # a thickness's batched optics, built at the first crossing
+    # current matching is between subcells of one series string: strings wired apart (4
+    # terminals, ...) carry independent currents
+    string_of = _strings_of(stack)
     for a, b in itertools.combinations(names, 2):
+        if string_of.get(a, 1) != string_of.get(b, 1):
+            continue
         difference = (table[f"{a}.photocurrent_mA_cm2"] - table[f"{b}.photocurrent_mA_cm2"])
         d = difference.to_numpy()
         for k in np.flatnonzero(np.sign(d[:-1]) * np.sign(d[1:]) < 0):
@@ -76,7 +81,7 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
             matches.append({"subcells": [a, b], "value": value,
                             "photocurrent_mA_cm2": currents[a],
                             "efficiency_pct": float(solved["efficiency_pct"][0]),
-                            **pair_limits(currents, a, b)})
+                            **pair_limits(_same_string(currents, string_of, a), a, b)})
         exact = np.flatnonzero(d == 0)
         for k in exact:
             solved = table.iloc[k]
@@ -84,7 +89,7 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
             matches.append({"subcells": [a, b], "value": float(x[k]),
                             "photocurrent_mA_cm2": currents[a],
                             "efficiency_pct": float(solved["efficiency_pct"]),
-                            **pair_limits(currents, a, b)})
+                            **pair_limits(_same_string(currents, string_of, a), a, b)})
     return table, matches
 
 
@@ -164,6 +169,19 @@ def thickness_optics(stack, column, *, spectrum=None, suns=None, temperature_K=N
         return None
     light = study_light(stack, spectrum=spectrum, suns=circuit.conditions.suns)
     return ThicknessOptics(model, j, light)
+def _strings_of(stack):
+    """Subcell name -> its string number (one compile of the stack as written)."""
+    if stack.conditions.strings == 1:
+        return {}
+    from siltandem.circuit.compile import compile_stack
+
+    return {cell.name: cell.string for cell in compile_stack(stack).subcells}
+
+
+def _same_string(currents, string_of, name):
+    """The photocurrents of the subcells in ``name``'s string."""
+    own = string_of.get(name, 1)
+    return {n: j for n, j in currents.items() if string_of.get(n, 1) == own}
 
 
 def pair_limits(currents, a, b):

@@ -254,7 +254,7 @@ def _check_layer_designs(stack, variations, *, grid=True):
     """Every layer design read by the layer compiler's rules (compile_layers.recognise) before
     any design is solved: a doping that turns a tunnel junction into a p-n junction fails here,
     named with its design, not in the middle of the study."""
-    from siltandem.circuit.recognise import recognise
+    from siltandem.circuit.strings import recognise_strings as recognise
 
     threshold = stack.rules["tunnel_doping_cm3"]
     table = design_table(variations, grid=grid)
