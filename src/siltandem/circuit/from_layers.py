@@ -116,6 +116,13 @@ def is_silicon(layer):
     return layer.material == "Si"
 
 
+def _gap_narrowing_eV(layer, temperature_K):
+    """Band-gap narrowing [eV] of a Si layer in equilibrium: its ``gap_narrowing`` model (Schenk
+    1998 by default, Klaassen 1992 on request; laws/silicon.py)."""
+    return float(silicon.doped_gap_narrowing(layer.doping_cm3, layer.polarity, temperature_K=temperature_K,
+                                             model=layer.gap_narrowing or silicon.GAP_NARROWING_MODELS[0]))
+
+
 def _mobility(layer, material, temperature_K):
     """Minority-carrier mobility [m^2/(V s)] of an active layer: Masetti et al. 1983 for Si,
     Caughey-Thomas with Sotoodeh et al. 2000 where the data have the material, else the
@@ -271,7 +278,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
     base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    ni_e, ni_b = ((own * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
+    ni_e, ni_b = ((own * float(np.exp(_gap_narrowing_eV(layer, temperature_K)
                                       / (2 * BOLTZMANN_EV_K * temperature_K))) if is_silicon(layer) else own)
                   for layer, own in ((emitter, ni_e0), (base, ni_b0)))
     regions = ((emitter_qn, emitter_doping, ni_e, l_e, d_e, srv_e, rad_e, "emitter"),
