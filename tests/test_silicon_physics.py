@@ -339,8 +339,9 @@ def test_ideal_wafer_reaches_richters_intrinsic_limit(tmp_path):
     # (Vt ln(43.3/41.3) = 1.2 mV from the Jsc; the library's ni is Richter's 9.65e9 cm^-3 at
     # 300 K, but Richter's band-gap narrowing of the injected carriers (Schenk 1998) is not
     # modelled (only that of the equilibrium densities, the default since issue 16): it lowers their
-    # Voc by a few mV, from memory; measured 765.4 mV, 765.6 with Klaassen's narrowing); FF +-1.0 % abs (the share of radiative
-    # recombination, whose reabsorption is not modelled); efficiency +-1.5 % abs (mostly Jsc)
+    # Voc by a few mV, from memory; measured 765.4 mV, 765.6 with Klaassen's narrowing); FF +-1.0 %
+    # abs (the share of radiative recombination, whose reabsorption is not modelled); efficiency
+    # +-1.5 % abs (mostly Jsc)
     path = tmp_path / "wafer.toml"
     path.write_text(IDEAL_WAFER)
     summary = run_stack(load_stack(path)).summary
