@@ -123,3 +123,17 @@ def test_gap_narrowing_key_is_validated(tmp_path, extra, material, problem):
     assert problem in info.value.problem
     assert info.value.where == "layer 1 'emitter', key gap_narrowing"
     assert info.value.fix
+
+
+def test_gap_narrowing_outside_a_subcell_is_refused(tmp_path):
+    # a Si front layer above the emitter (same type) belongs to no subcell: its narrowing would be
+    # ignored, so the key is refused there
+    path = _stack(tmp_path)
+    text = path.read_text().replace('[[layer]]\nname = "emitter"', '[[layer]]\nname = "front"\n'
+                                    'material = "Si"\nthickness_nm = 20\ndoping = "n:1e20"\n'
+                                    'gap_narrowing = "klaassen"\n\n[[layer]]\nname = "emitter"', 1)
+    path.write_text(text)
+    with pytest.raises(StackError) as info:
+        compile_layer_stack(load_stack(path))
+    assert "no subcell's emitter or base" in info.value.problem
+    assert info.value.where == "layer 1 'front', key gap_narrowing"

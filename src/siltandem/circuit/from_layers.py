@@ -485,8 +485,8 @@ def _cell_name(cell, layers, used):
 
 
 def _check_measured_j0(layers, structure, file):
-    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored; ``ere``
-    only on the base of a III-V subcell, with no ``j0_fA_cm2`` beside it."""
+    """``j0_fA_cm2`` and ``gap_narrowing`` only on a subcell's emitter or base: elsewhere they would
+    be ignored; ``ere`` only on the base of a III-V subcell, with no ``j0_fA_cm2`` beside it."""
     active, bases = set(), {}
     for kind, info in structure.parts:
         if kind == "subcell":
@@ -498,6 +498,11 @@ def _check_measured_j0(layers, structure, file):
                              "where no saturation current applies", file=file, where=layer.label,
                              fix="move j0_fA_cm2 to the emitter (or the base, for its passivated "
                                  "rear) of a subcell, or remove it")
+        if layer.gap_narrowing is not None and i not in active:
+            raise StackError("gap_narrowing is given on a layer that is no subcell's emitter or base, "
+                             "where no band-gap narrowing is used", file=file,
+                             where=f"{layer.label}, key gap_narrowing",
+                             fix="give gap_narrowing on the Si emitter or base of a subcell, or remove it")
         if layer.ere is None:
             continue
         if i not in bases:
