@@ -601,13 +601,27 @@ def device_elements(elements, *, series_ohm_cm2=0.0, shunt_ohm_cm2=np.inf):
     return out
 
 
+def _narrowing_ratio(layer, temperature_K, t0):
+    """exp(dEg(T) / kT - dEg(T0) / kT0) of a Si layer's gap narrowing (n_i,eff^2 at T over its
+    value at the stack's T0, n_i aside), 1 for other layers; of ``temperature_K``'s shape."""
+    t = np.asarray(temperature_K, dtype=float)
+    if not is_silicon(layer):
+        return np.ones_like(t)
+    model = layer.gap_narrowing or silicon.GAP_NARROWING_MODELS[0]
+    now = silicon.doped_gap_narrowing(layer.doping_cm3, layer.polarity, temperature_K=t, model=model)
+    then = _gap_narrowing_eV(layer, t0)
+    return np.exp(now / (BOLTZMANN_EV_K * t) - then / (BOLTZMANN_EV_K * t0))
+
+
 def dark_currents_at(model, circuit, temperature_K):
     """J01, J02, the gap and n_i(T)/n_i(T0) of each layer subcell at other temperatures (arrays of
     temperature's shape; a Si base law's ni,eff scales with the last).
 
     The diffusion J01 scales with ni^2 and J02 with ni (the intrinsic density of the absorber,
     the library's Nc Nv T^1.5 law and Varshni gap); the two-sided radiative floor is added again
-    at each temperature. Diffusion lengths, lifetimes and mobilities stay at the stack's values.
+    at each temperature. A Si emitter's or base's n_i,eff^2 also follows exp(dEg(T) / kT) of its
+    gap narrowing (Schenk's depends on T; Klaassen's does not, but kT does). Diffusion lengths,
+    lifetimes and mobilities stay at the stack's values.
     """
     out = {}
     t0 = model.temperature_K
@@ -626,6 +640,17 @@ def dark_currents_at(model, circuit, temperature_K):
             base = details["j01_base_A_m2"]
             diffusion = ((details["j01_diffusion_A_m2"] - base) * ni_ratio(model.materials[cell_model.emitter])**2
                          + base * ni_ratio(model.materials[cell_model.base])**2)
+        emitter_layer, base_layer = model.layers[cell_model.emitter], model.layers[cell_model.base]
+        narrowing_e = _narrowing_ratio(emitter_layer, temperature_K, t0)
+        narrowing_b = _narrowing_ratio(base_layer, temperature_K, t0)
+        if is_silicon(emitter_layer) or is_silicon(base_layer):
+            # Si layers: n_i,eff^2 also carries exp(dEg(T) / kT) of their gap narrowing
+            emitter_j0 = details["j0_emitter_A_m2"]
+            ratio_e, ratio_b = ((ni_ratio(model.materials[cell_model.emitter]),
+                                 ni_ratio(model.materials[cell_model.base])) if cell_model.hetero
+                                else (ratio, ratio))
+            diffusion = (emitter_j0 * ratio_e**2 * narrowing_e
+                         + (details["j01_diffusion_A_m2"] - emitter_j0) * ratio_b**2 * narrowing_b)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K) \
             * (1.0 + details.get("radiative_rear_factor", 0.0))
@@ -640,6 +665,7 @@ def dark_currents_at(model, circuit, temperature_K):
                              * (1.0 + details["downward_emission_ratio"]))
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
-        bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio
+        bulk_ratio = (ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio) \
+            * np.sqrt(narrowing_b)
         out[cell.name] = (j01, j02, gap, bulk_ratio)
     return out
