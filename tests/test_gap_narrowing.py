@@ -159,3 +159,9 @@ def test_yield_scaling_of_dark_currents_follows_the_narrowing(tmp_path, model):
     assert float(np.ravel(j01)[0]) == pytest.approx(fresh, rel=0.01)
     scaled_ni = np.ravel(cold.element(cell).bulk[4] * bulk_ratio)[0]
     assert scaled_ni == pytest.approx(np.ravel(hot.element(cell).bulk[4])[0], rel=1e-9)
+
+
+def test_gap_narrowing_typo_gets_a_suggestion(tmp_path):
+    with pytest.raises(StackError) as info:
+        load_stack(_stack(tmp_path, 'gap_narrowing = "klassen"'))
+    assert "did you mean 'klaassen'?" in info.value.fix

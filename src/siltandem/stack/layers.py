@@ -418,9 +418,9 @@ def _gap_narrowing(table, material, *, file, where):
     choices = ", ".join(repr(c) for c in GAP_NARROWING_CHOICES)
     if not isinstance(value, str) or value not in GAP_NARROWING_CHOICES:
         close = suggest(value, GAP_NARROWING_CHOICES) if isinstance(value, str) else ""
-        raise StackError(f"gap_narrowing = {value!r} is not a band-gap narrowing model{close}",
+        raise StackError(f"gap_narrowing = {excerpt(value)} is not a band-gap narrowing model",
                          file=file, where=f"{where}, key gap_narrowing",
-                         fix=f"give gap_narrowing as one of {choices}, or remove it (default \"schenk\")")
+                         fix=close + f"give gap_narrowing as one of {choices}, or remove it (default \"schenk\")")
     if material != "Si":
         raise StackError(f"gap_narrowing is given on a {material} layer: only Si layers have a "
                          "band-gap narrowing model", file=file, where=f"{where}, key gap_narrowing",
