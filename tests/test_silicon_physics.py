@@ -238,9 +238,10 @@ def test_emitter_j0_lies_in_the_published_range_with_gap_narrowing(tmp_path, dop
     # published diffused emitters: 20-100 fA/cm^2 (issue 16's range) for a passivated front
     # (S = 1e3 cm/s); without gap narrowing the same emitter gives several times less.
     # The uniform 1e19 layer is lighter than a diffused emitter's surface: since n_i became
-    # 9.65e9 at 300 K (Altermatt et al. 2003) it gives 19.9 fA/cm^2, just under the range's low
-    # end (24.3 with the former 1.07e10); it is held to the range's upper end only, and to lie
-    # below the 3e19 layer. Klaassen's narrowing was not fitted with this n_i (README).
+    # 9.65e9 at 300 K (Altermatt et al. 2003) it gives 19.9 fA/cm^2 with Klaassen's narrowing and
+    # 15.9 with Schenk's (the default since issue 16: 54.8 against 60.5 meV at 1e19), under the
+    # range's low end (24.3 with the former 1.07e10); it is held to the range's upper end only,
+    # and to lie below the 3e19 layer (41.2 fA/cm^2 with Schenk's, 50.8 with Klaassen's).
     from siltandem.laws import collection
 
     path = _stack(tmp_path, doping, "lifetime_ns = 1e6\nsrv_cm_s = 1e3")
@@ -337,8 +338,10 @@ def test_ideal_wafer_reaches_richters_intrinsic_limit(tmp_path):
     # reflects about 2 %, and the Si absorption table is coarser than theirs); Voc +-6 mV
     # (Vt ln(43.3/41.3) = 1.2 mV from the Jsc; the library's ni is Richter's 9.65e9 cm^-3 at
     # 300 K, but Richter's band-gap narrowing of the injected carriers (Schenk 1998) is not
-    # modelled: it lowers their Voc by a few mV, from memory; measured 765.6 mV); FF +-1.0 % abs (the share of radiative
-    # recombination, whose reabsorption is not modelled); efficiency +-1.5 % abs (mostly Jsc)
+    # modelled (only that of the equilibrium densities, the default since issue 16): it lowers their
+    # Voc by a few mV, from memory; measured 765.4 mV, 765.6 with Klaassen's narrowing); FF +-1.0 %
+    # abs (the share of radiative recombination, whose reabsorption is not modelled); efficiency
+    # +-1.5 % abs (mostly Jsc)
     path = tmp_path / "wafer.toml"
     path.write_text(IDEAL_WAFER)
     summary = run_stack(load_stack(path)).summary

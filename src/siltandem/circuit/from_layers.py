@@ -122,6 +122,13 @@ def is_silicon(layer):
     return layer.material == "Si"
 
 
+def _gap_narrowing_eV(layer, temperature_K):
+    """Band-gap narrowing [eV] of a Si layer in equilibrium: its ``gap_narrowing`` model (Schenk
+    1998 by default, Klaassen 1992 on request; laws/silicon.py)."""
+    return float(silicon.doped_gap_narrowing(layer.doping_cm3, layer.polarity, temperature_K=temperature_K,
+                                             model=layer.gap_narrowing or silicon.GAP_NARROWING_MODELS[0]))
+
+
 def _mobility(layer, material, temperature_K):
     """Minority-carrier mobility [m^2/(V s)] of an active layer: Masetti et al. 1983 for Si,
     Caughey-Thomas with Sotoodeh et al. 2000 where the data have the material, else the
@@ -331,7 +338,7 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
     srv_b = (base.srv_cm_s if base.srv_cm_s is not None else DEFAULT_SRV_CM_S) * 1e-2
     emitter_doping = emitter.doping_cm3 * units.PER_CM3_TO_PER_M3
     base_doping = base.doping_cm3 * units.PER_CM3_TO_PER_M3
-    ni_e, ni_b = ((own * float(np.exp(silicon.apparent_gap_narrowing(layer.doping_cm3)
+    ni_e, ni_b = ((own * float(np.exp(_gap_narrowing_eV(layer, temperature_K)
                                       / (2 * BOLTZMANN_EV_K * temperature_K))) if is_silicon(layer) else own)
                   for layer, own in ((emitter, ni_e0), (base, ni_b0)))
     regions = ((emitter_qn, emitter_doping, ni_e, l_e, d_e, srv_e, rad_e, "emitter"),
@@ -539,8 +546,8 @@ def _cell_name(cell, layers, used):
 
 
 def _check_measured_j0(layers, structure, file):
-    """``j0_fA_cm2`` only on a subcell's emitter or base: elsewhere it would be ignored; ``ere``
-    only on the base of a III-V subcell, with no ``j0_fA_cm2`` beside it."""
+    """``j0_fA_cm2`` and ``gap_narrowing`` only on a subcell's emitter or base: elsewhere they would
+    be ignored; ``ere`` only on the base of a III-V subcell, with no ``j0_fA_cm2`` beside it."""
     active, bases = set(), {}
     for kind, info in structure.parts:
         if kind == "subcell":
@@ -552,6 +559,11 @@ def _check_measured_j0(layers, structure, file):
                              "where no saturation current applies", file=file, where=layer.label,
                              fix="move j0_fA_cm2 to the emitter (or the base, for its passivated "
                                  "rear) of a subcell, or remove it")
+        if layer.gap_narrowing is not None and i not in active:
+            raise StackError("gap_narrowing is given on a layer that is no subcell's emitter or base, "
+                             "where no band-gap narrowing is used", file=file,
+                             where=f"{layer.label}, key gap_narrowing",
+                             fix="give gap_narrowing on the Si emitter or base of a subcell, or remove it")
         if layer.ere is None:
             continue
         if i not in bases:
@@ -657,13 +669,27 @@ def device_elements(elements, *, series_ohm_cm2=0.0, shunt_ohm_cm2=np.inf):
     return out
 
 
+def _narrowing_ratio(layer, temperature_K, t0):
+    """exp(dEg(T) / kT - dEg(T0) / kT0) of a Si layer's gap narrowing (n_i,eff^2 at T over its
+    value at the stack's T0, n_i aside), 1 for other layers; of ``temperature_K``'s shape."""
+    t = np.asarray(temperature_K, dtype=float)
+    if not is_silicon(layer):
+        return np.ones_like(t)
+    model = layer.gap_narrowing or silicon.GAP_NARROWING_MODELS[0]
+    now = silicon.doped_gap_narrowing(layer.doping_cm3, layer.polarity, temperature_K=t, model=model)
+    then = _gap_narrowing_eV(layer, t0)
+    return np.exp(now / (BOLTZMANN_EV_K * t) - then / (BOLTZMANN_EV_K * t0))
+
+
 def dark_currents_at(model, circuit, temperature_K):
     """J01, J02, the gap and n_i(T)/n_i(T0) of each layer subcell at other temperatures (arrays of
     temperature's shape; a Si base law's ni,eff scales with the last).
 
     The diffusion J01 scales with ni^2 and J02 with ni (the intrinsic density of the absorber,
     the library's Nc Nv T^1.5 law and Varshni gap); the two-sided radiative floor is added again
-    at each temperature. Diffusion lengths, lifetimes and mobilities stay at the stack's values.
+    at each temperature. A Si emitter's or base's n_i,eff^2 also follows exp(dEg(T) / kT) of its
+    gap narrowing (Schenk's depends on T; Klaassen's does not, but kT does). Diffusion lengths,
+    lifetimes and mobilities stay at the stack's values.
     """
     out = {}
     t0 = model.temperature_K
@@ -682,6 +708,17 @@ def dark_currents_at(model, circuit, temperature_K):
             base = details["j01_base_A_m2"]
             diffusion = ((details["j01_diffusion_A_m2"] - base) * ni_ratio(model.materials[cell_model.emitter])**2
                          + base * ni_ratio(model.materials[cell_model.base])**2)
+        emitter_layer, base_layer = model.layers[cell_model.emitter], model.layers[cell_model.base]
+        narrowing_e = _narrowing_ratio(emitter_layer, temperature_K, t0)
+        narrowing_b = _narrowing_ratio(base_layer, temperature_K, t0)
+        if is_silicon(emitter_layer) or is_silicon(base_layer):
+            # Si layers: n_i,eff^2 also carries exp(dEg(T) / kT) of their gap narrowing
+            emitter_j0 = details["j0_emitter_A_m2"]
+            ratio_e, ratio_b = ((ni_ratio(model.materials[cell_model.emitter]),
+                                 ni_ratio(model.materials[cell_model.base])) if cell_model.hetero
+                                else (ratio, ratio))
+            diffusion = (emitter_j0 * ratio_e**2 * narrowing_e
+                         + (details["j01_diffusion_A_m2"] - emitter_j0) * ratio_b**2 * narrowing_b)
         gap = np.asarray(material.gap_eV(temperature_K), dtype=float)
         floor = radiative_saturation_current(gap, temperature_K=temperature_K) \
             * (details.get("radiative_front_factor", 1.0) + details.get("radiative_rear_factor", 0.0))
@@ -696,6 +733,7 @@ def dark_currents_at(model, circuit, temperature_K):
                              * (details.get("radiative_front_factor", 1.0) + details["downward_emission_ratio"]))
         j02 = float(cell.j02_A_m2.reshape(-1)[0]) * ratio
         # the last: the Si base law's n_i ratio (the base's material; the absorber's for one)
-        bulk_ratio = ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio
+        bulk_ratio = (ni_ratio(model.materials[cell_model.base]) if cell_model.hetero else ratio) \
+            * np.sqrt(narrowing_b)
         out[cell.name] = (j01, j02, gap, bulk_ratio)
     return out

@@ -28,7 +28,7 @@ Vj and is no diode: the subcell law carries it beside its J01 and J02 diodes
 """
 import numpy as np
 
-from siltandem.constants import ELEMENTARY_CHARGE_C, thermal_voltage_V
+from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, thermal_voltage_V
 
 #: Richter et al. 2012, table II: (cm^6/s, cm^6/s, cm^-3, cm^-3) and the injection term
 AUGER_EEH_CM6_S = 2.5e-31
@@ -111,15 +111,100 @@ def intrinsic_lifetime(excess_cm3, *, n0_cm3, p0_cm3, temperature_K=300.0):
         excess_cm3, n0_cm3=n0_cm3, p0_cm3=p0_cm3, temperature_K=temperature_K)
 
 
+#: A. Schenk, J. Appl. Phys. 84 (1998) 3684, tables I-III for Si (values from memory; the equations
+#: below agree with an open semiconductor-property library that implements the same paper):
+#: excitonic Rydberg [eV] and Bohr radius [cm], the carrier weights alpha = m_other / (m_e + m_h)
+#: (m_e = 0.321, m_h = 0.346), and per carrier (electron, hole) the fit constants b, c, d, g, p of
+#: the exchange-correlation shift and h, j, k, q of the ionic (carrier-impurity) shift
+SCHENK_RYDBERG_EV = 16.55e-3
+SCHENK_BOHR_RADIUS_CM = 3.719e-7
+SCHENK = {"alpha": (0.5187, 0.4813), "b": (8.0, 1.0), "c": (1.3346, 1.2365), "d": (0.893, 1.153),
+          "g": (12.0, 4.0), "p": (7.0 / 30.0, 7.0 / 30.0), "h": (3.91, 4.20), "j": (2.8585, 2.9307),
+          "k": (0.012, 0.19), "q": (0.75, 0.25)}
+#: the gap-narrowing models a Si layer can take (``gap_narrowing`` layer key); the first is the default
+GAP_NARROWING_MODELS = ("schenk", "klaassen")
+
+
+def schenk_gap_narrowing(electron_cm3, hole_cm3, *, donor_cm3=0.0, acceptor_cm3=0.0,
+                         temperature_K=300.0):
+    """Band-gap narrowing [eV] of Si by A. Schenk, J. Appl. Phys. 84 (1998) 3684 (his closed-form
+    fit to the quantum-mechanical calculation; parameters :data:`SCHENK`, from memory).
+
+    The gap shrinks by the rigid exchange-correlation shift of each band edge, set by the free
+    electrons and holes, plus the ionic shift, set by the ionized dopants screened by those
+    carriers. With densities in units of a_ex^-3 and energies in units of Ry_ex, t = kT / Ry_ex,
+    n_s = n + p, n_p = alpha_e n + alpha_h p, U = n_s^2 / t^3, and for each band a (a = e, h;
+    n_a its carrier density):
+
+        dE_xc,a = -[(4 pi)^3 n_s^2 ((48 n_a / (pi g_a))^(1/3) + c_a ln(1 + d_a n_p^p_a))
+                    + (8 pi alpha_a / g_a) n_a t^2 + sqrt(8 pi n_s) t^(5/2)]
+                  / [(4 pi)^3 n_s^2 + t^3 + b_a sqrt(n_s) t^2 + 40 n_s^(3/2) t]
+        dE_i,a = -(N_D + N_A) (1 + U) / [sqrt(t n_s / 2 pi) (1 + h_a ln(1 + sqrt(n_s) / t))
+                                        + j_a U n_p^(3/4) (1 + k_a n_p^q_a)]
+
+    and dEg = -Ry_ex (dE_xc,e + dE_i,e + dE_xc,h + dE_i,h) > 0. It depends on the carrier densities
+    (so on injection) and on temperature. Schenk's narrowing is the real shift of the band edges,
+    meant for Fermi-Dirac statistics; with Boltzmann statistics (as here) it omits the
+    degeneracy of a heavily doped layer's majority carriers, which would lower n_i,eff further
+    above about 1e19 cm^-3.
+
+    Parameters
+    ----------
+    electron_cm3, hole_cm3 : array_like
+        Free electron and hole densities [cm^-3], >= 0.
+    donor_cm3, acceptor_cm3 : array_like
+        Ionized donor and acceptor densities [cm^-3], >= 0.
+    temperature_K : array_like
+        Temperature [K], > 0.
+    """
+    scale = SCHENK_BOHR_RADIUS_CM ** 3
+    n = np.asarray(electron_cm3, dtype=float) * scale
+    p = np.asarray(hole_cm3, dtype=float) * scale
+    ions = (np.asarray(donor_cm3, dtype=float) + np.asarray(acceptor_cm3, dtype=float)) * scale
+    t = BOLTZMANN_EV_K * np.asarray(temperature_K, dtype=float) / SCHENK_RYDBERG_EV
+    n_s = np.maximum(n + p, 1e-300)
+    n_p = SCHENK["alpha"][0] * n + SCHENK["alpha"][1] * p
+    u = n_s ** 2 / t ** 3
+    four_pi_cubed = (4.0 * np.pi) ** 3
+    total = 0.0
+    for a, carriers in enumerate((n, p)):
+        alpha, b, c, d, g, pw, h, j, k, q = (SCHENK[key][a] for key in "alpha b c d g p h j k q".split())
+        xc = -(four_pi_cubed * n_s ** 2 * ((48.0 * carriers / (np.pi * g)) ** (1.0 / 3.0)
+                                           + c * np.log1p(d * n_p ** pw))
+               + 8.0 * np.pi * alpha / g * carriers * t ** 2 + np.sqrt(8.0 * np.pi * n_s) * t ** 2.5) \
+            / (four_pi_cubed * n_s ** 2 + t ** 3 + b * np.sqrt(n_s) * t ** 2 + 40.0 * n_s ** 1.5 * t)
+        ionic = -ions * (1.0 + u) / (np.sqrt(t * n_s / (2.0 * np.pi)) * (1.0 + h * np.log1p(np.sqrt(n_s) / t))
+                                     + j * u * n_p ** 0.75 * (1.0 + k * n_p ** q))
+        total = total + xc + ionic
+    return -SCHENK_RYDBERG_EV * total
+
+
+def doped_gap_narrowing(doping_cm3, polarity, *, temperature_K, model="schenk"):
+    """Band-gap narrowing [eV] of a Si layer doped ``doping_cm3`` [cm^-3] of type ``polarity``
+    ("n" or "p") in equilibrium at ``temperature_K`` [K]: :func:`schenk_gap_narrowing` with the
+    majority density equal to the (fully ionized) doping and no minority carriers (``model``
+    "schenk"), or Klaassen's apparent narrowing :func:`apparent_gap_narrowing` ("klaassen",
+    no temperature dependence)."""
+    if model == "klaassen":
+        return apparent_gap_narrowing(doping_cm3)
+    if model != "schenk":
+        raise ValueError(f"unknown gap-narrowing model {model!r}: one of {GAP_NARROWING_MODELS}")
+    doping = np.asarray(doping_cm3, dtype=float)
+    donors = doping if polarity == "n" else 0.0 * doping
+    acceptors = doping if polarity == "p" else 0.0 * doping
+    return schenk_gap_narrowing(donors, acceptors, donor_cm3=donors, acceptor_cm3=acceptors,
+                                temperature_K=temperature_K)
+
+
 def apparent_gap_narrowing(doping_cm3):
     """Apparent band-gap narrowing [eV] of n- or p-type Si doped at ``doping_cm3`` [cm^-3].
 
     dEg = 6.92 meV [ln(N / 1.3e17) + sqrt(ln(N / 1.3e17)^2 + 0.5)] (about 61 meV at 1e19 and 92 meV
     at 1e20 cm^-3), the unified apparent narrowing of D. B. M. Klaassen, J. W. Slotboom,
     H. C. de Graaff, Solid-State Electron. 35 (1992) 125 (for Boltzmann statistics, fitted to
-    minority-carrier data of both types; coefficients from memory). It stands in for the
-    quantum-mechanical model of A. Schenk, J. Appl. Phys. 84 (1998) 3684 (not implemented: no
-    injection or temperature dependence here); ni,eff = ni exp(dEg / 2kT).
+    minority-carrier data of both types; coefficients from memory); no injection or temperature
+    dependence. The ``gap_narrowing = "klaassen"`` choice of a Si layer (the default is
+    :func:`schenk_gap_narrowing`); ni,eff = ni exp(dEg / 2kT).
     """
     x = np.log(np.asarray(doping_cm3, dtype=float) / 1.3e17)
     return 6.92e-3 * (x + np.sqrt(x * x + 0.5))

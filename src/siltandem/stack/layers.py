@@ -31,7 +31,7 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
               "transport", "sheet_charge_cm2", "luminescent_coupling", "srh_lifetime_ns",
-              "photon_recycling_factor", "ere", "string"}
+              "photon_recycling_factor", "ere", "string", "gap_narrowing"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -145,6 +145,8 @@ class Layer:
     ere: float | None = None
     #: which string (pair of terminals) the layer belongs to, 1 on the sun side (stack/strings.py)
     string: int = 1
+    #: on a Si layer: its band-gap narrowing model, "schenk" or "klaassen" (None: "schenk")
+    gap_narrowing: str | None = None
 
     @property
     def label(self):
@@ -401,7 +403,30 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                            for key in ("srh_lifetime_ns", "photon_recycling_factor", "ere"))
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
-                 gap, j0, transport, sheet, coupling, srh, recycling, ere)
+                 gap, j0, transport, sheet, coupling, srh, recycling, ere,
+                 gap_narrowing=_gap_narrowing(table, material, file=file, where=where))
+
+
+#: the values of a Si layer's ``gap_narrowing`` key (laws/silicon.py GAP_NARROWING_MODELS)
+GAP_NARROWING_CHOICES = ("schenk", "klaassen")
+
+
+def _gap_narrowing(table, material, *, file, where):
+    """The ``gap_narrowing`` key of a layer: a model name on a Si layer, or None."""
+    if "gap_narrowing" not in table:
+        return None
+    value = table["gap_narrowing"]
+    choices = ", ".join(repr(c) for c in GAP_NARROWING_CHOICES)
+    if not isinstance(value, str) or value not in GAP_NARROWING_CHOICES:
+        close = suggest(value, GAP_NARROWING_CHOICES) if isinstance(value, str) else ""
+        raise StackError(f"gap_narrowing = {excerpt(value)} is not a band-gap narrowing model",
+                         file=file, where=f"{where}, key gap_narrowing",
+                         fix=close + f"give gap_narrowing as one of {choices}, or remove it (default \"schenk\")")
+    if material != "Si":
+        raise StackError(f"gap_narrowing is given on a {material} layer: only Si layers have a "
+                         "band-gap narrowing model", file=file, where=f"{where}, key gap_narrowing",
+                         fix="remove gap_narrowing from this layer")
+    return value
 
 
 def parse_layers(tables, *, file, folder_materials=None):
