@@ -374,3 +374,66 @@ def test_layer_transport_key_is_checked(tmp_path):
     with pytest.raises(StackError) as caught:
         load_stack(path)
     assert "transport = 'fast'" in caught.value.problem and "key transport" in caught.value.where
+
+
+def test_gain_slope_range_holds_every_sampled_slope_and_shrinks_with_the_cell():
+    """gain_slope_range (the mean-value bound on dlnG/dw) against dense sampling of the law's own
+    dlnG/dw over random cells (w, e00, spike depth over the regimes of Padovani-Stratton 1966),
+    and its width -> 0 as the cell shrinks (no outside value: the enclosure property itself)."""
+    rng = np.random.default_rng(18)
+    for _ in range(200):
+        e00 = 10 ** rng.uniform(-2, 0.8)
+        spike = 10 ** rng.uniform(-1, 2.5) if rng.random() < 0.7 else np.inf
+        w_lo = 10 ** rng.uniform(-2, 2.5)
+        w_hi = w_lo * (1 + 10 ** rng.uniform(-6, 0))
+        ws = np.linspace(w_lo, w_hi, 301)
+        log_g, dlog = fe.tunnelling_gain(ws, field_energy=e00, spike_depth=spike, with_derivative=True)
+        low, high = fe.gain_slope_range(w_lo, w_hi, e00, spike, log_g[-1], dlog[0], dlog[-1])
+        assert low <= dlog.min() and dlog.max() <= high, (e00, spike, w_lo, w_hi)
+    # shrinking cells about a point inside each regime: below the spike, above it, no spike
+    for e00, spike, w in ((0.5, 40.0, 10.0), (0.5, 4.0, 10.0), (2.0, np.inf, 30.0), (0.05, 8.0, 3.0)):
+        widths = []
+        for dw in (1e-1, 1e-3, 1e-5):
+            ends = np.array([w, w + dw])
+            log_g, dlog = fe.tunnelling_gain(ends, field_energy=e00, spike_depth=spike, with_derivative=True)
+            low, high = fe.gain_slope_range(ends[0], ends[1], e00, spike, log_g[1], dlog[0], dlog[1])
+            widths.append(high - low)
+        assert widths[0] > widths[1] > widths[2] and widths[2] < 1e-3, widths
+
+
+@pytest.mark.parametrize("include_tail", [False, True])
+def test_slope_range_of_random_laws_holds_sampled_slopes_and_shrinks(include_tail):
+    """field_emission_slope_range over random laws and cells against 41 sampled dJ/dV per cell
+    (the law's own analytic slope); the relative width of the range falls toward 0 as a cell
+    about a fixed voltage shrinks (1e-2 V -> 1e-6 V), which the certificate's refinement needs."""
+    rng = np.random.default_rng(7 + include_tail)
+    n = 300
+    vbi = rng.uniform(0.1, 0.6, n)
+    law = dict(barrier_eV=rng.uniform(0.1, 0.5, n), built_in_V=vbi, alpha=10 ** rng.uniform(-3, 3, n),
+               richardson_A_m2_K2=1.2e6, temperature_K=rng.uniform(250, 400, n),
+               field_energy_eV=10 ** rng.uniform(-3, -1, n),
+               spike_eV=np.where(rng.random(n) < 0.7, rng.uniform(0.02, 0.6, n), np.inf))
+    edge = vbi - (0.03 if include_tail else 0.003)
+    low = rng.uniform(-1.0, 1.0, n) * vbi
+    low = np.minimum(low, edge - 1e-3)
+    high = np.minimum(low + 10 ** rng.uniform(-5, -1, n), edge)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", te.IsotypeDomainWarning)
+        lo, hi = fe.field_emission_slope_range(low, high, include_tail=include_tail, **law)
+        inside = low[:, None] + (high - low)[:, None] * np.linspace(0, 1, 41)[None, :]
+        _, slope = fe.field_emission_current_density(
+            inside, include_tail=include_tail, with_derivative=True,
+            **{k: (np.asarray(v)[:, None] if np.ndim(v) else v) for k, v in law.items()})
+    ok = np.isfinite(lo) & np.isfinite(hi)
+    assert ok.mean() > 0.95
+    assert np.all(slope[ok] >= lo[ok, None]) and np.all(slope[ok] <= hi[ok, None])
+    centre = 0.5 * (low + high)
+    relative = []
+    for dv in (1e-2, 1e-4, 1e-6):
+        a, b = np.minimum(centre, edge - dv), np.minimum(centre, edge - dv) + dv
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", te.IsotypeDomainWarning)
+            lo, hi = fe.field_emission_slope_range(a, b, include_tail=include_tail, **law)
+        relative.append(np.nanmedian((hi - lo) / np.abs(hi)))
+    # about linear in the cell (1e-2 V -> 1e-6 V: 0.64, 0.013, 1.3e-4 measured)
+    assert relative[1] < relative[0] / 10 and relative[2] < relative[1] / 10 and relative[2] < 1e-3, relative

@@ -42,7 +42,7 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.field_emission import gain_point, rtsafe_step  # noqa: E402
+from siltandem.laws.field_emission import gain_point, gain_slope_range, rtsafe_step  # noqa: E402
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]
@@ -435,6 +435,28 @@ def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, s
     return smallest - 1e-12 * abs(smallest), largest + 1e-12 * abs(largest)
 
 
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p):
+    """laws/field_emission.py field_emission_slope_range (kT/q tail and plain forms; ends a: low
+    V, b: high V): Vt dJ/dV = P e^x G [1 + q (e^v - 1)(1 - L)], q = A/(1 + A), L in the range of
+    field_emission.gain_slope_range over the cell's w."""
+    w_a, w_b = _bending_terms(p[1], x_a)[0], _bending_terms(p[1], x_b)[0]
+    l_a, l_b = _gain(w_a, p)[1], _gain(w_b, p)[1]
+    l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, l_b, l_a)
+    q_lo, q_hi = a_b / (1.0 + a_b), a_a / (1.0 + a_a)
+    qm_lo, qm_hi = q_lo * (1.0 - l_max), q_hi * (1.0 - l_min)
+    bracket_min, bracket_max = math.inf, -math.inf
+    for u in (e_a - 1.0, e_b - 1.0):
+        for m in (qm_lo, qm_hi):
+            bracket_min = min(bracket_min, 1.0 + u * m)
+            bracket_max = max(bracket_max, 1.0 + u * m)
+    low_scale = scale * math.exp(x_b + g_b)
+    high_scale = scale * math.exp(x_a + g_a)
+    smallest = (low_scale if bracket_min >= 0.0 else high_scale) * bracket_min
+    largest = (high_scale if bracket_max >= 0.0 else low_scale) * bracket_max
+    return smallest - 1e-12 * abs(smallest), largest + 1e-12 * abs(largest)
+
+
 @numba.njit(cache=True, error_model="numpy")
 def isotype_slope_range(v_low, v_high, p):
     """Smallest and largest dJ/dV [A m^-2 V^-1] of the law with row p over [v_low, v_high] [V]:
@@ -449,11 +471,7 @@ def isotype_slope_range(v_low, v_high, p):
     if p[5] != 0.0 and p[4] == 2.0:
         return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale)
     if p[5] != 0.0:
-        low_scale = scale * math.exp(x_b + g_b)
-        high_scale = scale * math.exp(x_a + g_a)
-        smallest = low_scale * (1.0 + a_b * min(1.0, e_a)) / (1.0 + a_a)
-        largest = high_scale * (1.0 + a_a * max(1.0, e_b)) / (1.0 + a_b)
-        return smallest * (1.0 - 1e-12), largest * (1.0 + 1e-12)
+        return _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p)
     # the weight q = A / (A + s) (s = 1 for the closed forms) lies between these two ends
     root = math.sqrt(p[1])
     total_min, total_max = a_b + s_a, a_a + s_b
