@@ -161,7 +161,7 @@ def _exponent_point(e, w, e00):
 def _level_point(start, bound, w, e00, target):
     """Newton steps on f(e) = target from ``start`` toward ``bound`` (f concave: the iterates
     approach the root monotonically from outside and never pass it, so a point not fully
-    converged still lies outside the level and the panels still cover the integrand)."""
+    converged still lies outside the level and the panels still cover the integrand))."""
     x, lo, hi = start, min(start, bound), max(start, bound)
     for _ in range(_NEWTON_STEPS):
         f, slope = _exponent_point(x, w, e00)
@@ -197,11 +197,12 @@ def _gain_point(w, e00, spike, nodes, weights):
             continue
         for j in range(nodes.size):
             e = mid + half * nodes[j]
-            f = _exponent_point(e, w, e00)[0]
+            s = min(math.sqrt(max(e, 0.0) / w), _S_MAX)
+            t = math.atanh(s)
+            f = e - (w / e00) * (s - (1.0 - s) * (1.0 + s) * t)     # _exponent_point, inlined
             weight = half * weights[j] * math.exp(f - f_peak)
-            s = min(math.sqrt(e / w), _S_MAX)
             integral += weight
-            d_integral += weight * (math.atanh(s) - s) / e00   # -d theta/dw at fixed e
+            d_integral += weight * (t - s) / e00                  # -d theta/dw at fixed e
     if w < spike:                          # the range ends at the parabola's vertex
         d_integral += math.exp(w - w / e00 - f_peak)
     log_integral = f_peak + math.log(integral)
