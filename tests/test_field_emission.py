@@ -339,6 +339,38 @@ def test_materials_form_with_thermionic_field_is_transparent_where_thermionic_bl
     assert 0 < default["drop_at_mpp_V"] < 0.005
 
 
+def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
+    """transport = "thermionic" on the materials form builds the thermionic law on the exact
+    Boltzmann depletion side (laws/thermionic.py, itself checked against mpmath): the element's
+    current and inverse equal that law's on the element's numbers exactly (numpy path); a sheet
+    charge keeps thermionic emission (the thermionic-field law has none)."""
+    from siltandem.circuit.isotype import isotype_from_materials
+    from siltandem.stack.load import ElementSpec
+
+    values = dict(upper_material="GaP", lower_material="Si", upper_doping_cm3=1e19,
+                  lower_doping_cm3=1e19, carrier="hole", carriers_flow="down")
+    plain = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"transport": "thermionic"}),
+                                   300.0, None)
+    charged = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"sheet_charge_cm2": 1e11}),
+                                     300.0, None)
+    assert plain.transport == "thermionic" and plain.depletion == "exact"
+    assert charged.transport == "thermionic"
+    law = dict(barrier_eV=plain.barrier_eV, built_in_V=plain.built_in_V, alpha=plain.alpha,
+               richardson_A_m2_K2=plain.richardson_A_m2_K2, temperature_K=300.0, depletion="exact")
+    volts = np.linspace(-1.0, 0.9, 41)[None, :]
+    currents = np.array([[-200.0, 1.0, 200.0]])
+    elements.COMPILED_ISOTYPE = False
+    try:
+        j, slope = plain.law_current(volts, 300.0)
+        v, dv = plain.voltage(currents, 300.0)
+    finally:
+        elements.COMPILED_ISOTYPE = True
+    j_ref, slope_ref = te.isotype_current_density(volts, with_derivative=True, **law)
+    v_ref, dv_ref = te.isotype_voltage(plain.direction * currents, with_derivative=True, **law)
+    assert np.array_equal(j, j_ref) and np.array_equal(slope, slope_ref)
+    assert np.array_equal(v, -plain.direction * v_ref) and np.array_equal(dv, -dv_ref)
+
+
 def test_numbers_form_keeps_thermionic_unless_asked(tmp_path):
     assert summary(tmp_path, NUMBERS)["interfaces"][0]["transport"] == "thermionic"
     asked = summary(tmp_path, NUMBERS + 'transport = "thermionic-field"\ntunnelling_mass = 0.2\n')
