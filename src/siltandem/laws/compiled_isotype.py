@@ -413,16 +413,20 @@ def _end(voltage, p):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale):
+def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p):
     """The slope range of thermionic-field emission on the exact depletion side (ends a: low V,
     b: high V). Vt dJ/dV = P e^x G [1 + (e^v - 1)(q - L h)], q = A/(A + s), h = A s/(A + s),
-    L = dlnG/dw in [0, 1] (laws/field_emission.py): e^x G, A, s and h fall as V rises, q lies
-    between A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - h_a, q_max], and the
-    bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
+    L = dlnG/dw in the range of field_emission.gain_slope_range over the cell's w (inside
+    [0, 1]): e^x G, A, s and h (rising in A and in s) fall as V rises, q lies between
+    A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - L_max h_a, q_max - L_min h_b],
+    and the bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
+    w_a, w_b = _bending_terms(p[1], x_a)[0], _bending_terms(p[1], x_b)[0]
+    l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, _gain(w_b, p)[1], _gain(w_a, p)[1])
     q_min = a_b / (a_b + s_a) if a_b + s_a > 0.0 else 0.0
     q_max = a_a / (a_a + s_b) if a_a + s_b > 0.0 else 1.0
     h_max = a_a * s_a / (a_a + s_a) if a_a + s_a > 0.0 else 0.0
-    m_lo, m_hi = q_min - h_max, q_max
+    h_min = a_b * s_b / (a_b + s_b) if a_b + s_b > 0.0 else 0.0
+    m_lo, m_hi = q_min - l_max * h_max, q_max - l_min * h_min
     bracket_min, bracket_max = math.inf, -math.inf
     for u in (e_a - 1.0, e_b - 1.0):
         for m in (m_lo, m_hi):
@@ -469,7 +473,7 @@ def isotype_slope_range(v_low, v_high, p):
     x_b, e_b, a_b, s_b, g_b = _end(v_high, p)
     scale = math.exp(p[2]) / p[3]
     if p[5] != 0.0 and p[4] == 2.0:
-        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale)
+        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p)
     if p[5] != 0.0:
         return _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p)
     # the weight q = A / (A + s) (s = 1 for the closed forms) lies between these two ends
