@@ -398,30 +398,32 @@ def isotype_currents(params, voltage):
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _end(voltage, p):
-    """(x, e^v, A = alpha (e^x - 1), s, log G) at a law voltage [V] (x NaN outside the domain)."""
+    """(x, e^v, A = alpha (e^x - 1), s, log G, w, dlnG/dw) at a law voltage [V] (x NaN outside
+    the domain)."""
     v = voltage / p[3]
     vb = p[0] - v
     form = p[4]
     tail = form if form < 2.0 else 0.0
     if not (vb >= tail - 1e-12) or not math.isfinite(vb):
-        return math.nan, math.nan, math.nan, math.nan, math.nan
+        return math.nan, math.nan, math.nan, math.nan, math.nan, math.nan, math.nan
     vb = max(vb, tail)
     x = split(vb, p)
     w, a_em1 = _bending_terms(p[1], x)
     s = _g_minus(max(vb - x, 0.0))[1] if form == 2.0 else 1.0
-    return x, math.exp(v), a_em1, s, _gain(w, p)[0]
+    log_g, dlog = _gain(w, p)
+    return x, math.exp(v), a_em1, s, log_g, w, dlog
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p):
+def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p, w_a, w_b, l_a,
+                             l_b):
     """The slope range of thermionic-field emission on the exact depletion side (ends a: low V,
     b: high V). Vt dJ/dV = P e^x G [1 + (e^v - 1)(q - L h)], q = A/(A + s), h = A s/(A + s),
     L = dlnG/dw in the range of field_emission.gain_slope_range over the cell's w (inside
     [0, 1]): e^x G, A, s and h (rising in A and in s) fall as V rises, q lies between
     A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - L_max h_a, q_max - L_min h_b],
     and the bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
-    w_a, w_b = _bending_terms(p[1], x_a)[0], _bending_terms(p[1], x_b)[0]
-    l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, _gain(w_b, p)[1], _gain(w_a, p)[1])
+    l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, l_b, l_a)
     q_min = a_b / (a_b + s_a) if a_b + s_a > 0.0 else 0.0
     q_max = a_a / (a_a + s_b) if a_a + s_b > 0.0 else 1.0
     h_max = a_a * s_a / (a_a + s_a) if a_a + s_a > 0.0 else 0.0
@@ -440,12 +442,10 @@ def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, s
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p):
+def _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p, w_a, w_b, l_a, l_b):
     """laws/field_emission.py field_emission_slope_range (kT/q tail and plain forms; ends a: low
     V, b: high V): Vt dJ/dV = P e^x G [1 + q (e^v - 1)(1 - L)], q = A/(1 + A), L in the range of
     field_emission.gain_slope_range over the cell's w."""
-    w_a, w_b = _bending_terms(p[1], x_a)[0], _bending_terms(p[1], x_b)[0]
-    l_a, l_b = _gain(w_a, p)[1], _gain(w_b, p)[1]
     l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, l_b, l_a)
     q_lo, q_hi = a_b / (1.0 + a_b), a_a / (1.0 + a_a)
     qm_lo, qm_hi = q_lo * (1.0 - l_max), q_hi * (1.0 - l_min)
@@ -469,13 +469,14 @@ def isotype_slope_range(v_low, v_high, p):
     slope's bracket is monotone in each, so its extremes lie at the corners) and of
     laws/field_emission.py field_emission_slope_range (thermionic-field emission, whose bracket is
     linear in dlnG/dw in [0, 1]). NaN where an end lies outside the domain."""
-    x_a, e_a, a_a, s_a, g_a = _end(v_low, p)       # low V: the larger bending
-    x_b, e_b, a_b, s_b, g_b = _end(v_high, p)
+    x_a, e_a, a_a, s_a, g_a, w_a, l_a = _end(v_low, p)       # low V: the larger bending
+    x_b, e_b, a_b, s_b, g_b, w_b, l_b = _end(v_high, p)
     scale = math.exp(p[2]) / p[3]
     if p[5] != 0.0 and p[4] == 2.0:
-        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p)
+        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p,
+                                        w_a, w_b, l_a, l_b)
     if p[5] != 0.0:
-        return _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p)
+        return _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p, w_a, w_b, l_a, l_b)
     # the weight q = A / (A + s) (s = 1 for the closed forms) lies between these two ends
     root = math.sqrt(p[1])
     total_min, total_max = a_b + s_a, a_a + s_b
