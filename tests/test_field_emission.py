@@ -339,6 +339,38 @@ def test_materials_form_with_thermionic_field_is_transparent_where_thermionic_bl
     assert 0 < default["drop_at_mpp_V"] < 0.005
 
 
+def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
+    """transport = "thermionic" on the materials form builds the thermionic law on the exact
+    Boltzmann depletion side (laws/thermionic.py, itself checked against mpmath): the element's
+    current and inverse equal that law's on the element's numbers exactly (numpy path); a sheet
+    charge keeps thermionic emission (the thermionic-field law has none)."""
+    from siltandem.circuit.isotype import isotype_from_materials
+    from siltandem.stack.load import ElementSpec
+
+    values = dict(upper_material="GaP", lower_material="Si", upper_doping_cm3=1e19,
+                  lower_doping_cm3=1e19, carrier="hole", carriers_flow="down")
+    plain = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"transport": "thermionic"}),
+                                   300.0, None)
+    charged = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"sheet_charge_cm2": 1e11}),
+                                     300.0, None)
+    assert plain.transport == "thermionic" and plain.depletion == "exact"
+    assert charged.transport == "thermionic"
+    law = dict(barrier_eV=plain.barrier_eV, built_in_V=plain.built_in_V, alpha=plain.alpha,
+               richardson_A_m2_K2=plain.richardson_A_m2_K2, temperature_K=300.0, depletion="exact")
+    volts = np.linspace(-1.0, 0.9, 41)[None, :]
+    currents = np.array([[-200.0, 1.0, 200.0]])
+    elements.COMPILED_ISOTYPE = False
+    try:
+        j, slope = plain.law_current(volts, 300.0)
+        v, dv = plain.voltage(currents, 300.0)
+    finally:
+        elements.COMPILED_ISOTYPE = True
+    j_ref, slope_ref = te.isotype_current_density(volts, with_derivative=True, **law)
+    v_ref, dv_ref = te.isotype_voltage(plain.direction * currents, with_derivative=True, **law)
+    assert np.array_equal(j, j_ref) and np.array_equal(slope, slope_ref)
+    assert np.array_equal(v, -plain.direction * v_ref) and np.array_equal(dv, -dv_ref)
+
+
 def test_numbers_form_keeps_thermionic_unless_asked(tmp_path):
     assert summary(tmp_path, NUMBERS)["interfaces"][0]["transport"] == "thermionic"
     asked = summary(tmp_path, NUMBERS + 'transport = "thermionic-field"\ntunnelling_mass = 0.2\n')
@@ -374,3 +406,66 @@ def test_layer_transport_key_is_checked(tmp_path):
     with pytest.raises(StackError) as caught:
         load_stack(path)
     assert "transport = 'fast'" in caught.value.problem and "key transport" in caught.value.where
+
+
+def test_gain_slope_range_holds_every_sampled_slope_and_shrinks_with_the_cell():
+    """gain_slope_range (the mean-value bound on dlnG/dw) against dense sampling of the law's own
+    dlnG/dw over random cells (w, e00, spike depth over the regimes of Padovani-Stratton 1966),
+    and its width -> 0 as the cell shrinks (no outside value: the enclosure property itself)."""
+    rng = np.random.default_rng(18)
+    for _ in range(200):
+        e00 = 10 ** rng.uniform(-2, 0.8)
+        spike = 10 ** rng.uniform(-1, 2.5) if rng.random() < 0.7 else np.inf
+        w_lo = 10 ** rng.uniform(-2, 2.5)
+        w_hi = w_lo * (1 + 10 ** rng.uniform(-6, 0))
+        ws = np.linspace(w_lo, w_hi, 301)
+        log_g, dlog = fe.tunnelling_gain(ws, field_energy=e00, spike_depth=spike, with_derivative=True)
+        low, high = fe.gain_slope_range(w_lo, w_hi, e00, spike, log_g[-1], dlog[0], dlog[-1])
+        assert low <= dlog.min() and dlog.max() <= high, (e00, spike, w_lo, w_hi)
+    # shrinking cells about a point inside each regime: below the spike, above it, no spike
+    for e00, spike, w in ((0.5, 40.0, 10.0), (0.5, 4.0, 10.0), (2.0, np.inf, 30.0), (0.05, 8.0, 3.0)):
+        widths = []
+        for dw in (1e-1, 1e-3, 1e-5):
+            ends = np.array([w, w + dw])
+            log_g, dlog = fe.tunnelling_gain(ends, field_energy=e00, spike_depth=spike, with_derivative=True)
+            low, high = fe.gain_slope_range(ends[0], ends[1], e00, spike, log_g[1], dlog[0], dlog[1])
+            widths.append(high - low)
+        assert widths[0] > widths[1] > widths[2] and widths[2] < 1e-3, widths
+
+
+@pytest.mark.parametrize("include_tail", [False, True])
+def test_slope_range_of_random_laws_holds_sampled_slopes_and_shrinks(include_tail):
+    """field_emission_slope_range over random laws and cells against 41 sampled dJ/dV per cell
+    (the law's own analytic slope); the relative width of the range falls toward 0 as a cell
+    about a fixed voltage shrinks (1e-2 V -> 1e-6 V), which the certificate's refinement needs."""
+    rng = np.random.default_rng(7 + include_tail)
+    n = 300
+    vbi = rng.uniform(0.1, 0.6, n)
+    law = dict(barrier_eV=rng.uniform(0.1, 0.5, n), built_in_V=vbi, alpha=10 ** rng.uniform(-3, 3, n),
+               richardson_A_m2_K2=1.2e6, temperature_K=rng.uniform(250, 400, n),
+               field_energy_eV=10 ** rng.uniform(-3, -1, n),
+               spike_eV=np.where(rng.random(n) < 0.7, rng.uniform(0.02, 0.6, n), np.inf))
+    edge = vbi - (0.03 if include_tail else 0.003)
+    low = rng.uniform(-1.0, 1.0, n) * vbi
+    low = np.minimum(low, edge - 1e-3)
+    high = np.minimum(low + 10 ** rng.uniform(-5, -1, n), edge)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", te.IsotypeDomainWarning)
+        lo, hi = fe.field_emission_slope_range(low, high, include_tail=include_tail, **law)
+        inside = low[:, None] + (high - low)[:, None] * np.linspace(0, 1, 41)[None, :]
+        _, slope = fe.field_emission_current_density(
+            inside, include_tail=include_tail, with_derivative=True,
+            **{k: (np.asarray(v)[:, None] if np.ndim(v) else v) for k, v in law.items()})
+    ok = np.isfinite(lo) & np.isfinite(hi)
+    assert ok.mean() > 0.95
+    assert np.all(slope[ok] >= lo[ok, None]) and np.all(slope[ok] <= hi[ok, None])
+    centre = 0.5 * (low + high)
+    relative = []
+    for dv in (1e-2, 1e-4, 1e-6):
+        a, b = np.minimum(centre, edge - dv), np.minimum(centre, edge - dv) + dv
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", te.IsotypeDomainWarning)
+            lo, hi = fe.field_emission_slope_range(a, b, include_tail=include_tail, **law)
+        relative.append(np.nanmedian((hi - lo) / np.abs(hi)))
+    # about linear in the cell (1e-2 V -> 1e-6 V: 0.64, 0.013, 1.3e-4 measured)
+    assert relative[1] < relative[0] / 10 and relative[2] < relative[1] / 10 and relative[2] < 1e-3, relative

@@ -42,7 +42,7 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.field_emission import gain_point, rtsafe_step  # noqa: E402
+from siltandem.laws.field_emission import gain_point, gain_slope_range, rtsafe_step  # noqa: E402
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]
@@ -398,37 +398,63 @@ def isotype_currents(params, voltage):
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _end(voltage, p):
-    """(x, e^v, A = alpha (e^x - 1), s, log G) at a law voltage [V] (x NaN outside the domain)."""
+    """(x, e^v, A = alpha (e^x - 1), s, log G, w, dlnG/dw) at a law voltage [V] (x NaN outside
+    the domain)."""
     v = voltage / p[3]
     vb = p[0] - v
     form = p[4]
     tail = form if form < 2.0 else 0.0
     if not (vb >= tail - 1e-12) or not math.isfinite(vb):
-        return math.nan, math.nan, math.nan, math.nan, math.nan
+        return math.nan, math.nan, math.nan, math.nan, math.nan, math.nan, math.nan
     vb = max(vb, tail)
     x = split(vb, p)
     w, a_em1 = _bending_terms(p[1], x)
     s = _g_minus(max(vb - x, 0.0))[1] if form == 2.0 else 1.0
-    return x, math.exp(v), a_em1, s, _gain(w, p)[0]
+    log_g, dlog = _gain(w, p)
+    return x, math.exp(v), a_em1, s, log_g, w, dlog
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale):
+def _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p, w_a, w_b, l_a,
+                             l_b):
     """The slope range of thermionic-field emission on the exact depletion side (ends a: low V,
     b: high V). Vt dJ/dV = P e^x G [1 + (e^v - 1)(q - L h)], q = A/(A + s), h = A s/(A + s),
-    L = dlnG/dw in [0, 1] (laws/field_emission.py): e^x G, A, s and h fall as V rises, q lies
-    between A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - h_a, q_max], and the
-    bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
+    L = dlnG/dw in the range of field_emission.gain_slope_range over the cell's w (inside
+    [0, 1]): e^x G, A, s and h (rising in A and in s) fall as V rises, q lies between
+    A_b/(A_b + s_a) and A_a/(A_a + s_b), so q - L h lies in [q_min - L_max h_a, q_max - L_min h_b],
+    and the bracket, bilinear in (e^v - 1) and (q - L h), takes its extremes at the corners."""
+    l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, l_b, l_a)
     q_min = a_b / (a_b + s_a) if a_b + s_a > 0.0 else 0.0
     q_max = a_a / (a_a + s_b) if a_a + s_b > 0.0 else 1.0
     h_max = a_a * s_a / (a_a + s_a) if a_a + s_a > 0.0 else 0.0
-    m_lo, m_hi = q_min - h_max, q_max
+    h_min = a_b * s_b / (a_b + s_b) if a_b + s_b > 0.0 else 0.0
+    m_lo, m_hi = q_min - l_max * h_max, q_max - l_min * h_min
     bracket_min, bracket_max = math.inf, -math.inf
     for u in (e_a - 1.0, e_b - 1.0):
         for m in (m_lo, m_hi):
             bracket_min = min(bracket_min, 1.0 + u * m)
             bracket_max = max(bracket_max, 1.0 + u * m)
     low_scale = scale * math.exp(x_b + g_b)      # e^x G at high V: the smaller
+    high_scale = scale * math.exp(x_a + g_a)
+    smallest = (low_scale if bracket_min >= 0.0 else high_scale) * bracket_min
+    largest = (high_scale if bracket_max >= 0.0 else low_scale) * bracket_max
+    return smallest - 1e-12 * abs(smallest), largest + 1e-12 * abs(largest)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p, w_a, w_b, l_a, l_b):
+    """laws/field_emission.py field_emission_slope_range (kT/q tail and plain forms; ends a: low
+    V, b: high V): Vt dJ/dV = P e^x G [1 + q (e^v - 1)(1 - L)], q = A/(1 + A), L in the range of
+    field_emission.gain_slope_range over the cell's w."""
+    l_min, l_max = gain_slope_range(w_b, w_a, p[6], p[7], g_a, l_b, l_a)
+    q_lo, q_hi = a_b / (1.0 + a_b), a_a / (1.0 + a_a)
+    qm_lo, qm_hi = q_lo * (1.0 - l_max), q_hi * (1.0 - l_min)
+    bracket_min, bracket_max = math.inf, -math.inf
+    for u in (e_a - 1.0, e_b - 1.0):
+        for m in (qm_lo, qm_hi):
+            bracket_min = min(bracket_min, 1.0 + u * m)
+            bracket_max = max(bracket_max, 1.0 + u * m)
+    low_scale = scale * math.exp(x_b + g_b)
     high_scale = scale * math.exp(x_a + g_a)
     smallest = (low_scale if bracket_min >= 0.0 else high_scale) * bracket_min
     largest = (high_scale if bracket_max >= 0.0 else low_scale) * bracket_max
@@ -443,17 +469,14 @@ def isotype_slope_range(v_low, v_high, p):
     slope's bracket is monotone in each, so its extremes lie at the corners) and of
     laws/field_emission.py field_emission_slope_range (thermionic-field emission, whose bracket is
     linear in dlnG/dw in [0, 1]). NaN where an end lies outside the domain."""
-    x_a, e_a, a_a, s_a, g_a = _end(v_low, p)       # low V: the larger bending
-    x_b, e_b, a_b, s_b, g_b = _end(v_high, p)
+    x_a, e_a, a_a, s_a, g_a, w_a, l_a = _end(v_low, p)       # low V: the larger bending
+    x_b, e_b, a_b, s_b, g_b, w_b, l_b = _end(v_high, p)
     scale = math.exp(p[2]) / p[3]
     if p[5] != 0.0 and p[4] == 2.0:
-        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale)
+        return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p,
+                                        w_a, w_b, l_a, l_b)
     if p[5] != 0.0:
-        low_scale = scale * math.exp(x_b + g_b)
-        high_scale = scale * math.exp(x_a + g_a)
-        smallest = low_scale * (1.0 + a_b * min(1.0, e_a)) / (1.0 + a_a)
-        largest = high_scale * (1.0 + a_a * max(1.0, e_b)) / (1.0 + a_b)
-        return smallest * (1.0 - 1e-12), largest * (1.0 + 1e-12)
+        return _field_slope_range(x_a, e_a, a_a, g_a, x_b, e_b, a_b, g_b, scale, p, w_a, w_b, l_a, l_b)
     # the weight q = A / (A + s) (s = 1 for the closed forms) lies between these two ends
     root = math.sqrt(p[1])
     total_min, total_max = a_b + s_a, a_a + s_b

@@ -161,7 +161,7 @@ def _exponent_point(e, w, e00):
 def _level_point(start, bound, w, e00, target):
     """Newton steps on f(e) = target from ``start`` toward ``bound`` (f concave: the iterates
     approach the root monotonically from outside and never pass it, so a point not fully
-    converged still lies outside the level and the panels still cover the integrand)."""
+    converged still lies outside the level and the panels still cover the integrand))."""
     x, lo, hi = start, min(start, bound), max(start, bound)
     for _ in range(_NEWTON_STEPS):
         f, slope = _exponent_point(x, w, e00)
@@ -197,11 +197,12 @@ def _gain_point(w, e00, spike, nodes, weights):
             continue
         for j in range(nodes.size):
             e = mid + half * nodes[j]
-            f = _exponent_point(e, w, e00)[0]
+            s = min(math.sqrt(max(e, 0.0) / w), _S_MAX)
+            t = math.atanh(s)
+            f = e - (w / e00) * (s - (1.0 - s) * (1.0 + s) * t)     # _exponent_point, inlined
             weight = half * weights[j] * math.exp(f - f_peak)
-            s = min(math.sqrt(e / w), _S_MAX)
             integral += weight
-            d_integral += weight * (math.atanh(s) - s) / e00   # -d theta/dw at fixed e
+            d_integral += weight * (t - s) / e00                  # -d theta/dw at fixed e
     if w < spike:                          # the range ends at the parabola's vertex
         d_integral += math.exp(w - w / e00 - f_peak)
     log_integral = f_peak + math.log(integral)
@@ -226,6 +227,67 @@ def _gain_kernel(w_all, e00_all, spike_all, nodes, weights, log_out, dlog_out):
     array overhead, and the inverse calls it many times per solve)."""
     for i in range(w_all.size):
         log_out[i], dlog_out[i] = _gain_point(w_all[i], e00_all[i], spike_all[i], nodes, weights)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def gain_slope_range(w_lo, w_hi, e00, spike, log_gain_hi, slope_at_lo, slope_at_hi):
+    """Range [L_min, L_max] of L = dlnG/dw (reduced) over w in [w_lo, w_hi] that shrinks to the
+    point with the cell: the ends' values and a bound M on |dL/dw| there give
+    L in [(L_lo + L_hi - M dw)/2, (L_lo + L_hi + M dw)/2] (mean-value theorem from both ends),
+    intersected with [0, 1] (the bound of `field_emission_slope_range`).
+
+    With I = G - 1 = e^lam and sigma = I/(1 + I) (rising with w: L >= 0), L = sigma lam' and
+    dL/dw = sigma (1 - sigma) lam'^2 + sigma lam''. The derivatives of lam = ln I are those of a
+    log-partition function (cumulants: R. S. Ellis, Entropy, Large Deviations and Statistical
+    Mechanics, Springer 1985, ch. II), the variance bounded by a quarter of the squared range
+    (T. Popoviciu 1935):
+
+    * below the spike (w <= S, the range ends at the parabola's vertex): e = w u gives
+      I = w int_0^1 exp(w phi(u)) du, phi(u) = u - g(sqrt u)/e00, concave on [0, 1] with its
+      maximum at u = tanh^2 e00, its minimum min(0, 1 - 1/e00) at an end; so
+      lam' = 1/w + E[phi] and lam'' = -1/w^2 + Var[phi];
+    * above it (w >= S): I = int_0^S exp(psi(e, w)) de, psi_w = (atanh s - s)/e00 in
+      [0, (atanh s_m - s_m)/e00], psi_ww = -s^3 / (2 w e00 (1 - s^2)), s = sqrt(e/w) <= s_m =
+      sqrt(S/w_lo); lam' = E[psi_w], lam'' = E[psi_ww] + Var[psi_w].
+
+    A cell that straddles w = S (where the range's end switches from the vertex to the spike) or
+    reaches w = 0 or S from above takes [0, 1]. The bound is proven for the exact integral; the
+    ends' L come from the fixed quadrature, and the range is padded by 1e-9 only. The quadrature's
+    own error in L is not bounded by that pad (moving its panel edges by a quarter of a level
+    changes L by up to 3e-4 in places); what the certificate needs is that the computed L, a
+    smooth function of w (a fixed number of Newton steps and nodes), obeys the bound, which
+    dense sampling of it checks (tests/test_field_emission.py, tests/test_compiled_isotype.py)."""
+    if not (w_lo >= 0.0 and w_hi >= w_lo and math.isfinite(w_hi)):
+        return math.nan, math.nan
+    if not (spike > 0.0 and e00 > 0.0 and w_hi > 0.0):
+        return 0.0, 0.0                                      # G = 1: L = 0
+    sigma = -math.expm1(-log_gain_hi)                        # sigma at w_hi, its largest
+    if w_hi < spike and w_lo > 0.0:
+        t = math.tanh(e00)
+        phi_max = t * t - (t - (1.0 - t) * (1.0 + t) * math.atanh(min(t, _S_MAX))) / e00
+        phi_min = min(0.0, 1.0 - 1.0 / e00)
+        first = max(abs(1.0 / w_hi + phi_min), abs(1.0 / w_lo + phi_max))
+        second = max(1.0 / (w_lo * w_lo), 0.25 * (phi_max - phi_min) ** 2)
+    elif w_lo > spike:
+        s_m = math.sqrt(spike / w_lo)
+        psi_w = (math.atanh(s_m) - s_m) / e00
+        first = psi_w
+        second = max(s_m ** 3 / (2.0 * w_lo * e00 * (1.0 - s_m) * (1.0 + s_m)), 0.25 * psi_w * psi_w)
+    else:
+        return 0.0, 1.0
+    bound = min(0.25, sigma) * first * first + sigma * second
+    mid, half = 0.5 * (slope_at_lo + slope_at_hi), 0.5 * bound * (w_hi - w_lo)
+    if not math.isfinite(half):
+        return 0.0, 1.0
+    return max(mid - half - 1e-9, 0.0), min(mid + half + 1e-9, 1.0)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _gain_slope_kernel(w_lo, w_hi, e00, spike, log_gain_hi, slope_at_lo, slope_at_hi, low, high):
+    """`gain_slope_range` over flat arrays."""
+    for i in range(w_lo.size):
+        low[i], high[i] = gain_slope_range(w_lo[i], w_hi[i], e00[i], spike[i], log_gain_hi[i],
+                                           slope_at_lo[i], slope_at_hi[i])
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -437,14 +499,13 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
     """Smallest and largest dJ/dV [A m^-2 V^-1] of `field_emission_current_density` between two
     voltages (arrays, v_low <= v_high, inside the domain), for the certificate (solve/certificate.py).
 
-    dJ/dV = (P/Vt) e^v1 G [1 + A (e^v (1 - L) + L)] / (1 + A), A = alpha (e^v1 - 1), L = dlnG/dw.
-    e^v1 G and A rise with v1, which falls as V rises, so they lie between their values at the
-    ends; e^v rises with V; the bracket is linear in L, and 0 <= L <= 1 (at the exponent's maximum
-    L = (atanh s* - s*)/e00 < 1 with s* = tanh e00, or 1 - 1/e00 where the vertex cuts it off;
-    tests/test_field_emission.py checks 0 <= L <= 1 on a grid of w and e00), so over the cell
-    the bracket lies between 1 + A_lo min(1, e^v_lo) and 1 + A_hi max(1, e^v_hi). An enclosure
-    on that condition, wider than the thermionic law's (it does not shrink to a point with the
-    cell: the certificate's corner bound and refinement close the gap).
+    dJ/dV = (P/Vt) e^v1 G [1 + q (e^v - 1)(1 - L)], q = A/(1 + A), A = alpha (e^v1 - 1),
+    L = dlnG/dw. e^v1 G and q rise with v1, which falls as V rises, so they lie between their
+    values at the ends; e^v - 1 rises with V; L lies in the range of `gain_slope_range` over the
+    cell's w (w rises with v1), which shrinks to a point with the cell (0 <= L <= 1 where that
+    range is not available: tests/test_field_emission.py checks it on a grid of w and e00). The
+    bracket is a product of three intervals (R. E. Moore, R. B. Kearfott, M. J. Cloud,
+    Introduction to Interval Analysis, SIAM 2009, ch. 2), q and 1 - L >= 0.
     """
     tail = 1.0 if include_tail else 0.0
     lows, highs = np.broadcast_arrays(np.asarray(v_low_V, float), np.asarray(v_high_V, float))
@@ -454,18 +515,25 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
     v = both / vt
     v1, _ = te.accumulation_bending(vbi - v, alpha_f, tail)
     _, a_em1, a_g = te.alpha_terms(alpha_f, v1)
-    log_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike)
+    log_g, dlog_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike, with_derivative=True)
     half = both.size // 2
+    lo, hi = slice(None, half), slice(half, None)          # low V (larger w), high V ends
+    l_min, l_max = np.empty(half), np.empty(half)
+    _gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
+        a_g[hi], a_g[lo], e00[lo], spike[lo], log_g[lo], dlog_g[hi], dlog_g[lo])), l_min, l_max)
     with np.errstate(over="ignore", invalid="ignore"):
         scale = np.exp(log_p + v1 + log_g) / vt         # P e^v1 G / Vt: larger at the low end
-        e_v = np.exp(v)
-        a_low_v, a_high_v = a_em1[:half], a_em1[half:]   # A at the low end (larger), high end
-        bracket_min = 1.0 + a_high_v * np.minimum(1.0, e_v[:half])
-        bracket_max = 1.0 + a_low_v * np.maximum(1.0, e_v[half:])
-        smallest = scale[half:] * bracket_min / (1.0 + a_low_v)
-        largest = scale[:half] * bracket_max / (1.0 + a_high_v)
+        u = np.expm1(v)
+        q = a_em1 / (1.0 + a_em1)
+        qm_lo, qm_hi = q[hi] * (1.0 - l_max), q[lo] * (1.0 - l_min)
+        corners = np.stack([u[lo] * qm_lo, u[lo] * qm_hi, u[hi] * qm_lo, u[hi] * qm_hi])
+        bracket_min = 1.0 + corners.min(axis=0)
+        bracket_max = 1.0 + corners.max(axis=0)
+        smallest = np.where(bracket_min >= 0, scale[hi], scale[lo]) * bracket_min
+        largest = np.where(bracket_max >= 0, scale[lo], scale[hi]) * bracket_max
     out = shape[1:]
-    return (smallest * (1.0 - 1e-12)).reshape(out), (largest * (1.0 + 1e-12)).reshape(out)
+    return ((smallest - 1e-12 * np.abs(smallest)).reshape(out),
+            (largest + 1e-12 * np.abs(largest)).reshape(out))
 
 
 #: the compiled gain at one point (log G, dlogG/dw), for the compiled law (laws/compiled_isotype.py)
