@@ -46,108 +46,16 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import expit, gamma
+from scipy.special import expit
 
 from siltandem.constants import (BOLTZMANN_J_K, ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M,
                                  thermal_voltage_V)
+from siltandem.laws.fermi_dirac import charge_integral, fermi_integral
 from siltandem.numerics.roots import safeguarded_newton
 
 __all__ = ["fermi_integral", "charge_integral", "reduced_sheet_charge", "bending_split",
            "general_current", "general_voltage", "general_slope_range", "interface_law"]
-
-_TOP = 60.0                      # [kT] states this far above max(eta, 0) hold < e^-60 of the carriers
-_SMALL_X = 0.01                  # Taylor series of the inner integral below this |x|
-_EXP_TAIL = np.array([1.0 / gamma(k + 3.0) for k in range(15)])
-
-
-def _horner(coefficients, x):
-    out = np.full_like(x, coefficients[-1])
-    for c in coefficients[-2::-1]:
-        out = out * x + c
-    return out
-
-
-_OFFSETS = np.array([-40.0, -20.0, -10.0, -5.0, -2.0, 0.0, 2.0, 5.0, 10.0, 20.0, 40.0])
-_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(32)
-
-
-def _quad_rows(rows, knees):
-    """int_0^inf of the (k, m, n) integrand ``rows(t)`` dt (t of shape (m, n): m nodes for each of
-    n points), by a fixed 32-node Gauss-Legendre rule on panels whose ends, in e = t^2, lie
-    0, 2, 5, 10, 20, 40 kT either side of each knee (the Fermi levels ``knees``, a list of (n,)
-    arrays), from 0 to 60 kT above the highest (beyond it the carriers hold < e^-60 of the
-    charge). The integrands are smooth in t; relative error ~1e-13 (tested against mpmath)."""
-    top = np.maximum(np.max(knees, axis=0), 0.0) + _TOP
-    ends = [np.zeros_like(top), top]
-    ends += [np.clip(k + o, 0.0, top) for k in knees for o in _OFFSETS]
-    t_ends = np.sqrt(np.sort(np.stack(ends), axis=0))               # (panels + 1, n)
-    a, b = t_ends[:-1], t_ends[1:]
-    half, mid = 0.5 * (b - a), 0.5 * (b + a)
-    t = mid[:, None, :] + half[:, None, :] * _NODES[None, :, None]   # (panels, nodes, n)
-    t = t.reshape(-1, top.size)
-    w = (half[:, None, :] * _WEIGHTS[None, :, None]).reshape(-1, top.size)
-    return np.sum(rows(t) * w[None], axis=1)
-
-
-def fermi_integral(order, eta):
-    """Fermi-Dirac integral F_j(eta) = 1/Gamma(j+1) int_0^inf e^j / (1 + exp(e - eta)) de [-],
-    for j = ``order`` > -1 (e = t^2 removes the e^j singularity), by quadrature
-    (a fixed Gauss-Legendre rule on panels about the knee) to ~1e-13 relative; tends to exp(eta) for eta -> -inf.
-
-    Reference: J. S. Blakemore, Solid-State Electron. 25 (1982) 1067 (this normalisation)."""
-    eta = np.atleast_1d(np.asarray(eta, dtype=float))
-    power = 2.0 * order + 1.0
-
-    def rows(t):
-        return (t ** power * expit(eta - t * t))[None]
-
-    return (2.0 / gamma(order + 1.0)) * _quad_rows(rows, [eta])[0]
-
-
-def _phi_inner(z, x):
-    """L(z + x) - L(z) - x sigma(z), L(z) = ln(1 + e^z): the inner integral over the band bending,
-    without cancellation (Taylor series in x below 0.01, else the form that keeps L's large part
-    out)."""
-    p = expit(z)
-    d2 = p * (1.0 - p)
-    series = x * x * d2 * (0.5 + x * (1.0 - 2.0 * p) / 6.0 + x * x * (1.0 - 6.0 * p + 6.0 * p * p) / 24.0
-                           + x ** 3 * (1.0 - 2.0 * p) * (1.0 - 12.0 * p + 12.0 * p * p) / 120.0
-                           + x ** 4 * (1.0 - 30.0 * p + 150.0 * p ** 2 - 240.0 * p ** 3 + 120.0 * p ** 4)
-                           / 720.0)
-    with np.errstate(over="ignore", invalid="ignore"):
-        positive = np.logaddexp(0.0, -z - x) - np.logaddexp(0.0, -z) + x * expit(-z)
-        negative = np.logaddexp(0.0, z + x) - np.logaddexp(0.0, z) - x * p
-    direct = np.where(z > 0, positive, negative)
-    return np.where(np.abs(x) < _SMALL_X, series, direct)
-
-
-def charge_integral(x, eta=None):
-    """g(x; eta) and dg/dx: the first integral of Poisson's equation of one side [-] (see the
-    module notes), x the reduced bending toward accumulation, eta the side's reduced Fermi level
-    above its band edge in the bulk; ``eta=None`` Boltzmann (``e^x - 1 - x``, ``e^x - 1``).
-    Returns (g, dg/dx, c) with c = g''(0) = F_-1/2(eta) / F_1/2(eta) (1 for Boltzmann)."""
-    x = np.atleast_1d(np.asarray(x, dtype=float))
-    if eta is None:
-        with np.errstate(over="ignore"):
-            g = np.expm1(x) - x
-            small = np.abs(x) < 0.5
-            g[small] = x[small] ** 2 * _horner(_EXP_TAIL, x[small])
-            return g, np.expm1(x), np.ones_like(x)
-    x, eta = np.broadcast_arrays(x, np.asarray(eta, dtype=float))
-    x, eta = x.ravel(), eta.ravel()
-
-    def rows(t):
-        z = eta - t * t
-        t2 = t * t
-        with np.errstate(over="ignore"):
-            shift = expit(z + x) * expit(-z) * (-np.expm1(-x))        # sigma(z + x) - sigma(z)
-        return np.stack([t2 * _phi_inner(z, x), t2 * shift])
-
-    value = (2.0 / gamma(1.5)) * _quad_rows(rows, [eta, eta + x])
-    # F_1/2(eta) and F_-1/2(eta) once per distinct eta (one per interface side in the solver)
-    levels, index = np.unique(eta, return_inverse=True)
-    half = fermi_integral(0.5, levels)[index]
-    return value[0] / half, value[1] / half, fermi_integral(-0.5, levels)[index] / half
+# fermi_integral and charge_integral: the fast forms of laws/fermi_dirac.py, re-exported here
 
 
 def reduced_sheet_charge(sheet_charge_cm2, *, carrier, depletion_doping_m3, depletion_permittivity,
