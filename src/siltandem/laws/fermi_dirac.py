@@ -129,14 +129,53 @@ def _sommerfeld(order):
     return np.array(out)
 
 
-def _clenshaw(coefficients, u):
-    """sum_m c_m T_m(u) for rows of coefficients (n, degree + 1) and u (n,)."""
+@functools.cache
+def _stacked():
+    """The tables of all TABLE_ORDERS stacked (orders, intervals, degree + 1), transposed to
+    (orders, degree + 1, intervals) for gathers; the Sommerfeld coefficients (orders, terms)."""
+    tables = np.stack([_table(order) for order in TABLE_ORDERS])
+    return (np.ascontiguousarray(tables.transpose(0, 2, 1)),
+            np.stack([_sommerfeld(order) for order in TABLE_ORDERS]))
+
+
+def _fermi_indexed(which, eta):
+    """F_j(eta) on flat arrays, j = TABLE_ORDERS[which] per entry (one pass for several orders)."""
+    order = np.asarray(TABLE_ORDERS)[which]
+    out = np.full(eta.shape, np.nan)
+    low = eta < _LOW
+    high = eta > _HIGH
+    mid = ~(low | high) & ~np.isnan(eta)
+    tables, sommerfeld = _stacked()
+    if low.any():
+        e = np.exp(eta[low])
+        out[low] = e - e * e / 2.0 ** (order[low] + 1.0)
+    if high.any():
+        h, j, rows = eta[high], order[high], sommerfeld[which[high]]
+        inv2 = 1.0 / (h * h)
+        series = np.zeros_like(h)
+        for k in range(rows.shape[1] - 1, -1, -1):
+            series = (series + rows[:, k]) * inv2
+        with np.errstate(over="ignore"):
+            out[high] = h ** (j + 1.0) / gamma(j + 2.0) * (1.0 + series)
+    if mid.all():
+        m, w = eta, which
+    else:
+        m, w = eta[mid], which[mid]
+    index = np.minimum(((m - _LOW) * (1.0 / _WIDTH)).astype(np.intp), int((_HIGH - _LOW) / _WIDTH) - 1)
+    u = 2.0 * (m - (_LOW + index * _WIDTH)) / _WIDTH - 1.0
+    flat = tables.reshape(len(TABLE_ORDERS) * _NODES_PER, -1)
+    row = w * _NODES_PER
+    # Clenshaw: sum_m c_m T_m(u), the coefficients gathered per entry
     b1 = np.zeros_like(u)
     b2 = np.zeros_like(u)
     two_u = 2.0 * u
-    for m in range(coefficients.shape[1] - 1, 0, -1):
-        b1, b2 = two_u * b1 - b2 + coefficients[:, m], b1
-    return u * b1 - b2 + coefficients[:, 0]
+    for k in range(_NODES_PER - 1, 0, -1):
+        b1, b2 = two_u * b1 - b2 + flat[row + k, index], b1
+    value = u * b1 - b2 + flat[row, index]
+    if mid.all():
+        return value
+    out[mid] = value
+    return out
 
 
 def fermi_integral(order, eta):
@@ -146,27 +185,8 @@ def fermi_integral(order, eta):
     eta = np.atleast_1d(np.asarray(eta, dtype=float))
     if order not in TABLE_ORDERS:
         return fermi_integral_quadrature(order, eta)
-    out = np.full(eta.shape, np.nan)
-    low = eta < _LOW
-    if np.any(low):
-        e = np.exp(eta[low])
-        out[low] = e - e * e / 2.0 ** (order + 1.0)
-    high = eta > _HIGH
-    if np.any(high):
-        h = eta[high]
-        inv2 = 1.0 / (h * h)
-        series = np.zeros_like(h)
-        for a in _sommerfeld(order)[::-1]:
-            series = (series + a) * inv2
-        with np.errstate(over="ignore"):
-            out[high] = h ** (order + 1.0) / gamma(order + 2.0) * (1.0 + series)
-    mid = (eta >= _LOW) & (eta <= _HIGH)
-    if np.any(mid):
-        m = eta[mid]
-        index = np.minimum(((m - _LOW) / _WIDTH).astype(int), int((_HIGH - _LOW) / _WIDTH) - 1)
-        u = 2.0 * (m - (_LOW + index * _WIDTH)) / _WIDTH - 1.0
-        out[mid] = _clenshaw(_table(order)[index], u)
-    return out
+    which = np.full(eta.size, TABLE_ORDERS.index(order))
+    return _fermi_indexed(which, eta.ravel()).reshape(eta.shape)
 
 
 def charge_integral(x, eta=None):
@@ -186,23 +206,28 @@ def charge_integral(x, eta=None):
     x, eta = x.ravel(), eta.ravel()
     levels, index = np.unique(eta, return_inverse=True)    # one per interface side in the solver
     index = index.ravel()
-    half = fermi_integral(0.5, levels)[index]
-    c = fermi_integral(-0.5, levels)[index] / half
+    small = np.abs(x) < 1.0
+    xs, es = x[small], eta[small]
+    t = 0.5 * xs[:, None] * (1.0 + _SMALL_NODES[None, :])               # nodes on [0, x]
+    xb, eb = x[~small], eta[~small]
+    # every F_j this call needs, in one pass: F_1/2, F_-1/2, F_3/2 at the levels; F_-1/2 at the
+    # small-x nodes; F_3/2 and F_1/2 at eta + x for the others
+    parts = [(1, levels), (0, levels), (2, levels), (0, (es[:, None] + t).ravel()), (2, eb + xb), (1, eb + xb)]
+    values = _fermi_indexed(np.concatenate([np.full(p.size, k) for k, p in parts]),
+                            np.concatenate([p for _, p in parts]))
+    ends = np.cumsum([0] + [p.size for _, p in parts])
+    half_l, minus_l, three_l, f, three_x, half_x = (values[ends[i]:ends[i + 1]] for i in range(6))
+    half = half_l[index]
+    c = minus_l[index] / half
     g = np.empty_like(x)
     dg = np.empty_like(x)
-    small = np.abs(x) < 1.0
-    if np.any(small):
-        xs, es = x[small], eta[small]
-        t = 0.5 * xs[:, None] * (1.0 + _SMALL_NODES[None, :])          # nodes on [0, x]
-        f = fermi_integral(-0.5, (es[:, None] + t).ravel()).reshape(t.shape)
-        w = 0.5 * xs[:, None] * _SMALL_WEIGHTS[None, :]
-        g[small] = np.sum(w * (xs[:, None] - t) * f, axis=1)
-        dg[small] = np.sum(w * f, axis=1)
-    big = ~small
-    if np.any(big):
-        xb, eb = x[big], eta[big]
-        with np.errstate(over="ignore", invalid="ignore"):
-            g[big] = fermi_integral(1.5, eb + xb) - fermi_integral(1.5, eb) - xb * fermi_integral(0.5, eb)
-            dg[big] = fermi_integral(0.5, eb + xb) - fermi_integral(0.5, eb)
+    f = f.reshape(t.shape)
+    w = 0.5 * xs[:, None] * _SMALL_WEIGHTS[None, :]
+    g[small] = np.sum(w * (xs[:, None] - t) * f, axis=1)
+    dg[small] = np.sum(w * f, axis=1)
+    big_index = index[~small]
+    with np.errstate(over="ignore", invalid="ignore"):
+        g[~small] = three_x - three_l[big_index] - xb * half_l[big_index]
+        dg[~small] = half_x - half_l[big_index]
     with np.errstate(over="ignore", invalid="ignore"):
         return g / half, dg / half, c

@@ -87,10 +87,10 @@ def _balance(v1, vb, alpha, eta1, eta2, s):
     return q1 + q2 - s, d1 + d2, d1, d2
 
 
-def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0):
+def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0, start=None):
     """v1 (side 1's reduced bending, > 0 accumulation) on flat arrays for reduced barrier
     voltages vb >= 0; NaN elsewhere. Safeguarded Newton on the monotone balance from an expanding
-    bracket."""
+    bracket; ``start`` (optional, same size) a first guess, e.g. the split at a nearby voltage."""
     vb, alpha, s = (np.asarray(a, dtype=float).ravel() for a in np.broadcast_arrays(vb, alpha, s))
     e1 = None if eta1 is None else np.broadcast_to(np.asarray(eta1, float), vb.shape).ravel()
     e2 = None if eta2 is None else np.broadcast_to(np.asarray(eta2, float), vb.shape).ravel()
@@ -106,18 +106,28 @@ def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0):
         value, slope, _, _ = _balance(v1, vb_ok, al, e1_ok, e2_ok, s_ok)
         return value, slope
 
+    def both_ends(lo, hi):
+        """f at both ends in one evaluation (half the calls)."""
+        twice = [None if e is None else np.concatenate([e, e]) for e in (e1_ok, e2_ok)]
+        value = _balance(np.concatenate([lo, hi]), np.concatenate([vb_ok, vb_ok]), np.concatenate([al, al]),
+                         *twice, np.concatenate([s_ok, s_ok]))[0]
+        return value[:lo.size], value[lo.size:]
+
     lo, hi = -1.0 - np.zeros_like(vb_ok), vb_ok + 1.0
     for _ in range(40):                       # widen until the balance changes sign
-        f_lo, f_hi = f(lo)[0], f(hi)[0]
+        f_lo, f_hi = both_ends(lo, hi)
         grow_lo, grow_hi = f_lo > 0, f_hi < 0
         if not (np.any(grow_lo) or np.any(grow_hi)):
             break
         lo = np.where(grow_lo, 2.0 * lo, lo)
         hi = np.where(grow_hi, 2.0 * hi, hi)
     else:                                     # the last widening was not evaluated yet
-        f_lo, f_hi = f(lo)[0], f(hi)[0]
-    out[ok] = safeguarded_newton(f, lo, hi, start=np.clip(np.zeros_like(vb_ok), lo, hi),
-                                 end_values=(f_lo, f_hi))
+        f_lo, f_hi = both_ends(lo, hi)
+    guess = np.zeros_like(vb_ok)
+    if start is not None:
+        given = np.broadcast_to(np.asarray(start, dtype=float).ravel(), vb.shape)[ok]
+        guess = np.where(np.isfinite(given), given, 0.0)
+    out[ok] = safeguarded_newton(f, lo, hi, start=np.clip(guess, lo, hi), end_values=(f_lo, f_hi))
     return out
 
 
@@ -131,10 +141,13 @@ def _occupancy_terms(a, v, fermi_dirac):
 
 
 def general_current(v, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=None, s=0.0,
-                    fermi_dirac=False, with_derivative=False):
+                    fermi_dirac=False, with_derivative=False, start=None, split=None):
     """J [A m^-2] (and dJ/dv per reduced volt) on flat arrays: v = qV/kT, vbi = qVbi/kT,
-    log_richardson_t2 = ln(A T^2 [A m^-2]), phi the barrier in kT. NaN for v > vbi."""
-    v1 = bending_split(vbi - v, alpha, eta1, eta2, s)
+    log_richardson_t2 = ln(A T^2 [A m^-2]), phi the barrier in kT. NaN for v > vbi. ``start``: a
+    first guess of the split (bending_split); ``split``: a dict that receives it as "v1"."""
+    v1 = bending_split(vbi - v, alpha, eta1, eta2, s, start=start)
+    if split is not None:
+        split["v1"] = v1
     a = v1 - phi
     scale = np.exp(log_richardson_t2)
     j_red, upper, lower = _occupancy_terms(a, v, fermi_dirac)
@@ -154,8 +167,14 @@ def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, **law):
     j_flat, _ = general_current(vbi, vbi, alpha, log_richardson_t2, phi, **law)
     scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
 
+    last = {}
+
     def f(v):
-        j, dj = general_current(v, vbi, alpha, log_richardson_t2, phi, with_derivative=True, **law)
+        # each Newton step starts the split from the previous step's (same points, nearby v)
+        previous = last.get("v1")
+        start = previous if previous is not None and previous.size == np.size(v) else None
+        j, dj = general_current(v, vbi, alpha, log_richardson_t2, phi, with_derivative=True, start=start,
+                                split=last, **law)
         r = j / scale
         return np.arcsinh(r) - np.arcsinh(j_target / scale), dj / scale / np.sqrt(1.0 + r * r)
 
