@@ -180,13 +180,18 @@ def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, **law):
 
     ok = np.isfinite(j_target) & (j_target <= j_flat)
     lo = np.where(ok, np.minimum(vbi, 0.0) - 1.0, np.nan)
+    ends = None
     for _ in range(60):
-        below = ok & (f(lo)[0] > 0)
+        f_lo = f(lo)[0]
+        below = ok & (f_lo > 0)
         if not np.any(below):
+            # f at the upper end vbi, where J is the flat-band current, from j_flat itself
+            with np.errstate(invalid="ignore"):
+                ends = (f_lo, np.arcsinh(j_flat / scale) - np.arcsinh(j_target / scale))
             break
         lo = np.where(below, 2.0 * lo - 1.0, lo)
     hi = np.where(ok, vbi, np.nan)
-    v = safeguarded_newton(f, lo, hi)
+    v = safeguarded_newton(f, lo, hi, end_values=ends)
     return np.where(ok & (j_target == j_flat), vbi, v)
 
 
