@@ -160,9 +160,10 @@ def general_current(v, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=No
     return j, scale * (upper * (1.0 - u) + lower * u)
 
 
-def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, **law):
+def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, start=None, **law):
     """Reduced voltage v with J(v) = j_target (J rises strictly with v), NaN above the flat-band
-    current J(vbi): safeguarded Newton on asinh(J / J0), bracketed by vbi and a widening lower end."""
+    current J(vbi): safeguarded Newton on asinh(J / J0), bracketed by vbi and a widening lower end;
+    ``start`` an optional first guess (NaN or outside the bracket: mid-bracket)."""
     j_target = np.asarray(j_target, dtype=float)
     j_flat, _ = general_current(vbi, vbi, alpha, log_richardson_t2, phi, **law)
     scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
@@ -191,7 +192,7 @@ def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, **law):
             break
         lo = np.where(below, 2.0 * lo - 1.0, lo)
     hi = np.where(ok, vbi, np.nan)
-    v = safeguarded_newton(f, lo, hi, end_values=ends)
+    v = safeguarded_newton(f, lo, hi, end_values=ends, start=start)
     return np.where(ok & (j_target == j_flat), vbi, v)
 
 
@@ -219,11 +220,12 @@ def general_slope_range(v_lo, v_hi, vbi, alpha, log_richardson_t2, phi, *, eta1=
 
 def interface_law(kind, first, second=None, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
                   temperature_K, accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0,
-                  with_derivative=False):
+                  with_derivative=False, start_V=None):
     """The isotype law in SI units (the general form behind laws/thermionic.py's optional
     parameters; see there for each). ``kind``: "current" (first = V [V]: J [A m^-2], and dJ/dV),
     "voltage" (first = J: V, and dV/dJ) or "slopes" (first, second = V_low, V_high: the smallest and
-    largest dJ/dV between them). Broadcast shape out."""
+    largest dJ/dV between them). Broadcast shape out. ``start_V``: a first guess of the voltage
+    (kind "voltage"; e.g. the Boltzmann law's), NaN where none."""
     given = [np.asarray(first, dtype=float)] + ([] if second is None else [np.asarray(second, float)])
     optional = [np.nan if e is None else e for e in (accumulation_fermi_eV, depletion_fermi_eV)]
     arrays = np.broadcast_arrays(*given, *(np.asarray(a, dtype=float) for a in (
@@ -242,7 +244,8 @@ def interface_law(kind, first, second=None, *, barrier_eV, built_in_V, alpha, ri
             j, dj = general_current(values[0] / vt, *args, with_derivative=with_derivative, **law)
             return (j.reshape(shape), (dj / vt).reshape(shape)) if with_derivative else j.reshape(shape)
         if kind == "voltage":
-            v = general_voltage(values[0], *args, **law)
+            guess = None if start_V is None else np.broadcast_to(start_V, shape).ravel() / vt
+            v = general_voltage(values[0], *args, start=guess, **law)
             if not with_derivative:
                 return (v * vt).reshape(shape)
             _, dj = general_current(v, *args, with_derivative=True, **law)
