@@ -123,3 +123,18 @@ def test_warning_names_the_layer_and_the_statistics():
     silicon = [w for w in said if "layer 'junction p'" in w]
     assert len(silicon) == 1 and "degenerate (Fermi level 59 meV inside the band)" in silicon[0]
     assert "the law takes Fermi-Dirac statistics" in silicon[0]
+
+
+def test_switch_off_keeps_the_boltzmann_law(tmp_path, monkeypatch):
+    """circuit/isotype.py FERMI_DIRAC_LAW = False: the degenerate side is still flagged, its Fermi
+    level still Fermi-Dirac, but the element has no Fermi levels (the compiled Boltzmann law) and the
+    warning says the bending and emission stay Boltzmann."""
+    from siltandem.circuit import isotype
+    from siltandem.result.summary import _degenerate_side_warnings
+
+    monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", False)
+    element = compile_stack(element_stack(tmp_path, "GaP", "Si", 1e16, 1e20)).element("i")
+    assert element.accumulation_fermi_eV is None and element.depletion_fermi_eV is None
+    assert element.compiled_rows(T) is not None
+    said = _degenerate_side_warnings(element)
+    assert len(said) == 1 and "stay Boltzmann approximations" in said[0] and "(Si," in said[0]

@@ -16,6 +16,10 @@ from siltandem.errors import StackError
 #: the difference grows tenfold for every 2.3 kT closer to the band: below it the Boltzmann law
 #: (compiled, fast) stays, bit for bit
 FERMI_DIRAC_WITHIN_KT = 3.0
+#: False: every side keeps the Boltzmann law (Fermi-Dirac Fermi levels only, as before the switch),
+#: e.g. where the Fermi-Dirac law's numpy speed matters more than its accuracy (it has no compiled
+#: form yet: a year of hours takes many times longer, DEVELOPERS.md)
+FERMI_DIRAC_LAW = True
 
 
 def isotype_element(spec, temperature_K, file=None):
@@ -130,7 +134,8 @@ def isotype_from_materials(spec, temperature_K, file, layer_names=None):
     fermi = {}
     for role, side in sides.items():
         # the thermionic-field law has no Fermi-Dirac form: it stays Boltzmann there
-        side["fermi_dirac"] = bool(transport == "thermionic" and side["fermi_depth_eV"] < FERMI_DIRAC_WITHIN_KT * kt)
+        side["fermi_dirac"] = bool(FERMI_DIRAC_LAW and transport == "thermionic"
+                                   and side["fermi_depth_eV"] < FERMI_DIRAC_WITHIN_KT * kt)
         fermi[role] = batch(-side["fermi_depth_eV"]) if side["fermi_dirac"] else None
     sheet = 0.0
     if v.get("sheet_charge_cm2", 0.0) != 0.0:

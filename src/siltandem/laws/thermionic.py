@@ -657,9 +657,8 @@ def _general_law(kind, first, second, barrier_eV, built_in_V, alpha, richardson_
         _check_positive(name, value)
     start = None
     if kind == "voltage":
-        # the Boltzmann law's voltage (closed form, fast) starts the general inverse's search: a
-        # Fermi-Dirac side or a sheet charge moves it by a fraction of kT/q, so Newton needs a few
-        # steps (NaN where it has no value: the search then starts mid-bracket)
+        # the Boltzmann law's voltage (fast) starts the general inverse's Newton search (a Fermi-Dirac
+        # side or a sheet charge moves it by a fraction of kT/q; NaN: the search starts mid-bracket)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", IsotypeDomainWarning)
             start = isotype_voltage(first, barrier_eV=barrier_eV, built_in_V=built_in_V, alpha=alpha,

@@ -278,9 +278,10 @@ def _degenerate_side_warnings(element):
             out.append(head + ": the law takes Fermi-Dirac statistics for its Fermi level, band "
                               "bending and emission")
         else:
+            why = (" (the thermionic-field law has no Fermi-Dirac form)"
+                   if element.transport == "thermionic-field" else "")
             out.append(head + ": Fermi-Dirac statistics place its Fermi level, the band bending and "
-                              "the emission stay Boltzmann approximations (the thermionic-field law "
-                              "has no Fermi-Dirac form)")
+                              f"the emission stay Boltzmann approximations{why}")
     return out
 
 
