@@ -10,8 +10,8 @@ Checks and their sources:
   computed in mpmath at 40 digits, x from -150 to 150 (down to 1e-8, where a plain difference
   would cancel): 1e-13 relative for eta <= 15, 3e-13 at 60, 2e-12 at 120 (measured 1.2e-14,
   6.6e-14, 1.6e-13, 1.3e-12: the plain difference at |x| = 1 loses digits to F_3/2(eta) there).
-- The fast form against the slow quadrature it replaces (the module's reference path, itself
-  tested against mpmath in tests/test_interface_charge.py history): 5e-13.
+- The fast form against the slow quadrature the tables are built from (fermi_integral_quadrature,
+  ~1e-13 against mpmath): 5e-13; orders without a table take the quadrature itself.
 """
 import mpmath
 import numpy as np
