@@ -217,7 +217,11 @@ def current_at(element, temperature_K, depletion=None):
     law = element._law(temperature_K)
     volts = 0.5 * law["built_in_V"]
     if depletion is not None:
+        # the closed forms are Boltzmann laws: a side within 3 kT of its band (here Si near 1e19,
+        # circuit/isotype.py FERMI_DIRAC_WITHIN_KT) is compared with its Boltzmann sides
         law["depletion"] = depletion
+        for name in ("accumulation_fermi_eV", "depletion_fermi_eV", "sheet_charge"):
+            law.pop(name, None)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", th.IsotypeDomainWarning)
         return float(th.isotype_current_density(volts, **law)[0, 0])

@@ -522,11 +522,11 @@ def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None
         values["sheet_charge_cm2"] = upper.sheet_charge_cm2
     spec = ElementSpec(upper.index, "isotype", f"interface {upper.name} / {lower.name}", 1, values)
     if reuse is None:
-        return isotype_from_materials(spec, temperature_K, file)
+        return isotype_from_materials(spec, temperature_K, file, (upper.name, lower.name))
     # the interface is a pure function of its two layers' keys: built once per study
     key = ("isotype", repr(spec), float(temperature_K), str(file))
     if key not in reuse:
-        reuse[key] = isotype_from_materials(spec, temperature_K, file)
+        reuse[key] = isotype_from_materials(spec, temperature_K, file, (upper.name, lower.name))
     return reuse[key]
 
 

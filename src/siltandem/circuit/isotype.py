@@ -1,11 +1,25 @@
 """Isotype interface elements from their file keys: the law's numbers given directly, or two
 library materials aligned by the electron-affinity rule (element stacks and layer stacks alike),
-each layer's Fermi level from Fermi-Dirac statistics (degenerate layers included)."""
+each layer's Fermi level from Fermi-Dirac statistics (degenerate layers included); a side near or
+past degeneracy (:data:`FERMI_DIRAC_WITHIN_KT`) also takes Fermi-Dirac charge and emission in the
+thermionic law (laws/interface_charge.py, fast integrals of laws/fermi_dirac.py)."""
 
 from siltandem import units
 from siltandem.constants import BOLTZMANN_EV_K, RICHARDSON_FREE_A_M2_K2
 from siltandem.circuit.elements import IsotypeInterface, batch
 from siltandem.errors import StackError
+
+#: a side of a materials-given interface takes the Fermi-Dirac law (charge and emission) when its
+#: bulk Fermi level lies less than this many kT below its band edge, or inside the band. At
+#: eta = (EF - Ec)/kT = -3 Boltzmann's density e^eta exceeds N F_1/2(eta) by e^eta / 2^1.5 = 1.8 %
+#: (the first term of F_1/2's series, J. S. Blakemore, Solid-State Electron. 25 (1982) 1067), and
+#: the difference grows tenfold for every 2.3 kT closer to the band: below it the Boltzmann law
+#: (compiled, fast) stays, bit for bit
+FERMI_DIRAC_WITHIN_KT = 3.0
+#: False: every side keeps the Boltzmann law (Fermi-Dirac Fermi levels only, as before the switch),
+#: e.g. where the Fermi-Dirac law's numpy speed matters more than its accuracy (it has no compiled
+#: form yet: a year of hours takes many times longer, DEVELOPERS.md)
+FERMI_DIRAC_LAW = True
 
 
 def isotype_element(spec, temperature_K, file=None):
@@ -54,7 +68,10 @@ def _reduced_sheet(sheet_charge_cm2, carrier, depletion_doping_cm3, permittivity
         depletion_permittivity=permittivity, temperature_K=temperature_K))
 
 
-def isotype_from_materials(spec, temperature_K, file):
+def isotype_from_materials(spec, temperature_K, file, layer_names=None):
+    """The interface element from two library materials (``spec.values``: materials, dopings,
+    carrier, flow, optional offset, transport, sheet charge); ``layer_names`` (upper, lower) the
+    layer stack's layer names, for warnings."""
     from siltandem.laws.thermionic import isotype_band_alignment
     from siltandem.materials import MaterialError, load_material
 
@@ -91,15 +108,16 @@ def isotype_from_materials(spec, temperature_K, file):
     from siltandem.laws.carriers import fermi_degeneracy_eV
 
     info = []
-    for m, doping_key, band_dos, layer in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos,
-                                              ("upper", "lower")):
+    names = layer_names or (None, None)
+    for m, doping_key, band_dos, layer, name in zip(layers, ("upper_doping_cm3", "lower_doping_cm3"), dos,
+                                                    ("upper", "lower"), names):
         doping = v[doping_key] * units.PER_CM3_TO_PER_M3
         # Fermi-Dirac, as in the alignment: band edge minus Fermi level, < 0 when degenerate
         depth = -float(fermi_degeneracy_eV(doping, band_states_m3=band_dos,
                                            temperature_K=temperature_K))
         info.append(dict(material=m.name, doping_m3=doping, permittivity=m.relative_permittivity,
                          gap_eV=float(m.gap_eV(temperature_K)), fermi_depth_eV=depth,
-                         degenerate=depth < 0.0, layer=layer))
+                         degenerate=depth < 0.0, layer=layer, layer_name=name))
     sides = {"accumulation": info[0 if upper_accumulates else 1],
              "depletion": info[1 if upper_accumulates else 0]}
     if "richardson_A_cm2_K2" in v:
@@ -112,6 +130,13 @@ def isotype_from_materials(spec, temperature_K, file):
     # below 3 kT/q)
     tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
     transport, field_energy = _transport(v, layers, upper_accumulates, temperature_K)
+    kt = BOLTZMANN_EV_K * temperature_K
+    fermi = {}
+    for role, side in sides.items():
+        # the thermionic-field law has no Fermi-Dirac form: it stays Boltzmann there
+        side["fermi_dirac"] = bool(FERMI_DIRAC_LAW and transport == "thermionic"
+                                   and side["fermi_depth_eV"] < FERMI_DIRAC_WITHIN_KT * kt)
+        fermi[role] = batch(-side["fermi_depth_eV"]) if side["fermi_dirac"] else None
     sheet = 0.0
     if v.get("sheet_charge_cm2", 0.0) != 0.0:
         depleting = sides["depletion"]
@@ -124,7 +149,8 @@ def isotype_from_materials(spec, temperature_K, file):
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides,
         offset_source=offset_source, include_tail=tail, transport=transport,
-        field_energy_eV=batch(field_energy), sheet_charge=batch(sheet))
+        field_energy_eV=batch(field_energy), sheet_charge=batch(sheet),
+        accumulation_fermi_eV=fermi["accumulation"], depletion_fermi_eV=fermi["depletion"])
 
 
 def band_offset(upper, lower, carrier, temperature_K, given=None):

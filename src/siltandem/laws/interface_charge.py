@@ -46,108 +46,16 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import expit, gamma
+from scipy.special import expit
 
 from siltandem.constants import (BOLTZMANN_J_K, ELEMENTARY_CHARGE_C, VACUUM_PERMITTIVITY_F_M,
                                  thermal_voltage_V)
+from siltandem.laws.fermi_dirac import charge_integral, fermi_integral
 from siltandem.numerics.roots import safeguarded_newton
 
 __all__ = ["fermi_integral", "charge_integral", "reduced_sheet_charge", "bending_split",
            "general_current", "general_voltage", "general_slope_range", "interface_law"]
-
-_TOP = 60.0                      # [kT] states this far above max(eta, 0) hold < e^-60 of the carriers
-_SMALL_X = 0.01                  # Taylor series of the inner integral below this |x|
-_EXP_TAIL = np.array([1.0 / gamma(k + 3.0) for k in range(15)])
-
-
-def _horner(coefficients, x):
-    out = np.full_like(x, coefficients[-1])
-    for c in coefficients[-2::-1]:
-        out = out * x + c
-    return out
-
-
-_OFFSETS = np.array([-40.0, -20.0, -10.0, -5.0, -2.0, 0.0, 2.0, 5.0, 10.0, 20.0, 40.0])
-_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(32)
-
-
-def _quad_rows(rows, knees):
-    """int_0^inf of the (k, m, n) integrand ``rows(t)`` dt (t of shape (m, n): m nodes for each of
-    n points), by a fixed 32-node Gauss-Legendre rule on panels whose ends, in e = t^2, lie
-    0, 2, 5, 10, 20, 40 kT either side of each knee (the Fermi levels ``knees``, a list of (n,)
-    arrays), from 0 to 60 kT above the highest (beyond it the carriers hold < e^-60 of the
-    charge). The integrands are smooth in t; relative error ~1e-13 (tested against mpmath)."""
-    top = np.maximum(np.max(knees, axis=0), 0.0) + _TOP
-    ends = [np.zeros_like(top), top]
-    ends += [np.clip(k + o, 0.0, top) for k in knees for o in _OFFSETS]
-    t_ends = np.sqrt(np.sort(np.stack(ends), axis=0))               # (panels + 1, n)
-    a, b = t_ends[:-1], t_ends[1:]
-    half, mid = 0.5 * (b - a), 0.5 * (b + a)
-    t = mid[:, None, :] + half[:, None, :] * _NODES[None, :, None]   # (panels, nodes, n)
-    t = t.reshape(-1, top.size)
-    w = (half[:, None, :] * _WEIGHTS[None, :, None]).reshape(-1, top.size)
-    return np.sum(rows(t) * w[None], axis=1)
-
-
-def fermi_integral(order, eta):
-    """Fermi-Dirac integral F_j(eta) = 1/Gamma(j+1) int_0^inf e^j / (1 + exp(e - eta)) de [-],
-    for j = ``order`` > -1 (e = t^2 removes the e^j singularity), by quadrature
-    (a fixed Gauss-Legendre rule on panels about the knee) to ~1e-13 relative; tends to exp(eta) for eta -> -inf.
-
-    Reference: J. S. Blakemore, Solid-State Electron. 25 (1982) 1067 (this normalisation)."""
-    eta = np.atleast_1d(np.asarray(eta, dtype=float))
-    power = 2.0 * order + 1.0
-
-    def rows(t):
-        return (t ** power * expit(eta - t * t))[None]
-
-    return (2.0 / gamma(order + 1.0)) * _quad_rows(rows, [eta])[0]
-
-
-def _phi_inner(z, x):
-    """L(z + x) - L(z) - x sigma(z), L(z) = ln(1 + e^z): the inner integral over the band bending,
-    without cancellation (Taylor series in x below 0.01, else the form that keeps L's large part
-    out)."""
-    p = expit(z)
-    d2 = p * (1.0 - p)
-    series = x * x * d2 * (0.5 + x * (1.0 - 2.0 * p) / 6.0 + x * x * (1.0 - 6.0 * p + 6.0 * p * p) / 24.0
-                           + x ** 3 * (1.0 - 2.0 * p) * (1.0 - 12.0 * p + 12.0 * p * p) / 120.0
-                           + x ** 4 * (1.0 - 30.0 * p + 150.0 * p ** 2 - 240.0 * p ** 3 + 120.0 * p ** 4)
-                           / 720.0)
-    with np.errstate(over="ignore", invalid="ignore"):
-        positive = np.logaddexp(0.0, -z - x) - np.logaddexp(0.0, -z) + x * expit(-z)
-        negative = np.logaddexp(0.0, z + x) - np.logaddexp(0.0, z) - x * p
-    direct = np.where(z > 0, positive, negative)
-    return np.where(np.abs(x) < _SMALL_X, series, direct)
-
-
-def charge_integral(x, eta=None):
-    """g(x; eta) and dg/dx: the first integral of Poisson's equation of one side [-] (see the
-    module notes), x the reduced bending toward accumulation, eta the side's reduced Fermi level
-    above its band edge in the bulk; ``eta=None`` Boltzmann (``e^x - 1 - x``, ``e^x - 1``).
-    Returns (g, dg/dx, c) with c = g''(0) = F_-1/2(eta) / F_1/2(eta) (1 for Boltzmann)."""
-    x = np.atleast_1d(np.asarray(x, dtype=float))
-    if eta is None:
-        with np.errstate(over="ignore"):
-            g = np.expm1(x) - x
-            small = np.abs(x) < 0.5
-            g[small] = x[small] ** 2 * _horner(_EXP_TAIL, x[small])
-            return g, np.expm1(x), np.ones_like(x)
-    x, eta = np.broadcast_arrays(x, np.asarray(eta, dtype=float))
-    x, eta = x.ravel(), eta.ravel()
-
-    def rows(t):
-        z = eta - t * t
-        t2 = t * t
-        with np.errstate(over="ignore"):
-            shift = expit(z + x) * expit(-z) * (-np.expm1(-x))        # sigma(z + x) - sigma(z)
-        return np.stack([t2 * _phi_inner(z, x), t2 * shift])
-
-    value = (2.0 / gamma(1.5)) * _quad_rows(rows, [eta, eta + x])
-    # F_1/2(eta) and F_-1/2(eta) once per distinct eta (one per interface side in the solver)
-    levels, index = np.unique(eta, return_inverse=True)
-    half = fermi_integral(0.5, levels)[index]
-    return value[0] / half, value[1] / half, fermi_integral(-0.5, levels)[index] / half
+# fermi_integral and charge_integral: the fast forms of laws/fermi_dirac.py, re-exported here
 
 
 def reduced_sheet_charge(sheet_charge_cm2, *, carrier, depletion_doping_m3, depletion_permittivity,
@@ -179,10 +87,10 @@ def _balance(v1, vb, alpha, eta1, eta2, s):
     return q1 + q2 - s, d1 + d2, d1, d2
 
 
-def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0):
+def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0, start=None):
     """v1 (side 1's reduced bending, > 0 accumulation) on flat arrays for reduced barrier
     voltages vb >= 0; NaN elsewhere. Safeguarded Newton on the monotone balance from an expanding
-    bracket."""
+    bracket; ``start`` (optional, same size) a first guess, e.g. the split at a nearby voltage."""
     vb, alpha, s = (np.asarray(a, dtype=float).ravel() for a in np.broadcast_arrays(vb, alpha, s))
     e1 = None if eta1 is None else np.broadcast_to(np.asarray(eta1, float), vb.shape).ravel()
     e2 = None if eta2 is None else np.broadcast_to(np.asarray(eta2, float), vb.shape).ravel()
@@ -198,18 +106,28 @@ def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0):
         value, slope, _, _ = _balance(v1, vb_ok, al, e1_ok, e2_ok, s_ok)
         return value, slope
 
+    def both_ends(lo, hi):
+        """f at both ends in one evaluation (half the calls)."""
+        twice = [None if e is None else np.concatenate([e, e]) for e in (e1_ok, e2_ok)]
+        value = _balance(np.concatenate([lo, hi]), np.concatenate([vb_ok, vb_ok]), np.concatenate([al, al]),
+                         *twice, np.concatenate([s_ok, s_ok]))[0]
+        return value[:lo.size], value[lo.size:]
+
     lo, hi = -1.0 - np.zeros_like(vb_ok), vb_ok + 1.0
     for _ in range(40):                       # widen until the balance changes sign
-        f_lo, f_hi = f(lo)[0], f(hi)[0]
+        f_lo, f_hi = both_ends(lo, hi)
         grow_lo, grow_hi = f_lo > 0, f_hi < 0
         if not (np.any(grow_lo) or np.any(grow_hi)):
             break
         lo = np.where(grow_lo, 2.0 * lo, lo)
         hi = np.where(grow_hi, 2.0 * hi, hi)
     else:                                     # the last widening was not evaluated yet
-        f_lo, f_hi = f(lo)[0], f(hi)[0]
-    out[ok] = safeguarded_newton(f, lo, hi, start=np.clip(np.zeros_like(vb_ok), lo, hi),
-                                 end_values=(f_lo, f_hi))
+        f_lo, f_hi = both_ends(lo, hi)
+    guess = np.zeros_like(vb_ok)
+    if start is not None:
+        given = np.broadcast_to(np.asarray(start, dtype=float).ravel(), vb.shape)[ok]
+        guess = np.where(np.isfinite(given), given, 0.0)
+    out[ok] = safeguarded_newton(f, lo, hi, start=np.clip(guess, lo, hi), end_values=(f_lo, f_hi))
     return out
 
 
@@ -223,10 +141,13 @@ def _occupancy_terms(a, v, fermi_dirac):
 
 
 def general_current(v, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=None, s=0.0,
-                    fermi_dirac=False, with_derivative=False):
+                    fermi_dirac=False, with_derivative=False, start=None, split=None):
     """J [A m^-2] (and dJ/dv per reduced volt) on flat arrays: v = qV/kT, vbi = qVbi/kT,
-    log_richardson_t2 = ln(A T^2 [A m^-2]), phi the barrier in kT. NaN for v > vbi."""
-    v1 = bending_split(vbi - v, alpha, eta1, eta2, s)
+    log_richardson_t2 = ln(A T^2 [A m^-2]), phi the barrier in kT. NaN for v > vbi. ``start``: a
+    first guess of the split (bending_split); ``split``: a dict that receives it as "v1"."""
+    v1 = bending_split(vbi - v, alpha, eta1, eta2, s, start=start)
+    if split is not None:
+        split["v1"] = v1
     a = v1 - phi
     scale = np.exp(log_richardson_t2)
     j_red, upper, lower = _occupancy_terms(a, v, fermi_dirac)
@@ -239,27 +160,39 @@ def general_current(v, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=No
     return j, scale * (upper * (1.0 - u) + lower * u)
 
 
-def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, **law):
+def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, start=None, **law):
     """Reduced voltage v with J(v) = j_target (J rises strictly with v), NaN above the flat-band
-    current J(vbi): safeguarded Newton on asinh(J / J0), bracketed by vbi and a widening lower end."""
+    current J(vbi): safeguarded Newton on asinh(J / J0), bracketed by vbi and a widening lower end;
+    ``start`` an optional first guess (NaN or outside the bracket: mid-bracket)."""
     j_target = np.asarray(j_target, dtype=float)
     j_flat, _ = general_current(vbi, vbi, alpha, log_richardson_t2, phi, **law)
     scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
 
+    last = {}
+
     def f(v):
-        j, dj = general_current(v, vbi, alpha, log_richardson_t2, phi, with_derivative=True, **law)
+        # each Newton step starts the split from the previous step's (same points, nearby v)
+        previous = last.get("v1")
+        start = previous if previous is not None and previous.size == np.size(v) else None
+        j, dj = general_current(v, vbi, alpha, log_richardson_t2, phi, with_derivative=True, start=start,
+                                split=last, **law)
         r = j / scale
         return np.arcsinh(r) - np.arcsinh(j_target / scale), dj / scale / np.sqrt(1.0 + r * r)
 
     ok = np.isfinite(j_target) & (j_target <= j_flat)
     lo = np.where(ok, np.minimum(vbi, 0.0) - 1.0, np.nan)
+    ends = None
     for _ in range(60):
-        below = ok & (f(lo)[0] > 0)
+        f_lo = f(lo)[0]
+        below = ok & (f_lo > 0)
         if not np.any(below):
+            # f at the upper end vbi, where J is the flat-band current, from j_flat itself
+            with np.errstate(invalid="ignore"):
+                ends = (f_lo, np.arcsinh(j_flat / scale) - np.arcsinh(j_target / scale))
             break
         lo = np.where(below, 2.0 * lo - 1.0, lo)
     hi = np.where(ok, vbi, np.nan)
-    v = safeguarded_newton(f, lo, hi)
+    v = safeguarded_newton(f, lo, hi, end_values=ends, start=start)
     return np.where(ok & (j_target == j_flat), vbi, v)
 
 
@@ -287,11 +220,12 @@ def general_slope_range(v_lo, v_hi, vbi, alpha, log_richardson_t2, phi, *, eta1=
 
 def interface_law(kind, first, second=None, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
                   temperature_K, accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0,
-                  with_derivative=False):
+                  with_derivative=False, start_V=None):
     """The isotype law in SI units (the general form behind laws/thermionic.py's optional
     parameters; see there for each). ``kind``: "current" (first = V [V]: J [A m^-2], and dJ/dV),
     "voltage" (first = J: V, and dV/dJ) or "slopes" (first, second = V_low, V_high: the smallest and
-    largest dJ/dV between them). Broadcast shape out."""
+    largest dJ/dV between them). Broadcast shape out. ``start_V``: a first guess of the voltage
+    (kind "voltage"; e.g. the Boltzmann law's), NaN where none."""
     given = [np.asarray(first, dtype=float)] + ([] if second is None else [np.asarray(second, float)])
     optional = [np.nan if e is None else e for e in (accumulation_fermi_eV, depletion_fermi_eV)]
     arrays = np.broadcast_arrays(*given, *(np.asarray(a, dtype=float) for a in (
@@ -310,7 +244,8 @@ def interface_law(kind, first, second=None, *, barrier_eV, built_in_V, alpha, ri
             j, dj = general_current(values[0] / vt, *args, with_derivative=with_derivative, **law)
             return (j.reshape(shape), (dj / vt).reshape(shape)) if with_derivative else j.reshape(shape)
         if kind == "voltage":
-            v = general_voltage(values[0], *args, **law)
+            guess = None if start_V is None else np.broadcast_to(start_V, shape).ravel() / vt
+            v = general_voltage(values[0], *args, start=guess, **law)
             if not with_derivative:
                 return (v * vt).reshape(shape)
             _, dj = general_current(v, *args, with_derivative=True, **law)

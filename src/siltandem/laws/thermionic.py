@@ -655,11 +655,20 @@ def _general_law(kind, first, second, barrier_eV, built_in_V, alpha, richardson_
     for name, value in (("alpha", alpha), ("richardson_A_m2_K2", richardson_A_m2_K2),
                         ("temperature_K", temperature_K), ("built_in_V", built_in_V)):
         _check_positive(name, value)
+    start = None
+    if kind == "voltage":
+        # the Boltzmann law's voltage (fast) starts the general inverse's Newton search (a Fermi-Dirac
+        # side or a sheet charge moves it by a fraction of kT/q; NaN: the search starts mid-bracket)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", IsotypeDomainWarning)
+            start = isotype_voltage(first, barrier_eV=barrier_eV, built_in_V=built_in_V, alpha=alpha,
+                                    richardson_A_m2_K2=richardson_A_m2_K2, temperature_K=temperature_K,
+                                    depletion="exact")
     return interface_law(kind, first, second, barrier_eV=barrier_eV, built_in_V=built_in_V,
                          alpha=alpha, richardson_A_m2_K2=richardson_A_m2_K2,
                          temperature_K=temperature_K, accumulation_fermi_eV=general[0],
                          depletion_fermi_eV=general[1], sheet_charge=general[2],
-                         with_derivative=with_derivative)
+                         with_derivative=with_derivative, start_V=start)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -260,16 +260,28 @@ def _interface_warnings(name, v, penalty):
 
 def _degenerate_side_warnings(element):
     """A warning for each side of an isotype interface (given by its materials) whose Fermi level
-    lies inside its band: Fermi-Dirac statistics place it, the rest of the law is Boltzmann."""
+    lies inside its band or within circuit/isotype.py's FERMI_DIRAC_WITHIN_KT of it: which statistics
+    the law takes there."""
     out = []
     for role, side in (element.sides or {}).items():
-        if side.get("degenerate"):
-            doping_cm3 = side["doping_m3"] / units.PER_CM3_TO_PER_M3
-            out.append(f"isotype interface {element.name!r}: the {role} side ({side['material']}, "
-                       f"{doping_cm3:.3g} cm^-3) is degenerate (Fermi level "
-                       f"{-1000 * side['fermi_depth_eV']:.0f} meV inside the band): Fermi-Dirac "
-                       "statistics place its Fermi level, the band bending and the emission "
-                       "over the barrier stay Boltzmann approximations")
+        if not (side.get("degenerate") or side.get("fermi_dirac")):
+            continue
+        doping_cm3 = side["doping_m3"] / units.PER_CM3_TO_PER_M3
+        layer = f"layer {side['layer_name']!r}, " if side.get("layer_name") else ""
+        depth = side["fermi_depth_eV"]
+        where = (f"Fermi level {-1000 * depth:.0f} meV inside the band" if depth < 0
+                 else f"Fermi level {1000 * depth:.0f} meV below the band edge")
+        head = (f"isotype interface {element.name!r}: the {role} side ({layer}{side['material']}, "
+                f"{doping_cm3:.3g} cm^-3) is {'degenerate' if depth < 0 else 'nearly degenerate'} "
+                f"({where})")
+        if side.get("fermi_dirac"):
+            out.append(head + ": the law takes Fermi-Dirac statistics for its Fermi level, band "
+                              "bending and emission")
+        else:
+            why = (" (the thermionic-field law has no Fermi-Dirac form)"
+                   if element.transport == "thermionic-field" else "")
+            out.append(head + ": Fermi-Dirac statistics place its Fermi level, the band bending and "
+                              f"the emission stay Boltzmann approximations{why}")
     return out
 
 
