@@ -34,6 +34,16 @@ from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
 from siltandem.materials import load_material
 from siltandem.stack.placements import with_placement
 
+
+@pytest.fixture(autouse=True)
+def fermi_dirac_law_on(monkeypatch):
+    """The Fermi-Dirac law is off by default (circuit/isotype.FERMI_DIRAC_LAW: no compiled form
+    yet, many times slower); these tests switch it on, as a stack run with it would."""
+    from siltandem.circuit import isotype
+
+    monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", True)
+
+
 T = 298.15
 KT = BOLTZMANN_EV_K * T
 PLACEMENTS = Path(__file__).resolve().parents[1] / "stacks" / "demo_placements.toml"

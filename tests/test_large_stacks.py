@@ -174,6 +174,13 @@ def test_forty_isotype_layers_solve(tmp_path, solve_calls):
     assert abs(s["power_balance_error_W_m2"]) < 1e-6 * s["mpp_W_m2"]
     # main solve, 2 cells alone, the junction's penalty alone, one batch per interface group:
     # interfaces batch together unless a non-numeric setting differs (result/penalties.py), here
-    # the carrier (the bias is a number per design; every interface takes the exact depletion side)
-    groups = {row["carrier"] for row in s["interfaces"]}
+    # the carrier and which sides take the Fermi-Dirac law (a side within 3 kT of its band:
+    # circuit/isotype.py; the bias is a number per design; every interface takes the exact
+    # depletion side)
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.circuit.elements import IsotypeInterface
+
+    groups = {(e.carrier, e.accumulation_fermi_eV is None, e.depletion_fermi_eV is None)
+              for e in compile_stack(stack).elements if isinstance(e, IsotypeInterface)}
+    assert len(groups) >= 1
     assert len(solve_calls) == 1 + 2 + 1 + len(groups)

@@ -19,7 +19,7 @@ FERMI_DIRAC_WITHIN_KT = 3.0
 #: False: every side keeps the Boltzmann law (Fermi-Dirac Fermi levels only, as before the switch),
 #: e.g. where the Fermi-Dirac law's numpy speed matters more than its accuracy (it has no compiled
 #: form yet: a year of hours takes many times longer, DEVELOPERS.md)
-FERMI_DIRAC_LAW = True
+FERMI_DIRAC_LAW = False
 
 
 def isotype_element(spec, temperature_K, file=None):
