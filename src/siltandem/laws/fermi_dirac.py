@@ -50,6 +50,8 @@ import functools
 import numpy as np
 from scipy.special import expit, gamma, zeta
 
+from siltandem.numerics.series import EXP_TAIL, horner
+
 __all__ = ["fermi_integral", "fermi_integral_quadrature", "charge_integral", "TABLE_ORDERS"]
 
 #: the orders with fast tables
@@ -62,14 +64,6 @@ _TOP = 60.0                               # [kT] states this far above max(eta, 
 _OFFSETS = np.array([-40.0, -20.0, -10.0, -5.0, -2.0, 0.0, 2.0, 5.0, 10.0, 20.0, 40.0])
 _GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(32)
 _SMALL_NODES, _SMALL_WEIGHTS = np.polynomial.legendre.leggauss(8)
-_EXP_TAIL = np.array([1.0 / gamma(k + 3.0) for k in range(15)])     # (e^x - 1 - x) / x^2 series
-
-
-def _horner(coefficients, x):
-    out = np.full_like(x, coefficients[-1])
-    for c in coefficients[-2::-1]:
-        out = out * x + c
-    return out
 
 
 def quad_rows(rows, knees):
@@ -200,7 +194,7 @@ def charge_integral(x, eta=None):
         with np.errstate(over="ignore"):
             g = np.expm1(x) - x
             small = np.abs(x) < 0.5
-            g[small] = x[small] ** 2 * _horner(_EXP_TAIL, x[small])
+            g[small] = x[small] ** 2 * horner(EXP_TAIL, x[small])
             return g, np.expm1(x), np.ones_like(x)
     x, eta = np.broadcast_arrays(x, np.asarray(eta, dtype=float))
     x, eta = x.ravel(), eta.ravel()

@@ -27,6 +27,7 @@ import numpy as np
 from siltandem.constants import BOLTZMANN_EV_K, RICHARDSON_FREE_A_M2_K2, thermal_voltage_V
 from siltandem.laws.carriers import fermi_degeneracy_eV
 from siltandem.numerics.roots import chandrupatla_roots as _chandrupatla
+from siltandem.numerics.series import EXP_TAIL, horner
 
 __all__ = [
     "IsotypeParameterError",
@@ -70,9 +71,6 @@ class IsotypeAlignment(NamedTuple):
 # ---------------------------------------------------------------------------------------------
 # small accurate helpers
 
-# 1/(k+2)! for k = 0..14: exp(x) - 1 - x = x^2 * sum_k x^k/(k+2)!
-_EXP_TAIL = np.array([1.0 / np.prod(np.arange(1.0, k + 3.0)) for k in range(15)])
-
 # W_{-1}(z) = -1 - sum_k c_k rho^k, rho = sqrt(2 (1 + e z)), about the branch point z = -1/e
 # (Corless et al. 1996, eq. 4.22, with p = -rho for the lower branch).
 _BRANCH_SERIES = np.array([
@@ -86,13 +84,6 @@ _BRANCH_SERIES_RHO_MAX = 0.25     # truncation there ~4e-9 relative; the Halley 
 _BRANCH_SERIES_UPPER = _BRANCH_SERIES * (-1.0) ** np.arange(_BRANCH_SERIES.size)
 _TINY = np.finfo(float).smallest_normal
 _EXACT_ITERATIONS = 60            # Newton from a bracket end; 1-10 steps in practice
-
-
-def _horner(coefficients, x):
-    out = np.full_like(x, coefficients[-1])
-    for c in coefficients[-2::-1]:
-        out = out * x + c
-    return out
 
 
 def _alpha_terms(alpha, x):
@@ -110,7 +101,7 @@ def _alpha_terms(alpha, x):
     if np.any(small):
         xs, a_s = x[small], alpha[small]
         a_em1[small] = a_s * np.expm1(xs)
-        a_g[small] = a_s * xs * xs * _horner(_EXP_TAIL, xs)
+        a_g[small] = a_s * xs * xs * horner(EXP_TAIL, xs)
     return a_exp, a_em1, a_g
 
 
@@ -118,7 +109,7 @@ def _x_minus_log1p(q):
     """q - log(1 + q) for q >= 0, accurate for small q (log1p(q) = 2 atanh(q/(2+q)))."""
     u = q / (2.0 + q)
     u2 = u * u
-    odd = _horner(1.0 / np.arange(3.0, 26.0, 2.0), u2)     # 1/3 + u^2/5 + ...
+    odd = horner(1.0 / np.arange(3.0, 26.0, 2.0), u2)     # 1/3 + u^2/5 + ...
     series = q * q / (2.0 + q) - 2.0 * u * u2 * odd
     return np.where(q < 0.5, series, q - np.log1p(q))
 
@@ -137,7 +128,7 @@ def _branch_minus_one_excess(mu):
     near = rho < _BRANCH_SERIES_RHO_MAX
     mid = ~near & (mu <= 1.0)
     far = mu > 1.0
-    p[near] = rho[near] * _horner(_BRANCH_SERIES, rho[near])
+    p[near] = rho[near] * horner(_BRANCH_SERIES, rho[near])
     p[mid] = -lambertw(-np.exp(-1.0 - mu[mid]), -1).real - 1.0
     p[far] = -wrightomega(-1.0 - mu[far] - 1j * np.pi).real - 1.0
     return p
@@ -203,7 +194,7 @@ def _exact_depletion_bending(c):
     y = np.empty_like(c)
     rho = np.sqrt(-2.0 * np.expm1(-c))
     near = rho < _BRANCH_SERIES_RHO_MAX
-    y[near] = c[near] + rho[near] * _horner(_BRANCH_SERIES_UPPER, rho[near])
+    y[near] = c[near] + rho[near] * horner(_BRANCH_SERIES_UPPER, rho[near])
     far = ~near
     with np.errstate(under="ignore"):
         y[far] = c[far] + 1.0 + lambertw(-np.exp(-1.0 - c[far]), 0).real
