@@ -89,9 +89,7 @@ def remembered(reuse, kind, key, build, *, entries=REMEMBERED_ENTRIES):
     except KeyError:
         pass
     value = build()
-    if len(table) >= entries:
-        table.pop(next(iter(table)))
-    table[key] = value
+    keep(table, key, value, entries)
     return value
 
 
@@ -117,9 +115,7 @@ class ValueMemo:
         value = np.asarray(self.function(*args))
         value.flags.writeable = False
         with self._lock:
-            if key not in self._found and len(self._found) >= self.entries:
-                self._found.pop(next(iter(self._found)))
-            self._found[key] = value
+            keep(self._found, key, value, self.entries)
         return value
 
     def clear(self):
@@ -144,7 +140,13 @@ def recall(store, x, function):
     if found is not None:
         return tuple(a.copy() for a in found)
     out = function(x)
-    if len(store) >= RECALL_CALLS:
-        store.pop(next(iter(store), None), None)
-    store[key] = tuple(np.array(a, copy=True) for a in out)
+    keep(store, key, tuple(np.array(a, copy=True) for a in out), RECALL_CALLS)
     return out
+
+
+def keep(table, key, value, entries):
+    """``table[key] = value`` in a dict bounded to ``entries`` keys: a new key in a full table
+    first drops the oldest one (first in, first out)."""
+    if key not in table and len(table) >= entries:
+        table.pop(next(iter(table)))
+    table[key] = value
