@@ -129,18 +129,29 @@ def _gap_narrowing_eV(layer, temperature_K):
                                              model=layer.gap_narrowing or silicon.GAP_NARROWING_MODELS[0]))
 
 
-def _mobility(layer, material, temperature_K):
+def _mobility(layer, material, temperature_K, file=None):
     """Minority-carrier mobility [m^2/(V s)] of an active layer: Masetti et al. 1983 for Si,
     Caughey-Thomas with Sotoodeh et al. 2000 where the data have the material, else the
-    library's fixed (lightly doped) value."""
+    library's fixed (lightly doped) value. An alloy whose own law does not cover the layer's
+    composition is refused (StackError), not given the fixed value silently."""
     carrier = "hole" if layer.polarity == "n" else "electron"
     if is_silicon(layer):
         return float(silicon.masetti_mobility(layer.doping_cm3, carrier)) * 1e-4
-    doped = recombination.minority_mobility_cm2_V_s(
-        material, recombination.material_document(layer.material, material), layer.doping_cm3, carrier,
-        temperature_K=temperature_K)
+    document = recombination.material_document(layer.material, material)
+    doped = recombination.minority_mobility_cm2_V_s(material, document, layer.doping_cm3, carrier,
+                                                    temperature_K=temperature_K)
     if doped is not None:
         return doped * 1e-4
+    uncovered = recombination.uncovered_composition_range(material, document, carrier)
+    if uncovered is not None:
+        low, high, source = uncovered
+        raise StackError(
+            f"{layer.material} at composition {layer.composition:g} is outside {low:g}-{high:g}, the range of "
+            f"its doping-dependent {carrier} mobility ({source}); its minority mobility there has no source",
+            file=file, where=f"{layer.label}, key composition",
+            fix=f"give a composition between {low:g} and {high:g}, or copy the material file beside the stack, "
+                f"give its [mobility.{carrier}_doping] law for this composition (with its source) and write "
+                "the copy's file name as the layer's material")
     return material.hole_mobility_m2_V_s if layer.polarity == "n" else material.electron_mobility_m2_V_s
 
 
@@ -150,7 +161,7 @@ def _minority(layer, material, temperature_K, *, file, role, radiative_s=np.inf)
     ``radiative_s`` [s] (inf: none). ``srh_lifetime_ns`` is the SRH part and the radiative one
     is added; ``lifetime_ns`` and ``diffusion_length_um`` are the measured total, the SRH part
     being what the radiative one leaves (laws/lifetimes.py)."""
-    mobility = _mobility(layer, material, temperature_K)
+    mobility = _mobility(layer, material, temperature_K, file)
     if not np.isfinite(mobility) or mobility <= 0:
         raise StackError(f"the library has no minority-carrier mobility for {material.name}",
                          file=file, where=layer.label,

@@ -22,13 +22,16 @@ mobilities; N_ref log-linear; lambda and the temperature exponents linear; commo
 source). Where an end member's lowest valley differs (GaInP and GaAsP with indirect GaP, AlGaAs
 with indirect AlAs) interpolating its mobility would mix valleys: None, and the library's fixed
 mobility stays. Sotoodeh et al. give a fuller ternary rule with alloy scattering, not reproduced.
+Where an alloy's own law gives a ``composition_range`` and a composition outside it has no
+interpolation either, :func:`uncovered_composition_range` says so, and the layer compiler refuses
+the layer subcell with a StackError (the library's GaInP law holds for 0.48 <= x <= 0.54).
 """
 from __future__ import annotations
 
 import numpy as np
 
 __all__ = ["caughey_thomas_mobility", "material_document", "radiative_coefficient_cm3_s",
-           "minority_mobility_cm2_V_s"]
+           "minority_mobility_cm2_V_s", "uncovered_composition_range"]
 
 _CARRIERS = ("electron", "hole")
 
@@ -144,6 +147,22 @@ def _alloy_parameters(document, carrier, composition):
     if not float(low) <= float(composition) <= float(high):
         return None
     return _parameters(document, carrier)
+
+
+def uncovered_composition_range(material, document, carrier):
+    """``(x_low, x_high, source)`` of an alloy's own ``[mobility.<carrier>_doping]`` law where
+    ``material``'s composition lies outside its ``composition_range`` and the end members'
+    interpolation gives nothing either; else None. The layer compiler refuses such a layer
+    subcell (its minority mobility would have no source) rather than fall back silently."""
+    if document is None or _end_members(material, document) is None:
+        return None
+    law = document.get("mobility", {}).get(f"{carrier}_doping")
+    if law is None or "composition_range" not in law:
+        return None
+    if minority_mobility_cm2_V_s(material, document, 1e17, carrier) is not None:
+        return None
+    low, high = law["composition_range"]
+    return float(low), float(high), str(law.get("source", ""))
 
 
 def _lowest_valley(name):
