@@ -196,3 +196,28 @@ def test_a_gainp_subcell_outside_the_laws_range_is_refused(tmp_path):
     assert "key composition" in error.where and "cell" in error.where
     assert "0.48-0.54" in error.problem and "0.6" in error.problem
     assert "between 0.48 and 0.54" in error.fix and "[mobility." in error.fix
+
+
+@pytest.mark.parametrize("edit, where, problem", [
+    (("lambda = 0.7\n", ""), "key mobility.electron_doping", "missing lambda"),
+    (("mu_min_cm2_V_s = 300", "mu_min_cm2_V_s = 3300"), "key mobility.electron_doping.mu_max_cm2_V_s",
+     "mu_max_cm2_V_s >= mu_min_cm2_V_s"),
+    (("n_ref_cm3 = 2e17", "n_ref_cm3 = -2e17"), "key mobility.electron_doping.n_ref_cm3", "> 0"),
+    (("[0.48, 0.54]", "[0.54, 0.48]"), "key mobility.electron_doping.composition_range", "x_low <= x_high"),
+    (("lambda = 0.7", "lambda = 0.7\nmu_maximum = 3"), "key mobility.electron_doping", "unknown key mu_maximum"),
+])
+def test_a_bad_mobility_law_in_a_material_file(tmp_path, edit, where, problem):
+    from test_main_job import cli
+
+    old, new = edit
+    assert old in BLOCK
+    path = _copy(tmp_path, "gainp.toml", "MyGaInP", extra=BLOCK.replace(old, new))
+    stack = tmp_path / "s.toml"
+    stack.write_text(GAINP_CELL.format(m=path, x=0.51))
+    with pytest.raises(StackError) as caught:
+        load_stack(stack)
+    error = caught.value
+    assert error.file.endswith("mygainp.toml") and error.where.startswith(where + " (") and problem in error.problem
+    assert "[mobility.electron_doping]" in error.fix
+    done = cli("run", stack)
+    assert done.returncode == 2 and "Traceback" not in done.stderr and "mygainp.toml" in done.stderr

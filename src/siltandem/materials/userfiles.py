@@ -54,6 +54,43 @@ def _check_numbers(table, path, prefix=""):
                                      "files")
 
 
+#: the keys of a [mobility.<carrier>_doping] law (materials/recombination.py): required, optional
+MOBILITY_LAW_KEYS = ("mu_max_cm2_V_s", "mu_min_cm2_V_s", "n_ref_cm3", "lambda")
+_MOBILITY_LAW_OPTIONAL = {"theta1", "theta2", "composition_range", "source"}
+
+
+def _check_mobility_laws(document, path):
+    """A file's [mobility.electron_doping] / [mobility.hole_doping] (Caughey-Thomas laws): the
+    four parameters positive with mu_max >= mu_min, and composition_range two fractions in order."""
+    mobility = document.get("mobility")
+    for carrier in ("electron", "hole"):
+        law = mobility.get(f"{carrier}_doping") if isinstance(mobility, dict) else None
+        if law is None:
+            continue
+        table = f"mobility.{carrier}_doping"
+        fix = (f"give [{table}] mu_max_cm2_V_s, mu_min_cm2_V_s (mu_max >= mu_min > 0), n_ref_cm3 > 0, "
+               "lambda > 0, optional theta1, theta2, composition_range = [x_low, x_high] within [0, 1] "
+               "and source, as in the library's gaas.toml and gainp.toml")
+        if not isinstance(law, dict):
+            raise StackError(f"{table} must be a table", file=path, where=f"key {table}", fix=fix)
+        unknown = sorted(set(law) - set(MOBILITY_LAW_KEYS) - _MOBILITY_LAW_OPTIONAL)
+        missing = [key for key in MOBILITY_LAW_KEYS if key not in law]
+        if unknown or missing:
+            what = ", ".join([f"unknown key {k}" for k in unknown] + [f"missing {k}" for k in missing])
+            raise StackError(f"[{table}]: {what}", file=path, where=f"key {table}", fix=fix)
+        bad = [key for key in MOBILITY_LAW_KEYS if isinstance(law[key], list) or law[key] <= 0]
+        if bad or law["mu_max_cm2_V_s"] < law["mu_min_cm2_V_s"]:
+            key = bad[0] if bad else "mu_max_cm2_V_s"
+            raise StackError(f"{table}.{key} = {excerpt(law[key])}: each parameter must be one number > 0, "
+                             "with mu_max_cm2_V_s >= mu_min_cm2_V_s", file=path,
+                             where=f"key {table}.{key}", fix=fix)
+        span = law.get("composition_range", [0.0, 1.0])
+        if not isinstance(span, list) or len(span) != 2 or not 0.0 <= span[0] <= span[1] <= 1.0:
+            raise StackError(f"{table}.composition_range = {excerpt(span)} is not [x_low, x_high] with "
+                             "0 <= x_low <= x_high <= 1", file=path, where=f"key {table}.composition_range",
+                             fix=fix)
+
+
 def is_material_file(name):
     """True when ``name`` names a material file (text ending in .toml), not a library name."""
     return isinstance(name, str) and name.strip().lower().endswith(SUFFIX)
@@ -219,6 +256,7 @@ def read_material_file(path):
                              'the same way) or kind = "alloy" for an alloy of two library '
                              'materials')
     _check_numbers(document, path)
+    _check_mobility_laws(document, path)
     document, files = _tables(document, path)
     digest = hashlib.sha256()
     for name in [path, *files]:
