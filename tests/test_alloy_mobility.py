@@ -221,3 +221,25 @@ def test_a_bad_mobility_law_in_a_material_file(tmp_path, edit, where, problem):
     assert "[mobility.electron_doping]" in error.fix
     done = cli("run", stack)
     assert done.returncode == 2 and "Traceback" not in done.stderr and "mygainp.toml" in done.stderr
+
+
+def test_the_materials_command_names_the_gainp_laws_source():
+    from test_main_job import cli
+
+    done = cli("materials", "Ga0.51In0.49P")
+    assert done.returncode == 0
+    line = next(row for row in done.stdout.splitlines() if "electron mobility at 1e17" in row)
+    # Caughey-Thomas at 1e17 with the source's parameters: 400 + 3900 / (1 + 5^0.7) = 1354.7
+    assert "1354.7" in line and "Ga0.51In0.49P electrons (from memory" in line
+
+
+def test_a_map_over_gainp_compositions_refuses_those_outside_the_law(tmp_path):
+    from test_main_job import cli
+
+    stack = tmp_path / "s.toml"
+    stack.write_text(GAINP_CELL.format(m="GaInP", x=0.51).replace("20000", "1000"))
+    done = cli("map", stack, "--vary", "cell emitter.composition=0.50:0.60:3", "--vary",
+               "cell base.thickness_nm=900:1000:2", "--csv", tmp_path / "m.csv", "--quiet")
+    assert done.returncode == 2 and "Traceback" not in done.stderr
+    assert "key composition" in done.stderr and "0.48-0.54" in done.stderr
+    assert not (tmp_path / "m.csv").exists()

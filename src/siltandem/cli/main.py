@@ -146,7 +146,7 @@ def _recombination_rows(name, material):
         mu = recombination.minority_mobility_cm2_V_s(material, document, 1e17, carrier)
         if mu is not None:
             print(f"  {carrier + ' mobility at 1e17':<28} {mu:>14.5g} {'cm^2 V^-1 s^-1':<10} "
-                  "Caughey-Thomas, M. Sotoodeh et al., J. Appl. Phys. 87 (2000) 2890 (from memory)")
+                  f"Caughey-Thomas; {recombination.mobility_source(material, document, carrier)}")
 
 
 def _interface(args):

@@ -31,7 +31,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["caughey_thomas_mobility", "material_document", "radiative_coefficient_cm3_s",
-           "minority_mobility_cm2_V_s", "uncovered_composition_range"]
+           "minority_mobility_cm2_V_s", "mobility_source", "uncovered_composition_range"]
 
 _CARRIERS = ("electron", "hole")
 
@@ -147,6 +147,20 @@ def _alloy_parameters(document, carrier, composition):
     if not float(low) <= float(composition) <= float(high):
         return None
     return _parameters(document, carrier)
+
+
+def mobility_source(material, document, carrier):
+    """The source of the law :func:`minority_mobility_cm2_V_s` uses for ``carrier`` (text; "" where
+    it uses none): the file's own law's ``source``, or the end members' interpolation."""
+    if document is None or minority_mobility_cm2_V_s(material, document, 1e17, carrier) is None:
+        return ""
+    ends = _end_members(material, document)
+    if ends is None or _alloy_parameters(document, carrier, material.composition) is not None:
+        return str(document["mobility"][f"{carrier}_doping"].get("source", ""))
+    one, zero, _ = ends
+    return ("1/mu_max, 1/mu_min linear in x between the end members' laws (common practice, no source): "
+            + "; ".join(f"{end['name']}: {end['mobility'][f'{carrier}_doping'].get('source', '')}"
+                        for end in (one, zero)))
 
 
 def uncovered_composition_range(material, document, carrier):
