@@ -12,9 +12,9 @@ al., J. Appl. Phys. 97 (2005) 093710 (relative radiative coefficient); A. Schenk
 import math
 from pathlib import Path
 
-from siltandem.laws.silicon import (BULK_COLUMNS, NARROWING_SLOPE_MARGIN, NARROWING_STEPS, NARROWING_TOLERANCE,
-                                    SCHENK_BOHR_RADIUS_CM, SCHENK_ELECTRON, SCHENK_HOLE, SCHENK_RYDBERG_EV,
-                                    schenk_band_shift)
+from siltandem.laws.silicon import (BULK_COLUMNS, NARROWING_DENSITY_CM3, NARROWING_SLOPE_MARGIN, NARROWING_STEPS,
+                                    NARROWING_TOLERANCE, SCHENK_BOHR_RADIUS_CM, SCHENK_ELECTRON, SCHENK_HOLE,
+                                    SCHENK_RYDBERG_EV, schenk_band_shift)
 from siltandem.numerics import jit as numba
 from siltandem.numerics.kernel_cache import drop_stale_kernels
 
@@ -63,22 +63,32 @@ def _closed(u, total, ni2, inverse):
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def bulk_state(v, p, inverse):
     """(x, g, s, X', dEg'): excess density, n p - n0 p0, n + p, the closed form's dx/du and
-    d dEg / d dn at the split v; with the narrowing on (t > 0), dn = X(v + dEg(dn) - dEg0) by
-    Newton steps from X(v) (laws/silicon.py injected_state, the same iteration)."""
+    d dEg / d dn at the split v; with the narrowing on (t > 0) and v > 0, dn = X(v + dEg(dn) - dEg0)
+    by Newton steps on ln(n p / ni^2) - (v + dEg - dEg0)/kT from X(v) (laws/silicon.py
+    injected_state, the same iteration)."""
     total, ni2, t = p[BULK_OFFSET + 1], p[BULK_OFFSET + 2], p[BULK_OFFSET + 12]
     x, g, s, r = _closed(v, total, ni2, inverse)
-    if not t > 0.0:
+    if not (t > 0.0 and x > 0.0):
         return x, g, s, r, 0.0
     n0, p0, ions, shift0 = p[BULK_OFFSET + 9], p[BULK_OFFSET + 10], p[BULK_OFFSET + 11], p[BULK_OFFSET + 13]
     guess = x
     slope = 0.0
+    final = False
     for _ in range(NARROWING_STEPS):
-        shift, slope = schenk_shift(n0 + guess, p0 + guess, ions, t)
-        x, g, s, r = _closed(v + (shift - shift0), total, ni2, inverse)
-        step = guess - x
-        if not abs(step) > NARROWING_TOLERANCE * abs(x):
+        capped = min(guess, NARROWING_DENSITY_CM3)
+        shift, slope = schenk_shift(n0 + capped, p0 + capped, ions, t)
+        if not guess < NARROWING_DENSITY_CM3:
+            slope = 0.0
+        u = v + (shift - shift0)
+        x, g, s, r = _closed(u, total, ni2, inverse)
+        if final:
             break
-        guess = guess - step / (1.0 - r * slope)
+        product = guess * (total + guess)
+        residual = math.log1p(product / ni2) - u * inverse
+        rise = (total + 2.0 * guess) / (ni2 + product) - slope * inverse
+        new = max(guess - residual / rise, 0.0)
+        final = not abs(new - guess) > NARROWING_TOLERANCE * guess
+        guess = new
     return x, g, s, r, slope
 
 

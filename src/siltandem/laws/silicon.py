@@ -53,10 +53,15 @@ _RADIATIVE_T = {"bmin": (0.2, 0.0, 320.0, 2.5), "b1": (1.5e18, 1e7, 550.0, 3.0),
 #: recombination law, then (n0, p0, N_D + N_A, t = kT / Ry_ex, dEg0) of the injection-dependent
 #: narrowing (t = 0: none)
 BULK_COLUMNS = 14
-#: Newton steps at most, and the relative step at which they stop, of the excess density under
-#: injection-dependent narrowing (:func:`injected_state`; three to five steps in practice)
+#: Newton steps at most of the excess density under injection-dependent narrowing
+#: (:func:`injected_state`), and the relative step after which one more evaluation ends them (the
+#: steps converge quadratically: the next error is of order its square, rounding)
 NARROWING_STEPS = 30
-NARROWING_TOLERANCE = 1e-14
+NARROWING_TOLERANCE = 1e-8
+#: excess density [cm^-3] above which the narrowing stays at its value there: beyond it the carriers
+#: are degenerate (the base law's Boltzmann statistics fail) and near 2e20 cm^-3 (300 K) the split
+#: would stop rising with dn (X' dEg' reaches 1); at the cap X' dEg' is 0.33 at 300 K, 0.64 at 150 K
+NARROWING_DENSITY_CM3 = 1e19
 #: relative widening of the range of d dEg / d dn taken from a cell's ends (:func:`bulk_slope_range`)
 NARROWING_SLOPE_MARGIN = 0.05
 
@@ -344,9 +349,12 @@ def injected_state(v_junction_V, columns, *, temperature_K):
     t = 0) dn is :func:`excess_density`'s closed form. With it, n p = ni,eff(n, p)^2 exp(Vj/Vt),
     ni,eff^2 = ni,eff0^2 exp((dEg(n, p) - dEg0)/kT) with Schenk's dEg (:func:`schenk_shift`; A.
     Schenk, J. Appl. Phys. 84 (1998) 3684), so dn = X(Vj + dEg(dn) - dEg0), X the closed form: solved
-    by Newton steps from dn = X(Vj) (the shift is a few meV; NARROWING_STEPS, NARROWING_TOLERANCE), and
-    dn/dVj = X' / (1 - X' dEg'), X' = n p / (Vt s). laws/compiled_bulk.py ``bulk_state`` is the
-    same iteration for scalars. dEg' = d dEg / d dn [eV cm^3] (0 without the narrowing)."""
+    by Newton steps on h(dn) = ln(n p / ni^2) - (Vj + dEg - dEg0)/kT (rising in dn while
+    X' dEg' < 1) from dn = X(Vj), left of the root (NARROWING_STEPS, NARROWING_TOLERANCE; dEg held at
+    its value at dn = NARROWING_DENSITY_CM3 above it, and at equilibrium for Vj <= 0, where the
+    carriers only deplete), and dn/dVj = X' / (1 - X' dEg'), X' = n p / (Vt s).
+    laws/compiled_bulk.py ``bulk_state`` is the same iteration for scalars. dEg' = d dEg / d dn
+    [eV cm^3] (0 without the narrowing)."""
     total, ni2 = columns[1], columns[2]
     n0, p0, ions, reduced, shift0 = columns[9:14]
     vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
@@ -355,31 +363,38 @@ def injected_state(v_junction_V, columns, *, temperature_K):
     s = total + 2.0 * x
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         rate = ni2 * np.exp(v / vt) / (vt * s)
-    if not np.any(np.asarray(reduced) > 0):
+    if not np.any((np.asarray(reduced) > 0) & (x > 0)):
         return x, g, s, rate, np.zeros(np.shape(rate))
     shape = np.broadcast(x, reduced, vt).shape
     v, total, ni2, n0, p0, ions, reduced, shift0, vt, guess = (
         np.broadcast_to(np.asarray(c, dtype=float), shape)
         for c in (v, total, ni2, n0, p0, ions, reduced, shift0, vt, x))
-    on = reduced > 0
-    t = np.where(on, reduced, 1.0)
+    pending = (reduced > 0) & (guess > 0)
+    final = np.zeros(shape, dtype=bool)
+    t = np.where(pending, reduced, 1.0)
+    guess = np.where(pending, guess, 0.0)
     out = [np.array(np.broadcast_to(c, shape), dtype=float) for c in (x, g, s, rate, np.zeros(np.shape(rate)))]
-    active = on.copy()
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         for _ in range(NARROWING_STEPS):
-            shift, slope = schenk_shift(n0 + guess, p0 + guess, ions, t)
+            capped = np.minimum(guess, NARROWING_DENSITY_CM3)
+            shift, slope = schenk_shift(n0 + capped, p0 + capped, ions, t)
+            slope = np.where(guess < NARROWING_DENSITY_CM3, slope, 0.0)
             u = v + (shift - shift0)
             gf = ni2 * np.expm1(u / vt)
             xf = 2.0 * gf / (total + np.sqrt(np.maximum(total * total + 4.0 * gf, 0.0)))
             sf = total + 2.0 * xf
             rf = ni2 * np.exp(u / vt) / (vt * sf)
             for k, c in enumerate((xf, gf, sf, rf, slope)):
-                out[k] = np.where(active, c, out[k])
-            step = guess - xf
-            active = active & (np.abs(step) > NARROWING_TOLERANCE * np.abs(xf))
-            if not np.any(active):
+                out[k] = np.where(pending, c, out[k])
+            pending = pending & ~final
+            if not np.any(pending):
                 break
-            guess = np.where(active, guess - step / (1.0 - rf * slope), guess)
+            product = guess * (total + guess)
+            residual = np.log1p(product / ni2) - u / vt
+            rise = (total + 2.0 * guess) / (ni2 + product) - slope / vt
+            new = np.maximum(guess - residual / rise, 0.0)
+            final = final | (pending & ~(np.abs(new - guess) > NARROWING_TOLERANCE * guess))
+            guess = np.where(pending, new, guess)
     return tuple(out)
 
 
