@@ -25,6 +25,10 @@ in low and high injection alike, and the base's recombination current is
 the third a rear surface of recombination velocity S with equal capture). J_b rises strictly with
 Vj and is no diode: the subcell law carries it beside its J01 and J02 diodes
 (laws/compiled.py, subcell_law; laws/diode.py, junction_current).
+
+With Schenk's narrowing (the default), ni,eff itself follows the injected carriers: n p =
+ni,eff0^2 exp((Vj + dEg(n, p) - dEg(n0, p0)) / kT) (A. Schenk, J. Appl. Phys. 84 (1998) 3684;
+:func:`injected_state`), a few meV at the operating point of a lightly doped base.
 """
 import numpy as np
 
