@@ -153,6 +153,26 @@ def test_compiled_law_with_narrowing_is_numpy_and_its_slopes_are_enclosed(n0, p0
     assert np.all(slope >= low[0][:, None] * (1 + 1e-12)) and np.all(slope <= high[0][:, None])
 
 
+@pytest.mark.parametrize("temperature", [250.0, 350.0])
+@pytest.mark.parametrize("n0, p0", [(1e14, 0.0), (0.0, 1e17), (1e18, 0.0)])
+def test_slope_enclosure_with_narrowing_holds_on_sampled_cells_at_other_temperatures(n0, p0, temperature):
+    # the enclosure's dEg' range comes from the cell's ends (not proven): sampled slopes of the
+    # compiled law inside 400 random cells up to high injection (our own law against itself)
+    columns = _columns(n0, p0, temperature_K=temperature)
+    vt = float(thermal_voltage_V(temperature))
+    rows = kernels.parameter_rows(kernels.SUBCELL_LAW, [[0.0, 0.0, 0.0, 0.0, vt, -np.inf, 0.0, 3.28]],
+                                  bulk=np.array([[float(c) for c in columns]]))
+    rng = np.random.default_rng(int(temperature) + int(np.log10(n0 + p0)))
+    a, b = rng.uniform(0.0, 1.2, 400), rng.uniform(0.0, 1.2, 400)
+    width = np.abs(b - a) * rng.choice([1.0, 1e-2, 1e-4], 400)
+    lo = np.minimum(a, b)[None, :]
+    hi = lo + width[None, :]
+    low, high = kernels.slope_range(kernels.SUBCELL_LAW, rows, lo, hi)
+    inside = lo[0][:, None] + (hi - lo)[0][:, None] * np.linspace(0.0, 1.0, 41)[None, :]
+    _, slope = kernels.evaluate_law(kernels.SUBCELL_LAW, rows, inside)
+    assert np.all(slope >= low[0][:, None] * (1 + 1e-12)) and np.all(slope <= high[0][:, None])
+
+
 @pytest.mark.parametrize("temperature", [200.0, 298.15])
 def test_narrowing_is_held_above_its_density_cap_and_the_law_stays_monotone(temperature):
     # beyond dn = NARROWING_DENSITY_CM3 (degenerate carriers) the shift is held: up to a split of
