@@ -2,7 +2,7 @@
 (numba keys a cached function by its own file's stamp; documented in numba's "Cache sharing" /
 "Cache invalidation" notes: a change to an inlined function in another file is not seen).
 Contract test of numerics/kernel_cache.py on a package folder made in tmp_path."""
-from siltandem.numerics.kernel_cache import KERNEL_SOURCES, drop_stale_kernels
+from siltandem.numerics.kernel_cache import INLINED_SOURCES, KERNEL_SOURCES, drop_stale_kernels
 
 
 def _package(tmp_path):
@@ -75,3 +75,21 @@ def test_the_modules_check_runs_once_per_process(tmp_path):
     assert stamp.read_text() == "changed\n"          # not checked again
     drop_stale_kernels(folder)
     assert stamp.read_text() != "changed\n"          # a plain call checks and records afresh
+
+
+def test_a_changed_inlined_law_source_without_kernels_drops_the_cache(tmp_path):
+    """laws/silicon.py has no kernel of its own, but laws/compiled_bulk.py compiles its Schenk band
+    shift into the solver's kernels: a change of it drops every cached kernel, its own too (numba
+    files a compiled function's cache beside the file defining it; common practice, no source)."""
+    folder = _package(tmp_path)
+    for name in INLINED_SOURCES:
+        path = folder / name
+        path.write_text(f"# {name}\n")
+        (path.parent / "__pycache__" / f"{path.stem}.schenk_band_shift-1.py311.nbi").write_bytes(b"index")
+    drop_stale_kernels(folder)
+    _package(folder)
+    assert not drop_stale_kernels(folder)
+    (folder / "laws/silicon.py").write_text("# changed\n")
+    (folder / "laws/__pycache__/silicon.schenk_band_shift-1.py311.nbi").write_bytes(b"index")
+    assert drop_stale_kernels(folder)
+    assert _cached(folder) == []

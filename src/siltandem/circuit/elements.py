@@ -136,7 +136,7 @@ class Subcell:
     #: fraction of its radiative emission the next subcell below collects (circuit/coupling.py)
     luminescent_coupling: np.ndarray = field(default_factory=lambda: batch(0.0))
     #: a silicon base's recombination law at a uniform quasi-Fermi-level split (laws/silicon.py):
-    #: (F = q W, n0, p0, R = 1/tau + S/W, ni,eff [cm^-3]) as (B, 1) arrays, or None
+    #: (F = q W, n0, p0, R = 1/tau + S/W, ni,eff [cm^-3][, 1: Schenk's narrowing follows injection]), or None
     bulk: tuple | None = field(default=None, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
 
@@ -163,6 +163,7 @@ class Subcell:
         key = ("bulk", _temperature_key(temperature_K))
         if key not in self._cache:
             self._cache[key] = silicon.bulk_columns(self.bulk[:4], ni_eff_cm3=self.bulk[4],
+                                                    injection_narrowing=self.bulk[5] if len(self.bulk) > 5 else 0.0,
                                                     temperature_K=temperature_K)
         return self._cache[key]
 

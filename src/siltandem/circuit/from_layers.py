@@ -371,7 +371,9 @@ def _subcell(cell, layers, materials, temperature_K, file, name, suns=1.0, back_
         factor, n0, p0, rate = silicon.bulk_base(
             thickness_m=base.thickness_nm * 1e-9, n0_cm3=n0, p0_cm3=p0, srh_rate_s=1.0 / tau_b,
             surface_srv_m_s=0.0 if base_j0 is not None else srv_b)
-        bulk = tuple(batch(float(x)) for x in (factor, n0, p0, rate, ni_b / units.PER_CM3_TO_PER_M3))
+        # Schenk's narrowing (the default) follows the carrier densities at the operating point
+        injection = float((base.gap_narrowing or silicon.GAP_NARROWING_MODELS[0]) == "schenk")
+        bulk = tuple(batch(float(x)) for x in (factor, n0, p0, rate, ni_b / units.PER_CM3_TO_PER_M3, injection))
         # the law holds the radiative recombination: no floor
         j01 = emitter_j0 + (base_j0 or 0.0)
         diffusion_total = j01

@@ -29,7 +29,7 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel is loaded from numba's cache: a cache built from other kernel sources goes
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.compiled_bulk import BULK_OFFSET, bulk_law, bulk_slopes  # noqa: E402
+from siltandem.laws.compiled_bulk import BULK_OFFSET, BULK_WIDTH, bulk_law, bulk_slopes  # noqa: E402
 from siltandem.laws.compiled_isotype import isotype_inverse  # noqa: E402
 
 __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "ISOTYPE_LAW", "as_input", "parameter_rows", "evaluate_law",
@@ -45,7 +45,7 @@ TUNNEL_LAW = 1
 ISOTYPE_LAW = 2
 #: columns of a law's parameter rows: the law's 8 parameters, then quantities derived from them
 #: (a subcell: 1/Vt, then the 9 columns of a silicon base's recombination law, laws/compiled_bulk.py)
-PARAMETER_WIDTH = 18
+PARAMETER_WIDTH = BULK_OFFSET + BULK_WIDTH
 
 
 def as_input(x, dtype=float):
@@ -61,13 +61,14 @@ def parameter_rows(code, base, bulk=None):
     """A law's parameter rows for the kernels: ``base`` (R, 8), (Jph, J01, J02, G, Vt, Vbr, a, m)
     for a subcell or (A, V1, Jv, Vv, C2, J0, n Vt, k) for a tunnel junction, followed by the
     derived columns its scalar form reads (reciprocals, the shifted excess prefactor); a
-    subcell's ``bulk`` (R or 1, 9) columns of a silicon base's law (laws/silicon.py
+    subcell's ``bulk`` (R or 1, up to BULK_WIDTH) columns of a silicon base's law (laws/silicon.py
     bulk_columns), none when None."""
     base = np.asarray(base, dtype=float)
     rows = np.zeros((base.shape[0], PARAMETER_WIDTH))
     rows[:, :8] = base
     if bulk is not None:
-        rows[:, BULK_OFFSET:BULK_OFFSET + 9] = np.asarray(bulk, dtype=float)
+        bulk = np.asarray(bulk, dtype=float)
+        rows[:, BULK_OFFSET:BULK_OFFSET + bulk.shape[1]] = bulk
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
         if code == SUBCELL_LAW:
             rows[:, 8] = 1.0 / base[:, 4]

@@ -1,15 +1,20 @@
 """Compiled scalar form of a uniformly injected silicon base's recombination current and its slope
 enclosure (laws/silicon.py bulk_current), read by the subcell law of laws/compiled.py from the
-parameter columns BULK_OFFSET.. (F, N, ni^2, A, B_low, bmin, b1, b3, R); F = 0 is no base law.
+parameter columns BULK_OFFSET.. (F, N, ni^2, A, B_low, bmin, b1, b3, R, n0, p0, N_D + N_A, t, dEg0);
+F = 0 is no base law, t = 0 no injection-dependent narrowing.
 
 References
 ----------
 A. Richter et al., Phys. Rev. B 86 (2012) 165202 (intrinsic recombination); P. P. Altermatt et
-al., J. Appl. Phys. 97 (2005) 093710 (relative radiative coefficient).
+al., J. Appl. Phys. 97 (2005) 093710 (relative radiative coefficient); A. Schenk, J. Appl. Phys. 84
+(1998) 3684 (band-gap narrowing at the carrier densities of the operating point).
 """
 import math
 from pathlib import Path
 
+from siltandem.laws.silicon import (BULK_COLUMNS, NARROWING_DENSITY_CM3, NARROWING_SLOPE_MARGIN, NARROWING_STEPS,
+                                    NARROWING_TOLERANCE, SCHENK_BOHR_RADIUS_CM, SCHENK_ELECTRON, SCHENK_HOLE,
+                                    SCHENK_RYDBERG_EV, schenk_band_shift)
 from siltandem.numerics import jit as numba
 from siltandem.numerics.kernel_cache import drop_stale_kernels
 
@@ -22,16 +27,69 @@ _C = 3.0e-29
 _DELTA = 0.92
 _B2 = 0.54
 _B4 = 1.25
+#: parameter columns of a subcell with a base law
+BULK_WIDTH = BULK_COLUMNS
+_SCALE = SCHENK_BOHR_RADIUS_CM ** 3
+_E = SCHENK_ELECTRON
+_H = SCHENK_HOLE
+# the numpy source of laws/silicon.py, compiled for scalars
+_band = numba.njit(cache=True, inline="always", error_model="numpy")(schenk_band_shift)
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _state(v, p, inverse):
-    """(x, g, s): excess density, n p - ni^2 and n + p at the split v."""
-    total, ni2 = p[BULK_OFFSET + 1], p[BULK_OFFSET + 2]
-    g = ni2 * math.expm1(v * inverse)
+def schenk_shift(electron_cm3, hole_cm3, ions_cm3, reduced_temperature):
+    """Schenk's dEg [eV] and d dEg / d dn [eV cm^3] (laws/silicon.py schenk_shift, for scalars)."""
+    n, p = electron_cm3 * _SCALE, hole_cm3 * _SCALE
+    n_s = n + p
+    n_p = _E[0] * n + _H[0] * p
+    ions = ions_cm3 * _SCALE
+    value_e, slope_e = _band(n, n_s, n_p, ions, reduced_temperature, _E[0], _E[1], _E[2], _E[3], _E[4],
+                             _E[5], _E[6], _E[7], _E[8], _E[9])
+    value_h, slope_h = _band(p, n_s, n_p, ions, reduced_temperature, _H[0], _H[1], _H[2], _H[3], _H[4],
+                             _H[5], _H[6], _H[7], _H[8], _H[9])
+    return -SCHENK_RYDBERG_EV * (value_e + value_h), -SCHENK_RYDBERG_EV * _SCALE * (slope_e + slope_h)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _closed(u, total, ni2, inverse):
+    """(x, g, s, X'): the closed-form excess density at the split u, n p - n0 p0, n + p, dx/du."""
+    g = ni2 * math.expm1(u * inverse)
     root = math.sqrt(max(total * total + 4.0 * g, 0.0))
     x = 2.0 * g / (total + root)
-    return x, g, total + 2.0 * x
+    s = total + 2.0 * x
+    return x, g, s, ni2 * math.exp(u * inverse) * inverse / s
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def bulk_state(v, p, inverse):
+    """(x, g, s, X', dEg'): excess density, n p - n0 p0, n + p, the closed form's dx/du and
+    d dEg / d dn at the split v; with the narrowing on (t > 0) and v > 0, dn = X(v + dEg(dn) - dEg0)
+    by Newton steps on ln(n p / ni^2) - (v + dEg - dEg0)/kT from X(v) (laws/silicon.py
+    injected_state, the same iteration)."""
+    total, ni2, t = p[BULK_OFFSET + 1], p[BULK_OFFSET + 2], p[BULK_OFFSET + 12]
+    x, g, s, r = _closed(v, total, ni2, inverse)
+    if not (t > 0.0 and x > 0.0):
+        return x, g, s, r, 0.0
+    n0, p0, ions, shift0 = p[BULK_OFFSET + 9], p[BULK_OFFSET + 10], p[BULK_OFFSET + 11], p[BULK_OFFSET + 13]
+    guess = x
+    slope = 0.0
+    final = False
+    for _ in range(NARROWING_STEPS):
+        capped = min(guess, NARROWING_DENSITY_CM3)
+        shift, slope = schenk_shift(n0 + capped, p0 + capped, ions, t)
+        if not guess < NARROWING_DENSITY_CM3:
+            slope = 0.0
+        u = v + (shift - shift0)
+        x, g, s, r = _closed(u, total, ni2, inverse)
+        if final:
+            break
+        product = guess * (total + guess)
+        residual = math.log1p(product / ni2) - u * inverse
+        rise = (total + 2.0 * guess) / (ni2 + product) - slope * inverse
+        new = max(guess - residual / rise, 0.0)
+        final = not abs(new - guess) > NARROWING_TOLERANCE * guess
+        guess = new
+    return x, g, s, r, slope
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -46,11 +104,9 @@ def _screening(s, p):
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def bulk_law(v, p, inverse):
     """J_b and dJ_b/dv of the base law at the quasi-Fermi-level split v."""
-    factor, total, ni2, a, b_low, bmin, rate = (p[BULK_OFFSET], p[BULK_OFFSET + 1],
-                                                p[BULK_OFFSET + 2], p[BULK_OFFSET + 3],
-                                                p[BULK_OFFSET + 4], p[BULK_OFFSET + 5],
-                                                p[BULK_OFFSET + 8])
-    x, g, s = _state(v, p, inverse)
+    factor, total, a, b_low, bmin, rate = (p[BULK_OFFSET], p[BULK_OFFSET + 1], p[BULK_OFFSET + 3],
+                                           p[BULK_OFFSET + 4], p[BULK_OFFSET + 5], p[BULK_OFFSET + 8])
+    x, g, s, r, k = bulk_state(v, p, inverse)
     d, fall, rise = _screening(s, p)
     brel = bmin + (1.0 - bmin) / d
     brel_slope = -(1.0 - bmin) * (fall + rise) / (d * d)
@@ -60,7 +116,7 @@ def bulk_law(v, p, inverse):
     dvalue = (s * (a + b_low * brel) + 2.0 * g * b_low * brel_slope
               + _C * power * ((1.0 + _DELTA) * total + (2.0 + _DELTA) * xp)
               + rate * (total * total + 2.0 * total * x + 2.0 * x * x) / (s * s))
-    return factor * value, factor * dvalue * (ni2 * math.exp(v * inverse)) * inverse / s
+    return factor * value, factor * dvalue * (r / (1.0 - r * k))
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -77,12 +133,10 @@ def bulk_slopes(lo, hi, p, inverse):
     s (n + p) and g rise; D rises, its slope's two parts fall and rise; the Auger injection part
     C x^0.92 (1.92 N + 2.92 x) rises; the recombination-rate part (N^2 + 2Nx + 2x^2)/s^2 falls;
     dx/dv = n p / (Vt (n + p)) rises (n and p both rise) -- combined by interval products."""
-    factor, total, ni2, a, b_low, bmin, rate = (p[BULK_OFFSET], p[BULK_OFFSET + 1],
-                                                p[BULK_OFFSET + 2], p[BULK_OFFSET + 3],
-                                                p[BULK_OFFSET + 4], p[BULK_OFFSET + 5],
-                                                p[BULK_OFFSET + 8])
-    x_lo, g_lo, s_lo = _state(lo, p, inverse)
-    x_hi, g_hi, s_hi = _state(hi, p, inverse)
+    factor, total, a, b_low, bmin, rate = (p[BULK_OFFSET], p[BULK_OFFSET + 1], p[BULK_OFFSET + 3],
+                                           p[BULK_OFFSET + 4], p[BULK_OFFSET + 5], p[BULK_OFFSET + 8])
+    x_lo, g_lo, s_lo, rate_lo, k_lo = bulk_state(lo, p, inverse)
+    x_hi, g_hi, s_hi, rate_hi, k_hi = bulk_state(hi, p, inverse)
     d_lo, fall_lo, rise_lo = _screening(s_lo, p)
     d_hi, fall_hi, rise_hi = _screening(s_hi, p)
     brel_lo = bmin + (1.0 - bmin) / d_hi          # B_rel falls with s
@@ -103,8 +157,13 @@ def bulk_slopes(lo, hi, p, inverse):
     p_lo = first_lo + second_lo + third_lo + fourth_lo
     p_hi = first_hi + second_hi + third_hi + fourth_hi
     spread = 1e-12 * (abs(first_hi) + abs(second_lo) + abs(second_hi) + third_hi + fourth_hi)
-    rate_lo = ni2 * math.exp(lo * inverse) * inverse / s_lo
-    rate_hi = ni2 * math.exp(hi * inverse) * inverse / s_hi
+    # dx/dv = X' / (1 - X' dEg'), dEg' within its ends' values widened (laws/silicon.py bulk_slope_range)
+    k_spread = NARROWING_SLOPE_MARGIN * max(abs(k_lo), abs(k_hi))
+    k_small = min(k_lo, k_hi) - k_spread
+    k_large = max(k_lo, k_hi) + k_spread
+    rate_lo = rate_lo / (1.0 - rate_lo * k_small)
+    room = 1.0 - rate_hi * k_large
+    rate_hi = rate_hi / room if room > 0.0 else math.inf
     low, high = _product(p_lo - spread, p_hi + spread, rate_lo, rate_hi)
     return factor * low * (1.0 - 1e-12) if low > 0.0 else factor * low * (1.0 + 1e-12), \
         factor * high * (1.0 + 1e-12)

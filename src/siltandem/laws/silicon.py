@@ -25,6 +25,10 @@ in low and high injection alike, and the base's recombination current is
 the third a rear surface of recombination velocity S with equal capture). J_b rises strictly with
 Vj and is no diode: the subcell law carries it beside its J01 and J02 diodes
 (laws/compiled.py, subcell_law; laws/diode.py, junction_current).
+
+With Schenk's narrowing (the default), ni,eff itself follows the injected carriers: n p =
+ni,eff0^2 exp((Vj + dEg(n, p) - dEg(n0, p0)) / kT) (A. Schenk, J. Appl. Phys. 84 (1998) 3684;
+:func:`injected_state`), a few meV at the operating point of a lightly doped base.
 """
 import numpy as np
 
@@ -49,8 +53,21 @@ RADIATIVE_B2 = 0.54
 RADIATIVE_B4 = 1.25
 _RADIATIVE_T = {"bmin": (0.2, 0.0, 320.0, 2.5), "b1": (1.5e18, 1e7, 550.0, 3.0),
                 "b3": (4.0e18, 1e9, 365.0, 3.54)}
-#: number of bulk-law columns (laws/compiled.py reads them after the subcell's own)
-BULK_COLUMNS = 9
+#: number of bulk-law columns (laws/compiled.py reads them after the subcell's own): the nine of the
+#: recombination law, then (n0, p0, N_D + N_A, t = kT / Ry_ex, dEg0) of the injection-dependent
+#: narrowing (t = 0: none)
+BULK_COLUMNS = 14
+#: Newton steps at most of the excess density under injection-dependent narrowing
+#: (:func:`injected_state`), and the relative step after which one more evaluation ends them (the
+#: steps converge quadratically: the next error is of order its square, rounding)
+NARROWING_STEPS = 30
+NARROWING_TOLERANCE = 1e-8
+#: excess density [cm^-3] above which the narrowing stays at its value there: beyond it the carriers
+#: are degenerate (the base law's Boltzmann statistics fail) and near 2e20 cm^-3 (300 K) the split
+#: would stop rising with dn (X' dEg' reaches 1); at the cap X' dEg' is 0.33 at 300 K, 0.64 at 150 K
+NARROWING_DENSITY_CM3 = 1e19
+#: relative widening of the range of d dEg / d dn taken from a cell's ends (:func:`bulk_slope_range`)
+NARROWING_SLOPE_MARGIN = 0.05
 
 
 def relative_radiative_parameters(temperature_K):
@@ -121,6 +138,9 @@ SCHENK_BOHR_RADIUS_CM = 3.719e-7
 SCHENK = {"alpha": (0.5187, 0.4813), "b": (8.0, 1.0), "c": (1.3346, 1.2365), "d": (0.893, 1.153),
           "g": (12.0, 4.0), "p": (7.0 / 30.0, 7.0 / 30.0), "h": (3.91, 4.20), "j": (2.8585, 2.9307),
           "k": (0.012, 0.19), "q": (0.75, 0.25)}
+#: the same constants per band in the order :func:`schenk_band_shift` takes them
+SCHENK_ELECTRON = tuple(SCHENK[key][0] for key in "alpha b c d g p h j k q".split())
+SCHENK_HOLE = tuple(SCHENK[key][1] for key in "alpha b c d g p h j k q".split())
 #: the gap-narrowing models a Si layer can take (``gap_narrowing`` layer key); the first is the default
 GAP_NARROWING_MODELS = ("schenk", "klaassen")
 
@@ -177,6 +197,59 @@ def schenk_gap_narrowing(electron_cm3, hole_cm3, *, donor_cm3=0.0, acceptor_cm3=
                                      + j * u * n_p ** 0.75 * (1.0 + k * n_p ** q))
         total = total + xc + ionic
     return -SCHENK_RYDBERG_EV * total
+
+
+def schenk_band_shift(c, n_s, n_p, ions, t, alpha, b, cc, d, g, pw, h, j, k, q):
+    """One band edge's shift dE_xc,a + dE_i,a of :func:`schenk_gap_narrowing` and its derivative
+    with respect to an equal excess of electrons and holes (dn = dp: c, n_s and n_p rise by 1, 1
+    and 2 per unit, alpha_e + alpha_h = 1), all in Schenk's reduced units (densities in a_ex^-3,
+    energies in Ry_ex, t = kT / Ry_ex); ``c`` the band's carrier density, ``n_s`` = n + p,
+    ``n_p`` = alpha_e n + alpha_h p, ``ions`` = N_D + N_A, then the band's constants. Written
+    with numpy functions only, so that laws/compiled_bulk.py compiles this same source for scalars
+    (the numpy and compiled base laws then agree to rounding). Densities are floored at 1e-300."""
+    c = np.maximum(c, 1e-300)
+    n_s = np.maximum(n_s, 1e-300)
+    n_p = np.maximum(n_p, 1e-300)
+    big = (4.0 * np.pi) ** 3
+    cube = (48.0 * c / (np.pi * g)) ** (1.0 / 3.0)
+    pn = n_p ** pw
+    a = cube + cc * np.log1p(d * pn)
+    da = cube / (3.0 * c) + cc * d * pw * pn / (n_p * (1.0 + d * pn))
+    rs = np.sqrt(n_s)
+    num = big * n_s * n_s * a + 8.0 * np.pi * alpha / g * c * t * t + np.sqrt(8.0 * np.pi * n_s) * t ** 2.5
+    dnum = big * (4.0 * n_s * a + n_s * n_s * da) + 8.0 * np.pi * alpha / g * t * t \
+        + np.sqrt(8.0 * np.pi) * t ** 2.5 / rs
+    den = big * n_s * n_s + t ** 3 + b * rs * t * t + 40.0 * n_s * rs * t
+    dden = 4.0 * big * n_s + b * t * t / rs + 120.0 * rs * t
+    u = n_s * n_s / t ** 3
+    du = 4.0 * n_s / t ** 3
+    r = np.sqrt(t * n_s / (2.0 * np.pi))
+    ell = 1.0 + h * np.log1p(rs / t)
+    kq = 1.0 + k * n_p ** q
+    m = j * u * n_p ** 0.75 * kq
+    dm = j * (du * n_p ** 0.75 * kq + 0.75 * u * kq / n_p ** 0.25 + u * n_p ** 0.75 * k * q * n_p ** (q - 1.0))
+    big_q = r * ell + m
+    dq = t / (2.0 * np.pi * r) * ell + r * h / (rs * (t + rs)) + dm
+    value = -num / den - ions * (1.0 + u) / big_q
+    slope = -(dnum * den - num * dden) / (den * den) - ions * (du * big_q - (1.0 + u) * dq) / (big_q * big_q)
+    return value, slope
+
+
+def schenk_shift(electron_cm3, hole_cm3, ions_cm3, reduced_temperature):
+    """Schenk's band-gap narrowing dEg [eV] (:func:`schenk_gap_narrowing`, the same equations)
+    and its derivative d dEg / d dn [eV cm^3] with respect to an equal excess dn = dp of electrons
+    and holes, at ``reduced_temperature`` t = kT / Ry_ex; ``ions_cm3`` = N_D + N_A [cm^-3]."""
+    scale = SCHENK_BOHR_RADIUS_CM ** 3
+    n, p = electron_cm3 * scale, hole_cm3 * scale
+    n_s = n + p
+    n_p = SCHENK_ELECTRON[0] * n + SCHENK_HOLE[0] * p
+    ions = ions_cm3 * scale
+    e, h = SCHENK_ELECTRON, SCHENK_HOLE
+    value_e, slope_e = schenk_band_shift(n, n_s, n_p, ions, reduced_temperature, e[0], e[1], e[2], e[3], e[4],
+                                         e[5], e[6], e[7], e[8], e[9])
+    value_h, slope_h = schenk_band_shift(p, n_s, n_p, ions, reduced_temperature, h[0], h[1], h[2], h[3], h[4],
+                                         h[5], h[6], h[7], h[8], h[9])
+    return -SCHENK_RYDBERG_EV * (value_e + value_h), -SCHENK_RYDBERG_EV * scale * (slope_e + slope_h)
 
 
 def doped_gap_narrowing(doping_cm3, polarity, *, temperature_K, model="schenk"):
@@ -238,10 +311,14 @@ def bulk_base(*, thickness_m, n0_cm3, p0_cm3, srh_rate_s, surface_srv_m_s=0.0):
     return (factor, np.asarray(n0_cm3, dtype=float), np.asarray(p0_cm3, dtype=float), rate)
 
 
-def bulk_columns(base, *, ni_eff_cm3, temperature_K):
-    """The law's columns (F, N, ni^2, A, B_low, bmin, b1, b3, R) at ``temperature_K``
-    (laws/compiled.py reads them in this order)."""
+def bulk_columns(base, *, ni_eff_cm3, temperature_K, injection_narrowing=0.0):
+    """The law's columns (F, N, ni^2, A, B_low, bmin, b1, b3, R, n0, p0, N_D + N_A, t, dEg0) at
+    ``temperature_K`` (laws/compiled.py reads them in this order). ``injection_narrowing`` (1 or
+    0, per row) switches on Schenk's narrowing at the operating point's carrier densities
+    (:func:`injected_state`; ``ni_eff_cm3`` is then the equilibrium value and dEg0 Schenk's shift at
+    the equilibrium densities, t = kT / Ry_ex); t = 0 where it is off."""
     factor, n0, p0, rate = base
+    ions = np.asarray(n0, dtype=float) + np.asarray(p0, dtype=float)
     ni2 = np.asarray(ni_eff_cm3, dtype=float) ** 2
     # equilibrium densities from charge neutrality with the net doping N = |n0 - p0| and
     # n0 p0 = ni,eff^2: majority N/2 + sqrt(N^2/4 + ni^2) (S. M. Sze, K. K. Ng, Physics of
@@ -252,8 +329,13 @@ def bulk_columns(base, *, ni_eff_cm3, temperature_K):
     minority = ni2 / majority
     n0, p0 = np.where(n0 >= p0, majority, minority), np.where(n0 >= p0, minority, majority)
     bmin, b1, b3 = relative_radiative_parameters(temperature_K)
+    on = np.asarray(injection_narrowing, dtype=float) > 0
+    reduced = BOLTZMANN_EV_K * np.asarray(temperature_K, dtype=float) / SCHENK_RYDBERG_EV + 0 * factor
+    reduced = np.where(on, reduced, 0.0)
+    shift0 = np.where(on, schenk_shift(n0, p0, ions, np.where(on, reduced, 1.0))[0], 0.0)
     return (factor, n0 + p0, ni2, auger_prefactor(n0, p0), RADIATIVE_LOW_CM3_S + 0 * factor,
-            bmin + 0 * factor, b1 + 0 * factor, b3 + 0 * factor, rate)
+            bmin + 0 * factor, b1 + 0 * factor, b3 + 0 * factor, rate, n0 + 0 * factor, p0 + 0 * factor,
+            ions + 0 * factor, reduced, shift0 + 0 * factor)
 
 
 def excess_density(v_junction_V, *, total_cm3, ni2_cm6, temperature_K):
@@ -265,14 +347,68 @@ def excess_density(v_junction_V, *, total_cm3, ni2_cm6, temperature_K):
     return 2.0 * g / (total_cm3 + root), g
 
 
+def injected_state(v_junction_V, columns, *, temperature_K):
+    """(dn, g, s, X', dEg') of a uniformly injected base at the quasi-Fermi-level split
+    ``v_junction_V``: g = n p - n0 p0, s = n + p. Without injection-dependent narrowing (column
+    t = 0) dn is :func:`excess_density`'s closed form. With it, n p = ni,eff(n, p)^2 exp(Vj/Vt),
+    ni,eff^2 = ni,eff0^2 exp((dEg(n, p) - dEg0)/kT) with Schenk's dEg (:func:`schenk_shift`; A.
+    Schenk, J. Appl. Phys. 84 (1998) 3684), so dn = X(Vj + dEg(dn) - dEg0), X the closed form: solved
+    by Newton steps on h(dn) = ln(n p / ni^2) - (Vj + dEg - dEg0)/kT (rising in dn while
+    X' dEg' < 1) from dn = X(Vj), left of the root (NARROWING_STEPS, NARROWING_TOLERANCE; dEg held at
+    its value at dn = NARROWING_DENSITY_CM3 above it, and at equilibrium for Vj <= 0, where the
+    carriers only deplete), and dn/dVj = X' / (1 - X' dEg'), X' = n p / (Vt s).
+    laws/compiled_bulk.py ``bulk_state`` is the same iteration for scalars. dEg' = d dEg / d dn
+    [eV cm^3] (0 without the narrowing)."""
+    total, ni2 = columns[1], columns[2]
+    n0, p0, ions, reduced, shift0 = columns[9:14]
+    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    v = np.asarray(v_junction_V, dtype=float)
+    x, g = excess_density(v, total_cm3=total, ni2_cm6=ni2, temperature_K=temperature_K)
+    s = total + 2.0 * x
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        rate = ni2 * np.exp(v / vt) / (vt * s)
+    if not np.any((np.asarray(reduced) > 0) & (x > 0)):
+        return x, g, s, rate, np.zeros(np.shape(rate))
+    shape = np.broadcast(x, reduced, vt).shape
+    v, total, ni2, n0, p0, ions, reduced, shift0, vt, guess = (
+        np.broadcast_to(np.asarray(c, dtype=float), shape)
+        for c in (v, total, ni2, n0, p0, ions, reduced, shift0, vt, x))
+    pending = (reduced > 0) & (guess > 0)
+    final = np.zeros(shape, dtype=bool)
+    t = np.where(pending, reduced, 1.0)
+    guess = np.where(pending, guess, 0.0)
+    out = [np.array(np.broadcast_to(c, shape), dtype=float) for c in (x, g, s, rate, np.zeros(np.shape(rate)))]
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        for _ in range(NARROWING_STEPS):
+            capped = np.minimum(guess, NARROWING_DENSITY_CM3)
+            shift, slope = schenk_shift(n0 + capped, p0 + capped, ions, t)
+            slope = np.where(guess < NARROWING_DENSITY_CM3, slope, 0.0)
+            u = v + (shift - shift0)
+            gf = ni2 * np.expm1(u / vt)
+            xf = 2.0 * gf / (total + np.sqrt(np.maximum(total * total + 4.0 * gf, 0.0)))
+            sf = total + 2.0 * xf
+            rf = ni2 * np.exp(u / vt) / (vt * sf)
+            for k, c in enumerate((xf, gf, sf, rf, slope)):
+                out[k] = np.where(pending, c, out[k])
+            pending = pending & ~final
+            if not np.any(pending):
+                break
+            product = guess * (total + guess)
+            residual = np.log1p(product / ni2) - u / vt
+            rise = (total + 2.0 * guess) / (ni2 + product) - slope / vt
+            new = np.maximum(guess - residual / rise, 0.0)
+            final = final | (pending & ~(np.abs(new - guess) > NARROWING_TOLERANCE * guess))
+            guess = np.where(pending, new, guess)
+    return tuple(out)
+
+
 def bulk_current(v_junction_V, columns, *, temperature_K):
     """Recombination current J_b [A/m^2] of a uniformly injected base and dJ_b/dVj (module
     docstring); ``columns`` from :func:`bulk_columns`."""
-    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns
-    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
-    x, g = excess_density(v_junction_V, total_cm3=total, ni2_cm6=ni2, temperature_K=temperature_K)
-    s = total + 2.0 * x
+    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns[:9]
+    x, g, s, r, shift_slope = injected_state(v_junction_V, columns, temperature_K=temperature_K)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        dx_dv = r / (1.0 - r * shift_slope)
         d = 1.0 + (s / b1) ** RADIATIVE_B2 + (s / b3) ** RADIATIVE_B4
         d_slope = (RADIATIVE_B2 * (s / b1) ** RADIATIVE_B2 + RADIATIVE_B4 * (s / b3) ** RADIATIVE_B4) / s
         brel = bmin + (1.0 - bmin) / d
@@ -284,7 +420,6 @@ def bulk_current(v_junction_V, columns, *, temperature_K):
                   + AUGER_INJECTION_CM * power * ((1 + AUGER_INJECTION_EXPONENT) * total
                                                   + (2 + AUGER_INJECTION_EXPONENT) * xp)
                   + rate * (total * total + 2.0 * total * x + 2.0 * x * x) / (s * s))
-        dx_dv = ni2 * np.exp(np.asarray(v_junction_V, dtype=float) / vt) / (vt * s)
     return factor * value, factor * dvalue * dx_dv
 
 
@@ -295,23 +430,32 @@ def _interval_product(a_lo, a_hi, b_lo, b_hi):
 
 def bulk_slope_range(v_low_V, v_high_V, columns, *, temperature_K):
     """The smallest and largest dJ_b/dVj of :func:`bulk_current` over [v_low, v_high], a rigorous
-    enclosure (up to rounding, widened by 1e-12): dJ_b/dv = F (dP/dx)(dx/dv), every part monotone
-    in the excess density x (s = n + p and g rise; D rises, its slope's parts fall and rise; the
-    Auger injection part rises; the SRH/surface part (N^2 + 2Nx + 2x^2)/s^2 falls; dx/dv =
-    n p / (Vt s) rises), combined by interval products. The numpy form of
+    enclosure (up to rounding, widened by 1e-12) without injection-dependent narrowing: dJ_b/dv =
+    F (dP/dx)(dx/dv), every part monotone in the excess density x (s = n + p and g rise; D rises,
+    its slope's parts fall and rise; the Auger injection part rises; the SRH/surface part
+    (N^2 + 2Nx + 2x^2)/s^2 falls; dx/dv = n p / (Vt s) rises), combined by interval products.
+    With the narrowing, dx/dv = X' / (1 - X' dEg') and dEg' is bounded from its values at the
+    cell's ends widened by NARROWING_SLOPE_MARGIN: an enclosure checked on sampled cells
+    (tests/test_silicon_narrowing.py), not proven. The numpy form of
     laws/compiled_bulk.py ``bulk_slopes``."""
-    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns
-    vt = thermal_voltage_V(np.asarray(temperature_K, dtype=float))
+    factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns[:9]
     ends = []
     for v in (np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)):
-        x, g = excess_density(v, total_cm3=total, ni2_cm6=ni2, temperature_K=temperature_K)
-        s = total + 2.0 * x
+        x, g, s, r, shift_slope = injected_state(v, columns, temperature_K=temperature_K)
         t1, t3 = (s / b1) ** RADIATIVE_B2, (s / b3) ** RADIATIVE_B4
         with np.errstate(over="ignore"):
-            ends.append((x, g, s, 1.0 + t1 + t3, RADIATIVE_B2 * t1 / s, RADIATIVE_B4 * t3 / s,
-                         ni2 * np.exp(v / vt) / (vt * s)))
-    (x_lo, g_lo, s_lo, d_lo, fall_lo, rise_lo, r_lo), (x_hi, g_hi, s_hi, d_hi, fall_hi, rise_hi,
-                                                        r_hi) = ends
+            ends.append((x, g, s, 1.0 + t1 + t3, RADIATIVE_B2 * t1 / s, RADIATIVE_B4 * t3 / s, r, shift_slope))
+    (x_lo, g_lo, s_lo, d_lo, fall_lo, rise_lo, r_lo, k_lo), (x_hi, g_hi, s_hi, d_hi, fall_hi, rise_hi,
+                                                              r_hi, k_hi) = ends
+    # dx/dv = X' / (1 - X' dEg'): X' rises with x; dEg' is taken within its values at the ends,
+    # widened by NARROWING_SLOPE_MARGIN of the larger (not a proof: it has up to two turning points in x)
+    k_spread = NARROWING_SLOPE_MARGIN * np.maximum(np.abs(k_lo), np.abs(k_hi))
+    k_small = np.minimum(k_lo, k_hi) - k_spread
+    k_large = np.maximum(k_lo, k_hi) + k_spread
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r_lo = r_lo / (1.0 - r_lo * k_small)
+        room = 1.0 - r_hi * k_large
+        r_hi = np.where(room > 0.0, r_hi / room, np.inf)
     first_lo = s_lo * (a + b_low * (bmin + (1.0 - bmin) / d_hi))
     first_hi = s_hi * (a + b_low * (bmin + (1.0 - bmin) / d_lo))
     q_lo = (fall_hi + rise_lo) / (d_hi * d_hi)

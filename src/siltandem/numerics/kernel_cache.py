@@ -17,6 +17,9 @@ from pathlib import Path
 #: the kernel sources, relative to the package folder (every file with @numba.njit(cache=True))
 KERNEL_SOURCES = ("laws/compiled.py", "laws/compiled_bulk.py", "solve/kernels.py",
                   "laws/compiled_isotype.py", "laws/field_emission.py")
+#: sources with no kernel of their own whose functions a kernel module compiles and inlines
+#: (laws/compiled_bulk.py compiles laws/silicon.py's Schenk band shift): hashed and dropped alike
+INLINED_SOURCES = ("laws/silicon.py",)
 #: package folders already checked in this process (every kernel module asks; one check serves)
 _CHECKED = set()
 #: the file, in laws/__pycache__, that records the hash of the sources the cache was built from
@@ -24,9 +27,9 @@ STAMP_NAME = "siltandem-kernel-sources.sha256"
 
 
 def sources_digest(package_folder):
-    """SHA-256 of the kernel sources' bytes, in KERNEL_SOURCES order (hex)."""
+    """SHA-256 of the kernel sources' bytes, in KERNEL_SOURCES + INLINED_SOURCES order (hex)."""
     digest = hashlib.sha256()
-    for name in KERNEL_SOURCES:
+    for name in KERNEL_SOURCES + INLINED_SOURCES:
         path = Path(package_folder) / name
         digest.update(name.encode())
         digest.update(path.read_bytes() if path.exists() else b"")
@@ -49,7 +52,7 @@ def drop_stale_kernels(package_folder, *, once=False):
         if stamp.exists() and stamp.read_text().strip() == digest:
             return False
         dropped = False
-        for name in KERNEL_SOURCES:
+        for name in KERNEL_SOURCES + INLINED_SOURCES:
             cache = (package_folder / name).parent / "__pycache__"
             prefix = Path(name).stem + "."
             for entry in cache.glob(prefix + "*.nb[ic]"):

@@ -295,7 +295,8 @@ def _hourly_subcells(subcells, gaps, photocurrents, dark, temperature, reference
         return {name: replace(cell, j01_fixed_A_m2=np.asarray(dark[name][0], dtype=float),
                               j02_A_m2=np.asarray(dark[name][1], dtype=float),
                               bulk=None if cell.bulk is None else (
-                                  *cell.bulk[:4], cell.bulk[4] * np.asarray(dark[name][3], dtype=float)))
+                                  *cell.bulk[:4], cell.bulk[4] * np.asarray(dark[name][3], dtype=float),
+                                  *cell.bulk[5:]))
                 for name, cell in hourly_cells.items()}
     # J02 follows n_i with each hour's temperature and gap, from its value at the stack's
     # temperature (J01 = J0,rad/ERE follows through the generalized Planck law)
