@@ -34,6 +34,7 @@ Also here: the certificate of the global MPP (``StringSolution.mpp_certified``,
 penalty of an element that drops no voltage at the MPP.
 """
 import itertools
+from dataclasses import replace as dataclasses_replace
 import json
 import os
 import re
@@ -734,3 +735,66 @@ def test_the_compiled_slope_ranges_are_the_numpy_ones():
     reference = esaki.slope_range(lo, hi, junction._prepared(TEMPERATURE_K))
     for a, b in zip(compiled, reference):
         assert np.allclose(a, b, rtol=1e-13, atol=0.0)
+
+
+# ---------------------------------------------------------------------------------------------
+# the certificate's later passes on the unproven designs alone (certificate._certify_rows)
+
+def test_later_passes_on_the_unproven_designs_alone_change_nothing(monkeypatch):
+    """Refining only the designs a pass left unproven gives, bit for bit, what refining the whole
+    batch gives (the previous path of the same solver: every step of the certificate works per
+    design), and the answers still reach the independent dense reference above (pvlib's
+    bishop88 subcells, bisection per element)."""
+    import dataclasses
+
+    import siltandem.solve.certificate as certificate
+
+    shunts, breakdowns, factors, suns = (np.array(x) for x in zip(*GRID))
+    elements = breakdown_triple(*TRIPLES["bottom limits"], shunts, breakdowns, factors, suns)
+    calls = []
+    restricted = certificate._certify_rows
+
+    def counted(*args, **kwargs):
+        calls.append(int(args[4].sum()))
+        return restricted(*args, **kwargs)
+
+    monkeypatch.setattr(certificate, "_certify_rows", counted)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        alone = solve_string(elements, TEMPERATURE_K)
+        assert calls and all(0 < n <= certificate.RESTRICT_FRACTION * len(GRID) for n in calls)
+        monkeypatch.setattr(certificate, "RESTRICT_ROWS", 10 ** 9)
+        whole = solve_string(elements, TEMPERATURE_K)
+    for field in dataclasses.fields(whole):
+        a, b = getattr(alone, field.name), getattr(whole, field.name)
+        if isinstance(a, dict):
+            assert a.keys() == b.keys()
+            pairs = [(a[k], b[k]) for k in a]
+        else:
+            pairs = [(a, b)]
+        for x, y in pairs:
+            if isinstance(x, np.ndarray):
+                assert x.dtype == y.dtype and np.array_equal(x, y, equal_nan=x.dtype.kind == "f"), field.name
+            else:
+                assert x == y, field.name
+    best, _ = Reference(elements).maximum()
+    assert np.all(shortfall(alone.mpp_W_m2, best) <= 0)
+    assert alone.mpp_certified.all()
+
+
+def test_a_batch_restriction_keeps_each_designs_silicon_base_columns():
+    """take_rows restricts a subcell's silicon base columns (a tuple of per-design arrays, as the
+    yield year gives them) with its other per-design fields."""
+    from siltandem import load_stack
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.circuit.elements import take_rows
+
+    circuit = compile_stack(load_stack(STACKS / "demo_dual_layers.toml"))
+    cell = next(c for c in circuit.subcells if c.bulk is not None)
+    scale = np.linspace(0.5, 2.0, 5).reshape(-1, 1)
+    hourly = dataclasses_replace(cell, bulk=(*cell.bulk[:4], cell.bulk[4] * scale),
+                                 photocurrent_A_m2=300.0 * scale)
+    part = take_rows(hourly, np.array([1, 3]))
+    assert np.array_equal(part.bulk[4], hourly.bulk[4][[1, 3]])
+    assert np.array_equal(part.photocurrent_A_m2, hourly.photocurrent_A_m2[[1, 3]])
+    assert all(x is y for x, y in zip(part.bulk[:4], hourly.bulk[:4]))

@@ -45,6 +45,28 @@ def test_auto_tries_the_pair_in_every_material_version():
     assert all(c.after == 3 for c in candidates)   # after the p-GaP buffer: the p->n boundary
 
 
+def test_auto_ranking_equals_each_candidate_solved_alone():
+    """--auto shares one compile/optics memo (reuse) among its candidates: every ranked row
+    equals, to the last bit, the candidate compiled, lit and solved on its own in a fresh memo
+    (the one-by-one path), and the ranking is theirs."""
+    import pandas as pd
+
+    from siltandem.studies.placements import evaluate_candidates
+
+    stack = load_stack(DEMO)
+    candidates = auto_candidates(stack)
+    table = rank_placements(stack, auto=True, progress=False)
+    alone = pd.concat([evaluate_candidates(pd.DataFrame({"design": [k]}), stack=load_stack(DEMO),
+                                           candidates=candidates) for k in range(len(candidates))])
+    alone = alone.sort_values("efficiency_pct", ascending=False).reset_index(drop=True)
+    assert list(table["placement"]) == list(alone["placement"])
+    for column in alone.columns:
+        if alone[column].dtype.kind == "f":
+            assert np.array_equal(table[column].to_numpy(), alone[column].to_numpy(), equal_nan=True), column
+        else:
+            assert list(table[column]) == list(alone[column]), column
+
+
 def test_run_uses_the_first_placement():
     summary = run_stack(load_stack(DEMO), curve_points=40).summary
     assert "first declared placement" in summary["warnings"][0]

@@ -788,13 +788,10 @@ ELEMENT_KINDS = {"subcell": Subcell, "resistor": Resistor, "tunnel": TunnelJunct
 
 
 def take_rows(element, rows):
-    """The same element restricted to some designs of a batch (rows of every (B, 1) field)."""
-    changes = {}
-    for name, value in vars(element).items():
-        if name.startswith("_"):
-            continue
-        if isinstance(value, np.ndarray) and value.ndim == 2 and value.shape[0] > 1:
-            changes[name] = value[rows]
-    if not changes:
-        return element
-    return replace(element, **changes)
+    """The same element restricted to some designs of a batch (rows of every (B, 1) field, also
+    inside a tuple: a subcell's silicon base columns)."""
+    many = lambda v: isinstance(v, np.ndarray) and v.ndim == 2 and v.shape[0] > 1  # noqa: E731
+    changes = {name: (value[rows] if many(value) else tuple(v[rows] if many(v) else v for v in value))
+               for name, value in vars(element).items() if not name.startswith("_") and (
+                   many(value) or (isinstance(value, tuple) and any(many(v) for v in value)))}
+    return replace(element, **changes) if changes else element

@@ -31,7 +31,7 @@ def run_stack(stack, *, spectrum=None, suns=None, temperature_K=None, curve_poin
     return result
 
 
-def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401):
+def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve_points=401, reuse=None):
     """Solve one stack, listing its warnings in the summary only (studies and the command line,
     which report them themselves, call this; :func:`run_stack` issues them too).
 
@@ -50,6 +50,9 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
         Override of ``[conditions] temperature_K``.
     curve_points : int
         Points of the traced light I-V per string.
+    reuse : dict, optional
+        Kept between the designs of one layer study (compile_stack, illuminate): parts equal
+        between designs (subcells, junctions, interfaces, absorption tables) built once.
     """
     from siltandem.stack.options import OPTION_SCHEMA, check_conditions, check_option
 
@@ -74,8 +77,8 @@ def compute_result(stack, *, spectrum=None, suns=None, temperature_K=None, curve
                          origin=None if spectrum is not None else stack.source)
     if is_spectrum_object(conditions.spectrum):    # the JSON names an object by its label
         conditions = replace(conditions, spectrum=light.name)
-    circuit = compile_stack(replace(stack, conditions=conditions))
-    circuit = illuminate(circuit, light)
+    circuit = compile_stack(replace(stack, conditions=conditions), reuse)
+    circuit = illuminate(circuit, light, reuse)
     temperature = conditions.temperature_K
     notice_compiling()
     strings, solutions = solve_strings(circuit.strings, circuit.subcells, temperature,

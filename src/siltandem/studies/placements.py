@@ -66,16 +66,20 @@ def auto_candidates(stack):
 def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
                         temperature_K=None):
     """Chunk function: solve each candidate (one row per candidate index in ``design``).
-    ``spectrum``: a name or path, or (from :func:`rank_placements`) the spectrum already read."""
+    ``spectrum``: a name or path, or (from :func:`rank_placements`) the spectrum already read.
+    The candidates of a chunk share one ``reuse`` dict (compile_stack, illuminate): the
+    subcells, junctions, interfaces and absorption tables they have in common are built once,
+    the same elements as each candidate's own compile would build."""
     from siltandem.result.driver import compute_result
 
-    rows = []
+    rows, reuse = [], {}
     for design in chunk["design"].to_numpy():
         placement = candidates[int(design)]
         row = {"design": int(design), "placement": placement.name}
         try:
             result = compute_result(with_placement(stack, placement), spectrum=spectrum,
-                                    suns=suns, temperature_K=temperature_K, curve_points=60)
+                                    suns=suns, temperature_K=temperature_K, curve_points=60,
+                                    reuse=reuse)
         except StackError as exc:
             row.update({"efficiency_pct": np.nan, "problem": exc.problem})
             rows.append(row)
