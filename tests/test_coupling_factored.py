@@ -89,3 +89,23 @@ def test_a_study_reuse_gives_each_design_its_value_alone_and_builds_each_part_on
     # (2); middle -> silicon: the emission reads the middle thickness (2), the response nothing varied
     assert len(emissions) == len(tops) + len(middles)
     assert len(responses) == len(middles) + 1
+
+
+def test_remembered_repr_is_the_objects_own_text():
+    # no source needed: the memo must answer repr(value) of the very object asked about
+    from dataclasses import dataclass, replace
+
+    from siltandem.numerics.memo import remembered_repr
+
+    @dataclass(frozen=True)
+    class Thing:
+        thickness_nm: float
+
+    reuse = {}
+    first = Thing(1.0)
+    assert remembered_repr(reuse, first) == repr(first)
+    assert remembered_repr(reuse, first) == repr(first)         # found again
+    for value in range(2, 200):                                  # new objects (ids may be reused)
+        other = replace(first, thickness_nm=float(value))
+        assert remembered_repr(reuse, other) == repr(other)
+    assert remembered_repr(None, first) == repr(first)

@@ -37,7 +37,7 @@ from siltandem.errors import StackError
 from siltandem.laws import collection, thinfilm
 from siltandem.laws.luminescent import downward_emission
 from siltandem.laws.radiative import radiative_saturation_current
-from siltandem.numerics.memo import remembered
+from siltandem.numerics.memo import remembered, remembered_repr
 
 #: photon energies of the emission grid, relative to the upper gap [eV], and their number: the
 #: emission falls as exp(-E/kT) above the gap (e^-19 at +0.5 eV, 300 K) and with the absorption
@@ -106,10 +106,11 @@ def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back
     # between and the lower subcell's first layer: the materials, not the thicknesses
     rays = (gap, temperature, _layer_key(layers[up[0]]), tuple(_layer_key(layers[j]) for j in between),
             _layer_key(layers[lower.emitter]))
-    emission_key = (rays, repr(upper), tuple(repr(layers[j]) for j in up + between))
+    emission_key = (rays, repr(upper), tuple(remembered_repr(reuse, layers[j]) for j in up + between))
     emission, arriving = remembered(reuse, "coupling emission", emission_key,
                                     lambda: arriving_emission(model, upper, lower, gap, reuse=reuse))
-    response_key = (rays, repr(lower), tuple(repr(layer) for layer in layers[min(lower.emitter, lower.base):]),
+    response_key = (rays, repr(lower), tuple(remembered_repr(reuse, layer)
+                                             for layer in layers[min(lower.emitter, lower.base):]),
                     float(back_reflectance), float(back_haze))
     collected_per, absorbed_per = remembered(
         reuse, "coupling response", response_key,
@@ -254,8 +255,8 @@ def check_given_coupling(layers, cells, file):
 def couple_layers(elements, model, *, file=None, reuse=None, front_factors=None):
     """The elements with every subcell's ``luminescent_coupling`` set from its layers (or the
     layer key), and the list of :class:`LayerCoupling` (sun side first). ``reuse``: a study's
-    dict; a pair's coupling is remembered under every input it reads (the two subcells, the upper
-    one's gap and absorptance, the layers from the upper subcell down, the back). ``front_factors``:
+    dict; a pair's parts are remembered under every input they read (:func:`subcell_coupling`: the
+    emission arriving, the lower subcell's response, J0,rad). ``front_factors``:
     each subcell's front emission into the ambient over that into air (default 1), for its floor."""
     cells = list(model.subcells)
     check_given_coupling(model.layers, cells, file)
@@ -263,14 +264,9 @@ def couple_layers(elements, model, *, file=None, reuse=None, front_factors=None)
     back_haze = model.back_haze if model.back_scattering == "lambertian" else 0.0
     couplings, values = [], {}
     for upper, lower in zip(cells, cells[1:]):
-        element = by_name[upper.name]
-        key = (repr(upper), repr(lower), repr(model.layers[min(_span(upper)):]), float(model.temperature_K),
-               np.asarray(element.gap_eV, dtype=float).tobytes(),
-               np.asarray(element.absorptance, dtype=float).tobytes(), float(model.back_reflectance),
-               float(back_haze))
-        found = remembered(reuse, ("coupling", upper.name), key, lambda upper=upper, lower=lower, element=element:
-                           subcell_coupling(model, upper, lower, element, back_reflectance=model.back_reflectance,
-                                            back_haze=back_haze, reuse=reuse))
+        # its parts are remembered (subcell_coupling): the pair itself is their cheap product
+        found = subcell_coupling(model, upper, lower, by_name[upper.name], back_reflectance=model.back_reflectance,
+                                 back_haze=back_haze, reuse=reuse)
         given = given_coupling(model.layers, upper)
         if given is not None:
             found = replace(found, coupling=float(given), source="given")
