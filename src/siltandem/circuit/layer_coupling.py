@@ -107,8 +107,8 @@ def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back
     rays = (gap, temperature, _layer_key(layers[up[0]]), tuple(_layer_key(layers[j]) for j in between),
             _layer_key(layers[lower.emitter]))
     emission_key = (rays, repr(upper), tuple(remembered_repr(reuse, layers[j]) for j in up + between))
-    emission, arriving = remembered(reuse, "coupling emission", emission_key,
-                                    lambda: arriving_emission(model, upper, lower, gap, reuse=reuse))
+    emission, arriving, emitted = remembered(reuse, "coupling emission", emission_key,
+                                             lambda: _slim(*arriving_emission(model, upper, lower, gap, reuse=reuse)))
     response_key = (rays, repr(lower), tuple(remembered_repr(reuse, layer)
                                              for layer in layers[min(lower.emitter, lower.base):]),
                     float(back_reflectance), float(back_haze))
@@ -126,7 +126,14 @@ def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back
                                                                       absorptance=absorptance)))
     value = collected / reference
     return LayerCoupling(upper.name, lower.name, value, "layers", value, reference,
-                         float(np.sum(emission.current_A_m2)), float(np.sum(arriving)), absorbed, collected)
+                         emitted, float(np.sum(arriving)), absorbed, collected)
+
+
+def _slim(emission, arriving):
+    """What a study remembers of an emission: its rays (n sin theta: the lower subcell's response
+    reads them), the light arriving and the total emitted downward [A/m^2] (memory: a map keeps
+    one per distinct upper subcell)."""
+    return replace(emission, current_A_m2=None, transmitted=None), arriving, float(np.sum(emission.current_A_m2))
 
 
 def _emission_grid(gap):
