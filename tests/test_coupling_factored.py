@@ -4,7 +4,7 @@
 Sources beside each check:
 - the collection law is linear in the photon fluxes it is given, entry by entry (the minority
   carrier diffusion equation is linear in the generation: H. J. Hovel, Semiconductors and
-  Semimetals 11 (1975), ch. 2; laws/collection.py Notes): the pair's collected current, summed
+  Semimetals 11 (1975), ch. 2, from memory; laws/collection.py Notes): the pair's collected current, summed
   from the factored parts, is checked against the collection law given the whole arriving flux
   (the unfactored form, written again here with the public laws) to rounding;
 - a design's numbers do not depend on the other designs of its study (issue 19): compiled with
