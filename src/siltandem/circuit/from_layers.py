@@ -39,7 +39,7 @@ from siltandem.laws import esaki
 from siltandem.laws import lifetimes, silicon
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.materials import material_identity, recombination
-from siltandem.numerics.memo import remembered
+from siltandem.numerics.memo import remembered, remembered_repr
 
 #: defaults of the layer compiler (common practice, no source; each can be given per layer)
 DEFAULT_SRV_CM_S = 1e4
@@ -255,7 +255,8 @@ def _remembered_subcell(cell, layers, materials, temperature_K, file, name, suns
         dark = materials[cell.emitter if _dark_side(cell, materials, temperature_K) == "emitter" else cell.base]
         rear = _rear_emission(cell, layers, materials, float(dark.gap_eV(temperature_K)), temperature_K,
                               back_reflectance, reuse)
-    key = (repr(cell), repr(emitter), repr(base), float(temperature_K), str(file), name, float(suns),
+    key = (repr(cell), remembered_repr(reuse, emitter), remembered_repr(reuse, base), float(temperature_K),
+           str(file), name, float(suns),
            float(back_reflectance), float(ambient_index), float(rear))
     element, model, extra = remembered(reuse, "subcell", key, lambda: _subcell(
         cell, layers, materials, temperature_K, file, name, suns, back_reflectance, ambient_index, rear=rear))

@@ -37,7 +37,7 @@ from siltandem.errors import StackError
 from siltandem.laws import collection, thinfilm
 from siltandem.laws.luminescent import downward_emission
 from siltandem.laws.radiative import radiative_saturation_current
-from siltandem.numerics.memo import remembered
+from siltandem.numerics.memo import remembered, remembered_repr
 
 #: photon energies of the emission grid, relative to the upper gap [eV], and their number: the
 #: emission falls as exp(-E/kT) above the gap (e^-19 at +0.5 eV, 300 K) and with the absorption
@@ -86,33 +86,109 @@ def _layer_key(layer):
 def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back_haze=0.0, reuse=None):
     """:class:`LayerCoupling` from ``upper`` to ``lower`` (SubcellModel of ``model``, a
     LayerModel); ``element`` the upper Subcell (its gap and absorptance set J0,rad). ``reuse``:
-    a study's dict; a layer's optics on the emission grid (set by the gap) is computed once."""
-    temperature = model.temperature_K
-    gap = float(np.asarray(element.gap_eV).reshape(-1)[0])
-    energy = np.linspace(gap + ENERGY_SPAN_EV[0], gap + ENERGY_SPAN_EV[1], ENERGY_POINTS)
-    wavelength = HC_EV_NM / energy
-    layers, materials = model.layers, model.materials
+    a study's dict; a layer's optics on the emission grid (set by the gap) is computed once.
 
-    def fresh(j):
-        band, free = _alpha(layers[j], materials[j], wavelength, temperature)
-        return band, free, np.asarray(materials[j].refractive_index(wavelength), dtype=float)
+    The collection law is linear in the fluxes it is given, entry by entry of the (energy, ray)
+    grid (laws/collection.py, Notes), and every flux the lower subcell receives (the front one,
+    the mirror's return, the scattered part) is the light arriving from above times a factor of
+    the lower subcell and the layers below it. So the pair factors into the emission arriving
+    (:func:`arriving_emission`: the upper subcell and the layers between) and the lower
+    subcell's collection per unit of it (:func:`lower_response`), each remembered in ``reuse``
+    under the inputs it reads; a design's coupling is their product summed over the grid. A map
+    varying one thickness in each subcell builds each part once per distinct value, not once per
+    design, and a design's value does not depend on the other designs of its study."""
+    temperature = float(model.temperature_K)
+    gap = float(np.asarray(element.gap_eV).reshape(-1)[0])
+    layers = model.layers
+    up = list(_span(upper))
+    between = list(range(up[-1] + 1, min(lower.emitter, lower.base)))
+    # the rays (n sin theta and the cone) are set by the indices of the upper absorber, the layers
+    # between and the lower subcell's first layer: the materials, not the thicknesses
+    rays = (gap, temperature, _layer_key(layers[up[0]]), tuple(_layer_key(layers[j]) for j in between),
+            _layer_key(layers[lower.emitter]))
+    emission_key = (rays, repr(upper), tuple(remembered_repr(reuse, layers[j]) for j in up + between))
+    emission, arriving, emitted = remembered(reuse, "coupling emission", emission_key,
+                                             lambda: _slim(*arriving_emission(model, upper, lower, gap, reuse=reuse)))
+    response_key = (rays, repr(lower), tuple(remembered_repr(reuse, layer)
+                                             for layer in layers[min(lower.emitter, lower.base):]),
+                    float(back_reflectance), float(back_haze))
+    collected_per, absorbed_per = remembered(
+        reuse, "coupling response", response_key,
+        lambda: lower_response(model, lower, emission, gap, back_reflectance=back_reflectance,
+                               back_haze=back_haze, reuse=reuse))
+    # the law's currents are q x (flux given); the fluxes given were already currents: divide q out
+    q = ELEMENTARY_CHARGE_C
+    collected = float(np.sum(arriving * collected_per)) / q
+    absorbed = float(np.sum(arriving * absorbed_per)) / q
+    absorptance = float(np.asarray(element.absorptance).reshape(-1)[0])
+    reference = remembered(reuse, "coupling reference", (gap, temperature, absorptance),
+                           lambda: float(radiative_saturation_current(gap, temperature_K=temperature,
+                                                                      absorptance=absorptance)))
+    value = collected / reference
+    return LayerCoupling(upper.name, lower.name, value, "layers", value, reference,
+                         emitted, float(np.sum(arriving)), absorbed, collected)
+
+
+def _slim(emission, arriving):
+    """What a study remembers of an emission: its rays (n sin theta: the lower subcell's response
+    reads them), the light arriving and the total emitted downward [A/m^2] (memory: a map keeps
+    one per distinct upper subcell)."""
+    return replace(emission, current_A_m2=None, transmitted=None), arriving, float(np.sum(emission.current_A_m2))
+
+
+def _emission_grid(gap):
+    """The photon energies [eV] and wavelengths [nm] of the emission grid of an upper gap [eV]."""
+    energy = np.linspace(gap + ENERGY_SPAN_EV[0], gap + ENERGY_SPAN_EV[1], ENERGY_POINTS)
+    return energy, HC_EV_NM / energy
+
+
+def _layer_optics(model, j, gap, reuse):
+    """(band-to-band alpha, free-carrier alpha [1/m], real index) of layer ``j`` on the emission
+    grid of ``gap``, remembered in ``reuse`` by the layer's material and doping."""
+    energy, wavelength = _emission_grid(gap)
+    layer, material = model.layers[j], model.materials[j]
+    temperature = float(model.temperature_K)
+
+    def fresh():
+        band, free = _alpha(layer, material, wavelength, temperature)
+        return band, free, np.asarray(material.refractive_index(wavelength), dtype=float)
+
+    return remembered(reuse, "coupling optics", (_layer_key(layer), gap, temperature), fresh)
+
+
+def arriving_emission(model, upper, lower, gap, *, reuse=None):
+    """The upper subcell's downward emission (laws/luminescent.py, DownwardEmission) and the part
+    of it arriving at the lower subcell's front, (E, K) [A/m^2 per unit of exp(qVj/kT)]."""
+    layers = model.layers
+    energy, _ = _emission_grid(gap)
+    up = list(_span(upper))
+    between = range(up[-1] + 1, min(lower.emitter, lower.base))
 
     def optics(j):
-        return remembered(reuse, "coupling optics", (_layer_key(layers[j]), gap, float(temperature)),
-                          lambda: fresh(j))
+        return _layer_optics(model, j, gap, reuse)
 
-    up = list(_span(upper))
     depth = sum(optics(j)[0] * layers[j].thickness_nm * 1e-9 for j in up)
-    between = range(up[-1] + 1, min(lower.emitter, lower.base))
     path = [optics(j) for j in between]
-    low_band, _, low_index = optics(lower.emitter)
-    _, base_free, _ = optics(lower.base)
     emission = downward_emission(
-        energy, temperature_K=temperature, upper_index=optics(up[0])[2], upper_optical_depth=depth,
+        energy, temperature_K=model.temperature_K, upper_index=optics(up[0])[2], upper_optical_depth=depth,
         path_indices=[p[2] for p in path],
         path_optical_depths=[(p[0] + p[1]) * layers[j].thickness_nm * 1e-9 for p, j in zip(path, between)],
-        lower_index=low_index)
-    arriving = emission.current_A_m2 * emission.transmitted
+        lower_index=optics(lower.emitter)[2])
+    return emission, emission.current_A_m2 * emission.transmitted
+
+
+def lower_response(model, lower, emission, gap, *, back_reflectance=0.0, back_haze=0.0, reuse=None):
+    """(collected, absorbed): the lower subcell's currents per unit of the light arriving at its
+    front on each entry of the emission's (energy, ray) grid (E, K) [-, times q]: the front pass,
+    one return from the back mirror through the layers below (specular, or scattered when the back
+    is Lambertian: then generated uniformly, as the optics stage does)."""
+    layers = model.layers
+
+    def optics(j):
+        return _layer_optics(model, j, gap, reuse)
+
+    low_band, _, low_index = optics(lower.emitter)
+    _, base_free, _ = optics(lower.base)
     mu = emission.cosine_in(low_index)
     mu = np.where(mu > 0, mu, 1e-300)
     attenuation = (low_band + base_free)[:, None] / mu
@@ -122,9 +198,10 @@ def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back
     below = range(max(lower.emitter, lower.base) + 1, len(layers))
     below_optics = [optics(j) for j in below]
     below_thickness = [layers[j].thickness_nm * 1e-9 for j in below]
-    below_depth = sum(((b + f) * t for (b, f, _), t in zip(below_optics, below_thickness)), np.zeros_like(energy))
+    below_depth = sum(((b + f) * t for (b, f, _), t in zip(below_optics, below_thickness)),
+                      np.zeros_like(low_band))
     below_through = _below_transmission(emission, below_optics, below_thickness)
-    at_back = arriving * np.exp(-attenuation * lower_width) * below_through
+    at_back = np.exp(-attenuation * lower_width) * below_through
     # specular: back the same way (through the layers below once more) into the base
     returned = (1.0 - back_haze) * back_reflectance * at_back * below_through
     # scattered: Lambertian up through the layers below (2 E3), absorbed in the subcell as 1 - 2 E3
@@ -134,22 +211,17 @@ def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back
                  * (1.0 - thinfilm.lambertian_transmittance(lower_depth))[:, None])
     scattered_keep = np.where(low_band + base_free > 0, low_band / np.maximum(low_band + base_free, 1e-300), 1.0)
     result = collection.collected_photocurrent(
-        attenuation, photon_flux_m2_s=keep * arriving, emitter_thickness_m=lower.emitter_thickness_m,
+        attenuation, photon_flux_m2_s=keep, emitter_thickness_m=lower.emitter_thickness_m,
         emitter_diffusion_length_m=lower.emitter_length_m,
         emitter_diffusivity_m2_s=lower.emitter_diffusivity_m2_s, front_srv_m_s=lower.front_srv_m_s,
         depletion_width_m=lower.depletion_width_m, base_thickness_m=lower.base_thickness_m,
         base_diffusion_length_m=lower.base_length_m, base_diffusivity_m2_s=lower.base_diffusivity_m2_s,
         back_srv_m_s=lower.back_srv_m_s, back_photon_flux_m2_s=keep * returned,
         uniform_absorbed_m2_s=scattered_keep[:, None] * scattered, where=lower.name)
-    # the law's currents are q x (flux given); the fluxes given were already currents: divide q out
-    q = ELEMENTARY_CHARGE_C
-    collected = float(np.sum(result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2)) / q
-    absorbed = float(np.sum(result.absorbed_A_m2)) / q
-    reference = float(radiative_saturation_current(gap, temperature_K=temperature,
-                                                   absorptance=np.asarray(element.absorptance).reshape(-1)[0]))
-    value = collected / reference
-    return LayerCoupling(upper.name, lower.name, value, "layers", value, reference,
-                         float(np.sum(emission.current_A_m2)), float(np.sum(arriving)), absorbed, collected)
+    collected = result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2
+    for array in (collected, result.absorbed_A_m2):
+        array.flags.writeable = False
+    return collected, result.absorbed_A_m2
 
 
 def _below_transmission(emission, optics, thicknesses):
@@ -190,8 +262,8 @@ def check_given_coupling(layers, cells, file):
 def couple_layers(elements, model, *, file=None, reuse=None, front_factors=None):
     """The elements with every subcell's ``luminescent_coupling`` set from its layers (or the
     layer key), and the list of :class:`LayerCoupling` (sun side first). ``reuse``: a study's
-    dict; a pair's coupling is remembered under every input it reads (the two subcells, the upper
-    one's gap and absorptance, the layers from the upper subcell down, the back). ``front_factors``:
+    dict; a pair's parts are remembered under every input they read (:func:`subcell_coupling`: the
+    emission arriving, the lower subcell's response, J0,rad). ``front_factors``:
     each subcell's front emission into the ambient over that into air (default 1), for its floor."""
     cells = list(model.subcells)
     check_given_coupling(model.layers, cells, file)
@@ -199,14 +271,9 @@ def couple_layers(elements, model, *, file=None, reuse=None, front_factors=None)
     back_haze = model.back_haze if model.back_scattering == "lambertian" else 0.0
     couplings, values = [], {}
     for upper, lower in zip(cells, cells[1:]):
-        element = by_name[upper.name]
-        key = (repr(upper), repr(lower), repr(model.layers[min(_span(upper)):]), float(model.temperature_K),
-               np.asarray(element.gap_eV, dtype=float).tobytes(),
-               np.asarray(element.absorptance, dtype=float).tobytes(), float(model.back_reflectance),
-               float(back_haze))
-        found = remembered(reuse, ("coupling", upper.name), key, lambda upper=upper, lower=lower, element=element:
-                           subcell_coupling(model, upper, lower, element, back_reflectance=model.back_reflectance,
-                                            back_haze=back_haze, reuse=reuse))
+        # its parts are remembered (subcell_coupling): the pair itself is their cheap product
+        found = subcell_coupling(model, upper, lower, by_name[upper.name], back_reflectance=model.back_reflectance,
+                                 back_haze=back_haze, reuse=reuse)
         given = given_coupling(model.layers, upper)
         if given is not None:
             found = replace(found, coupling=float(given), source="given")

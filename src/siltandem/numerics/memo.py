@@ -93,6 +93,25 @@ def remembered(reuse, kind, key, build, *, entries=REMEMBERED_ENTRIES):
     return value
 
 
+#: objects whose text :func:`remembered_repr` keeps in a study's ``reuse`` dict (the oldest goes first)
+REPR_ENTRIES = 4096
+
+
+def remembered_repr(reuse, value):
+    """``repr(value)``, remembered in ``reuse`` by the object's identity (the object is held in the
+    entry, so its id stays its own, and checked with ``is``): a study's designs share most of their
+    (frozen) layer objects, whose text keys the remembered parts. ``reuse=None``: ``repr(value)``."""
+    if reuse is None:
+        return repr(value)
+    table = reuse.setdefault(("remembered", "repr"), {})
+    found = table.get(id(value))
+    if found is not None and found[0] is value:
+        return found[1]
+    text = repr(value)
+    keep(table, id(value), (value, text), REPR_ENTRIES)
+    return text
+
+
 class ValueMemo:
     """``memo(*args)`` = ``function(*args)`` for a pure function of arrays and numbers, remembered
     for the last ``entries`` distinct argument lists (the oldest goes first). The key is every

@@ -304,12 +304,45 @@ def design_light(light, k):
                       [type(c)(*(_row(f, k) for f in c)) for c in light.collected], light.free_carrier_share)
 
 
+def collecting_stop(model, wavelength, reuse=None):
+    """One past the end of the part of the wavelength grid [nm] a subcell collects from: the last
+    index where some subcell's emitter or base absorbs band to band, plus one (the trapezoid's
+    last interval, to a zero). Beyond it every subcell's collected current is exactly zero (no
+    band-to-band absorption: the collection law is given no pairs, :func:`_collected`), so the
+    photocurrents are their integrals up to it; the grid's whole length when nothing absorbs."""
+    active = np.zeros(np.shape(wavelength), dtype=bool)
+    for cell in model.subcells:
+        for j in (cell.emitter, cell.base):
+            active |= _band_to_band(model.materials[j], wavelength, model.temperature_K, reuse) > 0
+    found = np.flatnonzero(active)
+    return int(np.size(wavelength)) if found.size == 0 else min(int(np.size(wavelength)), int(found[-1]) + 2)
+
+
+def _collecting_grid(wavelength, flux, stop, reuse):
+    """(wavelength[:stop], flux[..., :stop]), the same objects for one study's grid (``reuse``), so
+    that what is remembered by the grid's identity (:func:`_band_to_band`) is found again."""
+    if reuse is None:
+        return wavelength[:stop], flux[..., :stop]
+    key = ("collecting grid", id(wavelength), id(flux), stop)
+    found = reuse.get(key)
+    if found is None or found[0] is not wavelength or found[1] is not flux:
+        found = (wavelength, flux, wavelength[:stop].copy(), np.array(flux[..., :stop]))
+        if len(reuse) >= REUSE_ENTRIES:
+            reuse.pop(next(iter(reuse)))
+        reuse[key] = found
+    return found[2], found[3]
+
+
 def light_designs(models, wavelength, flux, reuse=None):
     """Collected photocurrent [A/m^2] of every subcell of B layer models of one optical group
     (:func:`optical_group`), lit at once (batches of ``LIGHT_BATCH``); a list (designs) of lists
     (subcells). Each design's numbers are those of :func:`illuminate_layers` on it alone, which
-    goes through the same stacked pass with B = 1."""
+    goes through the same stacked pass with B = 1. Only the collecting part of the grid is lit
+    (:func:`collecting_stop`: every step of the pass is elementwise in wavelength, so its values
+    there are those of the whole grid's pass)."""
     out = []
+    stop = collecting_stop(models[0], wavelength, reuse)
+    wavelength, flux = _collecting_grid(wavelength, np.asarray(flux), stop, reuse)
     for start in range(0, len(models), LIGHT_BATCH):
         part = models[start:start + LIGHT_BATCH]
         light = layer_light(stacked_model(part), wavelength, flux, reuse)
@@ -341,9 +374,12 @@ def illuminate_layers(circuit, spectrum, reuse=None):
 
     lit, absorbed, collected_by, parasitic = [], {}, {}, {}
     active = set()
+    # the photocurrent over the collecting part of the grid, as a study's designs (light_designs)
+    stop = collecting_stop(model, wavelength, reuse)
     for k, (cell, result) in enumerate(zip(model.subcells, light.collected)):
         active.update({cell.emitter, cell.base})
-        photocurrent = _photocurrent(result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2, wavelength)
+        photocurrent = _photocurrent((result.emitter_A_m2 + result.depletion_A_m2 + result.base_A_m2)[..., :stop],
+                                     wavelength[:stop])
         share = light.free_carrier_share
         absorbed[cell.name] = current(sum(budget.absorbed[j] * (1.0 - share[j]) for j in (cell.emitter, cell.base)))
         grid = own_grid_shading(model, k)
