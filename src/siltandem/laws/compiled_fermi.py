@@ -35,7 +35,6 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.fermi_dirac import kernel_tables  # noqa: E402
 from siltandem.laws.field_emission import rtsafe_step  # noqa: E402
 from siltandem.numerics.series import EXP_TAIL  # noqa: E402
 
@@ -49,18 +48,47 @@ FERMI_FORM = 3.0
 #: above its band edge (NaN: Boltzmann), the reduced sheet charge, the occupancy (1 Fermi-Dirac,
 #: 0 Boltzmann), the zero-bias slope dJ/dV [A m^-2 V^-1] and the flat-band current [A m^-2]
 PHI, ETA1, ETA2, SHEET, OCCUPANCY, SLOPE0, FLAT = 10, 11, 12, 13, 14, 15, 16
+#: CPU time [s] this law's kernels took interpreted (numerics/jit.py) in one `run` of the layer dual
+#: (1.1-1.2 s; the whole run 2.1-2.3 s, against 1.2 s with numba's cached code loaded at once), far
+#: over the interpreted kernels' budget: building the rows switches the process to numba first (so
+#: these kernels always run compiled, and their answers are the compiled ones)
+INTERPRETED_COST_S = 1.1
 #: the zero-bias bending's column, as in laws/compiled_isotype.py
 ZERO = 9
 WIDTH = 17
 
-_TABLES, _SOMMERFELD, _GAMMA2, _LOW, _HIGH, _NODES, _WEIGHTS = kernel_tables()
-_INTERVALS = _TABLES.shape[2]
-_DEGREE = _TABLES.shape[1]
+#: the tables of laws/fermi_dirac.py (:func:`_load_tables`): the kernels read them as globals, which
+#: numba freezes when it compiles; built at import when the kernels are compiled, and only when the
+#: first rows are built when they run interpreted (a plain `run` that meets no Fermi-Dirac side then
+#: neither imports scipy.special nor spends 0.07 s on the tables)
+_TABLES = _SOMMERFELD = _GAMMA2 = _NODES = _WEIGHTS = None
+_LOW = _HIGH = 0.0
+_INTERVALS = _DEGREE = 0
+
+
+def _load_tables():
+    global _TABLES, _SOMMERFELD, _GAMMA2, _LOW, _HIGH, _NODES, _WEIGHTS, _INTERVALS, _DEGREE
+    from siltandem.laws.fermi_dirac import kernel_tables
+
+    _TABLES, _SOMMERFELD, _GAMMA2, _LOW, _HIGH, _NODES, _WEIGHTS = kernel_tables()
+    _INTERVALS, _DEGREE = _TABLES.shape[2], _TABLES.shape[1]
+
+
+if numba.mode() == "compiled":
+    _load_tables()
 _POWERS = np.array([2.0 ** (j + 1.0) for j in (-0.5, 0.5, 1.5)])
 _ORDERS = np.array([-0.5, 0.5, 1.5])
 _EPS = 2.220446049250313e-16
 _TINY = 2.2250738585072014e-308
 _ITERATIONS = 200
+#: ln of the largest double: above it e^x is inf (the compiled kernels' value; the interpreter would
+#: raise, so the kernels test for it and give inf in both forms, numerics/jit.py)
+_LOG_MAX = 709.782712893384
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _exp(x):
+    return math.inf if x > _LOG_MAX else math.exp(x)
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -71,6 +99,8 @@ def fermi_scalar(k, eta):
     if eta < _LOW:
         e = math.exp(eta)
         return e - e * e / _POWERS[k]
+    if eta > 1e100:                     # F_3/2 overflows near 1e123: no bending comes near
+        return math.inf
     if eta > _HIGH:
         inv2 = 1.0 / (eta * eta)
         series = 0.0
@@ -97,6 +127,8 @@ def side_charge_integral(x, eta):
             for k in range(EXP_TAIL.size - 1, -1, -1):
                 total = total * x + EXP_TAIL[k]
             return x * x * total, math.expm1(x), 1.0
+        if x > _LOG_MAX:
+            return math.inf, math.inf, 1.0
         return math.expm1(x) - x, math.expm1(x), 1.0
     half = fermi_scalar(1, eta)
     c = fermi_scalar(0, eta) / half
@@ -203,12 +235,16 @@ def _occupancy(x, v, p):
         scale = math.exp(p[2] + p[PHI])
         u = _expit(a) * math.expm1(v)
         # where u nears -1: ln(sigma(a) e^v + sigma(-a)), a sum of positive terms
-        j = math.log1p(u) if u >= -0.5 else math.log(_expit(a) * math.exp(v) + _expit(-a))
+        if u >= -0.5:
+            j = math.log1p(u)
+        else:
+            t = _expit(a) * _exp(v) + _expit(-a)
+            j = math.log(t) if t > 0.0 else -math.inf
         return scale * j, scale * _expit(a + v), scale * _expit(a)
     base = p[2] + x
     em1 = math.expm1(v)
-    j = math.copysign(math.exp(base + math.log(abs(em1))), em1) if em1 != 0.0 else 0.0
-    return j, math.exp(base + v), math.exp(base)
+    j = math.copysign(_exp(base + math.log(abs(em1))), em1) if em1 != 0.0 else 0.0
+    return j, _exp(base + v), _exp(base)
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -235,13 +271,15 @@ def fermi_current(voltage, p):
 @numba.njit(cache=True, error_model="numpy")
 def _prepare(rows):
     """Fill the derived columns of each row: the zero-bias bending, the zero-bias slope and the
-    flat-band current."""
+    flat-band current. Returns the rows (an interpreted kernel that returns None counts as failed,
+    numerics/jit.py)."""
     for r in range(rows.shape[0]):
         p = rows[r]
         p[ZERO] = fermi_split(p[0], p, math.nan)
         _, slope, _ = _current_at(0.0, p, p[ZERO])
         p[SLOPE0] = slope / p[3]
         p[FLAT] = _current_at(p[0], p, math.nan)[0]
+    return rows
 
 
 def fermi_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature_K, direction,
@@ -252,6 +290,11 @@ def fermi_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature
     side is always the full one (``depletion`` "exact", the only form this law has)."""
     if depletion != "exact":
         raise ValueError(f"the general isotype law has the exact depletion side only, not {depletion!r}")
+    if _TABLES is None:
+        _load_tables()
+    if numba.mode() == "interpreted":
+        # this law alone would overrun the interpreted kernels' budget: switch now, not after
+        numba.compile_all()
     from siltandem.constants import thermal_voltage_V
 
     optional = [np.nan if e is None else e for e in (accumulation_fermi_eV, depletion_fermi_eV)]
