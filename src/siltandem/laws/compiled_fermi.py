@@ -53,9 +53,13 @@ PHI, ETA1, ETA2, SHEET, OCCUPANCY, SLOPE0, FLAT = 10, 11, 12, 13, 14, 15, 16
 #: over the interpreted kernels' budget: building the rows switches the process to numba first (so
 #: these kernels always run compiled, and their answers are the compiled ones)
 INTERPRETED_COST_S = 1.1
+#: F_1/2 and F_3/2 at each side's bulk Fermi level (constant per row: the charge integral's
+#: normalisation and its x = 0 end), in columns laws/compiled_isotype.py's thermionic-field law uses
+#: and this law does not (5-7), and the last
+HALF1, THREE1, HALF2, THREE2 = 5, 6, 7, 17
 #: the zero-bias bending's column, as in laws/compiled_isotype.py
 ZERO = 9
-WIDTH = 17
+WIDTH = 18
 
 #: the tables of laws/fermi_dirac.py (:func:`_load_tables`): the kernels read them as globals, which
 #: numba freezes when it compiles; built at import when the kernels are compiled, and only when the
@@ -118,20 +122,19 @@ def fermi_scalar(k, eta):
 
 
 @numba.njit(cache=True, error_model="numpy")
-def side_charge_integral(x, eta):
-    """(g, dg/dx, g''(0)) of one side at reduced bending x (> 0 toward accumulation): Fermi-Dirac
-    with reduced Fermi level eta, Boltzmann (e^x - 1 - x, e^x - 1, 1) for eta NaN."""
+def side_charge_integral(x, eta, half, three):
+    """(g, dg/dx) of one side at reduced bending x (> 0 toward accumulation): Fermi-Dirac with
+    reduced Fermi level eta, ``half`` = F_1/2(eta) and ``three`` = F_3/2(eta); Boltzmann
+    (e^x - 1 - x, e^x - 1) for eta NaN."""
     if eta != eta:
         if abs(x) < 0.5:
             total = 0.0
             for k in range(EXP_TAIL.size - 1, -1, -1):
                 total = total * x + EXP_TAIL[k]
-            return x * x * total, math.expm1(x), 1.0
+            return x * x * total, math.expm1(x)
         if x > _LOG_MAX:
-            return math.inf, math.inf, 1.0
-        return math.expm1(x) - x, math.expm1(x), 1.0
-    half = fermi_scalar(1, eta)
-    c = fermi_scalar(0, eta) / half
+            return math.inf, math.inf
+        return math.expm1(x) - x, math.expm1(x)
     if abs(x) < 1.0:
         g = 0.0
         dg = 0.0
@@ -141,20 +144,22 @@ def side_charge_integral(x, eta):
             f = fermi_scalar(0, eta + t)
             g += w * (x - t) * f
             dg += w * f
-        return g / half, dg / half, c
-    g = fermi_scalar(2, eta + x) - fermi_scalar(2, eta) - x * half
+        return g / half, dg / half
+    g = fermi_scalar(2, eta + x) - three - x * half
     dg = fermi_scalar(1, eta + x) - half
-    return g / half, dg / half, c
+    return g / half, dg / half
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _side_charge(x, weight, eta):
-    """sign(x) sqrt(weight g(x)) and its x-derivative (laws/interface_charge.py _side_charge)."""
-    g, dg, c = side_charge_integral(x, eta)
+def _side_charge(x, weight, eta, half, three):
+    """sign(x) sqrt(weight g(x)) and its x-derivative (laws/interface_charge.py _side_charge; at
+    x = 0 the slope sqrt(weight g''(0)/2), g''(0) = F_-1/2(eta)/F_1/2(eta), 1 for Boltzmann)."""
+    g, dg = side_charge_integral(x, eta, half, three)
     root = math.sqrt(weight * max(g, 0.0))
     if root > 0.0:
         slope = weight * abs(dg) / (2.0 * root)
     else:
+        c = 1.0 if eta != eta else fermi_scalar(0, eta) / half
         slope = math.sqrt(weight * c / 2.0)
     if x > 0.0:
         return root, slope
@@ -166,31 +171,27 @@ def _side_charge(x, weight, eta):
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _balance(v1, vb, p):
     """q1(v1) - q2(vb - v1) - s, its v1-derivative and the two charge slopes (L', R')."""
-    q1, d1 = _side_charge(v1, p[1], p[ETA1])
-    q2, d2 = _side_charge(-(vb - v1), 1.0, p[ETA2])
+    q1, d1 = _side_charge(v1, p[1], p[ETA1], p[HALF1], p[THREE1])
+    q2, d2 = _side_charge(-(vb - v1), 1.0, p[ETA2], p[HALF2], p[THREE2])
     return q1 + q2 - p[SHEET], d1 + d2, d1, d2
 
 
 @numba.njit(cache=True, error_model="numpy")
 def fermi_split(vb, p, start):
     """The accumulation-side bending v1 (reduced) at the reduced barrier voltage vb >= 0 (NaN
-    otherwise): the root of the rising balance, bracketed from [-1, vb + 1] by doubling the ends
-    (laws/interface_charge.py bending_split), then rtsafe from ``start`` (NaN: the middle)."""
+    otherwise): the root of the rising balance, in [0, vb] without a sheet charge, else bracketed
+    from [-1, vb + 1] by doubling the ends (laws/interface_charge.py bending_split); then rtsafe
+    from ``start`` (NaN: the middle)."""
     if not (vb >= 0.0) or not math.isfinite(vb):
         return math.nan
-    lo, hi = -1.0, vb + 1.0
-    for _ in range(60):
-        f_lo = _balance(lo, vb, p)[0]
-        f_hi = _balance(hi, vb, p)[0]
-        grow = False
-        if f_lo > 0.0:
-            lo = 2.0 * lo
-            grow = True
-        if f_hi < 0.0:
-            hi = 2.0 * hi
-            grow = True
-        if not grow:
-            break
+    if p[SHEET] == 0.0:
+        # no sheet charge: f(0) = q2(-vb) <= 0 <= q1(vb) = f(vb), the root lies in [0, vb] (ends
+        # not evaluated)
+        if vb == 0.0:
+            return 0.0
+        lo, hi, f_lo, f_hi = 0.0, vb, -1.0, 1.0
+    else:
+        lo, hi, f_lo, f_hi = _widen(vb, p)
     if f_lo == 0.0:
         return lo
     if f_hi == 0.0:
@@ -215,6 +216,27 @@ def fermi_split(vb, p, start):
         if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY or hi <= lo:
             break
     return x
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _widen(vb, p):
+    """(lo, hi, f(lo), f(hi)) from [-1, vb + 1], doubling the ends until the balance changes sign
+    (laws/interface_charge.py bending_split)."""
+    lo, hi = -1.0, vb + 1.0
+    f_lo = f_hi = math.nan
+    for _ in range(60):
+        f_lo = _balance(lo, vb, p)[0]
+        f_hi = _balance(hi, vb, p)[0]
+        grow = False
+        if f_lo > 0.0:
+            lo = 2.0 * lo
+            grow = True
+        if f_hi < 0.0:
+            hi = 2.0 * hi
+            grow = True
+        if not grow:
+            break
+    return lo, hi, f_lo, f_hi
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -285,7 +307,7 @@ def _prepare(rows):
 def fermi_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature_K, direction,
                accumulation_fermi_eV=None, depletion_fermi_eV=None, sheet_charge=0.0, depletion="exact",
                width=WIDTH):
-    """Parameter rows (B, width >= 17) of this law from the element's (B, 1) numbers (Fermi levels
+    """Parameter rows (B, width >= 18) of this law from the element's (B, 1) numbers (Fermi levels
     above the band edge [eV], None for a Boltzmann side; the reduced sheet charge); the depletion
     side is always the full one (``depletion`` "exact", the only form this law has)."""
     if depletion != "exact":
@@ -315,6 +337,9 @@ def fermi_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature
     rows[:, ETA1] = eta1 / vt
     rows[:, ETA2] = eta2 / vt
     rows[:, SHEET] = sheet
+    for half, three, eta in ((HALF1, THREE1, rows[:, ETA1]), (HALF2, THREE2, rows[:, ETA2])):
+        rows[:, half] = [fermi_scalar(1, e) for e in eta]
+        rows[:, three] = [fermi_scalar(2, e) for e in eta]
     rows[:, OCCUPANCY] = 1.0 if (accumulation_fermi_eV is not None or depletion_fermi_eV is not None) else 0.0
     _prepare(rows)
     return rows
