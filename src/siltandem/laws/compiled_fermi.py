@@ -373,8 +373,10 @@ def fermi_inverse(current, p):
             hi = lo
             x = x_lo
             lo = 2.0 * lo - 1.0
-    # first guess: the zero-bias slope's line, else the middle
-    v = current / (p[SLOPE0] * vt)
+    # first guess: J = J0 expm1(v) with J0 = the zero-bias slope (per reduced volt; the law's
+    # shape for a barrier that moves little), else the middle of the bracket
+    ratio = current / (p[SLOPE0] * vt)
+    v = math.log1p(ratio) if ratio > -0.5 else math.nan
     if not (v > lo and v < hi):
         v = 0.5 * (lo + hi)
     dx_old = dx = hi - lo
