@@ -346,6 +346,39 @@ def fermi_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature
 
 
 @numba.njit(cache=True, error_model="numpy")
+def _joint_newton(target, scale, v, x, lo, hi, p):
+    """(v, v1) with balance(v1; vbi - v) = 0 and asinh(J(v, v1)/scale) = target by Newton's method
+    on the pair (the 2 x 2 Jacobian: the balance's slopes d1 + d2 in v1 and d2 in v; dJ/dv =
+    A T^2 sigma(a + v), dJ/dv1 = A T^2 (sigma(a + v) - sigma(a)), the occupancy weights, for
+    Boltzmann occupancy the same with e^(a + v), e^a), from a split solved at the start; (NaN, NaN)
+    where a step leaves [lo, hi] or 40 steps do not settle to rounding."""
+    vbi = p[0]
+    for _ in range(40):
+        f1, a12, _, a11 = _balance(x, vbi - v, p)
+        j, upper, lower = _occupancy(x, v, p)
+        r = j / scale
+        f2 = math.asinh(r) - target
+        if f1 == 0.0 and f2 == 0.0:
+            return v, x
+        factor = 1.0 / (scale * math.sqrt(1.0 + r * r))
+        a21, a22 = upper * factor, (upper - lower) * factor
+        det = a11 * a22 - a12 * a21
+        if not (det != 0.0 and math.isfinite(det)):
+            return math.nan, math.nan
+        dv = (f1 * a22 - a12 * f2) / det
+        dx = (a11 * f2 - a21 * f1) / det
+        v_new, x_new = v - dv, x - dx
+        if not (v_new >= lo and v_new <= hi and math.isfinite(x_new)):
+            return math.nan, math.nan
+        settled = (abs(dv) <= 4.0 * _EPS * abs(v_new) + _TINY
+                   and abs(dx) <= 4.0 * _EPS * abs(x_new) + 1e-300)
+        v, x = v_new, x_new
+        if settled:
+            return v, x
+    return math.nan, math.nan
+
+
+@numba.njit(cache=True, error_model="numpy")
 def fermi_inverse(current, p):
     """V [V] and dJ/dV [A m^-2 V^-1] at the current density J [A m^-2]; NaN above the flat-band
     current and for a non-finite J (laws/interface_charge.py general_voltage)."""
@@ -379,6 +412,13 @@ def fermi_inverse(current, p):
     v = math.log1p(ratio) if ratio > -0.5 else math.nan
     if not (v > lo and v < hi):
         v = 0.5 * (lo + hi)
+    # Newton's method on both unknowns (v, v1) at once; where it leaves the bracket or does not
+    # settle, the nested search below (the split solved at each v) takes over from the start
+    x = fermi_split(vbi - v, p, x)
+    v_joint, x_joint = _joint_newton(target, scale, v, x, lo, hi, p)
+    if v_joint == v_joint:
+        j, slope, x = _current_at(v_joint, p, x_joint)
+        return v_joint * vt, slope / vt
     dx_old = dx = hi - lo
     slope = math.nan
     for _ in range(_ITERATIONS):
