@@ -1,6 +1,7 @@
 """Speed of the Fermi-Dirac integrals (laws/fermi_dirac.py): the fast F_j (series / Chebyshev table /
 Sommerfeld) against the quadrature it is built from, and the isotype law's Fermi-Dirac form
-(V(J) at 200 currents, a degenerate p-Si side as in the placement demo). Process CPU time, medians.
+(V(J) at 200 currents, a degenerate p-Si side as in the placement demo), numpy and compiled
+(laws/compiled_fermi.py). Process CPU time, medians.
 
 Run: python benchmarks/bench_fermi_dirac.py   (prints numbers; asserts nothing about time)
 """
@@ -10,6 +11,7 @@ import time
 import numpy as np
 
 from siltandem.laws import fermi_dirac as fd
+from siltandem.laws.compiled_fermi import fermi_rows, fermi_voltages
 from siltandem.laws import thermionic as th
 
 
@@ -37,6 +39,13 @@ def main():
     boltzmann = cpu_median(lambda: th.isotype_voltage(j, **law))
     fermi = cpu_median(lambda: th.isotype_voltage(j, accumulation_fermi_eV=-0.2, depletion_fermi_eV=0.059, **law))
     print(f"isotype V(J) at 200 currents: Boltzmann {boltzmann * 1e3:.1f} ms, Fermi-Dirac {fermi * 1e3:.1f} ms")
+    rows = fermi_rows(direction=1.0, accumulation_fermi_eV=-0.2, depletion_fermi_eV=0.059,
+                      **{k: v for k, v in law.items() if k != "depletion"})
+    currents = j[None, :].copy()
+    fermi_voltages(rows, currents)                    # compile (or load from numba's cache) once
+    compiled = cpu_median(lambda: fermi_voltages(rows, currents))
+    print(f"compiled Fermi-Dirac V(J) at 200 currents: {compiled * 1e3:.2f} ms "
+          f"({fermi / compiled:.0f}x faster than the numpy Fermi-Dirac law)")
 
 
 if __name__ == "__main__":

@@ -1,6 +1,6 @@
-"""Fermi-Dirac statistics switched on in stack files where an isotype side is (nearly) degenerate
-(circuit/isotype.py FERMI_DIRAC_WITHIN_KT; the law of laws/interface_charge.py with the fast
-integrals of laws/fermi_dirac.py).
+"""Fermi-Dirac statistics in stack files where an isotype side is (nearly) degenerate, by default
+(circuit/isotype.py FERMI_DIRAC_WITHIN_KT; the law of laws/interface_charge.py, compiled in
+laws/compiled_fermi.py), and the interface key statistics = "boltzmann" that keeps the Boltzmann law.
 
 Checks and their sources:
 - The threshold: a side whose Fermi level is less than 3 kT below its band edge takes the
@@ -31,17 +31,11 @@ from siltandem import load_stack, run_stack
 from siltandem.circuit.compile import compile_stack
 from siltandem.circuit.isotype import FERMI_DIRAC_WITHIN_KT
 from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
+from siltandem.laws.compiled import PARAMETER_WIDTH
+from siltandem.laws.compiled_fermi import FERMI_FORM
+from siltandem.laws.compiled_isotype import FORMS, isotype_rows, isotype_voltages
 from siltandem.materials import load_material
 from siltandem.stack.placements import with_placement
-
-
-@pytest.fixture(autouse=True)
-def fermi_dirac_law_on(monkeypatch):
-    """The Fermi-Dirac law is off by default (circuit/isotype.FERMI_DIRAC_LAW: no compiled form
-    yet, many times slower); these tests switch it on, as a stack run with it would."""
-    from siltandem.circuit import isotype
-
-    monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", True)
 
 
 T = 298.15
@@ -75,7 +69,8 @@ def test_threshold_three_kt_below_the_band(tmp_path, factor, fermi_dirac):
     depth_kt = side["fermi_depth_eV"] / KT
     assert (depth_kt < FERMI_DIRAC_WITHIN_KT) is fermi_dirac and abs(depth_kt - 3.0) < 0.05
     assert element.general_law is fermi_dirac
-    assert (element.compiled_rows(T) is None) is fermi_dirac
+    # the compiled law serves both: the general law's rows (laws/compiled_fermi.py) or today's
+    assert bool(element.compiled_rows(T)[0, 4] == FERMI_FORM) is fermi_dirac
 
 
 def test_non_degenerate_interface_keeps_todays_law_bit_for_bit(tmp_path):
@@ -135,16 +130,55 @@ def test_warning_names_the_layer_and_the_statistics():
     assert "the law takes Fermi-Dirac statistics" in silicon[0]
 
 
-def test_switch_off_keeps_the_boltzmann_law(tmp_path, monkeypatch):
-    """circuit/isotype.py FERMI_DIRAC_LAW = False: the degenerate side is still flagged, its Fermi
-    level still Fermi-Dirac, but the element has no Fermi levels (the compiled Boltzmann law) and the
-    warning says the bending and emission stay Boltzmann."""
-    from siltandem.circuit import isotype
+def test_boltzmann_key_keeps_the_boltzmann_law(tmp_path):
+    """statistics = "boltzmann": the degenerate side is still flagged, its Fermi level still
+    Fermi-Dirac, but the element has no Fermi levels (the compiled Boltzmann law) and the warning
+    says the bending and emission stay Boltzmann, naming the key."""
     from siltandem.result.summary import _degenerate_side_warnings
 
-    monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", False)
-    element = compile_stack(element_stack(tmp_path, "GaP", "Si", 1e16, 1e20)).element("i")
+    stack = element_stack(tmp_path, "GaP", "Si", 1e16, 1e20, extra='statistics = "boltzmann"\n')
+    element = compile_stack(stack).element("i")
     assert element.accumulation_fermi_eV is None and element.depletion_fermi_eV is None
-    assert element.compiled_rows(T) is not None
+    assert element.compiled_rows(T)[0, 4] == FORMS["exact"]
     said = _degenerate_side_warnings(element)
     assert len(said) == 1 and "stay Boltzmann approximations" in said[0] and "(Si," in said[0]
+    assert 'statistics = "boltzmann"' in said[0]
+
+
+def test_boltzmann_key_is_the_boltzmann_law_bit_for_bit(tmp_path):
+    """The law of "boltzmann" is the law stack files took before the Fermi-Dirac form (the exact
+    Boltzmann depletion side on the Fermi-Dirac Fermi levels, laws/thermionic.py, compiled in
+    laws/compiled_isotype.py): its parameter rows and voltages equal the compiled Boltzmann law's
+    on the same interface numbers, bit for bit; the default differs (the Fermi-Dirac law)."""
+    fd = compile_stack(element_stack(tmp_path, "GaP", "Si", 1e16, 1e20)).element("i")
+    boltzmann = compile_stack(element_stack(tmp_path, "GaP", "Si", 1e16, 1e20,
+                                            extra='statistics = "boltzmann"\n')).element("i")
+    for name in ("barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2", "direction"):
+        assert np.array_equal(getattr(fd, name), getattr(boltzmann, name))
+    rows = isotype_rows(built_in_V=fd.built_in_V, alpha=fd.alpha, barrier_eV=fd.barrier_eV,
+                        richardson_A_m2_K2=fd.richardson_A_m2_K2, temperature_K=T, form="exact",
+                        transport="thermionic", field_energy_eV=np.nan, spike_eV=fd.offset_eV,
+                        direction=fd.direction, width=PARAMETER_WIDTH)
+    assert np.array_equal(boltzmann.compiled_rows(T), rows)
+    j = np.linspace(-300.0, 300.0, 41)[None, :]
+    v_law, slope = isotype_voltages(rows, (fd.direction * j).copy())
+    v, dv = boltzmann.voltage(j, T)
+    assert np.array_equal(v, -fd.direction * v_law) and np.array_equal(dv, -1.0 / slope)
+    assert not np.allclose(fd.voltage(j, T)[0], v, rtol=1e-3, atol=0.0)
+
+
+def test_layer_key_reaches_the_interface():
+    """The layer key on the upper layer of a layer stack's interface: the placement demo's "in
+    silicon" drop at the MPP current 17.462 mA/cm^2 is the Boltzmann law's 323.3 mV with
+    statistics = "boltzmann" on the buffer (README, the figure before the Fermi-Dirac form; 0.05 mV)
+    and the Fermi-Dirac 316.4 mV without it."""
+    from dataclasses import replace
+
+    stack = load_stack(PLACEMENTS)
+    layers = tuple(replace(layer, statistics="boltzmann") if layer.name == "buffer" else layer
+                   for layer in stack.layers)
+    chosen = next(p for p in stack.extra["placements"] if p.name == "in silicon")
+    e = compile_stack(with_placement(replace(stack, layers=layers), chosen)).element("interface buffer / junction p")
+    assert e.accumulation_fermi_eV is None and e.depletion_fermi_eV is None
+    drop, _ = e.voltage(174.6237, T)
+    assert abs(1000 * float(drop[0, 0])) == pytest.approx(323.3, abs=0.05)

@@ -339,21 +339,18 @@ def test_materials_form_with_thermionic_field_is_transparent_where_thermionic_bl
     assert 0 < default["drop_at_mpp_V"] < 0.005
 
 
-def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit(monkeypatch):
+def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
     """transport = "thermionic" on the materials form builds the thermionic law on the exact
     Boltzmann depletion side (laws/thermionic.py, itself checked against mpmath): the element's
     current and inverse equal that law's on the element's numbers exactly (numpy path); a sheet
     charge keeps thermionic emission (the thermionic-field law has none). At 1e19 both sides are
     within 3 kT of their bands, where stack files take the Fermi-Dirac law
-    (tests/test_fermi_dirac_stacks.py): switched off here, so the Boltzmann law is compared."""
-    from siltandem.circuit import isotype
+    (tests/test_fermi_dirac_stacks.py): statistics = "boltzmann" here, so the Boltzmann law is compared."""
     from siltandem.circuit.isotype import isotype_from_materials
-
-    monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", False)
     from siltandem.stack.load import ElementSpec
 
     values = dict(upper_material="GaP", lower_material="Si", upper_doping_cm3=1e19,
-                  lower_doping_cm3=1e19, carrier="hole", carriers_flow="down")
+                  lower_doping_cm3=1e19, carrier="hole", carriers_flow="down", statistics="boltzmann")
     plain = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"transport": "thermionic"}),
                                    300.0, None)
     charged = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"sheet_charge_cm2": 1e11}),

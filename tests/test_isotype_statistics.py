@@ -141,10 +141,7 @@ def test_statistics_must_be_named():
         law(si, 1e17, si, 1e18, "electron", statistics="maxwell")
 
 
-def test_degenerate_layer_in_a_stack_file(tmp_path, monkeypatch):
-    from siltandem.circuit import isotype
-
-    monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", True)      # off by default: no compiled form yet
+def test_degenerate_layer_in_a_stack_file(tmp_path):
     # the materials form in an element stack: the row's built-in potential is the Fermi-Dirac one,
     # the degenerate side is flagged and the result warns
     path = tmp_path / "s.toml"

@@ -10,6 +10,9 @@ COMPILED_ISOTYPE_FIELDS = frozenset({
     "name", "barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2", "direction", "carrier",
     "offset_eV", "string", "kind", "depletion", "transport", "field_energy_eV", "include_tail"})
 
+#: the fields the compiled general law (laws/compiled_fermi.py: Fermi-Dirac sides, sheet charge) reads
+GENERAL_ISOTYPE_FIELDS = COMPILED_ISOTYPE_FIELDS | {"accumulation_fermi_eV", "depletion_fermi_eV", "sheet_charge"}
+
 
 def only_fields_set(element, names):
     """True when every compared field of the dataclass ``element`` outside ``names`` has its

@@ -29,10 +29,10 @@ from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.constants import thermal_voltage_V
 from siltandem.numerics.tables import LawTable
 from siltandem.laws import compiled as kernels
-from siltandem.laws import compiled_isotype
+from siltandem.laws import compiled_fermi, compiled_isotype
 from siltandem.numerics.memo import recall
 from siltandem.numerics.roots import safeguarded_newton
-from siltandem.circuit.defaults import COMPILED_ISOTYPE_FIELDS, only_fields_set
+from siltandem.circuit.defaults import COMPILED_ISOTYPE_FIELDS, GENERAL_ISOTYPE_FIELDS, only_fields_set
 
 #: isotype interfaces invert through the compiled law (laws/compiled_isotype.py); False: the numpy
 #: laws (laws/thermionic.py, laws/field_emission.py), for benchmarks and checks
@@ -642,9 +642,8 @@ class IsotypeInterface:
     offset_eV: np.ndarray = field(default_factory=lambda: batch(np.nan))
     string: int = 1
     kind: str = "isotype"
-    #: for the band diagram (known when the interface is given by its materials): per side,
-    #: ("accumulation", "depletion") -> dict(doping_m3, permittivity, gap_eV, fermi_depth_eV,
-    #: material)
+    #: for the band diagram (known when the interface is given by its materials): per side, ("accumulation",
+    #: "depletion") -> dict(doping_m3, permittivity, gap_eV, fermi_depth_eV, material)
     sides: dict | None = field(default=None, compare=False, repr=False)
     #: the depletion side's form (laws/thermionic.py voltage_split): "exact" (the full Boltzmann
     #: depletion side, defined for every Vbi > 0 and smooth in doping, temperature and alpha; the
@@ -672,8 +671,7 @@ class IsotypeInterface:
 
     @property
     def general_law(self):
-        """True where the law runs its general form (a Fermi-Dirac side or a sheet charge):
-        a compiled path that has only the Boltzmann law must leave this element to numpy."""
+        """True where the law runs its general form (a Fermi-Dirac side or a sheet charge)."""
         return (self.accumulation_fermi_eV is not None or self.depletion_fermi_eV is not None
                 or bool(np.any(self.sheet_charge != 0)))
 
@@ -720,8 +718,12 @@ class IsotypeInterface:
             return None
         key = ("rows", _temperature_key(temperature_K))
         if key not in self._cache:
-            self._cache[key] = (self._compiled_rows(form, temperature_K)
-                                if only_fields_set(self, COMPILED_ISOTYPE_FIELDS) else None)
+            # Fermi-Dirac sides or a sheet charge: the general law's kernels (laws/compiled_fermi.py)
+            general = self.general_law and not field and form == "exact"
+            known = only_fields_set(self, GENERAL_ISOTYPE_FIELDS if general else COMPILED_ISOTYPE_FIELDS)
+            self._cache[key] = (None if not known else compiled_fermi.fermi_rows(
+                **self._law(temperature_K), direction=self.direction, width=kernels.PARAMETER_WIDTH) if general
+                else self._compiled_rows(form, temperature_K))
         return self._cache[key]
 
     def _compiled_rows(self, form, temperature_K):
@@ -755,7 +757,6 @@ class IsotypeInterface:
     def current_cap(self, temperature_K):
         """Largest stack current the law can carry [A/m^2]: the flat-band current when driven
         forward (just inside the law's domain), unbounded when driven in reverse."""
-        from siltandem.constants import thermal_voltage_V
 
         tail = (self.include_tail if self.transport == "thermionic-field"
                 else self.depletion == "tail")

@@ -534,6 +534,8 @@ def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None
         values["transport"] = upper.transport
     if upper.sheet_charge_cm2 is not None:
         values["sheet_charge_cm2"] = upper.sheet_charge_cm2
+    if upper.statistics is not None:
+        values["statistics"] = upper.statistics
     spec = ElementSpec(upper.index, "isotype", f"interface {upper.name} / {lower.name}", 1, values)
     if reuse is None:
         return isotype_from_materials(spec, temperature_K, file, (upper.name, lower.name))

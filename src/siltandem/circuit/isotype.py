@@ -16,10 +16,11 @@ from siltandem.errors import StackError
 #: the difference grows tenfold for every 2.3 kT closer to the band: below it the Boltzmann law
 #: (compiled, fast) stays, bit for bit
 FERMI_DIRAC_WITHIN_KT = 3.0
-#: False: every side keeps the Boltzmann law (Fermi-Dirac Fermi levels only, as before the switch),
-#: e.g. where the Fermi-Dirac law's numpy speed matters more than its accuracy (it has no compiled
-#: form yet: a year of hours takes many times longer, DEVELOPERS.md)
-FERMI_DIRAC_LAW = False
+#: the interface key ``statistics`` (layer stacks: on the upper layer): "fermi-dirac" (the default)
+#: gives a side within FERMI_DIRAC_WITHIN_KT of its band the Fermi-Dirac law (compiled,
+#: laws/compiled_fermi.py); "boltzmann" keeps the Boltzmann law on every side (Fermi-Dirac Fermi
+#: levels only: the law before the Fermi-Dirac form, bit for bit)
+STATISTICS = ("fermi-dirac", "boltzmann")
 
 
 def isotype_element(spec, temperature_K, file=None):
@@ -132,9 +133,11 @@ def isotype_from_materials(spec, temperature_K, file, layer_names=None):
     transport, field_energy = _transport(v, layers, upper_accumulates, temperature_K)
     kt = BOLTZMANN_EV_K * temperature_K
     fermi = {}
+    statistics = v.get("statistics", "fermi-dirac")
     for role, side in sides.items():
         # the thermionic-field law has no Fermi-Dirac form: it stays Boltzmann there
-        side["fermi_dirac"] = bool(FERMI_DIRAC_LAW and transport == "thermionic"
+        side["statistics"] = statistics
+        side["fermi_dirac"] = bool(statistics == "fermi-dirac" and transport == "thermionic"
                                    and side["fermi_depth_eV"] < FERMI_DIRAC_WITHIN_KT * kt)
         fermi[role] = batch(-side["fermi_depth_eV"]) if side["fermi_dirac"] else None
     sheet = 0.0

@@ -43,6 +43,9 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
 from siltandem.laws.field_emission import gain_point, gain_slope_range, rtsafe_step  # noqa: E402
+# rows of the general law (Fermi-Dirac sides, sheet charge) go to its own kernels
+from siltandem.laws.compiled_fermi import (FERMI_FORM, fermi_current, fermi_inverse,  # noqa: E402
+                                           fermi_slope_range)
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]
@@ -245,6 +248,8 @@ def split(vb, p):
 def isotype_current(voltage, p):
     """J [A m^-2] and dJ/dV of the law with row p at the voltage V [V] (V > 0 lowers the
     barrier); NaN beyond flat band (V > Vbi, or V > Vbi - kT/q with the tail)."""
+    if p[4] == FERMI_FORM:
+        return fermi_current(voltage, p)
     v = voltage / p[3]
     vb = p[0] - v
     form = p[4]
@@ -314,6 +319,8 @@ def _residual(x, p, target):
 def isotype_inverse(current, p):
     """V [V] and dJ/dV [A m^-2 V^-1] of the law with row p at the current density J [A m^-2];
     NaN above the flat-band current (and for a non-finite J)."""
+    if p[4] == FERMI_FORM:
+        return fermi_inverse(current, p)
     if not math.isfinite(current):
         return math.nan, math.nan
     vbi, log_p, vt, form = p[0], p[2], p[3], p[4]
@@ -469,6 +476,8 @@ def isotype_slope_range(v_low, v_high, p):
     slope's bracket is monotone in each, so its extremes lie at the corners) and of
     laws/field_emission.py field_emission_slope_range (thermionic-field emission, whose bracket is
     linear in dlnG/dw in [0, 1]). NaN where an end lies outside the domain."""
+    if p[4] == FERMI_FORM:
+        return fermi_slope_range(v_low, v_high, p)
     x_a, e_a, a_a, s_a, g_a, w_a, l_a = _end(v_low, p)       # low V: the larger bending
     x_b, e_b, a_b, s_b, g_b, w_b, l_b = _end(v_high, p)
     scale = math.exp(p[2]) / p[3]

@@ -52,7 +52,7 @@ from scipy.special import expit, gamma, zeta
 
 from siltandem.numerics.series import EXP_TAIL, horner
 
-__all__ = ["fermi_integral", "fermi_integral_quadrature", "charge_integral", "TABLE_ORDERS"]
+__all__ = ["fermi_integral", "fermi_integral_quadrature", "charge_integral", "TABLE_ORDERS", "kernel_tables"]
 
 #: the orders with fast tables
 TABLE_ORDERS = (-0.5, 0.5, 1.5)
@@ -130,6 +130,16 @@ def _stacked():
     tables = np.stack([_table(order) for order in TABLE_ORDERS])
     return (np.ascontiguousarray(tables.transpose(0, 2, 1)),
             np.stack([_sommerfeld(order) for order in TABLE_ORDERS]))
+
+
+def kernel_tables():
+    """What a compiled scalar F_j needs (laws/compiled_fermi.py), for the TABLE_ORDERS in order:
+    the Chebyshev coefficients (orders, degree + 1, intervals) on unit intervals from
+    :data:`_LOW`, the Sommerfeld coefficients (orders, terms), Gamma(j + 2) (orders,), the
+    table's range (low, high) [kT] and the 8-node Gauss-Legendre rule of :func:`charge_integral`."""
+    tables, sommerfeld = _stacked()
+    return (tables, sommerfeld, np.array([gamma(j + 2.0) for j in TABLE_ORDERS]), _LOW, _HIGH,
+            _SMALL_NODES, _SMALL_WEIGHTS)
 
 
 def _fermi_indexed(which, eta):

@@ -136,7 +136,11 @@ def _occupancy_terms(a, v, fermi_dirac):
     e^a; Fermi-Dirac ln(1 + sigma(a) expm1(v)), sigma(a + v), sigma(a)."""
     with np.errstate(over="ignore", under="ignore", invalid="ignore"):
         if fermi_dirac:
-            return np.log1p(expit(a) * np.expm1(v)), expit(a + v), expit(a)
+            # ln(1 + u), u = sigma(a) expm1(v); where u nears -1 (sigma(a) ~ 1, v << 0) the same
+            # ln(sigma(a) e^v + sigma(-a)) as a sum of positive terms (no cancellation to -inf)
+            u = expit(a) * np.expm1(v)
+            j = np.where(u < -0.5, np.log(expit(a) * np.exp(v) + expit(-a)), np.log1p(u))
+            return j, expit(a + v), expit(a)
         return np.exp(a) * np.expm1(v), np.exp(a + v), np.exp(a)
 
 
@@ -199,17 +203,21 @@ def general_voltage(j_target, vbi, alpha, log_richardson_t2, phi, start=None, **
 def general_slope_range(v_lo, v_hi, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=None,
                         s=0.0, fermi_dirac=False):
     """Smallest and largest dJ/dv over [v_lo, v_hi] (per reduced volt), an enclosure: dJ/dv =
-    A T^2 [w_up (1 - u) + w_low u] with u = R'/(L' + R'); as v rises v1 and v2 fall and so do the
-    charge slopes L' and R' (each side's charge is convex in its bending), so u lies between
-    R'(hi)/(R'(hi) + L'(lo)) and R'(lo)/(R'(lo) + L'(hi)); w_low (occupancy at a = v1 - phi) falls and
+    A T^2 [w_up (1 - u) + w_low u] with u = R'/(L' + R'); each side's charge is convex in its
+    bending toward accumulation (dg/dx = [F_1/2(eta + x) - F_1/2(eta)]/F_1/2(eta) rises with x), so as
+    v rises L' (side 1, v1 falling) falls and R' (side 2, its accumulation bending -v2 rising) rises:
+    each is monotone on the interval, so u lies between min R'/(min R' + max L') and
+    max R'/(max R' + min L') over the two ends; w_low (occupancy at a = v1 - phi) falls and
     w_up (at a + v, d(a + v)/dv = 1 - u >= 0) rises with v; the bound is linear in u, so its
     extremes lie at the corners."""
     v1 = [bending_split(vbi - v, alpha, eta1, eta2, s) for v in (v_lo, v_hi)]
     slopes = [_balance(x, vbi - v, alpha, eta1, eta2, s)[2:] for x, v in zip(v1, (v_lo, v_hi))]
     (l_lo, r_lo), (l_hi, r_hi) = slopes
     with np.errstate(invalid="ignore", divide="ignore"):
-        u_min = r_hi / (r_hi + l_lo)
-        u_max = r_lo / (r_lo + l_hi)
+        r_min, r_max = np.minimum(r_lo, r_hi), np.maximum(r_lo, r_hi)
+        l_min, l_max = np.minimum(l_lo, l_hi), np.maximum(l_lo, l_hi)
+        u_min = r_min / (r_min + l_max)
+        u_max = r_max / (r_max + l_min)
     _, up_lo, low_lo = _occupancy_terms(v1[0] - phi, v_lo, fermi_dirac)
     _, up_hi, low_hi = _occupancy_terms(v1[1] - phi, v_hi, fermi_dirac)
     scale = np.exp(log_richardson_t2)

@@ -279,7 +279,8 @@ def _degenerate_side_warnings(element):
                               "bending and emission")
         else:
             why = (" (the thermionic-field law has no Fermi-Dirac form)"
-                   if element.transport == "thermionic-field" else "")
+                   if element.transport == "thermionic-field" else
+                   ' (statistics = "boltzmann")' if side.get("statistics") == "boltzmann" else "")
             out.append(head + ": Fermi-Dirac statistics place its Fermi level, the band bending and "
                               f"the emission stay Boltzmann approximations{why}")
     return out

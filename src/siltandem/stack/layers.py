@@ -31,7 +31,7 @@ LAYER_KEYS = {"name", "material", "composition", "thickness_nm", "doping",
               "diffusion_length_um", "lifetime_ns", "srv_cm_s", "tunnel_peak_mA_cm2",
               "tunnel_peak_V", "tunnel_valley_mA_cm2", "tunnel_valley_V", "offset_eV", "gap_eV", "j0_fA_cm2",
               "transport", "sheet_charge_cm2", "luminescent_coupling", "srh_lifetime_ns",
-              "photon_recycling_factor", "ere", "string", "gap_narrowing"}
+              "photon_recycling_factor", "ere", "string", "gap_narrowing", "statistics"}
 COATING_KEYS = {"name", "refractive_index", "extinction", "thickness_nm"}
 RULE_KEYS = {"tunnel_doping_cm3": 5e18}
 OPTICS_KEYS = {"back_reflectance": 0.0, "ambient_index": 1.0, "back_scattering": "specular",
@@ -147,6 +147,9 @@ class Layer:
     string: int = 1
     #: on a Si layer: its band-gap narrowing model, "schenk" or "klaassen" (None: "schenk")
     gap_narrowing: str | None = None
+    #: statistics of the isotype law at this layer's interface with the layer below where a side is
+    #: (nearly) degenerate: "fermi-dirac" or "boltzmann" (None: "fermi-dirac"; circuit/isotype.py)
+    statistics: str | None = None
 
     @property
     def label(self):
@@ -392,6 +395,13 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
                          where=f"{where}, key transport",
                          fix='transport is "thermionic-field" (the default: emission over the '
                              'spike and tunnelling through it) or "thermionic" (over it only)')
+    statistics = table.get("statistics")
+    if statistics is not None and statistics not in STATISTICS_CHOICES:
+        raise StackError(f"statistics = {excerpt(statistics)} is not allowed", file=file,
+                         where=f"{where}, key statistics",
+                         fix='statistics is "fermi-dirac" (the default: Fermi-Dirac charge and emission '
+                             'where a side of the interface below is within 3 kT of its band) or '
+                             '"boltzmann" (the Boltzmann law throughout)')
     sheet = _positive_number(table, "sheet_charge_cm2", file=file, where=where, required=False,
                              unit="cm-2", low=-1e15, high=1e15, low_open=False,
                              reason="a fixed interface charge in elementary charges per cm^2; a "
@@ -404,9 +414,12 @@ def _parse_layer(i, table, names, *, file, folder_materials=None):
     return Layer(i, name, material, None if composition is None else float(composition),
                  thickness, polarity, doping, length, lifetime, srv, tunnel or None, offset,
                  gap, j0, transport, sheet, coupling, srh, recycling, ere,
-                 gap_narrowing=_gap_narrowing(table, material, file=file, where=where))
+                 gap_narrowing=_gap_narrowing(table, material, file=file, where=where),
+                 statistics=statistics)
 
 
+#: the values of a layer's ``statistics`` key (the isotype law at its interface with the layer below)
+STATISTICS_CHOICES = ("fermi-dirac", "boltzmann")
 #: the values of a Si layer's ``gap_narrowing`` key (laws/silicon.py GAP_NARROWING_MODELS)
 GAP_NARROWING_CHOICES = ("schenk", "klaassen")
 

@@ -250,7 +250,7 @@ def _parse_isotype(table, *, file, where):
                              where=f"{where}, key sheet_charge_cm2",
                              fix="give the two sides' dopings and permittivities instead of alpha, "
                                  "or remove sheet_charge_cm2")
-        for key in ("carriers_flow", "offset_eV", "upper_composition", "lower_composition"):
+        for key in ("carriers_flow", "offset_eV", "upper_composition", "lower_composition", "statistics"):
             if key in values:
                 raise StackError(f"{key} goes with upper_material/lower_material", file=file,
                                  where=where, fix=f"remove {key}, or describe the interface "

@@ -124,7 +124,8 @@ ISOTYPE_NUMBERS = {
 ISOTYPE_TEXTS = {"carrier": ("electron", "hole"), "orientation": ("forward", "reverse"),
                  "carriers_flow": ("down", "up"), "upper_material": None,
                  "lower_material": None,
-                 "transport": ("thermionic", "thermionic-field")}
+                 "transport": ("thermionic", "thermionic-field"),
+                 "statistics": ("fermi-dirac", "boltzmann")}
 COMMON_ELEMENT_KEYS = {"kind", "name", "string"}
 STACK_KEYS = {"name", "notes"}
 CONDITION_KEYS = {"spectrum": "am1.5g", "suns": 1.0, "temperature_K": STANDARD_TEMPERATURE_K,
