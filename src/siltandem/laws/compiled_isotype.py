@@ -42,7 +42,8 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.field_emission import gain_point, gain_slope_range, rtsafe_step  # noqa: E402
+from siltandem.laws.field_emission import (exact_depletion, g_minus as _g_minus, gain_point,  # noqa: E402
+                                           gain_slope_range, rtsafe_step)
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]
@@ -96,18 +97,6 @@ def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperatu
 # scalar pieces (reduced units)
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _g_minus(y):
-    """e^-y - 1 + y (series below 0.5: no cancellation) and its slope 1 - e^-y."""
-    if abs(y) < 0.5:
-        term, total = y * y / 2.0, 0.0
-        for k in range(3, 20):
-            total += term
-            term *= -y / k
-        return total, -math.expm1(-y)
-    return math.expm1(-y) + y, -math.expm1(-y)
-
-
-@numba.njit(cache=True, inline="always", error_model="numpy")
 def _bending_terms(alpha, x):
     """(alpha (e^x - 1 - x), alpha (e^x - 1)) without cancellation (series below 0.5) and
     without overflow of e^x alone."""
@@ -122,44 +111,6 @@ def _bending_terms(alpha, x):
         return a_exp - alpha - alpha * x, a_exp - alpha
     a_em1 = alpha * math.expm1(x)
     return a_em1 - alpha * x, a_em1
-
-
-#: W0(z) + 1 = sum_k c_k rho^(k+1) about the branch point, rho = sqrt(2 (1 + e z)) (R. M. Corless
-#: et al., Adv. Comput. Math. 5 (1996) 329, eq. 4.22, p = +rho): the exact depletion side's
-#: bending is y = c + W0(-e^(-1-c)) + 1 with rho = sqrt(2 (1 - e^-c))
-_BRANCH_SERIES = np.array([1.0, -1.0 / 3.0, 11.0 / 72.0, -43.0 / 540.0, 769.0 / 17280.0,
-                           -221.0 / 8505.0, 680863.0 / 43545600.0, -1963.0 / 204120.0,
-                           226287557.0 / 37623398400.0])
-#: below this c the series start (relative error under about 3e-2 at its end, far less below)
-_SERIES_LIMIT = 0.7
-
-
-@numba.njit(cache=True, error_model="numpy")
-def exact_depletion(c):
-    """y >= 0 with e^-y - 1 + y = c >= 0 (the exact Boltzmann depletion side's bending, reduced)
-    and the slope s = 1 - e^-y, by Halley's method (cubic convergence; the function is convex and
-    rising). Start: the branch-point series of W0 (``_BRANCH_SERIES``) for c < 0.7, else the
-    bound y <= c + 1 - e^-(c+1)."""
-    if not c > 0.0:
-        return 0.0, 0.0
-    if c < _SERIES_LIMIT:
-        rho = math.sqrt(-2.0 * math.expm1(-c))
-        total = 0.0
-        for k in range(_BRANCH_SERIES.size - 1, -1, -1):
-            total = total * rho + _BRANCH_SERIES[k]
-        y = c + rho * total
-    else:
-        y = c + 1.0 - math.exp(-(c + 1.0))
-    for _ in range(60):
-        g, slope = _g_minus(y)
-        if not slope > 0.0:
-            break
-        f = g - c
-        step = 2.0 * f * slope / (2.0 * slope * slope - f * (1.0 - slope))
-        y = y - step
-        if abs(step) <= 4.0 * _EPS * y:
-            break
-    return y, -math.expm1(-y)
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
