@@ -52,9 +52,11 @@ __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isoty
 FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
 #: columns of an isotype parameter row: reduced Vbi, alpha, log P, kT/q, form, transport
 #: (0 thermionic, 1 thermionic-field), E00/kT, spike depth/kT, direction (+1/-1), the
-#: accumulation-side bending at zero bias (reduced)
-ISOTYPE_COLUMNS = 10
+#: accumulation-side bending at zero bias (reduced), and log G and dlogG/dw there (the inverse's
+#: first Newton step, taken from the zero-bias bending, needs no quadrature of its own)
+ISOTYPE_COLUMNS = 12
 ZERO_BIAS_COLUMN = 9
+ZERO_BIAS_GAIN_COLUMN = 10
 
 _EPS = 2.220446049250313e-16
 _TINY = 2.2250738585072014e-308
@@ -90,7 +92,17 @@ def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperatu
     rows[:, 7] = np.where(np.isnan(spike), np.inf, spike / vt) if field else np.inf
     rows[:, 8] = sign
     rows[:, ZERO_BIAS_COLUMN] = zero_bias_bending(rows)
+    _zero_bias_gain(rows)
     return rows
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _zero_bias_gain(params):
+    """Fill the zero-bias gain columns (log G, dlogG/dw at the zero-bias bending) of rows (R, P)."""
+    for r in range(params.shape[0]):
+        p = params[r]
+        w = _barrier(p[ZERO_BIAS_COLUMN], p)[2]
+        p[ZERO_BIAS_GAIN_COLUMN], p[ZERO_BIAS_GAIN_COLUMN + 1] = _gain(w, p)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -137,17 +149,17 @@ def _gain(w, p):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _slope(v, x, w, a_em1, s, p):
+def _slope(v, x, a_em1, s, p, log_g, dlog):
     """dJ/dV [A m^-2 V^-1] at reduced voltage v and bending x: the thermionic slope
     (P e^x / Vt) ((1 - q) + q e^v), q = A/(A + s) (s = 1 for the closed forms: q = A/(1 + A)),
-    times G, minus J (dlogG/dw) A (1 - q) / Vt for the tunnelling gain's fall with V."""
+    times G, minus J (dlogG/dw) A (1 - q) / Vt for the tunnelling gain's fall with V (log G and
+    dlogG/dw at this point given: the caller has them)."""
     total = a_em1 + s
     if total > 0.0:
         q, rest = a_em1 / total, s / total
     else:                                   # flat band of the exact side: v1 = v2/sqrt(alpha)
         root = math.sqrt(p[1])
         q, rest = root / (1.0 + root), 1.0 / (1.0 + root)
-    log_g, dlog = _gain(w, p)
     base = p[2] + x + log_g - math.log(p[3])
     slope = rest * math.exp(base) + q * math.exp(base + v)
     if dlog != 0.0:
@@ -208,13 +220,13 @@ def isotype_current(voltage, p):
     s = 1.0
     if form == 2.0:
         s = _g_minus(max(vb - x, 0.0))[1]
-    log_g = _gain(w, p)[0]
+    log_g, dlog = _gain(w, p)
     em1 = math.expm1(v)
     if em1 == 0.0:
         j = 0.0
     else:
         j = math.copysign(math.exp(p[2] + x + log_g + math.log(abs(em1))), em1)
-    return j, _slope(v, x, w, a_em1, s, p)
+    return j, _slope(v, x, a_em1, s, p, log_g, dlog)
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -238,11 +250,15 @@ def _asinh_of_log(sign, log_abs):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _residual(x, p, target):
-    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x), plus the pieces."""
+def _residual(x, p, target, first):
+    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x); ``first``: x is the
+    zero-bias bending, whose gain the row holds."""
     vb, dvb, w, a_em1, s = _barrier(x, p)
     v = p[0] - vb
-    log_g, dlog = _gain(w, p)
+    if first:
+        log_g, dlog = p[ZERO_BIAS_GAIN_COLUMN], p[ZERO_BIAS_GAIN_COLUMN + 1]
+    else:
+        log_g, dlog = _gain(w, p)
     em1 = math.expm1(v)
     if em1 == 0.0:
         # at zero bias: u = 0, du/dx = -e^x G e^v dvb (asinh' = 1)
@@ -293,8 +309,8 @@ def isotype_inverse(current, p):
         # rtsafe on the falling residual (Numerical Recipes sec. 9.4)
         x = x_zero
         dx_old = dx = hi - lo
-        for _ in range(_ITERATIONS):
-            value, slope = _residual(x, p, target)
+        for step in range(_ITERATIONS):
+            value, slope = _residual(x, p, target, step == 0)
             if value == 0.0 or not math.isfinite(value):
                 break
             if value > 0.0:
@@ -309,7 +325,7 @@ def isotype_inverse(current, p):
             if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
                 break
     vb, _, w, a_em1, s = _barrier(x, p)
-    log_g = _gain(w, p)[0]
+    log_g, dlog = _gain(w, p)
     # v from J itself where expm1(v) is small (no cancellation in vbi - vb), else vbi - vb
     y = current * math.exp(-log_p - x - log_g)
     if abs(y) < 0.5:
@@ -318,7 +334,7 @@ def isotype_inverse(current, p):
         v = vbi - vb
     if form < 2.0 and x == 0.0 and not (vbi - vb >= -1e-12):
         return math.nan, math.nan
-    return v * vt, _slope(v, x, w, a_em1, s, p)
+    return v * vt, _slope(v, x, a_em1, s, p, log_g, dlog)
 
 
 @numba.njit(cache=True, error_model="numpy")
