@@ -42,6 +42,8 @@ def fermi_dirac_law_on(monkeypatch):
     from siltandem.circuit import isotype
 
     monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", True)
+    # the Fermi-Dirac law is thermionic emission's (the thermionic-field default has no such form)
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
 
 
 T = 298.15

@@ -141,3 +141,35 @@ def test_closed_forms_are_unchanged_by_the_depletion_key():
             np.testing.assert_array_equal(a[1], b[1])
     with pytest.raises(te.IsotypeParameterError, match="depletion"):
         fe.field_emission_current_density(0.0, depletion="full", **law)
+
+
+def test_materials_default_is_thermionic_field_on_the_exact_side(tmp_path, monkeypatch):
+    """Without a transport key a materials-given interface takes thermionic-field emission on
+    the exact depletion side (no tail/plain switch); the compiled law (laws/compiled_isotype.py)
+    and the numpy law give the same voltages to rounding; transport = "thermionic" keeps the
+    thermionic law. p-GaP 1e18 / p-Si 1e17 (library materials; invented dopings)."""
+    from siltandem import load_stack
+    from siltandem.circuit import elements
+    from siltandem.circuit.compile import compile_stack
+
+    text = ('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\nname = "cell"\n'
+            'gap_eV = 1.4\n[[element]]\nkind = "isotype"\nname = "i"\nupper_material = "GaP"\n'
+            'lower_material = "Si"\nupper_doping_cm3 = 1e18\nlower_doping_cm3 = 1e17\n'
+            'carrier = "hole"\ncarriers_flow = "down"\n')
+    (tmp_path / "a.toml").write_text(text)
+    (tmp_path / "b.toml").write_text(text + 'transport = "thermionic"\n')
+    default = compile_stack(load_stack(tmp_path / "a.toml")).element("i")
+    plain = compile_stack(load_stack(tmp_path / "b.toml")).element("i")
+    assert default.transport == "thermionic-field" and default.depletion == "exact"
+    assert plain.transport == "thermionic"
+    current = np.array([[-300.0, -50.0, -1.0, 1.0, 50.0, 300.0]])
+    compiled = default.voltage(current, 300.0)
+    assert default.compiled_rows(300.0) is not None
+    monkeypatch.setattr(elements, "COMPILED_ISOTYPE", False)
+    numpy_law = type(default)(**{f: getattr(default, f) for f in (
+        "name", "barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2", "direction", "carrier",
+        "offset_eV", "string", "depletion", "transport", "field_energy_eV")}).voltage(current, 300.0)
+    np.testing.assert_allclose(compiled[0], numpy_law[0], rtol=1e-12, atol=1e-15)
+    np.testing.assert_allclose(compiled[1], numpy_law[1], rtol=1e-9)
+    # tunnelling only lowers the drop: |V| with it at most the thermionic one
+    assert np.all(np.abs(compiled[0]) <= np.abs(plain.voltage(current, 300.0)[0]) + 1e-15)

@@ -145,6 +145,8 @@ def test_degenerate_layer_in_a_stack_file(tmp_path, monkeypatch):
     from siltandem.circuit import isotype
 
     monkeypatch.setattr(isotype, "FERMI_DIRAC_LAW", True)      # off by default: no compiled form yet
+    # the Fermi-Dirac law is thermionic emission's (the thermionic-field default has no such form)
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
     # the materials form in an element stack: the row's built-in potential is the Fermi-Dirac one,
     # the degenerate side is flagged and the result warns
     path = tmp_path / "s.toml"
