@@ -251,8 +251,8 @@ def _asinh_of_log(sign, log_abs):
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _residual(x, p, target, first):
-    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x); ``first``: x is the
-    zero-bias bending, whose gain the row holds."""
+    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x), and log G and dlnG/dw
+    at x; ``first``: x is the zero-bias bending, whose gain the row holds."""
     vb, dvb, w, a_em1, s = _barrier(x, p)
     v = p[0] - vb
     if first:
@@ -262,7 +262,7 @@ def _residual(x, p, target, first):
     em1 = math.expm1(v)
     if em1 == 0.0:
         # at zero bias: u = 0, du/dx = -e^x G e^v dvb (asinh' = 1)
-        return -target, -math.exp(x + log_g) * dvb
+        return -target, -math.exp(x + log_g) * dvb, log_g, dlog
     log_u = x + log_g + math.log(abs(em1))
     sign = 1.0 if em1 > 0.0 else -1.0
     value = _asinh_of_log(sign, log_u) - target
@@ -274,7 +274,7 @@ def _residual(x, p, target, first):
     else:
         u = math.exp(log_u)
         factor = u / math.sqrt(1.0 + u * u)
-    return value, sign * dlog_u * factor
+    return value, sign * dlog_u * factor, log_g, dlog
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -287,6 +287,9 @@ def isotype_inverse(current, p):
     tail = form if form < 2.0 else 0.0
     ratio = current * math.exp(-log_p) if current != 0.0 else 0.0
     j_max = math.expm1(vbi - tail)
+    # the gain at the last evaluated point, kept where the root is that point (thermionic-field
+    # emission: the quadrature is the cost; thermionic emission keeps its Newton point, unchanged)
+    known_x, known_log_g, known_dlog = math.nan, 0.0, 0.0
     if abs(ratio - j_max) <= 64.0 * _EPS * j_max:
         x = 0.0
     elif ratio > j_max:
@@ -310,7 +313,8 @@ def isotype_inverse(current, p):
         x = x_zero
         dx_old = dx = hi - lo
         for step in range(_ITERATIONS):
-            value, slope = _residual(x, p, target, step == 0)
+            value, slope, log_g, dlog = _residual(x, p, target, step == 0)
+            known_x, known_log_g, known_dlog = x, log_g, dlog
             if value == 0.0 or not math.isfinite(value):
                 break
             if value > 0.0:
@@ -319,13 +323,17 @@ def isotype_inverse(current, p):
                 hi = x
             newton = x - value / slope if slope != 0.0 else math.nan
             if abs(newton - x) <= 4.0 * _EPS * abs(x) + _TINY:    # converged to rounding
-                x = newton
+                if p[5] == 0.0:
+                    x = newton
                 break
             x, dx, dx_old = rtsafe_step(x, newton, value, slope, lo, hi, dx, dx_old)
             if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
                 break
     vb, _, w, a_em1, s = _barrier(x, p)
-    log_g, dlog = _gain(w, p)
+    if x == known_x:
+        log_g, dlog = known_log_g, known_dlog
+    else:
+        log_g, dlog = _gain(w, p)
     # v from J itself where expm1(v) is small (no cancellation in vbi - vb), else vbi - vb
     y = current * math.exp(-log_p - x - log_g)
     if abs(y) < 0.5:
