@@ -173,3 +173,23 @@ def test_materials_default_is_thermionic_field_on_the_exact_side(tmp_path, monke
     np.testing.assert_allclose(compiled[1], numpy_law[1], rtol=1e-9)
     # tunnelling only lowers the drop: |V| with it at most the thermionic one
     assert np.all(np.abs(compiled[0]) <= np.abs(plain.voltage(current, 300.0)[0]) + 1e-15)
+
+
+def test_a_sheet_charge_takes_the_thermionic_law_by_default(tmp_path):
+    """The thermionic-field law has no interface charge yet: with sheet_charge_cm2 and no
+    transport key the interface takes thermionic emission (which carries the charge); asking for
+    both is refused, naming the key (circuit/isotype.py)."""
+    from siltandem import load_stack
+    from siltandem.circuit.compile import compile_stack
+    from siltandem.errors import StackError
+
+    text = ('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\nname = "cell"\n'
+            'gap_eV = 1.4\n[[element]]\nkind = "isotype"\nname = "i"\nupper_material = "GaP"\n'
+            'lower_material = "Si"\nupper_doping_cm3 = 1e18\nlower_doping_cm3 = 1e17\n'
+            'carrier = "hole"\nsheet_charge_cm2 = -2e12\n')
+    (tmp_path / "a.toml").write_text(text)
+    element = compile_stack(load_stack(tmp_path / "a.toml")).element("i")
+    assert element.transport == "thermionic" and float(element.sheet_charge[0, 0]) != 0.0
+    (tmp_path / "b.toml").write_text(text + 'transport = "thermionic-field"\n')
+    with pytest.raises(StackError, match="sheet_charge_cm2"):
+        compile_stack(load_stack(tmp_path / "b.toml"))
