@@ -5,7 +5,10 @@ Vbi 0.1..0.8 V, E00 1e-3..5e-2 eV, spike 0.05..0.6 eV, T 250..400 K).
 
 Prints medians of process CPU time over REPEATS runs (the first call, which may compile the
 kernels, is not counted); asserts nothing (a shared, noisy machine). The DEVELOPERS.md figures
-(2026-12-03): gain 2.65 us, inverse 12.1 us per point, slope range 6.4 us per cell.
+(2026-12-03): gain 2.65 us, inverse 12.1 us per point, slope range 6.4 us per cell; 2026-12-04
+(one session, loaded machine): inverse 10.95 -> 6.56 -> 4.70 us per point (the gain reused at the
+final point, the zero-bias gain in the row, the root kept at the point last evaluated), slope range
+5.57 -> 2.81 us per cell (ends shared by adjacent cells), gain 2.3-2.8 us.
 Run: python benchmarks/bench_field_emission.py [repeats]
 """
 import sys

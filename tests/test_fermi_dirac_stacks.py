@@ -38,6 +38,15 @@ from siltandem.materials import load_material
 from siltandem.stack.placements import with_placement
 
 
+@pytest.fixture(autouse=True)
+def thermionic_default(monkeypatch):
+    """The Fermi-Dirac law is thermionic emission's (the thermionic-field default has no such
+    form): these tests take thermionic emission as the default transport."""
+    from siltandem.circuit import isotype
+
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
+
+
 T = 298.15
 KT = BOLTZMANN_EV_K * T
 PLACEMENTS = Path(__file__).resolve().parents[1] / "stacks" / "demo_placements.toml"

@@ -330,10 +330,11 @@ def summary(tmp_path, text):
 
 def test_materials_form_with_thermionic_field_is_transparent_where_thermionic_blocks(tmp_path):
     """p-GaP/p-Si 1e19/1e19 driven the blocking way (holes from GaP into Si): thermionic-field
-    emission drops a few mV at the MPP, thermionic emission (the default for now: see
-    circuit/isotype.py) the hundreds of mV of the thermionic law."""
-    default = summary(tmp_path, MATERIALS + 'transport = "thermionic-field"\n')["interfaces"][0]
-    plain = summary(tmp_path, MATERIALS)["interfaces"][0]
+    emission (the default without a transport key, circuit/isotype.py DEFAULT_TRANSPORT) drops a
+    few mV at the MPP, thermionic emission (transport = "thermionic") the hundreds of mV of the
+    thermionic law."""
+    default = summary(tmp_path, MATERIALS)["interfaces"][0]
+    plain = summary(tmp_path, MATERIALS + 'transport = "thermionic"\n')["interfaces"][0]
     assert default["transport"] == "thermionic-field" and plain["transport"] == "thermionic"
     assert plain["bias"] == "forward" and plain["drop_at_mpp_V"] > 0.25
     assert 0 < default["drop_at_mpp_V"] < 0.005

@@ -141,7 +141,11 @@ def test_statistics_must_be_named():
         law(si, 1e17, si, 1e18, "electron", statistics="maxwell")
 
 
-def test_degenerate_layer_in_a_stack_file(tmp_path):
+def test_degenerate_layer_in_a_stack_file(tmp_path, monkeypatch):
+    from siltandem.circuit import isotype
+
+    # the Fermi-Dirac law is thermionic emission's (the thermionic-field default has no such form)
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
     # the materials form in an element stack: the row's built-in potential is the Fermi-Dirac one,
     # the degenerate side is flagged and the result warns
     path = tmp_path / "s.toml"

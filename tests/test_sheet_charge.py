@@ -71,7 +71,11 @@ def test_element_carries_the_reduced_charge_and_follows_the_law(tmp_path):
     assert np.allclose(volts, -element.direction * law, rtol=1e-12, atol=0)
 
 
-def test_attracting_charge_lowers_the_drop_repelling_raises_it(tmp_path):
+def test_attracting_charge_lowers_the_drop_repelling_raises_it(tmp_path, monkeypatch):
+    from siltandem.circuit import isotype
+
+    # a sheet charge takes the thermionic law (its default there): compare with that law uncharged
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
     base = drop_mV(DEMO)
     attract = drop_mV(demo_with(tmp_path, -3e12))       # negative charge: attracts holes
     (tmp_path / "r").mkdir()

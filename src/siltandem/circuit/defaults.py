@@ -8,7 +8,7 @@ import numpy as np
 #: label the element
 COMPILED_ISOTYPE_FIELDS = frozenset({
     "name", "barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2", "direction", "carrier",
-    "offset_eV", "string", "kind", "depletion", "transport", "field_energy_eV", "include_tail"})
+    "offset_eV", "string", "kind", "depletion", "transport", "field_energy_eV"})
 
 #: the fields the compiled general law (laws/compiled_fermi.py: Fermi-Dirac sides, sheet charge) reads
 GENERAL_ISOTYPE_FIELDS = COMPILED_ISOTYPE_FIELDS | {"accumulation_fermi_eV", "depletion_fermi_eV", "sheet_charge"}

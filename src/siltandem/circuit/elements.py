@@ -658,9 +658,6 @@ class IsotypeInterface:
     transport: str = "thermionic"
     #: E00 of the depletion side [eV] (needed by "thermionic-field"); NaN unknown
     field_energy_eV: np.ndarray = field(default_factory=lambda: batch(np.nan))
-    #: the depletion-side form of the thermionic-field law, which has no exact form yet: the kT/q
-    #: tail (True) or the plain form (False); the compiler takes the tail above Vbi = 3 kT/q
-    include_tail: bool = True
     _cache: dict = field(default_factory=dict, init=False, compare=False, repr=False)
     #: Fermi level above the band edge in each side's bulk [eV] when a side is degenerate: the
     #: law then takes Fermi-Dirac charge and occupancy (laws/interface_charge.py); None: Boltzmann
@@ -679,7 +676,7 @@ class IsotypeInterface:
         law = dict(barrier_eV=self.barrier_eV, built_in_V=self.built_in_V, alpha=self.alpha,
                    richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K)
         if self.transport == "thermionic-field":
-            law.update(include_tail=self.include_tail, field_energy_eV=self.field_energy_eV,
+            law.update(depletion=self.depletion, field_energy_eV=self.field_energy_eV,
                        spike_eV=self.offset_eV)
         else:
             law.update(depletion=self.depletion)
@@ -712,8 +709,7 @@ class IsotypeInterface:
         this interface's law has no compiled form (the numpy law serves it)."""
         if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS:
             return None
-        field = self.transport == "thermionic-field"
-        form = ("tail" if self.include_tail else "plain") if field else self.depletion
+        form = self.depletion
         if form not in compiled_isotype.FORMS:
             return None
         key = ("rows", _temperature_key(temperature_K))
@@ -758,8 +754,7 @@ class IsotypeInterface:
         """Largest stack current the law can carry [A/m^2]: the flat-band current when driven
         forward (just inside the law's domain), unbounded when driven in reverse."""
 
-        tail = (self.include_tail if self.transport == "thermionic-field"
-                else self.depletion == "tail")
+        tail = self.depletion == "tail"
         edge = self.built_in_V - (1.0 + 1e-6 if tail else 1e-6) * thermal_voltage_V(temperature_K)
         j, _ = self.law_current(edge, temperature_K)
         return np.where(self.direction > 0, j, np.inf)

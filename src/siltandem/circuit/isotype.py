@@ -21,6 +21,10 @@ FERMI_DIRAC_WITHIN_KT = 3.0
 #: laws/compiled_fermi.py); "boltzmann" keeps the Boltzmann law on every side (Fermi-Dirac Fermi
 #: levels only: the law before the Fermi-Dirac form, bit for bit)
 STATISTICS = ("fermi-dirac", "boltzmann")
+#: the transport of a materials-given interface (element and layer stacks) without a transport
+#: key: tunnelling through the spike counted (laws/field_emission.py); "thermionic" restores the
+#: earlier default (emission over the spike only), e.g. to compare
+DEFAULT_TRANSPORT = "thermionic-field"
 
 
 def isotype_element(spec, temperature_K, file=None):
@@ -126,10 +130,8 @@ def isotype_from_materials(spec, temperature_K, file, layer_names=None):
     else:
         attribute = "electron_richardson_A_m2_K2" if electron else "hole_richardson_A_m2_K2"
         richardson = min(getattr(m, attribute) for m in layers)
-    # the exact Boltzmann depletion side serves thermionic emission; the thermionic-field law has
-    # no exact form yet: the kT/q tail form, or the plain form for a nearly flat interface (built-in
-    # below 3 kT/q)
-    tail = bool(float(alignment.built_in_V) > 3 * BOLTZMANN_EV_K * temperature_K)
+    # both transports on the exact Boltzmann depletion side (the element's default form): no
+    # switch, defined for every Vbi > 0
     transport, field_energy = _transport(v, layers, upper_accumulates, temperature_K)
     kt = BOLTZMANN_EV_K * temperature_K
     fermi = {}
@@ -151,7 +153,7 @@ def isotype_from_materials(spec, temperature_K, file, layer_names=None):
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
         direction=batch(1.0 if forward else -1.0), carrier=v["carrier"],
         offset_eV=batch(alignment.offset_eV), string=spec.string, sides=sides,
-        offset_source=offset_source, include_tail=tail, transport=transport,
+        offset_source=offset_source, transport=transport,
         field_energy_eV=batch(field_energy), sheet_charge=batch(sheet),
         accumulation_fermi_eV=fermi["accumulation"], depletion_fermi_eV=fermi["depletion"])
 
@@ -184,15 +186,15 @@ def band_offset(upper, lower, carrier, temperature_K, given=None):
 
 
 def _transport(v, layers, upper_accumulates, temperature_K):
-    """The transport key (default "thermionic", see below) and E00 of the
-    depletion side from its doping, permittivity and tunnelling mass (laws/field_emission.py)."""
+    """The transport key and E00 of the depletion side from its doping, permittivity and
+    tunnelling mass (laws/field_emission.py). The default, the dopings being known, is
+    "thermionic-field" (issue 18: heavy doping, the usual cure for a blocking interface, shows),
+    except with a sheet charge, which only the thermionic law carries (:data:`DEFAULT_TRANSPORT`)."""
     from siltandem.laws.field_emission import field_energy_eV
     from siltandem.materials.tunnelling import tunnelling_mass_ratio
 
-    # default "thermionic" for now: the certificate's slope range of the thermionic-field law does
-    # not shrink with the cell, so a year of hours (thousands of designs) refines for minutes;
-    # opt in with transport = "thermionic-field" until that bound is tightened
-    transport = v.get("transport", "thermionic")
+    default = "thermionic" if v.get("sheet_charge_cm2", 0.0) != 0.0 else DEFAULT_TRANSPORT
+    transport = v.get("transport", default)
     depletion = 1 if upper_accumulates else 0
     energy = field_energy_eV(
         doping_m3=v[("upper_doping_cm3", "lower_doping_cm3")[depletion]] * units.PER_CM3_TO_PER_M3,

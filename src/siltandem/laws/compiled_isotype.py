@@ -42,7 +42,8 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 # before any kernel of this module is loaded from numba's cache (numerics/kernel_cache.py)
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
-from siltandem.laws.field_emission import gain_point, gain_slope_range, rtsafe_step  # noqa: E402
+from siltandem.laws.field_emission import (exact_depletion, g_minus as _g_minus, gain_point,  # noqa: E402
+                                           gain_slope_range, rtsafe_step)
 # rows of the general law (Fermi-Dirac sides, sheet charge) go to its own kernels
 from siltandem.laws.compiled_fermi import (FERMI_FORM, fermi_current, fermi_inverse,  # noqa: E402
                                            fermi_slope_range)
@@ -54,9 +55,11 @@ __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isoty
 FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
 #: columns of an isotype parameter row: reduced Vbi, alpha, log P, kT/q, form, transport
 #: (0 thermionic, 1 thermionic-field), E00/kT, spike depth/kT, direction (+1/-1), the
-#: accumulation-side bending at zero bias (reduced)
-ISOTYPE_COLUMNS = 10
+#: accumulation-side bending at zero bias (reduced), and log G and dlogG/dw there (the inverse's
+#: first Newton step, taken from the zero-bias bending, needs no quadrature of its own)
+ISOTYPE_COLUMNS = 12
 ZERO_BIAS_COLUMN = 9
+ZERO_BIAS_GAIN_COLUMN = 10
 
 _EPS = 2.220446049250313e-16
 _TINY = 2.2250738585072014e-308
@@ -92,23 +95,21 @@ def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperatu
     rows[:, 7] = np.where(np.isnan(spike), np.inf, spike / vt) if field else np.inf
     rows[:, 8] = sign
     rows[:, ZERO_BIAS_COLUMN] = zero_bias_bending(rows)
+    _zero_bias_gain(rows)
     return rows
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _zero_bias_gain(params):
+    """Fill the zero-bias gain columns (log G, dlogG/dw at the zero-bias bending) of rows (R, P)."""
+    for r in range(params.shape[0]):
+        p = params[r]
+        w = _barrier(p[ZERO_BIAS_COLUMN], p)[2]
+        p[ZERO_BIAS_GAIN_COLUMN], p[ZERO_BIAS_GAIN_COLUMN + 1] = _gain(w, p)
 
 
 # ---------------------------------------------------------------------------------------------
 # scalar pieces (reduced units)
-
-@numba.njit(cache=True, inline="always", error_model="numpy")
-def _g_minus(y):
-    """e^-y - 1 + y (series below 0.5: no cancellation) and its slope 1 - e^-y."""
-    if abs(y) < 0.5:
-        term, total = y * y / 2.0, 0.0
-        for k in range(3, 20):
-            total += term
-            term *= -y / k
-        return total, -math.expm1(-y)
-    return math.expm1(-y) + y, -math.expm1(-y)
-
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def _bending_terms(alpha, x):
@@ -125,44 +126,6 @@ def _bending_terms(alpha, x):
         return a_exp - alpha - alpha * x, a_exp - alpha
     a_em1 = alpha * math.expm1(x)
     return a_em1 - alpha * x, a_em1
-
-
-#: W0(z) + 1 = sum_k c_k rho^(k+1) about the branch point, rho = sqrt(2 (1 + e z)) (R. M. Corless
-#: et al., Adv. Comput. Math. 5 (1996) 329, eq. 4.22, p = +rho): the exact depletion side's
-#: bending is y = c + W0(-e^(-1-c)) + 1 with rho = sqrt(2 (1 - e^-c))
-_BRANCH_SERIES = np.array([1.0, -1.0 / 3.0, 11.0 / 72.0, -43.0 / 540.0, 769.0 / 17280.0,
-                           -221.0 / 8505.0, 680863.0 / 43545600.0, -1963.0 / 204120.0,
-                           226287557.0 / 37623398400.0])
-#: below this c the series start (relative error under about 3e-2 at its end, far less below)
-_SERIES_LIMIT = 0.7
-
-
-@numba.njit(cache=True, error_model="numpy")
-def exact_depletion(c):
-    """y >= 0 with e^-y - 1 + y = c >= 0 (the exact Boltzmann depletion side's bending, reduced)
-    and the slope s = 1 - e^-y, by Halley's method (cubic convergence; the function is convex and
-    rising). Start: the branch-point series of W0 (``_BRANCH_SERIES``) for c < 0.7, else the
-    bound y <= c + 1 - e^-(c+1)."""
-    if not c > 0.0:
-        return 0.0, 0.0
-    if c < _SERIES_LIMIT:
-        rho = math.sqrt(-2.0 * math.expm1(-c))
-        total = 0.0
-        for k in range(_BRANCH_SERIES.size - 1, -1, -1):
-            total = total * rho + _BRANCH_SERIES[k]
-        y = c + rho * total
-    else:
-        y = c + 1.0 - math.exp(-(c + 1.0))
-    for _ in range(60):
-        g, slope = _g_minus(y)
-        if not slope > 0.0:
-            break
-        f = g - c
-        step = 2.0 * f * slope / (2.0 * slope * slope - f * (1.0 - slope))
-        y = y - step
-        if abs(step) <= 4.0 * _EPS * y:
-            break
-    return y, -math.expm1(-y)
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -189,17 +152,17 @@ def _gain(w, p):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _slope(v, x, w, a_em1, s, p):
+def _slope(v, x, a_em1, s, p, log_g, dlog):
     """dJ/dV [A m^-2 V^-1] at reduced voltage v and bending x: the thermionic slope
     (P e^x / Vt) ((1 - q) + q e^v), q = A/(A + s) (s = 1 for the closed forms: q = A/(1 + A)),
-    times G, minus J (dlogG/dw) A (1 - q) / Vt for the tunnelling gain's fall with V."""
+    times G, minus J (dlogG/dw) A (1 - q) / Vt for the tunnelling gain's fall with V (log G and
+    dlogG/dw at this point given: the caller has them)."""
     total = a_em1 + s
     if total > 0.0:
         q, rest = a_em1 / total, s / total
     else:                                   # flat band of the exact side: v1 = v2/sqrt(alpha)
         root = math.sqrt(p[1])
         q, rest = root / (1.0 + root), 1.0 / (1.0 + root)
-    log_g, dlog = _gain(w, p)
     base = p[2] + x + log_g - math.log(p[3])
     slope = rest * math.exp(base) + q * math.exp(base + v)
     if dlog != 0.0:
@@ -262,13 +225,13 @@ def isotype_current(voltage, p):
     s = 1.0
     if form == 2.0:
         s = _g_minus(max(vb - x, 0.0))[1]
-    log_g = _gain(w, p)[0]
+    log_g, dlog = _gain(w, p)
     em1 = math.expm1(v)
     if em1 == 0.0:
         j = 0.0
     else:
         j = math.copysign(math.exp(p[2] + x + log_g + math.log(abs(em1))), em1)
-    return j, _slope(v, x, w, a_em1, s, p)
+    return j, _slope(v, x, a_em1, s, p, log_g, dlog)
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -292,15 +255,19 @@ def _asinh_of_log(sign, log_abs):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _residual(x, p, target):
-    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x), plus the pieces."""
+def _residual(x, p, target, first):
+    """asinh(J(x)/P) - target and its x-derivative (J(x)/P falls with x), and log G and dlnG/dw
+    at x; ``first``: x is the zero-bias bending, whose gain the row holds."""
     vb, dvb, w, a_em1, s = _barrier(x, p)
     v = p[0] - vb
-    log_g, dlog = _gain(w, p)
+    if first:
+        log_g, dlog = p[ZERO_BIAS_GAIN_COLUMN], p[ZERO_BIAS_GAIN_COLUMN + 1]
+    else:
+        log_g, dlog = _gain(w, p)
     em1 = math.expm1(v)
     if em1 == 0.0:
         # at zero bias: u = 0, du/dx = -e^x G e^v dvb (asinh' = 1)
-        return -target, -math.exp(x + log_g) * dvb
+        return -target, -math.exp(x + log_g) * dvb, log_g, dlog
     log_u = x + log_g + math.log(abs(em1))
     sign = 1.0 if em1 > 0.0 else -1.0
     value = _asinh_of_log(sign, log_u) - target
@@ -312,7 +279,7 @@ def _residual(x, p, target):
     else:
         u = math.exp(log_u)
         factor = u / math.sqrt(1.0 + u * u)
-    return value, sign * dlog_u * factor
+    return value, sign * dlog_u * factor, log_g, dlog
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -327,6 +294,9 @@ def isotype_inverse(current, p):
     tail = form if form < 2.0 else 0.0
     ratio = current * math.exp(-log_p) if current != 0.0 else 0.0
     j_max = math.expm1(vbi - tail)
+    # the gain at the last evaluated point, kept where the root is that point (thermionic-field
+    # emission: the quadrature is the cost; thermionic emission keeps its Newton point, unchanged)
+    known_x, known_log_g, known_dlog = math.nan, 0.0, 0.0
     if abs(ratio - j_max) <= 64.0 * _EPS * j_max:
         x = 0.0
     elif ratio > j_max:
@@ -349,8 +319,9 @@ def isotype_inverse(current, p):
         # rtsafe on the falling residual (Numerical Recipes sec. 9.4)
         x = x_zero
         dx_old = dx = hi - lo
-        for _ in range(_ITERATIONS):
-            value, slope = _residual(x, p, target)
+        for step in range(_ITERATIONS):
+            value, slope, log_g, dlog = _residual(x, p, target, step == 0)
+            known_x, known_log_g, known_dlog = x, log_g, dlog
             if value == 0.0 or not math.isfinite(value):
                 break
             if value > 0.0:
@@ -359,13 +330,17 @@ def isotype_inverse(current, p):
                 hi = x
             newton = x - value / slope if slope != 0.0 else math.nan
             if abs(newton - x) <= 4.0 * _EPS * abs(x) + _TINY:    # converged to rounding
-                x = newton
+                if p[5] == 0.0:
+                    x = newton
                 break
             x, dx, dx_old = rtsafe_step(x, newton, value, slope, lo, hi, dx, dx_old)
             if abs(dx) <= 4.0 * _EPS * abs(x) + _TINY:
                 break
     vb, _, w, a_em1, s = _barrier(x, p)
-    log_g = _gain(w, p)[0]
+    if x == known_x:
+        log_g, dlog = known_log_g, known_dlog
+    else:
+        log_g, dlog = _gain(w, p)
     # v from J itself where expm1(v) is small (no cancellation in vbi - vb), else vbi - vb
     y = current * math.exp(-log_p - x - log_g)
     if abs(y) < 0.5:
@@ -374,7 +349,7 @@ def isotype_inverse(current, p):
         v = vbi - vb
     if form < 2.0 and x == 0.0 and not (vbi - vb >= -1e-12):
         return math.nan, math.nan
-    return v * vt, _slope(v, x, w, a_em1, s, p)
+    return v * vt, _slope(v, x, a_em1, s, p, log_g, dlog)
 
 
 @numba.njit(cache=True, error_model="numpy")
@@ -478,8 +453,14 @@ def isotype_slope_range(v_low, v_high, p):
     linear in dlnG/dw in [0, 1]). NaN where an end lies outside the domain."""
     if p[4] == FERMI_FORM:
         return fermi_slope_range(v_low, v_high, p)
-    x_a, e_a, a_a, s_a, g_a, w_a, l_a = _end(v_low, p)       # low V: the larger bending
-    x_b, e_b, a_b, s_b, g_b, w_b, l_b = _end(v_high, p)
+    return _range_from_ends(_end(v_low, p), _end(v_high, p), p)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _range_from_ends(end_a, end_b, p):
+    """:func:`isotype_slope_range` from the two ends' :func:`_end` tuples (a: low V, b: high V)."""
+    x_a, e_a, a_a, s_a, g_a, w_a, l_a = end_a       # low V: the larger bending
+    x_b, e_b, a_b, s_b, g_b, w_b, l_b = end_b
     scale = math.exp(p[2]) / p[3]
     if p[5] != 0.0 and p[4] == 2.0:
         return _field_exact_slope_range(x_a, e_a, a_a, s_a, g_a, x_b, e_b, a_b, s_b, g_b, scale, p,
@@ -506,12 +487,35 @@ def isotype_slope_range(v_low, v_high, p):
 
 @numba.njit(cache=True, error_model="numpy")
 def isotype_slope_ranges(params, v_low, v_high):
-    """:func:`isotype_slope_range` over (B, N) arrays, parameter rows (B, P) or (1, P)."""
+    """:func:`isotype_slope_range` over (B, N) arrays, parameter rows (B, P) or (1, P). Cells of
+    a row that share an end with the cell before (the certificate's adjacent cells, in either
+    order) reuse that end's evaluation (a split and, for thermionic-field emission, the gain's
+    quadrature): the same numbers, about half the work."""
     rows, n = v_low.shape
     low = np.empty((rows, n))
     high = np.empty((rows, n))
     for b in range(rows):
         p = params[0] if params.shape[0] == 1 else params[b]
+        if p[4] == FERMI_FORM:
+            for i in range(n):
+                low[b, i], high[b, i] = fermi_slope_range(v_low[b, i], v_high[b, i], p)
+            continue
+        last_low_v, last_high_v = math.nan, math.nan
+        last_low = last_high = _end(math.nan, p)
         for i in range(n):
-            low[b, i], high[b, i] = isotype_slope_range(v_low[b, i], v_high[b, i], p)
+            v_a, v_b = v_low[b, i], v_high[b, i]
+            if v_a == last_high_v:
+                end_a = last_high
+            elif v_a == last_low_v:
+                end_a = last_low
+            else:
+                end_a = _end(v_a, p)
+            if v_b == last_low_v:
+                end_b = last_low
+            elif v_b == last_high_v:
+                end_b = last_high
+            else:
+                end_b = _end(v_b, p)
+            low[b, i], high[b, i] = _range_from_ends(end_a, end_b, p)
+            last_low_v, last_high_v, last_low, last_high = v_a, v_b, end_a, end_b
     return low, high

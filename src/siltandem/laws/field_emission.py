@@ -82,6 +82,7 @@ _NODES, _WEIGHTS = np.polynomial.legendre.leggauss(16)
 _LEVELS = np.array([45.0, 12.0, 2.0])         # drops below the exponent's maximum that bound the panels
 _NEWTON_STEPS = 10
 _S_MAX = 1.0 - 1e-15                 # keeps atanh(s) finite at the parabola's vertex
+_EPS = 2.220446049250313e-16
 
 
 def field_energy_eV(*, doping_m3, relative_permittivity, mass_ratio):
@@ -210,6 +211,65 @@ def _gain_point(w, e00, spike, nodes, weights):
     return log_gain, d_integral * math.exp(f_peak - log_gain)
 
 
+# ---------------------------------------------------------------------------------------------
+# the exact Boltzmann depletion side (also the compiled law's, laws/compiled_isotype.py)
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def g_minus(y):
+    """e^-y - 1 + y (series below 0.5: no cancellation) and its slope 1 - e^-y."""
+    if abs(y) < 0.5:
+        term, total = y * y / 2.0, 0.0
+        for k in range(3, 20):
+            total += term
+            term *= -y / k
+        return total, -math.expm1(-y)
+    return math.expm1(-y) + y, -math.expm1(-y)
+
+#: W0(z) + 1 = sum_k c_k rho^(k+1) about the branch point, rho = sqrt(2 (1 + e z)) (R. M. Corless
+#: et al., Adv. Comput. Math. 5 (1996) 329, eq. 4.22, p = +rho): the exact depletion side's
+#: bending is y = c + W0(-e^(-1-c)) + 1 with rho = sqrt(2 (1 - e^-c))
+_BRANCH_SERIES = np.array([1.0, -1.0 / 3.0, 11.0 / 72.0, -43.0 / 540.0, 769.0 / 17280.0,
+                           -221.0 / 8505.0, 680863.0 / 43545600.0, -1963.0 / 204120.0,
+                           226287557.0 / 37623398400.0])
+#: below this c the series start (relative error under about 3e-2 at its end, far less below)
+_SERIES_LIMIT = 0.7
+
+
+@numba.njit(cache=True, error_model="numpy")
+def exact_depletion(c):
+    """y >= 0 with e^-y - 1 + y = c >= 0 (the exact Boltzmann depletion side's bending, reduced)
+    and the slope s = 1 - e^-y, by Halley's method (cubic convergence; the function is convex and
+    rising). Start: the branch-point series of W0 (``_BRANCH_SERIES``) for c < 0.7, else the
+    bound y <= c + 1 - e^-(c+1)."""
+    if not c > 0.0:
+        return 0.0, 0.0
+    if c < _SERIES_LIMIT:
+        rho = math.sqrt(-2.0 * math.expm1(-c))
+        total = 0.0
+        for k in range(_BRANCH_SERIES.size - 1, -1, -1):
+            total = total * rho + _BRANCH_SERIES[k]
+        y = c + rho * total
+    else:
+        y = c + 1.0 - math.exp(-(c + 1.0))
+    for _ in range(60):
+        g, slope = g_minus(y)
+        if not slope > 0.0:
+            break
+        f = g - c
+        step = 2.0 * f * slope / (2.0 * slope * slope - f * (1.0 - slope))
+        y = y - step
+        if abs(step) <= 4.0 * _EPS * y:
+            break
+    return y, -math.expm1(-y)
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _exact_depletion_kernel(c_all, out):
+    """`exact_depletion` over a flat array (the bending y only)."""
+    for i in range(c_all.size):
+        out[i] = exact_depletion(c_all[i])[0]
+
+
 @numba.njit(cache=True, inline="always", error_model="numpy")
 def rtsafe_step(x, newton, value, slope, lo, hi, dx, dx_old):
     """The next point of rtsafe (W. H. Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4)
@@ -303,24 +363,32 @@ def _field_bending(alpha, x):
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _inverse_kernel(log_target, sign, vbi, alpha, tail, e00, spike, x_lo, x_hi, nodes, weights, out):
+def _inverse_kernel(log_target, sign, vbi, alpha, form, e00, spike, x_lo, x_hi, nodes, weights, out):
     """Root x = v1 of log|J(x)/P| = log_target on [x_lo, x_hi] per entry, J(x)/P = e^x expm1(v) G,
-    v = vbi - (alpha (e^x - 1 - x) + x + tail): Newton's method safeguarded by the bracket
+    v = vbi - vb(x), vb(x) = alpha (e^x - 1 - x) + x + t (``form`` t = 0 plain, 1 tail) or x + y,
+    y the exact depletion side's bending (``form`` 2): Newton's method safeguarded by the bracket
     (bisection when a step leaves it or shrinks it too slowly), in the log of |J| where J keeps
     one sign on the bracket (sign +1: forward, log|J| falls with x; -1: reverse, rises). NaN where
     the ends do not bracket the target."""
+    tail = form if form < 2.0 else 0.0
     for i in range(log_target.size):
         lo, hi, target = x_lo[i], x_hi[i], log_target[i]
         direction = -sign[i]                    # d log|J| / dx has this sign
 
         def g(x):
             a_g = _field_bending(alpha[i], x)
-            v = vbi[i] - (a_g + x + tail)
+            a_em1 = alpha[i] * math.expm1(x)
+            if form == 2.0:
+                y, s = exact_depletion(a_g)
+                v = vbi[i] - (x + y)
+                dvb = 1.0 + a_em1 / s if s > 0.0 else 1.0 + math.sqrt(alpha[i])
+            else:
+                v = vbi[i] - (a_g + x + tail)
+                dvb = 1.0 + a_em1
             log_g, dlog = _gain_point(a_g, e00[i], spike[i], nodes, weights)
             em1 = math.expm1(v)
-            a_em1 = alpha[i] * math.expm1(x)
             value = x + math.log(abs(em1)) + log_g - target
-            slope = 1.0 + dlog * a_em1 - (1.0 + a_em1) * math.exp(v) / em1
+            slope = 1.0 + dlog * a_em1 - dvb * math.exp(v) / em1
             return value, slope
 
         g_lo, g_hi = g(lo)[0], g(hi)[0]
@@ -373,9 +441,43 @@ def _law_arrays(first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temper
     return shape, first, vbi, alpha, vt, log_p, e00, np.where(np.isnan(spike), np.inf, spike)
 
 
+#: the depletion side's forms, as the kernels take them (laws/compiled_isotype.py FORMS)
+_FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
+
+
+def _form(include_tail, depletion):
+    """The depletion-side form code: 0 plain, 1 kT/q tail, 2 exact (``depletion`` overrides
+    ``include_tail``, as in laws/thermionic.py)."""
+    if depletion is None:
+        return 1.0 if include_tail else 0.0
+    if depletion not in _FORMS:
+        raise te.IsotypeParameterError(
+            f"isotype interface: 'depletion' must be \"exact\", \"tail\" or \"plain\" (got "
+            f"{depletion!r}); use \"exact\" (the full Boltzmann depletion side) unless comparing "
+            "with a closed form")
+    return _FORMS[depletion]
+
+
+def _bending(vb, alpha, form):
+    """The accumulation-side bending v1 at the reduced barrier voltage vb (laws/thermionic.py)."""
+    return te.accumulation_bending(vb, alpha, "exact" if form == 2.0 else form)
+
+
+def _rest(a_em1, v2, alpha, form):
+    """1 - q = s/(A + s): the share of the barrier voltage's change taken by the depletion side
+    (dv1/dV = -(1 - q)/Vt), s = 1 - e^-v2 for the exact side, 1 for the closed forms; at flat
+    band of the exact side 1/(1 + sqrt(alpha)) (v1 = v2/sqrt(alpha) to first order)."""
+    if form != 2.0:
+        return 1.0 / (1.0 + a_em1)
+    s = -np.expm1(-np.maximum(v2, 0.0))
+    total = a_em1 + s
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(total > 0, s / total, 1.0 / (1.0 + np.sqrt(alpha)))
+
+
 def field_emission_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
                                    temperature_K, field_energy_eV, spike_eV=np.inf,
-                                   include_tail=False, with_derivative=False):
+                                   include_tail=False, with_derivative=False, depletion=None):
     """Thermionic-field emission current density across an isotype heterointerface.
 
     Parameters are those of `siltandem.laws.thermionic.isotype_current_density`, and
@@ -386,6 +488,11 @@ def field_emission_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, 
         Spike height, the band step seen from the accumulation side [eV] (tunnelling only into
         states of that side: energies down to the spike height below the top); NaN or inf: no
         limit but the parabola's vertex; <= 0: no spike, the thermionic law.
+    depletion : {"exact", "tail", "plain"}, optional
+        The depletion side's form (overrides ``include_tail``): "exact" is the full Boltzmann
+        side, w = e^-v2 - 1 + v2 (laws/thermionic.py `voltage_split`), continuous in doping and
+        temperature and defined for every Vbi > 0; the WKB parabola keeps the field w at the
+        interface.
 
     Returns
     -------
@@ -393,42 +500,56 @@ def field_emission_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, 
         J [A m^-2] (and dJ/dV), broadcast shape. J = J_thermionic * G (module docstring), so
         the law's domain and its NaN points are the thermionic law's.
     """
-    tail = 1.0 if include_tail else 0.0
+    form = _form(include_tail, depletion)
     shape, volt, vbi, alpha, vt, log_p, e00, spike = _law_arrays(
         voltage_V, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
         field_energy_eV, spike_eV)
     v = volt / vt
-    v1, bad = te.accumulation_bending(vbi - v, alpha, tail)
+    v1, bad = _bending(vbi - v, alpha, form)
     if bad:
         warnings.warn(f"isotype interface: {bad} point(s) beyond flat band (V > Vbi, or V > Vbi - "
                       "kT/q with the tail); set to NaN", te.IsotypeDomainWarning, stacklevel=2)
-    j, djdv = _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative)
+    j, djdv = _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative,
+                                    form, vbi - v - v1)
     return (j.reshape(shape), djdv.reshape(shape)) if with_derivative else j.reshape(shape)
 
 
-def _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative):
-    """J = J_thermionic G and dJ/dV from the reduced voltage v and bending v1 (flat arrays)."""
+def _current_from_bending(v, v1, alpha, vt, log_p, e00, spike, with_derivative, form=0.0, v2=None):
+    """J = J_thermionic G and dJ/dV from the reduced voltage v and bending v1 (flat arrays;
+    ``v2`` the depletion side's bending, used by the exact form)."""
     _, a_em1, a_g = te.alpha_terms(alpha, v1)
     log_g, dlog_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike, with_derivative=True)
-    j_te, dj_te = te.current_from_split(v, v1, a_em1, vt, log_p, True)
-    with np.errstate(over="ignore", invalid="ignore"):
+    exact = (v2, alpha) if form == 2.0 else None
+    j_te, dj_te = te.current_from_split(v, v1, a_em1, vt, log_p, True, exact)
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         gain = np.exp(log_g)
         j = j_te * gain
         if not with_derivative:
             return j, None
-        # dG/dV = G (dlogG/dw)(dw/dv1)(dv1/dV), dw/dv1 = alpha (e^v1 - 1), dv1/dV = -1/(Vt (1 + that))
-        djdv = gain * dj_te - j * dlog_g * a_em1 / (vt * (1.0 + a_em1))
+        # dG/dV = G (dlogG/dw)(dw/dv1)(dv1/dV), dw/dv1 = alpha (e^v1 - 1) = A, dv1/dV = -(1 - q)/Vt
+        if form == 2.0:
+            djdv = gain * dj_te - j * dlog_g * a_em1 * _rest(a_em1, v2, alpha, form) / vt
+        else:
+            djdv = gain * dj_te - j * dlog_g * a_em1 / (vt * (1.0 + a_em1))
     return j, djdv
+
+
+def _exact_bending(c):
+    """y >= 0 with e^-y - 1 + y = c (the exact depletion side, flat arrays)."""
+    out = np.empty(c.size)
+    _exact_depletion_kernel(np.ascontiguousarray(c, dtype=float), out)
+    return out
 
 
 def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
                            temperature_K, field_energy_eV, spike_eV=np.inf, include_tail=False,
-                           with_derivative=False):
+                           with_derivative=False, depletion=None):
     """Voltage across an isotype interface that carries a given current density under
-    thermionic-field emission (the inverse of `field_emission_current_density`).
+    thermionic-field emission (the inverse of `field_emission_current_density`, same keywords).
 
     Solved, as the thermionic inverse is, for the accumulation-side bending x = v1, for which
-    everything is explicit: vb(x) = alpha (e^x - 1 - x) + x + t, w(x) = alpha (e^x - 1 - x) and
+    everything is explicit: vb(x) = alpha (e^x - 1 - x) + x + t (closed forms) or x + y(w(x)) (the
+    exact side, y the root of e^-y - 1 + y = w), w(x) = alpha (e^x - 1 - x) and
     J(x) = P e^x expm1(vbi - vb(x)) G(w(x)). At flat band (x = 0) w = 0 and G = 1, so the
     flat-band current and the bracket [0, max(ln(2|J|/P), vbi + ln 2)] are the thermionic
     law's (G >= 1 only deepens the reverse end). The bending at zero bias splits it: a forward
@@ -443,7 +564,8 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
     ndarray or (ndarray, ndarray)
         V [V] (and dV/dJ [V m^2 A^-1]); NaN above the flat-band current (warned once).
     """
-    tail = 1.0 if include_tail else 0.0
+    form = _form(include_tail, depletion)
+    tail = form if form < 2.0 else 0.0
     shape, jt, vbi, alpha, vt, log_p, e00, spike = _law_arrays(
         current_A_m2, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
         field_energy_eV, spike_eV)
@@ -459,7 +581,7 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
     x_root[flat] = 0.0
     if np.any(solve):
         # the bending at zero bias splits the bracket: forward currents below it, reverse above
-        x_zero, _ = te.accumulation_bending(vbi[solve], alpha[solve], tail)
+        x_zero, _ = _bending(vbi[solve], alpha[solve], form)
         with np.errstate(divide="ignore", over="ignore"):
             x_hi = np.maximum(np.log(2.0 * np.abs(jt[solve])) - log_p[solve], vbi[solve] + np.log(2.0))
         forward = jt[solve] > 0
@@ -468,7 +590,7 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
         upper = np.where(forward, x_zero, x_hi)
         roots = np.empty(lower.size)
         _inverse_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
-            log_target[solve], sign, vbi[solve], alpha[solve])), tail,
+            log_target[solve], sign, vbi[solve], alpha[solve])), form,
             *(np.ascontiguousarray(a, dtype=float) for a in (e00[solve], spike[solve], lower, upper)),
             _NODES, _WEIGHTS, roots)
         zero = jt[solve] == 0                                  # no current: zero bias
@@ -476,10 +598,11 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
         x_root[solve] = roots
     a_g = te.alpha_terms(alpha, x_root)[2]
     log_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike)
+    depletion_bending = _exact_bending(a_g) if form == 2.0 else a_g + tail
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
         y = jt * np.exp(-log_p - x_root - log_g)               # = expm1(v) at the root
         small = np.abs(y) < 0.5
-        v = np.where(small, np.log1p(np.where(small, y, 0.0)), vbi - (a_g + x_root + tail))
+        v = np.where(small, np.log1p(np.where(small, y, 0.0)), vbi - (depletion_bending + x_root))
     for count, what in ((int(np.count_nonzero(finite & ~flat & ~solve)), "above the flat-band current"),
                         (int(np.count_nonzero(solve & np.isnan(v))), "did not converge")):
         if count:
@@ -488,14 +611,15 @@ def field_emission_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richa
     volt = (v * vt).reshape(shape)
     if not with_derivative:
         return volt
-    _, djdv = _current_from_bending(v, x_root, alpha, vt, log_p, e00, spike, True)
+    _, djdv = _current_from_bending(v, x_root, alpha, vt, log_p, e00, spike, True, form,
+                                    depletion_bending)
     with np.errstate(divide="ignore", invalid="ignore"):
         return volt, (1.0 / djdv).reshape(shape)
 
 
 def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
                                richardson_A_m2_K2, temperature_K, field_energy_eV, spike_eV=np.inf,
-                               include_tail=False):
+                               include_tail=False, depletion=None):
     """Smallest and largest dJ/dV [A m^-2 V^-1] of `field_emission_current_density` between two
     voltages (arrays, v_low <= v_high, inside the domain), for the certificate (solve/certificate.py).
 
@@ -506,14 +630,20 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
     range is not available: tests/test_field_emission.py checks it on a grid of w and e00). The
     bracket is a product of three intervals (R. E. Moore, R. B. Kearfott, M. J. Cloud,
     Introduction to Interval Analysis, SIAM 2009, ch. 2), q and 1 - L >= 0.
+
+    The exact depletion side: dJ/dV = (P/Vt) e^v1 G [1 + (e^v - 1)(q - L h)], q = A/(A + s),
+    h = A s/(A + s), s = 1 - e^-v2; A, s and h (rising in A and in s) fall as V rises, q lies
+    between A_high/(A_high + s_low) and A_low/(A_low + s_high) (ends by V), so q - L h lies in
+    [q_min - L_max h_low, q_max - L_min h_high] and the bilinear bracket takes its extremes at
+    the corners (the compiled law's `_field_exact_slope_range`, laws/compiled_isotype.py).
     """
-    tail = 1.0 if include_tail else 0.0
+    form = _form(include_tail, depletion)
     lows, highs = np.broadcast_arrays(np.asarray(v_low_V, float), np.asarray(v_high_V, float))
     shape, both, vbi, alpha_f, vt, log_p, e00, spike = _law_arrays(
         np.stack([lows, highs]), barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
         field_energy_eV, spike_eV)
     v = both / vt
-    v1, _ = te.accumulation_bending(vbi - v, alpha_f, tail)
+    v1, _ = _bending(vbi - v, alpha_f, form)
     _, a_em1, a_g = te.alpha_terms(alpha_f, v1)
     log_g, dlog_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike, with_derivative=True)
     half = both.size // 2
@@ -521,11 +651,20 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
     l_min, l_max = np.empty(half), np.empty(half)
     _gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
         a_g[hi], a_g[lo], e00[lo], spike[lo], log_g[lo], dlog_g[hi], dlog_g[lo])), l_min, l_max)
-    with np.errstate(over="ignore", invalid="ignore"):
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         scale = np.exp(log_p + v1 + log_g) / vt         # P e^v1 G / Vt: larger at the low end
         u = np.expm1(v)
-        q = a_em1 / (1.0 + a_em1)
-        qm_lo, qm_hi = q[hi] * (1.0 - l_max), q[lo] * (1.0 - l_min)
+        if form == 2.0:
+            s = -np.expm1(-np.maximum(vbi - v - v1, 0.0))
+            a_a, a_b, s_a, s_b = a_em1[lo], a_em1[hi], s[lo], s[hi]
+            q_min = np.where(a_b + s_a > 0, a_b / (a_b + s_a), 0.0)
+            q_max = np.where(a_a + s_b > 0, a_a / (a_a + s_b), 1.0)
+            h_max = np.where(a_a + s_a > 0, a_a * s_a / (a_a + s_a), 0.0)
+            h_min = np.where(a_b + s_b > 0, a_b * s_b / (a_b + s_b), 0.0)
+            qm_lo, qm_hi = q_min - l_max * h_max, q_max - l_min * h_min
+        else:
+            q = a_em1 / (1.0 + a_em1)
+            qm_lo, qm_hi = q[hi] * (1.0 - l_max), q[lo] * (1.0 - l_min)
         corners = np.stack([u[lo] * qm_lo, u[lo] * qm_hi, u[hi] * qm_lo, u[hi] * qm_hi])
         bracket_min = 1.0 + corners.min(axis=0)
         bracket_max = 1.0 + corners.max(axis=0)
