@@ -709,6 +709,7 @@ class IsotypeInterface:
         this interface's law has no compiled form (the numpy law serves it)."""
         if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS:
             return None
+        field = self.transport == "thermionic-field"
         form = self.depletion
         if form not in compiled_isotype.FORMS:
             return None
