@@ -48,13 +48,16 @@ def test_a_study_still_runs_its_kernels_compiled():
     assert _python(probe) == "compiled True"
 
 
-def _interpreted_summaries(paths):
+def _interpreted_summaries(paths, transport=None):
     """Each demo's summary solved in one process with interpreted kernels (no budget), and the
-    kernel mode after each."""
+    kernel mode after each; ``transport``: the default isotype transport taken there."""
+    setting = ("" if transport is None else
+               f"from siltandem.circuit import isotype\nisotype.DEFAULT_TRANSPORT = {transport!r}\n")
     probe = ("import json, sys\n"
              "from siltandem.numerics import jit\n"
              "assert jit.interpret_kernels()\n"
              "jit.INTERPRETED_BUDGET_S = float('inf')      # all in one process, interpreted\n"
+             + setting +
              "from siltandem.result.driver import run_stack\n"
              "from siltandem.stack.load import load_stack\n"
              "out, modes = {}, {}\n"
@@ -65,29 +68,41 @@ def _interpreted_summaries(paths):
     return json.loads(_python(probe))
 
 
-def test_every_demo_solves_interpreted_to_the_bit_of_the_compiled_solve():
+def test_every_demo_solves_interpreted_to_the_bit_of_the_compiled_solve(monkeypatch):
     """The interpreted kernels (numerics/jit.py) against the compiled ones, the project's
-    reference: every number of every demo's summary identical (seen: all ten demos). A demo with an
-    interface that takes the Fermi-Dirac law (laws/compiled_fermi.py: interpreted, it alone would
-    overrun the budget) switches the process to numba when its rows are built: those demos run in a
-    process of their own, which must end compiled; the others must stay interpreted."""
+    reference: every number of every demo's summary identical (seen: all ten demos). An interface
+    that takes the Fermi-Dirac law (laws/compiled_fermi.py: interpreted, it alone would overrun
+    the budget) switches the process to numba when its rows are built. That law is thermionic
+    emission's, and the default transport is thermionic-field (no Fermi-Dirac form): so the demos
+    run once as they are (they must stay interpreted), and once more with thermionic emission as
+    the default, where those taking the Fermi-Dirac law run in a process of their own, which must
+    end compiled."""
+    from siltandem.circuit import isotype
     from siltandem.numerics import jit
     from siltandem.result.driver import run_stack
     from siltandem.stack.load import load_stack
 
+    def summaries(paths):
+        return {path: json.loads(json.dumps(run_stack(load_stack(path)).summary)) for path in paths}
+
     assert jit.mode() == "compiled"
-    compiled = {path: json.loads(json.dumps(run_stack(load_stack(path)).summary)) for path in DEMOS}
-    fermi = [p for p in DEMOS if any("takes Fermi-Dirac statistics" in w for w in compiled[p]["warnings"])]
-    plain = [p for p in DEMOS if p not in fermi]
-    assert len(DEMOS) >= 9 and len(plain) >= 4 and len(fermi) >= 4
-    out, modes = _interpreted_summaries(plain)
-    assert all(modes[p] == ["interpreted", False] for p in plain)
-    out_fermi, modes_fermi = _interpreted_summaries(fermi)
-    assert modes_fermi[fermi[0]] == ["compiled", True]
-    out.update(out_fermi)
+    compiled = summaries(DEMOS)
+    assert len(DEMOS) >= 9 and not any(
+        "takes Fermi-Dirac statistics" in w for p in DEMOS for w in compiled[p]["warnings"])
+    out, modes = _interpreted_summaries(DEMOS)
+    assert all(modes[p] == ["interpreted", False] for p in DEMOS)
     for path in DEMOS:
         assert out[path]["efficiency_pct"] == compiled[path]["efficiency_pct"], path
         assert out[path] == compiled[path], path
+
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
+    thermionic = summaries(DEMOS)
+    fermi = [p for p in DEMOS if any("takes Fermi-Dirac statistics" in w for w in thermionic[p]["warnings"])]
+    assert len(fermi) >= 4
+    out_fermi, modes_fermi = _interpreted_summaries(fermi, transport="thermionic")
+    assert modes_fermi[fermi[0]] == ["compiled", True]
+    for path in fermi:
+        assert out_fermi[path] == thermionic[path], path
 
 
 def test_an_arithmetic_error_hands_every_kernel_to_numba(tmp_path):

@@ -101,11 +101,13 @@ def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperatu
 
 @numba.njit(cache=True, error_model="numpy")
 def _zero_bias_gain(params):
-    """Fill the zero-bias gain columns (log G, dlogG/dw at the zero-bias bending) of rows (R, P)."""
+    """Fill the zero-bias gain columns (log G, dlogG/dw at the zero-bias bending) of rows (R, P);
+    returns the rows (numerics/jit.py takes an interpreted kernel returning None as failed)."""
     for r in range(params.shape[0]):
         p = params[r]
         w = _barrier(p[ZERO_BIAS_COLUMN], p)[2]
         p[ZERO_BIAS_GAIN_COLUMN], p[ZERO_BIAS_GAIN_COLUMN + 1] = _gain(w, p)
+    return params
 
 
 # ---------------------------------------------------------------------------------------------
