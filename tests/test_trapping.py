@@ -328,3 +328,49 @@ def test_scattering_rear_moves_the_limiting_subcell_of_the_demo(tmp_path):
         currents = {c["name"]: c["photocurrent_mA_cm2"] for c in summary["subcells"]}
         assert min(currents, key=currents.get) == limiting[rear]
     assert limiting == {"flat": "silicon", "scattering": "top"}
+
+
+# ------------------------------------------------------------------------- the zero beyond depth 60
+def test_lambertian_pass_is_zero_only_where_negligible():
+    """T = 2 E3(tau) is returned as 0 beyond LAMBERTIAN_ZERO_DEPTH; what is dropped there is below
+    2 E3(60) = 2.78e-28 (mpmath.expint as the reference; E3 decreasing: Abramowitz and Stegun
+    5.1.19 bounds it by exp(-x) / (x + 2)); at and below the depth, scipy.special.expn bit for bit."""
+    import mpmath
+    from scipy.special import expn
+
+    from siltandem.laws.thinfilm import LAMBERTIAN_ZERO_DEPTH
+
+    assert LAMBERTIAN_ZERO_DEPTH == 60.0
+    assert float(2 * mpmath.expint(3, LAMBERTIAN_ZERO_DEPTH)) < 2.8e-28
+    inside = np.array([0.0, 1e-9, 0.3, 7.0, 45.0, 59.99, 60.0])
+    np.testing.assert_array_equal(lambertian_transmittance(inside), 2.0 * expn(3, inside))
+    beyond = np.array([np.nextafter(60.0, np.inf), 61.0, 300.0, 709.0, 1e4, np.inf])
+    np.testing.assert_array_equal(lambertian_transmittance(beyond), np.zeros(beyond.size))
+    assert float(2 * mpmath.expint(3, 61.0)) < 2.8e-28
+
+
+def test_zero_beyond_depth_60_moves_a_layer_map_below_rounding(monkeypatch):
+    """The layer triple's collected currents (a study's stacked pass, optics.layers.light_designs,
+    INVENTED demo stack as input only) with T zeroed beyond depth 60 against T = 2 E3 everywhere
+    (scipy.special.expn): equal to 1e-13 relative. Reason: what is dropped is < 2.8e-28 of a flux
+    (mpmath, test above) in each T, so each current moves far below its own rounding."""
+    from siltandem import parse_vary
+    from siltandem.laws import thinfilm
+    from siltandem.optics.layers import light_designs
+    from siltandem.studies.sweep import layer_design, study_light
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    light = study_light(stack)
+    top = parse_vary("top base.thickness_nm=300:1500:3", stack)
+    models = [compile_stack(layer_design(stack, {top.column: x})).model for x in top.values]
+
+    def currents():
+        thinfilm._TRANSMITTANCE_MEMO.clear()
+        return np.array(light_designs(models, light.wavelength_nm, light.photon_flux))
+
+    cut = currents()
+    monkeypatch.setattr(thinfilm, "LAMBERTIAN_ZERO_DEPTH", np.inf)
+    full = currents()
+    thinfilm._TRANSMITTANCE_MEMO.clear()
+    assert np.all(full > 0)
+    np.testing.assert_allclose(cut, full, rtol=1e-13, atol=0)

@@ -384,16 +384,17 @@ def lambertian_transmittance(optical_depth):
     a thin layer absorbs twice its normal-incidence fraction (mean path 2 d). Because each ray's
     attenuation is exponential in depth, a Lambertian flux entering a stack of layers crosses their
     sum: absorption in layer j is T(depth above j) - T(depth to the bottom of j), which adds up exactly.
+    Beyond tau = LAMBERTIAN_ZERO_DEPTH (60) T is returned as 0: there 2 E3(tau) < 2 exp(-tau) / tau
+    <= 2.9e-28 (Abramowitz and Stegun 5.1.19: E_n(x) < exp(-x) / (x + n - 1)), far below the rounding
+    of any flux it multiplies, and E3 there would take a third of the Lambertian channel's time.
 
     References
     ----------
     M. A. Green, Prog. Photovolt. 10 (2002) 235 (from memory); E. Yablonovitch, J. Opt. Soc. Am. 72
     (1982) 899.
     """
-    from scipy.special import expn     # here: scipy.special costs a command 0.1 s to import
-
     tau = _check_nonnegative_or_inf("optical_depth", optical_depth)
-    return 2.0 * expn(3, tau)
+    return _two_e3(tau)
 
 
 def lambertian_escape_fraction(refractive_index, *, front_reflectance=0.0, ambient_index=1.0):
@@ -617,12 +618,24 @@ def _cone_complement(x, mu_c, transmittance=lambertian_transmittance, t_x=None):
     return t_x - mu_c ** 2 * transmittance(scaled, "cone x/mu")
 
 
-#: T = 2 E3 remembered entry by entry between calls (numerics/memo.py): the designs of a layer
-#: study share most optical depths bit for bit, and E3 dominates the Lambertian channel's cost
+#: optical depth beyond which `lambertian_transmittance` is 0: 2 E3(60) = 2.78e-28 (mpmath.expint),
+#: below 2 exp(-60) / 62 = 2.8e-28 (Abramowitz and Stegun 5.1.19), and smaller beyond
+LAMBERTIAN_ZERO_DEPTH = 60.0
+
+
 def _two_e3(tau):
+    """2 E3(tau) (scipy.special.expn) where tau <= LAMBERTIAN_ZERO_DEPTH (and NaN), 0 beyond."""
     from scipy.special import expn     # here: scipy.special costs a command 0.1 s to import
 
-    return 2.0 * expn(3, tau)
+    tau = np.asarray(tau, dtype=float)
+    out = np.zeros(tau.shape)
+    near = ~(tau > LAMBERTIAN_ZERO_DEPTH)
+    out[near] = 2.0 * expn(3, tau[near])
+    return out[()]
+
+
+#: T = 2 E3 remembered entry by entry between calls (numerics/memo.py): the designs of a layer
+#: study share most optical depths bit for bit, and E3 dominates the Lambertian channel's cost
 
 
 _TRANSMITTANCE_MEMO = EntryMemo(_two_e3)
