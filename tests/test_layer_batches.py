@@ -471,3 +471,31 @@ def test_mixed_pilots_drive_each_subcell_only_on_its_rows(monkeypatch):
     per_call = [d for d in driven if d.size == 4]
     assert per_call and max(int(d.sum()) for d in per_call) < 4
     assert_same_bits(batched, one_by_one(stack, columns))
+
+
+def test_chunks_of_a_layer_map_share_one_reuse_dict_and_equal_their_designs_alone(monkeypatch):
+    """`siltandem.design_map` in chunks of 2 designs (in this process): the chunks get one and the
+    same reuse dict (studies/sweep.study_reuse), let go when the map is done, and every row is,
+    bit for bit, the design solved alone in a fresh one (the check is the project's own
+    one-by-one path, whose physics the other test files check against their sources)."""
+    from siltandem import design_map, parse_vary
+    from siltandem.studies import sweep
+
+    given = []
+    keep = sweep.study_reuse
+
+    def recorded(*args):
+        given.append(keep(*args))
+        return given[-1]
+
+    monkeypatch.setattr(sweep, "study_reuse", recorded)
+    stack = load_stack(ROOT / "stacks" / "demo_dual_layers.toml")
+    first = parse_vary("top base.thickness_nm=900:2100:3", stack)
+    second = parse_vary("top emitter.thickness_nm=60:120:2", stack)
+    table = design_map(stack, first, second, progress=False, chunk_rows=2)
+    assert len(given) == 3 and all(reuse is given[0] for reuse in given)
+    assert given[0]                                        # something was kept between chunks
+    assert getattr(sweep._STUDY_REUSE, "last", None) is None
+    columns = {c: table[c].to_numpy() for c in (first.column, second.column)}
+    alone = one_by_one(stack, columns)
+    assert_same_bits({key: table[key].to_numpy() for key in alone}, alone)

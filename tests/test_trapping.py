@@ -328,3 +328,82 @@ def test_scattering_rear_moves_the_limiting_subcell_of_the_demo(tmp_path):
         currents = {c["name"]: c["photocurrent_mA_cm2"] for c in summary["subcells"]}
         assert min(currents, key=currents.get) == limiting[rear]
     assert limiting == {"flat": "silicon", "scattering": "top"}
+
+
+# ------------------------------------------------------------------------- the zero beyond depth 60
+def test_lambertian_pass_is_zero_only_where_negligible():
+    """T = 2 E3(tau) is returned as 0 beyond LAMBERTIAN_ZERO_DEPTH; what is dropped there is below
+    2 E3(60) = 2.78e-28 (mpmath.expint as the reference; E3 decreasing: Abramowitz and Stegun
+    5.1.19 bounds it by exp(-x) / (x + 2)); at and below the depth, scipy.special.expn bit for bit."""
+    import mpmath
+    from scipy.special import expn
+
+    from siltandem.laws.lambertian import LAMBERTIAN_ZERO_DEPTH
+
+    assert LAMBERTIAN_ZERO_DEPTH == 60.0
+    assert float(2 * mpmath.expint(3, LAMBERTIAN_ZERO_DEPTH)) < 2.8e-28
+    inside = np.array([0.0, 1e-9, 0.3, 7.0, 45.0, 59.99, 60.0])
+    np.testing.assert_array_equal(lambertian_transmittance(inside), 2.0 * expn(3, inside))
+    beyond = np.array([np.nextafter(60.0, np.inf), 61.0, 300.0, 709.0, 1e4, np.inf])
+    np.testing.assert_array_equal(lambertian_transmittance(beyond), np.zeros(beyond.size))
+    assert float(2 * mpmath.expint(3, 61.0)) < 2.8e-28
+
+
+def test_zero_beyond_depth_60_moves_a_layer_map_below_rounding(monkeypatch):
+    """The layer triple's collected currents (a study's stacked pass, optics.layers.light_designs,
+    INVENTED demo stack as input only) with T zeroed beyond depth 60 against T = 2 E3 everywhere
+    (scipy.special.expn): equal to 1e-13 relative. Reason: what is dropped is < 2.8e-28 of a flux
+    (mpmath, test above) in each T, so each current moves far below its own rounding."""
+    from siltandem import parse_vary
+    from siltandem.laws import lambertian
+    from siltandem.optics.layers import light_designs
+    from siltandem.studies.sweep import layer_design, study_light
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    light = study_light(stack)
+    top = parse_vary("top base.thickness_nm=300:1500:3", stack)
+    models = [compile_stack(layer_design(stack, {top.column: x})).model for x in top.values]
+
+    def currents():
+        lambertian.TRANSMITTANCE_MEMO.clear()
+        return np.array(light_designs(models, light.wavelength_nm, light.photon_flux))
+
+    cut = currents()
+    monkeypatch.setattr(lambertian, "LAMBERTIAN_ZERO_DEPTH", np.inf)
+    full = currents()
+    lambertian.TRANSMITTANCE_MEMO.clear()
+    assert np.all(full > 0)
+    np.testing.assert_allclose(cut, full, rtol=1e-13, atol=0)
+
+
+# ------------------------------------------------------------- the wanted layers only (a study's pass)
+@pytest.mark.parametrize("config", list(CONFIGS))
+@pytest.mark.parametrize("wanted", [[0], [1, 2], [4], [0, 2, 4]])
+def test_wanted_layers_are_the_full_budgets_rows(config, wanted):
+    """layer_absorption(layers=...): the wanted rows, bit for bit, those of the whole budget (which
+    the closed forms' tests above check against bounce-by-bounce angle integrals, Green 2002 from
+    memory); the other rows NaN; escaped and transmitted unchanged. Five layers of random depths,
+    a stacked (2, 40) pass as a study lights its designs."""
+    rng = np.random.default_rng(19)
+    shape = (2, 40)
+    alphas = [10 ** rng.uniform(-2, 6, shape) for _ in range(5)]
+    options = dict(alpha_per_m=alphas, thicknesses_m=[1e-6, 2e-7, 3e-6, 5e-8, 1.5e-4],
+                   front_reflectance=rng.uniform(0, 0.4, shape), back_reflectance=rng.uniform(0.5, 1, shape),
+                   front_internal_reflectance=rng.uniform(0, 0.4, shape),
+                   trapping_index=rng.uniform(3, 4, shape), **CONFIGS[config])
+    flux = rng.uniform(0.5, 2, shape)
+    whole = layer_absorption(flux, **options)
+    part = layer_absorption(flux, layers=wanted, **options)
+    np.testing.assert_array_equal(part.absorbed[wanted], whole.absorbed[wanted])
+    np.testing.assert_array_equal(part.scattered_absorbed[wanted], whole.scattered_absorbed[wanted])
+    others = [j for j in range(5) if j not in wanted]
+    assert np.all(np.isnan(part.absorbed[others]))
+    for name in ("reflected", "escaped", "transmitted", "downward_at_top", "upward_at_bottom"):
+        np.testing.assert_array_equal(getattr(part, name), getattr(whole, name))
+    assert np.count_nonzero(whole.scattered_absorbed[wanted] > 1e-6) > 10     # rows that carry light
+
+
+def test_wanted_layer_outside_the_stack_is_refused():
+    with pytest.raises(ThinFilmInputError, match="'layers'.*outside the 2 given.*0 to 1"):
+        layer_absorption(1.0, alpha_per_m=[1.0, 2.0], thicknesses_m=[1.0, 1.0], back_reflectance=0.9,
+                         back_scattering="lambertian", trapping_index=3.5, layers=[2])

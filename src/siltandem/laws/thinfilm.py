@@ -40,7 +40,7 @@ from typing import NamedTuple
 import numpy as np
 
 from siltandem.constants import ELEMENTARY_CHARGE_C
-from siltandem.numerics.memo import EntryMemo
+from siltandem.laws.lambertian import TRANSMITTANCE_MEMO, two_e3
 
 __all__ = [
     "ThinFilmInputError",
@@ -384,16 +384,17 @@ def lambertian_transmittance(optical_depth):
     a thin layer absorbs twice its normal-incidence fraction (mean path 2 d). Because each ray's
     attenuation is exponential in depth, a Lambertian flux entering a stack of layers crosses their
     sum: absorption in layer j is T(depth above j) - T(depth to the bottom of j), which adds up exactly.
+    Beyond tau = laws.lambertian.LAMBERTIAN_ZERO_DEPTH (60) T is returned as 0: there 2 E3(tau) < 2 exp(-tau) / tau
+    <= 2.9e-28 (Abramowitz and Stegun 5.1.19: E_n(x) < exp(-x) / (x + n - 1)), far below the rounding
+    of any flux it multiplies, and E3 there would take a third of the Lambertian channel's time.
 
     References
     ----------
     M. A. Green, Prog. Photovolt. 10 (2002) 235 (from memory); E. Yablonovitch, J. Opt. Soc. Am. 72
     (1982) 899.
     """
-    from scipy.special import expn     # here: scipy.special costs a command 0.1 s to import
-
     tau = _check_nonnegative_or_inf("optical_depth", optical_depth)
-    return 2.0 * expn(3, tau)
+    return two_e3(tau)
 
 
 def lambertian_escape_fraction(refractive_index, *, front_reflectance=0.0, ambient_index=1.0):
@@ -436,7 +437,7 @@ def lambertian_escape_fraction(refractive_index, *, front_reflectance=0.0, ambie
 # ------------------------------------------------------------------------------ incoherent thick layers
 def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectance=0.0, back_reflectance=0.0,
                      front_internal_reflectance=0.0, back_scattering="specular", front_scattering="specular",
-                     trapping_index=None, ambient_index=1.0):
+                     trapping_index=None, ambient_index=1.0, layers=None):
     """Photon budget of a sequence of thick layers (sun side first), with an optional back mirror that may scatter.
 
     Parameters
@@ -466,6 +467,11 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
         sets the escape cone sin(theta_c) = n_0 / n. Required with any "lambertian" surface.
     ambient_index : array_like, optional
         Real index n_0 of the medium in front [-], > 0 (default 1); used with scattering only.
+    layers : sequence of int, optional
+        Indices of the layers whose absorption is wanted (default: all). With a scattering surface the
+        other layers' ``absorbed`` and ``scattered_absorbed`` rows are NaN and their scattered share is
+        not evaluated (a study reads only its subcells' layers); the wanted rows and every other field
+        are the same numbers, bit for bit, as with all layers.
 
     Returns
     -------
@@ -558,9 +564,12 @@ def layer_absorption(photon_flux, *, alpha_per_m, thicknesses_m, front_reflectan
     # the specular channel: the first pass of a flat front, down to the back (which scatters it all)
     specular, reaching_back = _specular_passes(entering if flat_front else np.zeros(shape), alphas,
                                                thicknesses, np.zeros(shape), r_inside, shape)
+    if layers is not None and any(not 0 <= int(j) < len(alphas) for j in layers):
+        raise ThinFilmInputError(f"thin-film optics: 'layers' = {list(layers)} names a layer outside the "
+                                 f"{len(alphas)} given; give indices from 0 to {len(alphas) - 1}")
     scattered, escaped, transmitted = _scattered_passes(
         entering, reaching_back, alphas, thicknesses, r_back, r_inside, n0 / n, shape,
-        flat_front=flat_front, scattering_back=back_scattering == "lambertian")
+        flat_front=flat_front, scattering_back=back_scattering == "lambertian", layers=layers)
     return PhotonBudget(
         reflected=np.broadcast_to(r_front * flux, shape).copy(), absorbed=specular.absorbed + scattered,
         transmitted=transmitted, escaped=specular.escaped + escaped,
@@ -617,44 +626,47 @@ def _cone_complement(x, mu_c, transmittance=lambertian_transmittance, t_x=None):
     return t_x - mu_c ** 2 * transmittance(scaled, "cone x/mu")
 
 
-#: T = 2 E3 remembered entry by entry between calls (numerics/memo.py): the designs of a layer
-#: study share most optical depths bit for bit, and E3 dominates the Lambertian channel's cost
-def _two_e3(tau):
-    from scipy.special import expn     # here: scipy.special costs a command 0.1 s to import
-
-    return 2.0 * expn(3, tau)
-
-
-_TRANSMITTANCE_MEMO = EntryMemo(_two_e3)
-
-
 def _remembered_transmittance(optical_depth, part):
     """`lambertian_transmittance`, the same numbers bit for bit, remembered per ``part`` (a call
     site) so that only the entries whose depth changed since the last call are evaluated."""
-    return _TRANSMITTANCE_MEMO(_check_nonnegative_or_inf("optical_depth", optical_depth), part)
+    return TRANSMITTANCE_MEMO(_check_nonnegative_or_inf("optical_depth", optical_depth), part)
 
 
 def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_inside, ratio, shape, *,
-                      flat_front, scattering_back):
+                      flat_front, scattering_back, layers=None):
     """The Lambertian channel of `layer_absorption` (Notes): absorbed per layer (L, ...), escaped and
-    transmitted (the specular first pass's share of the back included)."""
+    transmitted (the specular first pass's share of the back included). ``layers``: the indices of
+    the layers whose absorption is wanted (None: all); the others' rows are NaN, and T is evaluated
+    only at the depths those layers' rows read (each row the same elementwise arithmetic as with
+    all layers, so the same numbers bit for bit)."""
     depth = np.stack([np.broadcast_to(a * d, shape) for a, d in zip(alphas, thicknesses)]) if alphas \
         else np.zeros((0,) + shape)
+    count = len(alphas)
     bottoms = np.cumsum(depth, axis=0)                                       # z_j
     total = bottoms[-1] if alphas else np.zeros(shape)                       # Z
-    tops = np.concatenate([np.zeros((1,) + shape), bottoms[:-1]])[:len(alphas)]  # z_(j-1), same numbers
+    wanted = list(range(count)) if layers is None else sorted({int(j) for j in layers})
+    # the depths read: each wanted layer's bottom and the one above it (its top)
+    rows = sorted(set(wanted) | {j - 1 for j in wanted if j > 0})
+    where = {r: i for i, r in enumerate(rows)}
+    picked = [where[j] for j in wanted]
+    above = [where.get(j - 1, -1) for j in wanted]         # -1: the top layer (its top is the surface)
+    slot = "" if layers is None else f" of {len(rows)}/{count}"
+    at = bottoms[rows]
+
+    def pair(values, surface):
+        """(value at each wanted layer's bottom, value at its top): ``values`` at the rows read,
+        ``surface`` the value at the top of the first layer."""
+        tops = [surface if i < 0 else values[i] for i in above]
+        return values[picked], (np.stack(tops) if tops else values[picked])
+
     transmittance = _remembered_transmittance
-    # tops are the bottoms one layer up (the same numbers), and total - 0 = total: T of each
-    # distinct depth is evaluated once
-    t_bottoms = transmittance(bottoms, "bottoms")
-    t_tops = np.concatenate([transmittance(tops[:1], "top"), t_bottoms[:-1]])[:len(alphas)]
-    through = t_bottoms[-1] if alphas else transmittance(total, "total")
+    through = transmittance(total, "total")                                  # T(Z)
     escape_share = np.minimum(1.0, ratio ** 2)
     mu_c = np.sqrt(1.0 - escape_share)
     escape = (1.0 - r_inside) * escape_share                                 # e
-    down_once = t_tops - t_bottoms                                           # per Lambertian D
-    t_rising = transmittance(np.maximum(total - bottoms, 0.0), "total - bottoms")
-    up_once = t_rising - (np.concatenate([through[None], t_rising[:-1]]) if alphas else t_rising)
+    t_rising = transmittance(np.maximum(total - at, 0.0), "total - bottoms" + slot)
+    rising_bottom, rising_top = pair(t_rising, through)
+    up_once = rising_bottom - rising_top                                     # per Lambertian U
     if flat_front:                       # source at the back; angles kept up to the front and down
         def returning(x, part, t_x=None):                # G(x)
             t_x = transmittance(x, part) if t_x is None else t_x
@@ -663,12 +675,14 @@ def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_in
         g_twice = returning(2.0 * total, "2 total")
         gain = r_back * g_twice
         source = r_back * reaching_back
-    elif scattering_back:                # both randomise: Green's double-sided case
-        gain = r_back * (1.0 - escape) * through * through
-        source = entering
-    else:                                # textured front, mirror behind
-        t_twice = transmittance(2.0 * total, "2 total")
-        gain = (1.0 - escape) * r_back * t_twice
+    else:                                # the light enters scattered: T down from the surface
+        t_bottom, t_top = pair(transmittance(at, "bottoms" + slot), transmittance(np.zeros(shape), "top"))
+        down_once = t_top - t_bottom                                         # per Lambertian D
+        if scattering_back:              # both randomise: Green's double-sided case
+            gain = r_back * (1.0 - escape) * through * through
+        else:                            # textured front, mirror behind
+            t_twice = transmittance(2.0 * total, "2 total")
+            gain = (1.0 - escape) * r_back * t_twice
         source = entering
     loss = np.broadcast_to(1.0 - gain, shape)
     trapped = ~(loss > 0)
@@ -679,10 +693,9 @@ def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_in
     with np.errstate(divide="ignore", invalid="ignore"):
         flux = np.where(trapped, np.nan, source / np.where(trapped, 1.0, loss))
     if flat_front:                       # flux = U, leaving the back upwards
-        g_bottoms = returning(total + bottoms, "total + bottoms")
         g_total = returning(total, "total", t_x=through)
-        g_tops = np.concatenate([g_total[None], g_bottoms[:-1]]) if alphas else g_bottoms
-        down_after = g_tops - g_bottoms
+        g_bottom, g_top = pair(returning(total + at, "total + bottoms" + slot), g_total)
+        down_after = g_top - g_bottom
         absorbed = flux * (up_once + down_after)
         escaped = flux * (through - g_total)
         transmitted = (1.0 - r_back) * (reaching_back + flux * g_twice)
@@ -692,12 +705,17 @@ def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_in
         escaped = escape * through * up
         transmitted = (1.0 - r_back) * through * flux
     else:
-        up_after = (transmittance(np.maximum(2.0 * total - bottoms, 0.0), "2 total - bottoms")
-                    - transmittance(2.0 * total - tops, "2 total - tops"))
+        later_bottom, later_top = pair(transmittance(np.maximum(2.0 * total - at, 0.0), "2 total - bottoms" + slot),
+                                       t_twice)
+        up_after = later_bottom - later_top
         absorbed = flux * (down_once + r_back * up_after)
         escaped = escape * r_back * t_twice * flux
         transmitted = (1.0 - r_back) * through * flux
-    return absorbed, escaped, transmitted
+    if layers is None:
+        return absorbed, escaped, transmitted
+    every = np.full((count,) + shape, np.nan)
+    every[wanted] = absorbed
+    return every, escaped, transmitted
 
 
 def generation_profile(depth_m, *, alpha_per_m, thickness_m, downward_flux, upward_flux=0.0):

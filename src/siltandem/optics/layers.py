@@ -66,8 +66,13 @@ def _band_to_band(material, wavelength, temperature, reuse):
     return found[2]
 
 
-def layer_light(model, wavelength, flux, reuse=None):
+def layer_light(model, wavelength, flux, reuse=None, *, collecting_only=False):
     """Coating, Beer-Lambert in every layer, collection of every subcell; flux (..., M).
+
+    ``collecting_only``: the scattered light's absorption is worked out for the subcells' layers
+    only (a study needs their collection, not the whole photon budget: the other layers' rows of
+    ``budget.absorbed`` are NaN); the collected currents are the same numbers bit for bit
+    (thinfilm.layer_absorption's ``layers``).
 
     The grid shades ``model.shading_fraction`` f of the front: the light entering the stack is
     (1 - f) of ``flux``, and the reflectance and coating absorptance, fractions of the incident
@@ -101,6 +106,8 @@ def layer_light(model, wavelength, flux, reuse=None):
         trapping = dict(back_haze=back_haze, front_haze=front_haze,
                         trapping_index=model.materials[-1].refractive_index(wavelength),
                         ambient_index=model.ambient_index)
+        if collecting_only:
+            trapping["layers"] = sorted({j - films for cell in model.subcells for j in (cell.emitter, cell.base)})
     # the thick layers (from the first emitter down) by Beer-Lambert; the films above it are in the
     # coherent front response, their absorption its absorptance of the incident light
     budget = haze.hazy_layer_absorption(flux, alpha_per_m=alphas[films:], thicknesses_m=thicknesses[films:],
@@ -345,7 +352,7 @@ def light_designs(models, wavelength, flux, reuse=None):
     wavelength, flux = _collecting_grid(wavelength, np.asarray(flux), stop, reuse)
     for start in range(0, len(models), LIGHT_BATCH):
         part = models[start:start + LIGHT_BATCH]
-        light = layer_light(stacked_model(part), wavelength, flux, reuse)
+        light = layer_light(stacked_model(part), wavelength, flux, reuse, collecting_only=True)
         for k in range(len(part)):
             out.append([_photocurrent(_row(c.emitter_A_m2 + c.depletion_A_m2 + c.base_A_m2, k), wavelength)
                         for c in light.collected])

@@ -5,7 +5,8 @@ import functools
 from siltandem.report.plots import axis_label
 from siltandem.result.record import provenance
 from siltandem.studies.runner import run_chunks
-from siltandem.studies.sweep import check_study, design_table, evaluate_chunk, resolved_light
+from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, forget_study_reuse,
+                                     resolved_light)
 from siltandem.stack.inputs import input_files
 
 
@@ -26,11 +27,14 @@ def design_map(stack, first, second, *, workers=None, cluster=None, output=None,
     function = functools.partial(evaluate_chunk, stack=stack, spectrum=spectrum, suns=suns,
                                  temperature_K=temperature_K,
                                  light=resolved_light(stack, spectrum=spectrum))
-    return run_chunks(function, table, workers=workers, cluster=cluster, output=output,
-                      progress=progress, chunk_rows=chunk_rows,
-                      inputs=input_files(stack, spectrum=spectrum),
-                      metadata=provenance(stack, spectrum=spectrum, suns=suns,
-                                          temperature_K=temperature_K))
+    try:
+        return run_chunks(function, table, workers=workers, cluster=cluster, output=output,
+                          progress=progress, chunk_rows=chunk_rows,
+                          inputs=input_files(stack, spectrum=spectrum),
+                          metadata=provenance(stack, spectrum=spectrum, suns=suns,
+                                              temperature_K=temperature_K))
+    finally:
+        forget_study_reuse()        # the chunks' shared parts (sweep.study_reuse) go with the study
 
 
 def optimum(table, column="efficiency_pct"):

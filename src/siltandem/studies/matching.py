@@ -18,8 +18,8 @@ from scipy import optimize
 from siltandem.studies.runner import run_chunks
 from siltandem import units
 from siltandem.result.record import provenance
-from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, photocurrents_at,
-                                     resolved_light, solve_designs)
+from siltandem.studies.sweep import (check_study, design_table, evaluate_chunk, forget_study_reuse,
+                                     photocurrents_at, resolved_light, solve_designs)
 from siltandem.stack.inputs import input_files
 
 
@@ -45,9 +45,12 @@ def match_currents(stack, variation, *, workers=None, cluster=None, output=None,
     table = design_table([variation])
     function = functools.partial(evaluate_chunk, stack=stack, **options,
                                  light=resolved_light(stack, spectrum=spectrum))
-    table = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
-                       progress=progress, inputs=input_files(stack, spectrum=spectrum),
-                       metadata=provenance(stack, **options))
+    try:
+        table = run_chunks(function, table, workers=workers, cluster=cluster, output=output,
+                           progress=progress, inputs=input_files(stack, spectrum=spectrum),
+                           metadata=provenance(stack, **options))
+    finally:
+        forget_study_reuse()        # the chunks' shared parts (sweep.study_reuse) go with the study
     names = [c[: -len(".photocurrent_mA_cm2")] for c in table.columns
              if c.endswith(".photocurrent_mA_cm2")]
     x = table[variation.column].to_numpy()

@@ -7,6 +7,7 @@ so the same chunks run in this process, on a local pool or on a Dask cluster (pa
 """
 from dataclasses import dataclass, replace
 import functools
+import threading
 import warnings
 
 import numpy as np
@@ -294,7 +295,7 @@ def layer_design(stack, values):
 
 
 def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None,
-                         light=None):
+                         light=None, reuse=None):
     """Layer stacks: every design compiled and illuminated on its own (its optics and layer
     physics differ), then the designs of one recognised structure (circuit/batch.py
     structure_key: the same elements in the same order, of the same kinds and settings) joined
@@ -308,7 +309,7 @@ def _solve_layer_designs(stack, columns, *, spectrum=None, suns=None, temperatur
     conditions = replace(conditions, **changes)
     light = study_light(stack, spectrum=spectrum, suns=conditions.suns, light=light)
     flat = {c: np.asarray(v).reshape(-1) for c, v in columns.items()}
-    reuse = {}                      # parts equal between designs, built once
+    reuse = {} if reuse is None else reuse      # parts equal between designs, built once
     compiled = [compile_stack(replace(layer_design(stack, {c: v[k] if v.size > 1 else v[0]
                                                            for c, v in flat.items()}),
                                       conditions=conditions), reuse) for k in range(size)]
@@ -387,7 +388,7 @@ def with_values(stack, columns):
     return replace(stack, elements=tuple(changed))
 
 
-def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None, light=None):
+def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=None, light=None, reuse=None):
     """Solve B designs at once: ``columns`` maps ``element.key`` -> (B,) values. ``light``: the
     study's spectrum at one sun, already read (:func:`resolved_light`); None reads it here.
 
@@ -400,7 +401,7 @@ def solve_designs(stack, columns, *, spectrum=None, suns=None, temperature_K=Non
     suns, temperature_K = check_conditions(suns=suns, temperature_K=temperature_K)
     if stack.layers and columns:
         return _solve_layer_designs(stack, columns, spectrum=spectrum, suns=suns,
-                                    temperature_K=temperature_K, light=light)
+                                    temperature_K=temperature_K, light=light, reuse=reuse)
     conditions = stack.conditions
     changes = {k: v for k, v in (("spectrum", spectrum), ("suns", suns),
                                  ("temperature_K", temperature_K)) if v is not None}
@@ -480,18 +481,44 @@ def resolved_light(stack, *, spectrum=None):
     return study_light(stack, spectrum=spectrum, suns=1.0)
 
 
+#: the last study's reuse dict, per thread (a Dask worker may run chunks in threads)
+_STUDY_REUSE = threading.local()
+
+
+def study_reuse(stack, light, options):
+    """The reuse dict of a layer study (compile and optics parts equal between designs, built once:
+    numerics/memo.py), kept between the chunks of one study in one process (thread): the chunks
+    of a 100 x 100 map would otherwise rebuild the parts of each distinct layer value five times.
+    The same study is the same ``stack`` and ``light`` objects (held here, so their ids stay
+    theirs) and ``options`` (the same objects); every remembered part is keyed by all its inputs, so a design's
+    numbers do not depend on what its chunk found there. One study is kept: another drops it."""
+    last = getattr(_STUDY_REUSE, "last", None)
+    if last is not None and last[0] is stack and last[1] is light and len(last[2]) == len(options) \
+            and all(a is b for a, b in zip(last[2], options)):
+        return last[3]
+    reuse = {}
+    _STUDY_REUSE.last = (stack, light, options, reuse)
+    return reuse
+
+
+def forget_study_reuse():
+    """Let this thread's kept study reuse dict go (:func:`study_reuse`; a study calls it when done)."""
+    _STUDY_REUSE.last = None
+
+
 def evaluate_chunk(chunk, *, stack, spectrum=None, suns=None, temperature_K=None, light=None):
     """Study function for parallel.run_chunks: the chunk's designs solved in batches of at most
     runner.MAX_CHUNK_ROWS, so that every design is solved through the same junction tables
     whatever the chunk size (bit-identical rows in-process, chunked and on a cluster)."""
     from siltandem.studies.runner import MAX_CHUNK_ROWS
 
+    reuse = study_reuse(stack, light, (spectrum, suns, temperature_K))
     parts = []
     for start in range(0, len(chunk), MAX_CHUNK_ROWS):
         part = chunk.iloc[start:start + MAX_CHUNK_ROWS]
         columns = {c: part[c].to_numpy(dtype=float) for c in part.columns if c != "design"}
         parts.append(solve_designs(stack, columns, spectrum=spectrum, suns=suns,
-                                   temperature_K=temperature_K, light=light))
+                                   temperature_K=temperature_K, light=light, reuse=reuse))
     out = chunk.copy()
     for key in parts[0]:
         out[key] = np.concatenate([part[key] for part in parts])
