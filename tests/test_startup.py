@@ -191,3 +191,35 @@ def test_a_big_stack_hands_over_to_numba_after_the_interpreted_budget(tmp_path):
              "mode = jit.mode()\n"
              "print(first == k.total(1000) == 0.5 * 999 * 1000 / 2, mode, 'numba' in sys.modules)\n")
     assert _python(probe) == "True compiled True"
+
+
+def test_a_layer_stack_that_spends_its_budget_switches_with_every_kernel_compilable():
+    """A plain `run` whose interpreted budget runs out mid-solve compiles every kernel, the
+    Fermi-Dirac kernels (laws/compiled_fermi.py) included, whose module tables are built only when
+    compiled: they must exist before numba freezes them (numerics/jit.before_compile). Reference:
+    the same demo's summary solved compiled in this process, every number equal."""
+    from siltandem.result.driver import run_stack
+    from siltandem.stack.load import load_stack
+
+    # numba's on-disk cache keeps the values frozen at the first compilation, so the end-to-end
+    # run below passes once any process has compiled these kernels: the tables' presence at the
+    # switch is checked directly (a fresh clone has no cache; there the run would fail without it)
+    probe = ("from siltandem.numerics import jit\n"
+             "assert jit.interpret_kernels()\n"
+             "from siltandem.laws import compiled_fermi as f\n"
+             "before = f._TABLES is None\n"
+             "jit.compile_all()\n"
+             "print(before, f._TABLES is not None and f._NODES.size > 0, jit.mode())\n")
+    assert _python(probe) == "True True compiled"
+    path = str(ROOT / "stacks" / "demo_dual_layers.toml")
+    probe = ("import json, sys\n"
+             "from siltandem.numerics import jit\n"
+             "assert jit.interpret_kernels()\n"
+             "jit.INTERPRETED_BUDGET_S = 0.0\n"
+             "from siltandem.result.driver import run_stack\n"
+             "from siltandem.stack.load import load_stack\n"
+             f"out = run_stack(load_stack({path!r})).summary\n"
+             "print(json.dumps([out, jit.mode()]))\n")
+    out, mode = json.loads(_python(probe))
+    assert mode == "compiled"
+    assert out == json.loads(json.dumps(run_stack(load_stack(path)).summary))

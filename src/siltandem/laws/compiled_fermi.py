@@ -72,6 +72,8 @@ _INTERVALS = _DEGREE = 0
 
 def _load_tables():
     global _TABLES, _SOMMERFELD, _GAMMA2, _LOW, _HIGH, _NODES, _WEIGHTS, _INTERVALS, _DEGREE
+    if _TABLES is not None:
+        return
     from siltandem.laws.fermi_dirac import kernel_tables
 
     _TABLES, _SOMMERFELD, _GAMMA2, _LOW, _HIGH, _NODES, _WEIGHTS = kernel_tables()
@@ -80,6 +82,10 @@ def _load_tables():
 
 if numba.mode() == "compiled":
     _load_tables()
+else:
+    # an interpreted process that switches to numba later (its budget spent, or an arithmetic
+    # error) compiles every kernel, these included: the tables must exist by then
+    numba.before_compile(_load_tables)
 _POWERS = np.array([2.0 ** (j + 1.0) for j in (-0.5, 0.5, 1.5)])
 _ORDERS = np.array([-0.5, 0.5, 1.5])
 _EPS = 2.220446049250313e-16

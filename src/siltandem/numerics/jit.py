@@ -30,6 +30,16 @@ INTERPRETED_BUDGET_S = 0.3
 _KERNELS = []
 #: the errors the interpreter raises where compiled code gives inf or NaN
 FALLBACK_ERRORS = (ArithmeticError, ValueError)
+#: functions run before the kernels switch to numba: a kernel module whose module-level data numba
+#: freezes at compilation, and which builds that data only when compiled (laws/compiled_fermi.py's
+#: tables), registers its builder here with :func:`before_compile`
+_BEFORE_COMPILE = []
+
+
+def before_compile(function):
+    """Run ``function()`` (idempotent) before :func:`compile_all` switches the kernels; returns it."""
+    _BEFORE_COMPILE.append(function)
+    return function
 
 
 def interpret_kernels():
@@ -103,6 +113,8 @@ def compile_all():
     compiled kernels."""
     import numba
 
+    for prepare in _BEFORE_COMPILE:
+        prepare()
     for kernel in _KERNELS:
         if kernel.dispatcher is None:
             kernel.dispatcher = numba.njit(**kernel.options)(kernel.py_func)
