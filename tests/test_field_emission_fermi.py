@@ -180,3 +180,24 @@ def test_inverse_returns_the_voltage_and_the_slope_matches_differences(fermi_eV)
     flat = float(ff.fermi_field_current_density(0.4, accumulation_fermi_eV=fermi_eV, **law))
     with np.errstate(all="ignore"):
         assert np.isnan(ff.fermi_field_voltage(2 * abs(flat) + 1.0, accumulation_fermi_eV=fermi_eV, **law))
+
+
+@pytest.mark.parametrize("fermi_eV", [-0.05, 0.1, 0.3])
+def test_slope_range_holds_sampled_slopes_and_shrinks(fermi_eV):
+    """Interval arithmetic (R. E. Moore, R. B. Kearfott, M. J. Cloud, Introduction to Interval
+    Analysis, SIAM 2009): every dJ/dV sampled inside a cell lies in the cell's range; the range
+    shrinks toward the point slope as the cell does."""
+    rng = np.random.default_rng(18)
+    for _ in range(4):
+        law = dict(barrier_eV=rng.uniform(0.2, 0.8), built_in_V=rng.uniform(0.1, 0.6), alpha=10 ** rng.uniform(-1, 1),
+                   richardson_A_m2_K2=5e5, temperature_K=T, field_energy_eV=10 ** rng.uniform(-2.5, -1),
+                   spike_eV=rng.uniform(0.05, 0.6))
+        a, b = np.sort(rng.uniform(-0.6, law["built_in_V"] - 0.01, 2))
+        inside = np.linspace(a, b, 41)
+        _, dj = ff.fermi_field_current_density(inside, accumulation_fermi_eV=fermi_eV, with_derivative=True, **law)
+        low, high = ff.fermi_field_slope_range(a, b, accumulation_fermi_eV=fermi_eV, **law)
+        assert np.all(dj >= low) and np.all(dj <= high), (law, a, b, low, high, dj.min(), dj.max())
+        mid = 0.5 * (a + b)
+        _, point = ff.fermi_field_current_density(mid, accumulation_fermi_eV=fermi_eV, with_derivative=True, **law)
+        low, high = ff.fermi_field_slope_range(mid - 1e-6, mid + 1e-6, accumulation_fermi_eV=fermi_eV, **law)
+        assert low <= point <= high and (high - low) < 1e-3 * abs(point), (low, point, high)

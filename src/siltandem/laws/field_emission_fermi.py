@@ -30,11 +30,11 @@ import numpy as np
 
 from siltandem.laws import thermionic as te
 from siltandem.laws.fermi_dirac import charge_integral
-from siltandem.laws.field_emission import tunnelling_gain
+from siltandem.laws.field_emission import slope_range_from_split, tunnelling_gain
 from siltandem.laws.interface_charge import bending_split
 from siltandem.numerics.roots import safeguarded_newton
 
-__all__ = ["fermi_field_current_density", "fermi_field_voltage"]
+__all__ = ["fermi_field_current_density", "fermi_field_voltage", "fermi_field_slope_range"]
 
 
 def _arrays(first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
@@ -130,3 +130,21 @@ def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richards
     _, djdv, _ = _current(v, *law)
     with np.errstate(divide="ignore", invalid="ignore"):
         return volt, (1.0 / djdv).reshape(shape)
+
+
+def fermi_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
+                            temperature_K, field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf):
+    """Smallest and largest dJ/dV [A m^-2 V^-1] between two voltages (v_low <= v_high, inside the
+    domain), for the certificate: dJ/dV = (P/Vt) e^v1 G [1 + (e^v - 1)(q - L h)] with q = A/(A + s),
+    h = A s/(A + s), A = alpha dg1/dv1, s = 1 - e^-v2, the form of the exact depletion side in
+    laws/field_emission.py, whose bracket (`slope_range_from_split`) needs only that A and w rise
+    with v1 and v1, v2 fall as V rises: dg1/dx rises with x for a Fermi-Dirac side too
+    (laws/interface_charge.py general_slope_range), and the balance is monotone."""
+    lows, highs = np.broadcast_arrays(np.asarray(v_low_V, float), np.asarray(v_high_V, float))
+    shape, both, vbi, alpha, vt, log_p, e00, spike, eta1 = _arrays(
+        np.stack([lows, highs]), barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
+        field_energy_eV, spike_eV, accumulation_fermi_eV)
+    v = both / vt
+    v1 = bending_split(vbi - v, alpha, eta1, None, 0.0)
+    g1, dg1, _ = charge_integral(v1, eta1)
+    return slope_range_from_split(v, v1, alpha * dg1, alpha * g1, vbi, vt, log_p, e00, spike, 2.0, shape[1:])
