@@ -201,3 +201,59 @@ def test_slope_range_holds_sampled_slopes_and_shrinks(fermi_eV):
         _, point = ff.fermi_field_current_density(mid, accumulation_fermi_eV=fermi_eV, with_derivative=True, **law)
         low, high = ff.fermi_field_slope_range(mid - 1e-6, mid + 1e-6, accumulation_fermi_eV=fermi_eV, **law)
         assert low <= point <= high and (high - low) < 1e-3 * abs(point), (low, point, high)
+
+
+def materials_element(monkeypatch, switch, **extra):
+    """p-GaP/p-Si at 1e19/1e19 from the library (the Si side, within 3 kT of its valence band,
+    accumulates), with circuit/isotype.py's FERMI_DIRAC_FIELD set to ``switch``."""
+    from siltandem.circuit import isotype
+    from siltandem.stack.load import ElementSpec
+
+    monkeypatch.setattr(isotype, "FERMI_DIRAC_FIELD", switch)
+    values = dict(upper_material="GaP", lower_material="Si", upper_doping_cm3=1e19, lower_doping_cm3=1e19,
+                  carrier="hole", carriers_flow="down") | extra
+    return isotype.isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values), T, None)
+
+
+def test_element_is_boltzmann_unless_switched_on_and_boltzmann_key_wins(monkeypatch):
+    """Off (the default): the element has no Fermi level, the compiled Boltzmann law serves it and
+    the degenerate depletion side's warning says what stays Boltzmann. On: the accumulation side
+    takes the Fermi-Dirac law (numpy, no compiled rows), the depletion side stays Boltzmann;
+    with statistics = "boltzmann" the element is the default one field for field."""
+    from siltandem.result.summary import _degenerate_side_warnings
+
+    off = materials_element(monkeypatch, False)
+    assert off.transport == "thermionic-field" and off.accumulation_fermi_eV is None
+    assert off.compiled_rows(T) is not None and not off.sides["accumulation"]["fermi_dirac"]
+    said = _degenerate_side_warnings(off)        # GaP (depletion side) is degenerate, Si 26 meV from its band
+    assert len(said) == 1 and "depletion side (GaP" in said[0]
+    assert "no Fermi-Dirac form for the depletion side: its charge, barrier and tunnelling stay Boltzmann" in said[0]
+    on = materials_element(monkeypatch, True)
+    assert on.accumulation_fermi_eV is not None and on.depletion_fermi_eV is None
+    assert on.sides["accumulation"]["fermi_dirac"] and not on.sides["depletion"]["fermi_dirac"]
+    assert on.compiled_rows(T) is None
+    said = [w for w in _degenerate_side_warnings(on) if "accumulation side" in w]
+    assert len(said) == 1 and "Fermi-Dirac statistics for its Fermi level and its charge" in said[0]
+    assert "tunnelling stay Boltzmann" in said[0]
+    boltzmann = materials_element(monkeypatch, True, statistics="boltzmann")
+    assert boltzmann == off and boltzmann.accumulation_fermi_eV is None
+
+
+def test_switched_on_element_runs_the_fermi_law_exactly(monkeypatch):
+    """The element's current, inverse and slope range are laws/field_emission_fermi.py's on its own
+    numbers (checked above against the Poisson/WKB reference), bit for bit, and differ from the
+    Boltzmann element's."""
+    on, off = materials_element(monkeypatch, True), materials_element(monkeypatch, False)
+    law = dict(barrier_eV=on.barrier_eV, built_in_V=on.built_in_V, alpha=on.alpha,
+               richardson_A_m2_K2=on.richardson_A_m2_K2, temperature_K=T, field_energy_eV=on.field_energy_eV,
+               spike_eV=on.offset_eV, accumulation_fermi_eV=on.accumulation_fermi_eV)
+    volts = np.linspace(-0.8, 0.8, 16)[None, :]
+    j, dj = on.law_current(volts, T)
+    j_ref, dj_ref = ff.fermi_field_current_density(volts, with_derivative=True, **law)
+    assert np.array_equal(j, j_ref) and np.array_equal(dj, dj_ref)
+    currents = np.array([[-200.0, 1.0, 200.0]])
+    v, _ = on.voltage(currents, T)
+    v_ref = ff.fermi_field_voltage(on.direction * currents, **law)
+    assert np.array_equal(v, -on.direction * v_ref)
+    j_off, _ = off.law_current(volts, T)
+    assert np.max(np.abs(j / j_off - 1)) > 1e-3

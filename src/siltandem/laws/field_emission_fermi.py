@@ -13,8 +13,10 @@ depletion side's parabola) and the tunnelling gain G(w) is that module's. The em
 Boltzmann supply functions of laws/field_emission.py (J = P e^v1 expm1(v) G(w)): only the charge,
 hence the split, is Fermi-Dirac here.
 
-Not yet compiled and not yet used by the circuit: this is the numpy form and its checks
-(tests/test_field_emission_fermi.py, against a slow Poisson/WKB reference).
+Not yet compiled: the isotype element (circuit/elements.py) runs this numpy form where a
+thermionic-field interface has a Fermi-Dirac accumulation side, which circuit/isotype.py gives it
+only with its switch FERMI_DIRAC_FIELD on (off by default). Checks: tests/test_field_emission_fermi.py,
+against a slow Poisson/WKB reference.
 
 References
 ----------
@@ -38,8 +40,12 @@ __all__ = ["fermi_field_current_density", "fermi_field_voltage", "fermi_field_sl
 
 
 def _arrays(first, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
-            spike_eV, accumulation_fermi_eV):
+            spike_eV, accumulation_fermi_eV, depletion="exact"):
     """Flat reduced arrays: shape, first, vbi, alpha, vt, log P, e00, spike depth, eta1."""
+    if depletion != "exact":
+        raise te.IsotypeParameterError(
+            f"isotype interface: the Fermi-Dirac thermionic-field law has the exact depletion side only (got "
+            f"depletion={depletion!r}); use depletion = \"exact\"")
     extra = np.broadcast_arrays(np.asarray(first, float), np.asarray(field_energy_eV, float),
                                 np.asarray(spike_eV, float), np.asarray(accumulation_fermi_eV, float))
     shape, first, vbi, alpha, vt, log_p = te.prepare_law_arguments(
@@ -73,7 +79,7 @@ def _current(v, vbi, alpha, vt, log_p, e00, spike, eta1, start=None):
 
 def fermi_field_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
                                 temperature_K, field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf,
-                                with_derivative=False):
+                                with_derivative=False, depletion="exact"):
     """Thermionic-field current density [A m^-2] with a Fermi-Dirac accumulation side.
 
     Parameters are those of `siltandem.laws.field_emission.field_emission_current_density`
@@ -87,13 +93,14 @@ def fermi_field_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, ric
     """
     shape, volt, vbi, alpha, vt, log_p, e00, spike, eta1 = _arrays(
         voltage_V, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
-        spike_eV, accumulation_fermi_eV)
+        spike_eV, accumulation_fermi_eV, depletion)
     j, djdv, _ = _current(volt / vt, vbi, alpha, vt, log_p, e00, spike, eta1)
     return (j.reshape(shape), djdv.reshape(shape)) if with_derivative else j.reshape(shape)
 
 
 def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
-                        field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf, with_derivative=False):
+                        field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf, with_derivative=False,
+                        depletion="exact"):
     """Voltage [V] across the interface at a given current density (the inverse of
     `fermi_field_current_density`, same keywords): safeguarded Newton (Numerical Recipes, 3rd ed.
     2007, sec. 9.4, via numerics/roots.safeguarded_newton) on asinh(J/J0) in the reduced voltage,
@@ -101,7 +108,7 @@ def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richards
     flat-band current. Returns V (and dV/dJ [V m^2 A^-1])."""
     shape, jt, vbi, alpha, vt, log_p, e00, spike, eta1 = _arrays(
         current_A_m2, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
-        spike_eV, accumulation_fermi_eV)
+        spike_eV, accumulation_fermi_eV, depletion)
     law = (vbi, alpha, vt, log_p, e00, spike, eta1)
     j_flat = _current(vbi, *law)[0]
     scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
@@ -133,7 +140,8 @@ def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richards
 
 
 def fermi_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
-                            temperature_K, field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf):
+                            temperature_K, field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf,
+                            depletion="exact"):
     """Smallest and largest dJ/dV [A m^-2 V^-1] between two voltages (v_low <= v_high, inside the
     domain), for the certificate: dJ/dV = (P/Vt) e^v1 G [1 + (e^v - 1)(q - L h)] with q = A/(A + s),
     h = A s/(A + s), A = alpha dg1/dv1, s = 1 - e^-v2, the form of the exact depletion side in
@@ -143,8 +151,12 @@ def fermi_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
     lows, highs = np.broadcast_arrays(np.asarray(v_low_V, float), np.asarray(v_high_V, float))
     shape, both, vbi, alpha, vt, log_p, e00, spike, eta1 = _arrays(
         np.stack([lows, highs]), barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
-        field_energy_eV, spike_eV, accumulation_fermi_eV)
+        field_energy_eV, spike_eV, accumulation_fermi_eV, depletion)
     v = both / vt
     v1 = bending_split(vbi - v, alpha, eta1, None, 0.0)
     g1, dg1, _ = charge_integral(v1, eta1)
     return slope_range_from_split(v, v1, alpha * dg1, alpha * g1, vbi, vt, log_p, e00, spike, 2.0, shape[1:])
+
+
+#: (current, inverse, slope range), as circuit/elements.py's isotype element takes them
+LAW_FUNCTIONS = (fermi_field_current_density, fermi_field_voltage, fermi_field_slope_range)
