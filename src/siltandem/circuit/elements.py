@@ -23,7 +23,7 @@ import numpy as np
 from siltandem.laws import diode
 from siltandem.laws import esaki
 from siltandem.laws import silicon
-from siltandem.laws import field_emission, field_emission_fermi
+from siltandem.laws import field_emission
 from siltandem.laws import thermionic
 from siltandem.laws.radiative import radiative_saturation_current
 from siltandem.constants import thermal_voltage_V
@@ -690,7 +690,8 @@ class IsotypeInterface:
     def _functions(self):
         """(current, inverse, slope range) of this interface's transport law."""
         if self.transport == "thermionic-field" and self.accumulation_fermi_eV is not None:
-            return field_emission_fermi.LAW_FUNCTIONS
+            from siltandem.laws.field_emission_fermi import LAW_FUNCTIONS     # scipy: not at start-up
+            return LAW_FUNCTIONS
         if self.transport == "thermionic-field":
             return (field_emission.field_emission_current_density,
                     field_emission.field_emission_voltage, field_emission.field_emission_slope_range)
