@@ -678,6 +678,8 @@ class IsotypeInterface:
         if self.transport == "thermionic-field":
             law.update(depletion=self.depletion, field_energy_eV=self.field_energy_eV,
                        spike_eV=self.offset_eV)
+            if self.accumulation_fermi_eV is not None:        # laws/field_emission_fermi.py
+                law.update(accumulation_fermi_eV=self.accumulation_fermi_eV)
         else:
             law.update(depletion=self.depletion)
             if self.general_law:
@@ -687,6 +689,9 @@ class IsotypeInterface:
 
     def _functions(self):
         """(current, inverse, slope range) of this interface's transport law."""
+        if self.transport == "thermionic-field" and self.accumulation_fermi_eV is not None:
+            from siltandem.laws.field_emission_fermi import LAW_FUNCTIONS     # scipy: not at start-up
+            return LAW_FUNCTIONS
         if self.transport == "thermionic-field":
             return (field_emission.field_emission_current_density,
                     field_emission.field_emission_voltage, field_emission.field_emission_slope_range)
@@ -707,9 +712,10 @@ class IsotypeInterface:
     def compiled_rows(self, temperature_K):
         """Parameter rows (B, P) of the compiled law (laws/compiled_isotype.py), or None where
         this interface's law has no compiled form (the numpy law serves it)."""
-        if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS:
-            return None
         field = self.transport == "thermionic-field"
+        fermi_field = field and self.accumulation_fermi_eV is not None      # numpy only, for now
+        if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS or fermi_field:
+            return None
         form = self.depletion
         if form not in compiled_isotype.FORMS:
             return None

@@ -25,6 +25,11 @@ STATISTICS = ("fermi-dirac", "boltzmann")
 #: key: tunnelling through the spike counted (laws/field_emission.py); "thermionic" restores the
 #: earlier default (emission over the spike only), e.g. to compare
 DEFAULT_TRANSPORT = "thermionic-field"
+#: a thermionic-field interface's accumulation side within FERMI_DIRAC_WITHIN_KT of its band takes
+#: Fermi-Dirac charge (the band-bending split, laws/field_emission_fermi.py; emission and
+#: tunnelling stay Boltzmann, the depletion side too). Off by default until the law is compiled
+#: (numpy only: slow in studies); statistics = "boltzmann" keeps the Boltzmann law either way
+FERMI_DIRAC_FIELD = False
 
 
 def isotype_element(spec, temperature_K, file=None):
@@ -137,9 +142,10 @@ def isotype_from_materials(spec, temperature_K, file, layer_names=None):
     fermi = {}
     statistics = v.get("statistics", "fermi-dirac")
     for role, side in sides.items():
-        # the thermionic-field law has no Fermi-Dirac form: it stays Boltzmann there
+        # the thermionic-field law: Fermi-Dirac on the accumulation side only, with FERMI_DIRAC_FIELD
         side["statistics"] = statistics
-        side["fermi_dirac"] = bool(statistics == "fermi-dirac" and transport == "thermionic"
+        form = transport == "thermionic" or (FERMI_DIRAC_FIELD and role == "accumulation")
+        side["fermi_dirac"] = bool(statistics == "fermi-dirac" and form
                                    and side["fermi_depth_eV"] < FERMI_DIRAC_WITHIN_KT * kt)
         fermi[role] = batch(-side["fermi_depth_eV"]) if side["fermi_dirac"] else None
     sheet = 0.0

@@ -72,6 +72,7 @@ __all__ = [
     "field_emission_current_density",
     "field_emission_voltage",
     "field_emission_slope_range",
+    "slope_range_from_split",
 ]
 
 #: the transport models of an isotype interface: thermionic emission only, or with tunnelling
@@ -645,8 +646,16 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
     v = both / vt
     v1, _ = _bending(vbi - v, alpha_f, form)
     _, a_em1, a_g = te.alpha_terms(alpha_f, v1)
+    return slope_range_from_split(v, v1, a_em1, a_g, vbi, vt, log_p, e00, spike, form, shape[1:])
+
+
+def slope_range_from_split(v, v1, a_em1, a_g, vbi, vt, log_p, e00, spike, form, out):
+    """The bracket of `field_emission_slope_range` from the split at both ends (flat arrays, the
+    low-V ends first, then the high-V ends): reduced v, v1, A = dw/dv1 and w at each end. It holds
+    for any accumulation-side charge law with A and w rising in v1 (laws/field_emission_fermi.py's
+    Fermi-Dirac side too); ``out`` the result's shape."""
     log_g, dlog_g = tunnelling_gain(a_g, field_energy=e00, spike_depth=spike, with_derivative=True)
-    half = both.size // 2
+    half = v.size // 2
     lo, hi = slice(None, half), slice(half, None)          # low V (larger w), high V ends
     l_min, l_max = np.empty(half), np.empty(half)
     _gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
@@ -670,7 +679,6 @@ def field_emission_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alp
         bracket_max = 1.0 + corners.max(axis=0)
         smallest = np.where(bracket_min >= 0, scale[hi], scale[lo]) * bracket_min
         largest = np.where(bracket_max >= 0, scale[lo], scale[hi]) * bracket_max
-    out = shape[1:]
     return ((smallest - 1e-12 * np.abs(smallest)).reshape(out),
             (largest + 1e-12 * np.abs(largest)).reshape(out))
 

@@ -274,13 +274,21 @@ def _degenerate_side_warnings(element):
         head = (f"isotype interface {element.name!r}: the {role} side ({layer}{side['material']}, "
                 f"{doping_cm3:.3g} cm^-3) is {'degenerate' if depth < 0 else 'nearly degenerate'} "
                 f"({where})")
-        if side.get("fermi_dirac"):
+        if side.get("fermi_dirac") and element.transport == "thermionic-field":
+            out.append(head + ": the law takes Fermi-Dirac statistics for its Fermi level and its charge (the "
+                              "band bending); the emission and the tunnelling stay Boltzmann approximations")
+        elif side.get("fermi_dirac"):
             out.append(head + ": the law takes Fermi-Dirac statistics for its Fermi level, band "
                               "bending and emission")
         else:
-            why = (" (the thermionic-field law has no Fermi-Dirac form)"
-                   if element.transport == "thermionic-field" else
-                   ' (statistics = "boltzmann")' if side.get("statistics") == "boltzmann" else "")
+            why = ""
+            if side.get("statistics") == "boltzmann":
+                why = ' (statistics = "boltzmann")'
+            elif element.transport == "thermionic-field" and role == "depletion":
+                why = (" (the thermionic-field law has no Fermi-Dirac form for the depletion side: its charge, "
+                       "barrier and tunnelling stay Boltzmann)")
+            elif element.transport == "thermionic-field":
+                why = " (the thermionic-field law's Fermi-Dirac accumulation side is off by default)"
             out.append(head + ": Fermi-Dirac statistics place its Fermi level, the band bending and "
                               f"the emission stay Boltzmann approximations{why}")
     return out
