@@ -530,8 +530,8 @@ def element_voltages(current, codes, params, grid_u, grid_j, grid_slope, lengths
             for i in range(n):
                 j = current[b, i]
                 if code == ISOTYPE_LAW:
-                    # the same current as the point before (a trace repeats a current where
-                    # its points reach a clipped end): the same pure function, its values again
+                    # the same current as the point before (a quarter of the finite currents of
+                    # the layer map's solve): the inverse is a pure function, its values again
                     if i > 0 and j == current[b, i - 1]:
                         element_voltage[e, b, i] = element_voltage[e, b, i - 1]
                         element_slope[e, b, i] = element_slope[e, b, i - 1]
