@@ -1,6 +1,6 @@
 """Speed of one in-process solve of the layer triple (stacks/demo_triple_layers.toml), with the
 isotype interfaces through the compiled law (laws/compiled_isotype.py) and through the numpy laws
-(circuit/elements.py COMPILED_ISOTYPE = False), both measured in this run.
+(circuit/interface_element.py COMPILED_ISOTYPE = False), both measured in this run.
 
 Three things timed, medians of REPEATS runs each (the first run, which may compile the kernels, is
 not counted):
@@ -20,7 +20,7 @@ import sys
 from pathlib import Path
 
 from siltandem import load_stack
-from siltandem.circuit import elements
+from siltandem.circuit import interface_element
 from siltandem.circuit.compile import compile_stack
 from siltandem.materials.spectra import get_spectrum
 from siltandem.optics.illuminate import illuminate
@@ -36,7 +36,7 @@ CURVE_POINTS = 401
 
 def measure(compiled, repeats):
     """(whole job, string solve, penalties) medians [s] and the efficiency [%]."""
-    elements.COMPILED_ISOTYPE = compiled
+    interface_element.COMPILED_ISOTYPE = compiled
     stack = load_stack(STACK)
     summary = compute_result(stack).summary             # warm-up (and kernel compilation)
     light = get_spectrum(stack.conditions.spectrum, suns=stack.conditions.suns,
@@ -62,7 +62,7 @@ def measure(compiled, repeats):
 def main():
     before = measure(False, max(3, REPEATS // 3))
     after = measure(True, REPEATS)
-    elements.COMPILED_ISOTYPE = True
+    interface_element.COMPILED_ISOTYPE = True
     print(f"layer triple {STACK.name}: medians, numpy isotype laws -> compiled isotype law")
     for k, what in enumerate(("whole main job (compute_result)", "string solve (solve_strings)",
                               "penalties (removal_powers)")):

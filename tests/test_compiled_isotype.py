@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 
 from siltandem import load_stack
-from siltandem.circuit import elements
+from siltandem.circuit import elements, interface_element
 from siltandem.constants import thermal_voltage_V
 from siltandem.laws import field_emission as fe
 from siltandem.laws import thermionic as te
@@ -187,12 +187,12 @@ def test_slope_range_matches_the_numpy_bound_and_contains_the_slopes(transport, 
 def _demo_efficiency(compiled):
     from siltandem.result.driver import compute_result
 
-    saved = elements.COMPILED_ISOTYPE
-    elements.COMPILED_ISOTYPE = compiled
+    saved = interface_element.COMPILED_ISOTYPE
+    interface_element.COMPILED_ISOTYPE = compiled
     try:
         summary = compute_result(load_stack(ROOT / "stacks" / "demo_triple_layers.toml")).summary
     finally:
-        elements.COMPILED_ISOTYPE = saved
+        interface_element.COMPILED_ISOTYPE = saved
     return summary
 
 

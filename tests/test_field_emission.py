@@ -27,7 +27,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from siltandem.circuit import elements
+from siltandem.circuit import interface_element
 from siltandem.circuit.elements import IsotypeInterface, batch
 from siltandem.constants import (BOLTZMANN_EV_K, ELECTRON_MASS_KG, ELEMENTARY_CHARGE_C, PLANCK_J_S,
                                  VACUUM_PERMITTIVITY_F_M)
@@ -203,13 +203,13 @@ def test_thermionic_transport_is_todays_law_exactly():
     j_ref, slope_ref = te.isotype_current_density(volts, with_derivative=True, **exact)
     v_ref, dv_ref = te.isotype_voltage(currents, with_derivative=True, **exact)
     for compiled in (False, True):
-        elements.COMPILED_ISOTYPE = compiled
+        interface_element.COMPILED_ISOTYPE = compiled
         try:
             element = IsotypeInterface("x", transport="thermionic", **common)
             j, slope = element.law_current(volts, 300.0)
             v, dv = element.voltage(currents, 300.0)
         finally:
-            elements.COMPILED_ISOTYPE = True
+            interface_element.COMPILED_ISOTYPE = True
         if compiled:
             np.testing.assert_allclose(j, j_ref, rtol=1e-13)
             np.testing.assert_allclose(slope, slope_ref, rtol=1e-12)
@@ -362,12 +362,12 @@ def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
                richardson_A_m2_K2=plain.richardson_A_m2_K2, temperature_K=300.0, depletion="exact")
     volts = np.linspace(-1.0, 0.9, 41)[None, :]
     currents = np.array([[-200.0, 1.0, 200.0]])
-    elements.COMPILED_ISOTYPE = False
+    interface_element.COMPILED_ISOTYPE = False
     try:
         j, slope = plain.law_current(volts, 300.0)
         v, dv = plain.voltage(currents, 300.0)
     finally:
-        elements.COMPILED_ISOTYPE = True
+        interface_element.COMPILED_ISOTYPE = True
     j_ref, slope_ref = te.isotype_current_density(volts, with_derivative=True, **law)
     v_ref, dv_ref = te.isotype_voltage(plain.direction * currents, with_derivative=True, **law)
     assert np.array_equal(j, j_ref) and np.array_equal(slope, slope_ref)

@@ -149,7 +149,7 @@ def test_materials_default_is_thermionic_field_on_the_exact_side(tmp_path, monke
     and the numpy law give the same voltages to rounding; transport = "thermionic" keeps the
     thermionic law. p-GaP 1e18 / p-Si 1e17 (library materials; invented dopings)."""
     from siltandem import load_stack
-    from siltandem.circuit import elements
+    from siltandem.circuit import interface_element
     from siltandem.circuit.compile import compile_stack
 
     text = ('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\nname = "cell"\n'
@@ -165,7 +165,7 @@ def test_materials_default_is_thermionic_field_on_the_exact_side(tmp_path, monke
     current = np.array([[-300.0, -50.0, -1.0, 1.0, 50.0, 300.0]])
     compiled = default.voltage(current, 300.0)
     assert default.compiled_rows(300.0) is not None
-    monkeypatch.setattr(elements, "COMPILED_ISOTYPE", False)
+    monkeypatch.setattr(interface_element, "COMPILED_ISOTYPE", False)
     numpy_law = type(default)(**{f: getattr(default, f) for f in (
         "name", "barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2", "direction", "carrier",
         "offset_eV", "string", "depletion", "transport", "field_energy_eV")}).voltage(current, 300.0)
