@@ -12,9 +12,9 @@ al., J. Appl. Phys. 97 (2005) 093710 (relative radiative coefficient); A. Schenk
 import math
 from pathlib import Path
 
-from siltandem.laws.silicon import (BULK_COLUMNS, NARROWING_DENSITY_CM3, NARROWING_SLOPE_MARGIN, NARROWING_STEPS,
-                                    NARROWING_TOLERANCE, SCHENK_BOHR_RADIUS_CM, SCHENK_ELECTRON, SCHENK_HOLE,
-                                    SCHENK_RYDBERG_EV, schenk_band_shift)
+from siltandem.laws.silicon import (BULK_COLUMNS, NARROWING_DENSITY_CM3, NARROWING_STEPS, NARROWING_TOLERANCE,
+                                    SCHENK_BOHR_RADIUS_CM, SCHENK_ELECTRON, SCHENK_HOLE, SCHENK_RYDBERG_EV,
+                                    schenk_band_shift, schenk_band_slope_bounds)
 from siltandem.numerics import jit as numba
 from siltandem.numerics.kernel_cache import drop_stale_kernels
 
@@ -34,6 +34,7 @@ _E = SCHENK_ELECTRON
 _H = SCHENK_HOLE
 # the numpy source of laws/silicon.py, compiled for scalars
 _band = numba.njit(cache=True, inline="always", error_model="numpy")(schenk_band_shift)
+_band_bounds = numba.njit(cache=True, inline="always", error_model="numpy")(schenk_band_slope_bounds)
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -48,6 +49,36 @@ def schenk_shift(electron_cm3, hole_cm3, ions_cm3, reduced_temperature):
     value_h, slope_h = _band(p, n_s, n_p, ions, reduced_temperature, _H[0], _H[1], _H[2], _H[3], _H[4],
                              _H[5], _H[6], _H[7], _H[8], _H[9])
     return -SCHENK_RYDBERG_EV * (value_e + value_h), -SCHENK_RYDBERG_EV * _SCALE * (slope_e + slope_h)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def slope_bounds(excess_a, excess_b, p):
+    """Proven bounds [eV cm^3] of d dEg / d dn over the excess densities between excess_a <=
+    excess_b [cm^-3] (laws/silicon.py schenk_slope_bounds for scalars: each band's slope bounded by
+    interval arithmetic on factors monotone in dn, schenk_band_slope_bounds; 0 where the shift is
+    held, dn <= 0 and dn >= NARROWING_DENSITY_CM3; ends widened by 1e-6, bounds by 1e-10 of the
+    cancelling terms for rounding)."""
+    if not excess_b > 0.0:
+        return 0.0, 0.0
+    n0, p0, ions, t = p[BULK_OFFSET + 9], p[BULK_OFFSET + 10], p[BULK_OFFSET + 11], p[BULK_OFFSET + 12]
+    x_a = min(max(excess_a * (1.0 - 1e-6), 0.0), NARROWING_DENSITY_CM3)
+    x_b = min(max(excess_b * (1.0 + 1e-6), 0.0), NARROWING_DENSITY_CM3)
+    n_a, p_a = (n0 + x_a) * _SCALE, (p0 + x_a) * _SCALE
+    n_b, p_b = (n0 + x_b) * _SCALE, (p0 + x_b) * _SCALE
+    s_a, s_b = n_a + p_a, n_b + p_b
+    np_a, np_b = _E[0] * n_a + _H[0] * p_a, _E[0] * n_b + _H[0] * p_b
+    i = ions * _SCALE
+    lo_e, hi_e, size_e = _band_bounds(n_a, n_b, s_a, s_b, np_a, np_b, i, t, _E[0], _E[1], _E[2], _E[3], _E[4],
+                                      _E[5], _E[6], _E[7], _E[8], _E[9])
+    lo_h, hi_h, size_h = _band_bounds(p_a, p_b, s_a, s_b, np_a, np_b, i, t, _H[0], _H[1], _H[2], _H[3], _H[4],
+                                      _H[5], _H[6], _H[7], _H[8], _H[9])
+    unit = SCHENK_RYDBERG_EV * _SCALE
+    allowance = 1e-10 * unit * (size_e + size_h)
+    low = -unit * (hi_e + hi_h) - allowance
+    high = -unit * (lo_e + lo_h) + allowance
+    if not excess_a > 0.0 or not excess_b * (1.0 + 1e-6) < NARROWING_DENSITY_CM3:
+        low, high = min(low, 0.0), max(high, 0.0)
+    return low, high
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -132,11 +163,13 @@ def bulk_slopes(lo, hi, p, inverse):
     by 1e-12): dJ_b/dv = F (dP/dx)(dx/dv) with x rising in v and every part monotone in x --
     s (n + p) and g rise; D rises, its slope's two parts fall and rise; the Auger injection part
     C x^0.92 (1.92 N + 2.92 x) rises; the recombination-rate part (N^2 + 2Nx + 2x^2)/s^2 falls;
-    dx/dv = n p / (Vt (n + p)) rises (n and p both rise) -- combined by interval products."""
+    dx/dv = n p / (Vt (n + p)) rises (n and p both rise) -- combined by interval products; with
+    the injection-dependent narrowing dx/dv = X' / (1 - X' dEg'), dEg' within the proven bounds of
+    slope_bounds over [x(lo), x(hi)]."""
     factor, total, a, b_low, bmin, rate = (p[BULK_OFFSET], p[BULK_OFFSET + 1], p[BULK_OFFSET + 3],
                                            p[BULK_OFFSET + 4], p[BULK_OFFSET + 5], p[BULK_OFFSET + 8])
-    x_lo, g_lo, s_lo, rate_lo, k_lo = bulk_state(lo, p, inverse)
-    x_hi, g_hi, s_hi, rate_hi, k_hi = bulk_state(hi, p, inverse)
+    x_lo, g_lo, s_lo, rate_lo, _ = bulk_state(lo, p, inverse)
+    x_hi, g_hi, s_hi, rate_hi, _ = bulk_state(hi, p, inverse)
     d_lo, fall_lo, rise_lo = _screening(s_lo, p)
     d_hi, fall_hi, rise_hi = _screening(s_hi, p)
     brel_lo = bmin + (1.0 - bmin) / d_hi          # B_rel falls with s
@@ -157,10 +190,9 @@ def bulk_slopes(lo, hi, p, inverse):
     p_lo = first_lo + second_lo + third_lo + fourth_lo
     p_hi = first_hi + second_hi + third_hi + fourth_hi
     spread = 1e-12 * (abs(first_hi) + abs(second_lo) + abs(second_hi) + third_hi + fourth_hi)
-    # dx/dv = X' / (1 - X' dEg'), dEg' within its ends' values widened (laws/silicon.py bulk_slope_range)
-    k_spread = NARROWING_SLOPE_MARGIN * max(abs(k_lo), abs(k_hi))
-    k_small = min(k_lo, k_hi) - k_spread
-    k_large = max(k_lo, k_hi) + k_spread
+    # dx/dv = X' / (1 - X' dEg') rises in X' and in dEg' (X' dEg' < 1): X' within its ends' values,
+    # dEg' within its proven bounds over the cell (slope_bounds; 0 without the narrowing)
+    k_small, k_large = slope_bounds(x_lo, x_hi, p) if p[BULK_OFFSET + 12] > 0.0 else (0.0, 0.0)
     rate_lo = rate_lo / (1.0 - rate_lo * k_small)
     room = 1.0 - rate_hi * k_large
     rate_hi = rate_hi / room if room > 0.0 else math.inf

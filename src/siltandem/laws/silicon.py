@@ -66,8 +66,6 @@ NARROWING_TOLERANCE = 1e-8
 #: are degenerate (the base law's Boltzmann statistics fail) and near 2e20 cm^-3 (300 K) the split
 #: would stop rising with dn (X' dEg' reaches 1); at the cap X' dEg' is 0.33 at 300 K, 0.64 at 150 K
 NARROWING_DENSITY_CM3 = 1e19
-#: relative widening of the range of d dEg / d dn taken from a cell's ends (:func:`bulk_slope_range`)
-NARROWING_SLOPE_MARGIN = 0.05
 
 
 def relative_radiative_parameters(temperature_K):
@@ -235,6 +233,113 @@ def schenk_band_shift(c, n_s, n_p, ions, t, alpha, b, cc, d, g, pw, h, j, k, q):
     return value, slope
 
 
+def schenk_band_slope_bounds(c_a, c_b, n_s_a, n_s_b, n_p_a, n_p_b, ions, t, alpha, b, cc, d, g, pw, h, j,
+                             k, q):
+    """Proven bounds (low, high, size) of one band edge's slope (the second value of
+    :func:`schenk_band_shift`) over every equal excess of electrons and holes between two states
+    a and b: ``c``, ``n_s``, ``n_p`` at each end (reduced units; each rises with the excess), the
+    band's constants as :func:`schenk_band_shift` takes them. ``size`` bounds the magnitude of the
+    terms that cancel (for a rounding allowance: the bounds are exact in real arithmetic).
+
+    Proof. All of c, n_s = n + p, n_p rise with the excess dn (by 1, 2 and 1 per unit; c <= n_s).
+    With A = 8 pi alpha t^2 / g, S = sqrt(8 pi) t^(5/2), W = t^3 + b t^2 sqrt(n_s) + 40 t n_s^(3/2),
+    a = (48 c / (pi g))^(1/3) + cc ln(1 + d n_p^pw) and a' = da/d dn, Schenk's exchange-correlation
+    shift -num/den has the slope -(num' den - num den') / den^2, and expanding (the big-number terms
+    (4 pi)^6 4 n_s^3 a cancel exactly; the n_s a terms combine to a positive sum):
+
+        num' den - num den' = (4 pi)^6 n_s^4 a' + (4 pi)^3 a (4 n_s t^3 + 3 b t^2 n_s^(3/2) + 40 t n_s^(5/2))
+                              + (4 pi)^3 n_s^2 a' W + A ((4 pi)^3 n_s^2 + W) + S t^3 / sqrt(n_s)
+                              - A c (4 (4 pi)^3 n_s + 120 t sqrt(n_s)) - A b t^2 c / sqrt(n_s)
+                              - S (3 (4 pi)^3 n_s^(3/2) + 80 t n_s).
+
+    Every term is a positive constant times a product of positive factors each monotone in dn: a,
+    n_s, W, den rise; a' = (48/(pi g))^(1/3) c^(-2/3) / 3 + cc d pw n_p^(pw-1) / (1 + d n_p^pw)
+    falls (pw < 1); 1/sqrt(n_s) falls; c/sqrt(n_s) rises (its derivative is (n_s - c) / n_s^(3/2)
+    >= 0). The ionic shift -ions (1 + u)/Q, u = n_s^2/t^3, Q = r l + m (r = sqrt(t n_s / 2 pi),
+    l = 1 + h ln(1 + sqrt(n_s)/t), m = j u P, P = n_p^(3/4) (1 + k n_p^q)), has the slope
+    ions I / Q^2 with (r' = r / n_s; the u P terms cancel)
+
+        I = l r / n_s - 3 l r n_s / t^3 + (1 + u) r l' + j u' P + j (1 + u) u P',
+        r l' = sqrt(t / 2 pi) h / (t + sqrt(n_s)),  P' = (3/4) n_p^(-1/4) + (3/4 + q) k n_p^(q - 1/4),
+
+    again products of positive monotone factors (l, r n_s, u, u', P, Q rise; r / n_s and
+    1/(t + sqrt(n_s)) and n_p^(-1/4) fall; n_p^(q - 1/4) is monotone). A monotone factor's range
+    over the excesses between a and b is the span of its two end values, a product of positive
+    factors has the product of their ranges, and sums, differences and the quotients by den^2 and
+    Q^2 (positive) follow by interval arithmetic (R. E. Moore, R. B. Kearfott, M. J. Cloud,
+    Introduction to Interval Analysis, SIAM 2009, ch. 2 and 5). Written with numpy functions
+    only: laws/compiled_bulk.py compiles this source for scalars."""
+    c_a, c_b = np.maximum(c_a, 1e-300), np.maximum(c_b, 1e-300)
+    n_s_a, n_s_b = np.maximum(n_s_a, 1e-300), np.maximum(n_s_b, 1e-300)
+    n_p_a, n_p_b = np.maximum(n_p_a, 1e-300), np.maximum(n_p_b, 1e-300)
+    big = (4.0 * np.pi) ** 3
+    coef_a = 8.0 * np.pi * alpha / g * t * t
+    coef_s = np.sqrt(8.0 * np.pi) * t ** 2.5
+    rs_a, rs_b = np.sqrt(n_s_a), np.sqrt(n_s_b)
+    # end values of the monotone factors (index a, b), then their ranges (low, high)
+    cube_a, cube_b = (48.0 * c_a / (np.pi * g)) ** (1.0 / 3.0), (48.0 * c_b / (np.pi * g)) ** (1.0 / 3.0)
+    pn_a, pn_b = n_p_a ** pw, n_p_b ** pw
+    f_a = cube_a + cc * np.log1p(d * pn_a)
+    f_b = cube_b + cc * np.log1p(d * pn_b)
+    df_a = cube_a / (3.0 * c_a) + cc * d * pw * pn_a / (n_p_a * (1.0 + d * pn_a))
+    df_b = cube_b / (3.0 * c_b) + cc * d * pw * pn_b / (n_p_b * (1.0 + d * pn_b))
+    w_a = t ** 3 + b * rs_a * t * t + 40.0 * n_s_a * rs_a * t
+    w_b = t ** 3 + b * rs_b * t * t + 40.0 * n_s_b * rs_b * t
+    den_a, den_b = big * n_s_a * n_s_a + w_a, big * n_s_b * n_s_b + w_b
+    df_lo, df_hi = np.minimum(df_a, df_b), np.maximum(df_a, df_b)
+    # positive terms of num' den - num den'
+    t1_a, t1_b = big * big * n_s_a ** 4, big * big * n_s_b ** 4
+    t2_a = big * f_a * (4.0 * n_s_a * t ** 3 + 3.0 * b * t * t * n_s_a * rs_a + 40.0 * t * n_s_a * n_s_a * rs_a)
+    t2_b = big * f_b * (4.0 * n_s_b * t ** 3 + 3.0 * b * t * t * n_s_b * rs_b + 40.0 * t * n_s_b * n_s_b * rs_b)
+    t3_a, t3_b = big * n_s_a * n_s_a * w_a, big * n_s_b * n_s_b * w_b
+    t4_a, t4_b = coef_a * (big * n_s_a * n_s_a + w_a), coef_a * (big * n_s_b * n_s_b + w_b)
+    t5_a, t5_b = coef_s * t ** 3 / rs_a, coef_s * t ** 3 / rs_b
+    plus_lo = (np.minimum(t1_a, t1_b) * df_lo + np.minimum(t2_a, t2_b) + np.minimum(t3_a, t3_b) * df_lo
+               + np.minimum(t4_a, t4_b) + np.minimum(t5_a, t5_b))
+    plus_hi = (np.maximum(t1_a, t1_b) * df_hi + np.maximum(t2_a, t2_b) + np.maximum(t3_a, t3_b) * df_hi
+               + np.maximum(t4_a, t4_b) + np.maximum(t5_a, t5_b))
+    # negative terms
+    m_a = coef_a * c_a * (4.0 * big * n_s_a + 120.0 * t * rs_a) + coef_a * b * t * t * c_a / rs_a \
+        + coef_s * (3.0 * big * n_s_a * rs_a + 80.0 * t * n_s_a)
+    m_b = coef_a * c_b * (4.0 * big * n_s_b + 120.0 * t * rs_b) + coef_a * b * t * t * c_b / rs_b \
+        + coef_s * (3.0 * big * n_s_b * rs_b + 80.0 * t * n_s_b)
+    minus_lo, minus_hi = np.minimum(m_a, m_b), np.maximum(m_a, m_b)
+    top_lo, top_hi = plus_lo - minus_hi, plus_hi - minus_lo
+    den_lo, den_hi = np.minimum(den_a, den_b), np.maximum(den_a, den_b)
+    # the exchange-correlation slope -[top] / [den]^2
+    xc_lo = -np.maximum(top_hi / (den_lo * den_lo), top_hi / (den_hi * den_hi))
+    xc_hi = -np.minimum(top_lo / (den_hi * den_hi), top_lo / (den_lo * den_lo))
+    # ionic part
+    u_a, u_b = n_s_a * n_s_a / t ** 3, n_s_b * n_s_b / t ** 3
+    r_a, r_b = np.sqrt(t * n_s_a / (2.0 * np.pi)), np.sqrt(t * n_s_b / (2.0 * np.pi))
+    l_a, l_b = 1.0 + h * np.log1p(rs_a / t), 1.0 + h * np.log1p(rs_b / t)
+    kq_a, kq_b = 1.0 + k * n_p_a ** q, 1.0 + k * n_p_b ** q
+    big_p_a, big_p_b = n_p_a ** 0.75 * kq_a, n_p_b ** 0.75 * kq_b
+    big_q_a, big_q_b = r_a * l_a + j * u_a * big_p_a, r_b * l_b + j * u_b * big_p_b
+    l_lo, l_hi = np.minimum(l_a, l_b), np.maximum(l_a, l_b)
+    one_u_lo, one_u_hi = 1.0 + np.minimum(u_a, u_b), 1.0 + np.maximum(u_a, u_b)
+    uu_lo, uu_hi = np.minimum((1.0 + u_a) * u_a, (1.0 + u_b) * u_b), np.maximum((1.0 + u_a) * u_a, (1.0 + u_b) * u_b)
+    i1_lo = l_lo * np.minimum(r_a / n_s_a, r_b / n_s_b)
+    i1_hi = l_hi * np.maximum(r_a / n_s_a, r_b / n_s_b)
+    i2_lo = 3.0 * np.minimum(l_a * r_a * n_s_a, l_b * r_b * n_s_b) / t ** 3
+    i2_hi = 3.0 * np.maximum(l_a * r_a * n_s_a, l_b * r_b * n_s_b) / t ** 3
+    e_a, e_b = np.sqrt(t / (2.0 * np.pi)) * h / (t + rs_a), np.sqrt(t / (2.0 * np.pi)) * h / (t + rs_b)
+    i3_lo, i3_hi = one_u_lo * np.minimum(e_a, e_b), one_u_hi * np.maximum(e_a, e_b)
+    i4_a, i4_b = j * 4.0 * n_s_a / t ** 3 * big_p_a, j * 4.0 * n_s_b / t ** 3 * big_p_b
+    g_a, g_b = 0.75 * n_p_a ** -0.25, 0.75 * n_p_b ** -0.25
+    e2_a, e2_b = (0.75 + q) * k * n_p_a ** (q - 0.25), (0.75 + q) * k * n_p_b ** (q - 0.25)
+    i5_lo = j * uu_lo * (np.minimum(g_a, g_b) + np.minimum(e2_a, e2_b))
+    i5_hi = j * uu_hi * (np.maximum(g_a, g_b) + np.maximum(e2_a, e2_b))
+    ion_lo = i1_lo + i3_lo + np.minimum(i4_a, i4_b) + i5_lo - i2_hi
+    ion_hi = i1_hi + i3_hi + np.maximum(i4_a, i4_b) + i5_hi - i2_lo
+    q_lo, q_hi = np.minimum(big_q_a, big_q_b), np.maximum(big_q_a, big_q_b)
+    ionic_lo = ions * np.minimum(ion_lo / (q_hi * q_hi), ion_lo / (q_lo * q_lo))
+    ionic_hi = ions * np.maximum(ion_hi / (q_lo * q_lo), ion_hi / (q_hi * q_hi))
+    size = (plus_hi + minus_hi) / (den_lo * den_lo) + ions * (i1_hi + i2_hi + i3_hi + np.maximum(i4_a, i4_b)
+                                                              + i5_hi) / (q_lo * q_lo)
+    return xc_lo + ionic_lo, xc_hi + ionic_hi, size
+
+
 def schenk_shift(electron_cm3, hole_cm3, ions_cm3, reduced_temperature):
     """Schenk's band-gap narrowing dEg [eV] (:func:`schenk_gap_narrowing`, the same equations)
     and its derivative d dEg / d dn [eV cm^3] with respect to an equal excess dn = dp of electrons
@@ -250,6 +355,42 @@ def schenk_shift(electron_cm3, hole_cm3, ions_cm3, reduced_temperature):
     value_h, slope_h = schenk_band_shift(p, n_s, n_p, ions, reduced_temperature, h[0], h[1], h[2], h[3], h[4],
                                          h[5], h[6], h[7], h[8], h[9])
     return -SCHENK_RYDBERG_EV * (value_e + value_h), -SCHENK_RYDBERG_EV * scale * (slope_e + slope_h)
+
+
+def schenk_slope_bounds(excess_a_cm3, excess_b_cm3, n0_cm3, p0_cm3, ions_cm3, reduced_temperature):
+    """Proven bounds (low, high) [eV cm^3] of d dEg / d dn of the base law's narrowing over every
+    excess density dn between ``excess_a_cm3`` <= ``excess_b_cm3`` (cm^-3, the ends of a cell as
+    :func:`injected_state` solves them): Schenk's slope (:func:`schenk_shift`) bounded band by band
+    by :func:`schenk_band_slope_bounds` for 0 < dn < NARROWING_DENSITY_CM3, and 0 where the law
+    holds the shift (dn <= 0, dn >= NARROWING_DENSITY_CM3). The ends are widened by a relative
+    1e-6 (the Newton solve of the ends stops at a relative step of NARROWING_TOLERANCE = 1e-8) and
+    the bounds by 1e-10 of the cancelling terms' size (rounding). ``ions_cm3`` = N_D + N_A,
+    ``reduced_temperature`` t = kT / Ry_ex > 0. laws/compiled_bulk.py ``slope_bounds`` is the
+    same for scalars."""
+    scale = SCHENK_BOHR_RADIUS_CM ** 3
+    a = np.asarray(excess_a_cm3, dtype=float)
+    b = np.asarray(excess_b_cm3, dtype=float)
+    x_a = np.clip(a * (1.0 - 1e-6), 0.0, NARROWING_DENSITY_CM3)
+    x_b = np.clip(b * (1.0 + 1e-6), 0.0, NARROWING_DENSITY_CM3)
+    ends = []
+    for x in (x_a, x_b):
+        n, p = (n0_cm3 + x) * scale, (p0_cm3 + x) * scale
+        ends.append((n, p, n + p, SCHENK_ELECTRON[0] * n + SCHENK_HOLE[0] * p))
+    (n_a, p_a, s_a, np_a), (n_b, p_b, s_b, np_b) = ends
+    ions = ions_cm3 * scale
+    e, h = SCHENK_ELECTRON, SCHENK_HOLE
+    lo_e, hi_e, size_e = schenk_band_slope_bounds(n_a, n_b, s_a, s_b, np_a, np_b, ions, reduced_temperature,
+                                                  *e)
+    lo_h, hi_h, size_h = schenk_band_slope_bounds(p_a, p_b, s_a, s_b, np_a, np_b, ions, reduced_temperature,
+                                                  *h)
+    unit = SCHENK_RYDBERG_EV * scale
+    allowance = 1e-10 * unit * (size_e + size_h)
+    low = -unit * (hi_e + hi_h) - allowance
+    high = -unit * (lo_e + lo_h) + allowance
+    held = (a <= 0.0) | (b * (1.0 + 1e-6) >= NARROWING_DENSITY_CM3)
+    low, high = np.where(held, np.minimum(low, 0.0), low), np.where(held, np.maximum(high, 0.0), high)
+    off = b <= 0.0
+    return np.where(off, 0.0, low), np.where(off, 0.0, high)
 
 
 def doped_gap_narrowing(doping_cm3, polarity, *, temperature_K, model="schenk"):
@@ -434,10 +575,9 @@ def bulk_slope_range(v_low_V, v_high_V, columns, *, temperature_K):
     F (dP/dx)(dx/dv), every part monotone in the excess density x (s = n + p and g rise; D rises,
     its slope's parts fall and rise; the Auger injection part rises; the SRH/surface part
     (N^2 + 2Nx + 2x^2)/s^2 falls; dx/dv = n p / (Vt s) rises), combined by interval products.
-    With the narrowing, dx/dv = X' / (1 - X' dEg') and dEg' is bounded from its values at the
-    cell's ends widened by NARROWING_SLOPE_MARGIN: an enclosure checked on sampled cells
-    (tests/test_silicon_narrowing.py), not proven. The numpy form of
-    laws/compiled_bulk.py ``bulk_slopes``."""
+    With the narrowing, dx/dv = X' / (1 - X' dEg') rises in X' and in dEg' (while X' dEg' < 1),
+    and dEg' is taken within its proven bounds over the cell's excess densities
+    (:func:`schenk_slope_bounds`). The numpy form of laws/compiled_bulk.py ``bulk_slopes``."""
     factor, total, ni2, a, b_low, bmin, b1, b3, rate = columns[:9]
     ends = []
     for v in (np.asarray(v_low_V, dtype=float), np.asarray(v_high_V, dtype=float)):
@@ -445,13 +585,13 @@ def bulk_slope_range(v_low_V, v_high_V, columns, *, temperature_K):
         t1, t3 = (s / b1) ** RADIATIVE_B2, (s / b3) ** RADIATIVE_B4
         with np.errstate(over="ignore"):
             ends.append((x, g, s, 1.0 + t1 + t3, RADIATIVE_B2 * t1 / s, RADIATIVE_B4 * t3 / s, r, shift_slope))
-    (x_lo, g_lo, s_lo, d_lo, fall_lo, rise_lo, r_lo, k_lo), (x_hi, g_hi, s_hi, d_hi, fall_hi, rise_hi,
-                                                              r_hi, k_hi) = ends
-    # dx/dv = X' / (1 - X' dEg'): X' rises with x; dEg' is taken within its values at the ends,
-    # widened by NARROWING_SLOPE_MARGIN of the larger (not a proof: it has up to two turning points in x)
-    k_spread = NARROWING_SLOPE_MARGIN * np.maximum(np.abs(k_lo), np.abs(k_hi))
-    k_small = np.minimum(k_lo, k_hi) - k_spread
-    k_large = np.maximum(k_lo, k_hi) + k_spread
+    (x_lo, g_lo, s_lo, d_lo, fall_lo, rise_lo, r_lo, _), (x_hi, g_hi, s_hi, d_hi, fall_hi, rise_hi,
+                                                              r_hi, _) = ends
+    # dx/dv = X' / (1 - X' dEg'): X' rises with x; dEg' within its proven bounds over [x_lo, x_hi]
+    n0, p0, ions, reduced = columns[9:13]
+    on = np.asarray(reduced) > 0
+    k_small, k_large = schenk_slope_bounds(x_lo, x_hi, n0, p0, ions, np.where(on, reduced, 1.0))
+    k_small, k_large = np.where(on, k_small, 0.0), np.where(on, k_large, 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         r_lo = r_lo / (1.0 - r_lo * k_small)
         room = 1.0 - r_hi * k_large
