@@ -156,8 +156,9 @@ def test_compiled_law_with_narrowing_is_numpy_and_its_slopes_are_enclosed(n0, p0
 @pytest.mark.parametrize("temperature", [250.0, 350.0])
 @pytest.mark.parametrize("n0, p0", [(1e14, 0.0), (0.0, 1e17), (1e18, 0.0)])
 def test_slope_enclosure_with_narrowing_holds_on_sampled_cells_at_other_temperatures(n0, p0, temperature):
-    # the enclosure's dEg' range comes from the cell's ends (not proven): sampled slopes of the
-    # compiled law inside 400 random cells up to high injection (our own law against itself)
+    # the enclosure takes dEg' within its proven bounds over the cell (tests/test_silicon_narrowing_slope.py
+    # checks those): sampled slopes of the compiled law inside 400 random cells up to high injection
+    # (our own law against itself)
     columns = _columns(n0, p0, temperature_K=temperature)
     vt = float(thermal_voltage_V(temperature))
     rows = kernels.parameter_rows(kernels.SUBCELL_LAW, [[0.0, 0.0, 0.0, 0.0, vt, -np.inf, 0.0, 3.28]],
