@@ -63,7 +63,7 @@ def volts_of(law, n=25):
 
 def test_forward_matches_the_numpy_law_to_rounding():
     """J and dJ/dV against laws/field_emission_fermi.py on 60 random interfaces x 25 voltages:
-    2e-13 relative (measured 2e-14 worst on the first draws: the two solve the same split by
+    2e-13 relative (measured 7.3e-14 worst, J and dJ/dV, on these draws: the two solve the same split by
     different Newton forms, charge balance against field balance, each to rounding)."""
     worst_j = worst_dj = 0.0
     for law in random_laws(18, 60):

@@ -1,7 +1,7 @@
 """The isotype heterointerface element (n-N or p-P): binds an interface's parameters to its
 transport laws (laws/thermionic.py, laws/field_emission.py, laws/field_emission_fermi.py) and
-their compiled forms (laws/compiled_isotype.py, laws/compiled_fermi.py). Shapes and units as in
-circuit/elements.py."""
+their compiled forms (laws/compiled_isotype.py, laws/compiled_fermi.py,
+laws/compiled_field_fermi.py). Shapes and units as in circuit/elements.py."""
 from dataclasses import dataclass, field
 import warnings
 
