@@ -80,7 +80,8 @@ def test_forward_matches_the_numpy_law_to_rounding():
 def test_inverse_backward_error_through_the_numpy_law():
     """V(J) of the compiled inverse put into the numpy forward law gives J back: relative 1e-12
     (plus 1e-12 of the flat-band current for J near zero); its dJ/dV is the numpy law's at that V
-    to 1e-11; currents above the flat-band current give NaN."""
+    to 1e-11; currents above the flat-band current give NaN; at flat band J and dJ/dV are the numpy
+    law's to 1e-13 and V(J_flat) = Vbi."""
     for law in random_laws(19, 40):
         v = volts_of(law, 15)
         j = ff.fermi_field_current_density(v, **law)
@@ -94,6 +95,12 @@ def test_inverse_backward_error_through_the_numpy_law():
         np.testing.assert_allclose(slope, slope_ref, rtol=1e-11)
         above, _ = isotype_voltages(rows, as_input(np.array([[2.0 * abs(flat) + 1.0]])))
         assert np.isnan(above[0, 0])
+        # at flat band (dy/dx = sqrt(alpha c1), c1 = F_-1/2/F_1/2: the row's own column)
+        _, flat_slope = ff.fermi_field_current_density(law["built_in_V"], with_derivative=True, **law)
+        j_flat, dj_flat = isotype_currents(rows, as_input(np.array([[law["built_in_V"]]])))
+        assert j_flat[0, 0] == pytest.approx(flat, rel=1e-13) and dj_flat[0, 0] == pytest.approx(flat_slope, rel=1e-13)
+        v_flat, _ = isotype_voltages(rows, as_input(j_flat))
+        assert v_flat[0, 0] == pytest.approx(law["built_in_V"], abs=1e-15)
 
 
 def test_slope_range_encloses_sampled_slopes_and_shrinks():
