@@ -216,10 +216,13 @@ def materials_element(monkeypatch, switch, **extra):
 
 
 def test_element_is_boltzmann_unless_switched_on_and_boltzmann_key_wins(monkeypatch):
-    """Off (the default): the element has no Fermi level, the compiled Boltzmann law serves it and
-    the degenerate depletion side's warning says what stays Boltzmann. On: the accumulation side
-    takes the Fermi-Dirac law (numpy, no compiled rows), the depletion side stays Boltzmann;
-    with statistics = "boltzmann" the element is the default one field for field."""
+    """Off: the element has no Fermi level, the compiled Boltzmann law serves it and the degenerate
+    depletion side's warning says what stays Boltzmann. On (the default): the accumulation side
+    takes the Fermi-Dirac law (compiled rows marked Fermi-Dirac, laws/compiled_field_fermi.py), the
+    depletion side stays Boltzmann; with statistics = "boltzmann" the element is the switched-off
+    one field for field."""
+    from siltandem.circuit import isotype
+    from siltandem.laws import compiled_field_fermi
     from siltandem.result.summary import _degenerate_side_warnings
 
     off = materials_element(monkeypatch, False)
@@ -228,10 +231,14 @@ def test_element_is_boltzmann_unless_switched_on_and_boltzmann_key_wins(monkeypa
     said = _degenerate_side_warnings(off)        # GaP (depletion side) is degenerate, Si 26 meV from its band
     assert len(said) == 1 and "depletion side (GaP" in said[0]
     assert "no Fermi-Dirac form for the depletion side: its charge, barrier and tunnelling stay Boltzmann" in said[0]
+    assert off.compiled_rows(T)[0, compiled_field_fermi.FLAG] == 0.0
+    assert isotype.FERMI_DIRAC_FIELD is False          # monkeypatched; the module's default is on
+    monkeypatch.undo()
+    assert isotype.FERMI_DIRAC_FIELD is True
     on = materials_element(monkeypatch, True)
     assert on.accumulation_fermi_eV is not None and on.depletion_fermi_eV is None
     assert on.sides["accumulation"]["fermi_dirac"] and not on.sides["depletion"]["fermi_dirac"]
-    assert on.compiled_rows(T) is None
+    assert on.compiled_rows(T)[0, compiled_field_fermi.FLAG] == 1.0
     said = [w for w in _degenerate_side_warnings(on) if "accumulation side" in w]
     assert len(said) == 1 and "Fermi-Dirac statistics for its Fermi level and its charge" in said[0]
     assert "tunnelling stay Boltzmann" in said[0]
@@ -239,10 +246,15 @@ def test_element_is_boltzmann_unless_switched_on_and_boltzmann_key_wins(monkeypa
     assert boltzmann == off and boltzmann.accumulation_fermi_eV is None
 
 
-def test_switched_on_element_runs_the_fermi_law_exactly(monkeypatch):
-    """The element's current, inverse and slope range are laws/field_emission_fermi.py's on its own
-    numbers (checked above against the Poisson/WKB reference), bit for bit, and differ from the
-    Boltzmann element's."""
+@pytest.mark.parametrize("compiled", [False, True])
+def test_switched_on_element_runs_the_fermi_law_exactly(monkeypatch, compiled):
+    """The element's current and inverse are laws/field_emission_fermi.py's on its own numbers
+    (checked above against the Poisson/WKB reference): bit for bit through the numpy law
+    (interface_element.COMPILED_ISOTYPE off), to rounding (1e-12 relative, 1e-12 V) through the
+    compiled one (laws/compiled_field_fermi.py); and they differ from the Boltzmann element's."""
+    from siltandem.circuit import interface_element
+
+    monkeypatch.setattr(interface_element, "COMPILED_ISOTYPE", compiled)
     on, off = materials_element(monkeypatch, True), materials_element(monkeypatch, False)
     law = dict(barrier_eV=on.barrier_eV, built_in_V=on.built_in_V, alpha=on.alpha,
                richardson_A_m2_K2=on.richardson_A_m2_K2, temperature_K=T, field_energy_eV=on.field_energy_eV,
@@ -250,10 +262,17 @@ def test_switched_on_element_runs_the_fermi_law_exactly(monkeypatch):
     volts = np.linspace(-0.8, 0.8, 16)[None, :]
     j, dj = on.law_current(volts, T)
     j_ref, dj_ref = ff.fermi_field_current_density(volts, with_derivative=True, **law)
-    assert np.array_equal(j, j_ref) and np.array_equal(dj, dj_ref)
     currents = np.array([[-200.0, 1.0, 200.0]])
     v, _ = on.voltage(currents, T)
     v_ref = ff.fermi_field_voltage(on.direction * currents, **law)
-    assert np.array_equal(v, -on.direction * v_ref)
+    if compiled:
+        assert on.compiled_rows(T) is not None
+        np.testing.assert_allclose(j, j_ref, rtol=1e-12, atol=0)
+        np.testing.assert_allclose(dj, dj_ref, rtol=1e-12, atol=0)
+        np.testing.assert_allclose(v, -on.direction * v_ref, rtol=0, atol=1e-12)
+    else:
+        assert on.compiled_rows(T) is None
+        assert np.array_equal(j, j_ref) and np.array_equal(dj, dj_ref)
+        assert np.array_equal(v, -on.direction * v_ref)
     j_off, _ = off.law_current(volts, T)
     assert np.max(np.abs(j / j_off - 1)) > 1e-3

@@ -7,6 +7,7 @@ No physics value is checked here: the reference is the same design through the o
 result column, as issue 19 asks. The demo stacks are INVENTED DATA (marked in their files).
 """
 from pathlib import Path
+import warnings
 
 import numpy as np
 import pytest
@@ -233,13 +234,14 @@ def test_photocurrents_with_reuse_equal_a_fresh_compile():
 def test_joined_isotype_interfaces_keep_the_compiled_law():
     """A batch of layer designs joins each isotype interface's fields into (B, 1) arrays, the
     defaulted ones too (a zero sheet charge becomes B zeros): the interface still takes the
-    compiled law (laws/compiled_isotype.py), and its voltages equal the numpy law's (the
-    reference: laws/thermionic.py, validated against mpmath in tests/test_isotype_exact.py).
+    compiled law (laws/compiled_isotype.py), and its voltages equal the element's numpy law's to 1e-9
+    (the references: laws/thermionic.py, validated against mpmath in tests/test_isotype_exact.py;
+    laws/field_emission.py and laws/field_emission_fermi.py, against Poisson/WKB references in
+    tests/test_field_emission.py and tests/test_field_emission_fermi.py).
     A nonzero sheet charge in any row sends the joined interface to the numpy law."""
     from dataclasses import replace
 
     from siltandem.circuit.elements import IsotypeInterface
-    from siltandem.laws import thermionic
 
     stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
     circuits = [compile_stack(layer_design(stack, {"top base.thickness_nm": t}))
@@ -251,21 +253,21 @@ def test_joined_isotype_interfaces_keep_the_compiled_law():
     for name in names:
         joined = join_rows([c.element(name) for c in circuits], [1, 1, 1])
         assert np.shape(joined.sheet_charge) == (3, 1)
-        # a (nearly) degenerate side takes the Fermi-Dirac law (circuit/isotype.py), which has no
-        # compiled form: that joined interface goes to the numpy law; the same interface with
-        # Boltzmann sides keeps the compiled one
-        fermi_dirac = joined.accumulation_fermi_eV is not None or joined.depletion_fermi_eV is not None
-        assert (joined.compiled_rows(temperature) is None) is fermi_dirac, name
+        # a (nearly) degenerate side takes the Fermi-Dirac law (circuit/isotype.py), compiled too
+        # (laws/compiled_fermi.py; laws/compiled_field_fermi.py for thermionic-field transport); the
+        # same interface with Boltzmann sides keeps the compiled Boltzmann law
+        assert joined.compiled_rows(temperature) is not None, name
         boltzmann = replace(joined, accumulation_fermi_eV=None, depletion_fermi_eV=None)
         assert boltzmann.compiled_rows(temperature) is not None, name
         for element in (joined, boltzmann):
             voltage, _ = element.voltage(current, temperature)
-            law = dict(element._law(temperature))
             s = element.direction
-            reference, _ = thermionic.isotype_voltage(s * current, with_derivative=True, **law) \
-                if element.transport == "thermionic" else (None, None)
-            if reference is not None:
-                np.testing.assert_allclose(voltage, -s * reference, rtol=1e-9, atol=1e-12)
+            # the element's numpy law (laws/thermionic.py, laws/field_emission.py or
+            # laws/field_emission_fermi.py) on the joined numbers
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                reference = element._functions()[1](s * current, **element._law(temperature))
+            np.testing.assert_allclose(voltage, -s * reference, rtol=1e-9, atol=1e-12)
         charged = replace(boltzmann, sheet_charge=np.array([[0.0], [0.1], [0.0]]))
         assert charged.compiled_rows(temperature) is None, name
 

@@ -1,7 +1,7 @@
 """The isotype heterointerface element (n-N or p-P): binds an interface's parameters to its
 transport laws (laws/thermionic.py, laws/field_emission.py, laws/field_emission_fermi.py) and
-their compiled forms (laws/compiled_isotype.py, laws/compiled_fermi.py). Shapes and units as in
-circuit/elements.py."""
+their compiled forms (laws/compiled_isotype.py, laws/compiled_fermi.py,
+laws/compiled_field_fermi.py). Shapes and units as in circuit/elements.py."""
 from dataclasses import dataclass, field
 import warnings
 
@@ -131,17 +131,21 @@ class IsotypeInterface:
         """Parameter rows (B, P) of the compiled law (laws/compiled_isotype.py), or None where
         this interface's law has no compiled form (the numpy law serves it)."""
         field = self.transport == "thermionic-field"
-        fermi_field = field and self.accumulation_fermi_eV is not None      # numpy only, for now
-        if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS or fermi_field:
+        # thermionic-field with a Fermi-Dirac accumulation side: the thermionic-field rows with that
+        # side's columns (laws/compiled_field_fermi.py), exact depletion side only
+        fermi_field = field and self.accumulation_fermi_eV is not None
+        if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS:
             return None
         form = self.depletion
-        if form not in compiled_isotype.FORMS:
+        if form not in compiled_isotype.FORMS or (fermi_field and form != "exact"):
             return None
         key = ("rows", temperature_key(temperature_K))
         if key not in self._cache:
             # Fermi-Dirac sides or a sheet charge: the general law's kernels (laws/compiled_fermi.py)
             general = self.general_law and not field and form == "exact"
-            known = only_fields_set(self, GENERAL_ISOTYPE_FIELDS if general else COMPILED_ISOTYPE_FIELDS)
+            names = (GENERAL_ISOTYPE_FIELDS if general else
+                     COMPILED_ISOTYPE_FIELDS | {"accumulation_fermi_eV"} if fermi_field else COMPILED_ISOTYPE_FIELDS)
+            known = only_fields_set(self, names)
             self._cache[key] = (None if not known else compiled_fermi.fermi_rows(
                 **self._law(temperature_K), direction=self.direction, width=kernels.PARAMETER_WIDTH) if general
                 else self._compiled_rows(form, temperature_K))
@@ -152,7 +156,8 @@ class IsotypeInterface:
             built_in_V=self.built_in_V, alpha=self.alpha, barrier_eV=self.barrier_eV,
             richardson_A_m2_K2=self.richardson_A_m2_K2, temperature_K=temperature_K, form=form,
             transport=self.transport, field_energy_eV=self.field_energy_eV,
-            spike_eV=self.offset_eV, direction=self.direction, width=kernels.PARAMETER_WIDTH)
+            spike_eV=self.offset_eV, direction=self.direction, width=kernels.PARAMETER_WIDTH,
+            accumulation_fermi_eV=self.accumulation_fermi_eV if self.transport == "thermionic-field" else None)
 
     def voltage(self, current_A_m2, temperature_K):
         s = self.direction

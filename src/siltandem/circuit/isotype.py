@@ -26,10 +26,11 @@ STATISTICS = ("fermi-dirac", "boltzmann")
 #: earlier default (emission over the spike only), e.g. to compare
 DEFAULT_TRANSPORT = "thermionic-field"
 #: a thermionic-field interface's accumulation side within FERMI_DIRAC_WITHIN_KT of its band takes
-#: Fermi-Dirac charge (the band-bending split, laws/field_emission_fermi.py; emission and
-#: tunnelling stay Boltzmann, the depletion side too). Off by default until the law is compiled
-#: (numpy only: slow in studies); statistics = "boltzmann" keeps the Boltzmann law either way
-FERMI_DIRAC_FIELD = False
+#: Fermi-Dirac charge (the band-bending split, laws/field_emission_fermi.py, compiled through
+#: laws/compiled_field_fermi.py; emission and tunnelling stay Boltzmann, the depletion side too).
+#: On by default; False keeps Boltzmann charge there (for comparisons); statistics = "boltzmann"
+#: keeps the Boltzmann law either way
+FERMI_DIRAC_FIELD = True
 
 
 def isotype_element(spec, temperature_K, file=None):

@@ -47,6 +47,8 @@ from siltandem.laws.field_emission import (exact_depletion, g_minus as _g_minus,
 # rows of the general law (Fermi-Dirac sides, sheet charge) go to its own kernels
 from siltandem.laws.compiled_fermi import (FERMI_FORM, fermi_current, fermi_inverse,  # noqa: E402
                                            fermi_slope_range)
+# thermionic-field rows with a Fermi-Dirac accumulation side: its charge integral
+from siltandem.laws import compiled_field_fermi as field_fermi  # noqa: E402
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
            "isotype_currents", "isotype_voltages"]
@@ -56,8 +58,9 @@ FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
 #: columns of an isotype parameter row: reduced Vbi, alpha, log P, kT/q, form, transport
 #: (0 thermionic, 1 thermionic-field), E00/kT, spike depth/kT, direction (+1/-1), the
 #: accumulation-side bending at zero bias (reduced), and log G and dlogG/dw there (the inverse's
-#: first Newton step, taken from the zero-bias bending, needs no quadrature of its own)
-ISOTYPE_COLUMNS = 12
+#: first Newton step, taken from the zero-bias bending, needs no quadrature of its own); then the
+#: columns of a Fermi-Dirac accumulation side (laws/compiled_field_fermi.py, zero for Boltzmann)
+ISOTYPE_COLUMNS = field_fermi.COLUMNS
 ZERO_BIAS_COLUMN = 9
 ZERO_BIAS_GAIN_COLUMN = 10
 
@@ -69,19 +72,23 @@ _LARGE = 1e8          # above this |u| asinh(u) = sign(u) (ln 2 + ln|u|) to roun
 
 
 def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature_K, form,
-                 transport, field_energy_eV, spike_eV, direction, width=ISOTYPE_COLUMNS):
+                 transport, field_energy_eV, spike_eV, direction, width=ISOTYPE_COLUMNS,
+                 accumulation_fermi_eV=None):
     """Parameter rows (B, width) of the compiled law from the element's (B, 1) numbers.
 
     ``form`` "plain", "tail" or "exact"; ``transport`` "thermionic" or "thermionic-field";
     the spike depth NaN means no limit (inf). The prefactor is log(A T^2) - q phi / kT, as in
-    laws/thermionic.py.
+    laws/thermionic.py. ``accumulation_fermi_eV`` (thermionic-field on the exact side only): the
+    accumulation side's bulk Fermi level above its band edge [eV], whose charge is then Fermi-Dirac
+    (laws/field_emission_fermi.py, compiled through laws/compiled_field_fermi.py); None: Boltzmann.
     """
     from siltandem.constants import thermal_voltage_V
 
+    fermi = np.nan if accumulation_fermi_eV is None else accumulation_fermi_eV
     arrays = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
         built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperature_K, field_energy_eV,
-        spike_eV, direction)))
-    vbi, alpha, barrier, rich, temp, e00, spike, sign = (np.ravel(a) for a in arrays)
+        spike_eV, direction, fermi)))
+    vbi, alpha, barrier, rich, temp, e00, spike, sign, fermi = (np.ravel(a) for a in arrays)
     vt = thermal_voltage_V(temp)
     rows = np.zeros((vbi.size, width))
     rows[:, 0] = vbi / vt
@@ -94,6 +101,11 @@ def isotype_rows(*, built_in_V, alpha, barrier_eV, richardson_A_m2_K2, temperatu
     rows[:, 6] = e00 / vt if field else 0.0
     rows[:, 7] = np.where(np.isnan(spike), np.inf, spike / vt) if field else np.inf
     rows[:, 8] = sign
+    if accumulation_fermi_eV is not None:
+        if not (field and form == "exact"):
+            raise ValueError("a Fermi-Dirac accumulation side in these rows needs transport "
+                             f"\"thermionic-field\" and form \"exact\", not {transport!r}, {form!r}")
+        field_fermi.fill_fermi_field_columns(rows, fermi / vt)
     rows[:, ZERO_BIAS_COLUMN] = zero_bias_bending(rows)
     _zero_bias_gain(rows)
     return rows
@@ -131,17 +143,35 @@ def _bending_terms(alpha, x):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
+def _field_terms(x, p):
+    """(w, A) of row p at bending x: :func:`_bending_terms` (Boltzmann accumulation side), or the
+    Fermi-Dirac side's of laws/compiled_field_fermi.py where the row is marked so."""
+    if p[field_fermi.FLAG] != 0.0:
+        return field_fermi.fermi_field_terms(x, p)
+    return _bending_terms(p[1], x)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _flat_root(p):
+    """sqrt(alpha c1): dy/dx of the exact depletion side at flat band (c1 = 1 for Boltzmann)."""
+    if p[field_fermi.FLAG] != 0.0:
+        return math.sqrt(p[field_fermi.FLAT_ROOT_SQUARED])
+    return math.sqrt(p[1])
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
 def _barrier(x, p):
     """(vb(x), dvb/dx, w(x), alpha (e^x - 1), s) of row p at accumulation bending x: s is
     1 - e^-y for the exact depletion side, 1 for the closed forms."""
-    w, a_em1 = _bending_terms(p[1], x)
+    w, a_em1 = _field_terms(x, p)
     form = p[4]
     if form == 2.0:
         y, s = exact_depletion(w)
         if s > 0.0:
             return x + y, 1.0 + a_em1 / s, w, a_em1, s
-        # at flat band: dy/dx = sqrt(alpha) (y = x sqrt(alpha) to first order)
-        return x + y, 1.0 + math.sqrt(p[1]), w, a_em1, s
+        # at flat band: dy/dx = sqrt(alpha) (y = x sqrt(alpha) to first order; alpha c1 for a
+        # Fermi-Dirac side)
+        return x + y, 1.0 + _flat_root(p), w, a_em1, s
     return x + w + form, 1.0 + a_em1, w, a_em1, 1.0
 
 
@@ -163,7 +193,7 @@ def _slope(v, x, a_em1, s, p, log_g, dlog):
     if total > 0.0:
         q, rest = a_em1 / total, s / total
     else:                                   # flat band of the exact side: v1 = v2/sqrt(alpha)
-        root = math.sqrt(p[1])
+        root = _flat_root(p)
         q, rest = root / (1.0 + root), 1.0 / (1.0 + root)
     base = p[2] + x + log_g - math.log(p[3])
     slope = rest * math.exp(base) + q * math.exp(base + v)
@@ -187,7 +217,7 @@ def split(vb, p):
     for _ in range(_ITERATIONS):
         if hi <= lo:
             break
-        w, a_em1 = _bending_terms(p[1], x)
+        w, a_em1 = _field_terms(x, p)
         if form == 2.0:
             g, s = _g_minus(vb - x)
             f, df = w - g, a_em1 + s
@@ -223,7 +253,7 @@ def isotype_current(voltage, p):
         return math.nan, math.nan
     vb = max(vb, tail)
     x = split(vb, p)
-    w, a_em1 = _bending_terms(p[1], x)
+    w, a_em1 = _field_terms(x, p)
     s = 1.0
     if form == 2.0:
         s = _g_minus(max(vb - x, 0.0))[1]
@@ -392,7 +422,7 @@ def _end(voltage, p):
         return math.nan, math.nan, math.nan, math.nan, math.nan, math.nan, math.nan
     vb = max(vb, tail)
     x = split(vb, p)
-    w, a_em1 = _bending_terms(p[1], x)
+    w, a_em1 = _field_terms(x, p)
     s = _g_minus(max(vb - x, 0.0))[1] if form == 2.0 else 1.0
     log_g, dlog = _gain(w, p)
     return x, math.exp(v), a_em1, s, log_g, w, dlog

@@ -13,10 +13,12 @@ depletion side's parabola) and the tunnelling gain G(w) is that module's. The em
 Boltzmann supply functions of laws/field_emission.py (J = P e^v1 expm1(v) G(w)): only the charge,
 hence the split, is Fermi-Dirac here.
 
-Not yet compiled: the isotype element (circuit/elements.py) runs this numpy form where a
-thermionic-field interface has a Fermi-Dirac accumulation side, which circuit/isotype.py gives it
-only with its switch FERMI_DIRAC_FIELD on (off by default). Checks: tests/test_field_emission_fermi.py,
-against a slow Poisson/WKB reference.
+The reference of the compiled form (laws/compiled_field_fermi.py, through laws/compiled_isotype.py),
+which the isotype element (circuit/interface_element.py) runs where a thermionic-field interface has
+a Fermi-Dirac accumulation side (circuit/isotype.py gives it one within FERMI_DIRAC_WITHIN_KT of its
+band, its switch FERMI_DIRAC_FIELD on by default); this numpy form serves the element only with
+interface_element.COMPILED_ISOTYPE off. Checks: tests/test_field_emission_fermi.py, against a slow
+Poisson/WKB reference; tests/test_compiled_field_fermi.py, the compiled form against this one.
 
 References
 ----------

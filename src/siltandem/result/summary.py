@@ -288,7 +288,8 @@ def _degenerate_side_warnings(element):
                 why = (" (the thermionic-field law has no Fermi-Dirac form for the depletion side: its charge, "
                        "barrier and tunnelling stay Boltzmann)")
             elif element.transport == "thermionic-field":
-                why = " (the thermionic-field law's Fermi-Dirac accumulation side is off by default)"
+                why = (" (the thermionic-field law's Fermi-Dirac accumulation side is switched off, "
+                       "circuit/isotype.py FERMI_DIRAC_FIELD)")
             out.append(head + ": Fermi-Dirac statistics place its Fermi level, the band bending and "
                               f"the emission stay Boltzmann approximations{why}")
     return out
