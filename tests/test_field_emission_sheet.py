@@ -23,6 +23,7 @@ Checks against sources outside the law:
   range against dense sampling.
 """
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -315,3 +316,59 @@ def test_slope_range_holds_sampled_slopes_and_shrinks(fermi_eV):
 def test_a_closed_depletion_form_is_refused_with_a_fix():
     with pytest.raises(te.IsotypeParameterError, match='depletion = "exact"'):
         fs.sheet_field_current_density(0.1, sheet_charge=0.5, depletion="tail", **LAW)
+
+
+# ---------------------------------------------------------------------------------------------
+# a layer stack: p-GaP (1e18) on p-Si (1e20) from the library, the key on the GaP layer
+
+PLACEMENTS = Path(__file__).resolve().parents[1] / "stacks" / "demo_placements.toml"
+BUFFER = 'name = "buffer"\nmaterial = "GaP"\nthickness_nm = 100\ndoping = "p:1e18"\n'
+SILICON_JUNCTION = ('\n[[layer]]\nname = "junction p"\nmaterial = "Si"\nthickness_nm = 20\ndoping = "p:1e20"\n'
+                    '\n[[layer]]\nname = "junction n"\nmaterial = "Si"\nthickness_nm = 20\ndoping = "n:1e20"\n')
+INTERFACE = "interface buffer / junction p"
+
+
+def gap_si_stack(folder, sheet_cm2):
+    """The placement demo's layers (invented demo data, not check values) with its "in silicon"
+    tunnel junction written in, so that the p-GaP buffer meets p-Si; sheet_charge_cm2 on the buffer."""
+    text = PLACEMENTS.read_text()
+    text = text[:text.index("[[placement]]")]
+    assert BUFFER in text
+    path = folder / f"gap_si_{sheet_cm2:+.0e}.toml"
+    path.write_text(text.replace(BUFFER, BUFFER + f"sheet_charge_cm2 = {sheet_cm2!r}\n" + SILICON_JUNCTION))
+    return path
+
+
+def test_layer_stack_with_a_sheet_charge_runs_through_run_and_interface(tmp_path):
+    """`siltandem run --json` and `siltandem interface` on a layer stack whose p-GaP/p-Si interface
+    carries -3e12 cm^-2 (attracts holes): thermionic-field transport by default, the numpy law of
+    laws/field_emission_sheet.py (no compiled rows), the same drop in both commands, the charge
+    printed; against the same stack uncharged and with +3e12 (in-process), the attracting charge
+    lowers the drop and the repelling one raises it (Gauss's law: tests above)."""
+    import json
+
+    from siltandem import load_stack, run_stack
+    from siltandem.circuit.compile import compile_stack
+    from test_main_job import cli
+
+    charged = gap_si_stack(tmp_path, -3e12)
+    done = cli("run", charged, "--json", "-")
+    assert done.returncode == 0, done.stderr
+    row = next(r for r in json.loads(done.stdout)["interfaces"] if r["name"] == INTERFACE)
+    assert row["transport"] == "thermionic-field" and row["carrier"] == "hole"
+    shown = cli("interface", charged, "--layer", "buffer / junction p", "--points", "3",
+                "--plot", tmp_path / "band.png")
+    assert shown.returncode == 0, shown.stderr
+    assert f"{1000 * row['drop_at_mpp_V']:.2f} mV at the MPP" in shown.stdout
+    assert "fixed interface sheet charge: reduced s = +" in shown.stdout and "attracts" in shown.stdout
+    assert (tmp_path / "band.png").read_bytes()[:4] == b"\x89PNG"
+    element = compile_stack(load_stack(charged)).element(INTERFACE)
+    assert element.field_sheet and element.compiled_rows(298.15) is None
+    drops = {}
+    for sheet in (0.0, 3e12):
+        stack = load_stack(gap_si_stack(tmp_path, sheet))
+        drops[sheet] = next(r for r in run_stack(stack, curve_points=50).summary["interfaces"]
+                            if r["name"] == INTERFACE)["drop_at_mpp_V"]
+    uncharged = compile_stack(load_stack(gap_si_stack(tmp_path, 0.0))).element(INTERFACE)
+    assert uncharged.compiled_rows(298.15) is not None           # no charge: the compiled law
+    assert row["drop_at_mpp_V"] < drops[0.0] < drops[3e12], (row["drop_at_mpp_V"], drops)
