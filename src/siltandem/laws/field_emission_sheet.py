@@ -207,7 +207,9 @@ def sheet_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
     Padded by 1e-12 relative. The range shrinks to the point slope with the cell (linearly: the
     gain-slope bound is M dw). What is proven and what is sampled: the interval product is an
     enclosure given the monotone pieces above (each side's charge slope rising with its bending:
-    proven for Boltzmann sides, d/dx sqrt(e^x - 1 - x) rising, and sampled for Fermi-Dirac ones
+    proven for Boltzmann sides: with g = e^x - 1 - x, q = sign(x) sqrt(g) has
+    q'' = sign(x) (2 g g'' - g'^2) / (4 g^1.5) and 2 g g'' - g'^2 = e^2x - 1 - 2x e^x = 2 e^x (sinh x - x)
+    has the sign of x, so q'' >= 0; sampled for Fermi-Dirac ones
     over -60...40 kT at eta -5...20 when this law was written) and the range of L, which
     `gain_slope_range` proves for the exact integral; the computed L comes from a fixed
     quadrature, so the enclosure of the computed slopes is checked by dense sampling
