@@ -372,3 +372,39 @@ def test_layer_stack_with_a_sheet_charge_runs_through_run_and_interface(tmp_path
     uncharged = compile_stack(load_stack(gap_si_stack(tmp_path, 0.0))).element(INTERFACE)
     assert uncharged.compiled_rows(298.15) is not None           # no charge: the compiled law
     assert row["drop_at_mpp_V"] < drops[0.0] < drops[3e12], (row["drop_at_mpp_V"], drops)
+
+
+def test_numbers_form_takes_the_key_with_thermionic_field_transport(tmp_path):
+    """The numbers form (barrier, built-in, the sides' dopings and permittivities, tunnelling mass)
+    with transport = "thermionic-field" and sheet_charge_cm2 (refused before this law): the element
+    carries s = sigma_c / sqrt(2 eps2 kT N2) computed here from CODATA constants (scipy.constants;
+    Gauss's law, Sze & Ng 2007 ch. 3) and its voltage is this law's on its numbers; E00 is
+    Padovani-Stratton's (q hbar / 2) sqrt(N / (m* eps)) by hand. Law inputs are invented (0.92 eV,
+    0.95 V, p-type 1e19 on both sides), not check values."""
+    from scipy import constants
+
+    from siltandem import load_stack
+    from siltandem.circuit.compile import compile_stack
+
+    text = ('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\nname = "cell"\ngap_eV = 1.4\n'
+            '[[element]]\nkind = "isotype"\nname = "i"\nbarrier_eV = 0.92\nbuilt_in_V = 0.95\ncarrier = "hole"\n'
+            'accumulation_doping_cm3 = 1e19\ndepletion_doping_cm3 = 1e19\naccumulation_permittivity = 11.7\n'
+            'depletion_permittivity = 11.1\ntransport = "thermionic-field"\ntunnelling_mass = 0.2\n'
+            'sheet_charge_cm2 = -2e12\n')
+    (tmp_path / "n.toml").write_text(text)
+    element = compile_stack(load_stack(tmp_path / "n.toml")).element("i")
+    t = 298.15
+    n2, eps2 = 1e25, 11.1 * constants.epsilon_0
+    s = constants.e * 2e12 * 1e4 / math.sqrt(2 * eps2 * constants.k * t * n2)      # holes: -q sigma > 0
+    e00 = constants.hbar / 2 * math.sqrt(n2 / (0.2 * constants.m_e * eps2))          # in eV (q cancels)
+    assert element.transport == "thermionic-field" and element.field_sheet
+    assert float(element.sheet_charge[0, 0]) == pytest.approx(s, rel=1e-12)
+    assert float(element.field_energy_eV[0, 0]) == pytest.approx(e00, rel=1e-9)
+    assert element.compiled_rows(t) is None
+    current = np.array([[-100.0, 20.0, 200.0]])
+    volts, _ = element.voltage(current, t)
+    law = fs.sheet_field_voltage(element.direction * current, barrier_eV=0.92, built_in_V=0.95,
+                                 alpha=11.7 / 11.1, richardson_A_m2_K2=element.richardson_A_m2_K2,
+                                 temperature_K=t, field_energy_eV=e00, sheet_charge=s,
+                                 spike_eV=element.offset_eV)
+    np.testing.assert_allclose(volts, -element.direction * law, rtol=1e-9, atol=1e-13)
