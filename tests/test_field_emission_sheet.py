@@ -356,6 +356,7 @@ def test_layer_stack_with_a_sheet_charge_runs_through_run_and_interface(tmp_path
     assert done.returncode == 0, done.stderr
     row = next(r for r in json.loads(done.stdout)["interfaces"] if r["name"] == INTERFACE)
     assert row["transport"] == "thermionic-field" and row["carrier"] == "hole"
+    assert row["sheet_charge_reduced"] > 0                       # -3e12 cm^-2 attracts holes
     shown = cli("interface", charged, "--layer", "buffer / junction p", "--points", "3",
                 "--plot", tmp_path / "band.png")
     assert shown.returncode == 0, shown.stderr
