@@ -344,7 +344,7 @@ def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
     """transport = "thermionic" on the materials form builds the thermionic law on the exact
     Boltzmann depletion side (laws/thermionic.py, itself checked against mpmath): the element's
     current and inverse equal that law's on the element's numbers exactly (numpy path); a sheet
-    charge keeps thermionic emission (the thermionic-field law has none). At 1e19 both sides are
+    charge without a transport key takes thermionic-field emission (laws/field_emission_sheet.py). At 1e19 both sides are
     within 3 kT of their bands, where stack files take the Fermi-Dirac law
     (tests/test_fermi_dirac_stacks.py): statistics = "boltzmann" here, so the Boltzmann law is compared."""
     from siltandem.circuit.isotype import isotype_from_materials
@@ -357,7 +357,7 @@ def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
     charged = isotype_from_materials(ElementSpec(0, "isotype", "i", 1, values | {"sheet_charge_cm2": 1e11}),
                                      300.0, None)
     assert plain.transport == "thermionic" and plain.depletion == "exact"
-    assert charged.transport == "thermionic"
+    assert charged.transport == "thermionic-field" and charged.field_sheet
     law = dict(barrier_eV=plain.barrier_eV, built_in_V=plain.built_in_V, alpha=plain.alpha,
                richardson_A_m2_K2=plain.richardson_A_m2_K2, temperature_K=300.0, depletion="exact")
     volts = np.linspace(-1.0, 0.9, 41)[None, :]

@@ -175,13 +175,14 @@ def test_materials_default_is_thermionic_field_on_the_exact_side(tmp_path, monke
     assert np.all(np.abs(compiled[0]) <= np.abs(plain.voltage(current, 300.0)[0]) + 1e-15)
 
 
-def test_a_sheet_charge_takes_the_thermionic_law_by_default(tmp_path):
-    """The thermionic-field law has no interface charge yet: with sheet_charge_cm2 and no
-    transport key the interface takes thermionic emission (which carries the charge); asking for
-    both is refused, naming the key (circuit/isotype.py)."""
+def test_a_sheet_charge_takes_the_default_transport(tmp_path):
+    """With sheet_charge_cm2 and no transport key the interface takes the default transport
+    (circuit/isotype.py DEFAULT_TRANSPORT, thermionic-field: laws/field_emission_sheet.py carries the
+    charge, tests/test_field_emission_sheet.py); transport = "thermionic" keeps the thermionic law
+    with the same reduced charge."""
     from siltandem import load_stack
     from siltandem.circuit.compile import compile_stack
-    from siltandem.errors import StackError
+    from siltandem.circuit.isotype import DEFAULT_TRANSPORT
 
     text = ('[conditions]\nspectrum = "am1.5g"\n[[element]]\nkind = "subcell"\nname = "cell"\n'
             'gap_eV = 1.4\n[[element]]\nkind = "isotype"\nname = "i"\nupper_material = "GaP"\n'
@@ -189,7 +190,10 @@ def test_a_sheet_charge_takes_the_thermionic_law_by_default(tmp_path):
             'carrier = "hole"\nsheet_charge_cm2 = -2e12\n')
     (tmp_path / "a.toml").write_text(text)
     element = compile_stack(load_stack(tmp_path / "a.toml")).element("i")
-    assert element.transport == "thermionic" and float(element.sheet_charge[0, 0]) != 0.0
-    (tmp_path / "b.toml").write_text(text + 'transport = "thermionic-field"\n')
-    with pytest.raises(StackError, match="sheet_charge_cm2"):
-        compile_stack(load_stack(tmp_path / "b.toml"))
+    assert DEFAULT_TRANSPORT == "thermionic-field"
+    assert element.transport == "thermionic-field" and float(element.sheet_charge[0, 0]) != 0.0
+    assert element.field_sheet and element.compiled_rows(300.0) is None
+    (tmp_path / "b.toml").write_text(text + 'transport = "thermionic"\n')
+    thermionic = compile_stack(load_stack(tmp_path / "b.toml")).element("i")
+    assert thermionic.transport == "thermionic" and not thermionic.field_sheet
+    assert np.array_equal(thermionic.sheet_charge, element.sheet_charge)

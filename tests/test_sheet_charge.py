@@ -49,8 +49,16 @@ def test_zero_sheet_charge_is_todays_result_bit_for_bit(tmp_path):
     assert a["efficiency_pct"] == b["efficiency_pct"] and a["voc_V"] == b["voc_V"]
 
 
-def test_element_carries_the_reduced_charge_and_follows_the_law(tmp_path):
+@pytest.mark.parametrize("transport", ["thermionic", "thermionic-field"])
+def test_element_carries_the_reduced_charge_and_follows_the_law(tmp_path, monkeypatch, transport):
+    """Both transports carry the charge: the thermionic law (laws/thermionic.py, general form) and
+    thermionic-field emission (laws/field_emission_sheet.py, the default transport)."""
+    from siltandem.circuit import isotype
+    from siltandem.laws.field_emission_sheet import sheet_field_voltage
+
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", transport)
     element = hole_interface(demo_with(tmp_path, -2e12))
+    assert element.transport == transport
     side = element.sides["depletion"]
     t = 298.15
     # holes: sigma_c = -q sigma (a negative fixed charge attracts them), sigma = -2e12 cm^-2
@@ -61,6 +69,15 @@ def test_element_carries_the_reduced_charge_and_follows_the_law(tmp_path):
     assert element.general_law
     current = np.array([[50.0, 100.0, 200.0]])        # A/m^2, with the stack current
     volts, _ = element.voltage(current, t)
+    if transport == "thermionic-field":
+        assert element.compiled_rows(t) is None            # the numpy law serves it
+        law = sheet_field_voltage(element.direction * current, barrier_eV=element.barrier_eV,
+                                  built_in_V=element.built_in_V, alpha=element.alpha,
+                                  richardson_A_m2_K2=element.richardson_A_m2_K2, temperature_K=t,
+                                  field_energy_eV=element.field_energy_eV, spike_eV=element.offset_eV,
+                                  sheet_charge=expected, accumulation_fermi_eV=element.accumulation_fermi_eV)
+        assert np.allclose(volts, -element.direction * law, rtol=1e-12, atol=0)
+        return
     law = th.isotype_voltage(element.direction * current, barrier_eV=element.barrier_eV,
                              built_in_V=element.built_in_V, alpha=element.alpha,
                              richardson_A_m2_K2=element.richardson_A_m2_K2, temperature_K=t,
@@ -71,11 +88,12 @@ def test_element_carries_the_reduced_charge_and_follows_the_law(tmp_path):
     assert np.allclose(volts, -element.direction * law, rtol=1e-12, atol=0)
 
 
-def test_attracting_charge_lowers_the_drop_repelling_raises_it(tmp_path, monkeypatch):
+@pytest.mark.parametrize("transport", ["thermionic", "thermionic-field"])
+def test_attracting_charge_lowers_the_drop_repelling_raises_it(tmp_path, monkeypatch, transport):
     from siltandem.circuit import isotype
 
-    # a sheet charge takes the thermionic law (its default there): compare with that law uncharged
-    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", "thermionic")
+    # each transport against itself uncharged
+    monkeypatch.setattr(isotype, "DEFAULT_TRANSPORT", transport)
     base = drop_mV(DEMO)
     attract = drop_mV(demo_with(tmp_path, -3e12))       # negative charge: attracts holes
     (tmp_path / "r").mkdir()

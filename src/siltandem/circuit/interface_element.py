@@ -85,6 +85,12 @@ class IsotypeInterface:
     sheet_charge: np.ndarray = field(default_factory=lambda: batch(0.0))
 
     @property
+    def field_sheet(self):
+        """True where a thermionic-field interface carries a sheet charge (the numpy law of
+        laws/field_emission_sheet.py, not compiled)."""
+        return self.transport == "thermionic-field" and bool(np.any(self.sheet_charge != 0))
+
+    @property
     def general_law(self):
         """True where the law runs its general form (a Fermi-Dirac side or a sheet charge)."""
         return (self.accumulation_fermi_eV is not None or self.depletion_fermi_eV is not None
@@ -98,6 +104,8 @@ class IsotypeInterface:
                        spike_eV=self.offset_eV)
             if self.accumulation_fermi_eV is not None:        # laws/field_emission_fermi.py
                 law.update(accumulation_fermi_eV=self.accumulation_fermi_eV)
+            if self.field_sheet:                              # laws/field_emission_sheet.py
+                law.update(sheet_charge=self.sheet_charge)
         else:
             law.update(depletion=self.depletion)
             if self.general_law:
@@ -107,6 +115,9 @@ class IsotypeInterface:
 
     def _functions(self):
         """(current, inverse, slope range) of this interface's transport law."""
+        if self.field_sheet:
+            from siltandem.laws.field_emission_sheet import LAW_FUNCTIONS     # scipy: not at start-up
+            return LAW_FUNCTIONS
         if self.transport == "thermionic-field" and self.accumulation_fermi_eV is not None:
             from siltandem.laws.field_emission_fermi import LAW_FUNCTIONS     # scipy: not at start-up
             return LAW_FUNCTIONS
@@ -132,9 +143,11 @@ class IsotypeInterface:
         this interface's law has no compiled form (the numpy law serves it)."""
         field = self.transport == "thermionic-field"
         # thermionic-field with a Fermi-Dirac accumulation side: the thermionic-field rows with that
-        # side's columns (laws/compiled_field_fermi.py), exact depletion side only
+        # side's columns (laws/compiled_field_fermi.py), exact depletion side only; with a sheet
+        # charge: numpy only, for now (laws/field_emission_sheet.py)
         fermi_field = field and self.accumulation_fermi_eV is not None
-        if not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS:
+        if (not COMPILED_ISOTYPE or self.transport not in field_emission.TRANSPORTS
+                or (field and self.field_sheet)):
             return None
         form = self.depletion
         if form not in compiled_isotype.FORMS or (fermi_field and form != "exact"):

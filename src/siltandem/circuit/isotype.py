@@ -53,7 +53,7 @@ def isotype_element(spec, temperature_K, file=None):
     sheet = 0.0
     if v.get("sheet_charge_cm2", 0.0) != 0.0:
         sheet = _reduced_sheet(v["sheet_charge_cm2"], v["carrier"], v["depletion_doping_cm3"],
-                               v["depletion_permittivity"], temperature_K, transport, spec, file)
+                               v["depletion_permittivity"], temperature_K)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(v["barrier_eV"]), built_in_V=batch(v["built_in_V"]),
         transport=transport, field_energy_eV=batch(field_energy),
@@ -62,17 +62,11 @@ def isotype_element(spec, temperature_K, file=None):
         string=spec.string, sheet_charge=batch(sheet))
 
 
-def _reduced_sheet(sheet_charge_cm2, carrier, depletion_doping_cm3, permittivity, temperature_K,
-                   transport, spec, file):
-    """The fixed interface charge in the law's reduced form (laws/interface_charge.py); the
-    thermionic-field law has no sheet charge yet."""
+def _reduced_sheet(sheet_charge_cm2, carrier, depletion_doping_cm3, permittivity, temperature_K):
+    """The fixed interface charge in the laws' reduced form (laws/interface_charge.py; both
+    transports carry it: laws/field_emission_sheet.py for thermionic-field emission)."""
     from siltandem.laws.interface_charge import reduced_sheet_charge
 
-    if transport == "thermionic-field":
-        raise StackError("sheet_charge_cm2 works with transport = \"thermionic\" only (the "
-                         "thermionic-field law has no interface charge yet)", file=file,
-                         where=f"{spec.label}, key sheet_charge_cm2",
-                         fix='set transport = "thermionic", or remove sheet_charge_cm2')
     return float(reduced_sheet_charge(
         sheet_charge_cm2, carrier=carrier,
         depletion_doping_m3=depletion_doping_cm3 * units.PER_CM3_TO_PER_M3,
@@ -154,7 +148,7 @@ def isotype_from_materials(spec, temperature_K, file, layer_names=None):
         depleting = sides["depletion"]
         sheet = _reduced_sheet(v["sheet_charge_cm2"], v["carrier"],
                                depleting["doping_m3"] / units.PER_CM3_TO_PER_M3,
-                               depleting["permittivity"], temperature_K, transport, spec, file)
+                               depleting["permittivity"], temperature_K)
     return IsotypeInterface(
         spec.name, barrier_eV=batch(alignment.barrier_eV), built_in_V=batch(alignment.built_in_V),
         alpha=batch(alignment.alpha), richardson_A_m2_K2=batch(richardson),
@@ -195,13 +189,12 @@ def band_offset(upper, lower, carrier, temperature_K, given=None):
 def _transport(v, layers, upper_accumulates, temperature_K):
     """The transport key and E00 of the depletion side from its doping, permittivity and
     tunnelling mass (laws/field_emission.py). The default, the dopings being known, is
-    "thermionic-field" (issue 18: heavy doping, the usual cure for a blocking interface, shows),
-    except with a sheet charge, which only the thermionic law carries (:data:`DEFAULT_TRANSPORT`)."""
+    :data:`DEFAULT_TRANSPORT` (heavy doping, the usual cure for a blocking interface, shows), with
+    or without a sheet charge (laws/field_emission_sheet.py carries one)."""
     from siltandem.laws.field_emission import field_energy_eV
     from siltandem.materials.tunnelling import tunnelling_mass_ratio
 
-    default = "thermionic" if v.get("sheet_charge_cm2", 0.0) != 0.0 else DEFAULT_TRANSPORT
-    transport = v.get("transport", default)
+    transport = v.get("transport", DEFAULT_TRANSPORT)
     depletion = 1 if upper_accumulates else 0
     energy = field_energy_eV(
         doping_m3=v[("upper_doping_cm3", "lower_doping_cm3")[depletion]] * units.PER_CM3_TO_PER_M3,

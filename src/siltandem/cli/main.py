@@ -183,6 +183,10 @@ def _interface(args):
              if row["transport"] == "thermionic-field" else ""))
     if row.get("offset_source"):
         print(f"  band offset from: {row['offset_source']}")
+    sheet = float(np.ravel(element.sheet_charge)[0])
+    if sheet != 0.0:
+        print(f"  fixed interface sheet charge: reduced s = {sheet:+.4g} ("
+              + ("attracts" if sheet > 0 else "repels") + " the majority carriers; key sheet_charge_cm2)")
     drop = row["drop_at_mpp_V"]
     print(f"  in the stack: {row['bias']} biased; "
           + (f"{1000 * drop:.2f} mV at the MPP" if np.isfinite(drop) else

@@ -240,7 +240,8 @@ def _interface_row(element, number, v, loss, penalty):
         "efficiency_penalty_pct_abs": penalty,
         "blocking": bool(_blocks(v, penalty)),
         "offset_source": getattr(element, "offset_source", ""),
-        "transport": element.transport}
+        "transport": element.transport,
+        "sheet_charge_reduced": first_value(element.sheet_charge)}
 
 
 def _interface_warnings(name, v, penalty):

@@ -98,6 +98,24 @@ def _accumulation_profile(v1, debye_m, points=200):
     return x, u
 
 
+def _split(element, barrier_V, temperature_K):
+    """(v1, v2) [V]: the accumulation and depletion sides' bending at the barrier voltage, from the
+    element's own law: with a sheet charge or a Fermi-Dirac side the balance of
+    laws/interface_charge.py (Gauss's law with the fixed charge), else laws/thermionic.py."""
+    if not element.general_law:
+        split = voltage_split(barrier_V, alpha=float(element.alpha[0, 0]), temperature_K=temperature_K,
+                              depletion=element.depletion)
+        return float(split.accumulation_V), float(split.depletion_V)
+    from siltandem.laws.interface_charge import bending_split
+
+    kt = BOLTZMANN_EV_K * temperature_K
+    eta = [None if f is None else float(np.ravel(f)[0]) / kt
+           for f in (element.accumulation_fermi_eV, element.depletion_fermi_eV)]
+    v1 = float(bending_split(np.array([barrier_V / kt]), float(element.alpha[0, 0]), eta[0], eta[1],
+                             float(element.sheet_charge[0, 0]))[0]) * kt
+    return v1, barrier_V - v1
+
+
 def band_diagram(element, temperature_K, bias_V=0.0):
     """Band edges and Fermi levels across the interface at a bias (law's convention).
 
@@ -113,9 +131,7 @@ def band_diagram(element, temperature_K, bias_V=0.0):
     kt = BOLTZMANN_EV_K * temperature_K
     vbi = float(element.built_in_V[0, 0])
     barrier = vbi - bias_V
-    split = voltage_split(barrier, alpha=float(element.alpha[0, 0]), temperature_K=temperature_K,
-                          depletion=element.depletion)
-    v1, v2 = float(split.accumulation_V), float(split.depletion_V)
+    v1, v2 = _split(element, barrier, temperature_K)
     acc, dep = sides["accumulation"], sides["depletion"]
     q = ELEMENTARY_CHARGE_C
     debye = np.sqrt(acc["permittivity"] * VACUUM_PERMITTIVITY_F_M * kt / (q * acc["doping_m3"]))
