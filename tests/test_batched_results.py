@@ -116,3 +116,21 @@ def test_solve_alike_joins_only_strings_the_solver_treats_alike():
             assert np.array_equal(getattr(found, field), getattr(own, field)), field
         for name, values in own.voltage_at_mpp_V.items():
             assert np.array_equal(found.voltage_at_mpp_V[name], values)
+
+
+def test_a_candidate_that_cannot_be_compiled_fails_alone():
+    # junction layers doped at 1e16 make a p-n junction of the wrong polarity (the layer
+    # compiler's rule): that candidate gets compute_result's own error, the others their Results
+    from siltandem import StackError
+
+    stack = load_stack(DEMO)
+    good = stack.extra["placements"][0]
+    bad = Placement("too lightly doped", good.after,
+                    tuple(replace(layer, doping_cm3=1e16) for layer in good.layers))
+    found = compute_results([with_placement(stack, good), with_placement(stack, bad)],
+                            curve_points=60, reuse={})
+    with pytest.raises(StackError) as raised:
+        compute_result(with_placement(stack, bad), curve_points=60, reuse={})
+    assert isinstance(found[1], StackError) and found[1].problem == raised.value.problem
+    own = compute_result(with_placement(stack, good), curve_points=60, reuse={})
+    assert _text(found[0].summary) == _text(own.summary)
