@@ -134,3 +134,19 @@ def test_a_candidate_that_cannot_be_compiled_fails_alone():
     assert isinstance(found[1], StackError) and found[1].problem == raised.value.problem
     own = compute_result(with_placement(stack, good), curve_points=60, reuse={})
     assert _text(found[0].summary) == _text(own.summary)
+
+
+def test_four_terminal_designs_joined_keep_the_coupling_across_strings():
+    # two strings, the top's luminescence reaching the silicon of the other string: the
+    # silicon's photocurrent grows by the top's emission at its own MPP (solve_strings), in the
+    # joined solve as alone. Two top-base thicknesses (invented) of one circuit shape.
+    from siltandem.studies.sweep import layer_design
+
+    stack = load_stack(ROOT / "stacks" / "demo_four_terminal_layers.toml")
+    stacks = [layer_design(stack, {"top base.thickness_nm": t}) for t in (1400.0, 1100.0)]
+    together = compute_results(stacks, curve_points=60, reuse={})
+    assert circuit_key(together[0].circuit) == circuit_key(together[1].circuit)
+    assert together[0].summary["subcells"][1]["coupled_mA_cm2"] > 0
+    for found, design in zip(together, stacks):
+        own = compute_result(design, curve_points=60, reuse={})
+        assert _text(found.summary) == _text(own.summary)

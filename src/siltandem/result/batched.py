@@ -191,6 +191,9 @@ def solve_circuits(circuits, *, curve_points=0, solve=None):
         rows = np.arange(starts[k], starts[k + 1])
         own = dict(zip(joined.optical_order, circuit.elements))
         rename = {name: element.name for name, element in own.items()}
-        out.append(([[_own_rows(e, own[e.name], rows[0]) for e in string] for string in strings],
+        # an element the solve left as it was is the design's own (its tables built already);
+        # one it changed (a photocurrent gained across strings) is cut from the joined one
+        out.append(([[own[e.name] if e is joined.element(e.name) else _own_rows(e, own[e.name], rows[0])
+                      for e in string] for string in strings],
                     [solution_rows(s, rows, rename) for s in solutions]))
     return out
