@@ -42,22 +42,40 @@ def removal_powers(string, temperature_K):
         element name -> MPP power of the string without it (a float; NaN if that string has no
         operating point).
     """
+    names, jobs = removal_plan(string)
+    return removal_from(names, jobs, [solve_string(reduced, temperature_K)
+                                      for _, reduced in jobs])
+
+
+def removal_plan(string):
+    """The strings :func:`removal_powers` solves: (the removable elements' names in current
+    order, [(names of the members a string removes, that string)]). A group of alike members
+    is one batched string (:func:`_without_each`); anything else one string per element."""
     string = list(string)
     removable = [e for e in string if e.kind != "subcell"]
     groups = {}
     for element in removable:
         groups.setdefault(_signature(element), []).append(element)
-    powers = {}
+    jobs = []
     for members in groups.values():
         if len(members) == 1 or not all(_single_design(e) for e in members):
             for element in members:                    # one by one: a string per element
-                rest = [e for e in string if e is not element]
-                powers[element.name] = first_value(solve_string(rest, temperature_K).mpp_W_m2)
+                jobs.append(((element.name,), [e for e in string if e is not element]))
             continue
-        reduced = _without_each(string, members)
-        mpp = np.asarray(solve_string(reduced, temperature_K).mpp_W_m2, dtype=float).reshape(-1)
-        powers.update({element.name: float(p) for element, p in zip(members, mpp)})
-    return {e.name: powers[e.name] for e in removable}
+        jobs.append((tuple(e.name for e in members), _without_each(string, members)))
+    return [e.name for e in removable], jobs
+
+
+def removal_from(names, jobs, solutions):
+    """:func:`removal_powers`' answer from the solutions of :func:`removal_plan`'s strings."""
+    powers = {}
+    for (members, _), solution in zip(jobs, solutions):
+        if len(members) == 1:
+            powers[members[0]] = first_value(solution.mpp_W_m2)
+            continue
+        mpp = np.asarray(solution.mpp_W_m2, dtype=float).reshape(-1)
+        powers.update({name: float(p) for name, p in zip(members, mpp)})
+    return {name: powers[name] for name in names}
 
 
 def _without_each(string, members):

@@ -39,16 +39,7 @@ import numpy as np
 from siltandem.constants import HC_EV_NM
 from siltandem.circuit.elements import Subcell, batch
 from siltandem.laws.optics import step_absorber_photocurrents
-from siltandem.result.driver import compute_result
-from siltandem.solve.series import solve_string
-
-
-def _power(string, temperature_K):
-    return float(solve_string(string, temperature_K).mpp_W_m2[0])
-
-
-def _independent(subcells, temperature_K):
-    return sum(float(solve_string([c], temperature_K).mpp_W_m2[0]) for c in subcells)
+from siltandem.result.driver import compute_results
 
 
 def _radiative(cell, photocurrent):
@@ -102,6 +93,12 @@ def _walk_photocurrents(circuit, spectrum, *, passive=True, reflection=True, sha
 def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
     """The waterfall as a list of steps, top (the limit) to bottom (the stack).
 
+    Every step's strings are known before any is solved (each step removes one loss from the
+    strings of the step before, and the optics steps' photocurrents come from the layers), so
+    all of them are solved at once: strings of one shape (result/batched.py: the same element
+    classes and settings in the same order, e.g. the radiative subcells of the last steps, each
+    on its own) as one batched solve, each string's answer bit for bit its solve alone.
+
     Returns
     -------
     dict
@@ -110,8 +107,13 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
         ``efficiency_after_pct``}] in waterfall order, and ``check_pct`` (limit minus the sum of
         the steps minus the stack: zero to rounding).
     """
-    result = compute_result(stack, spectrum=spectrum, suns=suns, temperature_K=temperature_K,
-                            curve_points=60)
+    from siltandem.errors import StackError
+    from siltandem.result.batched import solve_alike
+
+    result = compute_results([stack], spectrum=spectrum, suns=suns, temperature_K=temperature_K,
+                             curve_points=60)[0]
+    if isinstance(result, StackError):
+        raise result
     circuit = result.circuit
     conditions = result.summary["conditions"]
     temperature = conditions["temperature_K"]
@@ -121,19 +123,19 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
     # efficiency with luminescent coupling across strings is the main job's
     strings = [list(s) for s in circuit.strings]
     several = len(strings) > 1
+    # each step: its label and the strings whose MPP powers it sums (None: the step before's)
+    names, solves = [], []
     if several:
-        efficiency = [100 * sum(float(np.asarray(s.mpp_W_m2).reshape(-1)[0]) for s in result.solutions)
-                      / irradiance]
+        stack_power = sum(float(np.asarray(s.mpp_W_m2).reshape(-1)[0]) for s in result.solutions)
     else:
-        efficiency = [100 * _power(strings[0], temperature) / irradiance]
-    names = []
+        solves.append([strings[0]])
 
     def record(label, value):
         names.append(label)
-        efficiency.append(100 * value / irradiance)
+        solves.append(value)
 
     def total():
-        return sum(_power(string, temperature) for string in strings)
+        return [list(string) for string in strings]
 
     # 0. luminescent coupling (a gain: its step is negative), removed first
     if any(e.kind == "subcell" and np.any(e.luminescent_coupling > 0) for string in strings for e in string):
@@ -161,8 +163,8 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
             record(f"non-radiative recombination, string {k + 1}" if several
                    else "non-radiative recombination", total())
     subcells = [c for string in strings for c in string]
-    # 5. current mismatch
-    record("current mismatch", _independent(subcells, temperature))
+    # 5. current mismatch: each subcell at its own MPP
+    record("current mismatch", [[c] for c in subcells])
     # 6-8. optics
     if circuit.model is not None:
         steps = (("incomplete absorption and collection", dict(passive=True, reflection=True)),
@@ -173,15 +175,18 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
         for label, options in steps:
             currents = _walk_photocurrents(circuit, light, **options)
             subcells = [_radiative(c, currents[c.name]) for c in subcells]
-            record(label, _independent(subcells, temperature))
+            record(label, [[c] for c in subcells])
     else:
         gaps = [c.gap_eV for c in subcells]
         full = step_absorber_photocurrents(gaps, [1.0] * len(gaps), light.wavelength_nm,
                                            light.photon_flux)
         subcells = [_radiative(c, j) for c, j in zip(subcells, full)]
-        record("incomplete absorption", _independent(subcells, temperature))
-        record("parasitic absorption", efficiency[-1] * irradiance / 100)
-        record("front reflection", efficiency[-1] * irradiance / 100)
+        record("incomplete absorption", [[c] for c in subcells])
+        record("parasitic absorption", None)
+        record("front reflection", None)
+    efficiency = _step_efficiencies(solves, temperature, irradiance, solve_alike)
+    if several:
+        efficiency.insert(0, 100 * stack_power / irradiance)
     limit = efficiency[-1]
     steps = []
     for k in range(len(names) - 1, -1, -1):
@@ -192,6 +197,30 @@ def loss_waterfall(stack, *, spectrum=None, suns=None, temperature_K=None):
             "steps": steps, "check_pct": check,
             "limit_definition": "detailed-balance limit of the same gaps, each subcell at its own "
                                 "maximum power point, under the same spectrum"}
+
+
+def _step_efficiencies(solves, temperature_K, irradiance, solve_many):
+    """Each step's efficiency [%]: the sum of its strings' MPP powers (in their order) over the
+    irradiance; a step of None repeats the power of the one before (an element stack's optics
+    steps, which it has none of). ``solve_many``: result.batched.solve_alike
+    (every string of every step in one call: alike strings in one batch)."""
+    from siltandem.errors import StackError
+
+    jobs = [(string, temperature_K, 0) for step in solves if step is not None for string in step]
+    answers = iter(solve_many(jobs))
+    efficiency = []
+    for step in solves:
+        if step is None:
+            efficiency.append(100 * (efficiency[-1] * irradiance / 100) / irradiance)
+            continue
+        power = 0
+        for _ in step:
+            answer = next(answers)
+            if isinstance(answer, StackError):
+                raise answer
+            power += float(answer.mpp_W_m2[0])
+        efficiency.append(100 * power / irradiance)
+    return efficiency
 
 
 def plot_waterfall(waterfall, ax=None, *, smallest_pct=0.005):

@@ -69,19 +69,23 @@ def evaluate_candidates(chunk, *, stack, candidates, spectrum=None, suns=None,
     ``spectrum``: a name or path, or (from :func:`rank_placements`) the spectrum already read.
     The candidates of a chunk share one ``reuse`` dict (compile_stack, illuminate): the
     subcells, junctions, interfaces and absorption tables they have in common are built once,
-    the same elements as each candidate's own compile would build."""
-    from siltandem.result.driver import compute_result
+    the same elements as each candidate's own compile would build. They are solved together
+    (result.driver.compute_results): candidates whose circuits have one shape (the junction at
+    a position that gives the same elements in the same order) as one batched solve, and the
+    subcell-alone and element-removal strings of all of them grouped by shape, one batched
+    solve per group; each candidate's numbers are bit for bit those of its solve alone."""
+    from siltandem.result.driver import compute_results
 
-    rows, reuse = [], {}
-    for design in chunk["design"].to_numpy():
-        placement = candidates[int(design)]
-        row = {"design": int(design), "placement": placement.name}
-        try:
-            result = compute_result(with_placement(stack, placement), spectrum=spectrum,
-                                    suns=suns, temperature_K=temperature_K, curve_points=60,
-                                    reuse=reuse)
-        except StackError as exc:
-            row.update({"efficiency_pct": np.nan, "problem": exc.problem})
+    designs = [int(design) for design in chunk["design"].to_numpy()]
+    found = compute_results([with_placement(stack, candidates[design]) for design in designs],
+                            spectrum=spectrum, suns=suns, temperature_K=temperature_K,
+                            curve_points=60, reuse={})
+    rows = []
+    for design, result in zip(designs, found):
+        placement = candidates[design]
+        row = {"design": design, "placement": placement.name}
+        if isinstance(result, StackError):
+            row.update({"efficiency_pct": np.nan, "problem": result.problem})
             rows.append(row)
             continue
         s = result.summary
