@@ -266,18 +266,34 @@ _SUBCELL_ARRAYS = ("emitter_thickness_m", "base_thickness_m", "depletion_width_m
 LIGHT_BATCH = 16
 
 
-def optical_group(model):
+def optical_group(model, reuse=None):
     """A key equal for layer models that :func:`stacked_model` can light at once: everything of
     the model but the thicknesses of the thick layers (from the first emitter down), the
-    subcells' widths and lengths and the grid's shading."""
+    subcells' widths and lengths and the grid's shading. ``reuse``: a study's dict, where each
+    layer object's text is kept (the designs of a study share most layer objects)."""
     films = front_film_count(model)
-    layers = tuple(repr(layer) if j < films else repr(replace(layer, thickness_nm=0.0))
-                   for j, layer in enumerate(model.layers))
+    layers = tuple(_layer_text(layer, j < films, reuse) for j, layer in enumerate(model.layers))
     cells = tuple((c.name, c.emitter, c.base, c.hetero, c.dark_layer) for c in model.subcells)
     return (layers, films, tuple(id(m) for m in model.materials), repr(model.coatings), cells,
             float(model.temperature_K), float(model.back_reflectance), float(model.ambient_index),
             model.back_scattering, model.front_scattering, float(model.back_haze), float(model.front_haze),
             tuple(model.subcell_strings), tuple(float(f) for f in model.lower_shading))
+
+
+def _layer_text(layer, film, reuse):
+    """A layer's part of :func:`optical_group`: its text, with thickness 0 unless it is a front
+    film; kept in ``reuse`` by the object's identity (held in the entry, checked with ``is``)."""
+    if reuse is None:
+        return repr(layer) if film else repr(replace(layer, thickness_nm=0.0))
+    table = reuse.setdefault(("optical group", "layer text"), {})
+    found = table.get((id(layer), film))
+    if found is not None and found[0] is layer:
+        return found[1]
+    text = repr(layer) if film else repr(replace(layer, thickness_nm=0.0))
+    if len(table) >= REUSE_ENTRIES:
+        table.pop(next(iter(table)))
+    table[(id(layer), film)] = (layer, text)
+    return text
 
 
 def stacked_model(models):
