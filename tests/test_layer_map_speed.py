@@ -50,3 +50,34 @@ def test_optical_group_with_a_reuse_dict_equals_the_key_afresh():
     assert keys == [optical_group(m) for m in models]
     assert [optical_group(m, reuse) for m in models] == keys          # answered from the dict
     assert keys[0] == keys[1] == keys[2] != keys[3]
+
+
+def test_joined_parameters_equal_the_broadcast_concatenation():
+    """circuit/batch._concatenate: arrays that already hold their designs' rows are concatenated
+    as they are, arrays of one row standing for several are broadcast first; either way the
+    result equals np.concatenate of each broadcast to its rows (numpy as the reference), and a
+    joined layer study's circuit holds each design's own parameters in its row."""
+    from siltandem.circuit.batch import _concatenate, join_circuits
+    from siltandem.optics.illuminate import illuminate
+    from siltandem.studies.sweep import study_light
+
+    rng = np.random.default_rng(5)
+    for values, sizes in (([rng.normal(size=(1, 1)) for _ in range(5)], [1] * 5),
+                          ([rng.normal(size=(3, 2)), rng.normal(size=(1, 2))], [3, 4]),
+                          ([np.float64(2.5), rng.normal(size=(2,))], [3, 2])):
+        expected = np.concatenate([np.broadcast_to(np.asarray(v, dtype=float),
+                                                   (size,) + np.shape(v)[1:])
+                                   for v, size in zip(values, sizes)], axis=0)
+        found = _concatenate(values, sizes)
+        assert found.shape == expected.shape and np.array_equal(found, expected)
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    light = study_light(stack)
+    lit = [illuminate(compile_stack(layer_design(stack, {"top base.thickness_nm": t})), light)
+           for t in (500.0, 800.0, 1300.0)]
+    joined = join_circuits(lit)
+    for k, circuit in enumerate(lit):
+        for cell in circuit.subcells:
+            assert joined.element(cell.name).photocurrent_A_m2[k] == cell.photocurrent_A_m2[0]
+    currents = [joined.element(c.name).photocurrent_A_m2[:, 0] for c in lit[0].subcells]
+    assert all(len(set(c)) == 3 for c in currents[:1])     # the top subcell's differ by design
