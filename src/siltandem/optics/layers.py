@@ -369,9 +369,11 @@ def light_designs(models, wavelength, flux, reuse=None):
     for start in range(0, len(models), LIGHT_BATCH):
         part = models[start:start + LIGHT_BATCH]
         light = layer_light(stacked_model(part), wavelength, flux, reuse, collecting_only=True)
+        # each subcell's collected current per nm, summed once for the whole batch (elementwise:
+        # row k is the sum of row k's parts, the same numbers as summed for design k alone)
+        totals = [c.emitter_A_m2 + c.depletion_A_m2 + c.base_A_m2 for c in light.collected]
         for k in range(len(part)):
-            out.append([_photocurrent(_row(c.emitter_A_m2 + c.depletion_A_m2 + c.base_A_m2, k), wavelength)
-                        for c in light.collected])
+            out.append([_photocurrent(_row(total, k), wavelength) for total in totals])
     return out
 
 
