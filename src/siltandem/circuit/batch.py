@@ -8,6 +8,8 @@ the group is solved once by the batched solve. Every row keeps its own numbers: 
 row in the joined circuit holds exactly the values it had alone.
 """
 from dataclasses import fields, replace
+import functools
+import operator
 
 import numpy as np
 
@@ -18,29 +20,49 @@ from siltandem.circuit.graph import build_circuit
 _REPORT_ONLY = ("sides", "offset_source", "eqe_file", "eqe_table")
 
 
-def _rows(value):
-    return np.shape(value)[0]
-
-
 def _is_columns(value):
     """A tuple of (B, 1) arrays (a silicon base's recombination columns)."""
     return isinstance(value, tuple) and len(value) > 0 and all(
         isinstance(v, np.ndarray) and v.ndim == 2 for v in value)
 
 
+@functools.lru_cache(maxsize=None)
+def _setting_names(kind):
+    """The field names of an element class that :func:`_settings` reads, in order, and a
+    function returning their values as a tuple (one attribute lookup pass per element)."""
+    names = tuple(item.name for item in fields(kind)
+                  if not item.name.startswith("_") and item.name not in _REPORT_ONLY)
+    return names, _getter(names)
+
+
+@functools.lru_cache(maxsize=None)
+def _public_names(kind):
+    """The field names of an element class not starting with an underscore, and a function
+    returning their values as a tuple."""
+    names = tuple(item.name for item in fields(kind) if not item.name.startswith("_"))
+    return names, _getter(names)
+
+
+def _getter(names):
+    """element -> the tuple of its attributes ``names``."""
+    if len(names) == 1:
+        return lambda element: (getattr(element, names[0]),)
+    if not names:
+        return lambda element: ()
+    return operator.attrgetter(*names)
+
+
 def _settings(element):
     """The element's non-numeric settings (everything a joined batch must share), hashable."""
     key = [type(element).__name__]
-    for item in fields(element):
-        if item.name.startswith("_") or item.name in _REPORT_ONLY:
-            continue
-        value = getattr(element, item.name)
+    names, values = _setting_names(type(element))
+    for name, value in zip(names, values(element)):
         if isinstance(value, np.ndarray):
-            key.append((item.name, "array"))
+            key.append((name, "array"))
         elif _is_columns(value):
-            key.append((item.name, "columns", len(value)))
+            key.append((name, "columns", len(value)))
         else:
-            key.append((item.name, repr(value)))
+            key.append((name, repr(value)))
     return tuple(key)
 
 
@@ -51,9 +73,14 @@ def structure_key(circuit):
 
 
 def _concatenate(values, sizes):
-    """(B_i, 1) arrays (or (1, 1) ones standing for B_i rows) stacked into one (sum B_i, 1)."""
-    return np.concatenate([np.broadcast_to(np.asarray(v, dtype=float), (size,) + np.shape(v)[1:])
-                           for v, size in zip(values, sizes)], axis=0)
+    """(B_i, 1) arrays (or (1, 1) ones standing for B_i rows) stacked into one (sum B_i, 1).
+    Where every array already has its B_i rows (a layer study: one design each) they are
+    concatenated as they are: the same values, without a broadcast view per design."""
+    arrays = [np.asarray(v, dtype=float) for v in values]
+    if all(a.ndim > 0 and a.shape[0] == size for a, size in zip(arrays, sizes)):
+        return np.concatenate(arrays, axis=0)
+    return np.concatenate([np.broadcast_to(a, (size,) + a.shape[1:])
+                           for a, size in zip(arrays, sizes)], axis=0)
 
 
 def _same(values):
@@ -92,10 +119,9 @@ def circuit_rows(circuit):
     """The number of designs a circuit holds (the longest batch axis of its elements)."""
     rows = 1
     for element in circuit.elements:
-        for item in fields(element):
-            value = getattr(element, item.name)
-            if isinstance(value, np.ndarray) and value.ndim == 2 and not item.name.startswith("_"):
-                rows = max(rows, _rows(value))
+        for value in _public_names(type(element))[1](element):
+            if isinstance(value, np.ndarray) and value.ndim == 2:
+                rows = max(rows, value.shape[0])
     return rows
 
 

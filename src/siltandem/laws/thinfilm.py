@@ -41,6 +41,7 @@ import numpy as np
 
 from siltandem.constants import ELEMENTARY_CHARGE_C
 from siltandem.laws.lambertian import TRANSMITTANCE_MEMO, two_e3
+from siltandem.numerics.sums import running_sum
 
 __all__ = [
     "ThinFilmInputError",
@@ -586,8 +587,9 @@ def _specular_passes(entering, alphas, thicknesses, r_back, r_inside, shape, ref
         else np.zeros((0,) + shape)
     absorbed_once = -np.expm1(-depth)                                   # a_j
     total = depth.sum(axis=0)
-    above = np.cumsum(depth, axis=0) - depth                            # sum_{i<j} tau_i
-    below = total - np.cumsum(depth, axis=0)                            # sum_{i>j} tau_i
+    running = running_sum(depth)                                        # np.cumsum(axis=0)
+    above = running - depth                                             # sum_{i<j} tau_i
+    below = total - running                                             # sum_{i>j} tau_i
     below = np.maximum(below, 0.0)
     single_pass = np.exp(-total)
 
@@ -642,7 +644,7 @@ def _scattered_passes(entering, reaching_back, alphas, thicknesses, r_back, r_in
     depth = np.stack([np.broadcast_to(a * d, shape) for a, d in zip(alphas, thicknesses)]) if alphas \
         else np.zeros((0,) + shape)
     count = len(alphas)
-    bottoms = np.cumsum(depth, axis=0)                                       # z_j
+    bottoms = running_sum(depth)                                             # z_j
     total = bottoms[-1] if alphas else np.zeros(shape)                       # Z
     wanted = list(range(count)) if layers is None else sorted({int(j) for j in layers})
     # the depths read: each wanted layer's bottom and the one above it (its top)

@@ -266,18 +266,34 @@ _SUBCELL_ARRAYS = ("emitter_thickness_m", "base_thickness_m", "depletion_width_m
 LIGHT_BATCH = 16
 
 
-def optical_group(model):
+def optical_group(model, reuse=None):
     """A key equal for layer models that :func:`stacked_model` can light at once: everything of
     the model but the thicknesses of the thick layers (from the first emitter down), the
-    subcells' widths and lengths and the grid's shading."""
+    subcells' widths and lengths and the grid's shading. ``reuse``: a study's dict, where each
+    layer object's text is kept (the designs of a study share most layer objects)."""
     films = front_film_count(model)
-    layers = tuple(repr(layer) if j < films else repr(replace(layer, thickness_nm=0.0))
-                   for j, layer in enumerate(model.layers))
+    layers = tuple(_layer_text(layer, j < films, reuse) for j, layer in enumerate(model.layers))
     cells = tuple((c.name, c.emitter, c.base, c.hetero, c.dark_layer) for c in model.subcells)
     return (layers, films, tuple(id(m) for m in model.materials), repr(model.coatings), cells,
             float(model.temperature_K), float(model.back_reflectance), float(model.ambient_index),
             model.back_scattering, model.front_scattering, float(model.back_haze), float(model.front_haze),
             tuple(model.subcell_strings), tuple(float(f) for f in model.lower_shading))
+
+
+def _layer_text(layer, film, reuse):
+    """A layer's part of :func:`optical_group`: its text, with thickness 0 unless it is a front
+    film; kept in ``reuse`` by the object's identity (held in the entry, checked with ``is``)."""
+    if reuse is None:
+        return repr(layer) if film else repr(replace(layer, thickness_nm=0.0))
+    table = reuse.setdefault(("optical group", "layer text"), {})
+    found = table.get((id(layer), film))
+    if found is not None and found[0] is layer:
+        return found[1]
+    text = repr(layer) if film else repr(replace(layer, thickness_nm=0.0))
+    if len(table) >= REUSE_ENTRIES:
+        table.pop(next(iter(table)))
+    table[(id(layer), film)] = (layer, text)
+    return text
 
 
 def stacked_model(models):
@@ -353,9 +369,11 @@ def light_designs(models, wavelength, flux, reuse=None):
     for start in range(0, len(models), LIGHT_BATCH):
         part = models[start:start + LIGHT_BATCH]
         light = layer_light(stacked_model(part), wavelength, flux, reuse, collecting_only=True)
+        # each subcell's collected current per nm, summed once for the whole batch (elementwise:
+        # row k is the sum of row k's parts, the same numbers as summed for design k alone)
+        totals = [c.emitter_A_m2 + c.depletion_A_m2 + c.base_A_m2 for c in light.collected]
         for k in range(len(part)):
-            out.append([_photocurrent(_row(c.emitter_A_m2 + c.depletion_A_m2 + c.base_A_m2, k), wavelength)
-                        for c in light.collected])
+            out.append([_photocurrent(_row(total, k), wavelength) for total in totals])
     return out
 
 

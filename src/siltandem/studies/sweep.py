@@ -342,7 +342,7 @@ def lit_designs(compiled, light, reuse):
 
     groups = {}
     for k, circuit in enumerate(compiled):
-        groups.setdefault(optical_group(circuit.model), []).append(k)
+        groups.setdefault(optical_group(circuit.model, reuse), []).append(k)
     out = []
     for members in groups.values():
         try:
