@@ -9,10 +9,17 @@
    CPU medians of 3; and its root search alone: on batched optics (studies.matching.ThicknessOptics,
    one compile, brentq a value per step) against brentq compiling and illuminating a design per step
    (sweep.photocurrents_at).
+3. The year now against the year with the work it no longer repeats re-created (--reuse-only):
+   each subcell on its own building its tables afresh (a lone pilot's too, for its two
+   inversions), and every isotype member's one-sample table
+   written into each row of the packed element pass; CPU medians of 3, interleaved, and whether
+   the two years agree with == (annual energy, every hourly column).
 
 Asserts nothing: prints medians and ratios (the machine is shared: compare ratios, not seconds),
 and the year's CPU and wall medians against the target of issue 19 (a layer-stack yield year under
-TARGET_S). Run: python benchmarks/bench_layer_year.py [--match-only | --year-only]
+TARGET_S). Run: python benchmarks/bench_layer_year.py [--match-only | --year-only | --reuse-only]
+(--reuse-only: the year now against the year with the repeated work of before re-created,
+reuse_before_after)
 """
 from pathlib import Path
 import statistics
@@ -107,6 +114,50 @@ def certificate_on_whole_batch(stack, weather):
             result.summary["annual_energy_kWh_m2"])
 
 
+def reuse_before_after(stack, weather):
+    """The year as it runs now against the year with the repeated work of before re-created here
+    (each subcell solved on its own building its tables afresh, Subcell.on_string without the
+    shared cache, and a lone pilot's table built for its two inversions, Subcell
+    ._junction_voltage_table always tabled; every isotype member's one-sample table written into
+    every row of the packed element pass, solve/string.py _padded), interleaved, CPU medians of
+    3. Returns (now, before,
+    equal): ``equal`` whether the annual energy and every hourly column agree with ==."""
+    from dataclasses import replace
+
+    from siltandem.circuit.elements import Subcell
+    from siltandem.solve import string as packing
+
+    shared, padded, tabled = Subcell.on_string, packing._padded, Subcell._junction_voltage_table
+
+    def padded_before(members, rows):
+        out = padded(members, rows)
+        for e, m in enumerate(members):
+            if m["table"] is packing._NO_TABLE:
+                for k, name in ((2, "u"), (3, "j"), (4, "slope")):
+                    out[k][e, :, :1] = getattr(m["table"], name)
+        return out
+
+    times = {"now": [], "before": []}
+    results = {}
+    for _ in range(3):
+        for label in ("now", "before"):
+            if label == "before":
+                Subcell.on_string = lambda self, number: replace(self, string=number)
+                packing._padded = padded_before
+                Subcell._junction_voltage_table = lambda self, j, t, _=True: tabled(self, j, t, True)
+            try:
+                start = time.process_time()
+                results[label] = Y.annual_yield(stack, weather)
+                times[label].append(time.process_time() - start)
+            finally:
+                Subcell.on_string, packing._padded = shared, padded
+                Subcell._junction_voltage_table = tabled
+    a, b = results["now"], results["before"]
+    equal = a.summary == b.summary and all(
+        np.array_equal(a.hourly[c].to_numpy(), b.hourly[c].to_numpy()) for c in a.hourly.columns)
+    return statistics.median(times["now"]), statistics.median(times["before"]), equal
+
+
 def root_search(stack, column, low, high, a, b):
     optics = matching.thickness_optics(stack, column)
     batched, value_batched = cpu(lambda: optics.crossing(a, b, low, high))
@@ -125,6 +176,15 @@ def root_search(stack, column, low, high, a, b):
 def main():
     warnings.simplefilter("ignore")
     stack = load_stack(TRIPLE)
+    if "--reuse-only" in sys.argv:
+        weather = weather_files.read_weather("demo")
+        Y.annual_yield(stack, weather)          # warm: kernels, pvlib tables, imports
+        now, before, equal = reuse_before_after(stack, weather)
+        print(f"layer yield year, demo triple layers: CPU medians of 3 (interleaved) {now:.2f} s now, "
+              f"{before:.2f} s with tables rebuilt per solve, a lone pilot's table built and isotype "
+              f"slots written (x{before / now:.2f}); "
+              f"annual energy and hourly columns equal (==): {equal}")
+        return 0
     if "--match-only" not in sys.argv:
         weather = weather_files.read_weather("demo")
         Y.annual_yield(stack, weather)          # warm: kernels, pvlib tables, imports

@@ -344,8 +344,8 @@ def test_materials_form_thermionic_is_the_thermionic_law_bit_for_bit():
     """transport = "thermionic" on the materials form builds the thermionic law on the exact
     Boltzmann depletion side (laws/thermionic.py, itself checked against mpmath): the element's
     current and inverse equal that law's on the element's numbers exactly (numpy path); a sheet
-    charge without a transport key takes thermionic-field emission (laws/field_emission_sheet.py). At 1e19 both sides are
-    within 3 kT of their bands, where stack files take the Fermi-Dirac law
+    charge without a transport key takes thermionic-field emission (laws/field_emission_sheet.py).
+    At 1e19 both sides are within 3 kT of their bands, where stack files take the Fermi-Dirac law
     (tests/test_fermi_dirac_stacks.py): statistics = "boltzmann" here, so the Boltzmann law is compared."""
     from siltandem.circuit.isotype import isotype_from_materials
     from siltandem.stack.load import ElementSpec

@@ -26,7 +26,7 @@ def _is_columns(value):
         isinstance(v, np.ndarray) and v.ndim == 2 for v in value)
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _setting_names(kind):
     """The field names of an element class that :func:`_settings` reads, in order, and a
     function returning their values as a tuple (one attribute lookup pass per element)."""
@@ -35,7 +35,7 @@ def _setting_names(kind):
     return names, _getter(names)
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _public_names(kind):
     """The field names of an element class not starting with an underscore, and a function
     returning their values as a tuple."""

@@ -104,10 +104,10 @@ class CoupledSubcell(Subcell):
         coupled = dshift != 0
         return v - shift * rs, np.where(coupled, (dv + rs) * (1.0 - dshift) - rs, dv)
 
-    def junction_voltage_at(self, current_A_m2, temperature_K):
+    def junction_voltage_at(self, current_A_m2, temperature_K, tabled=True):
         current = np.asarray(current_A_m2, dtype=float)
         shift, _ = self.coupled_current(current, temperature_K)
-        return Subcell.junction_voltage_at(self, current - shift, temperature_K)
+        return Subcell.junction_voltage_at(self, current - shift, temperature_K, tabled)
 
     def pilot_current(self, v_junction_V, temperature_K):
         """(J, dJ/dVj, V, dV/dVj) at junction voltage ``v_junction_V``: J = J_base + ΔJ(J)

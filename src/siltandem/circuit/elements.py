@@ -147,6 +147,16 @@ class Subcell:
     def with_photocurrent(self, photocurrent_A_m2):
         return replace(self, photocurrent_A_m2=batch(photocurrent_A_m2))
 
+    def on_string(self, number):
+        """The same subcell wired in series string ``number`` (1-based), sharing this one's
+        cached law parameters, tables and inverses: the string a subcell belongs to enters none
+        of them, so they are the same numbers (the yield year solves each subcell on its own
+        after the whole stack: one whose light no coupling from above changes reuses the
+        stack's tables instead of building them again for every hour)."""
+        moved = replace(self, string=number)
+        object.__setattr__(moved, "_cache", self._cache)
+        return moved
+
     def _needs_table(self, temperature_K=None):
         """True when a table serves Vj(J): with J02 or breakdown (no closed form), and with a
         shunt (the Wright-omega closed form costs more than a table lookup and two Newton
@@ -195,18 +205,32 @@ class Subcell:
                 bulk=None if self.bulk is None else _parameter_rows(*self.bulk_columns(temperature_K)))
         return self._cache[key]
 
-    def _junction_voltage_fast(self, current_A_m2, temperature_K):
+    def _junction_voltage_fast(self, current_A_m2, temperature_K, tabled=True):
         """Vj carrying the current and dJ/dVj there, through the table and the compiled
         per-entry Newton search inside its cell (kernels.py); currents beyond the table's
-        range by the general root find of laws/diode.py; recent calls remembered (numerics.memo)."""
+        range by the general root find of laws/diode.py; recent calls remembered (numerics.memo).
+        ``tabled`` False with no table built yet: the same numbers without building it
+        (laws/compiled_untabled.py), for a subcell asked at a few currents only."""
         store = self._cache.setdefault(("inverse memo", _temperature_key(temperature_K)), {})
-        return recall(store, current_A_m2, lambda j: self._junction_voltage_table(j, temperature_K))
+        return recall(store, current_A_m2,
+                      lambda j: self._junction_voltage_table(j, temperature_K, tabled))
 
-    def _junction_voltage_table(self, current, temperature_K):
+    def _junction_voltage_table(self, current, temperature_K, tabled=True):
         """:meth:`_junction_voltage_fast` evaluated afresh."""
-        table = self._table(temperature_K)
-        vj, slope, inside = kernels.invert(kernels.SUBCELL_LAW, self._law_parameters(temperature_K),
-                                           table, current, increasing=False)
+        params = self._law_parameters(temperature_K)
+        if tabled or ("table", _temperature_key(temperature_K)) in self._cache:
+            vj, slope, inside = kernels.invert(kernels.SUBCELL_LAW, params, self._table(temperature_K),
+                                               current, increasing=False)
+        else:
+            from siltandem.laws.compiled_untabled import subcell_inverse_untabled
+
+            targets = np.asarray(current, dtype=float)
+            targets = targets.reshape(1, -1) if targets.ndim < 2 else targets
+            if params.shape[0] > 1:
+                targets = np.broadcast_to(targets, (params.shape[0], targets.shape[1]))
+            vj, slope, inside = subcell_inverse_untabled(
+                params, kernels.as_input(targets), TABLE_FORWARD_POINTS, TABLE_REVERSE_POINTS,
+                kernels.XTOL, kernels.RTOL, kernels.MAX_ITERATIONS)
         if not inside.all():
             target = np.broadcast_to(current, vj.shape)
             out = ~inside
@@ -270,10 +294,11 @@ class Subcell:
         voltage = v_junction_V - current * self.series_ohm_m2
         return current, slope, voltage, 1.0 - self.series_ohm_m2 * slope
 
-    def junction_voltage_at(self, current_A_m2, temperature_K):
-        """Junction voltage Vj [V] carrying ``current_A_m2``."""
+    def junction_voltage_at(self, current_A_m2, temperature_K, tabled=True):
+        """Junction voltage Vj [V] carrying ``current_A_m2`` (``tabled`` False: without building
+        the table if it is not built yet; the same numbers, see _junction_voltage_fast)."""
         if self._needs_table(temperature_K):
-            return self._junction_voltage_fast(current_A_m2, temperature_K)[0]
+            return self._junction_voltage_fast(current_A_m2, temperature_K, tabled)[0]
         vj, _ = diode.junction_voltage(current_A_m2, **self._junction(temperature_K))
         return vj
 

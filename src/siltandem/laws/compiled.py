@@ -34,9 +34,8 @@ from siltandem.laws.compiled_isotype import isotype_inverse  # noqa: E402
 
 __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "ISOTYPE_LAW", "as_input", "parameter_rows", "evaluate_law",
            "tunnel_curvature", "invert", "invert_table", "element_voltages",
-           "subcell_table", "subcell_terminal_current", "exact_peak_shape", "tunnel_extrema",
-           "bose_einstein_tail",
-           "slope_range"]
+           "subcell_table", "subcell_grid", "subcell_terminal_current", "exact_peak_shape",
+           "tunnel_extrema", "bose_einstein_tail", "slope_range"]
 
 #: law codes of :func:`invert_table`
 SUBCELL_LAW = 0
@@ -657,28 +656,35 @@ def subcell_table(params, forward_points, reverse_points):
     dj = np.empty((rows, m))
     for r in range(rows):
         p = params[r]
-        jph, j01, vt, vbr, a = p[0], p[1], p[4], p[5], p[6]
-        highest = vt * math.log1p(3.0 * max(jph, 1e-3) / j01) + 4.0 * vt
-        if p[BULK_OFFSET] > 0.0:
-            # a silicon base's recombination may carry it first: the first 10 mV step where it does
-            for k in range(1, 400):
-                if 0.01 * k >= highest or bulk_law(0.01 * k, p, p[8])[0] > 3.0 * max(jph, 1e-3):
-                    highest = min(highest, 0.01 * k + 4.0 * vt)
-                    break
-        if a > 0.0 and math.isfinite(vbr):
-            lowest = max(vbr * (1.0 - 1e-9), -3.0)
-            for k in range(reverse_points):
-                grid[r, k] = lowest * (1.0 - k / reverse_points)
-        else:
-            ratio = math.log(1e-3 / 1e7) / (reverse_points - 1)
-            for k in range(reverse_points):
-                grid[r, k] = -1e7 * math.exp(ratio * k)
-            grid[r, reverse_points - 1] = -1e-3
-        for k in range(forward_points):
-            grid[r, reverse_points + k] = highest * (k / (forward_points - 1))
+        subcell_grid(p, forward_points, reverse_points, grid[r])
         for k in range(m):
             j[r, k], dj[r, k] = subcell_law(grid[r, k], p)
     return grid, j, dj
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def subcell_grid(p, forward_points, reverse_points, grid):
+    """The junction voltages of one row of :func:`subcell_table` (law parameters ``p``), into
+    ``grid`` (reverse_points + forward_points,); laws/compiled_untabled.py samples the same."""
+    jph, j01, vt, vbr, a = p[0], p[1], p[4], p[5], p[6]
+    highest = vt * math.log1p(3.0 * max(jph, 1e-3) / j01) + 4.0 * vt
+    if p[BULK_OFFSET] > 0.0:
+        # a silicon base's recombination may carry it first: the first 10 mV step where it does
+        for k in range(1, 400):
+            if 0.01 * k >= highest or bulk_law(0.01 * k, p, p[8])[0] > 3.0 * max(jph, 1e-3):
+                highest = min(highest, 0.01 * k + 4.0 * vt)
+                break
+    if a > 0.0 and math.isfinite(vbr):
+        lowest = max(vbr * (1.0 - 1e-9), -3.0)
+        for k in range(reverse_points):
+            grid[k] = lowest * (1.0 - k / reverse_points)
+    else:
+        ratio = math.log(1e-3 / 1e7) / (reverse_points - 1)
+        for k in range(reverse_points):
+            grid[k] = -1e7 * math.exp(ratio * k)
+        grid[reverse_points - 1] = -1e-3
+    for k in range(forward_points):
+        grid[reverse_points + k] = highest * (k / (forward_points - 1))
 
 
 @numba.njit(cache=True, error_model="numpy")

@@ -17,7 +17,7 @@ from pathlib import Path
 #: the kernel sources, relative to the package folder (every file with @numba.njit(cache=True))
 KERNEL_SOURCES = ("laws/compiled.py", "laws/compiled_bulk.py", "solve/kernels.py",
                   "laws/compiled_isotype.py", "laws/field_emission.py", "laws/compiled_fermi.py",
-                  "laws/compiled_field_fermi.py")
+                  "laws/compiled_field_fermi.py", "laws/compiled_untabled.py")
 #: sources with no kernel of their own whose functions a kernel module compiles and inlines
 #: (laws/compiled_bulk.py compiles laws/silicon.py's Schenk band shift): hashed and dropped alike
 INLINED_SOURCES = ("laws/silicon.py",)

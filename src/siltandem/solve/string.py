@@ -173,9 +173,12 @@ def _padded(members, rows):
         table, element = m["table"], m["element"]
         size = table.u.shape[1]
         packed_params[e] = m["params"]
-        grid_u[e, :, :size] = table.u
-        grid_j[e, :, :size] = table.j
-        grid_slope[e, :, :size] = table.slope
+        if table is not _NO_TABLE:
+            # (an isotype member's one zero sample is never read, and its padding is zero
+            # already: writing it would touch every row's page of a batch of thousands)
+            grid_u[e, :, :size] = table.u
+            grid_j[e, :, :size] = table.j
+            grid_slope[e, :, :size] = table.slope
         for name, value in (("fold_low", m["fold"][0]), ("fold_high", m["fold"][1]),
                             ("lower", m["clip"][0]), ("upper", m["clip"][1]),
                             ("range_low", m["range"][0]), ("range_high", m["range"][1]),
@@ -275,7 +278,10 @@ class SeriesString:
         """Pilot junction voltage t carrying ``current_A_m2`` (safe away from Jph)."""
         if self.single_pilot is not None:
             pilot = self.subcells[self.single_pilot]
-            return pilot.junction_voltage_at(current_A_m2, self.temperature_K)
+            # a string of the pilot alone is only run forward after this: no table for it
+            # (the same numbers, laws/compiled_untabled.py)
+            return pilot.junction_voltage_at(current_A_m2, self.temperature_K,
+                                             tabled=len(self.elements) > 1)
         return self._select([s.junction_voltage_at(current_A_m2, self.temperature_K)
                              for s in self.subcells])
 

@@ -356,7 +356,9 @@ def _year_solves(circuit, hourly_cells, names, temperature, split_losses):
         bare_power = series_power
     # each subcell on its own terminals, the light of the coupling crossing from the one above at
     # its own MPP (as a four-terminal stack's strings)
-    apart = [replace(hourly_cells[c.name], string=k + 1) for k, c in enumerate(circuit.subcells)]
+    # (sharing the tables the wired solve built: a subcell whose photocurrent the coupling from
+    # above changes is a new subcell, with_photocurrent, and builds its own)
+    apart = [hourly_cells[c.name].on_string(k + 1) for k, c in enumerate(circuit.subcells)]
     _, solutions = solve_strings([[cell] for cell in apart], apart, temperature, solve=_solve_with)
     alone = {}
     for cell, solution in zip(apart, solutions):
