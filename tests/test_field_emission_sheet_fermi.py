@@ -220,9 +220,10 @@ def test_nondegenerate_limit_is_the_boltzmann_sheet_law(s):
 
 def test_layer_stack_element_takes_the_fermi_level_with_the_charge(tmp_path):
     """p-GaP (1e18) on p-Si (1e20, its Fermi level 2.28 kT inside the valence band at 298.15 K,
-    measured: degenerate) with -3e12 cm^-2 on the GaP layer: the element runs laws/field_emission_sheet.py (numpy, no compiled
-    rows) with accumulation_fermi_eV set, positive, and its voltage is that law's with the Fermi level
-    (checked above against the reference), not the Boltzmann sheet law's."""
+    measured: degenerate) with -3e12 cm^-2 on the GaP layer: the element runs
+    laws/field_emission_sheet.py (numpy, no compiled rows) with accumulation_fermi_eV set, positive,
+    and its voltage is that law's with the Fermi level (checked above against the reference), not
+    the Boltzmann sheet law's."""
     from test_field_emission_sheet import INTERFACE, gap_si_stack
 
     from siltandem import load_stack
