@@ -17,7 +17,7 @@ from siltandem.circuit.graph import build_circuit
 
 #: element fields that only reports read (compare=False, not numeric parameters): the joined
 #: circuit keeps them where every design agrees, else drops them (None)
-_REPORT_ONLY = ("sides", "offset_source", "eqe_file", "eqe_table")
+REPORT_ONLY = ("sides", "offset_source", "eqe_file", "eqe_table")
 
 
 def _is_columns(value):
@@ -28,10 +28,10 @@ def _is_columns(value):
 
 @functools.cache
 def _setting_names(kind):
-    """The field names of an element class that :func:`_settings` reads, in order, and a
+    """The field names of an element class that :func:`element_settings` reads, in order, and a
     function returning their values as a tuple (one attribute lookup pass per element)."""
     names = tuple(item.name for item in fields(kind)
-                  if not item.name.startswith("_") and item.name not in _REPORT_ONLY)
+                  if not item.name.startswith("_") and item.name not in REPORT_ONLY)
     return names, _getter(names)
 
 
@@ -52,7 +52,7 @@ def _getter(names):
     return operator.attrgetter(*names)
 
 
-def _settings(element):
+def element_settings(element):
     """The element's non-numeric settings (everything a joined batch must share), hashable."""
     key = [type(element).__name__]
     names, values = _setting_names(type(element))
@@ -69,7 +69,7 @@ def _settings(element):
 def structure_key(circuit):
     """What designs must share to be solved as one batch: the conditions, the strings and every
     element's kind, name and settings, in optical order (hashable)."""
-    return (repr(circuit.conditions), tuple(_settings(e) for e in circuit.elements))
+    return (repr(circuit.conditions), tuple(element_settings(e) for e in circuit.elements))
 
 
 def _concatenate(values, sizes):
@@ -110,7 +110,7 @@ def join_rows(elements, sizes):
         elif _is_columns(values[0]):
             changes[item.name] = tuple(_concatenate([v[k] for v in values], sizes)
                                        for k in range(len(values[0])))
-        elif item.name in _REPORT_ONLY and not _same(values):
+        elif item.name in REPORT_ONLY and not _same(values):
             changes[item.name] = None
     return replace(first, **changes)
 

@@ -82,7 +82,7 @@ def parameter_rows(code, base, bulk=None):
 #: and slope continuous) so that nothing overflows; e**300 ~ 2e130 lies far outside any physical
 #: operating point (the numpy law in laws/esaki.py uses the same limit)
 EXP_LIMIT = 300.0
-_EPS = np.finfo(float).eps
+EPS = np.finfo(float).eps
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
@@ -359,7 +359,7 @@ def _first_guess(y, lo, hi, m, gu, gj, gs, fold_low, fold_high):
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol,
+def invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol,
                 max_iterations, hint):
     """(u, dJ/du, inside, cell) for one target y in one law's table (see
     :func:`invert_table`); ``hint`` is a cell to try first (the previous entry's: targets
@@ -368,7 +368,7 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
     first, last = sign * gj[0], sign * gj[m - 1]
     if not (ys >= first and ys <= last):
         # a few rounding units beyond an end (a fold's value computed elsewhere): the end
-        slack = 4.0 * _EPS * abs(y)
+        slack = 4.0 * EPS * abs(y)
         if not math.isfinite(y):
             return math.nan, math.nan, False, hint
         if ys >= first - slack and ys < first:
@@ -380,7 +380,7 @@ def _invert_one(code, p, gu, gj, gs, m, sign, fold_low, fold_high, y, xtol, rtol
     lo, hi = _locate_cell(gj, m, sign, ys, hint)
     xl, xh = gu[lo], gu[hi]
     x = _first_guess(y, lo, hi, m, gu, gj, gs, fold_low, fold_high)
-    ftol = 2.0 * _EPS * abs(y)
+    ftol = 2.0 * EPS * abs(y)
     # one law evaluation per pass of this loop (a single call site keeps the compiled code
     # small): stage 0 at the first guess, stage 1 at its Newton point, stage 2 the general
     # search (Newton inside the shrinking bracket, bisection where a step would leave it or
@@ -487,7 +487,7 @@ def invert_table(code, params, grid_u, grid_j, grid_slope, increasing, fold_low,
         gu, gj, gs, fl, fh = grid_u[r], grid_j[r], grid_slope[r], fold_low[r], fold_high[r]
         cell = -1
         for i in range(n):
-            u_out[b, i], slope_out[b, i], inside[b, i], cell = _invert_one(
+            u_out[b, i], slope_out[b, i], inside[b, i], cell = invert_one(
                 code, p, gu, gj, gs, m, sign, fl, fh, targets[b, i], xtol, rtol,
                 max_iterations, cell)
     return u_out, slope_out, inside
@@ -543,7 +543,7 @@ def element_voltages(current, codes, params, grid_u, grid_j, grid_slope, lengths
                     covered[e, b, i] = True
                     continue
                 y = min(max(j, low), high)
-                u, slope, inside, cell = _invert_one(code, p, gu, gj, gs, m, sign, fl, fh, y,
+                u, slope, inside, cell = invert_one(code, p, gu, gj, gs, m, sign, fl, fh, y,
                                                      xtol, rtol, max_iterations, cell)
                 covered[e, b, i] = inside or math.isnan(j)
                 if not (j >= range_lo and j <= range_hi):

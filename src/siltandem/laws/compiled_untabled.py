@@ -6,7 +6,7 @@ law): worth it where a string inverts the subcell at many currents, not where it
 few (the pilot of a string of one subcell is asked for its junction voltage at two currents, then
 only run forward). Here the same grid is laid (``compiled.subcell_grid``) but the law is
 evaluated only at the samples the table search reads (the two ends, the hunt and bisection of
-``compiled._locate_cell``, the cell's ends): then ``compiled._invert_one`` runs on that partly
+``compiled._locate_cell``, the cell's ends): then ``compiled.invert_one`` runs on that partly
 filled table exactly as on the full one. The samples it reads are the law at the same grid
 points, so the answer is the table inverse's, bit for bit (tests/test_year_reuse.py).
 
@@ -24,7 +24,7 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
 from siltandem.laws.compiled import (  # noqa: E402
-    SUBCELL_LAW, _EPS, _invert_one, subcell_grid, subcell_law)
+    SUBCELL_LAW, EPS, invert_one, subcell_grid, subcell_law)
 
 __all__ = ["subcell_inverse_untabled"]
 
@@ -96,8 +96,8 @@ def subcell_inverse_untabled(params, targets, forward_points, reverse_points, xt
             first = sign * _sample(0, p, gu, gj, gs, done)
             last = sign * _sample(m - 1, p, gu, gj, gs, done)
             if not (ys >= first and ys <= last):
-                # compiled._invert_one's end slack: a few rounding units beyond an end
-                slack = 4.0 * _EPS * abs(y)
+                # compiled.invert_one's end slack: a few rounding units beyond an end
+                slack = 4.0 * EPS * abs(y)
                 if ys >= first - slack and ys < first:
                     ys = first
                 elif ys <= last + slack and ys > last:
@@ -106,7 +106,7 @@ def subcell_inverse_untabled(params, targets, forward_points, reverse_points, xt
                     ys = math.nan
             if ys == ys:
                 _locate_sampling(p, gu, gj, gs, done, m, sign, ys, cell)
-            u_out[b, i], slope_out[b, i], inside[b, i], cell = _invert_one(
+            u_out[b, i], slope_out[b, i], inside[b, i], cell = invert_one(
                 SUBCELL_LAW, p, gu, gj, gs, m, sign, 0.0, 0.0, y, xtol, rtol, max_iterations,
                 cell)
     return u_out, slope_out, inside

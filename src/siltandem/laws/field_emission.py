@@ -344,7 +344,7 @@ def gain_slope_range(w_lo, w_hi, e00, spike, log_gain_hi, slope_at_lo, slope_at_
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _gain_slope_kernel(w_lo, w_hi, e00, spike, log_gain_hi, slope_at_lo, slope_at_hi, low, high):
+def gain_slope_kernel(w_lo, w_hi, e00, spike, log_gain_hi, slope_at_lo, slope_at_hi, low, high):
     """`gain_slope_range` over flat arrays."""
     for i in range(w_lo.size):
         low[i], high[i] = gain_slope_range(w_lo[i], w_hi[i], e00[i], spike[i], log_gain_hi[i],
@@ -658,7 +658,7 @@ def slope_range_from_split(v, v1, a_em1, a_g, vbi, vt, log_p, e00, spike, form, 
     half = v.size // 2
     lo, hi = slice(None, half), slice(half, None)          # low V (larger w), high V ends
     l_min, l_max = np.empty(half), np.empty(half)
-    _gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
+    gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
         a_g[hi], a_g[lo], e00[lo], spike[lo], log_g[lo], dlog_g[hi], dlog_g[lo])), l_min, l_max)
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         scale = np.exp(log_p + v1 + log_g) / vt         # P e^v1 G / Vt: larger at the low end

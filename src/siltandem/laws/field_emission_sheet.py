@@ -31,7 +31,7 @@ Current and its slope, with Boltzmann supply on both sides (K. Yang, J. R. East,
     J = P e^v1 (e^v - 1) G(w),
     dJ/dV = (P e^v1 G / Vt) [u + (1 - u) L s2 + (1 - u)(1 - L s2) e^v],
 
-u = dv1/dvb = R'/(L' + R') with L' = dq1/dv1, R' = dq2/dv2 (laws/interface_charge.py `_balance`),
+u = dv1/dvb = R'/(L' + R') with L' = dq1/dv1, R' = dq2/dv2 (laws/interface_charge.py `charge_balance`),
 s2 = dw/dv2 = 1 - e^-v2, L = dlnG/dw; a sum of non-negative terms, so J rises strictly with V
 (from 1 + (e^v - 1)(1 - u)(1 - L s2), dw/dV = -s2 (1 - u)). With s = 0 this is the law of
 laws/field_emission.py with the exact depletion side (there (1 - u) = A/(A + s2)); with E00 -> 0
@@ -59,8 +59,8 @@ import numpy as np
 
 from siltandem.laws import thermionic as te
 from siltandem.laws.fermi_dirac import charge_integral
-from siltandem.laws.field_emission import _gain_slope_kernel, tunnelling_gain
-from siltandem.laws.interface_charge import _balance, bending_split
+from siltandem.laws.field_emission import gain_slope_kernel, tunnelling_gain
+from siltandem.laws.interface_charge import charge_balance, bending_split
 from siltandem.numerics.roots import safeguarded_newton
 
 __all__ = ["sheet_field_current_density", "sheet_field_voltage", "sheet_field_slope_range"]
@@ -98,7 +98,7 @@ def _parts(v, vbi, alpha, log_p, e00, spike, s, eta1, start=None):
     L' = dq1/dv1, R' = dq2/dv2."""
     vb = vbi - v
     v1 = bending_split(vb, alpha, eta1, None, s, start=start)
-    _, _, d1, d2 = _balance(v1, vb, alpha, eta1, None, s)
+    _, _, d1, d2 = charge_balance(v1, vb, alpha, eta1, None, s)
     v2 = np.maximum(vb - v1, 0.0)                 # no depletion-side barrier where v2 <= 0
     w = charge_integral(-v2)[0]                   # e^-v2 - 1 + v2 without cancellation
     log_g, dlog_g = tunnelling_gain(w, field_energy=e00, spike_depth=spike, with_derivative=True)
@@ -223,7 +223,7 @@ def sheet_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha,
     half = v.size // 2
     lo, hi = slice(None, half), slice(half, None)            # low V (larger v1, v2, w), high V ends
     l_min, l_max = np.empty(half), np.empty(half)
-    _gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
+    gain_slope_kernel(*(np.ascontiguousarray(a, dtype=float) for a in (
         w[hi], w[lo], e00[lo], spike[lo], log_g[lo], dlog_g[hi], dlog_g[lo])), l_min, l_max)
     with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
         r_min, r_max = np.minimum(d2[lo], d2[hi]), np.maximum(d2[lo], d2[hi])

@@ -79,7 +79,7 @@ def _side_charge(x, weight, eta):
     return np.sign(x) * root, slope
 
 
-def _balance(v1, vb, alpha, eta1, eta2, s):
+def charge_balance(v1, vb, alpha, eta1, eta2, s):
     """f(v1) = q1(v1) - q2(vb - v1) - s, df/dv1, and the two charge slopes (L', R')."""
     q1, d1 = _side_charge(v1, alpha, eta1)
     q2, d2 = _side_charge(-(vb - v1), np.ones_like(v1), eta2)
@@ -103,13 +103,13 @@ def bending_split(vb, alpha, eta1=None, eta2=None, s=0.0, start=None):
     e2_ok = None if e2 is None else e2[ok]
 
     def f(v1):
-        value, slope, _, _ = _balance(v1, vb_ok, al, e1_ok, e2_ok, s_ok)
+        value, slope, _, _ = charge_balance(v1, vb_ok, al, e1_ok, e2_ok, s_ok)
         return value, slope
 
     def both_ends(lo, hi):
         """f at both ends in one evaluation (half the calls)."""
         twice = [None if e is None else np.concatenate([e, e]) for e in (e1_ok, e2_ok)]
-        value = _balance(np.concatenate([lo, hi]), np.concatenate([vb_ok, vb_ok]), np.concatenate([al, al]),
+        value = charge_balance(np.concatenate([lo, hi]), np.concatenate([vb_ok, vb_ok]), np.concatenate([al, al]),
                          *twice, np.concatenate([s_ok, s_ok]))[0]
         return value[:lo.size], value[lo.size:]
 
@@ -158,7 +158,7 @@ def general_current(v, vbi, alpha, log_richardson_t2, phi, *, eta1=None, eta2=No
     j = scale * j_red
     if not with_derivative:
         return j, None
-    _, _, d1, d2 = _balance(v1, vbi - v, alpha, eta1, eta2, s)
+    _, _, d1, d2 = charge_balance(v1, vbi - v, alpha, eta1, eta2, s)
     with np.errstate(invalid="ignore", divide="ignore"):
         u = d2 / (d1 + d2)                                    # dv1/dvb, in [0, 1]
     return j, scale * (upper * (1.0 - u) + lower * u)
@@ -211,7 +211,7 @@ def general_slope_range(v_lo, v_hi, vbi, alpha, log_richardson_t2, phi, *, eta1=
     w_up (at a + v, d(a + v)/dv = 1 - u >= 0) rises with v; the bound is linear in u, so its
     extremes lie at the corners."""
     v1 = [bending_split(vbi - v, alpha, eta1, eta2, s) for v in (v_lo, v_hi)]
-    slopes = [_balance(x, vbi - v, alpha, eta1, eta2, s)[2:] for x, v in zip(v1, (v_lo, v_hi))]
+    slopes = [charge_balance(x, vbi - v, alpha, eta1, eta2, s)[2:] for x, v in zip(v1, (v_lo, v_hi))]
     (l_lo, r_lo), (l_hi, r_hi) = slopes
     with np.errstate(invalid="ignore", divide="ignore"):
         r_min, r_max = np.minimum(r_lo, r_hi), np.maximum(r_lo, r_hi)

@@ -17,7 +17,7 @@ from dataclasses import fields, replace
 
 import numpy as np
 
-from siltandem.circuit.batch import _REPORT_ONLY, _settings, join_rows
+from siltandem.circuit.batch import REPORT_ONLY, element_settings, join_rows
 from siltandem.circuit.elements import TABLE_ROWS, take_rows
 from siltandem.circuit.graph import build_circuit
 from siltandem.errors import StackError
@@ -47,7 +47,7 @@ def _decisions(element):
 
 def _shape(element):
     """An element's class, non-numeric settings and batch-wide choices, without its name."""
-    return tuple(item for item in _settings(element)
+    return tuple(item for item in element_settings(element)
                  if not (isinstance(item, tuple) and item[0] == "name")) + _decisions(element)
 
 
@@ -114,7 +114,7 @@ def _own_rows(joined, own, row):
     """Row ``row`` of a joined element, under the name and report-only fields of ``own`` (the
     design's element it was joined from)."""
     picked = take_rows(joined, np.array([row]))
-    kept = {f: getattr(own, f) for f in _REPORT_ONLY if hasattr(own, f)}
+    kept = {f: getattr(own, f) for f in REPORT_ONLY if hasattr(own, f)}
     return replace(picked, name=own.name, **kept)
 
 
