@@ -6,23 +6,12 @@ of 5, both in one run.
 
 Run: python benchmarks/bench_narrowing_slope.py   (prints numbers; asserts nothing about time)
 """
-import statistics
-import time
-
 import numpy as np
 
 from siltandem.constants import thermal_voltage_V
 from siltandem.laws import compiled as kernels
 from siltandem.laws import silicon
-
-
-def cpu_median(function, repeats=5):
-    times = []
-    for _ in range(repeats):
-        start = time.process_time()
-        function()
-        times.append(time.process_time() - start)
-    return statistics.median(times)
+from timing import median_cpu_time as cpu_median  # benchmarks/timing.py, beside this script
 
 
 def rows(narrowing, temperature=298.15):

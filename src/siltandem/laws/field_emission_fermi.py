@@ -100,24 +100,20 @@ def fermi_field_current_density(voltage_V, *, barrier_eV, built_in_V, alpha, ric
     return (j.reshape(shape), djdv.reshape(shape)) if with_derivative else j.reshape(shape)
 
 
-def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
-                        field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf, with_derivative=False,
-                        depletion="exact"):
-    """Voltage [V] across the interface at a given current density (the inverse of
-    `fermi_field_current_density`, same keywords): safeguarded Newton (Numerical Recipes, 3rd ed.
-    2007, sec. 9.4, via numerics/roots.safeguarded_newton) on asinh(J/J0) in the reduced voltage,
-    bracketed by Vbi above and a widening lower end (J rises strictly with V). NaN above the
-    flat-band current. Returns V (and dV/dJ [V m^2 A^-1])."""
-    shape, jt, vbi, alpha, vt, log_p, e00, spike, eta1 = _arrays(
-        current_A_m2, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
-        spike_eV, accumulation_fermi_eV, depletion)
-    law = (vbi, alpha, vt, log_p, e00, spike, eta1)
-    j_flat = _current(vbi, *law)[0]
+def bracketed_inverse(current, law, jt, shape, with_derivative):
+    """V [V] (and dV/dJ [V m^2 A^-1]) where ``current(v, *law, start=None) -> (J, dJ/dV, v1)`` of a
+    thermionic-field law in reduced voltage v (law[0] = Vbi/Vt, law[2] = Vt; J rising strictly with v)
+    equals the target ``jt``: safeguarded Newton (Numerical Recipes, 3rd ed. 2007, sec. 9.4, via
+    numerics/roots.safeguarded_newton) on asinh(J/J0), J0 the flat-band current, bracketed by Vbi
+    above and a widening lower end, each step's split started from the last step's. NaN above the
+    flat-band current. Shared by this module's law and laws/field_emission_sheet.py."""
+    vbi, vt = law[0], law[2]
+    j_flat = current(vbi, *law)[0]
     scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
     last = {}
 
     def f(v):
-        j, djdv, v1 = _current(v, *law, start=last.get("v1"))
+        j, djdv, v1 = current(v, *law, start=last.get("v1"))
         last["v1"] = v1
         r = j / scale
         return np.arcsinh(r) - np.arcsinh(jt / scale), djdv * vt / scale / np.sqrt(1.0 + r * r)
@@ -136,9 +132,24 @@ def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richards
     volt = (v * vt).reshape(shape)
     if not with_derivative:
         return volt
-    _, djdv, _ = _current(v, *law)
+    _, djdv, _ = current(v, *law)
     with np.errstate(divide="ignore", invalid="ignore"):
         return volt, (1.0 / djdv).reshape(shape)
+
+
+def fermi_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K,
+                        field_energy_eV, accumulation_fermi_eV, spike_eV=np.inf, with_derivative=False,
+                        depletion="exact"):
+    """Voltage [V] across the interface at a given current density (the inverse of
+    `fermi_field_current_density`, same keywords): safeguarded Newton (Numerical Recipes, 3rd ed.
+    2007, sec. 9.4, via numerics/roots.safeguarded_newton) on asinh(J/J0) in the reduced voltage,
+    bracketed by Vbi above and a widening lower end (J rises strictly with V). NaN above the
+    flat-band current. Returns V (and dV/dJ [V m^2 A^-1])."""
+    shape, jt, vbi, alpha, vt, log_p, e00, spike, eta1 = _arrays(
+        current_A_m2, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
+        spike_eV, accumulation_fermi_eV, depletion)
+    return bracketed_inverse(_current, (vbi, alpha, vt, log_p, e00, spike, eta1), jt, shape,
+                             with_derivative)
 
 
 def fermi_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,

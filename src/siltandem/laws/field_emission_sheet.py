@@ -61,7 +61,7 @@ from siltandem.laws import thermionic as te
 from siltandem.laws.fermi_dirac import charge_integral
 from siltandem.laws.field_emission import gain_slope_kernel, tunnelling_gain
 from siltandem.laws.interface_charge import charge_balance, bending_split
-from siltandem.numerics.roots import safeguarded_newton
+from siltandem.laws.field_emission_fermi import bracketed_inverse
 
 __all__ = ["sheet_field_current_density", "sheet_field_voltage", "sheet_field_slope_range"]
 
@@ -153,36 +153,8 @@ def sheet_field_voltage(current_A_m2, *, barrier_eV, built_in_V, alpha, richards
     shape, jt, vbi, alpha, vt, log_p, e00, spike, s, eta1 = _arrays(
         current_A_m2, barrier_eV, built_in_V, alpha, richardson_A_m2_K2, temperature_K, field_energy_eV,
         spike_eV, sheet_charge, accumulation_fermi_eV, depletion)
-    law = (vbi, alpha, vt, log_p, e00, spike, s, eta1)
-    j_flat = _current(vbi, *law)[0]
-    scale = np.where(np.abs(j_flat) > 0, np.abs(j_flat), 1.0)
-    last = {}
-
-    def f(v):
-        previous = last.get("v1")
-        j, djdv, v1 = _current(v, *law, start=previous if previous is not None and previous.size == v.size
-                               else None)
-        last["v1"] = v1
-        r = j / scale
-        return np.arcsinh(r) - np.arcsinh(jt / scale), djdv * vt / scale / np.sqrt(1.0 + r * r)
-
-    ok = np.isfinite(jt) & (jt <= j_flat)
-    lo = np.where(ok, np.minimum(vbi, 0.0) - 1.0, np.nan)
-    with np.errstate(all="ignore"):
-        for _ in range(60):
-            below = ok & (f(lo)[0] > 0)
-            if not np.any(below):
-                break
-            lo = np.where(below, 2.0 * lo - 1.0, lo)
-        last.clear()
-        v = safeguarded_newton(f, lo, np.where(ok, vbi, np.nan))
-    v = np.where(ok & (jt == j_flat), vbi, v)
-    volt = (v * vt).reshape(shape)
-    if not with_derivative:
-        return volt
-    _, djdv, _ = _current(v, *law)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return volt, (1.0 / djdv).reshape(shape)
+    return bracketed_inverse(_current, (vbi, alpha, vt, log_p, e00, spike, s, eta1), jt, shape,
+                             with_derivative)
 
 
 def sheet_field_slope_range(v_low_V, v_high_V, *, barrier_eV, built_in_V, alpha, richardson_A_m2_K2,
