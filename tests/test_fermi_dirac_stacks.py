@@ -33,7 +33,7 @@ from siltandem.circuit.isotype import FERMI_DIRAC_WITHIN_KT
 from siltandem.constants import BOLTZMANN_EV_K, thermal_voltage_V
 from siltandem.laws.compiled import PARAMETER_WIDTH
 from siltandem.laws.compiled_fermi import FERMI_FORM
-from siltandem.laws.compiled_isotype import FORMS, isotype_rows, isotype_voltages
+from siltandem.laws.compiled_isotype import FORMS, fill_expansion, isotype_rows, isotype_voltages
 from siltandem.materials import load_material
 from siltandem.stack.placements import with_placement
 
@@ -164,10 +164,11 @@ def test_boltzmann_key_is_the_boltzmann_law_bit_for_bit(tmp_path):
                                             extra='statistics = "boltzmann"\n')).element("i")
     for name in ("barrier_eV", "built_in_V", "alpha", "richardson_A_m2_K2", "direction"):
         assert np.array_equal(getattr(fd, name), getattr(boltzmann, name))
-    rows = isotype_rows(built_in_V=fd.built_in_V, alpha=fd.alpha, barrier_eV=fd.barrier_eV,
-                        richardson_A_m2_K2=fd.richardson_A_m2_K2, temperature_K=T, form="exact",
-                        transport="thermionic", field_energy_eV=np.nan, spike_eV=fd.offset_eV,
-                        direction=fd.direction, width=PARAMETER_WIDTH)
+    rows = fill_expansion(isotype_rows(
+        built_in_V=fd.built_in_V, alpha=fd.alpha, barrier_eV=fd.barrier_eV,
+        richardson_A_m2_K2=fd.richardson_A_m2_K2, temperature_K=T, form="exact",
+        transport="thermionic", field_energy_eV=np.nan, spike_eV=fd.offset_eV,
+        direction=fd.direction, width=PARAMETER_WIDTH))
     assert np.array_equal(boltzmann.compiled_rows(T), rows)
     j = np.linspace(-300.0, 300.0, 41)[None, :]
     v_law, slope = isotype_voltages(rows, (fd.direction * j).copy())

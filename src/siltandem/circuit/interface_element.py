@@ -159,9 +159,11 @@ class IsotypeInterface:
             names = (GENERAL_ISOTYPE_FIELDS if general else
                      COMPILED_ISOTYPE_FIELDS | {"accumulation_fermi_eV"} if fermi_field else COMPILED_ISOTYPE_FIELDS)
             known = only_fields_set(self, names)
-            self._cache[key] = (None if not known else compiled_fermi.fermi_rows(
+            rows = (None if not known else compiled_fermi.fermi_rows(
                 **self._law(temperature_K), direction=self.direction, width=kernels.PARAMETER_WIDTH) if general
                 else self._compiled_rows(form, temperature_K))
+            # the law near zero bias as a polynomial (the compiled element pass, slope ranges)
+            self._cache[key] = None if rows is None else compiled_isotype.fill_expansion(rows)
         return self._cache[key]
 
     def _compiled_rows(self, form, temperature_K):

@@ -30,7 +30,7 @@ from siltandem.numerics.kernel_cache import drop_stale_kernels
 drop_stale_kernels(Path(__file__).resolve().parents[1], once=True)
 
 from siltandem.laws.compiled_bulk import BULK_OFFSET, BULK_WIDTH, bulk_law, bulk_slopes  # noqa: E402
-from siltandem.laws.compiled_isotype import isotype_inverse  # noqa: E402
+from siltandem.laws.compiled_isotype import ROW_WIDTH, element_inverse  # noqa: E402
 
 __all__ = ["SUBCELL_LAW", "TUNNEL_LAW", "ISOTYPE_LAW", "as_input", "parameter_rows", "evaluate_law",
            "tunnel_curvature", "invert", "invert_table", "element_voltages",
@@ -42,9 +42,9 @@ SUBCELL_LAW = 0
 TUNNEL_LAW = 1
 #: an isotype interface in :func:`element_voltages` (inverted by laws/compiled_isotype.py, no table)
 ISOTYPE_LAW = 2
-#: columns of a law's parameter rows: the law's 8 parameters, then quantities derived from them
-#: (a subcell: 1/Vt, then the 9 columns of a silicon base's recombination law, laws/compiled_bulk.py)
-PARAMETER_WIDTH = BULK_OFFSET + BULK_WIDTH
+#: columns of a law's parameter rows: the law's 8 parameters, then quantities derived from them (a
+#: subcell: 1/Vt, the 9 columns of a Si base's law, laws/compiled_bulk.py; an isotype row: ROW_WIDTH)
+PARAMETER_WIDTH = max(BULK_OFFSET + BULK_WIDTH, ROW_WIDTH)
 
 
 def as_input(x, dtype=float):
@@ -537,7 +537,7 @@ def element_voltages(current, codes, params, grid_u, grid_j, grid_slope, lengths
                         covered[e, b, i] = True
                         continue
                     # V = -s V_law(s J), dV/dJ = -1/J_law'(V_law), s = p[8] the direction
-                    v_law, law_slope = isotype_inverse(p[8] * j, p)
+                    v_law, law_slope = element_inverse(p[8] * j, p)
                     element_voltage[e, b, i] = -p[8] * v_law
                     element_slope[e, b, i] = -1.0 / law_slope
                     covered[e, b, i] = True

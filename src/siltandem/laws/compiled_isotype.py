@@ -51,7 +51,8 @@ from siltandem.laws.compiled_fermi import (FERMI_FORM, fermi_current, fermi_inve
 from siltandem.laws import compiled_field_fermi as field_fermi  # noqa: E402
 
 __all__ = ["ISOTYPE_COLUMNS", "FORMS", "isotype_rows", "isotype_current", "isotype_inverse",
-           "isotype_currents", "isotype_voltages"]
+           "isotype_currents", "isotype_voltages", "EXPANSION_COLUMN", "ROW_WIDTH", "fill_expansion",
+           "element_inverse"]
 
 #: depletion-side forms, as the law's parameter row stores them
 FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
@@ -63,6 +64,18 @@ FORMS = {"plain": 0.0, "tail": 1.0, "exact": 2.0}
 ISOTYPE_COLUMNS = field_fermi.COLUMNS
 ZERO_BIAS_COLUMN = 9
 ZERO_BIAS_GAIN_COLUMN = 10
+#: the expansion about zero bias (:func:`fill_expansion`) in the columns from here on, after the 18
+#: of a Fermi-Dirac row (laws/compiled_fermi.py): the current scale J_s = Vt dJ/dV(0) [A m^-2], the
+#: radius in j = J/J_s (0: no expansion), the coefficients a2..a5 of v(j) = j + a2 j^2 + ... + a5 j^5
+#: (v = V/Vt), the law voltages [V] -h Vt and +h Vt it was fitted over, and the law's slope range
+#: dJ/dV over them
+EXPANSION_COLUMN = 18
+#: the width a row needs for the expansion
+ROW_WIDTH = EXPANSION_COLUMN + 10
+#: radii h in reduced voltage tried in turn (the first whose check passes is kept) and the check's
+#: relative tolerance
+EXPANSION_RADII = (1e-3, 1e-4, 1e-5)
+EXPANSION_TOLERANCE = 4e-14
 
 _EPS = 2.220446049250313e-16
 _TINY = 2.2250738585072014e-308
@@ -530,12 +543,17 @@ def isotype_slope_ranges(params, v_low, v_high):
         p = params[0] if params.shape[0] == 1 else params[b]
         if p[4] == FERMI_FORM:
             for i in range(n):
-                low[b, i], high[b, i] = fermi_slope_range(v_low[b, i], v_high[b, i], p)
+                inside, low[b, i], high[b, i] = neighbourhood_range(v_low[b, i], v_high[b, i], p)
+                if not inside:
+                    low[b, i], high[b, i] = fermi_slope_range(v_low[b, i], v_high[b, i], p)
             continue
         last_low_v, last_high_v = math.nan, math.nan
         last_low = last_high = _end(math.nan, p)
         for i in range(n):
             v_a, v_b = v_low[b, i], v_high[b, i]
+            inside, low[b, i], high[b, i] = neighbourhood_range(v_a, v_b, p)
+            if inside:
+                continue
             if v_a == last_high_v:
                 end_a = last_high
             elif v_a == last_low_v:
@@ -551,3 +569,118 @@ def isotype_slope_ranges(params, v_low, v_high):
             low[b, i], high[b, i] = _range_from_ends(end_a, end_b, p)
             last_low_v, last_high_v, last_low, last_high = v_a, v_b, end_a, end_b
     return low, high
+
+
+# ---------------------------------------------------------------------------------------------
+# the law near zero bias: its inverse as a polynomial, its slope over a whole neighbourhood
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _expansion_at(p, radius):
+    """The law about zero bias through reduced voltages |v| <= h = ``radius``: (a2, a3, a4, a5,
+    j_low, j_high, worst relative misfit) of v(j) = j + a2 j^2 + a3 j^3 + a4 j^4 + a5 j^5 (v = V/Vt,
+    j = J/J_s, J_s = Vt dJ/dV(0)), where j(-h) = j_low < 0 < j(h) = j_high. The forward law's
+    j(v) = v + b2 v^2 + ... + b5 v^5 through its exact values at v = +-h and +-h/2 (odd and even
+    parts apart: two 2 x 2 systems), reverted (M. Abramowitz, I. A. Stegun, Handbook of
+    Mathematical Functions, 1964, 3.6.25), then checked against the exact law at v = +-0.75 h
+    (misfit NaN where an evaluation fails)."""
+    vt, scale = p[3], p[EXPANSION_COLUMN]
+    h = radius
+    values = np.empty(4)
+    for k, v in enumerate((h, -h, 0.5 * h, -0.5 * h)):
+        values[k] = isotype_current(v * vt, p)[0] / scale
+    if not np.all(np.isfinite(values)):
+        return 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, math.nan
+    # odd parts: h + b3 h^3 + b5 h^5 at h and h/2; even parts: b2 h^2 + b4 h^4
+    o1 = (0.5 * (values[0] - values[1]) - h) / h ** 3
+    o2 = (0.5 * (values[2] - values[3]) - 0.5 * h) / (0.125 * h ** 3)
+    e1 = 0.5 * (values[0] + values[1]) / h ** 2
+    e2 = 0.5 * (values[2] + values[3]) / (0.25 * h ** 2)
+    b5 = (o1 - o2) / (0.75 * h * h)
+    b3 = o1 - b5 * h * h
+    b4 = (e1 - e2) / (0.75 * h * h)
+    b2 = e1 - b4 * h * h
+    a2 = -b2
+    a3 = 2.0 * b2 * b2 - b3
+    a4 = -5.0 * b2 ** 3 + 5.0 * b2 * b3 - b4
+    a5 = 14.0 * b2 ** 4 - 21.0 * b2 * b2 * b3 + 6.0 * b2 * b4 + 3.0 * b3 * b3 - b5
+    worst = 0.0
+    for v in (0.75 * h, -0.75 * h):
+        j = isotype_current(v * vt, p)[0] / scale
+        if not math.isfinite(j):
+            return 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, math.nan
+        series = j * (1.0 + j * (a2 + j * (a3 + j * (a4 + j * a5))))
+        worst = max(worst, abs(series - v) / abs(v))
+    return a2, a3, a4, a5, values[1], values[0], worst
+
+
+@numba.njit(cache=True, error_model="numpy")
+def fill_expansion(params):
+    """Write each row's expansion about zero bias into its columns from EXPANSION_COLUMN (rows
+    (R, >= ROW_WIDTH), in place; returns them; narrower rows are returned as they are): for the
+    largest of EXPANSION_RADII (in reduced voltage) whose reverted polynomial meets the exact law
+    to EXPANSION_TOLERANCE (relative) at its check points, the coefficients and the current radius
+    min(j(h), -j(-h)); else radius 0 (no expansion: :func:`element_inverse` then always inverts
+    exactly).
+
+    Why: an interface of two heavily doped layers carries the stack's current with a drop of
+    microvolts, where the law is smooth (analytic in V about zero bias; a flat-band start, whose
+    depletion side is not, fails the check); the polynomial costs a few multiplications where the
+    exact inverse costs a root search with the tunnelling gain's quadrature at every step. The
+    coefficients come from the exact forward law (:func:`_expansion_at`), so they carry its own
+    rounding; the check at +-0.75 h guards the truncation (next term ~ h^6 against v ~ h). Also
+    the law's exact slope range over the whole neighbourhood |V| <= h Vt: a range over a larger
+    interval encloses every cell inside it (:func:`neighbourhood_range`)."""
+    c = EXPANSION_COLUMN
+    if params.shape[1] < ROW_WIDTH:
+        return params
+    for r in range(params.shape[0]):
+        p = params[r]
+        p[c:c + 10] = 0.0
+        slope = isotype_current(0.0, p)[1]
+        if not (math.isfinite(slope) and slope > 0.0 and math.isfinite(p[3])):
+            continue
+        p[c] = slope * p[3]
+        for radius in EXPANSION_RADII:
+            a2, a3, a4, a5, j_low, j_high, worst = _expansion_at(p, radius)
+            if not worst <= EXPANSION_TOLERANCE:
+                continue
+            v_lo, v_hi = -radius * p[3], radius * p[3]
+            s_lo, s_hi = isotype_slope_range(v_lo, v_hi, p)
+            if not (math.isfinite(s_lo) and math.isfinite(s_hi) and s_lo > 0.0):
+                continue
+            p[c + 1] = min(j_high, -j_low)
+            p[c + 2], p[c + 3], p[c + 4], p[c + 5] = a2, a3, a4, a5
+            p[c + 6], p[c + 7], p[c + 8], p[c + 9] = v_lo, v_hi, s_lo, s_hi
+            break
+    return params
+
+
+@numba.njit(cache=True, error_model="numpy")
+def element_inverse(current, p):
+    """:func:`isotype_inverse` (V [V], dJ/dV) for the compiled element pass: from the row's
+    expansion about zero bias (:func:`fill_expansion`) where |J|/J_s is within its radius, else
+    exactly. Rows narrower than ROW_WIDTH must not come here (the pass packs ROW_WIDTH or wider,
+    zero beyond a row's own columns: radius 0)."""
+    c = EXPANSION_COLUMN
+    radius = p[c + 1]
+    if radius > 0.0:
+        j = current / p[c]
+        if abs(j) <= radius:
+            a2, a3, a4, a5 = p[c + 2], p[c + 3], p[c + 4], p[c + 5]
+            v = j * (1.0 + j * (a2 + j * (a3 + j * (a4 + j * a5))))
+            dv = 1.0 + j * (2.0 * a2 + j * (3.0 * a3 + j * (4.0 * a4 + j * 5.0 * a5)))
+            return v * p[3], p[c] / (p[3] * dv)
+    return isotype_inverse(current, p)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def neighbourhood_range(v_low, v_high, p):
+    """(inside, low, high): where [v_low, v_high] lies in the inner half of the row's expansion
+    neighbourhood (law voltages; a margin far beyond the polynomial's misfit, so a cell whose
+    ends the polynomial gave is inside the exact neighbourhood too), the slope range stored for
+    the whole neighbourhood (it encloses the cell's)."""
+    c = EXPANSION_COLUMN
+    if p.size >= ROW_WIDTH and p[c + 1] > 0.0 and v_low >= 0.5 * p[c + 6] and v_high <= 0.5 * p[c + 7]:
+        return True, p[c + 8], p[c + 9]
+    return False, 0.0, 0.0
