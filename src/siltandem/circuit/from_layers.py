@@ -29,7 +29,7 @@ from siltandem.circuit import hetero
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.layer_coupling import couple_layers
 from siltandem.circuit.recognise import carriers_flow
-from siltandem.circuit.strings import device_by_string, recognise_strings, string_shading
+from siltandem.circuit.strings import device_by_string, recognised, string_shading
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, HC_EV_NM
 from siltandem.errors import StackError
@@ -114,6 +114,16 @@ def _material(layer):
     from siltandem.materials import load_material
 
     return load_material(layer.material, layer.composition, gap_eV=layer.gap_eV)
+
+
+def _remembered_material(layer, reuse):
+    """``_material``, remembered in a study's ``reuse`` dict by :func:`material_key` (a library
+    material is a pure function of it; a material file is read again, as without the dict)."""
+    from siltandem.materials import userfiles
+
+    if reuse is None or userfiles.is_material_file(layer.material):
+        return _material(layer)
+    return remembered(reuse, "material", material_key(layer), lambda: _material(layer))
 
 
 def is_silicon(layer):
@@ -609,8 +619,8 @@ def compile_layer_stack(stack, reuse=None):
                          file=file, where="temperature_K",
                          fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
     layers = stack.layers
-    structure = recognise_strings(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
-    materials = tuple(_material(layer) for layer in layers)
+    structure = recognised(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file, reuse=reuse)
+    materials = tuple(_remembered_material(layer, reuse) for layer in layers)
     _check_measured_j0(layers, structure, file)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
     details = {"subcells": {}, "tunnels": [], "interfaces": []}
