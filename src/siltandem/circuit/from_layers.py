@@ -554,9 +554,8 @@ def _tunnel_in(string, element, extra):
 
 
 def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None, string=1):
-    """The isotype interface element (in ``string``) between layers ``index`` and ``index + 1``;
-    ``reuse``: a study's dict, where it is remembered under its two layers' text, the stack's
-    polarity, the temperature, the file and the string (every input it reads)."""
+    """The isotype interface (in ``string``) below layer ``index``; ``reuse``: a study's dict, where
+    it is remembered under every input it reads (its two layers, polarity, temperature, file)."""
     if reuse is None:
         return replace(_isotype_element(index, layers, polarity, temperature_K, file), string=string)
     key = ("isotype", index, remembered_repr(reuse, layers[index]), remembered_repr(reuse, layers[index + 1]),
