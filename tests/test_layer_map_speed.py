@@ -81,3 +81,123 @@ def test_joined_parameters_equal_the_broadcast_concatenation():
             assert joined.element(cell.name).photocurrent_A_m2[k] == cell.photocurrent_A_m2[0]
     currents = [joined.element(c.name).photocurrent_A_m2[:, 0] for c in lit[0].subcells]
     assert all(len(set(c)) == 3 for c in currents[:1])     # the top subcell's differ by design
+
+
+def test_recognition_from_its_fields_equals_recognition_of_the_layers():
+    """circuit/strings.recognised works out a structure from the recognition fields alone and
+    remembers it per key: for designs of the triple demo that vary thicknesses (one key: built
+    once), a doping that keeps the roles, and dopings that flip a tunnel junction into a p-n
+    junction (another structure or the same StackError), it equals, with ``==``,
+    recognise_strings on the full layers. Reference: the recognition rules themselves
+    (circuit/recognise.py); no physics value is checked here."""
+    from siltandem.circuit.strings import recognise_strings, recognised
+    from siltandem.errors import StackError
+
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    threshold = stack.rules["tunnel_doping_cm3"]
+    designs = [{"top base.thickness_nm": 500.0}, {"top base.thickness_nm": 900.0,
+                                                  "middle base.thickness_nm": 3000.0},
+               {"middle base.doping_cm3": 3e17}, {"upper tunnel n.doping_cm3": 1e18},
+               {"upper tunnel n.doping_cm3": 1e18}, {"top base.lifetime_ns": 5.0}]
+    reuse = {}
+    outcomes = []
+    for values in designs:
+        layers = layer_design(stack, values).layers
+        try:
+            expected = recognise_strings(layers, tunnel_doping_cm3=threshold, file=stack.source)
+        except StackError as exc:
+            with pytest.raises(StackError) as found:
+                recognised(layers, tunnel_doping_cm3=threshold, file=stack.source, reuse=reuse)
+            assert str(found.value) == str(exc)
+            outcomes.append(str(exc))
+            continue
+        for memo in (reuse, None):
+            assert recognised(layers, tunnel_doping_cm3=threshold, file=stack.source,
+                              reuse=memo) == expected
+        outcomes.append(expected)
+    assert outcomes[0] is outcomes[1] or outcomes[0] == outcomes[1]
+    # the thickness designs share one structure; the doping designs are recognised apart
+    table = reuse[("remembered", "structure")]
+    assert len(table) == 3          # thicknesses, the middle base's doping, the lifetime key
+    assert isinstance(outcomes[3], str) and outcomes[3] == outcomes[4]   # refused, both times
+
+
+def test_a_thickness_map_checks_one_design_and_a_doping_map_every_design(monkeypatch):
+    """studies/sweep._check_layer_designs: varied keys that recognition does not read (thickness)
+    leave every design's recognition key that of the first, so one design is checked; a varied
+    doping checks every design and still names the first one refused."""
+    from siltandem import parse_vary
+    from siltandem.circuit import strings
+    from siltandem.errors import StackError
+    from siltandem.studies.sweep import check_designs
+
+    calls = []
+    original = strings.recognise_strings
+
+    def counted(layers, **options):
+        calls.append(tuple(layer.thickness_nm for layer in layers
+                           if hasattr(layer, "thickness_nm")))
+        return original(layers, **options)
+
+    monkeypatch.setattr(strings, "recognise_strings", counted)
+    stack = load_stack(ROOT / "stacks" / "demo_triple_layers.toml")
+    top = parse_vary("top base.thickness_nm=300:1500:4", stack)
+    middle = parse_vary("middle base.thickness_nm=1000:4000:3", stack)
+    check_designs(stack, [top, middle])
+    assert len(calls) == 1
+    calls.clear()
+    doping = parse_vary("middle base.doping_cm3=1e16:1e18:3", stack)
+    check_designs(stack, [top, doping])
+    assert len(calls) == 3          # 12 designs, 3 distinct recognition keys
+    tunnel = parse_vary("upper tunnel n.doping_cm3=1e18:2e19:3", stack)
+    with pytest.raises(StackError, match=r"--vary: design top base\.thickness_nm = 300, "
+                                         r"upper tunnel n\.doping_cm3 = 1e\+18"):
+        check_designs(stack, [top, tunnel])
+
+
+def _fields(element):
+    """Every field of an element, arrays as (dtype, shape, bytes): an exact, NaN-safe comparison."""
+    from dataclasses import fields
+
+    out = {}
+    for f in fields(element):
+        value = getattr(element, f.name)
+        if isinstance(value, np.ndarray):
+            value = (value.dtype.str, value.shape, value.tobytes())
+        elif isinstance(value, tuple) and any(isinstance(v, np.ndarray) for v in value):
+            value = tuple((v.dtype.str, v.shape, v.tobytes()) if isinstance(v, np.ndarray) else v
+                          for v in value)
+        elif isinstance(value, float) and value != value:
+            value = "nan"
+        out[f.name] = value if isinstance(value, (int, float, str, tuple, type(None), bool)) \
+            else repr(value)
+    return out
+
+
+@pytest.mark.parametrize("name, designs", [
+    ("demo_triple_layers.toml", [{"top base.thickness_nm": t, "middle base.thickness_nm": m}
+                                 for t in (450.0, 1300.0) for m in (1200.0, 2500.0)]
+     + [{"middle base.doping_cm3": 3e17}, {"top base.lifetime_ns": 5.0}]),
+    ("demo_four_terminal_layers.toml", [{"top base.thickness_nm": t} for t in (900.0, 1400.0, 900.0)]
+     + [{"silicon emitter.thickness_nm": 300.0}, {"top base.doping_cm3": 2e17}])])
+def test_compile_with_a_reuse_dict_equals_a_fresh_compile_field_by_field(name, designs):
+    """compile_stack with a study's reuse dict (the structure, materials, subcells, tunnel
+    junctions and isotype interfaces remembered with their string, the rear emission, the gaps)
+    gives, field by field with ``==`` (arrays by their bytes), every element of the compile
+    without the dict: strings and names included, for one string and for two (four terminals);
+    the model's subcells and the layer details alike. The demo stacks are INVENTED DATA; the
+    reference is the compile without any memo."""
+    stack = load_stack(ROOT / "stacks" / name)
+    reuse = {}
+    for values in designs:
+        design = layer_design(stack, values)
+        kept, fresh = compile_stack(design, reuse), compile_stack(design)
+        assert [type(e) for e in kept.elements] == [type(e) for e in fresh.elements]
+        for a, b in zip(kept.elements, fresh.elements):
+            assert _fields(a) == _fields(b), a.name
+        assert kept.model == fresh.model
+        assert repr(kept.optics) == repr(fresh.optics)
+        assert kept.strings is not None and [[e.name for e in s] for s in kept.strings] == \
+            [[e.name for e in s] for s in fresh.strings]
+    assert len({e.string for e in kept.elements}) == (2 if "four" in name else 1)
+    assert len(reuse[("remembered", "structure")]) < len(designs)      # the memo did work

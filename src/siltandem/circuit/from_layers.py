@@ -29,7 +29,7 @@ from siltandem.circuit import hetero
 from siltandem.circuit.graph import build_circuit
 from siltandem.circuit.layer_coupling import couple_layers
 from siltandem.circuit.recognise import carriers_flow
-from siltandem.circuit.strings import device_by_string, recognise_strings, string_shading
+from siltandem.circuit.strings import device_by_string, recognised, string_shading
 from siltandem.circuit.elements import Resistor, Subcell, TunnelJunction, batch
 from siltandem.constants import BOLTZMANN_EV_K, ELEMENTARY_CHARGE_C, HC_EV_NM
 from siltandem.errors import StackError
@@ -114,6 +114,16 @@ def _material(layer):
     from siltandem.materials import load_material
 
     return load_material(layer.material, layer.composition, gap_eV=layer.gap_eV)
+
+
+def _remembered_material(layer, reuse):
+    """``_material``, remembered in a study's ``reuse`` dict by :func:`material_key` (a library
+    material is a pure function of it; a material file is read again, as without the dict)."""
+    from siltandem.materials import userfiles
+
+    if reuse is None or userfiles.is_material_file(layer.material):
+        return _material(layer)
+    return remembered(reuse, "material", material_key(layer), lambda: _material(layer))
 
 
 def is_silicon(layer):
@@ -239,27 +249,50 @@ def _dark_side(cell, materials, temperature_K):
     return hetero.narrower(material_e, material_b, temperature_K) if cell.hetero else "emitter"
 
 
-def _remembered_subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance,
-                        ambient_index, reuse):
-    """``_subcell``, remembered in a study's ``reuse`` dict under every input it reads: the
-    subcell's recognised layers, its emitter and base (their keys set their materials), the
-    conditions, and its rear emission (the only thing it takes from the layers behind it), so
-    that in a map of other layers' keys it is built once per distinct emitter and base."""
+def _remembered_gap(material, temperature_K, reuse):
+    """``material.gap_eV(temperature_K)`` as a float, remembered in a study's ``reuse`` dict per
+    material object (held in the entry and checked with ``is``, so its id stays its own)."""
     if reuse is None:
-        return _subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance,
-                        ambient_index)
+        return float(material.gap_eV(temperature_K))
+    found = remembered(reuse, "gap", (id(material), float(temperature_K)),
+                       lambda: (material, float(material.gap_eV(temperature_K))))
+    return found[1] if found[0] is material else float(material.gap_eV(temperature_K))
+
+
+def _remembered_subcell(cell, layers, materials, temperature_K, file, name, suns, back_reflectance,
+                        ambient_index, reuse, string=1):
+    """``_subcell`` (its element in ``string``), remembered in a study's ``reuse`` dict under
+    every input it reads: the subcell's recognised layers, its emitter and base (their keys set
+    their materials), the conditions, and its rear emission (the only thing it takes from the
+    layers behind it; remembered too, under the base's and the later layers' keys), so that in a
+    map of other layers' keys it is built once per distinct emitter and base."""
+    if reuse is None:
+        element, model, extra = _subcell(cell, layers, materials, temperature_K, file, name, suns,
+                                         back_reflectance, ambient_index)
+        return replace(element, string=string), model, extra
     emitter, base = layers[cell.emitter], layers[cell.base]
     silicon_cell = is_silicon(emitter) and is_silicon(base)
     rear = 0.0
     if not silicon_cell:
         dark = materials[cell.emitter if _dark_side(cell, materials, temperature_K) == "emitter" else cell.base]
-        rear = _rear_emission(cell, layers, materials, float(dark.gap_eV(temperature_K)), temperature_K,
-                              back_reflectance, reuse)
-    key = (repr(cell), remembered_repr(reuse, emitter), remembered_repr(reuse, base), float(temperature_K),
-           str(file), name, float(suns),
-           float(back_reflectance), float(ambient_index), float(rear))
-    element, model, extra = remembered(reuse, "subcell", key, lambda: _subcell(
-        cell, layers, materials, temperature_K, file, name, suns, back_reflectance, ambient_index, rear=rear))
+        gap = _remembered_gap(dark, temperature_K, reuse)
+        # _rear_emission reads the base's material and the layers behind it (materials and
+        # thicknesses), the gap, the temperature and the back's reflectance
+        rear_key = (cell.base, material_key(base), tuple(remembered_repr(reuse, layer)
+                                                         for layer in layers[cell.base + 1:]),
+                    gap, float(temperature_K), float(back_reflectance))
+        rear = remembered(reuse, "rear emission", rear_key, lambda: _rear_emission(
+            cell, layers, materials, gap, temperature_K, back_reflectance, reuse))
+    key = (remembered_repr(reuse, cell), remembered_repr(reuse, emitter), remembered_repr(reuse, base),
+           float(temperature_K), str(file), name, float(suns),
+           float(back_reflectance), float(ambient_index), float(rear), string)
+
+    def build():
+        element, model, extra = _subcell(cell, layers, materials, temperature_K, file, name, suns,
+                                         back_reflectance, ambient_index, rear=rear)
+        return replace(element, string=string), model, extra
+
+    element, model, extra = remembered(reuse, "subcell", key, build)
     return element, model, dict(extra)       # the caller adds to the details: a copy of its own
 
 
@@ -515,7 +548,23 @@ def _tunnel(index, layers, materials, temperature_K, file):
                      "layers": [upper.name, lower.name]}
 
 
-def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None):
+def _tunnel_in(string, element, extra):
+    """A tunnel junction's (element, details) with the element in ``string``."""
+    return replace(element, string=string), extra
+
+
+def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None, string=1):
+    """The isotype interface (in ``string``) below layer ``index``; ``reuse``: a study's dict, where
+    it is remembered under every input it reads (its two layers, polarity, temperature, file)."""
+    if reuse is None:
+        return replace(_isotype_element(index, layers, polarity, temperature_K, file), string=string)
+    key = ("isotype", index, remembered_repr(reuse, layers[index]), remembered_repr(reuse, layers[index + 1]),
+           polarity, float(temperature_K), str(file), string)
+    return remembered(reuse, "isotype", key, lambda: replace(
+        _isotype_element(index, layers, polarity, temperature_K, file), string=string))
+
+
+def _isotype_element(index, layers, polarity, temperature_K, file):
     from siltandem.circuit.isotype import isotype_from_materials
     from siltandem.stack.load import ElementSpec
 
@@ -537,13 +586,7 @@ def _isotype(index, layers, materials, polarity, temperature_K, file, reuse=None
     if upper.statistics is not None:
         values["statistics"] = upper.statistics
     spec = ElementSpec(upper.index, "isotype", f"interface {upper.name} / {lower.name}", 1, values)
-    if reuse is None:
-        return isotype_from_materials(spec, temperature_K, file, (upper.name, lower.name))
-    # the interface is a pure function of its two layers' keys: built once per study
-    key = ("isotype", repr(spec), float(temperature_K), str(file))
-    if key not in reuse:
-        reuse[key] = isotype_from_materials(spec, temperature_K, file, (upper.name, lower.name))
-    return reuse[key]
+    return isotype_from_materials(spec, temperature_K, file, (upper.name, lower.name))
 
 
 def _cell_name(cell, layers, used):
@@ -609,8 +652,8 @@ def compile_layer_stack(stack, reuse=None):
                          file=file, where="temperature_K",
                          fix="give the cell temperature in kelvin, e.g. 298.15 for 25 degC")
     layers = stack.layers
-    structure = recognise_strings(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file)
-    materials = tuple(_material(layer) for layer in layers)
+    structure = recognised(layers, tunnel_doping_cm3=stack.rules["tunnel_doping_cm3"], file=file, reuse=reuse)
+    materials = tuple(_remembered_material(layer, reuse) for layer in layers)
     _check_measured_j0(layers, structure, file)
     elements, cell_models, notes, used = [], [], list(structure.notes), set()
     details = {"subcells": {}, "tunnels": [], "interfaces": []}
@@ -621,7 +664,8 @@ def compile_layer_stack(stack, reuse=None):
             try:
                 element, model, extra = _remembered_subcell(
                     info["cell"], layers, materials, temperature, file, name, stack.conditions.suns,
-                    stack.rules.get("back_reflectance", 0.0), stack.rules.get("ambient_index", 1.0), reuse)
+                    stack.rules.get("back_reflectance", 0.0), stack.rules.get("ambient_index", 1.0), reuse,
+                    info["string"])
             except checks.CollectionParameterError as exc:
                 cell = info["cell"]
                 raise StackError(f"subcell {name!r}: {exc}", file=file,
@@ -629,22 +673,23 @@ def compile_layer_stack(stack, reuse=None):
                                        f"{layers[cell.base].label}",
                                  fix="check the emitter's and base's thickness, doping, "
                                      "diffusion length or lifetime and srv_cm_s") from None
-            elements.append(replace(element, string=info["string"]))
+            elements.append(element)
             cell_models.append(model)
             details["subcells"][name] = extra
         elif kind == "tunnel":
             upper = info["upper"]
             # a pure function of its two layers' keys (they set their materials): built once per study
             element, extra = remembered(
-                reuse, "tunnel", (upper, repr(layers[upper]), repr(layers[upper + 1]), float(temperature),
-                                  str(file)),
-                lambda upper=upper: _tunnel(upper, layers, materials, temperature, file))
-            extra = dict(extra)
-            elements.append(replace(element, string=info["string"]))
-            details["tunnels"].append(extra)
+                reuse, "tunnel", (upper, remembered_repr(reuse, layers[upper]),
+                                  remembered_repr(reuse, layers[upper + 1]), float(temperature), str(file),
+                                  info["string"]),
+                lambda upper=upper, string=info["string"]: _tunnel_in(string, *_tunnel(
+                    upper, layers, materials, temperature, file)))
+            elements.append(element)
+            details["tunnels"].append(dict(extra))
         else:
-            elements.append(replace(_isotype(info["upper"], layers, materials, info["polarity"],
-                                             temperature, file, reuse), string=info["string"]))
+            elements.append(_isotype(info["upper"], layers, materials, info["polarity"], temperature, file,
+                                     reuse, info["string"]))
             i = info["upper"]
             details["interfaces"].append({"name": elements[-1].name,
                                           "layers": [layers[i].name, layers[i + 1].name]})

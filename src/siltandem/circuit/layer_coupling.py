@@ -106,10 +106,10 @@ def subcell_coupling(model, upper, lower, element, *, back_reflectance=0.0, back
     # between and the lower subcell's first layer: the materials, not the thicknesses
     rays = (gap, temperature, _layer_key(layers[up[0]]), tuple(_layer_key(layers[j]) for j in between),
             _layer_key(layers[lower.emitter]))
-    emission_key = (rays, repr(upper), tuple(remembered_repr(reuse, layers[j]) for j in up + between))
+    emission_key = (rays, remembered_repr(reuse, upper), tuple(remembered_repr(reuse, layers[j]) for j in up + between))
     emission, arriving, emitted = remembered(reuse, "coupling emission", emission_key,
                                              lambda: _slim(*arriving_emission(model, upper, lower, gap, reuse=reuse)))
-    response_key = (rays, repr(lower), tuple(remembered_repr(reuse, layer)
+    response_key = (rays, remembered_repr(reuse, lower), tuple(remembered_repr(reuse, layer)
                                              for layer in layers[min(lower.emitter, lower.base):]),
                     float(back_reflectance), float(back_haze))
     collected_per, absorbed_per = remembered(
@@ -284,10 +284,11 @@ def couple_layers(elements, model, *, file=None, reuse=None, front_factors=None)
     out = []
     for e in elements:
         if isinstance(e, Subcell) and e.name in values:
-            e = replace(e, luminescent_coupling=batch(values[e.name]))
+            changes = {"luminescent_coupling": batch(values[e.name])}
             if e.bulk is None and e.j01_fixed_A_m2 is not None:
                 # the radiative floor counts the emission into the layers below too (else the
                 # coupled light could exceed what the subcell recombines)
-                e = replace(e, j01_fixed_A_m2=np.maximum(e.j01_fixed_A_m2, floors[e.name]))
+                changes["j01_fixed_A_m2"] = np.maximum(e.j01_fixed_A_m2, floors[e.name])
+            e = replace(e, **changes)
         out.append(e)
     return out, couplings

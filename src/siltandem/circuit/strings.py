@@ -5,9 +5,52 @@ tunnel junctions and isotype interfaces, with its own polarity (one string may b
 next p-on-n: they share no current). The boundary between two strings joins nothing electrically
 (a bond, an insulating glue or an air gap in the device); light crosses it as any other boundary.
 """
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 from siltandem.circuit.recognise import Structure, recognise
+from siltandem.numerics.memo import remembered
+from siltandem.stack.layers import Layer
+
+#: the Layer fields recognition reads (circuit/recognise.py and :func:`recognise_strings`; ``label``
+#: is made of index and name): a stack's structure is a pure function of them and the threshold
+RECOGNITION_FIELDS = ("index", "name", "material", "composition", "polarity", "doping_cm3",
+                      "diffusion_length_um", "lifetime_ns", "srh_lifetime_ns", "string")
+
+
+@dataclass(frozen=True)
+class RecognitionLayer:
+    """A layer as recognition sees it: the :data:`RECOGNITION_FIELDS` of a Layer, nothing else (a
+    rule that read another field would fail on it, not silently reuse a structure)."""
+
+    index: int
+    name: str
+    material: str
+    composition: float | None
+    polarity: str
+    doping_cm3: float
+    diffusion_length_um: float | None
+    lifetime_ns: float | None
+    srh_lifetime_ns: float | None
+    string: int
+
+    label = Layer.label
+
+
+def recognition_key(layers):
+    """The :data:`RECOGNITION_FIELDS` of every layer: equal keys, equal structures."""
+    return tuple(tuple(getattr(layer, name) for name in RECOGNITION_FIELDS) for layer in layers)
+
+
+def recognised(layers, *, tunnel_doping_cm3, file=None, reuse=None):
+    """:func:`recognise_strings` of ``layers``, worked out from their :func:`recognition_key` alone
+    (:class:`RecognitionLayer`) and remembered in ``reuse`` (a study's dict) under that key, the
+    threshold and the file: the designs of a map whose varied keys recognition does not read
+    (a thickness, a gap, a surface velocity...) share one structure, built once. The structure is
+    shared: callers read it, never change it. StackErrors are raised again for every design."""
+    key = recognition_key(layers)
+    return remembered(reuse, "structure", (key, float(tunnel_doping_cm3), str(file)),
+                      lambda: recognise_strings([RecognitionLayer(*fields) for fields in key],
+                                                tunnel_doping_cm3=tunnel_doping_cm3, file=file))
 
 
 def _shifted(info, offset, number, polarity):

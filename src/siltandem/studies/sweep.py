@@ -255,16 +255,21 @@ def _check_layer_designs(stack, variations, *, grid=True):
     """Every layer design read by the layer compiler's rules (compile_layers.recognise) before
     any design is solved: a doping that turns a tunnel junction into a p-n junction fails here,
     named with its design, not in the middle of the study."""
-    from siltandem.circuit.strings import recognise_strings as recognise
+    from siltandem.circuit.strings import RECOGNITION_FIELDS, recognised
 
     threshold = stack.rules["tunnel_doping_cm3"]
     table = design_table(variations, grid=grid)
     columns = {v.column: table[v.column].to_numpy() for v in variations}
-    for index in range(len(table)):
+    # keys that recognition does not read (a thickness...) leave every design's recognition key
+    # (circuit/strings.py) that of the first: one design stands for all
+    layers = {layer.name for layer in stack.layers}
+    read = any(v.key in RECOGNITION_FIELDS for v in variations if v.element in layers)
+    reuse = {}          # designs of equal recognition keys recognised once
+    for index in range(len(table) if read else min(len(table), 1)):
         values = {column: array[index] for column, array in columns.items()}
         try:
-            recognise(layer_design(stack, values).layers, tunnel_doping_cm3=threshold,
-                      file=stack.source)
+            recognised(layer_design(stack, values).layers, tunnel_doping_cm3=threshold,
+                       file=stack.source, reuse=reuse)
         except StackError as exc:
             design = ", ".join(f"{c} = {float(x):g}" for c, x in values.items())
             raise StackError(exc.problem, file=exc.file, where=f"--vary: design {design}"
