@@ -606,3 +606,25 @@ def take_rows(element, rows):
                for name, value in vars(element).items() if not name.startswith("_") and (
                    many(value) or (isinstance(value, tuple) and any(many(v) for v in value)))}
     return replace(element, **changes) if changes else element
+
+
+def take_rows_with_tables(element, rows, temperature_K, rows_temperature_K):
+    """:func:`take_rows`, and for a subcell the rows of its law parameters and junction table
+    already built at ``temperature_K`` carried to the restriction, whose temperature is
+    ``rows_temperature_K`` (its rows of it, or the same): each row of kernels.subcell_table and
+    kernels.parameter_rows is its own design's law alone, so these are the numbers building
+    them again would give (the certificate's later passes run on a string of the unproven
+    designs alone, solve/string.py SeriesString.rows)."""
+    taken = take_rows(element, rows)
+    if taken is element or element.kind != "subcell":
+        return taken
+    old, new = _temperature_key(temperature_K), _temperature_key(rows_temperature_K)
+    params = element._cache.get(("parameters", old))
+    if params is not None:
+        taken._cache.setdefault(("parameters", new), params if params.shape[0] == 1 else params[rows])
+    table = element._cache.get(("table", old))
+    if table is not None:
+        taken._cache.setdefault(("table", new), table if table.rows == 1 else LawTable(
+            table.u[rows], table.j[rows], table.slope[rows]))
+    return taken
+

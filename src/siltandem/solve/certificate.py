@@ -287,8 +287,8 @@ def cell_bounds(string, segment, target, open_circuit=None):
             & (view.t[:, 1:] > view.t[:, :-1]))
     if np.any(need):
         # (a row's padding repeats one of its cells: the same bound is written twice)
-        cells, _ = _compact(need)
-        slope, spread = slope_bounds(string, view, cells)
+        cells, real = _compact(need)
+        slope, spread = slope_bounds(string, view, cells, real)
         rows = np.arange(bound.shape[0])[:, None]
         bound[rows, cells] = np.minimum(bound[rows, cells], slope)
         width[rows, cells] = spread

@@ -53,15 +53,28 @@ def _laws(string):
     return cache[key]
 
 
-def _law_slopes(code, params, lo, hi):
-    """kernels.slope_range over stacked laws: params (L, B, P), intervals (L, B, K)."""
+def _law_slopes(code, params, lo, hi, needed=None):
+    """kernels.slope_range over stacked laws: params (L, B, P), intervals (L, B, K).
+    ``needed`` (L, B, K) bool: only those entries are evaluated (each entry's range is its own:
+    the same numbers), the others are NaN."""
     laws, size, width = lo.shape
     params = np.broadcast_to(params, (laws, size, params.shape[2]))
-    low, high = kernels.slope_range(
-        code, kernels.as_input(params.reshape(laws * size, -1)),
-        kernels.as_input(lo.reshape(laws * size, width)),
-        kernels.as_input(hi.reshape(laws * size, width)))
-    return low.reshape(lo.shape), high.reshape(lo.shape)
+    if needed is None:
+        low, high = kernels.slope_range(
+            code, kernels.as_input(params.reshape(laws * size, -1)),
+            kernels.as_input(lo.reshape(laws * size, width)),
+            kernels.as_input(hi.reshape(laws * size, width)))
+        return low.reshape(lo.shape), high.reshape(lo.shape)
+    law, row, cell = np.nonzero(needed)
+    low, high = np.full(lo.shape, np.nan), np.full(lo.shape, np.nan)
+    if law.size:
+        # one entry per parameter row (kernels.slope_range takes rows (R, P), intervals (R, 1))
+        some_low, some_high = kernels.slope_range(
+            code, kernels.as_input(params[law, row]),
+            kernels.as_input(lo[law, row, cell][:, None]),
+            kernels.as_input(hi[law, row, cell][:, None]))
+        low[law, row, cell], high[law, row, cell] = some_low[:, 0], some_high[:, 0]
+    return low, high
 
 
 def _reciprocal(low, high):
@@ -98,10 +111,55 @@ def _coupled_slopes(string, vj_high, steep, flat, count, by_current):
     return steep, flat
 
 
-def slope_bounds(string, segment, cells):
+def _distinct(cells, real):
+    """The cells to evaluate and which entries to evaluate: ``cells`` (B, K) as
+    certificate._compact pads them (a row's padding repeats its first cell), ``real`` (B, K)
+    its real entries. Returns (cells, own): the padding points at the row's last real cell
+    instead (an isotype interface's kernel then reuses that cell's ends: laws/compiled_isotype.py
+    isotype_slope_ranges), and ``own`` marks the entries whose answers are their own (the real
+    ones, and a row's first entry, which is evaluated even in a row with none real); every
+    other entry's answer is its row's first entry's (the cell it repeats)."""
+    own = real.copy()
+    own[:, 0] = True
+    last = np.maximum(real.sum(axis=1), 1)[:, None] - 1
+    return np.where(own, cells, np.take_along_axis(cells, last, axis=1)), own
+
+
+def slope_bounds(string, segment, cells, real=None):
     """The slope (mean value) bound of P over the cells ``cells`` (B, K) of a segment (indices
     of their left ends), and the width of the dP/dt range per unit of t there (B, K): inf
-    where some slope range is unbounded."""
+    where some slope range is unbounded.
+
+    ``real`` (B, K), optional: the entries that are cells of their own (certificate._compact:
+    the rest repeat the row's first cell). Then only those laws' slope ranges are evaluated that
+    the bound reads (the pilot's range over t, the other subcells' over their junction
+    voltages, the pilot's junction range only where it sends light to a coupled subcell), and
+    each repeated entry takes its row's first answer: the same numbers as evaluating all."""
+    own = None
+    if real is not None:
+        cells, own = _distinct(cells, real)
+    bound, width = _slope_bounds(string, segment, cells, own)
+    if own is not None:
+        bound = np.where(own, bound, bound[:, :1])
+        width = np.where(own, width, width[:, :1])
+    return bound, width
+
+
+def _needed_subcell_ranges(string, laws, own, count, by_current):
+    """(L, B, K) bool: the subcell law slope ranges :func:`_slope_bounds` reads, of the entries
+    ``own`` (B, K); L = count, or 2 count with the ranges over t after the junction ranges."""
+    if by_current:
+        return np.broadcast_to(own, (count,) + own.shape)
+    pilot = laws["pilot"]                                            # (count, B, 1)
+    sources = np.array([any(getattr(c, "source", None) is s for c in string.subcells)
+                        for s in string.subcells])[:, None, None]
+    junction = (~pilot | sources) & own
+    return np.concatenate([junction, pilot & own])
+
+
+def _slope_bounds(string, segment, cells, own):
+    """:func:`slope_bounds` on the padded cells; ``own`` (B, K) or None: the entries whose
+    answers are read (NaN-valued law ranges elsewhere)."""
     rows = np.arange(cells.shape[0])[:, None]
     a, b = segment.data[:, rows, cells], segment.data[:, rows, cells + 1]
     t_a, t_b, j_a, j_b, p_a, p_b = a[_T], b[_T], a[_J], b[_J], a[_P], b[_P]
@@ -122,9 +180,12 @@ def slope_bounds(string, segment, cells):
             lows.append(np.broadcast_to(t_a, va.shape))
             highs.append(np.broadcast_to(t_b, va.shape))
         params = laws["subcell_params"]
+        needed = None if own is None else _needed_subcell_ranges(string, laws, own, count,
+                                                                 by_current)
         steep, flat = _law_slopes(kernels.SUBCELL_LAW,
                                   np.concatenate([params] * len(lows)) if len(lows) > 1
-                                  else params, np.concatenate(lows), np.concatenate(highs))
+                                  else params, np.concatenate(lows), np.concatenate(highs),
+                                  needed)
         if string.coupled:
             steep, flat = _coupled_slopes(string, np.concatenate(highs)[:count], steep, flat,
                                           count, by_current)
@@ -141,7 +202,9 @@ def slope_bounds(string, segment, cells):
         if kinds["tunnel"]:
             ua, ub = -parts_a[kinds["tunnel"]], -parts_b[kinds["tunnel"]]
             low, high = _law_slopes(kernels.TUNNEL_LAW, laws["tunnel_params"],
-                                    np.minimum(ua, ub), np.maximum(ua, ub))
+                                    np.minimum(ua, ub), np.maximum(ua, ub),
+                                    None if own is None else
+                                    np.broadcast_to(own, ua.shape))
             lo, hi = _reciprocal(low, high)
             s_lo, s_hi = s_lo - hi.sum(axis=0), s_hi - lo.sum(axis=0)
         for k in kinds["isotype"]:

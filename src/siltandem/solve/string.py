@@ -8,7 +8,7 @@ import numpy as np
 
 from siltandem.laws import compiled as kernels
 from siltandem.circuit.coupling import couple_string, is_coupled
-from siltandem.circuit.elements import take_rows
+from siltandem.circuit.elements import take_rows_with_tables
 from siltandem.numerics.tables import LawTable
 from siltandem.solve.kernels import string_pass
 
@@ -237,7 +237,9 @@ class SeriesString:
         temperature = self.temperature_K
         if np.ndim(temperature) == 2 and np.shape(temperature)[0] > 1:
             temperature = temperature[rows]
-        return SeriesString([take_rows(e, rows) for e in self.given], temperature)
+        # (a subcell's tables built for the whole batch serve the restriction: their rows)
+        return SeriesString([take_rows_with_tables(e, rows, self.temperature_K, temperature)
+                             for e in self.given], temperature)
 
     def _select(self, per_subcell):
         *values, index = np.broadcast_arrays(*per_subcell, self.pilot_index)
