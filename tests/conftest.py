@@ -20,3 +20,18 @@ def radiative_cells(gaps, spectrum, absorptances=None):
                                            spectrum.photon_flux)
     return [Subcell(f"cell{i}", batch(g), absorptance=batch(a)).with_photocurrent(j)
             for i, (g, a, j) in enumerate(zip(gaps, absorptances, currents))]
+
+
+@pytest.fixture(scope="session")
+def summer_days():
+    """About a week of June of pvlib's bundled TMY3 file 723170TYA.CSV (hourly rows 3900-4068:
+    some 100 hours with light), for tests that compare two ways of solving a year's hours."""
+    from dataclasses import replace
+    from pathlib import Path
+
+    import pvlib
+
+    from siltandem.materials import weather as weather_files
+
+    weather = weather_files.read_weather(Path(pvlib.__file__).parent / "data" / "723170TYA.CSV")
+    return replace(weather, data=weather.data.iloc[3900:4068])

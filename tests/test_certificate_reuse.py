@@ -15,17 +15,14 @@ Reference: the same computation without the reuse (identity, not physics; the ce
 bounds are checked against exhaustive sampling in tests/test_global_mpp.py). The stack is the
 invented demo triple (stacks/demo_triple_layers.toml): demo data, used for invariants only.
 """
-from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
-import pvlib
 import pytest
 
 from siltandem import load_stack
 from siltandem.circuit import elements as element_module
 from siltandem.circuit.compile import compile_stack
-from siltandem.materials import weather as weather_files
 from siltandem.materials.spectra import get_spectrum
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve import certificate, slopes
@@ -35,7 +32,6 @@ from siltandem.studies import yield_year as Y
 
 ROOT = Path(__file__).resolve().parents[1]
 TRIPLE = ROOT / "stacks" / "demo_triple_layers.toml"
-WEATHER = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
 
 
 def _coupled_triple(scales):
@@ -135,13 +131,6 @@ def test_rows_of_a_string_take_the_batchs_tables(sampled):
     a, b = part.evaluate(t, slopes=True), fresh_string.evaluate(t, slopes=True)
     for name in ("current", "voltage", "dcurrent", "dvoltage"):
         np.testing.assert_array_equal(a[name], b[name])
-
-
-@pytest.fixture(scope="module")
-def summer_days():
-    weather = weather_files.read_weather(WEATHER)
-    # about a week of June (hourly rows 3900-4068 of the TMY3 year): some 100 hours with light
-    return replace(weather, data=weather.data.iloc[3900:4068])
 
 
 def test_year_equals_the_year_evaluating_every_range_and_rebuilding_tables(summer_days, monkeypatch):

@@ -21,7 +21,6 @@ from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
-import pvlib
 import pytest
 
 from siltandem import load_stack
@@ -30,7 +29,6 @@ from siltandem.circuit.elements import Subcell
 from siltandem.laws import compiled as kernels
 from siltandem.laws.compiled_untabled import subcell_inverse_untabled
 from siltandem.numerics.tables import LawTable
-from siltandem.materials import weather as weather_files
 from siltandem.materials.spectra import get_spectrum
 from siltandem.optics.illuminate import illuminate
 from siltandem.solve.string import SeriesString
@@ -38,7 +36,6 @@ from siltandem.studies import yield_year as Y
 
 ROOT = Path(__file__).resolve().parents[1]
 TRIPLE = ROOT / "stacks" / "demo_triple_layers.toml"
-WEATHER = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
 
 
 def test_on_string_shares_the_cache_and_a_new_photocurrent_does_not():
@@ -120,13 +117,6 @@ def test_a_lone_pilot_is_inverted_without_a_table_and_the_same_numbers():
     # open circuit: the junction law carries (almost) no current there
     j, _ = silicon.junction_current(t[:, :1], temperature)
     assert np.all(np.abs(j) < 1e-6 * lone.pilot_photocurrent)
-
-
-@pytest.fixture(scope="module")
-def summer_days():
-    weather = weather_files.read_weather(WEATHER)
-    # about a week of June (hourly rows 3900-4068 of the TMY3 year): some 100 hours with light
-    return replace(weather, data=weather.data.iloc[3900:4068])
 
 
 def test_year_with_shared_and_untabled_inverses_equals_the_year_building_every_table(summer_days, monkeypatch):
